@@ -1,0 +1,87 @@
+"""The ``lensmass`` command line.
+
+Each subcommand lives in ``lensmass/commands/<name>.py`` with two functions,
+``add_arguments(parser)`` and ``run(args) -> int``, and is imported only when
+used, so ``lensmass estimate`` starts fast. Bad input is reported as one line
+on stderr with a non-zero exit status, never a traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+
+#: name -> (module, one-line help). Modules are imported lazily.
+SUBCOMMANDS: dict[str, tuple[str, str]] = {
+    "estimate": ("lensmass.commands.estimate", "Einstein radius + redshifts -> distances, Sigma_cr, masses."),
+    "measure": ("lensmass.commands.measure", "Measure theta_E on an image (points file or ring finder), then estimate."),
+    "shear": ("lensmass.commands.shear", "Weak-lensing shear catalogue -> profile, SIS/NFW fits, aperture mass, map."),
+    "batch": ("lensmass.commands.batch", "Run estimate/measure over every row of a manifest."),
+    "grade": ("lensmass.commands.grade", "Grade a class's lensing answers and diagnose the classic mistakes."),
+    "demo": ("lensmass.commands.demo", "Write the synthetic demo fields (ray-traced) into a folder."),
+    "gui": ("lensmass.commands.gui", "Open the desktop window (optionally on an image or session)."),
+}
+
+#: Exit status for bad input (one-line message on stderr).
+EXIT_BAD_INPUT = 2
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="lensmass",
+        description="From a lensing image to a defensible, model-labelled mass.",
+    )
+    from lensmass import __version__
+
+    parser.add_argument("--version", action="version", version=f"lensmass {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    wanted = sys.argv[1] if len(sys.argv) > 1 else None
+    for name, (module_name, help_text) in SUBCOMMANDS.items():
+        p = sub.add_parser(name, help=help_text, description=help_text)
+        # Only the chosen command's module is imported (fast start); --help lists all.
+        if wanted == name:
+            module = _load(module_name)
+            if module is not None:
+                module.add_arguments(p)
+                p.set_defaults(_module=module)
+    return parser
+
+
+def _load(module_name: str):
+    try:
+        return importlib.import_module(module_name)
+    except ModuleNotFoundError as exc:
+        if exc.name == module_name:
+            return None
+        raise
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Entry point of the ``lensmass`` console script."""
+    if argv is not None:
+        sys.argv = [sys.argv[0], *argv]
+    args_list = sys.argv[1:]
+    if not args_list:
+        args_list = ["gui"]
+        sys.argv = [sys.argv[0], "gui"]
+    parser = build_parser()
+    args = parser.parse_args(args_list)
+    module = getattr(args, "_module", None)
+    if module is None:
+        print(f"lensmass: the '{args.command}' command is not available in this build.", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    from lensmass.core.errors import LensInputError
+
+    try:
+        return int(module.run(args) or 0)
+    except LensInputError as exc:
+        print(f"lensmass {args.command}: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        print(f"lensmass {args.command}: interrupted.", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,1 @@
+"""One module per ``lensmass`` subcommand: ``add_arguments(parser)`` and ``run(args)``."""

@@ -1,0 +1,86 @@
+"""Concentration-mass relations for NFW haloes.
+
+References
+----------
+Duffy, Schaye, Kay & Dalla Vecchia (2008), MNRAS 390, L64, Table 1, "full" sample,
+  z = 0-2: c = A (M / M_pivot)^B (1 + z)^C with M_pivot = 2e12 h^-1 Msun;
+  Delta = 200 critical: A = 5.71, B = -0.084, C = -0.47;
+  virial: A = 7.85, B = -0.081, C = -0.71; 200 mean: A = 10.14, B = -0.081, C = -1.01
+  (the virial and mean rows are quoted from memory; the 200c row is in shared/REFERENCES.md).
+Dutton & Maccio (2014), MNRAS 441, 3359, eqs. (7)-(8), Delta = 200 critical:
+  log10 c = a + b log10(M / 1e12 h^-1 Msun), a = 0.520 + 0.385 exp(-0.617 z^1.21),
+  b = -0.101 + 0.026 z; and their virial fit, eqs. (9)-(10) (from memory):
+  a = 0.537 + 0.488 exp(-0.718 z^1.08), b = -0.097 + 0.024 z.
+"""
+
+from __future__ import annotations
+
+from typing import Callable
+
+import numpy as np
+
+from lensmass.core.errors import LensInputError
+
+_DUFFY08 = {
+    "200c": (5.71, -0.084, -0.47),
+    "vir": (7.85, -0.081, -0.71),
+    "200m": (10.14, -0.081, -1.01),
+}
+
+#: Human descriptions used in the output's assumption notes.
+RELATION_LABELS = {
+    "duffy08": "Duffy et al. (2008) c(M, z), full sample",
+    "dutton14": "Dutton & Maccio (2014) c(M, z)",
+}
+
+
+def duffy08_concentration(m_msun, z, h: float, definition: str = "200c") -> np.ndarray:
+    """Duffy et al. (2008) concentration for mass ``m_msun`` (Msun, not h^-1) at redshift z.
+
+    Examples
+    --------
+    >>> round(float(duffy08_concentration(2e12 / 0.7, 0.0, 0.7)), 2)
+    5.71
+    """
+    a, b, c = _DUFFY08[definition]
+    m_pivot = 2e12 / h
+    return a * (np.asarray(m_msun, float) / m_pivot) ** b * (1 + np.asarray(z, float)) ** c
+
+
+def dutton14_concentration(m_msun, z, h: float, definition: str = "200c") -> np.ndarray:
+    """Dutton & Maccio (2014) concentration (Planck cosmology fit) for 200c or virial haloes."""
+    z = np.asarray(z, float)
+    if definition == "200c":
+        a = 0.520 + (0.905 - 0.520) * np.exp(-0.617 * z**1.21)
+        b = -0.101 + 0.026 * z
+    elif definition == "vir":
+        a = 0.537 + (1.025 - 0.537) * np.exp(-0.718 * z**1.08)
+        b = -0.097 + 0.024 * z
+    else:
+        raise LensInputError(
+            "Dutton & Maccio (2014) give no 200-mean relation: use --concentration duffy08 "
+            "or a fixed value with --halo-definition 200m."
+        )
+    return 10 ** (a + b * np.log10(np.asarray(m_msun, float) * h / 1e12))
+
+
+def concentration_relation(spec, definition: str = "200c") -> tuple[Callable, str]:
+    """Return ``(c(m_msun, z, h), label)`` for ``"duffy08"``, ``"dutton14"`` or a number."""
+    if isinstance(spec, str):
+        key = spec.strip().lower()
+        if key == "duffy08":
+            return (lambda m, z, h: duffy08_concentration(m, z, h, definition)), RELATION_LABELS[key]
+        if key == "dutton14":
+            if definition == "200m":
+                dutton14_concentration(1e12, 0.0, 0.7, definition)  # raises the clear message
+            return (lambda m, z, h: dutton14_concentration(m, z, h, definition)), RELATION_LABELS[key]
+        try:
+            spec = float(key)
+        except ValueError:
+            raise LensInputError(
+                f"Unknown concentration '{spec}': use duffy08, dutton14 or a number such as 5."
+            ) from None
+    value = float(spec)
+    if not (np.isfinite(value) and value > 0):
+        raise LensInputError(f"A fixed concentration must be a positive number, got {spec}.")
+    return (lambda m, z, h: np.full(np.broadcast(np.asarray(m), np.asarray(z)).shape, value)), f"fixed c = {value:g}"

@@ -1,0 +1,327 @@
+"""The main job: from an Einstein radius and two redshifts to labelled masses.
+
+Every number here comes from the physics modules beside this one; the window,
+the command line and the batch runner all call :func:`estimate`, so each number
+has one source.
+"""
+
+from __future__ import annotations
+
+from typing import Any, Callable
+
+import numpy as np
+
+from lensmass.core.concentration import concentration_relation
+from lensmass.core.cosmology import angular_diameter_distances_mpc, cosmology_label, resolve_cosmology
+from lensmass.core.errors import LensInputError
+from lensmass.core.lensing import arcsec_to_mpc, sigma_crit_msun_per_mpc2
+from lensmass.core.nfw import HALO_DEFINITIONS, nfw_mass_for_einstein_radius, overdensity_density_msun_per_mpc3
+from lensmass.core.sis import sis_sigma_v_kms
+from lensmass.core.uncertainty import (
+    DEFAULT_SAMPLES,
+    DEFAULT_SEED,
+    distribution_samples,
+    normal_samples,
+    summarize_many,
+)
+
+#: Keys whose values are derived numbers (each gets a median and intervals).
+DERIVED_KEYS = (
+    "theta_e_arcsec",
+    "z_l",
+    "z_s",
+    "d_l_mpc",
+    "d_s_mpc",
+    "d_ls_mpc",
+    "sigma_cr_msun_per_pc2",
+    "r_e_kpc",
+    "mass_einstein_msun",
+    "sis_sigma_v_kms",
+    "nfw_m200_msun",
+    "nfw_c200",
+    "nfw_r200_kpc",
+)
+
+#: Einstein radii below this are treated as galaxy-scale for the NFW caveat (common practice:
+#: about 1" for massive single galaxies, several arcsec for groups).
+GALAXY_SCALE_ARCSEC = 3.0
+
+
+def derive_quantities(theta_e_arcsec, z_l, z_s, cosmo, concentration_of_mass: Callable,
+                      halo_definition: str = "200c") -> dict[str, np.ndarray]:
+    """All derived numbers for (arrays of) theta_E, z_l, z_s; no validation, no notes.
+
+    Returns arrays keyed as :data:`DERIVED_KEYS`. NFW entries are NaN where no halo
+    gives the radius.
+    """
+    theta, zl, zs = np.broadcast_arrays(*(np.asarray(v, float) for v in (theta_e_arcsec, z_l, z_s)))
+    d_l, d_s, d_ls = angular_diameter_distances_mpc(zl, zs, cosmo)
+    sigma_cr = sigma_crit_msun_per_mpc2(d_l, d_s, d_ls)
+    r_e_mpc = arcsec_to_mpc(theta, d_l)
+    mass = np.pi * sigma_cr * r_e_mpc**2
+    m200, c200 = nfw_mass_for_einstein_radius(r_e_mpc, mass, zl, cosmo, concentration_of_mass, halo_definition)
+    rho_delta = overdensity_density_msun_per_mpc3(zl, cosmo, halo_definition)
+    r200_kpc = np.cbrt(3 * m200 / (4 * np.pi * rho_delta)) * 1e3
+    return {
+        "theta_e_arcsec": theta,
+        "z_l": zl,
+        "z_s": zs,
+        "d_l_mpc": d_l,
+        "d_s_mpc": d_s,
+        "d_ls_mpc": d_ls,
+        "sigma_cr_msun_per_pc2": sigma_cr * 1e-12,
+        "r_e_kpc": r_e_mpc * 1e3,
+        "mass_einstein_msun": mass,
+        "sis_sigma_v_kms": sis_sigma_v_kms(theta, d_s, d_ls),
+        "nfw_m200_msun": m200,
+        "nfw_c200": c200,
+        "nfw_r200_kpc": r200_kpc,
+    }
+
+
+def _check_positive(name: str, value, flag: str) -> np.ndarray:
+    arr = np.asarray(value, dtype=float) if not isinstance(value, np.ndarray) else value.astype(float)
+    bad = ~np.isfinite(arr) | (arr <= 0)
+    if np.any(bad):
+        where = "" if arr.ndim == 0 else f" (entry {int(np.flatnonzero(bad)[0])})"
+        shown = arr if arr.ndim == 0 else arr.ravel()[np.flatnonzero(bad)[0]]
+        raise LensInputError(f"{name} must be a positive finite number{where}, got {shown}; check {flag}.")
+    return arr
+
+
+def _check_error(name: str, value, flag: str) -> float:
+    try:
+        v = float(value or 0.0)
+    except (TypeError, ValueError):
+        raise LensInputError(f"The uncertainty of {name} must be a number, got {value!r}; check {flag}.") from None
+    if not np.isfinite(v) or v < 0:
+        raise LensInputError(f"The uncertainty of {name} must be zero or positive, got {value}; check {flag}.")
+    return v
+
+
+def _source_redshift_model(z_s, z_s_err, z_s_range, z_s_distribution):
+    """Validate the three ways of giving z_s; return (kind, description)."""
+    given = sum(x is not None for x in (z_s, z_s_range, z_s_distribution))
+    if given == 0:
+        raise LensInputError("No source redshift: give --zs, or --zs-range ZMIN,ZMAX or --zs-table FILE when it is unknown.")
+    if given > 1:
+        raise LensInputError("Give the source redshift one way only: --zs, --zs-range or --zs-table.")
+    if z_s_range is not None:
+        try:
+            lo, hi = (float(v) for v in z_s_range)
+        except (TypeError, ValueError):
+            raise LensInputError("The source redshift range must be two numbers, ZMIN,ZMAX (for example 1.0,3.0).") from None
+        if not (np.isfinite(lo) and np.isfinite(hi) and 0 < lo < hi):
+            raise LensInputError(f"The source redshift range needs 0 < ZMIN < ZMAX, got {lo:g},{hi:g}.")
+        return "range", (lo, hi)
+    if z_s_distribution is not None:
+        zt, wt = (np.asarray(v, float) for v in z_s_distribution)
+        distribution_samples(zt, wt, 1, np.random.default_rng(0))  # validates with clear messages
+        return "table", (zt, wt)
+    return "fixed", None
+
+
+def estimate(
+    theta_e_arcsec,
+    z_l,
+    z_s=None,
+    *,
+    cosmology: Any = None,
+    concentration: str | float = "duffy08",
+    halo_definition: str = "200c",
+    theta_e_err: float = 0.0,
+    z_l_err: float = 0.0,
+    z_s_err: float = 0.0,
+    z_s_range: tuple[float, float] | None = None,
+    z_s_distribution: tuple[np.ndarray, np.ndarray] | None = None,
+    samples: int = DEFAULT_SAMPLES,
+    seed: int | None = DEFAULT_SEED,
+    versus_zs_points: int = 25,
+) -> dict[str, Any]:
+    """Einstein radius and redshifts to distances, Sigma_cr, Einstein mass, SIS and NFW masses.
+
+    Parameters
+    ----------
+    theta_e_arcsec, z_l, z_s : float or array_like
+        Einstein radius (arcsec), lens and source redshifts; arrays broadcast and
+        are computed without a Python loop per lens.
+    cosmology : str or astropy Cosmology, optional
+        Preset name of astropy's (default ``"Planck18"``) or a cosmology object.
+    concentration : {"duffy08", "dutton14"} or float
+        c(M, z) relation for the NFW inversion, or a fixed concentration.
+    halo_definition : {"200c", "200m", "vir"}
+        Overdensity of the NFW halo boundary (default 200 x critical at z_l).
+    theta_e_err, z_l_err, z_s_err : float
+        1-sigma Gaussian errors, propagated by Monte Carlo (scalar input only).
+    z_s_range, z_s_distribution : optional
+        For an unknown source redshift instead of ``z_s``: a uniform range
+        ``(zmin, zmax)`` or a table ``(z, weight)``; every number is marginalised.
+    samples, seed : int
+        Monte Carlo size (default 10^4) and seed (reproducible by default).
+
+    Returns
+    -------
+    dict
+        Keys of :data:`DERIVED_KEYS` plus ``cosmology``, ``notes`` (caveats),
+        ``models`` (which model and assumption produced each number), and, when
+        any uncertainty is given, ``medians``, ``intervals68`` ([p16, p84]) and
+        ``intervals95`` ([p2.5, p97.5]); with an unknown z_s also ``versus_zs``.
+
+    References
+    ----------
+    Narayan & Bartelmann (1996), arXiv:astro-ph/9606001 (Sigma_cr, Einstein mass, SIS);
+    Wright & Brainerd (2000), ApJ 534, 34 (NFW lensing); Duffy et al. (2008), MNRAS 390, L64.
+
+    Examples
+    --------
+    >>> r = estimate(1.0, 0.3, 1.0, cosmology="Planck18")
+    >>> 1e10 < r["mass_einstein_msun"] < 1e12
+    True
+    """
+    if halo_definition not in HALO_DEFINITIONS:
+        raise LensInputError(f"Unknown halo definition '{halo_definition}': use one of {', '.join(HALO_DEFINITIONS)}.")
+    cosmo = resolve_cosmology(cosmology)
+    c_of_m, c_label = concentration_relation(concentration, halo_definition)
+    theta = _check_positive("The Einstein radius", theta_e_arcsec, "--theta-e")
+    zl = _check_positive("The lens redshift", z_l, "--zl")
+    errs = {
+        "theta": _check_error("theta_E", theta_e_err, "--theta-e-err"),
+        "zl": _check_error("z_l", z_l_err, "--zl-err"),
+        "zs": _check_error("z_s", z_s_err, "--zs-err"),
+    }
+    kind, zs_model = _source_redshift_model(z_s, errs["zs"], z_s_range, z_s_distribution)
+    if kind == "fixed":
+        zs = _check_positive("The source redshift", z_s, "--zs")
+        behind = np.broadcast_to(zs, np.broadcast(zs, zl).shape) > np.broadcast_to(zl, np.broadcast(zs, zl).shape)
+        if not np.all(behind):
+            raise LensInputError(
+                "The source must lie behind the lens: z_s must be larger than z_l "
+                f"(got z_l = {np.ravel(zl)[0] if zl.ndim else zl:g}, z_s = {np.ravel(zs)[0] if zs.ndim else zs:g}); "
+                "check that the two redshifts are not swapped."
+            )
+    else:
+        lo_support = zs_model[0] if kind == "range" else np.min(zs_model[0][zs_model[1] > 0])
+        hi_support = zs_model[1] if kind == "range" else np.max(zs_model[0][zs_model[1] > 0])
+        if np.all(hi_support <= zl):
+            raise LensInputError(
+                f"The source must lie behind the lens: every source redshift offered (up to {hi_support:g}) "
+                f"is at or below z_l = {float(np.max(zl)):g}."
+            )
+        zs = None
+    scalar_input = theta.ndim == 0 and zl.ndim == 0 and (zs is None or np.ndim(zs) == 0)
+    wants_mc = kind != "fixed" or any(v > 0 for v in errs.values())
+    if wants_mc and not scalar_input:
+        raise LensInputError("Uncertainties are propagated for one lens at a time: call estimate per lens, or use 'lensmass batch'.")
+    n_samples = int(samples)
+    if wants_mc and n_samples < 100:
+        raise LensInputError(f"Use at least 100 Monte Carlo samples, got {samples}.")
+
+    notes: list[str] = []
+    result: dict[str, Any] = {"cosmology": cosmology_label(cosmo)}
+    if wants_mc:
+        rng = np.random.default_rng(seed)
+        t_s = normal_samples(theta, errs["theta"], n_samples, rng)
+        zl_s = normal_samples(zl, errs["zl"], n_samples, rng)
+        if kind == "fixed":
+            zs_s = normal_samples(zs, errs["zs"], n_samples, rng)
+        elif kind == "range":
+            zs_s = rng.uniform(zs_model[0], zs_model[1], n_samples)
+        else:
+            zs_s = distribution_samples(zs_model[0], zs_model[1], n_samples, rng)
+        keep = (t_s > 0) & (zl_s > 0) & (zs_s > zl_s)
+        n_rejected = int(n_samples - keep.sum())
+        if keep.sum() < 0.5 * n_samples:
+            raise LensInputError(
+                f"Only {int(keep.sum())} of {n_samples} Monte Carlo draws put the source behind the lens "
+                "with a positive radius: the redshift errors or range are too wide for this lens."
+            )
+        sampled = derive_quantities(t_s[keep], zl_s[keep], zs_s[keep], cosmo, c_of_m, halo_definition)
+        result.update(summarize_many(sampled))
+        result["mc_samples"] = n_samples
+        result["mc_rejected"] = n_rejected
+        result["mc_seed"] = seed
+        if n_rejected:
+            notes.append(
+                f"{n_rejected} of {n_samples} Monte Carlo draws had z_s <= z_l or a non-positive value "
+                "and were rejected."
+            )
+        nfw_ok = np.isfinite(sampled["nfw_m200_msun"])
+        if 0 < (~nfw_ok).sum() and nfw_ok.any():
+            notes.append(
+                f"In {int((~nfw_ok).sum())} draws no NFW halo could give the radius; the NFW intervals use the rest."
+            )
+        result["_samples"] = sampled  # for plots; dropped from JSON output
+
+    if kind == "fixed":
+        central = derive_quantities(theta, zl, zs, cosmo, c_of_m, halo_definition)
+        for key, value in central.items():
+            result[key] = float(value) if scalar_input else value
+    else:
+        for key in DERIVED_KEYS:
+            result[key] = result["medians"][key]
+        if kind == "range":
+            desc = f"uniform in [{zs_model[0]:g}, {zs_model[1]:g}]"
+        else:
+            desc = f"the given table of {len(zs_model[0])} rows"
+        notes.append(
+            f"Source redshift unknown: every number is marginalised over z_s {desc} "
+            "(draws at or in front of the lens rejected); main values are medians."
+        )
+        result["versus_zs"] = _versus_zs(float(theta), float(zl), kind, zs_model, cosmo, c_of_m,
+                                         halo_definition, versus_zs_points)
+
+    m200 = np.asarray(result["nfw_m200_msun"], float)
+    if np.any(~np.isfinite(m200)):
+        notes.append(
+            f"No NFW halo between 1e6 and 1e18 Msun with {c_label} gives this Einstein radius at these "
+            "redshifts: the NFW numbers are empty."
+        )
+    if np.any(np.asarray(theta) < GALAXY_SCALE_ARCSEC):
+        notes.append(
+            "Galaxy-scale lens: an NFW-only halo overestimates the mass, because NFW is too shallow in the "
+            "centre and the stars that make most of the Einstein radius are missing from the model."
+        )
+    notes.append("Masses are model-dependent estimates; see 'models' for the model behind each number.")
+    result["notes"] = notes
+    result["models"] = model_descriptions(result["cosmology"], c_label, halo_definition)
+    return result
+
+
+def _versus_zs(theta, zl, kind, zs_model, cosmo, c_of_m, definition, n_points) -> list[dict[str, float]]:
+    if kind == "range":
+        lo, hi = zs_model
+    else:
+        zt, wt = zs_model
+        lo, hi = float(np.min(zt[wt > 0])), float(np.max(zt[wt > 0]))
+    lo = max(lo, zl * 1.0001 + 1e-4)
+    if hi <= lo:
+        return []
+    grid = np.linspace(lo, hi, n_points)
+    q = derive_quantities(theta, zl, grid, cosmo, c_of_m, definition)
+    return [
+        {"z_s": float(z), "mass_einstein_msun": float(m), "sis_sigma_v_kms": float(s)}
+        for z, m, s in zip(grid, q["mass_einstein_msun"], q["sis_sigma_v_kms"])
+    ]
+
+
+def model_descriptions(cosmology_name: str, concentration_label: str, halo_definition: str) -> dict[str, str]:
+    """Which model and assumptions produced each reported number."""
+    dist = f"angular-diameter distance in {cosmology_name} (astropy; Hogg 1999)"
+    boundary = {"200c": "200 x critical density at z_l", "200m": "200 x mean matter density at z_l",
+                "vir": "virial overdensity of Bryan & Norman (1998) at z_l"}[halo_definition]
+    nfw = f"NFW halo alone (no stars), boundary {boundary}, concentration from {concentration_label}; "
+    nfw += "halo mass chosen so its mean convergence inside theta_E is 1"
+    return {
+        "d_l_mpc": dist,
+        "d_s_mpc": dist,
+        "d_ls_mpc": dist + ", between the two redshifts",
+        "sigma_cr_msun_per_pc2": "Sigma_cr = c^2 D_s / (4 pi G D_l D_ls)",
+        "r_e_kpc": "R_E = D_l theta_E",
+        "mass_einstein_msun": "projected mass inside theta_E, pi Sigma_cr R_E^2: model-independent for an "
+        "axisymmetric lens (Narayan & Bartelmann 1996)",
+        "sis_sigma_v_kms": "singular isothermal sphere with this Einstein radius: "
+        "theta_E = 4 pi (sigma/c)^2 D_ls/D_s; not a measured stellar dispersion",
+        "nfw_m200_msun": nfw,
+        "nfw_c200": nfw,
+        "nfw_r200_kpc": nfw,
+    }

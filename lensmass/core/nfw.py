@@ -1,0 +1,250 @@
+"""Navarro-Frenk-White (NFW) haloes: parameters, projected profiles and lensing.
+
+References
+----------
+Navarro, Frenk & White (1997), ApJ 490, 493: rho = rho_s / [(r/r_s)(1 + r/r_s)^2].
+Bartelmann (1996), A&A 313, 697 and Wright & Brainerd (2000), ApJ 534, 34, eqs. (11)-(16):
+with x = R / r_s and F(x) = arccosh(1/x)/sqrt(1-x^2) (x < 1), arccos(1/x)/sqrt(x^2-1) (x > 1),
+  Sigma(x) = 2 rho_s r_s (1 - F) / (x^2 - 1),
+  mean Sigma(<x) = 4 rho_s r_s [ln(x/2) + F] / x^2,
+  gamma_t = [mean Sigma(<x) - Sigma(x)] / Sigma_cr.
+Bryan & Norman (1998), ApJ 495, 80, eq. (6): Delta_vir = 18 pi^2 + 82 x - 39 x^2, x = Omega_m(z) - 1.
+
+Numerics: F is evaluated as arctanh(s)/s or arctan(s)/s with s = sqrt|x^2 - 1|, which is well
+conditioned; near x = 1 the ratio (1 - F)/(x^2 - 1) uses its series sum_k (-t)^k / (2k + 3),
+t = x^2 - 1, so Sigma is accurate to ~1e-13 everywhere.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from lensmass.core.cosmology import critical_density_msun_per_mpc3
+from lensmass.core.errors import LensInputError
+
+HALO_DEFINITIONS = ("200c", "200m", "vir")
+_SERIES_LIMIT = 0.05
+_SERIES_TERMS = 16
+
+
+def overdensity_density_msun_per_mpc3(z, cosmo, definition: str = "200c") -> np.ndarray:
+    """The mean density Delta * rho_ref inside the halo boundary, in Msun / Mpc^3.
+
+    ``"200c"``: 200 rho_crit(z); ``"200m"``: 200 Omega_m(z) rho_crit(z); ``"vir"``:
+    Bryan & Norman (1998) Delta_vir(z) rho_crit(z) (for flat models with a cosmological constant).
+    """
+    rho_c = critical_density_msun_per_mpc3(z, cosmo)
+    if definition == "200c":
+        return 200.0 * rho_c
+    if definition == "200m":
+        return 200.0 * cosmo.Om(np.asarray(z, float)) * rho_c
+    if definition == "vir":
+        x = cosmo.Om(np.asarray(z, float)) - 1.0
+        return (18 * np.pi**2 + 82 * x - 39 * x**2) * rho_c
+    raise LensInputError(f"Unknown halo definition '{definition}': use one of {', '.join(HALO_DEFINITIONS)}.")
+
+
+def _m_of_c(c) -> np.ndarray:
+    """ln(1 + c) - c / (1 + c): NFW mass inside r_s * c in units of 4 pi rho_s r_s^3."""
+    c = np.asarray(c, float)
+    return np.log1p(c) - c / (1 + c)
+
+
+@dataclass(frozen=True)
+class NFWHalo:
+    """An NFW halo (arrays broadcast together). Lengths in Mpc, density in Msun / Mpc^3."""
+
+    m_delta_msun: np.ndarray
+    concentration: np.ndarray
+    r_delta_mpc: np.ndarray
+    r_s_mpc: np.ndarray
+    rho_s_msun_per_mpc3: np.ndarray
+
+
+def nfw_halo(m_delta_msun, concentration, z, cosmo, definition: str = "200c") -> NFWHalo:
+    """Build an NFW halo from its mass M_Delta and concentration c = r_Delta / r_s.
+
+    r_Delta = [3 M / (4 pi Delta rho_ref)]^(1/3), rho_s = (Delta rho_ref / 3) c^3 / m(c).
+
+    Examples
+    --------
+    >>> from astropy.cosmology import FlatLambdaCDM
+    >>> h = nfw_halo(1e15, 4.0, 0.3, FlatLambdaCDM(70, 0.3))
+    >>> round(float(h.r_delta_mpc), 3)  # doctest: +SKIP
+    1.891
+    """
+    m = np.asarray(m_delta_msun, float)
+    c = np.asarray(concentration, float)
+    rho_delta = overdensity_density_msun_per_mpc3(z, cosmo, definition)
+    r_delta = np.cbrt(3 * m / (4 * np.pi * rho_delta))
+    rho_s = rho_delta / 3.0 * c**3 / _m_of_c(c)
+    return NFWHalo(m, c, r_delta, r_delta / c, rho_s)
+
+
+def _f_function(x) -> np.ndarray:
+    """F(x) of Wright & Brainerd (2000), in its well-conditioned form."""
+    x = np.asarray(x, float)
+    t = x * x - 1.0
+    s = np.sqrt(np.abs(t))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        inner = np.where(t < 0, np.arctanh(np.minimum(s, 1 - 1e-300)) / s, np.arctan(s) / s)
+    return np.where(s < 1e-8, 1.0 - t / 3.0, inner)
+
+
+def _one_minus_f_over_t(x) -> np.ndarray:
+    """(1 - F(x)) / (x^2 - 1), finite through x = 1 (where it is 1/3)."""
+    x = np.asarray(x, float)
+    t = x * x - 1.0
+    near = np.abs(t) < _SERIES_LIMIT
+    with np.errstate(divide="ignore", invalid="ignore"):
+        direct = (1.0 - _f_function(x)) / t
+    k = np.arange(_SERIES_TERMS)
+    tn = np.where(near, t, 0.0)[..., None]
+    series = np.sum((-tn) ** k / (2 * k + 3), axis=-1)
+    return np.where(near, series, direct)
+
+
+def _h_function(x) -> np.ndarray:
+    """ln(x/2) + F(x): the projected mass inside x in units of 4 pi rho_s r_s^3."""
+    x = np.asarray(x, float)
+    small = x < 1e-4
+    with np.errstate(divide="ignore"):
+        direct = np.log(x / 2.0) + _f_function(x)
+    # x -> 0: arccosh(1/x)/sqrt(1 - x^2) = ln(2/x) + (x^2/2)(ln(2/x) - 1/2) + O(x^4 ln x)
+    xs = np.where(small, x, 1.0)
+    series = 0.5 * xs**2 * (np.log(2.0 / xs) - 0.5)
+    return np.where(small, series, direct)
+
+
+def nfw_surface_density_msun_per_mpc2(radius_mpc, halo: NFWHalo) -> np.ndarray:
+    """Projected surface density Sigma(R) (Wright & Brainerd 2000, eq. 11)."""
+    x = np.asarray(radius_mpc, float) / halo.r_s_mpc
+    return 2.0 * halo.rho_s_msun_per_mpc3 * halo.r_s_mpc * _one_minus_f_over_t(x)
+
+
+def nfw_mean_surface_density_msun_per_mpc2(radius_mpc, halo: NFWHalo) -> np.ndarray:
+    """Mean surface density inside R (Wright & Brainerd 2000, eq. 13)."""
+    x = np.asarray(radius_mpc, float) / halo.r_s_mpc
+    return 4.0 * halo.rho_s_msun_per_mpc3 * halo.r_s_mpc * _h_function(x) / x**2
+
+
+def nfw_mass_2d_msun(radius_mpc, halo: NFWHalo) -> np.ndarray:
+    """Projected mass inside a cylinder of radius R: 4 pi rho_s r_s^3 [ln(x/2) + F(x)]."""
+    x = np.asarray(radius_mpc, float) / halo.r_s_mpc
+    return 4.0 * np.pi * halo.rho_s_msun_per_mpc3 * halo.r_s_mpc**3 * _h_function(x)
+
+
+def nfw_mass_3d_msun(radius_mpc, halo: NFWHalo) -> np.ndarray:
+    """Mass inside a sphere of radius r: 4 pi rho_s r_s^3 m(r / r_s)."""
+    x = np.asarray(radius_mpc, float) / halo.r_s_mpc
+    return 4.0 * np.pi * halo.rho_s_msun_per_mpc3 * halo.r_s_mpc**3 * _m_of_c(x)
+
+
+def nfw_density_msun_per_mpc3(radius_mpc, halo: NFWHalo) -> np.ndarray:
+    """3-D density rho(r) = rho_s / [x (1 + x)^2]."""
+    x = np.asarray(radius_mpc, float) / halo.r_s_mpc
+    return halo.rho_s_msun_per_mpc3 / (x * (1 + x) ** 2)
+
+
+def nfw_convergence(radius_mpc, halo: NFWHalo, sigma_cr_msun_per_mpc2) -> np.ndarray:
+    """kappa(R) = Sigma(R) / Sigma_cr."""
+    return nfw_surface_density_msun_per_mpc2(radius_mpc, halo) / sigma_cr_msun_per_mpc2
+
+
+def nfw_shear(radius_mpc, halo: NFWHalo, sigma_cr_msun_per_mpc2) -> np.ndarray:
+    """Tangential shear gamma_t(R) = [mean Sigma(<R) - Sigma(R)] / Sigma_cr."""
+    x = np.asarray(radius_mpc, float) / halo.r_s_mpc
+    scale = halo.rho_s_msun_per_mpc3 * halo.r_s_mpc
+    excess = scale * (4.0 * _h_function(x) / x**2 - 2.0 * _one_minus_f_over_t(x))
+    return excess / sigma_cr_msun_per_mpc2
+
+
+def nfw_reduced_shear(radius_mpc, halo: NFWHalo, sigma_cr_msun_per_mpc2) -> np.ndarray:
+    """Reduced tangential shear g = gamma_t / (1 - kappa)."""
+    return nfw_shear(radius_mpc, halo, sigma_cr_msun_per_mpc2) / (
+        1.0 - nfw_convergence(radius_mpc, halo, sigma_cr_msun_per_mpc2)
+    )
+
+
+def nfw_einstein_radius_mpc(halo: NFWHalo, sigma_cr_msun_per_mpc2) -> np.ndarray:
+    """Radius where the mean convergence inside R equals one (vectorised root find).
+
+    The mean convergence of an NFW halo falls monotonically with R and diverges
+    (logarithmically) at the centre, so every halo has an Einstein radius, though
+    for ordinary galaxy haloes it is far below what is observed.
+    """
+    from scipy.optimize.elementwise import find_root
+
+    sig = np.asarray(sigma_cr_msun_per_mpc2, float)
+    shape = np.broadcast(halo.r_s_mpc, sig).shape
+    r_s = np.broadcast_to(halo.r_s_mpc, shape)
+
+    def f(log_x, r_s, rho_s, sig):
+        x = np.exp(log_x)
+        return np.log(4.0 * rho_s * r_s * _h_function(x) / x**2) - np.log(sig)
+
+    args = (r_s, np.broadcast_to(halo.rho_s_msun_per_mpc3, shape), np.broadcast_to(sig, shape))
+    lo = np.full(shape, np.log(1e-12))
+    hi = np.full(shape, np.log(1e3))
+    res = find_root(f, (lo, hi), args=args, tolerances={"xatol": 1e-12, "xrtol": 1e-13})
+    out = np.exp(res.x) * r_s
+    return np.where(res.success, out, np.nan)
+
+
+#: Search range of the inversion, log10(M_Delta / Msun).
+INVERSION_LOG10_MASS_RANGE = (6.0, 18.0)
+
+
+def nfw_mass_for_einstein_radius(
+    einstein_radius_mpc,
+    einstein_mass_msun,
+    z_l,
+    cosmo,
+    concentration_of_mass,
+    definition: str = "200c",
+) -> tuple[np.ndarray, np.ndarray]:
+    """The NFW halo whose Einstein radius equals the measured one.
+
+    Solves M_2D,NFW(<R_E; M, c(M)) = M(<theta_E) for M_Delta: the mean convergence
+    inside R_E is then exactly one. ``concentration_of_mass(m_msun, z, h)`` gives c;
+    all arguments broadcast, and the root find is vectorised (no loop per lens).
+
+    Returns
+    -------
+    m_delta_msun, concentration : ndarray
+        NaN where no halo between 10^6 and 10^18 Msun gives that radius.
+    """
+    from scipy.optimize.elementwise import find_root
+
+    from lensmass.core.cosmology import little_h
+
+    h = little_h(cosmo)
+    r_e, m_e, z = np.broadcast_arrays(
+        np.asarray(einstein_radius_mpc, float), np.asarray(einstein_mass_msun, float), np.asarray(z_l, float)
+    )
+    rho_delta = overdensity_density_msun_per_mpc3(z, cosmo, definition)
+    good = np.isfinite(r_e) & np.isfinite(m_e) & (r_e > 0) & (m_e > 0) & np.isfinite(z)
+    r_e = np.where(good, r_e, 1e-3)
+    m_e = np.where(good, m_e, 1e11)
+
+    def mismatch(log10_m, r_e, m_e, z, rho_delta):
+        m = 10.0**log10_m
+        c = concentration_of_mass(m, z, h)
+        r_delta = np.cbrt(3 * m / (4 * np.pi * rho_delta))
+        r_s = r_delta / c
+        m2d = m / _m_of_c(c) * _h_function(r_e / r_s)
+        return np.log(m2d / m_e)
+
+    lo_val, hi_val = INVERSION_LOG10_MASS_RANGE
+    lo = np.full(r_e.shape, lo_val)
+    hi = np.full(r_e.shape, hi_val)
+    args = (r_e, m_e, z, rho_delta)
+    f_hi = mismatch(hi, *args)
+    f_lo = mismatch(lo, *args)
+    bracketed = good & (f_hi > 0) & (f_lo < 0)
+    res = find_root(mismatch, (lo, hi), args=args, tolerances={"xatol": 1e-10, "xrtol": 1e-12})
+    m = np.where(bracketed & res.success, 10.0**res.x, np.nan)
+    c = np.where(np.isfinite(m), concentration_of_mass(np.where(np.isfinite(m), m, 1e12), z, h), np.nan)
+    return m, c

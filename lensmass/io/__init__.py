@@ -1,0 +1,1 @@
+"""Reading and writing: images, tables, sessions, stores. Physics stays in lensmass.core."""
