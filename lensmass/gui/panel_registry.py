@@ -1,0 +1,94 @@
+"""Dock panels written by other parts of lensmass, and the small API they may use.
+
+The main window imports every entry of :data:`PANELS` whose module exists and
+puts each panel in a dock. A missing module is skipped silently; a panel that
+fails while being built is reported in the status bar in one sentence and the
+window carries on without it.
+
+Protocol of a panel
+-------------------
+A panel is a ``QWidget`` subclass::
+
+    class ShearPanel(QWidget):
+        PANEL_TITLE = "Shear profile"    # dock title (required)
+        DOCK_AREA = "right"              # "left", "right" or "bottom" (optional, default "right")
+
+        def __init__(self, app_model, canvas, window):
+            ...
+
+``app_model`` -- the :class:`lensmass.gui.model.WindowModel` (plain Python, no Qt).
+    Read ``app_model.image`` (a :class:`lensmass.gui.model.ImageState` or None:
+    ``.path``, ``.data`` float array with NaN masked, ``.wcs``, ``.pixel_scale_arcsec``),
+    ``app_model.z_l``, ``app_model.cosmology_spec()``, ``app_model.result`` ...
+    Subscribe with ``app_model.subscribe(callback)``; ``callback(topic)`` is called
+    with one of :data:`lensmass.gui.model.TOPICS` ("image", "display", "marks",
+    "inputs", "fit", "result", "validation"). Unsubscribe with ``app_model.unsubscribe``.
+
+``canvas`` -- the :class:`lensmass.gui.canvas.ImageCanvas`.
+    Drawing: ``canvas.set_layer(name, draw)`` registers ``draw(painter, canvas)``,
+    called on every repaint after the image and before the window's own marks;
+    ``painter`` is a ``QPainter`` in widget coordinates. Map positions with
+    ``canvas.image_to_widget(x, y) -> QPointF`` and ``canvas.widget_to_image(qpoint)
+    -> (x, y)`` (0-based pixel column, row as stored); ``canvas.zoom`` is widget
+    pixels per image pixel. ``canvas.remove_layer(name)`` removes it;
+    ``canvas.update()`` asks for a repaint after your data changed.
+    Clicks: ``canvas.claim_clicks(owner, handler, hint="...")`` routes left clicks on
+    the image to ``handler(x, y)`` (image pixels) instead of the window's marking
+    tools, until ``canvas.release_clicks(owner)``. The hint shows in the status bar.
+    Pan and zoom keep working while a panel holds the clicks.
+
+``window`` -- the :class:`lensmass.gui.mainwindow.MainWindow`.
+    ``window.run_task(fn, label, on_result, on_error=None)`` runs
+    ``fn(progress, should_stop)`` off the GUI thread with the window's progress bar
+    and Cancel button (see :mod:`lensmass.gui.workers`): call ``progress(fraction,
+    message)`` now and then and return early (or raise
+    :class:`lensmass.gui.workers.TaskCancelled`) when ``should_stop()`` is true.
+    ``on_result(value)`` / ``on_error(message)`` run back on the GUI thread.
+    ``window.open_path(path)`` opens an image or session in the window (asks
+    before discarding unsaved marks; returns True if it opened);
+    ``window.show_message(text)`` shows one sentence in the status bar.
+
+Keep to these names: they are the stable part. Anything else in the window may change.
+"""
+
+from __future__ import annotations
+
+import importlib
+
+#: (module, class) of each dock panel, in dock order. Add a line for a new panel.
+PANELS: list[tuple[str, str]] = [
+    ("lensmass.gui.shear_panel", "ShearPanel"),
+    ("lensmass.gui.light_panel", "LightPanel"),
+    ("lensmass.gui.triage_panel", "TriagePanel"),
+]
+
+#: Where a panel goes when it does not say (``DOCK_AREA``).
+DEFAULT_DOCK_AREA = "right"
+
+
+def load_panel_classes(entries=None) -> tuple[list[type], list[str]]:
+    """Import the panel classes that exist.
+
+    Returns ``(classes, problems)``; ``problems`` holds one sentence per entry whose
+    module exists but could not be imported (a module that is simply absent is
+    not a problem: that panel is not part of this build).
+    """
+    classes: list[type] = []
+    problems: list[str] = []
+    for module_name, class_name in PANELS if entries is None else entries:
+        try:
+            module = importlib.import_module(module_name)
+        except ModuleNotFoundError as exc:
+            if exc.name == module_name:
+                continue
+            problems.append(f"Panel {class_name} is left out: it needs the missing module '{exc.name}'.")
+            continue
+        except Exception as exc:  # a broken panel must not stop the window
+            problems.append(f"Panel {class_name} is left out: importing it failed ({type(exc).__name__}: {exc}).")
+            continue
+        cls = getattr(module, class_name, None)
+        if cls is None:
+            problems.append(f"Panel {class_name} is left out: {module_name} does not define it.")
+            continue
+        classes.append(cls)
+    return classes, problems
