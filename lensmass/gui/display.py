@@ -1,0 +1,195 @@
+"""From a float image to display colours: limits, stretch, colour map, invert.
+
+Pure numpy (no Qt), so it is testable alone. The work is split so that a display
+change redoes only what it must:
+
+1. :meth:`DisplayPipeline.levels` -- the image clipped to its limits and quantised
+   to 16-bit levels (0 .. 65534; 65535 marks masked/NaN pixels). Cached per
+   (layer, limits); only a new image or new limits recompute it.
+2. :func:`colour_table` -- a 65536-entry table of 32-bit colours for a stretch,
+   colour map and invert. Building it touches 65536 numbers, not the image.
+3. One table look-up maps levels to colours (``numpy.take``).
+
+Stretches and intervals are astropy.visualization's (linear, square root,
+logarithmic, asinh; min-max, percentiles, zscale of IRAF as implemented there).
+Colour maps are matplotlib's perceptually uniform ones plus gray.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import lru_cache
+
+import numpy as np
+
+#: Stretch names shown to the user -> factory of the astropy stretch.
+STRETCHES = ("linear", "square root", "logarithmic", "asinh")
+
+#: Limit choices: name -> description for tooltips.
+LIMITS = {
+    "min-max": "full range of the finite pixels",
+    "99.5%": "central 99.5% of the pixels",
+    "99%": "central 99% of the pixels",
+    "97%": "central 97% of the pixels",
+    "zscale": "IRAF zscale interval (astropy ZScaleInterval)",
+}
+
+#: Colour maps: grey and matplotlib's perceptually uniform sequential maps.
+COLORMAPS = ("gray", "viridis", "magma", "inferno", "cividis")
+
+LEVELS = 65535  # levels 0 .. LEVELS-1 hold data; LEVELS itself marks a masked pixel
+MASKED_LEVEL = LEVELS
+#: Colour of masked (NaN) pixels: a quiet blue-grey, distinct from every map's ends.
+MASKED_RGB = (72, 80, 96)
+
+#: Pixels sampled for percentile limits on large images (a regular sub-grid).
+_SAMPLE_TARGET = 500_000
+
+
+def _stretch(name: str):
+    from astropy import visualization as vis
+
+    if name == "linear":
+        return vis.LinearStretch()
+    if name == "square root":
+        return vis.SqrtStretch()
+    if name == "logarithmic":
+        return vis.LogStretch(a=1000)
+    if name == "asinh":
+        return vis.AsinhStretch(a=0.1)
+    raise ValueError(f"Unknown stretch '{name}': use one of {', '.join(STRETCHES)}.")
+
+
+def sample_pixels(data: np.ndarray, target: int = _SAMPLE_TARGET) -> np.ndarray:
+    """The finite pixels of a regular sub-grid of about ``target`` pixels."""
+    step = max(1, int(np.sqrt(data.size / target)))
+    sub = data[::step, ::step]
+    return sub[np.isfinite(sub)]
+
+
+def image_limits(data: np.ndarray, limits: str) -> tuple[float, float]:
+    """Lower and upper display limits of ``data`` for a choice of :data:`LIMITS`.
+
+    Examples
+    --------
+    >>> image_limits(np.arange(100.0).reshape(10, 10), "min-max")
+    (0.0, 99.0)
+    """
+    from astropy import visualization as vis
+
+    finite = sample_pixels(data)
+    if finite.size == 0:
+        return 0.0, 1.0
+    if limits == "min-max":
+        lo, hi = float(finite.min()), float(finite.max())
+    elif limits == "zscale":
+        lo, hi = vis.ZScaleInterval().get_limits(finite)
+    elif limits.endswith("%"):
+        lo, hi = vis.PercentileInterval(float(limits[:-1])).get_limits(finite)
+    else:
+        raise ValueError(f"Unknown limits '{limits}': use one of {', '.join(LIMITS)}.")
+    lo, hi = float(lo), float(hi)
+    if not hi > lo:
+        hi = lo + (abs(lo) * 1e-6 or 1.0)
+    return lo, hi
+
+
+def quantise(data: np.ndarray, lo: float, hi: float) -> np.ndarray:
+    """``data`` clipped to [lo, hi] as uint16 levels; NaN pixels get :data:`MASKED_LEVEL`."""
+    scale = (LEVELS - 1) / (hi - lo)
+    work = np.subtract(data, lo, dtype=np.float32)
+    work *= np.float32(scale)
+    nan = np.isnan(work)
+    work[nan] = MASKED_LEVEL
+    np.clip(work, 0, MASKED_LEVEL, out=work)
+    levels = work.astype(np.uint16)
+    if nan.any():
+        levels[nan] = MASKED_LEVEL
+    return levels
+
+
+@lru_cache(maxsize=64)
+def colour_table(stretch: str, colormap: str, invert: bool) -> np.ndarray:
+    """65536 colours (uint32 0xffRRGGBB) for the levels of :func:`quantise`.
+
+    Examples
+    --------
+    >>> t = colour_table("linear", "gray", False)
+    >>> hex(int(t[0])), hex(int(t[LEVELS - 1]))
+    ('0xff000000', '0xffffffff')
+    """
+    x = np.linspace(0.0, 1.0, LEVELS)
+    y = np.clip(_stretch(stretch)(x, clip=True), 0.0, 1.0)
+    if invert:
+        y = 1.0 - y
+    if colormap == "gray":
+        rgb = np.repeat(y[:, None], 3, axis=1)
+    elif colormap in COLORMAPS:
+        import matplotlib
+
+        rgb = matplotlib.colormaps[colormap](y)[:, :3]
+    else:
+        raise ValueError(f"Unknown colour map '{colormap}': use one of {', '.join(COLORMAPS)}.")
+    rgb8 = np.round(rgb * 255).astype(np.uint32)
+    table = np.empty(LEVELS + 1, dtype=np.uint32)
+    table[:LEVELS] = 0xFF000000 | (rgb8[:, 0] << 16) | (rgb8[:, 1] << 8) | rgb8[:, 2]
+    r, g, b = MASKED_RGB
+    table[MASKED_LEVEL] = 0xFF000000 | (r << 16) | (g << 8) | b
+    return table
+
+
+@dataclass(frozen=True)
+class DisplayChoice:
+    """What the user chose to see: layer, limits, stretch, colour map, invert."""
+
+    layer: str = "image"
+    limits: str = "99.5%"
+    stretch: str = "asinh"
+    colormap: str = "gray"
+    invert: bool = False
+
+
+class DisplayPipeline:
+    """Cached levels per (layer, limits); colours on demand.
+
+    ``layers`` maps a layer name ("image", "lens light", "residual") to its float
+    array. Replace arrays with :meth:`set_layer` (drops that layer's cache).
+    """
+
+    def __init__(self) -> None:
+        self._layers: dict[str, np.ndarray] = {}
+        self._levels: dict[tuple[str, str], tuple[np.ndarray, tuple[float, float]]] = {}
+
+    def set_layer(self, name: str, data: np.ndarray | None) -> None:
+        self._levels = {k: v for k, v in self._levels.items() if k[0] != name}
+        if data is None:
+            self._layers.pop(name, None)
+        else:
+            self._layers[name] = np.asarray(data, dtype=np.float32)
+
+    def clear(self) -> None:
+        self._layers.clear()
+        self._levels.clear()
+
+    def has_layer(self, name: str) -> bool:
+        return name in self._layers
+
+    def levels(self, layer: str, limits: str) -> tuple[np.ndarray, tuple[float, float]]:
+        """Quantised levels of ``layer`` and the (lo, hi) limits used."""
+        key = (layer, limits)
+        if key not in self._levels:
+            data = self._layers[layer]
+            lo, hi = image_limits(data, limits)
+            self._levels[key] = (quantise(data, lo, hi), (lo, hi))
+        return self._levels[key]
+
+    def colours(self, choice: DisplayChoice, flip_rows: bool = False) -> np.ndarray:
+        """(ny, nx) C-ordered uint32 colours of the chosen layer.
+
+        Row 0 is the first stored row, or the last one with ``flip_rows`` (FITS
+        images are shown with row 0 at the bottom); the flip costs nothing extra.
+        """
+        levels, _ = self.levels(choice.layer, choice.limits)
+        if flip_rows:
+            levels = levels[::-1]
+        return np.take(colour_table(choice.stretch, choice.colormap, bool(choice.invert)), levels)
