@@ -1,0 +1,274 @@
+"""Grading lensing answers: the expected numbers and the classic mistakes.
+
+The expected value of every gradable quantity comes from
+:func:`lensmass.core.estimate.derive_quantities` (one source for each number).
+Each known mistake is a recomputation of the same quantities with one wrong
+ingredient; an answer that misses the expected value but matches a mistake's
+value within the tolerance is diagnosed with that mistake's name.
+
+References
+----------
+Narayan & Bartelmann (1996), arXiv:astro-ph/9606001, eqs. (15)-(20) and section 3.3:
+Sigma_cr = c^2 D_s / (4 pi G D_l D_ls), M(<theta_E) = pi Sigma_cr (D_l theta_E)^2,
+theta_E = 4 pi (sigma_v / c)^2 D_ls / D_s.
+Hogg (1999), arXiv:astro-ph/9905116, eqs. (15)-(21): comoving (D_C), transverse comoving,
+angular-diameter (D_A = D_M / (1 + z)) and luminosity (D_L = (1 + z) D_M) distances.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+
+from lensmass.core.constants import ARCSEC_RAD, C2_OVER_4PIG_MSUN_PER_MPC, C_KMS
+from lensmass.core.cosmology import distance_grid, little_h
+from lensmass.core.errors import LensInputError
+
+#: Quantities a submission may carry, with their units (the columns of a submissions table).
+GRADABLE = {
+    "mass_einstein_msun": "Msun",
+    "sis_sigma_v_kms": "km/s",
+    "r_e_kpc": "kpc",
+    "sigma_cr_msun_per_pc2": "Msun/pc^2",
+    "d_l_mpc": "Mpc",
+    "d_s_mpc": "Mpc",
+    "d_ls_mpc": "Mpc",
+}
+
+DEFAULT_TOLERANCE = 0.05
+
+
+def _quantities(d_l, d_s, d_ls, theta_rad, *, c_factor: float = 1.0, g_factor: float = 1.0) -> dict:
+    """The gradable numbers from distances (Mpc) and theta_E in radians.
+
+    ``c_factor`` and ``g_factor`` multiply the speed of light and the gravitational
+    constant, for the unit mix-ups (Sigma_cr scales as c^2 / G, sigma_SIS as c).
+    """
+    sigma_cr_mpc2 = C2_OVER_4PIG_MSUN_PER_MPC * c_factor**2 / g_factor * d_s / (d_l * d_ls)
+    r_e_mpc = d_l * theta_rad
+    with np.errstate(invalid="ignore"):
+        sigma_v = C_KMS * c_factor * np.sqrt(theta_rad * d_s / d_ls / (4 * np.pi))
+    return {
+        "mass_einstein_msun": np.pi * sigma_cr_mpc2 * r_e_mpc**2,
+        "sis_sigma_v_kms": sigma_v,
+        "r_e_kpc": r_e_mpc * 1e3,
+        "sigma_cr_msun_per_pc2": sigma_cr_mpc2 * 1e-12,
+        "d_l_mpc": d_l,
+        "d_s_mpc": d_s,
+        "d_ls_mpc": d_ls,
+    }
+
+
+def _comoving(z_l, z_s, cosmo):
+    grid = distance_grid(cosmo)
+    return grid.comoving_mpc(np.asarray(z_l, float)), grid.comoving_mpc(np.asarray(z_s, float))
+
+
+def _angular(z_l, z_s, cosmo):
+    from lensmass.core.cosmology import angular_diameter_distances_mpc
+
+    return angular_diameter_distances_mpc(z_l, z_s, cosmo)
+
+
+def _theta_rad(theta_e_arcsec):
+    return np.asarray(theta_e_arcsec, float) * ARCSEC_RAD
+
+
+def expected_quantities(theta_e_arcsec, z_l, z_s, cosmo) -> dict[str, np.ndarray]:
+    """The correct gradable numbers, from :func:`lensmass.core.estimate.derive_quantities`.
+
+    Examples
+    --------
+    >>> from astropy.cosmology import FlatLambdaCDM
+    >>> q = expected_quantities(1.0, 0.3, 1.0, FlatLambdaCDM(70, 0.3))
+    >>> 2.5e11 < float(q["mass_einstein_msun"]) < 2.9e11
+    True
+    """
+    from lensmass.core.concentration import concentration_relation
+    from lensmass.core.estimate import derive_quantities
+
+    c_of_m, _ = concentration_relation("duffy08", "200c")
+    derived = derive_quantities(theta_e_arcsec, z_l, z_s, cosmo, c_of_m, "200c")
+    return {key: derived[key] for key in GRADABLE}
+
+
+# --- the known mistakes: each recomputes the answer with one wrong ingredient ---------------
+
+
+def mistake_ds_for_dls(theta_e_arcsec, z_l, z_s, cosmo) -> dict:
+    """D_s used where D_ls belongs (so Sigma_cr = c^2 / (4 pi G D_l))."""
+    d_l, d_s, _ = _angular(z_l, z_s, cosmo)
+    return _quantities(d_l, d_s, d_s, _theta_rad(theta_e_arcsec))
+
+
+def mistake_comoving_distance(theta_e_arcsec, z_l, z_s, cosmo) -> dict:
+    """Line-of-sight comoving distances D_C (and D_C(z_s) - D_C(z_l)) in place of D_A."""
+    dc_l, dc_s = _comoving(z_l, z_s, cosmo)
+    return _quantities(dc_l, dc_s, dc_s - dc_l, _theta_rad(theta_e_arcsec))
+
+
+def mistake_luminosity_distance(theta_e_arcsec, z_l, z_s, cosmo) -> dict:
+    """Luminosity distances D_L (and D_L(z_s) - D_L(z_l)) in place of D_A."""
+    from lensmass.core.cosmology import luminosity_distance_mpc
+
+    dl_l = luminosity_distance_mpc(z_l, cosmo)
+    dl_s = luminosity_distance_mpc(z_s, cosmo)
+    return _quantities(dl_l, dl_s, dl_s - dl_l, _theta_rad(theta_e_arcsec))
+
+
+def mistake_diameter_for_radius(theta_e_arcsec, z_l, z_s, cosmo) -> dict:
+    """The ring's diameter used as the Einstein radius (theta_E doubled)."""
+    d_l, d_s, d_ls = _angular(z_l, z_s, cosmo)
+    return _quantities(d_l, d_s, d_ls, 2 * _theta_rad(theta_e_arcsec))
+
+
+def mistake_arcsec_without_pi_over_180(theta_e_arcsec, z_l, z_s, cosmo) -> dict:
+    """Arcsec to radians by dividing by 3600 only (the degree-to-radian pi/180 missing)."""
+    d_l, d_s, d_ls = _angular(z_l, z_s, cosmo)
+    return _quantities(d_l, d_s, d_ls, np.asarray(theta_e_arcsec, float) / 3600.0)
+
+
+def mistake_arcsec_as_degrees(theta_e_arcsec, z_l, z_s, cosmo) -> dict:
+    """Arcsec treated as degrees (multiplied by pi/180 only, the 1/3600 missing)."""
+    d_l, d_s, d_ls = _angular(z_l, z_s, cosmo)
+    return _quantities(d_l, d_s, d_ls, np.deg2rad(np.asarray(theta_e_arcsec, float)))
+
+
+def mistake_arcsec_as_radians(theta_e_arcsec, z_l, z_s, cosmo) -> dict:
+    """The angle in arcsec used as if it were already in radians."""
+    d_l, d_s, d_ls = _angular(z_l, z_s, cosmo)
+    return _quantities(d_l, d_s, d_ls, np.asarray(theta_e_arcsec, float))
+
+
+def mistake_h_dropped(theta_e_arcsec, z_l, z_s, cosmo) -> dict:
+    """Distances computed in h^-1 Mpc and reported as Mpc.
+
+    Lengths and masses come out a factor h too small (h^-1 Mpc, h^-1 kpc, h^-1 Msun),
+    a surface density a factor h too large (h Msun / pc^2); sigma_SIS is unchanged.
+    """
+    h = little_h(cosmo)
+    d_l, d_s, d_ls = _angular(z_l, z_s, cosmo)
+    return _quantities(d_l * h, d_s * h, d_ls * h, _theta_rad(theta_e_arcsec))
+
+
+def mistake_g_cgs_in_si(theta_e_arcsec, z_l, z_s, cosmo) -> dict:
+    """G = 6.674e-8 (cgs) used in an SI computation: G a factor 1000 too large."""
+    d_l, d_s, d_ls = _angular(z_l, z_s, cosmo)
+    return _quantities(d_l, d_s, d_ls, _theta_rad(theta_e_arcsec), g_factor=1e3)
+
+
+def mistake_g_si_in_cgs(theta_e_arcsec, z_l, z_s, cosmo) -> dict:
+    """G = 6.674e-11 (SI) used in a cgs computation: G a factor 1000 too small."""
+    d_l, d_s, d_ls = _angular(z_l, z_s, cosmo)
+    return _quantities(d_l, d_s, d_ls, _theta_rad(theta_e_arcsec), g_factor=1e-3)
+
+
+def mistake_c_in_m_per_s(theta_e_arcsec, z_l, z_s, cosmo) -> dict:
+    """c = 3e8 (m/s) used where km/s belong: c a factor 1000 too large."""
+    d_l, d_s, d_ls = _angular(z_l, z_s, cosmo)
+    return _quantities(d_l, d_s, d_ls, _theta_rad(theta_e_arcsec), c_factor=1e3)
+
+
+def mistake_c_in_km_per_s(theta_e_arcsec, z_l, z_s, cosmo) -> dict:
+    """c = 3e5 (km/s) used in an SI computation: c a factor 1000 too small."""
+    d_l, d_s, d_ls = _angular(z_l, z_s, cosmo)
+    return _quantities(d_l, d_s, d_ls, _theta_rad(theta_e_arcsec), c_factor=1e-3)
+
+
+@dataclass(frozen=True)
+class Mistake:
+    """A named mistake: its short key, a sentence for the report, and its recomputation."""
+
+    key: str
+    description: str
+    compute: Callable[..., dict]
+
+
+MISTAKES: tuple[Mistake, ...] = (
+    Mistake("ds_for_dls", "used D_s where D_ls belongs", mistake_ds_for_dls),
+    Mistake("comoving_distance", "used comoving distances instead of angular-diameter distances",
+            mistake_comoving_distance),
+    Mistake("luminosity_distance", "used luminosity distances instead of angular-diameter distances",
+            mistake_luminosity_distance),
+    Mistake("diameter_for_radius", "used the ring's diameter as the Einstein radius", mistake_diameter_for_radius),
+    Mistake("arcsec_without_pi_over_180", "converted arcsec to radians by /3600 only (pi/180 missing)",
+            mistake_arcsec_without_pi_over_180),
+    Mistake("arcsec_as_degrees", "converted arcsec as if they were degrees (the /3600 missing)",
+            mistake_arcsec_as_degrees),
+    Mistake("arcsec_as_radians", "used the angle in arcsec as if it were in radians", mistake_arcsec_as_radians),
+    Mistake("h_dropped", "dropped the h^-1 of distances in h^-1 Mpc (answer off by a factor h)", mistake_h_dropped),
+    Mistake("g_cgs_in_si", "used G in cgs units (6.674e-8) in an SI computation", mistake_g_cgs_in_si),
+    Mistake("g_si_in_cgs", "used G in SI units (6.674e-11) in a cgs computation", mistake_g_si_in_cgs),
+    Mistake("c_in_m_per_s", "used c in m/s where km/s belong", mistake_c_in_m_per_s),
+    Mistake("c_in_km_per_s", "used c in km/s in an SI computation", mistake_c_in_km_per_s),
+)
+
+
+def relative_error(submitted, expected) -> np.ndarray:
+    """(submitted - expected) / |expected|."""
+    s, e = np.asarray(submitted, float), np.asarray(expected, float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return (s - e) / np.abs(e)
+
+
+def diagnose(quantity: str, submitted: float, theta_e_arcsec: float, z_l: float, z_s: float, cosmo,
+             tolerance: float = DEFAULT_TOLERANCE, expected: float | None = None) -> list[Mistake]:
+    """The known mistakes whose value of ``quantity`` matches ``submitted`` within ``tolerance``.
+
+    A mistake that does not change this quantity (its value is within the tolerance of
+    the expected one, e.g. a dropped h for sigma_SIS) is never named.
+    """
+    if expected is None:
+        expected = float(expected_quantities(theta_e_arcsec, z_l, z_s, cosmo)[quantity])
+    found = []
+    for mistake in MISTAKES:
+        wrong = float(mistake.compute(theta_e_arcsec, z_l, z_s, cosmo)[quantity])
+        if not np.isfinite(wrong) or abs(relative_error(wrong, expected)) <= tolerance:
+            continue
+        if abs(relative_error(submitted, wrong)) <= tolerance:
+            found.append(mistake)
+    return found
+
+
+def grade_answer(quantity: str, submitted: float, theta_e_arcsec: float, z_l: float, z_s: float, cosmo,
+                 tolerance: float = DEFAULT_TOLERANCE) -> dict:
+    """Grade one submitted number: expected value, relative error, verdict and diagnosis.
+
+    Returns a dict with ``quantity``, ``submitted``, ``expected``, ``relative_error``,
+    ``verdict`` (``"pass"`` when |relative error| <= tolerance, else ``"fail"``),
+    ``diagnosis`` (a sentence, empty on a pass) and ``mistakes`` (the matched keys).
+
+    Examples
+    --------
+    >>> from astropy.cosmology import FlatLambdaCDM
+    >>> cosmo = FlatLambdaCDM(70, 0.3)
+    >>> good = float(expected_quantities(1.0, 0.3, 1.0, cosmo)["r_e_kpc"])
+    >>> grade_answer("r_e_kpc", 2 * good, 1.0, 0.3, 1.0, cosmo)["mistakes"]
+    ['diameter_for_radius']
+    """
+    if quantity not in GRADABLE:
+        raise LensInputError(f"Cannot grade '{quantity}': gradable quantities are {', '.join(GRADABLE)}.")
+    if not (np.isfinite(tolerance) and 0 < tolerance < 1):
+        raise LensInputError(f"The tolerance must be a fraction between 0 and 1 (for example 0.05), got {tolerance}.")
+    expected = float(expected_quantities(theta_e_arcsec, z_l, z_s, cosmo)[quantity])
+    rel = float(relative_error(submitted, expected))
+    verdict = "pass" if np.isfinite(rel) and abs(rel) <= tolerance else "fail"
+    mistakes = [] if verdict == "pass" else diagnose(quantity, submitted, theta_e_arcsec, z_l, z_s, cosmo,
+                                                      tolerance, expected)
+    if verdict == "pass":
+        diagnosis = ""
+    elif mistakes:
+        diagnosis = "matches the answer of someone who " + "; or who ".join(m.description for m in mistakes)
+    else:
+        diagnosis = "off by a factor " + f"{submitted / expected:.3g}" + "; no known mistake matches"
+    return {
+        "quantity": quantity,
+        "submitted": float(submitted),
+        "expected": expected,
+        "relative_error": rel,
+        "verdict": verdict,
+        "diagnosis": diagnosis,
+        "mistakes": [m.key for m in mistakes],
+    }
