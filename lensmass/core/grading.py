@@ -85,7 +85,6 @@ def expected_quantities(theta_e_arcsec, z_l, z_s, cosmo) -> dict[str, np.ndarray
     >>> q = expected_quantities(1.0, 0.3, 1.0, FlatLambdaCDM(70, 0.3))
     >>> f"{float(q['mass_einstein_msun']):.3g}"
     '1.77e+11'
-    True
     """
     from lensmass.core.concentration import concentration_relation
     from lensmass.core.estimate import derive_quantities
