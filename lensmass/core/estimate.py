@@ -200,8 +200,7 @@ def estimate(
                 "check that the two redshifts are not swapped."
             )
     else:
-        lo_support = zs_model[0] if kind == "range" else np.min(zs_model[0][zs_model[1] > 0])
-        hi_support = zs_model[1] if kind == "range" else np.max(zs_model[0][zs_model[1] > 0])
+        lo_support, hi_support = zs_model if kind == "range" else _table_support(*zs_model)
         if np.all(hi_support <= zl):
             raise LensInputError(
                 f"The source must lie behind the lens: every source redshift offered (up to {hi_support:g}) "
@@ -291,8 +290,7 @@ def _versus_zs(theta, zl, kind, zs_model, cosmo, c_of_m, definition, n_points) -
     if kind == "range":
         lo, hi = zs_model
     else:
-        zt, wt = zs_model
-        lo, hi = float(np.min(zt[wt > 0])), float(np.max(zt[wt > 0]))
+        lo, hi = _table_support(*zs_model)
     lo = max(lo, zl * 1.0001 + 1e-4)
     if hi <= lo:
         return []
@@ -302,6 +300,14 @@ def _versus_zs(theta, zl, kind, zs_model, cosmo, c_of_m, definition, n_points) -
         {"z_s": float(z), "mass_einstein_msun": float(m), "sis_sigma_v_kms": float(s)}
         for z, m, s in zip(grid, q["mass_einstein_msun"], q["sis_sigma_v_kms"])
     ]
+
+
+def _table_support(z: np.ndarray, weight: np.ndarray) -> tuple[float, float]:
+    """Redshift interval where a piecewise-linear table has non-zero density."""
+    order = np.argsort(z)
+    z, weight = z[order], weight[order]
+    nonzero = np.flatnonzero(weight > 0)
+    return float(z[max(nonzero[0] - 1, 0)]), float(z[min(nonzero[-1] + 1, len(z) - 1)])
 
 
 def model_descriptions(cosmology_name: str, concentration_label: str, halo_definition: str) -> dict[str, str]:

@@ -89,7 +89,9 @@ def _f_function(x) -> np.ndarray:
     t = x * x - 1.0
     s = np.sqrt(np.abs(t))
     with np.errstate(divide="ignore", invalid="ignore"):
-        inner = np.where(t < 0, np.arctanh(np.minimum(s, 1 - 1e-300)) / s, np.arctan(s) / s)
+        # x < 1: arccosh(1/x) = arctanh(s) (accurate for small s) = ln((1 + s)/x) (accurate as x -> 0).
+        below = np.where(s < 0.5, np.arctanh(s), np.log((1 + s) / x)) / s
+        inner = np.where(t < 0, below, np.arctan(s) / s)
     return np.where(s < 1e-8, 1.0 - t / 3.0, inner)
 
 
