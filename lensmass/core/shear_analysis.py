@@ -1,0 +1,305 @@
+"""The weak-lensing job: a shape catalogue and a centre to a profile, SIS/NFW fits and zeta mass.
+
+The window and the ``lensmass shear`` command both call :func:`analyse_shear_catalog`,
+so every number has one source. Each number is labelled in ``models`` with the model
+and assumptions behind it.
+"""
+
+from __future__ import annotations
+
+from typing import Any, Callable
+
+import numpy as np
+
+from lensmass.core.aperture_mass import zeta_from_profile, zeta_mass_bound_msun
+from lensmass.core.concentration import concentration_relation
+from lensmass.core.constants import ARCSEC_RAD
+from lensmass.core.cosmology import cosmology_label, resolve_cosmology
+from lensmass.core.errors import LensInputError
+from lensmass.core.nfw import HALO_DEFINITIONS, nfw_halo, nfw_mass_2d_msun
+from lensmass.core.shear_fit import cross_shear_test, fit_nfw, fit_sis
+from lensmass.core.shear_profile import (
+    DEFAULT_Z_MARGIN,
+    lensing_efficiency,
+    radial_bin_edges,
+    radius_arcsec,
+    select_sources,
+    shear_profile,
+    tangent_plane_offsets_arcsec,
+    tangential_cross,
+)
+from lensmass.core.uncertainty import DEFAULT_SEED
+
+RADIUS_UNITS = {"arcsec": 1.0, "arcmin": 60.0}
+#: Default inner radius as a fraction of the outer one.
+DEFAULT_INNER_FRACTION = 0.05
+_ZETA_ANNULI = 16
+FIT_KEYS = ("sis_theta_e_arcsec", "sis_sigma_v_kms", "nfw_m200_msun", "nfw_c200", "nfw_r200_kpc")
+
+
+def to_arcsec(value: float, unit: str, d_l_mpc: float) -> float:
+    """A radius in ``arcsec``, ``arcmin`` or ``mpc`` (physical, at the lens) to arcsec."""
+    unit = unit.lower()
+    if unit == "mpc":
+        return float(value) / d_l_mpc / ARCSEC_RAD
+    if unit not in RADIUS_UNITS:
+        raise LensInputError(f"Unknown radius unit '{unit}': use arcsec, arcmin or mpc.")
+    return float(value) * RADIUS_UNITS[unit]
+
+
+def effective_source_redshift(beta_mean: float, z_l: float, cosmo) -> float:
+    """The single source redshift whose D_ls / D_s equals the sample's weighted mean."""
+    z = z_l + np.geomspace(1e-4, 20.0 - z_l, 4000)
+    beta, _, _ = lensing_efficiency(z_l, z, cosmo)
+    if not (beta[0] <= beta_mean <= beta[-1]):
+        return float("nan")
+    return float(np.interp(beta_mean, beta, z))
+
+
+def analyse_shear_catalog(
+    ra_deg,
+    dec_deg,
+    e1,
+    e2,
+    weight=None,
+    z=None,
+    *,
+    z_l: float,
+    center_ra: float,
+    center_dec: float,
+    z_s: float | None = None,
+    r_min: float | None = None,
+    r_max: float | None = None,
+    n_bins: int = 8,
+    unit: str = "arcmin",
+    log_bins: bool = True,
+    cosmology: Any = None,
+    concentration: str | float = "duffy08",
+    halo_definition: str = "200c",
+    free_concentration: bool = False,
+    n_bootstrap: int = 200,
+    seed: int | None = DEFAULT_SEED,
+    zeta_radii: tuple[float, float] | None = None,
+    z_margin: float = DEFAULT_Z_MARGIN,
+    progress: Callable[[float, str], None] | None = None,
+) -> dict[str, Any]:
+    """Profile, fits, cross-shear test and zeta mass of a shape catalogue about a centre.
+
+    Parameters
+    ----------
+    ra_deg, dec_deg, e1, e2, weight, z : array_like
+        Catalogue columns (degrees; ellipticities in the east/north frame; optional
+        weights and per-galaxy source redshifts). Bad rows are dropped and counted.
+    z_l : float
+        Lens redshift.
+    center_ra, center_dec : float
+        The lens centre in degrees.
+    z_s : float, optional
+        One source redshift for all galaxies (instead of ``z``).
+    r_min, r_max, n_bins, unit, log_bins
+        Radial bins, in ``unit`` (arcsec, arcmin or physical mpc at the lens);
+        default r_max = the farthest galaxy, r_min = 5% of r_max.
+    cosmology, concentration, halo_definition, free_concentration
+        As in :func:`lensmass.core.estimate.estimate` (same defaults, so both agree on one halo).
+    n_bootstrap, seed : int
+        Bootstrap resamplings over galaxies for the second set of profile errors.
+    zeta_radii : (float, float), optional
+        Inner and outer radius of the zeta annulus in ``unit``; default the geometric
+        mean of the radial range and r_max.
+    progress : callable, optional
+        ``progress(fraction, message)``, called between stages (it may raise to cancel).
+
+    Returns
+    -------
+    dict
+        ``n_rows``, ``n_used``, ``n_dropped`` (per reason), fit keys (posterior medians),
+        ``best_fit``, ``intervals68``, ``intervals95``, ``chi2_sis``, ``chi2_nfw`` (with dof and
+        p-values), ``cross_shear_chi2``, ``cross_shear_pvalue``, ``zeta``, ``zeta_mass_msun`` with
+        its radii, ``profile`` (one dict per bin), ``notes`` and ``models``.
+    """
+    def step(fraction, message):
+        if progress is not None:
+            progress(fraction, message)
+
+    if halo_definition not in HALO_DEFINITIONS:
+        raise LensInputError(f"Unknown halo definition '{halo_definition}': use one of {', '.join(HALO_DEFINITIONS)}.")
+    cosmo = resolve_cosmology(cosmology)
+    c_of_m, c_label = concentration_relation(concentration, halo_definition)
+    if not (np.isfinite(z_l) and z_l > 0):
+        raise LensInputError(f"The lens redshift must be a positive number, got {z_l}; check --zl.")
+    if z is None and z_s is None:
+        raise LensInputError("No source redshift: give --zs for all galaxies, or map a redshift column with --columns z=NAME.")
+    if z_s is not None and not (np.isfinite(z_s) and z_s > z_l):
+        raise LensInputError(
+            f"The source redshift {z_s:g} is not behind the lens at z_l = {z_l:g}: check --zs and --zl."
+        )
+    if not (np.isfinite(center_ra) and np.isfinite(center_dec) and -90 <= center_dec <= 90):
+        raise LensInputError(f"The centre RA, Dec = {center_ra}, {center_dec} is not on the sky: give degrees.")
+    ra = np.asarray(ra_deg, float)
+    n_rows = int(ra.size)
+    w = np.ones(n_rows) if weight is None else np.asarray(weight, float)
+    step(0.05, "projecting positions")
+    x, y = tangent_plane_offsets_arcsec(ra, dec_deg, center_ra, center_dec)
+    ok, dropped = select_sources(e1, e2, w, z, z_l, positions_ok=np.isfinite(x) & np.isfinite(y), z_margin=z_margin)
+    if z is None:
+        dropped["source_not_behind_lens"] = 0
+    if not np.any(ok):
+        reasons = ", ".join(f"{k.replace('_', ' ')}: {v}" for k, v in dropped.items() if v)
+        raise LensInputError(f"No usable galaxies in the catalogue ({reasons}): check the columns and --zl.")
+    x, y = x[ok], y[ok]
+    e1u, e2u, wu = np.asarray(e1, float)[ok], np.asarray(e2, float)[ok], w[ok]
+    zu = None if z is None else np.asarray(z, float)[ok]
+    step(0.15, "source distances")
+    beta, sigma_cr, d_l = lensing_efficiency(z_l, zu if zu is not None else z_s, cosmo)
+    theta = radius_arcsec(x, y)
+    e_t, e_x = tangential_cross(e1u, e2u, x, y)
+
+    r_max_as = float(np.max(theta)) * (1 + 1e-9) if r_max is None else to_arcsec(r_max, unit, d_l)
+    r_min_as = DEFAULT_INNER_FRACTION * r_max_as if r_min is None else to_arcsec(r_min, unit, d_l)
+    edges = radial_bin_edges(r_min_as, r_max_as, n_bins, log=log_bins)
+    in_range = (theta >= edges[0]) & (theta < edges[-1])
+    dropped["outside_radial_range"] = int(np.count_nonzero(~in_range))
+    step(0.3, "binned profile")
+    profile = shear_profile(theta, e_t, e_x, wu, edges, beta=beta, sigma_cr_msun_per_mpc2=sigma_cr, d_l_mpc=d_l,
+                            n_bootstrap=n_bootstrap, seed=seed)
+    step(0.5, "SIS fit")
+    sis = fit_sis(profile)
+    step(0.65, "NFW fit")
+    nfw = fit_nfw(profile, z_l, cosmo, concentration=concentration, halo_definition=halo_definition,
+                  free_concentration=free_concentration)
+    x2, dof_x, p_x = cross_shear_test(profile)
+
+    step(0.85, "aperture mass")
+    if zeta_radii is None:
+        z_in, z_out = float(np.sqrt(edges[0] * edges[-1])), float(edges[-1])
+    else:
+        z_in, z_out = (to_arcsec(v, unit, d_l) for v in zeta_radii)
+    zeta_edges = radial_bin_edges(z_in, z_out, _ZETA_ANNULI) if 0 < z_in < z_out else None
+    if zeta_edges is None:
+        from lensmass.core.aperture_mass import zeta_prefactor
+
+        zeta_prefactor(z_in, z_out)  # raises the clear message
+    zp = shear_profile(theta, e_t, e_x, wu, zeta_edges, beta=beta, sigma_cr_msun_per_mpc2=sigma_cr, d_l_mpc=d_l)
+    zeta, zeta_err = zeta_from_profile(zeta_edges, zp.g_t, zp.g_t_err, z_in, z_out)
+    zeta_s, zeta_s_err = zeta_from_profile(zeta_edges, zp.delta_sigma_msun_per_mpc2,
+                                           zp.delta_sigma_err_msun_per_mpc2, z_in, z_out)
+    r_in_mpc = z_in * ARCSEC_RAD * d_l
+    zeta_mass = zeta_mass_bound_msun(r_in_mpc, zeta_s)
+    zeta_mass_err = zeta_mass_bound_msun(r_in_mpc, zeta_s_err)
+    nfw_best_halo = nfw_halo(nfw.best["nfw_m200_msun"], nfw.best["nfw_c200"], z_l, cosmo, halo_definition)
+    nfw_m2d_zeta = float(nfw_mass_2d_msun(r_in_mpc, nfw_best_halo))
+
+    step(0.95, "assembling results")
+    result: dict[str, Any] = {
+        "cosmology": cosmology_label(cosmo),
+        "z_l": float(z_l),
+        "center_ra": float(center_ra),
+        "center_dec": float(center_dec),
+        "n_rows": n_rows,
+        "n_used": int(np.count_nonzero(in_range)),
+        "n_dropped": dropped,
+        "source_redshifts": "per-galaxy column" if zu is not None else f"single z_s = {z_s:g}",
+        "z_s_effective": effective_source_redshift(profile.beta_mean, z_l, cosmo),
+        "beta_mean": profile.beta_mean,
+        "d_l_mpc": d_l,
+    }
+    medians, i68, i95, best = {}, {}, {}, {}
+    for fit in (sis, nfw):
+        for key in fit.quantiles:
+            medians[key] = fit.median(key)
+            i68[key] = fit.interval(key, 68)
+            i95[key] = fit.interval(key, 95)
+            best[key] = fit.best[key]
+    result.update({key: medians[key] for key in FIT_KEYS})
+    result.update(medians=medians, intervals68=i68, intervals95=i95, best_fit=best)
+    result.update(
+        chi2_sis=sis.chi2, dof_sis=sis.dof, pvalue_sis=sis.pvalue,
+        chi2_nfw=nfw.chi2, dof_nfw=nfw.dof, pvalue_nfw=nfw.pvalue,
+        cross_shear_chi2=x2, cross_shear_dof=dof_x, cross_shear_pvalue=p_x,
+        zeta=zeta, zeta_err=zeta_err,
+        zeta_mass_msun=zeta_mass, zeta_mass_err_msun=zeta_mass_err,
+        zeta_radius_arcsec=z_in, zeta_outer_radius_arcsec=z_out,
+        zeta_radius_kpc=r_in_mpc * 1e3, zeta_outer_radius_kpc=z_out * ARCSEC_RAD * d_l * 1e3,
+        nfw_mass_2d_at_zeta_radius_msun=nfw_m2d_zeta,
+        free_concentration=bool(free_concentration),
+    )
+    result["profile"] = profile_rows(profile, sis.model_profile, nfw.model_profile)
+    result["notes"] = _notes(sis, nfw, p_x, dropped, zeta_mass, zeta_mass_err, nfw_m2d_zeta, zu is not None)
+    result["models"] = model_descriptions(result["cosmology"], c_label, halo_definition, free_concentration,
+                                          result["source_redshifts"])
+    result["_profile"] = profile
+    result["_fits"] = {"sis": sis, "nfw": nfw}
+    step(1.0, "done")
+    return result
+
+
+def profile_rows(profile, sis_model, nfw_model) -> list[dict[str, float]]:
+    """The binned profile as one dict per bin (radii in arcsec and kpc, Delta Sigma in Msun/pc^2)."""
+    e = profile.edges_arcsec
+    to_kpc = ARCSEC_RAD * profile.d_l_mpc * 1e3
+    ds = profile.delta_sigma_msun_per_mpc2
+    dse = profile.delta_sigma_err_msun_per_mpc2
+    rows = []
+    for i in range(e.size - 1):
+        rows.append({
+            "r_lo_arcsec": float(e[i]), "r_hi_arcsec": float(e[i + 1]),
+            "r_mean_arcsec": float(profile.r_mean_arcsec[i]), "r_mean_kpc": float(profile.r_mean_arcsec[i] * to_kpc),
+            "n_galaxies": int(profile.n_galaxies[i]),
+            "g_t": float(profile.g_t[i]), "g_t_err": float(profile.g_t_err[i]),
+            "g_t_err_bootstrap": float(profile.g_t_err_boot[i]),
+            "g_x": float(profile.g_x[i]), "g_x_err": float(profile.g_x_err[i]),
+            "g_x_err_bootstrap": float(profile.g_x_err_boot[i]),
+            "delta_sigma_msun_per_pc2": float(ds[i] * 1e-12) if ds is not None else float("nan"),
+            "delta_sigma_err_msun_per_pc2": float(dse[i] * 1e-12) if dse is not None else float("nan"),
+            "g_t_model_sis": float(sis_model[i]), "g_t_model_nfw": float(nfw_model[i]),
+        })
+    return rows
+
+
+def _notes(sis, nfw, p_cross, dropped, zeta_mass, zeta_err, nfw_m2d, per_galaxy_z) -> list[str]:
+    notes = list(sis.notes) + list(nfw.notes)
+    total = sum(v for k, v in dropped.items() if k != "outside_radial_range")
+    if total:
+        parts = ", ".join(f"{v} {k.replace('_', ' ')}" for k, v in dropped.items() if v and k != "outside_radial_range")
+        notes.append(f"{total} catalogue rows were dropped ({parts}).")
+    if np.isfinite(p_cross) and p_cross < 0.01:
+        notes.append(f"The cross shear is not consistent with zero (p = {p_cross:.2g}): suspect a wrong centre, "
+                     "a flipped e1/e2 sign convention, or PSF residuals.")
+    for fit in (sis, nfw):
+        if np.isfinite(fit.pvalue) and fit.pvalue < 0.01:
+            notes.append(f"The {fit.model} model fits poorly (p = {fit.pvalue:.2g}).")
+    if np.isfinite(zeta_mass) and np.isfinite(nfw_m2d) and zeta_mass > nfw_m2d + 2 * zeta_err:
+        notes.append("The zeta lower bound exceeds the projected mass of the fitted NFW halo at that radius "
+                     "by more than 2 sigma: the NFW fit may underestimate the mass.")
+    if per_galaxy_z:
+        notes.append("Per-galaxy redshifts are used as given: photometric-redshift errors and outliers bias "
+                     "Sigma_cr and are not propagated.")
+    notes.append("Masses are model-dependent estimates; see 'models' for the model behind each number.")
+    return notes
+
+
+def model_descriptions(cosmology_name: str, concentration_label: str, halo_definition: str,
+                       free_concentration: bool, source_redshifts: str) -> dict[str, str]:
+    """Which model and assumptions produced each reported number."""
+    boundary = {"200c": "200 x critical density at z_l", "200m": "200 x mean matter density at z_l",
+                "vir": "virial overdensity of Bryan & Norman (1998) at z_l"}[halo_definition]
+    like = ("Gaussian likelihood of the binned tangential reduced shear (shape-noise errors), "
+            f"posterior on a grid, flat prior in log; value = posterior median; distances in {cosmology_name}; "
+            f"source redshifts: {source_redshifts}")
+    c_text = "c free (flat prior in log c, 0.3-40)" if free_concentration else f"c from {concentration_label}"
+    nfw = f"NFW halo (Wright & Brainerd 2000), boundary {boundary}, {c_text}; {like}"
+    zeta = ("aperture densitometry (Fahlman et al. 1994): model-independent lower bound on the projected mass "
+            "inside the inner radius, from the Delta Sigma profile in the annulus (weak-shear limit)")
+    return {
+        "sis_sigma_v_kms": "singular isothermal sphere fitted to the reduced shear; " + like,
+        "sis_theta_e_arcsec": "Einstein radius of the fitted SIS for a source at z_s_effective "
+        "(the redshift with the sample's mean D_ls/D_s)",
+        "nfw_m200_msun": nfw,
+        "nfw_c200": nfw,
+        "nfw_r200_kpc": nfw,
+        "zeta_mass_msun": zeta,
+        "zeta": "zeta(theta1, theta2) = mean kappa inside theta1 minus mean kappa in the annulus (Fahlman et al. 1994)",
+        "delta_sigma_msun_per_pc2": "excess surface density Sigma_cr g_t, each galaxy's own Sigma_cr, weights w / Sigma_cr^2",
+        "cross_shear_pvalue": "chi^2 of the binned cross shear against zero (expected for lensing)",
+        "nfw_mass_2d_at_zeta_radius_msun": "projected mass of the best-fit NFW halo inside the zeta inner radius",
+    }

@@ -1,0 +1,225 @@
+"""Read weak-lensing shape catalogues: FITS binary tables, CSV, ECSV and Parquet.
+
+A catalogue is mapped onto six roles: ``ra``, ``dec`` (degrees), ``e1``, ``e2``
+(ellipticity components in the east/north frame, e1 > 0 elongated east-west),
+``weight`` (optional, default 1) and ``z`` (optional per-galaxy source redshift).
+Column names are matched to roles by an explicit map (``ra=RA,dec=DEC,...``) or,
+for roles left out, by a few usual spellings, case-insensitively.
+
+Examples
+--------
+>>> parse_column_map("ra=RA, e1=G1")
+{'ra': 'RA', 'e1': 'G1'}
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from lensmass.core.errors import LensInputError
+
+ROLES = ("ra", "dec", "e1", "e2", "weight", "z")
+REQUIRED_ROLES = ("ra", "dec", "e1", "e2")
+
+#: Spellings tried, in order, for a role the user did not map (compared lower-case).
+USUAL_NAMES = {
+    "ra": ("ra", "alpha", "ra_deg", "raj2000", "alpha_j2000"),
+    "dec": ("dec", "delta", "dec_deg", "dej2000", "decj2000", "delta_j2000"),
+    "e1": ("e1", "g1", "eps1", "e_1"),
+    "e2": ("e2", "g2", "eps2", "e_2"),
+    "weight": ("weight", "w", "wt", "weights"),
+    "z": ("z", "zphot", "z_phot", "photoz", "z_b", "zs", "z_s", "redshift"),
+}
+
+_SUFFIX_FORMATS = {
+    ".fits": "fits", ".fit": "fits", ".fts": "fits", ".gz": "fits",
+    ".csv": "ascii.csv", ".ecsv": "ascii.ecsv",
+    ".parquet": "parquet", ".pq": "parquet",
+}
+
+
+@dataclass
+class ShearCatalog:
+    """Columns of a shape catalogue as float arrays (one row per galaxy).
+
+    ``z`` is None when the catalogue has no redshift column (a single source
+    redshift is then given separately); ``columns`` records which file column
+    fed each role, and ``flips`` which ellipticity signs were flipped.
+    """
+
+    ra_deg: np.ndarray
+    dec_deg: np.ndarray
+    e1: np.ndarray
+    e2: np.ndarray
+    weight: np.ndarray
+    z: np.ndarray | None
+    path: str = ""
+    columns: dict[str, str] = field(default_factory=dict)
+    flips: tuple[str, ...] = ()
+
+    @property
+    def n_rows(self) -> int:
+        return int(self.ra_deg.size)
+
+
+def parse_column_map(text: str | None) -> dict[str, str]:
+    """``"ra=RA,dec=DEC,e1=E1"`` to ``{"ra": "RA", ...}``, with clear messages."""
+    if not text:
+        return {}
+    mapping: dict[str, str] = {}
+    for item in str(text).split(","):
+        item = item.strip()
+        if not item:
+            continue
+        role, sep, name = (s.strip() for s in item.partition("="))
+        role = role.lower()
+        if not sep or not name:
+            raise LensInputError(f"Column mapping '{item}' must read ROLE=COLUMN (for example e1=E1).")
+        if role not in ROLES:
+            raise LensInputError(f"Unknown column role '{role}' in --columns: use {', '.join(ROLES)}.")
+        mapping[role] = name
+    return mapping
+
+
+def catalog_format(path: str | Path) -> str:
+    """The astropy table format for a catalogue file, from its suffix."""
+    p = Path(path)
+    suffix = p.suffix.lower()
+    if suffix not in _SUFFIX_FORMATS:
+        raise LensInputError(
+            f"Cannot tell the format of '{p.name}': name it .fits, .csv, .ecsv or .parquet."
+        )
+    if suffix == ".gz" and not p.name.lower().endswith((".fits.gz", ".fit.gz")):
+        raise LensInputError(f"Only gzipped FITS catalogues (.fits.gz) are read, not '{p.name}'.")
+    return _SUFFIX_FORMATS[suffix]
+
+
+def _read_table(path: Path, fmt: str, columns: list[str] | None = None):
+    from astropy.table import Table
+
+    if not path.is_file():
+        raise LensInputError(f"Catalogue '{path}' does not exist: check the path.")
+    if fmt == "parquet":
+        try:
+            import pyarrow  # noqa: F401
+        except ImportError:
+            raise LensInputError("Reading Parquet needs pyarrow: pip install pyarrow, or convert to FITS/CSV.") from None
+    try:
+        if fmt == "fits":
+            return Table.read(path, format="fits", memmap=True, character_as_bytes=False)
+        if fmt == "parquet" and columns:
+            return Table.read(path, format="parquet", include_names=columns)
+        return Table.read(path, format=fmt)
+    except Exception as exc:  # astropy and its readers raise many kinds here
+        raise LensInputError(
+            f"Cannot read catalogue '{path.name}' as {fmt.upper()} ({type(exc).__name__}): "
+            "check that the file is complete and in that format."
+        ) from None
+
+
+def resolve_columns(colnames: list[str], mapping: dict[str, str], *, need_z: bool = False) -> dict[str, str]:
+    """Match roles to file columns: the explicit map first, then the usual spellings.
+
+    Raises a :class:`LensInputError` naming a missing column and listing those present.
+    """
+    lower = {n.lower(): n for n in colnames}
+    present = ", ".join(colnames) if len(colnames) <= 30 else ", ".join(colnames[:30]) + ", ..."
+    guesses = guess_columns(colnames)
+    resolved: dict[str, str] = {}
+    for role in ROLES:
+        if role in mapping:
+            name = mapping[role]
+            actual = name if name in colnames else lower.get(name.lower())
+            if actual is None:
+                raise LensInputError(
+                    f"The catalogue has no column '{name}' (mapped to {role}); its columns are: {present}."
+                )
+            resolved[role] = actual
+        elif role in guesses:
+            resolved[role] = guesses[role]
+    for role in REQUIRED_ROLES + (("z",) if need_z else ()):
+        if role not in resolved:
+            raise LensInputError(
+                f"The catalogue has no column for {role}: map one with --columns {role}=NAME "
+                f"(its columns are: {present})."
+            )
+    return resolved
+
+
+def _float_column(table, name: str, role: str) -> np.ndarray:
+    col = table[name]
+    if getattr(col, "ndim", 1) != 1:
+        raise LensInputError(f"Column '{name}' ({role}) holds arrays per row; map a column of single numbers.")
+    try:
+        data = np.ma.filled(np.ma.asarray(col, dtype=float), np.nan)
+    except (TypeError, ValueError):
+        raise LensInputError(f"Column '{name}' ({role}) is not numeric: map a numeric column with --columns.") from None
+    return np.ascontiguousarray(data, dtype=float)
+
+
+def read_shear_catalog(
+    path: str | Path,
+    columns: dict[str, str] | str | None = None,
+    *,
+    need_z: bool = False,
+    flip_e1: bool = False,
+    flip_e2: bool = False,
+) -> ShearCatalog:
+    """Read a shape catalogue into float arrays.
+
+    Parameters
+    ----------
+    path : str or Path
+        ``.fits`` (binary table in the first table HDU), ``.csv``, ``.ecsv`` or ``.parquet``.
+    columns : dict or str, optional
+        Role -> column name, or the ``ra=RA,dec=DEC,...`` text form.
+    need_z : bool
+        Require a redshift column (when no single source redshift is given).
+    flip_e1, flip_e2 : bool
+        Flip the sign of e1 or e2, for catalogues in another sign convention.
+
+    Returns
+    -------
+    ShearCatalog
+        Rows are not filtered here (NaNs stay): :func:`lensmass.core.shear_profile.select_sources`
+        drops and counts bad rows.
+    """
+    path = Path(path)
+    mapping = parse_column_map(columns) if isinstance(columns, str) or columns is None else dict(columns)
+    fmt = catalog_format(path)
+    table = _read_table(path, fmt)
+    if len(table) == 0:
+        raise LensInputError(f"Catalogue '{path.name}' has no rows: it needs one row per galaxy.")
+    resolved = resolve_columns(list(table.colnames), mapping, need_z=need_z)
+    data = {role: _float_column(table, name, role) for role, name in resolved.items()}
+    e1 = -data["e1"] if flip_e1 else data["e1"]
+    e2 = -data["e2"] if flip_e2 else data["e2"]
+    weight = data.get("weight")
+    if weight is None:
+        weight = np.ones_like(e1)
+    flips = tuple(n for n, f in (("e1", flip_e1), ("e2", flip_e2)) if f)
+    return ShearCatalog(data["ra"], data["dec"], e1, e2, weight, data.get("z"), str(path), resolved, flips)
+
+
+def preview_catalog(path: str | Path, n_rows: int = 5) -> tuple[list[str], list[list[str]]]:
+    """Column names and the first rows as text, for a column-mapping dialog."""
+    path = Path(path)
+    table = _read_table(path, catalog_format(path))
+    head = table[: max(0, int(n_rows))]
+    rows = [[str(head[name][i]) for name in table.colnames] for i in range(len(head))]
+    return list(table.colnames), rows
+
+
+def guess_columns(colnames: list[str]) -> dict[str, str]:
+    """The role -> column guesses :func:`resolve_columns` would make (missing roles left out)."""
+    lower = {n.lower(): n for n in colnames}
+    out = {}
+    for role in ROLES:
+        for guess in USUAL_NAMES[role]:
+            if guess in lower:
+                out[role] = lower[guess]
+                break
+    return out
