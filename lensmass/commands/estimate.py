@@ -13,6 +13,7 @@ from lensmass.commands.common import (
     format_table,
     parse_pair,
 )
+from lensmass.commands.light_options import LIGHT_ROWS, add_light_options, apply_light
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -28,6 +29,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     add_cosmology_options(parser)
     add_halo_options(parser)
     add_sampling_options(parser)
+    add_light_options(parser)
     parser.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
 
 
@@ -68,8 +70,8 @@ def print_result(result: dict, as_json: bool, extra_rows=()) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    result = estimate_from_args(args, args.theta_e, args.theta_e_err)
-    print_result(result, args.json)
+    result = apply_light(args, estimate_from_args(args, args.theta_e, args.theta_e_err))
+    print_result(result, args.json, extra_rows=LIGHT_ROWS)
     return 0
 
 

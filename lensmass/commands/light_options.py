@@ -1,0 +1,148 @@
+"""The lens-light options shared by ``lensmass estimate`` and ``lensmass measure``.
+
+``add_light_options(parser)`` adds them; ``apply_light(args, result, ...)`` runs the core
+:func:`lensmass.core.light.add_light` on an estimate result when any of them is given
+(with photometry on the image first, for ``measure``); ``LIGHT_ROWS`` are the extra
+rows of the readable table.
+"""
+
+from __future__ import annotations
+
+import argparse
+from typing import Any
+
+import numpy as np
+
+from lensmass.core.errors import LensInputError
+
+#: Display name and unit of the light keys (after the core rows of the table).
+LIGHT_ROWS = [
+    ("distance_modulus", "DM", "mag"),
+    ("light_abs_mag", "abs mag(<thE)", "mag"),
+    ("light_abs_mag_total", "abs mag total", "mag"),
+    ("light_fraction_einstein", "L frac<theta_E", ""),
+    ("light_luminosity_lsun", "L(<theta_E)", "Lsun (band)"),
+    ("light_luminosity_total_lsun", "L_total", "Lsun (band)"),
+    ("mass_to_light", "M/L(<theta_E)", "Msun/Lsun"),
+    ("stellar_ml", "stellar M/L", "Msun/Lsun"),
+    ("stellar_mass_total_msun", "M*_total", "Msun"),
+    ("stellar_mass_einstein_msun", "M*(<theta_E)", "Msun"),
+    ("dark_fraction_einstein", "f_DM(<theta_E)", ""),
+    ("two_component_halo_m200_msun", "stars+NFW M200", "Msun"),
+    ("two_component_halo_c200", "stars+NFW c200", ""),
+]
+
+_LIGHT_FLAGS = ("lens_mag", "stellar_ml", "stellar_mass", "zeropoint", "zeropoint_key")
+
+
+def add_light_options(parser: argparse.ArgumentParser, *, image: bool = False) -> None:
+    """Options of the light step; ``image=True`` adds the photometry-on-the-image options."""
+    g = parser.add_argument_group("lens light (luminosity, M/L, stars versus dark matter)")
+    g.add_argument("--lens-mag", type=float, metavar="MAG", help="total apparent magnitude of the lens galaxy")
+    g.add_argument("--lens-mag-err", type=float, default=0.0, metavar="E", help="1-sigma error of the magnitude")
+    g.add_argument("--band", metavar="NAME", help="band of the magnitude: U B V R I, sdss_u..sdss_z, 2mass_j/h/ks, "
+                   "acs_f606w, acs_f814w, wfc3_f160w")
+    g.add_argument("--mag-system", default="AB", choices=("AB", "Vega", "ab", "vega"), help="magnitude system (default AB)")
+    g.add_argument("--r-eff", type=float, metavar="ARCSEC", help="effective (half-light) radius of the lens")
+    g.add_argument("--sersic-n", type=float, metavar="N", help="Sersic index of the light (default: de Vaucouleurs, n = 4)")
+    g.add_argument("--light-profile", default="devaucouleurs", choices=("devaucouleurs", "hernquist"),
+                   help="stellar profile when no Sersic index is given (default devaucouleurs)")
+    g.add_argument("--kcorr", type=float, default=0.0, metavar="K", help="k-correction in mag (default 0)")
+    g.add_argument("--extinction", type=float, default=0.0, metavar="A", help="Galactic extinction in mag (default 0)")
+    stars = g.add_mutually_exclusive_group()
+    stars.add_argument("--stellar-ml", type=float, metavar="Y", help="stellar mass-to-light ratio in solar units of the band")
+    stars.add_argument("--stellar-mass", type=float, metavar="MSUN", help="total stellar mass of the lens in Msun")
+    g.add_argument("--stellar-ml-err", type=float, default=0.0, metavar="E", help="1-sigma error of --stellar-ml")
+    g.add_argument("--stellar-mass-err", type=float, default=0.0, metavar="DEX", help="error of --stellar-mass in dex")
+    g.add_argument("--imf", metavar="NAME", help="IMF behind the stellar M/L or mass (quoted in the notes), e.g. Chabrier")
+    if image:
+        p = parser.add_argument_group("photometry on the image (light inside theta_E)")
+        p.add_argument("--zeropoint", type=float, metavar="ZP", help="magnitude of one count per second")
+        p.add_argument("--zeropoint-key", metavar="KEY", help="FITS header keyword holding the zeropoint")
+        p.add_argument("--exptime", type=float, metavar="S", help="exposure time in s (default: EXPTIME of the header, else 1)")
+        p.add_argument("--sky-annulus", default="4,6", metavar="IN,OUT",
+                       help="sky annulus in units of theta_E (default 4,6)")
+        p.add_argument("--arc-width", type=float, default=3.0, metavar="PIX",
+                       help="width in pixels of the band masked around marked arc points (default 3)")
+        p.add_argument("--mask-bright", action="store_true",
+                       help="also mask pixels standing 3 sigma above the lens light of their ring")
+
+
+def light_requested(args: argparse.Namespace) -> bool:
+    """True when any option that starts the light step was given."""
+    return any(getattr(args, flag, None) is not None for flag in _LIGHT_FLAGS)
+
+
+def _header_number(header, key: str, what: str) -> float:
+    if header is None or key not in header:
+        raise LensInputError(f"The image header has no keyword '{key}' for the {what}: check the name or give the value directly.")
+    try:
+        value = float(header[key])
+    except (TypeError, ValueError):
+        raise LensInputError(f"Header keyword '{key}' holds '{header[key]}', not a number usable as the {what}.") from None
+    return value
+
+
+def image_photometry(args: argparse.Namespace, image, header, *, x_pix: float, y_pix: float, theta_e_pix: float,
+                     axis_ratio: float = 1.0, theta_rad: float = 0.0, arc_points_xy=None) -> dict[str, Any]:
+    """Aperture magnitude of the lens inside theta_E from the options (zeropoint, exposure, masks)."""
+    from lensmass.commands.common import parse_pair
+    from lensmass.core.photometry import counts_to_magnitude, lens_aperture_photometry
+
+    if args.zeropoint is not None and args.zeropoint_key:
+        raise LensInputError("Give the zeropoint one way only: --zeropoint ZP or --zeropoint-key KEY.")
+    zp = args.zeropoint if args.zeropoint is not None else _header_number(header, args.zeropoint_key, "zeropoint")
+    if args.exptime is not None:
+        exptime, exp_source = float(args.exptime), "--exptime"
+    elif header is not None and "EXPTIME" in header:
+        exptime, exp_source = _header_number(header, "EXPTIME", "exposure time"), "header EXPTIME"
+    else:
+        exptime, exp_source = 1.0, "none given: image taken as counts per second"
+    phot = lens_aperture_photometry(
+        image, x_pix, y_pix, theta_e_pix, axis_ratio=axis_ratio, theta_rad=theta_rad,
+        annulus=parse_pair(args.sky_annulus, "--sky-annulus"), arc_points_xy=arc_points_xy,
+        arc_width_pix=args.arc_width, mask_residuals=args.mask_bright,
+    )
+    mag, mag_err = counts_to_magnitude(phot.flux, phot.flux_err, zp, exptime)
+    g = phot.geometry
+    return {
+        "aperture_mag": mag, "aperture_mag_err": mag_err, "flux": phot.flux, "flux_err": phot.flux_err,
+        "sky_per_pixel": phot.sky_per_pixel, "sky_std": phot.sky_std, "sky_pixels": phot.sky_pixels,
+        "masked_pixels_in_aperture": phot.masked_in_aperture, "zeropoint": zp, "exptime_s": exptime,
+        "exptime_source": exp_source, "aperture": {"x_pix": g.x_pix, "y_pix": g.y_pix, "a_pix": g.a_pix,
+        "b_pix": g.b_pix, "theta_rad": g.theta_rad, "annulus_in_pix": g.annulus_in_pix,
+        "annulus_out_pix": g.annulus_out_pix},
+    }
+
+
+def apply_light(args: argparse.Namespace, result: dict, *, image=None, header=None, cosmology=None,
+                **geometry) -> dict:
+    """Run the light step on ``result`` when asked; photometry on ``image`` for measure.
+
+    ``geometry`` holds ``x_pix``, ``y_pix``, ``theta_e_pix`` and optionally ``axis_ratio``,
+    ``theta_rad`` and ``arc_points_xy`` (pixels) for the aperture.
+    """
+    if not light_requested(args):
+        return result
+    from lensmass.commands.common import cosmology_from_args
+    from lensmass.core.light import add_light
+
+    aperture = {}
+    if image is not None and getattr(args, "lens_mag", None) is None and (
+            getattr(args, "zeropoint", None) is not None or getattr(args, "zeropoint_key", None)):
+        phot = image_photometry(args, np.asarray(image, float), header, **geometry)
+        result["light_photometry"] = phot
+        aperture = {"aperture_mag": phot["aperture_mag"], "aperture_mag_err": phot["aperture_mag_err"]}
+    elif getattr(args, "lens_mag", None) is None and getattr(args, "stellar_mass", None) is None:
+        hint = " and --zeropoint ZP (or --zeropoint-key KEY)" if hasattr(args, "zeropoint") else ""
+        raise LensInputError(f"The light step needs the lens brightness: give --lens-mag MAG with --band{hint}.")
+    return add_light(
+        result,
+        band=args.band, mag_system=args.mag_system, lens_mag=args.lens_mag, lens_mag_err=args.lens_mag_err,
+        r_eff_arcsec=args.r_eff, sersic_n=args.sersic_n, stellar_profile=args.light_profile,
+        kcorr=args.kcorr, extinction=args.extinction, stellar_ml=args.stellar_ml, stellar_ml_err=args.stellar_ml_err,
+        stellar_mass_msun=args.stellar_mass, stellar_mass_err_dex=args.stellar_mass_err, imf=args.imf,
+        cosmology=cosmology if cosmology is not None else cosmology_from_args(args),
+        concentration=args.concentration, halo_definition=args.halo_definition,
+        samples=args.samples, seed=args.seed, **aperture,
+    )
