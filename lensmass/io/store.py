@@ -1,0 +1,444 @@
+"""The grade store of a triage queue: every grade and measurement, from every grader, kept.
+
+Each call of :meth:`GradeStore.add_grade` adds one row (grader, candidate, time,
+grade, flag, note); nothing is ever updated or deleted, so the history of a
+candidate is the list of its rows. A grader's current opinion is their latest row;
+the consensus of a candidate is over the graders' current opinions.
+
+Backends share one interface: SQLite (default; a file beside the manifest, WAL
+mode so several graders on one machine or a shared disk can write at once) and
+PostgreSQL (``postgresql://user@host:port/db``) for a team on several machines.
+A PostgreSQL write that fails because the connection is lost goes to a local
+spool (SQLite, beside the manifest) and is sent when the connection returns.
+
+The grade scale (our own; it names what is seen, not a probability):
+
+====  ================  ==========================================================
+0     empty             no lensing feature: artefact, spiral arm, unrelated object
+1     lone feature      one arc-like or blue feature, no counter-image seen
+2     counter-imaged    an arc or image with a plausible counter-image
+3     measurable        a ring, arcs or several images fit by one lens: measure it
+====  ================  ==========================================================
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import socket
+import sqlite3
+import uuid
+from dataclasses import dataclass
+from datetime import datetime, timezone
+from pathlib import Path
+from typing import Any, Iterable
+
+from lensmass.core.errors import LensInputError
+
+#: grade -> (name, meaning). Documented in the ``lensmass gui`` help and the README.
+GRADE_SCALE: dict[int, tuple[str, str]] = {
+    0: ("empty", "no lensing feature: artefact, spiral arm or unrelated object"),
+    1: ("lone feature", "one arc-like or blue feature, no counter-image seen"),
+    2: ("counter-imaged", "an arc or image with a plausible counter-image"),
+    3: ("measurable", "a ring, arcs or several images explained by one lens: measure it"),
+}
+
+#: Candidates whose graders' current grades span at least this many steps are "disputed".
+DISAGREEMENT_STEPS = 2
+
+GRADE_COLUMNS = ("uid", "queue", "candidate", "grader", "grade", "flagged", "note", "created_utc", "machine")
+MEASUREMENT_COLUMNS = ("uid", "queue", "candidate", "grader", "created_utc", "result_json")
+
+_SCHEMA = """
+CREATE TABLE IF NOT EXISTS lm_grades (
+    row_id {serial},
+    uid TEXT NOT NULL UNIQUE,
+    queue TEXT NOT NULL,
+    candidate TEXT NOT NULL,
+    grader TEXT NOT NULL,
+    grade INTEGER,
+    flagged INTEGER NOT NULL DEFAULT 0,
+    note TEXT NOT NULL DEFAULT '',
+    created_utc TEXT NOT NULL,
+    machine TEXT NOT NULL DEFAULT ''
+);
+CREATE INDEX IF NOT EXISTS lm_grades_by_candidate ON lm_grades (queue, candidate);
+CREATE TABLE IF NOT EXISTS lm_measurements (
+    row_id {serial},
+    uid TEXT NOT NULL UNIQUE,
+    queue TEXT NOT NULL,
+    candidate TEXT NOT NULL,
+    grader TEXT NOT NULL,
+    created_utc TEXT NOT NULL,
+    result_json TEXT NOT NULL
+);
+CREATE INDEX IF NOT EXISTS lm_measurements_by_candidate ON lm_measurements (queue, candidate);
+"""
+
+
+def grade_label(grade: int | None) -> str:
+    """``"2 counter-imaged"`` for 2; ``"ungraded"`` for None."""
+    if grade is None:
+        return "ungraded"
+    return f"{grade} {GRADE_SCALE[int(grade)][0]}"
+
+
+def grade_scale_help() -> str:
+    """The scale as lines of help text."""
+    return "\n".join(f"  {g}  {name:<15} {meaning}" for g, (name, meaning) in GRADE_SCALE.items())
+
+
+def now_utc() -> str:
+    """ISO 8601 UTC time with microseconds (sorts as text)."""
+    return datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
+
+
+def check_grade(grade) -> int | None:
+    """A grade of the scale (or None); one clear sentence otherwise."""
+    if grade is None:
+        return None
+    try:
+        g = int(grade)
+        if g != float(grade):
+            raise ValueError
+    except (TypeError, ValueError):
+        g = -1
+    if g not in GRADE_SCALE:
+        raise LensInputError(
+            f"A grade must be one of {', '.join(map(str, GRADE_SCALE))} (see the grade scale), got {grade!r}."
+        )
+    return g
+
+
+@dataclass(frozen=True)
+class Receipt:
+    """What happened to a write: ``saved`` in the store, or ``queued`` locally (with why)."""
+
+    status: str
+    message: str = ""
+
+    @property
+    def saved(self) -> bool:
+        return self.status == "saved"
+
+
+class GradeStore:
+    """Common SQL for both backends. Subclasses provide ``_connect`` and the dialect."""
+
+    backend = "sql"
+    placeholder = "?"
+    serial = "INTEGER PRIMARY KEY AUTOINCREMENT"
+
+    def __init__(self, queue: str, grader: str | None = None):
+        self.queue = str(queue)
+        self.grader = grader or default_grader()
+        self._conn = None
+
+    # --- dialect hooks ---------------------------------------------------------------
+    def _connect(self):  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    def _sql(self, text: str) -> str:
+        return text if self.placeholder == "?" else text.replace("?", self.placeholder)
+
+    def _create_schema(self, conn) -> None:
+        for stmt in _SCHEMA.format(serial=self.serial).split(";"):
+            if stmt.strip():
+                conn.execute(stmt)
+        self._commit(conn)
+
+    def _commit(self, conn) -> None:
+        conn.commit()
+
+    def _rows(self, sql: str, params: Iterable = ()) -> list[tuple]:
+        cur = self._connection().execute(self._sql(sql), tuple(params))
+        rows = cur.fetchall()
+        self._commit(self._connection())
+        return rows
+
+    def _insert(self, table: str, columns: tuple[str, ...], values: tuple) -> None:
+        conn = self._connection()
+        marks = ", ".join("?" for _ in columns)
+        conn.execute(self._sql(f"INSERT INTO {table} ({', '.join(columns)}) VALUES ({marks}) "
+                               "ON CONFLICT (uid) DO NOTHING"), values)
+        self._commit(conn)
+
+    def _connection(self):
+        if self._conn is None:
+            self._conn = self._connect()
+        return self._conn
+
+    def close(self) -> None:
+        if self._conn is not None:
+            try:
+                self._conn.close()
+            finally:
+                self._conn = None
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.close()
+
+    # --- writes ----------------------------------------------------------------------
+    def grade_row(self, candidate: str, grade=None, *, flagged: bool = False, note: str = "",
+                  grader: str | None = None) -> tuple:
+        """The row :meth:`add_grade` writes (validated), in :data:`GRADE_COLUMNS` order."""
+        if not str(candidate).strip():
+            raise LensInputError("A grade needs a candidate id: choose a candidate in the queue first.")
+        return (uuid.uuid4().hex, self.queue, str(candidate), grader or self.grader, check_grade(grade),
+                int(bool(flagged)), str(note or ""), now_utc(), socket.gethostname())
+
+    def add_grade(self, candidate: str, grade=None, *, flagged: bool = False, note: str = "",
+                  grader: str | None = None) -> Receipt:
+        """Record one grader's current grade, flag and note of a candidate (a new row)."""
+        return self._write("lm_grades", GRADE_COLUMNS, self.grade_row(candidate, grade, flagged=flagged,
+                                                                      note=note, grader=grader))
+
+    def add_measurement(self, candidate: str, result: dict, *, grader: str | None = None) -> Receipt:
+        """Store a measurement result (an ``estimate`` mapping) with the candidate."""
+        from lensmass.io.jsonout import dumps
+
+        values = (uuid.uuid4().hex, self.queue, str(candidate), grader or self.grader, now_utc(),
+                  dumps(result, indent=None))
+        return self._write("lm_measurements", MEASUREMENT_COLUMNS, values)
+
+    def _write(self, table: str, columns: tuple[str, ...], values: tuple) -> Receipt:
+        self._insert(table, columns, values)
+        return Receipt("saved")
+
+    # --- reads -----------------------------------------------------------------------
+    def history(self, candidate: str | None = None) -> list[dict[str, Any]]:
+        """Every grade row (of one candidate, or all), oldest first."""
+        where, params = "WHERE queue = ?", [self.queue]
+        if candidate is not None:
+            where += " AND candidate = ?"
+            params.append(str(candidate))
+        rows = self._rows(f"SELECT {', '.join(GRADE_COLUMNS)} FROM lm_grades {where} "
+                          "ORDER BY created_utc, row_id", params)
+        out = []
+        for r in rows:
+            d = dict(zip(GRADE_COLUMNS, r))
+            d["flagged"] = bool(d["flagged"])
+            out.append(d)
+        return out
+
+    def current(self) -> dict[tuple[str, str], dict[str, Any]]:
+        """Each (candidate, grader)'s latest row."""
+        latest: dict[tuple[str, str], dict[str, Any]] = {}
+        for row in self.history():
+            latest[(row["candidate"], row["grader"])] = row
+        return latest
+
+    def consensus(self) -> list[dict[str, Any]]:
+        """Per candidate: graders' current grades, mean, spread, count, flags (see :func:`consensus_of`)."""
+        return consensus_of(self.current().values())
+
+    def measurements(self, candidate: str | None = None) -> list[dict[str, Any]]:
+        """Stored measurements, oldest first; ``result`` is the parsed mapping."""
+        where, params = "WHERE queue = ?", [self.queue]
+        if candidate is not None:
+            where += " AND candidate = ?"
+            params.append(str(candidate))
+        rows = self._rows(f"SELECT {', '.join(MEASUREMENT_COLUMNS)} FROM lm_measurements {where} "
+                          "ORDER BY created_utc, row_id", params)
+        out = []
+        for r in rows:
+            d = dict(zip(MEASUREMENT_COLUMNS, r))
+            d["result"] = json.loads(d.pop("result_json"))
+            out.append(d)
+        return out
+
+    def describe(self) -> str:
+        return self.backend
+
+
+def consensus_of(current_rows: Iterable[dict[str, Any]]) -> list[dict[str, Any]]:
+    """Consensus over graders' current rows.
+
+    Per candidate: ``n_graders`` (graders with a grade), ``mean_grade``, ``spread``
+    (population standard deviation of the grades), ``range`` (max - min),
+    ``disputed`` (range >= :data:`DISAGREEMENT_STEPS`), ``flagged_by`` (graders who
+    flagged it) and ``grades`` ({grader: grade}). Sorted by candidate id.
+    """
+    by_candidate: dict[str, dict[str, Any]] = {}
+    for row in current_rows:
+        entry = by_candidate.setdefault(row["candidate"], {"grades": {}, "flagged_by": [], "notes": {}})
+        if row["grade"] is not None:
+            entry["grades"][row["grader"]] = int(row["grade"])
+        if row["flagged"]:
+            entry["flagged_by"].append(row["grader"])
+        if row["note"]:
+            entry["notes"][row["grader"]] = row["note"]
+    out = []
+    for cand in sorted(by_candidate):
+        e = by_candidate[cand]
+        g = list(e["grades"].values())
+        n = len(g)
+        mean = sum(g) / n if n else math.nan
+        spread = math.sqrt(sum((x - mean) ** 2 for x in g) / n) if n else math.nan
+        rng = (max(g) - min(g)) if n else 0
+        out.append({"candidate": cand, "n_graders": n, "mean_grade": mean, "spread": spread, "range": rng,
+                    "disputed": n >= 2 and rng >= DISAGREEMENT_STEPS, "flagged_by": sorted(e["flagged_by"]),
+                    "grades": dict(sorted(e["grades"].items())), "notes": e["notes"]})
+    return out
+
+
+def disputed(consensus: list[dict[str, Any]], min_range: int = DISAGREEMENT_STEPS) -> list[dict[str, Any]]:
+    """The candidates whose graders disagree by at least ``min_range`` grade steps."""
+    return [c for c in consensus if c["n_graders"] >= 2 and c["range"] >= min_range]
+
+
+def default_grader() -> str:
+    """The grader's name: $LENSMASS_GRADER, else the login name."""
+    name = os.environ.get("LENSMASS_GRADER")
+    if name:
+        return name
+    try:
+        import getpass
+
+        return getpass.getuser()
+    except Exception:
+        return "grader"
+
+
+class SqliteStore(GradeStore):
+    """The store in one SQLite file, in WAL mode (one writer at a time, readers never blocked)."""
+
+    backend = "sqlite"
+
+    def __init__(self, path: str | Path, queue: str, grader: str | None = None):
+        super().__init__(queue, grader)
+        self.path = Path(path)
+        self._connection()
+
+    def _connect(self):
+        try:
+            self.path.parent.mkdir(parents=True, exist_ok=True)
+            conn = sqlite3.connect(self.path, timeout=60.0, isolation_level=None)
+            conn.execute("PRAGMA busy_timeout = 60000")
+            mode = conn.execute("PRAGMA journal_mode = WAL").fetchone()[0]
+            if str(mode).lower() != "wal":
+                conn.close()
+                raise LensInputError(
+                    f"The grade store '{self.path}' cannot use write-ahead logging (its disk refuses it): "
+                    "put the manifest on a local disk or use a PostgreSQL store."
+                )
+            conn.execute("PRAGMA synchronous = NORMAL")
+            self._create_schema(conn)
+            return conn
+        except sqlite3.DatabaseError as exc:
+            raise LensInputError(
+                f"The grade store '{self.path}' is not a readable SQLite file ({exc}): move it aside and reopen "
+                "the queue to start a new one."
+            ) from None
+
+    def _commit(self, conn) -> None:  # autocommit mode: each statement is its own transaction
+        return None
+
+    def describe(self) -> str:
+        return f"SQLite file {self.path}"
+
+
+def store_path_beside(source: str | Path) -> Path:
+    """The default SQLite store of a manifest (``<stem>.grades.sqlite`` beside it) or folder."""
+    source = Path(source)
+    if source.is_dir():
+        return source / "lensmass-grades.sqlite"
+    return source.with_name(source.stem + ".grades.sqlite")
+
+
+def spool_path_beside(source: str | Path) -> Path:
+    """Where grades wait while a PostgreSQL server is out of reach."""
+    source = Path(source)
+    if source.is_dir():
+        return source / "lensmass-grades-spool.sqlite"
+    return source.with_name(source.stem + ".grades-spool.sqlite")
+
+
+def open_store(spec: str | None, source: str | Path, *, queue: str | None = None,
+               grader: str | None = None) -> GradeStore:
+    """Open the store of a queue.
+
+    ``spec`` None: SQLite beside the manifest; ``postgresql://...``: that server;
+    anything else: a path of a SQLite file. ``source`` is the manifest or folder
+    (it names the queue and locates the local files).
+    """
+    source = Path(source)
+    queue = queue or (source.name if source.is_dir() else source.stem)
+    if spec is None or str(spec).strip() == "":
+        return SqliteStore(store_path_beside(source), queue, grader)
+    text = str(spec).strip()
+    if text.startswith(("postgresql://", "postgres://")):
+        from lensmass.io.store_postgres import PostgresStore
+
+        return PostgresStore(text, queue, grader, spool_path=spool_path_beside(source))
+    if "://" in text:
+        raise LensInputError(
+            f"Unknown store '{text}': give a SQLite file path or a postgresql://user@host:port/db URL."
+        )
+    return SqliteStore(Path(text).expanduser(), queue, grader)
+
+
+# --- exports ---------------------------------------------------------------------------
+
+
+def _write_table(table, path: str | Path) -> None:
+    from lensmass.io.atomic import atomic_path
+
+    path = Path(path)
+    fmt = {".ecsv": "ascii.ecsv", ".csv": "ascii.csv"}.get(path.suffix.lower())
+    if fmt is None:
+        raise LensInputError(f"Cannot export to '{path}': the file name must end in .ecsv or .csv.")
+    with atomic_path(path) as tmp:
+        table.write(tmp, format=fmt, overwrite=True)
+
+
+def export_consensus(store: GradeStore, path: str | Path) -> int:
+    """Write the consensus table (one row per candidate) to ECSV or CSV; returns the row count."""
+    from astropy.table import Table
+
+    rows = store.consensus()
+    table = Table(rows=[(c["candidate"], c["n_graders"], c["mean_grade"], c["spread"], c["range"],
+                         c["disputed"], ";".join(c["flagged_by"]),
+                         ";".join(f"{k}={v}" for k, v in c["grades"].items()),
+                         " | ".join(f"{k}: {v}" for k, v in c["notes"].items())) for c in rows] or None,
+                  names=("candidate", "n_graders", "mean_grade", "spread", "range", "disputed", "flagged_by",
+                         "grades", "notes"),
+                  dtype=(str, int, float, float, int, bool, str, str, str))
+    table.meta["grade_scale"] = {g: f"{n}: {m}" for g, (n, m) in GRADE_SCALE.items()}
+    table.meta["queue"] = store.queue
+    table.meta["store"] = store.describe()
+    _write_table(table, path)
+    return len(rows)
+
+
+def export_measurements(store: GradeStore, path: str | Path) -> int:
+    """Write every stored measurement, one row each, with the estimate keys as columns."""
+    from astropy.table import Table
+
+    from lensmass.core.estimate import DERIVED_KEYS
+
+    recs = store.measurements()
+    names = ["candidate", "grader", "created_utc", "cosmology", *DERIVED_KEYS, "notes"]
+    data = []
+    for m in recs:
+        r = m["result"]
+        data.append([m["candidate"], m["grader"], m["created_utc"], str(r.get("cosmology", ""))]
+                    + [_float(r.get(k)) for k in DERIVED_KEYS] + ["; ".join(r.get("notes") or [])])
+    dtype = [str, str, str, str] + [float] * len(DERIVED_KEYS) + [str]
+    table = Table(rows=data or None, names=names, dtype=dtype)
+    if recs:
+        table.meta["models"] = recs[-1]["result"].get("models", {})
+    table.meta["queue"] = store.queue
+    _write_table(table, path)
+    return len(recs)
+
+
+def _float(value) -> float:
+    try:
+        return float(value)
+    except (TypeError, ValueError):
+        return math.nan
