@@ -210,17 +210,18 @@ class GradeStore:
         return Receipt("saved")
 
     # --- reads -----------------------------------------------------------------------
-    def history(self, candidate: str | None = None) -> list[dict[str, Any]]:
-        """Every grade row (of one candidate, or all), oldest first."""
+    def _select(self, table: str, columns: tuple[str, ...], candidate: str | None) -> list[dict[str, Any]]:
         where, params = "WHERE queue = ?", [self.queue]
         if candidate is not None:
             where += " AND candidate = ?"
             params.append(str(candidate))
-        rows = self._rows(f"SELECT {', '.join(GRADE_COLUMNS)} FROM lm_grades {where} "
-                          "ORDER BY created_utc, row_id", params)
+        rows = self._rows(f"SELECT {', '.join(columns)} FROM {table} {where} ORDER BY created_utc, row_id", params)
+        return [dict(zip(columns, r)) for r in rows]
+
+    def history(self, candidate: str | None = None) -> list[dict[str, Any]]:
+        """Every grade row (of one candidate, or all), oldest first."""
         out = []
-        for r in rows:
-            d = dict(zip(GRADE_COLUMNS, r))
+        for d in self._select("lm_grades", GRADE_COLUMNS, candidate):
             d["flagged"] = bool(d["flagged"])
             out.append(d)
         return out
@@ -238,15 +239,8 @@ class GradeStore:
 
     def measurements(self, candidate: str | None = None) -> list[dict[str, Any]]:
         """Stored measurements, oldest first; ``result`` is the parsed mapping."""
-        where, params = "WHERE queue = ?", [self.queue]
-        if candidate is not None:
-            where += " AND candidate = ?"
-            params.append(str(candidate))
-        rows = self._rows(f"SELECT {', '.join(MEASUREMENT_COLUMNS)} FROM lm_measurements {where} "
-                          "ORDER BY created_utc, row_id", params)
         out = []
-        for r in rows:
-            d = dict(zip(MEASUREMENT_COLUMNS, r))
+        for d in self._select("lm_measurements", MEASUREMENT_COLUMNS, candidate):
             d["result"] = json.loads(d.pop("result_json"))
             out.append(d)
         return out
