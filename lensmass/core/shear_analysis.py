@@ -229,6 +229,7 @@ def analyse_shear_catalog(
                                           result["source_redshifts"])
     result["_profile"] = profile
     result["_fits"] = {"sis": sis, "nfw": nfw}
+    result["_galaxies"] = {"x_arcsec": x, "y_arcsec": y, "e1": e1u, "e2": e2u, "weight": wu}
     step(1.0, "done")
     return result
 
@@ -303,3 +304,13 @@ def model_descriptions(cosmology_name: str, concentration_label: str, halo_defin
         "cross_shear_pvalue": "chi^2 of the binned cross shear against zero (expected for lensing)",
         "nfw_mass_2d_at_zeta_radius_msun": "projected mass of the best-fit NFW halo inside the zeta inner radius",
     }
+
+
+def mass_map_for_result(result: dict, *, n_pixels: int = 128, extent_arcsec: float | None = None,
+                        smoothing_arcsec: float = 60.0, n_noise: int = 16, seed: int | None = DEFAULT_SEED):
+    """Kaiser-Squires map of the galaxies an :func:`analyse_shear_catalog` result used, centred on its centre."""
+    from lensmass.core.mass_map import mass_map
+
+    gal = result["_galaxies"]
+    return mass_map(gal["x_arcsec"], gal["y_arcsec"], gal["e1"], gal["e2"], gal["weight"], n_pixels=n_pixels,
+                    extent_arcsec=extent_arcsec, smoothing_arcsec=smoothing_arcsec, n_noise=n_noise, seed=seed)

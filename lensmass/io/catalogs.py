@@ -223,3 +223,73 @@ def guess_columns(colnames: list[str]) -> dict[str, str]:
                 out[role] = lower[guess]
                 break
     return out
+
+
+# ---------------------------------------------------------------- writing results
+def write_profile_ecsv(path: str | Path, result: dict) -> None:
+    """Write the binned profile of a shear result as ECSV (atomic), with its models in the header."""
+    from astropy.table import Table
+
+    from lensmass.io.atomic import atomic_path
+    from lensmass.io.jsonout import to_jsonable
+
+    rows = result.get("profile") or []
+    if not rows:
+        raise LensInputError("There is no profile to write: run the shear analysis first.")
+    table = Table(rows=[[r[k] for k in rows[0]] for r in rows], names=list(rows[0]))
+    units = {"_arcsec": "arcsec", "_kpc": "kpc", "_msun_per_pc2": "solMass / pc2"}
+    for name in table.colnames:
+        for ending, unit in units.items():
+            if name.endswith(ending):
+                table[name].unit = unit
+    keep = ("cosmology", "z_l", "center_ra", "center_dec", "source_redshifts", "z_s_effective", "n_used",
+            "n_dropped", "best_fit", "intervals68", "intervals95", "models")
+    table.meta.update(to_jsonable({k: result[k] for k in keep if k in result}))
+    with atomic_path(path) as tmp:
+        table.write(tmp, format="ascii.ecsv", overwrite=True)
+
+
+def write_mass_map_fits(path: str | Path, mass_map, center_ra: float, center_dec: float, meta: dict | None = None) -> None:
+    """Write E-mode, B-mode and noise convergence maps as FITS images with a TAN WCS (atomic).
+
+    The arrays are stored with east to the left (CDELT1 < 0), the usual sky layout:
+    the primary HDU is kappa E, then extensions KAPPA_B and, if made, KAPPA_NOISE.
+    """
+    from astropy.io import fits
+
+    from lensmass.io.atomic import atomic_path
+
+    n = mass_map.kappa_e.shape[1]
+    header = fits.Header()
+    deg = mass_map.pixel_arcsec / 3600.0
+    header.update({
+        "CTYPE1": "RA---TAN", "CTYPE2": "DEC--TAN", "CUNIT1": "deg", "CUNIT2": "deg",
+        "CRVAL1": float(center_ra), "CRVAL2": float(center_dec),
+        "CRPIX1": n / 2 + 0.5, "CRPIX2": mass_map.kappa_e.shape[0] / 2 + 0.5,
+        "CDELT1": -deg, "CDELT2": deg, "RADESYS": "ICRS",
+        "BUNIT": "", "SMOOTHAS": (mass_map.smoothing_arcsec, "Gaussian smoothing sigma [arcsec]"),
+        "NGAL": (mass_map.n_galaxies, "galaxies on the map"),
+        "NNOISE": (mass_map.n_noise, "rotated realisations in the noise map"),
+        "METHOD": "Kaiser & Squires (1993) inversion, zero-mean (mass-sheet degeneracy)",
+    })
+    for key, value in (meta or {}).items():
+        header[key[:8].upper()] = value
+    hdus = [fits.PrimaryHDU(mass_map.kappa_e[:, ::-1].astype(np.float32), header=header)]
+    hdus[0].header["EXTNAME"] = "KAPPA_E"
+    hdus.append(fits.ImageHDU(mass_map.kappa_b[:, ::-1].astype(np.float32), header=header, name="KAPPA_B"))
+    if mass_map.noise is not None:
+        hdus.append(fits.ImageHDU(mass_map.noise[:, ::-1].astype(np.float32), header=header, name="KAPPA_NOISE"))
+    with atomic_path(path) as tmp:
+        fits.HDUList(hdus).writeto(tmp, overwrite=True)
+
+
+def write_shear_catalog_fits(path: str | Path, columns: dict[str, np.ndarray], meta: dict | None = None) -> None:
+    """Write catalogue columns as a FITS binary table (atomic)."""
+    from astropy.table import Table
+
+    from lensmass.io.atomic import atomic_path
+
+    table = Table(columns)
+    table.meta.update(meta or {})
+    with atomic_path(path) as tmp:
+        table.write(tmp, format="fits", overwrite=True)

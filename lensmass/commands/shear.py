@@ -1,0 +1,161 @@
+"""``lensmass shear``: a weak-lensing shape catalogue to a profile, SIS/NFW fits, zeta mass and a map."""
+
+from __future__ import annotations
+
+import argparse
+import math
+
+from lensmass.commands.common import (
+    add_cosmology_options,
+    add_halo_options,
+    cosmology_from_args,
+    format_number,
+    format_table,
+    parse_pair,
+)
+from lensmass.core.errors import LensInputError
+
+#: Display rows of the readable output (key, label, unit).
+SHEAR_DISPLAY = [
+    ("z_l", "z_l", ""),
+    ("z_s_effective", "z_s (eff.)", ""),
+    ("n_used", "galaxies", ""),
+    ("sis_sigma_v_kms", "SIS sigma_v", "km/s"),
+    ("sis_theta_e_arcsec", "SIS theta_E", "arcsec"),
+    ("chi2_sis", "SIS chi^2", ""),
+    ("nfw_m200_msun", "NFW M200", "Msun"),
+    ("nfw_c200", "NFW c200", ""),
+    ("nfw_r200_kpc", "NFW r200", "kpc"),
+    ("chi2_nfw", "NFW chi^2", ""),
+    ("cross_shear_pvalue", "g_x p-value", ""),
+    ("zeta", "zeta", ""),
+    ("zeta_mass_msun", "M_zeta >=", "Msun"),
+    ("zeta_radius_kpc", "  inside R", "kpc"),
+]
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("catalog", metavar="CATALOG", help="shape catalogue: .fits, .csv, .ecsv or .parquet")
+    parser.add_argument("--zl", type=float, required=True, help="lens redshift")
+    centre = parser.add_mutually_exclusive_group(required=True)
+    centre.add_argument("--center-sky", metavar="RA,DEC", help="lens centre in degrees")
+    centre.add_argument("--center-pixel", metavar="X,Y", help="lens centre as 0-based pixel column,row of --image")
+    parser.add_argument("--image", metavar="FITS", help="image whose WCS converts --center-pixel to the sky")
+    cat = parser.add_argument_group("catalogue")
+    cat.add_argument("--columns", metavar="ROLE=NAME,...",
+                     help="column mapping, roles ra, dec, e1, e2, weight, z (e.g. ra=RA,dec=DEC,e1=E1,e2=E2,z=ZPHOT); "
+                          "unmapped roles are guessed from usual names")
+    cat.add_argument("--zs", type=float, default=None, help="one source redshift for every galaxy (instead of a z column)")
+    cat.add_argument("--zs-margin", type=float, default=0.1, help="keep sources with z > z_l + margin (default 0.1)")
+    cat.add_argument("--flip-e1", action="store_true", help="flip the sign of e1 (other sign convention)")
+    cat.add_argument("--flip-e2", action="store_true", help="flip the sign of e2 (other sign convention)")
+    prof = parser.add_argument_group("profile")
+    prof.add_argument("--bins", type=int, default=8, help="number of radial bins (default 8)")
+    prof.add_argument("--rmin", type=float, default=None, help="inner radius (default 5%% of rmax)")
+    prof.add_argument("--rmax", type=float, default=None, help="outer radius (default the farthest galaxy)")
+    prof.add_argument("--unit", choices=("arcmin", "arcsec", "mpc"), default="arcmin",
+                      help="unit of --rmin, --rmax and --zeta-radii (mpc: physical, at the lens); default arcmin")
+    prof.add_argument("--linear-bins", action="store_true", help="linear instead of logarithmic bins")
+    prof.add_argument("--bootstrap", type=int, default=200, help="bootstrap resamplings for profile errors (default 200, 0 = off)")
+    prof.add_argument("--seed", type=int, default=20261201, help="random seed (bootstrap, noise map)")
+    prof.add_argument("--zeta-radii", metavar="INNER,OUTER", help="zeta annulus in --unit (default sqrt(rmin rmax), rmax)")
+    add_cosmology_options(parser)
+    add_halo_options(parser)
+    parser.add_argument("--free-concentration", action="store_true", help="fit NFW c200 too instead of c(M)")
+    out = parser.add_argument_group("output")
+    out.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
+    out.add_argument("--profile-out", metavar="FILE.ecsv", help="write the binned profile as ECSV")
+    out.add_argument("--map-out", metavar="FILE.fits", help="write Kaiser-Squires E/B/noise convergence maps as FITS")
+    out.add_argument("--map-pixels", type=int, default=128, help="map pixels per side (default 128)")
+    out.add_argument("--map-smoothing", type=float, default=60.0, metavar="ARCSEC", help="Gaussian sigma (default 60)")
+    out.add_argument("--map-noise", type=int, default=16, help="rotated realisations for the noise map (default 16)")
+
+
+def centre_from_args(args: argparse.Namespace) -> tuple[float, float]:
+    """The lens centre in degrees, from --center-sky or --center-pixel with --image."""
+    if args.center_sky:
+        return parse_pair(args.center_sky, "--center-sky")
+    x, y = parse_pair(args.center_pixel, "--center-pixel")
+    if not args.image:
+        raise LensInputError("--center-pixel needs --image FITS, whose WCS turns the pixel into RA/Dec.")
+    from lensmass.io.images import load_image
+
+    image = load_image(args.image)
+    ra, dec = image.pixel_to_sky(x, y)
+    return float(ra), float(dec)
+
+
+def run_shear(args: argparse.Namespace, progress=None) -> dict:
+    """Read the catalogue named in ``args`` and run the core analysis (used by the CLI)."""
+    from lensmass.core.shear_analysis import analyse_shear_catalog
+    from lensmass.io.catalogs import read_shear_catalog
+
+    center_ra, center_dec = centre_from_args(args)
+    cosmo = cosmology_from_args(args)
+    cat = read_shear_catalog(args.catalog, args.columns, need_z=args.zs is None,
+                             flip_e1=args.flip_e1, flip_e2=args.flip_e2)
+    zeta = parse_pair(args.zeta_radii, "--zeta-radii") if args.zeta_radii else None
+    result = analyse_shear_catalog(
+        cat.ra_deg, cat.dec_deg, cat.e1, cat.e2, cat.weight, None if args.zs is not None else cat.z,
+        z_l=args.zl, z_s=args.zs, center_ra=center_ra, center_dec=center_dec,
+        r_min=args.rmin, r_max=args.rmax, n_bins=args.bins, unit=args.unit, log_bins=not args.linear_bins,
+        cosmology=cosmo, concentration=args.concentration, halo_definition=args.halo_definition,
+        free_concentration=args.free_concentration, n_bootstrap=args.bootstrap, seed=args.seed,
+        zeta_radii=zeta, z_margin=args.zs_margin, progress=progress,
+    )
+    result["catalog"] = {"path": cat.path, "columns": cat.columns, "flipped": list(cat.flips)}
+    if args.zs is not None and cat.z is not None:
+        result["notes"].insert(0, f"--zs {args.zs:g} is used for every galaxy; the catalogue's column "
+                                  f"'{cat.columns['z']}' is ignored.")
+    return result
+
+
+def make_map(args: argparse.Namespace, result: dict):
+    """The Kaiser-Squires map of the galaxies the analysis used (same selection)."""
+    from lensmass.core.shear_analysis import mass_map_for_result
+
+    return mass_map_for_result(result, n_pixels=args.map_pixels, smoothing_arcsec=args.map_smoothing,
+                               n_noise=args.map_noise, seed=args.seed)
+
+
+def format_profile(result: dict) -> str:
+    lines = ["", f"{'R [arcsec]':>11}{'R [kpc]':>9}{'N':>7}{'g_t':>9}{'err':>8}{'g_x':>9}{'err':>8}"
+             f"{'SIS':>8}{'NFW':>8}{'DSigma':>9}"]
+    for r in result["profile"]:
+        vals = [r["g_t"], r["g_t_err"], r["g_x"], r["g_x_err"], r["g_t_model_sis"], r["g_t_model_nfw"]]
+        cells = "".join(f"{v:>9.4f}" if i % 2 == 0 else f"{v:>8.4f}" for i, v in enumerate(vals[:4]))
+        cells += "".join(f"{v:>8.4f}" for v in vals[4:])
+        ds = r["delta_sigma_msun_per_pc2"]
+        ds_text = f"{ds:>9.1f}" if math.isfinite(ds) else f"{'-':>9}"
+        lines.append(f"{r['r_mean_arcsec']:>11.1f}{r['r_mean_kpc']:>9.0f}{r['n_galaxies']:>7d}{cells}{ds_text}")
+    lines.append("(g_t, g_x: weighted mean tangential/cross ellipticity = reduced shear; DSigma in Msun/pc^2)")
+    dropped = ", ".join(f"{k.replace('_', ' ')} {v}" for k, v in result["n_dropped"].items())
+    lines.append(f"rows read {result['n_rows']}; dropped: {dropped}")
+    return "\n".join(lines)
+
+
+def run(args: argparse.Namespace) -> int:
+    from lensmass.io.catalogs import write_mass_map_fits, write_profile_ecsv
+
+    result = run_shear(args)
+    if args.map_out:
+        mass = make_map(args, result)
+        write_mass_map_fits(args.map_out, mass, result["center_ra"], result["center_dec"],
+                            {"ZLENS": result["z_l"], "COSMO": result["cosmology"][:60]})
+        result["map"] = {"path": args.map_out, "pixels": args.map_pixels, "pixel_arcsec": mass.pixel_arcsec,
+                         "smoothing_arcsec": mass.smoothing_arcsec, "noise_realisations": mass.n_noise,
+                         "kappa_e_peak": float(mass.kappa_e.max()),
+                         "model": "Kaiser & Squires (1993) inversion of the Gaussian-smoothed shear; "
+                                  "zero mean on the field (mass-sheet degeneracy)"}
+    if args.profile_out:
+        write_profile_ecsv(args.profile_out, result)
+    if args.json:
+        from lensmass.io.jsonout import dumps
+
+        print(dumps(result))
+    else:
+        print(format_table(result, rows=SHEAR_DISPLAY))
+        print(format_profile(result))
+        if "map" in result:
+            print(f"mass map written to {args.map_out} (peak kappa_E {format_number(result['map']['kappa_e_peak'])})")
+    return 0
