@@ -361,11 +361,12 @@ class _Reader:
 
 def migrate(data: Mapping[str, Any], source: str = "The session",
             migrations: Mapping[int, Callable[[dict], dict]] | None = None,
-            oldest: int = OLDEST_SCHEMA) -> dict[str, Any]:
+            oldest: int | None = None) -> dict[str, Any]:
     """Check the format tag and bring an older schema up to :data:`SCHEMA_VERSION`.
 
     ``migrations`` maps schema n to a function returning the schema-(n+1) dict
-    (default :data:`MIGRATIONS`); the input is never modified.
+    (default :data:`MIGRATIONS`) and ``oldest`` is the oldest schema accepted
+    (default :data:`OLDEST_SCHEMA`); the input is never modified.
 
     Examples
     --------
@@ -375,6 +376,7 @@ def migrate(data: Mapping[str, Any], source: str = "The session",
     0.3
     """
     migrations = MIGRATIONS if migrations is None else migrations
+    oldest = OLDEST_SCHEMA if oldest is None else oldest
     if not isinstance(data, Mapping):
         raise LensInputError(f"{source} is not a lensmass session (its JSON is not an object): open a session file.")
     tag = data.get("format")
