@@ -46,7 +46,7 @@ def sersic_b(n) -> np.ndarray:
 
 
 def sersic_b_series(n) -> np.ndarray:
-    """Ciotti & Bertin (1999) asymptotic series for b_n (eq. 18); good to <1e-4 for n >= 0.5."""
+    """Ciotti & Bertin (1999) asymptotic series for b_n (eq. 18); off by <5e-5 for n >= 1 and <1e-6 for n >= 4."""
     n = np.asarray(n, float)
     return (2 * n - 1.0 / 3.0 + 4.0 / (405 * n) + 46.0 / (25515 * n**2)
             + 131.0 / (1148175 * n**3) - 2194697.0 / (30690717750 * n**4))
