@@ -1,0 +1,147 @@
+"""Tangential/cross shear, projection, selection and binned profiles (lensmass.core.shear_profile)."""
+
+import numpy as np
+import pytest
+from astropy.coordinates import SkyCoord
+import astropy.units as u
+
+from lensmass.core.cosmology import angular_diameter_distances_mpc, resolve_cosmology
+from lensmass.core.errors import LensInputError
+from lensmass.core.lensing import sigma_crit_msun_per_mpc2
+from lensmass.core.shear_profile import (
+    lensing_efficiency,
+    radial_bin_edges,
+    radius_arcsec,
+    select_sources,
+    shear_profile,
+    tangent_plane_offsets_arcsec,
+    tangent_plane_to_sky,
+    tangential_cross,
+)
+from lensmass.core.shear_simulation import simulate_shear_catalog
+
+COSMO = resolve_cosmology("Planck18")
+
+
+def test_projection_matches_astropy_separation_and_position_angle():
+    # Reference: astropy SkyCoord.separation / position_angle (PA east of north), so our
+    # angle from east toward north is 90 deg - PA.
+    rng = np.random.default_rng(1)
+    ra0, dec0 = 141.372, 18.2705
+    ra = ra0 + rng.uniform(-0.3, 0.3, 200)
+    dec = dec0 + rng.uniform(-0.3, 0.3, 200)
+    x, y = tangent_plane_offsets_arcsec(ra, dec, ra0, dec0)
+    c0 = SkyCoord(ra0 * u.deg, dec0 * u.deg)
+    c = SkyCoord(ra * u.deg, dec * u.deg)
+    sep = c0.separation(c).to_value(u.arcsec)
+    np.testing.assert_allclose(radius_arcsec(x, y), sep, rtol=1e-9)
+    phi = np.arctan2(y, x)
+    pa = c0.position_angle(c).to_value(u.rad)
+    np.testing.assert_allclose(np.cos(phi - (np.pi / 2 - pa)), 1.0, atol=1e-9)
+
+
+def test_projection_round_trip():
+    # Self-consistency of the gnomonic pair (the inverse formulas are the standard ones,
+    # Calabretta & Greisen 2002, zenithal TAN).
+    x = np.array([0.0, 100.0, -700.0, 1500.0])
+    y = np.array([0.0, -50.0, 300.0, 1200.0])
+    ra, dec = tangent_plane_to_sky(x, y, 359.99, -45.0)
+    x2, y2 = tangent_plane_offsets_arcsec(ra, dec, 359.99, -45.0)
+    np.testing.assert_allclose(x2, x, atol=1e-7)
+    np.testing.assert_allclose(y2, y, atol=1e-7)
+
+
+def test_tangential_cross_convention():
+    # shared/REFERENCES.md: e_t = -(e1 cos 2phi + e2 sin 2phi), e_x = e1 sin 2phi - e2 cos 2phi,
+    # phi from east toward north, e1 > 0 east-west.
+    # Due north (phi = 90 deg), stretched east-west (e1 > 0): tangential.
+    et, ex = tangential_cross(0.2, 0.0, 0.0, 5.0)
+    assert et == pytest.approx(0.2) and ex == pytest.approx(0.0, abs=1e-15)
+    # North-east (phi = 45 deg), e2 < 0 is stretched along the NW-SE line: tangential.
+    et, ex = tangential_cross(0.0, -0.3, 3.0, 3.0)
+    assert et == pytest.approx(0.3) and ex == pytest.approx(0.0, abs=1e-15)
+    # Rotating a tangential ellipticity by 45 degrees makes it pure cross.
+    et, ex = tangential_cross(0.0, 0.2, 0.0, 5.0)
+    assert et == pytest.approx(0.0, abs=1e-15) and abs(ex) == pytest.approx(0.2)
+
+
+def test_cross_shear_of_pure_tangential_field_is_zero():
+    # Bartelmann & Schneider (2001), sec. 5.3: lensing by an axisymmetric mass gives no cross shear.
+    sim = simulate_shear_catalog(center_ra=30.0, center_dec=-10.0, z_l=0.3, cosmo=COSMO, n_galaxies=3000,
+                                 model="sis", sigma_v_kms=800, z_s=1.2, shape_noise=0.0, seed=2)
+    x, y = tangent_plane_offsets_arcsec(sim["ra"], sim["dec"], 30.0, -10.0)
+    et, ex = tangential_cross(sim["e1"], sim["e2"], x, y)
+    assert np.max(np.abs(ex)) < 1e-9
+    assert np.all(et > 0)
+
+
+def test_noiseless_sis_profile_is_theta_e_over_2theta():
+    # Narayan & Bartelmann (1996): SIS gamma_t = kappa = theta_E / (2 theta); g = gamma / (1 - kappa).
+    sim = simulate_shear_catalog(center_ra=30.0, center_dec=-10.0, z_l=0.3, cosmo=COSMO, n_galaxies=20000,
+                                 model="sis", sigma_v_kms=800, z_s=1.2, shape_noise=0.0, seed=3)
+    beta, sc, d_l = lensing_efficiency(0.3, 1.2, COSMO)
+    theta_e = 4 * np.pi * (800 / 299792.458) ** 2 * float(beta) * 206264.80624709636
+    x, y = sim["x_arcsec"], sim["y_arcsec"]
+    th = radius_arcsec(x, y)
+    et, ex = tangential_cross(sim["e1"], sim["e2"], x, y)
+    weak = th > theta_e  # |g| < 1 (outside theta_E the ellipticity is g itself)
+    gamma = et[weak] * (1 - theta_e / (2 * th[weak]))  # undo the reduced shear per galaxy
+    np.testing.assert_allclose(gamma, theta_e / (2 * th[weak]), rtol=1e-9)
+    # Inside theta_E, |g| > 1 and the mean ellipticity is 1/g (Seitz & Schneider 1997).
+    g_in = theta_e / (2 * th[~weak] - theta_e)
+    np.testing.assert_allclose(et[~weak], 1 / g_in, rtol=1e-9)
+
+
+def test_lensing_efficiency_matches_astropy():
+    # Reference: astropy angular_diameter_distance_z1z2 (Hogg 1999); interpolated grid to 1e-6.
+    z = np.array([0.5, 1.0, 2.5])
+    beta, sc, d_l = lensing_efficiency(0.35, z, COSMO)
+    d_s = COSMO.angular_diameter_distance(z).to_value(u.Mpc)
+    d_ls = COSMO.angular_diameter_distance(0.35, z).to_value(u.Mpc)
+    np.testing.assert_allclose(beta, d_ls / d_s, rtol=1e-6)
+    np.testing.assert_allclose(d_l, COSMO.angular_diameter_distance(0.35).to_value(u.Mpc), rtol=1e-6)
+    np.testing.assert_allclose(sc, sigma_crit_msun_per_mpc2(d_l, d_s, d_ls), rtol=1e-6)
+
+
+def test_select_sources_counts_each_reason_once():
+    e1 = np.array([0.1, np.nan, 0.9, 0.1, 0.1, 0.2, 0.0])
+    e2 = np.array([0.0, 0.0, 0.9, 0.0, 0.0, 0.0, 0.0])
+    w = np.array([1.0, 1.0, 1.0, 0.0, 1.0, 1.0, -1.0])
+    z = np.array([1.0, 1.0, 1.0, 1.0, 0.3, 0.42, 1.0])
+    ok, counts = select_sources(e1, e2, w, z, 0.35, z_margin=0.1)
+    assert ok.tolist() == [True, False, False, False, False, False, False]
+    assert counts == {"non_finite": 1, "ellipticity_ge_1": 1, "weight_not_positive": 2, "source_not_behind_lens": 2}
+
+
+def test_bin_edges():
+    np.testing.assert_allclose(radial_bin_edges(1.0, 1000.0, 3), [1, 10, 100, 1000])
+    np.testing.assert_allclose(radial_bin_edges(0.0, 3.0, 3, log=False), [0, 1, 2, 3])
+    with pytest.raises(LensInputError, match="rmin > 0"):
+        radial_bin_edges(0.0, 3.0, 3)
+    with pytest.raises(LensInputError, match="rmin < rmax"):
+        radial_bin_edges(5.0, 3.0, 3)
+
+
+def test_shape_noise_and_bootstrap_errors_agree_with_sigma_e_over_sqrt_n():
+    # Common practice: the error of a mean of N unit-weight ellipticities is sigma_e / sqrt(N).
+    rng = np.random.default_rng(5)
+    n = 40000
+    theta = rng.uniform(10, 100, n)
+    et = rng.normal(0, 0.3, n)
+    ex = rng.normal(0, 0.3, n)
+    p = shear_profile(theta, et, ex, np.ones(n), [10, 40, 100], n_bootstrap=300, seed=1)
+    expect = 0.3 / np.sqrt(p.n_galaxies)
+    np.testing.assert_allclose(p.g_t_err, expect, rtol=0.03)
+    np.testing.assert_allclose(p.g_t_err_boot, expect, rtol=0.15)
+    np.testing.assert_allclose(p.g_x_err_boot, expect, rtol=0.15)
+
+
+def test_delta_sigma_is_sigma_cr_times_shear_for_one_redshift():
+    # Delta Sigma = Sigma_cr gamma_t (Bartelmann & Schneider 2001, eq. 5.8 with one Sigma_cr).
+    rng = np.random.default_rng(6)
+    theta = rng.uniform(10, 100, 1000)
+    et = rng.normal(0.05, 0.1, 1000)
+    d_l, d_s, d_ls = angular_diameter_distances_mpc(0.3, 1.0, COSMO)
+    sc = sigma_crit_msun_per_mpc2(d_l, d_s, d_ls)
+    p = shear_profile(theta, et, et * 0, np.ones(1000), [10, 50, 100], sigma_cr_msun_per_mpc2=sc, d_l_mpc=float(d_l))
+    np.testing.assert_allclose(p.delta_sigma_msun_per_mpc2, sc * p.g_t, rtol=1e-12)
