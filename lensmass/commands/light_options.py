@@ -73,7 +73,8 @@ def light_requested(args: argparse.Namespace) -> bool:
     return any(getattr(args, flag, None) is not None for flag in _LIGHT_FLAGS)
 
 
-def _header_number(header, key: str, what: str) -> float:
+def header_number(header, key: str, what: str) -> float:
+    """A number from a FITS header keyword, or one sentence naming the keyword."""
     if header is None or key not in header:
         raise LensInputError(f"The image header has no keyword '{key}' for the {what}: check the name or give the value directly.")
     try:
@@ -87,32 +88,24 @@ def image_photometry(args: argparse.Namespace, image, header, *, x_pix: float, y
                      axis_ratio: float = 1.0, theta_rad: float = 0.0, arc_points_xy=None) -> dict[str, Any]:
     """Aperture magnitude of the lens inside theta_E from the options (zeropoint, exposure, masks)."""
     from lensmass.commands.common import parse_pair
-    from lensmass.core.photometry import counts_to_magnitude, lens_aperture_photometry
+    from lensmass.core.photometry import lens_magnitude_inside
 
     if args.zeropoint is not None and args.zeropoint_key:
         raise LensInputError("Give the zeropoint one way only: --zeropoint ZP or --zeropoint-key KEY.")
-    zp = args.zeropoint if args.zeropoint is not None else _header_number(header, args.zeropoint_key, "zeropoint")
+    zp = args.zeropoint if args.zeropoint is not None else header_number(header, args.zeropoint_key, "zeropoint")
     if args.exptime is not None:
         exptime, exp_source = float(args.exptime), "--exptime"
     elif header is not None and "EXPTIME" in header:
-        exptime, exp_source = _header_number(header, "EXPTIME", "exposure time"), "header EXPTIME"
+        exptime, exp_source = header_number(header, "EXPTIME", "exposure time"), "header EXPTIME"
     else:
         exptime, exp_source = 1.0, "none given: image taken as counts per second"
-    phot = lens_aperture_photometry(
-        image, x_pix, y_pix, theta_e_pix, axis_ratio=axis_ratio, theta_rad=theta_rad,
-        annulus=parse_pair(args.sky_annulus, "--sky-annulus"), arc_points_xy=arc_points_xy,
+    phot = lens_magnitude_inside(
+        image, x_pix, y_pix, theta_e_pix, zeropoint=zp, exptime_s=exptime, axis_ratio=axis_ratio,
+        theta_rad=theta_rad, annulus=parse_pair(args.sky_annulus, "--sky-annulus"), arc_points_xy=arc_points_xy,
         arc_width_pix=args.arc_width, mask_residuals=args.mask_bright,
     )
-    mag, mag_err = counts_to_magnitude(phot.flux, phot.flux_err, zp, exptime)
-    g = phot.geometry
-    return {
-        "aperture_mag": mag, "aperture_mag_err": mag_err, "flux": phot.flux, "flux_err": phot.flux_err,
-        "sky_per_pixel": phot.sky_per_pixel, "sky_std": phot.sky_std, "sky_pixels": phot.sky_pixels,
-        "masked_pixels_in_aperture": phot.masked_in_aperture, "zeropoint": zp, "exptime_s": exptime,
-        "exptime_source": exp_source, "aperture": {"x_pix": g.x_pix, "y_pix": g.y_pix, "a_pix": g.a_pix,
-        "b_pix": g.b_pix, "theta_rad": g.theta_rad, "annulus_in_pix": g.annulus_in_pix,
-        "annulus_out_pix": g.annulus_out_pix},
-    }
+    phot["exptime_source"] = exp_source
+    return phot
 
 
 def apply_light(args: argparse.Namespace, result: dict, *, image=None, header=None, cosmology=None,

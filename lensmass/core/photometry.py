@@ -264,3 +264,27 @@ def counts_to_magnitude(flux, flux_err, zeropoint: float, exptime_s: float = 1.0
         )
     mag = float(zeropoint) - 2.5 * np.log10(float(flux) / float(exptime_s))
     return float(mag), float(MAG_PER_RELATIVE_FLUX * float(flux_err) / float(flux))
+
+
+def lens_magnitude_inside(image, x_pix: float, y_pix: float, radius_pix: float, *, zeropoint: float,
+                          exptime_s: float = 1.0, **photometry_options) -> dict:
+    """Aperture photometry inside theta_E turned into a magnitude, as one JSON-ready summary.
+
+    ``photometry_options`` go to :func:`lens_aperture_photometry`. The returned mapping has
+    ``aperture_mag``, ``aperture_mag_err``, the flux, sky and mask counts, the zeropoint and
+    exposure, ``aperture`` (geometry for drawing) and ``_mask`` (the masked pixels; dropped
+    from JSON).
+    """
+    phot = lens_aperture_photometry(image, x_pix, y_pix, radius_pix, **photometry_options)
+    mag, mag_err = counts_to_magnitude(phot.flux, phot.flux_err, zeropoint, exptime_s)
+    g = phot.geometry
+    return {
+        "aperture_mag": mag, "aperture_mag_err": mag_err, "flux": phot.flux, "flux_err": phot.flux_err,
+        "sky_per_pixel": phot.sky_per_pixel, "sky_std": phot.sky_std, "sky_pixels": phot.sky_pixels,
+        "masked_pixels_in_aperture": phot.masked_in_aperture, "zeropoint": float(zeropoint),
+        "exptime_s": float(exptime_s),
+        "aperture": {"x_pix": g.x_pix, "y_pix": g.y_pix, "a_pix": g.a_pix, "b_pix": g.b_pix,
+                     "theta_rad": g.theta_rad, "annulus_in_pix": g.annulus_in_pix,
+                     "annulus_out_pix": g.annulus_out_pix},
+        "_mask": phot.mask,
+    }
