@@ -572,7 +572,8 @@ def _read_json(path: Path, what: str) -> Any:
     except UnicodeDecodeError:
         raise LensInputError(f"{what} '{path}' is not a text file: open a session saved by lensmass.") from None
     except json.JSONDecodeError as exc:
-        if exc.pos >= len(raw.decode("utf-8").rstrip()) - 1:
+        cut_short = exc.pos >= len(raw.decode("utf-8").rstrip()) - 1 or exc.msg.startswith("Unterminated string")
+        if cut_short:
             raise LensInputError(
                 f"{what} '{path}' ends too early (half-written?): open a backup or an autosave instead."
             ) from None
