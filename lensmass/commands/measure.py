@@ -1,0 +1,126 @@
+"""``lensmass measure``: theta_E measured on an image (points file or ring finder), then masses.
+
+Pixel positions (points files, ``--center``) are 0-based column,row of the array
+as stored in the file.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from lensmass.commands.common import (
+    add_cosmology_options,
+    add_halo_options,
+    add_sampling_options,
+    format_number,
+    parse_pair,
+)
+
+#: Rows added to the readable table after the estimate rows.
+MEASURE_ROWS = [
+    ("theta_e_err_arcsec", "theta_E err", "arcsec"),
+    ("fit_rms_arcsec", "fit rms", "arcsec"),
+    ("ring_score", "ring score", "sigma"),
+    ("fit_axis_ratio", "axis ratio", ""),
+    ("pixel_scale_arcsec", "pixel scale", "arcsec"),
+]
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("image", metavar="IMAGE", help="FITS, PNG, JPEG or TIFF image")
+    how = parser.add_mutually_exclusive_group(required=True)
+    how.add_argument("--points", metavar="FILE", help="CSV with header x,y (pixels) or ra,dec (degrees)")
+    how.add_argument("--auto-ring", action="store_true", help="find the ring automatically on the lens-subtracted image")
+    parser.add_argument("--shape", choices=("circle", "ellipse", "images"), default="circle",
+                        help="points are arc points for a circle (default) or ellipse, or the multiple images of one source")
+    parser.add_argument("--refine", action="store_true", help="move each point onto the arc's brightness ridge first")
+    centre = parser.add_mutually_exclusive_group()
+    centre.add_argument("--center", metavar="X,Y", help="lens centre in pixels (holds the fit centre there)")
+    centre.add_argument("--center-sky", metavar="RA,DEC", help="lens centre in degrees (needs a WCS)")
+    parser.add_argument("--pixel-scale", type=float, metavar="ARCSEC", help="arcsec per pixel (needed without a WCS)")
+    parser.add_argument("--pixel-scale-err", type=float, default=None, metavar="ARCSEC",
+                        help="1-sigma error of the pixel scale (default 0)")
+    parser.add_argument("--hdu", metavar="N", help="FITS extension number or name (default: first image)")
+    parser.add_argument("--plane", type=int, metavar="N", help="plane of a 3-D cube (0-based)")
+    parser.add_argument("--max-radius", type=float, metavar="ARCSEC", help="ring finder: largest radius searched")
+    parser.add_argument("--accept-weak", action="store_true", help="ring finder: report a weak ring candidate too")
+    parser.add_argument("--zl", type=float, required=True, help="lens redshift")
+    parser.add_argument("--zl-err", type=float, default=0.0, help="1-sigma error of z_l")
+    zs = parser.add_mutually_exclusive_group(required=True)
+    zs.add_argument("--zs", type=float, help="source redshift")
+    zs.add_argument("--zs-range", metavar="ZMIN,ZMAX", help="unknown source redshift: uniform in this range")
+    zs.add_argument("--zs-table", metavar="FILE", help="unknown source redshift: table with columns z, weight")
+    parser.add_argument("--zs-err", type=float, default=0.0, help="1-sigma error of z_s")
+    add_cosmology_options(parser)
+    add_halo_options(parser)
+    add_sampling_options(parser)
+    # --- photometry options (lens light, mass-to-light) are added here ---
+    parser.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
+
+
+def measure_from_args(args: argparse.Namespace) -> dict:
+    """Load the image, measure theta_E as the options ask, and run the estimate."""
+    from lensmass.commands.estimate import estimate_from_args
+    from lensmass.core.einstein import measure_auto_ring, measure_from_points
+    from lensmass.core.errors import LensInputError
+    from lensmass.io.images import load_image
+
+    image = load_image(args.image, hdu=args.hdu, plane=args.plane, pixel_scale_arcsec=args.pixel_scale,
+                       pixel_scale_err_arcsec=args.pixel_scale_err or 0.0)
+    image.require_pixel_scale()
+    center = None
+    if args.center:
+        center = parse_pair(args.center, "--center")
+    elif args.center_sky:
+        ra, dec = parse_pair(args.center_sky, "--center-sky")
+        x, y = image.sky_to_pixel(ra, dec)
+        center = (float(x), float(y))
+    if center is not None:
+        ny, nx = image.shape
+        if not (-0.5 <= center[0] < nx - 0.5 and -0.5 <= center[1] < ny - 0.5):
+            raise LensInputError(f"The lens centre ({center[0]:.1f}, {center[1]:.1f}) is outside the {nx} x {ny} image; "
+                                 "check --center (0-based column,row) or --center-sky.")
+
+    def run_estimate(theta, err):
+        return estimate_from_args(args, theta, err)
+
+    if args.auto_ring:
+        max_r = None if args.max_radius is None else args.max_radius / image.pixel_scale_arcsec
+        return measure_auto_ring(image, center=center, require_confident=not args.accept_weak, max_radius_pix=max_r,
+                                 estimate_fn=run_estimate)
+    from lensmass.io.points import read_points
+
+    pts = read_points(args.points)
+    x, y = pts.to_pixels(image)
+    refine_image = None
+    if args.refine and center is not None:
+        from lensmass.core.lenslight import fit_lens_light
+
+        refine_image = fit_lens_light(image.data, center[0], center[1]).residual
+    return measure_from_points(x, y, image=image, shape=args.shape, center=center, refine=args.refine,
+                               refine_image=refine_image, estimate_fn=run_estimate)
+
+
+def print_measurement(result: dict, as_json: bool, extra_rows=()) -> None:
+    from lensmass.commands.estimate import print_result
+
+    if not as_json:
+        print(f"method: {result.get('method', '')}")
+        cx, cy = result.get("center_x"), result.get("center_y")
+        line = f"lens centre: x = {format_number(cx)}, y = {format_number(cy)} (pixels, 0-based)"
+        if result.get("center_ra") is not None:
+            line += f"; RA = {result['center_ra']:.6f}, Dec = {result['center_dec']:+.6f} deg"
+        print(line)
+    print_result(result, as_json, extra_rows=list(MEASURE_ROWS) + list(extra_rows))
+
+
+def run(args: argparse.Namespace) -> int:
+    result = measure_from_args(args)
+    # --- photometry results (lens light, mass-to-light) are added to `result` here ---
+    print_measurement(result, args.json)
+    return 0
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(0)

@@ -1,0 +1,374 @@
+"""From marks on an image (or the ring finder) to theta_E +- error in arcsec, then to masses.
+
+The window, the command line and the batch runner all call
+:func:`measure_from_points` or :func:`measure_auto_ring`; both return every key of
+:func:`lensmass.core.estimate.estimate` plus
+
+``theta_e_err_arcsec, center_x, center_y, center_ra, center_dec, method,
+fit_rms_arcsec, ring_score, ring_confident, n_points, fit_axis_ratio,
+fit_position_angle_deg, pixel_scale_arcsec, points_xy``
+
+(pixel positions are 0-based column/row as stored in the file; RA/Dec in degrees,
+None without a WCS). The fits are done in arcsec on the sky: marked pixel offsets
+are mapped through the local 2 x 2 pixel matrix of the WCS (so rotated, skewed or
+unequal pixel axes are handled) or through the user's pixel scale.
+
+Error budget: theta_E error = sqrt(fit_err^2 + (theta_E sigma_s / s)^2), the fit's
+standard error and the relative pixel-scale error s (common practice: independent
+errors add in quadrature); it enters the core Monte Carlo as ``theta_e_err``.
+
+The image argument is any object with the attributes of
+:class:`lensmass.io.images.LoadedImage` (``data``, ``pixel_scale_arcsec``,
+``pixel_scale_err_arcsec``, ``pixel_matrix_arcsec``, ``wcs``, ``pixel_to_sky``, ``notes``);
+the core does no file input itself.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any, Callable
+
+import numpy as np
+
+from lensmass.core.arcfit import fit_circle, fit_ellipse, multiple_image_radius
+from lensmass.core.errors import LensInputError
+from lensmass.core.progress import ProgressCallback, StopCallback
+from lensmass.core.ridge import refine_to_ridge
+
+#: Default 1-sigma uncertainty of a marked position, in pixels (a click is good to about half a pixel).
+DEFAULT_POINT_ERR_PIX = 0.5
+SHAPES = ("circle", "ellipse", "images")
+
+
+@dataclass
+class ThetaEMeasurement:
+    """theta_E measured on an image, before any mass is derived."""
+
+    theta_e_arcsec: float
+    theta_e_err_arcsec: float
+    center_x: float
+    center_y: float
+    center_ra: float | None
+    center_dec: float | None
+    method: str
+    fit_rms_arcsec: float
+    n_points: int
+    pixel_scale_arcsec: float
+    ring_score: float | None = None
+    ring_confident: bool | None = None
+    fit_axis_ratio: float | None = None
+    fit_position_angle_deg: float | None = None
+    points_xy: list[list[float]] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+
+    def keys(self) -> dict[str, Any]:
+        """The measurement keys merged into the estimate result."""
+        return {
+            "theta_e_err_arcsec": self.theta_e_err_arcsec,
+            "center_x": self.center_x,
+            "center_y": self.center_y,
+            "center_ra": self.center_ra,
+            "center_dec": self.center_dec,
+            "method": self.method,
+            "fit_rms_arcsec": self.fit_rms_arcsec,
+            "ring_score": self.ring_score,
+            "ring_confident": self.ring_confident,
+            "n_points": self.n_points,
+            "fit_axis_ratio": self.fit_axis_ratio,
+            "fit_position_angle_deg": self.fit_position_angle_deg,
+            "pixel_scale_arcsec": self.pixel_scale_arcsec,
+            "points_xy": self.points_xy,
+        }
+
+
+def theta_e_from_pixels(radius_pix: float, radius_err_pix: float, pixel_scale_arcsec: float,
+                        pixel_scale_err_arcsec: float = 0.0) -> tuple[float, float]:
+    """A radius in pixels +- error to theta_E +- error in arcsec (errors in quadrature).
+
+    Examples
+    --------
+    >>> theta_e_from_pixels(7.0, 0.3, 0.2, 0.002)
+    (1.4, 0.0632...)
+    """
+    s = float(pixel_scale_arcsec)
+    theta = float(radius_pix) * s
+    err = float(np.hypot(float(radius_err_pix) * s, theta * float(pixel_scale_err_arcsec) / s))
+    return theta, err
+
+
+def _geometry(image, pixel_scale_arcsec, pixel_scale_err_arcsec, pixel_matrix_arcsec):
+    """(matrix, scale, scale_err, pixel_to_sky, data, notes) from an image and/or explicit values."""
+    data = getattr(image, "data", None) if image is not None else None
+    if image is not None and not hasattr(image, "data"):
+        data = np.asarray(image)
+        image = None
+    scale = pixel_scale_arcsec if pixel_scale_arcsec is not None else getattr(image, "pixel_scale_arcsec", None)
+    err = pixel_scale_err_arcsec if pixel_scale_err_arcsec is not None else getattr(image, "pixel_scale_err_arcsec", 0.0)
+    if scale is None:
+        raise LensInputError("The pixel scale is unknown (the image has no usable WCS): "
+                             "give it with --pixel-scale ARCSEC (arcsec per pixel).")
+    scale = float(scale)
+    if not np.isfinite(scale) or scale <= 0:
+        raise LensInputError(f"The pixel scale must be a positive number of arcsec per pixel, got {scale}.")
+    matrix = pixel_matrix_arcsec
+    if matrix is None and image is not None and pixel_scale_arcsec is None:
+        matrix = getattr(image, "pixel_matrix_arcsec", None)
+    if matrix is None:
+        matrix = np.array([[-scale, 0.0], [0.0, scale]])
+    matrix = np.asarray(matrix, float)
+    to_sky = None
+    if image is not None and getattr(image, "wcs", None) is not None:
+        to_sky = image.pixel_to_sky
+    notes = [f"image: {n}" for n in getattr(image, "notes", []) if "scale" in n or "skew" in n or "plane" in n.lower()]
+    return matrix, scale, float(err or 0.0), to_sky, data, notes
+
+
+def _sky(to_sky, x, y):
+    if to_sky is None:
+        return None, None
+    ra, dec = to_sky(float(x), float(y))
+    return float(ra), float(dec)
+
+
+def measure_theta_e_from_points(
+    x,
+    y,
+    *,
+    image=None,
+    shape: str = "circle",
+    center: tuple[float, float] | None = None,
+    refine: bool = False,
+    refine_image: np.ndarray | None = None,
+    point_err_pix: float = DEFAULT_POINT_ERR_PIX,
+    pixel_scale_arcsec: float | None = None,
+    pixel_scale_err_arcsec: float | None = None,
+    pixel_matrix_arcsec: np.ndarray | None = None,
+) -> ThetaEMeasurement:
+    """theta_E from marked pixel positions (no masses yet).
+
+    Parameters
+    ----------
+    x, y : array_like
+        Marked positions, 0-based column and row.
+    image : LoadedImage-like or 2-D array, optional
+        Supplies the pixel scale/matrix/WCS, and the pixels for ``refine``.
+    shape : {"circle", "ellipse", "images"}
+        Circle through arc points (3+), ellipse (5+, or 4+ with a centre; theta_E = sqrt(a b)),
+        or the multiple images of one source (2+; see :func:`lensmass.core.arcfit.multiple_image_radius`).
+    center : (x, y), optional
+        The lens centre in pixels; holds the circle/ellipse centre there.
+    refine : bool
+        Move each point onto the brightness ridge first (:func:`lensmass.core.ridge.refine_to_ridge`),
+        using ``refine_image`` (e.g. the lens-subtracted residual) or the image data.
+    point_err_pix : float
+        1-sigma uncertainty of each position (pixels); a floor under the fit's scatter.
+    pixel_scale_arcsec, pixel_scale_err_arcsec, pixel_matrix_arcsec : optional
+        Override the image's geometry (required when there is no image or WCS).
+
+    Examples
+    --------
+    >>> t = np.linspace(0, 2 * np.pi, 9)[:-1]
+    >>> m = measure_theta_e_from_points(50 + 7 * np.cos(t), 40 + 7 * np.sin(t), pixel_scale_arcsec=0.2)
+    >>> round(m.theta_e_arcsec, 6), round(m.center_x, 6)
+    (1.4, 50.0)
+    """
+    if shape not in SHAPES:
+        raise LensInputError(f"Unknown fit shape '{shape}': use one of {', '.join(SHAPES)}.")
+    matrix, scale, scale_err, to_sky, data, notes = _geometry(image, pixel_scale_arcsec, pixel_scale_err_arcsec,
+                                                              pixel_matrix_arcsec)
+    px = np.asarray(x, float).ravel()
+    py = np.asarray(y, float).ravel()
+    need = {"circle": 3 if center is None else 1, "ellipse": 5 if center is None else 4, "images": 2}[shape]
+    if px.size < need:
+        what = {"circle": "arc points for a circle", "ellipse": "arc points for an ellipse",
+                "images": "multiple images"}[shape]
+        raise LensInputError(f"Too few points: {px.size} given, at least {need} {what} are needed; mark more points.")
+    if refine and shape != "images":
+        pixels = refine_image if refine_image is not None else data
+        if pixels is None:
+            raise LensInputError("Refining points onto the ridge needs the image pixels; open the image first.")
+        if center is not None:
+            rc = center
+        else:
+            rough = fit_circle(px, py) if px.size >= 3 else None
+            rc = (rough.center_x, rough.center_y) if rough else (px.mean(), py.mean())
+        moved = [refine_to_ridge(pixels, a, b, rc[0], rc[1]) for a, b in zip(px, py)]
+        n_bad = sum(not m.ok for m in moved)
+        px = np.array([m.x for m in moved])
+        py = np.array([m.y for m in moved])
+        if n_bad:
+            notes.append(f"{n_bad} of {len(moved)} points had no brightness ridge nearby and were left as marked.")
+    ref_x, ref_y = (center if center is not None else (float(px.mean()), float(py.mean())))
+    offsets = matrix @ np.vstack([px - ref_x, py - ref_y])
+    ex, ey = offsets
+    point_err = point_err_pix * scale
+    sky_center = (0.0, 0.0) if center is not None else None
+    axis_ratio = pa = None
+    if shape == "circle":
+        fit = fit_circle(ex, ey, center=sky_center, point_err=point_err)
+        theta, fit_err, rms = fit.radius, fit.radius_err, fit.rms
+        cxy = (fit.center_x, fit.center_y)
+        method = ("circle fit with the centre held at the lens centre" if center is not None
+                  else "circle fit (algebraic start, geometric least squares)")
+        notes.extend(fit.warnings)
+    elif shape == "ellipse":
+        fit = fit_ellipse(ex, ey, center=sky_center, point_err=point_err)
+        theta, fit_err, rms = fit.theta_e, fit.theta_e_err, fit.rms
+        cxy = (fit.center_x, fit.center_y)
+        axis_ratio = fit.axis_ratio
+        # Position angle of the major axis, east of north (ex = east, ey = north).
+        phi = np.radians(fit.angle_deg)
+        pa = float(np.degrees(np.arctan2(np.cos(phi), np.sin(phi))) % 180.0)
+        method = "ellipse fit, theta_E = sqrt(a b)" + (" with the centre held at the lens centre" if center else "")
+        notes.extend(fit.warnings)
+    else:
+        est = multiple_image_radius(ex, ey, center=sky_center, point_err=point_err)
+        theta, fit_err, rms = est.radius, est.radius_err, float("nan")
+        cxy = (est.center_x, est.center_y)
+        method = est.method
+        notes.extend(est.warnings)
+        d = np.hypot(ex - cxy[0], ey - cxy[1])
+        rms = float(np.sqrt(np.mean((d - theta) ** 2))) if est.n_images > 2 or center is not None else float("nan")
+    if not np.isfinite(fit_err):
+        fit_err = point_err / np.sqrt(px.size)
+        notes.append("The fit had no scatter to estimate an error; the position uncertainty alone was used.")
+    err = float(np.hypot(fit_err, theta * scale_err / scale))
+    inv = np.linalg.inv(matrix)
+    dxp, dyp = inv @ np.array(cxy, float)
+    cx_pix, cy_pix = float(ref_x + dxp), float(ref_y + dyp)
+    ra, dec = _sky(to_sky, cx_pix, cy_pix)
+    if scale_err == 0:
+        notes.append("No pixel-scale uncertainty given: theta_E error is from the fit alone.")
+    return ThetaEMeasurement(float(theta), err, cx_pix, cy_pix, ra, dec, method, float(rms), int(px.size), scale,
+                             None, None, axis_ratio, pa,
+                             [[float(a), float(b)] for a, b in zip(px, py)], notes)
+
+
+def _run_estimate(m: ThetaEMeasurement, z_l, z_s, estimate_options, estimate_fn) -> dict[str, Any]:
+    if estimate_fn is not None:
+        result = estimate_fn(m.theta_e_arcsec, m.theta_e_err_arcsec)
+    else:
+        from lensmass.core.estimate import estimate
+
+        if z_l is None:
+            raise LensInputError("No lens redshift: give --zl.")
+        result = estimate(m.theta_e_arcsec, z_l, z_s, theta_e_err=m.theta_e_err_arcsec, **(estimate_options or {}))
+    result = dict(result)
+    result.update(m.keys())
+    result["notes"] = list(m.notes) + list(result.get("notes", []))
+    models = dict(result.get("models", {}))
+    models["theta_e_arcsec"] = f"measured on the image: {m.method}; error = fit + pixel-scale error in quadrature"
+    result["models"] = models
+    return result
+
+
+def measure_from_points(
+    x,
+    y,
+    *,
+    image=None,
+    shape: str = "circle",
+    center: tuple[float, float] | None = None,
+    refine: bool = False,
+    refine_image: np.ndarray | None = None,
+    point_err_pix: float = DEFAULT_POINT_ERR_PIX,
+    pixel_scale_arcsec: float | None = None,
+    pixel_scale_err_arcsec: float | None = None,
+    pixel_matrix_arcsec: np.ndarray | None = None,
+    z_l: float | None = None,
+    z_s: float | None = None,
+    estimate_options: dict | None = None,
+    estimate_fn: Callable[[float, float], dict] | None = None,
+) -> dict[str, Any]:
+    """Marked points to a full :func:`~lensmass.core.estimate.estimate` result plus measurement keys.
+
+    ``estimate_options`` go to ``estimate`` (cosmology, concentration, halo_definition,
+    z_l_err, z_s_err, z_s_range, z_s_distribution, samples, seed); or pass
+    ``estimate_fn(theta_e, theta_e_err) -> dict`` to run the estimate your own way.
+    Other parameters: see :func:`measure_theta_e_from_points`.
+
+    Examples
+    --------
+    >>> t = np.linspace(0, 2 * np.pi, 9)[:-1]
+    >>> r = measure_from_points(50 + 7 * np.cos(t), 40 + 7 * np.sin(t), pixel_scale_arcsec=0.2,
+    ...                         z_l=0.25, z_s=0.9, estimate_options={"samples": 500})
+    >>> round(r["theta_e_arcsec"], 3), r["method"].startswith("circle")
+    (1.4, True)
+    """
+    m = measure_theta_e_from_points(x, y, image=image, shape=shape, center=center, refine=refine,
+                                    refine_image=refine_image, point_err_pix=point_err_pix,
+                                    pixel_scale_arcsec=pixel_scale_arcsec,
+                                    pixel_scale_err_arcsec=pixel_scale_err_arcsec,
+                                    pixel_matrix_arcsec=pixel_matrix_arcsec)
+    return _run_estimate(m, z_l, z_s, estimate_options, estimate_fn)
+
+
+def measure_theta_e_auto_ring(
+    image,
+    *,
+    center: tuple[float, float] | None = None,
+    require_confident: bool = True,
+    max_radius_pix: float | None = None,
+    pixel_scale_arcsec: float | None = None,
+    pixel_scale_err_arcsec: float | None = None,
+    progress: ProgressCallback = None,
+    should_stop: StopCallback = None,
+) -> tuple[ThetaEMeasurement, Any]:
+    """Run the ring finder and turn its radius into theta_E; returns (measurement, RingResult)."""
+    from lensmass.core.ringfinder import find_ring
+
+    _, scale, scale_err, to_sky, data, notes = _geometry(image, pixel_scale_arcsec, pixel_scale_err_arcsec, None)
+    if data is None:
+        raise LensInputError("The ring finder needs the image pixels; open the image first.")
+    cx, cy = (None, None) if center is None else center
+    ring = find_ring(data, cx, cy, max_radius_pix=max_radius_pix, progress=progress, should_stop=should_stop)
+    if not ring.found or (require_confident and not ring.confident):
+        raise LensInputError(f"{ring.message} Mark points on the arcs instead (--points FILE).")
+    theta, err = theta_e_from_pixels(ring.radius_pix, ring.radius_err_pix, scale, scale_err)
+    ra, dec = _sky(to_sky, ring.center_x, ring.center_y)
+    notes = notes + list(ring.warnings)
+    if not ring.confident:
+        notes.append(ring.message)
+    shape = "ellipse through the ridge, theta_E = sqrt(a b)" if ring.axis_ratio < 1.0 else "circle through the ridge"
+    method = f"automatic ring finder ({ring.kind}; {shape}; lens light: "
+    method += (ring.lens_light.method if ring.lens_light is not None and ring.lens_light.ok else "none subtracted") + ")"
+    pa = None
+    if np.isfinite(ring.angle_deg):
+        pa = float(ring.angle_deg)
+        notes.append("fit_position_angle_deg from the ring finder is measured in pixel axes (from +x towards +y).")
+    m = ThetaEMeasurement(theta, err, ring.center_x, ring.center_y, ra, dec, method, ring.fit_rms_pix * scale,
+                          int(ring.points_x.size), scale, ring.score, ring.confident,
+                          float(ring.axis_ratio) if np.isfinite(ring.axis_ratio) else None, pa,
+                          [[float(a), float(b)] for a, b in zip(ring.points_x, ring.points_y)], notes)
+    return m, ring
+
+
+def measure_auto_ring(
+    image,
+    *,
+    center: tuple[float, float] | None = None,
+    require_confident: bool = True,
+    max_radius_pix: float | None = None,
+    pixel_scale_arcsec: float | None = None,
+    pixel_scale_err_arcsec: float | None = None,
+    z_l: float | None = None,
+    z_s: float | None = None,
+    estimate_options: dict | None = None,
+    estimate_fn: Callable[[float, float], dict] | None = None,
+    progress: ProgressCallback = None,
+    should_stop: StopCallback = None,
+) -> dict[str, Any]:
+    """Ring finder -> theta_E -> :func:`~lensmass.core.estimate.estimate` result plus measurement keys.
+
+    Raises :class:`LensInputError` when no ring is found (or only a weak one while
+    ``require_confident``). The :class:`~lensmass.core.ringfinder.RingResult` is kept
+    under the private key ``"_ring"`` (residual image, ridge points, profile) for plots;
+    private keys are dropped from JSON.
+    """
+    m, ring = measure_theta_e_auto_ring(image, center=center, require_confident=require_confident,
+                                        max_radius_pix=max_radius_pix, pixel_scale_arcsec=pixel_scale_arcsec,
+                                        pixel_scale_err_arcsec=pixel_scale_err_arcsec, progress=progress,
+                                        should_stop=should_stop)
+    result = _run_estimate(m, z_l, z_s, estimate_options, estimate_fn)
+    result["_ring"] = ring
+    return result

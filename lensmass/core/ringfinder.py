@@ -1,0 +1,335 @@
+"""Automatic Einstein-ring finder on the lens-subtracted image.
+
+Method (our own):
+
+1. Centre: given, or the brightest smoothed pixel near the image centre.
+2. Lens light: an elliptical Sersic fit (:mod:`lensmass.core.lenslight`) is subtracted.
+3. The residual around the centre is binned in radius (half-pixel bins) and in
+   ``n_sectors`` equal sectors of azimuth. The azimuthal profile is the mean of the
+   sector means, and its error the larger of the pixel-noise error and the scatter
+   between sectors divided by sqrt(n_sectors): a single bright neighbour in one sector
+   raises that scatter and cannot pass for a ring.
+4. The ring is the most significant peak of that profile, weighted by sqrt(r) to undo
+   the inward shift of a blurred ring's peak (see :mod:`lensmass.core.ridge`).
+5. In each sector where the ring is detected (3 sigma), the ridge radius is measured;
+   those ridge points are fitted by an ellipse about the centre (theta_E = sqrt(a b)),
+   or by a circle when they cover too little of the azimuth. The radius error is the
+   fit's standard error.
+
+``score`` is the significance of the ring peak in sigma; ``coverage`` the fraction
+of sectors where it is detected. The result is ``confident`` only for score >=
+:data:`CONFIDENT_SCORE` and coverage >= :data:`CONFIDENT_COVERAGE`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.ndimage import gaussian_filter
+
+from lensmass.core.arcfit import fit_circle, fit_ellipse
+from lensmass.core.errors import LensInputError
+from lensmass.core.lenslight import LensLightModel, fit_lens_light, robust_sigma
+from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
+
+#: Significance (sigma) of the azimuthal ring peak needed for a confident ring.
+CONFIDENT_SCORE = 8.0
+#: Fraction of azimuthal sectors in which the ring must be seen for a confident ring.
+CONFIDENT_COVERAGE = 0.3
+#: Coverage above which the feature is called a ring (below: arcs).
+RING_COVERAGE = 0.6
+#: Default largest search radius in pixels.
+DEFAULT_MAX_RADIUS_PIX = 300.0
+DEFAULT_MIN_RADIUS_PIX = 3.0
+BIN_PIX = 0.5
+
+
+@dataclass
+class RingResult:
+    """What the ring finder saw.
+
+    ``radius_pix`` / ``radius_err_pix``: ring radius (sqrt(a b) of the ellipse through the
+    ridge points, or the circle radius) and its 1-sigma error, in pixels. ``kind`` is
+    "ring", "arcs" or "none". ``points_x``/``points_y`` are the per-sector ridge points.
+    ``residual`` is the lens-subtracted image the finder searched.
+    """
+
+    found: bool
+    confident: bool
+    kind: str
+    radius_pix: float
+    radius_err_pix: float
+    score: float
+    coverage: float
+    center_x: float
+    center_y: float
+    axis_ratio: float
+    angle_deg: float
+    fit_rms_pix: float
+    points_x: np.ndarray
+    points_y: np.ndarray
+    profile_radius_pix: np.ndarray
+    profile: np.ndarray
+    profile_err: np.ndarray
+    noise_sigma: float
+    residual: np.ndarray | None
+    lens_light: LensLightModel | None
+    message: str = ""
+    warnings: list[str] = field(default_factory=list)
+    ring_width_pix: float = float("nan")
+
+
+def find_center(image: np.ndarray, *, search_fraction: float = 0.25, smooth_pix: float = 2.0) -> tuple[float, float]:
+    """The light peak near the image centre: brightest pixel of the smoothed image inside
+    the central ``search_fraction`` of the field, refined by a 5 x 5 centroid.
+
+    Examples
+    --------
+    >>> yy, xx = np.mgrid[0:50, 0:60]
+    >>> img = np.exp(-((xx - 33.3) ** 2 + (yy - 21.6) ** 2) / 8.0)
+    >>> [round(v, 1) for v in find_center(img)]
+    [33.3, 21.6]
+    """
+    img = np.asarray(image, float)
+    ny, nx = img.shape
+    hx, hy = max(2, int(nx * search_fraction)), max(2, int(ny * search_fraction))
+    x0, x1, y0, y1 = nx // 2 - hx, nx // 2 + hx + 1, ny // 2 - hy, ny // 2 + hy + 1
+    x0, y0 = max(0, x0), max(0, y0)
+    pad = int(3 * smooth_pix) + 3
+    ex0, ey0 = max(0, x0 - pad), max(0, y0 - pad)
+    cut = img[ey0:min(ny, y1 + pad), ex0:min(nx, x1 + pad)]
+    fill = np.nanmedian(cut)
+    sm = gaussian_filter(np.where(np.isfinite(cut), cut, fill), smooth_pix)
+    inner = sm[y0 - ey0:y1 - ey0, x0 - ex0:x1 - ex0]
+    iy, ix = np.unravel_index(int(np.argmax(inner)), inner.shape)
+    py, px = iy + y0 - ey0, ix + x0 - ex0
+    win = sm[max(0, py - 2):py + 3, max(0, px - 2):px + 3]
+    w = np.clip(win - win.min(), 0, None)
+    gy, gx = np.mgrid[max(0, py - 2):py + 3, max(0, px - 2):px + 3][:, : win.shape[0], : win.shape[1]]
+    if w.sum() > 0:
+        return float((w * gx).sum() / w.sum() + ex0), float((w * gy).sum() / w.sum() + ey0)
+    return float(px + ex0), float(py + ey0)
+
+
+def _sector_profiles(res, cx, cy, rmin, rmax, n_sectors):
+    ny, nx = res.shape
+    x0, x1 = max(0, int(cx - rmax) - 1), min(nx, int(cx + rmax) + 2)
+    y0, y1 = max(0, int(cy - rmax) - 1), min(ny, int(cy + rmax) + 2)
+    cut = res[y0:y1, x0:x1]
+    dy = (np.arange(y0, y1) - cy)[:, None]
+    dx = (np.arange(x0, x1) - cx)[None, :]
+    r = np.sqrt(dx * dx + dy * dy)
+    phi = np.arctan2(np.broadcast_to(dy, r.shape), np.broadcast_to(dx, r.shape))
+    ok = np.isfinite(cut) & (r >= rmin) & (r < rmax)
+    nb = int(np.ceil((rmax - rmin) / BIN_PIX))
+    rb = ((r[ok] - rmin) / BIN_PIX).astype(np.int64)
+    sb = ((phi[ok] + np.pi) / (2 * np.pi) * n_sectors).astype(np.int64) % n_sectors
+    idx = sb * nb + rb
+    sums = np.bincount(idx, cut[ok].astype(float), minlength=n_sectors * nb).reshape(n_sectors, nb)
+    counts = np.bincount(idx, minlength=n_sectors * nb).reshape(n_sectors, nb)
+    radii = rmin + (np.arange(nb) + 0.5) * BIN_PIX
+    return sums, counts, radii
+
+
+def find_ring(
+    image: np.ndarray,
+    center_x: float | None = None,
+    center_y: float | None = None,
+    *,
+    subtract_lens_light: bool = True,
+    residual: np.ndarray | None = None,
+    min_radius_pix: float = DEFAULT_MIN_RADIUS_PIX,
+    max_radius_pix: float | None = None,
+    n_sectors: int = 24,
+    progress: ProgressCallback = None,
+    should_stop: StopCallback = None,
+) -> RingResult:
+    """Find an Einstein ring (or arcs) around the lens centre.
+
+    Parameters
+    ----------
+    image : 2-D array
+        The image (NaN = masked).
+    center_x, center_y : float, optional
+        Lens centre; default the light peak near the image centre (:func:`find_center`).
+    subtract_lens_light : bool
+        Fit and subtract the lens light first (default). Ignored when ``residual`` is given.
+    residual : 2-D array, optional
+        An already lens-subtracted image to search instead.
+    min_radius_pix, max_radius_pix : float
+        Search annulus (default 3 pixels to min(300, distance to the nearest edge)).
+    n_sectors : int
+        Number of azimuthal sectors.
+    progress, should_stop : callables, optional
+        Progress fraction 0..1 and cancellation (raises ``OperationCancelled``).
+
+    Returns
+    -------
+    RingResult
+    """
+    img = np.asarray(image)
+    if img.ndim != 2 or min(img.shape) < 8:
+        raise LensInputError("The ring finder needs a 2-D image of at least 8 x 8 pixels.")
+    report(progress, 0.0)
+    cx, cy = (find_center(img) if center_x is None or center_y is None else (float(center_x), float(center_y)))
+    ny, nx = img.shape
+    if not (0 <= cx < nx and 0 <= cy < ny):
+        raise LensInputError(f"The lens centre ({cx:.1f}, {cy:.1f}) is outside the {nx} x {ny} image; "
+                             "give a centre inside it.")
+    check_stop(should_stop)
+    warnings: list[str] = []
+    edge = min(cx, cy, nx - 1 - cx, ny - 1 - cy)
+    rmax = float(max_radius_pix) if max_radius_pix is not None else float(min(DEFAULT_MAX_RADIUS_PIX, edge))
+    rmax = min(rmax, float(np.hypot(nx, ny)))
+    rmin = float(min_radius_pix)
+    if rmax <= rmin + 4 * BIN_PIX:
+        raise LensInputError("The lens centre is too close to the image edge to search for a ring; "
+                             "give a centre farther from the edge or a larger --max-radius.")
+    if residual is not None:
+        return _search(np.asarray(residual), cx, cy, rmin, rmax, n_sectors, None, warnings, progress, should_stop)
+    if not subtract_lens_light:
+        return _search(img, cx, cy, rmin, rmax, n_sectors, None, warnings, progress, should_stop)
+    light = fit_lens_light(img, cx, cy, progress=lambda f: report(progress, 0.3 * f), should_stop=should_stop)
+    if light.ok:
+        cx, cy = light.center_x, light.center_y
+    first = _search(light.residual, cx, cy, rmin, rmax, n_sectors, light, list(light.notes), None, should_stop)
+    report(progress, 0.45)
+    if not first.found or not light.ok:
+        report(progress, 1.0)
+        return first
+    # Second pass: the ring's own light biases the lens-light fit, so refit with the ring masked.
+    ny, nx = img.shape
+    yy, xx = np.ogrid[:ny, :nx]
+    rr = np.sqrt((xx - first.center_x) ** 2 + (yy - first.center_y) ** 2)
+    half = max(2.0, 2.0 * first.ring_width_pix)
+    lo_r = first.radius_pix * min(1.0, first.axis_ratio if np.isfinite(first.axis_ratio) else 1.0) - half
+    hi_r = first.radius_pix / min(1.0, first.axis_ratio if np.isfinite(first.axis_ratio) else 1.0) + half
+    mask = (rr >= lo_r) & (rr <= hi_r)
+    light2 = fit_lens_light(img, cx, cy, mask=mask, fit_radius_pix=light.fit_radius_pix,
+                            progress=lambda f: report(progress, 0.45 + 0.3 * f), should_stop=should_stop)
+    if not light2.ok:
+        report(progress, 1.0)
+        return first
+    return _search(light2.residual, light2.center_x, light2.center_y, rmin, rmax, n_sectors, light2,
+                   list(light2.notes) + ["Lens light refitted with the ring masked."],
+                   lambda f: report(progress, 0.75 + 0.25 * f), should_stop)
+
+
+def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, should_stop) -> RingResult:
+    """Profile analysis of a (lens-subtracted) image around (cx, cy)."""
+    ny, nx = res.shape
+    report(progress, 0.0)
+    check_stop(should_stop)
+    # Noise from the search region (a ring is a minority of its pixels).
+    x0, x1 = max(0, int(cx - rmax)), min(nx, int(cx + rmax) + 1)
+    y0, y1 = max(0, int(cy - rmax)), min(ny, int(cy + rmax) + 1)
+    box = res[y0:y1, x0:x1]
+    step = max(1, int(np.sqrt(box.size / 200_000)))
+    sigma = robust_sigma(box[::step, ::step])
+    if not np.isfinite(sigma) or sigma <= 0:
+        sigma = float(np.nanstd(box)) or 1.0
+
+    sums, counts, radii = _sector_profiles(res, cx, cy, rmin, rmax, n_sectors)
+    report(progress, 0.5)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        smean = sums / counts
+    good = counts > 0
+    n_good = good.sum(axis=0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        prof = np.where(n_good > 0, np.nansum(np.where(good, smean, 0.0), axis=0) / n_good, np.nan)
+        pix_err = sigma / np.sqrt(np.maximum(counts.sum(axis=0), 1))
+        scatter = np.sqrt(np.nansum(np.where(good, (smean - prof) ** 2, 0.0), axis=0) / np.maximum(n_good - 1, 1))
+        sec_err = scatter / np.sqrt(np.maximum(n_good, 1))
+    err = np.maximum(pix_err, sec_err)
+    err = np.where(n_good >= max(3, n_sectors // 3), err, np.inf)
+    # Smooth the profile over about one PSF-width (3 bins) for the peak search.
+    kern = np.array([0.25, 0.5, 0.25])
+    prof_s = np.convolve(np.nan_to_num(prof), kern, mode="same")
+    snr = prof_s / err
+    snr[~np.isfinite(snr)] = -np.inf
+    k = int(np.argmax(snr))
+    score = float(max(snr[k], 0.0)) if np.isfinite(snr[k]) else 0.0
+    empty = RingResult(False, False, "none", float("nan"), float("nan"), score, 0.0, cx, cy, float("nan"),
+                       float("nan"), float("nan"), np.array([]), np.array([]), radii, prof, err, sigma, res, light,
+                       "", warnings)
+    if score < 3.0 or k == 0 or k == len(radii) - 1:
+        empty.message = f"No ring: nothing above 3 sigma around the centre (best {score:.1f} sigma)."
+        report(progress, 1.0)
+        return empty
+
+    # Ring width from the half-maximum of the smoothed profile around the peak.
+    half = 0.5 * prof_s[k]
+    lo_i, hi_i = k, k
+    while lo_i > 0 and prof_s[lo_i - 1] > half:
+        lo_i -= 1
+    while hi_i < len(radii) - 1 and prof_s[hi_i + 1] > half:
+        hi_i += 1
+    width = max(1.5, (hi_i - lo_i + 1) * BIN_PIX)
+    r0 = float(_peak_radius(radii, prof_s * np.sqrt(radii), k))
+
+    # Per-sector detection and ridge points.
+    band = np.abs(radii - r0) <= max(1.0, 0.5 * width)
+    sec_sum = (sums[:, band]).sum(axis=1)
+    sec_cnt = counts[:, band].sum(axis=1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        sec_snr = sec_sum / (sigma * np.sqrt(sec_cnt))
+    detected = (sec_cnt > 0) & (sec_snr >= 3.0)
+    coverage = float(detected.mean())
+    window = np.abs(radii - r0) <= max(2.0, 1.5 * width)
+    wi = np.flatnonzero(window)
+    px, py = [], []
+    for s in np.flatnonzero(detected):
+        sp = np.where(counts[s, wi] > 0, smean[s, wi], -np.inf) * np.sqrt(radii[wi])
+        j = int(np.argmax(sp))
+        if 0 < j < len(wi) - 1 and np.all(np.isfinite(sp[j - 1:j + 2])):
+            rr = _peak_radius(radii[wi], sp, j)
+        else:
+            rr = radii[wi][j]
+        ang = -np.pi + (s + 0.5) * 2 * np.pi / n_sectors
+        px.append(cx + rr * np.cos(ang))
+        py.append(cy + rr * np.sin(ang))
+    px, py = np.array(px), np.array(py)
+    report(progress, 0.8)
+
+    radius, radius_err, q, angle, rms = r0, width / 2.355 / np.sqrt(max(len(px), 1)), float("nan"), float("nan"), float("nan")
+    if len(px) >= 6 and coverage >= 0.5:
+        try:
+            ef = fit_ellipse(px, py, center=(cx, cy), point_err=BIN_PIX / np.sqrt(12))
+            if 0.4 <= ef.axis_ratio <= 1.0 and abs(ef.theta_e - r0) < 0.25 * r0:
+                radius, radius_err, q, angle, rms = ef.theta_e, ef.theta_e_err, ef.axis_ratio, ef.angle_deg, ef.rms
+        except LensInputError:
+            pass
+    if not np.isfinite(q) and len(px) >= 2:
+        cf = fit_circle(px, py, center=(cx, cy), point_err=BIN_PIX / np.sqrt(12))
+        radius, radius_err, rms = cf.radius, cf.radius_err, cf.rms
+        q = 1.0
+        if len(px) and coverage < 0.5:
+            warnings.append(f"Arcs cover only {coverage:.0%} of the azimuth: the radius assumes the lens centre "
+                            "is at the light centre.")
+    confident = bool(score >= CONFIDENT_SCORE and coverage >= CONFIDENT_COVERAGE)
+    kind = "ring" if coverage >= RING_COVERAGE else "arcs"
+    found = bool(score >= 5.0 and coverage >= 0.15)
+    if not found:
+        kind = "none"
+        msg = (f"No convincing ring: the best candidate at {r0:.1f} pixels is {score:.1f} sigma and seen in "
+               f"{coverage:.0%} of directions.")
+    elif confident:
+        msg = f"A {kind} at {radius:.2f} +- {radius_err:.2f} pixels ({score:.0f} sigma, seen in {coverage:.0%} of directions)."
+    else:
+        msg = (f"A weak {kind} candidate at {radius:.2f} pixels ({score:.1f} sigma, {coverage:.0%} of directions): "
+               "check it by eye before trusting it.")
+    report(progress, 1.0)
+    return RingResult(found, confident, kind, float(radius), float(radius_err), score, coverage, cx, cy, float(q),
+                      float(angle), float(rms), px, py, radii, prof, err, sigma, res, light, msg, warnings,
+                      float(width))
+
+
+def _peak_radius(radii: np.ndarray, values: np.ndarray, k: int) -> float:
+    """Three-point parabolic refinement of a peak at index k."""
+    if k <= 0 or k >= len(values) - 1:
+        return float(radii[k])
+    ym, y0, yp = values[k - 1], values[k], values[k + 1]
+    den = ym - 2 * y0 + yp
+    shift = 0.5 * (ym - yp) / den if den < 0 else 0.0
+    return float(radii[k] + np.clip(shift, -1, 1) * (radii[1] - radii[0]))

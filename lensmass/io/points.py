@@ -1,0 +1,89 @@
+"""Points files: CSV with a header row, columns ``x,y`` (pixels) or ``ra,dec`` (degrees).
+
+Pixels follow the lensmass convention: 0-based column (x) and row (y) of the array
+as stored in the file. Extra columns are ignored; blank lines and lines starting
+with ``#`` are skipped. Column names are case-insensitive.
+"""
+
+from __future__ import annotations
+
+import csv
+import os
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from lensmass.core.errors import LensInputError
+from lensmass.io.atomic import write_text_atomic
+
+
+@dataclass(frozen=True)
+class PointsTable:
+    """Positions read from a points file: ``frame`` is "pixel" (x, y) or "sky" (ra, dec in degrees)."""
+
+    frame: str
+    a: np.ndarray
+    b: np.ndarray
+    path: str = ""
+
+    def to_pixels(self, image) -> tuple[np.ndarray, np.ndarray]:
+        """(x, y) pixels; sky positions are converted with the image's WCS."""
+        if self.frame == "pixel":
+            return self.a, self.b
+        return image.sky_to_pixel(self.a, self.b)
+
+
+def read_points(path: str | os.PathLike) -> PointsTable:
+    """Read a points CSV.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> p = pathlib.Path(tempfile.mkdtemp()) / "pts.csv"
+    >>> _ = p.write_text("x,y\\n10.5,20\\n11,21\\n12,19\\n")
+    >>> t = read_points(p)
+    >>> t.frame, t.a.tolist()
+    ('pixel', [10.5, 11.0, 12.0])
+    """
+    p = Path(path)
+    if not p.exists():
+        raise LensInputError(f"No such points file: {p}; check the path.")
+    try:
+        text = p.read_text(encoding="utf-8-sig")
+    except (OSError, UnicodeDecodeError):
+        raise LensInputError(f"Cannot read the points file {p.name}: it is not a text CSV file.") from None
+    lines = [ln for ln in text.splitlines() if ln.strip() and not ln.lstrip().startswith("#")]
+    if not lines:
+        raise LensInputError(f"The points file {p.name} is empty: it needs a header 'x,y' (or 'ra,dec') and one row per point.")
+    rows = list(csv.reader(lines))
+    header = [h.strip().lower() for h in rows[0]]
+    if "x" in header and "y" in header:
+        frame, ka, kb = "pixel", header.index("x"), header.index("y")
+    elif "ra" in header and "dec" in header:
+        frame, ka, kb = "sky", header.index("ra"), header.index("dec")
+    else:
+        raise LensInputError(f"The points file {p.name} needs a header row naming columns x,y (pixels) or ra,dec "
+                             f"(degrees); its first line is '{lines[0][:60]}'.")
+    a, b = [], []
+    for i, row in enumerate(rows[1:], start=2):
+        try:
+            va, vb = float(row[ka]), float(row[kb])
+        except (IndexError, ValueError):
+            raise LensInputError(f"Row {i} of {p.name} does not have two numbers in the {header[ka]},{header[kb]} "
+                                 "columns; fix or delete that row.") from None
+        if not (np.isfinite(va) and np.isfinite(vb)):
+            raise LensInputError(f"Row {i} of {p.name} has a NaN or infinite position; fix or delete that row.")
+        a.append(va)
+        b.append(vb)
+    if not a:
+        raise LensInputError(f"The points file {p.name} has a header but no points; add one row per point.")
+    return PointsTable(frame, np.array(a), np.array(b), str(p))
+
+
+def write_points(path: str | os.PathLike, x, y, frame: str = "pixel") -> None:
+    """Write points to a CSV (atomically), header ``x,y`` or ``ra,dec``."""
+    names = ("x", "y") if frame == "pixel" else ("ra", "dec")
+    fmt = "{:.4f},{:.4f}" if frame == "pixel" else "{:.8f},{:.8f}"
+    body = "\n".join(fmt.format(float(u), float(v)) for u, v in zip(np.ravel(x), np.ravel(y)))
+    write_text_atomic(path, f"{names[0]},{names[1]}\n{body}\n")
