@@ -210,32 +210,63 @@ def relative_error(submitted, expected) -> np.ndarray:
         return (s - e) / np.abs(e)
 
 
-def diagnose(quantity: str, submitted: float, theta_e_arcsec: float, z_l: float, z_s: float, cosmo,
-             tolerance: float = DEFAULT_TOLERANCE, expected: float | None = None) -> list[Mistake]:
-    """The known mistakes whose value of ``quantity`` matches ``submitted`` within ``tolerance``.
+def _check_inputs(theta_e_arcsec, z_l, z_s, tolerance) -> None:
+    for name, value in (("theta_e_arcsec", theta_e_arcsec), ("z_l", z_l), ("z_s", z_s)):
+        if not (np.isfinite(value) and value > 0):
+            raise LensInputError(f"The {name} given is {value}: it must be a positive number.")
+    if z_s <= z_l:
+        raise LensInputError(f"The source must lie behind the lens, but z_s = {z_s:g} <= z_l = {z_l:g}: "
+                             "check that the two redshifts are not swapped.")
+    if not (np.isfinite(tolerance) and 0 < tolerance < 1):
+        raise LensInputError(f"The tolerance must be a fraction between 0 and 1 (for example 0.05), got {tolerance}.")
 
-    A mistake that does not change this quantity (its value is within the tolerance of
-    the expected one, e.g. a dropped h for sigma_SIS) is never named.
+
+def _grade_one(quantity: str, submitted: float, expected: float, wrong: dict[str, dict], tolerance: float) -> dict:
+    rel = float(relative_error(submitted, expected))
+    verdict = "pass" if np.isfinite(rel) and abs(rel) <= tolerance else "fail"
+    mistakes = []
+    if verdict == "fail" and np.isfinite(submitted):
+        for mistake in MISTAKES:
+            value = float(wrong[mistake.key][quantity])
+            # a mistake that leaves this quantity unchanged (e.g. a dropped h for sigma_SIS) is never named
+            if not np.isfinite(value) or abs(relative_error(value, expected)) <= tolerance:
+                continue
+            if abs(relative_error(submitted, value)) <= tolerance:
+                mistakes.append(mistake)
+    if verdict == "pass":
+        diagnosis = ""
+    elif not np.isfinite(submitted):
+        diagnosis = "no number was submitted"
+    elif mistakes:
+        diagnosis = "matches the answer of someone who " + "; or who ".join(m.description for m in mistakes)
+    else:
+        diagnosis = f"off by a factor {submitted / expected:.3g}; no known mistake matches"
+    return {"quantity": quantity, "submitted": float(submitted), "expected": expected, "relative_error": rel,
+            "verdict": verdict, "diagnosis": diagnosis, "mistakes": [m.key for m in mistakes]}
+
+
+def grade_answers(answers: dict[str, float], theta_e_arcsec: float, z_l: float, z_s: float, cosmo,
+                  tolerance: float = DEFAULT_TOLERANCE) -> list[dict]:
+    """Grade one student's answers ({quantity: value}) for the given lens; one dict per answer.
+
+    Each dict has ``quantity``, ``submitted``, ``expected``, ``relative_error``,
+    ``verdict`` (``"pass"`` when |relative error| <= tolerance, else ``"fail"``),
+    ``diagnosis`` (a sentence, empty on a pass) and ``mistakes`` (keys of
+    :data:`MISTAKES` whose value matches the submission within the tolerance).
     """
-    if expected is None:
-        expected = float(expected_quantities(theta_e_arcsec, z_l, z_s, cosmo)[quantity])
-    found = []
-    for mistake in MISTAKES:
-        wrong = float(mistake.compute(theta_e_arcsec, z_l, z_s, cosmo)[quantity])
-        if not np.isfinite(wrong) or abs(relative_error(wrong, expected)) <= tolerance:
-            continue
-        if abs(relative_error(submitted, wrong)) <= tolerance:
-            found.append(mistake)
-    return found
+    unknown = [q for q in answers if q not in GRADABLE]
+    if unknown:
+        raise LensInputError(f"Cannot grade '{unknown[0]}': gradable quantities are {', '.join(GRADABLE)}.")
+    theta, zl, zs = float(theta_e_arcsec), float(z_l), float(z_s)
+    _check_inputs(theta, zl, zs, tolerance)
+    expected = {k: float(v) for k, v in expected_quantities(theta, zl, zs, cosmo).items()}
+    wrong = {m.key: m.compute(theta, zl, zs, cosmo) for m in MISTAKES}
+    return [_grade_one(q, float(v), expected[q], wrong, tolerance) for q, v in answers.items()]
 
 
 def grade_answer(quantity: str, submitted: float, theta_e_arcsec: float, z_l: float, z_s: float, cosmo,
                  tolerance: float = DEFAULT_TOLERANCE) -> dict:
-    """Grade one submitted number: expected value, relative error, verdict and diagnosis.
-
-    Returns a dict with ``quantity``, ``submitted``, ``expected``, ``relative_error``,
-    ``verdict`` (``"pass"`` when |relative error| <= tolerance, else ``"fail"``),
-    ``diagnosis`` (a sentence, empty on a pass) and ``mistakes`` (the matched keys).
+    """Grade one submitted number (see :func:`grade_answers` for the keys).
 
     Examples
     --------
@@ -245,27 +276,4 @@ def grade_answer(quantity: str, submitted: float, theta_e_arcsec: float, z_l: fl
     >>> grade_answer("r_e_kpc", 2 * good, 1.0, 0.3, 1.0, cosmo)["mistakes"]
     ['diameter_for_radius']
     """
-    if quantity not in GRADABLE:
-        raise LensInputError(f"Cannot grade '{quantity}': gradable quantities are {', '.join(GRADABLE)}.")
-    if not (np.isfinite(tolerance) and 0 < tolerance < 1):
-        raise LensInputError(f"The tolerance must be a fraction between 0 and 1 (for example 0.05), got {tolerance}.")
-    expected = float(expected_quantities(theta_e_arcsec, z_l, z_s, cosmo)[quantity])
-    rel = float(relative_error(submitted, expected))
-    verdict = "pass" if np.isfinite(rel) and abs(rel) <= tolerance else "fail"
-    mistakes = [] if verdict == "pass" else diagnose(quantity, submitted, theta_e_arcsec, z_l, z_s, cosmo,
-                                                      tolerance, expected)
-    if verdict == "pass":
-        diagnosis = ""
-    elif mistakes:
-        diagnosis = "matches the answer of someone who " + "; or who ".join(m.description for m in mistakes)
-    else:
-        diagnosis = "off by a factor " + f"{submitted / expected:.3g}" + "; no known mistake matches"
-    return {
-        "quantity": quantity,
-        "submitted": float(submitted),
-        "expected": expected,
-        "relative_error": rel,
-        "verdict": verdict,
-        "diagnosis": diagnosis,
-        "mistakes": [m.key for m in mistakes],
-    }
+    return grade_answers({quantity: submitted}, theta_e_arcsec, z_l, z_s, cosmo, tolerance)[0]

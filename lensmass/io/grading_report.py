@@ -1,0 +1,168 @@
+"""Grading a class: read the submissions table, write the report CSV and an HTML summary.
+
+Submissions (CSV or ECSV): columns ``student``, ``theta_e_arcsec``, ``z_l``, ``z_s``
+and any of the gradable quantities of :data:`lensmass.core.grading.GRADABLE`.
+The report has one row per student and submitted quantity: ``student``,
+``quantity``, ``submitted``, ``expected``, ``relative_error``, ``verdict``
+(``pass``/``fail``) and ``diagnosis``. A student row that cannot be graded (a
+missing or non-numeric lens input, a source in front of the lens) still gets its
+rows, failed, with the reason as diagnosis: no student is dropped.
+"""
+
+from __future__ import annotations
+
+import csv
+import html
+import io
+import math
+from collections import Counter
+from pathlib import Path
+from typing import Any
+
+from lensmass.core.errors import LensInputError
+from lensmass.core.grading import DEFAULT_TOLERANCE, GRADABLE, MISTAKES, grade_answers
+from lensmass.io.atomic import write_text_atomic
+from lensmass.io.manifest import parse_number, read_table_cells
+
+REPORT_COLUMNS = ("student", "quantity", "submitted", "expected", "relative_error", "verdict", "diagnosis")
+INPUT_COLUMNS = ("theta_e_arcsec", "z_l", "z_s")
+
+
+def grade_class(path: str | Path, cosmo, tolerance: float = DEFAULT_TOLERANCE) -> list[dict[str, Any]]:
+    """Grade every student of a submissions table; returns the report rows (with ``mistakes``)."""
+    names, cells = read_table_cells(path, "submissions table")
+    lowered = {n.lower(): n for n in names}
+    missing = [c for c in ("student",) + INPUT_COLUMNS if c not in lowered]
+    if missing:
+        raise LensInputError(
+            f"The submissions table '{path}' lacks column(s) {', '.join(missing)}: it needs student, "
+            "theta_e_arcsec, z_l, z_s and the answers (for example mass_einstein_msun)."
+        )
+    quantities = [q for q in GRADABLE if q in lowered]
+    if not quantities:
+        raise LensInputError(
+            f"The submissions table '{path}' has no answer column: add any of {', '.join(GRADABLE)}."
+        )
+    if not (math.isfinite(tolerance) and 0 < tolerance < 1):
+        raise LensInputError(f"The tolerance must be a fraction between 0 and 1 (for example 0.05), got {tolerance}.")
+    report: list[dict[str, Any]] = []
+    for i, raw in enumerate(cells, start=1):
+        student = raw.get(lowered["student"], "").strip() or f"row {i}"
+        answers, bad_answer = {}, {}
+        for q in quantities:
+            text = raw.get(lowered[q], "")
+            try:
+                value = parse_number(text, q)
+            except ValueError as exc:
+                bad_answer[q] = (text, str(exc))
+                continue
+            if value is not None:
+                answers[q] = value
+        try:
+            lens = [parse_number(raw.get(lowered[c], ""), c) for c in INPUT_COLUMNS]
+            if any(v is None for v in lens):
+                absent = [c for c, v in zip(INPUT_COLUMNS, lens) if v is None]
+                raise LensInputError(f"the row has no {', '.join(absent)}")
+            graded = grade_answers(answers, *lens, cosmo, tolerance) if answers else []
+        except (ValueError, LensInputError) as exc:
+            reason = str(exc).rstrip(".")
+            graded = [_ungradable(q, v, f"not graded: {reason}") for q, v in answers.items()]
+        for row in graded:
+            report.append({"student": student, **row})
+        for q, (text, why) in bad_answer.items():
+            report.append({"student": student, **_ungradable(q, math.nan, f"not graded: {why}"), "submitted_text": text})
+        if not answers and not bad_answer:
+            report.append({"student": student, **_ungradable("", math.nan, "no answer was submitted")})
+    return report
+
+
+def _ungradable(quantity: str, submitted: float, diagnosis: str) -> dict[str, Any]:
+    return {"quantity": quantity, "submitted": submitted, "expected": math.nan, "relative_error": math.nan,
+            "verdict": "fail", "diagnosis": diagnosis, "mistakes": []}
+
+
+def _cell(value) -> str:
+    if isinstance(value, float):
+        return "" if not math.isfinite(value) else repr(value)
+    return str(value)
+
+
+def report_csv_text(report: list[dict[str, Any]]) -> str:
+    """The report as CSV text (columns :data:`REPORT_COLUMNS`)."""
+    buf = io.StringIO()
+    writer = csv.writer(buf, lineterminator="\n")
+    writer.writerow(REPORT_COLUMNS)
+    for row in report:
+        submitted = row.get("submitted_text") if "submitted_text" in row else row["submitted"]
+        writer.writerow([_cell(submitted if c == "submitted" else row[c]) for c in REPORT_COLUMNS])
+    return buf.getvalue()
+
+
+def write_report_csv(path: str | Path, report: list[dict[str, Any]]) -> None:
+    """Write the report CSV atomically."""
+    write_text_atomic(path, report_csv_text(report))
+
+
+def summary_counts(report: list[dict[str, Any]]) -> dict[str, Any]:
+    """Counts per verdict, per quantity and per diagnosed mistake."""
+    verdicts = Counter(r["verdict"] for r in report)
+    per_quantity: dict[str, Counter] = {}
+    for r in report:
+        per_quantity.setdefault(r["quantity"], Counter())[r["verdict"]] += 1
+    mistakes = Counter(k for r in report for k in r.get("mistakes", []))
+    students = sorted({r["student"] for r in report})
+    all_pass = [s for s in students if all(r["verdict"] == "pass" for r in report if r["student"] == s)]
+    return {"verdicts": dict(verdicts), "per_quantity": {q: dict(c) for q, c in per_quantity.items()},
+            "mistakes": mistakes.most_common(), "students": students, "all_pass": all_pass}
+
+
+def summary_html(report: list[dict[str, Any]], *, title: str, cosmology: str, tolerance: float) -> str:
+    """A self-contained HTML page: counts per verdict and quantity, the common mistakes, every row."""
+    s = summary_counts(report)
+    desc = {m.key: m.description for m in MISTAKES}
+    e = html.escape
+    parts = [
+        "<!DOCTYPE html>", "<html lang='en'><head><meta charset='utf-8'>", f"<title>{e(title)}</title>",
+        "<style>body{font-family:sans-serif;margin:2em;max-width:70em}table{border-collapse:collapse;margin:1em 0}"
+        "td,th{border:1px solid #999;padding:.25em .6em;text-align:left}th{background:#eee}"
+        ".pass{color:#075}.fail{color:#a10}.num{text-align:right;font-variant-numeric:tabular-nums}</style>",
+        "</head><body>", f"<h1>{e(title)}</h1>",
+        f"<p>Expected values: angular-diameter distances in {e(cosmology)}, Sigma_cr = c^2 D_s / (4 pi G D_l D_ls), "
+        "M(&lt;theta_E) = pi Sigma_cr (D_l theta_E)^2, sigma_SIS from theta_E = 4 pi (sigma/c)^2 D_ls/D_s "
+        f"(Narayan &amp; Bartelmann 1996; Hogg 1999). An answer passes within {tolerance:.3g} relative error.</p>",
+        f"<p>{len(s['students'])} students, {len(report)} answers: "
+        f"<span class='pass'>{s['verdicts'].get('pass', 0)} pass</span>, "
+        f"<span class='fail'>{s['verdicts'].get('fail', 0)} fail</span>; "
+        f"{len(s['all_pass'])} students passed every answer.</p>",
+        "<h2>By quantity</h2><table><tr><th>quantity</th><th>unit</th><th>pass</th><th>fail</th></tr>",
+    ]
+    for q in GRADABLE:
+        if q in s["per_quantity"]:
+            c = s["per_quantity"][q]
+            parts.append(f"<tr><td>{e(q)}</td><td>{e(GRADABLE[q])}</td><td class='num'>{c.get('pass', 0)}</td>"
+                         f"<td class='num'>{c.get('fail', 0)}</td></tr>")
+    parts.append("</table><h2>Common mistakes</h2>")
+    if s["mistakes"]:
+        parts.append("<table><tr><th>mistake</th><th>answers matching it</th></tr>")
+        for key, n in s["mistakes"]:
+            parts.append(f"<tr><td>{e(desc.get(key, key))}</td><td class='num'>{n}</td></tr>")
+        parts.append("</table>")
+    else:
+        parts.append("<p>No failed answer matched a known mistake.</p>")
+    parts.append("<h2>Every answer</h2><table><tr>" + "".join(f"<th>{c}</th>" for c in REPORT_COLUMNS) + "</tr>")
+    for r in report:
+        cells = []
+        for c in REPORT_COLUMNS:
+            v = r.get("submitted_text", r["submitted"]) if c == "submitted" else r[c]
+            text = f"{v:.5g}" if isinstance(v, float) and math.isfinite(v) else ("" if isinstance(v, float) else str(v))
+            cls = f" class='{r['verdict']}'" if c == "verdict" else (" class='num'" if isinstance(v, float) else "")
+            cells.append(f"<td{cls}>{e(text)}</td>")
+        parts.append("<tr>" + "".join(cells) + "</tr>")
+    parts.append("</table></body></html>")
+    return "\n".join(parts) + "\n"
+
+
+def write_summary_html(path: str | Path, report: list[dict[str, Any]], *, title: str, cosmology: str,
+                       tolerance: float) -> None:
+    """Write the HTML summary atomically."""
+    write_text_atomic(path, summary_html(report, title=title, cosmology=cosmology, tolerance=tolerance))
