@@ -14,6 +14,7 @@ Examples
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -98,8 +99,6 @@ def catalog_format(path: str | Path) -> str:
 
 
 def _read_table(path: Path, fmt: str, columns: list[str] | None = None):
-    from astropy.table import Table
-
     if not path.is_file():
         raise LensInputError(f"Catalogue '{path}' does not exist: check the path.")
     if fmt == "parquet":
@@ -108,16 +107,27 @@ def _read_table(path: Path, fmt: str, columns: list[str] | None = None):
         except ImportError:
             raise LensInputError("Reading Parquet needs pyarrow: pip install pyarrow, or convert to FITS/CSV.") from None
     try:
-        if fmt == "fits":
-            return Table.read(path, format="fits", memmap=True, character_as_bytes=False)
-        if fmt == "parquet" and columns:
-            return Table.read(path, format="parquet", include_names=columns)
-        return Table.read(path, format=fmt)
+        with warnings.catch_warnings():  # a damaged file is reported in one sentence below, not as warnings
+            warnings.simplefilter("ignore")
+            return _read_with_astropy(path, fmt, columns)
     except Exception as exc:  # astropy and its readers raise many kinds here
         raise LensInputError(
             f"Cannot read catalogue '{path.name}' as {fmt.upper()} ({type(exc).__name__}): "
             "check that the file is complete and in that format."
         ) from None
+
+
+def _read_with_astropy(path: Path, fmt: str, columns: list[str] | None):
+    from astropy.table import Table
+
+    if fmt == "fits":
+        return Table.read(path, format="fits", memmap=True, character_as_bytes=False)
+    if fmt == "parquet":  # pyarrow directly: astropy's reader would need pandas
+        import pyarrow.parquet as pq
+
+        arrow = pq.read_table(path, columns=columns)
+        return Table({name: arrow.column(name).to_numpy(zero_copy_only=False) for name in arrow.column_names})
+    return Table.read(path, format=fmt)
 
 
 def resolve_columns(colnames: list[str], mapping: dict[str, str], *, need_z: bool = False) -> dict[str, str]:
