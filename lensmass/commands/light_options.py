@@ -84,21 +84,27 @@ def header_number(header, key: str, what: str) -> float:
     return value
 
 
+def zeropoint_and_exposure(header, zeropoint=None, zeropoint_key=None, exptime=None) -> tuple[float, float, str]:
+    """(zeropoint, exposure time in s, where the exposure came from): given values first, then the header."""
+    if zeropoint is not None and zeropoint_key:
+        raise LensInputError("Give the zeropoint one way only: a value (--zeropoint) or a header keyword (--zeropoint-key).")
+    if zeropoint is None and not zeropoint_key:
+        raise LensInputError("The photometry needs a zeropoint: give --zeropoint ZP or the header keyword with --zeropoint-key.")
+    zp = float(zeropoint) if zeropoint is not None else header_number(header, zeropoint_key, "zeropoint")
+    if exptime is not None:
+        return zp, float(exptime), "given"
+    if header is not None and "EXPTIME" in header:
+        return zp, header_number(header, "EXPTIME", "exposure time"), "header EXPTIME"
+    return zp, 1.0, "none given: image taken as counts per second"
+
+
 def image_photometry(args: argparse.Namespace, image, header, *, x_pix: float, y_pix: float, theta_e_pix: float,
                      axis_ratio: float = 1.0, theta_rad: float = 0.0, arc_points_xy=None) -> dict[str, Any]:
     """Aperture magnitude of the lens inside theta_E from the options (zeropoint, exposure, masks)."""
     from lensmass.commands.common import parse_pair
     from lensmass.core.photometry import lens_magnitude_inside
 
-    if args.zeropoint is not None and args.zeropoint_key:
-        raise LensInputError("Give the zeropoint one way only: --zeropoint ZP or --zeropoint-key KEY.")
-    zp = args.zeropoint if args.zeropoint is not None else header_number(header, args.zeropoint_key, "zeropoint")
-    if args.exptime is not None:
-        exptime, exp_source = float(args.exptime), "--exptime"
-    elif header is not None and "EXPTIME" in header:
-        exptime, exp_source = header_number(header, "EXPTIME", "exposure time"), "header EXPTIME"
-    else:
-        exptime, exp_source = 1.0, "none given: image taken as counts per second"
+    zp, exptime, exp_source = zeropoint_and_exposure(header, args.zeropoint, args.zeropoint_key, args.exptime)
     phot = lens_magnitude_inside(
         image, x_pix, y_pix, theta_e_pix, zeropoint=zp, exptime_s=exptime, axis_ratio=axis_ratio,
         theta_rad=theta_rad, annulus=parse_pair(args.sky_annulus, "--sky-annulus"), arc_points_xy=arc_points_xy,

@@ -24,9 +24,10 @@ from PySide6.QtWidgets import (QCheckBox, QComboBox, QFormLayout, QGridLayout, Q
                                QLineEdit, QPushButton, QVBoxLayout, QWidget)
 
 from lensmass.commands.common import format_number
-from lensmass.commands.light_options import LIGHT_ROWS, header_number
+from lensmass.commands.light_options import LIGHT_ROWS, zeropoint_and_exposure
 from lensmass.core.errors import LensInputError
 from lensmass.core.sun_magnitudes import known_bands
+from lensmass.gui.results_panel import interval_text
 
 LAYER = "light_photometry"
 APERTURE_COLOUR = "#ffd27f"
@@ -121,6 +122,8 @@ def read_request(texts: dict, choices: dict) -> LightRequest:
         }
         if photometry["zeropoint"] is None and photometry["zeropoint_key"] is None:
             raise LensInputError("Enter the photometric zeropoint, or the header keyword that holds it.")
+        if photometry["zeropoint"] is not None and photometry["zeropoint_key"] is not None:
+            raise LensInputError("Enter either the zeropoint or the header keyword that holds it, not both.")
     return LightRequest(source, opts, photometry)
 
 
@@ -136,14 +139,8 @@ def compute_light(result: dict, estimate_kwargs: dict, request: LightRequest, *,
         if image is None or fit is None:
             raise LensInputError("Photometry on the image needs an open image and a fitted arc (mark the arc first).")
         p = request.photometry
-        header = getattr(image.loaded, "header", None)
-        zp = p["zeropoint"] if p["zeropoint"] is not None else header_number(header, p["zeropoint_key"], "zeropoint")
-        if p["exptime"] is not None:
-            exptime = p["exptime"]
-        elif header is not None and "EXPTIME" in header:
-            exptime = header_number(header, "EXPTIME", "exposure time")
-        else:
-            exptime = 1.0
+        zp, exptime, _ = zeropoint_and_exposure(getattr(image.loaded, "header", None), p["zeropoint"],
+                                                p["zeropoint_key"], p["exptime"])
         a = max(float(fit.a_px), float(fit.b_px))
         phot = lens_magnitude_inside(
             image.data, fit.center_x, fit.center_y, a, zeropoint=zp, exptime_s=exptime,
@@ -359,17 +356,12 @@ class LightPanel(QWidget):
         self.canvas.update()
 
     def _show_result(self, light: dict | None) -> None:
-        i68 = (light or {}).get("intervals68") or {}
         models = (light or {}).get("models") or {}
         for key, _, _ in LIGHT_ROWS:
             value = None if light is None else light.get(key)
             self.values[key].setText("–" if value is None else format_number(value))
             self.values[key].setToolTip(models.get(key, ""))
-            lo_hi = i68.get(key)
-            text = ""
-            if value is not None and lo_hi and all(v is not None and math.isfinite(v) for v in lo_hi) and lo_hi[0] != lo_hi[1]:
-                text = f"[{format_number(lo_hi[0])}, {format_number(lo_hi[1])}]"
-            self.intervals[key].setText(text)
+            self.intervals[key].setText("" if value is None else interval_text(light, key))
         if light is None:
             self.notes.setText("")
             return
