@@ -152,8 +152,9 @@ def resolve_columns(colnames: list[str], mapping: dict[str, str], *, need_z: boo
             resolved[role] = guesses[role]
     for role in REQUIRED_ROLES + (("z",) if need_z else ()):
         if role not in resolved:
+            alternative = ", or give one source redshift for all with --zs" if role == "z" else ""
             raise LensInputError(
-                f"The catalogue has no column for {role}: map one with --columns {role}=NAME "
+                f"The catalogue has no column for {role}: map one with --columns {role}=NAME{alternative} "
                 f"(its columns are: {present})."
             )
     return resolved

@@ -1,0 +1,153 @@
+"""``lensmass shear`` end to end on small catalogues, and its one-line errors."""
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+from astropy.io import fits
+from astropy.table import Table
+from astropy.wcs import WCS
+
+from lensmass.cli import main
+from lensmass.core.concentration import duffy08_concentration
+from lensmass.core.cosmology import little_h, resolve_cosmology
+from lensmass.core.shear_simulation import simulate_shear_catalog
+
+DEMO = Path(__file__).resolve().parents[1] / "demo_fields" / "tris_cluster_d_shear.fits"
+RA0, DEC0, ZL = 141.3720, 18.2705, 0.35
+
+
+@pytest.fixture(scope="module")
+def small_catalog(tmp_path_factory):
+    """A noisy NFW catalogue (4000 galaxies, per-galaxy z) written as FITS."""
+    cosmo = resolve_cosmology("Planck18")
+    sim = simulate_shear_catalog(center_ra=RA0, center_dec=DEC0, z_l=ZL, cosmo=cosmo, field_arcsec=900,
+                                 n_galaxies=4000, m200_msun=8e14, seed=7)
+    path = tmp_path_factory.mktemp("shear") / "cat.fits"
+    Table({"RA": sim["ra"], "DEC": sim["dec"], "E1": sim["e1"], "E2": sim["e2"], "W": sim["weight"],
+           "ZP": sim["z"]}).write(path)
+    return path
+
+
+COLUMNS = ["--columns", "ra=RA,dec=DEC,e1=E1,e2=E2,weight=W,z=ZP"]
+
+
+def _run(capsys, *args):
+    code = main(["shear", *map(str, args)])
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def test_json_keys_and_values(capsys, small_catalog):
+    code, out, err = _run(capsys, small_catalog, "--zl", ZL, "--center-sky", f"{RA0},{DEC0}",
+                          "--columns", "ra=RA,dec=DEC,e1=E1,e2=E2,weight=W,z=ZP", "--rmin", 1, "--rmax", 7,
+                          "--bootstrap", 50, "--json")
+    assert code == 0, err
+    r = json.loads(out)
+    for key in ("n_used", "n_dropped", "sis_theta_e_arcsec", "sis_sigma_v_kms", "nfw_m200_msun", "nfw_c200",
+                "intervals68", "intervals95", "chi2_sis", "chi2_nfw", "cross_shear_chi2", "cross_shear_pvalue",
+                "zeta_mass_msun", "zeta_radius_arcsec", "zeta_radius_kpc", "profile", "models", "notes"):
+        assert key in r, key
+    assert set(r["n_dropped"]) >= {"non_finite", "ellipticity_ge_1", "weight_not_positive", "source_not_behind_lens"}
+    assert r["n_dropped"]["source_not_behind_lens"] > 0
+    lo, hi = r["intervals95"]["nfw_m200_msun"]
+    assert lo < 8e14 < hi  # the simulator's input halo
+    assert len(r["profile"]) == 8 and all(np.isfinite(row["g_t_err_bootstrap"]) for row in r["profile"])
+    # Same default concentration relation as 'estimate' (Duffy et al. 2008, 200c), so both agree on one halo.
+    h = little_h(resolve_cosmology("Planck18"))
+    assert r["nfw_c200"] == pytest.approx(float(duffy08_concentration(r["nfw_m200_msun"], ZL, h)), rel=1e-6)
+    assert "Duffy" in r["models"]["nfw_m200_msun"]
+
+
+def test_demo_catalogue_recovers_its_truth(capsys):
+    truth = json.loads(DEMO.with_suffix("").with_suffix(".truth.json").read_text())
+    code, out, err = _run(capsys, DEMO, "--zl", truth["z_l"], "--center-sky",
+                          f"{truth['center_ra']},{truth['center_dec']}", "--rmin", 1, "--rmax", 10,
+                          "--bootstrap", 0, "--json")
+    assert code == 0, err
+    r = json.loads(out)
+    lo, hi = r["intervals95"]["nfw_m200_msun"]
+    assert lo < truth["lens_mass_model"]["m200_msun"] < hi
+    assert r["cross_shear_pvalue"] > 0.001
+
+
+def test_center_pixel_with_image_equals_center_sky(capsys, small_catalog, tmp_path):
+    w = WCS(naxis=2)
+    w.wcs.ctype = ["RA---TAN", "DEC--TAN"]
+    w.wcs.crval = [RA0, DEC0]
+    w.wcs.crpix = [51.0, 41.0]  # 1-based: pixel (50, 40) 0-based is the centre
+    w.wcs.cdelt = [-0.25 / 3600, 0.25 / 3600]
+    image = tmp_path / "img.fits"
+    fits.PrimaryHDU(np.zeros((80, 100), np.float32), header=w.to_header()).writeto(image)
+    common = ["--zl", ZL, "--zs", 1.2, "--rmin", 1, "--rmax", 7, "--bootstrap", 0, "--json"]
+    common += COLUMNS
+    _, out_pix, err = _run(capsys, small_catalog, "--center-pixel", "50,40", "--image", image, *common)
+    _, out_sky, _ = _run(capsys, small_catalog, "--center-sky", f"{RA0},{DEC0}", *common)
+    a, b = json.loads(out_pix), json.loads(out_sky)
+    assert a["center_ra"] == pytest.approx(RA0, abs=1e-9) and a["center_dec"] == pytest.approx(DEC0, abs=1e-9)
+    assert a["nfw_m200_msun"] == pytest.approx(b["nfw_m200_msun"], rel=1e-9)
+    assert any("--zs 1.2 is used for every galaxy" in n for n in a["notes"])
+
+
+def test_profile_and_map_files(capsys, small_catalog, tmp_path):
+    prof, mp = tmp_path / "p.ecsv", tmp_path / "m.fits"
+    code, out, err = _run(capsys, small_catalog, "--zl", ZL, "--center-sky", f"{RA0},{DEC0}", "--rmin", 1,
+                          "--rmax", 7, "--bootstrap", 0, "--profile-out", prof, "--map-out", mp,
+                          "--map-pixels", 64, "--map-noise", 4, "--map-smoothing", 50, *COLUMNS)
+    assert code == 0, err
+    assert "NFW M200" in out and "mass map written" in out
+    t = Table.read(prof)
+    assert len(t) == 8 and "g_t_model_nfw" in t.colnames and "models" in t.meta
+    with fits.open(mp) as hdul:
+        assert [h.name for h in hdul] == ["KAPPA_E", "KAPPA_B", "KAPPA_NOISE"]
+        kappa = hdul[0].data
+        wcs = WCS(hdul[0].header)
+    # The peak of the smoothed E map lies near the cluster centre (astropy WCS pixel of the centre).
+    px, py = wcs.world_to_pixel_values(RA0, DEC0)
+    iy, ix = np.unravel_index(np.argmax(kappa), kappa.shape)
+    assert np.hypot(ix - px, iy - py) < 8
+
+
+def test_nan_rows_are_counted_not_fatal(capsys, tmp_path):
+    rng = np.random.default_rng(2)
+    n = 3000
+    t = Table({"ra": RA0 + rng.uniform(-0.1, 0.1, n), "dec": DEC0 + rng.uniform(-0.1, 0.1, n),
+               "e1": rng.normal(0, 0.25, n), "e2": rng.normal(0, 0.25, n), "weight": np.ones(n)})
+    t["e1"][:7] = np.nan
+    t["weight"][7:10] = 0
+    t["e2"][10:12] = 1.2
+    path = tmp_path / "c.csv"
+    t.write(path)
+    code, out, err = _run(capsys, path, "--zl", ZL, "--zs", 1.0, "--center-sky", f"{RA0},{DEC0}", "--json",
+                          "--bootstrap", 0)
+    assert code == 0, err
+    r = json.loads(out)
+    assert r["n_dropped"]["non_finite"] == 7
+    assert r["n_dropped"]["weight_not_positive"] == 3
+    assert r["n_dropped"]["ellipticity_ge_1"] == 2
+
+
+@pytest.mark.parametrize("extra,needle", [
+    (["--columns", "e1=SHAPE1"], "no column 'SHAPE1'"),
+    (["--columns", "e1=E1"], "or give one source redshift for all with --zs"),
+    (["--zs", "0.2"], "not behind the lens"),
+    (["--center-pixel", "3,4"], "needs --image"),
+    (["--rmin", "5", "--rmax", "2"], "rmin < rmax"),
+    (["--cosmology", "Nowhere"], "Unknown cosmology"),
+])
+def test_bad_input_gives_one_line(capsys, small_catalog, extra, needle):
+    args = [small_catalog, "--zl", ZL, *COLUMNS, *extra]
+    if "--center-pixel" not in extra:
+        args += ["--center-sky", f"{RA0},{DEC0}"]
+    code, out, err = _run(capsys, *args)
+    assert code == 2
+    assert needle in err and "Traceback" not in err
+    assert len(err.strip().splitlines()) == 1
+
+
+def test_broken_catalogue_one_line(capsys, tmp_path):
+    bad = tmp_path / "half.fits"
+    bad.write_bytes(DEMO.read_bytes()[:5000])  # half-written download
+    code, out, err = _run(capsys, bad, "--zl", ZL, "--center-sky", f"{RA0},{DEC0}")
+    assert code == 2 and "Cannot read catalogue 'half.fits'" in err and len(err.strip().splitlines()) == 1
