@@ -332,7 +332,7 @@ def _input_rows(inputs: Mapping[str, Any]) -> list[tuple[str, str]]:
     rows = []
     for k, v in inputs.items():
         if isinstance(v, (float, int, np.floating, np.integer)) and not isinstance(v, bool):
-            shown = format_value(v, 4)
+            shown = f"{v:g}"  # as the user typed it
         else:
             shown = _mathtext_safe(str(v))
         rows.append((_mathtext_safe(str(k)), textwrap.shorten(shown, 46, placeholder="...") if "$" not in shown else shown))
@@ -428,39 +428,39 @@ def report_figure(image_cutout: np.ndarray | None, overlay: Overlay, inputs: Map
         fig.add_artist(_rule(fig, 0.925))
 
         # row 1: image and inputs
-        ax_img = fig.add_axes((0.06, 0.655, 0.40, 0.245))
+        ax_img = fig.add_axes((0.06, 0.675, 0.40, 0.225))
         draw_cutout(ax_img, image_cutout, overlay)
-        _legend_for_marks(fig, overlay, 0.64)
-        ax_in = fig.add_axes((0.52, 0.655, 0.42, 0.235))
+        _legend_for_marks(fig, overlay, 0.66)
+        ax_in = fig.add_axes((0.52, 0.675, 0.42, 0.215))
         _section(ax_in, "inputs")
         in_rows = _input_rows(inputs)
         _text_rows(ax_in, in_rows, (0.0, 0.36), top=0.93, step=min(0.075, 0.9 / max(len(in_rows), 1)), size=7.4)
 
         # row 2: results and mass curves
-        ax_res = fig.add_axes((0.06, 0.385, 0.46, 0.21))
+        ax_res = fig.add_axes((0.06, 0.405, 0.46, 0.21))
         _section(ax_res, "results (68% intervals)")
         rows = _result_rows(result)
         _text_rows(ax_res, rows, (0.0, 0.30, 0.52, 0.86), top=0.94, step=min(0.074, 0.86 / max(len(rows), 1)),
                    header=("quantity", "value", "68% interval", "unit"), size=7.4)
-        ax_m = fig.add_axes((0.64, 0.405, 0.30, 0.165))
+        ax_m = fig.add_axes((0.64, 0.425, 0.30, 0.165))
         i68 = (result.get("intervals68") or {}).get("mass_einstein_msun")
         draw_mass_curves(ax_m, curves, interval68=i68)
-        fig.text(0.58, 0.605, "ENCLOSED PROJECTED MASS", fontsize=7.2, color=MUTED, fontweight="bold", va="bottom")
-        fig.add_artist(_rule_at(fig, 0.58, 0.94, 0.603))
+        fig.text(0.58, 0.625, "ENCLOSED PROJECTED MASS", fontsize=7.2, color=MUTED, fontweight="bold", va="bottom")
+        fig.add_artist(_rule_at(fig, 0.58, 0.94, 0.623))
 
         # row 3: Monte Carlo distribution and notes
-        fig.text(0.06, 0.342, "MONTE CARLO DISTRIBUTION OF " + r"$M(<\theta_E)$", fontsize=7.2, color=MUTED,
+        fig.text(0.06, 0.362, "MONTE CARLO DISTRIBUTION OF " + r"$M(<\theta_E)$", fontsize=7.2, color=MUTED,
                  fontweight="bold", va="bottom")
-        fig.add_artist(_rule_at(fig, 0.06, 0.46, 0.34))
-        ax_h = fig.add_axes((0.06, 0.245, 0.40, 0.075))
+        fig.add_artist(_rule_at(fig, 0.06, 0.46, 0.36))
+        ax_h = fig.add_axes((0.06, 0.265, 0.40, 0.075))
         draw_sample_histogram(ax_h, histogram)
-        ax_notes = fig.add_axes((0.52, 0.215, 0.42, 0.125))
+        ax_notes = fig.add_axes((0.52, 0.235, 0.42, 0.125))
         _section(ax_notes, "notes")
         _wrapped(ax_notes, [f"- {_mathtext_safe(n)}" for n in result.get("notes") or []], top=0.92, size=6.6,
                  hang="  ")
 
         # row 4: models, method, references
-        ax_mod = fig.add_axes((0.06, 0.03, 0.88, 0.16))
+        ax_mod = fig.add_axes((0.06, 0.03, 0.88, 0.18))
         _section(ax_mod, "which model produced each number; method; references")
         _fitting_paragraphs(ax_mod, [
             (_model_lines(result), "      ", INK),
@@ -490,7 +490,8 @@ def _legend_for_marks(fig, overlay: Overlay, y: float) -> None:
     items = [(overlay.points_px, Line2D([], [], ls="", marker="o", mfc="none", mec=POINT_COLOUR), "arc points"),
              (overlay.images_px, Line2D([], [], ls="", marker="s", mfc="none", mec=FIT_COLOUR), "image positions"),
              (overlay.centre_px, Line2D([], [], ls="", marker="+", mec=CENTRE_COLOUR, mew=1.4), "lens centre"),
-             (overlay.circle_px or overlay.ellipse_px, Line2D([], [], color=FIT_COLOUR, ls=(0, (4, 2))), "fit")]
+             (overlay.circle_px or overlay.ellipse_px, Line2D([], [], color=FIT_COLOUR, ls=(0, (4, 2))),
+              "fitted ellipse" if overlay.ellipse_px is not None else "fitted circle")]
     shown = [(h, t) for present, h, t in items if present is not None and len(np.atleast_1d(present))]
     if shown:
         fig.legend([h for h, _ in shown], [t for _, t in shown], loc="center left", bbox_to_anchor=(0.055, y),
@@ -506,15 +507,25 @@ def _chars_per_line(ax, size: float) -> int:
 
 def _wrapped(ax, paragraphs: Sequence[str], *, top: float, size: float, hang: str = "",
              colour: str = INK, gap: float = 0.02) -> float:
-    """Write wrapped paragraphs from ``top`` down (axes fraction); returns the y below them (measured)."""
+    """Write wrapped paragraphs from ``top`` down (axes fraction); returns the y below them.
+
+    Each paragraph is wrapped at an estimated width, measured with the renderer and
+    re-wrapped narrower until it fits the axes.
+    """
     renderer = ax.figure.canvas.get_renderer()
-    width = _chars_per_line(ax, size)
+    ax_box = ax.get_window_extent(renderer)
     y = top
     for para in paragraphs:
-        lines = textwrap.wrap(para, width=width, subsequent_indent=hang) or [""]
-        t = ax.text(0, y, "\n".join(lines), fontsize=size, color=colour, va="top", transform=ax.transAxes,
-                    linespacing=1.25)
-        box = t.get_window_extent(renderer)
+        width = _chars_per_line(ax, size)
+        while True:
+            lines = textwrap.wrap(para, width=width, subsequent_indent=hang) or [""]
+            t = ax.text(0, y, "\n".join(lines), fontsize=size, color=colour, va="top", transform=ax.transAxes,
+                        linespacing=1.25)
+            box = t.get_window_extent(renderer)
+            if box.x1 <= ax_box.x1 + 0.5 or width <= 20:
+                break
+            t.remove()
+            width = max(20, int(width * min(0.97, ax_box.width / box.width)))
         y = ax.transAxes.inverted().transform((box.x0, box.y0))[1] - gap
     return y
 
