@@ -244,6 +244,18 @@ def _nice_length(target: float) -> float:
     return 10**exp
 
 
+def _style_axes(ax, label_size: float = 7.0, tick_size: float = 6.5) -> None:
+    """Our axis look, set on the Axes itself (no global rc state, safe beside a running window)."""
+    for spine in ax.spines.values():
+        spine.set_color(MUTED)
+        spine.set_linewidth(0.6)
+    ax.tick_params(which="both", colors=MUTED, labelsize=tick_size, width=0.6)
+    ax.xaxis.label.set_size(label_size)
+    ax.yaxis.label.set_size(label_size)
+    ax.xaxis.label.set_color(INK)
+    ax.yaxis.label.set_color(INK)
+
+
 def draw_mass_curves(ax, curves, *, interval68: Sequence[float] | None = None, arcsec_axis: bool = True) -> None:
     """Enclosed projected mass against radius: SIS, NFW, their 68% bands and the Einstein point.
 
@@ -269,6 +281,7 @@ def draw_mass_curves(ax, curves, *, interval68: Sequence[float] | None = None, a
     ax.set_xlim(r.min(), r.max())
     ax.set_xlabel("projected radius R [kpc]")
     ax.set_ylabel(r"$M_{2D}(<R)$ [M$_\odot$]")
+    _style_axes(ax)
     ax.grid(True, which="major", color=RULE, lw=0.5)
     ax.legend(loc="upper left", fontsize=7, frameon=False)
     if arcsec_axis:
@@ -296,6 +309,7 @@ def draw_sample_histogram(ax, hist, *, unit: str = r"M$_\odot$", label: str = r"
     ax.set_yticks([])
     power = "" if exp is None else f"$10^{{{exp}}}$ "
     ax.set_xlabel(f"{label} [{power}{unit}]" if unit or power else label)
+    _style_axes(ax)
     ax.text(0.99, 0.95, f"{hist.n_finite} draws\nline: median\nshaded: 68%", fontsize=6.3, color=MUTED,
             ha="right", va="top", transform=ax.transAxes)
 
@@ -418,58 +432,57 @@ def report_figure(image_cutout: np.ndarray | None, overlay: Overlay, inputs: Map
     fig = Figure(figsize=PAGE_INCHES, dpi=100, facecolor="white")
     FigureCanvasAgg(fig)
     fig.set_layout_engine(None)
-    with _page_style():
-        # header band
-        fig.text(0.06, 0.965, _mathtext_safe(title), fontsize=15, fontweight="bold", color=INK, va="top")
-        if subtitle:
-            fig.text(0.06, 0.94, _mathtext_safe(subtitle), fontsize=8.5, color=MUTED, va="top")
-        fig.text(0.94, 0.965, f"lensmass {__version__}", fontsize=7.5, color=MUTED, ha="right", va="top")
-        fig.text(0.94, 0.95, f"{when:%Y-%m-%d %H:%M} UTC", fontsize=7.5, color=MUTED, ha="right", va="top")
-        fig.add_artist(_rule(fig, 0.925))
+    # header band
+    fig.text(0.06, 0.965, _mathtext_safe(title), fontsize=15, fontweight="bold", color=INK, va="top")
+    if subtitle:
+        fig.text(0.06, 0.94, _mathtext_safe(subtitle), fontsize=8.5, color=MUTED, va="top")
+    fig.text(0.94, 0.965, f"lensmass {__version__}", fontsize=7.5, color=MUTED, ha="right", va="top")
+    fig.text(0.94, 0.95, f"{when:%Y-%m-%d %H:%M} UTC", fontsize=7.5, color=MUTED, ha="right", va="top")
+    fig.add_artist(_rule(fig, 0.925))
 
-        # row 1: image and inputs
-        ax_img = fig.add_axes((0.06, 0.675, 0.40, 0.225))
-        draw_cutout(ax_img, image_cutout, overlay)
-        _legend_for_marks(fig, overlay, 0.66)
-        ax_in = fig.add_axes((0.52, 0.675, 0.42, 0.215))
-        _section(ax_in, "inputs")
-        in_rows = _input_rows(inputs)
-        _text_rows(ax_in, in_rows, (0.0, 0.36), top=0.93, step=min(0.075, 0.9 / max(len(in_rows), 1)), size=7.4)
+    # row 1: image and inputs
+    ax_img = fig.add_axes((0.06, 0.675, 0.40, 0.225))
+    draw_cutout(ax_img, image_cutout, overlay)
+    _legend_for_marks(fig, overlay, 0.66)
+    ax_in = fig.add_axes((0.52, 0.675, 0.42, 0.215))
+    _section(ax_in, "inputs")
+    in_rows = _input_rows(inputs)
+    _text_rows(ax_in, in_rows, (0.0, 0.36), top=0.93, step=min(0.075, 0.9 / max(len(in_rows), 1)), size=7.4)
 
-        # row 2: results and mass curves
-        ax_res = fig.add_axes((0.06, 0.405, 0.46, 0.21))
-        _section(ax_res, "results (68% intervals)")
-        rows = _result_rows(result)
-        _text_rows(ax_res, rows, (0.0, 0.30, 0.52, 0.86), top=0.94, step=min(0.074, 0.86 / max(len(rows), 1)),
-                   header=("quantity", "value", "68% interval", "unit"), size=7.4)
-        ax_m = fig.add_axes((0.64, 0.425, 0.30, 0.165))
-        i68 = (result.get("intervals68") or {}).get("mass_einstein_msun")
-        draw_mass_curves(ax_m, curves, interval68=i68)
-        fig.text(0.58, 0.625, "ENCLOSED PROJECTED MASS", fontsize=7.2, color=MUTED, fontweight="bold", va="bottom")
-        fig.add_artist(_rule_at(fig, 0.58, 0.94, 0.623))
+    # row 2: results and mass curves
+    ax_res = fig.add_axes((0.06, 0.405, 0.46, 0.21))
+    _section(ax_res, "results (68% intervals)")
+    rows = _result_rows(result)
+    _text_rows(ax_res, rows, (0.0, 0.30, 0.52, 0.86), top=0.94, step=min(0.074, 0.86 / max(len(rows), 1)),
+               header=("quantity", "value", "68% interval", "unit"), size=7.4)
+    ax_m = fig.add_axes((0.64, 0.425, 0.30, 0.165))
+    i68 = (result.get("intervals68") or {}).get("mass_einstein_msun")
+    draw_mass_curves(ax_m, curves, interval68=i68)
+    fig.text(0.58, 0.625, "ENCLOSED PROJECTED MASS", fontsize=7.2, color=MUTED, fontweight="bold", va="bottom")
+    fig.add_artist(_rule_at(fig, 0.58, 0.94, 0.623))
 
-        # row 3: Monte Carlo distribution and notes
-        fig.text(0.06, 0.362, "MONTE CARLO DISTRIBUTION OF " + r"$M(<\theta_E)$", fontsize=7.2, color=MUTED,
-                 fontweight="bold", va="bottom")
-        fig.add_artist(_rule_at(fig, 0.06, 0.46, 0.36))
-        ax_h = fig.add_axes((0.06, 0.265, 0.40, 0.075))
-        draw_sample_histogram(ax_h, histogram)
-        ax_notes = fig.add_axes((0.52, 0.235, 0.42, 0.125))
-        _section(ax_notes, "notes")
-        _wrapped(ax_notes, [f"- {_mathtext_safe(n)}" for n in result.get("notes") or []], top=0.92, size=6.6,
-                 hang="  ")
+    # row 3: Monte Carlo distribution and notes
+    fig.text(0.06, 0.362, "MONTE CARLO DISTRIBUTION OF " + r"$M(<\theta_E)$", fontsize=7.2, color=MUTED,
+             fontweight="bold", va="bottom")
+    fig.add_artist(_rule_at(fig, 0.06, 0.46, 0.36))
+    ax_h = fig.add_axes((0.06, 0.265, 0.40, 0.075))
+    draw_sample_histogram(ax_h, histogram)
+    ax_notes = fig.add_axes((0.52, 0.235, 0.42, 0.125))
+    _section(ax_notes, "notes")
+    _wrapped(ax_notes, [f"- {_mathtext_safe(n)}" for n in result.get("notes") or []], top=0.92, size=6.6,
+             hang="  ")
 
-        # row 4: models, method, references
-        ax_mod = fig.add_axes((0.06, 0.03, 0.88, 0.18))
-        _section(ax_mod, "which model produced each number; method; references")
-        _fitting_paragraphs(ax_mod, [
-            (_model_lines(result), "      ", INK),
-            ([_mathtext_safe(_method_text(result))], "", INK),
-            (["References: " + "; ".join(_references(result)) + "."], "", MUTED),
-        ])
-        fig.text(0.06, 0.014, f"Cosmology: {_mathtext_safe(result.get('cosmology', ''))}. Masses are "
-                 "model-dependent estimates: each number is labelled with its model above.",
-                 fontsize=6.5, color=MUTED)
+    # row 4: models, method, references
+    ax_mod = fig.add_axes((0.06, 0.03, 0.88, 0.18))
+    _section(ax_mod, "which model produced each number; method; references")
+    _fitting_paragraphs(ax_mod, [
+        (_model_lines(result), "      ", INK),
+        ([_mathtext_safe(_method_text(result))], "", INK),
+        (["References: " + "; ".join(_references(result)) + "."], "", MUTED),
+    ])
+    fig.text(0.06, 0.014, f"Cosmology: {_mathtext_safe(result.get('cosmology', ''))}. Masses are "
+             "model-dependent estimates: each number is labelled with its model above.",
+             fontsize=6.5, color=MUTED)
     return fig
 
 
@@ -544,23 +557,6 @@ def _fitting_paragraphs(ax, blocks: Sequence[tuple[Sequence[str], str, str]],
             return
 
 
-class _page_style:
-    """rc settings for the page only (restored afterwards)."""
-
-    def __enter__(self):
-        import matplotlib as mpl
-
-        self._ctx = mpl.rc_context({"font.family": "DejaVu Sans", "axes.edgecolor": MUTED, "axes.linewidth": 0.6,
-                                    "xtick.color": MUTED, "ytick.color": MUTED, "xtick.labelsize": 6.5,
-                                    "ytick.labelsize": 6.5, "axes.labelsize": 7, "axes.labelcolor": INK,
-                                    "mathtext.fontset": "dejavusans"})
-        self._ctx.__enter__()
-        return self
-
-    def __exit__(self, *exc):
-        return self._ctx.__exit__(*exc)
-
-
 def render_report(path: str | os.PathLike, image_cutout: np.ndarray | None, overlay: Overlay,
                   inputs: Mapping[str, Any], result: Mapping[str, Any], *, title: str = "Lens mass report",
                   subtitle: str = "", cosmo: Any = None, halo_definition: str = "200c", curves=None,
@@ -627,5 +623,5 @@ def inputs_from_session(session, arc: int | str = 0, theta_e_arcsec: float | Non
         f"H0 = {c.h0:g}, Om0 = {c.om0:g}" + (f", Ode0 = {c.ode0:g}" if c.ode0 is not None else " (flat)"))
     rows["concentration"] = str(s.concentration)
     rows["halo boundary"] = s.halo_definition
-    rows["Monte Carlo"] = f"{s.mc_samples} draws, seed {s.mc_seed}"
+    rows["Monte Carlo"] = f"{s.mc_samples} draws, " + ("random seed" if s.mc_seed is None else f"seed {s.mc_seed}")
     return rows

@@ -40,6 +40,8 @@ for recovery by :func:`list_recoverable`.
 
 from __future__ import annotations
 
+import copy
+import hashlib
 import json
 import math
 import os
@@ -185,6 +187,21 @@ class Session:
         against ``base_dir``. Raises LensInputError naming ``source`` and the bad field."""
         return _session_from_dict(data, base_dir, source)
 
+    def fingerprint(self) -> str:
+        """A digest of the content (not of when it was saved): compare it with the one taken at
+        the last save to know whether there are unsaved changes.
+
+        Examples
+        --------
+        >>> a = Session(z_l=0.3)
+        >>> a.fingerprint() == Session(z_l=0.3).fingerprint() != Session(z_l=0.31).fingerprint()
+        True
+        """
+        data = self.to_dict()
+        for key in ("saved_at", "saved_by"):
+            data.pop(key, None)
+        return hashlib.sha256(session_text(data).encode("utf-8")).hexdigest()
+
     def estimate_kwargs(self, arc: int | str = 0) -> dict[str, Any]:
         """Keyword arguments for :func:`lensmass.core.estimate.estimate` (all but theta_E).
 
@@ -298,11 +315,6 @@ class _Reader:
             "correct that field in the file or save the session again."
         )
 
-    def get(self, d: Mapping, key: str, where: str, default: Any = None) -> Any:
-        if not isinstance(d, Mapping):
-            raise self.fail(where.rsplit(".", 1)[0] if "." in where else where, "an object", d)
-        return d.get(key, default)
-
     def number(self, value, where, *, optional=False, positive=False, nonneg=False) -> float | None:
         if value is None and optional:
             return None
@@ -396,7 +408,7 @@ def migrate(data: Mapping[str, Any], source: str = "The session",
             f"{source} uses schema {version}, older than this lensmass can read (from {oldest}): "
             "open it with an older lensmass and save it again."
         )
-    out = dict(data)
+    out = copy.deepcopy(dict(data))
     while out["schema"] < SCHEMA_VERSION:
         step = migrations.get(out["schema"])
         if step is None:
@@ -522,20 +534,25 @@ def _session_from_dict(data: Mapping[str, Any], base_dir, source: str) -> Sessio
 # -------------------------------------------------------------------- files
 
 
-def session_json(session: Session, base_dir: str | os.PathLike | None = None,
-                 extra: Mapping[str, Any] | None = None) -> str:
-    """The file text of a session (strict JSON; NaN becomes null)."""
+def session_text(data: Mapping[str, Any]) -> str:
+    """Strict JSON text of a session dict (NaN becomes null); LensInputError if a value cannot be written."""
     from lensmass.io.jsonout import to_jsonable
 
-    data = session.to_dict(base_dir)
-    if extra:
-        data.update(extra)
     try:
-        return json.dumps(to_jsonable(data), indent=2, allow_nan=False, ensure_ascii=False) + "\n"
+        return json.dumps(to_jsonable(dict(data)), indent=2, allow_nan=False, ensure_ascii=False) + "\n"
     except (TypeError, ValueError) as exc:
         raise LensInputError(
             f"The session holds a value that cannot be written as JSON ({exc}); nothing was saved."
         ) from None
+
+
+def session_json(session: Session, base_dir: str | os.PathLike | None = None,
+                 extra: Mapping[str, Any] | None = None) -> str:
+    """The file text of a session; the image path is relative to ``base_dir`` when given."""
+    data = session.to_dict(base_dir)
+    if extra:
+        data.update(extra)
+    return session_text(data)
 
 
 def save_session(path: str | os.PathLike, session: Session) -> Path:
@@ -666,7 +683,8 @@ def _pid_alive(pid: int) -> bool:
 def list_recoverable(include_running: bool = False) -> list[RecoverableSession]:
     """Autosaves whose writer is no longer running (a crash), newest first.
 
-    Unreadable autosaves are skipped. With ``include_running`` the autosaves of
+    A window discards its autosave when it closes cleanly, so what is left belongs
+    to a run that crashed or was killed. Unreadable autosaves are skipped. With ``include_running`` the autosaves of
     live windows (this process included) are listed too.
     """
     folder = autosave_dir()

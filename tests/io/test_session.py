@@ -340,3 +340,25 @@ def test_autosaves_of_crashed_runs_are_listed_newest_first(data_dir, tmp_path):
 def test_bad_autosave_key(data_dir):
     with pytest.raises(LensInputError, match="not a valid autosave key"):
         write_autosave(GOOD, "../escape")
+
+
+def test_fingerprint_tracks_content_not_save_time(tmp_path):
+    a = Session(z_l=0.3, arcs=[ArcSystem("A", z_s=1.0, points=[[1, 2]])])
+    b = Session(z_l=0.3, arcs=[ArcSystem("A", z_s=1.0, points=[(1.0, 2.0)])])
+    assert a.fingerprint() == b.fingerprint()  # lists or tuples, ints or floats: same content
+    saved = load_session(save_session(tmp_path / "s.json", a))
+    assert saved.fingerprint() == a.fingerprint()
+    saved.arcs[0].points.append((3.0, 4.0))
+    assert saved.fingerprint() != a.fingerprint()
+
+
+def test_migration_cannot_alter_the_callers_dict():
+    old = _fake_v0()
+    old["nested"] = {"keep": [1, 2]}
+
+    def rude_step(d):
+        d["nested"]["keep"].append(3)
+        return _v0_to_v1(d)
+
+    migrate(old, migrations={0: rude_step}, oldest=0)
+    assert old["nested"] == {"keep": [1, 2]}
