@@ -3,9 +3,12 @@
 The ECSV table has a ``system`` column, one column per derived number of
 :data:`lensmass.core.estimate.DERIVED_KEYS` with its unit, and four bound columns
 per number, ``<key>_p16``/``<key>_p84`` (68%) and ``<key>_p2p5``/``<key>_p97p5``
-(95%), NaN where no uncertainty was propagated. The table meta holds the
-``models`` and ``notes`` of each system and how the intervals were made. Both
-writers are atomic (:mod:`lensmass.io.atomic`).
+(95%), NaN where no uncertainty was propagated. The table meta holds how the
+intervals were made and the distinct ``models`` (which model produced each
+number) and ``notes`` (caveats) as lists; the columns ``models_set`` and
+``notes_set`` give each row's index into them, so a thousand rows from one
+estimate store the model text once. Both writers are atomic
+(:mod:`lensmass.io.atomic`).
 """
 
 from __future__ import annotations
@@ -81,6 +84,17 @@ def _float(value) -> float:
         return float("nan")
 
 
+def _distinct(values: list) -> tuple[list, list[int]]:
+    """The distinct values (first-seen order) and each input's index among them."""
+    seen: list = []
+    index = []
+    for v in values:
+        if v not in seen:
+            seen.append(v)
+        index.append(seen.index(v))
+    return seen, index
+
+
 def results_table(systems: Systems, inputs: Mapping[str, Mapping[str, Any]] | None = None):
     """An astropy Table: one row per arc system, every estimate key and its bounds.
 
@@ -96,7 +110,9 @@ def results_table(systems: Systems, inputs: Mapping[str, Mapping[str, Any]] | No
     >>> from lensmass.core.estimate import estimate
     >>> t = results_table({"A": estimate(1.2, 0.3, 1.0)})
     >>> str(t["mass_einstein_msun"].unit), len(t.colnames)
-    ('solMass', 69)
+    ('solMass', 71)
+    >>> t.meta["models"][t["models_set"][0]]["r_e_kpc"]
+    'R_E = D_l theta_E'
     """
     from astropy.table import Column, Table
 
@@ -117,12 +133,16 @@ def results_table(systems: Systems, inputs: Mapping[str, Mapping[str, Any]] | No
                                  description="Monte Carlo draws (0: no uncertainty propagated)")
     table["mc_rejected"] = Column([int(r.get("mc_rejected", 0) or 0) for _, r in items],
                                   description="Monte Carlo draws rejected (source not behind the lens)")
+    models, model_index = _distinct([dict(r.get("models") or {}) for _, r in items])
+    notes, note_index = _distinct([list(r.get("notes") or []) for _, r in items])
+    table["models_set"] = Column(model_index, description="index into meta 'models': which model made each number")
+    table["notes_set"] = Column(note_index, description="index into meta 'notes': the caveats of this row")
     from lensmass.io.jsonout import to_jsonable
 
     table.meta.update(_header("results table"))
     table.meta["intervals"] = INTERVALS_NOTE
-    table.meta["models"] = {n: dict(r.get("models") or {}) for n, r in items}
-    table.meta["notes"] = {n: list(r.get("notes") or []) for n, r in items}
+    table.meta["models"] = models
+    table.meta["notes"] = notes
     if inputs:
         table.meta["inputs"] = to_jsonable({str(k): dict(v) for k, v in inputs.items()})
     return table

@@ -68,8 +68,10 @@ def test_ecsv_units_and_meta(tmp_path, systems):
     assert t["d_ls_mpc"].unit == u.Mpc and t["r_e_kpc"].unit == u.kpc and t["theta_e_arcsec"].unit == u.arcsec
     assert t["nfw_c200"].unit is None and t["z_l"].unit is None
     assert t.meta["format"] == "lensmass-results"
-    assert t.meta["models"]["J0912"] == systems["J0912"]["models"]
-    assert t.meta["notes"]["wide"] == systems["wide"]["notes"]
+    assert t.meta["models"][t["models_set"][0]] == systems["J0912"]["models"]
+    assert len(t.meta["models"]) == 1  # one cosmology and halo model: the text is stored once
+    for row, name in zip(t, systems):
+        assert t.meta["notes"][row["notes_set"]] == systems[name]["notes"]
     assert t.meta["inputs"] == {"J0912": {"theta_e_err": 0.05}}
     assert "68%" in t.meta["intervals"]
 
