@@ -146,7 +146,16 @@ def enclosed_mass_curves(result: Mapping[str, Any], cosmo: Any = None, halo_defi
     """
     from lensmass.core.cosmology import resolve_cosmology
 
-    cosmo = resolve_cosmology(result.get("cosmology") if cosmo is None else cosmo)
+    if cosmo is None:
+        try:
+            cosmo = resolve_cosmology(result.get("cosmology"))
+        except LensInputError:
+            raise LensInputError(
+                f"The estimate used the cosmology '{result.get('cosmology')}', which is not a preset: "
+                "pass that cosmology object to draw its mass curves."
+            ) from None
+    else:
+        cosmo = resolve_cosmology(cosmo)
     r_e_kpc = _scalar(result, "r_e_kpc")
     theta_e = _scalar(result, "theta_e_arcsec")
     sigma_v = _scalar(result, "sis_sigma_v_kms")

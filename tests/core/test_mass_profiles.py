@@ -119,6 +119,8 @@ def test_custom_cosmology_needs_the_object_and_a_wrong_definition_is_caught():
     cosmo = FlatLambdaCDM(H0=70, Om0=0.3)
     r = estimate(6.0, 0.3, 1.5, cosmology=cosmo, halo_definition="200c")
     enclosed_mass_curves(r, cosmo, "200c")
+    with pytest.raises(LensInputError, match="pass that cosmology object"):
+        enclosed_mass_curves(r)
     with pytest.raises(LensInputError, match="differs from the estimate"):
         enclosed_mass_curves(r, cosmo, "200m")
 
