@@ -690,13 +690,19 @@ def list_recoverable(include_running: bool = False) -> list[RecoverableSession]:
     folder = autosave_dir()
     if not folder.is_dir():
         return []
+    try:
+        candidates = sorted(folder.glob(f"*{AUTOSAVE_SUFFIX}"))
+    except OSError:  # unreadable folder: nothing can be offered
+        return []
     found = []
-    for path in folder.glob(f"*{AUTOSAVE_SUFFIX}"):
+    for path in candidates:
         try:
             data = json.loads(path.read_text(encoding="utf-8"))
             block = data.get("autosave") or {}
             image = (data.get("image") or {}).get("absolute_path") or (data.get("image") or {}).get("path")
             saved = datetime.fromisoformat(data.get("saved_at"))
+            if saved.tzinfo is None:
+                saved = saved.replace(tzinfo=timezone.utc)
             mtime = path.stat().st_mtime
         except (OSError, ValueError, TypeError, AttributeError):
             continue

@@ -324,7 +324,7 @@ def _crashing_run(data_dir: Path, key: str, image: str, saved_at: str | None = N
 
 
 def test_autosaves_of_crashed_runs_are_listed_newest_first(data_dir, tmp_path):
-    _crashing_run(data_dir, "older-run", str(tmp_path / "k12.fits"), saved_at="2026-11-30T08:00:00+00:00")
+    _crashing_run(data_dir, "older-run", str(tmp_path / "k12.fits"), saved_at="2026-11-30T08:00:00")  # no zone: UTC
     _crashing_run(data_dir, "newer-run", str(tmp_path / "k17.fits"))
     write_autosave(GOOD, "this-window")
     (sess.autosave_dir() / "broken.autosave.json").write_text('{"format": "lensm')  # skipped, not fatal
