@@ -329,9 +329,11 @@ class ImageCanvas(QWidget):
 
     # --------------------------------------------------------------- mouse
     def mark_at(self, pos: QPointF) -> Mark | None:
-        """The mark nearest ``pos`` within a few screen pixels (active marks first)."""
+        """The mark of the selected system (or the centre) nearest ``pos``, within a few screen pixels."""
         best, best_d = None, MARK_HIT_PX
         for mark in self.marks:
+            if not mark.active:
+                continue
             p = self.image_to_widget(mark.x, mark.y)
             d = math.hypot(p.x() - pos.x(), p.y() - pos.y()) - (0.5 if mark.active else 0.0)
             if d < best_d:

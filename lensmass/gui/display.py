@@ -100,10 +100,12 @@ def quantise(data: np.ndarray, lo: float, hi: float) -> np.ndarray:
     work = np.subtract(data, lo, dtype=np.float32)
     work *= np.float32(scale)
     nan = np.isnan(work)
-    work[nan] = MASKED_LEVEL
-    np.clip(work, 0, MASKED_LEVEL, out=work)
+    np.clip(work, 0, LEVELS - 1, out=work)
+    has_nan = bool(nan.any())
+    if has_nan:
+        work[nan] = 0
     levels = work.astype(np.uint16)
-    if nan.any():
+    if has_nan:
         levels[nan] = MASKED_LEVEL
     return levels
 

@@ -16,11 +16,6 @@ import numpy as np
 from lensmass.core.errors import LensInputError
 from lensmass.gui.model import ImageState, SystemFit
 
-#: 1-sigma precision of a hand-placed mark in image pixels (common practice: about half a pixel);
-#: the fits use the larger of this and the scatter of the points.
-CLICK_PRECISION_PX = 0.5
-
-
 def _core(name: str, what: str):
     try:
         return importlib.import_module(f"lensmass.core.{name}")
@@ -30,53 +25,57 @@ def _core(name: str, what: str):
         raise
 
 
-def _scale(image: ImageState) -> float:
-    scale = image.pixel_scale_arcsec
-    if not scale:
-        raise LensInputError("This image has no pixel scale (no WCS): set it under Image > Pixel scale to measure theta_E.")
-    return float(scale)
-
-
 def measure_system(system, centre: tuple[float, float] | None, image: ImageState) -> SystemFit:
-    """Fit one arc system's marks: circle or ellipse through the arc points (and images),
-    or the multiple-image estimate when only images are marked.
+    """Measure one arc system with :func:`lensmass.core.einstein.measure_theta_e_from_points`.
 
-    The fit is made in image pixels and scaled by the (area-equivalent) pixel
-    scale of the image; positions are held at the lens centre when it is set.
+    A circle or ellipse (the system's ``shape``) through its arc points and images,
+    or the multiple-image estimate when only images are marked; held at the lens
+    centre when one is set. The fit is done in arcsec on the sky by the core; the
+    returned shape is converted back to image pixels for drawing.
     """
-    arcfit = _core("arcfit", "Arc fitting")
-    scale = _scale(image)
-    pts = np.asarray(list(system.points) + list(system.images), float).reshape(-1, 2)
-    n_points, n_images = len(system.points), len(system.images)
-    if n_points < 3 and n_images >= 2 and n_points == 0:
-        est = arcfit.multiple_image_radius(pts[:, 0], pts[:, 1], center=centre, point_err=CLICK_PRECISION_PX)
-        r = est.radius
-        return SystemFit("images", est.center_x, est.center_y, r, r, 0.0, r * scale, est.radius_err * scale,
-                         est.n_images, est.method, tuple(est.warnings))
-    need = 1 if centre is not None and system.shape == "circle" else 3 if system.shape == "circle" else 5
-    if len(pts) < need:
-        what = "points on the arc" if n_images == 0 else "arc points or images"
-        raise LensInputError(f"Mark at least {need} {what} to fit a {system.shape} (now {len(pts)}).")
-    if system.shape == "ellipse":
-        fit = arcfit.fit_ellipse(pts[:, 0], pts[:, 1], center=centre, point_err=CLICK_PRECISION_PX)
-        method = f"ellipse through {fit.n_points} marks, theta_E = sqrt(a b)"
-        return SystemFit("ellipse", fit.center_x, fit.center_y, fit.semi_major, fit.semi_minor, fit.angle_deg,
-                         fit.theta_e * scale, fit.theta_e_err * scale, fit.n_points,
-                         method + (" (centre held)" if fit.center_fixed else ""), tuple(fit.warnings))
-    fit = arcfit.fit_circle(pts[:, 0], pts[:, 1], center=centre, point_err=CLICK_PRECISION_PX)
-    method = f"circle through {fit.n_points} marks" + (" (centre held at the lens centre)" if fit.center_fixed else "")
-    return SystemFit("circle", fit.center_x, fit.center_y, fit.radius, fit.radius, 0.0, fit.radius * scale,
-                     fit.radius_err * scale, fit.n_points, method, tuple(fit.warnings))
+    einstein = _core("einstein", "Measuring theta_E")
+    if image.pixel_scale_arcsec is None:
+        raise LensInputError("This image has no pixel scale (no WCS): set it with Measure > Set pixel scale.")
+    points = list(system.points)
+    images = list(system.images)
+    shape = system.shape if points else "images" if len(images) >= 2 else system.shape
+    pts = np.asarray(points + images if shape != "images" else images, float).reshape(-1, 2)
+    if len(pts) == 0:
+        raise LensInputError(f"Arc system {system.name} has no marks yet: click along its arc (or on its images).")
+    m = einstein.measure_theta_e_from_points(pts[:, 0], pts[:, 1], image=image.loaded, shape=shape, center=centre)
+    matrix = np.asarray(getattr(image.loaded, "pixel_matrix_arcsec", None)
+                        if getattr(image.loaded, "pixel_matrix_arcsec", None) is not None
+                        else [[-m.pixel_scale_arcsec, 0.0], [0.0, m.pixel_scale_arcsec]], float)
+    radius_px = m.theta_e_arcsec / m.pixel_scale_arcsec
+    a_px = b_px = radius_px
+    angle = 0.0
+    if shape == "ellipse" and m.fit_axis_ratio:
+        q = float(m.fit_axis_ratio)
+        a_px, b_px = radius_px / np.sqrt(q), radius_px * np.sqrt(q)
+        pa = np.radians(m.fit_position_angle_deg or 0.0)
+        dx, dy = np.linalg.inv(matrix) @ np.array([np.sin(pa), np.cos(pa)])  # major axis: east, north -> pixels
+        angle = float(np.degrees(np.arctan2(dy, dx)))
+    shown = {"circle": "circle", "ellipse": "ellipse", "images": "images"}[shape]
+    return SystemFit(shown, m.center_x, m.center_y, float(a_px), float(b_px), angle, float(m.theta_e_arcsec),
+                     float(m.theta_e_err_arcsec), int(m.n_points), m.method,
+                     tuple(n for n in m.notes if not n.startswith("No pixel-scale uncertainty")))
 
 
-def snap_to_ridge(image: ImageState, x: float, y: float, centre: tuple[float, float] | None) -> tuple[float, float]:
-    """Move a click onto the nearest arc ridge (lensmass.core.ridge); the click itself if none is near."""
+def snap_to_ridge(image: ImageState, x: float, y: float,
+                  centre: tuple[float, float] | None) -> tuple[tuple[float, float], str]:
+    """Move a click radially onto the arc ridge (lensmass.core.ridge).
+
+    Returns ((x, y), note); the click itself and the reason when no ridge is near
+    or no centre is known (snapping needs the radial direction from the centre).
+    """
+    if centre is None:
+        return (x, y), "Set the lens centre first: snapping moves a click along the radius from it."
     ridge = _core("ridge", "Snapping onto the arc ridge")
     data = image.residual if image.lens_light is not None else image.data
-    out = ridge.refine_to_ridge(data, x, y, center=centre)
-    if isinstance(out, tuple) and len(out) >= 2:
-        return float(out[0]), float(out[1])
-    return float(getattr(out, "x", x)), float(getattr(out, "y", y))
+    out = ridge.refine_to_ridge(data, x, y, centre[0], centre[1])
+    if not out.ok:
+        return (x, y), out.warning or "No arc ridge near the click: the point stays where it was clicked."
+    return (float(out.x), float(out.y)), out.warning
 
 
 def call_with_callbacks(fn, *args, progress=None, should_stop=None, **kwargs) -> Any:

@@ -4,7 +4,8 @@ A task is a plain function ``fn(progress, should_stop) -> value``:
 
 * ``progress(fraction, message="")`` reports how far it is (0..1);
 * ``should_stop()`` turns true when the user pressed Cancel: return early or
-  raise :class:`TaskCancelled`.
+  raise :class:`TaskCancelled` (core functions raise
+  :class:`lensmass.core.progress.OperationCancelled`, treated the same).
 
 :class:`TaskRunner` runs one task at a time in a :class:`QThread` and drives a
 progress bar and a Cancel button; results and errors come back on the GUI thread.
@@ -33,6 +34,7 @@ from typing import Any, Callable
 from PySide6.QtCore import QObject, QThread, Signal
 
 from lensmass.core.errors import LensInputError
+from lensmass.core.progress import OperationCancelled
 
 TaskFunction = Callable[[Callable[..., None], Callable[[], bool]], Any]
 
@@ -74,7 +76,7 @@ class TaskThread(QThread):
     def run(self) -> None:  # runs in the worker thread
         try:
             value = self._fn(self._progress, self.should_stop)
-        except TaskCancelled:
+        except (TaskCancelled, OperationCancelled):
             self.cancelled.emit()
             return
         except LensInputError as exc:

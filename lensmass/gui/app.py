@@ -1,0 +1,84 @@
+"""Start the window: ``lensmass gui [IMAGE|SESSION] [--screenshot OUT.png]``."""
+
+from __future__ import annotations
+
+import os
+import sys
+import time
+from pathlib import Path
+
+from lensmass.core.errors import LensInputError
+
+
+def application():
+    """The QApplication (created once), named so QSettings finds our settings."""
+    from PySide6.QtWidgets import QApplication
+
+    app = QApplication.instance()
+    if app is None:
+        app = QApplication(sys.argv[:1])
+        app.setApplicationName("lensmass")
+        app.setOrganizationName("lensmass")
+        app.setStyle("Fusion")  # follows the system light/dark colour scheme in Qt 6
+    return app
+
+
+def wait_until_idle(window, timeout_s: float = 20.0) -> bool:
+    """Process events until no background task or pending estimate remains."""
+    from PySide6.QtWidgets import QApplication
+
+    end = time.monotonic() + timeout_s
+    while time.monotonic() < end:
+        QApplication.processEvents()
+        if not window.tasks.busy and not window._estimate_timer.isActive() and not window._estimate_wanted:
+            QApplication.processEvents()
+            return True
+        time.sleep(0.01)
+    return False
+
+
+def run_window(path: str | None = None, screenshot: str | None = None, size: tuple[int, int] | None = None) -> int:
+    """Open the window (on ``path`` if given); with ``screenshot`` save a PNG and exit."""
+    if screenshot and not os.environ.get("QT_QPA_PLATFORM") and not os.environ.get("DISPLAY") \
+            and sys.platform.startswith("linux") and not os.environ.get("WAYLAND_DISPLAY"):
+        os.environ["QT_QPA_PLATFORM"] = "offscreen"
+    if screenshot and not str(screenshot).lower().endswith(".png"):
+        raise LensInputError(f"The screenshot must be a .png file, got '{screenshot}'.")
+    if path is not None and not Path(path).exists():
+        raise LensInputError(f"No such image or session file: {path}; check the path.")
+    app = application()
+    from PySide6.QtCore import QSettings
+
+    from lensmass.gui.mainwindow import MainWindow
+
+    settings = None
+    if screenshot:
+        # A screenshot must not depend on (or change) the user's remembered layout.
+        import tempfile
+
+        settings = QSettings(str(Path(tempfile.mkdtemp(prefix="lensmass-shot-")) / "settings.ini"), QSettings.IniFormat)
+    window = MainWindow(settings, offer_recovery=not screenshot, interactive=not screenshot)
+    window.resize(*(size or (1440, 900)))
+    window.show()
+    app.processEvents()
+    if path is not None:
+        window.canvas.fit_to_window()
+        if not window.open_path(path):
+            if screenshot:
+                raise LensInputError(window.last_error or f"Could not open {path}.")
+    if screenshot:
+        wait_until_idle(window)
+        window.canvas.fit_to_window()
+        if window.model.fit is not None:
+            f = window.model.fit
+            window.canvas.centre_on_image(f.center_x, f.center_y)
+            window.canvas.zoom_to(max(window.canvas.zoom, min(window.canvas.width(), window.canvas.height())
+                                      / (5.0 * max(f.a_px, 1.0))))
+            window.canvas.centre_on_image(f.center_x, f.center_y)
+        app.processEvents()
+        out = window.save_screenshot(screenshot)
+        window.model.dirty = False
+        window.close()
+        print(f"lensmass gui: screenshot written to {out}")
+        return 0
+    return int(app.exec())

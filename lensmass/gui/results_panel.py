@@ -1,0 +1,146 @@
+"""The "Mass budget" panel: every number of the estimate with its interval and its model.
+
+Values come straight from the result of :func:`lensmass.core.estimate.estimate`;
+the tooltip of each row says which model and assumptions produced it. When there
+is no result the panel says why, in one sentence.
+"""
+
+from __future__ import annotations
+
+import math
+
+from PySide6.QtCore import Qt
+from PySide6.QtGui import QGuiApplication
+from PySide6.QtWidgets import QGridLayout, QHBoxLayout, QLabel, QPushButton, QVBoxLayout, QWidget
+
+from lensmass.commands.common import DISPLAY, format_number, format_table
+from lensmass.gui.model import WindowModel
+
+#: Rows shown (key, label, unit); the shared command-line table order, redshifts left out
+#: (they are inputs, shown in "Lens & source").
+ROWS = [row for row in DISPLAY if row[0] not in ("z_l", "z_s")]
+
+
+def interval_text(result: dict, key: str) -> str:
+    lo_hi = (result.get("intervals68") or {}).get(key)
+    if not lo_hi:
+        return ""
+    lo, hi = lo_hi
+    if lo is None or hi is None or not (math.isfinite(float(lo)) and math.isfinite(float(hi))) or lo == hi:
+        return ""
+    return f"[{format_number(lo)}, {format_number(hi)}]"
+
+
+def result_text(model: WindowModel) -> str:
+    """The results as plain text (the same table as the command line prints), with the fit."""
+    result = model.result
+    if result is None:
+        return model.result_problem or "No result yet."
+    fit = model.fit
+    head = [f"lensmass estimate for arc system {model.active_system.name}"]
+    if model.image is not None:
+        head.append(f"image: {model.image.path}")
+    if fit is not None:
+        head.append(f"theta_E = {fit.theta_e_arcsec:.4g} +- {fit.theta_e_err_arcsec:.2g} arcsec from a {fit.method}")
+    models = result.get("models") or {}
+    tail = ["", "models:"] + [f"  {k}: {v}" for k, v in models.items()]
+    return "\n".join(head + [""] + [format_table(result)] + tail)
+
+
+class ResultsPanel(QWidget):
+    PANEL_TITLE = "Mass budget"
+
+    def __init__(self, model: WindowModel, parent=None):
+        super().__init__(parent)
+        self.model = model
+        outer = QVBoxLayout(self)
+        self.status = QLabel()
+        self.status.setObjectName("results_status")
+        self.status.setWordWrap(True)
+        outer.addWidget(self.status)
+        grid = QGridLayout()
+        grid.setHorizontalSpacing(10)
+        grid.setVerticalSpacing(2)
+        self.values: dict[str, QLabel] = {}
+        self.intervals: dict[str, QLabel] = {}
+        self.names: dict[str, QLabel] = {}
+        for col, text in enumerate(("", "value", "68% interval", "")):
+            h = QLabel(text)
+            h.setStyleSheet("color: palette(mid); font-size: 85%;")
+            grid.addWidget(h, 0, col)
+        for row, (key, label, unit) in enumerate(ROWS, start=1):
+            name = QLabel(label)
+            value = QLabel("–")
+            value.setObjectName(f"value_{key}")
+            value.setAlignment(Qt.AlignRight | Qt.AlignVCenter)
+            value.setTextInteractionFlags(Qt.TextSelectableByMouse)
+            value.setStyleSheet("font-family: monospace;")
+            interval = QLabel("")
+            interval.setObjectName(f"interval_{key}")
+            interval.setStyleSheet("font-family: monospace; color: palette(mid);")
+            grid.addWidget(name, row, 0)
+            grid.addWidget(value, row, 1)
+            grid.addWidget(interval, row, 2)
+            grid.addWidget(QLabel(unit), row, 3)
+            self.values[key], self.intervals[key], self.names[key] = value, interval, name
+        outer.addLayout(grid)
+        self.notes = QLabel()
+        self.notes.setObjectName("results_notes")
+        self.notes.setWordWrap(True)
+        self.notes.setStyleSheet("font-size: 88%;")
+        self.notes.setTextInteractionFlags(Qt.TextSelectableByMouse)
+        outer.addWidget(self.notes)
+        buttons = QHBoxLayout()
+        self.copy_button = QPushButton("Copy as text")
+        self.copy_button.setToolTip("Copy the numbers, intervals, models and notes to the clipboard (Ctrl+Shift+C).")
+        self.copy_button.clicked.connect(self.copy_text)
+        buttons.addWidget(self.copy_button)
+        buttons.addStretch(1)
+        outer.addLayout(buttons)
+        outer.addStretch(1)
+        model.subscribe(self._on_model)
+        self.refresh()
+
+    def _on_model(self, topic: str) -> None:
+        if topic in ("result", "fit", "marks", "inputs", "image"):
+            self.refresh()
+
+    def copy_text(self) -> str:
+        text = result_text(self.model)
+        QGuiApplication.clipboard().setText(text)
+        return text
+
+    def refresh(self) -> None:
+        m = self.model
+        result = m.result
+        fit = m.fit
+        if result is None:
+            for key in self.values:
+                self.values[key].setText("–")
+                self.intervals[key].setText("")
+            if fit is not None:
+                self.values["theta_e_arcsec"].setText(format_number(fit.theta_e_arcsec))
+                self.intervals["theta_e_arcsec"].setText(f"± {format_number(fit.theta_e_err_arcsec)}")
+            reason = m.result_problem or m.derived[m.active].fit_problem
+            pending = reason is None and fit is not None
+            self.status.setText("Working out the masses..." if pending else (reason or "Mark the arc to begin."))
+            self.status.setStyleSheet("" if pending else "color: #d9534f;")
+            self.notes.setText("")
+            self.copy_button.setEnabled(False)
+            return
+        models = result.get("models") or {}
+        for key, label, unit in ROWS:
+            self.values[key].setText(format_number(result.get(key, float("nan"))))
+            self.intervals[key].setText(interval_text(result, key))
+            tip = models.get(key, "")
+            if key == "theta_e_arcsec" and fit is not None:
+                tip = f"{fit.method}; {fit.n_points} marks; pixel scale from the image"
+            self.names[key].setToolTip(tip)
+            self.values[key].setToolTip(tip)
+        n = result.get("mc_samples")
+        self.status.setText(f"System {m.active_system.name}: {result.get('cosmology', '')}"
+                            + (f", {n} Monte Carlo draws" if n else ", no uncertainties given"))
+        self.status.setStyleSheet("")
+        warns = list(fit.warnings) if fit is not None else []
+        self.notes.setText("\n".join("• " + t for t in warns + list(result.get("notes") or [])))
+        self.copy_button.setEnabled(True)
