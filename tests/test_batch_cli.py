@@ -79,7 +79,8 @@ def _manifest(path, n):
 
 
 def _batch_cmd(manifest, out, *extra):
-    return [sys.executable, "-m", "lensmass.cli", "batch", str(manifest), "--out", str(out), "--samples", "1000",
+    # 3000 draws per row: a block of rows takes long enough that the kill lands halfway
+    return [sys.executable, "-m", "lensmass.cli", "batch", str(manifest), "--out", str(out), "--samples", "3000",
             "--no-progress", "--save-every", "0.2", *extra]
 
 
@@ -91,7 +92,7 @@ def _rows_in(path):
 
 
 def test_kill_halfway_then_resume_equals_one_clean_run(tmp_path):
-    n = 200
+    n = 120
     manifest = tmp_path / "m.csv"
     _manifest(manifest, n)
     clean, broken = tmp_path / "clean.ecsv", tmp_path / "resumed.ecsv"

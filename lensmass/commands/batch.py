@@ -178,10 +178,43 @@ def _num(value) -> float:
     return v if math.isfinite(v) else math.nan
 
 
+def _quick_rows(rows, settings: dict) -> dict[int, dict[str, Any]]:
+    """Results of the theta_E rows, all in one pass of :func:`lensmass.core.estimate_many.estimate_many`.
+
+    Rows it cannot take (or that estimate would refuse) are left out; they go through
+    :func:`measure_row`, which gives the one-sentence reason.
+    """
+    from lensmass.core.estimate_many import estimate_many
+
+    quick = [r for r in rows if r.problem is None and r.theta_e_arcsec is not None and r.z_l is not None
+             and r.z_s is not None]
+    if not quick:
+        return {}
+    z = lambda v: 0.0 if v is None else v  # noqa: E731
+    results = estimate_many([r.theta_e_arcsec for r in quick], [z(r.theta_e_err) for r in quick],
+                            [r.z_l for r in quick], [z(r.z_l_err) for r in quick], [r.z_s for r in quick],
+                            [z(r.z_s_err) for r in quick], [settings["seed"] + r.index for r in quick],
+                            cosmology=settings["_cosmology"], concentration=settings["concentration"],
+                            halo_definition=settings["halo_definition"], samples=settings["samples"])
+    out = {}
+    for r, res in zip(quick, results):
+        if res is not None:
+            res["source"] = "theta_e_arcsec column"
+            out[r.index] = res
+    return out
+
+
 def run_rows(rows, settings: dict) -> list[dict[str, Any]]:
-    """Measure rows one after another (in a worker); every row gives a record, failed ones an error."""
+    """Measure rows (in a worker); every row gives a record, failed ones an error."""
+    quick = _quick_rows(rows, settings)
     out = []
     for row in rows:
+        if row.index in quick:
+            result = quick[row.index]
+            if row.theta_e_err is not None:
+                result["theta_e_err_arcsec"] = row.theta_e_err
+            out.append(result_record(row, result, ""))
+            continue
         try:
             result = measure_row(row, settings)
             if row.theta_e_err is not None and "theta_e_err_arcsec" not in result:
@@ -314,9 +347,10 @@ def run(args: argparse.Namespace) -> int:
     progress = _progress_bar(len(todo), args.no_progress)
     try:
         if args.workers == 1 or len(todo) < 2:
-            for row in todo:
-                saver.add(run_rows([row], settings))
-                progress.update(1)
+            for chunk in _chunks(todo, 1):
+                recs = run_rows(chunk, settings)
+                saver.add(recs)
+                progress.update(len(recs))
         else:
             _run_parallel(todo, settings, args.workers, saver, progress)
     finally:
@@ -328,9 +362,14 @@ def run(args: argparse.Namespace) -> int:
     return EXIT_SOME_ROWS_FAILED if failed else 0
 
 
+def _chunks(todo, workers: int) -> list[list]:
+    """Blocks of rows: large enough that one estimate pass per block pays, small enough for progress."""
+    size = max(1, min(100, len(todo) // (workers * 4) or 1))
+    return [todo[i:i + size] for i in range(0, len(todo), size)]
+
+
 def _run_parallel(todo, settings, workers, saver, progress) -> None:
-    chunk = max(1, min(50, len(todo) // (workers * 8) or 1))
-    chunks = [todo[i:i + chunk] for i in range(0, len(todo), chunk)]
+    chunks = _chunks(todo, workers)
     with ProcessPoolExecutor(max_workers=workers, initializer=_init_worker, initargs=(settings,)) as pool:
         pending = {pool.submit(_run_chunk, c) for c in chunks}
         try:
