@@ -101,3 +101,39 @@ def test_apply_light_photometry_on_an_image():
     with pytest.raises(LensInputError, match="no keyword 'NOPE'"):
         apply_light(args, estimate(1.2, 0.2, 0.7), image=image, header=header, x_pix=40.0, y_pix=40.0,
                     theta_e_pix=6.0)
+
+
+def test_measure_with_photometry_on_the_image(tmp_path, capsys):
+    # An invented field: exponential lens (astropy Sersic2D, n = 1) with a full ring at 8 px on a flat sky.
+    from astropy.convolution import discretize_model
+    from astropy.io import fits
+    from astropy.modeling.models import Sersic2D
+
+    size, c, r = 101, 50.0, 8.0
+    lens = discretize_model(Sersic2D(amplitude=30.0, r_eff=5.0, n=1.0, x_0=c, y_0=c), (0, size), (0, size),
+                            mode="oversample", factor=5)
+    yy, xx = np.indices((size, size))
+    ring = 100.0 * np.exp(-0.5 * ((np.hypot(xx - c, yy - c) - r) / 1.0) ** 2)
+    path = tmp_path / "field_3.fits"
+    fits.PrimaryHDU((lens + ring + 5.0).astype("f4"), header=fits.Header({"MAGZP": 27.0, "EXPTIME": 300.0})).writeto(path)
+    angles = np.linspace(0, 2 * np.pi, 16, endpoint=False)
+    points = tmp_path / "arc.csv"
+    points.write_text("x,y\n" + "".join(f"{c + r * np.cos(a):.3f},{c + r * np.sin(a):.3f}\n" for a in angles))
+    saved = list(sys.argv)
+    try:
+        code = main(["measure", str(path), "--points", str(points), "--pixel-scale", "0.1", "--zl", "0.25",
+                     "--zs", "0.9", "--zeropoint-key", "MAGZP", "--band", "sdss_r", "--stellar-ml", "3",
+                     "--arc-width", "9", "--json"])
+    finally:
+        sys.argv = saved
+    out = capsys.readouterr()
+    assert code == 0, out.err
+    result = json.loads(out.out)
+    phot = result["light_photometry"]
+    assert phot["exptime_s"] == 300.0 and phot["masked_pixels_in_aperture"] > 0
+    # the ring is masked and filled: the flux matches the Sersic enclosed light
+    # (Graham & Driver 2005, eqs. 2 and 4) to a few per cent
+    from lensmass.core.sersic import sersic_enclosed_fraction, sersic_total_flux
+    expected = float(sersic_total_flux(30.0, 5.0, 1.0) * sersic_enclosed_fraction(result["theta_e_arcsec"] / 0.1, 5.0, 1.0))
+    assert phot["flux"] == pytest.approx(expected, rel=0.03)
+    assert "dark_fraction_einstein" in result and "light_luminosity_lsun" in result

@@ -63,7 +63,7 @@ def add_light_options(parser: argparse.ArgumentParser, *, image: bool = False) -
         p.add_argument("--sky-annulus", default="4,6", metavar="IN,OUT",
                        help="sky annulus in units of theta_E (default 4,6)")
         p.add_argument("--arc-width", type=float, default=3.0, metavar="PIX",
-                       help="width in pixels of the band masked around marked arc points (default 3)")
+                       help="width in pixels of the band masked around marked arc points; cover the whole arc (default 3)")
         p.add_argument("--mask-bright", action="store_true",
                        help="also mask pixels standing 3 sigma above the lens light of their ring")
 
@@ -145,3 +145,29 @@ def apply_light(args: argparse.Namespace, result: dict, *, image=None, header=No
         concentration=args.concentration, halo_definition=args.halo_definition,
         samples=args.samples, seed=args.seed, **aperture,
     )
+
+
+def apply_light_to_measurement(args: argparse.Namespace, result: dict) -> dict:
+    """The measure hook: photometry inside the measured theta_E on the same image, then the light step.
+
+    The aperture is the circle of radius theta_E about the measured centre (for an ellipse
+    fit that circle has the ellipse's area, theta_E = sqrt(a b)); the marked points are
+    masked as arcs. The image is read again only when photometry is asked for.
+    """
+    if not light_requested(args):
+        return result
+    wants_photometry = getattr(args, "lens_mag", None) is None and (
+        getattr(args, "zeropoint", None) is not None or getattr(args, "zeropoint_key", None))
+    if not wants_photometry:
+        return apply_light(args, result)
+    from lensmass.io.images import load_image
+
+    image = load_image(args.image, hdu=args.hdu, plane=args.plane, pixel_scale_arcsec=args.pixel_scale,
+                       pixel_scale_err_arcsec=args.pixel_scale_err or 0.0)
+    radius_pix = float(result["theta_e_arcsec"]) / float(result["pixel_scale_arcsec"])
+    result = apply_light(args, result, image=image.data, header=image.header, x_pix=float(result["center_x"]),
+                         y_pix=float(result["center_y"]), theta_e_pix=radius_pix,
+                         arc_points_xy=result.get("points_xy") or None)
+    if result.get("fit_axis_ratio") is not None:
+        result["notes"].append("Photometry aperture: the circle of radius theta_E, which has the area of the fitted ellipse.")
+    return result

@@ -16,6 +16,7 @@ from lensmass.commands.common import (
     format_number,
     parse_pair,
 )
+from lensmass.commands.light_options import LIGHT_ROWS, add_light_options, apply_light_to_measurement
 
 #: Rows added to the readable table after the estimate rows.
 MEASURE_ROWS = [
@@ -55,7 +56,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     add_cosmology_options(parser)
     add_halo_options(parser)
     add_sampling_options(parser)
-    # --- photometry options (lens light, mass-to-light) are added here ---
+    add_light_options(parser, image=True)
     parser.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
 
 
@@ -117,8 +118,8 @@ def print_measurement(result: dict, as_json: bool, extra_rows=()) -> None:
 
 def run(args: argparse.Namespace) -> int:
     result = measure_from_args(args)
-    # --- photometry results (lens light, mass-to-light) are added to `result` here ---
-    print_measurement(result, args.json)
+    result = apply_light_to_measurement(args, result)
+    print_measurement(result, args.json, extra_rows=LIGHT_ROWS)
     return 0
 
 

@@ -4,10 +4,11 @@ The apertures are photutils' (exact pixel overlap). Steps:
 
 1. mask the lensed arcs: the marked arc points widened to a band, and/or pixels that are
    brighter than the lens's own ring at their elliptical radius (residual-bright);
-2. fill the masked pixels with the median of the unmasked pixels of the same elliptical
-   ring, so the lens light under the arcs is still counted;
-3. sum the filled image inside the circle or ellipse of theta_E, and subtract a local sky:
-   the sigma-clipped median per pixel of an annulus, with the arc mask applied.
+2. measure a local sky: the sigma-clipped median per pixel of an annulus, arcs masked;
+3. fill the masked pixels with the median of the unmasked pixels of the same elliptical
+   ring (rings masked all round, as under a complete Einstein ring, take a Sersic-like
+   law fitted to the rings around them), so the lens light under the arcs is still counted;
+4. sum the filled image inside the circle or ellipse of theta_E and subtract the sky.
 
 Pixel convention: (x, y) with the centre of pixel ``image[j, i]`` at (i, j) (photutils).
 The error is sky noise in the aperture plus the error of the sky level, plus Poisson noise
@@ -95,22 +96,24 @@ def arc_band_mask(shape, points_xy, width_pix: float) -> np.ndarray:
 
 
 def _ring_statistics(image, radius, valid, ring_width_pix: float):
-    """Median and MAD-based sigma of valid pixels in rings of elliptical radius."""
+    """Per ring of elliptical radius: median, MAD-based sigma and median radius of the valid pixels."""
     ring = np.floor(radius / ring_width_pix).astype(int)
     n_rings = int(ring.max()) + 1
     median = np.full(n_rings, np.nan)
     sigma = np.full(n_rings, np.nan)
+    centre = np.full(n_rings, np.nan)
     order = np.argsort(ring[valid], kind="stable")
     values = image[valid][order]
-    rings = ring[valid][order]
-    bounds = np.searchsorted(rings, np.arange(n_rings + 1))
+    radii = radius[valid][order]
+    bounds = np.searchsorted(ring[valid][order], np.arange(n_rings + 1))
     for k in range(n_rings):  # one pass per ring (a few dozen), not per pixel
         chunk = values[bounds[k]:bounds[k + 1]]
         if chunk.size:
             m = np.median(chunk)
             median[k] = m
             sigma[k] = 1.4826 * np.median(np.abs(chunk - m))
-    return ring, median, sigma
+            centre[k] = np.median(radii[bounds[k]:bounds[k + 1]])
+    return ring, median, sigma, centre, np.diff(bounds)
 
 
 def residual_bright_mask(image, x_pix, y_pix, r_max_pix, *, axis_ratio=1.0, theta_rad=0.0,
@@ -124,31 +127,76 @@ def residual_bright_mask(image, x_pix, y_pix, r_max_pix, *, axis_ratio=1.0, thet
     valid = np.isfinite(image) & (radius <= r_max_pix)
     if base_mask is not None:
         valid &= ~base_mask
-    ring, median, sigma = _ring_statistics(image, radius, valid, ring_width_pix)
+    ring, median, sigma, _, _ = _ring_statistics(image, radius, valid, ring_width_pix)
     ring = np.minimum(ring, len(median) - 1)
     with np.errstate(invalid="ignore"):
         bright = image > median[ring] + nsigma * np.maximum(sigma[ring], 0.0)
     return bright & (radius <= r_max_pix) & np.isfinite(image)
 
 
+#: A ring whose unmasked pixels are fewer than this fraction is filled by interpolation instead.
+MIN_RING_COVERAGE = 0.5
+
+
+def _profile_across_gap(r_nodes, v_nodes, r_wanted, err_nodes=None) -> np.ndarray:
+    """Lens light at ``r_wanted`` from ring medians around a fully masked stretch of radius.
+
+    A Sersic-like law log I = a - b r^(1/n) is fitted (robust least squares, 0.3 <= n <= 10)
+    to the rings above the background out to twice the largest radius wanted; where that
+    is not possible, log-linear interpolation between the neighbouring rings is used.
+    """
+    from scipy.optimize import least_squares
+
+    use = (v_nodes > 0) & (r_nodes <= 2.0 * r_wanted.max()) & (r_nodes > 0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        fallback = np.exp(np.interp(r_wanted, r_nodes[v_nodes > 0], np.log(v_nodes[v_nodes > 0])))
+    if use.sum() < 5 or not np.any(r_nodes[use] < r_wanted.min()) or not np.any(r_nodes[use] > r_wanted.max()):
+        return np.where(np.isfinite(fallback), fallback, np.interp(r_wanted, r_nodes, v_nodes))
+    r, logv = r_nodes[use], np.log(v_nodes[use])
+    # weights: the relative error of each ring median (floor 1% so bright noiseless rings do not dominate)
+    rel = np.full(r.shape, 0.01) if err_nodes is None else np.maximum(err_nodes[use] / v_nodes[use], 0.01)
+
+    def law(p, x):
+        return p[0] - np.exp(p[1]) * x ** p[2]
+
+    start = np.array([logv.max(), 0.0, 0.5])
+    fit = least_squares(lambda p: (law(p, r) - logv) / rel, start, bounds=([-np.inf, -20, 0.1], [np.inf, 20, 1 / 0.3]),
+                        loss="soft_l1", f_scale=3.0)
+    if not fit.success:
+        return fallback
+    return np.exp(law(fit.x, r_wanted))
+
+
 def fill_masked_by_ring(image, mask, x_pix, y_pix, *, axis_ratio=1.0, theta_rad=0.0,
-                        ring_width_pix: float = 1.0) -> np.ndarray:
-    """Copy of ``image`` with masked (and non-finite) pixels replaced by their ring's median."""
-    image = np.asarray(image, float)
+                        ring_width_pix: float = 1.0, background: float = 0.0,
+                        noise: float | None = None) -> np.ndarray:
+    """Copy of ``image`` with masked (and non-finite) pixels replaced by the lens light of their ring.
+
+    A masked pixel takes the median of the unmasked pixels of its elliptical ring. Where
+    a ring is mostly masked (under a complete Einstein ring) the value is interpolated at
+    the pixel's own radius from a Sersic-like law fitted to the well-covered rings around
+    it (brightness above ``background``; ring medians weighted by ``noise`` per pixel, or by
+    their own scatter when it is not given), see :func:`_profile_across_gap`.
+    """
+    image = np.asarray(image, float) - background
     bad = np.asarray(mask, bool) | ~np.isfinite(image)
     if not bad.any():
-        return image.copy()
+        return image + background
     radius = elliptical_radius_pix(image.shape, x_pix, y_pix, axis_ratio, theta_rad)
-    ring, median, _ = _ring_statistics(image, radius, ~bad, ring_width_pix)
-    # rings with no valid pixel take the nearest ring that has one
-    have = np.flatnonzero(np.isfinite(median))
-    if have.size == 0:
+    ring, median, sigma, centre, n_valid = _ring_statistics(image, radius, ~bad, ring_width_pix)
+    n_total = np.bincount(ring.ravel(), minlength=len(median))
+    covered = (n_valid >= np.maximum(3, MIN_RING_COVERAGE * n_total)) & np.isfinite(median)
+    if not covered.any():
         raise LensInputError("Every pixel around the lens is masked or missing: widen the image or mark fewer arc pixels.")
-    nearest = have[np.clip(np.searchsorted(have, np.arange(len(median))), 0, len(have) - 1)]
-    median = median[nearest]
     out = image.copy()
-    out[bad] = median[ring[bad]]
-    return out
+    use_ring = bad & covered[ring]
+    out[use_ring] = median[ring[use_ring]]
+    rest = bad & ~covered[ring]
+    if rest.any():
+        scatter = sigma[covered] if noise is None else np.full(covered.sum(), float(noise))
+        err = 1.2533 * scatter / np.sqrt(np.maximum(n_valid[covered], 1))  # error of a median
+        out[rest] = _profile_across_gap(centre[covered], median[covered], radius[rest], err)
+    return out + background
 
 
 def lens_aperture_photometry(
@@ -218,7 +266,6 @@ def lens_aperture_photometry(
     if mask_residuals:
         masked |= residual_bright_mask(image, x_pix, y_pix, a_out, axis_ratio=axis_ratio, theta_rad=theta_rad,
                                        nsigma=nsigma, base_mask=masked)
-    filled = fill_masked_by_ring(image, masked, x_pix, y_pix, axis_ratio=axis_ratio, theta_rad=theta_rad)
 
     pos = (float(x_pix), float(y_pix))
     aperture = EllipticalAperture(pos, radius_pix, radius_pix * axis_ratio, theta=theta_rad)
@@ -231,6 +278,8 @@ def lens_aperture_photometry(
             "use a larger image or a smaller annulus."
         )
     sky_level, sky_std = float(sky.median), float(sky.std)
+    filled = fill_masked_by_ring(image, masked, x_pix, y_pix, axis_ratio=axis_ratio, theta_rad=theta_rad,
+                                 background=sky_level, noise=sky_std)
     table = aperture_photometry(filled, aperture, method="exact")
     area = float(aperture.area_overlap(filled)) if hasattr(aperture, "area_overlap") else float(aperture.area)
     flux = float(table["aperture_sum"][0]) - sky_level * area
