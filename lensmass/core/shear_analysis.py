@@ -20,6 +20,7 @@ from lensmass.core.nfw import HALO_DEFINITIONS, nfw_halo, nfw_mass_2d_msun
 from lensmass.core.shear_fit import cross_shear_test, fit_nfw, fit_sis
 from lensmass.core.shear_profile import (
     DEFAULT_Z_MARGIN,
+    lens_distance_mpc,
     lensing_efficiency,
     radial_bin_edges,
     radius_arcsec,
@@ -146,30 +147,14 @@ def analyse_shear_catalog(
     if not np.any(ok):
         reasons = ", ".join(f"{k.replace('_', ' ')}: {v}" for k, v in dropped.items() if v)
         raise LensInputError(f"No usable galaxies in the catalogue ({reasons}): check the columns and --zl.")
-    x, y = x[ok], y[ok]
-    e1u, e2u, wu = np.asarray(e1, float)[ok], np.asarray(e2, float)[ok], w[ok]
-    zu = None if z is None else np.asarray(z, float)[ok]
-    step(0.15, "source distances")
-    beta, sigma_cr, d_l = lensing_efficiency(z_l, zu if zu is not None else z_s, cosmo)
     theta = radius_arcsec(x, y)
-    e_t, e_x = tangential_cross(e1u, e2u, x, y)
-
-    r_max_as = float(np.max(theta)) * (1 + 1e-9) if r_max is None else to_arcsec(r_max, unit, d_l)
+    d_l = lens_distance_mpc(z_l, cosmo)
+    if r_max is None:
+        r_max_as = float(np.max(np.where(ok, theta, -np.inf))) * (1 + 1e-9)
+    else:
+        r_max_as = to_arcsec(r_max, unit, d_l)
     r_min_as = DEFAULT_INNER_FRACTION * r_max_as if r_min is None else to_arcsec(r_min, unit, d_l)
     edges = radial_bin_edges(r_min_as, r_max_as, n_bins, log=log_bins)
-    in_range = (theta >= edges[0]) & (theta < edges[-1])
-    dropped["outside_radial_range"] = int(np.count_nonzero(~in_range))
-    step(0.3, "binned profile")
-    profile = shear_profile(theta, e_t, e_x, wu, edges, beta=beta, sigma_cr_msun_per_mpc2=sigma_cr, d_l_mpc=d_l,
-                            n_bootstrap=n_bootstrap, seed=seed)
-    step(0.5, "SIS fit")
-    sis = fit_sis(profile)
-    step(0.65, "NFW fit")
-    nfw = fit_nfw(profile, z_l, cosmo, concentration=concentration, halo_definition=halo_definition,
-                  free_concentration=free_concentration)
-    x2, dof_x, p_x = cross_shear_test(profile)
-
-    step(0.85, "aperture mass")
     if zeta_radii is None:
         z_in, z_out = float(np.sqrt(edges[0] * edges[-1])), float(edges[-1])
     else:
@@ -179,7 +164,33 @@ def analyse_shear_catalog(
         from lensmass.core.aperture_mass import zeta_prefactor
 
         zeta_prefactor(z_in, z_out)  # raises the clear message
-    zp = shear_profile(theta, e_t, e_x, wu, zeta_edges, beta=beta, sigma_cr_msun_per_mpc2=sigma_cr, d_l_mpc=d_l)
+    with np.errstate(invalid="ignore"):
+        in_range = ok & (theta >= edges[0]) & (theta < edges[-1])
+        # only galaxies in the profile or the zeta annulus take part in what follows
+        near = in_range | (ok & (theta >= z_in) & (theta < z_out))
+    n_in_range = int(np.count_nonzero(in_range))
+    dropped["outside_radial_range"] = int(np.count_nonzero(ok)) - n_in_range
+    e1a, e2a = np.asarray(e1, float), np.asarray(e2, float)
+    t_n, x_n, y_n, e1_n, e2_n, w_n = (v[near] for v in (theta, x, y, e1a, e2a, w))
+    z_n = None if z is None else np.asarray(z, float)[near]
+    step(0.15, "source distances")
+    beta, sigma_cr, _ = lensing_efficiency(z_l, z_n if z_n is not None else z_s, cosmo)
+    e_t, e_x = tangential_cross(e1_n, e2_n, x_n, y_n)
+    step(0.3, "binned profile")
+    profile = shear_profile(t_n, e_t, e_x, w_n, edges, beta=beta, sigma_cr_msun_per_mpc2=sigma_cr, d_l_mpc=d_l,
+                            n_bootstrap=n_bootstrap, seed=seed)
+    step(0.5, "SIS fit")
+    sis = fit_sis(profile)
+    step(0.65, "NFW fit")
+    nfw = fit_nfw(profile, z_l, cosmo, concentration=concentration, halo_definition=halo_definition,
+                  free_concentration=free_concentration)
+    x2, dof_x, p_x = cross_shear_test(profile)
+
+    step(0.85, "aperture mass")
+    ann = (t_n >= z_in) & (t_n < z_out)
+    sc_ann = np.broadcast_to(sigma_cr, t_n.shape)[ann]
+    zp = shear_profile(t_n[ann], e_t[ann], e_x[ann], w_n[ann], zeta_edges, sigma_cr_msun_per_mpc2=sc_ann,
+                       d_l_mpc=d_l, with_model_cells=False)
     zeta, zeta_err = zeta_from_profile(zeta_edges, zp.g_t, zp.g_t_err, z_in, z_out)
     zeta_s, zeta_s_err = zeta_from_profile(zeta_edges, zp.delta_sigma_msun_per_mpc2,
                                            zp.delta_sigma_err_msun_per_mpc2, z_in, z_out)
@@ -196,9 +207,9 @@ def analyse_shear_catalog(
         "center_ra": float(center_ra),
         "center_dec": float(center_dec),
         "n_rows": n_rows,
-        "n_used": int(np.count_nonzero(in_range)),
+        "n_used": n_in_range,
         "n_dropped": dropped,
-        "source_redshifts": "per-galaxy column" if zu is not None else f"single z_s = {z_s:g}",
+        "source_redshifts": "per-galaxy column" if z is not None else f"single z_s = {z_s:g}",
         "z_s_effective": effective_source_redshift(profile.beta_mean, z_l, cosmo),
         "beta_mean": profile.beta_mean,
         "d_l_mpc": d_l,
@@ -224,12 +235,12 @@ def analyse_shear_catalog(
         free_concentration=bool(free_concentration),
     )
     result["profile"] = profile_rows(profile, sis.model_profile, nfw.model_profile)
-    result["notes"] = _notes(sis, nfw, p_x, dropped, zeta_mass, zeta_mass_err, nfw_m2d_zeta, zu is not None)
+    result["notes"] = _notes(sis, nfw, p_x, dropped, zeta_mass, zeta_mass_err, nfw_m2d_zeta, z is not None)
     result["models"] = model_descriptions(result["cosmology"], c_label, halo_definition, free_concentration,
                                           result["source_redshifts"])
     result["_profile"] = profile
     result["_fits"] = {"sis": sis, "nfw": nfw}
-    result["_galaxies"] = {"x_arcsec": x, "y_arcsec": y, "e1": e1u, "e2": e2u, "weight": wu}
+    result["_galaxies"] = {"x_arcsec": x, "y_arcsec": y, "e1": e1a, "e2": e2a, "weight": w, "usable": ok}
     step(1.0, "done")
     return result
 
@@ -312,5 +323,7 @@ def mass_map_for_result(result: dict, *, n_pixels: int = 128, extent_arcsec: flo
     from lensmass.core.mass_map import mass_map
 
     gal = result["_galaxies"]
-    return mass_map(gal["x_arcsec"], gal["y_arcsec"], gal["e1"], gal["e2"], gal["weight"], n_pixels=n_pixels,
+    ok = gal["usable"]
+    return mass_map(gal["x_arcsec"][ok], gal["y_arcsec"][ok], gal["e1"][ok], gal["e2"][ok], gal["weight"][ok],
+                    n_pixels=n_pixels,
                     extent_arcsec=extent_arcsec, smoothing_arcsec=smoothing_arcsec, n_noise=n_noise, seed=seed)

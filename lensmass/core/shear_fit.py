@@ -26,9 +26,9 @@ from lensmass.core.concentration import concentration_relation
 from lensmass.core.constants import ARCSEC_RAD
 from lensmass.core.errors import LensInputError
 from lensmass.core.lensing import sigma_crit_msun_per_mpc2
-from lensmass.core.nfw import nfw_halo, nfw_reduced_shear
+from lensmass.core.nfw import nfw_convergence, nfw_halo, nfw_shear
 from lensmass.core.shear_profile import ModelCells, ShearProfile
-from lensmass.core.sis import sis_reduced_shear, sis_theta_e_arcsec
+from lensmass.core.sis import sis_convergence, sis_shear, sis_theta_e_arcsec
 
 #: Quantiles reported: 95% interval, 68% interval and the median.
 QUANTILES = (0.025, 0.16, 0.5, 0.84, 0.975)
@@ -49,11 +49,26 @@ def expected_ellipticity(g) -> np.ndarray:
         return np.where(np.abs(g) <= 1.0, g, 1.0 / g)
 
 
+def cell_reduced_shear(gamma_inf, kappa_inf, cells: ModelCells) -> np.ndarray:
+    """Mean expected ellipticity of a cell from the shear and convergence for beta = D_ls/D_s = 1.
+
+    g(beta) = beta gamma / (1 - beta kappa) is averaged over the cell's spread of beta to
+    second order: g(<beta>) + Var(beta) gamma kappa / (1 - <beta> kappa)^3.
+    """
+    b, var = cells.beta, cells.beta_var
+    denom = 1.0 - b * kappa_inf
+    with np.errstate(divide="ignore", invalid="ignore"):
+        g = b * gamma_inf / denom
+        corrected = g + var * gamma_inf * kappa_inf / denom**3
+    return expected_ellipticity(np.where(np.abs(g) < 1.0, corrected, g))
+
+
 def sis_model_cells(sigma_v_kms, cells: ModelCells) -> np.ndarray:
     """Expected tangential ellipticity on the cells for SIS dispersions (shape (..., n_cells))."""
     s = np.asarray(sigma_v_kms, float)[..., None]
-    theta_e = sis_theta_e_arcsec(s, 1.0, cells.beta)
-    return expected_ellipticity(sis_reduced_shear(cells.theta_arcsec, theta_e))
+    theta_e_inf = sis_theta_e_arcsec(s, 1.0, 1.0)  # for D_ls / D_s = 1
+    kappa = sis_convergence(cells.theta_arcsec, theta_e_inf)
+    return cell_reduced_shear(sis_shear(cells.theta_arcsec, theta_e_inf), kappa, cells)
 
 
 def nfw_model_cells(m_delta_msun, concentration, cells: ModelCells, z_l: float, cosmo, d_l_mpc: float,
@@ -63,8 +78,9 @@ def nfw_model_cells(m_delta_msun, concentration, cells: ModelCells, z_l: float, 
     c = np.asarray(concentration, float)[..., None]
     halo = nfw_halo(m, c, z_l, cosmo, definition)
     radius_mpc = cells.theta_arcsec * ARCSEC_RAD * d_l_mpc
-    sigma_cr = sigma_crit_msun_per_mpc2(d_l_mpc, 1.0, cells.beta)  # D_s / D_ls = 1 / beta
-    return expected_ellipticity(nfw_reduced_shear(radius_mpc, halo, sigma_cr))
+    sigma_cr_inf = sigma_crit_msun_per_mpc2(d_l_mpc, 1.0, 1.0)  # for D_ls / D_s = 1
+    return cell_reduced_shear(nfw_shear(radius_mpc, halo, sigma_cr_inf),
+                              nfw_convergence(radius_mpc, halo, sigma_cr_inf), cells)
 
 
 def _chunked(fn: Callable, params: tuple[np.ndarray, ...], n_cells: int) -> np.ndarray:
@@ -123,8 +139,8 @@ def _chi2(model_cells: np.ndarray, profile: ShearProfile, use, data, err) -> np.
     return np.where(np.isfinite(chi2), chi2, np.inf)
 
 
-def _refine_1d(chi2_of: Callable, lo: float, hi: float, n: int = 241, rounds: int = 6):
-    """Grid in one variable, zoomed until the peak spans at least 60 grid points."""
+def _refine_1d(chi2_of: Callable, lo: float, hi: float, n: int = 81, rounds: int = 8, min_inside: int = 40):
+    """Grid in one variable, zoomed until the region within the likelihood floor spans ``min_inside`` points."""
     a, b = lo, hi
     for _ in range(rounds):
         x = np.linspace(a, b, n)
@@ -133,9 +149,9 @@ def _refine_1d(chi2_of: Callable, lo: float, hi: float, n: int = 241, rounds: in
             raise LensInputError("No model in the searched range fits the profile: check the centre and the radial range.")
         inside = np.flatnonzero(-0.5 * (c - np.min(c)) > _LNP_FLOOR)
         step = x[1] - x[0]
-        new_a = max(lo, x[inside[0]] - 2 * step)
-        new_b = min(hi, x[inside[-1]] + 2 * step)
-        if inside.size >= 60 or (new_a <= a and new_b >= b):
+        new_a = max(lo, x[inside[0]] - step)
+        new_b = min(hi, x[inside[-1]] + step)
+        if inside.size >= min_inside or (new_a <= a and new_b >= b):
             break
         a, b = new_a, new_b
     return x, c
