@@ -318,7 +318,10 @@ class _Reader:
     def number(self, value, where, *, optional=False, positive=False, nonneg=False) -> float | None:
         if value is None and optional:
             return None
-        ok = isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
+        try:
+            ok = isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
+        except OverflowError:  # an integer too large for a float
+            ok = False
         if ok and positive and value <= 0:
             ok = False
         if ok and nonneg and value < 0:
@@ -417,7 +420,13 @@ def migrate(data: Mapping[str, Any], source: str = "The session",
                 "open it with the lensmass that wrote it and save it again."
             )
         before = out["schema"]
-        out = dict(step(dict(out)))
+        try:
+            out = dict(step(dict(out)))
+        except (KeyError, IndexError, TypeError, ValueError, AttributeError):
+            raise LensInputError(
+                f"{source} uses schema {before} but lacks what that schema needs: it is damaged; "
+                "open a backup or an autosave instead."
+            ) from None
         if out.get("schema") != before + 1:
             out["schema"] = before + 1
     return out

@@ -155,6 +155,7 @@ def _bad_files():
     bad_points["arcs"][0]["points"] = [[1.0]]
     bad_bool = json.loads(good)
     bad_bool["display"]["invert"] = "yes"
+    huge = sess.session_json(GOOD).replace('"z_l": 0.3', '"z_l": 1' + "0" * 400)
     return {
         "truncated": (good[: len(good) // 2].encode(), "ends too early"),
         "cut_in_a_string": (good[: good.index('"lensmass-session"') + 5].encode(), "ends too early"),
@@ -168,6 +169,7 @@ def _bad_files():
         "bad_type": (json.dumps(bad_type).encode(), "arcs\\[0\\].z_s"),
         "bad_points": (json.dumps(bad_points).encode(), "arcs\\[0\\].points\\[0\\]"),
         "bad_bool": (json.dumps(bad_bool).encode(), "display.invert"),
+        "huge_integer": (huge.encode(), "'z_l'"),
     }
 
 
@@ -227,6 +229,14 @@ def test_migration_hook_upgrades_a_v0_dict(tmp_path, monkeypatch):
     assert s.z_l == 0.5 and s.arcs[0].points == [(1.0, 2.0), (3.0, 4.0), (5.0, 6.0)]
     assert Path(s.image.path) == tmp_path / "k17.fits"
     assert path.read_text() == snapshot
+
+
+def test_damaged_v0_fails_in_one_sentence():
+    broken = _fake_v0()
+    del broken["lens_z"]
+    with pytest.raises(LensInputError, match="lacks what that schema needs") as info:
+        migrate(broken, migrations={0: _v0_to_v1}, oldest=0)
+    _one_sentence(str(info.value))
 
 
 def test_v0_without_a_migration_is_refused_clearly(tmp_path):
