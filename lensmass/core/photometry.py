@@ -259,15 +259,24 @@ def lens_aperture_photometry(
     if not (radius_pix <= a_in < a_out):
         raise LensInputError("The sky annulus must start at or outside the aperture and have outer > inner radius.")
 
+    # work on a cutout just larger than the sky annulus (and the arc band's reach)
+    reach = a_out + 0.5 * float(arc_width_pix) + 2.0
+    x0, x1 = max(0, int(np.floor(x_pix - reach))), min(nx, int(np.ceil(x_pix + reach)) + 1)
+    y0, y1 = max(0, int(np.floor(y_pix - reach))), min(ny, int(np.ceil(y_pix + reach)) + 1)
+    full_shape, image = image.shape, image[y0:y1, x0:x1]
+    points = None
+    if arc_points_xy is not None:
+        points = np.asarray(arc_points_xy, float).reshape(-1, 2) - [x0, y0]
     masked = ~np.isfinite(image)
     if mask is not None:
-        masked |= np.asarray(mask, bool)
-    masked |= arc_band_mask(image.shape, arc_points_xy, arc_width_pix)
+        masked |= np.asarray(mask, bool)[y0:y1, x0:x1]
+    masked |= arc_band_mask(image.shape, points, arc_width_pix)
+    cx, cy = float(x_pix) - x0, float(y_pix) - y0
     if mask_residuals:
-        masked |= residual_bright_mask(image, x_pix, y_pix, a_out, axis_ratio=axis_ratio, theta_rad=theta_rad,
+        masked |= residual_bright_mask(image, cx, cy, a_out, axis_ratio=axis_ratio, theta_rad=theta_rad,
                                        nsigma=nsigma, base_mask=masked)
 
-    pos = (float(x_pix), float(y_pix))
+    pos = (cx, cy)
     aperture = EllipticalAperture(pos, radius_pix, radius_pix * axis_ratio, theta=theta_rad)
     ring = EllipticalAnnulus(pos, a_in, a_out, a_out * axis_ratio, theta=theta_rad)
     sky = ApertureStats(image, ring, mask=masked, sigma_clip=SigmaClip(sigma=3.0, maxiters=10), sum_method="center")
@@ -278,7 +287,7 @@ def lens_aperture_photometry(
             "use a larger image or a smaller annulus."
         )
     sky_level, sky_std = float(sky.median), float(sky.std)
-    filled = fill_masked_by_ring(image, masked, x_pix, y_pix, axis_ratio=axis_ratio, theta_rad=theta_rad,
+    filled = fill_masked_by_ring(image, masked, cx, cy, axis_ratio=axis_ratio, theta_rad=theta_rad,
                                  background=sky_level, noise=sky_std)
     table = aperture_photometry(filled, aperture, method="exact")
     area = float(aperture.area_overlap(filled)) if hasattr(aperture, "area_overlap") else float(aperture.area)
@@ -288,8 +297,11 @@ def lens_aperture_photometry(
         var += max(flux, 0.0) / float(gain)
     in_aperture = aperture.to_mask(method="center").to_image(image.shape)
     n_masked = int(np.sum(masked & (in_aperture > 0))) if in_aperture is not None else 0
-    geometry = ApertureGeometry(pos[0], pos[1], float(radius_pix), float(radius_pix * axis_ratio), float(theta_rad), a_in, a_out)
-    return LensPhotometry(flux, float(np.sqrt(var)), sky_level, sky_std, area, n_sky, n_masked, geometry, masked)
+    geometry = ApertureGeometry(float(x_pix), float(y_pix), float(radius_pix), float(radius_pix * axis_ratio),
+                                float(theta_rad), a_in, a_out)
+    full_mask = np.zeros(full_shape, bool)
+    full_mask[y0:y1, x0:x1] = masked
+    return LensPhotometry(flux, float(np.sqrt(var)), sky_level, sky_std, area, n_sky, n_masked, geometry, full_mask)
 
 
 def counts_to_magnitude(flux, flux_err, zeropoint: float, exptime_s: float = 1.0) -> tuple[float, float]:
