@@ -162,3 +162,26 @@ def test_number_formatting_three_significant_figures():
     assert format_value(None) == "-"
     assert format_interval(2.69e11, 3.21e11, 2.94e11) == r"[2.69, 3.21]$\times10^{11}$"
     assert format_interval(1.0, 1.0, 1.0) == ""
+
+
+def test_overlay_marks_sit_in_full_image_pixels():
+    from matplotlib.figure import Figure
+    from matplotlib.patches import Ellipse
+
+    from lensmass.io.report import draw_cutout
+
+    img = np.random.default_rng(2).normal(0, 1, (50, 60))
+    cut, origin = cutout(img, (40.0, 30.0), 15)
+    ax = Figure().add_subplot()
+    draw_cutout(ax, cut, Overlay(0.1, centre_px=(40.0, 30.0), ellipse_px=(40.0, 30.0, 8.0, 5.0, 30.0),
+                                 images_px=[(48.0, 30.0)], origin_px=origin))
+    ellipse = ax.patches[0]
+    assert isinstance(ellipse, Ellipse)
+    assert (ellipse.center, ellipse.width, ellipse.height, ellipse.angle) == ((40.0, 30.0), 16.0, 10.0, 30.0)
+    # Pixel centres on integers (numpy/astropy convention, common practice): the cutout spans origin - 0.5 on.
+    assert ax.get_xlim() == (origin[0] - 0.5, origin[0] + cut.shape[1] - 0.5)
+    # The scale bar's drawn length in pixels times the pixel scale equals the length on its label.
+    bar = [line for line in ax.lines if len(line.get_xdata()) == 2][0]
+    length_px = np.ptp(bar.get_xdata())
+    label = [t.get_text() for t in ax.texts if t.get_text().endswith('"')][0]
+    assert length_px * 0.1 == pytest.approx(float(label[:-1]))
