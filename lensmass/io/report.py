@@ -18,7 +18,7 @@ from __future__ import annotations
 import math
 import os
 import textwrap
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any, Mapping, Sequence
