@@ -20,7 +20,7 @@ from PySide6.QtGui import QAction, QActionGroup, QKeySequence, QUndoStack
 from PySide6.QtWidgets import (QApplication, QButtonGroup, QCheckBox, QComboBox, QDialog, QDialogButtonBox,
                                QDockWidget, QFileDialog, QHBoxLayout, QInputDialog, QLabel, QListWidget,
                                QListWidgetItem, QMainWindow, QMessageBox, QProgressBar, QPushButton, QRadioButton,
-                               QSplitter, QTextBrowser, QToolButton, QVBoxLayout, QWidget)
+                               QScrollArea, QTextBrowser, QToolButton, QVBoxLayout, QWidget)
 
 from lensmass.core.errors import LensInputError
 from lensmass.gui import measuring
@@ -44,6 +44,16 @@ LAYERS = ("image", "lens light", "residual")
 TOOLS = (("point", "Arc point", "A", "Click along the arc to add points (A)."),
          ("image", "Image", "I", "Click on each image of a multiple-image system (I)."),
          ("centre", "Centre", "C", "Click to set the lens centre; the fit then holds it (C)."))
+
+
+def _scrolling(widget: QWidget) -> QScrollArea:
+    """``widget`` in a frameless scroll area, so a tall panel never forces the window's size."""
+    area = QScrollArea()
+    area.setWidget(widget)
+    area.setWidgetResizable(True)
+    area.setFrameShape(QScrollArea.NoFrame)
+    area.setHorizontalScrollBarPolicy(Qt.ScrollBarAlwaysOff)
+    return area
 
 
 def _is_session_path(path: str) -> bool:
@@ -237,13 +247,17 @@ class MainWindow(QMainWindow):
         # Right: "Lens & source" above "Mass budget".
         self.inputs_panel = InputsPanel(self.model, self.undo_stack)
         self.results_panel = ResultsPanel(self.model)
-        split = QSplitter(Qt.Vertical)
-        split.addWidget(self._titled("Lens & source", self.inputs_panel))
-        split.addWidget(self._titled("Mass budget", self.results_panel))
-        split.setStretchFactor(1, 1)
-        self.numbers_dock = self._dock("Numbers", split, Qt.RightDockWidgetArea)
+        numbers = QWidget()
+        nv = QVBoxLayout(numbers)
+        nv.setContentsMargins(0, 0, 0, 0)
+        nv.addWidget(self._titled("Lens & source", self.inputs_panel))
+        nv.addWidget(self._titled("Mass budget", self.results_panel), 1)
+        self.numbers_dock = self._dock("Numbers", _scrolling(numbers), Qt.RightDockWidgetArea)
         self.plots_panel = PlotsPanel(self.model)
         self.plots_dock = self._dock("Curves", self.plots_panel, Qt.RightDockWidgetArea)
+        self.marks_dock.setWidget(_scrolling(marks))
+        self.resizeDocks([self.marks_dock, self.numbers_dock], [230, 430], Qt.Horizontal)
+        self.resizeDocks([self.numbers_dock, self.plots_dock], [560, 300], Qt.Vertical)
 
     def _titled(self, title: str, widget: QWidget) -> QWidget:
         box = QWidget()
@@ -256,7 +270,7 @@ class MainWindow(QMainWindow):
         return box
 
     def _dock(self, title: str, widget: QWidget, area) -> QDockWidget:
-        dock = QDockWidget(title, self)
+        dock = QDockWidget(title.replace("&", "and"), self)  # '&' would become a mnemonic in dock tabs
         dock.setObjectName(f"dock_{title.lower().replace(' ', '_').replace('&', 'and')}")
         dock.setWidget(widget)
         dock.setFeatures(QDockWidget.DockWidgetMovable | QDockWidget.DockWidgetFloatable
@@ -403,13 +417,16 @@ class MainWindow(QMainWindow):
                 problems.append(f"Panel {cls.__name__} is left out: it failed to start ({type(exc).__name__}: {exc}).")
                 continue
             title = getattr(cls, "PANEL_TITLE", cls.__name__)
-            dock = self._dock(title, panel, areas.get(getattr(cls, "DOCK_AREA", DEFAULT_DOCK_AREA),
+            dock = self._dock(title, _scrolling(panel), areas.get(getattr(cls, "DOCK_AREA", DEFAULT_DOCK_AREA),
                                                       Qt.RightDockWidgetArea))
-            if getattr(cls, "DOCK_AREA", DEFAULT_DOCK_AREA) == "right":
-                self.tabifyDockWidget(self.plots_dock, dock)
+            area = getattr(cls, "DOCK_AREA", DEFAULT_DOCK_AREA)
+            # Extra panels share a tab with ours, so the window keeps its size and calm.
+            if area in ("right", "left"):
+                self.tabifyDockWidget(self.plots_dock if area == "right" else self.marks_dock, dock)
             self.view_menu.addAction(dock.toggleViewAction())
             self.panels.append(panel)
         self.plots_dock.raise_()
+        self.marks_dock.raise_()
         if problems:
             self.show_message(problems[0])
 
@@ -1077,8 +1094,8 @@ class MainWindow(QMainWindow):
             self.show_error(ring.message or "No ring or arc was found: mark the arc by hand.")
             return
         xs, ys = np.asarray(ring.points_x, float), np.asarray(ring.points_y, float)
-        if xs.size > 16:
-            keep = np.linspace(0, xs.size - 1, 16).round().astype(int)
+        if xs.size > 32:
+            keep = np.linspace(0, xs.size - 1, 32).round().astype(int)
             xs, ys = xs[keep], ys[keep]
         self.undo_stack.beginMacro("ring finder result")
         if m.centre is None:

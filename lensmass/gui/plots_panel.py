@@ -27,12 +27,12 @@ def _style_axes(ax, fg: str) -> None:
     ax.title.set_color(fg)
 
 
-def draw_mass_curves(ax, result: dict, halo_definition: str, fg: str = "black") -> str | None:
+def draw_mass_curves(ax, result: dict, halo_definition: str, cosmo=None, fg: str = "black") -> str | None:
     """Draw M_2D(<R) of SIS and NFW for ``result`` on ``ax``; returns a problem sentence or None."""
     from lensmass.core.mass_profiles import enclosed_mass_curves
 
     try:
-        curves = enclosed_mass_curves(result, halo_definition=halo_definition, band_draws=400)
+        curves = enclosed_mass_curves(result, cosmo, halo_definition=halo_definition, band_draws=400)
     except LensInputError as exc:
         return str(exc)
     r = curves.radius_kpc
@@ -115,7 +115,11 @@ class PlotsPanel(QWidget):
             if result is None:
                 problem = "No estimate yet."
             elif name == "mass":
-                problem = draw_mass_curves(ax, result, self.model.session.halo_definition, fg)
+                try:
+                    cosmo = self.model.session.cosmology.resolve()
+                except LensInputError:
+                    cosmo = None
+                problem = draw_mass_curves(ax, result, self.model.session.halo_definition, cosmo, fg)
             else:
                 problem = draw_mass_histogram(ax, result, fg)
             self.problems[name] = problem

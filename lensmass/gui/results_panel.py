@@ -19,6 +19,14 @@ from lensmass.gui.model import WindowModel
 #: Rows shown (key, label, unit); the shared command-line table order, redshifts left out
 #: (they are inputs, shown in "Lens & source").
 ROWS = [row for row in DISPLAY if row[0] not in ("z_l", "z_s")]
+#: Rich-text names of the rows (the plain names of DISPLAY are used in copied text).
+RICH_NAMES = {
+    "theta_e_arcsec": "θ<sub>E</sub>", "d_l_mpc": "D<sub>l</sub>", "d_s_mpc": "D<sub>s</sub>",
+    "d_ls_mpc": "D<sub>ls</sub>", "sigma_cr_msun_per_pc2": "Σ<sub>cr</sub>", "r_e_kpc": "R<sub>E</sub> = D<sub>l</sub> θ<sub>E</sub>",
+    "mass_einstein_msun": "<b>M(&lt;θ<sub>E</sub>)</b>", "sis_sigma_v_kms": "σ<sub>SIS</sub>",
+    "nfw_m200_msun": "NFW M<sub>200</sub>", "nfw_c200": "NFW c<sub>200</sub>", "nfw_r200_kpc": "NFW r<sub>200</sub>",
+}
+RICH_UNITS = {"Msun/pc^2": "M<sub>☉</sub>/pc²", "Msun": "M<sub>☉</sub>"}
 
 
 def interval_text(result: dict, key: str) -> str:
@@ -60,7 +68,7 @@ class ResultsPanel(QWidget):
         outer.addWidget(self.status)
         grid = QGridLayout()
         grid.setHorizontalSpacing(10)
-        grid.setVerticalSpacing(2)
+        grid.setVerticalSpacing(4)
         self.values: dict[str, QLabel] = {}
         self.intervals: dict[str, QLabel] = {}
         self.names: dict[str, QLabel] = {}
@@ -69,7 +77,7 @@ class ResultsPanel(QWidget):
             h.setStyleSheet("color: palette(mid); font-size: 85%;")
             grid.addWidget(h, 0, col)
         for row, (key, label, unit) in enumerate(ROWS, start=1):
-            name = QLabel(label)
+            name = QLabel(RICH_NAMES.get(key, label))
             value = QLabel("–")
             value.setObjectName(f"value_{key}")
             value.setAlignment(Qt.AlignRight | Qt.AlignVCenter)
@@ -78,10 +86,13 @@ class ResultsPanel(QWidget):
             interval = QLabel("")
             interval.setObjectName(f"interval_{key}")
             interval.setStyleSheet("font-family: monospace; color: palette(mid);")
+            row_height = int(self.fontMetrics().height() * 1.35)
+            for w in (name, value, interval):
+                w.setMinimumHeight(row_height)
             grid.addWidget(name, row, 0)
             grid.addWidget(value, row, 1)
             grid.addWidget(interval, row, 2)
-            grid.addWidget(QLabel(unit), row, 3)
+            grid.addWidget(QLabel(RICH_UNITS.get(unit, unit)), row, 3)
             self.values[key], self.intervals[key], self.names[key] = value, interval, name
         outer.addLayout(grid)
         self.notes = QLabel()
