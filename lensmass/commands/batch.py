@@ -11,7 +11,8 @@ A bad row never stops the run.
 RESULTS is rewritten whole and atomically as rows finish (at most every
 ``--save-every`` seconds, and at the end): an ECSV file has one header for all rows,
 so a full rewrite is what keeps an interrupted run's file a valid table; the
-interval bounds the cost for large runs. ``--resume`` keeps the measured rows of an
+interval bounds the cost for large runs (it grows to ten times the last rewrite's
+duration, so rewriting stays under a tenth of the run). ``--resume`` keeps the measured rows of an
 existing RESULTS made with the same settings and runs the others (failed rows are
 tried again, since their input may have been fixed).
 
@@ -28,6 +29,8 @@ import time
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 from pathlib import Path
 from typing import Any
+
+import numpy as np
 
 from lensmass.commands.common import (
     add_cosmology_options,
@@ -253,9 +256,8 @@ def results_table(records: list[dict[str, Any]], settings: dict, models: dict[st
     from lensmass.io.export import BOUND_COLUMNS, COLUMN_INFO, INTERVALS_NOTE
 
     records = sorted(records, key=lambda r: r["row"])
-    names = list(records[0]) if records else list(result_record(_EmptyRow(), None, ""))
-    table = Table(rows=[[r[n] for n in names] for r in records] or None, names=names,
-                  dtype=[type(result_record(_EmptyRow(), None, "")[n]) for n in names])
+    template = result_record(_EmptyRow(), None, "")
+    table = Table({n: np.array([r[n] for r in records], dtype=type(v)) for n, v in template.items()})
     for key, (unit, meaning) in COLUMN_INFO.items():
         if key in table.colnames:
             table[key].unit = unit
@@ -402,8 +404,11 @@ class _Saver:
             self.save()
 
     def save(self) -> None:
+        start = time.monotonic()
         write_results(self.path, self.records.values(), self.settings, self.models)
         self.last = time.monotonic()
+        # a large RESULTS takes a while to rewrite: keep rewriting to under a tenth of the run time
+        self.interval = max(self.interval, 10 * (self.last - start))
         self.dirty = False
 
 
