@@ -213,6 +213,8 @@ def analyse_shear_catalog(
         "z_s_effective": effective_source_redshift(profile.beta_mean, z_l, cosmo),
         "beta_mean": profile.beta_mean,
         "d_l_mpc": d_l,
+        "halo_definition": halo_definition,
+        "concentration": c_label if not free_concentration else "free",
     }
     medians, i68, i95, best = {}, {}, {}, {}
     for fit in (sis, nfw):
@@ -327,3 +329,25 @@ def mass_map_for_result(result: dict, *, n_pixels: int = 128, extent_arcsec: flo
     return mass_map(gal["x_arcsec"][ok], gal["y_arcsec"][ok], gal["e1"][ok], gal["e2"][ok], gal["weight"][ok],
                     n_pixels=n_pixels,
                     extent_arcsec=extent_arcsec, smoothing_arcsec=smoothing_arcsec, n_noise=n_noise, seed=seed)
+
+
+def model_curves(result: dict, theta_arcsec, cosmology: Any = None) -> dict[str, np.ndarray]:
+    """Best-fit SIS and NFW reduced tangential shear at radii ``theta_arcsec``, for plots.
+
+    Uses one source plane with the sample's mean D_ls / D_s (the fits themselves average
+    over the galaxies' own redshifts), so the curves are a display aid.
+    """
+    from lensmass.core.lensing import sigma_crit_msun_per_mpc2
+    from lensmass.core.nfw import nfw_reduced_shear
+    from lensmass.core.shear_fit import expected_ellipticity
+    from lensmass.core.sis import sis_reduced_shear, sis_theta_e_arcsec
+
+    cosmo = resolve_cosmology(cosmology if cosmology is not None else result["cosmology"])
+    theta = np.asarray(theta_arcsec, float)
+    best = result["best_fit"]
+    beta = result["beta_mean"]
+    d_l = result["d_l_mpc"]
+    sis = sis_reduced_shear(theta, sis_theta_e_arcsec(best["sis_sigma_v_kms"], 1.0, beta))
+    halo = nfw_halo(best["nfw_m200_msun"], best["nfw_c200"], result["z_l"], cosmo, result.get("halo_definition", "200c"))
+    nfw = nfw_reduced_shear(theta * ARCSEC_RAD * d_l, halo, sigma_crit_msun_per_mpc2(d_l, 1.0, beta))
+    return {"sis": expected_ellipticity(sis), "nfw": expected_ellipticity(nfw)}
