@@ -5,8 +5,9 @@ than medians along elliptical isophotes. A complete Einstein ring fills an
 entire isophote at its radius, so isophote medians would absorb the ring into
 the "lens light" and erase it from the residual; a five-parameter Sersic cannot
 bend to follow a narrow ring, and the soft-L1 loss (scipy ``least_squares``)
-keeps the bright arc pixels from pulling the fit. The model is blurred by a
-Gaussian PSF whose width is fitted too (the seeing is rarely known exactly). The
+keeps the bright arc pixels from pulling the fit (pixels well above the model are
+then left out and the fit repeated). The model is blurred by a Gaussian PSF whose width
+is fitted too (the seeing is rarely known exactly). The
 central pixel is left out of the fit (a cuspy profile sampled at pixel centres is
 poor there), so the residual inside about one pixel of the centre is not meaningful.
 
@@ -28,7 +29,14 @@ from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, r
 from lensmass.core.raytrace import sersic_b, sersic_intensity_at_re, sersic_surface_brightness
 
 #: The fitted cut-out is binned so that its side has at most this many (binned) pixels.
-MAX_FIT_SIDE = 120
+MAX_FIT_SIDE = 100
+#: Half-size (pixels of the fitted grid) of the PSF kernel.
+PSF_HALF = 12
+#: Rounds of leaving out positive outliers (arcs), and evaluations per least-squares run.
+CLIP_ROUNDS = 2
+MAX_NFEV = 50
+#: Scale (in sigma) where the soft-L1 cost turns from quadratic to linear.
+SOFT_SCALE = 3.0
 #: The model is evaluated out to where it falls below this fraction of the pixel noise.
 MODEL_FLOOR_SIGMA = 0.02
 
@@ -53,7 +61,7 @@ class LensLightModel:
     sky: float
     noise_sigma: float
     fit_radius_pix: float
-    psf_sigma_pix: float = float("nan")
+    psf_fwhm_pix: float = float("nan")
     method: str = "elliptical Sersic blurred by a fitted Gaussian PSF, robust (soft-L1) least squares"
     ok: bool = True
     notes: list[str] = field(default_factory=list)
@@ -166,39 +174,50 @@ def fit_lens_light(
     re0 = float(np.clip(rr[sel][order][np.searchsorted(cum, 0.5 * cum[-1])], 1.0, rf))
     q0, ang0 = _moments(np.where(inner, np.nan_to_num(binned), 0.0), xx, yy, cx0, cy0)
     # Parameters: log flux, log R_e, n, q, angle, x0, y0, sky, log PSF sigma (pixels).
-    p0 = np.array([np.log(max(flux0, 1e-9)), np.log(re0), 2.5, q0, ang0, cx0, cy0, 0.0, np.log(1.0)])
+    p0 = np.array([np.log(max(flux0, 1e-9)), np.log(re0), 3.0, q0, ang0, cx0, cy0, 0.0, np.log(1.5)])
     lo = np.array([-np.inf, np.log(0.3), 0.4, 0.15, -np.inf, cx0 - 3, cy0 - 3, -np.inf, np.log(0.2)])
-    hi = np.array([np.inf, np.log(3 * rf), 8.0, 1.0, np.inf, cx0 + 3, cy0 + 3, np.inf, np.log(8.0)])
+    hi = np.array([np.inf, np.log(3 * rf), 8.0, 1.0, np.inf, cx0 + 3, cy0 + 3, np.inf, np.log(6.0)])
     p0 = np.clip(p0, lo + 1e-9, hi - 1e-9)
     calls = [0]
-
-    def model_at(p, x, y, step=1.0):
-        sb = sersic_surface_brightness(x, y, total_flux=np.exp(p[0]), r_eff_arcsec=np.exp(p[1]), n=p[2],
-                                       axis_ratio=p[3], angle_deg=p[4], x0=p[5], y0=p[6])
-        return gaussian_filter(sb, np.exp(p[8]) / step, mode="nearest", truncate=3.5) + p[7]
+    weight = np.ones(vs.size)
 
     def residuals(p):
         calls[0] += 1
         if calls[0] % 20 == 0:
             check_stop(should_stop)
-            report(progress, min(0.85, 0.85 * calls[0] / 400))
+            report(progress, min(0.85, 0.85 * calls[0] / 600))
         with np.errstate(over="ignore", invalid="ignore"):
-            res = (model_at(p, xx, yy, f)[sel] - vs) / noise_bin
-        return np.nan_to_num(res, nan=1e6, posinf=1e6, neginf=-1e6)
+            res = (blurred_sersic(p, gx, gy, f)[sel] - vs) / noise_bin
+        return np.nan_to_num(weight * res, nan=1e6, posinf=1e6, neginf=-1e6)
 
-    sol = least_squares(residuals, p0, bounds=(lo, hi), loss="soft_l1", f_scale=3.0, max_nfev=400, x_scale="jac")
-    p = sol.x
+    # Robust fit, then up to twice more with the bright positive outliers (arcs, neighbours) left out:
+    # pixels more than 3 sigma and 10% above the model.
+    p = p0
+    for _ in range(CLIP_ROUNDS + 1):
+        sol = least_squares(residuals, p, bounds=(lo, hi), loss="soft_l1", f_scale=SOFT_SCALE, max_nfev=MAX_NFEV,
+                            x_scale="jac", ftol=1e-5, xtol=1e-5, tr_solver="lsmr")
+        p = sol.x
+        with np.errstate(over="ignore", invalid="ignore"):
+            m_sel = blurred_sersic(p, gx, gy, f)[sel]
+        above = vs - m_sel
+        new_weight = np.where((above > 3 * noise_bin) & (above > 0.1 * np.abs(m_sel - p[7])), 0.0, 1.0)
+        if np.array_equal(new_weight, weight):
+            break
+        weight[:] = new_weight
     if sol.status == 0:
         notes.append("The lens-light fit stopped before converging; check the residual image.")
+    n_clipped = int((weight == 0).sum())
+    if n_clipped:
+        notes.append(f"{n_clipped} bright (binned) pixels above the smooth galaxy were left out of the lens-light fit.")
     check_stop(should_stop)
     report(progress, 0.9)
-    model = _evaluate_model(img.shape, p, noise, model_at)
+    model = _evaluate_model(img.shape, p, noise)
     report(progress, 1.0)
     return LensLightModel(
         model=model, residual=img - model, center_x=float(p[5]), center_y=float(p[6]),
         total_flux=float(np.exp(p[0])), r_eff_pix=float(np.exp(p[1])), sersic_n=float(p[2]),
         axis_ratio=float(p[3]), angle_deg=float(p[4] % 180.0), sky=float(p[7]), noise_sigma=noise,
-        fit_radius_pix=rf, psf_sigma_pix=float(np.exp(p[8])), ok=True, notes=notes,
+        fit_radius_pix=rf, psf_fwhm_pix=float(2 * np.sqrt(2 * np.log(2)) * np.exp(p[8])), ok=True, notes=notes,
     )
 
 
@@ -221,8 +240,20 @@ def _auto_fit_radius(img, cx, cy, noise) -> float:
     return float(np.clip(2.0 * edge, 8, 150))
 
 
-def _evaluate_model(shape, p, noise, model_at) -> np.ndarray:
-    """The Sersic model on the full grid, computed only inside the box where it exceeds the floor."""
+def blurred_sersic(p, gx: np.ndarray, gy: np.ndarray, step: float = 1.0) -> np.ndarray:
+    """Sersic (parameters ``p``, pixels) blurred by a Gaussian PSF, on the grid gx (columns) x gy (rows).
+
+    The Gaussian is separable, so the blur is fast (scipy ``gaussian_filter``); a free
+    two-component PSF was tried and absorbed part of the rings into the lens model.
+    """
+    xx, yy = np.meshgrid(gx, gy)
+    sb = sersic_surface_brightness(xx, yy, total_flux=np.exp(p[0]), r_eff_arcsec=np.exp(p[1]), n=p[2],
+                                   axis_ratio=p[3], angle_deg=p[4], x0=p[5], y0=p[6]) * step * step
+    return gaussian_filter(sb, np.exp(p[8]) / step, mode="nearest", truncate=3.5) + p[7]
+
+
+def _evaluate_model(shape, p, noise) -> np.ndarray:
+    """The blurred Sersic model on the full grid, computed only inside the box where it exceeds the floor."""
     ny, nx = shape
     flux, re, n, q = np.exp(p[0]), np.exp(p[1]), p[2], p[3]
     b = float(sersic_b(n))
@@ -232,12 +263,12 @@ def _evaluate_model(shape, p, noise, model_at) -> np.ndarray:
         r_lim = re * (1 + np.log(ie / floor) / b) ** n / np.sqrt(q)
     else:
         r_lim = 2 * re / np.sqrt(q)
-    r_lim = float(min(r_lim, 2 * max(nx, ny)))
+    r_lim = float(min(r_lim + 3 * np.exp(p[8]), 2 * max(nx, ny)))
     model = np.full(shape, p[7], dtype=np.float32)
     x0, x1 = max(0, int(p[5] - r_lim)), min(nx, int(p[5] + r_lim) + 2)
     y0, y1 = max(0, int(p[6] - r_lim)), min(ny, int(p[6] + r_lim) + 2)
     if x1 > x0 and y1 > y0:
-        yy, xx = np.mgrid[y0:y1, x0:x1]
         with np.errstate(over="ignore", invalid="ignore"):
-            model[y0:y1, x0:x1] = model_at(p, xx.astype(float), yy.astype(float))
+            model[y0:y1, x0:x1] = blurred_sersic(p, np.arange(x0, x1, dtype=float), np.arange(y0, y1, dtype=float))
     return model
+

@@ -434,3 +434,122 @@ def add_noise(image_counts_per_s: np.ndarray, *, sky_counts_per_s: float, exptim
 def noise_sigma_counts_per_s(sky_counts_per_s: float, exptime_s: float, read_noise_e: float = 5.0) -> float:
     """Per-pixel 1-sigma noise of an empty, sky-subtracted pixel in counts/s."""
     return float(np.sqrt(sky_counts_per_s * exptime_s + read_noise_e**2) / exptime_s)
+
+
+# ------------------------------------------------------------------------------------ whole fields
+@dataclass
+class SimulatedField:
+    """A synthetic field: the noisy image, its noise-free parts, and where the arcs and images are.
+
+    Pixel positions are 0-based (column, row); ``arc_points_xy`` lie on the ridge of each
+    lensed extended source where it is bright (see :func:`arc_ridge_points`), and
+    ``image_points_xy`` are the images of the point sources.
+    """
+
+    image: np.ndarray
+    noiseless: np.ndarray
+    lensed: np.ndarray
+    foreground: np.ndarray
+    noise_sigma: float
+    arc_points_xy: list
+    arc_points_by_source: list
+    image_points_xy: list
+    image_magnifications: list
+
+
+def arc_ridge_points(lenses: Sequence, source, *, theta_max_arcsec: float, n_directions: int = 72,
+                     min_fraction: float = 0.3, min_magnification: float = 2.0) -> list[tuple[float, float]]:
+    """Points (arcsec) on the ridge of a lensed source: in each direction from the lens centre,
+    the radius whose ray lands nearest the source centre, kept where the unblurred surface
+    brightness there is at least ``min_fraction`` of the brightest such point and the
+    magnification at least ``min_magnification`` (the bright, stretched parts of the arcs).
+
+    Computed from the lens equation alone (no image), so tests can use them as truth.
+    """
+    from scipy.optimize import minimize_scalar
+
+    phis = np.arange(n_directions) * 2 * np.pi / n_directions
+    radii = np.linspace(0.05, 1.0, 200) * theta_max_arcsec
+    out = []
+    for phi in phis:
+        c, s = np.cos(phi), np.sin(phi)
+        bx, by = source_positions(lenses, radii * c, radii * s)
+        d = np.hypot(bx - source.x0, by - source.y0)
+        k = int(np.argmin(d))
+        lo, hi = radii[max(k - 1, 0)], radii[min(k + 1, len(radii) - 1)]
+
+        def dist(r):
+            sx, sy = source_positions(lenses, np.array([r * c]), np.array([r * s]))
+            return float(np.hypot(sx[0] - source.x0, sy[0] - source.y0))
+
+        r = minimize_scalar(dist, bounds=(lo, hi), method="bounded", options={"xatol": 1e-6}).x
+        sx, sy = source_positions(lenses, np.array([r * c]), np.array([r * s]))
+        mu = abs(float(magnification(lenses, np.array([r * c]), np.array([r * s]))[0]))
+        out.append((r * c, r * s, float(source.surface_brightness(sx, sy)[0]) if mu >= min_magnification else 0.0))
+    peak = max(v for _, _, v in out) if out else 0.0
+    return [(x, y) for x, y, v in out if peak > 0 and v >= min_fraction * peak]
+
+
+def simulate_field(
+    *,
+    shape: tuple[int, int],
+    pixel_scale_arcsec: float,
+    center_x: float,
+    center_y: float,
+    lenses: Sequence,
+    sources: Sequence = (),
+    point_sources: Sequence[tuple[float, float, float]] = (),
+    foreground: Sequence = (),
+    psf_fwhm_arcsec: float = 0.8,
+    psf_kind: str = "gaussian",
+    moffat_beta: float = 3.0,
+    sky_mag_per_arcsec2: float = 21.0,
+    zeropoint_mag: float = 30.0,
+    exptime_s: float = 1800.0,
+    read_noise_e: float = 5.0,
+    seed: int = 1,
+    oversample: int = 4,
+    arc_directions: int = 72,
+) -> SimulatedField:
+    """Ray-trace a whole field: lensed extended sources + lensed point sources + foreground light,
+    blurred by the PSF, with sky and Poisson noise; image in counts/s (gain 1, sky subtracted).
+
+    ``point_sources`` are (beta_x, beta_y, flux) in the source plane; ``foreground`` are
+    unlensed light components (the lens galaxy, cluster members). The zeropoint is the AB
+    magnitude giving 1 count/s (flux = 10^(-0.4 (m - zeropoint))).
+    """
+    kern = psf_kernel(psf_fwhm_arcsec, pixel_scale_arcsec, psf_kind, moffat_beta)
+    lensed = render_lensed(lenses, sources, shape, pixel_scale_arcsec, center_x, center_y, oversample)
+    fg = render_unlensed(foreground, shape, pixel_scale_arcsec, center_x, center_y, oversample)
+    blurred = convolve_psf(lensed + fg, kern)
+    lensed_blurred = convolve_psf(lensed, kern)
+    ny, nx = shape
+    theta_max = float(np.hypot(nx, ny) * pixel_scale_arcsec / 2)
+    images, mags, pts = [], [], []
+    for bx, by, flux in point_sources:
+        found = point_images(lenses, bx, by, search_radius_arcsec=min(theta_max, 60.0),
+                             grid_step_arcsec=max(0.02, pixel_scale_arcsec / 5))
+        for ix, iy, mu in found:
+            pts.append((ix, iy, flux * abs(mu)))
+            images.append([center_x + ix / pixel_scale_arcsec, center_y + iy / pixel_scale_arcsec])
+            mags.append(mu)
+    if pts:
+        pimg = render_points(pts, shape, pixel_scale_arcsec, center_x, center_y, psf_fwhm_arcsec, psf_kind,
+                             moffat_beta, oversample)
+        blurred = blurred + pimg
+        lensed_blurred = lensed_blurred + pimg
+    sky = pixel_scale_arcsec**2 * 10 ** (-0.4 * (sky_mag_per_arcsec2 - zeropoint_mag))
+    rng = np.random.default_rng(seed)
+    noisy = add_noise(blurred, sky_counts_per_s=sky, exptime_s=exptime_s, read_noise_e=read_noise_e, rng=rng)
+    by_source = []
+    for src in sources:
+        ridge = arc_ridge_points(lenses, src, theta_max_arcsec=theta_max, n_directions=arc_directions)
+        by_source.append([[center_x + x / pixel_scale_arcsec, center_y + y / pixel_scale_arcsec] for x, y in ridge])
+    flat = [p for group in by_source for p in group]
+    return SimulatedField(noisy, blurred, lensed_blurred, convolve_psf(fg, kern),
+                          noise_sigma_counts_per_s(sky, exptime_s, read_noise_e), flat, by_source, images, mags)
+
+
+def flux_from_mag(mag_ab: float, zeropoint_mag: float = 30.0) -> float:
+    """Counts/s of a source of AB magnitude ``mag_ab`` for the given 1-second zeropoint."""
+    return float(10 ** (-0.4 * (mag_ab - zeropoint_mag)))

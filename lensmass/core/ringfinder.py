@@ -43,6 +43,8 @@ RING_COVERAGE = 0.6
 DEFAULT_MAX_RADIUS_PIX = 300.0
 DEFAULT_MIN_RADIUS_PIX = 3.0
 BIN_PIX = 0.5
+#: Second pass: the ring is masked out to this many ring widths (FWHM) either side of its ridge.
+MASK_HALF_WIDTHS = 1.5
 
 
 @dataclass
@@ -202,9 +204,10 @@ def find_ring(
     ny, nx = img.shape
     yy, xx = np.ogrid[:ny, :nx]
     rr = np.sqrt((xx - first.center_x) ** 2 + (yy - first.center_y) ** 2)
-    half = max(2.0, 2.0 * first.ring_width_pix)
-    lo_r = first.radius_pix * min(1.0, first.axis_ratio if np.isfinite(first.axis_ratio) else 1.0) - half
-    hi_r = first.radius_pix / min(1.0, first.axis_ratio if np.isfinite(first.axis_ratio) else 1.0) + half
+    half = max(1.0, MASK_HALF_WIDTHS * first.ring_width_pix)
+    q_ring = min(1.0, first.axis_ratio) if np.isfinite(first.axis_ratio) else 1.0
+    lo_r = first.radius_pix * np.sqrt(q_ring) - half
+    hi_r = first.radius_pix / np.sqrt(q_ring) + half
     mask = (rr >= lo_r) & (rr <= hi_r)
     light2 = fit_lens_light(img, cx, cy, mask=mask, fit_radius_pix=light.fit_radius_pix,
                             progress=lambda f: report(progress, 0.45 + 0.3 * f), should_stop=should_stop)
@@ -266,7 +269,7 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     while hi_i < len(radii) - 1 and prof_s[hi_i + 1] > half:
         hi_i += 1
     width = max(1.5, (hi_i - lo_i + 1) * BIN_PIX)
-    r0 = float(_peak_radius(radii, prof_s * np.sqrt(radii), k))
+    r0 = _ridge_radius(radii, prof * np.sqrt(radii), float(radii[k]), width)
 
     # Per-sector detection and ridge points.
     band = np.abs(radii - r0) <= max(1.0, 0.5 * width)
@@ -280,12 +283,10 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     wi = np.flatnonzero(window)
     px, py = [], []
     for s in np.flatnonzero(detected):
-        sp = np.where(counts[s, wi] > 0, smean[s, wi], -np.inf) * np.sqrt(radii[wi])
-        j = int(np.argmax(sp))
-        if 0 < j < len(wi) - 1 and np.all(np.isfinite(sp[j - 1:j + 2])):
-            rr = _peak_radius(radii[wi], sp, j)
-        else:
-            rr = radii[wi][j]
+        sp = np.where(counts[s, wi] > 0, smean[s, wi], np.nan) * np.sqrt(radii[wi])
+        if np.isfinite(sp).sum() < 5:
+            continue
+        rr = _ridge_radius(radii[wi], sp, r0, width)
         ang = -np.pi + (s + 0.5) * 2 * np.pi / n_sectors
         px.append(cx + rr * np.cos(ang))
         py.append(cy + rr * np.sin(ang))
@@ -323,6 +324,34 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     return RingResult(found, confident, kind, float(radius), float(radius_err), score, coverage, cx, cy, float(q),
                       float(angle), float(rms), px, py, radii, prof, err, sigma, res, light, msg, warnings,
                       float(width))
+
+
+def _ridge_radius(radii: np.ndarray, values: np.ndarray, r_start: float, width: float) -> float:
+    """Ridge of a radial profile near ``r_start``: a Gaussian on a straight-line baseline fitted by
+    least squares (the baseline absorbs smooth lens-light residuals); the parabola through the
+    highest bins when the fit fails."""
+    from scipy.optimize import curve_fit
+
+    win = np.abs(radii - r_start) <= max(2.5, 2.0 * width)
+    r, v = radii[win], values[win]
+    ok = np.isfinite(v)
+    r, v = r[ok], v[ok]
+    if r.size < 5:
+        return float(r_start)
+    k = int(np.argmax(v))
+    fallback = _peak_radius(r, v, k)
+
+    def model(x, a, mu, sig, b0, b1):
+        return a * np.exp(-0.5 * ((x - mu) / sig) ** 2) + b0 + b1 * (x - r_start)
+
+    s0 = max(0.5, width / 2.355)
+    try:
+        popt, _ = curve_fit(model, r, v, p0=[v[k] - np.median(v), r[k], s0, np.median(v), 0.0],
+                            bounds=([0, r[0], 0.3, -np.inf, -np.inf], [np.inf, r[-1], 3 * s0 + 1, np.inf, np.inf]),
+                            maxfev=400)
+    except (RuntimeError, ValueError):
+        return fallback
+    return float(popt[1])
 
 
 def _peak_radius(radii: np.ndarray, values: np.ndarray, k: int) -> float:
