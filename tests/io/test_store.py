@@ -40,7 +40,7 @@ def _grade_many(spec, manifest, grader, n, barrier):
 def test_two_processes_grading_at_once_lose_no_row(store_spec):
     spec, manifest = store_spec
     open_store(spec, manifest).close()  # create the schema first
-    ctx = multiprocessing.get_context("fork")
+    ctx = multiprocessing.get_context("spawn")  # no fork of a process that may hold Qt threads
     barrier = ctx.Barrier(2)
     n = 60
     procs = [ctx.Process(target=_grade_many, args=(spec, manifest, g, n, barrier)) for g in ("ana", "ben")]
