@@ -527,6 +527,10 @@ class MainWindow(QMainWindow):
         self.model.load_session(session, loaded, path)
         self._new_autosave_key()
         self._after_open()
+        wanted_layer = session.display.layer
+        if loaded is not None and wanted_layer in LAYERS[1:]:
+            # The lens-light model is not stored in sessions: fit it again to restore that view.
+            self.fit_lens_light(then_layer=wanted_layer)
 
     def _after_open(self) -> None:
         self.pipeline.clear()
@@ -1112,7 +1116,7 @@ class MainWindow(QMainWindow):
         warn = f" {ring.warnings[0]}" if ring.warnings else ""
         self.show_message(f"Ring found at {ring.radius_pix:.1f} px ({confidence}); its points are editable.{warn}")
 
-    def fit_lens_light(self) -> None:
+    def fit_lens_light(self, then_layer: str = "residual") -> None:
         image = self._image_or_hint()
         if image is None:
             return
@@ -1125,16 +1129,16 @@ class MainWindow(QMainWindow):
             cx, cy = centre if centre is not None else find_center(data)
             return fit_lens_light(data, cx, cy, progress=progress, should_stop=should_stop)
 
-        self.run_task(work, "Fitting the lens light", self._light_fitted)
+        self.run_task(work, "Fitting the lens light", lambda fit: self._light_fitted(fit, then_layer))
 
-    def _light_fitted(self, fit) -> None:
+    def _light_fitted(self, fit, then_layer: str = "residual") -> None:
         if self.model.image is None:
             return
         self.model.set_lens_light(fit.model, fit.method)
-        self.set_display(layer="residual")
+        self.set_display(layer=then_layer)
         note = f" {fit.notes[0]}" if getattr(fit, "notes", None) else ""
         self.show_message(f"Lens light: Sersic n = {fit.sersic_n:.2f}, R_eff = {fit.r_eff_pix:.1f} px; "
-                          f"showing the residual.{note}")
+                          f"showing the {then_layer}.{note}")
 
     # ================================================================ export
     def _named_results(self) -> list[tuple[str, dict]]:
