@@ -32,7 +32,7 @@ LIGHT_ROWS = [
     ("two_component_halo_c200", "stars+NFW c200", ""),
 ]
 
-_LIGHT_FLAGS = ("lens_mag", "stellar_ml", "stellar_mass", "zeropoint", "zeropoint_key")
+_LIGHT_FLAGS = ("lens_mag", "band", "r_eff", "sersic_n", "stellar_ml", "stellar_mass", "zeropoint", "zeropoint_key")
 
 
 def add_light_options(parser: argparse.ArgumentParser, *, image: bool = False) -> None:
@@ -59,7 +59,7 @@ def add_light_options(parser: argparse.ArgumentParser, *, image: bool = False) -
         p = parser.add_argument_group("photometry on the image (light inside theta_E)")
         p.add_argument("--zeropoint", type=float, metavar="ZP", help="magnitude of one count per second")
         p.add_argument("--zeropoint-key", metavar="KEY", help="FITS header keyword holding the zeropoint")
-        p.add_argument("--exptime", type=float, metavar="S", help="exposure time in s (default: EXPTIME of the header, else 1)")
+        p.add_argument("--exptime", type=float, metavar="S", help="exposure time in s (default: 1 if the header BUNIT is per second, else its EXPTIME, else 1)")
         p.add_argument("--sky-annulus", default="4,6", metavar="IN,OUT",
                        help="sky annulus in units of theta_E (default 4,6)")
         p.add_argument("--arc-width", type=float, default=3.0, metavar="PIX",
@@ -85,7 +85,11 @@ def header_number(header, key: str, what: str) -> float:
 
 
 def zeropoint_and_exposure(header, zeropoint=None, zeropoint_key=None, exptime=None) -> tuple[float, float, str]:
-    """(zeropoint, exposure time in s, where the exposure came from): given values first, then the header."""
+    """(zeropoint, exposure time in s, where the exposure came from): given values first, then the header.
+
+    An image whose header BUNIT is per second (``count/s``, ``electron/s``...) is already a
+    rate: its exposure time is 1 s for the conversion, whatever EXPTIME says.
+    """
     if zeropoint is not None and zeropoint_key:
         raise LensInputError("Give the zeropoint one way only: a value (--zeropoint) or a header keyword (--zeropoint-key).")
     if zeropoint is None and not zeropoint_key:
@@ -93,6 +97,9 @@ def zeropoint_and_exposure(header, zeropoint=None, zeropoint_key=None, exptime=N
     zp = float(zeropoint) if zeropoint is not None else header_number(header, zeropoint_key, "zeropoint")
     if exptime is not None:
         return zp, float(exptime), "given"
+    unit = str(header.get("BUNIT", "")).lower().replace(" ", "") if header is not None else ""
+    if unit.endswith(("/s", "s-1", "s**-1", "/sec")) or unit in ("cps", "counts/s"):
+        return zp, 1.0, f"header BUNIT '{header['BUNIT']}' is per second"
     if header is not None and "EXPTIME" in header:
         return zp, header_number(header, "EXPTIME", "exposure time"), "header EXPTIME"
     return zp, 1.0, "none given: image taken as counts per second"

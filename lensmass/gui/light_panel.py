@@ -47,7 +47,7 @@ FIELDS = {
     "imf": ("IMF", "e.g. Chabrier", "IMF behind the stellar M/L or mass (quoted in the notes)."),
     "zeropoint": ("zeropoint", "mag of 1 count/s", "Photometric zeropoint: magnitude of one count per second."),
     "zeropoint_key": ("or header key", "e.g. MAGZP", "FITS header keyword that holds the zeropoint."),
-    "exptime": ("exposure (s)", "header EXPTIME, else 1", "Exposure time in seconds."),
+    "exptime": ("exposure (s)", "from the header, else 1", "Exposure time in seconds (1 for an image in counts per second)."),
     "annulus": ("sky annulus", "4,6", "Inner and outer radius of the sky annulus in units of theta_E."),
     "arc_width": ("arc band (px)", "3", "Width in pixels of the band masked around each marked arc point."),
 }
@@ -139,7 +139,7 @@ def compute_light(result: dict, estimate_kwargs: dict, request: LightRequest, *,
         if image is None or fit is None:
             raise LensInputError("Photometry on the image needs an open image and a fitted arc (mark the arc first).")
         p = request.photometry
-        zp, exptime, _ = zeropoint_and_exposure(getattr(image.loaded, "header", None), p["zeropoint"],
+        zp, exptime, exp_source = zeropoint_and_exposure(getattr(image.loaded, "header", None), p["zeropoint"],
                                                 p["zeropoint_key"], p["exptime"])
         a = max(float(fit.a_px), float(fit.b_px))
         phot = lens_magnitude_inside(
@@ -147,6 +147,7 @@ def compute_light(result: dict, estimate_kwargs: dict, request: LightRequest, *,
             axis_ratio=min(fit.a_px, fit.b_px) / a, theta_rad=math.radians(fit.angle_deg) + (0 if fit.a_px >= fit.b_px else math.pi / 2),
             annulus=p["annulus"], arc_points_xy=np.asarray(arc_points, float).reshape(-1, 2),
             arc_width_pix=p["arc_width_pix"], mask_residuals=p["mask_residuals"])
+        phot["exptime_source"] = exp_source
         out["light_photometry"] = phot
         extra = {"aperture_mag": phot["aperture_mag"], "aperture_mag_err": phot["aperture_mag_err"]}
     kw = estimate_kwargs
@@ -370,7 +371,8 @@ class LightPanel(QWidget):
         if phot:
             notes.insert(0, f"Photometry: {phot['flux']:.4g} +- {phot['flux_err']:.2g} counts inside theta_E, sky "
                             f"{phot['sky_per_pixel']:.4g} per pixel from {phot['sky_pixels']} pixels, "
-                            f"{phot['masked_pixels_in_aperture']} arc pixels masked and filled; "
+                            f"{phot['masked_pixels_in_aperture']} arc pixels masked and filled; zeropoint "
+                            f"{phot['zeropoint']:g}, exposure {phot['exptime_s']:g} s ({phot['exptime_source']}); "
                             f"m = {phot['aperture_mag']:.3f} +- {phot['aperture_mag_err']:.3f}.")
         self.notes.setText("\n".join("• " + n for n in notes))
 

@@ -164,3 +164,52 @@ def test_registered_in_the_panel_registry():
 
     classes, problems = load_panel_classes([("lensmass.gui.light_panel", "LightPanel")])
     assert classes == [LightPanel] and not problems
+
+
+def test_in_the_real_window_on_the_demo_ring_field(qtbot, make_window):
+    # The whole path a user takes: open the ring field, click the ring, type the redshifts,
+    # then photometry inside theta_E with the zeropoint from the header keyword MAGZERO.
+    from tests.gui.conftest import click_image, demo_field, type_into, wait_for_result, wait_idle
+    from tests.gui.test_window import ring_points
+
+    window = make_window(load_panels=True)
+    path, truth = demo_field("tris_ring_a")
+    assert window.open_path(str(path))
+    window.canvas.fit_to_window()
+    panel = next(p for p in window.panels if isinstance(p, LightPanel))
+    for x, y in ring_points(truth):
+        click_image(qtbot, window, x, y)
+    type_into(qtbot, window, "z_l", str(truth["z_l"]))
+    type_into(qtbot, window, "z_s", str(truth["z_s"]))
+    wait_for_result(qtbot, window)
+    wait_idle(qtbot, window)
+    panel.source.setCurrentIndex(panel.source.findData("image"))
+    _type(qtbot, panel, "zeropoint_key", "MAGZERO")
+    _type(qtbot, panel, "arc_width", "6")
+    panel.band.setCurrentText("sdss_r")
+    qtbot.mouseClick(panel.run_button, Qt.LeftButton)
+    qtbot.waitUntil(lambda: panel.light_result is not None or "must" in panel.status.text(), timeout=20000)
+    light = panel.light_result
+    assert light is not None, panel.status.text()
+    phot = light["light_photometry"]
+    assert phot["exptime_s"] == 1.0 and "BUNIT" in phot["exptime_source"]  # the image is in counts/s
+    # Reference: the truth file's lens light (elliptical Sersic, n = 4) rendered with astropy's Sersic2D
+    # and summed by photutils in a circle of the fitted theta_E, without PSF; the PSF (0.8" FWHM)
+    # moves some light out, so the magnitudes agree to 0.1 mag (m = ZP - 2.5 log10 F, common practice).
+    from photutils.aperture import CircularAperture, aperture_photometry
+    from scipy import special
+
+    lens = truth["lens_light_model"][0]
+    scale, n, r_e_pix = truth["pixel_scale_arcsec"], lens["n"], lens["r_eff_arcsec"] / truth["pixel_scale_arcsec"]
+    b_n = special.gammaincinv(2 * n, 0.5)
+    q = lens["axis_ratio"]
+    i_e = lens["total_flux"] / (2 * np.pi * n * q * r_e_pix**2 * np.exp(b_n) * b_n ** (-2 * n) * special.gamma(2 * n))
+    model = Sersic2D(amplitude=i_e, r_eff=r_e_pix, n=n, x_0=truth["center_x"], y_0=truth["center_y"], ellip=1 - q,
+                     theta=np.radians(lens["angle_deg"]))
+    ny, nx = window.model.image.data.shape
+    rendered = discretize_model(model, (0, nx), (0, ny), mode="oversample", factor=10)
+    radius_pix = window.model.fit.a_px
+    intrinsic = aperture_photometry(rendered, CircularAperture((truth["center_x"], truth["center_y"]), radius_pix))
+    expected_mag = truth["zeropoint_ab"] - 2.5 * np.log10(float(intrinsic["aperture_sum"][0]))
+    assert phot["aperture_mag"] == pytest.approx(expected_mag, abs=0.1)
+    assert panel.values["light_luminosity_lsun"].text() not in ("", "–")
