@@ -137,3 +137,21 @@ def test_measure_with_photometry_on_the_image(tmp_path, capsys):
     expected = float(sersic_total_flux(30.0, 5.0, 1.0) * sersic_enclosed_fraction(result["theta_e_arcsec"] / 0.1, 5.0, 1.0))
     assert phot["flux"] == pytest.approx(expected, rel=0.03)
     assert "dark_fraction_einstein" in result and "light_luminosity_lsun" in result
+
+
+def test_zeropoint_and_exposure_from_the_header():
+    from astropy.io import fits
+
+    from lensmass.commands.light_options import zeropoint_and_exposure
+    from lensmass.core.errors import LensInputError
+
+    # FITS standard (Pence et al. 2010, BUNIT): an image in count/s is a rate; EXPTIME must not divide it again
+    rate = fits.Header({"MAGZERO": 30.0, "EXPTIME": 1800.0, "BUNIT": "count/s"})
+    assert zeropoint_and_exposure(rate, zeropoint_key="MAGZERO")[:2] == (30.0, 1.0)
+    counts = fits.Header({"MAGZERO": 30.0, "EXPTIME": 1800.0, "BUNIT": "count"})
+    assert zeropoint_and_exposure(counts, zeropoint_key="MAGZERO")[:2] == (30.0, 1800.0)
+    assert zeropoint_and_exposure(None, zeropoint=25.0, exptime=60.0)[:2] == (25.0, 60.0)
+    with pytest.raises(LensInputError, match="one way only"):
+        zeropoint_and_exposure(rate, zeropoint=25.0, zeropoint_key="MAGZERO")
+    with pytest.raises(LensInputError, match="not a number"):
+        zeropoint_and_exposure(fits.Header({"ZP": "bright"}), zeropoint_key="ZP")

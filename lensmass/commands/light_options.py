@@ -121,6 +121,15 @@ def image_photometry(args: argparse.Namespace, image, header, *, x_pix: float, y
     return phot
 
 
+def photometry_note(phot: dict) -> str:
+    """One sentence describing the photometry behind the light inside theta_E."""
+    return (f"Photometry inside theta_E: {phot['flux']:.4g} +- {phot['flux_err']:.2g} counts above a sky of "
+            f"{phot['sky_per_pixel']:.4g} per pixel ({phot['sky_pixels']} annulus pixels), "
+            f"{phot['masked_pixels_in_aperture']} arc pixels masked and filled, zeropoint {phot['zeropoint']:g}, "
+            f"exposure {phot['exptime_s']:g} s ({phot.get('exptime_source', 'given')}): "
+            f"m = {phot['aperture_mag']:.3f} +- {phot['aperture_mag_err']:.3f}.")
+
+
 def apply_light(args: argparse.Namespace, result: dict, *, image=None, header=None, cosmology=None,
                 **geometry) -> dict:
     """Run the light step on ``result`` when asked; photometry on ``image`` for measure.
@@ -139,6 +148,7 @@ def apply_light(args: argparse.Namespace, result: dict, *, image=None, header=No
         phot = image_photometry(args, np.asarray(image, float), header, **geometry)
         result["light_photometry"] = phot
         aperture = {"aperture_mag": phot["aperture_mag"], "aperture_mag_err": phot["aperture_mag_err"]}
+        result.setdefault("notes", []).append(photometry_note(phot))
     elif getattr(args, "lens_mag", None) is None and getattr(args, "stellar_mass", None) is None:
         hint = " and --zeropoint ZP (or --zeropoint-key KEY)" if hasattr(args, "zeropoint") else ""
         raise LensInputError(f"The light step needs the lens brightness: give --lens-mag MAG with --band{hint}.")

@@ -24,7 +24,7 @@ from PySide6.QtWidgets import (QCheckBox, QComboBox, QFormLayout, QGridLayout, Q
                                QLineEdit, QPushButton, QVBoxLayout, QWidget)
 
 from lensmass.commands.common import format_number
-from lensmass.commands.light_options import LIGHT_ROWS, zeropoint_and_exposure
+from lensmass.commands.light_options import LIGHT_ROWS, photometry_note, zeropoint_and_exposure
 from lensmass.core.errors import LensInputError
 from lensmass.core.sun_magnitudes import known_bands
 from lensmass.gui.results_panel import interval_text
@@ -369,11 +369,7 @@ class LightPanel(QWidget):
         notes = list(light.get("notes") or [])
         phot = light.get("light_photometry")
         if phot:
-            notes.insert(0, f"Photometry: {phot['flux']:.4g} +- {phot['flux_err']:.2g} counts inside theta_E, sky "
-                            f"{phot['sky_per_pixel']:.4g} per pixel from {phot['sky_pixels']} pixels, "
-                            f"{phot['masked_pixels_in_aperture']} arc pixels masked and filled; zeropoint "
-                            f"{phot['zeropoint']:g}, exposure {phot['exptime_s']:g} s ({phot['exptime_source']}); "
-                            f"m = {phot['aperture_mag']:.3f} +- {phot['aperture_mag_err']:.3f}.")
+            notes.insert(0, photometry_note(phot))
         self.notes.setText("\n".join("• " + n for n in notes))
 
     # --------------------------------------------------------------- draw

@@ -120,7 +120,7 @@ def test_photometry_on_the_image_masks_the_arc_and_draws_the_aperture(qtbot, set
     same = lens_magnitude_inside(model.image.data, C, C, RADIUS, zeropoint=27.5, exptime_s=200.0,
                                  arc_points_xy=model.active_system.points, arc_width_pix=5.0)
     assert phot["aperture_mag"] == pytest.approx(same["aperture_mag"], abs=1e-12)
-    assert "Photometry:" in panel.notes.text()
+    assert "Photometry inside theta_E" in panel.notes.text()
     # the overlay: aperture circle drawn in its colour onto a blank picture of the canvas
     canvas.resize(400, 400)
     canvas.zoom, canvas._left, canvas._top = 4.0, 0.0, 0.0
