@@ -6,7 +6,7 @@ Einstein radius, redshift and magnitude errors all reach the intervals.
 
 References
 ----------
-Distance modulus and k-correction: Hogg et al. (2002), arXiv:astro-ph/0210394, eq. (1):
+Distance modulus and k-correction: Hogg et al. (2002), arXiv:astro-ph/0210394, eq. (1) (number from memory):
   m = M + DM + K (+ A for Galactic extinction), DM = 5 log10(D_L / 10 pc).
 Solar absolute magnitudes: Willmer (2018), ApJS 236, 47 (:mod:`lensmass.core.sun_magnitudes`).
 Enclosed light: Sersic / de Vaucouleurs (Graham & Driver 2005), Hernquist (1990).
@@ -338,7 +338,7 @@ def _notes(result: dict, inp: dict, imf: str | None) -> list[str]:
                      f"with R_e = {inp['r_eff']:g} arcsec.")
     if "stellar_mass_einstein_msun" in result:
         notes.append(f"Stellar masses assume the {imf} IMF." if imf else
-                     "The stellar M/L or mass fixes the IMF assumption: a Salpeter IMF gives about 1.7 times the Chabrier mass.")
+                     "The stellar M/L or mass fixes the IMF assumption: a Salpeter IMF gives roughly 1.7-1.8 times the Chabrier mass (common practice).")
         if result["dark_fraction_einstein"] < 0:
             notes.append("The stars alone outweigh the lensing mass inside theta_E (negative dark fraction): the stellar "
                          "M/L or IMF is too heavy for this lens, so no two-component halo exists.")

@@ -9,7 +9,8 @@ Hernquist (1990), ApJ 356, 359: rho(r) = M a / [2 pi r (r + a)^3] (eq. 2); surfa
   Sigma(s) = M / [2 pi a^2 (1 - s^2)^2] [(2 + s^2) X(s) - 3] (eq. 32) and projected mass
   M_p(<s) = M s^2 (X(s) - 1) / (1 - s^2) (eq. 37), with s = R / a and
   X(s) = arcsech(s) / sqrt(1 - s^2) for s < 1, arcsec(s) / sqrt(s^2 - 1) for s > 1 (eqs. 33-34);
-  the half-light radius is R_e = 1.8153 a (eq. 38).
+  the half-light radius is R_e = 1.8153 a (eq. 38). Equation numbers are from memory; every
+  formula is checked against a numerical projection of eq. 2 in the tests.
 de Vaucouleurs (1948): the Sersic profile with n = 4 (see :mod:`lensmass.core.sersic`).
 """
 
