@@ -188,7 +188,9 @@ class TriagePanel(QWidget):
         if self.store is not None:
             self.store.close()
         self.store, self.manifest, self.current_id = None, None, None
+        self.tree.blockSignals(True)
         self.tree.clear()
+        self.tree.blockSignals(False)
 
     def grader_name(self) -> str:
         return self.grader_edit.text().strip() or default_grader()
@@ -278,7 +280,7 @@ class TriagePanel(QWidget):
             self.tree.setCurrentItem(self.tree.topLevelItem(j))
 
     def _on_current(self, item, _previous=None) -> None:
-        if item is None:
+        if item is None or self.manifest is None:
             return
         cand = item.data(0, Qt.UserRole)
         if cand == self.current_id:
@@ -315,10 +317,11 @@ class TriagePanel(QWidget):
             w.setEnabled(on)
 
     # ---------------------------------------------------------------- grading
-    def _record(self, **changes) -> bool:
+    def _record(self, **changes):
+        """Add the grader's new state of the current candidate; returns the Receipt (None on a problem)."""
         if self.store is None or self.current_id is None:
             self._say("Open a queue and choose a candidate first.")
-            return False
+            return None
         mine = dict(self._mine.get(self.current_id, {}))
         state = {"grade": mine.get("grade"), "flagged": bool(mine.get("flagged")), "note": mine.get("note", "")}
         state.update(changes)
@@ -327,26 +330,31 @@ class TriagePanel(QWidget):
                                            note=state["note"], grader=self.grader_name())
         except LensInputError as exc:
             self._say(str(exc))
-            return False
+            return None
         self._mine[self.current_id] = {**mine, **state, "candidate": self.current_id}
-        if not receipt.saved:
-            self._say(receipt.message)
         self.refresh()
-        return True
+        return receipt
+
+    def _said(self, receipt, text: str) -> None:
+        """Confirm an action; a queued (not yet stored) entry says so first."""
+        self._say(text if receipt.saved else f"{receipt.message} ({text})")
 
     def grade(self, value: int) -> None:
         """Give the current candidate a grade of the scale (a new row in the store)."""
-        if self._record(grade=value):
-            self._say(f"{self.current_id}: {grade_label(value)} ({self._position()}).")
+        receipt = self._record(grade=value)
+        if receipt is not None:
+            self._said(receipt, f"{self.current_id}: {grade_label(value)}, {self._position()}")
 
     def toggle_flag(self) -> None:
         flagged = not bool(self._mine.get(self.current_id or "", {}).get("flagged"))
-        if self._record(flagged=flagged):
-            self._say(f"{self.current_id} {'flagged' if flagged else 'unflagged'}.")
+        receipt = self._record(flagged=flagged)
+        if receipt is not None:
+            self._said(receipt, f"{self.current_id} {'flagged' if flagged else 'unflagged'}")
 
     def save_note(self) -> None:
-        if self._record(note=self.note_edit.text().strip()):
-            self._say(f"Note kept for {self.current_id}.")
+        receipt = self._record(note=self.note_edit.text().strip())
+        if receipt is not None:
+            self._said(receipt, f"note kept for {self.current_id}")
             self.tree.setFocus()
 
     def store_measurement(self) -> None:
@@ -368,8 +376,8 @@ class TriagePanel(QWidget):
         text = f"Measurement of {self.current_id} stored"
         if isinstance(mass, float) and math.isfinite(mass):
             text += f" (M(<theta_E) = {mass:.3g} Msun, {result.get('cosmology', '')})"
-        self._say(receipt.message or text + ".")
         self.refresh()
+        self._said(receipt, text)
 
     def _on_model(self, topic: str) -> None:
         if topic == "result" and self.current_id:

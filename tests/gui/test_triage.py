@@ -126,3 +126,18 @@ def test_grading_dialog(panel, qtbot, tmp_path):
 def test_panel_is_registered_in_the_window(make_window):
     w = make_window(load_panels=True)
     assert any(isinstance(p, TriagePanel) for p in w.panels)
+
+
+def test_unreachable_team_server_keeps_grades_locally_and_says_so(panel, queue, qtbot):
+    pytest.importorskip("psycopg")
+    import socket
+
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        port = s.getsockname()[1]  # closed again: nothing listens there
+    assert panel.open_queue(queue, store=f"postgresql://tess@127.0.0.1:{port}/team")
+    panel.tree.setFocus()
+    qtbot.keyClick(panel.tree, "1")
+    assert "cannot be reached" in panel.status.text() and "will be sent" in panel.status.text()
+    assert panel.store.pending() == 1
+    assert queue.with_name("night3.grades-spool.sqlite").exists()
