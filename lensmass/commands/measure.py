@@ -94,13 +94,8 @@ def measure_from_args(args: argparse.Namespace) -> dict:
 
     pts = read_points(args.points)
     x, y = pts.to_pixels(image)
-    refine_image = None
-    if args.refine and center is not None:
-        from lensmass.core.lenslight import fit_lens_light
-
-        refine_image = fit_lens_light(image.data, center[0], center[1]).residual
     return measure_from_points(x, y, image=image, shape=args.shape, center=center, refine=args.refine,
-                               refine_image=refine_image, estimate_fn=run_estimate)
+                               estimate_fn=run_estimate)
 
 
 def print_measurement(result: dict, as_json: bool, extra_rows=()) -> None:

@@ -130,6 +130,9 @@ def _algebraic_circle(x, y) -> tuple[float, float, float]:
     """Kasa fit: least squares of x^2 + y^2 + D x + E y + F = 0 (on centred data)."""
     mx, my = x.mean(), y.mean()
     u, v = x - mx, y - my
+    sv = np.linalg.svd(np.c_[u, v], compute_uv=False)
+    if sv[-1] <= 1e-9 * max(sv[0], 1e-300):
+        raise LensInputError("The points lie on a straight line, not an arc: mark points along a curved arc.")
     a = np.c_[u, v, np.ones_like(u)]
     b = -(u**2 + v**2)
     (d, e, f), *_ = np.linalg.lstsq(a, b, rcond=None)

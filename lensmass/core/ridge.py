@@ -111,16 +111,56 @@ def refine_to_ridge(
     prof = _profile(patch, x - x0, y - y0, ux, uy, s, t)
     if blur_correction:
         prof = prof * np.sqrt((r0 + s) / r0)
-    k = int(np.argmax(prof))
-    if k == 0 or k == len(s) - 1:
+    # A ridge is a local maximum above the straight line joining the window's ends (a smooth
+    # lens-light gradient alone has none).
+    line = prof[0] + (prof[-1] - prof[0]) * (s - s[0]) / (s[-1] - s[0])
+    k = int(np.argmax(prof - line))
+    if k == 0 or k == len(s) - 1 or prof[k] - line[k] <= 0:
         return RidgePoint(x, y, r0, 0.0, float(prof[k]), False,
                           "No brightness ridge inside the search window: the point was left where it was.")
-    ym, y0v, yp = prof[k - 1], prof[k], prof[k + 1]
-    den = ym - 2 * y0v + yp
-    shift = 0.5 * (ym - yp) / den if den < 0 else 0.0
-    s_best = float(s[k] + np.clip(shift, -1, 1) * step_pix)
+    s_best = ridge_peak(s, prof, float(s[k]), 2.0) if len(s) >= 5 else float(s[k])
+    if not (s[0] < s_best < s[-1]):
+        s_best = float(s[k])
     nxp, nyp = x + s_best * ux, y + s_best * uy
-    return RidgePoint(float(nxp), float(nyp), r0 + s_best, abs(s_best), float(y0v), True)
+    return RidgePoint(float(nxp), float(nyp), r0 + s_best, abs(s_best), float(prof[k]), True)
+
+
+def ridge_peak(radii: np.ndarray, values: np.ndarray, r_start: float, width: float) -> float:
+    """Ridge of a radial profile near ``r_start``: a Gaussian on a straight-line baseline fitted by
+    least squares (the baseline absorbs smooth lens-light residuals); the parabola through the
+    highest bins when the fit fails."""
+    from scipy.optimize import curve_fit
+
+    win = np.abs(radii - r_start) <= max(2.5, 2.0 * width)
+    r, v = radii[win], values[win]
+    ok = np.isfinite(v)
+    r, v = r[ok], v[ok]
+    if r.size < 5:
+        return float(r_start)
+    k = int(np.argmax(v))
+    fallback = _peak_radius(r, v, k)
+
+    def model(x, a, mu, sig, b0, b1):
+        return a * np.exp(-0.5 * ((x - mu) / sig) ** 2) + b0 + b1 * (x - r_start)
+
+    s0 = max(0.5, width / 2.355)
+    try:
+        popt, _ = curve_fit(model, r, v, p0=[v[k] - np.median(v), r[k], s0, np.median(v), 0.0],
+                            bounds=([0, r[0], 0.3, -np.inf, -np.inf], [np.inf, r[-1], 3 * s0 + 1, np.inf, np.inf]),
+                            maxfev=400)
+    except (RuntimeError, ValueError):
+        return fallback
+    return float(popt[1])
+
+
+def _peak_radius(radii: np.ndarray, values: np.ndarray, k: int) -> float:
+    """Three-point parabolic refinement of a peak at index k."""
+    if k <= 0 or k >= len(values) - 1:
+        return float(radii[k])
+    ym, y0, yp = values[k - 1], values[k], values[k + 1]
+    den = ym - 2 * y0 + yp
+    shift = 0.5 * (ym - yp) / den if den < 0 else 0.0
+    return float(radii[k] + np.clip(shift, -1, 1) * (radii[1] - radii[0]))
 
 
 def refine_points_to_ridge(image: np.ndarray, x, y, center_x: float, center_y: float, **kwargs) -> list[RidgePoint]:

@@ -32,6 +32,7 @@ from lensmass.core.arcfit import fit_circle, fit_ellipse
 from lensmass.core.errors import LensInputError
 from lensmass.core.lenslight import LensLightModel, fit_lens_light, robust_sigma
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
+from lensmass.core.ridge import ridge_peak
 
 #: Significance (sigma) of the azimuthal ring peak needed for a confident ring.
 CONFIDENT_SCORE = 8.0
@@ -269,7 +270,7 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     while hi_i < len(radii) - 1 and prof_s[hi_i + 1] > half:
         hi_i += 1
     width = max(1.5, (hi_i - lo_i + 1) * BIN_PIX)
-    r0 = _ridge_radius(radii, prof * np.sqrt(radii), float(radii[k]), width)
+    r0 = ridge_peak(radii, prof * np.sqrt(radii), float(radii[k]), width)
 
     # Per-sector detection and ridge points.
     band = np.abs(radii - r0) <= max(1.0, 0.5 * width)
@@ -286,7 +287,7 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
         sp = np.where(counts[s, wi] > 0, smean[s, wi], np.nan) * np.sqrt(radii[wi])
         if np.isfinite(sp).sum() < 5:
             continue
-        rr = _ridge_radius(radii[wi], sp, r0, width)
+        rr = ridge_peak(radii[wi], sp, r0, width)
         ang = -np.pi + (s + 0.5) * 2 * np.pi / n_sectors
         px.append(cx + rr * np.cos(ang))
         py.append(cy + rr * np.sin(ang))
@@ -324,41 +325,3 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     return RingResult(found, confident, kind, float(radius), float(radius_err), score, coverage, cx, cy, float(q),
                       float(angle), float(rms), px, py, radii, prof, err, sigma, res, light, msg, warnings,
                       float(width))
-
-
-def _ridge_radius(radii: np.ndarray, values: np.ndarray, r_start: float, width: float) -> float:
-    """Ridge of a radial profile near ``r_start``: a Gaussian on a straight-line baseline fitted by
-    least squares (the baseline absorbs smooth lens-light residuals); the parabola through the
-    highest bins when the fit fails."""
-    from scipy.optimize import curve_fit
-
-    win = np.abs(radii - r_start) <= max(2.5, 2.0 * width)
-    r, v = radii[win], values[win]
-    ok = np.isfinite(v)
-    r, v = r[ok], v[ok]
-    if r.size < 5:
-        return float(r_start)
-    k = int(np.argmax(v))
-    fallback = _peak_radius(r, v, k)
-
-    def model(x, a, mu, sig, b0, b1):
-        return a * np.exp(-0.5 * ((x - mu) / sig) ** 2) + b0 + b1 * (x - r_start)
-
-    s0 = max(0.5, width / 2.355)
-    try:
-        popt, _ = curve_fit(model, r, v, p0=[v[k] - np.median(v), r[k], s0, np.median(v), 0.0],
-                            bounds=([0, r[0], 0.3, -np.inf, -np.inf], [np.inf, r[-1], 3 * s0 + 1, np.inf, np.inf]),
-                            maxfev=400)
-    except (RuntimeError, ValueError):
-        return fallback
-    return float(popt[1])
-
-
-def _peak_radius(radii: np.ndarray, values: np.ndarray, k: int) -> float:
-    """Three-point parabolic refinement of a peak at index k."""
-    if k <= 0 or k >= len(values) - 1:
-        return float(radii[k])
-    ym, y0, yp = values[k - 1], values[k], values[k + 1]
-    den = ym - 2 * y0 + yp
-    shift = 0.5 * (ym - yp) / den if den < 0 else 0.0
-    return float(radii[k] + np.clip(shift, -1, 1) * (radii[1] - radii[0]))
