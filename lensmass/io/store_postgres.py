@@ -43,12 +43,14 @@ class PostgresStore(GradeStore):
         self.spool_path = Path(spool_path)
         self.connect_timeout = connect_timeout
         self._spool: SqliteStore | None = None
+        self.offline_reason = ""
         try:
             self._connection()
         except LensInputError:
             raise
-        except Exception:
-            self._conn = None  # offline: writes queue locally until the server answers
+        except Exception as exc:  # offline: writes queue locally until the server answers
+            self._conn = None
+            self.offline_reason = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
 
     def _connect(self):
         import psycopg
@@ -64,7 +66,13 @@ class PostgresStore(GradeStore):
                 ) from None
             raise
         self._create_schema(conn)
+        self.offline_reason = ""
         return conn
+
+    def _create_schema(self, conn) -> None:
+        # two graders opening a new queue at once: the lock makes CREATE ... IF NOT EXISTS race-free
+        conn.execute("SELECT pg_advisory_xact_lock(7204311)")
+        super()._create_schema(conn)
 
     def _lost(self) -> None:
         conn, self._conn = self._conn, None
@@ -145,4 +153,7 @@ class PostgresStore(GradeStore):
             self._spool = None
 
     def describe(self) -> str:
-        return f"PostgreSQL {_server_label(self.url)}"
+        where = f"PostgreSQL {_server_label(self.url)}"
+        if self._conn is None and self.offline_reason:
+            where += f" (unreachable now: entries wait in {self.spool_path.name} until it answers)"
+        return where
