@@ -207,7 +207,17 @@ def _load_fits(p: Path, hdu, plane) -> LoadedImage:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             try:
-                raw = chosen.data
+                try:
+                    raw = chosen.data
+                except ValueError as exc:
+                    if "memmap" not in str(exc).lower():
+                        raise
+                    # Scaled integers (BSCALE/BZERO/BLANK) cannot be memory-mapped: read them normally.
+                    hdul.close()
+                    hdul = fits.open(p, memmap=False)
+                    chosen = hdul[index]
+                    header = chosen.header
+                    raw = chosen.data
             except Exception as exc:
                 raise _fail_open(p, f"the image data are truncated or damaged ({_short(exc)}); "
                                     "re-download or re-export the file") from None
