@@ -21,6 +21,8 @@ from scipy.ndimage import map_coordinates
 
 #: Default half-length (pixels) of the radial search window.
 DEFAULT_HALF_WINDOW_PIX = 4.0
+#: A ridge must rise above the chord of the window by this fraction of the profile's range.
+MIN_BUMP_FRACTION = 0.02
 
 
 @dataclass(frozen=True)
@@ -108,14 +110,14 @@ def refine_to_ridge(
     s = s[r0 + s > 0.5]
     n_t = max(1, int(round(2 * tangential_halfwidth_pix)) + 1)
     t = np.linspace(-tangential_halfwidth_pix, tangential_halfwidth_pix, n_t)
-    prof = _profile(patch, x - x0, y - y0, ux, uy, s, t)
-    if blur_correction:
-        prof = prof * np.sqrt((r0 + s) / r0)
-    # A ridge is a local maximum above the straight line joining the window's ends (a smooth
-    # lens-light gradient alone has none).
+    raw = _profile(patch, x - x0, y - y0, ux, uy, s, t)
+    # A ridge rises above the straight line joining the window's ends; a falling (convex or
+    # straight) lens-light profile alone does not.
+    bump = raw - (raw[0] + (raw[-1] - raw[0]) * (s - s[0]) / (s[-1] - s[0]))
+    prof = raw * np.sqrt((r0 + s) / r0) if blur_correction else raw
     line = prof[0] + (prof[-1] - prof[0]) * (s - s[0]) / (s[-1] - s[0])
     k = int(np.argmax(prof - line))
-    if k == 0 or k == len(s) - 1 or prof[k] - line[k] <= 0:
+    if k == 0 or k == len(s) - 1 or bump.max() <= MIN_BUMP_FRACTION * (raw.max() - raw.min()):
         return RidgePoint(x, y, r0, 0.0, float(prof[k]), False,
                           "No brightness ridge inside the search window: the point was left where it was.")
     s_best = ridge_peak(s, prof, float(s[k]), 2.0) if len(s) >= 5 else float(s[k])
