@@ -27,6 +27,7 @@ from lensmass.core.shear_profile import (
     select_sources,
     shear_profile,
     tangent_plane_offsets_arcsec,
+    take_where,
     tangential_cross,
 )
 from lensmass.core.uncertainty import DEFAULT_SEED
@@ -171,8 +172,8 @@ def analyse_shear_catalog(
     n_in_range = int(np.count_nonzero(in_range))
     dropped["outside_radial_range"] = int(np.count_nonzero(ok)) - n_in_range
     e1a, e2a = np.asarray(e1, float), np.asarray(e2, float)
-    t_n, x_n, y_n, e1_n, e2_n, w_n = (v[near] for v in (theta, x, y, e1a, e2a, w))
-    z_n = None if z is None else np.asarray(z, float)[near]
+    t_n, x_n, y_n, e1_n, e2_n, w_n = take_where(near, theta, x, y, e1a, e2a, w)
+    z_n = None if z is None else take_where(near, np.asarray(z, float))[0]
     step(0.15, "source distances")
     beta, sigma_cr, _ = lensing_efficiency(z_l, z_n if z_n is not None else z_s, cosmo)
     e_t, e_x = tangential_cross(e1_n, e2_n, x_n, y_n)
@@ -187,13 +188,7 @@ def analyse_shear_catalog(
     x2, dof_x, p_x = cross_shear_test(profile)
 
     step(0.85, "aperture mass")
-    ann = (t_n >= z_in) & (t_n < z_out)
-    sc_ann = np.broadcast_to(sigma_cr, t_n.shape)[ann]
-    zp = shear_profile(t_n[ann], e_t[ann], e_x[ann], w_n[ann], zeta_edges, sigma_cr_msun_per_mpc2=sc_ann,
-                       d_l_mpc=d_l, with_model_cells=False)
-    zeta, zeta_err = zeta_from_profile(zeta_edges, zp.g_t, zp.g_t_err, z_in, z_out)
-    zeta_s, zeta_s_err = zeta_from_profile(zeta_edges, zp.delta_sigma_msun_per_mpc2,
-                                           zp.delta_sigma_err_msun_per_mpc2, z_in, z_out)
+    zeta, zeta_err, zeta_s, zeta_s_err = _zeta(profile, z_in, z_out, zeta_edges, t_n, e_t, e_x, w_n, sigma_cr, d_l)
     r_in_mpc = z_in * ARCSEC_RAD * d_l
     zeta_mass = zeta_mass_bound_msun(r_in_mpc, zeta_s)
     zeta_mass_err = zeta_mass_bound_msun(r_in_mpc, zeta_s_err)
@@ -245,6 +240,29 @@ def analyse_shear_catalog(
     result["_galaxies"] = {"x_arcsec": x, "y_arcsec": y, "e1": e1a, "e2": e2a, "weight": w, "usable": ok}
     step(1.0, "done")
     return result
+
+
+def _zeta(profile, z_in, z_out, zeta_edges, theta, e_t, e_x, w, sigma_cr, d_l):
+    """zeta and zeta_Sigma with errors: from the profile's sub-bins when the annulus falls on
+    their edges (the default annulus always does), else from a profile of the annulus alone."""
+    fine = profile.fine
+    edges = fine.edges_arcsec
+    k1 = int(np.argmin(np.abs(edges - z_in)))
+    k2 = int(np.argmin(np.abs(edges - z_out)))
+    if k2 - k1 >= 4 and np.isclose(edges[k1], z_in, rtol=1e-9) and np.isclose(edges[k2], z_out, rtol=1e-9):
+        sl = slice(k1, k2)
+        e = edges[k1:k2 + 1]
+        zeta = zeta_from_profile(e, fine.g_t[sl], fine.g_t_err[sl], z_in, z_out)
+        zeta_s = zeta_from_profile(e, fine.delta_sigma_msun_per_mpc2[sl], fine.delta_sigma_err_msun_per_mpc2[sl],
+                                   z_in, z_out)
+        return (*zeta, *zeta_s)
+    ann = (theta >= z_in) & (theta < z_out)
+    t_a, et_a, ex_a, w_a, sc_a = take_where(ann, theta, e_t, e_x, w, np.broadcast_to(sigma_cr, theta.shape))
+    zp = shear_profile(t_a, et_a, ex_a, w_a, zeta_edges, sigma_cr_msun_per_mpc2=sc_a, d_l_mpc=d_l,
+                       with_model_cells=False)
+    zeta = zeta_from_profile(zeta_edges, zp.g_t, zp.g_t_err, z_in, z_out)
+    zeta_s = zeta_from_profile(zeta_edges, zp.delta_sigma_msun_per_mpc2, zp.delta_sigma_err_msun_per_mpc2, z_in, z_out)
+    return (*zeta, *zeta_s)
 
 
 def profile_rows(profile, sis_model, nfw_model) -> list[dict[str, float]]:

@@ -45,15 +45,29 @@ def tangent_plane_offsets_arcsec(ra_deg, dec_deg, ra0_deg: float, dec0_deg: floa
     >>> round(float(x), 6), round(float(y), 6)
     (1.0, 0.0)
     """
-    ra = np.radians(np.asarray(ra_deg, float) - ra0_deg)
+    dra_deg = np.asarray(ra_deg, float) - ra0_deg
+    ra = np.radians(dra_deg)
     dec = np.radians(np.asarray(dec_deg, float))
     d0 = np.radians(dec0_deg)
-    cos_dec, sin_dec, cos_ra = np.cos(dec), np.sin(dec), np.cos(ra)
-    cos_c = np.sin(d0) * sin_dec + np.cos(d0) * cos_dec * cos_ra
+    # two sines instead of four trigonometric calls: cos(dec) >= 0 always, and cos(dRA) takes
+    # the sign of |dRA| < 90 deg (both square roots are exact to ~1e-16 for the small angles of a field)
+    sin_dec = np.sin(dec)
+    cos_dec = np.sqrt(np.maximum(1.0 - sin_dec * sin_dec, 0.0))
+    sin_ra = np.sin(ra)
+    cos_ra = np.sqrt(np.maximum(1.0 - sin_ra * sin_ra, 0.0))
+    a = np.abs(dra_deg)
+    far = (a > 90.0) & (a < 270.0)
+    if np.any(far):
+        cos_ra[far] = -cos_ra[far]
+    cc = cos_dec * cos_ra
+    cos_c = np.sin(d0) * sin_dec + np.cos(d0) * cc
     with np.errstate(divide="ignore", invalid="ignore"):
-        inv = np.where(cos_c > 0, 1.0 / cos_c, np.nan) / ARCSEC_RAD
-    x = cos_dec * np.sin(ra) * inv
-    y = (np.cos(d0) * sin_dec - np.sin(d0) * cos_dec * cos_ra) * inv
+        inv = (1.0 / ARCSEC_RAD) / cos_c
+    behind = cos_c <= 0
+    if np.any(behind):
+        inv[behind] = np.nan
+    x = cos_dec * sin_ra * inv
+    y = (np.cos(d0) * sin_dec - np.sin(d0) * cc) * inv
     return x, y
 
 
@@ -74,8 +88,10 @@ def tangent_plane_to_sky(x_arcsec, y_arcsec, ra0_deg: float, dec0_deg: float):
 
 def radius_arcsec(x_arcsec, y_arcsec) -> np.ndarray:
     """True angular distance from the centre for gnomonic offsets: arctan(rho)."""
-    rho = np.hypot(np.asarray(x_arcsec, float), np.asarray(y_arcsec, float)) * ARCSEC_RAD
-    return np.arctan(rho) / ARCSEC_RAD
+    x = np.asarray(x_arcsec, float)
+    y = np.asarray(y_arcsec, float)
+    rho = np.sqrt(x * x + y * y) * ARCSEC_RAD
+    return np.arctan(rho) * (1.0 / ARCSEC_RAD)
 
 
 def tangential_cross(e1, e2, x_arcsec, y_arcsec) -> tuple[np.ndarray, np.ndarray]:
@@ -99,6 +115,13 @@ def tangential_cross(e1, e2, x_arcsec, y_arcsec) -> tuple[np.ndarray, np.ndarray
     e1 = np.asarray(e1, float)
     e2 = np.asarray(e2, float)
     return -(e1 * cos2 + e2 * sin2), e1 * sin2 - e2 * cos2
+
+
+def take_where(mask, *arrays) -> list[np.ndarray]:
+    """The elements of each array where ``mask`` is true (index once, then ``take``: much faster
+    than boolean indexing of many long arrays)."""
+    index = np.flatnonzero(mask)
+    return [np.asarray(a).take(index) for a in arrays]
 
 
 # ---------------------------------------------------------------- selection
@@ -256,7 +279,8 @@ class ShearProfile:
 
     ``g_t_err``/``g_x_err`` come from the shape noise in each bin; the ``_boot``
     errors from a bootstrap over galaxies (NaN when not run). ``delta_sigma`` is in
-    Msun / Mpc^2 (None without redshifts). Empty bins hold NaN.
+    Msun / Mpc^2 (None without redshifts). Empty bins hold NaN. ``fine`` holds the
+    same profile in the sub-bins (each bin split in equal parts of its spacing).
     """
 
     edges_arcsec: np.ndarray
@@ -274,6 +298,7 @@ class ShearProfile:
     cells: ModelCells | None
     beta_mean: float
     d_l_mpc: float | None
+    fine: "FineProfile | None" = None
 
     @property
     def usable(self) -> np.ndarray:
@@ -281,37 +306,73 @@ class ShearProfile:
         return (self.n_galaxies >= 2) & np.isfinite(self.g_t_err) & (self.g_t_err > 0)
 
 
-def _bin_sums(index, n_bins, weights):
-    return np.bincount(index, weights=weights, minlength=n_bins)[:n_bins]
+@dataclass
+class FineProfile:
+    """Tangential shear and Delta Sigma in the sub-bins of a profile (for the zeta integral)."""
+
+    edges_arcsec: np.ndarray
+    g_t: np.ndarray
+    g_t_err: np.ndarray
+    delta_sigma_msun_per_mpc2: np.ndarray | None
+    delta_sigma_err_msun_per_mpc2: np.ndarray | None
 
 
-def _weighted_means(index, n_bins, w, *values):
-    wsum = _bin_sums(index, n_bins, w)
+def _fine_edges(edges: np.ndarray, n_sub: int) -> np.ndarray:
+    """Sub-bin edges matching :func:`_fine_index` (log, linear, or linear inside each bin)."""
+    n_bins = edges.size - 1
+    lo, hi = edges[0], edges[-1]
+    if lo > 0 and np.allclose(np.diff(np.log(edges)), np.log(hi / lo) / n_bins, rtol=1e-9, atol=0):
+        return np.geomspace(lo, hi, n_bins * n_sub + 1)
+    parts = [np.linspace(edges[i], edges[i + 1], n_sub + 1)[:-1] for i in range(n_bins)]
+    return np.concatenate(parts + [edges[-1:]])
+
+
+def _means_errors(sums: dict, p: str, w: str):
+    """Weighted means of the two components and the pooled shape-noise error, from sums.
+
+    sum w^2 (e - m)^2 = S(w^2 e^2) - 2 m S(w^2 e) + m^2 S(w^2), for both components.
+    """
     with np.errstate(invalid="ignore", divide="ignore"):
-        return wsum, [_bin_sums(index, n_bins, w * v) / wsum for v in values]
+        wsum = sums[w]
+        mt = sums[p + "t"] / wsum
+        mx = sums[p + "x"] / wsum
+        var = (sums[p + "2ee"] - 2 * mt * sums[p + "2t"] - 2 * mx * sums[p + "2x"]
+               + (mt * mt + mx * mx) * sums[p + "2"])
+        err = np.sqrt(np.maximum(var, 0.0) / 2.0) / wsum
+    return mt, mx, err
 
 
-def _model_cells(index, theta, beta, w, edges, n_bins) -> ModelCells:
-    lo = edges[index]
-    width = edges[index + 1] - lo
-    sub = np.clip(((theta - lo) / width * _RADIAL_SUBBINS).astype(np.int64), 0, _RADIAL_SUBBINS - 1)
-    cell = index.astype(np.int64) * _RADIAL_SUBBINS + sub
-    n_beta = 1
-    if np.ptp(beta) > 1e-12 * max(float(np.max(beta)), 1e-300):
-        sample = beta[:: max(1, beta.size // 200_000)]  # approximate quantiles are enough for cell edges
-        q = np.quantile(sample, np.linspace(0, 1, _BETA_CELLS + 1)[1:-1])
-        bq = np.searchsorted(q, beta, side="right")
-        n_beta = _BETA_CELLS
-        cell = cell * n_beta + bq
-    size = n_bins * _RADIAL_SUBBINS * n_beta
-    wsum = np.bincount(cell, weights=w, minlength=size)
+def _fine_index(theta: np.ndarray, edges: np.ndarray, n_sub: int) -> np.ndarray:
+    """bin * n_sub + sub-bin of each radius (sub-bins equal in the bins' spacing); -1 outside.
+
+    Logarithmic and linear edges are indexed directly (no search); other edges by bisection.
+    """
+    n_bins = edges.size - 1
+    lo, hi = edges[0], edges[-1]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        if lo > 0 and np.allclose(np.diff(np.log(edges)), np.log(hi / lo) / n_bins, rtol=1e-9, atol=0):
+            u = np.log(theta * (1.0 / lo)) * (n_bins * n_sub / np.log(hi / lo))
+        elif np.allclose(np.diff(edges), (hi - lo) / n_bins, rtol=1e-9, atol=0):
+            u = (theta - lo) * (n_bins * n_sub / (hi - lo))
+        else:
+            idx = np.searchsorted(edges, theta, side="right") - 1
+            ok = (idx >= 0) & (idx < n_bins)
+            idx = np.where(ok, idx, 0)
+            frac = (theta - edges[idx]) / (edges[idx + 1] - edges[idx])
+            u = np.where(ok, idx * n_sub + np.clip(frac * n_sub, 0, n_sub - 1e-9), -1.0)
+    fine = np.floor(u)
+    fine = np.where((theta >= lo) & (theta < hi), np.clip(fine, 0, n_bins * n_sub - 1), -1)
+    return fine.astype(np.int64)
+
+
+def _cells_from_sums(sums: dict, n_bins: int, n_beta: int) -> ModelCells:
+    wsum = sums["w"]
     keep = wsum > 0
     with np.errstate(invalid="ignore", divide="ignore"):
-        t = np.bincount(cell, weights=w * theta, minlength=size) / wsum
-        b = np.bincount(cell, weights=w * beta, minlength=size) / wsum
-        b2 = np.bincount(cell, weights=w * beta * beta, minlength=size) / wsum
-    bins = np.arange(size) // (_RADIAL_SUBBINS * n_beta)
-    var = np.maximum(b2 - b * b, 0.0)
+        t = sums["wtheta"] / wsum
+        b = sums["wbeta"] / wsum
+        var = np.maximum(sums["wbeta2"] / wsum - b * b, 0.0)
+    bins = np.arange(wsum.size) // (_RADIAL_SUBBINS * n_beta)
     return ModelCells(bins[keep], t[keep], b[keep], var[keep], wsum[keep], n_bins)
 
 
@@ -372,40 +433,62 @@ def shear_profile(
     edges = np.asarray(edges_arcsec, float)
     n_bins = edges.size - 1
     theta = np.asarray(theta_arcsec, float)
-    idx = np.searchsorted(edges, theta, side="right") - 1
-    inside = (idx >= 0) & (idx < n_bins)
+    fine = _fine_index(theta, edges, _RADIAL_SUBBINS)
+    inside = fine >= 0
     if theta.size and not np.all(inside):
-        idx = idx[inside]
-        theta = theta[inside]
-        e_t = np.asarray(e_t, float)[inside]
-        e_x = np.asarray(e_x, float)[inside]
-        weight = np.asarray(weight, float)[inside]
-        beta = None if beta is None else np.broadcast_to(np.asarray(beta, float), inside.shape)[inside]
+        fine, theta, e_t, e_x, weight = take_where(inside, fine, theta, e_t, e_x, weight)
+        if beta is not None:
+            (beta,) = take_where(inside, np.broadcast_to(np.asarray(beta, float), inside.shape))
         if sigma_cr_msun_per_mpc2 is not None:
-            sigma_cr_msun_per_mpc2 = np.broadcast_to(np.asarray(sigma_cr_msun_per_mpc2, float), inside.shape)[inside]
+            (sigma_cr_msun_per_mpc2,) = take_where(inside, np.broadcast_to(np.asarray(sigma_cr_msun_per_mpc2, float),
+                                                                            inside.shape))
     e_t = np.asarray(e_t, float)
     e_x = np.asarray(e_x, float)
     w = np.asarray(weight, float)
-    count = np.bincount(idx, minlength=n_bins)[:n_bins]
-    wsum, (r_mean, g_t, g_x) = _weighted_means(idx, n_bins, w, theta, e_t, e_x)
-    res2 = (e_t - g_t[idx]) ** 2 + (e_x - g_x[idx]) ** 2
-    with np.errstate(invalid="ignore", divide="ignore"):
-        err = np.sqrt(_bin_sums(idx, n_bins, w * w * res2) / 2.0) / wsum
-    nan = np.full(n_bins, np.nan)
-    boot_t, boot_x = nan, nan.copy()
-    if n_bootstrap and idx.size > 1:
-        boot_t, boot_x = _bootstrap_errors(idx, n_bins, w, e_t, e_x, int(n_bootstrap), np.random.default_rng(seed))
     beta_arr = np.ones_like(theta) if beta is None else np.broadcast_to(np.asarray(beta, float), theta.shape)
-    ds = ds_err = None
+    n_fine = n_bins * _RADIAL_SUBBINS
+
+    # one index (sub-bin x beta cell) and one set of sums; bins, sub-bins and cells aggregate them
+    cell, n_beta = fine, 1
+    b_min, b_max = (float(np.min(beta_arr)), float(np.max(beta_arr))) if w.size else (0.0, 0.0)
+    if with_model_cells and b_max - b_min > 1e-12 * max(b_max, 1e-300):
+        n_beta = _BETA_CELLS
+        bq = np.minimum(((beta_arr - b_min) * (n_beta / (b_max - b_min))).astype(np.int64), n_beta - 1)
+        cell = fine * n_beta + bq
+    size = n_fine * n_beta
+    w2 = w * w
+    weights = {"n": None, "w": w, "wtheta": w * theta, "st": w * e_t, "sx": w * e_x, "s2": w2,
+               "s2t": w2 * e_t, "s2x": w2 * e_x, "s2ee": w2 * (e_t * e_t + e_x * e_x)}
+    if with_model_cells:
+        wb = w * beta_arr
+        weights.update(wbeta=wb, wbeta2=wb * beta_arr)
     if sigma_cr_msun_per_mpc2 is not None:
         sc = np.broadcast_to(np.asarray(sigma_cr_msun_per_mpc2, float), theta.shape)
-        wd = w / sc**2
-        _, (ds,) = _weighted_means(idx, n_bins, wd, sc * e_t)
-        _, (dsx,) = _weighted_means(idx, n_bins, wd, sc * e_x)
-        r2 = (sc * e_t - ds[idx]) ** 2 + (sc * e_x - dsx[idx]) ** 2
-        with np.errstate(invalid="ignore", divide="ignore"):
-            ds_err = np.sqrt(_bin_sums(idx, n_bins, wd * wd * r2) / 2.0) / _bin_sums(idx, n_bins, wd)
-    cells = _model_cells(idx, theta, beta_arr, w, edges, n_bins) if with_model_cells else None
+        wd = w / (sc * sc)
+        wd2 = wd * wd
+        dt, dx = sc * e_t, sc * e_x
+        weights.update(d=wd, dt=wd * dt, dx=wd * dx, d2=wd2, d2t=wd2 * dt, d2x=wd2 * dx, d2ee=wd2 * (dt * dt + dx * dx))
+    cell_sums = {k: np.bincount(cell, weights=v, minlength=size)[:size] for k, v in weights.items()}
+    fine_sums = {k: v.reshape(n_fine, n_beta).sum(axis=1) for k, v in cell_sums.items()}
+    sums = {k: v.reshape(n_bins, _RADIAL_SUBBINS).sum(axis=1) for k, v in fine_sums.items()}
+
+    count = sums["n"].astype(np.int64)
+    wsum = sums["w"]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        r_mean = sums["wtheta"] / wsum
+    g_t, g_x, err = _means_errors(sums, "s", "w")
+    ft, _, ferr = _means_errors(fine_sums, "s", "w")
+    ds = ds_err = fds = fds_err = None
+    if sigma_cr_msun_per_mpc2 is not None:
+        ds, _, ds_err = _means_errors(sums, "d", "d")
+        fds, _, fds_err = _means_errors(fine_sums, "d", "d")
+    nan = np.full(n_bins, np.nan)
+    boot_t, boot_x = nan, nan.copy()
+    if n_bootstrap and theta.size > 1:
+        idx = fine // _RADIAL_SUBBINS
+        boot_t, boot_x = _bootstrap_errors(idx, n_bins, w, e_t, e_x, int(n_bootstrap), np.random.default_rng(seed))
+    cells = _cells_from_sums(cell_sums, n_bins, n_beta) if with_model_cells else None
+    fine_profile = FineProfile(_fine_edges(edges, _RADIAL_SUBBINS), ft, ferr, fds, fds_err)
     beta_mean = float(np.sum(w * beta_arr) / np.sum(w)) if w.size else float("nan")
     return ShearProfile(edges, r_mean, count, wsum, g_t, err, g_x, err.copy(), boot_t, boot_x,
-                        ds, ds_err, cells, beta_mean, d_l_mpc)
+                        ds, ds_err, cells, beta_mean, d_l_mpc, fine_profile)

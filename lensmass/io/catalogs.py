@@ -165,7 +165,10 @@ def _float_column(table, name: str, role: str) -> np.ndarray:
     if getattr(col, "ndim", 1) != 1:
         raise LensInputError(f"Column '{name}' ({role}) holds arrays per row; map a column of single numbers.")
     try:
-        data = np.ma.filled(np.ma.asarray(col, dtype=float), np.nan)
+        if getattr(col, "mask", None) is not None and np.any(col.mask):
+            data = np.ma.filled(np.ma.asarray(col, dtype=float), np.nan)
+        else:
+            data = np.asarray(col, dtype=float)
     except (TypeError, ValueError):
         raise LensInputError(f"Column '{name}' ({role}) is not numeric: map a numeric column with --columns.") from None
     return np.ascontiguousarray(data, dtype=float)
