@@ -131,3 +131,20 @@ def test_bad_manifest_is_one_sentence(tmp_path, capsys):
     assert main(["batch", str(tmp_path / "none.csv"), "--out", str(tmp_path / "r.ecsv")]) == 2
     err = capsys.readouterr().err.strip()
     assert err.count("\n") == 0 and "does not exist" in err
+
+
+def _die(rows):
+    os._exit(9)  # a worker killed from outside (e.g. out of memory)
+
+
+def test_a_dying_worker_is_one_sentence_and_keeps_results(tmp_path, monkeypatch, capsys):
+    import lensmass.commands.batch as batch
+
+    monkeypatch.setattr(batch, "_run_chunk", _die)
+    _manifest(tmp_path / "m.csv", 40)
+    out = tmp_path / "r.ecsv"
+    status = main(["batch", str(tmp_path / "m.csv"), "--out", str(out), "--workers", "2", "--no-progress",
+                   "--samples", "200"])
+    assert status == 2
+    assert "worker process died" in capsys.readouterr().err
+    assert _rows_in(out) == 0  # RESULTS is a valid (empty) table; --resume continues it

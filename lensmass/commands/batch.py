@@ -27,6 +27,7 @@ import math
 import sys
 import time
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+from concurrent.futures.process import BrokenProcessPool
 from pathlib import Path
 from typing import Any
 
@@ -378,7 +379,13 @@ def _run_parallel(todo, settings, workers, saver, progress) -> None:
             while pending:
                 done, pending = wait(pending, return_when=FIRST_COMPLETED)
                 for fut in done:
-                    recs = fut.result()
+                    try:
+                        recs = fut.result()
+                    except BrokenProcessPool:
+                        raise LensInputError(
+                            f"A worker process died (out of memory or killed); {saver.path.name} keeps the "
+                            f"{len(saver.records)} rows done: rerun with --resume, with fewer --workers or --samples."
+                        ) from None
                     saver.add(recs)
                     progress.update(len(recs))
         except BaseException:
