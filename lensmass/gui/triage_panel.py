@@ -296,7 +296,22 @@ class TriagePanel(QWidget):
             self.model.set_texts(texts)
         self._stored_result_ids.setdefault(cand, id(self.model.result) if self.model.result is not None else 0)
         self._sync_controls()
-        self._say(f"{cand}" + (f": {row.notes}" if row.notes else "") + f" ({self._position()}).")
+        where = f" at RA {row.ra_deg:.5f}, Dec {row.dec_deg:+.5f}" if None not in (row.ra_deg, row.dec_deg) else ""
+        self._say(f"{cand}{where}" + (f": {row.notes}" if row.notes else "") + f" ({self._position()})"
+                  + self._last_measurement_text(cand) + ".")
+
+    def _last_measurement_text(self, cand: str) -> str:
+        if cand not in self._measured:
+            return ""
+        try:
+            last = self.store.measurements(cand)[-1]
+        except (LensInputError, IndexError):
+            return ""
+        mass = last["result"].get("mass_einstein_msun")
+        if not isinstance(mass, (int, float)):
+            return ""
+        return (f"; stored by {last['grader']}: M(<theta_E) = {mass:.3g} Msun "
+                f"({last['result'].get('cosmology', '')})")
 
     def _position(self) -> str:
         item = self.tree.currentItem()

@@ -70,6 +70,7 @@ def test_keys_grade_flag_note_and_measurement_are_stored(panel, queue, window, q
     assert {r["grader"] for r in hist} == {"tess"}
     assert store.measurements("Q-00")[0]["result"]["mass_einstein_msun"] == pytest.approx(
         estimate(1.4, 0.31, 1.2)["mass_einstein_msun"])
+    assert "stored by tess: M(<theta_E) = " in panel.status.text()  # revisiting shows the stored result
     cells = [tree.topLevelItem(0).text(c) for c in range(4)]
     assert cells[1] == "2 counter-imaged" and "measured" in cells[3] and "flagged" in cells[3]
 
@@ -123,9 +124,10 @@ def test_grading_dialog(panel, qtbot, tmp_path):
     assert page.read_text().startswith("<!DOCTYPE html>")
 
 
-def test_panel_is_registered_in_the_window(make_window):
+def test_panel_is_registered_in_the_window(make_window, qtbot):
     w = make_window(load_panels=True)
-    assert any(isinstance(p, TriagePanel) for p in w.panels)
+    # the window may add its panels just after the first paint
+    qtbot.waitUntil(lambda: any(isinstance(p, TriagePanel) for p in w.panels), timeout=10000)
 
 
 def test_unreachable_team_server_keeps_grades_locally_and_says_so(panel, queue, qtbot):
