@@ -151,3 +151,40 @@ def test_broken_catalogue_one_line(capsys, tmp_path):
     bad.write_bytes(DEMO.read_bytes()[:5000])  # half-written download
     code, out, err = _run(capsys, bad, "--zl", ZL, "--center-sky", f"{RA0},{DEC0}")
     assert code == 2 and "Cannot read catalogue 'half.fits'" in err and len(err.strip().splitlines()) == 1
+
+
+def test_units_linear_bins_free_concentration_and_parquet(capsys, small_catalog, tmp_path):
+    # The same radial range in Mpc and in arcmin gives the same bins: R = D_l theta (Hogg 1999 distances).
+    from lensmass.core.cosmology import resolve_cosmology as rc
+
+    d_l = rc("Planck18").angular_diameter_distance(ZL).to_value("Mpc")
+    arcmin_mpc = d_l * np.radians(1 / 60)
+    base = ["--zl", ZL, "--center-sky", f"{RA0},{DEC0}", "--bootstrap", 0, "--json", *COLUMNS]
+    _, out_a, _ = _run(capsys, small_catalog, *base, "--rmin", 1, "--rmax", 7)
+    _, out_m, _ = _run(capsys, small_catalog, *base, "--rmin", arcmin_mpc, "--rmax", 7 * arcmin_mpc, "--unit", "mpc")
+    a, m = json.loads(out_a), json.loads(out_m)
+    assert [r["n_galaxies"] for r in a["profile"]] == [r["n_galaxies"] for r in m["profile"]]
+    code, out, err = _run(capsys, small_catalog, *base, "--rmin", 1, "--rmax", 7, "--linear-bins",
+                          "--free-concentration")
+    assert code == 0, err
+    r = json.loads(out)
+    widths = [row["r_hi_arcsec"] - row["r_lo_arcsec"] for row in r["profile"]]
+    assert np.allclose(widths, widths[0])
+    assert r["free_concentration"] and r["dof_nfw"] == r["dof_sis"] - 1
+    assert "c free" in r["models"]["nfw_c200"]
+    # Parquet input (pyarrow) gives the same numbers as the FITS file.
+    pq = tmp_path / "cat.parquet"
+    Table.read(small_catalog).write(pq)
+    _, out_p, err = _run(capsys, pq, *base, "--rmin", 1, "--rmax", 7)
+    assert json.loads(out_p)["nfw_m200_msun"] == pytest.approx(a["nfw_m200_msun"], rel=1e-9), err
+
+
+def test_flipping_both_signs_negates_the_tangential_shear(capsys, small_catalog):
+    # e_t = -(e1 cos 2phi + e2 sin 2phi) is linear in (e1, e2) (shared/REFERENCES.md convention).
+    base = ["--zl", ZL, "--center-sky", f"{RA0},{DEC0}", "--bootstrap", 0, "--json", *COLUMNS, "--rmin", 1,
+            "--rmax", 7]
+    _, out, _ = _run(capsys, small_catalog, *base)
+    _, out_f, _ = _run(capsys, small_catalog, *base, "--flip-e1", "--flip-e2")
+    a, f = json.loads(out), json.loads(out_f)
+    assert [r["g_t"] for r in f["profile"]] == pytest.approx([-r["g_t"] for r in a["profile"]], abs=1e-12)
+    assert f["catalog"]["flipped"] == ["e1", "e2"]

@@ -157,6 +157,17 @@ def _refine_1d(chi2_of: Callable, lo: float, hi: float, n: int = 81, rounds: int
     return x, c
 
 
+def _grid_minimum(x: np.ndarray, chi2: np.ndarray) -> float:
+    """The minimum of chi^2 on a grid, refined by the parabola through its three lowest neighbours."""
+    i = int(np.argmin(chi2))
+    if 0 < i < x.size - 1:
+        c0, c1, c2 = chi2[i - 1], chi2[i], chi2[i + 1]
+        curvature = c0 - 2 * c1 + c2
+        if np.isfinite(curvature) and curvature > 0:
+            return float(x[i] + 0.5 * (x[1] - x[0]) * (c0 - c2) / curvature)
+    return float(x[i])
+
+
 def _finish(model: str, best: dict, quantiles: dict, chi2_min: float, n_data: int, n_par: int,
             model_profile: np.ndarray, grid: dict, at_edge: bool) -> FitResult:
     dof = n_data - n_par
@@ -189,8 +200,7 @@ def fit_sis(profile: ShearProfile, *, sigma_v_range_kms: tuple[float, float] = S
     x, c = _refine_1d(chi2_of, lo, hi)
     lnp = -0.5 * (c - np.min(c))
     q_log = _grid_quantiles(x, lnp)
-    i_best = int(np.argmin(c))
-    s_best = 10.0 ** x[i_best]
+    s_best = 10.0 ** _grid_minimum(x, c)
     sigma_q = 10.0**q_log
     theta_q = sis_theta_e_arcsec(sigma_q, 1.0, profile.beta_mean)
     best = {"sis_sigma_v_kms": float(s_best),
@@ -247,8 +257,7 @@ def fit_nfw(
         lnp = -0.5 * (c - np.min(c))
         m_q = 10.0 ** _grid_quantiles(x, lnp)
         c_q = np.sort(c_of_m(m_q, z_l, h))
-        i_best = int(np.argmin(c))
-        m_best = 10.0 ** x[i_best]
+        m_best = 10.0 ** _grid_minimum(x, c)
         c_best = float(c_of_m(m_best, z_l, h))
         grid = {"nfw_m200_msun": 10.0**x, "posterior": np.exp(lnp)}
         n_par = 1
