@@ -57,15 +57,16 @@ def run_window(path: str | None = None, screenshot: str | None = None, size: tup
         import tempfile
 
         settings = QSettings(str(Path(tempfile.mkdtemp(prefix="lensmass-shot-")) / "settings.ini"), QSettings.IniFormat)
-    window = MainWindow(settings, offer_recovery=not screenshot, interactive=not screenshot)
+    window = MainWindow(settings, offer_recovery=not screenshot, interactive=not screenshot, load_panels="deferred")
     window.resize(*(size or (1440, 900)))
+    opened = True
+    if path is not None:
+        # Open before the first show: the image is in the first paint, extra panels load after it.
+        opened = window.open_path(path)
     window.show()
     app.processEvents()
-    if path is not None:
-        window.canvas.fit_to_window()
-        if not window.open_path(path):
-            if screenshot:
-                raise LensInputError(window.last_error or f"Could not open {path}.")
+    if not opened and screenshot:
+        raise LensInputError(window.last_error or f"Could not open {path}.")
     if screenshot:
         wait_until_idle(window)
         window.canvas.fit_to_window()

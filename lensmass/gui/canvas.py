@@ -21,6 +21,8 @@ from PySide6.QtCore import QPointF, QRectF, QSize, Qt, Signal
 from PySide6.QtGui import QColor, QImage, QPainter, QPainterPath, QPen, QPolygonF
 from PySide6.QtWidgets import QSizePolicy, QWidget
 
+from lensmass.gui.display import quantise
+
 #: Colours of the arc systems, in order (our own calm set; readable on gray, viridis and magma).
 SYSTEM_COLOURS = ("#3fd0b6", "#f2b84b", "#ef7fa8", "#8ab8ff", "#c7e06a", "#ffffff")
 CENTRE_COLOUR = "#ff9d5c"
@@ -73,10 +75,17 @@ class ImageCanvas(QWidget):
         self.setAcceptDrops(True)
         self.setFocusPolicy(Qt.StrongFocus)
         self.setMinimumSize(320, 260)
-        self._qimage: QImage | None = None
+        self._qimage = None
+        self._levels: np.ndarray | None = None
+        self._table: np.ndarray | None = None
+        self._limits = (0.0, 1.0)
+        self._tile: QImage | None = None
+        self._tile_key = None
+        self._tile_rect = QRectF()
         self._buffer: np.ndarray | None = None
         self._shape = (0, 0)  # ny, nx
         self.flip_rows = True
+        self.paint_count = 0  # paints that showed an image (benchmarks read it)
         self.zoom = 1.0
         self._left = 0.0  # display-column coordinate at widget x = 0 (pixel edges at -0.5)
         self._top = 0.0   # display-row coordinate at widget y = 0
@@ -92,28 +101,40 @@ class ImageCanvas(QWidget):
         self.hint = "Open an image: File > Open, drag a file here, or give it on the command line."
 
     # ---------------------------------------------------------------- image
-    def set_colours(self, colours: np.ndarray, flip_rows: bool, keep_view: bool = True) -> None:
-        """Show a (ny, nx) uint32 colour array already in display row order."""
-        shape = colours.shape
-        new_shape = shape != self._shape
-        self._buffer = np.ascontiguousarray(colours)
-        ny, nx = shape
-        self._qimage = QImage(self._buffer.data, nx, ny, nx * 4, QImage.Format_RGB32)
-        self._shape = shape
+    def set_source(self, data: np.ndarray, limits: tuple[float, float], table: np.ndarray, flip_rows: bool,
+                   keep_view: bool = True) -> None:
+        """Show float ``data`` (rows as stored) between ``limits`` through the colour ``table``.
+
+        Only the visible part is quantised and coloured, at about one sample per
+        screen pixel, when painting: a repaint costs the window's pixels, not the image's.
+        """
+        new_shape = data.shape != self._shape
+        self._levels = data[::-1] if flip_rows else data  # a view in display row order
+        self._limits = (float(limits[0]), float(limits[1]))
+        self._table = table
+        self._shape = data.shape
         self.flip_rows = flip_rows
+        self._tile_key = None
+        self._qimage = True  # an image is shown (the tile is built when painting)
         if new_shape or not keep_view or not self._fitted_once:
             self.fit_to_window()
         self.update()
 
     def clear_image(self) -> None:
-        self._qimage, self._buffer, self._shape = None, None, (0, 0)
+        self._qimage, self._levels, self._table, self._shape = None, None, None, (0, 0)
+        self._tile, self._buffer, self._tile_key = None, None, None
         self.marks, self.fits = [], []
         self._fitted_once = False
         self.update()
 
+    def visible_colours(self) -> np.ndarray | None:
+        """The colours last painted (uint32 0xffRRGGBB), building them if needed."""
+        self._visible_tile()
+        return self._buffer
+
     @property
     def has_image(self) -> bool:
-        return self._qimage is not None
+        return self._qimage is not None and self._levels is not None
 
     @property
     def image_shape(self) -> tuple[int, int]:
@@ -222,6 +243,7 @@ class ImageCanvas(QWidget):
             painter.end()
             return
         self._paint_image(painter)
+        self.paint_count += 1
         painter.setRenderHint(QPainter.Antialiasing, True)
         for draw in list(self._layers.values()):
             painter.save()
@@ -237,20 +259,37 @@ class ImageCanvas(QWidget):
         self._paint_scale_bar(painter)
         painter.end()
 
-    def _paint_image(self, painter: QPainter) -> None:
+    def _visible_tile(self) -> tuple[QImage, QRectF] | None:
+        """The visible part of the image, decimated to about one sample per screen pixel."""
+        if self._levels is None:
+            return None
         ny, nx = self._shape
-        # Visible part of the image in display pixel units (edges at integers).
-        u0 = max(0.0, math.floor(self._left))
-        v0 = max(0.0, math.floor(self._top))
-        u1 = min(float(nx), math.ceil(self._left + self.width() / self.zoom))
-        v1 = min(float(ny), math.ceil(self._top + self.height() / self.zoom))
+        k = max(1, int(1.0 / self.zoom)) if self.zoom < 1.0 else 1
+        u0 = max(0, int(math.floor(self._left)))
+        v0 = max(0, int(math.floor(self._top)))
+        u1 = min(nx, int(math.ceil(self._left + self.width() / self.zoom)) + 1)
+        v1 = min(ny, int(math.ceil(self._top + self.height() / self.zoom)) + 1)
         if u1 <= u0 or v1 <= v0:
+            return None
+        key = (u0, u1, v0, v1, k, id(self._levels), self._limits, id(self._table))
+        if key != self._tile_key:
+            sub = quantise(self._levels[v0:v1:k, u0:u1:k], *self._limits)
+            self._buffer = np.take(self._table, sub)
+            h, w = self._buffer.shape
+            self._tile = QImage(self._buffer.data, w, h, w * 4, QImage.Format_RGB32)
+            self._tile_rect = QRectF(u0, v0, w * k, h * k)
+            self._tile_key = key
+        return self._tile, self._tile_rect
+
+    def _paint_image(self, painter: QPainter) -> None:
+        tile = self._visible_tile()
+        if tile is None:
             return
-        source = QRectF(u0, v0, u1 - u0, v1 - v0)
-        target = QRectF((u0 - self._left) * self.zoom, (v0 - self._top) * self.zoom,
-                        (u1 - u0) * self.zoom, (v1 - v0) * self.zoom)
-        painter.setRenderHint(QPainter.SmoothPixmapTransform, self.zoom < 1.0)
-        painter.drawImage(target, self._qimage, source)
+        image, r = tile
+        target = QRectF((r.x() - self._left) * self.zoom, (r.y() - self._top) * self.zoom,
+                        r.width() * self.zoom, r.height() * self.zoom)
+        painter.setRenderHint(QPainter.SmoothPixmapTransform, False)
+        painter.drawImage(target, image)
 
     def _pen(self, colour: str, width: float = 1.6, active: bool = True, style=Qt.SolidLine) -> QPen:
         c = QColor(colour)

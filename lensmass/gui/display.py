@@ -3,12 +3,14 @@
 Pure numpy (no Qt), so it is testable alone. The work is split so that a display
 change redoes only what it must:
 
-1. :meth:`DisplayPipeline.levels` -- the image clipped to its limits and quantised
-   to 16-bit levels (0 .. 65534; 65535 marks masked/NaN pixels). Cached per
-   (layer, limits); only a new image or new limits recompute it.
+1. :meth:`DisplayPipeline.limits` -- the display limits of a layer, cached per
+   (layer, limits); only a new image or new limits recompute them.
 2. :func:`colour_table` -- a 65536-entry table of 32-bit colours for a stretch,
    colour map and invert. Building it touches 65536 numbers, not the image.
-3. One table look-up maps levels to colours (``numpy.take``).
+3. :func:`quantise` turns the pixels shown to 16-bit levels (0 .. 65534; 65535
+   marks masked/NaN pixels) and one table look-up (``numpy.take``) gives their
+   colours. The canvas does this only for the visible part, at about one sample
+   per screen pixel.
 
 Stretches and intervals are astropy.visualization's (linear, square root,
 logarithmic, asinh; min-max, percentiles, zscale of IRAF as implemented there).
@@ -152,18 +154,21 @@ class DisplayChoice:
 
 
 class DisplayPipeline:
-    """Cached levels per (layer, limits); colours on demand.
+    """The float layers of the open image and their display limits, cached per (layer, limits).
 
     ``layers`` maps a layer name ("image", "lens light", "residual") to its float
-    array. Replace arrays with :meth:`set_layer` (drops that layer's cache).
+    array. Replace arrays with :meth:`set_layer` (drops that layer's cached limits).
+    The canvas quantises and colours only the part it shows (:func:`quantise`,
+    :func:`colour_table`), so a stretch or colour-map change costs the screen's
+    pixels, not the image's.
     """
 
     def __init__(self) -> None:
         self._layers: dict[str, np.ndarray] = {}
-        self._levels: dict[tuple[str, str], tuple[np.ndarray, tuple[float, float]]] = {}
+        self._limits: dict[tuple[str, str], tuple[float, float]] = {}
 
     def set_layer(self, name: str, data: np.ndarray | None) -> None:
-        self._levels = {k: v for k, v in self._levels.items() if k[0] != name}
+        self._limits = {k: v for k, v in self._limits.items() if k[0] != name}
         if data is None:
             self._layers.pop(name, None)
         else:
@@ -171,25 +176,31 @@ class DisplayPipeline:
 
     def clear(self) -> None:
         self._layers.clear()
-        self._levels.clear()
+        self._limits.clear()
 
     def has_layer(self, name: str) -> bool:
         return name in self._layers
 
-    def levels(self, layer: str, limits: str) -> tuple[np.ndarray, tuple[float, float]]:
-        """Quantised levels of ``layer`` and the (lo, hi) limits used."""
+    def data(self, layer: str) -> np.ndarray:
+        return self._layers[layer]
+
+    def limits(self, layer: str, limits: str) -> tuple[float, float]:
+        """Display limits (lo, hi) of ``layer`` for a choice of :data:`LIMITS` (cached)."""
         key = (layer, limits)
-        if key not in self._levels:
-            data = self._layers[layer]
-            lo, hi = image_limits(data, limits)
-            self._levels[key] = (quantise(data, lo, hi), (lo, hi))
-        return self._levels[key]
+        if key not in self._limits:
+            self._limits[key] = image_limits(self._layers[layer], limits)
+        return self._limits[key]
+
+    def levels(self, layer: str, limits: str) -> tuple[np.ndarray, tuple[float, float]]:
+        """Quantised levels of the whole ``layer`` and the (lo, hi) limits used."""
+        lo_hi = self.limits(layer, limits)
+        return quantise(self._layers[layer], *lo_hi), lo_hi
 
     def colours(self, choice: DisplayChoice, flip_rows: bool = False) -> np.ndarray:
-        """(ny, nx) C-ordered uint32 colours of the chosen layer.
+        """(ny, nx) C-ordered uint32 colours of the whole chosen layer.
 
         Row 0 is the first stored row, or the last one with ``flip_rows`` (FITS
-        images are shown with row 0 at the bottom); the flip costs nothing extra.
+        images are shown with row 0 at the bottom).
         """
         levels, _ = self.levels(choice.layer, choice.limits)
         if flip_rows:

@@ -14,6 +14,10 @@ from PySide6.QtWidgets import (QComboBox, QFormLayout, QHBoxLayout, QLabel, QLin
 from lensmass.gui.model import CUSTOM_COSMOLOGY, WindowModel
 from lensmass.gui.undo import SetChoice, SetText
 
+#: astropy's built-in realisations (astropy.cosmology.realizations.available; a test checks the list),
+#: named here so the window opens without importing astropy.cosmology.
+COSMOLOGY_PRESETS = ("Planck18", "Planck15", "Planck13", "WMAP9", "WMAP7", "WMAP5", "WMAP3", "WMAP1")
+
 #: Seconds of quiet after typing before a field is committed.
 COMMIT_DELAY_MS = 350
 
@@ -100,9 +104,7 @@ class InputsPanel(QWidget):
         self.zs_label = QLabel("z source")
         form.addRow(self.zs_label, pair("z_s", "z_s_err", "e.g. 1.2 or 1-3", "0"))
 
-        from lensmass.core.cosmology import preset_names
-
-        self.cosmology = _choice_box("cosmology", [(n, n) for n in preset_names()]
+        self.cosmology = _choice_box("cosmology", [(n, n) for n in COSMOLOGY_PRESETS]
                                      + [(CUSTOM_COSMOLOGY, "custom Lambda-CDM")],
                                      "Cosmology of the distances: an astropy preset or your own H0, Omega_m, Omega_Lambda.")
         form.addRow("cosmology", self.cosmology)

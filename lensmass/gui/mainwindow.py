@@ -25,7 +25,7 @@ from PySide6.QtWidgets import (QApplication, QButtonGroup, QCheckBox, QComboBox,
 from lensmass.core.errors import LensInputError
 from lensmass.gui import measuring
 from lensmass.gui.canvas import SYSTEM_COLOURS, FitShape, ImageCanvas, Mark
-from lensmass.gui.display import COLORMAPS, LIMITS, STRETCHES, DisplayChoice, DisplayPipeline
+from lensmass.gui.display import COLORMAPS, LIMITS, STRETCHES, DisplayChoice, DisplayPipeline, colour_table
 from lensmass.gui.inputs_panel import InputsPanel
 from lensmass.gui.model import TOPICS, WindowModel
 from lensmass.gui.plots_panel import PlotsPanel
@@ -65,10 +65,12 @@ class MainWindow(QMainWindow):
 
     ``offer_recovery`` looks for autosaves of a crashed run at start-up;
     ``interactive=False`` (tests, screenshots) never opens a blocking dialog.
+    ``load_panels``: True builds the registered dock panels now, "deferred" just
+    after the first paint (the command line's choice: the image shows sooner).
     """
 
     def __init__(self, settings: QSettings | None = None, *, offer_recovery: bool = True,
-                 interactive: bool = True, load_panels: bool = True):
+                 interactive: bool = True, load_panels: bool | str = True):
         super().__init__()
         self.settings = settings or QSettings(APP_NAME, APP_NAME)
         self.interactive = interactive
@@ -106,7 +108,10 @@ class MainWindow(QMainWindow):
         self._autosave_timer.timeout.connect(self.autosave)
         self._autosave_timer.start()
         self._restore_settings()
-        if load_panels:
+        if load_panels == "deferred":
+            # After the first paint: the window shows the image before the extra panels import.
+            QTimer.singleShot(0, self._load_panels)
+        elif load_panels:
             self._load_panels()
         self._refresh_marks()
         self._refresh_systems()
@@ -533,10 +538,8 @@ class MainWindow(QMainWindow):
             self.fit_lens_light(then_layer=wanted_layer)
 
     def _after_open(self) -> None:
-        self.pipeline.clear()
         self._sync_display_widgets()
-        self._push_layers()
-        self._recolour(keep_view=False)
+        self._recolour(keep_view=False)  # layers and limits are already cached by the "image" notice
         self._refit_all()
         self._refresh_systems()
         self._refresh_marks()
@@ -771,7 +774,9 @@ class MainWindow(QMainWindow):
         choice = self._display_choice()
         if not self.pipeline.has_layer(choice.layer):
             choice = DisplayChoice(**{**choice.__dict__, "layer": "image"})
-        self.canvas.set_colours(self.pipeline.colours(choice, flip_rows=img.flip_rows), img.flip_rows, keep_view)
+        limits = self.pipeline.limits(choice.layer, choice.limits)
+        table = colour_table(choice.stretch, choice.colormap, bool(choice.invert))
+        self.canvas.set_source(self.pipeline.data(choice.layer), limits, table, img.flip_rows, keep_view)
         self._update_zoom_label()
 
     def _sync_display_widgets(self) -> None:

@@ -33,6 +33,8 @@ def measure_system(system, centre: tuple[float, float] | None, image: ImageState
     centre when one is set. The fit is done in arcsec on the sky by the core; the
     returned shape is converted back to image pixels for drawing.
     """
+    if not system.points and not system.images:
+        raise LensInputError(f"Arc system {system.name} has no marks yet: click along its arc (or on its images).")
     einstein = _core("einstein", "Measuring theta_E")
     if image.pixel_scale_arcsec is None:
         raise LensInputError("This image has no pixel scale (no WCS): set it with Measure > Set pixel scale.")

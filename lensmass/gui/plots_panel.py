@@ -2,15 +2,15 @@
 Monte Carlo distribution of M(<theta_E), drawn with matplotlib.
 
 Curves come from :mod:`lensmass.core.mass_profiles`; the panel only draws them.
-It redraws when a new result arrives, never on display changes.
+It redraws when a new result arrives, never on display changes. matplotlib is
+imported when the first result is drawn, so the window opens without waiting for it.
 """
 
 from __future__ import annotations
 
 import numpy as np
-from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
-from matplotlib.figure import Figure
-from PySide6.QtWidgets import QTabWidget, QVBoxLayout, QWidget
+from PySide6.QtCore import Qt
+from PySide6.QtWidgets import QLabel, QTabWidget, QVBoxLayout, QWidget
 
 from lensmass.core.errors import LensInputError
 from lensmass.gui.model import WindowModel
@@ -80,19 +80,36 @@ class PlotsPanel(QWidget):
         super().__init__(parent)
         self.model = model
         self.tabs = QTabWidget()
-        self.mass_figure = Figure(figsize=(4.2, 2.6), dpi=96, layout="constrained")
-        self.hist_figure = Figure(figsize=(4.2, 2.6), dpi=96, layout="constrained")
-        self.mass_canvas = FigureCanvasQTAgg(self.mass_figure)
-        self.hist_canvas = FigureCanvasQTAgg(self.hist_figure)
-        self.tabs.addTab(self.mass_canvas, "Enclosed mass")
-        self.tabs.addTab(self.hist_canvas, "Mass draws")
+        self.mass_figure = self.hist_figure = None
+        self.mass_canvas = self.hist_canvas = None
+        self._placeholders = [QLabel("No estimate yet."), QLabel("No estimate yet.")]
+        for label, title in zip(self._placeholders, ("Enclosed mass", "Mass draws")):
+            label.setAlignment(Qt.AlignCenter)
+            label.setWordWrap(True)
+            self.tabs.addTab(label, title)
         lay = QVBoxLayout(self)
         lay.setContentsMargins(2, 2, 2, 2)
         lay.addWidget(self.tabs)
         self._drawn_for = None
         self.problems: dict[str, str | None] = {}
         model.subscribe(self._on_model)
-        self.redraw()
+
+    def _ensure_figures(self) -> None:
+        """Create the matplotlib figures on first use (imports matplotlib's Qt backend)."""
+        if self.mass_figure is not None:
+            return
+        from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
+        from matplotlib.figure import Figure
+
+        self.mass_figure = Figure(figsize=(4.2, 2.6), dpi=96, layout="constrained")
+        self.hist_figure = Figure(figsize=(4.2, 2.6), dpi=96, layout="constrained")
+        self.mass_canvas = FigureCanvasQTAgg(self.mass_figure)
+        self.hist_canvas = FigureCanvasQTAgg(self.hist_figure)
+        current = self.tabs.currentIndex()
+        self.tabs.clear()
+        self.tabs.addTab(self.mass_canvas, "Enclosed mass")
+        self.tabs.addTab(self.hist_canvas, "Mass draws")
+        self.tabs.setCurrentIndex(current)
 
     def _on_model(self, topic: str) -> None:
         if topic == "result":
@@ -100,9 +117,13 @@ class PlotsPanel(QWidget):
 
     def redraw(self) -> None:
         result = self.model.result
-        if result is self._drawn_for and result is not None:
+        if result is self._drawn_for and self.problems:
             return
         self._drawn_for = result
+        if result is None and self.mass_figure is None:
+            self.problems = {"mass": "No estimate yet.", "draws": "No estimate yet."}
+            return
+        self._ensure_figures()
         pal = self.palette()
         bg = pal.color(pal.ColorRole.Window).name()
         fg = pal.color(pal.ColorRole.WindowText).name()

@@ -294,16 +294,16 @@ def test_display_changes_recolour_only(qtbot, ring_window):
     window, truth = ring_window
     mark_ring(qtbot, window, truth)
     fit = window.model.fit
-    levels_before = window.pipeline.levels("image", window.model.display.limits)[0]
-    before = window.canvas._buffer.copy()
+    limits_before = dict(window.pipeline._limits)
+    before = window.canvas.visible_colours().copy()
     window.colormap_box.setCurrentText("viridis")
     window.colormap_box.activated.emit(window.colormap_box.currentIndex())
     window.stretch_box.setCurrentText("logarithmic")
     window.stretch_box.activated.emit(window.stretch_box.currentIndex())
     window.invert_box.setChecked(True)
     assert window.model.fit is fit  # no refit
-    assert window.pipeline.levels("image", window.model.display.limits)[0] is levels_before  # no re-quantising
-    assert not np.array_equal(before, window.canvas._buffer)
+    assert window.pipeline._limits == limits_before  # no new limits: only the colour table changed
+    assert not np.array_equal(before, window.canvas.visible_colours())
 
 
 # ------------------------------------------------------------------------------ workers, export
