@@ -144,21 +144,23 @@ def mass_map(
     w_in = w[inside]
     e_in = (np.asarray(e1, float) + 1j * np.asarray(e2, float))[inside]
     shape = (npad, npad)
-    kernel = _gaussian_hat(shape, smoothing_arcsec / pix)
-    kernel_ks = np.conj(_d_hat(shape))
+    # single precision for the transforms (about twice as fast; 1e-7 relative is far below shape noise)
+    kernel = _gaussian_hat(shape, smoothing_arcsec / pix).astype(np.float32)
+    kernel_ks = np.conj(_d_hat(shape)).astype(np.complex64)
     wgrid = np.bincount(flat, weights=w_in, minlength=npad * npad).reshape(shape)
     wsmooth = sfft.irfft2(sfft.rfft2(wgrid, workers=-1) * kernel[:, : npad // 2 + 1], s=shape, workers=-1)
     empty = wsmooth < WEIGHT_FLOOR * np.max(wsmooth)
-    inv_w = np.where(empty, 0.0, 1.0 / np.where(empty, 1.0, wsmooth))
+    inv_w = np.where(empty, 0.0, 1.0 / np.where(empty, 1.0, wsmooth)).astype(np.float32)
     crop = (slice(n_pixels // 2, n_pixels // 2 + n_pixels),) * 2
 
     def kappa_of(ellipticity):
         we = ellipticity * w_in
-        grid = (np.bincount(flat, weights=we.real, minlength=npad * npad)
-                + 1j * np.bincount(flat, weights=we.imag, minlength=npad * npad)).reshape(shape)
+        grid = np.empty(shape, np.complex64)
+        grid.real = np.bincount(flat, weights=we.real, minlength=npad * npad).reshape(shape)
+        grid.imag = np.bincount(flat, weights=we.imag, minlength=npad * npad).reshape(shape)
         gamma = sfft.ifft2(sfft.fft2(grid, workers=-1) * kernel, workers=-1) * inv_w
         kappa = sfft.ifft2(kernel_ks * sfft.fft2(gamma, workers=-1), workers=-1)
-        return kappa[crop]
+        return kappa[crop].astype(np.complex128)
 
     kappa = kappa_of(e_in)
     noise = None

@@ -12,6 +12,7 @@ the convergence signal-to-noise over the image.
 
 from __future__ import annotations
 
+import copy
 import math
 from pathlib import Path
 from typing import Any
@@ -341,7 +342,8 @@ class ShearPanel(QWidget):
             self._say(str(exc))
             return
         image = self.model.image
-        wcs = image.wcs if image is not None else None
+        # the worker gets its own copy: astropy WCS objects are not safe to share between threads
+        wcs = copy.deepcopy(image.wcs) if image is not None and image.wcs is not None else None
         self._request = request
         self._say("Measuring the shear...")
         self.window.run_task(shear_task(request, wcs), "Shear profile", self._on_result, self._on_error)
