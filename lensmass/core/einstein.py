@@ -159,7 +159,8 @@ def measure_theta_e_from_points(
         The lens centre in pixels; holds the circle/ellipse centre there.
     refine : bool
         Move each point onto the brightness ridge first (:func:`lensmass.core.ridge.refine_to_ridge`),
-        using ``refine_image`` (e.g. the lens-subtracted residual) or the image data.
+        using ``refine_image`` (e.g. the lens-subtracted residual) or the image data; the ridge
+        search removes the local lens-light gradient itself, so the plain image works.
     point_err_pix : float
         1-sigma uncertainty of each position (pixels); a floor under the fit's scatter.
     pixel_scale_arcsec, pixel_scale_err_arcsec, pixel_matrix_arcsec : optional
@@ -192,19 +193,6 @@ def measure_theta_e_from_points(
         else:
             rough = fit_circle(px, py) if px.size >= 3 else None
             rc = (rough.center_x, rough.center_y) if rough else (px.mean(), py.mean())
-        if refine_image is None:
-            # The lens galaxy's light gradient would pull the points inwards: refine on the residual.
-            from lensmass.core.lenslight import fit_lens_light
-
-            # Leave the arc's annulus out of the lens-light fit so the arc does not pull the model.
-            ny, nx = pixels.shape
-            yy, xx = np.ogrid[:ny, :nx]
-            r_arc = float(np.mean(np.hypot(px - rc[0], py - rc[1])))
-            ring_mask = np.abs(np.hypot(xx - rc[0], yy - rc[1]) - r_arc) <= max(2.5, 0.25 * r_arc)
-            light = fit_lens_light(pixels, rc[0], rc[1], mask=ring_mask)
-            if light.ok:
-                pixels = light.residual
-                notes.append("Points were refined on the lens-subtracted image (Sersic lens-light model).")
         moved = [refine_to_ridge(pixels, a, b, rc[0], rc[1]) for a, b in zip(px, py)]
         n_bad = sum(not m.ok for m in moved)
         px = np.array([m.x for m in moved])

@@ -23,6 +23,8 @@ from scipy.ndimage import map_coordinates
 DEFAULT_HALF_WINDOW_PIX = 4.0
 #: A ridge must rise above the chord of the window by this fraction of the profile's range.
 MIN_BUMP_FRACTION = 0.02
+#: Half-width (pixels) of the window re-centred on the peak for the sub-pixel vertex.
+RECENTRE_HALF_PIX = 2.5
 
 
 @dataclass(frozen=True)
@@ -120,11 +122,54 @@ def refine_to_ridge(
     if k == 0 or k == len(s) - 1 or bump.max() <= MIN_BUMP_FRACTION * (raw.max() - raw.min()):
         return RidgePoint(x, y, r0, 0.0, float(prof[k]), False,
                           "No brightness ridge inside the search window: the point was left where it was.")
-    s_best = ridge_peak(s, prof, float(s[k]), 2.0) if len(s) >= 5 else float(s[k])
-    if not (s[0] < s_best < s[-1]):
+    # Resample a window centred on the peak (so the chord is not tilted by the window's edge), twice.
+    s_best = float(s[k])
+    w2 = RECENTRE_HALF_PIX
+    for _ in range(2):
+        s2 = s_best + np.arange(-w2, w2 + 0.5 * step_pix, step_pix)
+        s2 = s2[r0 + s2 > 0.5]
+        if s2.size < 5:
+            break
+        p2 = _profile(patch, x - x0, y - y0, ux, uy, s2, t)
+        if blur_correction:
+            p2 = p2 * np.sqrt((r0 + s2) / r0)
+        new = _local_peak(s2, p2, int(np.argmin(np.abs(s2 - s_best))), len(s2))
+        if abs(new - s_best) > w2:
+            break
+        s_best = new
+    if not (s[0] <= s_best <= s[-1]):
         s_best = float(s[k])
     nxp, nyp = x + s_best * ux, y + s_best * uy
     return RidgePoint(float(nxp), float(nyp), r0 + s_best, abs(s_best), float(prof[k]), True)
+
+
+def _local_peak(s: np.ndarray, prof: np.ndarray, k: int, half: int) -> float:
+    """Peak near index k: subtract the chord of a window centred on the peak (removing a linear
+    gradient without tilting a symmetric peak), then take the vertex of a parabola through the
+    logarithm of the samples above half the maximum (exact for a Gaussian); re-centred twice."""
+    best = float(s[k])
+    for _ in range(2):
+        lo, hi = max(0, k - half), min(len(s) - 1, k + half)
+        seg_s, seg = s[lo:hi + 1], prof[lo:hi + 1]
+        flat = seg - (seg[0] + (seg[-1] - seg[0]) * (seg_s - seg_s[0]) / (seg_s[-1] - seg_s[0] or 1.0))
+        j = int(np.argmax(flat))
+        if flat[j] <= 0:
+            break
+        a, b = j, j + 1  # the contiguous run above half the peak
+        while a > 0 and flat[a - 1] > 0.5 * flat[j]:
+            a -= 1
+        while b < len(seg) and flat[b] > 0.5 * flat[j]:
+            b += 1
+        if b - a < 3:
+            a, b = max(0, j - 1), min(len(seg), j + 2)
+        if b - a < 3 or np.any(flat[a:b] <= 0):
+            break
+        # A Gaussian is a parabola in log: its vertex is the peak (uses the whole upper half).
+        a2, a1, _ = np.polyfit(seg_s[a:b] - seg_s[j], np.log(flat[a:b]), 2)
+        best = float(seg_s[j] - a1 / (2 * a2)) if a2 < 0 else float(seg_s[j])
+        best = float(np.clip(best, seg_s[a], seg_s[b - 1]))
+        k = int(np.argmin(np.abs(s - best)))
+    return best
 
 
 def ridge_peak(radii: np.ndarray, values: np.ndarray, r_start: float, width: float) -> float:
