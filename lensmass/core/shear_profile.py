@@ -464,7 +464,12 @@ def shear_profile(
         weights.update(wbeta=wb, wbeta2=wb * beta_arr)
     if sigma_cr_msun_per_mpc2 is not None:
         sc = np.broadcast_to(np.asarray(sigma_cr_msun_per_mpc2, float), theta.shape)
-        wd = w / (sc * sc)
+        if not np.all(np.isfinite(sc)):  # sources not behind the lens carry no Delta Sigma weight
+            sc = np.where(np.isfinite(sc), sc, np.inf)
+            wd = np.where(np.isfinite(sc), w / (sc * sc), 0.0)
+            sc = np.where(np.isfinite(sc), sc, 0.0)
+        else:
+            wd = w / (sc * sc)
         wd2 = wd * wd
         dt, dx = sc * e_t, sc * e_x
         weights.update(d=wd, dt=wd * dt, dx=wd * dx, d2=wd2, d2t=wd2 * dt, d2x=wd2 * dx, d2ee=wd2 * (dt * dt + dx * dx))

@@ -145,3 +145,14 @@ def test_delta_sigma_is_sigma_cr_times_shear_for_one_redshift():
     sc = sigma_crit_msun_per_mpc2(d_l, d_s, d_ls)
     p = shear_profile(theta, et, et * 0, np.ones(1000), [10, 50, 100], sigma_cr_msun_per_mpc2=sc, d_l_mpc=float(d_l))
     np.testing.assert_allclose(p.delta_sigma_msun_per_mpc2, sc * p.g_t, rtol=1e-12)
+
+
+def test_delta_sigma_ignores_sources_in_front_of_the_lens():
+    # A source not behind the lens has Sigma_cr = infinity and no lensing weight (w / Sigma_cr^2 = 0),
+    # common practice; the inverse-variance weighted mean of the rest is (1e14, 1.2e14) Msun/Mpc^2 by hand.
+    th = np.array([10.0, 20, 30, 40])
+    e = np.full(4, 0.1)
+    sc = np.array([1e15, np.inf, 2e15, 1e15])
+    p = shear_profile(th, e, 0 * e, np.ones(4), [5, 25, 50], sigma_cr_msun_per_mpc2=sc, d_l_mpc=1000.0)
+    np.testing.assert_allclose(p.delta_sigma_msun_per_mpc2, [1e14, 1.2e14], rtol=1e-12)
+    assert np.all(np.isfinite(p.delta_sigma_err_msun_per_mpc2))
