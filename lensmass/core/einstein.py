@@ -318,6 +318,8 @@ def measure_theta_e_auto_ring(
     """Run the ring finder and turn its radius into theta_E; returns (measurement, RingResult)."""
     from lensmass.core.ringfinder import find_ring
 
+    if image is None:
+        raise LensInputError("The ring finder needs an image: give the image file (or mark points instead).")
     _, scale, scale_err, to_sky, data, notes = _geometry(image, pixel_scale_arcsec, pixel_scale_err_arcsec, None)
     if data is None:
         raise LensInputError("The ring finder needs the image pixels; open the image first.")
