@@ -124,7 +124,7 @@ def main() -> None:
     def first_paint():
         window.model.dirty = False
         window.open_path(str(path))
-        window.canvas.repaint()
+        window.canvas.grab()  # a full render of the canvas, as a repaint
 
     first_paint()
     report("first paint of a 4096 x 4096 FITS", best_of(first_paint, 3), 0.5)
@@ -137,7 +137,7 @@ def main() -> None:
     for change in choices * 2:
         t0 = time.perf_counter()
         window.set_display(**change)
-        window.canvas.repaint()
+        window.canvas.grab()  # a full render of the canvas, as a repaint
         times.append(time.perf_counter() - t0)
     report("stretch or colour-map change on it (median)", float(np.median(times)), 0.1)
     report("stretch or colour-map change on it (worst)", float(np.max(times)), 0.1)
@@ -153,7 +153,7 @@ def main() -> None:
 
     def add_point():
         window.undo_stack.push(AddMark(window.model, "point", 0, (c + 30.5, c + 0.3)))
-        window.canvas.repaint()
+        window.canvas.grab()  # a full render of the canvas, as a repaint
         window.undo_stack.undo()
 
     add_point()

@@ -20,7 +20,28 @@ def application():
         app.setApplicationName("lensmass")
         app.setOrganizationName("lensmass")
         app.setStyle("Fusion")  # follows the system light/dark colour scheme in Qt 6
+        sys.excepthook = _report_unexpected
     return app
+
+
+def _report_unexpected(kind, error, tb) -> None:
+    """An unexpected error inside the window: one sentence in the status bar, the work is kept.
+
+    The traceback goes to stderr only when LENSMASS_DEBUG is set.
+    """
+    from PySide6.QtWidgets import QApplication
+
+    if os.environ.get("LENSMASS_DEBUG"):
+        sys.__excepthook__(kind, error, tb)
+    text = (f"Something went wrong inside lensmass ({kind.__name__}: {str(error)[:160]}); your marks are kept: "
+            "save the session and report the problem.")
+    if isinstance(error, LensInputError):
+        text = str(error)
+    for widget in QApplication.topLevelWidgets():
+        if hasattr(widget, "show_message") and hasattr(widget, "canvas"):
+            widget.show_message(text, 20000)
+            return
+    print(f"lensmass gui: {text}", file=sys.stderr)
 
 
 def wait_until_idle(window, timeout_s: float = 20.0) -> bool:

@@ -468,6 +468,16 @@ class MainWindow(QMainWindow):
         self.setWindowTitle(f"{name}{' *' if self.model.dirty else ''} - lensmass")
 
     # ================================================================ files
+    def dragEnterEvent(self, event) -> None:  # noqa: N802
+        if event.mimeData().hasUrls():
+            event.acceptProposedAction()
+
+    def dropEvent(self, event) -> None:  # noqa: N802
+        paths = [u.toLocalFile() for u in event.mimeData().urls() if u.isLocalFile()]
+        if paths:
+            event.acceptProposedAction()
+            self.open_path(paths[0])
+
     def open_dialog(self) -> None:
         start = self.settings.value("last_folder", str(Path.home()))
         path, _ = QFileDialog.getOpenFileName(self, "Open image or session", start,
