@@ -66,13 +66,11 @@ class ImageCanvas(QWidget):
     mark_delete_requested = Signal(object)
     hovered = Signal(float, float)          # image position under the cursor
     left_image = Signal()
-    files_dropped = Signal(list)
 
     def __init__(self, parent: QWidget | None = None):
         super().__init__(parent)
         self.setSizePolicy(QSizePolicy.Expanding, QSizePolicy.Expanding)
         self.setMouseTracking(True)
-        self.setAcceptDrops(True)
         self.setFocusPolicy(Qt.StrongFocus)
         self.setMinimumSize(320, 260)
         self._qimage = None
@@ -452,14 +450,3 @@ class ImageCanvas(QWidget):
     def leaveEvent(self, event) -> None:  # noqa: N802
         self.left_image.emit()
         super().leaveEvent(event)
-
-    # --------------------------------------------------------- drag & drop
-    def dragEnterEvent(self, event) -> None:  # noqa: N802
-        if event.mimeData().hasUrls():
-            event.acceptProposedAction()
-
-    def dropEvent(self, event) -> None:  # noqa: N802
-        paths = [u.toLocalFile() for u in event.mimeData().urls() if u.isLocalFile()]
-        if paths:
-            self.files_dropped.emit(paths)
-            event.acceptProposedAction()

@@ -392,7 +392,6 @@ class MainWindow(QMainWindow):
         c.mark_delete_requested.connect(self._on_mark_delete)
         c.hovered.connect(self._on_hover)
         c.left_image.connect(lambda: self.position_label.setText(""))
-        c.files_dropped.connect(lambda paths: self.open_path(paths[0]))
         self.tool_buttons.idClicked.connect(lambda i: self._set_tool(TOOLS[i][0]))
         self.tool_buttons.idToggled.connect(lambda i, on: on and self._set_tool(TOOLS[i][0]))
         self.snap_box.toggled.connect(self._on_snap)
@@ -468,7 +467,7 @@ class MainWindow(QMainWindow):
         self.setWindowTitle(f"{name}{' *' if self.model.dirty else ''} - lensmass")
 
     # ================================================================ files
-    def dragEnterEvent(self, event) -> None:  # noqa: N802
+    def dragEnterEvent(self, event) -> None:  # noqa: N802 (files dropped anywhere, the canvas included)
         if event.mimeData().hasUrls():
             event.acceptProposedAction()
 

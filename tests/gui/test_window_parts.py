@@ -221,3 +221,38 @@ def test_the_command_writes_a_screenshot_and_refuses_bad_input_in_one_line(tmp_p
                           "--screenshot", str(out)], cwd=REPO, env=env, capture_output=True, text=True, timeout=60)
     assert bad.returncode == 2
     assert bad.stderr.strip().count("\n") == 0 and "No such image" in bad.stderr
+
+
+# ------------------------------------------------------------------------- opening, settings
+def test_dropping_a_file_opens_it_and_it_joins_the_recent_list(qtbot, window):
+    from PySide6.QtCore import QMimeData, QUrl
+    from PySide6.QtGui import QDropEvent
+
+    path, _truth = demo_field("tris_double_b")
+    mime = QMimeData()
+    mime.setUrls([QUrl.fromLocalFile(str(path))])
+    event = QDropEvent(QPointF(200, 200), Qt.CopyAction, mime, Qt.LeftButton, Qt.NoModifier)
+    window.dropEvent(event)
+    assert "tris_double_b" in window.model.image.path
+    actions = window.recent_menu.actions()
+    assert actions and "tris_double_b" in actions[0].text()
+    window.model.dirty = False
+    window.new_measurement()
+    assert window.model.image is None
+    actions[0].trigger()  # File > Open recent > 1
+    assert "tris_double_b" in window.model.image.path
+
+
+def test_display_choices_and_last_folder_persist_between_runs(qtbot, make_window):
+    path, _truth = demo_field("tris_ring_a")
+    first = make_window()
+    first.open_path(str(path))
+    first.set_display(colormap="cividis", stretch="logarithmic", limits="zscale")
+    first.model.dirty = False
+    first.close()
+    second = make_window()
+    assert second.settings.value("last_folder") == str(path.parent)
+    second.open_path(str(path))
+    d = second.model.display
+    assert (d.colormap, d.stretch, d.limits) == ("cividis", "logarithmic", "zscale")
+    assert second.colormap_box.currentText() == "cividis"
