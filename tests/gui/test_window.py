@@ -406,3 +406,38 @@ def test_a_second_arc_system_has_its_own_source_redshift(qtbot, ring_window):
     assert b.result["mass_einstein_msun"] / a.result["mass_einstein_msun"] == pytest.approx(ratio, rel=1e-9)
     window.system_list.setCurrentRow(0)
     assert window.inputs_panel.fields["z_s"].edit.text() == f"{truth['z_s']:g}"
+
+
+def test_the_two_images_of_a_double_give_theta_e(qtbot, window):
+    path, truth = demo_field("tris_double_b")
+    assert window.open_path(str(path))
+    window.canvas.fit_to_window()
+    window.act_tools[1].trigger()  # "I": images of a multiple-image system
+    for x, y in truth["image_points_xy"]:
+        click_image(qtbot, window, x, y)
+    assert len(window.model.active_system.images) == 2
+    marks = [m for m in window.canvas.marks if m.kind == "image"]
+    assert len(marks) == 2
+    fit = window.model.fit
+    # Narayan & Bartelmann (1996): for an SIS the two images lie at theta_E +- beta, so half their
+    # separation is theta_E; truth file theta_E of this field (an SIS-like lens).
+    assert "half the separation" in fit.method
+    assert fit.theta_e_arcsec == pytest.approx(truth["theta_e_arcsec"], rel=0.1)
+    enter_redshifts(qtbot, window, truth["z_l"], truth["z_s"])
+    wait_for_result(qtbot, window)
+    assert label_float(window.results_panel.values["theta_e_arcsec"]) == pytest.approx(fit.theta_e_arcsec, rel=1e-3)
+
+
+def test_an_ellipse_fit_gives_the_equal_area_radius(qtbot, ring_window):
+    window, truth = ring_window
+    mark_ring(qtbot, window, truth)
+    window.shape_box.setCurrentText("ellipse")
+    window.shape_box.activated.emit(window.shape_box.currentIndex())
+    fit = window.model.fit
+    assert fit.shape == "ellipse" and fit.a_px >= fit.b_px
+    # Truth file: an SIE with theta_E = 1.4"; its critical curve is an ellipse of the same area as the
+    # circle of radius theta_E (Kormann, Schneider & Bartelmann 1994), so sqrt(a b) is theta_E.
+    assert fit.theta_e_arcsec == pytest.approx(truth["theta_e_arcsec"], rel=0.05)
+    assert np.sqrt(fit.a_px * fit.b_px) * truth["pixel_scale_arcsec"] == pytest.approx(fit.theta_e_arcsec, rel=1e-6)
+    window.act_undo.trigger()
+    assert window.model.fit.shape == "circle"
