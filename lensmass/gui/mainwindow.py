@@ -1202,10 +1202,14 @@ class MainWindow(QMainWindow):
         stem = Path(self.model.image.path).stem if self.model.image else "lens"
         path = self._ask_save_path("Export report", f"{stem}_report.pdf", "PDF (*.pdf);;PNG (*.png)")
         if path:
-            self.export_report(path)
+            self.export_report(path, background=True)
 
-    def export_report(self, path: str) -> Path | None:
-        """The one-page report of the selected arc system (PDF or PNG)."""
+    def export_report(self, path: str, background: bool = False) -> Path | None:
+        """The one-page report of the selected arc system (PDF or PNG).
+
+        With ``background`` the page is rendered off the GUI thread (the menu's way)
+        and None is returned at once; otherwise the path written is returned.
+        """
         from lensmass.io.report import Overlay, cutout, inputs_from_session, render_report
 
         if not self._check_results_ready():
@@ -1221,17 +1225,28 @@ class MainWindow(QMainWindow):
             points_px=list(system.points), images_px=list(system.images),
             circle_px=(fit.center_x, fit.center_y, fit.a_px) if fit.shape != "ellipse" else None,
             ellipse_px=(fit.center_x, fit.center_y, fit.a_px, fit.b_px, fit.angle_deg) if fit.shape == "ellipse" else None,
-            origin_px=tuple(float(v) for v in origin), label=f"system {system.name}: {fit.method}")
+            origin_px=tuple(float(v) for v in origin), label=f"system {system.name}, {fit.shape} fit")
         inputs = inputs_from_session(m.to_session(), m.active, fit.theta_e_arcsec, fit.theta_e_err_arcsec,
                                      Path(m.image.path).name)
+        cosmo, definition = m.session.cosmology.resolve(), m.session.halo_definition
+        title = f"Lens mass report: {Path(m.image.path).name}"
+
+        def render(progress=None, should_stop=None):
+            return render_report(path, cut, overlay, inputs, result, title=title,
+                                 subtitle=f"arc system {system.name}", cosmo=cosmo, halo_definition=definition)
+
+        def done(written):
+            self.show_message(f"Report written to {written.name}.")
+
+        if background:
+            self.run_task(render, "Writing the report", done)
+            return None
         try:
-            written = render_report(path, cut, overlay, inputs, result, title=f"Lens mass report: {Path(m.image.path).name}",
-                                    subtitle=f"arc system {system.name}", cosmo=m.session.cosmology.resolve(),
-                                    halo_definition=m.session.halo_definition)
+            written = render()
         except LensInputError as exc:
             self.show_error(str(exc))
             return None
-        self.show_message(f"Report written to {written.name}.")
+        done(written)
         return written
 
     def copy_results(self) -> str:

@@ -18,8 +18,12 @@ A panel is a ``QWidget`` subclass::
 
 ``app_model`` -- the :class:`lensmass.gui.model.WindowModel` (plain Python, no Qt).
     Read ``app_model.image`` (a :class:`lensmass.gui.model.ImageState` or None:
-    ``.path``, ``.data`` float array with NaN masked, ``.wcs``, ``.pixel_scale_arcsec``),
-    ``app_model.z_l``, ``app_model.cosmology_spec()``, ``app_model.result`` ...
+    ``.path``, ``.data`` float array with NaN masked, ``.wcs``, ``.pixel_scale_arcsec``,
+    ``.loaded`` the :class:`lensmass.io.images.LoadedImage`), ``app_model.session``
+    (the :class:`lensmass.io.session.Session`: ``.z_l``, ``.cosmology.resolve()``,
+    ``.arcs``, ``.centre``, ``.panels[name]`` for a panel's own saved state),
+    ``app_model.fit`` / ``app_model.result`` (the selected arc system's
+    :class:`lensmass.gui.model.SystemFit` and estimate result, or None) ...
     Subscribe with ``app_model.subscribe(callback)``; ``callback(topic)`` is called
     with one of :data:`lensmass.gui.model.TOPICS` ("image", "display", "marks",
     "inputs", "fit", "result", "validation"). Unsubscribe with ``app_model.unsubscribe``.
