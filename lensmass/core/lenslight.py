@@ -248,7 +248,7 @@ def blurred_sersic(p, gx: np.ndarray, gy: np.ndarray, step: float = 1.0) -> np.n
     """
     xx, yy = np.meshgrid(gx, gy)
     sb = sersic_surface_brightness(xx, yy, total_flux=np.exp(p[0]), r_eff_arcsec=np.exp(p[1]), n=p[2],
-                                   axis_ratio=p[3], angle_deg=p[4], x0=p[5], y0=p[6]) * step * step
+                                   axis_ratio=p[3], angle_deg=p[4], x0=p[5], y0=p[6])
     return gaussian_filter(sb, np.exp(p[8]) / step, mode="nearest", truncate=3.5) + p[7]
 
 

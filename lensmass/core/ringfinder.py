@@ -5,10 +5,12 @@ Method (our own):
 1. Centre: given, or the brightest smoothed pixel near the image centre.
 2. Lens light: an elliptical Sersic fit (:mod:`lensmass.core.lenslight`) is subtracted.
 3. The residual around the centre is binned in radius (half-pixel bins) and in
-   ``n_sectors`` equal sectors of azimuth. The azimuthal profile is the mean of the
-   sector means, and its error the larger of the pixel-noise error and the scatter
-   between sectors divided by sqrt(n_sectors): a single bright neighbour in one sector
-   raises that scatter and cannot pass for a ring.
+   ``n_sectors`` equal sectors of azimuth. Two azimuthal profiles are tested: the mean of
+   the sector means, with the larger of the pixel-noise error and the scatter between
+   sectors over sqrt(n_sectors) (a single bright neighbour raises that scatter), and the
+   median of the sector means with its pixel-noise error (x 1.2533, the efficiency of a
+   median of Gaussian values), blind to one bright neighbour. Both errors include a 1%
+   systematic floor on the lens-light model, so a bright core's misfit is no ring.
 4. The ring is the most significant peak of that profile, weighted by sqrt(r) to undo
    the inward shift of a blurred ring's peak (see :mod:`lensmass.core.ridge`).
 5. In each sector where the ring is detected (3 sigma), the ridge radius is measured;
@@ -44,6 +46,8 @@ RING_COVERAGE = 0.6
 DEFAULT_MAX_RADIUS_PIX = 300.0
 DEFAULT_MIN_RADIUS_PIX = 3.0
 BIN_PIX = 0.5
+#: Fractional accuracy assumed for the lens-light model (a systematic floor on the ring profile).
+LENS_MODEL_SYSTEMATIC = 0.01
 #: Second pass: the ring is masked out to this many ring widths (FWHM) either side of its ridge.
 MASK_HALF_WIDTHS = 1.5
 
@@ -245,15 +249,36 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
         pix_err = sigma / np.sqrt(np.maximum(counts.sum(axis=0), 1))
         scatter = np.sqrt(np.nansum(np.where(good, (smean - prof) ** 2, 0.0), axis=0) / np.maximum(n_good - 1, 1))
         sec_err = scatter / np.sqrt(np.maximum(n_good, 1))
+        # The median of the sector means: blind to a bright neighbour in one sector, and not
+        # penalised by the real azimuthal brightness variation of a lopsided ring.
+        med = np.nanmedian(np.where(good, smean, np.nan), axis=0)
+        med_err = 1.2533 * sigma * np.sqrt(np.nansum(np.where(good, 1.0 / counts, 0.0), axis=0)) / np.maximum(n_good, 1)
     err = np.maximum(pix_err, sec_err)
-    err = np.where(n_good >= max(3, n_sectors // 3), err, np.inf)
-    # Smooth the profile over about one PSF-width (3 bins) for the peak search.
+    if light is not None and light.ok:
+        # The lens-light model is good to a few per cent at best: add that systematic floor, so
+        # residuals of a bright galaxy's core cannot pass for a ring.
+        msums, mcounts, _ = _sector_profiles(light.model - light.sky, cx, cy, rmin, rmax, n_sectors)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            model_prof = msums.sum(axis=0) / np.maximum(mcounts.sum(axis=0), 1)
+        err = np.hypot(err, LENS_MODEL_SYSTEMATIC * np.abs(model_prof))
+        med_err = np.hypot(med_err, LENS_MODEL_SYSTEMATIC * np.abs(model_prof))
+    enough = n_good >= max(3, n_sectors // 3)
+    err = np.where(enough, err, np.inf)
+    med_err = np.where(enough, med_err, np.inf)
+    # Smooth the profiles over about one PSF-width (3 bins) for the peak search.
     kern = np.array([0.25, 0.5, 0.25])
     prof_s = np.convolve(np.nan_to_num(prof), kern, mode="same")
-    snr = prof_s / err
+    med_s = np.convolve(np.nan_to_num(med), kern, mode="same")
+    with np.errstate(invalid="ignore", divide="ignore"):
+        snr = prof_s / err
+        snr_med = med_s / med_err
     snr[~np.isfinite(snr)] = -np.inf
+    snr_med[~np.isfinite(snr_med)] = -np.inf
+    # The ring is where the mean profile is most significant (robust to one bright sector);
+    # its score is the better of the two significances there.
     k = int(np.argmax(snr))
-    score = float(max(snr[k], 0.0)) if np.isfinite(snr[k]) else 0.0
+    best = max(snr[k], snr_med[k])
+    score = float(max(best, 0.0)) if np.isfinite(best) else 0.0
     empty = RingResult(False, False, "none", float("nan"), float("nan"), score, 0.0, cx, cy, float("nan"),
                        float("nan"), float("nan"), np.array([]), np.array([]), radii, prof, err, sigma, res, light,
                        "", warnings)
