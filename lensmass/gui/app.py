@@ -19,9 +19,41 @@ def application():
         app = QApplication(sys.argv[:1])
         app.setApplicationName("lensmass")
         app.setOrganizationName("lensmass")
-        app.setStyle("Fusion")  # follows the system light/dark colour scheme in Qt 6
+        app.setStyle("Fusion")
+        follow_colour_scheme(app)
+        app.styleHints().colorSchemeChanged.connect(lambda _scheme: follow_colour_scheme(app))
         sys.excepthook = _report_unexpected
     return app
+
+
+def follow_colour_scheme(app) -> None:
+    """Use a dark palette when the system asks for dark (or LENSMASS_COLOUR_SCHEME=dark), else the system's.
+
+    Qt's own palette follows the system on most desktops; this covers platforms
+    that report a dark scheme but hand out a light palette.
+    """
+    from PySide6.QtCore import Qt
+    from PySide6.QtGui import QColor, QPalette
+
+    wanted = os.environ.get("LENSMASS_COLOUR_SCHEME", "").lower()
+    dark = wanted == "dark" or (wanted != "light" and app.styleHints().colorScheme() == Qt.ColorScheme.Dark)
+    if not dark:
+        app.setPalette(app.style().standardPalette())
+        return
+    pal = QPalette()
+    roles = {
+        QPalette.Window: "#20242b", QPalette.WindowText: "#dde3ea", QPalette.Base: "#171a1f",
+        QPalette.AlternateBase: "#262b33", QPalette.Text: "#dde3ea", QPalette.Button: "#2a3039",
+        QPalette.ButtonText: "#dde3ea", QPalette.Highlight: "#2f7f78", QPalette.HighlightedText: "#ffffff",
+        QPalette.ToolTipBase: "#2a3039", QPalette.ToolTipText: "#dde3ea", QPalette.PlaceholderText: "#7d8794",
+        QPalette.Mid: "#7d8794", QPalette.Dark: "#15181c", QPalette.Light: "#3a414c", QPalette.BrightText: "#ffffff",
+        QPalette.Link: "#6fc8bd",
+    }
+    for role, colour in roles.items():
+        pal.setColor(role, QColor(colour))
+    for role in (QPalette.Text, QPalette.ButtonText, QPalette.WindowText):
+        pal.setColor(QPalette.Disabled, role, QColor("#6b7480"))
+    app.setPalette(pal)
 
 
 def _report_unexpected(kind, error, tb) -> None:

@@ -256,3 +256,20 @@ def test_display_choices_and_last_folder_persist_between_runs(qtbot, make_window
     d = second.model.display
     assert (d.colormap, d.stretch, d.limits) == ("cividis", "logarithmic", "zscale")
     assert second.colormap_box.currentText() == "cividis"
+
+
+def test_the_window_follows_a_dark_colour_scheme(qtbot, monkeypatch):
+    from PySide6.QtWidgets import QApplication
+
+    from lensmass.gui.app import follow_colour_scheme
+
+    app = QApplication.instance()
+    monkeypatch.setenv("LENSMASS_COLOUR_SCHEME", "dark")
+    follow_colour_scheme(app)
+    try:
+        assert app.palette().color(app.palette().ColorRole.Window).lightness() < 60
+        assert app.palette().color(app.palette().ColorRole.WindowText).lightness() > 180
+    finally:
+        monkeypatch.setenv("LENSMASS_COLOUR_SCHEME", "light")
+        follow_colour_scheme(app)
+    assert app.palette().color(app.palette().ColorRole.Window).lightness() > 128
