@@ -219,28 +219,29 @@ def _secant_in_log_mass(mismatch, args, shape, tol: float = 1e-9, maxiter: int =
     to the bracketed solver.
     """
     lo_val, hi_val = INVERSION_LOG10_MASS_RANGE
-    x0 = np.full(shape, 12.0)
-    x1 = np.full(shape, 14.0)
-    f0 = mismatch(x0, *args)
-    f1 = mismatch(x1, *args)
-    settled = np.zeros(shape, dtype=bool)
-    active = np.ones(shape, dtype=bool)
+    n = int(np.prod(shape))
+    flat_args = tuple(np.broadcast_to(a, shape).ravel() for a in args)
+    x0 = np.full(n, 12.0)
+    x1 = np.full(n, 14.0)
+    f0 = mismatch(x0, *flat_args)
+    f1 = mismatch(x1, *flat_args)
+    settled = np.zeros(n, dtype=bool)
+    active = np.arange(n)
     for _ in range(maxiter):
+        xa0, xa1, fa0, fa1 = x0[active], x1[active], f0[active], f1[active]
         with np.errstate(divide="ignore", invalid="ignore"):
-            step = f1 * (x1 - x0) / (f1 - f0)
+            step = fa1 * (xa1 - xa0) / (fa1 - fa0)
         step = np.where(np.isfinite(step), step, 0.0)
-        x2 = np.clip(x1 - step, lo_val, hi_val)
-        settled |= active & (np.abs(x2 - x1) < tol) & (np.abs(f1) < 1e-8)
-        x0, f0 = np.where(active, x1, x0), np.where(active, f1, f0)
-        x1 = np.where(active, x2, x1)
-        active = ~settled
-        if not np.any(active):
+        xa2 = np.clip(xa1 - step, lo_val, hi_val)
+        done = (np.abs(xa2 - xa1) < tol) & (np.abs(fa1) < 1e-8)
+        x0[active], f0[active], x1[active] = xa1, fa1, xa2
+        settled[active[done]] = True
+        active = active[~done]
+        if active.size == 0:
             break
-        idx = np.flatnonzero(active.ravel())
-        sub = tuple(np.broadcast_to(a, shape).ravel()[idx] for a in args)
-        f1.ravel()[idx] = mismatch(x1.ravel()[idx], *sub)
+        f1[active] = mismatch(x1[active], *(a[active] for a in flat_args))
     ok = settled & (x1 > lo_val) & (x1 < hi_val)
-    return np.where(ok, x1, np.nan)
+    return np.where(ok, x1, np.nan).reshape(shape)
 
 
 def nfw_mass_for_einstein_radius(
