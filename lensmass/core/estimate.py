@@ -239,16 +239,8 @@ def estimate(
         result["mc_samples"] = n_samples
         result["mc_rejected"] = n_rejected
         result["mc_seed"] = seed
-        if n_rejected:
-            notes.append(
-                f"{n_rejected} of {n_samples} Monte Carlo draws had z_s <= z_l or a non-positive value "
-                "and were rejected."
-            )
-        nfw_ok = np.isfinite(sampled["nfw_m200_msun"])
-        if 0 < (~nfw_ok).sum() and nfw_ok.any():
-            notes.append(
-                f"In {int((~nfw_ok).sum())} draws no NFW halo could give the radius; the NFW intervals use the rest."
-            )
+        n_nfw_failed = int((~np.isfinite(sampled["nfw_m200_msun"])).sum())
+        notes.extend(monte_carlo_notes(n_samples, n_rejected, n_nfw_failed, int(keep.sum())))
         result["_samples"] = sampled  # for plots; dropped from JSON output
 
     if kind == "fixed":
@@ -269,21 +261,40 @@ def estimate(
         result["versus_zs"] = _versus_zs(float(theta), float(zl), kind, zs_model, cosmo, c_of_m,
                                          halo_definition, versus_zs_points)
 
-    m200 = np.asarray(result["nfw_m200_msun"], float)
-    if np.any(~np.isfinite(m200)):
+    notes.extend(model_notes(theta, result["nfw_m200_msun"], c_label))
+    result["notes"] = notes
+    result["models"] = model_descriptions(result["cosmology"], c_label, halo_definition)
+    return result
+
+
+def monte_carlo_notes(n_samples: int, n_rejected: int, n_nfw_failed: int, n_kept: int) -> list[str]:
+    """Caveats about the Monte Carlo draws (rejected draws, draws with no NFW solution)."""
+    notes = []
+    if n_rejected:
         notes.append(
-            f"No NFW halo between 1e6 and 1e18 Msun with {c_label} gives this Einstein radius at these "
-            "redshifts: the NFW numbers are empty."
+            f"{n_rejected} of {n_samples} Monte Carlo draws had z_s <= z_l or a non-positive value "
+            "and were rejected."
         )
-    if np.any(np.asarray(theta) < GALAXY_SCALE_ARCSEC):
+    if 0 < n_nfw_failed < n_kept:
+        notes.append(f"In {n_nfw_failed} draws no NFW halo could give the radius; the NFW intervals use the rest.")
+    return notes
+
+
+def model_notes(theta_e_arcsec, nfw_m200_msun, concentration_label: str) -> list[str]:
+    """Caveats about the models: an impossible NFW inversion, the galaxy-scale NFW bias."""
+    notes = []
+    if np.any(~np.isfinite(np.asarray(nfw_m200_msun, float))):
+        notes.append(
+            f"No NFW halo between 1e6 and 1e18 Msun with {concentration_label} gives this Einstein radius at "
+            "these redshifts: the NFW numbers are empty."
+        )
+    if np.any(np.asarray(theta_e_arcsec, float) < GALAXY_SCALE_ARCSEC):
         notes.append(
             "Galaxy-scale lens: an NFW-only halo overestimates the mass, because NFW is too shallow in the "
             "centre and the stars that make most of the Einstein radius are missing from the model."
         )
     notes.append("Masses are model-dependent estimates; see 'models' for the model behind each number.")
-    result["notes"] = notes
-    result["models"] = model_descriptions(result["cosmology"], c_label, halo_definition)
-    return result
+    return notes
 
 
 def _versus_zs(theta, zl, kind, zs_model, cosmo, c_of_m, definition, n_points) -> list[dict[str, float]]:

@@ -21,7 +21,13 @@ import numpy as np
 
 from lensmass.core.concentration import concentration_relation
 from lensmass.core.cosmology import cosmology_label, resolve_cosmology
-from lensmass.core.estimate import DERIVED_KEYS, GALAXY_SCALE_ARCSEC, derive_quantities, model_descriptions
+from lensmass.core.estimate import (
+    DERIVED_KEYS,
+    derive_quantities,
+    model_descriptions,
+    model_notes,
+    monte_carlo_notes,
+)
 from lensmass.core.uncertainty import DEFAULT_SAMPLES, normal_samples
 
 #: Percentiles behind median, 68% and 95% intervals (as in lensmass.core.uncertainty.summarize).
@@ -132,21 +138,10 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
             s = summaries[i]
             result.update({k: s[k] for k in ("medians", "intervals68", "intervals95")})
             result["mc_samples"], result["mc_rejected"], result["mc_seed"] = n, rejected[i], int(seeds[i])
-            if rejected[i]:
-                notes.append(f"{rejected[i]} of {n} Monte Carlo draws had z_s <= z_l or a non-positive value "
-                             "and were rejected.")
-            if 0 < s["_nfw_failed"] < s["_n_kept"]:
-                notes.append(f"In {s['_nfw_failed']} draws no NFW halo could give the radius; the NFW intervals "
-                             "use the rest.")
+            notes.extend(monte_carlo_notes(n, rejected[i], s["_nfw_failed"], s["_n_kept"]))
         for key in DERIVED_KEYS:
             result[key] = float(central[key][j])
-        if not np.isfinite(result["nfw_m200_msun"]):
-            notes.append(f"No NFW halo between 1e6 and 1e18 Msun with {c_label} gives this Einstein radius at these "
-                         "redshifts: the NFW numbers are empty.")
-        if theta[i] < GALAXY_SCALE_ARCSEC:
-            notes.append("Galaxy-scale lens: an NFW-only halo overestimates the mass, because NFW is too shallow in "
-                         "the centre and the stars that make most of the Einstein radius are missing from the model.")
-        notes.append("Masses are model-dependent estimates; see 'models' for the model behind each number.")
+        notes.extend(model_notes(theta[i], result["nfw_m200_msun"], c_label))
         result["notes"] = notes
         result["models"] = dict(models)
         results[i] = result
