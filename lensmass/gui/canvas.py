@@ -66,6 +66,7 @@ class ImageCanvas(QWidget):
     mark_delete_requested = Signal(object)
     hovered = Signal(float, float)          # image position under the cursor
     left_image = Signal()
+    view_changed = Signal()                 # zoom or pan changed
 
     def __init__(self, parent: QWidget | None = None):
         super().__init__(parent)
@@ -169,6 +170,7 @@ class ImageCanvas(QWidget):
         self._centre_on(nx / 2, ny / 2)
         self._fitted_once = True
         self.update()
+        self.view_changed.emit()
 
     def actual_size(self) -> None:
         """One image pixel per screen pixel, keeping the view centre."""
@@ -188,11 +190,13 @@ class ImageCanvas(QWidget):
         self._left = u - anchor.x() / zoom
         self._top = v - anchor.y() / zoom
         self.update()
+        self.view_changed.emit()
 
     def centre_on_image(self, x: float, y: float) -> None:
         u, v = self._display_coords(x, y)
         self._centre_on(u + 0.5, v + 0.5)
         self.update()
+        self.view_changed.emit()
 
     def _centre_on(self, u_edge: float, v_edge: float) -> None:
         self._left = u_edge - self.width() / (2 * self.zoom)
@@ -414,6 +418,7 @@ class ImageCanvas(QWidget):
             self._top = self._pan_origin[1] - (pos.y() - self._press.y()) / self.zoom
             self.setCursor(Qt.ClosedHandCursor)
             self.update()
+            self.view_changed.emit()
 
     def mouseReleaseEvent(self, event) -> None:  # noqa: N802
         if self._press is None:

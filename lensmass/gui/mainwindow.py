@@ -391,7 +391,8 @@ class MainWindow(QMainWindow):
         c.mark_released.connect(self._on_mark_released)
         c.mark_delete_requested.connect(self._on_mark_delete)
         c.hovered.connect(self._on_hover)
-        c.left_image.connect(lambda: self.position_label.setText(""))
+        c.left_image.connect(self.position_label.clear)
+        c.view_changed.connect(self._update_zoom_label)
         self.tool_buttons.idClicked.connect(lambda i: self._set_tool(TOOLS[i][0]))
         self.tool_buttons.idToggled.connect(lambda i, on: on and self._set_tool(TOOLS[i][0]))
         self.snap_box.toggled.connect(self._on_snap)
@@ -1062,7 +1063,6 @@ class MainWindow(QMainWindow):
             if layer is not None:
                 text += f"   {self.model.display.layer} {layer[row, col]:.4g}"
         self.position_label.setText(text)
-        self._update_zoom_label()
 
     def set_pixel_scale_dialog(self) -> None:
         img = self._image_or_hint()
