@@ -127,7 +127,7 @@ def run_window(path: str | None = None, screenshot: str | None = None, size: tup
             f = window.model.fit
             window.canvas.centre_on_image(f.center_x, f.center_y)
             window.canvas.zoom_to(max(window.canvas.zoom, min(window.canvas.width(), window.canvas.height())
-                                      / (7.0 * max(f.a_px, 1.0))))
+                                      / (11.0 * max(f.a_px, 1.0))))
             window.canvas.centre_on_image(f.center_x, f.center_y)
         app.processEvents()
         out = window.save_screenshot(screenshot)
