@@ -240,7 +240,7 @@ class ImageCanvas(QWidget):
         pal = self.palette()
         painter.fillRect(self.rect(), pal.color(pal.ColorRole.Dark).darker(140))
         if self._qimage is None:
-            painter.setPen(pal.color(pal.ColorRole.BrightText) if False else QColor("#9aa4b1"))
+            painter.setPen(QColor("#9aa4b1"))
             painter.drawText(self.rect().adjusted(24, 24, -24, -24), Qt.AlignCenter | Qt.TextWordWrap, self.hint)
             painter.end()
             return

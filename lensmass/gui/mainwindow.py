@@ -10,13 +10,12 @@ the cached image levels and nothing else.
 from __future__ import annotations
 
 import math
-import os
 from pathlib import Path
-from typing import Any, Callable
+from typing import Callable
 
 import numpy as np
 from PySide6.QtCore import QSettings, Qt, QTimer
-from PySide6.QtGui import QAction, QActionGroup, QKeySequence, QUndoStack
+from PySide6.QtGui import QAction, QKeySequence, QUndoStack
 from PySide6.QtWidgets import (QApplication, QButtonGroup, QCheckBox, QComboBox, QDialog, QDialogButtonBox,
                                QDockWidget, QFileDialog, QHBoxLayout, QInputDialog, QLabel, QListWidget,
                                QListWidgetItem, QMainWindow, QMessageBox, QProgressBar, QPushButton, QRadioButton,
@@ -27,9 +26,9 @@ from lensmass.gui import measuring
 from lensmass.gui.canvas import SYSTEM_COLOURS, FitShape, ImageCanvas, Mark
 from lensmass.gui.display import COLORMAPS, LIMITS, STRETCHES, DisplayChoice, DisplayPipeline, colour_table
 from lensmass.gui.inputs_panel import InputsPanel
-from lensmass.gui.model import TOPICS, WindowModel
+from lensmass.gui.model import WindowModel
 from lensmass.gui.plots_panel import PlotsPanel
-from lensmass.gui.results_panel import ResultsPanel, result_text
+from lensmass.gui.results_panel import ResultsPanel
 from lensmass.gui.undo import AddMark, AddSystem, MoveMark, RemoveMark, RemoveSystem, SetCentre, SetSystemShape
 from lensmass.gui.workers import TaskRunner
 
@@ -874,7 +873,7 @@ class MainWindow(QMainWindow):
             zs = f"z_s {s.z_s:g}" if s.z_s is not None else (
                 f"z_s {s.z_s_range[0]:g}-{s.z_s_range[1]:g}" if s.z_s_range else "z_s ?")
             item = QListWidgetItem(f"◆ {s.name}   {len(s.points)} pts, {len(s.images)} img   {zs}")
-            item.setForeground(Qt.GlobalColor.white if False else self._colour(i))
+            item.setForeground(self._colour(i))
             self.system_list.addItem(item)
         self.system_list.setCurrentRow(m.active)
         self.system_list.blockSignals(False)

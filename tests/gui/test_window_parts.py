@@ -273,3 +273,38 @@ def test_the_window_follows_a_dark_colour_scheme(qtbot, monkeypatch):
         monkeypatch.setenv("LENSMASS_COLOUR_SCHEME", "light")
         follow_colour_scheme(app)
     assert app.palette().color(app.palette().ColorRole.Window).lightness() > 128
+
+
+def test_after_a_crash_the_next_window_offers_the_autosave(qtbot, make_window, monkeypatch, tmp_path):
+    import json as _json
+
+    from PySide6.QtCore import QSettings
+    from PySide6.QtWidgets import QMessageBox
+
+    from lensmass.gui import mainwindow
+
+    path, truth = demo_field("tris_ring_a")
+    crashed = make_window()
+    crashed.open_path(str(path))
+    for x, y in truth["arc_points_xy"][::8]:
+        click_image(qtbot, crashed, x, y)
+    written = crashed.autosave()
+    # Pretend the writer died: an autosave whose process no longer runs.
+    data = _json.loads(written.read_text())
+    data["autosave"]["pid"] = 2**22 + 4321
+    written.write_text(_json.dumps(data))
+    asked = []
+
+    def answer(*args, **kwargs):
+        asked.append(args[2])
+        return QMessageBox.Yes
+
+    monkeypatch.setattr(mainwindow.QMessageBox, "question", staticmethod(answer))
+    fresh = mainwindow.MainWindow(QSettings(str(tmp_path / "other.ini"), QSettings.IniFormat), offer_recovery=False,
+                                  interactive=True, load_panels=False)
+    qtbot.addWidget(fresh)
+    fresh.offer_recovery()
+    assert asked and "did not close cleanly" in asked[0] and "tris_ring_a" in asked[0]
+    assert np.allclose(fresh.model.active_system.points, crashed.model.active_system.points)
+    assert not written.exists()  # recovered, so the autosave is gone
+    fresh.model.dirty = crashed.model.dirty = False
