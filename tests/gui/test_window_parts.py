@@ -308,3 +308,25 @@ def test_after_a_crash_the_next_window_offers_the_autosave(qtbot, make_window, m
     assert np.allclose(fresh.model.active_system.points, crashed.model.active_system.points)
     assert not written.exists()  # recovered, so the autosave is gone
     fresh.model.dirty = crashed.model.dirty = False
+
+
+def test_a_picture_without_wcs_asks_for_the_pixel_scale_then_measures(qtbot, window, tmp_path):
+    from PIL import Image
+
+    path, truth = demo_field("tris_ring_a")
+    from astropy.io import fits
+
+    data = fits.getdata(path).astype(float)
+    scaled = np.clip((data - np.nanmin(data)) / (np.nanpercentile(data, 99.5) - np.nanmin(data)), 0, 1)
+    png = tmp_path / "ring.png"
+    Image.fromarray((scaled[::-1] * 255).astype(np.uint8)).save(png)  # PNG rows run top to bottom
+    assert window.open_path(str(png))
+    assert window.model.image.pixel_scale_arcsec is None
+    ny = data.shape[0]
+    points = [(x, ny - 1 - y) for x, y in truth["arc_points_xy"][::6]]  # the same pixels, rows flipped
+    for x, y in points:
+        click_image(qtbot, window, x, y)
+    assert "pixel scale" in window.fit_label.text()
+    window.set_pixel_scale(truth["pixel_scale_arcsec"])
+    assert window.model.fit.theta_e_arcsec == pytest.approx(truth["theta_e_arcsec"], rel=0.05)
+    assert window.model.session.image.pixel_scale_arcsec == truth["pixel_scale_arcsec"]
