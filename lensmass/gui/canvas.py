@@ -296,7 +296,7 @@ class ImageCanvas(QWidget):
     def _pen(self, colour: str, width: float = 1.6, active: bool = True, style=Qt.SolidLine) -> QPen:
         c = QColor(colour)
         if not active:
-            c.setAlpha(130)
+            c.setAlpha(175)
         pen = QPen(c, width if active else width * 0.8, style)
         pen.setCosmetic(True)
         return pen
