@@ -115,3 +115,15 @@ def test_demo_command_writes_a_field_and_truth(tmp_path, capsys):
     assert im.pixel_scale_arcsec == pytest.approx(0.2)
     ra, dec = im.pixel_to_sky(t["center_x"], t["center_y"])
     assert (float(ra), float(dec)) == pytest.approx((201.4471, 4.1882), abs=1e-9)
+
+
+def test_save_residual_keeps_wcs(tmp_path, capsys):
+    out = tmp_path / "resid.fits"
+    code, _, err = _run(capsys, "measure", str(RING), "--auto-ring", "--zl", "0.25", "--zs", "0.9", "--samples",
+                        "200", "--save-residual", str(out), "--json")
+    assert code == 0, err
+    from lensmass.io.images import load_image
+
+    res = load_image(out)
+    assert res.pixel_scale_arcsec == pytest.approx(0.2)
+    assert abs(float(np.nanmedian(res.data))) < 0.2  # sky and lens light gone

@@ -46,6 +46,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--plane", type=int, metavar="N", help="plane of a 3-D cube (0-based)")
     parser.add_argument("--max-radius", type=float, metavar="ARCSEC", help="ring finder: largest radius searched")
     parser.add_argument("--accept-weak", action="store_true", help="ring finder: report a weak ring candidate too")
+    parser.add_argument("--save-residual", metavar="FILE",
+                        help="also write the lens-subtracted image (FITS, same header) to FILE")
     parser.add_argument("--zl", type=float, required=True, help="lens redshift")
     parser.add_argument("--zl-err", type=float, default=0.0, help="1-sigma error of z_l")
     zs = parser.add_mutually_exclusive_group(required=True)
@@ -88,14 +90,33 @@ def measure_from_args(args: argparse.Namespace) -> dict:
 
     if args.auto_ring:
         max_r = None if args.max_radius is None else args.max_radius / image.pixel_scale_arcsec
-        return measure_auto_ring(image, center=center, require_confident=not args.accept_weak, max_radius_pix=max_r,
-                                 estimate_fn=run_estimate)
-    from lensmass.io.points import read_points
+        result = measure_auto_ring(image, center=center, require_confident=not args.accept_weak,
+                                   max_radius_pix=max_r, estimate_fn=run_estimate)
+    else:
+        from lensmass.io.points import read_points
 
-    pts = read_points(args.points)
-    x, y = pts.to_pixels(image)
-    return measure_from_points(x, y, image=image, shape=args.shape, center=center, refine=args.refine,
-                               estimate_fn=run_estimate)
+        pts = read_points(args.points)
+        x, y = pts.to_pixels(image)
+        result = measure_from_points(x, y, image=image, shape=args.shape, center=center, refine=args.refine,
+                                     estimate_fn=run_estimate)
+    result["_image"] = image  # private: dropped from JSON
+    return result
+
+
+def save_residual(path: str, result: dict) -> None:
+    """Write the lens-subtracted image of this measurement (the ring finder's, or a fit at the centre)."""
+    from lensmass.io.images import write_image_fits
+
+    image = result["_image"]
+    ring = result.get("_ring")
+    if ring is not None and ring.residual is not None:
+        residual = ring.residual
+    else:
+        from lensmass.core.lenslight import fit_lens_light
+
+        residual = fit_lens_light(image.data, result["center_x"], result["center_y"]).residual
+    write_image_fits(path, residual, image.header, history="lens light subtracted by lensmass (Sersic model)")
+    result.setdefault("notes", []).append(f"Lens-subtracted image written to {path}.")
 
 
 def print_measurement(result: dict, as_json: bool, extra_rows=()) -> None:
@@ -113,6 +134,8 @@ def print_measurement(result: dict, as_json: bool, extra_rows=()) -> None:
 
 def run(args: argparse.Namespace) -> int:
     result = measure_from_args(args)
+    if args.save_residual:
+        save_residual(args.save_residual, result)
     result = apply_light_to_measurement(args, result)
     print_measurement(result, args.json, extra_rows=LIGHT_ROWS)
     return 0

@@ -504,3 +504,29 @@ def load_colour_composite(paths: Sequence[str | os.PathLike], *, hdu=None, stret
 def pixel_to_sky_function(image: LoadedImage) -> Callable | None:
     """``image.pixel_to_sky`` when the image has a WCS, else None (for callers that branch)."""
     return image.pixel_to_sky if image.wcs is not None else None
+
+
+def write_image_fits(path: str | os.PathLike, data: np.ndarray, header=None, history: str = "") -> None:
+    """Write a 2-D image as FITS (float32) atomically, keeping the WCS and other cards of ``header``."""
+    from astropy.io import fits
+
+    from lensmass.io.atomic import atomic_path
+
+    h = fits.Header()
+    if header is not None:
+        for card in header.cards:
+            if card.keyword not in ("SIMPLE", "BITPIX", "NAXIS", "NAXIS1", "NAXIS2", "NAXIS3", "EXTEND", "BSCALE",
+                                    "BZERO", "BLANK", "XTENSION", "PCOUNT", "GCOUNT", "ZIMAGE", "ZBITPIX",
+                                    "ZNAXIS", "ZNAXIS1", "ZNAXIS2", "ZTILE1", "ZTILE2", "ZCMPTYPE", "CHECKSUM",
+                                    "DATASUM", ""):
+                try:
+                    h.append(card)
+                except Exception:
+                    continue
+    if history:
+        h["HISTORY"] = history
+    try:
+        with atomic_path(path) as tmp:
+            fits.PrimaryHDU(np.asarray(data, np.float32), header=h).writeto(tmp, overwrite=True)
+    except PermissionError:
+        raise LensInputError(f"Cannot write {path}: permission denied; choose a folder you can write to.") from None

@@ -182,3 +182,19 @@ def test_points_files(tmp_path):
     (tmp_path / "hdr.csv").write_text("a,b\n1,2\n")
     with pytest.raises(LensInputError, match="header"):
         read_points(tmp_path / "hdr.csv")
+
+
+def test_load_colour_composite_from_three_bands(tmp_path):
+    from lensmass.io.images import load_colour_composite
+
+    hdr = _wcs_header(_rotated_cd(0.2, 0.2, 0.0))
+    paths = []
+    for i, v in enumerate((3.0, 2.0, 1.0)):
+        p = tmp_path / f"band{i}.fits"
+        fits.PrimaryHDU(np.full((20, 24), v, np.float32) + np.arange(24, dtype=np.float32), header=hdr).writeto(p)
+        paths.append(p)
+    assert load_colour_composite(paths).shape == (20, 24, 3)
+    shifted = _wcs_header(_rotated_cd(0.2, 0.2, 0.0), ra=201.45)
+    fits.PrimaryHDU(np.ones((20, 24), np.float32), header=shifted).writeto(tmp_path / "off.fits")
+    with pytest.raises(LensInputError, match="not aligned"):
+        load_colour_composite([paths[0], paths[1], tmp_path / "off.fits"])
