@@ -67,6 +67,7 @@ class ImageCanvas(QWidget):
     hovered = Signal(float, float)          # image position under the cursor
     left_image = Signal()
     view_changed = Signal()                 # zoom or pan changed
+    click_hint = Signal(str)                # a panel claimed (hint) or released ("") the clicks
 
     def __init__(self, parent: QWidget | None = None):
         super().__init__(parent)
@@ -216,11 +217,13 @@ class ImageCanvas(QWidget):
         """Route still left clicks on the image to ``handler(x, y)`` until released."""
         self._claim = (owner, handler, hint)
         self.setCursor(Qt.PointingHandCursor)
+        self.click_hint.emit(hint or f"Clicks on the image go to {owner} until it lets them go.")
 
     def release_clicks(self, owner: str) -> None:
         if self._claim is not None and self._claim[0] == owner:
             self._claim = None
             self.unsetCursor()
+            self.click_hint.emit("")
 
     @property
     def click_owner(self) -> str | None:

@@ -322,7 +322,9 @@ class MainWindow(QMainWindow):
         self.act_fit = A("&Fit to window", self.canvas.fit_to_window, QKeySequence("F"))
         self.act_actual = A("Actual size (1:1)", self.canvas.actual_size, QKeySequence("1"))
         self.act_zoom_in = A("Zoom in", lambda: self.canvas.zoom_by(1.25), QKeySequence("+"))
+        self.act_zoom_in.setShortcuts([QKeySequence("+"), QKeySequence("="), QKeySequence.ZoomIn])
         self.act_zoom_out = A("Zoom out", lambda: self.canvas.zoom_by(0.8), QKeySequence("-"))
+        self.act_zoom_out.setShortcuts([QKeySequence("-"), QKeySequence.ZoomOut])
         self.act_cycle_layer = A("Cycle image / lens light / residual", self.cycle_layer, QKeySequence("L"))
         self.act_invert = A("Invert", lambda: self.invert_box.toggle(), QKeySequence("V"))
         self.act_tools = []
@@ -392,6 +394,7 @@ class MainWindow(QMainWindow):
         c.hovered.connect(self._on_hover)
         c.left_image.connect(self.position_label.clear)
         c.view_changed.connect(self._update_zoom_label)
+        c.click_hint.connect(lambda hint: self.show_message(hint or "Clicks on the image add marks again.", 0 if hint else 4000))
         self.tool_buttons.idClicked.connect(lambda i: self._set_tool(TOOLS[i][0]))
         self.tool_buttons.idToggled.connect(lambda i, on: on and self._set_tool(TOOLS[i][0]))
         self.snap_box.toggled.connect(self._on_snap)

@@ -199,6 +199,8 @@ def test_a_registered_panel_docks_draws_and_claims_clicks(qtbot, make_window, mo
     click_image(qtbot, window, 40.0, 60.0)
     assert calls["clicks"] and calls["clicks"][0] == pytest.approx((40.0, 60.0), abs=0.5)
     assert not window.model.active_system.points  # the panel had the click, not the marking tool
+    window.canvas.claim_clicks("probe", lambda x, y: calls["clicks"].append((x, y)), hint="pick a galaxy")
+    assert window.last_message == "pick a galaxy"  # the panel's hint shows in the status bar
     window.canvas.release_clicks("probe")
     click_image(qtbot, window, 40.0, 60.0)
     assert len(window.model.active_system.points) == 1
