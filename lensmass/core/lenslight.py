@@ -29,7 +29,9 @@ from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, r
 from lensmass.core.raytrace import sersic_b, sersic_intensity_at_re, sersic_surface_brightness
 
 #: The fitted cut-out is binned so that its side has at most this many (binned) pixels.
-MAX_FIT_SIDE = 100
+MAX_FIT_SIDE = 124
+#: Largest automatic fit radius (pixels): the cut-out then stays unbinned, keeping the core sharp.
+MAX_AUTO_FIT_RADIUS_PIX = 80
 #: Half-size (pixels of the fitted grid) of the PSF kernel.
 PSF_HALF = 12
 #: Rounds of leaving out positive outliers (arcs), and evaluations per least-squares run.
@@ -109,7 +111,7 @@ def fit_lens_light(
         Starting centre (0-based column, row); the fit may move it by up to 3 pixels.
     fit_radius_pix : float, optional
         Radius of the fitted region; default: where the galaxy's azimuthal mean falls
-        to the noise (between 8 and 150 pixels).
+        to the noise (between 8 and MAX_AUTO_FIT_RADIUS_PIX pixels).
     mask : bool array, optional
         True for pixels to leave out (e.g. marked arcs or neighbours).
     progress, should_stop : callables, optional
@@ -237,7 +239,7 @@ def _auto_fit_radius(img, cx, cy, noise) -> float:
         prof = s / c
     below = np.flatnonzero(prof[2:] < 1.0 * noise)
     edge = int(below[0]) + 2 if below.size else rmax
-    return float(np.clip(2.0 * edge, 8, 150))
+    return float(np.clip(2.0 * edge, 8, MAX_AUTO_FIT_RADIUS_PIX))
 
 
 def blurred_sersic(p, gx: np.ndarray, gy: np.ndarray, step: float = 1.0) -> np.ndarray:
