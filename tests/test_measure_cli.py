@@ -42,6 +42,10 @@ def test_measure_points_json_has_estimate_and_measurement_keys(tmp_path, capsys)
     assert r["theta_e_arcsec"] == pytest.approx(t["theta_e_arcsec"], rel=0.02)
     assert r["center_ra"] == pytest.approx(t["center_ra"], abs=0.5 / 3600)
     assert "circle fit" in r["models"]["theta_e_arcsec"]
+    # The measured error enters the core Monte Carlo: the 68% interval of theta_E is +- 1 sigma
+    # (Gaussian percentiles 16/84, common practice) to within sampling noise.
+    lo, hi = r["intervals68"]["theta_e_arcsec"]
+    assert (hi - lo) / 2 == pytest.approx(r["theta_e_err_arcsec"], rel=0.1)
 
 
 def test_measure_sky_points_with_centre_and_table_output(tmp_path, capsys):
