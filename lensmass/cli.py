@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import sys
 
 #: name -> (module, one-line help). Modules are imported lazily.
@@ -25,6 +26,8 @@ SUBCOMMANDS: dict[str, tuple[str, str]] = {
 
 #: Exit status for bad input (one-line message on stderr).
 EXIT_BAD_INPUT = 2
+#: Exit status for an unexpected failure inside lensmass (a bug: one line, then report it).
+EXIT_INTERNAL = 70
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -81,6 +84,19 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         print(f"lensmass {args.command}: interrupted.", file=sys.stderr)
         return 130
+    except BrokenPipeError:
+        # The reader of our output went away (e.g. `| head`): not an error of the user's.
+        sys.stdout = open(os.devnull, "w")
+        return 0
+    except Exception as exc:  # last safety net: one line, never a traceback
+        if os.environ.get("LENSMASS_DEBUG"):
+            raise
+        print(
+            f"lensmass {args.command}: internal error ({type(exc).__name__}: {exc}); "
+            "rerun with LENSMASS_DEBUG=1 for details and report it.",
+            file=sys.stderr,
+        )
+        return EXIT_INTERNAL
 
 
 if __name__ == "__main__":
