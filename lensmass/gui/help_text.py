@@ -23,6 +23,27 @@ SHORTCUTS = [
 ]
 
 
+def _triage_html() -> str:
+    """The grade scale and the keys of the triage queue (from the store and the panel: one source)."""
+    from html import escape
+
+    from lensmass.gui.triage_panel import TRIAGE_KEYS
+    from lensmass.io.store import GRADE_SCALE
+
+    grades = "".join(f"<tr><td><b>{g}</b></td><td>{escape(name)}</td><td>{escape(meaning)}</td></tr>"
+                     for g, (name, meaning) in GRADE_SCALE.items())
+    keys = "".join(f"<tr><td><b>{escape(k)}</b></td><td>{escape(v)}</td></tr>" for k, v in TRIAGE_KEYS)
+    return f"""
+<h3>Triage queue</h3>
+<p>Open a folder of images or a manifest in the <i>Triage queue</i> dock and step through the candidates.
+Grades name what is seen, not a probability:</p>
+<table cellspacing="4"><tr><td><i>grade</i></td><td><i>name</i></td><td><i>meaning</i></td></tr>{grades}</table>
+<p>Keys, with the candidate list focused:</p>
+<table cellspacing="4">{keys}</table>
+<p>A candidate you measured before opens again with your stored marks and redshifts.</p>
+"""
+
+
 def help_html() -> str:
     rows = "".join(f"<tr><td><b>{k}</b></td><td>{v}</td></tr>" for k, v in SHORTCUTS)
     return f"""
@@ -60,6 +81,7 @@ from matplotlib. Display changes never touch the measurement.</li>
 </ul>
 <h3>Keys</h3>
 <table cellspacing="4">{rows}</table>
+{_triage_html()}
 <p>Every number is a model-dependent estimate; the exported report and results name the model and
 assumptions behind each one.</p>
 """

@@ -33,7 +33,12 @@ FILTERS = {"all": "all candidates", "todo": "not graded by me", "disputed": "gra
            "flagged": "flagged"}
 DISPUTED_COLOUR = "#b34700"
 
-KEY_HELP = ("Keys in the list: . next, , previous, 0-3 grade, F flag, N note, M store measurement. "
+#: Keys of the candidate list (key, what it does); also listed on the window's help page.
+TRIAGE_KEYS = ((".", "next candidate"), (",", "previous candidate"), ("0-3", "grade the candidate (scale above)"),
+               ("F", "flag on/off"), ("N", "write a note (Enter keeps it)"),
+               ("M", "store the window's measurement and marks with the candidate now"))
+
+KEY_HELP = ("Keys in the list: " + ", ".join(f"{k} {what.split(' (')[0]}" for k, what in TRIAGE_KEYS) + ". "
             "Grades: " + "; ".join(f"{g} {name} ({meaning})" for g, (name, meaning) in GRADE_SCALE.items()) + ".")
 
 
