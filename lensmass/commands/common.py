@@ -9,6 +9,17 @@ from typing import Any
 from lensmass.core.errors import LensInputError
 
 
+def add_redshift_options(parser: argparse.ArgumentParser) -> None:
+    """``--zl [--zl-err]`` and one of ``--zs | --zs-range | --zs-table`` with ``--zs-err``."""
+    parser.add_argument("--zl", type=float, required=True, help="lens redshift")
+    parser.add_argument("--zl-err", type=float, default=0.0, help="1-sigma error of z_l")
+    zs = parser.add_mutually_exclusive_group(required=True)
+    zs.add_argument("--zs", type=float, help="source redshift")
+    zs.add_argument("--zs-range", metavar="ZMIN,ZMAX", help="unknown source redshift: uniform in this range")
+    zs.add_argument("--zs-table", metavar="FILE", help="unknown source redshift: table with columns z, weight")
+    parser.add_argument("--zs-err", type=float, default=0.0, help="1-sigma error of z_s")
+
+
 def add_cosmology_options(parser: argparse.ArgumentParser) -> None:
     """``--cosmology NAME | --h0 H0 --om0 OM [--ode0 OL]``."""
     g = parser.add_argument_group("cosmology")

@@ -6,6 +6,7 @@ import argparse
 import sys
 
 from lensmass.commands.common import (
+    add_redshift_options,
     add_cosmology_options,
     add_halo_options,
     add_sampling_options,
@@ -19,13 +20,7 @@ from lensmass.commands.light_options import LIGHT_ROWS, add_light_options, apply
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--theta-e", type=float, required=True, metavar="ARCSEC", help="Einstein radius in arcsec")
     parser.add_argument("--theta-e-err", type=float, default=0.0, metavar="E", help="1-sigma error of theta_E")
-    parser.add_argument("--zl", type=float, required=True, help="lens redshift")
-    parser.add_argument("--zl-err", type=float, default=0.0, help="1-sigma error of z_l")
-    zs = parser.add_mutually_exclusive_group(required=True)
-    zs.add_argument("--zs", type=float, help="source redshift")
-    zs.add_argument("--zs-range", metavar="ZMIN,ZMAX", help="unknown source redshift: uniform in this range")
-    zs.add_argument("--zs-table", metavar="FILE", help="unknown source redshift: table with columns z, weight")
-    parser.add_argument("--zs-err", type=float, default=0.0, help="1-sigma error of z_s")
+    add_redshift_options(parser)
     add_cosmology_options(parser)
     add_halo_options(parser)
     add_sampling_options(parser)

@@ -10,6 +10,7 @@ import argparse
 import sys
 
 from lensmass.commands.common import (
+    add_redshift_options,
     add_cosmology_options,
     add_halo_options,
     add_sampling_options,
@@ -48,13 +49,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--accept-weak", action="store_true", help="ring finder: report a weak ring candidate too")
     parser.add_argument("--save-residual", metavar="FILE",
                         help="also write the lens-subtracted image (FITS, same header) to FILE")
-    parser.add_argument("--zl", type=float, required=True, help="lens redshift")
-    parser.add_argument("--zl-err", type=float, default=0.0, help="1-sigma error of z_l")
-    zs = parser.add_mutually_exclusive_group(required=True)
-    zs.add_argument("--zs", type=float, help="source redshift")
-    zs.add_argument("--zs-range", metavar="ZMIN,ZMAX", help="unknown source redshift: uniform in this range")
-    zs.add_argument("--zs-table", metavar="FILE", help="unknown source redshift: table with columns z, weight")
-    parser.add_argument("--zs-err", type=float, default=0.0, help="1-sigma error of z_s")
+    add_redshift_options(parser)
     add_cosmology_options(parser)
     add_halo_options(parser)
     add_sampling_options(parser)

@@ -35,10 +35,24 @@ def atomic_path(target: str | os.PathLike) -> Iterator[Path]:
         with open(tmp, "rb+") as fh:
             fh.flush()
             os.fsync(fh.fileno())
+        os.chmod(tmp, _final_mode(target))
         os.replace(tmp, target)
     finally:
         if tmp.exists():
             tmp.unlink()
+
+
+def _final_mode(target: Path) -> int:
+    """Keep the mode of a file being replaced; a new file gets 0666 less the umask.
+
+    (mkstemp creates 0600 files, which would silently make shared results private.)
+    """
+    try:
+        return target.stat().st_mode & 0o7777
+    except FileNotFoundError:
+        umask = os.umask(0)
+        os.umask(umask)
+        return 0o666 & ~umask
 
 
 def write_text_atomic(target: str | os.PathLike, text: str, encoding: str = "utf-8") -> None:
