@@ -2,7 +2,7 @@
 
 References
 ----------
-Narayan & Bartelmann (1996), Lectures on gravitational lensing, arXiv:astro-ph/9606001,
+Narayan & Bartelmann (1996), arXiv:astro-ph/9606001,
 eqs. (15)-(20): Sigma_cr = c^2 D_s / (4 pi G D_l D_ls); for any circularly symmetric
 lens the mean convergence inside the Einstein radius is one, so
 M(<theta_E) = pi Sigma_cr (D_l theta_E)^2.
