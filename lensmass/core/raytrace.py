@@ -25,9 +25,9 @@ from typing import Sequence
 import numpy as np
 from scipy.signal import fftconvolve
 from scipy.special import gamma as gamma_function
-from scipy.special import gammaincinv
 
 from lensmass.core.constants import ARCSEC_RAD
+from lensmass.core.sersic import sersic_b
 
 
 # ----------------------------------------------------------------------------------------------- lenses
@@ -237,11 +237,6 @@ def point_images(lenses: Sequence, beta_x: float, beta_y: float, *, search_radiu
 
 
 # ---------------------------------------------------------------------------------------------- light
-def sersic_b(n) -> np.ndarray:
-    """b_n such that half the light lies inside R_e: P(2n, b_n) = 1/2 (Graham & Driver 2005, eq. 1)."""
-    return gammaincinv(2 * np.asarray(n, float), 0.5)
-
-
 def sersic_intensity_at_re(total_flux: float, r_eff_arcsec: float, n: float) -> float:
     """I_e = L / [2 pi n R_e^2 e^b b^-2n Gamma(2n)] (Graham & Driver 2005, eq. 4); per arcsec^2."""
     b = float(sersic_b(n))
