@@ -301,6 +301,29 @@ class LightPanel(QWidget):
                 "system": self.system.currentData(), "profile": self.profile.currentData(),
                 "stellar": self.stellar.currentData(), "mask_bright": self.mask_bright.isChecked()}
 
+    # ----------------------------------------------------- saved in sessions (panel_registry)
+    PANEL_KEY = "light"
+
+    def panel_state(self, session_dir=None) -> dict:
+        """What the user typed and chose (the numbers are recomputed, never saved)."""
+        return {"texts": self.texts(), "choices": self.choices()}
+
+    def restore_panel_state(self, state: dict, session_dir=None) -> None:
+        texts = state.get("texts") if isinstance(state.get("texts"), dict) else {}
+        for key, edit in self.edits.items():
+            value = texts.get(key)
+            edit.setText(value if isinstance(value, str) else "")
+        choices = state.get("choices") if isinstance(state.get("choices"), dict) else {}
+        for name, combo in (("source", self.source), ("system", self.system), ("profile", self.profile),
+                            ("stellar", self.stellar)):
+            index = combo.findData(choices.get(name))
+            if index >= 0:
+                combo.setCurrentIndex(index)
+        if self.band.findText(str(choices.get("band", ""))) >= 0:
+            self.band.setCurrentText(str(choices["band"]))
+        self.mask_bright.setChecked(bool(choices.get("mask_bright", False)))
+        self._source_changed()
+
     def _on_model(self, topic: str) -> None:
         if topic in ("result", "fit", "image") and self.light_result is not None:
             self.light_result = None

@@ -432,10 +432,46 @@ class MainWindow(QMainWindow):
                 self.tabifyDockWidget(self.plots_dock if area == "right" else self.marks_dock, dock)
             self.view_menu.addAction(dock.toggleViewAction())
             self.panels.append(panel)
+            # A session opened before the panels were built (they load after the first paint).
+            self._restore_panel(panel, self.model.session.panels, self._session_dir(self.model.session_path))
         self.plots_dock.raise_()
         self.marks_dock.raise_()
         if problems:
             self.show_message(problems[0])
+
+    # ============================================================ panel state
+    @staticmethod
+    def _session_dir(path: str | None) -> Path | None:
+        return None if not path else Path(path).absolute().parent
+
+    def session_for_saving(self, session_dir: Path | None):
+        """The model's session plus each panel's saved state (see panel_registry: panel_state)."""
+        from lensmass.gui.panel_registry import panel_key
+
+        session = self.model.to_session()
+        for panel in self.panels:
+            hook = getattr(panel, "panel_state", None)
+            if hook is None:
+                continue
+            try:
+                session.panels[panel_key(panel)] = dict(hook(session_dir))
+            except Exception as exc:  # a broken panel must not stop the save of the marks
+                self.show_message(f"The {getattr(panel, 'PANEL_TITLE', panel_key(panel))} panel's inputs were "
+                                  f"not saved ({type(exc).__name__}: {exc}); the marks were.")
+        return session
+
+    def _restore_panel(self, panel, states: dict, session_dir: Path | None) -> None:
+        from lensmass.gui.panel_registry import panel_key
+
+        hook = getattr(panel, "restore_panel_state", None)
+        state = states.get(panel_key(panel))
+        if hook is None or not isinstance(state, dict):
+            return  # an older session without this panel's entry: the panel keeps what it shows
+        try:
+            hook(state, session_dir)
+        except Exception as exc:  # a damaged entry must not stop the session from opening
+            self.show_message(f"The {getattr(panel, 'PANEL_TITLE', panel_key(panel))} panel's saved inputs could "
+                              f"not be restored ({type(exc).__name__}: {exc}); enter them again.")
 
     # =============================================================== messages
     def show_message(self, text: str, timeout_ms: int = 8000) -> None:
@@ -542,6 +578,8 @@ class MainWindow(QMainWindow):
         self.undo_stack.clear()
         self.tasks.cancel()
         self.model.load_session(session, loaded, path)
+        for panel in self.panels:
+            self._restore_panel(panel, session.panels, self._session_dir(path))
         self._new_autosave_key()
         self._after_open()
         wanted_layer = session.display.layer
@@ -595,7 +633,7 @@ class MainWindow(QMainWindow):
 
         self.inputs_panel.commit_all()
         try:
-            written = save_session(path, self.model.to_session())
+            written = save_session(path, self.session_for_saving(self._session_dir(path)))
         except LensInputError as exc:
             self.show_error(str(exc))
             return False
@@ -627,7 +665,8 @@ class MainWindow(QMainWindow):
         if self._autosave_key is None:
             self._new_autosave_key()
         try:
-            return write_autosave(self.model.to_session(), self._autosave_key, self.model.session_path)
+            # session_dir None: an autosave stores the panels' file paths absolute, as it does the image's
+            return write_autosave(self.session_for_saving(None), self._autosave_key, self.model.session_path)
         except LensInputError as exc:
             self.show_message(str(exc))
             return None

@@ -52,12 +52,37 @@ A panel is a ``QWidget`` subclass::
     before discarding unsaved marks; returns True if it opened);
     ``window.show_message(text)`` shows one sentence in the status bar.
 
+Saved state (optional)
+----------------------
+A panel whose inputs belong to the measurement defines two methods; the window
+calls them when it saves, autosaves and opens a session. The state lives in the
+session file under ``"panels": {PANEL_KEY: {...}}`` (``PANEL_KEY`` defaults to the
+class name)::
+
+    PANEL_KEY = "shear"
+
+    def panel_state(self, session_dir: Path | None) -> dict:
+        # JSON-ready inputs of the panel; file paths through stored_path(path, session_dir)
+        ...
+
+    def restore_panel_state(self, state: dict, session_dir: Path | None) -> None:
+        # put the inputs back; tolerate missing keys (older files); paths through resolved_path()
+        ...
+
+``session_dir`` is the folder of the session file (None for an autosave: paths are
+then stored absolute). ``restore_panel_state`` is called only when the session has
+an entry for the panel, so an older session without one leaves the panel as it is;
+a panel built after the session opened (panels load after the first paint) gets
+its state when it is built. A panel without the two methods is simply not saved.
+
 Keep to these names: they are the stable part. Anything else in the window may change.
 """
 
 from __future__ import annotations
 
 import importlib
+import os
+from pathlib import Path
 
 #: (module, class) of each dock panel, in dock order. Add a line for a new panel.
 PANELS: list[tuple[str, str]] = [
@@ -68,6 +93,43 @@ PANELS: list[tuple[str, str]] = [
 
 #: Where a panel goes when it does not say (``DOCK_AREA``).
 DEFAULT_DOCK_AREA = "right"
+
+
+def panel_key(panel) -> str:
+    """The name of a panel's entry in a session's ``panels`` (``PANEL_KEY`` or the class name)."""
+    return str(getattr(panel, "PANEL_KEY", type(panel).__name__))
+
+
+def stored_path(path: str | os.PathLike | None, session_dir: str | os.PathLike | None) -> dict | None:
+    """A file path for a panel's state: relative to the session folder (as the image path is), with
+    the absolute path as a fallback hint.
+
+    Examples
+    --------
+    >>> stored_path("/data/night/shapes.fits", "/data/night")["path"]
+    'shapes.fits'
+    """
+    from lensmass.io.session import _image_paths
+
+    if not path:
+        return None
+    stored, absolute = _image_paths(str(path), session_dir)
+    return {"path": stored, "absolute_path": absolute}
+
+
+def resolved_path(entry, session_dir: str | os.PathLike | None) -> str | None:
+    """The file a :func:`stored_path` entry names: relative to ``session_dir`` if that file exists,
+    else the absolute hint if that exists, else the relative candidate (so a message can name it)."""
+    if not isinstance(entry, dict) or not entry.get("path"):
+        return None
+    candidate = Path(str(entry["path"]))
+    if not candidate.is_absolute() and session_dir is not None:
+        candidate = Path(session_dir) / candidate
+    candidate = Path(os.path.normpath(os.path.abspath(candidate)))
+    hint = entry.get("absolute_path")
+    if candidate.is_file() or not isinstance(hint, str) or not Path(hint).is_file():
+        return str(candidate)
+    return hint
 
 
 def load_panel_classes(entries=None) -> tuple[list[type], list[str]]:

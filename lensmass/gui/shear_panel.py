@@ -289,11 +289,51 @@ class ShearPanel(QWidget):
             return False
         if dialog.exec() != QDialog.Accepted:
             return False
-        self.catalog_path, self.columns, self.flips = path, dialog.mapping(), dialog.flips()
+        self.catalog_path, self.columns, self.flips = str(Path(path).absolute()), dialog.mapping(), dialog.flips()
         mapped = ", ".join(f"{k}={v}" for k, v in self.columns.items())
         self.catalog_label.setText(f"{Path(path).name} ({mapped})")
         self._say("Catalogue ready: set the centre and press 'Measure shear'.")
         return True
+
+    # ------------------------------------------------------------- saved in sessions (panel_registry)
+    PANEL_KEY = "shear"
+    _TEXTS = ("centre_edit", "zl_edit", "zs_edit", "rmin_edit", "rmax_edit", "smooth_edit")
+
+    def panel_state(self, session_dir=None) -> dict:
+        """The catalogue (path relative to the session file), its column mapping and flips, and the settings."""
+        from lensmass.gui.panel_registry import stored_path
+
+        return {"catalogue": stored_path(self.catalog_path, session_dir), "columns": dict(self.columns),
+                "flips": [bool(f) for f in self.flips], "bins": int(self.bins_spin.value()),
+                "contours": self.contour_box.isChecked(),
+                "texts": {name: getattr(self, name).text() for name in self._TEXTS}}
+
+    def restore_panel_state(self, state: dict, session_dir=None) -> None:
+        from lensmass.gui.panel_registry import resolved_path
+
+        texts = state.get("texts") if isinstance(state.get("texts"), dict) else {}
+        for name in self._TEXTS:
+            if isinstance(texts.get(name), str):
+                getattr(self, name).setText(texts[name])
+        if isinstance(state.get("bins"), int):
+            self.bins_spin.setValue(state["bins"])
+        self.contour_box.setChecked(bool(state.get("contours", True)))
+        flips = state.get("flips")
+        self.flips = (bool(flips[0]), bool(flips[1])) if isinstance(flips, list) and len(flips) == 2 else (False, False)
+        columns = state.get("columns")
+        self.columns = {str(k): str(v) for k, v in columns.items()} if isinstance(columns, dict) else {}
+        self.catalog_path = resolved_path(state.get("catalogue"), session_dir)
+        self.output = None
+        if not self.catalog_path:
+            self.catalog_label.setText("no catalogue")
+            return
+        mapped = ", ".join(f"{k}={v}" for k, v in self.columns.items())
+        self.catalog_label.setText(f"{Path(self.catalog_path).name} ({mapped})")
+        if Path(self.catalog_path).is_file():
+            self._say("Catalogue and settings restored from the session: press 'Measure shear'.")
+        else:
+            self._say(f"The session's catalogue '{self.catalog_path}' is missing: put it back beside the "
+                      "session file or load it again.")
 
     # ------------------------------------------------------------- centre
     def _toggle_pick(self, on: bool) -> None:

@@ -88,6 +88,7 @@ class TriagePanel(QWidget):
         self._mine: dict[str, dict] = {}
         self._team: dict[str, dict] = {}
         self._measured: set[str] = set()
+        self.remembered_manifest: str | None = None
         self._build()
         self.model.subscribe(self._on_model)
 
@@ -196,6 +197,28 @@ class TriagePanel(QWidget):
         self.tree.blockSignals(True)
         self.tree.clear()
         self.tree.blockSignals(False)
+
+    # ---------------------------------------------------------------- saved in sessions (panel_registry)
+    PANEL_KEY = "triage"
+
+    def panel_state(self, session_dir=None) -> dict:
+        """The queue's manifest (relative path) and the grader's name. The store field is not saved:
+        a server address may hold a password, and a session file is shared."""
+        from lensmass.gui.panel_registry import stored_path
+
+        source = getattr(self.manifest, "source", None)
+        return {"manifest": stored_path(source, session_dir) if source else None, "grader": self.grader_name()}
+
+    def restore_panel_state(self, state: dict, session_dir=None) -> None:
+        from lensmass.gui.panel_registry import resolved_path
+
+        if isinstance(state.get("grader"), str) and state["grader"].strip():
+            self.grader_edit.setText(state["grader"].strip())
+        self.remembered_manifest = resolved_path(state.get("manifest"), session_dir)
+        if self.manifest is None and self.remembered_manifest:
+            # Not reopened by itself: opening a queue opens its first candidate over this session.
+            self.status.setText(f"This session was measured from the queue {Path(self.remembered_manifest).name}: "
+                                "open it with 'Open queue...' to go on grading.")
 
     def grader_name(self) -> str:
         return self.grader_edit.text().strip() or default_grader()
