@@ -34,6 +34,32 @@ _BOOTSTRAP_GROUPS = 2000
 
 
 # ---------------------------------------------------------------- geometry
+_BLOCK = 1 << 15  # rows per block of the element-wise passes: their temporaries stay in the CPU cache
+
+
+def _blockwise(fn, *arrays):
+    """``fn(*arrays)`` evaluated in blocks of rows into preallocated outputs.
+
+    ``fn`` is element-wise, so each output element is exactly what one call on the
+    whole arrays gives; blocks keep the many temporaries in cache (about 2x faster
+    than whole-array passes for 10^6 rows). Scalars and short arrays go straight through.
+    """
+    arrays = [a if a.dtype == bool else np.asarray(a, float) for a in map(np.asarray, arrays)]
+    shape = np.broadcast_shapes(*(a.shape for a in arrays))
+    n = int(np.prod(shape))
+    if len(shape) != 1 or n <= 2 * _BLOCK:
+        return fn(*arrays)
+    arrays = [np.broadcast_to(a, shape) for a in arrays]
+    outs = None
+    for start in range(0, n, _BLOCK):
+        part = fn(*(a[start:start + _BLOCK] for a in arrays))
+        if outs is None:
+            outs = [np.empty(n, np.asarray(r).dtype) for r in part]
+        for out, r in zip(outs, part):
+            out[start:start + _BLOCK] = r
+    return tuple(outs)
+
+
 def tangent_plane_offsets_arcsec(ra_deg, dec_deg, ra0_deg: float, dec0_deg: float):
     """Gnomonic offsets (x east, y north) in arcsec of the tangent plane at (ra0, dec0).
 
@@ -45,29 +71,35 @@ def tangent_plane_offsets_arcsec(ra_deg, dec_deg, ra0_deg: float, dec0_deg: floa
     >>> round(float(x), 6), round(float(y), 6)
     (1.0, 0.0)
     """
-    dra_deg = np.asarray(ra_deg, float) - ra0_deg
-    ra = np.radians(dra_deg)
-    dec = np.radians(np.asarray(dec_deg, float))
-    d0 = np.radians(dec0_deg)
-    # two sines instead of four trigonometric calls: cos(dec) >= 0 always, and cos(dRA) takes
-    # the sign of |dRA| < 90 deg (both square roots are exact to ~1e-16 for the small angles of a field)
-    sin_dec = np.sin(dec)
-    cos_dec = np.sqrt(np.maximum(1.0 - sin_dec * sin_dec, 0.0))
-    sin_ra = np.sin(ra)
-    cos_ra = np.sqrt(np.maximum(1.0 - sin_ra * sin_ra, 0.0))
-    a = np.abs(dra_deg)
-    far = (a > 90.0) & (a < 270.0)
-    if np.any(far):
-        cos_ra[far] = -cos_ra[far]
-    cc = cos_dec * cos_ra
-    cos_c = np.sin(d0) * sin_dec + np.cos(d0) * cc
+    return _blockwise(lambda ra, dec: _gnomonic(ra, dec, float(ra0_deg), float(dec0_deg)), ra_deg, dec_deg)
+
+
+def _gnomonic(ra_deg, dec_deg, ra0_deg: float, dec0_deg: float):
+    """Gnomonic projection (Calabretta & Greisen 2002, zenithal TAN) with half-angle tangents.
+
+    With t = tan(dRA / 2) and u = tan(Dec / 2): sin = 2t / (1 + t^2), cos = (1 - t^2) / (1 + t^2)
+    (common practice, the half-angle identities), so x = cos Dec sin dRA / cos c and
+    y = (cos Dec0 sin Dec - sin Dec0 cos Dec cos dRA) / cos c share one denominator
+    D = cos c (1 + t^2)(1 + u^2): two tangents (vectorised in numpy) instead of sines and
+    cosines, and no wrapping of dRA (tan of the half angle has a period of 360 degrees).
+    """
+    half = np.pi / 360.0  # degrees to half-angle radians
+    t = np.tan((ra_deg - ra0_deg) * half)
+    u = np.tan(dec_deg * half)
+    s0, c0 = np.sin(np.radians(dec0_deg)), np.cos(np.radians(dec0_deg))
+    t2 = t * t
+    a = 1.0 + t2
+    one_u2 = (1.0 - u) * (1.0 + u)
+    p = one_u2 * (1.0 - t2)
+    two_u = u + u
+    d = two_u * a * s0 + p * c0
     with np.errstate(divide="ignore", invalid="ignore"):
-        inv = (1.0 / ARCSEC_RAD) / cos_c
-    behind = cos_c <= 0
+        inv = (1.0 / ARCSEC_RAD) / d
+    behind = d <= 0
     if np.any(behind):
         inv[behind] = np.nan
-    x = cos_dec * sin_ra * inv
-    y = (np.cos(d0) * sin_dec - np.sin(d0) * cc) * inv
+    x = (t + t) * one_u2 * inv
+    y = (two_u * a * c0 - p * s0) * inv
     return x, y
 
 
@@ -88,10 +120,11 @@ def tangent_plane_to_sky(x_arcsec, y_arcsec, ra0_deg: float, dec0_deg: float):
 
 def radius_arcsec(x_arcsec, y_arcsec) -> np.ndarray:
     """True angular distance from the centre for gnomonic offsets: arctan(rho)."""
-    x = np.asarray(x_arcsec, float)
-    y = np.asarray(y_arcsec, float)
-    rho = np.sqrt(x * x + y * y) * ARCSEC_RAD
-    return np.arctan(rho) * (1.0 / ARCSEC_RAD)
+    def radius(x, y):
+        rho = np.sqrt(x * x + y * y) * ARCSEC_RAD
+        return (np.arctan(rho) * (1.0 / ARCSEC_RAD),)
+
+    return _blockwise(radius, x_arcsec, y_arcsec)[0]
 
 
 def tangential_cross(e1, e2, x_arcsec, y_arcsec) -> tuple[np.ndarray, np.ndarray]:
@@ -106,14 +139,15 @@ def tangential_cross(e1, e2, x_arcsec, y_arcsec) -> tuple[np.ndarray, np.ndarray
     >>> round(float(et), 6), float(ex) == 0
     (0.1, True)
     """
-    x = np.asarray(x_arcsec, float)
-    y = np.asarray(y_arcsec, float)
-    r2 = x * x + y * y
+    return _blockwise(_tangential_cross, e1, e2, x_arcsec, y_arcsec)
+
+
+def _tangential_cross(e1, e2, x, y):
+    xx, yy = x * x, y * y
     with np.errstate(divide="ignore", invalid="ignore"):
-        cos2 = (x * x - y * y) / r2
-        sin2 = 2.0 * x * y / r2
-    e1 = np.asarray(e1, float)
-    e2 = np.asarray(e2, float)
+        inv = 1.0 / (xx + yy)
+        cos2 = (xx - yy) * inv
+        sin2 = (x + x) * y * inv
     return -(e1 * cos2 + e2 * sin2), e1 * sin2 - e2 * cos2
 
 
@@ -135,30 +169,27 @@ def select_sources(e1, e2, weight, z, z_l: float, *, positions_ok=None,
     counted once, under the first of :data:`DROP_REASONS` that applies.
     ``z`` may be None (a single source redshift is checked by the caller).
     """
-    e1 = np.asarray(e1, float)
-    e2 = np.asarray(e2, float)
-    w = np.asarray(weight, float)
-    finite = np.isfinite(e1) & np.isfinite(e2) & np.isfinite(w)
-    if positions_ok is not None:
-        finite &= positions_ok
-    if z is not None:
-        z = np.asarray(z, float)
-        finite &= np.isfinite(z)
-    with np.errstate(invalid="ignore"):
-        bad_e = finite & (e1 * e1 + e2 * e2 >= 1.0)
-        bad_w = finite & ~bad_e & ~(w > 0)
-        ok = finite & ~bad_e & ~bad_w
-        bad_z = np.zeros_like(ok)
+    arrays = [e1, e2, weight] + ([positions_ok] if positions_ok is not None else []) + ([z] if z is not None else [])
+    z_min = z_l + z_margin
+
+    def reasons(e1, e2, w, *rest):
+        """Usable rows and, for each reason in DROP_REASONS, the rows it is the first to drop."""
+        finite = np.isfinite(e1) & np.isfinite(e2) & np.isfinite(w)
+        if positions_ok is not None:
+            finite &= rest[0]
         if z is not None:
-            bad_z = ok & ~(z > z_l + z_margin)
+            finite &= np.isfinite(rest[-1])
+        with np.errstate(invalid="ignore"):
+            bad_e = finite & (e1 * e1 + e2 * e2 >= 1.0)
+            ok = finite & ~bad_e
+            bad_w = ok & ~(w > 0)
+            ok &= ~bad_w
+            bad_z = ok & ~(rest[-1] > z_min) if z is not None else np.zeros_like(ok)
             ok &= ~bad_z
-    counts = {
-        "non_finite": int(np.count_nonzero(~finite)),
-        "ellipticity_ge_1": int(np.count_nonzero(bad_e)),
-        "weight_not_positive": int(np.count_nonzero(bad_w)),
-        "source_not_behind_lens": int(np.count_nonzero(bad_z)),
-    }
-    return ok, counts
+        return ok, ~finite, bad_e, bad_w, bad_z
+
+    ok, *dropped = _blockwise(reasons, *arrays)
+    return ok, {name: int(np.count_nonzero(mask)) for name, mask in zip(DROP_REASONS, dropped)}
 
 
 def lens_distance_mpc(z_l: float, cosmo) -> float:
