@@ -1,10 +1,8 @@
 """lensmass batch: bad rows are kept and flagged, resume after a kill equals one clean run."""
 
 import os
-import signal
 import subprocess
 import sys
-import time
 
 import numpy as np
 import pytest
@@ -79,9 +77,8 @@ def _manifest(path, n):
 
 
 def _batch_cmd(manifest, out, *extra):
-    # 3000 draws per row: a block of rows takes long enough that the kill lands halfway
-    return [sys.executable, "-m", "lensmass.cli", "batch", str(manifest), "--out", str(out), "--samples", "3000",
-            "--no-progress", "--save-every", "0.2", *extra]
+    return [sys.executable, "-m", "lensmass.cli", "batch", str(manifest), "--out", str(out), "--samples", "1000",
+            "--no-progress", "--save-every", "0.01", *extra]
 
 
 def _rows_in(path):
@@ -91,20 +88,34 @@ def _rows_in(path):
         return -1
 
 
+# Runs the batch command in a child process that is killed (os._exit: no clean-up, like SIGKILL) right
+# after the first block of finished rows has been saved to RESULTS: a deterministic "killed halfway".
+_KILLED_AFTER_FIRST_BLOCK = """
+import os, sys
+import lensmass.commands.batch as batch
+real_add = batch._Saver.add
+def add_save_and_die(self, records):
+    real_add(self, records)
+    self.save()
+    os._exit(9)
+batch._Saver.add = add_save_and_die
+from lensmass.cli import main
+sys.exit(main(sys.argv[1:]))
+"""
+
+
 def test_kill_halfway_then_resume_equals_one_clean_run(tmp_path):
     n = 120
     manifest = tmp_path / "m.csv"
     _manifest(manifest, n)
     clean, broken = tmp_path / "clean.ecsv", tmp_path / "resumed.ecsv"
     env = dict(os.environ, PYTHONHASHSEED="0")
-    proc = subprocess.Popen(_batch_cmd(manifest, broken), env=env, stderr=subprocess.DEVNULL)
-    deadline = time.time() + 60
-    while time.time() < deadline and _rows_in(broken) < 20:
-        time.sleep(0.02)
-    proc.send_signal(signal.SIGKILL)
-    proc.wait()
+    killed = subprocess.run([sys.executable, "-c", _KILLED_AFTER_FIRST_BLOCK,
+                             *_batch_cmd(manifest, broken, "--workers", "1")[3:]],
+                            env=env, stderr=subprocess.DEVNULL, timeout=120)
+    assert killed.returncode == 9
     partial = _rows_in(broken)
-    assert 20 <= partial < n, "the run should have been killed halfway"
+    assert 0 < partial < n, "the run should have been killed halfway"
     subprocess.run(_batch_cmd(manifest, broken, "--resume", "--workers", "2"), env=env, check=False,
                    stderr=subprocess.DEVNULL, timeout=120)
     status = subprocess.run(_batch_cmd(manifest, clean), env=env, stderr=subprocess.DEVNULL, timeout=120).returncode
