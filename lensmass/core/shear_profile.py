@@ -423,6 +423,33 @@ def _bootstrap_errors(index, n_bins, w, e_t, e_x, n_boot, rng):
     return np.nanstd(bt, axis=0, ddof=1), np.nanstd(bx, axis=0, ddof=1)
 
 
+def _block_sums(fine, theta, e_t, e_x, w, beta, sc, n_beta, b_min, b_max, size, with_model_cells):
+    """Sums over one block of galaxies per (sub-bin, beta cell); galaxies outside the bins go to a
+    trash cell that is cut off."""
+    cell = np.where(fine >= 0, fine, size // n_beta)
+    beta = np.ones_like(theta) if beta is None else beta
+    if n_beta > 1:
+        bq = np.minimum(((beta - b_min) * (n_beta / (b_max - b_min))).astype(np.int64), n_beta - 1)
+        cell = cell * n_beta + np.where(fine >= 0, bq, 0)
+    w2 = w * w
+    wb = w * beta
+    weights = {"n": None, "w": w, "wtheta": w * theta, "st": w * e_t, "sx": w * e_x, "s2": w2,
+               "s2t": w2 * e_t, "s2x": w2 * e_x, "s2ee": w2 * (e_t * e_t + e_x * e_x), "wbeta": wb}
+    if with_model_cells:
+        weights["wbeta2"] = wb * beta
+    if sc is not None:
+        finite = np.isfinite(sc)
+        if not np.all(finite):  # sources not behind the lens carry no Delta Sigma weight
+            wd = np.where(finite, w / (sc * sc), 0.0)
+            sc = np.where(finite, sc, 0.0)
+        else:
+            wd = w / (sc * sc)
+        wd2 = wd * wd
+        dt, dx = sc * e_t, sc * e_x
+        weights.update(d=wd, dt=wd * dt, dx=wd * dx, d2=wd2, d2t=wd2 * dt, d2x=wd2 * dx, d2ee=wd2 * (dt * dt + dx * dx))
+    return {k: np.bincount(cell, weights=v, minlength=size + n_beta)[:size] for k, v in weights.items()}
+
+
 def shear_profile(
     theta_arcsec,
     e_t,
@@ -463,48 +490,35 @@ def shear_profile(
     """
     edges = np.asarray(edges_arcsec, float)
     n_bins = edges.size - 1
+    n_fine = n_bins * _RADIAL_SUBBINS
     theta = np.asarray(theta_arcsec, float)
-    fine = _fine_index(theta, edges, _RADIAL_SUBBINS)
-    inside = fine >= 0
-    if theta.size and not np.all(inside):
-        fine, theta, e_t, e_x, weight = take_where(inside, fine, theta, e_t, e_x, weight)
-        if beta is not None:
-            (beta,) = take_where(inside, np.broadcast_to(np.asarray(beta, float), inside.shape))
-        if sigma_cr_msun_per_mpc2 is not None:
-            (sigma_cr_msun_per_mpc2,) = take_where(inside, np.broadcast_to(np.asarray(sigma_cr_msun_per_mpc2, float),
-                                                                            inside.shape))
     e_t = np.asarray(e_t, float)
     e_x = np.asarray(e_x, float)
     w = np.asarray(weight, float)
-    beta_arr = np.ones_like(theta) if beta is None else np.broadcast_to(np.asarray(beta, float), theta.shape)
-    n_fine = n_bins * _RADIAL_SUBBINS
+    beta_arr = None if beta is None else np.broadcast_to(np.asarray(beta, float), theta.shape)
+    sc_arr = (None if sigma_cr_msun_per_mpc2 is None
+              else np.broadcast_to(np.asarray(sigma_cr_msun_per_mpc2, float), theta.shape))
+    blocks = [slice(i, i + _BLOCK) for i in range(0, theta.size, _BLOCK)]
+    fine = np.concatenate([_fine_index(theta[b], edges, _RADIAL_SUBBINS) for b in blocks] or [np.zeros(0, np.int64)])
 
     # one index (sub-bin x beta cell) and one set of sums; bins, sub-bins and cells aggregate them
-    cell, n_beta = fine, 1
-    b_min, b_max = (float(np.min(beta_arr)), float(np.max(beta_arr))) if w.size else (0.0, 0.0)
+    n_beta, b_min, b_max = 1, 0.0, 0.0
+    if beta_arr is not None and theta.size:
+        inside_beta = np.where(fine >= 0, beta_arr, np.nan)
+        if np.any(fine >= 0):
+            b_min, b_max = float(np.nanmin(inside_beta)), float(np.nanmax(inside_beta))
     if with_model_cells and b_max - b_min > 1e-12 * max(b_max, 1e-300):
         n_beta = _BETA_CELLS
-        bq = np.minimum(((beta_arr - b_min) * (n_beta / (b_max - b_min))).astype(np.int64), n_beta - 1)
-        cell = fine * n_beta + bq
     size = n_fine * n_beta
-    w2 = w * w
-    weights = {"n": None, "w": w, "wtheta": w * theta, "st": w * e_t, "sx": w * e_x, "s2": w2,
-               "s2t": w2 * e_t, "s2x": w2 * e_x, "s2ee": w2 * (e_t * e_t + e_x * e_x)}
-    if with_model_cells:
-        wb = w * beta_arr
-        weights.update(wbeta=wb, wbeta2=wb * beta_arr)
-    if sigma_cr_msun_per_mpc2 is not None:
-        sc = np.broadcast_to(np.asarray(sigma_cr_msun_per_mpc2, float), theta.shape)
-        if not np.all(np.isfinite(sc)):  # sources not behind the lens carry no Delta Sigma weight
-            sc = np.where(np.isfinite(sc), sc, np.inf)
-            wd = np.where(np.isfinite(sc), w / (sc * sc), 0.0)
-            sc = np.where(np.isfinite(sc), sc, 0.0)
-        else:
-            wd = w / (sc * sc)
-        wd2 = wd * wd
-        dt, dx = sc * e_t, sc * e_x
-        weights.update(d=wd, dt=wd * dt, dx=wd * dx, d2=wd2, d2t=wd2 * dt, d2x=wd2 * dx, d2ee=wd2 * (dt * dt + dx * dx))
-    cell_sums = {k: np.bincount(cell, weights=v, minlength=size)[:size] for k, v in weights.items()}
+    cell_sums: dict[str, np.ndarray] = {}
+    for b in blocks:
+        sums_b = _block_sums(fine[b], theta[b], e_t[b], e_x[b], w[b], None if beta_arr is None else beta_arr[b],
+                             None if sc_arr is None else sc_arr[b], n_beta, b_min, b_max, size, with_model_cells)
+        for k, v in sums_b.items():
+            cell_sums[k] = cell_sums[k] + v if k in cell_sums else v
+    if not cell_sums:  # no galaxies
+        cell_sums = _block_sums(fine, theta, e_t, e_x, w, beta_arr, sc_arr, n_beta, b_min, b_max, size,
+                                with_model_cells)
     fine_sums = {k: v.reshape(n_fine, n_beta).sum(axis=1) for k, v in cell_sums.items()}
     sums = {k: v.reshape(n_bins, _RADIAL_SUBBINS).sum(axis=1) for k, v in fine_sums.items()}
 
@@ -520,11 +534,13 @@ def shear_profile(
         fds, _, fds_err = _means_errors(fine_sums, "d", "d")
     nan = np.full(n_bins, np.nan)
     boot_t, boot_x = nan, nan.copy()
-    if n_bootstrap and theta.size > 1:
-        idx = fine // _RADIAL_SUBBINS
-        boot_t, boot_x = _bootstrap_errors(idx, n_bins, w, e_t, e_x, int(n_bootstrap), np.random.default_rng(seed))
+    if n_bootstrap and int(count.sum()) > 1:
+        f_in, w_in, t_in, x_in = take_where(fine >= 0, fine, w, e_t, e_x)
+        boot_t, boot_x = _bootstrap_errors(f_in // _RADIAL_SUBBINS, n_bins, w_in, t_in, x_in, int(n_bootstrap),
+                                           np.random.default_rng(seed))
     cells = _cells_from_sums(cell_sums, n_bins, n_beta) if with_model_cells else None
     fine_profile = FineProfile(_fine_edges(edges, _RADIAL_SUBBINS), ft, ferr, fds, fds_err)
-    beta_mean = float(np.sum(w * beta_arr) / np.sum(w)) if w.size else float("nan")
+    with np.errstate(invalid="ignore", divide="ignore"):
+        beta_mean = float(cell_sums["wbeta"].sum() / cell_sums["w"].sum()) if count.sum() else float("nan")
     return ShearProfile(edges, r_mean, count, wsum, g_t, err, g_x, err.copy(), boot_t, boot_x,
                         ds, ds_err, cells, beta_mean, d_l_mpc, fine_profile)
