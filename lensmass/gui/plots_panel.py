@@ -1,75 +1,59 @@
 """The "Curves" panel: enclosed projected mass against radius (SIS, NFW) and the
 Monte Carlo distribution of M(<theta_E), drawn with matplotlib.
 
-Curves come from :mod:`lensmass.core.mass_profiles`; the panel only draws them.
+Curves come from :mod:`lensmass.core.mass_profiles`; they are drawn by the report's
+own functions (:mod:`lensmass.io.report`) in the window's palette, so the plot on
+screen and on the page are one piece of code.
 It redraws when a new result arrives, never on display changes. matplotlib is
 imported when the first result is drawn, so the window opens without waiting for it.
 """
 
 from __future__ import annotations
 
-import numpy as np
 from PySide6.QtCore import Qt
 from PySide6.QtWidgets import QLabel, QTabWidget, QVBoxLayout, QWidget
 
 from lensmass.core.errors import LensInputError
 from lensmass.gui.model import WindowModel
 
-SIS_COLOUR, NFW_COLOUR, POINT_COLOUR = "#2a9d8f", "#c77d2e", "#d1495b"
+#: Text on screen a little larger than on the A4 page (the panel is about the same size in inches
+#: but is read from further away).
+SCREEN_TEXT_SCALE = 1.2
+NO_DRAWS = "No Monte Carlo draws: give an error on theta_E, z_l or z_s to see the mass distribution."
 
 
-def _style_axes(ax, fg: str) -> None:
-    ax.tick_params(colors=fg, labelsize=8)
-    for spine in ax.spines.values():
-        spine.set_color(fg)
-    ax.xaxis.label.set_color(fg)
-    ax.yaxis.label.set_color(fg)
-    ax.title.set_color(fg)
+def _mix(a: str, b: str, t: float) -> str:
+    """The colour ``t`` of the way from ``a`` to ``b`` (hex colours)."""
+    ca, cb = (tuple(int(c[i:i + 2], 16) for i in (1, 3, 5)) for c in (a, b))
+    return "#" + "".join(f"{round(x + (y - x) * t):02x}" for x, y in zip(ca, cb))
 
 
-def draw_mass_curves(ax, result: dict, halo_definition: str, cosmo=None, fg: str = "black") -> str | None:
-    """Draw M_2D(<R) of SIS and NFW for ``result`` on ``ax``; returns a problem sentence or None."""
-    from lensmass.core.mass_profiles import enclosed_mass_curves
+def screen_look(fg: str, bg: str):
+    """The report's plot style in the window's palette (light or dark)."""
+    from lensmass.io.report import PlotInk
 
-    try:
-        curves = enclosed_mass_curves(result, cosmo, halo_definition=halo_definition, band_draws=400)
-    except LensInputError as exc:
-        return str(exc)
-    r = curves.radius_kpc
-    ax.loglog(r, curves.sis_msun, color=SIS_COLOUR, lw=1.6, label="SIS")
-    if curves.sis_p16 is not None:
-        ax.fill_between(r, curves.sis_p16, curves.sis_p84, color=SIS_COLOUR, alpha=0.18, lw=0)
-    if np.isfinite(curves.nfw_msun).any():
-        ax.loglog(r, curves.nfw_msun, color=NFW_COLOUR, lw=1.6, ls="--", label="NFW halo alone")
-        if curves.nfw_p16 is not None:
-            ax.fill_between(r, curves.nfw_p16, curves.nfw_p84, color=NFW_COLOUR, alpha=0.15, lw=0)
-    ax.plot([curves.einstein_radius_kpc], [curves.einstein_mass_msun], "D", mfc="none", mec=POINT_COLOUR,
-            mew=1.5, ms=7, label="M(<theta_E)")
-    ax.axvline(curves.einstein_radius_kpc, color=POINT_COLOUR, lw=0.6, alpha=0.5)
-    ax.set_xlabel("projected radius R [kpc]", fontsize=8)
-    ax.set_ylabel("M_2D(<R) [Msun]", fontsize=8)
-    ax.legend(fontsize=7, frameon=False, labelcolor=fg)
-    ax.grid(True, which="major", alpha=0.25)
-    _style_axes(ax, fg)
-    return None
+    return PlotInk(ink=fg, muted=_mix(fg, bg, 0.35), rule=_mix(fg, bg, 0.8), paper=bg, text_scale=SCREEN_TEXT_SCALE)
 
 
-def draw_mass_histogram(ax, result: dict, fg: str = "black") -> str | None:
-    """Histogram of the Monte Carlo draws of M(<theta_E); a problem sentence when there are none."""
-    from lensmass.core.mass_profiles import sample_histogram
+def draw_result_plot(ax, name: str, result: dict, halo_definition: str, cosmo, look) -> str | None:
+    """Draw plot ``name`` ("mass" or "draws") of ``result`` with the report's drawing functions
+    (:func:`lensmass.io.report.draw_mass_curves`, :func:`~lensmass.io.report.draw_sample_histogram`),
+    so the screen and the page are one drawing. Returns a problem sentence instead when it cannot."""
+    from lensmass.core.mass_profiles import enclosed_mass_curves, sample_histogram
+    from lensmass.io.report import draw_mass_curves, draw_sample_histogram
 
-    h = sample_histogram(result, "mass_einstein_msun")
-    if h is None:
-        return "No Monte Carlo draws: give an error on theta_E, z_l or z_s to see the mass distribution."
-    ax.stairs(h.counts, h.edges, fill=True, color=SIS_COLOUR, alpha=0.55)
-    for v, ls in ((h.median, "-"), (h.interval68[0], "--"), (h.interval68[1], "--")):
-        ax.axvline(v, color=POINT_COLOUR, ls=ls, lw=1)
-    if h.log_bins:
-        ax.set_xscale("log")
-    ax.set_xlabel("M(<theta_E) [Msun]", fontsize=8)
-    ax.set_ylabel("draws", fontsize=8)
-    ax.set_title(f"median {h.median:.3g}, 68% [{h.interval68[0]:.3g}, {h.interval68[1]:.3g}]", fontsize=8)
-    _style_axes(ax, fg)
+    if name == "mass":
+        try:
+            curves = enclosed_mass_curves(result, cosmo, halo_definition=halo_definition, band_draws=400)
+        except LensInputError as exc:
+            return str(exc)
+        draw_mass_curves(ax, curves, interval68=(result.get("intervals68") or {}).get("mass_einstein_msun"),
+                         look=look)
+        return None
+    hist = sample_histogram(result, "mass_einstein_msun")
+    if hist is None:
+        return NO_DRAWS
+    draw_sample_histogram(ax, hist, look=look)
     return None
 
 
@@ -127,6 +111,11 @@ class PlotsPanel(QWidget):
         pal = self.palette()
         bg = pal.color(pal.ColorRole.Window).name()
         fg = pal.color(pal.ColorRole.WindowText).name()
+        look = screen_look(fg, bg)
+        try:
+            cosmo = self.model.session.cosmology.resolve()
+        except LensInputError:
+            cosmo = None
         for fig, canvas, name in ((self.mass_figure, self.mass_canvas, "mass"),
                                   (self.hist_figure, self.hist_canvas, "draws")):
             fig.clear()
@@ -135,18 +124,12 @@ class PlotsPanel(QWidget):
             ax.set_facecolor(bg)
             if result is None:
                 problem = "No estimate yet."
-            elif name == "mass":
-                try:
-                    cosmo = self.model.session.cosmology.resolve()
-                except LensInputError:
-                    cosmo = None
-                problem = draw_mass_curves(ax, result, self.model.session.halo_definition, cosmo, fg)
             else:
-                problem = draw_mass_histogram(ax, result, fg)
+                problem = draw_result_plot(ax, name, result, self.model.session.halo_definition, cosmo, look)
             self.problems[name] = problem
             if problem:
                 ax.clear()
                 ax.set_axis_off()
-                ax.text(0.5, 0.5, problem, ha="center", va="center", wrap=True, fontsize=8, color=fg,
-                        transform=ax.transAxes)
+                ax.text(0.5, 0.5, problem, ha="center", va="center", wrap=True, fontsize=8 * SCREEN_TEXT_SCALE,
+                        color=fg, transform=ax.transAxes)
             canvas.draw_idle()

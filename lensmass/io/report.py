@@ -244,25 +244,43 @@ def _nice_length(target: float) -> float:
     return 10**exp
 
 
-def _style_axes(ax, label_size: float = 7.0, tick_size: float = 6.5) -> None:
+@dataclass(frozen=True)
+class PlotInk:
+    """The colours and text size of the shared plots: the page's by default; the window passes its
+    palette (light or dark) and a larger text so the same drawing reads well on screen."""
+
+    ink: str = INK
+    muted: str = MUTED
+    rule: str = RULE
+    paper: str = "white"
+    text_scale: float = 1.0
+
+
+PAGE_INK = PlotInk()
+
+
+def _style_axes(ax, label_size: float = 7.0, tick_size: float = 6.5, look: PlotInk = PAGE_INK) -> None:
     """Our axis look, set on the Axes itself (no global rc state, safe beside a running window)."""
     for spine in ax.spines.values():
-        spine.set_color(MUTED)
+        spine.set_color(look.muted)
         spine.set_linewidth(0.6)
-    ax.tick_params(which="both", colors=MUTED, labelsize=tick_size, width=0.6)
-    ax.xaxis.label.set_size(label_size)
-    ax.yaxis.label.set_size(label_size)
-    ax.xaxis.label.set_color(INK)
-    ax.yaxis.label.set_color(INK)
+    ax.tick_params(which="both", colors=look.muted, labelsize=tick_size * look.text_scale, width=0.6)
+    ax.xaxis.label.set_size(label_size * look.text_scale)
+    ax.yaxis.label.set_size(label_size * look.text_scale)
+    ax.xaxis.label.set_color(look.ink)
+    ax.yaxis.label.set_color(look.ink)
 
 
-def draw_mass_curves(ax, curves, *, interval68: Sequence[float] | None = None, arcsec_axis: bool = True) -> None:
+def draw_mass_curves(ax, curves, *, interval68: Sequence[float] | None = None, arcsec_axis: bool = True,
+                     look: PlotInk = PAGE_INK) -> None:
     """Enclosed projected mass against radius: SIS, NFW, their 68% bands and the Einstein point.
 
     ``curves`` is a :class:`lensmass.core.mass_profiles.MassCurves`; ``interval68``
     (the estimate's [p16, p84] of M(<theta_E)) draws the Einstein point's error bar.
+    ``look`` sets colours and text size (the page's by default; the window passes its palette).
     """
     r = curves.radius_kpc
+    scale = look.text_scale
     if curves.sis_p16 is not None:
         ax.fill_between(r, curves.sis_p16, curves.sis_p84, color=SIS_COLOUR, alpha=0.18, lw=0)
     if curves.nfw_p16 is not None:
@@ -270,38 +288,44 @@ def draw_mass_curves(ax, curves, *, interval68: Sequence[float] | None = None, a
     ax.plot(r, curves.sis_msun, color=SIS_COLOUR, lw=1.6, label="SIS")
     if np.any(np.isfinite(curves.nfw_msun)):
         ax.plot(r, curves.nfw_msun, color=NFW_COLOUR, lw=1.6, ls=(0, (5, 2)), label="NFW halo alone")
-    ax.axvline(curves.einstein_radius_kpc, color=MUTED, lw=0.7, ls=":")
+    ax.axvline(curves.einstein_radius_kpc, color=look.muted, lw=0.7, ls=":")
     yerr = None
     if interval68 is not None and all(_finite(v) for v in interval68) and interval68[0] != interval68[1]:
         yerr = [[curves.einstein_mass_msun - float(interval68[0])], [float(interval68[1]) - curves.einstein_mass_msun]]
-    ax.errorbar([curves.einstein_radius_kpc], [curves.einstein_mass_msun], yerr=yerr, fmt="o", ms=5, color=INK,
-                mfc="white", mew=1.3, capsize=2.5, zorder=5, label=r"$M(<\theta_E)$ at $R_E$")
+    ax.errorbar([curves.einstein_radius_kpc], [curves.einstein_mass_msun], yerr=yerr, fmt="o", ms=5, color=look.ink,
+                mfc=look.paper, mew=1.3, capsize=2.5, zorder=5, label=r"$M(<\theta_E)$ at $R_E$")
     ax.set_xscale("log")
     ax.set_yscale("log")
     ax.set_xlim(r.min(), r.max())
     ax.set_xlabel("projected radius R [kpc]")
     ax.set_ylabel(r"$M_{2D}(<R)$ [M$_\odot$]")
-    _style_axes(ax)
-    ax.grid(True, which="major", color=RULE, lw=0.5)
-    ax.legend(loc="upper left", fontsize=7, frameon=False)
+    _style_axes(ax, look=look)
+    ax.grid(True, which="major", color=look.rule, lw=0.5)
+    # the page keeps matplotlib's default legend text colour; another palette sets its own ink
+    ax.legend(loc="upper left", fontsize=7 * scale, frameon=False, labelcolor=None if look == PAGE_INK else look.ink)
     if arcsec_axis:
         k = curves.einstein_radius_kpc / curves.einstein_radius_arcsec
         top = ax.secondary_xaxis("top", functions=(lambda x, k=k: x / k, lambda t, k=k: t * k))
-        top.set_xlabel("angle [arcsec]", fontsize=7, color=MUTED)
-        top.tick_params(labelsize=6.5, colors=MUTED)
+        top.set_xlabel("angle [arcsec]", fontsize=7 * scale, color=look.muted)
+        top.tick_params(labelsize=6.5 * scale, colors=look.muted)
 
 
-def draw_sample_histogram(ax, hist, *, unit: str = r"M$_\odot$", label: str = r"$M(<\theta_E)$") -> None:
-    """Step histogram of Monte Carlo draws with the median and the 68% interval shaded."""
+def draw_sample_histogram(ax, hist, *, unit: str = r"M$_\odot$", label: str = r"$M(<\theta_E)$",
+                          look: PlotInk = PAGE_INK, empty_text: str = "no uncertainty propagated\n(no Monte Carlo draws)") -> None:
+    """Step histogram of Monte Carlo draws with the median and the 68% interval shaded.
+
+    ``hist`` is a :class:`lensmass.core.mass_profiles.SampleHistogram` or None (then
+    ``empty_text`` is shown); ``look`` sets colours and text size.
+    """
     if hist is None:
-        ax.text(0.5, 0.5, "no uncertainty propagated\n(no Monte Carlo draws)", ha="center", va="center",
-                fontsize=7.5, color=MUTED, transform=ax.transAxes)
+        ax.text(0.5, 0.5, empty_text, ha="center", va="center", wrap=True,
+                fontsize=7.5 * look.text_scale, color=look.muted, transform=ax.transAxes)
         ax.set_xticks([])
         ax.set_yticks([])
         return
     exp = None if hist.log_bins else _power(hist.median)
     scale = 1.0 if exp is None else 10.0**exp
-    ax.stairs(hist.counts, hist.edges / scale, color=INK, lw=1.0, fill=False)
+    ax.stairs(hist.counts, hist.edges / scale, color=look.ink, lw=1.0, fill=False)
     ax.axvspan(hist.interval68[0] / scale, hist.interval68[1] / scale, color=SIS_COLOUR, alpha=0.15, lw=0)
     ax.axvline(hist.median / scale, color=SIS_COLOUR, lw=1.2)
     if hist.log_bins:
@@ -309,9 +333,9 @@ def draw_sample_histogram(ax, hist, *, unit: str = r"M$_\odot$", label: str = r"
     ax.set_yticks([])
     power = "" if exp is None else f"$10^{{{exp}}}$ "
     ax.set_xlabel(f"{label} [{power}{unit}]" if unit or power else label)
-    _style_axes(ax)
-    ax.text(0.99, 0.95, f"{hist.n_finite} draws\nline: median\nshaded: 68%", fontsize=6.3, color=MUTED,
-            ha="right", va="top", transform=ax.transAxes)
+    _style_axes(ax, look=look)
+    ax.text(0.99, 0.95, f"{hist.n_finite} draws\nline: median\nshaded: 68%", fontsize=6.3 * look.text_scale,
+            color=look.muted, ha="right", va="top", transform=ax.transAxes)
 
 
 # ------------------------------------------------------------------ page
