@@ -214,9 +214,12 @@ def lensing_efficiency(z_l: float, z_s, cosmo) -> tuple[np.ndarray, np.ndarray, 
             beta = np.where(z_s > z_l, d_ls / d_s, 0.0)
     else:
         beta = _interp_beta(z_s, z_l, cosmo)
-    with np.errstate(divide="ignore"):
-        sigma_cr = sigma_crit_msun_per_mpc2(d_l, 1.0, beta)  # D_s / D_ls = 1 / beta
-    return beta, sigma_cr, d_l
+
+    def sigma_cr_of(b):
+        with np.errstate(divide="ignore"):
+            return (sigma_crit_msun_per_mpc2(d_l, 1.0, b),)  # D_s / D_ls = 1 / beta
+
+    return beta, _blockwise(sigma_cr_of, beta)[0], d_l
 
 
 _BETA_GRID_NODES = 100_000
@@ -245,11 +248,18 @@ def _interp_beta(z, z_l: float, cosmo) -> np.ndarray:
     """Linear interpolation of the table (direct index, no search); exact route past its end."""
     u0, step, values = _beta_table(z_l, cosmo)
     z = np.asarray(z, float)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        t = (np.log(np.maximum(z - z_l, 0.0) + _BETA_SOFT) - u0) / step
-    i = np.clip(t.astype(np.int64), 0, values.size - 2)
-    frac = t - i
-    out = np.where(z > z_l, values[i] + frac * (values[i + 1] - values[i]), 0.0)
+    scale = 1.0 / step
+
+    def interpolate(z):
+        with np.errstate(invalid="ignore", divide="ignore"):
+            t = (np.log(np.maximum(z - z_l, 0.0) + _BETA_SOFT) - u0) * scale
+        i = np.clip(t.astype(np.int64), 0, values.size - 2)
+        lo = values.take(i)
+        beta = lo + (t - i) * (values.take(i + 1) - lo)
+        beta[~(z > z_l)] = 0.0
+        return (beta,)
+
+    out = _blockwise(interpolate, z)[0]
     far = z > _BETA_ZMAX
     if np.any(far):
         _, d_s, d_ls = angular_diameter_distances_mpc(z_l, z[far], cosmo)
