@@ -103,6 +103,12 @@ def mistake_ds_for_dls(theta_e_arcsec, z_l, z_s, cosmo) -> dict:
     return _quantities(d_l, d_s, d_s, _theta_rad(theta_e_arcsec))
 
 
+def mistake_dls_as_difference(theta_e_arcsec, z_l, z_s, cosmo) -> dict:
+    """D_ls taken as D_s - D_l (angular-diameter distances do not subtract; Hogg 1999, eq. 19)."""
+    d_l, d_s, _ = _angular(z_l, z_s, cosmo)
+    return _quantities(d_l, d_s, d_s - d_l, _theta_rad(theta_e_arcsec))
+
+
 def mistake_comoving_distance(theta_e_arcsec, z_l, z_s, cosmo) -> dict:
     """Line-of-sight comoving distances D_C (and D_C(z_s) - D_C(z_l)) in place of D_A."""
     dc_l, dc_s = _comoving(z_l, z_s, cosmo)
@@ -185,6 +191,8 @@ class Mistake:
 
 MISTAKES: tuple[Mistake, ...] = (
     Mistake("ds_for_dls", "used D_s where D_ls belongs", mistake_ds_for_dls),
+    Mistake("dls_as_difference", "took D_ls as D_s - D_l (angular-diameter distances do not subtract)",
+            mistake_dls_as_difference),
     Mistake("comoving_distance", "used comoving distances instead of angular-diameter distances",
             mistake_comoving_distance),
     Mistake("luminosity_distance", "used luminosity distances instead of angular-diameter distances",

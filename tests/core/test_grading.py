@@ -79,6 +79,9 @@ def crafted_wrong_answers():
         ("ds_for_dls", "sigma_cr_msun_per_pc2", astropy_answer(theta, d_l, d_s, d_s)["sigma_cr_msun_per_pc2"]),
         ("ds_for_dls", "sis_sigma_v_kms", astropy_answer(theta, d_l, d_s, d_s)["sis_sigma_v_kms"]),
         ("ds_for_dls", "d_ls_mpc", d_s.to_value(u.Mpc)),
+        # Hogg (1999) eq. 19: D_ls is not D_s - D_l; the subtraction is a classic slip (common practice).
+        ("dls_as_difference", "d_ls_mpc", (d_s - d_l).to_value(u.Mpc)),
+        ("dls_as_difference", "mass_einstein_msun", astropy_answer(theta, d_l, d_s, d_s - d_l)["mass_einstein_msun"]),
         ("comoving_distance", "mass_einstein_msun", astropy_answer(theta, dc_l, dc_s, dc_s - dc_l)["mass_einstein_msun"]),
         ("comoving_distance", "d_l_mpc", dc_l.to_value(u.Mpc)),
         ("luminosity_distance", "mass_einstein_msun",
