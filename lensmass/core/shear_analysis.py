@@ -23,12 +23,12 @@ from lensmass.core.shear_profile import (
     lens_distance_mpc,
     lensing_efficiency,
     radial_bin_edges,
-    radius_arcsec,
     select_sources,
     shear_profile,
-    tangent_plane_offsets_arcsec,
+    sky_offsets_and_radius,
     take_where,
     tangential_cross,
+    within_radii,
 )
 from lensmass.core.uncertainty import DEFAULT_SEED
 
@@ -141,14 +141,13 @@ def analyse_shear_catalog(
     n_rows = int(ra.size)
     w = np.ones(n_rows) if weight is None else np.asarray(weight, float)
     step(0.05, "projecting positions")
-    x, y = tangent_plane_offsets_arcsec(ra, dec_deg, center_ra, center_dec)
-    ok, dropped = select_sources(e1, e2, w, z, z_l, positions_ok=np.isfinite(x) & np.isfinite(y), z_margin=z_margin)
+    x, y, theta, placed = sky_offsets_and_radius(ra, dec_deg, center_ra, center_dec)
+    ok, dropped = select_sources(e1, e2, w, z, z_l, positions_ok=placed, z_margin=z_margin)
     if z is None:
         dropped["source_not_behind_lens"] = 0
     if not np.any(ok):
         reasons = ", ".join(f"{k.replace('_', ' ')}: {v}" for k, v in dropped.items() if v)
         raise LensInputError(f"No usable galaxies in the catalogue ({reasons}): check the columns and --zl.")
-    theta = radius_arcsec(x, y)
     d_l = lens_distance_mpc(z_l, cosmo)
     if r_max is None:
         r_max_as = float(np.max(np.where(ok, theta, -np.inf))) * (1 + 1e-9)
@@ -165,15 +164,14 @@ def analyse_shear_catalog(
         from lensmass.core.aperture_mass import zeta_prefactor
 
         zeta_prefactor(z_in, z_out)  # raises the clear message
-    with np.errstate(invalid="ignore"):
-        in_range = ok & (theta >= edges[0]) & (theta < edges[-1])
-        # only galaxies in the profile or the zeta annulus take part in what follows
-        near = in_range | (ok & (theta >= z_in) & (theta < z_out))
+    # only galaxies in the profile or the zeta annulus take part in what follows
+    in_range, near = within_radii(theta, ok, (edges[0], edges[-1]), (z_in, z_out))
     n_in_range = int(np.count_nonzero(in_range))
     dropped["outside_radial_range"] = int(np.count_nonzero(ok)) - n_in_range
     e1a, e2a = np.asarray(e1, float), np.asarray(e2, float)
-    t_n, x_n, y_n, e1_n, e2_n, w_n = take_where(near, theta, x, y, e1a, e2a, w)
-    z_n = None if z is None else take_where(near, np.asarray(z, float))[0]
+    columns = (theta, x, y, e1a, e2a, w) + (() if z is None else (np.asarray(z, float),))
+    t_n, x_n, y_n, e1_n, e2_n, w_n, *z_n = take_where(near, *columns)
+    z_n = z_n[0] if z_n else None
     step(0.15, "source distances")
     beta, sigma_cr, _ = lensing_efficiency(z_l, z_n if z_n is not None else z_s, cosmo)
     e_t, e_x = tangential_cross(e1_n, e2_n, x_n, y_n)

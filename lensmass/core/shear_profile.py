@@ -118,13 +118,39 @@ def tangent_plane_to_sky(x_arcsec, y_arcsec, ra0_deg: float, dec0_deg: float):
     return np.degrees(ra) % 360.0, np.degrees(dec)
 
 
+def _radius(x, y):
+    return np.arctan(np.sqrt(x * x + y * y) * ARCSEC_RAD) * (1.0 / ARCSEC_RAD)
+
+
 def radius_arcsec(x_arcsec, y_arcsec) -> np.ndarray:
     """True angular distance from the centre for gnomonic offsets: arctan(rho)."""
-    def radius(x, y):
-        rho = np.sqrt(x * x + y * y) * ARCSEC_RAD
-        return (np.arctan(rho) * (1.0 / ARCSEC_RAD),)
+    return _blockwise(lambda x, y: (_radius(x, y),), x_arcsec, y_arcsec)[0]
 
-    return _blockwise(radius, x_arcsec, y_arcsec)[0]
+
+def sky_offsets_and_radius(ra_deg, dec_deg, ra0_deg: float, dec0_deg: float):
+    """:func:`tangent_plane_offsets_arcsec` and :func:`radius_arcsec` in one pass, with a mask of
+    the positions that project (finite offsets): (x, y, theta, placed)."""
+    def one(ra, dec):
+        x, y = _gnomonic(ra, dec, float(ra0_deg), float(dec0_deg))
+        return x, y, _radius(x, y), np.isfinite(x) & np.isfinite(y)
+
+    return _blockwise(one, ra_deg, dec_deg)
+
+
+def within_radii(theta_arcsec, usable, *ranges) -> list[np.ndarray]:
+    """For each (inner, outer) range, in the running union, the usable rows with inner <= theta < outer.
+
+    Returns the first range's mask and the mask of rows in any of the ranges.
+    """
+    def masks(theta, ok):
+        with np.errstate(invalid="ignore"):
+            first = ok & (theta >= ranges[0][0]) & (theta < ranges[0][1])
+            union = first.copy()
+            for lo, hi in ranges[1:]:
+                union |= ok & (theta >= lo) & (theta < hi)
+        return first, union
+
+    return list(_blockwise(masks, theta_arcsec, usable))
 
 
 def tangential_cross(e1, e2, x_arcsec, y_arcsec) -> tuple[np.ndarray, np.ndarray]:
