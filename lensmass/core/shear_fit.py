@@ -26,7 +26,11 @@ from lensmass.core.concentration import concentration_relation
 from lensmass.core.constants import ARCSEC_RAD
 from lensmass.core.errors import LensInputError
 from lensmass.core.lensing import sigma_crit_msun_per_mpc2
-from lensmass.core.nfw import nfw_convergence, nfw_halo, nfw_shear
+from lensmass.core.nfw import (
+    nfw_halo,
+    nfw_mean_surface_density_msun_per_mpc2,
+    nfw_surface_density_msun_per_mpc2,
+)
 from lensmass.core.shear_profile import ModelCells, ShearProfile
 from lensmass.core.sis import sis_convergence, sis_shear, sis_theta_e_arcsec
 
@@ -79,8 +83,11 @@ def nfw_model_cells(m_delta_msun, concentration, cells: ModelCells, z_l: float, 
     halo = nfw_halo(m, c, z_l, cosmo, definition)
     radius_mpc = cells.theta_arcsec * ARCSEC_RAD * d_l_mpc
     sigma_cr_inf = sigma_crit_msun_per_mpc2(d_l_mpc, 1.0, 1.0)  # for D_ls / D_s = 1
-    return cell_reduced_shear(nfw_shear(radius_mpc, halo, sigma_cr_inf),
-                              nfw_convergence(radius_mpc, halo, sigma_cr_inf), cells)
+    # gamma = (mean Sigma(<R) - Sigma(R)) / Sigma_cr and kappa = Sigma(R) / Sigma_cr from one
+    # evaluation of each profile (nfw_shear and nfw_convergence would evaluate Sigma(R) twice)
+    sigma = nfw_surface_density_msun_per_mpc2(radius_mpc, halo)
+    mean = nfw_mean_surface_density_msun_per_mpc2(radius_mpc, halo)
+    return cell_reduced_shear((mean - sigma) / sigma_cr_inf, sigma / sigma_cr_inf, cells)
 
 
 def _chunked(fn: Callable, params: tuple[np.ndarray, ...], n_cells: int) -> np.ndarray:
