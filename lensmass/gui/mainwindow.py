@@ -587,6 +587,33 @@ class MainWindow(QMainWindow):
             # The lens-light model is not stored in sessions: fit it again to restore that view.
             self.fit_lens_light(then_layer=wanted_layer)
 
+    def restore_marks(self, state: dict, what: str = "The stored measurement") -> bool:
+        """Put the marks, redshifts and arc systems of a session dict back over the open image
+        (panel API, see panel_registry). The image, its display and the panels stay as they are.
+        True if restored; a damaged dict is one sentence in the status bar and changes nothing."""
+        from lensmass.io.session import Session
+
+        if self.model.image is None:
+            self.show_message("Open the candidate's image first: the stored marks belong on it.")
+            return False
+        try:
+            session = Session.from_dict(state, None, source=what)
+        except LensInputError as exc:
+            self.show_message(str(exc))
+            return False
+        session.image = self.model.session.image  # the image as opened now (its folder may have moved)
+        session.display = self.model.session.display
+        session.panels = self.model.session.panels
+        loaded, path = self.model.image.loaded, self.model.session_path
+        # A fresh undo stack, as when a session opens: the restored marks are where this visit starts;
+        # undoing them one by one would walk back through edits made in an earlier visit, and one
+        # undo step back to a bare image is what "open the image again" already gives.
+        self.undo_stack.clear()
+        self.tasks.cancel()
+        self.model.load_session(session, loaded, path)
+        self._after_open()
+        return True
+
     def _after_open(self) -> None:
         self._sync_display_widgets()
         self._recolour(keep_view=False)  # layers and limits are already cached by the "image" notice

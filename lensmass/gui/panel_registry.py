@@ -50,7 +50,10 @@ A panel is a ``QWidget`` subclass::
     ``on_result(value)`` / ``on_error(message)`` run back on the GUI thread.
     ``window.open_path(path)`` opens an image or session in the window (asks
     before discarding unsaved marks; returns True if it opened);
-    ``window.show_message(text)`` shows one sentence in the status bar.
+    ``window.show_message(text)`` shows one sentence in the status bar;
+    ``window.restore_marks(state)`` puts the marks, redshifts and arc systems of a
+    session dict (``app_model.to_session().to_dict()``, as stored earlier) back over
+    the open image, with a fresh undo stack (returns True if it did).
 
 Saved state (optional)
 ----------------------

@@ -42,6 +42,16 @@ KEY_HELP = ("Keys in the list: " + ", ".join(f"{k} {what.split(' (')[0]}" for k,
             "Grades: " + "; ".join(f"{g} {name} ({meaning})" for g, (name, meaning) in GRADE_SCALE.items()) + ".")
 
 
+def _marks_signature(model) -> str:
+    """The measured part of the window's session (marks, redshifts, models), not how it is displayed."""
+    import json
+
+    d = model.to_session().to_dict()
+    keep = ("centre", "z_l", "z_l_err", "cosmology", "concentration", "halo_definition", "mc_samples", "mc_seed")
+    arcs = [{k: v for k, v in a.items() if k != "fit"} for a in d["arcs"]]
+    return json.dumps({"arcs": arcs, **{k: d[k] for k in keep}}, sort_keys=True, default=str)
+
+
 class _Keys(QObject):
     """Key handling on the candidate list (so typing a note never grades)."""
 
@@ -89,6 +99,8 @@ class TriagePanel(QWidget):
         self._team: dict[str, dict] = {}
         self._measured: set[str] = set()
         self.remembered_manifest: str | None = None
+        #: candidate -> what its marks were when last stored or restored (to skip storing them again)
+        self._restored: dict[str, str] = {}
         self._build()
         self.model.subscribe(self._on_model)
 
@@ -316,17 +328,36 @@ class TriagePanel(QWidget):
         self._leave_current()
         self.current_id = cand
         row = self.manifest.by_id()[cand]
+        opened = False
         if row.image is not None:
-            if not self.window.open_path(str(row.image)):
+            opened = self.window.open_path(str(row.image))
+            if not opened:
                 self._say(f"Could not open the image of {cand}; the grade can still be given.")
+        restored, restore_note = self._restore_stored_marks(cand) if opened else (False, "")
         texts = {k: f"{v:g}" for k, v in (("z_l", row.z_l), ("z_s", row.z_s)) if v is not None}
-        if texts:
+        if texts and not restored:
             self.model.set_texts(texts)
         self._stored_result_ids.setdefault(cand, id(self.model.result) if self.model.result is not None else 0)
         self._sync_controls()
         where = f" at RA {row.ra_deg:.5f}, Dec {row.dec_deg:+.5f}" if None not in (row.ra_deg, row.dec_deg) else ""
         self._say(f"{cand}{where}" + (f": {row.notes}" if row.notes else "") + f" ({self._position()})"
-                  + self._last_measurement_text(cand) + ".")
+                  + self._last_measurement_text(cand) + restore_note + ".")
+
+    def _restore_stored_marks(self, cand: str) -> tuple[bool, str]:
+        """Show again the marks this grader stored with ``cand`` (their latest): (restored, note for the status)."""
+        if self.store is None or self.model.image is None:
+            return False, ""
+        try:
+            mine = [m for m in self.store.measurements(cand)
+                    if m["grader"] == self.grader_name() and m.get("session_state")]
+        except LensInputError:
+            return False, ""
+        if not mine:
+            return False, ""
+        if not self.window.restore_marks(mine[-1]["session_state"], f"The stored marks of {cand}"):
+            return False, "; your stored marks could not be read, so the image opens bare"
+        self._restored[cand] = _marks_signature(self.model)
+        return True, "; your stored marks are back"
 
     def _last_measurement_text(self, cand: str) -> str:
         if cand not in self._measured:
@@ -346,9 +377,11 @@ class TriagePanel(QWidget):
         return f"{self.tree.indexOfTopLevelItem(item) + 1} of {self.tree.topLevelItemCount()}"
 
     def _leave_current(self) -> None:
-        """Store the window's new result with the candidate being left (if any)."""
+        """Store the window's new result with the candidate being left (if any); restored marks
+        that were not changed are not stored a second time."""
         if self.current_id and self.store is not None and self.model.result is not None:
-            if self._stored_result_ids.get(self.current_id) != id(self.model.result):
+            unchanged = self._restored.get(self.current_id) == _marks_signature(self.model)
+            if self._stored_result_ids.get(self.current_id) != id(self.model.result) and not unchanged:
                 self.store_measurement()
 
     def _sync_controls(self) -> None:
@@ -410,11 +443,13 @@ class TriagePanel(QWidget):
             self._say("No measurement to store yet: mark the arcs and give the redshifts first.")
             return
         try:
-            receipt = self.store.add_measurement(self.current_id, result, grader=self.grader_name())
+            receipt = self.store.add_measurement(self.current_id, result, grader=self.grader_name(),
+                                                 session_state=self.model.to_session().to_dict())
         except LensInputError as exc:
             self._say(str(exc))
             return
         self._stored_result_ids[self.current_id] = id(result)
+        self._restored[self.current_id] = _marks_signature(self.model)
         mass = result.get("mass_einstein_msun")
         text = f"Measurement of {self.current_id} stored"
         if isinstance(mass, float) and math.isfinite(mass):

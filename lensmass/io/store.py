@@ -49,6 +49,8 @@ DISAGREEMENT_STEPS = 2
 
 GRADE_COLUMNS = ("uid", "queue", "candidate", "grader", "grade", "flagged", "note", "created_utc", "machine")
 MEASUREMENT_COLUMNS = ("uid", "queue", "candidate", "grader", "created_utc", "result_json")
+#: Key of the window's session dict inside a stored measurement's JSON (older rows lack it).
+SESSION_STATE_KEY = "session_state"
 
 _SCHEMA = """
 CREATE TABLE IF NOT EXISTS lm_grades (
@@ -197,12 +199,19 @@ class GradeStore:
         return self._write("lm_grades", GRADE_COLUMNS, self.grade_row(candidate, grade, flagged=flagged,
                                                                       note=note, grader=grader))
 
-    def add_measurement(self, candidate: str, result: dict, *, grader: str | None = None) -> Receipt:
-        """Store a measurement result (an ``estimate`` mapping) with the candidate."""
+    def add_measurement(self, candidate: str, result: dict, *, grader: str | None = None,
+                        session_state: dict | None = None) -> Receipt:
+        """Store a measurement result (an ``estimate`` mapping) with the candidate.
+
+        ``session_state`` (optional) is the measuring window's session dict (marks, redshifts,
+        arc systems: what a session file holds), kept in the same row so the marks can be
+        shown again; :meth:`measurements` returns it apart from the result.
+        """
         from lensmass.io.jsonout import dumps
 
+        payload = dict(result) if session_state is None else {**result, SESSION_STATE_KEY: session_state}
         values = (uuid.uuid4().hex, self.queue, str(candidate), grader or self.grader, now_utc(),
-                  dumps(result, indent=None))
+                  dumps(payload, indent=None))
         return self._write("lm_measurements", MEASUREMENT_COLUMNS, values)
 
     def _write(self, table: str, columns: tuple[str, ...], values: tuple) -> Receipt:
@@ -238,10 +247,13 @@ class GradeStore:
         return consensus_of(self.current().values())
 
     def measurements(self, candidate: str | None = None) -> list[dict[str, Any]]:
-        """Stored measurements, oldest first; ``result`` is the parsed mapping."""
+        """Stored measurements, oldest first; ``result`` is the parsed mapping and ``session_state``
+        the window's session dict stored with it (None for rows stored without one)."""
         out = []
         for d in self._select("lm_measurements", MEASUREMENT_COLUMNS, candidate):
             d["result"] = json.loads(d.pop("result_json"))
+            state = d["result"].pop(SESSION_STATE_KEY, None)
+            d["session_state"] = state if isinstance(state, dict) else None
             out.append(d)
         return out
 
