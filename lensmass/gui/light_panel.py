@@ -259,6 +259,12 @@ class LightPanel(QWidget):
         outer.addStretch(1)
 
         self.source.currentIndexChanged.connect(self._source_changed)
+        # user edits of the inputs are unsaved changes of the measurement (they are saved with it)
+        for edit in self.edits.values():
+            edit.textEdited.connect(self._edited)
+        for combo in (self.source, self.band, self.system, self.profile, self.stellar):
+            combo.activated.connect(self._edited)
+        self.mask_bright.clicked.connect(self._edited)
         self._source_changed()
         canvas.set_layer(LAYER, self._draw)
         app_model.subscribe(self._on_model)
@@ -307,6 +313,11 @@ class LightPanel(QWidget):
     def panel_state(self, session_dir=None) -> dict:
         """What the user typed and chose (the numbers are recomputed, never saved)."""
         return {"texts": self.texts(), "choices": self.choices()}
+
+    def _edited(self, *_args) -> None:
+        from lensmass.gui.panel_registry import mark_unsaved
+
+        mark_unsaved(self.window)
 
     def restore_panel_state(self, state: dict, session_dir=None) -> None:
         texts = state.get("texts") if isinstance(state.get("texts"), dict) else {}

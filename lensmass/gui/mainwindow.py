@@ -460,6 +460,11 @@ class MainWindow(QMainWindow):
                                   f"not saved ({type(exc).__name__}: {exc}); the marks were.")
         return session
 
+    def mark_unsaved(self) -> None:
+        """A panel's input changed: the measurement has unsaved changes (panel API, see panel_registry)."""
+        self.model.dirty = True
+        self._update_title()
+
     def _restore_panel(self, panel, states: dict, session_dir: Path | None) -> None:
         from lensmass.gui.panel_registry import panel_key
 

@@ -72,6 +72,8 @@ class name)::
         # put the inputs back; tolerate missing keys (older files); paths through resolved_path()
         ...
 
+When the user edits one of those inputs, call ``window.mark_unsaved()`` so the
+window asks before dropping the change and autosaves it.
 ``session_dir`` is the folder of the session file (None for an autosave: paths are
 then stored absolute). ``restore_panel_state`` is called only when the session has
 an entry for the panel, so an older session without one leaves the panel as it is;
@@ -101,6 +103,13 @@ DEFAULT_DOCK_AREA = "right"
 def panel_key(panel) -> str:
     """The name of a panel's entry in a session's ``panels`` (``PANEL_KEY`` or the class name)."""
     return str(getattr(panel, "PANEL_KEY", type(panel).__name__))
+
+
+def mark_unsaved(window) -> None:
+    """Tell ``window`` that a panel input changed (a no-op for a window without that call)."""
+    mark = getattr(window, "mark_unsaved", None)
+    if mark is not None:
+        mark()
 
 
 def stored_path(path: str | os.PathLike | None, session_dir: str | os.PathLike | None) -> dict | None:

@@ -190,6 +190,11 @@ class ShearPanel(QWidget):
         self.flips = (False, False)
         self.output: dict | None = None
         self._build()
+        # user edits of the settings are unsaved changes of the measurement (they are saved with it)
+        for name in self._TEXTS:
+            getattr(self, name).textEdited.connect(self._edited)
+        self.bins_spin.valueChanged.connect(self._edited)
+        self.contour_box.clicked.connect(self._edited)
         self.model.subscribe(self._on_model)
         self._on_model("inputs")
 
@@ -293,6 +298,7 @@ class ShearPanel(QWidget):
         mapped = ", ".join(f"{k}={v}" for k, v in self.columns.items())
         self.catalog_label.setText(f"{Path(path).name} ({mapped})")
         self._say("Catalogue ready: set the centre and press 'Measure shear'.")
+        self._edited()
         return True
 
     # ------------------------------------------------------------- saved in sessions (panel_registry)
@@ -308,6 +314,11 @@ class ShearPanel(QWidget):
                 "contours": self.contour_box.isChecked(),
                 "texts": {name: getattr(self, name).text() for name in self._TEXTS}}
 
+    def _edited(self, *_args) -> None:
+        from lensmass.gui.panel_registry import mark_unsaved
+
+        mark_unsaved(self.window)
+
     def restore_panel_state(self, state: dict, session_dir=None) -> None:
         from lensmass.gui.panel_registry import resolved_path
 
@@ -316,7 +327,9 @@ class ShearPanel(QWidget):
             if isinstance(texts.get(name), str):
                 getattr(self, name).setText(texts[name])
         if isinstance(state.get("bins"), int):
+            self.bins_spin.blockSignals(True)  # restoring is not an edit
             self.bins_spin.setValue(state["bins"])
+            self.bins_spin.blockSignals(False)
         self.contour_box.setChecked(bool(state.get("contours", True)))
         flips = state.get("flips")
         self.flips = (bool(flips[0]), bool(flips[1])) if isinstance(flips, list) and len(flips) == 2 else (False, False)
@@ -350,6 +363,7 @@ class ShearPanel(QWidget):
             return
         ra, dec = image.loaded.pixel_to_sky(x, y)
         self.centre_edit.setText(f"{float(ra):.6f}, {float(dec):.6f}")
+        self._edited()
         self._say(f"Centre set from pixel ({x:.1f}, {y:.1f}).")
 
     # ------------------------------------------------------------- run

@@ -132,3 +132,21 @@ def test_autosave_keeps_panel_inputs_and_an_old_session_still_opens(make_window,
     assert w.open_path(str(old)), w.last_error
     assert len(w.model.active_system.points) == 5
     assert light.edits["kcorr"].text() == "0.12" and shear.bins_spin.value() == 11
+
+
+def test_typing_in_a_panel_is_an_unsaved_change(make_window, qtbot, tmp_path):
+    image, _truth = demo_field("tris_ring_a")
+    w = make_window(load_panels=True)
+    assert w.open_path(str(image))
+    p = _wait_panels(qtbot, w)
+    assert not w.model.dirty
+    qtbot.keyClicks(p["light"].edits["mag"], "18.2")
+    assert w.model.dirty and "*" in w.windowTitle()
+    assert w._save_to(str(tmp_path / "s.lensmass.json"))
+    assert not w.model.dirty
+    qtbot.keyClicks(p["shear"].smooth_edit, "5")
+    assert w.model.dirty
+    # restoring a session's inputs is not an edit (the window asks about the unsaved one: "discard")
+    assert w.open_path(str(tmp_path / "s.lensmass.json"))
+    p = _panels(w)
+    assert not w.model.dirty and p["light"].edits["mag"].text() == "18.2"
