@@ -88,18 +88,17 @@ def _gnomonic(ra_deg, dec_deg, ra0_deg: float, dec0_deg: float):
     u = np.tan(dec_deg * half)
     s0, c0 = np.sin(np.radians(dec0_deg)), np.cos(np.radians(dec0_deg))
     t2 = t * t
-    a = 1.0 + t2
-    one_u2 = (1.0 - u) * (1.0 + u)
+    ua = u * (1.0 + t2)  # all terms below are halved: the common factor 2 cancels
+    one_u2 = 1.0 - u * u
     p = one_u2 * (1.0 - t2)
-    two_u = u + u
-    d = two_u * a * s0 + p * c0
+    d = ua * s0 + p * (0.5 * c0)
     with np.errstate(divide="ignore", invalid="ignore"):
         inv = (1.0 / ARCSEC_RAD) / d
     behind = d <= 0
     if np.any(behind):
         inv[behind] = np.nan
-    x = (t + t) * one_u2 * inv
-    y = (two_u * a * c0 - p * s0) * inv
+    x = t * one_u2 * inv
+    y = (ua * c0 - p * (0.5 * s0)) * inv
     return x, y
 
 
@@ -132,7 +131,8 @@ def sky_offsets_and_radius(ra_deg, dec_deg, ra0_deg: float, dec0_deg: float):
     the positions that project (finite offsets): (x, y, theta, placed)."""
     def one(ra, dec):
         x, y = _gnomonic(ra, dec, float(ra0_deg), float(dec0_deg))
-        return x, y, _radius(x, y), np.isfinite(x) & np.isfinite(y)
+        theta = _radius(x, y)
+        return x, y, theta, np.isfinite(theta)  # NaN in x or y gives NaN; neither is ever infinite
 
     return _blockwise(one, ra_deg, dec_deg)
 
