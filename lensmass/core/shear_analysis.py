@@ -21,13 +21,13 @@ from lensmass.core.shear_fit import cross_shear_test, fit_nfw, fit_sis
 from lensmass.core.shear_profile import (
     DEFAULT_Z_MARGIN,
     lens_distance_mpc,
+    lensed_sources,
     lensing_efficiency,
     radial_bin_edges,
     select_sources,
     shear_profile,
     sky_offsets_and_radius,
     take_where,
-    tangential_cross,
     within_radii,
 )
 from lensmass.core.uncertainty import DEFAULT_SEED
@@ -169,12 +169,9 @@ def analyse_shear_catalog(
     n_in_range = int(np.count_nonzero(in_range))
     dropped["outside_radial_range"] = int(np.count_nonzero(ok)) - n_in_range
     e1a, e2a = np.asarray(e1, float), np.asarray(e2, float)
-    columns = (theta, x, y, e1a, e2a, w) + (() if z is None else (np.asarray(z, float),))
-    t_n, x_n, y_n, e1_n, e2_n, w_n, *z_n = take_where(near, *columns)
-    z_n = z_n[0] if z_n else None
     step(0.15, "source distances")
-    beta, sigma_cr, _ = lensing_efficiency(z_l, z_n if z_n is not None else z_s, cosmo)
-    e_t, e_x = tangential_cross(e1_n, e2_n, x_n, y_n)
+    t_n, e_t, e_x, w_n, beta, sigma_cr, _ = lensed_sources(near, theta, x, y, e1a, e2a, w,
+                                                           z_s if z is None else z, z_l, cosmo)
     step(0.3, "binned profile")
     profile = shear_profile(t_n, e_t, e_x, w_n, edges, beta=beta, sigma_cr_msun_per_mpc2=sigma_cr, d_l_mpc=d_l,
                             n_bootstrap=n_bootstrap, seed=seed)

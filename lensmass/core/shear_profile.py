@@ -272,25 +272,57 @@ def _beta_table(z_l: float, cosmo) -> tuple[float, float, np.ndarray]:
 
 def _interp_beta(z, z_l: float, cosmo) -> np.ndarray:
     """Linear interpolation of the table (direct index, no search); exact route past its end."""
-    u0, step, values = _beta_table(z_l, cosmo)
-    z = np.asarray(z, float)
-    scale = 1.0 / step
+    table = _beta_table(z_l, cosmo)
+    return _blockwise(lambda zb: (_beta_from_table(zb, z_l, table, cosmo),), np.asarray(z, float))[0]
 
-    def interpolate(z):
-        with np.errstate(invalid="ignore", divide="ignore"):
-            t = (np.log(np.maximum(z - z_l, 0.0) + _BETA_SOFT) - u0) * scale
-        i = np.clip(t.astype(np.int64), 0, values.size - 2)
-        lo = values.take(i)
-        beta = lo + (t - i) * (values.take(i + 1) - lo)
-        beta[~(z > z_l)] = 0.0
-        return (beta,)
 
-    out = _blockwise(interpolate, z)[0]
+def _beta_from_table(z: np.ndarray, z_l: float, table, cosmo) -> np.ndarray:
+    """One block of :func:`_interp_beta`."""
+    u0, step, values = table
+    with np.errstate(invalid="ignore", divide="ignore"):
+        t = (np.log(np.maximum(z - z_l, 0.0) + _BETA_SOFT) - u0) * (1.0 / step)
+    i = np.clip(t.astype(np.int64), 0, values.size - 2)
+    lo = values.take(i)
+    beta = lo + (t - i) * (values.take(i + 1) - lo)
+    beta[~(z > z_l)] = 0.0
     far = z > _BETA_ZMAX
     if np.any(far):
         _, d_s, d_ls = angular_diameter_distances_mpc(z_l, z[far], cosmo)
-        out[far] = d_ls / d_s
-    return out
+        beta[far] = d_ls / d_s
+    return beta
+
+
+def lensed_sources(mask, theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight, z_s, z_l: float, cosmo):
+    """The galaxies where ``mask`` holds, ready for :func:`shear_profile`, in one pass over blocks.
+
+    Returns their radius, tangential and cross ellipticity, weight, D_ls / D_s and Sigma_cr
+    (as :func:`take_where`, :func:`tangential_cross` and :func:`lensing_efficiency` give them),
+    and D_l. ``z_s`` is a per-galaxy column or one redshift for all.
+    """
+    mask = np.asarray(mask, bool)
+    n = int(np.count_nonzero(mask))
+    d_l = lens_distance_mpc(z_l, cosmo)
+    if np.ndim(z_s) == 0 or n <= _BETA_GRID_NODES:
+        columns = [theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight] + ([] if np.ndim(z_s) == 0 else [z_s])
+        t_n, x_n, y_n, e1_n, e2_n, w_n, *z_n = take_where(mask, *columns)
+        beta, sigma_cr, _ = lensing_efficiency(z_l, z_n[0] if z_n else z_s, cosmo)
+        return (t_n, *tangential_cross(e1_n, e2_n, x_n, y_n), w_n, beta, sigma_cr, d_l)
+    table = _beta_table(z_l, cosmo)
+    columns = [np.asarray(a, float) for a in (theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight, z_s)]
+    outs = [np.empty(n) for _ in range(6)]
+    pos = 0
+    for start in range(0, mask.size, _BLOCK):
+        index = np.flatnonzero(mask[start:start + _BLOCK])
+        if not index.size:
+            continue
+        t, x, y, g1, g2, w, z = (a[start:start + _BLOCK].take(index) for a in columns)
+        beta = _beta_from_table(z, z_l, table, cosmo)
+        with np.errstate(divide="ignore"):
+            sigma_cr = sigma_crit_msun_per_mpc2(d_l, 1.0, beta)  # D_s / D_ls = 1 / beta
+        for out, values in zip(outs, (t, *_tangential_cross(g1, g2, x, y), w, beta, sigma_cr)):
+            out[pos:pos + index.size] = values
+        pos += index.size
+    return (*outs, d_l)
 
 
 # ---------------------------------------------------------------- binning
