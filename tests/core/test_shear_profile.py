@@ -156,3 +156,72 @@ def test_delta_sigma_ignores_sources_in_front_of_the_lens():
     p = shear_profile(th, e, 0 * e, np.ones(4), [5, 25, 50], sigma_cr_msun_per_mpc2=sc, d_l_mpc=1000.0)
     np.testing.assert_allclose(p.delta_sigma_msun_per_mpc2, [1e14, 1.2e14], rtol=1e-12)
     assert np.all(np.isfinite(p.delta_sigma_err_msun_per_mpc2))
+
+
+def test_projection_in_blocks_matches_astropy_for_a_large_catalogue():
+    # More rows than one block of the element-wise passes (2 x 2^15), a field around the pole and one
+    # across RA = 0; reference: astropy SkyCoord.separation and position_angle (as in the test above).
+    from lensmass.core.shear_profile import sky_offsets_and_radius
+
+    rng = np.random.default_rng(11)
+    n = 70_000
+    for ra0, dec0 in ((0.05, -30.0), (141.372, 89.9)):
+        dec = np.clip(dec0 + rng.uniform(-0.4, 0.4, n), -90, 90)
+        ra = (ra0 + rng.uniform(-0.4, 0.4, n) / np.cos(np.radians(dec0))) % 360.0
+        x, y, theta, placed = sky_offsets_and_radius(ra, dec, ra0, dec0)
+        c0 = SkyCoord(ra0 * u.deg, dec0 * u.deg)
+        c = SkyCoord(ra * u.deg, dec * u.deg)
+        assert placed.all()
+        np.testing.assert_allclose(theta, c0.separation(c).to_value(u.arcsec), rtol=1e-9)
+        pa = c0.position_angle(c).to_value(u.rad)
+        np.testing.assert_allclose(np.cos(np.arctan2(y, x) - (np.pi / 2 - pa)), 1.0, atol=1e-9)
+        np.testing.assert_array_equal(tangent_plane_offsets_arcsec(ra, dec, ra0, dec0)[0], x)
+
+
+def test_block_pass_of_the_sources_near_the_bins():
+    # More galaxies than the D_ls / D_s table nodes, so the one-pass route is taken. References: astropy
+    # angular_diameter_distance(z1, z2) for D_ls / D_s (on a sample of rows; the grid is good to 1e-6) and
+    # the tangential/cross formulas of shared/REFERENCES.md with phi = arctan2(y, x) from numpy.
+    from lensmass.core.shear_profile import _BETA_GRID_NODES, lensed_sources
+
+    rng = np.random.default_rng(12)
+    n = _BETA_GRID_NODES + 40_000
+    x, y = rng.uniform(-900, 900, (2, n))
+    theta = np.hypot(x, y)
+    e1, e2 = rng.normal(0, 0.25, (2, n))
+    w = rng.uniform(0.2, 1.0, n)
+    z = rng.uniform(0.2, 3.0, n)
+    mask = (theta > 30) & (theta < 880)
+    t_n, et, ex, w_n, beta, sc, d_l = lensed_sources(mask, theta, x, y, e1, e2, w, z, 0.35, COSMO)
+    np.testing.assert_array_equal(t_n, theta[mask])
+    np.testing.assert_array_equal(w_n, w[mask])
+    phi = np.arctan2(y[mask], x[mask])
+    np.testing.assert_allclose(et, -(e1[mask] * np.cos(2 * phi) + e2[mask] * np.sin(2 * phi)), atol=1e-13)
+    np.testing.assert_allclose(ex, e1[mask] * np.sin(2 * phi) - e2[mask] * np.cos(2 * phi), atol=1e-13)
+    zs = z[mask]
+    behind = zs > 0.35
+    assert np.all(beta[~behind] == 0) and np.all(np.isinf(sc[~behind]))
+    pick = np.flatnonzero(behind)[::2000]
+    d_s = COSMO.angular_diameter_distance(zs[pick]).to_value(u.Mpc)
+    d_ls = COSMO.angular_diameter_distance(0.35, zs[pick]).to_value(u.Mpc)
+    np.testing.assert_allclose(beta[pick], d_ls / d_s, rtol=1e-6)
+    np.testing.assert_allclose(sc[pick], sigma_crit_msun_per_mpc2(d_l, d_s, d_ls), rtol=1e-6)
+
+
+def test_profile_summed_in_blocks_equals_direct_weighted_means():
+    # Several blocks of galaxies; reference: numpy.average per bin (the weighted-mean definition of g_t,
+    # common practice) and the pooled shape-noise error written out per bin.
+    rng = np.random.default_rng(13)
+    n = 150_000
+    theta = rng.uniform(5, 120, n)
+    et, ex = rng.normal(0.02, 0.3, (2, n))
+    w = rng.uniform(0.1, 1.0, n)
+    edges = [10, 30, 60, 100]
+    p = shear_profile(theta, et, ex, w, edges, beta=rng.uniform(0.3, 0.7, n))
+    for i in range(3):
+        inb = (theta >= edges[i]) & (theta < edges[i + 1])
+        mt, mx = np.average(et[inb], weights=w[inb]), np.average(ex[inb], weights=w[inb])
+        assert p.n_galaxies[i] == np.count_nonzero(inb)
+        np.testing.assert_allclose([p.g_t[i], p.g_x[i]], [mt, mx], rtol=1e-10)
+        scatter = np.sum(w[inb] ** 2 * ((et[inb] - mt) ** 2 + (ex[inb] - mx) ** 2)) / 2
+        np.testing.assert_allclose(p.g_t_err[i], np.sqrt(scatter) / w[inb].sum(), rtol=1e-9)
