@@ -494,7 +494,7 @@ def _bootstrap_errors(index, n_bins, w, e_t, e_x, n_boot, rng):
 def _block_sums(fine, theta, e_t, e_x, w, beta, sc, n_beta, b_min, b_max, size, with_model_cells):
     """Sums over one block of galaxies per (sub-bin, beta cell); galaxies outside the bins go to a
     trash cell that is cut off."""
-    cell = np.where(fine >= 0, fine, size // n_beta)
+    cell = np.where(fine >= 0, fine, size // n_beta).astype(np.intp, copy=False)
     beta = np.ones_like(theta) if beta is None else beta
     if n_beta > 1:
         bq = np.minimum(((beta - b_min) * (n_beta / (b_max - b_min))).astype(np.int64), n_beta - 1)
@@ -567,14 +567,20 @@ def shear_profile(
     sc_arr = (None if sigma_cr_msun_per_mpc2 is None
               else np.broadcast_to(np.asarray(sigma_cr_msun_per_mpc2, float), theta.shape))
     blocks = [slice(i, i + _BLOCK) for i in range(0, theta.size, _BLOCK)]
-    fine = np.concatenate([_fine_index(theta[b], edges, _RADIAL_SUBBINS) for b in blocks] or [np.zeros(0, np.int64)])
+    fine = np.empty(theta.size, np.int32 if n_fine < 2**31 - 1 else np.int64)
+    b_min, b_max = np.inf, -np.inf  # range of beta over the galaxies inside the bins
+    for b in blocks:
+        fine[b] = f = _fine_index(theta[b], edges, _RADIAL_SUBBINS)
+        if beta_arr is not None:
+            inside = f >= 0
+            if np.any(inside):
+                b_min = min(b_min, float(np.min(beta_arr[b], where=inside, initial=np.inf)))
+                b_max = max(b_max, float(np.max(beta_arr[b], where=inside, initial=-np.inf)))
+    if not b_min <= b_max:
+        b_min = b_max = 0.0
 
     # one index (sub-bin x beta cell) and one set of sums; bins, sub-bins and cells aggregate them
-    n_beta, b_min, b_max = 1, 0.0, 0.0
-    if beta_arr is not None and theta.size:
-        inside_beta = np.where(fine >= 0, beta_arr, np.nan)
-        if np.any(fine >= 0):
-            b_min, b_max = float(np.nanmin(inside_beta)), float(np.nanmax(inside_beta))
+    n_beta = 1
     if with_model_cells and b_max - b_min > 1e-12 * max(b_max, 1e-300):
         n_beta = _BETA_CELLS
     size = n_fine * n_beta
