@@ -291,7 +291,10 @@ def draw_mass_curves(ax, curves, *, interval68: Sequence[float] | None = None, a
     ax.axvline(curves.einstein_radius_kpc, color=look.muted, lw=0.7, ls=":")
     yerr = None
     if interval68 is not None and all(_finite(v) for v in interval68) and interval68[0] != interval68[1]:
-        yerr = [[curves.einstein_mass_msun - float(interval68[0])], [float(interval68[1]) - curves.einstein_mass_msun]]
+        # The point is the nominal mass; with few or skewed draws it can lie outside the 68% interval
+        # of the draws: the bar then reaches the interval on one side only (matplotlib refuses negatives).
+        yerr = [[max(0.0, curves.einstein_mass_msun - float(interval68[0]))],
+                [max(0.0, float(interval68[1]) - curves.einstein_mass_msun)]]
     ax.errorbar([curves.einstein_radius_kpc], [curves.einstein_mass_msun], yerr=yerr, fmt="o", ms=5, color=look.ink,
                 mfc=look.paper, mew=1.3, capsize=2.5, zorder=5, label=r"$M(<\theta_E)$ at $R_E$")
     ax.set_xscale("log")

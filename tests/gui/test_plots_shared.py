@@ -67,3 +67,22 @@ def test_report_drawing_alone_keeps_the_page_look():
     ax = Figure().add_subplot(111)
     draw_mass_curves(ax, enclosed_mass_curves(result, n=40, band_draws=100))
     assert PAGE_INK.ink == INK and ax.xaxis.label.get_color() == INK
+
+
+def test_einstein_point_outside_the_draws_interval_still_draws():
+    """A nominal mass outside the 68% interval of few, skewed draws (seen in the window) must not break
+    the drawing: matplotlib's errorbar refuses negative error lengths (matplotlib documentation)."""
+    from matplotlib.figure import Figure
+
+    from lensmass.core.estimate import estimate
+    from lensmass.core.mass_profiles import enclosed_mass_curves
+    from lensmass.io.report import draw_mass_curves
+
+    result = estimate(1.2, 0.3, 1.1, theta_e_err=0.05, samples=300)
+    curves = enclosed_mass_curves(result, n=40, band_draws=100)
+    m = curves.einstein_mass_msun
+    ax = Figure().add_subplot(111)
+    draw_mass_curves(ax, curves, interval68=(1.1 * m, 1.3 * m))  # the point below the whole interval
+    bar = [c for c in ax.containers if hasattr(c, "lines")][0]
+    segment = bar.lines[2][0].get_segments()[0]
+    assert segment[:, 1].min() == pytest.approx(m) and segment[:, 1].max() == pytest.approx(1.3 * m)
