@@ -27,6 +27,7 @@ from pathlib import Path
 from typing import Callable, Sequence
 
 import numpy as np
+from astropy.utils.exceptions import AstropyUserWarning
 
 from lensmass.core.errors import LensInputError
 
@@ -172,7 +173,9 @@ def load_image(
     if p.suffix.lower() in RASTER_SUFFIXES:
         image = _load_raster(p)
     else:
-        image = _load_fits(p, hdu, plane)
+        with warnings.catch_warnings():  # damage is reported in one sentence, not as astropy warnings
+            warnings.simplefilter("ignore", AstropyUserWarning)
+            image = _load_fits(p, hdu, plane)
     _finish(image, user_scale, pixel_scale_err_arcsec)
     return image
 
@@ -197,12 +200,15 @@ def _load_fits(p: Path, hdu, plane) -> LoadedImage:
 
     try:
         hdul = fits.open(p, memmap=True, lazy_load_hdus=True)
-    except OSError as exc:
-        raise _fail_open(p, f"it is not a valid FITS file ({_short(exc)}); check that it is a FITS image") from None
+    except OSError:
+        raise _fail_open(p, "it is not a valid FITS file (no FITS header at its start); check that it is a "
+                            "FITS image") from None
     except Exception as exc:  # astropy raises assorted errors on damaged headers
         raise _fail_open(p, f"its FITS header is damaged ({_short(exc)})") from None
     try:
-        index, chosen = _choose_hdu(p, hdul, hdu)
+        with warnings.catch_warnings():  # a damaged file is reported in one sentence, not as warnings
+            warnings.simplefilter("ignore")
+            index, chosen = _choose_hdu(p, hdul, hdu)
         header = chosen.header
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
