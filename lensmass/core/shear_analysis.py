@@ -170,11 +170,11 @@ def analyse_shear_catalog(
     dropped["outside_radial_range"] = int(np.count_nonzero(ok)) - n_in_range
     e1a, e2a = np.asarray(e1, float), np.asarray(e2, float)
     step(0.15, "source distances")
-    t_n, e_t, e_x, w_n, beta, sigma_cr, _ = lensed_sources(near, theta, x, y, e1a, e2a, w,
-                                                           z_s if z is None else z, z_l, cosmo)
+    z_col = z_s if z is None else z
+    t_n, e_t, e_x, w_n, beta, sigma_cr, _ = lensed_sources(near, theta, x, y, e1a, e2a, w, z_col, z_l, cosmo)
     step(0.3, "binned profile")
-    profile = shear_profile(t_n, e_t, e_x, w_n, edges, beta=beta, sigma_cr_msun_per_mpc2=sigma_cr, d_l_mpc=d_l,
-                            n_bootstrap=n_bootstrap, seed=seed)
+    profile = shear_profile(t_n, e_t, e_x, w_n, edges, beta=beta, sigma_cr_msun_per_mpc2=sigma_cr,
+                            d_l_mpc=d_l, n_bootstrap=n_bootstrap, seed=seed)
     step(0.5, "SIS fit")
     sis = fit_sis(profile)
     step(0.65, "NFW fit")
@@ -183,7 +183,11 @@ def analyse_shear_catalog(
     x2, dof_x, p_x = cross_shear_test(profile)
 
     step(0.85, "aperture mass")
-    zeta, zeta_err, zeta_s, zeta_s_err = _zeta(profile, z_in, z_out, zeta_edges, t_n, e_t, e_x, w_n, sigma_cr, d_l)
+    zeta_slice = _zeta_subbins(profile.fine.edges_arcsec, z_in, z_out)
+    if zeta_slice is not None:
+        zeta, zeta_err, zeta_s, zeta_s_err = _zeta_from_subbins(profile.fine, zeta_slice, z_in, z_out)
+    else:
+        zeta, zeta_err, zeta_s, zeta_s_err = _zeta(z_in, z_out, zeta_edges, t_n, e_t, e_x, w_n, sigma_cr, d_l)
     r_in_mpc = z_in * ARCSEC_RAD * d_l
     zeta_mass = zeta_mass_bound_msun(r_in_mpc, zeta_s)
     zeta_mass_err = zeta_mass_bound_msun(r_in_mpc, zeta_s_err)
@@ -237,20 +241,27 @@ def analyse_shear_catalog(
     return result
 
 
-def _zeta(profile, z_in, z_out, zeta_edges, theta, e_t, e_x, w, sigma_cr, d_l):
-    """zeta and zeta_Sigma with errors: from the profile's sub-bins when the annulus falls on
-    their edges (the default annulus always does), else from a profile of the annulus alone."""
-    fine = profile.fine
-    edges = fine.edges_arcsec
-    k1 = int(np.argmin(np.abs(edges - z_in)))
-    k2 = int(np.argmin(np.abs(edges - z_out)))
-    if k2 - k1 >= 4 and np.isclose(edges[k1], z_in, rtol=1e-9) and np.isclose(edges[k2], z_out, rtol=1e-9):
-        sl = slice(k1, k2)
-        e = edges[k1:k2 + 1]
-        zeta = zeta_from_profile(e, fine.g_t[sl], fine.g_t_err[sl], z_in, z_out)
-        zeta_s = zeta_from_profile(e, fine.delta_sigma_msun_per_mpc2[sl], fine.delta_sigma_err_msun_per_mpc2[sl],
-                                   z_in, z_out)
-        return (*zeta, *zeta_s)
+def _zeta_subbins(fine_edges: np.ndarray, z_in: float, z_out: float) -> slice | None:
+    """The profile's sub-bins that make up the zeta annulus, when it falls on their edges (the
+    default annulus always does), else None."""
+    k1 = int(np.argmin(np.abs(fine_edges - z_in)))
+    k2 = int(np.argmin(np.abs(fine_edges - z_out)))
+    if k2 - k1 >= 4 and np.isclose(fine_edges[k1], z_in, rtol=1e-9) and np.isclose(fine_edges[k2], z_out, rtol=1e-9):
+        return slice(k1, k2)
+    return None
+
+
+def _zeta_from_subbins(fine, sl: slice, z_in, z_out):
+    """zeta and zeta_Sigma with errors from the profile's sub-bins ``sl``."""
+    e = fine.edges_arcsec[sl.start:sl.stop + 1]
+    zeta = zeta_from_profile(e, fine.g_t[sl], fine.g_t_err[sl], z_in, z_out)
+    zeta_s = zeta_from_profile(e, fine.delta_sigma_msun_per_mpc2[sl], fine.delta_sigma_err_msun_per_mpc2[sl],
+                               z_in, z_out)
+    return (*zeta, *zeta_s)
+
+
+def _zeta(z_in, z_out, zeta_edges, theta, e_t, e_x, w, sigma_cr, d_l):
+    """zeta and zeta_Sigma with errors from a profile of the annulus alone."""
     ann = (theta >= z_in) & (theta < z_out)
     t_a, et_a, ex_a, w_a, sc_a = take_where(ann, theta, e_t, e_x, w, np.broadcast_to(sigma_cr, theta.shape))
     zp = shear_profile(t_a, et_a, ex_a, w_a, zeta_edges, sigma_cr_msun_per_mpc2=sc_a, d_l_mpc=d_l,

@@ -307,10 +307,21 @@ def lensed_sources(mask, theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight, z_s, 
         t_n, x_n, y_n, e1_n, e2_n, w_n, *z_n = take_where(mask, *columns)
         beta, sigma_cr, _ = lensing_efficiency(z_l, z_n[0] if z_n else z_s, cosmo)
         return (t_n, *tangential_cross(e1_n, e2_n, x_n, y_n), w_n, beta, sigma_cr, d_l)
-    table = _beta_table(z_l, cosmo)
-    columns = [np.asarray(a, float) for a in (theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight, z_s)]
     outs = [np.empty(n) for _ in range(6)]
     pos = 0
+    for block in _lensed_blocks(mask, (theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight, z_s), z_l, cosmo, d_l):
+        k = block[0].size
+        for out, values in zip(outs, block):
+            out[pos:pos + k] = values
+        pos += k
+    return (*outs, d_l)
+
+
+def _lensed_blocks(mask, columns, z_l: float, cosmo, d_l: float):
+    """Per block of rows, the masked galaxies' (theta, e_t, e_x, w, beta, Sigma_cr) from the
+    columns (theta, x, y, e1, e2, w, z); D_ls / D_s from the table as :func:`_interp_beta`."""
+    table = _beta_table(z_l, cosmo)
+    columns = [np.asarray(a, float) for a in columns]
     for start in range(0, mask.size, _BLOCK):
         index = np.flatnonzero(mask[start:start + _BLOCK])
         if not index.size:
@@ -319,10 +330,7 @@ def lensed_sources(mask, theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight, z_s, 
         beta = _beta_from_table(z, z_l, table, cosmo)
         with np.errstate(divide="ignore"):
             sigma_cr = sigma_crit_msun_per_mpc2(d_l, 1.0, beta)  # D_s / D_ls = 1 / beta
-        for out, values in zip(outs, (t, *_tangential_cross(g1, g2, x, y), w, beta, sigma_cr)):
-            out[pos:pos + index.size] = values
-        pos += index.size
-    return (*outs, d_l)
+        yield (t, *_tangential_cross(g1, g2, x, y), w, beta, sigma_cr)
 
 
 # ---------------------------------------------------------------- binning
@@ -475,15 +483,9 @@ def _cells_from_sums(sums: dict, n_bins: int, n_beta: int) -> ModelCells:
     return ModelCells(bins[keep], t[keep], b[keep], var[keep], wsum[keep], n_bins)
 
 
-def _bootstrap_errors(index, n_bins, w, e_t, e_x, n_boot, rng):
-    n = index.size
-    groups = min(n, _BOOTSTRAP_GROUPS)
-    gid = rng.permutation(n) % groups
-    key = gid * n_bins + index
-    size = groups * n_bins
-    sw = np.bincount(key, weights=w, minlength=size).reshape(groups, n_bins)
-    st = np.bincount(key, weights=w * e_t, minlength=size).reshape(groups, n_bins)
-    sx = np.bincount(key, weights=w * e_x, minlength=size).reshape(groups, n_bins)
+def _bootstrap_errors(sw, st, sx, n_boot, rng):
+    """Bootstrap errors of the bin means from sums per (group, bin), shape (groups, n_bins)."""
+    groups = sw.shape[0]
     counts = rng.multinomial(groups, np.full(groups, 1.0 / groups), size=n_boot).astype(float)
     with np.errstate(invalid="ignore", divide="ignore"):
         bt = (counts @ st) / (counts @ sw)
@@ -571,28 +573,56 @@ def shear_profile(
     b_min, b_max = np.inf, -np.inf  # range of beta over the galaxies inside the bins
     for b in blocks:
         fine[b] = f = _fine_index(theta[b], edges, _RADIAL_SUBBINS)
-        if beta_arr is not None:
-            inside = f >= 0
-            if np.any(inside):
-                b_min = min(b_min, float(np.min(beta_arr[b], where=inside, initial=np.inf)))
-                b_max = max(b_max, float(np.max(beta_arr[b], where=inside, initial=-np.inf)))
+        if beta_arr is not None and f.size:
+            # (np.min with where= is ~20x slower than a plain reduction, so take the inside values)
+            inside = beta_arr[b] if f.min() >= 0 else beta_arr[b].take(np.flatnonzero(f >= 0))
+            if inside.size:
+                b_min, b_max = min(b_min, float(inside.min())), max(b_max, float(inside.max()))
     if not b_min <= b_max:
         b_min = b_max = 0.0
 
+    blocks = ((fine[b], theta[b], e_t[b], e_x[b], w[b], None if beta_arr is None else beta_arr[b],
+               None if sc_arr is None else sc_arr[b]) for b in blocks)
+    return _profile_from_blocks(blocks, edges, b_min, b_max, int(np.count_nonzero(fine >= 0)), sc_arr is not None,
+                                d_l_mpc, n_bootstrap, seed, with_model_cells)
+
+
+def _profile_from_blocks(blocks, edges, b_min, b_max, n_inside, with_sigma_cr, d_l_mpc, n_bootstrap, seed,
+                         with_model_cells) -> ShearProfile:
+    """The profile from blocks (fine index or None, theta, e_t, e_x, w, beta or None, Sigma_cr or None),
+    given the range of beta over the ``n_inside`` galaxies inside the bins."""
+    n_bins = edges.size - 1
+    n_fine = n_bins * _RADIAL_SUBBINS
     # one index (sub-bin x beta cell) and one set of sums; bins, sub-bins and cells aggregate them
     n_beta = 1
     if with_model_cells and b_max - b_min > 1e-12 * max(b_max, 1e-300):
         n_beta = _BETA_CELLS
     size = n_fine * n_beta
+    boot = None
+    if n_bootstrap and n_inside > 1:
+        # galaxies dealt at random into equal groups (in the order they come), sums per (group, bin)
+        rng = np.random.default_rng(seed)
+        groups = min(n_inside, _BOOTSTRAP_GROUPS)
+        gid = rng.permutation(n_inside) % groups
+        boot, boot_size, pos = [np.zeros(groups * n_bins) for _ in range(3)], groups * n_bins, 0
     cell_sums: dict[str, np.ndarray] = {}
-    for b in blocks:
-        sums_b = _block_sums(fine[b], theta[b], e_t[b], e_x[b], w[b], None if beta_arr is None else beta_arr[b],
-                             None if sc_arr is None else sc_arr[b], n_beta, b_min, b_max, size, with_model_cells)
+    for fine, theta, e_t, e_x, w, beta, sc in blocks:
+        if fine is None:
+            fine = _fine_index(theta, edges, _RADIAL_SUBBINS)
+        sums_b = _block_sums(fine, theta, e_t, e_x, w, beta, sc, n_beta, b_min, b_max, size, with_model_cells)
         for k, v in sums_b.items():
             cell_sums[k] = cell_sums[k] + v if k in cell_sums else v
+        if boot is not None:
+            index = np.flatnonzero(fine >= 0)
+            key = gid[pos:pos + index.size] * n_bins + fine.take(index) // _RADIAL_SUBBINS
+            w_in = w.take(index)
+            for total, values in zip(boot, (w_in, w_in * e_t.take(index), w_in * e_x.take(index))):
+                total += np.bincount(key, weights=values, minlength=boot_size)
+            pos += index.size
     if not cell_sums:  # no galaxies
-        cell_sums = _block_sums(fine, theta, e_t, e_x, w, beta_arr, sc_arr, n_beta, b_min, b_max, size,
-                                with_model_cells)
+        empty = np.zeros(0)
+        cell_sums = _block_sums(np.zeros(0, np.int64), empty, empty, empty, empty, None,
+                                empty if with_sigma_cr else None, n_beta, b_min, b_max, size, with_model_cells)
     fine_sums = {k: v.reshape(n_fine, n_beta).sum(axis=1) for k, v in cell_sums.items()}
     sums = {k: v.reshape(n_bins, _RADIAL_SUBBINS).sum(axis=1) for k, v in fine_sums.items()}
 
@@ -603,15 +633,13 @@ def shear_profile(
     g_t, g_x, err = _means_errors(sums, "s", "w")
     ft, _, ferr = _means_errors(fine_sums, "s", "w")
     ds = ds_err = fds = fds_err = None
-    if sigma_cr_msun_per_mpc2 is not None:
+    if with_sigma_cr:
         ds, _, ds_err = _means_errors(sums, "d", "d")
         fds, _, fds_err = _means_errors(fine_sums, "d", "d")
     nan = np.full(n_bins, np.nan)
     boot_t, boot_x = nan, nan.copy()
-    if n_bootstrap and int(count.sum()) > 1:
-        f_in, w_in, t_in, x_in = take_where(fine >= 0, fine, w, e_t, e_x)
-        boot_t, boot_x = _bootstrap_errors(f_in // _RADIAL_SUBBINS, n_bins, w_in, t_in, x_in, int(n_bootstrap),
-                                           np.random.default_rng(seed))
+    if boot is not None:
+        boot_t, boot_x = _bootstrap_errors(*(b.reshape(groups, n_bins) for b in boot), int(n_bootstrap), rng)
     cells = _cells_from_sums(cell_sums, n_bins, n_beta) if with_model_cells else None
     fine_profile = FineProfile(_fine_edges(edges, _RADIAL_SUBBINS), ft, ferr, fds, fds_err)
     with np.errstate(invalid="ignore", divide="ignore"):
