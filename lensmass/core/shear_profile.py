@@ -198,8 +198,10 @@ def select_sources(e1, e2, weight, z, z_l: float, *, positions_ok=None,
     arrays = [e1, e2, weight] + ([positions_ok] if positions_ok is not None else []) + ([z] if z is not None else [])
     z_min = z_l + z_margin
 
+    tally = np.zeros(len(DROP_REASONS), np.int64)
+
     def reasons(e1, e2, w, *rest):
-        """Usable rows and, for each reason in DROP_REASONS, the rows it is the first to drop."""
+        """Usable rows; the rows each reason in DROP_REASONS is the first to drop are counted."""
         finite = np.isfinite(e1) & np.isfinite(e2) & np.isfinite(w)
         if positions_ok is not None:
             finite &= rest[0]
@@ -212,10 +214,12 @@ def select_sources(e1, e2, weight, z, z_l: float, *, positions_ok=None,
             ok &= ~bad_w
             bad_z = ok & ~(rest[-1] > z_min) if z is not None else np.zeros_like(ok)
             ok &= ~bad_z
-        return ok, ~finite, bad_e, bad_w, bad_z
+        tally[:] += [finite.size - np.count_nonzero(finite), np.count_nonzero(bad_e), np.count_nonzero(bad_w),
+                     np.count_nonzero(bad_z)]
+        return (ok,)
 
-    ok, *dropped = _blockwise(reasons, *arrays)
-    return ok, {name: int(np.count_nonzero(mask)) for name, mask in zip(DROP_REASONS, dropped)}
+    (ok,) = _blockwise(reasons, *arrays)
+    return ok, {name: int(count) for name, count in zip(DROP_REASONS, tally)}
 
 
 def lens_distance_mpc(z_l: float, cosmo) -> float:
@@ -454,22 +458,34 @@ def _fine_index(theta: np.ndarray, edges: np.ndarray, n_sub: int) -> np.ndarray:
 
     Logarithmic and linear edges are indexed directly (no search); other edges by bisection.
     """
+    return _fine_indexer(edges, n_sub)(theta)
+
+
+def _fine_indexer(edges: np.ndarray, n_sub: int):
+    """:func:`_fine_index` as a function of theta, the spacing of the edges detected once."""
     n_bins = edges.size - 1
     lo, hi = edges[0], edges[-1]
     with np.errstate(invalid="ignore", divide="ignore"):
-        if lo > 0 and np.allclose(np.diff(np.log(edges)), np.log(hi / lo) / n_bins, rtol=1e-9, atol=0):
-            u = np.log(theta * (1.0 / lo)) * (n_bins * n_sub / np.log(hi / lo))
-        elif np.allclose(np.diff(edges), (hi - lo) / n_bins, rtol=1e-9, atol=0):
-            u = (theta - lo) * (n_bins * n_sub / (hi - lo))
-        else:
-            idx = np.searchsorted(edges, theta, side="right") - 1
-            ok = (idx >= 0) & (idx < n_bins)
-            idx = np.where(ok, idx, 0)
-            frac = (theta - edges[idx]) / (edges[idx + 1] - edges[idx])
-            u = np.where(ok, idx * n_sub + np.clip(frac * n_sub, 0, n_sub - 1e-9), -1.0)
-    fine = np.floor(u)
-    fine = np.where((theta >= lo) & (theta < hi), np.clip(fine, 0, n_bins * n_sub - 1), -1)
-    return fine.astype(np.int64)
+        log_spaced = lo > 0 and np.allclose(np.diff(np.log(edges)), np.log(hi / lo) / n_bins, rtol=1e-9, atol=0)
+        linear = not log_spaced and np.allclose(np.diff(edges), (hi - lo) / n_bins, rtol=1e-9, atol=0)
+
+    def index(theta):
+        with np.errstate(invalid="ignore", divide="ignore"):
+            if log_spaced:
+                u = np.log(theta * (1.0 / lo)) * (n_bins * n_sub / np.log(hi / lo))
+            elif linear:
+                u = (theta - lo) * (n_bins * n_sub / (hi - lo))
+            else:
+                idx = np.searchsorted(edges, theta, side="right") - 1
+                ok = (idx >= 0) & (idx < n_bins)
+                idx = np.where(ok, idx, 0)
+                frac = (theta - edges[idx]) / (edges[idx + 1] - edges[idx])
+                u = np.where(ok, idx * n_sub + np.clip(frac * n_sub, 0, n_sub - 1e-9), -1.0)
+        fine = np.floor(u)
+        fine = np.where((theta >= lo) & (theta < hi), np.clip(fine, 0, n_bins * n_sub - 1), -1)
+        return fine.astype(np.int64)
+
+    return index
 
 
 def _cells_from_sums(sums: dict, n_bins: int, n_beta: int) -> ModelCells:
@@ -571,8 +587,9 @@ def shear_profile(
     blocks = [slice(i, i + _BLOCK) for i in range(0, theta.size, _BLOCK)]
     fine = np.empty(theta.size, np.int32 if n_fine < 2**31 - 1 else np.int64)
     b_min, b_max = np.inf, -np.inf  # range of beta over the galaxies inside the bins
+    fine_index = _fine_indexer(edges, _RADIAL_SUBBINS)
     for b in blocks:
-        fine[b] = f = _fine_index(theta[b], edges, _RADIAL_SUBBINS)
+        fine[b] = f = fine_index(theta[b])
         if beta_arr is not None and f.size:
             # (np.min with where= is ~20x slower than a plain reduction, so take the inside values)
             inside = beta_arr[b] if f.min() >= 0 else beta_arr[b].take(np.flatnonzero(f >= 0))
@@ -589,7 +606,7 @@ def shear_profile(
 
 def _profile_from_blocks(blocks, edges, b_min, b_max, n_inside, with_sigma_cr, d_l_mpc, n_bootstrap, seed,
                          with_model_cells) -> ShearProfile:
-    """The profile from blocks (fine index or None, theta, e_t, e_x, w, beta or None, Sigma_cr or None),
+    """The profile from blocks (sub-bin index, theta, e_t, e_x, w, beta or None, Sigma_cr or None),
     given the range of beta over the ``n_inside`` galaxies inside the bins."""
     n_bins = edges.size - 1
     n_fine = n_bins * _RADIAL_SUBBINS
@@ -607,8 +624,6 @@ def _profile_from_blocks(blocks, edges, b_min, b_max, n_inside, with_sigma_cr, d
         boot, boot_size, pos = [np.zeros(groups * n_bins) for _ in range(3)], groups * n_bins, 0
     cell_sums: dict[str, np.ndarray] = {}
     for fine, theta, e_t, e_x, w, beta, sc in blocks:
-        if fine is None:
-            fine = _fine_index(theta, edges, _RADIAL_SUBBINS)
         sums_b = _block_sums(fine, theta, e_t, e_x, w, beta, sc, n_beta, b_min, b_max, size, with_model_cells)
         for k, v in sums_b.items():
             cell_sums[k] = cell_sums[k] + v if k in cell_sums else v
