@@ -159,3 +159,18 @@ def test_a_dying_worker_is_one_sentence_and_keeps_results(tmp_path, monkeypatch,
     assert status == 2
     assert "worker process died" in capsys.readouterr().err
     assert _rows_in(out) == 0  # RESULTS is a valid (empty) table; --resume continues it
+
+
+def test_unknown_source_redshift_rows_use_a_range(tmp_path):
+    # A row with z_s_min/z_s_max is the estimate with z_s_range (same draws, same seed): one source of numbers.
+    from lensmass.core.estimate import estimate
+
+    (tmp_path / "m.csv").write_text("id,theta_e_arcsec,z_l,z_s,z_s_min,z_s_max\nU1,1.3,0.3,,1.0,2.5\nU2,1.3,0.3,,,\n")
+    out = tmp_path / "r.ecsv"
+    assert main(["batch", str(tmp_path / "m.csv"), "--out", str(out), "--no-progress", "--samples", "500",
+                 "--workers", "1"]) == 3
+    t = Table.read(out)
+    direct = estimate(1.3, 0.3, z_s_range=(1.0, 2.5), samples=500, seed=20261201 + 0)
+    assert t["error"][0] == "" or t["error"][0] is np.ma.masked
+    assert float(t["mass_einstein_msun"][0]) == pytest.approx(direct["mass_einstein_msun"], rel=1e-12)
+    assert "z_s_min and z_s_max" in str(t["error"][1])

@@ -3,7 +3,8 @@
 Each manifest row carries one of: ``theta_e_arcsec`` (with ``theta_e_err``), a
 ``points`` file of marked positions (with an ``image`` or a ``pixel_scale_arcsec``),
 or an ``image`` alone for the ring finder; and ``z_l``, ``z_s`` (with optional
-``z_l_err``, ``z_s_err``). RESULTS (ECSV) gets one row per manifest row, in manifest
+``z_l_err``, ``z_s_err``), or ``z_s_min`` and ``z_s_max`` in place of ``z_s`` when the source
+redshift is unknown (every number is then marginalised over a uniform range). RESULTS (ECSV) gets one row per manifest row, in manifest
 order, with every ``estimate`` key as a column (units, 68%/95% bounds) and an
 ``error`` column: empty when the row was measured, else one sentence saying why not.
 A bad row never stops the run.
@@ -110,9 +111,13 @@ def measure_row(row, settings: dict) -> dict[str, Any]:
         raise LensInputError(f"Row {row.index + 1}: {row.problem}; fix that cell.")
     if row.z_l is None:
         raise LensInputError("No lens redshift: fill the z_l column of this row.")
-    if row.z_s is None:
-        raise LensInputError("No source redshift: fill the z_s column of this row.")
     options = _estimate_options(settings, row)
+    if row.z_s is None:
+        z_min, z_max = _extra_number(row, "z_s_min"), _extra_number(row, "z_s_max")
+        if z_min is None or z_max is None:
+            raise LensInputError("No source redshift: fill the z_s column of this row, or z_s_min and z_s_max "
+                                 "when it is unknown.")
+        options["z_s_range"] = (z_min, z_max)  # unknown z_s: marginalised over a uniform range
     if row.theta_e_arcsec is not None:
         from lensmass.core.estimate import estimate
 
