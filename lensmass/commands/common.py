@@ -94,7 +94,7 @@ def format_number(value: Any) -> str:
         return "-"
     if v != 0 and (abs(v) >= 1e5 or abs(v) < 1e-3):
         return f"{v:.4g}"
-    return f"{v:.4g}" if abs(v) < 1 else f"{v:,.4g}".replace(",", "") if abs(v) < 1e4 else f"{v:.0f}"
+    return f"{v:.0f}" if abs(v) >= 1e4 else f"{v:.4g}"
 
 
 def format_table(result: dict, rows=DISPLAY, extra_rows=()) -> str:

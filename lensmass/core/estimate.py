@@ -80,7 +80,7 @@ def derive_quantities(theta_e_arcsec, z_l, z_s, cosmo, concentration_of_mass: Ca
 
 
 def _check_positive(name: str, value, flag: str) -> np.ndarray:
-    arr = np.asarray(value, dtype=float) if not isinstance(value, np.ndarray) else value.astype(float)
+    arr = np.asarray(value, dtype=float)
     bad = ~np.isfinite(arr) | (arr <= 0)
     if np.any(bad):
         where = "" if arr.ndim == 0 else f" (entry {int(np.flatnonzero(bad)[0])})"
@@ -99,7 +99,7 @@ def _check_error(name: str, value, flag: str) -> float:
     return v
 
 
-def _source_redshift_model(z_s, z_s_err, z_s_range, z_s_distribution):
+def _source_redshift_model(z_s, z_s_range, z_s_distribution):
     """Validate the three ways of giving z_s; return (kind, description)."""
     given = sum(x is not None for x in (z_s, z_s_range, z_s_distribution))
     if given == 0:
@@ -189,18 +189,20 @@ def estimate(
         "zl": _check_error("z_l", z_l_err, "--zl-err"),
         "zs": _check_error("z_s", z_s_err, "--zs-err"),
     }
-    kind, zs_model = _source_redshift_model(z_s, errs["zs"], z_s_range, z_s_distribution)
+    kind, zs_model = _source_redshift_model(z_s, z_s_range, z_s_distribution)
     if kind == "fixed":
         zs = _check_positive("The source redshift", z_s, "--zs")
-        behind = np.broadcast_to(zs, np.broadcast(zs, zl).shape) > np.broadcast_to(zl, np.broadcast(zs, zl).shape)
-        if not np.all(behind):
+        zl_b, zs_b = np.broadcast_arrays(zl, zs)
+        in_front = np.flatnonzero(np.ravel(zs_b <= zl_b))
+        if in_front.size:
+            first = in_front[0]
             raise LensInputError(
                 "The source must lie behind the lens: z_s must be larger than z_l "
-                f"(got z_l = {np.ravel(zl)[0] if zl.ndim else zl:g}, z_s = {np.ravel(zs)[0] if zs.ndim else zs:g}); "
+                f"(got z_l = {np.ravel(zl_b)[first]:g}, z_s = {np.ravel(zs_b)[first]:g}); "
                 "check that the two redshifts are not swapped."
             )
     else:
-        lo_support, hi_support = zs_model if kind == "range" else _table_support(*zs_model)
+        hi_support = zs_model[1] if kind == "range" else _table_support(*zs_model)[1]
         if np.all(hi_support <= zl):
             raise LensInputError(
                 f"The source must lie behind the lens: every source redshift offered (up to {hi_support:g}) "
