@@ -119,3 +119,8 @@ def test_validation_messages(args, kwargs, fragment):
     with pytest.raises(LensInputError, match=fragment) as info:
         estimate(*args, **kwargs)
     assert "\n" not in str(info.value)
+
+
+def test_array_input_names_the_lens_with_its_source_in_front():
+    with pytest.raises(LensInputError, match=r"z_l = 0.6, z_s = 0.4"):
+        estimate(np.array([1.0, 1.0]), np.array([0.2, 0.6]), np.array([0.5, 0.4]))
