@@ -27,16 +27,52 @@ Examples
 
 from __future__ import annotations
 
+import atexit
 import threading
 import time
 from typing import Any, Callable
 
-from PySide6.QtCore import QObject, QThread, Signal
+from PySide6.QtCore import QObject, QThread, Signal, Slot
 
 from lensmass.core.errors import LensInputError
 from lensmass.core.progress import OperationCancelled
 
 TaskFunction = Callable[[Callable[..., None], Callable[[], bool]], Any]
+
+
+#: Task threads still running (kept referenced until they finish; see TaskRunner.start).
+_RUNNING: set = set()
+
+
+class _ThreadKeeper(QObject):
+    """Lives on the GUI thread; drops a finished task thread there (never inside the thread itself)."""
+
+    @Slot()
+    def release(self) -> None:
+        thread = self.sender()
+        if thread is not None:
+            thread.wait()
+            _RUNNING.discard(thread)
+
+
+_KEEPER: _ThreadKeeper | None = None
+
+
+def _keeper() -> _ThreadKeeper:
+    global _KEEPER
+    if _KEEPER is None:
+        _KEEPER = _ThreadKeeper()
+    return _KEEPER
+
+
+def _stop_running_tasks() -> None:
+    """At interpreter exit: ask every task to stop and wait for it (a live QThread must not be destroyed)."""
+    for thread in list(_RUNNING):
+        thread.cancel()
+        thread.wait(5000)
+
+
+atexit.register(_stop_running_tasks)
 
 
 class TaskCancelled(Exception):
@@ -111,6 +147,7 @@ class TaskRunner(QObject):
         self._cancel = cancel_button
         self._show = show_message or (lambda text: None)
         self._thread: TaskThread | None = None
+        self._callbacks: tuple = ()
         self._label = ""
         if cancel_button is not None:
             cancel_button.clicked.connect(self.cancel)
@@ -132,12 +169,18 @@ class TaskRunner(QObject):
         if self._thread is not None:
             self._show(f"'{self._label}' is still running: wait for it or press Cancel first.")
             return None
-        thread = TaskThread(fn, self)
+        # No Qt parent: deleting the window (or this runner) must never destroy a running QThread,
+        # which aborts the process. The thread is kept alive by _RUNNING until it has finished, and
+        # its signals go to bound methods of this runner, which Qt disconnects if the runner is deleted.
+        thread = TaskThread(fn)
+        _RUNNING.add(thread)
+        thread.finished.connect(_keeper().release)
         self._thread, self._label = thread, label
+        self._callbacks = (on_result, on_error or self._show, on_cancel or (lambda: None))
         thread.progressed.connect(self._on_progress)
-        thread.succeeded.connect(lambda value: self._done(lambda: on_result(value), f"{label}: done."))
-        thread.failed.connect(lambda msg: self._done(lambda: (on_error or self._show)(msg), None))
-        thread.cancelled.connect(lambda: self._done(on_cancel or (lambda: None), f"{label}: cancelled."))
+        thread.succeeded.connect(self._on_succeeded)
+        thread.failed.connect(self._on_failed)
+        thread.cancelled.connect(self._on_cancelled)
         self._set_visible(True)
         if self._bar is not None:
             self._bar.setValue(0)
@@ -158,6 +201,17 @@ class TaskRunner(QObject):
         return True if thread is None else thread.wait(timeout_ms)
 
     # -- internals ---------------------------------------------------------------
+    def _on_succeeded(self, value) -> None:
+        on_result = self._callbacks[0]
+        self._done(lambda: on_result(value), f"{self._label}: done.")
+
+    def _on_failed(self, message: str) -> None:
+        on_error = self._callbacks[1]
+        self._done(lambda: on_error(message), None)
+
+    def _on_cancelled(self) -> None:
+        self._done(self._callbacks[2], f"{self._label}: cancelled.")
+
     def _on_progress(self, fraction: float, message: str) -> None:
         if self._bar is not None:
             self._bar.setValue(int(round(fraction * 100)))
@@ -168,7 +222,6 @@ class TaskRunner(QObject):
         thread, self._thread = self._thread, None
         if thread is not None:
             thread.wait()
-            thread.deleteLater()
         self._set_visible(False)
         if message:
             self._show(message)
