@@ -134,9 +134,6 @@ def fit_lens_light(
     ny, nx = img.shape
     cx0, cy0 = float(center_x), float(center_y)
     report(progress, 0.0)
-    finite = np.isfinite(img)
-    if mask is not None:
-        finite &= ~np.asarray(mask, bool)
     noise = robust_sigma(img[:: max(1, ny // 256), :: max(1, nx // 256)])
     if not np.isfinite(noise) or noise <= 0:
         noise = float(np.nanstd(img)) or 1.0
@@ -150,7 +147,9 @@ def fit_lens_light(
     f = max(1, int(np.ceil(max(x1 - x0, y1 - y0) / MAX_FIT_SIDE)))
     x1, y1 = x0 + (x1 - x0) // f * f, y0 + (y1 - y0) // f * f
     cut = np.asarray(img[y0:y1, x0:x1], float)
-    ok = finite[y0:y1, x0:x1]
+    ok = np.isfinite(cut)
+    if mask is not None:
+        ok &= ~np.asarray(mask, bool)[y0:y1, x0:x1]
     sums = np.where(ok, cut, 0.0).reshape((y1 - y0) // f, f, (x1 - x0) // f, f).sum(axis=(1, 3))
     cnt = ok.reshape((y1 - y0) // f, f, (x1 - x0) // f, f).sum(axis=(1, 3))
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -190,7 +189,7 @@ def fit_lens_light(
             check_stop(should_stop)
             report(progress, min(0.85, 0.85 * calls[0] / 600))
         with np.errstate(over="ignore", invalid="ignore"):
-            res = (blurred_sersic(p, gx, gy, f)[sel] - vs) / noise_bin
+            res = (_blurred_sersic_on_grid(p, xx, yy, f)[sel] - vs) / noise_bin
         return np.nan_to_num(weight * res, nan=1e6, posinf=1e6, neginf=-1e6)
 
     # Robust fit, then up to twice more with the bright positive outliers (arcs, neighbours) left out:
@@ -201,7 +200,7 @@ def fit_lens_light(
                             x_scale="jac", ftol=1e-5, xtol=1e-5, tr_solver="lsmr")
         p = sol.x
         with np.errstate(over="ignore", invalid="ignore"):
-            m_sel = blurred_sersic(p, gx, gy, f)[sel]
+            m_sel = _blurred_sersic_on_grid(p, xx, yy, f)[sel]
         above = vs - m_sel
         new_weight = np.where((above > 3 * noise_bin) & (above > 0.1 * np.abs(m_sel - p[7])), 0.0, 1.0)
         if np.array_equal(new_weight, weight):
@@ -250,6 +249,11 @@ def blurred_sersic(p, gx: np.ndarray, gy: np.ndarray, step: float = 1.0) -> np.n
     two-component PSF was tried and absorbed part of the rings into the lens model.
     """
     xx, yy = np.meshgrid(gx, gy)
+    return _blurred_sersic_on_grid(p, xx, yy, step)
+
+
+def _blurred_sersic_on_grid(p, xx: np.ndarray, yy: np.ndarray, step: float) -> np.ndarray:
+    """:func:`blurred_sersic` on a ready-made mesh (the fit evaluates it hundreds of times)."""
     sb = sersic_surface_brightness(xx, yy, total_flux=np.exp(p[0]), r_eff_arcsec=np.exp(p[1]), n=p[2],
                                    axis_ratio=p[3], angle_deg=p[4], x0=p[5], y0=p[6])
     return gaussian_filter(sb, np.exp(p[8]) / step, mode="nearest", truncate=3.5) + p[7]

@@ -239,8 +239,11 @@ def point_images(lenses: Sequence, beta_x: float, beta_y: float, *, search_radiu
 # ---------------------------------------------------------------------------------------------- light
 def sersic_intensity_at_re(total_flux: float, r_eff_arcsec: float, n: float) -> float:
     """I_e = L / [2 pi n R_e^2 e^b b^-2n Gamma(2n)] (Graham & Driver 2005, eq. 4); per arcsec^2."""
-    b = float(sersic_b(n))
-    return total_flux / (2 * np.pi * n * r_eff_arcsec**2 * np.exp(b) * b ** (-2 * n) * gamma_function(2 * n))
+    return _intensity_at_re(total_flux, r_eff_arcsec, n, float(sersic_b(n)))
+
+
+def _intensity_at_re(total_flux, r_eff, n, b) -> float:
+    return total_flux / (2 * np.pi * n * r_eff**2 * np.exp(b) * b ** (-2 * n) * gamma_function(2 * n))
 
 
 def sersic_surface_brightness(x, y, *, total_flux: float, r_eff_arcsec: float, n: float,
@@ -265,7 +268,7 @@ def sersic_surface_brightness(x, y, *, total_flux: float, r_eff_arcsec: float, n
     q = float(axis_ratio)
     r = np.sqrt(q * xp**2 + yp**2 / q)
     b = float(sersic_b(n))
-    ie = sersic_intensity_at_re(total_flux, r_eff_arcsec, n)
+    ie = _intensity_at_re(total_flux, r_eff_arcsec, n, b)
     return ie * np.exp(-b * ((r / r_eff_arcsec) ** (1.0 / n) - 1.0))
 
 

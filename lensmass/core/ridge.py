@@ -190,9 +190,14 @@ def ridge_peak(radii: np.ndarray, values: np.ndarray, r_start: float, width: flo
     def model(x, a, mu, sig, b0, b1):
         return a * np.exp(-0.5 * ((x - mu) / sig) ** 2) + b0 + b1 * (x - r_start)
 
+    def jacobian(x, a, mu, sig, b0, b1):  # analytic: the fit needs one model call a step, not six
+        z = (x - mu) / sig
+        g = np.exp(-0.5 * z * z)
+        return np.column_stack([g, a * g * z / sig, a * g * z * z / sig, np.ones_like(x), x - r_start])
+
     s0 = max(0.5, width / 2.355)
     try:
-        popt, _ = curve_fit(model, r, v, p0=[v[k] - np.median(v), r[k], s0, np.median(v), 0.0],
+        popt, _ = curve_fit(model, r, v, p0=[v[k] - np.median(v), r[k], s0, np.median(v), 0.0], jac=jacobian,
                             bounds=([0, r[0], 0.3, -np.inf, -np.inf], [np.inf, r[-1], 3 * s0 + 1, np.inf, np.inf]),
                             maxfev=400)
     except (RuntimeError, ValueError):

@@ -98,14 +98,14 @@ def find_center(image: np.ndarray, *, search_fraction: float = 0.25, smooth_pix:
     >>> [round(v, 1) for v in find_center(img)]
     [33.3, 21.6]
     """
-    img = np.asarray(image, float)
+    img = np.asarray(image)
     ny, nx = img.shape
     hx, hy = max(2, int(nx * search_fraction)), max(2, int(ny * search_fraction))
     x0, x1, y0, y1 = nx // 2 - hx, nx // 2 + hx + 1, ny // 2 - hy, ny // 2 + hy + 1
     x0, y0 = max(0, x0), max(0, y0)
     pad = int(3 * smooth_pix) + 3
     ex0, ey0 = max(0, x0 - pad), max(0, y0 - pad)
-    cut = img[ey0:min(ny, y1 + pad), ex0:min(nx, x1 + pad)]
+    cut = np.asarray(img[ey0:min(ny, y1 + pad), ex0:min(nx, x1 + pad)], float)
     fill = np.nanmedian(cut)
     sm = gaussian_filter(np.where(np.isfinite(cut), cut, fill), smooth_pix)
     inner = sm[y0 - ey0:y1 - ey0, x0 - ex0:x1 - ex0]
@@ -119,24 +119,46 @@ def find_center(image: np.ndarray, *, search_fraction: float = 0.25, smooth_pix:
     return float(px + ex0), float(py + ey0)
 
 
-def _sector_profiles(res, cx, cy, rmin, rmax, n_sectors):
-    ny, nx = res.shape
+@dataclass
+class _SectorGrid:
+    """Which (sector, radius-bin) cell each pixel of the search box falls in, for one centre."""
+
+    box: tuple[slice, slice]
+    inside: np.ndarray
+    cell: np.ndarray
+    n_cells: int
+    radii: np.ndarray
+    n_sectors: int
+
+
+def _sector_grid(shape, cx, cy, rmin, rmax, n_sectors) -> _SectorGrid:
+    ny, nx = shape
     x0, x1 = max(0, int(cx - rmax) - 1), min(nx, int(cx + rmax) + 2)
     y0, y1 = max(0, int(cy - rmax) - 1), min(ny, int(cy + rmax) + 2)
-    cut = res[y0:y1, x0:x1]
     dy = (np.arange(y0, y1) - cy)[:, None]
     dx = (np.arange(x0, x1) - cx)[None, :]
     r = np.sqrt(dx * dx + dy * dy)
-    phi = np.arctan2(np.broadcast_to(dy, r.shape), np.broadcast_to(dx, r.shape))
-    ok = np.isfinite(cut) & (r >= rmin) & (r < rmax)
+    inside = (r >= rmin) & (r < rmax)
+    phi = np.arctan2(np.broadcast_to(dy, r.shape)[inside], np.broadcast_to(dx, r.shape)[inside])
     nb = int(np.ceil((rmax - rmin) / BIN_PIX))
-    rb = ((r[ok] - rmin) / BIN_PIX).astype(np.int64)
-    sb = ((phi[ok] + np.pi) / (2 * np.pi) * n_sectors).astype(np.int64) % n_sectors
-    idx = sb * nb + rb
-    sums = np.bincount(idx, cut[ok].astype(float), minlength=n_sectors * nb).reshape(n_sectors, nb)
-    counts = np.bincount(idx, minlength=n_sectors * nb).reshape(n_sectors, nb)
+    rb = ((r[inside] - rmin) / BIN_PIX).astype(np.int64)
+    sb = ((phi + np.pi) / (2 * np.pi) * n_sectors).astype(np.int64) % n_sectors
     radii = rmin + (np.arange(nb) + 0.5) * BIN_PIX
-    return sums, counts, radii
+    return _SectorGrid((slice(y0, y1), slice(x0, x1)), inside, sb * nb + rb, n_sectors * nb, radii, n_sectors)
+
+
+def _sector_profiles(image, grid: _SectorGrid, offset: float = 0.0):
+    """Sums and pixel counts of ``image - offset`` in each (sector, radius) cell; NaN pixels left out."""
+    vals = np.asarray(image[grid.box][grid.inside], float) - offset
+    ok = np.isfinite(vals)
+    shape = (grid.n_sectors, grid.radii.size)
+    if ok.all():
+        sums = np.bincount(grid.cell, vals, minlength=grid.n_cells)
+        counts = np.bincount(grid.cell, minlength=grid.n_cells)
+    else:
+        sums = np.bincount(grid.cell[ok], vals[ok], minlength=grid.n_cells)
+        counts = np.bincount(grid.cell[ok], minlength=grid.n_cells)
+    return sums.reshape(shape), counts.reshape(shape), grid.radii
 
 
 def find_ring(
@@ -206,14 +228,11 @@ def find_ring(
         report(progress, 1.0)
         return first
     # Second pass: the ring's own light biases the lens-light fit, so refit with the ring masked.
-    ny, nx = img.shape
-    yy, xx = np.ogrid[:ny, :nx]
-    rr = np.sqrt((xx - first.center_x) ** 2 + (yy - first.center_y) ** 2)
     half = max(1.0, MASK_HALF_WIDTHS * first.ring_width_pix)
     q_ring = min(1.0, first.axis_ratio) if np.isfinite(first.axis_ratio) else 1.0
     lo_r = first.radius_pix * np.sqrt(q_ring) - half
     hi_r = first.radius_pix / np.sqrt(q_ring) + half
-    mask = (rr >= lo_r) & (rr <= hi_r)
+    mask = _annulus_mask(img.shape, first.center_x, first.center_y, lo_r, hi_r)
     light2 = fit_lens_light(img, cx, cy, mask=mask, fit_radius_pix=light.fit_radius_pix,
                             progress=lambda f: report(progress, 0.45 + 0.3 * f), should_stop=should_stop)
     if not light2.ok:
@@ -222,6 +241,19 @@ def find_ring(
     return _search(light2.residual, light2.center_x, light2.center_y, rmin, rmax, n_sectors, light2,
                    list(light2.notes) + ["Lens light refitted with the ring masked."],
                    lambda f: report(progress, 0.75 + 0.25 * f), should_stop)
+
+
+def _annulus_mask(shape, cx, cy, r_in, r_out) -> np.ndarray:
+    """Boolean image, True where r_in <= distance from (cx, cy) <= r_out (computed in its bounding box)."""
+    ny, nx = shape
+    mask = np.zeros(shape, bool)
+    x0, x1 = max(0, int(np.floor(cx - r_out))), min(nx, int(np.ceil(cx + r_out)) + 1)
+    y0, y1 = max(0, int(np.floor(cy - r_out))), min(ny, int(np.ceil(cy + r_out)) + 1)
+    if x1 > x0 and y1 > y0:
+        yy, xx = np.ogrid[y0:y1, x0:x1]
+        rr = np.sqrt((xx - cx) ** 2 + (yy - cy) ** 2)
+        mask[y0:y1, x0:x1] = (rr >= r_in) & (rr <= r_out)
+    return mask
 
 
 def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, should_stop) -> RingResult:
@@ -238,7 +270,8 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     if not np.isfinite(sigma) or sigma <= 0:
         sigma = float(np.nanstd(box)) or 1.0
 
-    sums, counts, radii = _sector_profiles(res, cx, cy, rmin, rmax, n_sectors)
+    grid = _sector_grid(res.shape, cx, cy, rmin, rmax, n_sectors)
+    sums, counts, radii = _sector_profiles(res, grid)
     report(progress, 0.5)
     with np.errstate(invalid="ignore", divide="ignore"):
         smean = sums / counts
@@ -257,7 +290,7 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     if light is not None and light.ok:
         # The lens-light model is good to a few per cent at best: add that systematic floor, so
         # residuals of a bright galaxy's core cannot pass for a ring.
-        msums, mcounts, _ = _sector_profiles(light.model - light.sky, cx, cy, rmin, rmax, n_sectors)
+        msums, mcounts, _ = _sector_profiles(light.model, grid, offset=light.sky)
         with np.errstate(invalid="ignore", divide="ignore"):
             model_prof = msums.sum(axis=0) / np.maximum(mcounts.sum(axis=0), 1)
         err = np.hypot(err, LENS_MODEL_SYSTEMATIC * np.abs(model_prof))
