@@ -112,10 +112,11 @@ def _one_minus_f_over_t(x) -> np.ndarray:
     near = np.abs(t) < _SERIES_LIMIT
     with np.errstate(divide="ignore", invalid="ignore"):
         direct = (1.0 - _f_function(x)) / t
-    k = np.arange(_SERIES_TERMS)
-    tn = np.where(near, t, 0.0)[..., None]
-    series = np.sum((-tn) ** k / (2 * k + 3), axis=-1)
-    return np.where(near, series, direct)
+    if np.any(near):  # the series only where it is used (16 powers per element)
+        k = np.arange(_SERIES_TERMS)
+        direct = np.array(direct, copy=True) if np.ndim(direct) == 0 else direct
+        direct[near] = np.sum((-t[near][:, None]) ** k / (2 * k + 3), axis=-1)
+    return direct
 
 
 def _h_function(x) -> np.ndarray:
