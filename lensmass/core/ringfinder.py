@@ -11,8 +11,12 @@ Method (our own):
    median of the sector means with its pixel-noise error (x 1.2533, the efficiency of a
    median of Gaussian values), blind to one bright neighbour. Both errors include a 1%
    systematic floor on the lens-light model, so a bright core's misfit is no ring.
-4. The ring is the most significant peak of that profile, weighted by sqrt(r) to undo
-   the inward shift of a blurred ring's peak (see :mod:`lensmass.core.ridge`).
+4. The ring is the most significant peak of that profile among those that stand out from
+   their surroundings by 3 sigma (prominence; a galaxy core's residual falling steadily
+   outwards is not a ring), located on the profile weighted by sqrt(r) to undo the inward
+   shift of a blurred ring's peak (see :mod:`lensmass.core.ridge`). The lens light is then
+   refitted with the ring masked and the search repeated; that second answer replaces the
+   first only when it finds the ring at the same radius.
 5. In each sector where the ring is detected (3 sigma), the ridge radius is measured;
    those ridge points are fitted by an ellipse about the centre (theta_E = sqrt(a b)),
    or by a circle when they cover too little of the azimuth. The radius error is the
@@ -25,10 +29,12 @@ of sectors where it is detected. The result is ``confident`` only for score >=
 
 from __future__ import annotations
 
+import warnings as warnings_module
 from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.ndimage import gaussian_filter
+from scipy.signal import find_peaks
 
 from lensmass.core.arcfit import fit_circle, fit_ellipse
 from lensmass.core.errors import LensInputError
@@ -48,6 +54,8 @@ DEFAULT_MIN_RADIUS_PIX = 3.0
 BIN_PIX = 0.5
 #: Fractional accuracy assumed for the lens-light model (a systematic floor on the ring profile).
 LENS_MODEL_SYSTEMATIC = 0.01
+#: A ring candidate is a peak of the azimuthal profile standing out by this many sigma (prominence).
+MIN_PROMINENCE_SIGMA = 3.0
 #: Second pass: the ring is masked out to this many ring widths (FWHM) either side of its ridge.
 MASK_HALF_WIDTHS = 1.5
 
@@ -238,9 +246,26 @@ def find_ring(
     if not light2.ok:
         report(progress, 1.0)
         return first
-    return _search(light2.residual, light2.center_x, light2.center_y, rmin, rmax, n_sectors, light2,
-                   list(light2.notes) + ["Lens light refitted with the ring masked."],
-                   lambda f: report(progress, 0.75 + 0.25 * f), should_stop)
+    second = _search(light2.residual, light2.center_x, light2.center_y, rmin, rmax, n_sectors, light2,
+                     list(light2.notes) + ["Lens light refitted with the ring masked."],
+                     lambda f: report(progress, 0.75 + 0.25 * f), should_stop)
+    # The refit only de-biases the lens light under the ring; with a broad ring masked it can lose
+    # its hold on the galaxy and leave a core residual that outshines the ring. A second answer that
+    # is no ring, or a ring elsewhere, is not trusted over the first.
+    if not second.found or abs(second.radius_pix - first.radius_pix) > max(2.0, first.ring_width_pix):
+        moved = f"put the peak at {second.radius_pix:.2f} pixels" if second.found else "found no ring"
+        first.warnings.append(f"Refitting the lens light with the ring masked {moved}; the first fit's ring at "
+                              f"{first.radius_pix:.2f} pixels is kept (check the residual image).")
+        report(progress, 1.0)
+        return first
+    return second
+
+
+def _smooth_profile(profile: np.ndarray) -> np.ndarray:
+    """The profile smoothed over about one PSF width (3 bins) for the peak search; the ends are
+    padded with their own values (zero padding would dent the first bin and fake a peak beside it)."""
+    padded = np.pad(np.nan_to_num(profile), 1, mode="edge")
+    return np.convolve(padded, [0.25, 0.5, 0.25], mode="valid")
 
 
 def _annulus_mask(shape, cx, cy, r_in, r_out) -> np.ndarray:
@@ -284,7 +309,9 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
         sec_err = scatter / np.sqrt(np.maximum(n_good, 1))
         # The median of the sector means: blind to a bright neighbour in one sector, and not
         # penalised by the real azimuthal brightness variation of a lopsided ring.
-        med = np.nanmedian(np.where(good, smean, np.nan), axis=0)
+        with warnings_module.catch_warnings():  # radii with no pixel in any sector: NaN, said below
+            warnings_module.simplefilter("ignore", RuntimeWarning)
+            med = np.nanmedian(np.where(good, smean, np.nan), axis=0)
         med_err = 1.2533 * sigma * np.sqrt(np.nansum(np.where(good, 1.0 / counts, 0.0), axis=0)) / np.maximum(n_good, 1)
     err = np.maximum(pix_err, sec_err)
     if light is not None and light.ok:
@@ -298,25 +325,34 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     enough = n_good >= max(3, n_sectors // 3)
     err = np.where(enough, err, np.inf)
     med_err = np.where(enough, med_err, np.inf)
-    # Smooth the profiles over about one PSF-width (3 bins) for the peak search.
-    kern = np.array([0.25, 0.5, 0.25])
-    prof_s = np.convolve(np.nan_to_num(prof), kern, mode="same")
-    med_s = np.convolve(np.nan_to_num(med), kern, mode="same")
+    prof_s, med_s = _smooth_profile(prof), _smooth_profile(med)
     with np.errstate(invalid="ignore", divide="ignore"):
         snr = prof_s / err
         snr_med = med_s / med_err
     snr[~np.isfinite(snr)] = -np.inf
     snr_med[~np.isfinite(snr_med)] = -np.inf
-    # The ring is where the mean profile is most significant (robust to one bright sector);
-    # its score is the better of the two significances there.
-    k = int(np.argmax(snr))
-    best = max(snr[k], snr_med[k])
-    score = float(max(best, 0.0)) if np.isfinite(best) else 0.0
+    # Candidates are peaks of the mean profile that stand out from their surroundings (scipy
+    # find_peaks prominence) by MIN_PROMINENCE_SIGMA: the residual of a bright galaxy's core falls
+    # steadily outwards and is no ring however significant it is. The ring is the candidate where
+    # the mean profile is most significant (robust to one bright sector); its score is the better
+    # of the two significances there.
+    peaks, props = find_peaks(prof_s, prominence=0.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        prominence = props["prominences"] / err[peaks]
+    prominence = np.where(np.isfinite(prominence), prominence, 0.0)
+    candidates = peaks[prominence >= MIN_PROMINENCE_SIGMA]
+    if candidates.size:
+        k = int(candidates[np.argmax(snr[candidates])])
+        best = max(snr[k], snr_med[k])
+        score = float(max(best, 0.0)) if np.isfinite(best) else 0.0
+    else:
+        k, score = -1, float(prominence.max()) if prominence.size else 0.0
     empty = RingResult(False, False, "none", float("nan"), float("nan"), score, 0.0, cx, cy, float("nan"),
                        float("nan"), float("nan"), np.array([]), np.array([]), radii, prof, err, sigma, res, light,
                        "", warnings)
-    if score < 3.0 or k == 0 or k == len(radii) - 1:
-        empty.message = f"No ring: nothing above 3 sigma around the centre (best {score:.1f} sigma)."
+    if k < 0 or score < 3.0:
+        empty.message = ("No ring: no peak of the azimuthal profile stands out by 3 sigma around the centre "
+                         f"(best {score:.1f} sigma).")
         report(progress, 1.0)
         return empty
 
