@@ -38,6 +38,8 @@ PSF_HALF = 12
 #: Rounds of leaving out positive outliers (arcs), and evaluations per least-squares run.
 CLIP_ROUNDS = 2
 MAX_NFEV = 50
+#: Range of the Sersic index the fit may take.
+SERSIC_N_BOUNDS = (0.4, 8.0)
 #: Scale (in sigma) where the soft-L1 cost turns from quadratic to linear.
 SOFT_SCALE = 3.0
 #: The model is evaluated out to where it falls below this fraction of the pixel noise.
@@ -177,8 +179,9 @@ def fit_lens_light(
     q0, ang0 = _moments(np.where(inner, np.nan_to_num(binned), 0.0), xx, yy, cx0, cy0)
     # Parameters: log flux, log R_e, n, q, angle, x0, y0, sky, log PSF sigma (pixels).
     p0 = np.array([np.log(max(flux0, 1e-9)), np.log(re0), 3.0, q0, ang0, cx0, cy0, 0.0, np.log(1.5)])
-    lo = np.array([-np.inf, np.log(0.3), 0.4, 0.15, -np.inf, cx0 - 3, cy0 - 3, -np.inf, np.log(0.2)])
-    hi = np.array([np.inf, np.log(3 * rf), 8.0, 1.0, np.inf, cx0 + 3, cy0 + 3, np.inf, np.log(6.0)])
+    n_lo, n_hi = SERSIC_N_BOUNDS
+    lo = np.array([-np.inf, np.log(0.3), n_lo, 0.15, -np.inf, cx0 - 3, cy0 - 3, -np.inf, np.log(0.2)])
+    hi = np.array([np.inf, np.log(3 * rf), n_hi, 1.0, np.inf, cx0 + 3, cy0 + 3, np.inf, np.log(6.0)])
     p0 = np.clip(p0, lo + 1e-9, hi - 1e-9)
     calls = [0]
     weight = np.ones(vs.size)

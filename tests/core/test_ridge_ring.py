@@ -198,3 +198,16 @@ def test_profile_smoothing_makes_no_peak_at_the_inner_edge():
     r = np.arange(3.25, 40, 0.5)
     assert find_peaks(_smooth_profile(30 * np.exp(-r / 4.0)))[0].size == 0
     assert find_peaks(np.convolve(30 * np.exp(-r / 4.0), [0.25, 0.5, 0.25], mode="same"))[0].tolist() == [1]
+
+
+@pytest.mark.parametrize("psf_kind", ["gaussian", "moffat"])
+def test_barely_resolved_ring_is_flagged_and_its_error_covers_the_truth(psf_kind):
+    # Inject and recover a ring of theta_E = 1.0" under 0.8" seeing (1.25 FWHM): the lens-light fit
+    # then absorbs part of the ring, so the finder must not call it confident, and its error
+    # (with the systematic term) must cover the injected radius within 2 sigma.
+    sim, _ = _field(theta_e=1.0, seed=2, psf_kind=psf_kind)
+    ring = find_ring(sim.image)
+    assert ring.found and not ring.confident
+    theta, err = theta_e_from_pixels(ring.radius_pix, ring.radius_err_pix, 0.2)
+    assert abs(theta - 1.0) < 2 * err
+    assert any("barely resolved" in w for w in ring.warnings)
