@@ -20,9 +20,11 @@ from lensmass.core.nfw import HALO_DEFINITIONS, nfw_halo, nfw_mass_2d_msun
 from lensmass.core.shear_fit import cross_shear_test, fit_nfw, fit_sis
 from lensmass.core.shear_profile import (
     DEFAULT_Z_MARGIN,
+    catalog_shear_profile,
     lens_distance_mpc,
     lensed_sources,
     lensing_efficiency,
+    profile_subbin_edges,
     radial_bin_edges,
     select_sources,
     shear_profile,
@@ -169,12 +171,16 @@ def analyse_shear_catalog(
     n_in_range = int(np.count_nonzero(in_range))
     dropped["outside_radial_range"] = int(np.count_nonzero(ok)) - n_in_range
     e1a, e2a = np.asarray(e1, float), np.asarray(e2, float)
-    step(0.15, "source distances")
+    step(0.15, "source distances and binned profile")
     z_col = z_s if z is None else z
-    t_n, e_t, e_x, w_n, beta, sigma_cr, _ = lensed_sources(near, theta, x, y, e1a, e2a, w, z_col, z_l, cosmo)
-    step(0.3, "binned profile")
-    profile = shear_profile(t_n, e_t, e_x, w_n, edges, beta=beta, sigma_cr_msun_per_mpc2=sigma_cr,
-                            d_l_mpc=d_l, n_bootstrap=n_bootstrap, seed=seed)
+    zeta_slice = _zeta_subbins(profile_subbin_edges(edges), z_in, z_out)
+    if zeta_slice is not None:  # the usual case: no per-galaxy arrays of the selection are needed
+        profile = catalog_shear_profile(near, in_range, theta, x, y, e1a, e2a, w, z_col, z_l, cosmo, edges,
+                                        n_bootstrap=n_bootstrap, seed=seed)
+    else:
+        t_n, e_t, e_x, w_n, beta, sigma_cr, _ = lensed_sources(near, theta, x, y, e1a, e2a, w, z_col, z_l, cosmo)
+        profile = shear_profile(t_n, e_t, e_x, w_n, edges, beta=beta, sigma_cr_msun_per_mpc2=sigma_cr,
+                                d_l_mpc=d_l, n_bootstrap=n_bootstrap, seed=seed)
     step(0.5, "SIS fit")
     sis = fit_sis(profile)
     step(0.65, "NFW fit")
@@ -183,7 +189,6 @@ def analyse_shear_catalog(
     x2, dof_x, p_x = cross_shear_test(profile)
 
     step(0.85, "aperture mass")
-    zeta_slice = _zeta_subbins(profile.fine.edges_arcsec, z_in, z_out)
     if zeta_slice is not None:
         zeta, zeta_err, zeta_s, zeta_s_err = _zeta_from_subbins(profile.fine, zeta_slice, z_in, z_out)
     else:
