@@ -1200,7 +1200,7 @@ class MainWindow(QMainWindow):
             self.undo_stack.push(AddMark(m, "point", m.active, (float(x), float(y))))
         self.undo_stack.endMacro()
         confidence = "confident" if ring.confident else "not confident: check the marks"
-        warn = f" {ring.warnings[0]}" if ring.warnings else ""
+        warn = f" {ring.warnings[-1]}" if ring.warnings else ""  # the last is about the ring itself
         self.show_message(f"Ring found at {ring.radius_pix:.1f} px ({confidence}); its points are editable.{warn}")
 
     def fit_lens_light(self, then_layer: str = "residual") -> None:
