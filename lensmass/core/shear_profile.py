@@ -384,7 +384,8 @@ def catalog_shear_profile(mask, in_bins, theta_arcsec, x_arcsec, y_arcsec, e1, e
 
 def _beta_range(in_bins: np.ndarray, z: np.ndarray, beta_of, table) -> tuple[float, float]:
     """Smallest and largest D_ls / D_s over the rows in ``in_bins``: from their extreme redshifts when
-    the tabulated D_ls / D_s rises with z_s (as it does for any expanding model tried), else per galaxy."""
+    the tabulated D_ls / D_s rises with z_s (always in flat models; checked, as a closed one may turn), else per
+    galaxy."""
     def in_bin_blocks():
         for start in range(0, z.size, _BLOCK):
             zb = z[start:start + _BLOCK].take(np.flatnonzero(in_bins[start:start + _BLOCK]))
