@@ -895,6 +895,7 @@ class MainWindow(QMainWindow):
             self._refresh_systems()
             self.request_estimate()
         elif topic == "inputs":
+            self._refresh_systems()  # the list shows each system's z_s
             self.request_estimate()
         elif topic == "fit":
             self._refresh_marks()

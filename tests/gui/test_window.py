@@ -410,6 +410,7 @@ def test_a_second_arc_system_has_its_own_source_redshift(qtbot, ring_window):
     window, truth = ring_window
     mark_ring(qtbot, window, truth)
     enter_redshifts(qtbot, window, truth["z_l"], truth["z_s"])
+    assert f"z_s {truth['z_s']:g}" in window.system_list.item(0).text()  # the list shows the typed z_s
     wait_for_result(qtbot, window)
     window.act_new_system.trigger()
     assert window.model.active_system.name == "B"
