@@ -150,9 +150,12 @@ class _SectorGrid:
     box: tuple[slice, slice]
     inside: np.ndarray
     cell: np.ndarray
-    n_cells: int
     radii: np.ndarray
     n_sectors: int
+
+    @property
+    def n_cells(self) -> int:
+        return self.n_sectors * self.radii.size
 
 
 def _sector_grid(shape, cx, cy, rmin, rmax, n_sectors) -> _SectorGrid:
@@ -168,7 +171,7 @@ def _sector_grid(shape, cx, cy, rmin, rmax, n_sectors) -> _SectorGrid:
     rb = ((r[inside] - rmin) / BIN_PIX).astype(np.int64)
     sb = ((phi + np.pi) / (2 * np.pi) * n_sectors).astype(np.int64) % n_sectors
     radii = rmin + (np.arange(nb) + 0.5) * BIN_PIX
-    return _SectorGrid((slice(y0, y1), slice(x0, x1)), inside, sb * nb + rb, n_sectors * nb, radii, n_sectors)
+    return _SectorGrid((slice(y0, y1), slice(x0, x1)), inside, sb * nb + rb, radii, n_sectors)
 
 
 def _sector_profiles(image, grid: _SectorGrid, offset: float = 0.0):

@@ -313,7 +313,9 @@ def lensed_sources(mask, theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight, z_s, 
         return (t_n, *tangential_cross(e1_n, e2_n, x_n, y_n), w_n, beta, sigma_cr, d_l)
     outs = [np.empty(n) for _ in range(6)]
     pos = 0
-    for block in _lensed_blocks(mask, (theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight, z_s), z_l, cosmo, d_l):
+    table = _beta_table(z_l, cosmo)
+    beta_of = lambda z: _beta_from_table(z, z_l, table, cosmo)  # noqa: E731
+    for block in _lensed_blocks(mask, (theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight), z_s, beta_of, d_l):
         k = block[0].size
         for out, values in zip(outs, block):
             out[pos:pos + k] = values
@@ -321,17 +323,18 @@ def lensed_sources(mask, theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight, z_s, 
     return (*outs, d_l)
 
 
-def _lensed_blocks(mask, columns, z_l: float, cosmo, d_l: float):
+def _lensed_blocks(mask, columns, z_col, beta_of, d_l: float, beta_one: float | None = None):
     """Per block of rows, the masked galaxies' (theta, e_t, e_x, w, beta, Sigma_cr) from the
-    columns (theta, x, y, e1, e2, w, z); D_ls / D_s from the table as :func:`_interp_beta`."""
-    table = _beta_table(z_l, cosmo)
+    columns (theta, x, y, e1, e2, w) and the redshift column ``z_col`` (D_ls / D_s = ``beta_of(z)``),
+    or one D_ls / D_s ``beta_one`` for all when ``z_col`` is None. Blocks with no such galaxy are skipped."""
     columns = [np.asarray(a, float) for a in columns]
+    z_col = None if z_col is None else np.asarray(z_col, float)
     for start in range(0, mask.size, _BLOCK):
         index = np.flatnonzero(mask[start:start + _BLOCK])
         if not index.size:
             continue
-        t, x, y, g1, g2, w, z = (a[start:start + _BLOCK].take(index) for a in columns)
-        beta = _beta_from_table(z, z_l, table, cosmo)
+        t, x, y, g1, g2, w = (a[start:start + _BLOCK].take(index) for a in columns)
+        beta = np.full(t.size, beta_one) if z_col is None else beta_of(z_col[start:start + _BLOCK].take(index))
         with np.errstate(divide="ignore"):
             sigma_cr = sigma_crit_msun_per_mpc2(d_l, 1.0, beta)  # D_s / D_ls = 1 / beta
         yield (t, *_tangential_cross(g1, g2, x, y), w, beta, sigma_cr)
@@ -353,7 +356,6 @@ def catalog_shear_profile(mask, in_bins, theta_arcsec, x_arcsec, y_arcsec, e1, e
     d_l = lens_distance_mpc(z_l, cosmo)
     fine_index = _fine_indexer(edges, _RADIAL_SUBBINS)
     n_inside = int(np.count_nonzero(in_bins))
-    starts = range(0, mask.size, _BLOCK)
     # D_ls / D_s as lensed_sources takes it: exact distances up to _BETA_GRID_NODES galaxies, else the table
     table = None if int(np.count_nonzero(mask)) <= _BETA_GRID_NODES else _beta_table(z_l, cosmo)
 
@@ -366,20 +368,12 @@ def catalog_shear_profile(mask, in_bins, theta_arcsec, x_arcsec, y_arcsec, e1, e
     else:
         z_col = np.asarray(z_s, float)
         b_min, b_max = _beta_range(in_bins, z_col, beta_of, table)
-    columns = [np.asarray(a, float) for a in (theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight)]
-
-    def blocks():
-        for start in starts:
-            index = np.flatnonzero(mask[start:start + _BLOCK])
-            t, x, y, g1, g2, w = (a[start:start + _BLOCK].take(index) for a in columns)
-            beta = np.full(t.size, b_min) if z_col is None else beta_of(z_col[start:start + _BLOCK].take(index))
-            with np.errstate(divide="ignore"):
-                sigma_cr = sigma_crit_msun_per_mpc2(d_l, 1.0, beta)  # D_s / D_ls = 1 / beta
-            yield (fine_index(t), t, *_tangential_cross(g1, g2, x, y), w, beta, sigma_cr)
-
+    galaxies = _lensed_blocks(mask, (theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight), z_col, beta_of, d_l,
+                              beta_one=b_min)
+    blocks = ((fine_index(block[0]), *block) for block in galaxies)
     if not b_min <= b_max:
         b_min = b_max = 0.0
-    return _profile_from_blocks(blocks(), edges, b_min, b_max, n_inside, True, d_l, n_bootstrap, seed, True)
+    return _profile_from_blocks(blocks, edges, b_min, b_max, n_inside, True, d_l, n_bootstrap, seed, True)
 
 
 def _beta_range(in_bins: np.ndarray, z: np.ndarray, beta_of, table) -> tuple[float, float]:
