@@ -255,3 +255,18 @@ def test_one_pass_catalogue_profile_equals_the_two_step_route(one_redshift, n):
     np.testing.assert_allclose(one.cells.weight, two.cells.weight, rtol=1e-12)
     np.testing.assert_allclose(one.fine.g_t, two.fine.g_t, rtol=1e-12)
     assert one.beta_mean == pytest.approx(two.beta_mean, rel=1e-13)
+    # And against outside references directly: the weighted mean (numpy.average, common practice) of
+    # e_t = -(e1 cos 2phi + e2 sin 2phi) (shared/REFERENCES.md, phi = numpy arctan2) in each bin; for one
+    # source redshift, Delta Sigma = Sigma_cr g_t with Sigma_cr = c^2 D_s / (4 pi G D_l D_ls) from astropy.
+    phi = np.arctan2(y, x)
+    e_t = -(e1 * np.cos(2 * phi) + e2 * np.sin(2 * phi))
+    for i in range(edges.size - 1):
+        inb = in_bins & (theta >= edges[i]) & (theta < edges[i + 1])
+        assert one.g_t[i] == pytest.approx(np.average(e_t[inb], weights=w[inb]), rel=1e-9, abs=1e-12)
+    if one_redshift:
+        import astropy.constants as const
+
+        d_l_q, d_s_q = COSMO.angular_diameter_distance(0.35), COSMO.angular_diameter_distance(1.2)
+        d_ls_q = COSMO.angular_diameter_distance(0.35, 1.2)
+        sigma_cr = (const.c**2 / (4 * np.pi * const.G) * d_s_q / (d_l_q * d_ls_q)).to_value(u.Msun / u.Mpc**2)
+        np.testing.assert_allclose(one.delta_sigma_msun_per_mpc2, sigma_cr * one.g_t, rtol=1e-6)
