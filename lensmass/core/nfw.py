@@ -108,13 +108,12 @@ def _f_function(x) -> np.ndarray:
 def _one_minus_f_over_t(x) -> np.ndarray:
     """(1 - F(x)) / (x^2 - 1), finite through x = 1 (where it is 1/3)."""
     x = np.asarray(x, float)
-    t = x * x - 1.0
+    t = np.asarray(x * x - 1.0)
     near = np.abs(t) < _SERIES_LIMIT
     with np.errstate(divide="ignore", invalid="ignore"):
-        direct = (1.0 - _f_function(x)) / t
+        direct = np.asarray((1.0 - _f_function(x)) / t)
     if np.any(near):  # the series only where it is used (16 powers per element)
         k = np.arange(_SERIES_TERMS)
-        direct = np.array(direct, copy=True) if np.ndim(direct) == 0 else direct
         direct[near] = np.sum((-t[near][:, None]) ** k / (2 * k + 3), axis=-1)
     return direct
 
