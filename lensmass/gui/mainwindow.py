@@ -213,6 +213,9 @@ class MainWindow(QMainWindow):
         self.system_list.setObjectName("systems")
         self.system_list.setToolTip("Each lensed source with its own z_s; clicks go to the selected one.")
         self.system_list.setMaximumHeight(130)
+        # a long entry is shortened in the middle (the z_s at its end stays) rather than scrolled
+        self.system_list.setHorizontalScrollBarPolicy(Qt.ScrollBarAlwaysOff)
+        self.system_list.setTextElideMode(Qt.ElideMiddle)
         v.addWidget(self.system_list)
         row = QHBoxLayout()
         self.add_system_button = QPushButton("new")
@@ -948,6 +951,7 @@ class MainWindow(QMainWindow):
             zs = f"z_s {s.z_s:g}" if s.z_s is not None else (
                 f"z_s {s.z_s_range[0]:g}-{s.z_s_range[1]:g}" if s.z_s_range else "z_s ?")
             item = QListWidgetItem(f"◆ {s.name}   {len(s.points)} pts, {len(s.images)} img   {zs}")
+            item.setToolTip(item.text())
             item.setForeground(self._colour(i))
             self.system_list.addItem(item)
         self.system_list.setCurrentRow(m.active)
