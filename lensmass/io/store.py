@@ -28,7 +28,9 @@ import math
 import os
 import socket
 import sqlite3
+import time
 import uuid
+from contextlib import contextmanager
 from dataclasses import dataclass
 from datetime import datetime, timezone
 from pathlib import Path
@@ -154,17 +156,22 @@ class GradeStore:
         conn.commit()
 
     def _rows(self, sql: str, params: Iterable = ()) -> list[tuple]:
-        cur = self._connection().execute(self._sql(sql), tuple(params))
-        rows = cur.fetchall()
-        self._commit(self._connection())
+        with self._transaction() as conn:
+            rows = conn.execute(self._sql(sql), tuple(params)).fetchall()
+            self._commit(conn)
         return rows
 
     def _insert(self, table: str, columns: tuple[str, ...], values: tuple) -> None:
-        conn = self._connection()
         marks = ", ".join("?" for _ in columns)
-        conn.execute(self._sql(f"INSERT INTO {table} ({', '.join(columns)}) VALUES ({marks}) "
-                               "ON CONFLICT (uid) DO NOTHING"), values)
-        self._commit(conn)
+        with self._transaction() as conn:
+            conn.execute(self._sql(f"INSERT INTO {table} ({', '.join(columns)}) VALUES ({marks}) "
+                                   "ON CONFLICT (uid) DO NOTHING"), values)
+            self._commit(conn)
+
+    @contextmanager
+    def _transaction(self):
+        """The connection one statement runs on (the kept connection; SQLite opens one per statement)."""
+        yield self._connection()
 
     def _connection(self):
         if self._conn is None:
@@ -311,41 +318,117 @@ def default_grader() -> str:
 
 
 class SqliteStore(GradeStore):
-    """The store in one SQLite file, in WAL mode (one writer at a time, readers never blocked)."""
+    """The store in one SQLite file in WAL mode: one writer at a time, readers never blocked.
+
+    **Each statement opens its own connection and closes it at once; no connection is kept between
+    writes.** SQLite's locks on the file are POSIX advisory locks, which belong to the *process*, not
+    to the connection: when anything else in the same process opens and closes the database file
+    (a Qt file dialog listing the manifest's folder, a backup script, ``shutil.copy``), every lock the
+    process held on it is silently dropped. A connection kept open across that would then look absent
+    to the next outside reader, which, believing itself the last user, checkpoints and *deletes* the
+    ``-wal`` and ``-shm`` files when it closes; the kept connection goes on writing to the deleted WAL
+    and those grades are lost (SQLite documents this in "How To Corrupt An SQLite Database File",
+    section 2.2, "Posix advisory locks canceled by a separate thread doing close()"). A connection
+    opened per statement takes its locks afresh each time and holds none while the user is in a
+    dialog, so nothing can drop them between writes; other graders' processes still read and write
+    the same file at the same time (WAL: readers never wait, writers wait up to ``busy_timeout``).
+    Opening costs ~0.1 ms, far below a grader's pace.
+
+    Switching a brand-new file to WAL (``PRAGMA journal_mode = WAL``) does not honour the busy
+    timeout, so when several processes create the same store at once it is retried until
+    :attr:`open_timeout_s` has passed.
+    """
 
     backend = "sqlite"
+    #: How long a statement (or the switch to WAL of a new file) waits for other writers, in seconds.
+    open_timeout_s = 60.0
 
     def __init__(self, path: str | Path, queue: str, grader: str | None = None):
         super().__init__(queue, grader)
         self.path = Path(path)
-        self._connection()
+        with self._errors_as_sentences():
+            self.path.parent.mkdir(parents=True, exist_ok=True)
+            conn = self._connect()
+            try:
+                self._switch_to_wal(conn)
+                self._create_schema(conn)
+            finally:
+                conn.close()
 
     def _connect(self):
-        try:
-            self.path.parent.mkdir(parents=True, exist_ok=True)
-            conn = sqlite3.connect(self.path, timeout=60.0, isolation_level=None)
-            conn.execute("PRAGMA busy_timeout = 60000")
-            mode = conn.execute("PRAGMA journal_mode = WAL").fetchone()[0]
-            if str(mode).lower() != "wal":
-                conn.close()
-                raise LensInputError(
-                    f"The grade store '{self.path}' cannot use write-ahead logging (its disk refuses it): "
-                    "put the manifest on a local disk or use a PostgreSQL store."
-                )
-            conn.execute("PRAGMA synchronous = NORMAL")
-            self._create_schema(conn)
-            return conn
-        except sqlite3.DatabaseError as exc:
+        conn = sqlite3.connect(self.path, timeout=self.open_timeout_s, isolation_level=None)
+        conn.execute(f"PRAGMA busy_timeout = {int(self.open_timeout_s * 1000)}")
+        conn.execute("PRAGMA synchronous = NORMAL")
+        return conn
+
+    def _switch_to_wal(self, conn) -> None:
+        deadline = time.monotonic() + self.open_timeout_s
+        pause = 0.005
+        while True:
+            try:
+                mode = conn.execute("PRAGMA journal_mode = WAL").fetchone()[0]
+                break
+            except sqlite3.OperationalError as exc:  # "database is locked": the busy timeout is not applied
+                if "locked" not in str(exc) and "busy" not in str(exc) or time.monotonic() > deadline:
+                    raise
+                time.sleep(pause)
+                pause = min(0.1, pause * 2)
+        if str(mode).lower() != "wal":
             raise LensInputError(
-                f"The grade store '{self.path}' is not a readable SQLite file ({exc}): move it aside and reopen "
-                "the queue to start a new one."
-            ) from None
+                f"The grade store '{self.path}' cannot use write-ahead logging (its disk refuses it): "
+                "put the manifest on a local disk or use a PostgreSQL store."
+            )
+
+    @contextmanager
+    def _transaction(self):
+        with self._errors_as_sentences():
+            conn = self._connect()
+            try:
+                yield conn
+            finally:
+                conn.close()
+
+    @contextmanager
+    def _errors_as_sentences(self):
+        """SQLite and OS errors as one sentence each: corrupt, busy, or out of disk space."""
+        try:
+            yield
+        except sqlite3.DatabaseError as exc:
+            raise LensInputError(store_error_sentence(self.path, exc)) from None
+        except OSError as exc:
+            raise LensInputError(store_error_sentence(self.path, exc)) from None
 
     def _commit(self, conn) -> None:  # autocommit mode: each statement is its own transaction
         return None
 
+    def close(self) -> None:  # nothing is kept open between statements
+        return None
+
     def describe(self) -> str:
         return f"SQLite file {self.path}"
+
+
+def store_error_sentence(path: Path, exc: BaseException) -> str:
+    """What went wrong with a SQLite store, in one sentence with the way out."""
+    import errno
+
+    text = str(exc).strip() or type(exc).__name__
+    lowered = text.lower()
+    if "full" in lowered or getattr(exc, "errno", None) == errno.ENOSPC \
+            or getattr(exc, "sqlite_errorname", "") == "SQLITE_FULL":
+        return (f"The disk holding the grade store '{path}' is full, so the last entry was not written; the "
+                "grades written before it are safe in the store: free some space and do it again.")
+    if "locked" in lowered or "busy" in lowered:
+        return (f"The grade store '{path}' stayed locked by another grader's process for over a minute "
+                f"({text}); nothing was written: try again, or end the stuck process.")
+    if isinstance(exc, OSError):
+        return (f"The grade store '{path}' cannot be opened ({text}): check that its folder exists and "
+                "that you may write there.")
+    if "unable to open" in lowered or "readonly" in lowered or "read-only" in lowered:
+        return (f"The grade store '{path}' cannot be opened for writing ({text}): check that its folder "
+                "exists and that you may write there.")
+    return (f"The grade store '{path}' is not a readable SQLite file ({text}): move it aside and reopen "
+            "the queue to start a new one.")
 
 
 def store_path_beside(source: str | Path) -> Path:
