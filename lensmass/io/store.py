@@ -157,7 +157,9 @@ class GradeStore:
 
     def _rows(self, sql: str, params: Iterable = ()) -> list[tuple]:
         with self._transaction() as conn:
-            rows = conn.execute(self._sql(sql), tuple(params)).fetchall()
+            cur = conn.execute(self._sql(sql), tuple(params))
+            rows = cur.fetchall()
+            cur.close()  # an open cursor would keep a closed SQLite connection alive (a "zombie")
             self._commit(conn)
         return rows
 
@@ -165,7 +167,7 @@ class GradeStore:
         marks = ", ".join("?" for _ in columns)
         with self._transaction() as conn:
             conn.execute(self._sql(f"INSERT INTO {table} ({', '.join(columns)}) VALUES ({marks}) "
-                                   "ON CONFLICT (uid) DO NOTHING"), values)
+                                   "ON CONFLICT (uid) DO NOTHING"), values).close()
             self._commit(conn)
 
     @contextmanager
@@ -366,7 +368,9 @@ class SqliteStore(GradeStore):
         pause = 0.005
         while True:
             try:
-                mode = conn.execute("PRAGMA journal_mode = WAL").fetchone()[0]
+                cur = conn.execute("PRAGMA journal_mode = WAL")
+                mode = cur.fetchone()[0]
+                cur.close()
                 break
             except sqlite3.OperationalError as exc:  # "database is locked": the busy timeout is not applied
                 if "locked" not in str(exc) and "busy" not in str(exc) or time.monotonic() > deadline:

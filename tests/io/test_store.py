@@ -134,7 +134,10 @@ def test_sqlite_store_lives_beside_the_manifest_in_wal_mode(tmp_path):
     manifest.write_text("id\nA\n")
     store = open_store(None, manifest)
     assert isinstance(store, SqliteStore) and store.path == tmp_path / "field.grades.sqlite"
-    assert store._connection().execute("PRAGMA journal_mode").fetchone()[0] == "wal"
+    import sqlite3
+
+    with sqlite3.connect(store.path) as conn:  # WAL is a property of the file, seen by any connection
+        assert conn.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
     store.close()
 
 
