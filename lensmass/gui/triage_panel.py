@@ -59,8 +59,20 @@ class _Keys(QObject):
         super().__init__(panel)
         self.panel = panel
 
+    #: The characters the list answers to (see TRIAGE_KEYS).
+    KEYS = frozenset({".", ",", "f", "n", "m", *(str(g) for g in GRADE_SCALE)})
+
+    def _ours(self, event) -> bool:
+        plain = not (event.modifiers() & ~(Qt.ShiftModifier | Qt.KeypadModifier))
+        return plain and event.text().lower() in self.KEYS
+
     def eventFilter(self, obj, event):  # noqa: N802
-        if event.type() != QEvent.KeyPress:
+        if event.type() == QEvent.ShortcutOverride and self._ours(event):
+            # Claim the key before the window's one-key shortcuts (F fit, N new arc system, 1 zoom 1:1)
+            # see it: Qt delivers it to the list as a key press instead of triggering the shortcut.
+            event.accept()
+            return True
+        if event.type() != QEvent.KeyPress or not self._ours(event):
             return False
         text = event.text().lower()
         p = self.panel
@@ -326,6 +338,9 @@ class TriagePanel(QWidget):
         if cand == self.current_id:
             return
         self._leave_current()
+        if not self._unstored_marks():
+            # Nothing was measured, or the measurement is kept in the store: no "unsaved changes?" prompt.
+            self.model.dirty = False
         self.current_id = cand
         row = self.manifest.by_id()[cand]
         opened = False
@@ -337,6 +352,11 @@ class TriagePanel(QWidget):
         texts = {k: f"{v:g}" for k, v in (("z_l", row.z_l), ("z_s", row.z_s)) if v is not None}
         if texts and not restored:
             self.model.set_texts(texts)
+        if opened:
+            self.model.dirty = False  # the redshifts come from the manifest: nothing of the user's to save yet
+            update_title = getattr(self.window, "_update_title", None)
+            if update_title is not None:
+                update_title()
         self._stored_result_ids.setdefault(cand, id(self.model.result) if self.model.result is not None else 0)
         self._sync_controls()
         where = f" at RA {row.ra_deg:.5f}, Dec {row.dec_deg:+.5f}" if None not in (row.ra_deg, row.dec_deg) else ""
@@ -375,6 +395,12 @@ class TriagePanel(QWidget):
     def _position(self) -> str:
         item = self.tree.currentItem()
         return f"{self.tree.indexOfTopLevelItem(item) + 1} of {self.tree.topLevelItemCount()}"
+
+    def _unstored_marks(self) -> bool:
+        """True when the window holds marks of the current candidate that are not kept in the store."""
+        if not any(system.points or system.images for system in self.model.systems):
+            return False
+        return self._restored.get(self.current_id or "") != _marks_signature(self.model)
 
     def _leave_current(self) -> None:
         """Store the window's new result with the candidate being left (if any); restored marks
