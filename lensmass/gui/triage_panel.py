@@ -208,7 +208,9 @@ class TriagePanel(QWidget):
         self.close_queue()
         self.manifest, self.store = manifest, new_store
         self.refresh()
-        self._say(f"Queue {manifest.name}: {len(manifest.rows)} candidates; grades go to {new_store.describe()}.")
+        ident = f" (queue id {new_store.queue})" if new_store.queue != manifest.name else ""
+        self._say(f"Queue {manifest.name}{ident}: {len(manifest.rows)} candidates; grades go to "
+                  f"{new_store.describe()}.")
         if self.tree.topLevelItemCount():
             self.tree.setCurrentItem(self.tree.topLevelItem(0))
         return True

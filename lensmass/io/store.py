@@ -457,21 +457,28 @@ def open_store(spec: str | None, source: str | Path, *, queue: str | None = None
 
     ``spec`` None: SQLite beside the manifest; ``postgresql://...``: that server;
     anything else: a path of a SQLite file. ``source`` is the manifest or folder
-    (it names the queue and locates the local files).
+    (it locates the local files and the queue's identity).
+
+    The queue's rows are told apart from other queues' by ``queue`` if given; else, in a
+    shared store (PostgreSQL or a named SQLite file), by the identity kept beside the
+    manifest (:mod:`lensmass.io.queue_identity`, made on first use), and in the default
+    store beside the manifest (one manifest's own file) by the manifest's stem.
     """
+    from lensmass.io.queue_identity import queue_identity, queue_label
+
     source = Path(source)
-    queue = queue or (source.name if source.is_dir() else source.stem)
     if spec is None or str(spec).strip() == "":
-        return SqliteStore(store_path_beside(source), queue, grader)
+        return SqliteStore(store_path_beside(source), queue or queue_label(source), grader)
     text = str(spec).strip()
+    if "://" in text and not text.startswith(("postgresql://", "postgres://")):
+        raise LensInputError(
+            f"Unknown store '{text}': give a SQLite file path or a postgresql://user@host:port/db URL."
+        )
+    queue = queue or queue_identity(source)
     if text.startswith(("postgresql://", "postgres://")):
         from lensmass.io.store_postgres import PostgresStore
 
         return PostgresStore(text, queue, grader, spool_path=spool_path_beside(source))
-    if "://" in text:
-        raise LensInputError(
-            f"Unknown store '{text}': give a SQLite file path or a postgresql://user@host:port/db URL."
-        )
     return SqliteStore(Path(text).expanduser(), queue, grader)
 
 

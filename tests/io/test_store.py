@@ -183,5 +183,5 @@ def test_unreachable_server_keeps_grades_locally(tmp_path):
         store.history()
     store.close()
     # the spool is a plain SQLite store: the grade is really kept
-    spool = SqliteStore(manifest.with_name("away.grades-spool.sqlite"), "away")
+    spool = SqliteStore(manifest.with_name("away.grades-spool.sqlite"), store.queue)
     assert [r["grade"] for r in spool.history()] == [3]
