@@ -240,12 +240,34 @@ def run_rows(rows, settings: dict) -> list[dict[str, Any]]:
 _WORKER_SETTINGS: dict | None = None
 
 
-def _init_worker(settings: dict) -> None:
+#: How often a worker looks whether its parent is still there (seconds).
+PARENT_CHECK_S = 0.25
+
+
+def _init_worker(settings: dict, stop=None, parent_pid: int | None = None) -> None:
     global _WORKER_SETTINGS
     _WORKER_SETTINGS = settings
     import signal
+    import threading
 
     signal.signal(signal.SIGINT, signal.SIG_IGN)  # the parent handles Ctrl-C and saves
+    if parent_pid is not None:
+        threading.Thread(target=_end_with_parent, args=(stop, parent_pid), daemon=True,
+                         name="lensmass-parent-watch").start()
+
+
+def _end_with_parent(stop, parent_pid: int) -> None:
+    """A worker's watch: end at once when the parent asks (Ctrl-C, SIGTERM) or is gone (kill -9).
+
+    A killed parent cannot tell its workers anything; a POSIX child then sees another parent in
+    ``os.getppid()`` (init or a subreaper), which is what this looks for, every :data:`PARENT_CHECK_S`.
+    """
+    import os
+
+    while True:
+        asked = stop.wait(PARENT_CHECK_S) if stop is not None else False
+        if asked or os.getppid() != parent_pid:
+            os._exit(1)
 
 
 def _run_chunk(rows) -> list[dict[str, Any]]:
@@ -353,6 +375,7 @@ def run(args: argparse.Namespace) -> int:
     saver = _Saver(out, records, settings, models, args.save_every)
     saver.save()  # a valid (possibly empty) RESULTS exists from the start
     progress = _progress_bar(len(todo), args.no_progress)
+    previous_sigterm = _sigterm_as_interrupt()
     try:
         if args.workers == 1 or len(todo) < 2:
             for chunk in _chunks(todo, 1):
@@ -362,12 +385,34 @@ def run(args: argparse.Namespace) -> int:
         else:
             _run_parallel(todo, settings, args.workers, saver, progress)
     finally:
+        _restore_sigterm(previous_sigterm)
         progress.close()
         saver.save()
     failed = sum(1 for r in records.values() if r["error"])
     print(f"lensmass batch: {len(records)} rows written to {out}; {len(records) - failed} measured, "
           f"{failed} failed.", file=sys.stderr)
     return EXIT_SOME_ROWS_FAILED if failed else 0
+
+
+def _sigterm_as_interrupt():
+    """SIGTERM ends a run like Ctrl-C: RESULTS is saved and the workers stop (returns the old handler)."""
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        return None
+
+    def interrupt(_signum, _frame):
+        raise KeyboardInterrupt
+
+    return signal.signal(signal.SIGTERM, interrupt)
+
+
+def _restore_sigterm(previous) -> None:
+    import signal
+
+    if previous is not None:
+        signal.signal(signal.SIGTERM, previous)
 
 
 def _chunks(todo, workers: int) -> list[list]:
@@ -377,8 +422,14 @@ def _chunks(todo, workers: int) -> list[list]:
 
 
 def _run_parallel(todo, settings, workers, saver, progress) -> None:
+    import multiprocessing
+    import os
+
     chunks = _chunks(todo, workers)
-    with ProcessPoolExecutor(max_workers=workers, initializer=_init_worker, initargs=(settings,)) as pool:
+    context = multiprocessing.get_context()
+    stop = context.Event()  # set when the run ends early: the workers quit at once instead of finishing
+    with ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_init_worker,
+                             initargs=(settings, stop, os.getpid())) as pool:
         pending = {pool.submit(_run_chunk, c) for c in chunks}
         try:
             while pending:
@@ -396,6 +447,7 @@ def _run_parallel(todo, settings, workers, saver, progress) -> None:
         except BaseException:
             for fut in pending:
                 fut.cancel()
+            stop.set()
             raise
 
 
