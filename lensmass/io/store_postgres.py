@@ -106,6 +106,13 @@ class PostgresStore(GradeStore):
             self._lost()
             self._spool_store()._insert(table, columns, values)
             why = str(exc).strip().splitlines()[0] if str(exc).strip() else "no answer"
+            if getattr(exc, "sqlstate", None) == "53100":  # disk_full (PostgreSQL error codes, class 53)
+                return Receipt(
+                    "queued",
+                    f"The PostgreSQL server at {_server_label(self.url)} has no disk space left ({why}); the grades "
+                    f"it holds are safe, and this entry is kept in {self.spool_path} and will be sent when there "
+                    "is room again.",
+                )
             return Receipt(
                 "queued",
                 f"The PostgreSQL server at {_server_label(self.url)} cannot be reached ({why}); the entry is kept "

@@ -103,3 +103,20 @@ def test_away_from_the_list_the_window_keys_still_work(docked, qtbot):
     qtbot.keyClick(window.canvas, "n")
     assert len(window.model.systems) == n + 1  # N = new arc system, as the help says
     assert panel.store.history() == []  # and the queue graded nothing
+
+
+def test_a_full_disk_under_the_store_is_said_in_the_window(docked, qtbot, monkeypatch):
+    from tests.io.test_store_full_disk import fill_the_disk
+
+    window, panel, asked = docked
+    _press(qtbot, panel, "2")
+    fill_the_disk(monkeypatch)
+    panel.note_edit.setText("n" * 400)
+    for _ in range(200):
+        panel.save_note()
+        if "full" in panel.status.text():
+            break
+    text = panel.status.text()
+    assert "is full" in text and "grades written before it are safe" in text and "went wrong" not in text
+    monkeypatch.undo()
+    assert panel.store.history("Q-00")[0]["grade"] == 2  # the grade before the full disk is kept
