@@ -437,8 +437,10 @@ class MainWindow(QMainWindow):
             self.panels.append(panel)
             # A session opened before the panels were built (they load after the first paint).
             self._restore_panel(panel, self.model.session.panels, self._session_dir(self.model.session_path))
-        self.plots_dock.raise_()
-        self.marks_dock.raise_()
+        from lensmass.gui.dock_layout import fit_docks
+
+        # Every panel reachable down to a 1366 x 768 screen; sized once the window has its size.
+        QTimer.singleShot(0, lambda: fit_docks(self))
         if problems:
             self.show_message(problems[0])
 
@@ -782,7 +784,15 @@ class MainWindow(QMainWindow):
         if geometry is not None:
             self.restoreGeometry(geometry)
         else:
-            self.resize(1360, 860)
+            from PySide6.QtCore import QSize
+
+            from lensmass.gui.dock_layout import initial_window_rect
+
+            screen = self.screen()
+            if screen is not None:  # never larger than the screen, and on it
+                self.setGeometry(initial_window_rect(screen.availableGeometry(), QSize(1360, 860)))
+            else:
+                self.resize(1360, 860)
         state = self.settings.value("window/state")
         if state is not None:
             self.restoreState(state)

@@ -231,9 +231,9 @@ class ShearPanel(QWidget):
         self.results = QLabel("")
         self.results.setWordWrap(True)
         self.results.setTextInteractionFlags(Qt.TextSelectableByMouse)
-        self.figure = Figure(figsize=(4.2, 3.2), tight_layout=True)
+        self.figure = Figure(figsize=(4.2, 2.4), tight_layout=True)  # preferred height: fits a 768-pixel screen
         self.plot = FigureCanvasQTAgg(self.figure)
-        self.plot.setMinimumHeight(240)
+        self.plot.setMinimumHeight(180)  # the plot and its numbers fit one dock on a 1366 x 768 screen
 
         grid = QGridLayout()
         grid.addWidget(self.load_button, 0, 0)

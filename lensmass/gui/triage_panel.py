@@ -125,6 +125,8 @@ class TriagePanel(QWidget):
         self.open_button.clicked.connect(self._open_dialog)
         self.store_edit = QLineEdit()
         self.store_edit.setPlaceholderText("store: empty = SQLite file beside the manifest, or postgresql://...")
+        self.store_edit.setToolTip("Where grades go: empty = a SQLite file beside the manifest; or a SQLite "
+                                   "file path, or postgresql://user@host:port/db for a team.")
         self.grader_edit = QLineEdit(default_grader())
         self.grader_edit.setToolTip("Your name as a grader; each grader's grades are kept apart.")
         top.addWidget(self.open_button, 0, 0)
@@ -143,17 +145,20 @@ class TriagePanel(QWidget):
         self.tree.setHeaderLabels(list(COLUMNS))
         self.tree.setRootIsDecorated(False)
         self.tree.setToolTip(KEY_HELP)
+        self.tree.setHorizontalScrollBarPolicy(Qt.ScrollBarAsNeeded)  # columns scroll inside a narrow dock
+        self.tree.setMinimumWidth(120)
         self.tree.currentItemChanged.connect(self._on_current)
         self.tree.installEventFilter(_Keys(self))
         lay.addWidget(self.tree, 1)
 
-        grades = QHBoxLayout()
+        # Two buttons a row everywhere below: the dock stays narrow enough for a 1366 x 768 screen.
+        grades = QGridLayout()
         self.grade_buttons = []
         for g, (name, meaning) in GRADE_SCALE.items():
             b = QPushButton(f"{g} {name}")
-            b.setToolTip(meaning)
+            b.setToolTip(f"{meaning} (key {g})")
             b.clicked.connect(lambda _c=False, g=g: self.grade(g))
-            grades.addWidget(b)
+            grades.addWidget(b, g // 2, g % 2)
             self.grade_buttons.append(b)
         lay.addLayout(grades)
         row = QHBoxLayout()
@@ -167,7 +172,7 @@ class TriagePanel(QWidget):
         row.addWidget(self.flag_button)
         row.addWidget(self.note_edit, 1)
         lay.addLayout(row)
-        row2 = QHBoxLayout()
+        row2 = QGridLayout()
         self.measure_button = QPushButton("Store measurement")
         self.measure_button.setToolTip("Keep the window's current result with this candidate (M).")
         self.measure_button.clicked.connect(self.store_measurement)
@@ -176,8 +181,8 @@ class TriagePanel(QWidget):
         self.export_button.clicked.connect(self._export_dialog)
         self.grading_button = QPushButton("Grade a class...")
         self.grading_button.clicked.connect(self.open_grading_dialog)
-        for b in (self.measure_button, self.export_button, self.grading_button):
-            row2.addWidget(b)
+        for i, b in enumerate((self.measure_button, self.export_button, self.grading_button)):
+            row2.addWidget(b, i // 2, i % 2)
         lay.addLayout(row2)
         self.status = QLabel("No queue open. " + KEY_HELP)
         self.status.setWordWrap(True)
