@@ -24,7 +24,7 @@ from PySide6.QtWidgets import (QComboBox, QFileDialog, QGridLayout, QHBoxLayout,
                                QTreeWidget, QTreeWidgetItem, QVBoxLayout, QWidget)
 
 from lensmass.core.errors import LensInputError
-from lensmass.io.store import GRADE_SCALE, default_grader, grade_label
+from lensmass.io.store import GRADE_SCALE, consensus_of, default_grader, grade_label
 
 #: Columns of the list.
 COLUMNS = ("candidate", "my grade", "team", "state")
@@ -257,7 +257,7 @@ class TriagePanel(QWidget):
     def _load_state(self) -> bool:
         try:
             current = self.store.current()
-            cons = self.store.consensus()
+            cons = consensus_of(current.values())  # the same rows: one read of the store, not two
             self._measured = {m["candidate"] for m in self.store.measurements()}
         except LensInputError as exc:
             self._say(str(exc))
