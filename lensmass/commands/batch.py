@@ -264,9 +264,11 @@ def _end_with_parent(stop, parent_pid: int) -> None:
     """
     import os
 
+    import time
+
     while True:
-        asked = stop.wait(PARENT_CHECK_S) if stop is not None else False
-        if asked or os.getppid() != parent_pid:
+        time.sleep(PARENT_CHECK_S)
+        if (stop is not None and stop.value) or os.getppid() != parent_pid:
             os._exit(1)
 
 
@@ -427,7 +429,9 @@ def _run_parallel(todo, settings, workers, saver, progress) -> None:
 
     chunks = _chunks(todo, workers)
     context = multiprocessing.get_context()
-    stop = context.Event()  # set when the run ends early: the workers quit at once instead of finishing
+    # Set when the run ends early: the workers quit at once instead of finishing their rows. A lock-free
+    # shared byte, not an Event: a worker that dies holding an Event's lock would block the parent's set().
+    stop = context.RawValue("b", 0)
     with ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_init_worker,
                              initargs=(settings, stop, os.getpid())) as pool:
         pending = {pool.submit(_run_chunk, c) for c in chunks}
@@ -447,7 +451,7 @@ def _run_parallel(todo, settings, workers, saver, progress) -> None:
         except BaseException:
             for fut in pending:
                 fut.cancel()
-            stop.set()
+            stop.value = 1
             raise
 
 

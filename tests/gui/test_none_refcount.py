@@ -35,6 +35,7 @@ TOLERANCE = 200
 def _measured_demo_window(qtbot, make_window):
     path, truth = demo_field("tris_ring_a")
     window = make_window()
+    window.resize(800, 560)  # smaller paints, same Qt calls per paint
     assert window.open_path(str(path))
     window.canvas.fit_to_window()
     points = truth["arc_points_xy"][:: max(1, len(truth["arc_points_xy"]) // 12)]
