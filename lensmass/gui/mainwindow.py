@@ -440,7 +440,12 @@ class MainWindow(QMainWindow):
         from lensmass.gui.dock_layout import fit_docks
 
         # Every panel reachable down to a 1366 x 768 screen; sized once the window has its size.
-        QTimer.singleShot(0, lambda: fit_docks(self))
+        # A layout the user arranged and the window remembered is theirs: left as it is.
+        if self.settings.value("window/state") is None:
+            QTimer.singleShot(0, lambda: fit_docks(self))
+        else:
+            self.plots_dock.raise_()
+            self.marks_dock.raise_()
         if problems:
             self.show_message(problems[0])
 
