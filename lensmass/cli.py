@@ -18,6 +18,8 @@ SUBCOMMANDS: dict[str, tuple[str, str]] = {
     "estimate": ("lensmass.commands.estimate", "Einstein radius + redshifts -> distances, Sigma_cr, masses."),
     "measure": ("lensmass.commands.measure", "Measure theta_E on an image (points file or ring finder), then estimate."),
     "shear": ("lensmass.commands.shear", "Weak-lensing shear catalogue -> profile, SIS/NFW fits, aperture mass, map."),
+    "components": ("lensmass.commands.components",
+                   "Cluster: mass peaks vs gas and galaxies, offsets, dark and ordinary mass budgets."),
     "batch": ("lensmass.commands.batch", "Run estimate/measure over every row of a manifest."),
     "grade": ("lensmass.commands.grade", "Grade a class's lensing answers and diagnose the classic mistakes."),
     "demo": ("lensmass.commands.demo", "Write the synthetic demo fields (ray-traced) into a folder."),

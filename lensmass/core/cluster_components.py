@@ -189,8 +189,9 @@ def locate_cluster_components(
     result["map"]["noise_highest_peak_snr95"] = b_limit
     if mp.b_mode_max_snr > b_limit:
         notes.append(f"The B-mode map's highest peak (S/N {mp.b_mode_max_snr:.1f}) is higher than 95% of the "
-                     f"rotated-noise maps' highest peaks ({b_limit:.1f}); lensing makes no B mode: check the shape "
-                     "measurement and the ellipticity convention.")
+                     f"rotated-noise maps' highest peaks ({b_limit:.1f}). Lensing makes no B mode, but the reduced shear "
+                     "near massive halos and the field's edges leak a little into it; far from both, suspect the shape "
+                     "measurement or the ellipticity convention.")
 
     seconds = {}
     if xray_counts is not None:

@@ -6,10 +6,11 @@ the independent resamplings of the two data sets (shear catalogue; X-ray counts 
 members) by index. Its 68% / 95% regions are the ellipses holding those fractions of
 the d_b around the measured d (:func:`lensmass.core.peak_finding.bootstrap_regions`).
 The significance of a non-zero offset tests d = 0 against the bootstrap spread: with C
-the covariance of the d_b about their mean, r^2 = d^T C^-1 d; the p-value is the fraction
-of centred bootstrap offsets with a Mahalanobis r^2 at least as large (floored at
-1 / (n + 1); r^2 divided by the regions' calibrated widening), quoted also as a two-sided Gaussian-equivalent number of sigma
-(scipy.stats.norm.isf(p / 2)). Distances in kpc are physical at the lens,
+the covariance of the d_b about their mean (times the regions' calibrated widening),
+r^2 = d^T C^-1 d is chi^2-distributed with 2 degrees of freedom if the offsets are Gaussian:
+p = scipy.stats.chi2.sf(r^2, 2), quoted also as a two-sided Gaussian-equivalent number of
+sigma (scipy.stats.norm.isf(p / 2)). Beside it, the distribution-free p-value: the fraction
+of centred bootstrap offsets with a Mahalanobis r^2 at least as large (floored at 1 / (n + 1)). Distances in kpc are physical at the lens,
 R = theta D_l (angular-diameter distance; Hogg 1999).
 """
 
@@ -41,6 +42,7 @@ class PeakOffset:
     pvalue_nonzero: float
     significance_sigma: float
     n_pairs: int
+    pvalue_bootstrap: float
 
     def as_dict(self, kpc_per_arcsec: float) -> dict:
         return {
@@ -53,6 +55,7 @@ class PeakOffset:
             "offset_interval95_kpc": [v * kpc_per_arcsec for v in self.distance95_arcsec],
             "regions": [r.as_dict() for r in self.regions],
             "pvalue_zero_offset": self.pvalue_nonzero, "significance_sigma": self.significance_sigma,
+            "pvalue_zero_offset_bootstrap": self.pvalue_bootstrap,
             "bootstrap_pairs": self.n_pairs,
         }
 
@@ -90,13 +93,15 @@ def match_offsets(mass_peaks, other_peaks, *, kind: str, d_l_mpc: float, max_mat
             inv = np.linalg.inv(cov + np.eye(2) * 1e-12 * max(np.trace(cov), 1e-30))
             r0 = float(d @ inv @ d) / PEAK_REGION_WIDENING  # the same widening as the regions
             r_b = np.einsum("ni,ij,nj->n", centred, inv, centred)
-            p = max(float(np.count_nonzero(r_b >= r0)) / db.shape[0], 1.0 / (db.shape[0] + 1))
+            p_emp = max(float(np.count_nonzero(r_b >= r0)) / db.shape[0], 1.0 / (db.shape[0] + 1))
+            p = float(stats.chi2.sf(r0, 2))
             dist_b = np.hypot(*(centred + d).T)
             q = np.quantile(dist_b, [0.16, 0.84, 0.025, 0.975])
         else:
-            p, q = np.nan, np.full(4, np.nan)
+            p = p_emp = np.nan
+            q = np.full(4, np.nan)
         out.append(PeakOffset(i, kind, j, float(d[0]), float(d[1]), float(np.hypot(*d)),
                               float(np.hypot(*d) * scale), (float(q[0]), float(q[1])), (float(q[2]), float(q[3])),
                               regions, p, float(stats.norm.isf(p / 2)) if np.isfinite(p) else np.nan,
-                              int(db.shape[0])))
+                              int(db.shape[0]), p_emp))
     return out

@@ -9,7 +9,7 @@ a weak-lensing shape catalogue. Made by :mod:`lensmass.core.cluster_simulation`.
 
 Files (``lensmass demo OUTDIR``): ``tris_collide_e_shear.fits``, ``tris_collide_e_members.ecsv``,
 ``tris_collide_e_xray.fits`` (counts; extension EXPOSURE), ``tris_collide_e_gas_mass.fits``
-(Msun per pixel, on the X-ray grid), ``tris_collide_e_optical.fits`` and
+(Msun per pixel, on a coarser grid aligned with the X-ray image), ``tris_collide_e_optical.fits`` and
 ``tris_collide_e.truth.json``.
 """
 
@@ -49,13 +49,15 @@ SETUP = {
     "field_arcsec": 1200.0,
     "density_per_arcmin2": 30.0,
     "shape_noise": 0.25,
-    "xray_pixel_arcsec": 2.0,
-    "xray_shape": (520, 520),
+    "xray_pixel_arcsec": 2.5,
+    "xray_shape": (400, 400),
+    "gas_map_pixel_arcsec": 5.0,
+    "gas_map_shape": (200, 200),
     "xray_rotation_deg": 23.0,
     "xray_exposure_s": 60000.0,
     "xray_background_rate": 2.0e-6,
-    "optical_pixel_arcsec": 2.0,
-    "optical_shape": (560, 560),
+    "optical_pixel_arcsec": 2.5,
+    "optical_shape": (420, 420),
     "seed": 20261202,
 }
 
@@ -140,15 +142,19 @@ def make_collision_field(cosmology=None) -> dict:
     gx, gy = _offsets_of_pixels(xwcs, shape, ra0, dec0)
     area = s["xray_pixel_arcsec"] ** 2
     rate = np.full(shape, s["xray_background_rate"] * area)
-    gas_map = np.zeros(shape)
     for g in s["gas"]:
         rate += g["xray_peak_rate"] * area * _beta_profile(gx, gy, g, -3 * g["beta"] + 0.5)
-        gas_map += g["mass_norm_msun_per_arcsec2"] * area * _beta_profile(gx, gy, g, -1.5 * g["beta"] + 0.5)
+    gwcs = _rotated_wcs(ra0, dec0, s["gas_map_pixel_arcsec"], s["gas_map_shape"], s["xray_rotation_deg"])
+    mx_, my_ = _offsets_of_pixels(gwcs, s["gas_map_shape"], ra0, dec0)
+    gas_map = np.zeros(s["gas_map_shape"])
+    for g in s["gas"]:
+        gas_map += (g["mass_norm_msun_per_arcsec2"] * s["gas_map_pixel_arcsec"] ** 2
+                    * _beta_profile(mx_, my_, g, -1.5 * g["beta"] + 0.5))
     yy, xx = np.mgrid[0:shape[0], 0:shape[1]]
     rr = np.hypot(xx - shape[1] / 2, yy - shape[0] / 2) * s["xray_pixel_arcsec"]
     exposure = s["xray_exposure_s"] * (1.0 - 0.3 * (rr / 600.0) ** 2).clip(0.0, 1.0)
-    exposure[:, shape[1] // 2 + 60: shape[1] // 2 + 66] = 0.0  # a chip gap
-    counts = rng.poisson(rate * exposure).astype(np.int32)
+    exposure[:, shape[1] // 2 + 50: shape[1] // 2 + 55] = 0.0  # a chip gap
+    counts = rng.poisson(rate * exposure).astype(np.int16)
 
     # a shallow optical image of the members (north up, east left)
     oshape = s["optical_shape"]
@@ -163,9 +169,9 @@ def make_collision_field(cosmology=None) -> dict:
             optical[sl] += f * np.exp(-((ox[sl] - fx) ** 2 + (oy[sl] - fy) ** 2) / (2 * 1.2**2)) / (2 * np.pi * 1.44)
     optical += rng.normal(0, 0.02, oshape)
 
-    truth = _truth(halos, members, is_member, logm, mx, my, gx, gy, gas_map, cosmo, n)
+    truth = _truth(halos, members, is_member, logm, mx, my, mx_, my_, gas_map, cosmo, n)
     return {"shear": shear, "members": members, "counts": counts, "exposure": exposure.astype(np.float32),
-            "gas_map": gas_map.astype(np.float32), "xray_wcs": xwcs, "optical": optical.astype(np.float32),
+            "gas_map": gas_map.astype(np.float32), "xray_wcs": xwcs, "gas_wcs": gwcs, "optical": optical.astype(np.float32),
             "optical_wcs": owcs, "truth": truth}
 
 
@@ -216,7 +222,7 @@ def _truth(halos, members, is_member, logm, mx, my, gx, gy, gas_map, cosmo, n_ga
                   "distortion": "exact reduced shear of the summed halos, Seitz & Schneider (1997)"},
         "xray": {"pixel_arcsec": s["xray_pixel_arcsec"], "rotation_deg": s["xray_rotation_deg"],
                  "exposure_s": s["xray_exposure_s"], "background_rate_per_arcsec2": s["xray_background_rate"],
-                 "notes": "vignetting 30% at 10 arcmin; a chip gap of 6 columns"},
+                 "notes": "vignetting 30% at 10 arcmin; a chip gap of 5 columns"},
         "seed": s["seed"], "generator": "lensmass.io.demo_collision",
     }
 
@@ -246,9 +252,9 @@ def write_collision_field(outdir: str | os.PathLike, cosmology=None) -> list[Pat
     with atomic_path(paths["xray"]) as tmp:
         fits.HDUList([fits.PrimaryHDU(f["counts"], header=xh),
                       fits.ImageHDU(f["exposure"], header=eh, name="EXPOSURE")]).writeto(tmp, overwrite=True)
-    gh = f["xray_wcs"].to_header()
+    gh = f["gas_wcs"].to_header()
     gh["BUNIT"] = "solMass"
-    gh["COMMENT"] = "Gas mass per pixel (synthetic), on the X-ray image's grid."
+    gh["COMMENT"] = "Gas mass per pixel (synthetic), on a coarser grid aligned with the X-ray image."
     with atomic_path(paths["gas_mass"]) as tmp:
         fits.PrimaryHDU(f["gas_map"], header=gh).writeto(tmp, overwrite=True)
     oh = f["optical_wcs"].to_header()
