@@ -124,7 +124,9 @@ def fit_nfw_halos(x_arcsec, y_arcsec, e1, e2, weight, beta, centres_arcsec, *, z
 
     best = optimize.minimize(nll, np.full(k, 14.5), method="L-BFGS-B", bounds=[_LOG10_M_RANGE] * k,
                              options={"eps": 1e-4})
-    refined = optimize.minimize(nll, best.x, method="Nelder-Mead", options={"xatol": 1e-4, "fatol": 1e-5})
+    refined = optimize.minimize(nll, best.x, method="Nelder-Mead",
+                                options={"xatol": 1e-3, "fatol": 1e-3, "initial_simplex": best.x + np.vstack(
+                                    [np.zeros(k), 0.05 * np.eye(k)])})
     start = refined.x if refined.fun <= best.fun else best.x
     # shape variance per component per unit weight from the residuals about the best model
     g = model(start)

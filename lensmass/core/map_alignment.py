@@ -115,9 +115,16 @@ class SecondMap:
     n_resamples: int
 
 
+#: A gas or light peak found in fewer than this fraction of the resamplings is a noise feature
+#: and is not reported (nor matched to a mass peak).
+MIN_FOUND_FRACTION = 0.5
+
+
 def _regions_for(kind, measured_xy, samples, center_ra, center_dec, heights) -> list[SecondMapPeak]:
     out = []
     for j, (x, y) in enumerate(measured_xy):
+        if np.mean(np.all(np.isfinite(samples[:, j]), axis=1)) < MIN_FOUND_FRACTION:
+            continue
         cov, regions, qs = bootstrap_regions((x, y), samples[:, j])
         ra, dec = tangent_plane_to_sky(np.array([x]), np.array([y]), center_ra, center_dec)
         out.append(SecondMapPeak(kind, float(x), float(y), float(ra[0]), float(dec[0]), float(heights[j]), cov,

@@ -43,6 +43,8 @@ class PeakOffset:
     significance_sigma: float
     n_pairs: int
     pvalue_bootstrap: float
+    covariance_arcsec2: np.ndarray
+    region_quantiles: list[float]
 
     def as_dict(self, kpc_per_arcsec: float) -> dict:
         return {
@@ -86,7 +88,7 @@ def match_offsets(mass_peaks, other_peaks, *, kind: str, d_l_mpc: float, max_mat
         n = min(len(m.samples_xy_arcsec), len(o.samples_xy_arcsec))
         db = np.asarray(o.samples_xy_arcsec[:n], float) - np.asarray(m.samples_xy_arcsec[:n], float)
         db = db[np.all(np.isfinite(db), axis=1)]
-        _, regions, _ = bootstrap_regions(d, db)
+        cov_d, regions, qs = bootstrap_regions(d, db)
         if db.shape[0] >= 5:
             centred = db - db.mean(axis=0)
             cov = centred.T @ centred / centred.shape[0]
@@ -103,5 +105,5 @@ def match_offsets(mass_peaks, other_peaks, *, kind: str, d_l_mpc: float, max_mat
         out.append(PeakOffset(i, kind, j, float(d[0]), float(d[1]), float(np.hypot(*d)),
                               float(np.hypot(*d) * scale), (float(q[0]), float(q[1])), (float(q[2]), float(q[3])),
                               regions, p, float(stats.norm.isf(p / 2)) if np.isfinite(p) else np.nan,
-                              int(db.shape[0]), p_emp))
+                              int(db.shape[0]), p_emp, cov_d, qs))
     return out

@@ -93,6 +93,7 @@ from pathlib import Path
 PANELS: list[tuple[str, str]] = [
     ("lensmass.gui.shear_panel", "ShearPanel"),
     ("lensmass.gui.light_panel", "LightPanel"),
+    ("lensmass.gui.cluster_panel", "ClusterPanel"),
     ("lensmass.gui.triage_panel", "TriagePanel"),
 ]
 
