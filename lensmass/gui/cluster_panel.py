@@ -6,8 +6,8 @@ runs; the work runs off the GUI thread through the window's task runner with pro
 Cancel. The numbers come from :func:`lensmass.commands.components.run_components` (the same
 call as ``lensmass components``); the picture from
 :func:`lensmass.io.cluster_report.draw_components_map` (the same as the report page): mass
-contours over the window's image when it has a WCS, gas contours in a second colour, the
-peaks with their 95% regions. Below it the offsets table and the budget table; *Export*
+contours over the window's image when it has a WCS (in the dock's picture and as a layer on
+the image itself), gas contours in a second colour, the peaks with their 95% regions. Below it the offsets table and the budget table; *Export*
 writes JSON, ECSV or the report page.
 """
 
@@ -18,7 +18,9 @@ from pathlib import Path
 
 from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
 from matplotlib.figure import Figure
-from PySide6.QtWidgets import (QFileDialog, QFormLayout, QHBoxLayout, QLabel, QLineEdit, QPushButton,
+from PySide6.QtCore import QPointF
+from PySide6.QtGui import QColor, QPen, QPolygonF
+from PySide6.QtWidgets import (QCheckBox, QFileDialog, QFormLayout, QHBoxLayout, QLabel, QLineEdit, QPushButton,
                                QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget)
 
 from lensmass.core.errors import LensInputError
@@ -32,6 +34,7 @@ FILE_FIELDS = [
     ("members_edit", "members", "optional table: ra, dec, mstar | log_mstar"),
     ("gas_map_edit", "gas mass map", "optional FITS, Msun per pixel, with WCS"),
 ]
+LAYER = "cluster_components_overlay"
 DEMO_FILES = {"shear_edit": "tris_collide_e_shear.fits", "xray_edit": "tris_collide_e_xray.fits",
               "members_edit": "tris_collide_e_members.ecsv", "gas_map_edit": "tris_collide_e_gas_mass.fits"}
 
@@ -80,6 +83,9 @@ class ClusterPanel(QWidget):
         self.export_button.clicked.connect(self._export_dialog)
         for b in (self.demo_button, self.run_button, self.export_button):
             buttons.addWidget(b)
+        self.overlay_box = QCheckBox("mass and gas contours, peaks on the image", self)
+        self.overlay_box.setChecked(True)
+        self.overlay_box.toggled.connect(lambda _: self.canvas.update())
         self.status = QLabel("", self)
         self.status.setWordWrap(True)
         self.figure = Figure(figsize=(4.0, 4.0))
@@ -93,6 +99,7 @@ class ClusterPanel(QWidget):
         layout = QVBoxLayout(self)
         layout.addLayout(form)
         layout.addLayout(buttons)
+        layout.addWidget(self.overlay_box)
         layout.addWidget(self.status)
         layout.addWidget(self.figure_canvas, 3)
         layout.addWidget(QLabel("Offsets from the mass peaks", self))
@@ -174,10 +181,42 @@ class ClusterPanel(QWidget):
     def _failed(self, message: str) -> None:
         self.status.setText(message)
 
-    def _background(self, result):
+    def _image_wcs(self):
         image = getattr(self.model, "image", None)
         loaded = getattr(image, "loaded", None) if image is not None else None
-        wcs = getattr(loaded, "wcs", None) if loaded is not None else None
+        return getattr(loaded, "wcs", None) if loaded is not None else None
+
+    def _paint_overlay(self, painter, canvas) -> None:
+        from lensmass.io.cluster_export import GAS_INK, LIGHT_INK, MASS_INK
+
+        overlay = (self.output or {}).get("overlay")
+        if not overlay or not self.overlay_box.isChecked():
+            return
+        for key, ink, width in (("mass", MASS_INK, 1.6), ("gas", GAS_INK, 1.3), ("regions", MASS_INK, 1.0)):
+            pen = QPen(QColor(ink))
+            pen.setWidthF(width)
+            if key == "regions":
+                pen.setDashPattern([4.0, 3.0])
+            painter.setPen(pen)
+            for line in overlay[key]:
+                painter.drawPolyline(QPolygonF([canvas.image_to_widget(float(x), float(y)) for x, y in line]))
+        inks = {"mass": MASS_INK, "gas": GAS_INK, "light": LIGHT_INK}
+        for kind, label, x, y in overlay["peaks"]:
+            pen = QPen(QColor(inks[kind]))
+            pen.setWidthF(2.0)
+            painter.setPen(pen)
+            c = canvas.image_to_widget(x, y)
+            painter.drawLine(c + QPointF(-6, -6), c + QPointF(6, 6))
+            painter.drawLine(c + QPointF(-6, 6), c + QPointF(6, -6))
+            painter.drawText(c + QPointF(7, -7), label)
+
+    def closeEvent(self, event) -> None:  # noqa: N802
+        self.canvas.remove_layer(LAYER)
+        super().closeEvent(event)
+
+    def _background(self, result):
+        image = getattr(self.model, "image", None)
+        wcs = self._image_wcs()
         if wcs is None:
             return None
         from lensmass.io.cluster_inputs import SkyImage
@@ -191,7 +230,17 @@ class ClusterPanel(QWidget):
     def _show(self, result) -> None:
         from lensmass.io.cluster_report import OFFSET_HEADER, budget_rows, draw_components_map, offset_rows
 
-        self.output = {"result": result}
+        self.output = {"result": result, "overlay": None}
+        wcs = self._image_wcs()
+        if wcs is not None:
+            from lensmass.io.cluster_report import overlay_in_image_pixels
+
+            try:
+                self.output["overlay"] = overlay_in_image_pixels(result, wcs)
+            except Exception:  # an image whose WCS cannot take these sky positions: no overlay
+                self.output["overlay"] = None
+        self.canvas.set_layer(LAYER, self._paint_overlay)
+        self.canvas.update()
         self.figure.clear()
         ax = self.figure.add_subplot(111)
         draw_components_map(ax, result, background=self._background(result))

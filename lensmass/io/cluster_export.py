@@ -18,7 +18,7 @@ import numpy as np
 from lensmass.core.errors import LensInputError
 
 #: Colours of our own: mass (contours, peaks), gas, light.
-MASS_INK = "#0b6e6e"
+MASS_INK = "#139c9c"
 GAS_INK = "#e0621b"
 LIGHT_INK = "#8a3ffc"
 

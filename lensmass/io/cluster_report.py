@@ -179,3 +179,53 @@ def render_components_report(path: str | os.PathLike, result: Mapping[str, Any],
     fig.text(0.05, 0.26, "\n".join(lines[:22]), fontsize=6.2, va="top", family="monospace")
     with atomic_path(path) as tmp:
         fig.savefig(tmp, format=os.fspath(path).lower().rsplit(".", 1)[-1], dpi=110)
+
+
+def overlay_in_image_pixels(result: Mapping[str, Any], wcs) -> dict[str, list]:
+    """The picture's lines and marks in the pixels of another image (by its WCS), for a window layer.
+
+    Returns ``mass`` and ``gas`` (lists of (n, 2) polylines: mass S/N 2, 3, ... and gas levels as in
+    :func:`draw_components_map`), ``regions`` (95% ellipses of the mass peaks as closed polylines)
+    and ``peaks`` ((kind, label, x, y) for mass, gas and light peaks).
+    """
+    import contourpy
+
+    from lensmass.core.shear_profile import tangent_plane_to_sky
+
+    ra0, dec0 = result["center_ra"], result["center_dec"]
+
+    def to_pixels(x, y):
+        ra, dec = tangent_plane_to_sky(np.asarray(x, float), np.asarray(y, float), ra0, dec0)
+        px, py = wcs.world_to_pixel_values(ra, dec)
+        return np.column_stack([px, py])
+
+    n = result["map"]["pixels"]
+    pix = result["map"]["pixel_arcsec"]
+    centres = (np.arange(n) - n / 2 + 0.5) * pix
+    out: dict[str, list] = {"mass": [], "gas": [], "regions": [], "peaks": []}
+    mp = result.get("_mass")
+    if mp is not None:
+        snr = np.nan_to_num(mp.kappa_e / np.where(mp.noise > 0, mp.noise, np.inf))
+        gen = contourpy.contour_generator(centres, centres, snr)
+        for level in np.arange(2.0, max(3.0, float(snr.max())) + 1e-9, 1.0):
+            out["mass"] += [to_pixels(line[:, 0], line[:, 1]) for line in gen.lines(level)]
+    gas = (result.get("_second_maps") or {}).get("gas")
+    if gas is not None and np.any(np.isfinite(gas.image)):
+        img = np.nan_to_num(gas.image)
+        gen = contourpy.contour_generator(centres, centres, img)
+        for level in float(np.max(img)) * np.array([0.05, 0.1, 0.2, 0.4, 0.7]):
+            out["gas"] += [to_pixels(line[:, 0], line[:, 1]) for line in gen.lines(level)]
+    t = np.linspace(0, 2 * np.pi, 73)
+    for p in result.get("mass_peaks", []):
+        r95 = next((r for r in p["regions"] if r["level"] and abs(r["level"] - 0.95) < 1e-6), None)
+        if r95 and r95["semi_major_arcsec"]:
+            a, b = r95["semi_major_arcsec"], r95["semi_minor_arcsec"]
+            phi = np.radians(r95["angle_deg_east_of_x"])
+            ex = p["x_arcsec"] + a * np.cos(t) * np.cos(phi) - b * np.sin(t) * np.sin(phi)
+            ey = p["y_arcsec"] + a * np.cos(t) * np.sin(phi) + b * np.sin(t) * np.cos(phi)
+            out["regions"].append(to_pixels(ex, ey))
+    for kind, prefix in (("mass", "M"), ("gas", "G"), ("light", "L")):
+        for p in result.get(f"{kind}_peaks", []):
+            xy = to_pixels([p["x_arcsec"]], [p["y_arcsec"]])[0]
+            out["peaks"].append((kind, f"{prefix}{p['peak']}", float(xy[0]), float(xy[1])))
+    return out
