@@ -283,8 +283,9 @@ def locate_cluster_components(
     if gas_mass_msun is not None:
         g = np.atleast_1d(np.asarray(gas_mass_msun, float))
         if g.size != len(mp.peaks):
-            raise LensInputError(f"Give one gas mass per mass peak ({len(mp.peaks)} found), in peak order; "
-                                 f"got {g.size}.")
+            raise LensInputError(f"Give one gas mass per mass peak ({len(mp.peaks)} found), in peak order; got "
+                                 f"{g.size}: give {len(mp.peaks)}, or keep the strongest {g.size} peaks with "
+                                 f"--max-peaks {g.size}.")
         ge = np.zeros_like(g) if gas_mass_err_msun is None else np.atleast_1d(np.asarray(gas_mass_err_msun, float))
         gas_measured = g
         gas = np.abs(g[None, :] + ge[None, :] * rng.normal(size=(n, g.size)))
