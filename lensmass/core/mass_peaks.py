@@ -175,7 +175,8 @@ def mass_peaks(
     null_max = np.array([_highest(r, noise_safe, radius, valid) for r in rotated])
     b_max = _highest(kappa_b, noise_safe, radius, valid)
     b_cand = local_peaks(kappa_b, threshold=-np.inf, radius_pix=radius, max_peaks=1000, valid=valid)
-    b_snr = np.array([_value_at(kappa_b / noise_safe, px, py) for px, py, _ in b_cand]) if b_cand.size else np.empty(0)
+    b_snr_map = kappa_b / noise_safe
+    b_snr = np.array([_value_at(b_snr_map, px, py) for px, py, _ in b_cand]) if b_cand.size else np.empty(0)
     measured = [np.array([px, py]) for px, py, _ in found]
     samples = np.full((int(n_resamples), len(measured), 2), np.nan)
     kept_maps = []
@@ -183,9 +184,8 @@ def mass_peaks(
         kb = grid.kappa(multiplicity=poisson_multiplicities(rng, grid.n_inside)).real
         if keep_resampled_maps:
             kept_maps.append(kb.astype(np.float32))
-        cand = local_peaks(kb, threshold=-np.inf, radius_pix=radius, max_peaks=1000, valid=valid)
         for j, (mx, my) in enumerate(measured):
-            samples[b, j] = nearest_peak(cand, mx, my, search * smoothing_arcsec / pix)[:2]
+            samples[b, j] = _peak_near(kb, mx, my, search * smoothing_arcsec / pix, radius, valid)[:2]
         tick()
     n = kappa_e.shape[0]
     peaks = []
@@ -212,7 +212,28 @@ def _value_at(image, x: float, y: float) -> float:
 def _highest(kappa, noise, radius: int, valid) -> float:
     """Highest S/N among the local maxima of a map (the statistic the real peaks are compared with)."""
     p = local_peaks(kappa, threshold=-np.inf, radius_pix=radius, max_peaks=1000, valid=valid)
-    return max((_value_at(kappa / noise, px, py) for px, py, _ in p), default=-np.inf)
+    if not p.size:
+        return -np.inf
+    iy, ix = np.round(p[:, 1]).astype(int), np.round(p[:, 0]).astype(int)
+    return float(np.max(kappa[iy, ix] / noise[iy, ix]))
+
+
+def _peak_near(image, x: float, y: float, reach: float, radius: int, valid) -> np.ndarray:
+    """The local maximum of ``image`` nearest (x, y) within ``reach`` pixels, found in a window around it."""
+    h = int(np.ceil(reach)) + radius + 2
+    ny, nx = image.shape
+    x0, x1 = max(0, int(round(x)) - h), min(nx, int(round(x)) + h + 1)
+    y0, y1 = max(0, int(round(y)) - h), min(ny, int(round(y)) + h + 1)
+    cand = local_peaks(image[y0:y1, x0:x1], threshold=-np.inf, radius_pix=radius, max_peaks=1000,
+                       valid=valid[y0:y1, x0:x1])
+    if cand.size:
+        # a maximum on the window's edge may be a flank of something outside it: keep interior ones
+        inner = ((cand[:, 0] > radius) & (cand[:, 0] < x1 - x0 - 1 - radius) & (cand[:, 1] > radius)
+                 & (cand[:, 1] < y1 - y0 - 1 - radius)) | ((x0 == 0) | (y0 == 0) | (x1 == nx) | (y1 == ny))
+        cand = cand[inner]
+        cand[:, 0] += x0
+        cand[:, 1] += y0
+    return nearest_peak(cand, x, y, reach)
 
 
 def gaussian_sigma_of_probability(p) -> float:
