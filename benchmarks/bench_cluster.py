@@ -7,7 +7,9 @@ and its ratio to one map of the same galaxies (the baseline: `mass_map` without 
 Coverage (``--coverage N``, default 100 seeded realisations of two NFW halos):
   * the true halo centres inside the reported 95% (and 68%) peak regions: target >= 90 of 100;
   * the joint two-halo NFW fit, centred on the measured peaks, holding both true M200 inside
-    its 95% intervals: target >= 90 of 100 realisations (both halos at once) and per halo.
+    its 95% intervals: target >= 90 of 100 realisations (both halos at once) and per halo;
+  * the budget's NFW lens mass in 250 kpc around each measured peak against the true halos' mass
+    in the same aperture.
 
 Run: /work/venv/bin/python benchmarks/bench_cluster.py [--speed-only | --coverage-only] [--coverage N]
 """
@@ -59,9 +61,19 @@ def coverage(n: int) -> None:
     halos = [dict(x_arcsec=-150.0, y_arcsec=20.0, m200_msun=1.2e15), dict(x_arcsec=160.0, y_arcsec=-30.0,
                                                                              m200_msun=8e14)]
     z_l = 0.3
+    from lensmass.core.cluster_budget import nfw_aperture_masses
+    from lensmass.core.cluster_simulation import halo_concentration
+    from lensmass.core.concentration import concentration_relation
+    from lensmass.core.cosmology import little_h
+    from lensmass.core.peak_offsets import kpc_per_arcsec
+
+    c_of_m, _ = concentration_relation("duffy08", "200c")
+    true_logm = np.log10([[h["m200_msun"] for h in halos]])
+    true_c = np.array([[halo_concentration(h, z_l, Planck18) for h in halos]])
     in68 = in95 = 0
     fit_both = 0
     fit_each = [0, 0]
+    ap_in = [0, 0]
     t0 = time.perf_counter()
     for seed in range(n):
         cat = simulate_multi_halo_shear(halos, z_l=z_l, cosmo=Planck18, field_arcsec=1000.0,
@@ -83,12 +95,23 @@ def coverage(n: int) -> None:
         ok = [bool(q[i, 0] <= h["m200_msun"] <= q[i, 4]) for i, h in enumerate(halos)]
         fit_both += all(ok)
         fit_each = [a + b for a, b in zip(fit_each, ok)]
+        # projected mass in 250 kpc around each measured peak: the fit's draws against the true halos
+        ap = 250.0 / kpc_per_arcsec(cat["d_l_mpc"])
+        truth = nfw_aperture_masses(true_logm, [[h["x_arcsec"], h["y_arcsec"]] for h in halos], centres, ap, true_c,
+                                    z_l=z_l, cosmo=Planck18, d_l_mpc=cat["d_l_mpc"])[0]
+        draws = nfw_aperture_masses(fit.draws_log10_m200[:1000], centres, centres, ap,
+                                    lambda lm: c_of_m(10.0 ** lm, z_l, little_h(Planck18)), z_l=z_l, cosmo=Planck18,
+                                    d_l_mpc=cat["d_l_mpc"])
+        lo, hi = np.quantile(draws, [0.025, 0.975], axis=0)
+        ap_in = [a + bool(lo[i] <= truth[i] <= hi[i]) for i, a in enumerate(ap_in)]
     took = time.perf_counter() - t0
     print(f"coverage over {n} seeded two-halo realisations ({took:.0f} s):")
     print(f"  peak regions: true centre inside 68%: {in68}/{2 * n} ({100 * in68 / (2 * n):.0f}%), "
           f"inside 95%: {in95}/{2 * n} ({100 * in95 / (2 * n):.0f}%) (target >= 90% at 95%)")
     print(f"  two-halo NFW fit at the measured peaks: both M200 inside 95%: {fit_both}/{n}; "
           f"per halo {fit_each[0]}/{n}, {fit_each[1]}/{n} (target >= 90 of 100)")
+    print(f"  NFW projected mass in 250 kpc around the measured peaks inside its 95% interval: "
+          f"{ap_in[0]}/{n}, {ap_in[1]}/{n}")
 
 
 def main(argv=None) -> int:

@@ -24,7 +24,6 @@ import numpy as np
 
 from lensmass.core import cluster_budget as cb
 from lensmass.core.concentration import concentration_relation
-from lensmass.core.constants import ARCSEC_RAD
 from lensmass.core.cosmology import cosmology_label, little_h, resolve_cosmology
 from lensmass.core.errors import LensInputError
 from lensmass.core.halo_fit import fit_nfw_halos

@@ -20,14 +20,14 @@ map centre, x east and y north in arcsec, as in :mod:`lensmass.core.mass_map` (C
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 from scipy import ndimage
 
 from lensmass.core.errors import LensInputError
 from lensmass.core.peak_finding import (
-    ConfidenceRegion,
+    LocatedPeak,
     bootstrap_regions,
     local_peaks,
     nearest_peak,
@@ -50,6 +50,24 @@ def map_grid_wcs(center_ra: float, center_dec: float, pixel_arcsec: float, n_pix
     w.wcs.crpix = [n_pixels / 2 + 0.5, n_pixels / 2 + 0.5]
     w.wcs.cdelt = [pixel_arcsec / 3600.0, pixel_arcsec / 3600.0]
     w.wcs.cunit = ["deg", "deg"]
+    w.wcs.radesys = "ICRS"
+    return w
+
+
+def tan_wcs(center_ra: float, center_dec: float, pixel_arcsec: float, shape, rotation_deg: float = 0.0):
+    """A TAN WCS with the usual sky layout (east left, north up), turned by ``rotation_deg``, centred on the image.
+
+    CD matrix of a rotated image (Calabretta & Greisen 2002, eq. 189 with CDELT1 = -CDELT2).
+    """
+    from astropy.wcs import WCS
+
+    w = WCS(naxis=2)
+    w.wcs.ctype = ["RA---TAN", "DEC--TAN"]
+    w.wcs.crval = [center_ra, center_dec]
+    w.wcs.crpix = [shape[1] / 2 + 0.5, shape[0] / 2 + 0.5]
+    a = np.radians(rotation_deg)
+    s = pixel_arcsec / 3600.0
+    w.wcs.cd = [[-s * np.cos(a), s * np.sin(a)], [s * np.sin(a), s * np.cos(a)]]
     w.wcs.radesys = "ICRS"
     return w
 
@@ -86,20 +104,13 @@ def smooth_masked(values, valid, sigma_pix: float) -> np.ndarray:
 
 
 @dataclass
-class SecondMapPeak:
-    """A peak of the gas or light map, as offsets (arcsec, x east, y north) from the mass map centre."""
+class SecondMapPeak(LocatedPeak):
+    """A peak of the gas or light map (offsets from the mass map centre), with its sky position and height."""
 
-    kind: str
-    x_arcsec: float
-    y_arcsec: float
-    ra_deg: float
-    dec_deg: float
-    height: float
-    covariance_arcsec2: np.ndarray
-    regions: list[ConfidenceRegion]
-    region_quantiles: list[float]
-    n_found: int
-    samples_xy_arcsec: np.ndarray = field(repr=False)
+    kind: str = ""
+    ra_deg: float = np.nan
+    dec_deg: float = np.nan
+    height: float = np.nan
 
 
 @dataclass
@@ -127,9 +138,9 @@ def _regions_for(kind, measured_xy, samples, center_ra, center_dec, heights) -> 
             continue
         cov, regions, qs = bootstrap_regions((x, y), samples[:, j])
         ra, dec = tangent_plane_to_sky(np.array([x]), np.array([y]), center_ra, center_dec)
-        out.append(SecondMapPeak(kind, float(x), float(y), float(ra[0]), float(dec[0]), float(heights[j]), cov,
-                                 regions, qs, int(np.count_nonzero(np.all(np.isfinite(samples[:, j]), axis=1))),
-                                 samples[:, j]))
+        out.append(SecondMapPeak(float(x), float(y), cov, regions, qs,
+                                 int(np.count_nonzero(np.all(np.isfinite(samples[:, j]), axis=1))), samples[:, j],
+                                 kind=kind, ra_deg=float(ra[0]), dec_deg=float(dec[0]), height=float(heights[j])))
     return out
 
 

@@ -29,7 +29,7 @@ from scipy import stats
 from lensmass.core.errors import LensInputError
 from lensmass.core.mass_map import MapGrid
 from lensmass.core.peak_finding import (
-    ConfidenceRegion,
+    LocatedPeak,
     bootstrap_regions,
     local_peaks,
     nearest_peak,
@@ -38,20 +38,13 @@ from lensmass.core.peak_finding import (
 
 
 @dataclass
-class MassPeak:
-    """One peak of the E-mode convergence map (offsets in arcsec from the map centre, x east, y north)."""
+class MassPeak(LocatedPeak):
+    """One peak of the E-mode convergence map, with its height, S/N and false-peak probability."""
 
-    x_arcsec: float
-    y_arcsec: float
-    kappa_e: float
-    snr: float
-    false_peak_probability: float
-    b_mode_peaks_as_high: int
-    covariance_arcsec2: np.ndarray
-    regions: list[ConfidenceRegion]
-    region_quantiles: list[float]
-    n_found: int
-    samples_xy_arcsec: np.ndarray = field(repr=False)
+    kappa_e: float = np.nan
+    snr: float = np.nan
+    false_peak_probability: float = np.nan
+    b_mode_peaks_as_high: int = 0
 
 
 @dataclass
@@ -196,11 +189,10 @@ def mass_peaks(
         ix, iy = int(round(mx)), int(round(my))
         snr = _value_at(snr_map, mx, my)
         peaks.append(MassPeak(
-            x_arcsec=float(xo), y_arcsec=float(yo), kappa_e=float(kappa_e[iy, ix]), snr=snr,
+            float(xo), float(yo), cov, regions, qs, int(np.count_nonzero(np.all(np.isfinite(samples[:, j]), axis=1))),
+            s, kappa_e=float(kappa_e[iy, ix]), snr=snr,
             false_peak_probability=float((1 + np.count_nonzero(null_max >= snr)) / (1 + null_max.size)),
-            b_mode_peaks_as_high=int(np.count_nonzero(b_snr >= snr)),
-            covariance_arcsec2=cov, regions=regions, region_quantiles=qs,
-            n_found=int(np.count_nonzero(np.all(np.isfinite(samples[:, j]), axis=1))), samples_xy_arcsec=s))
+            b_mode_peaks_as_high=int(np.count_nonzero(b_snr >= snr))))
     return MassPeakResult(kappa_e, kappa_b, noise, pix, float(smoothing_arcsec), grid.n_inside, int(n_resamples),
                           int(n_noise), float(min_snr), peaks, null_max, float(b_max), kept_maps)
 

@@ -12,7 +12,7 @@ An Introduction to the Bootstrap, ch. 13).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import ndimage
@@ -112,6 +112,19 @@ class ConfidenceRegion:
 #: one, so resampled maps move it too little. Widening by 1.2 (1.095 in radius) was calibrated on
 #: those runs and is checked on other configurations in tests and benchmarks/bench_cluster.py.
 PEAK_REGION_WIDENING = 1.2
+
+
+@dataclass
+class LocatedPeak:
+    """A peak's measured position (arcsec from the map centre, x east, y north) and its bootstrap regions."""
+
+    x_arcsec: float
+    y_arcsec: float
+    covariance_arcsec2: np.ndarray
+    regions: list[ConfidenceRegion]
+    region_quantiles: list[float]
+    n_found: int
+    samples_xy_arcsec: np.ndarray = field(repr=False)
 
 
 def bootstrap_regions(measured_xy, samples_xy, levels=(0.68, 0.95), widening: float = PEAK_REGION_WIDENING):

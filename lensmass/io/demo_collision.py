@@ -21,8 +21,9 @@ from pathlib import Path
 
 import numpy as np
 
-from lensmass.core.cluster_simulation import beta_model_image, halo_concentration, simulate_multi_halo_shear
+from lensmass.core.cluster_simulation import halo_concentration, simulate_multi_halo_shear
 from lensmass.core.cosmology import cosmology_label, resolve_cosmology
+from lensmass.core.map_alignment import tan_wcs
 from lensmass.core.shear_profile import tangent_plane_offsets_arcsec, tangent_plane_to_sky
 from lensmass.io.atomic import atomic_path, write_text_atomic
 
@@ -60,20 +61,6 @@ SETUP = {
     "optical_shape": (420, 420),
     "seed": 20261202,
 }
-
-
-def _rotated_wcs(center_ra, center_dec, pixel_arcsec, shape, angle_deg):
-    from astropy.wcs import WCS
-
-    w = WCS(naxis=2)
-    w.wcs.ctype = ["RA---TAN", "DEC--TAN"]
-    w.wcs.crval = [center_ra, center_dec]
-    w.wcs.crpix = [shape[1] / 2 + 0.5, shape[0] / 2 + 0.5]
-    a = np.radians(angle_deg)
-    s = pixel_arcsec / 3600.0
-    w.wcs.cd = [[-s * np.cos(a), s * np.sin(a)], [s * np.sin(a), s * np.cos(a)]]
-    w.wcs.radesys = "ICRS"
-    return w
 
 
 def _offsets_of_pixels(wcs, shape, center_ra, center_dec):
@@ -138,13 +125,13 @@ def make_collision_field(cosmology=None) -> dict:
 
     # X-ray counts, exposure and gas surface-mass maps on a rotated grid
     shape = s["xray_shape"]
-    xwcs = _rotated_wcs(ra0, dec0, s["xray_pixel_arcsec"], shape, s["xray_rotation_deg"])
+    xwcs = tan_wcs(ra0, dec0, s["xray_pixel_arcsec"], shape, s["xray_rotation_deg"])
     gx, gy = _offsets_of_pixels(xwcs, shape, ra0, dec0)
     area = s["xray_pixel_arcsec"] ** 2
     rate = np.full(shape, s["xray_background_rate"] * area)
     for g in s["gas"]:
         rate += g["xray_peak_rate"] * area * _beta_profile(gx, gy, g, -3 * g["beta"] + 0.5)
-    gwcs = _rotated_wcs(ra0, dec0, s["gas_map_pixel_arcsec"], s["gas_map_shape"], s["xray_rotation_deg"])
+    gwcs = tan_wcs(ra0, dec0, s["gas_map_pixel_arcsec"], s["gas_map_shape"], s["xray_rotation_deg"])
     mx_, my_ = _offsets_of_pixels(gwcs, s["gas_map_shape"], ra0, dec0)
     gas_map = np.zeros(s["gas_map_shape"])
     for g in s["gas"]:
@@ -158,7 +145,7 @@ def make_collision_field(cosmology=None) -> dict:
 
     # a shallow optical image of the members (north up, east left)
     oshape = s["optical_shape"]
-    owcs = _rotated_wcs(ra0, dec0, s["optical_pixel_arcsec"], oshape, 0.0)
+    owcs = tan_wcs(ra0, dec0, s["optical_pixel_arcsec"], oshape, 0.0)
     opx, opy = owcs.all_world2pix(mra, mdec, 0)
     flux = 10 ** (-0.4 * (mag_r - 30.0)) / 1800.0
     optical = np.zeros(oshape)

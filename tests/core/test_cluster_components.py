@@ -8,7 +8,6 @@ import numpy as np
 import pytest
 from astropy.coordinates import SkyCoord
 from astropy.cosmology import WMAP9, FlatLambdaCDM, Planck18
-from astropy.wcs import WCS
 from scipy import integrate
 
 from lensmass.core.cluster_budget import (
@@ -21,7 +20,7 @@ from lensmass.core.cluster_simulation import beta_model_image, halo_concentratio
 from lensmass.core.constants import ARCSEC_RAD
 from lensmass.core.errors import LensInputError
 from lensmass.core.halo_fit import fit_nfw_halos
-from lensmass.core.map_alignment import map_grid_wcs, reproject_onto_map, xray_peaks
+from lensmass.core.map_alignment import map_grid_wcs, reproject_onto_map, tan_wcs, xray_peaks
 from lensmass.core.mass_map import MapGrid
 from lensmass.core.mass_peaks import mass_peaks
 from lensmass.core.nfw import nfw_halo, nfw_mass_2d_msun, nfw_surface_density_msun_per_mpc2
@@ -97,17 +96,6 @@ def test_peak_significance_against_rotated_noise():
     assert p.b_mode_peaks_as_high == 0
 
 
-def _rotated_wcs(ra, dec, pix_arcsec, shape, angle_deg):
-    w = WCS(naxis=2)
-    w.wcs.ctype = ["RA---TAN", "DEC--TAN"]
-    w.wcs.crval = [ra, dec]
-    w.wcs.crpix = [shape[1] / 2 + 0.5, shape[0] / 2 + 0.5]
-    a = np.radians(angle_deg)
-    s = pix_arcsec / 3600
-    w.wcs.cd = [[-s * np.cos(a), s * np.sin(a)], [s * np.sin(a), s * np.cos(a)]]
-    return w
-
-
 def test_map_grid_wcs_matches_the_tangent_plane_offsets():
     # astropy's pixel_to_world of the mass map's WCS against the project's tangent-plane offsets.
     w = map_grid_wcs(150.0, 20.0, 10.0, 64)
@@ -123,7 +111,7 @@ def test_rotated_xray_image_aligned_by_wcs():
     # and the peak finder's RA/Dec equals astropy's pixel_to_world of the blob's pixel.
     ra0, dec0 = 210.0, -12.0
     shape = (300, 300)
-    xw = _rotated_wcs(ra0, dec0, 2.0, shape, 37.0)
+    xw = tan_wcs(ra0, dec0, 2.0, shape, 37.0)
     bx, by = 181.4, 96.7  # blob centre in X-ray pixels
     truth = xw.pixel_to_world(bx, by)
     yy, xx = np.mgrid[0:shape[0], 0:shape[1]]
@@ -151,7 +139,7 @@ def test_gas_peak_displaced_by_a_known_offset_is_measured_within_its_interval():
     gas_x, gas_y = HALOS[0]["x_arcsec"] + 55.0, HALOS[0]["y_arcsec"] - 30.0
     true_d = np.array([55.0, -30.0])
     shape = (220, 220)
-    xw = _rotated_wcs(ra0, dec0, 5.0, shape, -28.0)
+    xw = tan_wcs(ra0, dec0, 5.0, shape, -28.0)
     yy, xx = np.mgrid[0:shape[0], 0:shape[1]]
     ra, dec = xw.all_pix2world(xx.ravel(), yy.ravel(), 0)
     gx, gy = tangent_plane_offsets_arcsec(ra, dec, ra0, dec0)

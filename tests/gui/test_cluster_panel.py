@@ -8,7 +8,7 @@ import pytest
 pytest.importorskip("PySide6")
 from PySide6.QtCore import Qt  # noqa: E402
 
-from tests.gui.conftest import DEMO_DIR, demo_field  # noqa: E402
+from tests.gui.conftest import DEMO_DIR  # noqa: E402
 
 
 @pytest.fixture
