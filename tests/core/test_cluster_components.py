@@ -232,3 +232,16 @@ def test_sky_round_trip_of_offsets():
     ra, dec = tangent_plane_to_sky(np.array([100.0]), np.array([-50.0]), 73.2, -27.4)
     x, y = tangent_plane_offsets_arcsec(ra, dec, 73.2, -27.4)
     assert x[0] == pytest.approx(100.0, abs=1e-8) and y[0] == pytest.approx(-50.0, abs=1e-8)
+
+
+def test_xray_inputs_that_are_not_counts_give_one_sentence():
+    w = tan_wcs(10.0, 0.0, 2.0, (40, 40))
+    with pytest.raises(LensInputError, match="photon counts"):
+        xray_peaks(np.full((40, 40), 0.37), w, center_ra=10.0, center_dec=0.0, pixel_arcsec=8.0, n_pixels=16,
+                   smoothing_arcsec=8.0, n_resamples=20)
+    with pytest.raises(LensInputError, match="exposure map is 30 x 30"):
+        xray_peaks(np.ones((40, 40)), w, exposure=np.ones((30, 30)), center_ra=10.0, center_dec=0.0,
+                   pixel_arcsec=8.0, n_pixels=16, smoothing_arcsec=8.0, n_resamples=20)
+    with pytest.raises(LensInputError, match="no counts"):
+        xray_peaks(np.zeros((40, 40)), w, center_ra=10.0, center_dec=0.0, pixel_arcsec=8.0, n_pixels=16,
+                   smoothing_arcsec=8.0, n_resamples=20)

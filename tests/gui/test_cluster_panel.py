@@ -70,3 +70,13 @@ def test_demo_collision_located_with_tables_and_export(panel_and_window, qtbot, 
     assert json.loads((tmp_path / "c.json").read_text())["kind"] == "cluster_components"
     state = panel.panel_state(tmp_path)
     assert state["shear_edit"]["absolute_path"].endswith("tris_collide_e_shear.fits")
+
+
+def test_cancel_leaves_the_panel_as_it_was(panel_and_window, qtbot):
+    w, panel = panel_and_window
+    assert panel.fill_demo()
+    qtbot.mouseClick(panel.run_button, Qt.LeftButton)
+    w.tasks.cancel()
+    qtbot.waitUntil(lambda: not w.tasks.busy, timeout=60000)
+    assert panel.output is None and not panel.export_button.isEnabled()
+    assert panel.shear_edit.text().endswith("tris_collide_e_shear.fits")  # the inputs are kept
