@@ -63,7 +63,7 @@ def test_json_table_and_files(catalogue, capsys, tmp_path):
 
 
 @pytest.mark.parametrize("extra, message", [
-    (["--exposure", "x.fits"], "--exposure belongs to an X-ray image"),
+    (["--exposure", "x.fits"], "exposure map belongs to an X-ray image"),
     (["--xray", "missing.fits"], "does not exist"),
     (["--gas-mass", "lots"], "--gas-mass must be numbers"),
     (["--aperture-kpc", "-5"], "aperture radius must be a positive number"),

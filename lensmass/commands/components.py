@@ -84,7 +84,7 @@ def run_components(args: argparse.Namespace, progress=None, cancelled=None) -> d
         counts, exposure = read_xray(args.xray, args.exposure)
         kw.update(xray_counts=counts.data, xray_wcs=counts.wcs, xray_exposure=exposure)
     elif args.exposure:
-        raise LensInputError("--exposure belongs to an X-ray image: give --xray too.")
+        raise LensInputError("An exposure map belongs to an X-ray image: give the X-ray counts image too (--xray).")
     if args.members:
         mem = read_member_catalog(args.members, args.member_columns)
         kw.update(member_ra=mem.ra_deg, member_dec=mem.dec_deg)
@@ -92,8 +92,8 @@ def run_components(args: argparse.Namespace, progress=None, cancelled=None) -> d
             kw["member_stellar_mass_msun"] = mem.stellar_mass_msun
         else:
             if not args.band or args.mass_to_light is None:
-                raise LensInputError("The members have magnitudes but no stellar masses: give --band and "
-                                     "--mass-to-light to turn them into stellar masses.")
+                raise LensInputError("The members have magnitudes but no stellar masses: give their band and a "
+                                     "stellar mass-to-light ratio (--band, --mass-to-light) to turn them into masses.")
             from lensmass.core.light import absolute_magnitude, luminosity_lsun
             from lensmass.core.sun_magnitudes import sun_absolute_magnitude
 

@@ -31,6 +31,7 @@ from lensmass.gui.workers import TaskCancelled
 FILE_FIELDS = [
     ("shear_edit", "shear catalogue", "FITS/CSV/ECSV/Parquet with ra, dec, e1, e2 (weight, z)"),
     ("xray_edit", "X-ray counts", "optional FITS with WCS (EXPOSURE extension used)"),
+    ("exposure_edit", "exposure map", "optional FITS on the X-ray image's pixels"),
     ("members_edit", "members", "optional table: ra, dec, mstar | log_mstar"),
     ("gas_map_edit", "gas mass map", "optional FITS, Msun per pixel, with WCS"),
 ]
@@ -61,6 +62,15 @@ class ClusterPanel(QWidget):
             row.addWidget(browse)
             form.addRow(label, row)
             setattr(self, attr, edit)
+        self.gas_mass_edit = QLineEdit(self)
+        self.gas_mass_edit.setPlaceholderText("or gas masses in the apertures: M1, M2, ... [Msun]")
+        self.band_edit = QLineEdit(self)
+        self.band_edit.setPlaceholderText("members with magnitudes only: band, e.g. sdss_r")
+        self.ml_edit = QLineEdit(self)
+        self.ml_edit.setPlaceholderText("and their stellar M/L [Msun/Lsun]")
+        form.addRow("gas masses", self.gas_mass_edit)
+        form.addRow("band", self.band_edit)
+        form.addRow("M/L", self.ml_edit)
         self.zl_edit = QLineEdit(self)
         self.zl_edit.setPlaceholderText("cluster redshift")
         self.aperture_edit = QLineEdit("250", self)
@@ -139,6 +149,8 @@ class ClusterPanel(QWidget):
             raise LensInputError("Name a shear catalogue first.")
         if not self.zl_edit.text().strip():
             raise LensInputError("Type the cluster redshift z_l.")
+        if self.gas_mass_edit.text().strip() and self.gas_map_edit.text().strip():
+            raise LensInputError("Give the gas as a map or as masses, not both: clear one of the two fields.")
 
         def path(edit):
             return edit.text().strip() or None
@@ -149,9 +161,12 @@ class ClusterPanel(QWidget):
             smoothing=self._number(self.smoothing_edit, "smoothing"), min_snr=3.5, max_peaks=4,
             resamples=self._number(self.resamples_edit, "number of resamplings", int),
             noise_maps=self._number(self.noise_edit, "number of noise maps", int), seed=20261202,
-            xray=path(self.xray_edit), exposure=None, gas_smoothing=10.0, gas_mass=None, gas_mass_err=None,
+            xray=path(self.xray_edit), exposure=path(self.exposure_edit), gas_smoothing=10.0,
+            gas_mass=self.gas_mass_edit.text().strip() or None, gas_mass_err=None,
             gas_map=path(self.gas_map_edit), gas_map_error=0.1, members=path(self.members_edit),
-            member_columns=None, band=None, mass_to_light=None, stellar_systematic=0.15, light_smoothing=None,
+            member_columns=None, band=self.band_edit.text().strip() or None,
+            mass_to_light=self._number(self.ml_edit, "mass-to-light ratio") if self.ml_edit.text().strip() else None,
+            stellar_systematic=0.15, light_smoothing=None,
             aperture_kpc=self._number(self.aperture_edit, "aperture radius"), inner_cut=60.0, cosmology=None,
             h0=None, om0=None, ode0=None, concentration="duffy08", halo_definition="200c")
 
@@ -279,7 +294,8 @@ class ClusterPanel(QWidget):
 
     def panel_state(self, session_dir) -> dict:
         state = {attr: stored_path(getattr(self, attr).text().strip() or None, session_dir) for attr, _, _ in FILE_FIELDS}
-        state.update(z_l=self.zl_edit.text(), aperture_kpc=self.aperture_edit.text(),
+        state.update(gas_masses=self.gas_mass_edit.text(), band=self.band_edit.text(), mass_to_light=self.ml_edit.text(),
+                     z_l=self.zl_edit.text(), aperture_kpc=self.aperture_edit.text(),
                      smoothing_arcsec=self.smoothing_edit.text(), resamples=self.resamples_edit.text(),
                      noise_maps=self.noise_edit.text())
         return state
@@ -287,7 +303,8 @@ class ClusterPanel(QWidget):
     def restore_panel_state(self, state: dict, session_dir) -> None:
         for attr, _, _ in FILE_FIELDS:
             getattr(self, attr).setText(resolved_path(state.get(attr), session_dir) or "")
-        for key, edit in (("z_l", self.zl_edit), ("aperture_kpc", self.aperture_edit),
+        for key, edit in (("gas_masses", self.gas_mass_edit), ("band", self.band_edit), ("mass_to_light", self.ml_edit),
+                          ("z_l", self.zl_edit), ("aperture_kpc", self.aperture_edit),
                           ("smoothing_arcsec", self.smoothing_edit), ("resamples", self.resamples_edit),
                           ("noise_maps", self.noise_edit)):
             if key in state:
