@@ -78,3 +78,16 @@ def test_bad_input_is_one_sentence(catalogue, capsys, extra, message):
 def test_missing_catalogue(capsys, tmp_path):
     code, out, err = _run(capsys, "components", str(tmp_path / "none.fits"), "--zl", "0.3")
     assert code == 2 and "none.fits" in err and "Traceback" not in err
+
+
+def test_cosmology_without_baryons_still_gives_the_budget(catalogue, capsys):
+    # A custom flat LCDM has no Ob0 (astropy): the comparison is left out with a note, the rest is there.
+    path, members, _ = catalogue
+    code, out, err = _run(capsys, "components", str(path), "--zl", str(Z_L), "--members", str(members),
+                          "--pixels", "40", "--resamples", "20", "--noise-maps", "8", "--max-peaks", "2",
+                          "--h0", "70", "--om0", "0.3", "--json")
+    assert code == 0, err
+    result = json.loads(out)
+    assert result["cosmic_baryon_fraction"] is None
+    assert "baryon_fraction_over_cosmic" not in result["budgets"][0] and "baryon_fraction" in result["budgets"][0]
+    assert any("baryon density" in n for n in result["notes"])

@@ -143,7 +143,9 @@ def format_components(result: dict) -> str:
     header, rows = budget_rows(result)
     lines += ["", "budgets (median [68%]):", "  " + "".join(f"{h:<36}" for h in header)]
     lines += ["  " + "".join(f"{c:<36}" for c in row) for row in rows]
-    lines += ["", f"cosmic baryon fraction Omega_b/Omega_m = {result['cosmic_baryon_fraction']:.4f}", ""]
+    if result.get("cosmic_baryon_fraction") is not None:
+        lines += ["", f"cosmic baryon fraction Omega_b/Omega_m = {result['cosmic_baryon_fraction']:.4f}"]
+    lines.append("")
     lines += [f"note: {n}" for n in result["notes"]]
     return "\n".join(lines)
 

@@ -140,8 +140,8 @@ def quantiles(draws) -> np.ndarray:
     return np.nanquantile(np.asarray(draws, float), QUANTILES, axis=0)
 
 
-def budget_ratios(lens_draws, star_draws, gas_draws, cosmic_fb: float) -> dict[str, np.ndarray]:
-    """Draws of the fractions and ratios for one aperture (1-D arrays of equal length; gas may be None)."""
+def budget_ratios(lens_draws, star_draws, gas_draws, cosmic_fb: float | None) -> dict[str, np.ndarray]:
+    """Draws of the fractions and ratios for one aperture (1-D arrays of equal length; gas and cosmic_fb may be None)."""
     lens = np.asarray(lens_draws, float)
     star = np.asarray(star_draws, float)
     gas = np.zeros_like(star) if gas_draws is None else np.asarray(gas_draws, float)
@@ -152,8 +152,9 @@ def budget_ratios(lens_draws, star_draws, gas_draws, cosmic_fb: float) -> dict[s
             "baryon_fraction": fb,
             "dark_fraction": 1.0 - fb,
             "lens_to_stellar_mass": lens / star,
-            "baryon_fraction_over_cosmic": fb / cosmic_fb,
         }
+        if cosmic_fb is not None:
+            out["baryon_fraction_over_cosmic"] = fb / cosmic_fb
         if gas_draws is not None:
             out["gas_fraction"] = gas / lens
     return out

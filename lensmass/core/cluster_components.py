@@ -262,7 +262,11 @@ def locate_cluster_components(
                           "log10 M200 (flat prior); centres held at the peaks")
 
     tick(0.85, "budgets")
-    cosmic = cb.cosmic_baryon_fraction(cosmo)
+    try:
+        cosmic = cb.cosmic_baryon_fraction(cosmo)
+    except LensInputError as exc:  # a custom cosmology without Ob0: everything but that comparison
+        cosmic = None
+        notes.append(str(exc))
     lens_nfw = cb.nfw_aperture_masses(fit.draws_log10_m200, centres, centres, aperture_arcsec,
                                       lambda lm: c_of_m(10.0 ** lm, z_l, h), z_l=z_l, cosmo=cosmo, d_l_mpc=d_l,
                                       halo_definition=halo_definition)
@@ -322,8 +326,9 @@ def locate_cluster_components(
     models["lens_mass"] = ("lens_mass_nfw: projected mass of all fitted NFW halos inside the aperture (from the fit's "
                            "posterior draws); lens_mass_map: Sigma_cr,eff x kappa_E summed in the aperture (bootstrap "
                            "maps), a low estimate because the map has zero mean and is smoothed")
-    models["ratios"] = (f"fractions of the NFW aperture mass; baryon fraction compared with Omega_b / Omega_m = "
-                        f"{cosmic:.4f} of {cosmology_label(cosmo)} (astropy Ob0 / Om0)")
+    models["ratios"] = "fractions of the NFW aperture mass" + (
+        f"; baryon fraction compared with Omega_b / Omega_m = {cosmic:.4f} of {cosmology_label(cosmo)} "
+        "(astropy Ob0 / Om0)" if cosmic is not None else "")
     if star is None:
         notes.append("No member catalogue: no light map, stellar masses or baryon fractions from stars.")
     if gas is None:
