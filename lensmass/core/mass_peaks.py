@@ -24,7 +24,6 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import stats
 
 from lensmass.core.errors import LensInputError
 from lensmass.core.mass_map import MapGrid
@@ -226,8 +225,3 @@ def _peak_near(image, x: float, y: float, reach: float, radius: int, valid) -> n
         cand[:, 0] += x0
         cand[:, 1] += y0
     return nearest_peak(cand, x, y, reach)
-
-
-def gaussian_sigma_of_probability(p) -> float:
-    """The one-sided Gaussian significance (in sigma) of a probability (scipy.stats.norm.isf)."""
-    return float(stats.norm.isf(p))
