@@ -10,7 +10,9 @@ the covariance of the d_b about their mean (times the regions' calibrated wideni
 r^2 = d^T C^-1 d is chi^2-distributed with 2 degrees of freedom if the offsets are Gaussian:
 p = scipy.stats.chi2.sf(r^2, 2), quoted also as a two-sided Gaussian-equivalent number of
 sigma (scipy.stats.norm.isf(p / 2)). Beside it, the distribution-free p-value: the fraction
-of centred bootstrap offsets with a Mahalanobis r^2 at least as large (floored at 1 / (n + 1)). Distances in kpc are physical at the lens,
+of centred bootstrap offsets with a Mahalanobis r^2 at least as large (floored at 1 / (n + 1)).
+The interval of the offset's length is the 16-84% (2.5-97.5%) range of |d + sqrt(w) (d_b - mean)|,
+with w the regions' widening. Distances in kpc are physical at the lens,
 R = theta D_l (angular-diameter distance; Hogg 1999).
 """
 
@@ -97,7 +99,7 @@ def match_offsets(mass_peaks, other_peaks, *, kind: str, d_l_mpc: float, max_mat
             r_b = np.einsum("ni,ij,nj->n", centred, inv, centred)
             p_emp = max(float(np.count_nonzero(r_b >= r0)) / db.shape[0], 1.0 / (db.shape[0] + 1))
             p = float(stats.chi2.sf(r0, 2))
-            dist_b = np.hypot(*(centred + d).T)
+            dist_b = np.hypot(*(np.sqrt(PEAK_REGION_WIDENING) * centred + d).T)  # widened like the regions
             q = np.quantile(dist_b, [0.16, 0.84, 0.025, 0.975])
         else:
             p = p_emp = np.nan
