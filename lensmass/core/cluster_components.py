@@ -233,8 +233,9 @@ def locate_cluster_components(
     result["offsets"] = offsets
     if seconds:
         models["offsets"] = ("nearest gas / light peak within 4 smoothing widths of each mass peak; regions from "
-                             "paired bootstrap resamplings; p-value of zero offset from the centred bootstrap "
-                             "offsets' Mahalanobis distances")
+                             "paired bootstrap resamplings (widened as the mass peaks'); significance of a non-zero "
+                             "offset from chi^2 (2 dof) of its Mahalanobis distance under the bootstrap covariance, "
+                             "with the distribution-free bootstrap p-value beside it")
 
     tick(0.75, "NFW fit")
     fit = fit_nfw_halos(x, y, e1, e2, w, beta, centres, z_l=z_l, cosmo=cosmo, d_l_mpc=d_l,

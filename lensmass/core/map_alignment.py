@@ -291,4 +291,5 @@ def light_peaks(ra_deg, dec_deg, amount, *, center_ra: float, center_dec: float,
                          widening=LIGHT_REGION_WIDENING)
     return SecondMap("light", image, f"{unit} per map pixel (smoothed)", float(smoothing_arcsec), peaks,
                      f"member galaxies' {unit} binned on the mass map's grid and Gaussian-smoothed; regions from "
-                     f"{int(n_resamples)} Poisson-bootstrap resamplings of the members", int(n_resamples))
+                     f"{int(n_resamples)} Poisson-bootstrap resamplings of the members, widened by the calibrated factor "
+                     f"{LIGHT_REGION_WIDENING:g}", int(n_resamples))
