@@ -151,7 +151,7 @@ def mass_peaks(
     kappa_e, kappa_b = kappa.real, kappa.imag
     rotated = []
     for _ in range(int(n_noise)):
-        rotated.append(grid.kappa(rotation=np.exp(2j * np.pi * rng.random(grid.n_inside))).real)
+        rotated.append(grid.kappa(rotation=np.exp(2j * np.pi * rng.random(grid.n_inside)), e_mode_only=True))
         tick()
     rotated = np.array(rotated)
     noise = rotated.std(axis=0, ddof=1)
@@ -173,7 +173,7 @@ def mass_peaks(
     samples = np.full((int(n_resamples), len(measured), 2), np.nan)
     kept_maps = []
     for b in range(int(n_resamples)):
-        kb = grid.kappa(multiplicity=poisson_multiplicities(rng, grid.n_inside)).real
+        kb = grid.kappa(multiplicity=poisson_multiplicities(rng, grid.n_inside), e_mode_only=True)
         if keep_resampled_maps:
             kept_maps.append(kb.astype(np.float32))
         for j, (mx, my) in enumerate(measured):

@@ -50,6 +50,9 @@ def test_map_grid_resampling_with_unit_multiplicity_is_the_map():
     g = MapGrid(cat["x_arcsec"], cat["y_arcsec"], cat["e1"], cat["e2"], cat["weight"], n_pixels=32,
                 extent_arcsec=1000.0, smoothing_arcsec=60.0)
     np.testing.assert_allclose(g.kappa(multiplicity=np.ones(g.n_inside)), g.kappa(), atol=1e-6)
+    # the E mode alone (real inverse of the Hermitian part) is the real part of the full inverse
+    m = np.random.default_rng(2).poisson(1.0, g.n_inside)
+    np.testing.assert_allclose(g.kappa(multiplicity=m, e_mode_only=True), g.kappa(multiplicity=m).real, atol=1e-7)
 
 
 def test_poisson_multiplicities_have_poisson_one_frequencies():
