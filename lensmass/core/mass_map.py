@@ -146,7 +146,7 @@ def mass_map(
         acc = np.zeros((n_pixels, n_pixels))
         acc2 = np.zeros((n_pixels, n_pixels))
         for _ in range(int(n_noise)):  # loop over realisations, not galaxies
-            k = grid.kappa(rotation=np.exp(2j * np.pi * rng.random(grid.n_inside))).real
+            k = grid.kappa(rotation=np.exp(2j * np.pi * rng.random(grid.n_inside)), e_mode_only=True)
             acc += k
             acc2 += k * k
         n = int(n_noise)
