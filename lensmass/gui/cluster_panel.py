@@ -69,19 +69,17 @@ class ClusterPanel(QWidget):
         self.ml_edit = QLineEdit(self)
         self.ml_edit.setPlaceholderText("and their stellar M/L [Msun/Lsun]")
         form.addRow("gas masses", self.gas_mass_edit)
-        form.addRow("band", self.band_edit)
-        form.addRow("M/L", self.ml_edit)
+        form.addRow("band, M/L", _side_by_side(self.band_edit, self.ml_edit))
         self.zl_edit = QLineEdit(self)
         self.zl_edit.setPlaceholderText("cluster redshift")
         self.aperture_edit = QLineEdit("250", self)
         self.smoothing_edit = QLineEdit("45", self)
         self.resamples_edit = QLineEdit("200", self)
         self.noise_edit = QLineEdit("32", self)
-        form.addRow("z_l", self.zl_edit)
-        form.addRow("aperture [kpc]", self.aperture_edit)
-        form.addRow("E-mode smoothing [\"]", self.smoothing_edit)
-        form.addRow("resamplings", self.resamples_edit)
-        form.addRow("noise maps", self.noise_edit)
+        form.addRow("z_l, aperture [kpc]", _side_by_side(self.zl_edit, self.aperture_edit))
+        form.addRow("smoothing [\"]", self.smoothing_edit)
+        form.addRow("resamplings, noise maps", _side_by_side(self.resamples_edit, self.noise_edit))
+        self.smoothing_edit.setToolTip("Gaussian sigma of the E-mode mass map and of the light map")
         buttons = QHBoxLayout()
         self.demo_button = QPushButton("Demo field", self)
         self.demo_button.setToolTip("Fill in the invented TRIS colliding-cluster field E from demo_fields/")
@@ -309,6 +307,13 @@ class ClusterPanel(QWidget):
                           ("noise_maps", self.noise_edit)):
             if key in state:
                 edit.setText(str(state[key]))
+
+
+def _side_by_side(*widgets) -> QHBoxLayout:
+    row = QHBoxLayout()
+    for w in widgets:
+        row.addWidget(w)
+    return row
 
 
 def _fill(table: QTableWidget, header: list[str], rows: list[list[str]]) -> None:
