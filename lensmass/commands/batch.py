@@ -283,17 +283,19 @@ def results_table(records: list[dict[str, Any]], settings: dict, models: dict[st
     """The RESULTS table: records in row order, units on columns, settings and models in the meta."""
     from astropy.table import Table
 
-    from lensmass.io.export import BOUND_COLUMNS, COLUMN_INFO, INTERVALS_NOTE
+    from lensmass.core.result_keys import RESULT_KEYS
+    from lensmass.io.export import BOUND_COLUMNS, INTERVALS_NOTE
 
     records = sorted(records, key=lambda r: r["row"])
     template = result_record(_EmptyRow(), None, "")
     table = Table({n: np.array([r[n] for r in records], dtype=type(v)) for n, v in template.items()})
-    for key, (unit, meaning) in COLUMN_INFO.items():
-        if key in table.colnames:
-            table[key].unit = unit
-            table[key].description = meaning
+    for key, info in RESULT_KEYS.items():
+        if key in table.colnames and info.fmt == "number":
+            table[key].unit = info.unit
+            table[key].description = info.description
             for suffix in BOUND_COLUMNS:
-                table[key + suffix].unit = unit
+                if key + suffix in table.colnames:
+                    table[key + suffix].unit = info.unit
     table["theta_e_err_arcsec"].unit = "arcsec"
     table["error"].description = "empty when measured; else why this row could not be measured"
     table.meta["lensmass"] = "batch results"

@@ -14,23 +14,10 @@ from typing import Any
 import numpy as np
 
 from lensmass.core.errors import LensInputError
+from lensmass.core.result_keys import table_rows
 
-#: Display name and unit of the light keys (after the core rows of the table).
-LIGHT_ROWS = [
-    ("distance_modulus", "DM", "mag"),
-    ("light_abs_mag", "abs mag(<thE)", "mag"),
-    ("light_abs_mag_total", "abs mag total", "mag"),
-    ("light_fraction_einstein", "L frac<theta_E", ""),
-    ("light_luminosity_lsun", "L(<theta_E)", "Lsun (band)"),
-    ("light_luminosity_total_lsun", "L_total", "Lsun (band)"),
-    ("mass_to_light", "M/L(<theta_E)", "Msun/Lsun"),
-    ("stellar_ml", "stellar M/L", "Msun/Lsun"),
-    ("stellar_mass_total_msun", "M*_total", "Msun"),
-    ("stellar_mass_einstein_msun", "M*(<theta_E)", "Msun"),
-    ("dark_fraction_einstein", "f_DM(<theta_E)", ""),
-    ("two_component_halo_m200_msun", "stars+NFW M200", "Msun"),
-    ("two_component_halo_c200", "stars+NFW c200", ""),
-]
+#: Display name and unit of the light keys (after the core rows of the table), from the key registry.
+LIGHT_ROWS = table_rows("light")
 
 _LIGHT_FLAGS = ("lens_mag", "band", "r_eff", "sersic_n", "stellar_ml", "stellar_mass", "zeropoint", "zeropoint_key")
 

@@ -14,24 +14,12 @@ from lensmass.commands.common import (
     parse_pair,
 )
 from lensmass.core.errors import LensInputError
+from lensmass.core.result_keys import table_rows
 
-#: Display rows of the readable output (key, label, unit).
-SHEAR_DISPLAY = [
-    ("z_l", "z_l", ""),
-    ("z_s_effective", "z_s (eff.)", ""),
-    ("n_used", "galaxies", ""),
-    ("sis_sigma_v_kms", "SIS sigma_v", "km/s"),
-    ("sis_theta_e_arcsec", "SIS theta_E", "arcsec"),
-    ("chi2_sis", "SIS chi^2", ""),
-    ("nfw_m200_msun", "NFW M200", "Msun"),
-    ("nfw_c200", "NFW c200", ""),
-    ("nfw_r200_kpc", "NFW r200", "kpc"),
-    ("chi2_nfw", "NFW chi^2", ""),
-    ("cross_shear_pvalue", "g_x p-value", ""),
-    ("zeta", "zeta", ""),
-    ("zeta_mass_msun", "M_zeta >=", "Msun"),
-    ("zeta_radius_kpc", "  inside R", "kpc"),
-]
+#: Display rows of the readable output (key, label, unit), labels and units from the key registry.
+SHEAR_DISPLAY = table_rows(["z_l", "z_s_effective", "n_used", "sis_sigma_v_kms", "sis_theta_e_arcsec", "chi2_sis",
+                            "nfw_m200_msun", "nfw_c200", "nfw_r200_kpc", "chi2_nfw", "cross_shear_pvalue", "zeta",
+                            "zeta_mass_msun", "zeta_radius_kpc"])
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:

@@ -16,6 +16,7 @@ from lensmass.core.cosmology import angular_diameter_distances_mpc, cosmology_la
 from lensmass.core.errors import LensInputError
 from lensmass.core.lensing import arcsec_to_mpc, sigma_crit_msun_per_mpc2
 from lensmass.core.nfw import HALO_DEFINITIONS, nfw_mass_for_einstein_radius, overdensity_density_msun_per_mpc3
+from lensmass.core.result_keys import keys_in
 from lensmass.core.sis import sis_sigma_v_kms
 from lensmass.core.uncertainty import (
     DEFAULT_SAMPLES,
@@ -25,22 +26,9 @@ from lensmass.core.uncertainty import (
     summarize_many,
 )
 
-#: Keys whose values are derived numbers (each gets a median and intervals).
-DERIVED_KEYS = (
-    "theta_e_arcsec",
-    "z_l",
-    "z_s",
-    "d_l_mpc",
-    "d_s_mpc",
-    "d_ls_mpc",
-    "sigma_cr_msun_per_pc2",
-    "r_e_kpc",
-    "mass_einstein_msun",
-    "sis_sigma_v_kms",
-    "nfw_m200_msun",
-    "nfw_c200",
-    "nfw_r200_kpc",
-)
+#: Keys whose values are derived numbers (each gets a median and intervals): the "estimate" group of
+#: the key registry, read live so a registered key appears here too.
+DERIVED_KEYS = keys_in("estimate")
 
 #: Einstein radii below this are treated as galaxy-scale for the NFW caveat (common practice:
 #: about 1" for massive single galaxies, several arcsec for groups).

@@ -23,11 +23,11 @@ from PySide6.QtGui import QColor, QImage, QPen
 from PySide6.QtWidgets import (QCheckBox, QComboBox, QFormLayout, QGridLayout, QGroupBox, QHBoxLayout, QLabel,
                                QLineEdit, QPushButton, QVBoxLayout, QWidget)
 
-from lensmass.commands.common import format_number
-from lensmass.commands.light_options import LIGHT_ROWS, photometry_note, zeropoint_and_exposure
+from lensmass.core.result_text import format_number, interval_text
+from lensmass.commands.light_options import photometry_note, zeropoint_and_exposure
+from lensmass.core.result_keys import fact, keys_in
 from lensmass.core.errors import LensInputError
 from lensmass.core.sun_magnitudes import known_bands
-from lensmass.gui.results_panel import interval_text
 
 LAYER = "light_photometry"
 APERTURE_COLOUR = "#ffd27f"
@@ -237,7 +237,8 @@ class LightPanel(QWidget):
         grid.setVerticalSpacing(2)
         self.values: dict[str, QLabel] = {}
         self.intervals: dict[str, QLabel] = {}
-        for row, (key, label, unit) in enumerate(LIGHT_ROWS):
+        self.rows = [(key, fact(key).rich_label, fact(key).rich_unit) for key in keys_in("light", table_only=True)]
+        for row, (key, label, unit) in enumerate(self.rows):
             value, interval = QLabel("–"), QLabel("")
             value.setObjectName(f"light_value_{key}")
             interval.setObjectName(f"light_interval_{key}")
@@ -392,7 +393,7 @@ class LightPanel(QWidget):
 
     def _show_result(self, light: dict | None) -> None:
         models = (light or {}).get("models") or {}
-        for key, _, _ in LIGHT_ROWS:
+        for key, _, _ in self.rows:
             value = None if light is None else light.get(key)
             self.values[key].setText("–" if value is None else format_number(value))
             self.values[key].setToolTip(models.get(key, ""))

@@ -26,7 +26,7 @@ from PySide6.QtWidgets import (QCheckBox, QComboBox, QDialog, QDialogButtonBox, 
                                QGridLayout, QHBoxLayout, QLabel, QLineEdit, QPushButton, QSpinBox,
                                QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget)
 
-from lensmass.commands.common import format_number
+from lensmass.core.result_text import format_number
 from lensmass.core.errors import LensInputError
 from lensmass.gui.workers import TaskCancelled
 

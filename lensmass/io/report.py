@@ -27,6 +27,7 @@ from typing import Any, Mapping, Sequence
 import numpy as np
 
 from lensmass.core.errors import LensInputError
+from lensmass.core.result_keys import RESULT_KEYS, fact, keys_in
 from lensmass.io.report_format import _mathtext_safe, format_interval, format_value
 from lensmass.io.report_plots import (
     CENTRE_COLOUR,
@@ -47,27 +48,21 @@ from lensmass.io.report_plots import (
 )
 
 __all__ = ["PAGE_INCHES", "INK", "MUTED", "RULE", "SIS_COLOUR", "NFW_COLOUR", "POINT_COLOUR", "FIT_COLOUR",
-           "CENTRE_COLOUR", "RESULT_ROWS", "REFERENCES", "Overlay", "cutout", "format_value", "format_interval",
+           "CENTRE_COLOUR", "result_rows", "REFERENCES", "Overlay", "cutout", "format_value", "format_interval",
            "draw_cutout", "PlotInk", "PAGE_INK", "draw_mass_curves", "draw_sample_histogram", "report_figure",
            "render_report", "inputs_from_session"]
 
 #: Page size in inches (A4 portrait).
 PAGE_INCHES = (8.27, 11.69)
 
-#: How each result appears on the page: (key, label in mathtext, unit in mathtext).
-RESULT_ROWS = [
-    ("theta_e_arcsec", r"$\theta_E$", "arcsec"),
-    ("r_e_kpc", r"$R_E = D_l\,\theta_E$", "kpc"),
-    ("d_l_mpc", r"$D_l$", "Mpc"),
-    ("d_s_mpc", r"$D_s$", "Mpc"),
-    ("d_ls_mpc", r"$D_{ls}$", "Mpc"),
-    ("sigma_cr_msun_per_pc2", r"$\Sigma_{cr}$", r"M$_\odot$ pc$^{-2}$"),
-    ("mass_einstein_msun", r"$M(<\theta_E)$", r"M$_\odot$"),
-    ("sis_sigma_v_kms", r"$\sigma_{SIS}$", r"km s$^{-1}$"),
-    ("nfw_m200_msun", r"NFW $M_{200}$", r"M$_\odot$"),
-    ("nfw_c200", r"NFW $c_{200}$", ""),
-    ("nfw_r200_kpc", r"NFW $r_{200}$", "kpc"),
-]
+#: Keys of the estimate the page leaves out of its results block (they are inputs, shown above it).
+_INPUT_KEYS = ("z_l", "z_s")
+
+
+def result_rows() -> list[tuple[str, str, str]]:
+    """How each result appears on the page: (key, label in mathtext, unit in mathtext), from the key registry."""
+    return [(key, fact(key).math_label, fact(key).math_unit)
+            for key in keys_in("estimate", table_only=True) if key not in _INPUT_KEYS]
 
 REFERENCES = [
     "Narayan R., Bartelmann M. 1996, arXiv:astro-ph/9606001 (Sigma_cr, Einstein mass, SIS)",
@@ -124,7 +119,7 @@ def _input_rows(inputs: Mapping[str, Any]) -> list[tuple[str, str]]:
 def _result_rows(result: Mapping[str, Any]) -> list[tuple[str, str, str, str]]:
     i68 = result.get("intervals68") or {}
     rows = []
-    for key, label, unit in RESULT_ROWS:
+    for key, label, unit in result_rows():
         if key not in result:
             continue
         value = result[key]
@@ -136,7 +131,7 @@ def _result_rows(result: Mapping[str, Any]) -> list[tuple[str, str, str, str]]:
 def _model_lines(result: Mapping[str, Any]) -> list[str]:
     """'label: description' lines, one per distinct description (labels joined)."""
     models = result.get("models") or {}
-    labels = {key: label for key, label, _ in RESULT_ROWS}
+    labels = {key: fact(key).math_label for key in models if key in RESULT_KEYS}
     grouped: dict[str, list[str]] = {}
     for key, text in models.items():
         grouped.setdefault(str(text), []).append(labels.get(key, key))
