@@ -19,7 +19,7 @@ Bartelmann (1996), A&A 313, 697: NFW deflection alpha = mean_Sigma(<R) R / Sigma
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Sequence
+from typing import Any, Sequence
 
 import numpy as np
 
@@ -95,7 +95,7 @@ class SIELens:
 class NFWLens:
     """NFW halo (see :func:`lensmass.core.nfw.nfw_halo`) at lens/source distances in Mpc."""
 
-    halo: object
+    halo: Any
     d_l_mpc: float
     sigma_cr_msun_per_mpc2: float
     x0: float = 0.0
@@ -171,7 +171,7 @@ def deflection_arcsec(lenses: Sequence, x, y) -> tuple[np.ndarray, np.ndarray]:
 
 def convergence(lenses: Sequence, x, y) -> np.ndarray:
     """Total convergence kappa of the lens components at (x, y) arcsec."""
-    return sum(np.asarray(lens.convergence(np.asarray(x, float), np.asarray(y, float))) for lens in lenses)
+    return np.asarray(sum(np.asarray(lens.convergence(np.asarray(x, float), np.asarray(y, float))) for lens in lenses))
 
 
 def source_positions(lenses: Sequence, x, y) -> tuple[np.ndarray, np.ndarray]:

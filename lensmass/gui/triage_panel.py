@@ -16,7 +16,6 @@ from __future__ import annotations
 
 import math
 from pathlib import Path
-from typing import Any
 
 from PySide6.QtCore import QEvent, QObject, Qt
 from PySide6.QtGui import QBrush, QColor
@@ -25,6 +24,7 @@ from PySide6.QtWidgets import (QComboBox, QFileDialog, QGridLayout, QHBoxLayout,
 
 from lensmass.core.errors import LensInputError
 from lensmass.io.store import GRADE_SCALE, consensus_of, default_grader, grade_label
+from lensmass.gui.words import window_words
 
 #: Columns of the list.
 COLUMNS = ("candidate", "my grade", "team", "state")
@@ -199,7 +199,7 @@ class TriagePanel(QWidget):
     def open_queue(self, path: str | Path, store: str | None = None) -> bool:
         """Open a manifest or folder and its store; returns True when it opened."""
         from lensmass.io.manifest import read_manifest
-        from lensmass.io.store import open_store
+        from lensmass.io.store_open import open_store
 
         if store is not None:
             self.store_edit.setText(store)
@@ -528,6 +528,7 @@ class TriagePanel(QWidget):
         return dlg
 
     def _say(self, text: str) -> None:
+        text = window_words(text)
         self.status.setText(text)
         show = getattr(self.window, "show_message", None)
         if show is not None:

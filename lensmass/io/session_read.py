@@ -10,6 +10,7 @@ from pathlib import Path
 from typing import Any, Mapping
 
 from lensmass.core.errors import LensInputError
+from lensmass.core.uncertainty import DEFAULT_SAMPLES, DEFAULT_SEED
 from lensmass.io.session import (
     ARC_SHAPES,
     CENTRE_HOW,
@@ -82,7 +83,7 @@ class _Reader:
             raise self.fail(where, "an object", value)
         return value
 
-    def pair(self, value, where, *, optional=False) -> tuple[float, float] | None:
+    def pair(self, value, where, *, optional=False) -> tuple[float | None, float | None] | None:
         if value is None and optional:
             return None
         if not isinstance(value, (list, tuple)) or len(value) != 2:
@@ -185,7 +186,7 @@ def session_from_dict(data: Mapping[str, Any], base_dir, source: str) -> Session
     panels = r.obj(d.get("panels", {}), "panels")
     for name, state in panels.items():
         r.obj(state, f"panels.{name}")
-    seed = d.get("mc_seed", 20261201)
+    seed = d.get("mc_seed", DEFAULT_SEED)
     return Session(
         image=image_ref,
         display=display,
@@ -195,7 +196,7 @@ def session_from_dict(data: Mapping[str, Any], base_dir, source: str) -> Session
         cosmology=cosmology,
         concentration=conc,
         halo_definition=r.text(d.get("halo_definition", "200c"), "halo_definition", choices=("200c", "200m", "vir")),
-        mc_samples=r.integer(d.get("mc_samples", 10_000), "mc_samples", minimum=1),
+        mc_samples=r.integer(d.get("mc_samples", DEFAULT_SAMPLES), "mc_samples", minimum=1),
         mc_seed=r.integer(seed, "mc_seed", optional=True, minimum=0),
         arcs=arcs,
         ring=r.obj(d.get("ring"), "ring", optional=True),
