@@ -40,8 +40,10 @@ def add_halo_options(parser: argparse.ArgumentParser) -> None:
 
 def add_sampling_options(parser: argparse.ArgumentParser) -> None:
     g = parser.add_argument_group("Monte Carlo")
-    g.add_argument("--samples", type=int, default=10_000, help="Monte Carlo draws (default 10000)")
-    g.add_argument("--seed", type=int, default=20261201, help="random seed (default fixed, reproducible)")
+    from lensmass.core.uncertainty import DEFAULT_SAMPLES, DEFAULT_SEED
+
+    g.add_argument("--samples", type=int, default=DEFAULT_SAMPLES, help=f"Monte Carlo draws (default {DEFAULT_SAMPLES})")
+    g.add_argument("--seed", type=int, default=DEFAULT_SEED, help="random seed (default fixed, reproducible)")
 
 
 def cosmology_from_args(args: argparse.Namespace):

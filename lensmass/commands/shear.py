@@ -15,6 +15,7 @@ from lensmass.commands.common import (
 )
 from lensmass.core.errors import LensInputError
 from lensmass.core.result_keys import table_rows
+from lensmass.core.uncertainty import DEFAULT_SEED
 
 #: Display rows of the readable output (key, label, unit), labels and units from the key registry.
 SHEAR_DISPLAY = table_rows(["z_l", "z_s_effective", "n_used", "sis_sigma_v_kms", "sis_theta_e_arcsec", "chi2_sis",
@@ -45,7 +46,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                       help="unit of --rmin, --rmax and --zeta-radii (mpc: physical, at the lens); default arcmin")
     prof.add_argument("--linear-bins", action="store_true", help="linear instead of logarithmic bins")
     prof.add_argument("--bootstrap", type=int, default=200, help="bootstrap resamplings for profile errors (default 200, 0 = off)")
-    prof.add_argument("--seed", type=int, default=20261201, help="random seed (bootstrap, noise map)")
+    prof.add_argument("--seed", type=int, default=DEFAULT_SEED, help="random seed (bootstrap, noise map)")
     prof.add_argument("--zeta-radii", metavar="INNER,OUTER", help="zeta annulus in --unit (default sqrt(rmin rmax), rmax)")
     add_cosmology_options(parser)
     add_halo_options(parser)

@@ -41,6 +41,7 @@ from lensmass.gui.window_files import WindowFilesMixin
 from lensmass.gui.window_marks import WindowMarksMixin
 from lensmass.gui.window_tasks import WindowTasksMixin
 from lensmass.gui.window_view import WindowViewMixin
+from lensmass.gui.words import window_words
 from lensmass.gui.workers import TaskRunner
 
 
@@ -107,11 +108,13 @@ class MainWindow(WindowBuildMixin, WindowFilesMixin, WindowViewMixin, WindowMark
     # =============================================================== messages
     def show_message(self, text: str, timeout_ms: int = 8000) -> None:
         """One sentence in the status bar (also kept in ``last_message``)."""
+        text = window_words(text)
         self.last_message = text
         self.statusBar().showMessage(text, timeout_ms)
 
     def show_error(self, text: str) -> None:
         """A problem the user must see: status bar plus a window-modal box (non-blocking)."""
+        text = window_words(text)
         self.last_error = text
         self.show_message(text, 15000)
         if self.interactive:

@@ -5,8 +5,10 @@ from __future__ import annotations
 from PySide6.QtCore import Qt
 from PySide6.QtWidgets import QScrollArea, QWidget
 
+from lensmass.io.images import IMAGE_SUFFIXES
+
 APP_NAME = "lensmass"
-IMAGE_FILTER = "Images (*.fits *.fit *.fts *.fits.gz *.fz *.png *.jpg *.jpeg *.tif *.tiff);;All files (*)"
+IMAGE_FILTER = f"Images ({' '.join('*' + s for s in IMAGE_SUFFIXES)});;All files (*)"
 SESSION_FILTER = "lensmass sessions (*.lensmass.json *.json);;All files (*)"
 MAX_RECENT = 8
 #: Milliseconds between an edit and the start of the background estimate.

@@ -10,6 +10,7 @@ import numpy as np
 from PySide6.QtWidgets import QApplication
 
 from lensmass.core.errors import LensInputError
+from lensmass.gui.words import window_words
 from lensmass.gui.undo import AddMark, AddSystem, SetCentre
 
 
@@ -26,7 +27,7 @@ class WindowTasksMixin:
             try:
                 m.estimate_request(i)
             except LensInputError as exc:
-                problem = str(exc)
+                problem = window_words(str(exc))
             m.derived[i].result, m.derived[i].result_problem = None, problem
         m.notify("result")
         self._estimate_wanted = True
@@ -77,14 +78,14 @@ class WindowTasksMixin:
             if i >= len(m.derived) or m.derived[i].generation != gen:
                 stale = True
                 continue
-            m.derived[i].result, m.derived[i].result_problem = result, problem
+            m.derived[i].result, m.derived[i].result_problem = result, None if problem is None else window_words(problem)
         if stale:
             self._estimate_wanted = True
         m.notify("result")
 
     def _estimate_failed(self, message: str) -> None:
         d = self.model.derived[self.model.active]
-        d.result, d.result_problem = None, message
+        d.result, d.result_problem = None, window_words(message)
         self.model.notify("result")
 
     def _after_task(self) -> None:

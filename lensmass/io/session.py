@@ -51,6 +51,7 @@ from pathlib import Path
 from typing import Any, Callable, Mapping
 
 from lensmass.core.errors import LensInputError
+from lensmass.core.uncertainty import DEFAULT_SAMPLES, DEFAULT_SEED
 
 #: Top-level tag that marks a lensmass session file.
 FORMAT_TAG = "lensmass-session"
@@ -164,8 +165,8 @@ class Session:
     cosmology: CosmologyChoice = field(default_factory=CosmologyChoice)
     concentration: str | float = "duffy08"
     halo_definition: str = "200c"
-    mc_samples: int = 10_000
-    mc_seed: int | None = 20261201
+    mc_samples: int = DEFAULT_SAMPLES
+    mc_seed: int | None = DEFAULT_SEED
     arcs: list[ArcSystem] = field(default_factory=list)
     ring: dict | None = None
     notes: str = ""
