@@ -71,6 +71,8 @@ def produced(tmp_path_factory) -> set[tuple[str, str]]:
         keys |= _all_keys(_json(*argv, "--json"), name)
     # The Python API's results and a batch row hold the same keys.
     keys |= _all_keys(estimate_module.estimate(1.2, 0.3, 1.0, theta_e_err=0.05, samples=300), "estimate()")
+    keys |= _all_keys(estimate_module.estimate([1.2, -1.0], 0.3, 1.0, theta_e_err=[0.05, 0.0], samples=300,
+                                               strict=False), "estimate(arrays)")
     return keys
 
 

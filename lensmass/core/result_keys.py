@@ -250,6 +250,8 @@ _FACTS: list[KeyFact] = [
     _f("mc_rejected", "rejected draws", None, "Monte Carlo draws rejected (source not behind the lens)", _X,
        fmt="count"),
     _f("mc_seed", "seed", None, "seed of the Monte Carlo draws", _X, fmt="count"),
+    _f("problems", "problems", None, "for arrays with strict=False: why each bad lens was not computed (None if it was)",
+       _X, fmt="block"),
     _f("source", "theta_E source", None, "where a batch row's Einstein radius came from", _X, fmt="text"),
     _f("versus_zs", "versus z_s", None, "mass and SIS dispersion over the source-redshift range", _X, fmt="block"),
 ]
