@@ -25,25 +25,23 @@ def _is_quantity(value: Any) -> bool:
     return hasattr(value, "unit") and hasattr(value, "to_value")
 
 
-def to_arcsec(value: Any, what: str, name: str) -> Any:
-    """``value`` in arcsec: plain numbers are taken as arcsec; angle quantities are converted."""
+def _convert(value: Any, kind: str, unit: str, refusal: str) -> Any:
     if not _is_quantity(value):
         return value
     import astropy.units as u
 
-    if value.unit.physical_type != "angle":
-        raise LensInputError(f"{what} (`{name}`) must be an angle, got a quantity in {value.unit}; "
-                             "give arcsec or an astropy angle such as 1.2 * u.arcsec.")
-    return value.to_value(u.arcsec)
+    if value.unit.physical_type != kind:
+        raise LensInputError(refusal.format(unit=value.unit))
+    return value.to_value(u.Unit(unit))
+
+
+def to_arcsec(value: Any, what: str, name: str) -> Any:
+    """``value`` in arcsec: plain numbers are taken as arcsec; angle quantities are converted."""
+    return _convert(value, "angle", "arcsec", f"{what} (`{name}`) must be an angle, got a quantity in {{unit}}; "
+                    "give arcsec or an astropy angle such as 1.2 * u.arcsec.")
 
 
 def to_plain(value: Any, what: str, name: str) -> Any:
     """A dimensionless quantity (a redshift, a ratio) as a plain number; a dimensioned one is refused."""
-    if not _is_quantity(value):
-        return value
-    import astropy.units as u
-
-    if value.unit.physical_type != "dimensionless":
-        raise LensInputError(f"{what} (`{name}`) is a pure number, got a quantity in {value.unit}; "
-                             "give a plain number.")
-    return value.to_value(u.dimensionless_unscaled)
+    return _convert(value, "dimensionless", "", f"{what} (`{name}`) is a pure number, got a quantity in {{unit}}; "
+                    "give a plain number.")

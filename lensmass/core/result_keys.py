@@ -67,26 +67,25 @@ class KeyFact:
     math: str | None = None
     shown_unit: str | None = None
 
+    def _unit_form(self, which: int) -> str:
+        if self.shown_unit is not None:
+            return self.shown_unit
+        return UNIT_FORMS[self.unit][which] if self.unit else ""
+
     @property
     def plain_unit(self) -> str:
         """Unit as the command line prints it ('' for none)."""
-        if self.shown_unit is not None:
-            return self.shown_unit
-        return UNIT_FORMS[self.unit][0] if self.unit else ""
+        return self._unit_form(0)
 
     @property
     def rich_unit(self) -> str:
         """Unit as HTML for the window."""
-        if self.shown_unit is not None:
-            return self.shown_unit
-        return UNIT_FORMS[self.unit][1] if self.unit else ""
+        return self._unit_form(1)
 
     @property
     def math_unit(self) -> str:
         """Unit in matplotlib mathtext for the report."""
-        if self.shown_unit is not None:
-            return self.shown_unit
-        return UNIT_FORMS[self.unit][2] if self.unit else ""
+        return self._unit_form(2)
 
     @property
     def rich_label(self) -> str:
