@@ -85,6 +85,13 @@ def test_the_two_stores_do_not_import_each_other():
     assert not [n for n, _ in _imports(path) if n == "lensmass.io.store_postgres"], "io/store.py imports io/store_postgres.py"
 
 
+def test_the_lens_light_fit_does_not_take_its_model_from_the_demo_simulator():
+    """One Sersic surface brightness (core/sersic.py) serves the fit and the simulator."""
+    assert "lensmass.core.raytrace" not in [n for n, _ in _imports(PACKAGE / "core" / "lenslight.py")]
+    defined = [p for p in PACKAGE.rglob("*.py") if "def sersic_surface_brightness(" in p.read_text(encoding="utf-8")]
+    assert defined == [PACKAGE / "core" / "sersic.py"]
+
+
 def test_ruff_check_passes():
     ruff = shutil.which("ruff") or str(Path(sys.executable).with_name("ruff"))
     if not Path(ruff).exists() and shutil.which("ruff") is None:

@@ -26,8 +26,7 @@ from scipy.ndimage import gaussian_filter
 from scipy.optimize import least_squares
 
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
-from lensmass.core.raytrace import sersic_intensity_at_re, sersic_surface_brightness
-from lensmass.core.sersic import sersic_b
+from lensmass.core.sersic import sersic_b, sersic_intensity_at_re, sersic_surface_brightness
 
 #: The fitted cut-out is binned so that its side has at most this many (binned) pixels.
 MAX_FIT_SIDE = 124

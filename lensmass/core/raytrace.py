@@ -26,7 +26,6 @@ from typing import Sequence
 
 import numpy as np
 from scipy.signal import fftconvolve
-from scipy.special import gamma as gamma_function
 
 from lensmass.core.deflectors import (
     ExternalShear,
@@ -39,48 +38,13 @@ from lensmass.core.deflectors import (
     point_images,
     source_positions,
 )
-from lensmass.core.sersic import sersic_b
+from lensmass.core.sersic import sersic_b, sersic_intensity_at_re, sersic_surface_brightness
 
 __all__ = ["SISLens", "SIELens", "NFWLens", "ExternalShear", "deflection_arcsec", "convergence", "source_positions",
-           "magnification", "point_images", "sersic_intensity_at_re", "sersic_surface_brightness",
+           "magnification", "point_images", "sersic_b", "sersic_intensity_at_re", "sersic_surface_brightness",
            "SersicSource", "ClumpySource", "psf_profile", "psf_kernel", "convolve_psf", "pixel_grid_arcsec", "render_lensed",
            "render_unlensed", "render_points", "add_noise", "noise_sigma_counts_per_s", "SimulatedField",
            "arc_ridge_points", "simulate_field", "flux_from_mag"]
-
-
-def sersic_intensity_at_re(total_flux: float, r_eff_arcsec: float, n: float) -> float:
-    """I_e = L / [2 pi n R_e^2 e^b b^-2n Gamma(2n)] (Graham & Driver 2005, eq. 4); per arcsec^2."""
-    return _intensity_at_re(total_flux, r_eff_arcsec, n, float(sersic_b(n)))
-
-
-def _intensity_at_re(total_flux, r_eff, n, b) -> float:
-    return total_flux / (2 * np.pi * n * r_eff**2 * np.exp(b) * b ** (-2 * n) * gamma_function(2 * n))
-
-
-def sersic_surface_brightness(x, y, *, total_flux: float, r_eff_arcsec: float, n: float,
-                              axis_ratio: float = 1.0, angle_deg: float = 0.0, x0: float = 0.0,
-                              y0: float = 0.0) -> np.ndarray:
-    """Elliptical Sersic surface brightness (flux per arcsec^2) at (x, y) arcsec.
-
-    The elliptical radius is the circularised sqrt(q x'^2 + y'^2 / q), so ``total_flux``
-    is the integral over the plane for any axis ratio.
-
-    Examples
-    --------
-    >>> g = np.linspace(-20, 20, 801)
-    >>> xx, yy = np.meshgrid(g, g)
-    >>> sb = sersic_surface_brightness(xx, yy, total_flux=1.0, r_eff_arcsec=1.0, n=1.0, axis_ratio=0.6)
-    >>> round(float(sb.sum() * 0.05**2), 3)
-    1.0
-    """
-    c, s = np.cos(np.radians(angle_deg)), np.sin(np.radians(angle_deg))
-    dx, dy = np.asarray(x, float) - x0, np.asarray(y, float) - y0
-    xp, yp = c * dx + s * dy, -s * dx + c * dy
-    q = float(axis_ratio)
-    r = np.sqrt(q * xp**2 + yp**2 / q)
-    b = float(sersic_b(n))
-    ie = _intensity_at_re(total_flux, r_eff_arcsec, n, b)
-    return ie * np.exp(-b * ((r / r_eff_arcsec) ** (1.0 / n) - 1.0))
 
 
 @dataclass(frozen=True)
