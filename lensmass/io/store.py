@@ -19,6 +19,9 @@ The grade scale (our own; it names what is seen, not a probability):
 2     counter-imaged    an arc or image with a plausible counter-image
 3     measurable        a ring, arcs or several images fit by one lens: measure it
 ====  ================  ==========================================================
+
+Longer than 500 lines because the grade store's schema, its SQLite implementation and the
+consensus and export helpers are being reworked together (locks, full disk, queue identity); split after.
 """
 
 from __future__ import annotations
