@@ -1,28 +1,72 @@
 """lensmass: from what a lensing image shows to a defensible, model-labelled mass.
 
-The flat public API lives here; heavy modules load on first use so that the
-command line starts quickly.
+The flat public API lives here; each name loads its module on first use, so the command line
+starts quickly. Every result says which model and assumptions produced each number (``notes``
+and ``models``); masses are model-dependent estimates.
 
 >>> import lensmass
 >>> r = lensmass.estimate(1.2, 0.2, 0.6, cosmology="Planck18")
->>> round(float(r["r_e_kpc"]), 2)  # doctest: +SKIP
-3.97
+>>> str(r.to_table()["mass_einstein_msun"].unit)
+'solMass'
+>>> "estimate" in dir(lensmass)
+True
+
+=========================  ======================================================================
+job                        names
+=========================  ======================================================================
+mass from theta_E          ``estimate`` (Quantities, arrays, ``strict=``), ``estimate_many``, ``LensResult``
+point fits                 ``fit_circle``, ``fit_ellipse``, ``multiple_image_radius``, ``measure_from_points``
+images and the ring        ``load_image``, ``find_ring``, ``find_center``, ``measure_auto_ring``
+lens light                 ``add_light``, ``light_inside_einstein``
+weak lensing               ``read_shear_catalog``, ``analyse_shear_catalog``, ``shear_profile``, ``mass_map``
+batch and grading         ``run_batch``, ``batch_settings``, ``grade_answers``
+facts about result keys    ``RESULT_KEYS``, ``KeyFact``, ``register_key``
+=========================  ======================================================================
 """
 
 from __future__ import annotations
 
 __version__ = "0.1.0"
 
-__all__ = ["estimate", "LensInputError", "__version__"]
+#: Public name -> module that defines it (imported on first use).
+_API = {
+    "estimate": "lensmass.core.estimate",
+    "estimate_many": "lensmass.core.estimate_many",
+    "LensResult": "lensmass.core.results",
+    "LensInputError": "lensmass.core.errors",
+    "fit_circle": "lensmass.core.arcfit",
+    "fit_ellipse": "lensmass.core.arcfit",
+    "multiple_image_radius": "lensmass.core.arcfit",
+    "measure_from_points": "lensmass.core.einstein",
+    "measure_auto_ring": "lensmass.core.einstein",
+    "find_ring": "lensmass.core.ringfinder",
+    "find_center": "lensmass.core.ringfinder",
+    "load_image": "lensmass.io.images",
+    "add_light": "lensmass.core.light",
+    "light_inside_einstein": "lensmass.core.einstein_photometry",
+    "read_shear_catalog": "lensmass.io.catalogs",
+    "analyse_shear_catalog": "lensmass.core.shear_analysis",
+    "shear_profile": "lensmass.core.shear_profile",
+    "mass_map": "lensmass.core.mass_map",
+    "grade_answers": "lensmass.core.grading",
+    "run_batch": "lensmass.io.batch_engine",
+    "batch_settings": "lensmass.io.batch_engine",
+    "RESULT_KEYS": "lensmass.core.result_keys",
+    "KeyFact": "lensmass.core.result_keys",
+    "register_key": "lensmass.core.result_keys",
+}
+
+__all__ = sorted([*_API, "__version__"])
 
 
 def __getattr__(name: str):
-    if name == "estimate":
-        from lensmass.core.estimate import estimate
+    module = _API.get(name)
+    if module is None:
+        raise AttributeError(f"module 'lensmass' has no attribute {name!r}")
+    import importlib
 
-        return estimate
-    if name == "LensInputError":
-        from lensmass.core.errors import LensInputError
+    return getattr(importlib.import_module(module), name)
 
-        return LensInputError
-    raise AttributeError(f"module 'lensmass' has no attribute {name!r}")
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(__all__))

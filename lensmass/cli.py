@@ -26,6 +26,17 @@ SUBCOMMANDS: dict[str, tuple[str, str]] = {
     "gui": ("lensmass.commands.gui", "Open the desktop window (optionally on an image or session)."),
 }
 
+#: Core messages name a quantity's Python parameter in backquotes; the command line shows its flag.
+PARAMETER_FLAGS: dict[str, str] = {
+    "theta_e_arcsec": "--theta-e", "theta_e_err": "--theta-e-err", "z_l": "--zl", "z_l_err": "--zl-err",
+    "z_s": "--zs", "z_s_err": "--zs-err", "z_s_range": "--zs-range", "z_s_distribution": "--zs-table",
+    "concentration": "--concentration", "halo_definition": "--halo-definition", "samples": "--samples",
+    "seed": "--seed", "zeropoint": "--zeropoint", "zeropoint_key": "--zeropoint-key", "exptime": "--exptime",
+    "pixel_scale_arcsec": "--pixel-scale", "sersic_n": "--sersic-n", "lens_mag": "--lens-mag",
+    "r_eff_arcsec": "--r-eff", "stellar_ml": "--stellar-ml", "stellar_mass_msun": "--stellar-mass",
+    "workers": "--workers", "save_every": "--save-every",
+}
+
 #: Exit status for bad input (one-line message on stderr).
 EXIT_BAD_INPUT = 2
 #: Exit status for an unexpected failure inside lensmass (a bug: one line, then report it).
@@ -76,12 +87,12 @@ def main(argv: list[str] | None = None) -> int:
     if module is None:
         print(f"lensmass: the '{args.command}' command is not available in this build.", file=sys.stderr)
         return EXIT_BAD_INPUT
-    from lensmass.core.errors import LensInputError
+    from lensmass.core.errors import LensInputError, in_words
 
     try:
         return int(module.run(args) or 0)
     except LensInputError as exc:
-        print(f"lensmass {args.command}: {exc}", file=sys.stderr)
+        print(f"lensmass {args.command}: {in_words(str(exc), PARAMETER_FLAGS)}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except KeyboardInterrupt:
         print(f"lensmass {args.command}: interrupted.", file=sys.stderr)

@@ -92,7 +92,7 @@ def _rows_in(path):
 # after the first block of finished rows has been saved to RESULTS: a deterministic "killed halfway".
 _KILLED_AFTER_FIRST_BLOCK = """
 import os, sys
-import lensmass.commands.batch as batch
+import lensmass.io.batch_engine as batch
 real_add = batch._Saver.add
 def add_save_and_die(self, records):
     real_add(self, records)
@@ -149,7 +149,7 @@ def _die(rows):
 
 
 def test_a_dying_worker_is_one_sentence_and_keeps_results(tmp_path, monkeypatch, capsys):
-    import lensmass.commands.batch as batch
+    import lensmass.io.batch_engine as batch
 
     monkeypatch.setattr(batch, "_run_chunk", _die)
     _manifest(tmp_path / "m.csv", 40)

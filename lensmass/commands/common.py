@@ -3,10 +3,9 @@
 from __future__ import annotations
 
 import argparse
-import math
-from typing import Any
 
 from lensmass.core.errors import LensInputError
+from lensmass.core.result_text import ESTIMATE_ROWS, format_number, format_table  # noqa: F401 (shared by the subcommands)
 
 
 def add_redshift_options(parser: argparse.ArgumentParser) -> None:
@@ -41,8 +40,10 @@ def add_halo_options(parser: argparse.ArgumentParser) -> None:
 
 def add_sampling_options(parser: argparse.ArgumentParser) -> None:
     g = parser.add_argument_group("Monte Carlo")
-    g.add_argument("--samples", type=int, default=10_000, help="Monte Carlo draws (default 10000)")
-    g.add_argument("--seed", type=int, default=20261201, help="random seed (default fixed, reproducible)")
+    from lensmass.core.uncertainty import DEFAULT_SAMPLES, DEFAULT_SEED
+
+    g.add_argument("--samples", type=int, default=DEFAULT_SAMPLES, help=f"Monte Carlo draws (default {DEFAULT_SAMPLES})")
+    g.add_argument("--seed", type=int, default=DEFAULT_SEED, help="random seed (default fixed, reproducible)")
 
 
 def cosmology_from_args(args: argparse.Namespace):
@@ -66,56 +67,5 @@ def parse_pair(text: str, what: str) -> tuple[float, float]:
     return a, b
 
 
-#: Display name and unit of each key, in the order of the readable table.
-DISPLAY = [
-    ("theta_e_arcsec", "theta_E", "arcsec"),
-    ("z_l", "z_l", ""),
-    ("z_s", "z_s", ""),
-    ("d_l_mpc", "D_l", "Mpc"),
-    ("d_s_mpc", "D_s", "Mpc"),
-    ("d_ls_mpc", "D_ls", "Mpc"),
-    ("sigma_cr_msun_per_pc2", "Sigma_cr", "Msun/pc^2"),
-    ("r_e_kpc", "R_E", "kpc"),
-    ("mass_einstein_msun", "M(<theta_E)", "Msun"),
-    ("sis_sigma_v_kms", "sigma_SIS", "km/s"),
-    ("nfw_m200_msun", "NFW M200", "Msun"),
-    ("nfw_c200", "NFW c200", ""),
-    ("nfw_r200_kpc", "NFW r200", "kpc"),
-]
-
-
-def format_number(value: Any) -> str:
-    """Four significant figures; scientific notation for large or small numbers."""
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        return str(value)
-    if not math.isfinite(v):
-        return "-"
-    if v != 0 and (abs(v) >= 1e5 or abs(v) < 1e-3):
-        return f"{v:.4g}"
-    return f"{v:.0f}" if abs(v) >= 1e4 else f"{v:.4g}"
-
-
-def format_table(result: dict, rows=DISPLAY, extra_rows=()) -> str:
-    """A readable table with units, intervals when present, then notes."""
-    lines = [f"cosmology: {result.get('cosmology', '')}"]
-    i68 = result.get("intervals68", {})
-    header = f"{'quantity':<14}{'value':>12}  {'68% interval':<26}unit"
-    lines.append(header)
-    lines.append("-" * len(header))
-    for key, label, unit in list(rows) + list(extra_rows):
-        if key not in result:
-            continue
-        value = format_number(result[key])
-        interval = ""
-        if key in i68:
-            lo, hi = i68[key]
-            if lo is not None and hi is not None and math.isfinite(float(lo)) and lo != hi:
-                interval = f"[{format_number(lo)}, {format_number(hi)}]"
-        lines.append(f"{label:<14}{value:>12}  {interval:<26}{unit}")
-    notes = result.get("notes") or []
-    if notes:
-        lines.append("")
-        lines.extend(f"note: {n}" for n in notes)
-    return "\n".join(lines)
+#: Display name and unit of each key, in the order of the readable table (from the key registry).
+DISPLAY = ESTIMATE_ROWS

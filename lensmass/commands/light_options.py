@@ -13,24 +13,13 @@ from typing import Any
 
 import numpy as np
 
+from lensmass.core.einstein_photometry import (header_number, light_inside_einstein,  # noqa: F401 (re-exported)
+                                               photometry_note, zeropoint_and_exposure)
 from lensmass.core.errors import LensInputError
+from lensmass.core.result_keys import table_rows
 
-#: Display name and unit of the light keys (after the core rows of the table).
-LIGHT_ROWS = [
-    ("distance_modulus", "DM", "mag"),
-    ("light_abs_mag", "abs mag(<thE)", "mag"),
-    ("light_abs_mag_total", "abs mag total", "mag"),
-    ("light_fraction_einstein", "L frac<theta_E", ""),
-    ("light_luminosity_lsun", "L(<theta_E)", "Lsun (band)"),
-    ("light_luminosity_total_lsun", "L_total", "Lsun (band)"),
-    ("mass_to_light", "M/L(<theta_E)", "Msun/Lsun"),
-    ("stellar_ml", "stellar M/L", "Msun/Lsun"),
-    ("stellar_mass_total_msun", "M*_total", "Msun"),
-    ("stellar_mass_einstein_msun", "M*(<theta_E)", "Msun"),
-    ("dark_fraction_einstein", "f_DM(<theta_E)", ""),
-    ("two_component_halo_m200_msun", "stars+NFW M200", "Msun"),
-    ("two_component_halo_c200", "stars+NFW c200", ""),
-]
+#: Display name and unit of the light keys (after the core rows of the table), from the key registry.
+LIGHT_ROWS = table_rows("light")
 
 _LIGHT_FLAGS = ("lens_mag", "band", "r_eff", "sersic_n", "stellar_ml", "stellar_mass", "zeropoint", "zeropoint_key")
 
@@ -73,61 +62,16 @@ def light_requested(args: argparse.Namespace) -> bool:
     return any(getattr(args, flag, None) is not None for flag in _LIGHT_FLAGS)
 
 
-def header_number(header, key: str, what: str) -> float:
-    """A number from a FITS header keyword, or one sentence naming the keyword."""
-    if header is None or key not in header:
-        raise LensInputError(f"The image header has no keyword '{key}' for the {what}: check the name or give the value directly.")
-    try:
-        value = float(header[key])
-    except (TypeError, ValueError):
-        raise LensInputError(f"Header keyword '{key}' holds '{header[key]}', not a number usable as the {what}.") from None
-    return value
-
-
-def zeropoint_and_exposure(header, zeropoint=None, zeropoint_key=None, exptime=None) -> tuple[float, float, str]:
-    """(zeropoint, exposure time in s, where the exposure came from): given values first, then the header.
-
-    An image whose header BUNIT is per second (``count/s``, ``electron/s``...) is already a
-    rate: its exposure time is 1 s for the conversion, whatever EXPTIME says.
-    """
-    if zeropoint is not None and zeropoint_key:
-        raise LensInputError("Give the zeropoint one way only: a value (--zeropoint) or a header keyword (--zeropoint-key).")
-    if zeropoint is None and not zeropoint_key:
-        raise LensInputError("The photometry needs a zeropoint: give --zeropoint ZP or the header keyword with --zeropoint-key.")
-    zp = float(zeropoint) if zeropoint is not None else header_number(header, zeropoint_key, "zeropoint")
-    if exptime is not None:
-        return zp, float(exptime), "given"
-    unit = str(header.get("BUNIT", "")).lower().replace(" ", "") if header is not None else ""
-    if unit.endswith(("/s", "s-1", "s**-1", "/sec")) or unit in ("cps", "counts/s"):
-        return zp, 1.0, f"header BUNIT '{header['BUNIT']}' is per second"
-    if header is not None and "EXPTIME" in header:
-        return zp, header_number(header, "EXPTIME", "exposure time"), "header EXPTIME"
-    return zp, 1.0, "none given: image taken as counts per second"
-
-
 def image_photometry(args: argparse.Namespace, image, header, *, x_pix: float, y_pix: float, theta_e_pix: float,
-                     axis_ratio: float = 1.0, theta_rad: float = 0.0, arc_points_xy=None) -> dict[str, Any]:
-    """Aperture magnitude of the lens inside theta_E from the options (zeropoint, exposure, masks)."""
+                     arc_points_xy=None, **_ellipse) -> dict[str, Any]:
+    """Aperture magnitude of the lens inside theta_E from the options (the shared rule of
+    :func:`lensmass.core.einstein_photometry.light_inside_einstein`)."""
     from lensmass.commands.common import parse_pair
-    from lensmass.core.photometry import lens_magnitude_inside
 
-    zp, exptime, exp_source = zeropoint_and_exposure(header, args.zeropoint, args.zeropoint_key, args.exptime)
-    phot = lens_magnitude_inside(
-        image, x_pix, y_pix, theta_e_pix, zeropoint=zp, exptime_s=exptime, axis_ratio=axis_ratio,
-        theta_rad=theta_rad, annulus=parse_pair(args.sky_annulus, "--sky-annulus"), arc_points_xy=arc_points_xy,
-        arc_width_pix=args.arc_width, mask_residuals=args.mask_bright,
-    )
-    phot["exptime_source"] = exp_source
-    return phot
-
-
-def photometry_note(phot: dict) -> str:
-    """One sentence describing the photometry behind the light inside theta_E."""
-    return (f"Photometry inside theta_E: {phot['flux']:.4g} +- {phot['flux_err']:.2g} counts above a sky of "
-            f"{phot['sky_per_pixel']:.4g} per pixel ({phot['sky_pixels']} annulus pixels), "
-            f"{phot['masked_pixels_in_aperture']} arc pixels masked and filled, zeropoint {phot['zeropoint']:g}, "
-            f"exposure {phot['exptime_s']:g} s ({phot.get('exptime_source', 'given')}): "
-            f"m = {phot['aperture_mag']:.3f} +- {phot['aperture_mag_err']:.3f}.")
+    return light_inside_einstein(image, header, center_x=x_pix, center_y=y_pix, theta_e_pix=theta_e_pix,
+                                 zeropoint=args.zeropoint, zeropoint_key=args.zeropoint_key, exptime=args.exptime,
+                                 annulus=parse_pair(args.sky_annulus, "--sky-annulus"), arc_points_xy=arc_points_xy,
+                                 arc_width_pix=args.arc_width, mask_residuals=args.mask_bright)
 
 
 def apply_light(args: argparse.Namespace, result: dict, *, image=None, header=None, cosmology=None,

@@ -18,15 +18,10 @@ from lensmass.commands.common import (
     parse_pair,
 )
 from lensmass.commands.light_options import LIGHT_ROWS, add_light_options, apply_light_to_measurement
+from lensmass.core.result_keys import table_rows
 
-#: Rows added to the readable table after the estimate rows.
-MEASURE_ROWS = [
-    ("theta_e_err_arcsec", "theta_E err", "arcsec"),
-    ("fit_rms_arcsec", "fit rms", "arcsec"),
-    ("ring_score", "ring score", "sigma"),
-    ("fit_axis_ratio", "axis ratio", ""),
-    ("pixel_scale_arcsec", "pixel scale", "arcsec"),
-]
+#: Rows added to the readable table after the estimate rows (the "measure" keys of the registry).
+MEASURE_ROWS = table_rows("measure")
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:

@@ -14,24 +14,13 @@ from lensmass.commands.common import (
     parse_pair,
 )
 from lensmass.core.errors import LensInputError
+from lensmass.core.result_keys import table_rows
+from lensmass.core.uncertainty import DEFAULT_SEED
 
-#: Display rows of the readable output (key, label, unit).
-SHEAR_DISPLAY = [
-    ("z_l", "z_l", ""),
-    ("z_s_effective", "z_s (eff.)", ""),
-    ("n_used", "galaxies", ""),
-    ("sis_sigma_v_kms", "SIS sigma_v", "km/s"),
-    ("sis_theta_e_arcsec", "SIS theta_E", "arcsec"),
-    ("chi2_sis", "SIS chi^2", ""),
-    ("nfw_m200_msun", "NFW M200", "Msun"),
-    ("nfw_c200", "NFW c200", ""),
-    ("nfw_r200_kpc", "NFW r200", "kpc"),
-    ("chi2_nfw", "NFW chi^2", ""),
-    ("cross_shear_pvalue", "g_x p-value", ""),
-    ("zeta", "zeta", ""),
-    ("zeta_mass_msun", "M_zeta >=", "Msun"),
-    ("zeta_radius_kpc", "  inside R", "kpc"),
-]
+#: Display rows of the readable output (key, label, unit), labels and units from the key registry.
+SHEAR_DISPLAY = table_rows(["z_l", "z_s_effective", "n_used", "sis_sigma_v_kms", "sis_theta_e_arcsec", "chi2_sis",
+                            "nfw_m200_msun", "nfw_c200", "nfw_r200_kpc", "chi2_nfw", "cross_shear_pvalue", "zeta",
+                            "zeta_mass_msun", "zeta_radius_kpc"])
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -57,7 +46,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                       help="unit of --rmin, --rmax and --zeta-radii (mpc: physical, at the lens); default arcmin")
     prof.add_argument("--linear-bins", action="store_true", help="linear instead of logarithmic bins")
     prof.add_argument("--bootstrap", type=int, default=200, help="bootstrap resamplings for profile errors (default 200, 0 = off)")
-    prof.add_argument("--seed", type=int, default=20261201, help="random seed (bootstrap, noise map)")
+    prof.add_argument("--seed", type=int, default=DEFAULT_SEED, help="random seed (bootstrap, noise map)")
     prof.add_argument("--zeta-radii", metavar="INNER,OUTER", help="zeta annulus in --unit (default sqrt(rmin rmax), rmax)")
     add_cosmology_options(parser)
     add_halo_options(parser)

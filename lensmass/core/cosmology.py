@@ -52,7 +52,7 @@ def resolve_cosmology(
     --------
     >>> resolve_cosmology("WMAP9").name
     'WMAP9'
-    >>> resolve_cosmology(h0=70, om0=0.3).Ode0
+    >>> float(resolve_cosmology(h0=70, om0=0.3).Ode0)
     0.7
     """
     from astropy.cosmology import Cosmology, FlatLambdaCDM, LambdaCDM, realizations

@@ -87,8 +87,8 @@ def theta_e_from_pixels(radius_pix: float, radius_err_pix: float, pixel_scale_ar
 
     Examples
     --------
-    >>> theta_e_from_pixels(7.0, 0.3, 0.2, 0.002)
-    (1.4, 0.0632...)
+    >>> [round(v, 4) for v in theta_e_from_pixels(7.0, 0.3, 0.2, 0.002)]  # hypot(0.3 * 0.2, 1.4 * 0.002 / 0.2)
+    [1.4, 0.0616]
     """
     s = float(pixel_scale_arcsec)
     theta = float(radius_pix) * s
@@ -213,15 +213,15 @@ def measure_theta_e_from_points(
                   else "circle fit (algebraic start, geometric least squares)")
         notes.extend(fit.warnings)
     elif shape == "ellipse":
-        fit = fit_ellipse(ex, ey, center=sky_center, point_err=point_err)
-        theta, fit_err, rms = fit.theta_e, fit.theta_e_err, fit.rms
-        cxy = (fit.center_x, fit.center_y)
-        axis_ratio = fit.axis_ratio
+        ellipse = fit_ellipse(ex, ey, center=sky_center, point_err=point_err)
+        theta, fit_err, rms = ellipse.theta_e, ellipse.theta_e_err, ellipse.rms
+        cxy = (ellipse.center_x, ellipse.center_y)
+        axis_ratio = ellipse.axis_ratio
         # Position angle of the major axis, east of north (ex = east, ey = north).
-        phi = np.radians(fit.angle_deg)
+        phi = np.radians(ellipse.angle_deg)
         pa = float(np.degrees(np.arctan2(np.cos(phi), np.sin(phi))) % 180.0)
         method = "ellipse fit, theta_E = sqrt(a b)" + (" with the centre held at the lens centre" if center else "")
-        notes.extend(fit.warnings)
+        notes.extend(ellipse.warnings)
     else:
         est = multiple_image_radius(ex, ey, center=sky_center, point_err=point_err)
         theta, fit_err, rms = est.radius, est.radius_err, float("nan")

@@ -16,6 +16,9 @@ from lensmass.core.cosmology import angular_diameter_distances_mpc, cosmology_la
 from lensmass.core.errors import LensInputError
 from lensmass.core.lensing import arcsec_to_mpc, sigma_crit_msun_per_mpc2
 from lensmass.core.nfw import HALO_DEFINITIONS, nfw_mass_for_einstein_radius, overdensity_density_msun_per_mpc3
+from lensmass.core.quantities import to_arcsec, to_plain
+from lensmass.core.result_keys import keys_in
+from lensmass.core.results import LensResult
 from lensmass.core.sis import sis_sigma_v_kms
 from lensmass.core.uncertainty import (
     DEFAULT_SAMPLES,
@@ -25,22 +28,9 @@ from lensmass.core.uncertainty import (
     summarize_many,
 )
 
-#: Keys whose values are derived numbers (each gets a median and intervals).
-DERIVED_KEYS = (
-    "theta_e_arcsec",
-    "z_l",
-    "z_s",
-    "d_l_mpc",
-    "d_s_mpc",
-    "d_ls_mpc",
-    "sigma_cr_msun_per_pc2",
-    "r_e_kpc",
-    "mass_einstein_msun",
-    "sis_sigma_v_kms",
-    "nfw_m200_msun",
-    "nfw_c200",
-    "nfw_r200_kpc",
-)
+#: Keys whose values are derived numbers (each gets a median and intervals): the "estimate" group of
+#: the key registry, read live so a registered key appears here too.
+DERIVED_KEYS = keys_in("estimate")
 
 #: Einstein radii below this are treated as galaxy-scale for the NFW caveat (common practice:
 #: about 1" for massive single galaxies, several arcsec for groups).
@@ -79,23 +69,30 @@ def derive_quantities(theta_e_arcsec, z_l, z_s, cosmo, concentration_of_mass: Ca
     }
 
 
-def _check_positive(name: str, value, flag: str) -> np.ndarray:
-    arr = np.asarray(value, dtype=float)
+def _as_floats(value, what: str, name: str) -> np.ndarray:
+    try:
+        return np.asarray(value, dtype=float)
+    except (TypeError, ValueError):
+        raise LensInputError(f"{what} (`{name}`) must be a number or an array of numbers, got {value!r}.") from None
+
+
+def _check_positive(what: str, value, name: str) -> np.ndarray:
+    arr = _as_floats(value, what, name)
     bad = ~np.isfinite(arr) | (arr <= 0)
     if np.any(bad):
-        where = "" if arr.ndim == 0 else f" (entry {int(np.flatnonzero(bad)[0])})"
+        where = "" if arr.ndim == 0 else f" (element {int(np.flatnonzero(bad)[0])})"
         shown = arr if arr.ndim == 0 else arr.ravel()[np.flatnonzero(bad)[0]]
-        raise LensInputError(f"{name} must be a positive finite number{where}, got {shown}; check {flag}.")
+        raise LensInputError(f"{what} (`{name}`) must be a positive finite number{where}, got {shown}.")
     return arr
 
 
-def _check_error(name: str, value, flag: str) -> float:
+def _check_error(what: str, value, name: str) -> float:
     try:
         v = float(value or 0.0)
     except (TypeError, ValueError):
-        raise LensInputError(f"The uncertainty of {name} must be a number, got {value!r}; check {flag}.") from None
+        raise LensInputError(f"The uncertainty of {what} (`{name}`) must be a number, got {value!r}.") from None
     if not np.isfinite(v) or v < 0:
-        raise LensInputError(f"The uncertainty of {name} must be zero or positive, got {value}; check {flag}.")
+        raise LensInputError(f"The uncertainty of {what} (`{name}`) must be zero or positive, got {value}.")
     return v
 
 
@@ -103,9 +100,10 @@ def _source_redshift_model(z_s, z_s_range, z_s_distribution):
     """Validate the three ways of giving z_s; return (kind, description)."""
     given = sum(x is not None for x in (z_s, z_s_range, z_s_distribution))
     if given == 0:
-        raise LensInputError("No source redshift: give --zs, or --zs-range ZMIN,ZMAX or --zs-table FILE when it is unknown.")
+        raise LensInputError("No source redshift: give it (`z_s`), or a range (`z_s_range`) or a table "
+                             "(`z_s_distribution`) when it is unknown.")
     if given > 1:
-        raise LensInputError("Give the source redshift one way only: --zs, --zs-range or --zs-table.")
+        raise LensInputError("Give the source redshift one way only: `z_s`, `z_s_range` or `z_s_distribution`.")
     if z_s_range is not None:
         try:
             lo, hi = (float(v) for v in z_s_range)
@@ -137,32 +135,37 @@ def estimate(
     samples: int = DEFAULT_SAMPLES,
     seed: int | None = DEFAULT_SEED,
     versus_zs_points: int = 25,
-) -> dict[str, Any]:
+    strict: bool = True,
+) -> LensResult:
     """Einstein radius and redshifts to distances, Sigma_cr, Einstein mass, SIS and NFW masses.
 
     Parameters
     ----------
-    theta_e_arcsec, z_l, z_s : float or array_like
-        Einstein radius (arcsec), lens and source redshifts; arrays broadcast and
-        are computed without a Python loop per lens.
+    theta_e_arcsec, z_l, z_s : float, array_like or astropy Quantity
+        Einstein radius (arcsec, or a Quantity in any angle unit), lens and source
+        redshifts; arrays broadcast and are computed without a Python loop per lens.
     cosmology : str or astropy Cosmology, optional
         Preset name of astropy's (default ``"Planck18"``) or a cosmology object.
     concentration : {"duffy08", "dutton14"} or float
         c(M, z) relation for the NFW inversion, or a fixed concentration.
     halo_definition : {"200c", "200m", "vir"}
         Overdensity of the NFW halo boundary (default 200 x critical at z_l).
-    theta_e_err, z_l_err, z_s_err : float
-        1-sigma Gaussian errors, propagated by Monte Carlo (scalar input only).
+    theta_e_err, z_l_err, z_s_err : float or array_like
+        1-sigma Gaussian errors, propagated by Monte Carlo; for arrays each lens i gets its own
+        draws with seed ``seed + i`` (the same numbers as a call for that lens alone).
     z_s_range, z_s_distribution : optional
         For an unknown source redshift instead of ``z_s``: a uniform range
         ``(zmin, zmax)`` or a table ``(z, weight)``; every number is marginalised.
     samples, seed : int
         Monte Carlo size (default 10^4) and seed (reproducible by default).
+    strict : bool
+        For arrays: True (default) refuses the call at the first bad lens, naming it; False
+        computes the others and gives a reason per bad lens in ``problems`` (NaN values there).
 
     Returns
     -------
-    dict
-        Keys of :data:`DERIVED_KEYS` plus ``cosmology``, ``notes`` (caveats),
+    LensResult
+        A mapping (converts to an astropy QTable with ``to_table()``) with the keys of :data:`DERIVED_KEYS` plus ``cosmology``, ``notes`` (caveats),
         ``models`` (which model and assumption produced each number), and, when
         any uncertainty is given, ``medians``, ``intervals68`` ([p16, p84]) and
         ``intervals95`` ([p2.5, p97.5]); with an unknown z_s also ``versus_zs``.
@@ -177,21 +180,41 @@ def estimate(
     >>> r = estimate(1.0, 0.3, 1.0, cosmology="Planck18")
     >>> 1e10 < r["mass_einstein_msun"] < 1e12
     True
+    >>> import astropy.units as u
+    >>> r2 = estimate(1.0 / 60 * u.arcmin, 0.3, 1.0)  # any angle unit
+    >>> bool(abs(r2["mass_einstein_msun"] / r["mass_einstein_msun"] - 1) < 1e-12)
+    True
+    >>> many = estimate([1.0, -1.0, 2.0], 0.3, 1.0, strict=False)  # a reason per bad lens
+    >>> many["problems"][1]
+    'The Einstein radius (`theta_e_arcsec`) must be a positive finite number, got -1.0.'
+    >>> len(many.to_table())
+    3
     """
     if halo_definition not in HALO_DEFINITIONS:
         raise LensInputError(f"Unknown halo definition '{halo_definition}': use one of {', '.join(HALO_DEFINITIONS)}.")
     cosmo = resolve_cosmology(cosmology)
     c_of_m, c_label = concentration_relation(concentration, halo_definition)
-    theta = _check_positive("The Einstein radius", theta_e_arcsec, "--theta-e")
-    zl = _check_positive("The lens redshift", z_l, "--zl")
-    errs = {
-        "theta": _check_error("theta_E", theta_e_err, "--theta-e-err"),
-        "zl": _check_error("z_l", z_l_err, "--zl-err"),
-        "zs": _check_error("z_s", z_s_err, "--zs-err"),
-    }
+    theta_e_arcsec = to_arcsec(theta_e_arcsec, "The Einstein radius", "theta_e_arcsec")
+    theta_e_err = to_arcsec(theta_e_err, "The error of the Einstein radius", "theta_e_err")
+    z_l, z_s, z_l_err, z_s_err = (to_plain(v, what, name) for v, what, name in (
+        (z_l, "The lens redshift", "z_l"), (z_s, "The source redshift", "z_s"),
+        (z_l_err, "The error of the lens redshift", "z_l_err"), (z_s_err, "The error of the source redshift", "z_s_err")))
     kind, zs_model = _source_redshift_model(z_s, z_s_range, z_s_distribution)
+    if kind == "fixed" and any(np.ndim(v) for v in (theta_e_arcsec, z_l, z_s, theta_e_err, z_l_err, z_s_err)):
+        from lensmass.core.estimate_arrays import estimate_arrays
+
+        return estimate_arrays(theta_e_arcsec, z_l, z_s, theta_e_err, z_l_err, z_s_err, cosmo=cosmo, concentration=concentration,
+                               c_of_m=c_of_m, c_label=c_label, halo_definition=halo_definition, samples=samples, seed=seed,
+                               strict=strict)
+    theta = _check_positive("The Einstein radius", theta_e_arcsec, "theta_e_arcsec")
+    zl = _check_positive("The lens redshift", z_l, "z_l")
+    errs = {
+        "theta": _check_error("theta_E", theta_e_err, "theta_e_err"),
+        "zl": _check_error("z_l", z_l_err, "z_l_err"),
+        "zs": _check_error("z_s", z_s_err, "z_s_err"),
+    }
     if kind == "fixed":
-        zs = _check_positive("The source redshift", z_s, "--zs")
+        zs = _check_positive("The source redshift", z_s, "z_s")
         zl_b, zs_b = np.broadcast_arrays(zl, zs)
         in_front = np.flatnonzero(np.ravel(zs_b <= zl_b))
         if in_front.size:
@@ -212,7 +235,8 @@ def estimate(
     scalar_input = theta.ndim == 0 and zl.ndim == 0 and (zs is None or np.ndim(zs) == 0)
     wants_mc = kind != "fixed" or any(v > 0 for v in errs.values())
     if wants_mc and not scalar_input:
-        raise LensInputError("Uncertainties are propagated for one lens at a time: call estimate per lens, or use 'lensmass batch'.")
+        raise LensInputError("An unknown source redshift (range or table) is marginalised for one lens at a time: "
+                             "call estimate per lens.")
     n_samples = int(samples)
     if wants_mc and n_samples < 100:
         raise LensInputError(f"Use at least 100 Monte Carlo samples, got {samples}.")
@@ -266,7 +290,7 @@ def estimate(
     notes.extend(model_notes(theta, result["nfw_m200_msun"], c_label))
     result["notes"] = notes
     result["models"] = model_descriptions(result["cosmology"], c_label, halo_definition)
-    return result
+    return LensResult(result)
 
 
 def monte_carlo_notes(n_samples: int, n_rejected: int, n_nfw_failed: int, n_kept: int) -> list[str]:

@@ -97,6 +97,7 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
     if idx.size == 0:
         return results
     central = derive_quantities(theta[idx], zl[idx], zs[idx], cosmo, c_of_m, halo_definition)
+    keys = tuple(DERIVED_KEYS)  # one read of the registry for all rows
 
     wants = (t_err > 0) | (zl_err > 0) | (zs_err > 0)
     mc_rows, draws, rejected = [], [], {}
@@ -117,15 +118,15 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
         lengths = np.array([d[0].size for d in draws])
         stacked = derive_quantities(np.concatenate([d[0] for d in draws]), np.concatenate([d[1] for d in draws]),
                                     np.concatenate([d[2] for d in draws]), cosmo, c_of_m, halo_definition)
-        pct = {key: _row_percentiles(stacked[key], lengths) for key in DERIVED_KEYS}
+        pct = {key: _row_percentiles(stacked[key], lengths) for key in keys}
         m200 = stacked["nfw_m200_msun"]
         bounds = np.concatenate([[0], np.cumsum(lengths)])
         for j, i in enumerate(mc_rows):
             seg = m200[bounds[j]:bounds[j + 1]]
             summaries[i] = {
-                "medians": {k: float(pct[k][j, 2]) for k in DERIVED_KEYS},
-                "intervals68": {k: [float(pct[k][j, 1]), float(pct[k][j, 3])] for k in DERIVED_KEYS},
-                "intervals95": {k: [float(pct[k][j, 0]), float(pct[k][j, 4])] for k in DERIVED_KEYS},
+                "medians": {k: float(pct[k][j, 2]) for k in keys},
+                "intervals68": {k: [float(pct[k][j, 1]), float(pct[k][j, 3])] for k in keys},
+                "intervals95": {k: [float(pct[k][j, 0]), float(pct[k][j, 4])] for k in keys},
                 "_nfw_failed": int((~np.isfinite(seg)).sum()), "_n_kept": int(seg.size),
             }
 
@@ -139,7 +140,7 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
             result.update({k: s[k] for k in ("medians", "intervals68", "intervals95")})
             result["mc_samples"], result["mc_rejected"], result["mc_seed"] = n, rejected[i], int(seeds[i])
             notes.extend(monte_carlo_notes(n, rejected[i], s["_nfw_failed"], s["_n_kept"]))
-        for key in DERIVED_KEYS:
+        for key in keys:
             result[key] = float(central[key][j])
         notes.extend(model_notes(theta[i], result["nfw_m200_msun"], c_label))
         result["notes"] = notes

@@ -22,9 +22,16 @@ def sigma_crit_msun_per_mpc2(d_l_mpc, d_s_mpc, d_ls_mpc) -> np.ndarray:
 
     Examples
     --------
-    >>> s = sigma_crit_msun_per_mpc2(1000.0, 2000.0, 1000.0)  # D = 2 Gpc
+    >>> s = sigma_crit_msun_per_mpc2(1000.0, 2000.0, 1000.0)  # D_l = D_ls = 1 Gpc, D_s = 2 Gpc
     >>> round(float(s) * 1e-12)  # Msun / pc^2
-    831
+    3326
+
+    The same number from astropy's constants and units:
+
+    >>> import astropy.constants as const, astropy.units as u
+    >>> sc = const.c**2 / (4 * np.pi * const.G) * (2000 * u.Mpc) / (1000 * u.Mpc * 1000 * u.Mpc)
+    >>> round(float(sc.to_value(u.Msun / u.pc**2)))
+    3326
     """
     d_l, d_s, d_ls = (np.asarray(v, dtype=float) for v in (d_l_mpc, d_s_mpc, d_ls_mpc))
     return C2_OVER_4PIG_MSUN_PER_MPC * d_s / (d_l * d_ls)

@@ -213,9 +213,3 @@ def _peak_radius(radii: np.ndarray, values: np.ndarray, k: int) -> float:
     den = ym - 2 * y0 + yp
     shift = 0.5 * (ym - yp) / den if den < 0 else 0.0
     return float(radii[k] + np.clip(shift, -1, 1) * (radii[1] - radii[0]))
-
-
-def refine_points_to_ridge(image: np.ndarray, x, y, center_x: float, center_y: float, **kwargs) -> list[RidgePoint]:
-    """:func:`refine_to_ridge` for each of several points (same options)."""
-    return [refine_to_ridge(image, float(a), float(b), center_x, center_y, **kwargs)
-            for a, b in zip(np.ravel(x), np.ravel(y))]

@@ -10,6 +10,9 @@ The excess surface density Delta Sigma = Sigma_cr g_t uses each galaxy's own Sig
 weighted by w Sigma_cr^-2 (common practice, the minimum-variance weight for Delta Sigma).
 
 Everything is vectorised over galaxies (``numpy.bincount``), so 10^7 galaxies fit in memory.
+
+The geometry lives in :mod:`lensmass.core.shear_geometry` and the source selection and
+lensing efficiency in :mod:`lensmass.core.shear_sources`; their public names are re-exported here.
 """
 
 from __future__ import annotations
@@ -18,326 +21,40 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from lensmass.core.constants import ARCSEC_RAD
-from lensmass.core.cosmology import angular_diameter_distances_mpc
 from lensmass.core.errors import LensInputError
-from lensmass.core.lensing import sigma_crit_msun_per_mpc2
+from lensmass.core.shear_geometry import (
+    _BLOCK,
+    radius_arcsec,
+    sky_offsets_and_radius,
+    take_where,
+    tangent_plane_offsets_arcsec,
+    tangent_plane_to_sky,
+    tangential_cross,
+    within_radii,
+)
+from lensmass.core.shear_sources import (
+    _BETA_GRID_NODES,
+    _BETA_ZMAX,
+    DEFAULT_Z_MARGIN,
+    DROP_REASONS,
+    _beta_from_table,
+    _beta_table,
+    _lensed_blocks,
+    lens_distance_mpc,
+    lensed_sources,
+    lensing_efficiency,
+    select_sources,
+)
 
-#: Order in which a bad row is attributed to one reason (each dropped row counted once).
-DROP_REASONS = ("non_finite", "ellipticity_ge_1", "weight_not_positive", "source_not_behind_lens")
-#: Default margin: sources must have z_s > z_l + margin (common practice: about 0.1).
-DEFAULT_Z_MARGIN = 0.1
+__all__ = ["DROP_REASONS", "DEFAULT_Z_MARGIN", "tangent_plane_offsets_arcsec", "tangent_plane_to_sky", "radius_arcsec",
+           "sky_offsets_and_radius", "within_radii", "tangential_cross", "take_where", "select_sources",
+           "lens_distance_mpc", "lensing_efficiency", "lensed_sources", "catalog_shear_profile", "radial_bin_edges",
+           "ModelCells", "ShearProfile", "FineProfile", "profile_subbin_edges", "shear_profile"]
 
 _RADIAL_SUBBINS = 8
 _BETA_CELLS = 4
 _BOOTSTRAP_GROUPS = 2000
 
-
-# ---------------------------------------------------------------- geometry
-_BLOCK = 1 << 15  # rows per block of the element-wise passes: their temporaries stay in the CPU cache
-
-
-def _blockwise(fn, *arrays):
-    """``fn(*arrays)`` evaluated in blocks of rows into preallocated outputs.
-
-    ``fn`` is element-wise, so each output element is exactly what one call on the
-    whole arrays gives; blocks keep the many temporaries in cache (about 2x faster
-    than whole-array passes for 10^6 rows). Scalars and short arrays go straight through.
-    """
-    arrays = [a if a.dtype == bool else np.asarray(a, float) for a in map(np.asarray, arrays)]
-    shape = np.broadcast_shapes(*(a.shape for a in arrays))
-    n = int(np.prod(shape))
-    if len(shape) != 1 or n <= 2 * _BLOCK:
-        return fn(*arrays)
-    arrays = [np.broadcast_to(a, shape) for a in arrays]
-    outs = None
-    for start in range(0, n, _BLOCK):
-        part = fn(*(a[start:start + _BLOCK] for a in arrays))
-        if outs is None:
-            outs = [np.empty(n, np.asarray(r).dtype) for r in part]
-        for out, r in zip(outs, part):
-            out[start:start + _BLOCK] = r
-    return tuple(outs)
-
-
-def tangent_plane_offsets_arcsec(ra_deg, dec_deg, ra0_deg: float, dec0_deg: float):
-    """Gnomonic offsets (x east, y north) in arcsec of the tangent plane at (ra0, dec0).
-
-    Points more than 90 degrees from the centre come back as NaN.
-
-    Examples
-    --------
-    >>> x, y = tangent_plane_offsets_arcsec(10.0 + 1 / 3600, 0.0, 10.0, 0.0)
-    >>> round(float(x), 6), round(float(y), 6)
-    (1.0, 0.0)
-    """
-    return _blockwise(lambda ra, dec: _gnomonic(ra, dec, float(ra0_deg), float(dec0_deg)), ra_deg, dec_deg)
-
-
-def _gnomonic(ra_deg, dec_deg, ra0_deg: float, dec0_deg: float):
-    """Gnomonic projection (Calabretta & Greisen 2002, zenithal TAN) with half-angle tangents.
-
-    With t = tan(dRA / 2) and u = tan(Dec / 2): sin = 2t / (1 + t^2), cos = (1 - t^2) / (1 + t^2)
-    (common practice, the half-angle identities), so x = cos Dec sin dRA / cos c and
-    y = (cos Dec0 sin Dec - sin Dec0 cos Dec cos dRA) / cos c share one denominator
-    D = cos c (1 + t^2)(1 + u^2): two tangents (vectorised in numpy) instead of sines and
-    cosines, and no wrapping of dRA (tan of the half angle has a period of 360 degrees).
-    """
-    half = np.pi / 360.0  # degrees to half-angle radians
-    t = np.tan((ra_deg - ra0_deg) * half)
-    u = np.tan(dec_deg * half)
-    s0, c0 = np.sin(np.radians(dec0_deg)), np.cos(np.radians(dec0_deg))
-    t2 = t * t
-    ua = u * (1.0 + t2)  # all terms below are halved: the common factor 2 cancels
-    one_u2 = 1.0 - u * u
-    p = one_u2 * (1.0 - t2)
-    d = ua * s0 + p * (0.5 * c0)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        inv = (1.0 / ARCSEC_RAD) / d
-    behind = d <= 0
-    if np.any(behind):
-        inv[behind] = np.nan
-    x = t * one_u2 * inv
-    y = (ua * c0 - p * (0.5 * s0)) * inv
-    return x, y
-
-
-def tangent_plane_to_sky(x_arcsec, y_arcsec, ra0_deg: float, dec0_deg: float):
-    """Inverse gnomonic projection: offsets (x east, y north, arcsec) to RA, Dec in degrees."""
-    xi = np.asarray(x_arcsec, float) * ARCSEC_RAD
-    eta = np.asarray(y_arcsec, float) * ARCSEC_RAD
-    rho = np.hypot(xi, eta)
-    c = np.arctan(rho)
-    d0 = np.radians(dec0_deg)
-    sin_c, cos_c = np.sin(c), np.cos(c)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        frac = np.where(rho > 0, eta * sin_c / rho, 0.0)
-    dec = np.arcsin(cos_c * np.sin(d0) + frac * np.cos(d0))
-    ra = np.radians(ra0_deg) + np.arctan2(xi * sin_c, rho * np.cos(d0) * cos_c - eta * np.sin(d0) * sin_c)
-    return np.degrees(ra) % 360.0, np.degrees(dec)
-
-
-def _radius(x, y):
-    return np.arctan(np.sqrt(x * x + y * y) * ARCSEC_RAD) * (1.0 / ARCSEC_RAD)
-
-
-def radius_arcsec(x_arcsec, y_arcsec) -> np.ndarray:
-    """True angular distance from the centre for gnomonic offsets: arctan(rho)."""
-    return _blockwise(lambda x, y: (_radius(x, y),), x_arcsec, y_arcsec)[0]
-
-
-def sky_offsets_and_radius(ra_deg, dec_deg, ra0_deg: float, dec0_deg: float):
-    """:func:`tangent_plane_offsets_arcsec` and :func:`radius_arcsec` in one pass, with a mask of
-    the positions that project (finite offsets): (x, y, theta, placed)."""
-    def one(ra, dec):
-        x, y = _gnomonic(ra, dec, float(ra0_deg), float(dec0_deg))
-        theta = _radius(x, y)
-        return x, y, theta, np.isfinite(theta)  # NaN in x or y gives NaN; neither is ever infinite
-
-    return _blockwise(one, ra_deg, dec_deg)
-
-
-def within_radii(theta_arcsec, usable, *ranges) -> list[np.ndarray]:
-    """For each (inner, outer) range, in the running union, the usable rows with inner <= theta < outer.
-
-    Returns the first range's mask and the mask of rows in any of the ranges.
-    """
-    def masks(theta, ok):
-        with np.errstate(invalid="ignore"):
-            first = ok & (theta >= ranges[0][0]) & (theta < ranges[0][1])
-            union = first.copy()
-            for lo, hi in ranges[1:]:
-                union |= ok & (theta >= lo) & (theta < hi)
-        return first, union
-
-    return list(_blockwise(masks, theta_arcsec, usable))
-
-
-def tangential_cross(e1, e2, x_arcsec, y_arcsec) -> tuple[np.ndarray, np.ndarray]:
-    """Tangential and cross components of (e1, e2) about the origin of the offsets.
-
-    e_t = -(e1 cos 2phi + e2 sin 2phi), e_x = e1 sin 2phi - e2 cos 2phi, phi from east
-    toward north (Bartelmann & Schneider 2001, eq. 5.5 in this sign convention).
-
-    Examples
-    --------
-    >>> et, ex = tangential_cross(-0.1, 0.0, 10.0, 0.0)  # due east, stretched north-south
-    >>> round(float(et), 6), float(ex) == 0
-    (0.1, True)
-    """
-    return _blockwise(_tangential_cross, e1, e2, x_arcsec, y_arcsec)
-
-
-def _tangential_cross(e1, e2, x, y):
-    xx, yy = x * x, y * y
-    with np.errstate(divide="ignore", invalid="ignore"):
-        inv = 1.0 / (xx + yy)
-        cos2 = (xx - yy) * inv
-        sin2 = (x + x) * y * inv
-    return -(e1 * cos2 + e2 * sin2), e1 * sin2 - e2 * cos2
-
-
-def take_where(mask, *arrays) -> list[np.ndarray]:
-    """The elements of each array where ``mask`` is true (index once, then ``take``: much faster
-    than boolean indexing of many long arrays)."""
-    index = np.flatnonzero(mask)
-    return [np.asarray(a).take(index) for a in arrays]
-
-
-# ---------------------------------------------------------------- selection
-def select_sources(e1, e2, weight, z, z_l: float, *, positions_ok=None,
-                   z_margin: float = DEFAULT_Z_MARGIN) -> tuple[np.ndarray, dict[str, int]]:
-    """Boolean mask of usable galaxies and the number dropped for each reason.
-
-    A row is dropped for a non-finite value (in any column given, including the
-    positions when ``positions_ok`` is passed), an ellipticity modulus of 1 or more,
-    a non-positive weight, or a redshift not above ``z_l + z_margin``; each row is
-    counted once, under the first of :data:`DROP_REASONS` that applies.
-    ``z`` may be None (a single source redshift is checked by the caller).
-    """
-    arrays = [e1, e2, weight] + ([positions_ok] if positions_ok is not None else []) + ([z] if z is not None else [])
-    z_min = z_l + z_margin
-
-    tally = np.zeros(len(DROP_REASONS), np.int64)
-
-    def reasons(e1, e2, w, *rest):
-        """Usable rows; the rows each reason in DROP_REASONS is the first to drop are counted."""
-        finite = np.isfinite(e1) & np.isfinite(e2) & np.isfinite(w)
-        if positions_ok is not None:
-            finite &= rest[0]
-        if z is not None:
-            finite &= np.isfinite(rest[-1])
-        with np.errstate(invalid="ignore"):
-            bad_e = finite & (e1 * e1 + e2 * e2 >= 1.0)
-            ok = finite & ~bad_e
-            bad_w = ok & ~(w > 0)
-            ok &= ~bad_w
-            bad_z = ok & ~(rest[-1] > z_min) if z is not None else np.zeros_like(ok)
-            ok &= ~bad_z
-        tally[:] += [finite.size - np.count_nonzero(finite), np.count_nonzero(bad_e), np.count_nonzero(bad_w),
-                     np.count_nonzero(bad_z)]
-        return (ok,)
-
-    (ok,) = _blockwise(reasons, *arrays)
-    return ok, {name: int(count) for name, count in zip(DROP_REASONS, tally)}
-
-
-def lens_distance_mpc(z_l: float, cosmo) -> float:
-    """Angular-diameter distance of the lens in Mpc (core distance grid)."""
-    return float(angular_diameter_distances_mpc(z_l, z_l + 1.0, cosmo)[0])
-
-
-def lensing_efficiency(z_l: float, z_s, cosmo) -> tuple[np.ndarray, np.ndarray, float]:
-    """Per source: beta = D_ls / D_s and Sigma_cr (Msun / Mpc^2); and D_l in Mpc.
-
-    D_ls / D_s is tabulated once on a fine redshift grid with the core distances
-    (:func:`lensmass.core.cosmology.angular_diameter_distances_mpc`) and interpolated
-    linearly per galaxy (relative error below 1e-6 for z_s up to 20; no per-galaxy
-    astropy call); Sigma_cr = c^2 D_s / (4 pi G D_l D_ls) from :mod:`lensmass.core.lensing`.
-    Sources at or in front of the lens get beta = 0 and an infinite Sigma_cr.
-    """
-    z_s = np.asarray(z_s, float)
-    d_l = lens_distance_mpc(z_l, cosmo)
-    if z_s.size <= _BETA_GRID_NODES:
-        _, d_s, d_ls = angular_diameter_distances_mpc(z_l, z_s, cosmo)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            beta = np.where(z_s > z_l, d_ls / d_s, 0.0)
-    else:
-        beta = _interp_beta(z_s, z_l, cosmo)
-
-    def sigma_cr_of(b):
-        with np.errstate(divide="ignore"):
-            return (sigma_crit_msun_per_mpc2(d_l, 1.0, b),)  # D_s / D_ls = 1 / beta
-
-    return beta, _blockwise(sigma_cr_of, beta)[0], d_l
-
-
-_BETA_GRID_NODES = 100_000
-_BETA_ZMAX = 20.0
-_BETA_SOFT = 0.05  # grid uniform in ln(z - z_l + 0.05): dense where D_ls / D_s bends most
-_BETA_TABLES: dict[tuple[str, float], tuple[float, float, np.ndarray]] = {}
-
-
-def _beta_table(z_l: float, cosmo) -> tuple[float, float, np.ndarray]:
-    """D_ls / D_s tabulated uniformly in u = ln(z - z_l + soft): (u0, step, values), cached."""
-    key = (repr(cosmo), float(z_l))
-    table = _BETA_TABLES.get(key)
-    if table is None:
-        u = np.linspace(np.log(_BETA_SOFT), np.log(_BETA_ZMAX - z_l + _BETA_SOFT), _BETA_GRID_NODES)
-        z = z_l + np.exp(u) - _BETA_SOFT
-        z[0] = z_l
-        _, d_s, d_ls = angular_diameter_distances_mpc(z_l, z[1:], cosmo)
-        table = (float(u[0]), float(u[1] - u[0]), np.concatenate([[0.0], d_ls / d_s]))
-        if len(_BETA_TABLES) > 16:
-            _BETA_TABLES.clear()
-        _BETA_TABLES[key] = table
-    return table
-
-
-def _interp_beta(z, z_l: float, cosmo) -> np.ndarray:
-    """Linear interpolation of the table (direct index, no search); exact route past its end."""
-    table = _beta_table(z_l, cosmo)
-    return _blockwise(lambda zb: (_beta_from_table(zb, z_l, table, cosmo),), np.asarray(z, float))[0]
-
-
-def _beta_from_table(z: np.ndarray, z_l: float, table, cosmo) -> np.ndarray:
-    """One block of :func:`_interp_beta`."""
-    u0, step, values = table
-    with np.errstate(invalid="ignore", divide="ignore"):
-        t = (np.log(np.maximum(z - z_l, 0.0) + _BETA_SOFT) - u0) * (1.0 / step)
-    i = np.clip(t.astype(np.int64), 0, values.size - 2)
-    lo = values.take(i)
-    beta = lo + (t - i) * (values.take(i + 1) - lo)
-    beta[~(z > z_l)] = 0.0
-    far = z > _BETA_ZMAX
-    if np.any(far):
-        _, d_s, d_ls = angular_diameter_distances_mpc(z_l, z[far], cosmo)
-        beta[far] = d_ls / d_s
-    return beta
-
-
-def lensed_sources(mask, theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight, z_s, z_l: float, cosmo):
-    """The galaxies where ``mask`` holds, ready for :func:`shear_profile`, in one pass over blocks.
-
-    Returns their radius, tangential and cross ellipticity, weight, D_ls / D_s and Sigma_cr
-    (as :func:`take_where`, :func:`tangential_cross` and :func:`lensing_efficiency` give them),
-    and D_l. ``z_s`` is a per-galaxy column or one redshift for all.
-    """
-    mask = np.asarray(mask, bool)
-    n = int(np.count_nonzero(mask))
-    d_l = lens_distance_mpc(z_l, cosmo)
-    if np.ndim(z_s) == 0 or n <= _BETA_GRID_NODES:
-        columns = [theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight] + ([] if np.ndim(z_s) == 0 else [z_s])
-        t_n, x_n, y_n, e1_n, e2_n, w_n, *z_n = take_where(mask, *columns)
-        beta, sigma_cr, _ = lensing_efficiency(z_l, z_n[0] if z_n else z_s, cosmo)
-        return (t_n, *tangential_cross(e1_n, e2_n, x_n, y_n), w_n, beta, sigma_cr, d_l)
-    outs = [np.empty(n) for _ in range(6)]
-    pos = 0
-    table = _beta_table(z_l, cosmo)
-    beta_of = lambda z: _beta_from_table(z, z_l, table, cosmo)  # noqa: E731
-    for block in _lensed_blocks(mask, (theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight), z_s, beta_of, d_l):
-        k = block[0].size
-        for out, values in zip(outs, block):
-            out[pos:pos + k] = values
-        pos += k
-    return (*outs, d_l)
-
-
-def _lensed_blocks(mask, columns, z_col, beta_of, d_l: float, beta_one: float | None = None):
-    """Per block of rows, the masked galaxies' (theta, e_t, e_x, w, beta, Sigma_cr) from the
-    columns (theta, x, y, e1, e2, w) and the redshift column ``z_col`` (D_ls / D_s = ``beta_of(z)``),
-    or one D_ls / D_s ``beta_one`` for all when ``z_col`` is None. Blocks with no such galaxy are skipped."""
-    columns = [np.asarray(a, float) for a in columns]
-    z_col = None if z_col is None else np.asarray(z_col, float)
-    for start in range(0, mask.size, _BLOCK):
-        index = np.flatnonzero(mask[start:start + _BLOCK])
-        if not index.size:
-            continue
-        t, x, y, g1, g2, w = (a[start:start + _BLOCK].take(index) for a in columns)
-        beta = np.full(t.size, beta_one) if z_col is None else beta_of(z_col[start:start + _BLOCK].take(index))
-        with np.errstate(divide="ignore"):
-            sigma_cr = sigma_crit_msun_per_mpc2(d_l, 1.0, beta)  # D_s / D_ls = 1 / beta
-        yield (t, *_tangential_cross(g1, g2, x, y), w, beta, sigma_cr)
 
 
 def catalog_shear_profile(mask, in_bins, theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight, z_s, z_l: float, cosmo,

@@ -23,11 +23,13 @@ from PySide6.QtGui import QColor, QImage, QPen
 from PySide6.QtWidgets import (QCheckBox, QComboBox, QFormLayout, QGridLayout, QGroupBox, QHBoxLayout, QLabel,
                                QLineEdit, QPushButton, QVBoxLayout, QWidget)
 
-from lensmass.commands.common import format_number
-from lensmass.commands.light_options import LIGHT_ROWS, photometry_note, zeropoint_and_exposure
+from lensmass.core.result_text import format_number, interval_text
+from lensmass.core.einstein_photometry import light_inside_einstein, photometry_note
+from lensmass.core.result_keys import fact, keys_in
 from lensmass.core.errors import LensInputError
 from lensmass.core.sun_magnitudes import known_bands
-from lensmass.gui.results_panel import interval_text
+from lensmass.core.uncertainty import DEFAULT_SAMPLES
+from lensmass.gui.words import window_words
 
 LAYER = "light_photometry"
 APERTURE_COLOUR = "#ffd27f"
@@ -131,23 +133,18 @@ def compute_light(result: dict, estimate_kwargs: dict, request: LightRequest, *,
                   arc_points=()) -> dict:
     """Photometry (when asked) and :func:`lensmass.core.light.add_light` on a copy of ``result``."""
     from lensmass.core.light import add_light
-    from lensmass.core.photometry import lens_magnitude_inside
-
     out = copy.deepcopy(result)
     extra: dict[str, Any] = {}
     if request.photometry is not None:
         if image is None or fit is None:
             raise LensInputError("Photometry on the image needs an open image and a fitted arc (mark the arc first).")
         p = request.photometry
-        zp, exptime, exp_source = zeropoint_and_exposure(getattr(image.loaded, "header", None), p["zeropoint"],
-                                                p["zeropoint_key"], p["exptime"])
-        a = max(float(fit.a_px), float(fit.b_px))
-        phot = lens_magnitude_inside(
-            image.data, fit.center_x, fit.center_y, a, zeropoint=zp, exptime_s=exptime,
-            axis_ratio=min(fit.a_px, fit.b_px) / a, theta_rad=math.radians(fit.angle_deg) + (0 if fit.a_px >= fit.b_px else math.pi / 2),
-            annulus=p["annulus"], arc_points_xy=np.asarray(arc_points, float).reshape(-1, 2),
+        # The one aperture rule (core.einstein_photometry): the circle of radius theta_E = sqrt(a b).
+        phot = light_inside_einstein(
+            image.data, getattr(image.loaded, "header", None), center_x=fit.center_x, center_y=fit.center_y,
+            theta_e_pix=math.sqrt(float(fit.a_px) * float(fit.b_px)), zeropoint=p["zeropoint"],
+            zeropoint_key=p["zeropoint_key"], exptime=p["exptime"], annulus=p["annulus"], arc_points_xy=arc_points,
             arc_width_pix=p["arc_width_pix"], mask_residuals=p["mask_residuals"])
-        phot["exptime_source"] = exp_source
         out["light_photometry"] = phot
         extra = {"aperture_mag": phot["aperture_mag"], "aperture_mag_err": phot["aperture_mag_err"]}
     kw = estimate_kwargs
@@ -237,7 +234,8 @@ class LightPanel(QWidget):
         grid.setVerticalSpacing(2)
         self.values: dict[str, QLabel] = {}
         self.intervals: dict[str, QLabel] = {}
-        for row, (key, label, unit) in enumerate(LIGHT_ROWS):
+        self.rows = [(key, fact(key).rich_label, fact(key).rich_unit) for key in keys_in("light", table_only=True)]
+        for row, (key, label, unit) in enumerate(self.rows):
             value, interval = QLabel("–"), QLabel("")
             value.setObjectName(f"light_value_{key}")
             interval.setObjectName(f"light_interval_{key}")
@@ -343,6 +341,7 @@ class LightPanel(QWidget):
             self.canvas.update()
 
     def _say(self, text: str, problem: bool = True) -> None:
+        text = window_words(text)
         self.status.setText(text)
         self.status.setStyleSheet("color: #d9534f;" if problem else "")
 
@@ -359,7 +358,7 @@ class LightPanel(QWidget):
         except LensInputError as exc:
             self._say(str(exc))
             return
-        kwargs["samples"] = int(getattr(m, "mc_samples", kwargs.get("samples") or 10_000))
+        kwargs["samples"] = int(getattr(m, "mc_samples", kwargs.get("samples") or DEFAULT_SAMPLES))
         image, fit = m.image, m.fit
         system = m.active_system
         arc_points = list(system.points) + list(system.images)
@@ -392,7 +391,7 @@ class LightPanel(QWidget):
 
     def _show_result(self, light: dict | None) -> None:
         models = (light or {}).get("models") or {}
-        for key, _, _ in LIGHT_ROWS:
+        for key, _, _ in self.rows:
             value = None if light is None else light.get(key)
             self.values[key].setText("–" if value is None else format_number(value))
             self.values[key].setToolTip(models.get(key, ""))

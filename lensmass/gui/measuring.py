@@ -9,7 +9,6 @@ all come from :mod:`lensmass.core`.
 from __future__ import annotations
 
 import importlib
-from typing import Any
 
 import numpy as np
 
@@ -78,18 +77,3 @@ def snap_to_ridge(image: ImageState, x: float, y: float,
     if not out.ok:
         return (x, y), out.warning or "No arc ridge near the click: the point stays where it was clicked."
     return (float(out.x), float(out.y)), out.warning
-
-
-def call_with_callbacks(fn, *args, progress=None, should_stop=None, **kwargs) -> Any:
-    """Call a core function passing progress/should_stop only if it accepts them."""
-    import inspect
-
-    try:
-        params = inspect.signature(fn).parameters
-    except (TypeError, ValueError):
-        params = {}
-    if "progress" in params and progress is not None:
-        kwargs["progress"] = progress
-    if "should_stop" in params and should_stop is not None:
-        kwargs["should_stop"] = should_stop
-    return fn(*args, **kwargs)

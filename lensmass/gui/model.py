@@ -18,12 +18,13 @@ from __future__ import annotations
 
 import copy
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any, Callable
 
 import numpy as np
 
 from lensmass.core.errors import LensInputError
+from lensmass.core.uncertainty import DEFAULT_SAMPLES
 from lensmass.io.session import ArcSystem, CosmologyChoice, DisplaySettings, ImageRef, LensCentre, Session
 
 TOPICS = ("image", "display", "marks", "inputs", "fit", "result", "validation")
@@ -119,7 +120,7 @@ class WindowModel:
         self.session_path: str | None = None
         self.active = 0
         self.snap_to_ridge = False
-        self.mc_samples = 10_000
+        self.mc_samples = DEFAULT_SAMPLES
         self.texts: dict[str, str] = {k: "" for k in TEXT_FIELDS}
         self.texts["z_l_err"] = self.texts["z_s_err"] = "0"
         self.validation: dict[str, str] = {}
@@ -448,7 +449,7 @@ class WindowModel:
             self.derived = [SystemState() for _ in self.session.arcs]
             self.image = None if loaded_image is None else ImageState(loaded_image)
             self.session_path = path
-            self.mc_samples = int(session.mc_samples or 10_000)
+            self.mc_samples = int(session.mc_samples or DEFAULT_SAMPLES)
             self.texts = {k: "" for k in TEXT_FIELDS}
             self.texts["z_l"] = _number_text(session.z_l)
             self.texts["z_l_err"] = _number_text(session.z_l_err)

@@ -7,36 +7,23 @@ is no result the panel says why, in one sentence.
 
 from __future__ import annotations
 
-import math
 
 from PySide6.QtCore import Qt
 from PySide6.QtGui import QGuiApplication
 from PySide6.QtWidgets import QGridLayout, QHBoxLayout, QLabel, QPushButton, QVBoxLayout, QWidget
 
-from lensmass.commands.common import DISPLAY, format_number, format_table
+from lensmass.core.result_keys import fact, keys_in
+from lensmass.core.result_text import format_number, format_table, interval_text  # noqa: F401 (interval_text: panels)
 from lensmass.gui.model import WindowModel
 
-#: Rows shown (key, label, unit); the shared command-line table order, redshifts left out
-#: (they are inputs, shown in "Lens & source").
-ROWS = [row for row in DISPLAY if row[0] not in ("z_l", "z_s")]
-#: Rich-text names of the rows (the plain names of DISPLAY are used in copied text).
-RICH_NAMES = {
-    "theta_e_arcsec": "θ<sub>E</sub>", "d_l_mpc": "D<sub>l</sub>", "d_s_mpc": "D<sub>s</sub>",
-    "d_ls_mpc": "D<sub>ls</sub>", "sigma_cr_msun_per_pc2": "Σ<sub>cr</sub>", "r_e_kpc": "R<sub>E</sub> = D<sub>l</sub> θ<sub>E</sub>",
-    "mass_einstein_msun": "<b>M(&lt;θ<sub>E</sub>)</b>", "sis_sigma_v_kms": "σ<sub>SIS</sub>",
-    "nfw_m200_msun": "NFW M<sub>200</sub>", "nfw_c200": "NFW c<sub>200</sub>", "nfw_r200_kpc": "NFW r<sub>200</sub>",
-}
-RICH_UNITS = {"Msun/pc^2": "M<sub>☉</sub>/pc²", "Msun": "M<sub>☉</sub>"}
+#: Keys left out of the panel: the redshifts are inputs, shown in "Lens & source".
+_INPUT_KEYS = ("z_l", "z_s")
 
 
-def interval_text(result: dict, key: str) -> str:
-    lo_hi = (result.get("intervals68") or {}).get(key)
-    if not lo_hi:
-        return ""
-    lo, hi = lo_hi
-    if lo is None or hi is None or not (math.isfinite(float(lo)) and math.isfinite(float(hi))) or lo == hi:
-        return ""
-    return f"[{format_number(lo)}, {format_number(hi)}]"
+def panel_rows() -> list[tuple[str, str, str]]:
+    """Rows shown (key, HTML label, HTML unit): the estimate keys of the registry, in its order."""
+    return [(key, fact(key).rich_label, fact(key).rich_unit)
+            for key in keys_in("estimate", table_only=True) if key not in _INPUT_KEYS]
 
 
 def result_text(model: WindowModel) -> str:
@@ -76,8 +63,9 @@ class ResultsPanel(QWidget):
             h = QLabel(text)
             h.setStyleSheet("color: palette(mid); font-size: 85%;")
             grid.addWidget(h, 0, col)
-        for row, (key, label, unit) in enumerate(ROWS, start=1):
-            name = QLabel(RICH_NAMES.get(key, label))
+        self.rows = panel_rows()
+        for row, (key, label, unit) in enumerate(self.rows, start=1):
+            name = QLabel(label)
             value = QLabel("–")
             value.setObjectName(f"value_{key}")
             value.setAlignment(Qt.AlignRight | Qt.AlignVCenter)
@@ -92,7 +80,7 @@ class ResultsPanel(QWidget):
             grid.addWidget(name, row, 0)
             grid.addWidget(value, row, 1)
             grid.addWidget(interval, row, 2)
-            grid.addWidget(QLabel(RICH_UNITS.get(unit, unit)), row, 3)
+            grid.addWidget(QLabel(unit), row, 3)
             self.values[key], self.intervals[key], self.names[key] = value, interval, name
         outer.addLayout(grid)
         self.notes = QLabel()
@@ -140,7 +128,7 @@ class ResultsPanel(QWidget):
             self.copy_button.setEnabled(False)
             return
         models = result.get("models") or {}
-        for key, label, unit in ROWS:
+        for key, _label, _unit in self.rows:
             self.values[key].setText(format_number(result.get(key, float("nan"))))
             self.intervals[key].setText(interval_text(result, key))
             tip = models.get(key, "")

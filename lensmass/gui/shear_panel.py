@@ -20,15 +20,16 @@ from typing import Any
 import numpy as np
 from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
 from matplotlib.figure import Figure
-from PySide6.QtCore import QPointF, Qt
+from PySide6.QtCore import Qt
 from PySide6.QtGui import QColor, QPen, QPolygonF
 from PySide6.QtWidgets import (QCheckBox, QComboBox, QDialog, QDialogButtonBox, QFileDialog, QFormLayout,
                                QGridLayout, QHBoxLayout, QLabel, QLineEdit, QPushButton, QSpinBox,
                                QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget)
 
-from lensmass.commands.common import format_number
+from lensmass.core.result_text import format_number
 from lensmass.core.errors import LensInputError
 from lensmass.gui.workers import TaskCancelled
+from lensmass.gui.words import window_words
 
 LAYER = "shear_kappa_contours"
 CLICK_OWNER = "shear_panel"
@@ -273,6 +274,7 @@ class ShearPanel(QWidget):
             self.canvas.update()
 
     def _say(self, text: str) -> None:
+        text = window_words(text)
         self.status.setText(text)
 
     # ------------------------------------------------------------- catalogue

@@ -9,7 +9,6 @@ Run ``lensmass demo OUTDIR`` to regenerate them; the same seeds give the same fi
 
 from __future__ import annotations
 
-import json
 import os
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -261,8 +260,3 @@ def write_demo_fields(outdir: str | os.PathLike, names=FIELD_NAMES, progress=Non
         if progress is not None:
             progress((i + 1) / len(names))
     return written
-
-
-def read_truth(path: str | os.PathLike) -> dict:
-    """Read a ``.truth.json`` file."""
-    return json.loads(Path(path).read_text(encoding="utf-8"))

@@ -20,6 +20,7 @@ import numpy as np
 
 from lensmass.core.cosmology import cosmology_label, resolve_cosmology
 from lensmass.core.shear_simulation import simulate_shear_catalog
+from lensmass.core.uncertainty import DEFAULT_SEED
 from lensmass.io.atomic import write_text_atomic
 from lensmass.io.catalogs import write_shear_catalog_fits
 
@@ -38,7 +39,7 @@ DEMO_SETUP = {
     "shape_noise": 0.25,
     "measurement_noise": (0.03, 0.12),
     "photo_z_scatter": 0.05,
-    "seed": 20261201,
+    "seed": DEFAULT_SEED,
 }
 
 

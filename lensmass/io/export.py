@@ -22,26 +22,11 @@ import numpy as np
 
 from lensmass.core.errors import LensInputError
 from lensmass.core.estimate import DERIVED_KEYS
+from lensmass.core.result_keys import fact
 
 RESULTS_FORMAT_TAG = "lensmass-results"
 RESULTS_SCHEMA = 1
 
-#: Unit (astropy string) and short meaning of each derived key.
-COLUMN_INFO: dict[str, tuple[str | None, str]] = {
-    "theta_e_arcsec": ("arcsec", "Einstein radius"),
-    "z_l": (None, "lens redshift"),
-    "z_s": (None, "source redshift"),
-    "d_l_mpc": ("Mpc", "angular-diameter distance to the lens"),
-    "d_s_mpc": ("Mpc", "angular-diameter distance to the source"),
-    "d_ls_mpc": ("Mpc", "angular-diameter distance from lens to source"),
-    "sigma_cr_msun_per_pc2": ("solMass / pc2", "critical surface density"),
-    "r_e_kpc": ("kpc", "Einstein radius at the lens"),
-    "mass_einstein_msun": ("solMass", "projected mass inside the Einstein radius"),
-    "sis_sigma_v_kms": ("km / s", "velocity dispersion of the SIS with this Einstein radius"),
-    "nfw_m200_msun": ("solMass", "NFW halo mass inside the halo boundary"),
-    "nfw_c200": (None, "NFW concentration"),
-    "nfw_r200_kpc": ("kpc", "NFW halo boundary radius"),
-}
 
 #: Suffix of each bound column -> (interval block, index in [low, high], percentile).
 BOUND_COLUMNS = {"_p16": ("intervals68", 0, "16th"), "_p84": ("intervals68", 1, "84th"),
@@ -60,8 +45,9 @@ def _systems(systems: Systems) -> list[tuple[str, Mapping[str, Any]]]:
     names = [str(name) for name, _ in items]
     if len(set(names)) != len(names):
         raise LensInputError("Two arc systems share a name: rename one so every exported row is distinct.")
+    keys = list(DERIVED_KEYS)
     for name, result in items:
-        for key in DERIVED_KEYS:
+        for key in keys:
             if np.ndim(result.get(key)) != 0:
                 raise LensInputError(
                     f"The result of '{name}' holds several lenses: export one result per arc system."
@@ -121,11 +107,12 @@ def results_table(systems: Systems, inputs: Mapping[str, Mapping[str, Any]] | No
     table["system"] = Column([n for n, _ in items], dtype=str, description="arc system name")
     table["cosmology"] = Column([str(r.get("cosmology", "")) for _, r in items], dtype=str,
                                 description="cosmology of the distances")
-    for key in DERIVED_KEYS:
-        unit, meaning = COLUMN_INFO[key]
+    keys = list(DERIVED_KEYS)
+    for key in keys:
+        unit, meaning = fact(key).unit, fact(key).description
         table[key] = Column([_float(r.get(key)) for _, r in items], unit=unit, description=meaning)
-    for key in DERIVED_KEYS:
-        unit, meaning = COLUMN_INFO[key]
+    for key in keys:
+        unit, meaning = fact(key).unit, fact(key).description
         for suffix, (block, index, which) in BOUND_COLUMNS.items():
             values = [_float((r.get(block) or {}).get(key, [np.nan, np.nan])[index]) for _, r in items]
             table[key + suffix] = Column(values, unit=unit, description=f"{meaning}, {which} percentile")

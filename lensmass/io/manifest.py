@@ -24,8 +24,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from lensmass.core.errors import LensInputError
+from lensmass.io.images import IMAGE_SUFFIXES
 
-IMAGE_SUFFIXES = (".fits", ".fit", ".fts", ".fits.gz", ".fz", ".png", ".jpg", ".jpeg", ".tif", ".tiff")
 NUMERIC_COLUMNS = ("theta_e_arcsec", "theta_e_err", "z_l", "z_l_err", "z_s", "z_s_err", "ra_deg", "dec_deg")
 ALIASES = {"ra": "ra_deg", "dec": "dec_deg", "name": "id", "theta_e": "theta_e_arcsec", "zl": "z_l", "zs": "z_s"}
 

@@ -11,14 +11,15 @@ number; the method and references. It is drawn with matplotlib's object API
 :func:`draw_mass_curves` and :func:`draw_sample_histogram` draw onto any
 matplotlib Axes; the window embeds the same drawings, so the plot on screen and
 on paper are one.
+
+The number formats live in :mod:`lensmass.io.report_format` and the shared drawings in
+:mod:`lensmass.io.report_plots`; their public names are re-exported here.
 """
 
 from __future__ import annotations
 
-import math
 import os
 import textwrap
-from dataclasses import dataclass
 from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any, Mapping, Sequence
@@ -26,27 +27,42 @@ from typing import Any, Mapping, Sequence
 import numpy as np
 
 from lensmass.core.errors import LensInputError
+from lensmass.core.result_keys import RESULT_KEYS, fact, keys_in
+from lensmass.io.report_format import _mathtext_safe, format_interval, format_value
+from lensmass.io.report_plots import (
+    CENTRE_COLOUR,
+    FIT_COLOUR,
+    INK,
+    MUTED,
+    NFW_COLOUR,
+    PAGE_INK,
+    POINT_COLOUR,
+    RULE,
+    SIS_COLOUR,
+    Overlay,
+    PlotInk,
+    cutout,
+    draw_cutout,
+    draw_mass_curves,
+    draw_sample_histogram,
+)
+
+__all__ = ["PAGE_INCHES", "INK", "MUTED", "RULE", "SIS_COLOUR", "NFW_COLOUR", "POINT_COLOUR", "FIT_COLOUR",
+           "CENTRE_COLOUR", "result_rows", "REFERENCES", "Overlay", "cutout", "format_value", "format_interval",
+           "draw_cutout", "PlotInk", "PAGE_INK", "draw_mass_curves", "draw_sample_histogram", "report_figure",
+           "render_report", "inputs_from_session"]
 
 #: Page size in inches (A4 portrait).
 PAGE_INCHES = (8.27, 11.69)
-#: Our palette: ink, muted ink, accent for the SIS, accent for the NFW, marks on the image.
-INK, MUTED, RULE = "#1d2433", "#5b6477", "#c9ced8"
-SIS_COLOUR, NFW_COLOUR, POINT_COLOUR, FIT_COLOUR, CENTRE_COLOUR = "#1f6f8b", "#c0552b", "#ffb000", "#5ee0c0", "#ff4d6d"
 
-#: How each result appears on the page: (key, label in mathtext, unit in mathtext).
-RESULT_ROWS = [
-    ("theta_e_arcsec", r"$\theta_E$", "arcsec"),
-    ("r_e_kpc", r"$R_E = D_l\,\theta_E$", "kpc"),
-    ("d_l_mpc", r"$D_l$", "Mpc"),
-    ("d_s_mpc", r"$D_s$", "Mpc"),
-    ("d_ls_mpc", r"$D_{ls}$", "Mpc"),
-    ("sigma_cr_msun_per_pc2", r"$\Sigma_{cr}$", r"M$_\odot$ pc$^{-2}$"),
-    ("mass_einstein_msun", r"$M(<\theta_E)$", r"M$_\odot$"),
-    ("sis_sigma_v_kms", r"$\sigma_{SIS}$", r"km s$^{-1}$"),
-    ("nfw_m200_msun", r"NFW $M_{200}$", r"M$_\odot$"),
-    ("nfw_c200", r"NFW $c_{200}$", ""),
-    ("nfw_r200_kpc", r"NFW $r_{200}$", "kpc"),
-]
+#: Keys of the estimate the page leaves out of its results block (they are inputs, shown above it).
+_INPUT_KEYS = ("z_l", "z_s")
+
+
+def result_rows() -> list[tuple[str, str, str]]:
+    """How each result appears on the page: (key, label in mathtext, unit in mathtext), from the key registry."""
+    return [(key, fact(key).math_label, fact(key).math_unit)
+            for key in keys_in("estimate", table_only=True) if key not in _INPUT_KEYS]
 
 REFERENCES = [
     "Narayan R., Bartelmann M. 1996, arXiv:astro-ph/9606001 (Sigma_cr, Einstein mass, SIS)",
@@ -62,286 +78,6 @@ _EXTRA_REFERENCES = {
 }
 
 
-@dataclass
-class Overlay:
-    """What is drawn over the cutout, in full-image pixel coordinates (0-based, x right, y up).
-
-    ``origin_px`` is the full-image pixel of ``cutout[0, 0]``; ``ellipse_px`` is
-    (x0, y0, semi-major, semi-minor, angle in degrees counter-clockwise from +x).
-    """
-
-    pixel_scale_arcsec: float
-    centre_px: tuple[float, float] | None = None
-    points_px: Sequence[tuple[float, float]] = ()
-    images_px: Sequence[tuple[float, float]] = ()
-    circle_px: tuple[float, float, float] | None = None
-    ellipse_px: tuple[float, float, float, float, float] | None = None
-    origin_px: tuple[float, float] = (0.0, 0.0)
-    label: str = ""
-
-
-def cutout(image: np.ndarray, centre_px: tuple[float, float], half_size_px: int) -> tuple[np.ndarray, tuple[int, int]]:
-    """A square cutout around ``centre_px`` clipped to the image, and its origin (x, y).
-
-    Examples
-    --------
-    >>> img = np.arange(100.0).reshape(10, 10)
-    >>> c, origin = cutout(img, (2.2, 7.9), 3)
-    >>> c.shape, origin
-    ((5, 6), (0, 5))
-    """
-    data = np.asarray(image, float)
-    if data.ndim != 2 or data.size == 0:
-        raise LensInputError("The report needs a two-dimensional image: pick one plane of the cube.")
-    half = max(int(half_size_px), 1)
-    cx, cy = int(round(centre_px[0])), int(round(centre_px[1]))
-    x0, y0 = max(cx - half, 0), max(cy - half, 0)
-    x1, y1 = min(cx + half + 1, data.shape[1]), min(cy + half + 1, data.shape[0])
-    if x1 <= x0 or y1 <= y0:
-        raise LensInputError("The lens centre lies outside the image: set the centre inside it.")
-    return data[y0:y1, x0:x1], (x0, y0)
-
-
-# ------------------------------------------------------------------ formatting
-
-
-def _finite(value) -> bool:
-    try:
-        return math.isfinite(float(value))
-    except (TypeError, ValueError):
-        return False
-
-
-def _decimals(ref: float, digits: int) -> int:
-    """Decimals that give ``digits`` significant figures to a number of size ``ref``."""
-    return max(0, digits - 1 - int(math.floor(math.log10(abs(ref))))) if ref else digits - 1
-
-
-def _power(ref: float) -> int | None:
-    """The power of ten to factor out of numbers of size ``ref`` (None: write them plainly)."""
-    if ref != 0 and (abs(ref) >= 1e5 or abs(ref) < 1e-3):
-        return int(math.floor(math.log10(abs(ref))))
-    return None
-
-
-def format_value(value, digits: int = 3) -> str:
-    """A number in mathtext: 0.981, 263, 1051 or 2.63 x 10^11; '-' when missing.
-
-    Examples
-    --------
-    >>> print(format_value(2.632e11), format_value(1051.3), format_value(1.2))
-    $2.63\\times10^{11}$ 1051 1.20
-    >>> format_value(float('nan'))
-    '-'
-    """
-    if not _finite(value):
-        return "-"
-    v = float(value)
-    exp = _power(v)
-    if exp is not None:
-        mant = v / 10**exp
-        if round(abs(mant), digits - 1) >= 10:
-            mant, exp = mant / 10, exp + 1
-        return f"${mant:.{digits - 1}f}\\times10^{{{exp}}}$"
-    return f"{v:.{_decimals(v, digits)}f}"
-
-
-def format_interval(low, high, like, digits: int = 3) -> str:
-    """An interval written with the power of ten and decimals of its value ``like``.
-
-    Examples
-    --------
-    >>> print(format_interval(2.69e11, 3.21e11, 2.94e11))
-    [2.69, 3.21]$\\times10^{11}$
-    >>> format_interval(1033.2, 1069.9, 1051.0)
-    '[1033, 1070]'
-    """
-    if not (_finite(low) and _finite(high)) or float(low) == float(high):
-        return ""
-    lo, hi = float(low), float(high)
-    ref = float(like) if _finite(like) and float(like) != 0 else hi
-    exp = _power(ref)
-    if exp is not None:
-        d = _decimals(ref / 10**exp, digits)
-        return f"[{lo / 10**exp:.{d}f}, {hi / 10**exp:.{d}f}]$\\times10^{{{exp}}}$"
-    d = _decimals(ref, digits)
-    return f"[{lo:.{d}f}, {hi:.{d}f}]"
-
-
-def _mathtext_safe(text: str) -> str:
-    """Plain text for matplotlib: escape the '$' that would start mathtext."""
-    return str(text).replace("$", r"\$")
-
-
-# ------------------------------------------------------------------ drawings
-
-
-def draw_cutout(ax, image_cutout: np.ndarray | None, overlay: Overlay, *, scale_bar_arcsec: float | None = None) -> None:
-    """The cutout (asinh stretch, 0.5-99.7 percentile limits) with points, centre, fit and scale bar."""
-    from astropy.visualization import AsinhStretch, ImageNormalize, PercentileInterval
-
-    ax.set_facecolor("#0b0e14")
-    ax.set_xticks([])
-    ax.set_yticks([])
-    if image_cutout is None:
-        ax.text(0.5, 0.5, "no image", color="white", ha="center", va="center", transform=ax.transAxes)
-        return
-    data = np.asarray(image_cutout, float)
-    if data.ndim != 2 or data.size == 0:
-        raise LensInputError("The report needs a two-dimensional image cutout: pick one plane of the cube.")
-    if not (_finite(overlay.pixel_scale_arcsec) and overlay.pixel_scale_arcsec > 0):
-        raise LensInputError("The report needs a positive pixel scale: set it in arcsec per pixel.")
-    x0, y0 = overlay.origin_px
-    ny, nx = data.shape
-    extent = (x0 - 0.5, x0 + nx - 0.5, y0 - 0.5, y0 + ny - 0.5)
-    finite = data[np.isfinite(data)]
-    masked = np.ma.masked_invalid(data)
-    if finite.size and np.ptp(finite) > 0:
-        norm = ImageNormalize(finite, interval=PercentileInterval(99.2), stretch=AsinhStretch(0.08))
-        ax.imshow(masked, origin="lower", cmap="bone", norm=norm, extent=extent, interpolation="nearest")
-    else:
-        ax.imshow(masked, origin="lower", cmap="bone", extent=extent, interpolation="nearest")
-    from matplotlib.patches import Circle, Ellipse
-
-    if overlay.circle_px is not None:
-        cx, cy, r = overlay.circle_px
-        ax.add_patch(Circle((cx, cy), r, fill=False, ec=FIT_COLOUR, lw=1.2, ls=(0, (4, 2))))
-    if overlay.ellipse_px is not None:
-        cx, cy, a, b, ang = overlay.ellipse_px
-        ax.add_patch(Ellipse((cx, cy), 2 * a, 2 * b, angle=ang, fill=False, ec=FIT_COLOUR, lw=1.2, ls=(0, (4, 2))))
-    if len(overlay.points_px):
-        p = np.asarray(overlay.points_px, float).reshape(-1, 2)
-        ax.scatter(p[:, 0], p[:, 1], s=22, facecolors="none", edgecolors=POINT_COLOUR, linewidths=1.1, zorder=3)
-    if len(overlay.images_px):
-        p = np.asarray(overlay.images_px, float).reshape(-1, 2)
-        ax.scatter(p[:, 0], p[:, 1], s=30, marker="s", facecolors="none", edgecolors=FIT_COLOUR, linewidths=1.1,
-                   zorder=3)
-    if overlay.centre_px is not None:
-        ax.scatter([overlay.centre_px[0]], [overlay.centre_px[1]], s=50, marker="+", c=CENTRE_COLOUR,
-                   linewidths=1.4, zorder=4)
-    ax.set_xlim(extent[0], extent[1])
-    ax.set_ylim(extent[2], extent[3])
-    width_arcsec = nx * overlay.pixel_scale_arcsec
-    bar = scale_bar_arcsec or _nice_length(width_arcsec / 4)
-    bar_px = bar / overlay.pixel_scale_arcsec
-    bx, by = extent[0] + 0.06 * nx, extent[2] + 0.07 * ny
-    ax.plot([bx, bx + bar_px], [by, by], color="white", lw=2.2, solid_capstyle="butt", zorder=5)
-    ax.text(bx + bar_px / 2, by + 0.025 * ny, f'{bar:g}"', color="white", ha="center", va="bottom", fontsize=7.5,
-            zorder=5)
-    if overlay.label:
-        ax.text(0.03, 0.97, _mathtext_safe(overlay.label), color="white", ha="left", va="top", fontsize=7,
-                transform=ax.transAxes)
-
-
-def _nice_length(target: float) -> float:
-    """1, 2 or 5 times a power of ten, at most ``target`` (for scale bars)."""
-    if not (target > 0):
-        return 1.0
-    exp = math.floor(math.log10(target))
-    for m in (5, 2, 1):
-        if m * 10**exp <= target:
-            return m * 10**exp
-    return 10**exp
-
-
-@dataclass(frozen=True)
-class PlotInk:
-    """The colours and text size of the shared plots: the page's by default; the window passes its
-    palette (light or dark) and a larger text so the same drawing reads well on screen."""
-
-    ink: str = INK
-    muted: str = MUTED
-    rule: str = RULE
-    paper: str = "white"
-    text_scale: float = 1.0
-
-
-PAGE_INK = PlotInk()
-
-
-def _style_axes(ax, label_size: float = 7.0, tick_size: float = 6.5, look: PlotInk = PAGE_INK) -> None:
-    """Our axis look, set on the Axes itself (no global rc state, safe beside a running window)."""
-    for spine in ax.spines.values():
-        spine.set_color(look.muted)
-        spine.set_linewidth(0.6)
-    ax.tick_params(which="both", colors=look.muted, labelsize=tick_size * look.text_scale, width=0.6)
-    ax.xaxis.label.set_size(label_size * look.text_scale)
-    ax.yaxis.label.set_size(label_size * look.text_scale)
-    ax.xaxis.label.set_color(look.ink)
-    ax.yaxis.label.set_color(look.ink)
-
-
-def draw_mass_curves(ax, curves, *, interval68: Sequence[float] | None = None, arcsec_axis: bool = True,
-                     look: PlotInk = PAGE_INK) -> None:
-    """Enclosed projected mass against radius: SIS, NFW, their 68% bands and the Einstein point.
-
-    ``curves`` is a :class:`lensmass.core.mass_profiles.MassCurves`; ``interval68``
-    (the estimate's [p16, p84] of M(<theta_E)) draws the Einstein point's error bar.
-    ``look`` sets colours and text size (the page's by default; the window passes its palette).
-    """
-    r = curves.radius_kpc
-    scale = look.text_scale
-    if curves.sis_p16 is not None:
-        ax.fill_between(r, curves.sis_p16, curves.sis_p84, color=SIS_COLOUR, alpha=0.18, lw=0)
-    if curves.nfw_p16 is not None:
-        ax.fill_between(r, curves.nfw_p16, curves.nfw_p84, color=NFW_COLOUR, alpha=0.18, lw=0)
-    ax.plot(r, curves.sis_msun, color=SIS_COLOUR, lw=1.6, label="SIS")
-    if np.any(np.isfinite(curves.nfw_msun)):
-        ax.plot(r, curves.nfw_msun, color=NFW_COLOUR, lw=1.6, ls=(0, (5, 2)), label="NFW halo alone")
-    ax.axvline(curves.einstein_radius_kpc, color=look.muted, lw=0.7, ls=":")
-    yerr = None
-    if interval68 is not None and all(_finite(v) for v in interval68) and interval68[0] != interval68[1]:
-        # The point is the nominal mass; with few or skewed draws it can lie outside the 68% interval
-        # of the draws: the bar then reaches the interval on one side only (matplotlib refuses negatives).
-        yerr = [[max(0.0, curves.einstein_mass_msun - float(interval68[0]))],
-                [max(0.0, float(interval68[1]) - curves.einstein_mass_msun)]]
-    ax.errorbar([curves.einstein_radius_kpc], [curves.einstein_mass_msun], yerr=yerr, fmt="o", ms=5, color=look.ink,
-                mfc=look.paper, mew=1.3, capsize=2.5, zorder=5, label=r"$M(<\theta_E)$ at $R_E$")
-    ax.set_xscale("log")
-    ax.set_yscale("log")
-    ax.set_xlim(r.min(), r.max())
-    ax.set_xlabel("projected radius R [kpc]")
-    ax.set_ylabel(r"$M_{2D}(<R)$ [M$_\odot$]")
-    _style_axes(ax, look=look)
-    ax.grid(True, which="major", color=look.rule, lw=0.5)
-    # the page keeps matplotlib's default legend text colour; another palette sets its own ink
-    ax.legend(loc="upper left", fontsize=7 * scale, frameon=False, labelcolor=None if look == PAGE_INK else look.ink)
-    if arcsec_axis:
-        k = curves.einstein_radius_kpc / curves.einstein_radius_arcsec
-        top = ax.secondary_xaxis("top", functions=(lambda x, k=k: x / k, lambda t, k=k: t * k))
-        top.set_xlabel("angle [arcsec]", fontsize=7 * scale, color=look.muted)
-        top.tick_params(labelsize=6.5 * scale, colors=look.muted)
-
-
-def draw_sample_histogram(ax, hist, *, unit: str = r"M$_\odot$", label: str = r"$M(<\theta_E)$",
-                          look: PlotInk = PAGE_INK, empty_text: str = "no uncertainty propagated\n(no Monte Carlo draws)") -> None:
-    """Step histogram of Monte Carlo draws with the median and the 68% interval shaded.
-
-    ``hist`` is a :class:`lensmass.core.mass_profiles.SampleHistogram` or None (then
-    ``empty_text`` is shown); ``look`` sets colours and text size.
-    """
-    if hist is None:
-        ax.text(0.5, 0.5, empty_text, ha="center", va="center", wrap=True,
-                fontsize=7.5 * look.text_scale, color=look.muted, transform=ax.transAxes)
-        ax.set_xticks([])
-        ax.set_yticks([])
-        return
-    exp = None if hist.log_bins else _power(hist.median)
-    scale = 1.0 if exp is None else 10.0**exp
-    ax.stairs(hist.counts, hist.edges / scale, color=look.ink, lw=1.0, fill=False)
-    ax.axvspan(hist.interval68[0] / scale, hist.interval68[1] / scale, color=SIS_COLOUR, alpha=0.15, lw=0)
-    ax.axvline(hist.median / scale, color=SIS_COLOUR, lw=1.2)
-    if hist.log_bins:
-        ax.set_xscale("log")
-    ax.set_yticks([])
-    power = "" if exp is None else f"$10^{{{exp}}}$ "
-    ax.set_xlabel(f"{label} [{power}{unit}]" if unit or power else label)
-    _style_axes(ax, look=look)
-    ax.text(0.99, 0.95, f"{hist.n_finite} draws\nline: median\nshaded: 68%", fontsize=6.3 * look.text_scale,
-            color=look.muted, ha="right", va="top", transform=ax.transAxes)
-
-
-# ------------------------------------------------------------------ page
 
 
 def _text_rows(ax, rows: Sequence[Sequence[str]], col_x: Sequence[float], *, top: float = 0.9,
@@ -383,7 +119,7 @@ def _input_rows(inputs: Mapping[str, Any]) -> list[tuple[str, str]]:
 def _result_rows(result: Mapping[str, Any]) -> list[tuple[str, str, str, str]]:
     i68 = result.get("intervals68") or {}
     rows = []
-    for key, label, unit in RESULT_ROWS:
+    for key, label, unit in result_rows():
         if key not in result:
             continue
         value = result[key]
@@ -395,7 +131,7 @@ def _result_rows(result: Mapping[str, Any]) -> list[tuple[str, str, str, str]]:
 def _model_lines(result: Mapping[str, Any]) -> list[str]:
     """'label: description' lines, one per distinct description (labels joined)."""
     models = result.get("models") or {}
-    labels = {key: label for key, label, _ in RESULT_ROWS}
+    labels = {key: fact(key).math_label for key in models if key in RESULT_KEYS}
     grouped: dict[str, list[str]] = {}
     for key, text in models.items():
         grouped.setdefault(str(text), []).append(labels.get(key, key))

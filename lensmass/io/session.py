@@ -32,10 +32,11 @@ touched by a later minor version loses nothing. Older schemas are brought up
 to date by the functions in :data:`MIGRATIONS` (one step per version). Loading
 never modifies the file; saving is atomic (:mod:`lensmass.io.atomic`).
 
-Autosaves are ordinary session files with an extra ``"autosave"`` block
+Autosaves (:mod:`lensmass.io.autosave`) are ordinary session files with an extra ``"autosave"`` block
 (writer's process id, host and the session file they belong to) kept in
 :func:`autosave_dir`; the ones whose writer is no longer running are offered
-for recovery by :func:`list_recoverable`.
+for recovery by :func:`list_recoverable`. Field checks on reading live in
+:mod:`lensmass.io.session_read`. Both are reachable from here as before.
 """
 
 from __future__ import annotations
@@ -43,17 +44,14 @@ from __future__ import annotations
 import copy
 import hashlib
 import json
-import math
 import os
-import re
-import socket
-import uuid
 from dataclasses import dataclass, field
 from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any, Callable, Mapping
 
 from lensmass.core.errors import LensInputError
+from lensmass.core.uncertainty import DEFAULT_SAMPLES, DEFAULT_SEED
 
 #: Top-level tag that marks a lensmass session file.
 FORMAT_TAG = "lensmass-session"
@@ -167,8 +165,8 @@ class Session:
     cosmology: CosmologyChoice = field(default_factory=CosmologyChoice)
     concentration: str | float = "duffy08"
     halo_definition: str = "200c"
-    mc_samples: int = 10_000
-    mc_seed: int | None = 20261201
+    mc_samples: int = DEFAULT_SAMPLES
+    mc_seed: int | None = DEFAULT_SEED
     arcs: list[ArcSystem] = field(default_factory=list)
     ring: dict | None = None
     notes: str = ""
@@ -300,80 +298,6 @@ def _session_to_dict(s: Session, base_dir) -> dict[str, Any]:
     return out
 
 
-class _Reader:
-    """Typed field access with one-sentence errors naming the source and the field."""
-
-    def __init__(self, source: str):
-        self.source = source
-
-    def fail(self, where: str, expected: str, got: Any) -> LensInputError:
-        shown = repr(got)
-        if len(shown) > 40:
-            shown = shown[:37] + "..."
-        return LensInputError(
-            f"{self.source} has a bad value for '{where}' (expected {expected}, got {shown}): "
-            "correct that field in the file or save the session again."
-        )
-
-    def number(self, value, where, *, optional=False, positive=False, nonneg=False) -> float | None:
-        if value is None and optional:
-            return None
-        try:
-            ok = isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
-        except OverflowError:  # an integer too large for a float
-            ok = False
-        if ok and positive and value <= 0:
-            ok = False
-        if ok and nonneg and value < 0:
-            ok = False
-        if not ok:
-            kind = "a positive number" if positive else "a number >= 0" if nonneg else "a finite number"
-            raise self.fail(where, kind + (" or null" if optional else ""), value)
-        return float(value)
-
-    def integer(self, value, where, *, optional=False, minimum=None) -> int | None:
-        if value is None and optional:
-            return None
-        if not isinstance(value, int) or isinstance(value, bool) or (minimum is not None and value < minimum):
-            limit = f" >= {minimum}" if minimum is not None else ""
-            raise self.fail(where, f"a whole number{limit}" + (" or null" if optional else ""), value)
-        return int(value)
-
-    def text(self, value, where, *, optional=False, choices=None) -> str | None:
-        if value is None and optional:
-            return None
-        if not isinstance(value, str) or (choices and value not in choices):
-            expected = "one of " + ", ".join(choices) if choices else "text"
-            raise self.fail(where, expected, value)
-        return value
-
-    def flag(self, value, where) -> bool:
-        if not isinstance(value, bool):
-            raise self.fail(where, "true or false", value)
-        return value
-
-    def obj(self, value, where, *, optional=False) -> dict | None:
-        if value is None and optional:
-            return None
-        if not isinstance(value, dict):
-            raise self.fail(where, "an object", value)
-        return value
-
-    def pair(self, value, where, *, optional=False) -> tuple[float, float] | None:
-        if value is None and optional:
-            return None
-        if not isinstance(value, (list, tuple)) or len(value) != 2:
-            raise self.fail(where, "a pair of numbers [a, b]", value)
-        return (self.number(value[0], f"{where}[0]"), self.number(value[1], f"{where}[1]"))
-
-    def points(self, value, where) -> list[tuple[float, float]]:
-        if value is None:
-            return []
-        if not isinstance(value, list):
-            raise self.fail(where, "a list of [x, y] pairs", value)
-        return [self.pair(p, f"{where}[{i}]") for i, p in enumerate(value)]
-
-
 def migrate(data: Mapping[str, Any], source: str = "The session",
             migrations: Mapping[int, Callable[[dict], dict]] | None = None,
             oldest: int | None = None) -> dict[str, Any]:
@@ -430,114 +354,6 @@ def migrate(data: Mapping[str, Any], source: str = "The session",
         if out.get("schema") != before + 1:
             out["schema"] = before + 1
     return out
-
-
-def _resolve_image(image: dict, base_dir, r: _Reader) -> str | None:
-    stored = r.text(image.get("path"), "image.path", optional=True)
-    hint = r.text(image.get("absolute_path"), "image.absolute_path", optional=True)
-    if not stored:
-        return hint
-    candidate = Path(stored)
-    if not candidate.is_absolute() and base_dir is not None:
-        candidate = Path(base_dir) / candidate
-    candidate = Path(os.path.normpath(os.path.abspath(candidate)))
-    if candidate.is_file() or not hint or not Path(hint).is_file():
-        return str(candidate)
-    return hint
-
-
-def _session_from_dict(data: Mapping[str, Any], base_dir, source: str) -> Session:
-    d = migrate(data, source)
-    r = _Reader(source)
-    known = {"format", "schema", "saved_by", "saved_at", "image", "display", "centre", "z_l", "z_l_err",
-             "cosmology", "concentration", "halo_definition", "mc_samples", "mc_seed", "arcs", "ring", "notes",
-             "panels", "autosave"}
-
-    image = r.obj(d.get("image", {}), "image")
-    hdu = image.get("hdu", 0)
-    if not (isinstance(hdu, str) or (isinstance(hdu, int) and not isinstance(hdu, bool) and hdu >= 0)):
-        raise r.fail("image.hdu", "an HDU number >= 0 or an extension name", hdu)
-    image_ref = ImageRef(
-        path=_resolve_image(image, base_dir, r),
-        hdu=hdu,
-        plane=r.integer(image.get("plane"), "image.plane", optional=True, minimum=0),
-        pixel_scale_arcsec=r.number(image.get("pixel_scale_arcsec"), "image.pixel_scale_arcsec",
-                                    optional=True, positive=True),
-    )
-
-    disp = r.obj(d.get("display", {}), "display")
-    defaults = DisplaySettings()
-    display = DisplaySettings(
-        stretch=r.text(disp.get("stretch", defaults.stretch), "display.stretch"),
-        limits=r.text(disp.get("limits", defaults.limits), "display.limits"),
-        manual_limits=r.pair(disp.get("manual_limits"), "display.manual_limits", optional=True),
-        colormap=r.text(disp.get("colormap", defaults.colormap), "display.colormap"),
-        invert=r.flag(disp.get("invert", defaults.invert), "display.invert"),
-        layer=r.text(disp.get("layer", defaults.layer), "display.layer"),
-    )
-
-    c = r.obj(d.get("centre"), "centre", optional=True)
-    centre = None
-    if c is not None:
-        centre = LensCentre(r.number(c.get("x"), "centre.x"), r.number(c.get("y"), "centre.y"),
-                            r.text(c.get("how", "hand"), "centre.how", choices=CENTRE_HOW))
-
-    cos = r.obj(d.get("cosmology", {"preset": "Planck18"}), "cosmology")
-    if any(cos.get(k) is not None for k in ("h0", "om0", "ode0")):
-        cosmology = CosmologyChoice(
-            preset=None,
-            h0=r.number(cos.get("h0"), "cosmology.h0", positive=True),
-            om0=r.number(cos.get("om0"), "cosmology.om0", positive=True),
-            ode0=r.number(cos.get("ode0"), "cosmology.ode0", optional=True),
-        )
-    else:
-        cosmology = CosmologyChoice(preset=r.text(cos.get("preset", "Planck18"), "cosmology.preset"))
-
-    conc = d.get("concentration", "duffy08")
-    if isinstance(conc, bool) or not isinstance(conc, (str, int, float)):
-        raise r.fail("concentration", "a relation name or a number", conc)
-    if not isinstance(conc, str):
-        conc = r.number(conc, "concentration", positive=True)
-
-    arcs_raw = d.get("arcs", [])
-    if not isinstance(arcs_raw, list):
-        raise r.fail("arcs", "a list of arc systems", arcs_raw)
-    arcs = []
-    for i, a in enumerate(arcs_raw):
-        w = f"arcs[{i}]"
-        a = r.obj(a, w)
-        arcs.append(ArcSystem(
-            name=r.text(a.get("name", chr(65 + i % 26)), f"{w}.name"),
-            z_s=r.number(a.get("z_s"), f"{w}.z_s", optional=True, positive=True),
-            z_s_err=r.number(a.get("z_s_err", 0.0), f"{w}.z_s_err", nonneg=True),
-            z_s_range=r.pair(a.get("z_s_range"), f"{w}.z_s_range", optional=True),
-            shape=r.text(a.get("shape", "circle"), f"{w}.shape", choices=ARC_SHAPES),
-            points=r.points(a.get("points"), f"{w}.points"),
-            images=r.points(a.get("images"), f"{w}.images"),
-            fit=r.obj(a.get("fit"), f"{w}.fit", optional=True),
-        ))
-
-    panels = r.obj(d.get("panels", {}), "panels")
-    for name, state in panels.items():
-        r.obj(state, f"panels.{name}")
-    seed = d.get("mc_seed", 20261201)
-    return Session(
-        image=image_ref,
-        display=display,
-        centre=centre,
-        z_l=r.number(d.get("z_l"), "z_l", optional=True, positive=True),
-        z_l_err=r.number(d.get("z_l_err", 0.0), "z_l_err", nonneg=True),
-        cosmology=cosmology,
-        concentration=conc,
-        halo_definition=r.text(d.get("halo_definition", "200c"), "halo_definition", choices=("200c", "200m", "vir")),
-        mc_samples=r.integer(d.get("mc_samples", 10_000), "mc_samples", minimum=1),
-        mc_seed=r.integer(seed, "mc_seed", optional=True, minimum=0),
-        arcs=arcs,
-        ring=r.obj(d.get("ring"), "ring", optional=True),
-        notes=r.text(d.get("notes", ""), "notes"),
-        panels={str(k): dict(v) for k, v in panels.items()},
-        extra={k: v for k, v in d.items() if k not in known},
-    )
 
 
 # -------------------------------------------------------------------- files
@@ -621,127 +437,19 @@ def load_session(path: str | os.PathLike) -> Session:
     return Session.from_dict(data, target.parent, source=f"Session file '{target.name}'")
 
 
-# ------------------------------------------------------------------- autosave
+def _session_from_dict(data: Mapping[str, Any], base_dir, source: str) -> Session:
+    from lensmass.io.session_read import session_from_dict
+
+    return session_from_dict(data, base_dir, source)
 
 
-@dataclass(frozen=True)
-class RecoverableSession:
-    """An autosave left behind by a run that ended without closing cleanly."""
-
-    key: str
-    path: Path
-    saved_at: datetime
-    image_name: str | None
-    origin: str | None
-    """The session file it belongs to (None for a never-saved session)."""
+_AUTOSAVE_NAMES = frozenset({"RecoverableSession", "autosave_dir", "new_autosave_key", "_autosave_path", "write_autosave", "_pid_alive", "list_recoverable", "load_autosave", "discard_autosave"})
 
 
-def autosave_dir() -> Path:
-    """Folder of autosaves: ``$LENSMASS_DATA_DIR/autosave`` or the user data folder's."""
-    base = os.environ.get(DATA_DIR_ENV)
-    if not base:
-        import platformdirs
+def __getattr__(name: str):
+    """The autosave functions, reachable from this module as before (imported on first use: no cycle)."""
+    if name in _AUTOSAVE_NAMES:
+        from lensmass.io import autosave
 
-        base = platformdirs.user_data_dir("lensmass", appauthor=False)
-    return Path(base) / "autosave"
-
-
-def new_autosave_key() -> str:
-    """A fresh key for one window's autosave (unique across processes)."""
-    return f"{datetime.now(timezone.utc):%Y%m%dT%H%M%S}-{os.getpid()}-{uuid.uuid4().hex[:8]}"
-
-
-def _autosave_path(key: str) -> Path:
-    if not isinstance(key, str) or not re.fullmatch(r"[A-Za-z0-9_.-]{1,120}", key) or key.startswith("."):
-        raise LensInputError(f"'{key}' is not a valid autosave key: use letters, digits, '-', '_' or '.'.")
-    return autosave_dir() / f"{key}{AUTOSAVE_SUFFIX}"
-
-
-def write_autosave(session: Session, key: str, origin: str | os.PathLike | None = None) -> Path:
-    """Atomically write the autosave ``key`` (image path stored absolute); returns its path."""
-    from lensmass.io.atomic import write_text_atomic
-
-    target = _autosave_path(key)
-    block = {"autosave": {"pid": os.getpid(), "host": socket.gethostname(),
-                          "origin": None if origin is None else str(Path(origin).absolute())}}
-    text = session_json(session, None, extra=block)
-    try:
-        write_text_atomic(target, text)
-    except OSError as exc:
-        raise LensInputError(f"Could not write the autosave in '{target.parent}' ({exc.strerror or exc}); "
-                             f"set {DATA_DIR_ENV} to a writable folder.") from None
-    return target
-
-
-def _pid_alive(pid: int) -> bool:
-    if pid == os.getpid():
-        return True
-    if os.name != "posix":
-        return False  # cannot tell cheaply: offer it; the user can decline
-    try:
-        os.kill(pid, 0)
-    except ProcessLookupError:
-        return False
-    except PermissionError:
-        return True
-    except OSError:
-        return False
-    return True
-
-
-def list_recoverable(include_running: bool = False) -> list[RecoverableSession]:
-    """Autosaves whose writer is no longer running (a crash), newest first.
-
-    A window discards its autosave when it closes cleanly, so what is left belongs
-    to a run that crashed or was killed. Unreadable autosaves are skipped. With ``include_running`` the autosaves of
-    live windows (this process included) are listed too.
-    """
-    folder = autosave_dir()
-    if not folder.is_dir():
-        return []
-    try:
-        candidates = sorted(folder.glob(f"*{AUTOSAVE_SUFFIX}"))
-    except OSError:  # unreadable folder: nothing can be offered
-        return []
-    found = []
-    for path in candidates:
-        try:
-            data = json.loads(path.read_text(encoding="utf-8"))
-            block = data.get("autosave") or {}
-            image = (data.get("image") or {}).get("absolute_path") or (data.get("image") or {}).get("path")
-            saved = datetime.fromisoformat(data.get("saved_at"))
-            if saved.tzinfo is None:
-                saved = saved.replace(tzinfo=timezone.utc)
-            mtime = path.stat().st_mtime
-        except (OSError, ValueError, TypeError, AttributeError):
-            continue
-        pid, host = block.get("pid"), block.get("host")
-        if not include_running and isinstance(pid, int) and host == socket.gethostname() and _pid_alive(pid):
-            continue
-        found.append((saved, mtime, RecoverableSession(
-            key=path.name[: -len(AUTOSAVE_SUFFIX)],
-            path=path,
-            saved_at=saved,
-            image_name=Path(image).name if isinstance(image, str) and image else None,
-            origin=block.get("origin"),
-        )))
-    found.sort(key=lambda item: item[:2], reverse=True)
-    return [item[2] for item in found]
-
-
-def load_autosave(key: str) -> Session:
-    """The session stored in autosave ``key`` (the file is left in place)."""
-    path = _autosave_path(key)
-    data = _read_json(path, "Autosave")
-    return Session.from_dict(data, path.parent, source=f"Autosave '{key}'")
-
-
-def discard_autosave(key: str) -> None:
-    """Delete autosave ``key`` (no error if it is already gone)."""
-    path = _autosave_path(key)
-    try:
-        path.unlink()
-    except FileNotFoundError:
-        pass
-    except OSError as exc:
-        raise LensInputError(f"Could not delete the autosave '{path}' ({exc.strerror or exc}): remove it by hand.") from None
+        return getattr(autosave, name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

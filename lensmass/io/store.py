@@ -19,6 +19,9 @@ The grade scale (our own; it names what is seen, not a probability):
 2     counter-imaged    an arc or image with a plausible counter-image
 3     measurable        a ring, arcs or several images fit by one lens: measure it
 ====  ================  ==========================================================
+
+Longer than 500 lines because the grade store's schema, its SQLite implementation and the
+consensus and export helpers are being reworked together (locks, full disk, queue identity); split after.
 """
 
 from __future__ import annotations
@@ -452,37 +455,6 @@ def spool_path_beside(source: str | Path) -> Path:
     return source.with_name(source.stem + ".grades-spool.sqlite")
 
 
-def open_store(spec: str | None, source: str | Path, *, queue: str | None = None,
-               grader: str | None = None) -> GradeStore:
-    """Open the store of a queue.
-
-    ``spec`` None: SQLite beside the manifest; ``postgresql://...``: that server;
-    anything else: a path of a SQLite file. ``source`` is the manifest or folder
-    (it locates the local files and the queue's identity).
-
-    The queue's rows are told apart from other queues' by ``queue`` if given; else, in a
-    shared store (PostgreSQL or a named SQLite file), by the identity kept beside the
-    manifest (:mod:`lensmass.io.queue_identity`, made on first use), and in the default
-    store beside the manifest (one manifest's own file) by the manifest's stem.
-    """
-    from lensmass.io.queue_identity import queue_identity, queue_label
-
-    source = Path(source)
-    if spec is None or str(spec).strip() == "":
-        return SqliteStore(store_path_beside(source), queue or queue_label(source), grader)
-    text = str(spec).strip()
-    if "://" in text and not text.startswith(("postgresql://", "postgres://")):
-        raise LensInputError(
-            f"Unknown store '{text}': give a SQLite file path or a postgresql://user@host:port/db URL."
-        )
-    queue = queue or queue_identity(source)
-    if text.startswith(("postgresql://", "postgres://")):
-        from lensmass.io.store_postgres import PostgresStore
-
-        return PostgresStore(text, queue, grader, spool_path=spool_path_beside(source))
-    return SqliteStore(Path(text).expanduser(), queue, grader)
-
-
 # --- exports ---------------------------------------------------------------------------
 
 
@@ -543,3 +515,13 @@ def _float(value) -> float:
         return float(value)
     except (TypeError, ValueError):
         return math.nan
+
+
+def __getattr__(name: str):
+    """``open_store`` lives in :mod:`lensmass.io.store_open` (it picks SQLite or PostgreSQL, so this
+    module need not know the PostgreSQL one); it stays reachable from here."""
+    if name == "open_store":
+        from lensmass.io.store_open import open_store
+
+        return open_store
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

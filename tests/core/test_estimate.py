@@ -104,9 +104,9 @@ def test_cluster_scale_has_nfw_and_no_galaxy_caveat():
     [
         ((1.0, 0.6, 0.3), {}, "source must lie behind the lens"),
         ((1.0, 0.6, 0.6), {}, "source must lie behind the lens"),
-        ((-1.0, 0.2, 0.6), {}, "Einstein radius must be a positive"),
-        ((float("nan"), 0.2, 0.6), {}, "Einstein radius must be a positive"),
-        ((1.0, 0.0, 0.6), {}, "lens redshift must be a positive"),
+        ((-1.0, 0.2, 0.6), {}, r"Einstein radius \(`theta_e_arcsec`\) must be a positive"),
+        ((float("nan"), 0.2, 0.6), {}, r"Einstein radius \(`theta_e_arcsec`\) must be a positive"),
+        ((1.0, 0.0, 0.6), {}, r"lens redshift \(`z_l`\) must be a positive"),
         ((1.0, 0.2, 0.6), {"cosmology": "nonsense"}, "Unknown cosmology"),
         ((1.0, 0.2, 0.6), {"concentration": "wibble"}, "Unknown concentration"),
         ((1.0, 0.2, 0.6), {"theta_e_err": -1}, "zero or positive"),

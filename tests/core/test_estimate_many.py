@@ -1,7 +1,6 @@
 """estimate_many gives, row for row, what lensmass.core.estimate.estimate gives (the reference)."""
 
 import numpy as np
-import pytest
 
 from lensmass.core.estimate import DERIVED_KEYS, estimate
 from lensmass.core.estimate_many import _row_percentiles, estimate_many

@@ -9,7 +9,7 @@ from lensmass.core.sersic import (
     sersic_b,
     sersic_b_series,
     sersic_enclosed_fraction,
-    sersic_surface_brightness,
+    sersic_profile,
     sersic_total_flux,
 )
 from lensmass.core.stellar_profiles import (
@@ -59,10 +59,10 @@ def test_exponential_disc_closed_form():
 def test_total_flux_against_numerical_integral(n):
     # Graham & Driver (2005), eq. 4 against integral of 2 pi R I(R) dR with scipy quad
     r_e, i_e = 2.0, 3.0
-    numeric, _ = integrate.quad(lambda r: 2 * np.pi * r * sersic_surface_brightness(r, i_e, r_e, n), 0, np.inf,
+    numeric, _ = integrate.quad(lambda r: 2 * np.pi * r * sersic_profile(r, i_e, r_e, n), 0, np.inf,
                                 limit=400, epsrel=1e-11)
     assert float(sersic_total_flux(i_e, r_e, n)) == pytest.approx(numeric, rel=1e-8)
-    inner, _ = integrate.quad(lambda r: 2 * np.pi * r * sersic_surface_brightness(r, i_e, r_e, n), 0, 1.3,
+    inner, _ = integrate.quad(lambda r: 2 * np.pi * r * sersic_profile(r, i_e, r_e, n), 0, 1.3,
                               limit=400, epsrel=1e-11)
     assert float(sersic_enclosed_fraction(1.3, r_e, n)) == pytest.approx(inner / numeric, rel=1e-8)
 

@@ -6,7 +6,6 @@ from scipy import integrate
 
 from lensmass.core.concentration import duffy08_concentration
 from lensmass.core.cosmology import little_h, resolve_cosmology
-from lensmass.core.lensing import sigma_crit_msun_per_mpc2
 from lensmass.core.nfw import (
     nfw_halo,
     nfw_mean_surface_density_msun_per_mpc2,

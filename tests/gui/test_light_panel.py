@@ -200,7 +200,7 @@ def test_in_the_real_window_on_the_demo_ring_field(qtbot, make_window):
     from scipy import special
 
     lens = truth["lens_light_model"][0]
-    scale, n, r_e_pix = truth["pixel_scale_arcsec"], lens["n"], lens["r_eff_arcsec"] / truth["pixel_scale_arcsec"]
+    n, r_e_pix = lens["n"], lens["r_eff_arcsec"] / truth["pixel_scale_arcsec"]
     b_n = special.gammaincinv(2 * n, 0.5)
     q = lens["axis_ratio"]
     i_e = lens["total_flux"] / (2 * np.pi * n * q * r_e_pix**2 * np.exp(b_n) * b_n ** (-2 * n) * special.gamma(2 * n))

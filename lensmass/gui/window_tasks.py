@@ -1,0 +1,175 @@
+"""Background work: the debounced estimate, the task runner, and the ring finder, pixel scale and lens-light fit actions.
+
+A mixin of :class:`lensmass.gui.mainwindow.MainWindow`; it uses the widgets and
+the model that the window builds (see ``MainWindow.__init__``).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from PySide6.QtWidgets import QApplication
+
+from lensmass.core.errors import LensInputError
+from lensmass.gui.words import window_words
+from lensmass.gui.undo import AddMark, AddSystem, SetCentre
+
+
+class WindowTasksMixin:
+    """Background work part of the main window."""
+
+    # ============================================================ estimating
+    def request_estimate(self) -> None:
+        """Results are out of date: clear them now and estimate again shortly."""
+        m = self.model
+        m.invalidate()
+        for i in range(len(m.systems)):
+            problem = None
+            try:
+                m.estimate_request(i)
+            except LensInputError as exc:
+                problem = window_words(str(exc))
+            m.derived[i].result, m.derived[i].result_problem = None, problem
+        m.notify("result")
+        self._estimate_wanted = True
+        self._estimate_timer.start()
+
+    def _start_estimate(self) -> None:
+        if not self._estimate_wanted:
+            return
+        if self.tasks.busy:
+            if self._estimating:
+                self.tasks.cancel()
+            return  # _after_task starts it again
+        m = self.model
+        jobs = []
+        for i in range(len(m.systems)):
+            try:
+                theta, err, kwargs = m.estimate_request(i)
+            except LensInputError:
+                continue
+            jobs.append((i, m.derived[i].generation, theta, err, kwargs))
+        self._estimate_wanted = False
+        if not jobs:
+            return
+        self._estimating = True
+
+        def work(progress, should_stop):
+            from lensmass.core.estimate import estimate
+
+            out = []
+            for n, (i, gen, theta, err, kwargs) in enumerate(jobs):
+                if should_stop():
+                    break
+                progress(n / len(jobs), f"system {m.systems[i].name}" if i < len(m.systems) else "")
+                try:
+                    out.append((i, gen, estimate(theta, theta_e_err=err, **kwargs), None))
+                except LensInputError as exc:
+                    out.append((i, gen, None, str(exc)))
+            progress(1.0)
+            return out
+
+        self.tasks.start(work, "Estimating masses", self._estimate_done, self._estimate_failed,
+                         on_cancel=lambda: setattr(self, "_estimate_wanted", True))
+
+    def _estimate_done(self, out) -> None:
+        m = self.model
+        stale = False
+        for i, gen, result, problem in out:
+            if i >= len(m.derived) or m.derived[i].generation != gen:
+                stale = True
+                continue
+            m.derived[i].result, m.derived[i].result_problem = result, None if problem is None else window_words(problem)
+        if stale:
+            self._estimate_wanted = True
+        m.notify("result")
+
+    def _estimate_failed(self, message: str) -> None:
+        d = self.model.derived[self.model.active]
+        d.result, d.result_problem = None, window_words(message)
+        self.model.notify("result")
+
+    def _after_task(self) -> None:
+        self._estimating = False
+        if self._estimate_wanted:
+            self._estimate_timer.start()
+
+    def run_task(self, fn, label: str, on_result, on_error=None):
+        """Run ``fn(progress, should_stop)`` in the background (panel API, see panel_registry)."""
+        if self.tasks.busy and self._estimating:
+            self.tasks.cancel()
+            self.tasks.wait(5000)
+            QApplication.processEvents()
+        return self.tasks.start(fn, label, on_result, on_error or self.show_error)
+
+    # ================================================================ helpers
+    def _image_or_hint(self):
+        """The open image's state, or None after telling the user to open one."""
+        if self.model.image is None:
+            self.show_message("Open an image first (File > Open, or drop a file on the window).")
+        return self.model.image
+
+    def find_ring(self) -> None:
+        """Run the automatic ring finder; its ring becomes editable marks of a system."""
+        image = self._image_or_hint()
+        if image is None:
+            return
+        data, centre, residual = image.data, self.model.centre, image.residual
+
+        def work(progress, should_stop):
+            from lensmass.core.ringfinder import find_ring
+
+            kwargs = {"progress": progress, "should_stop": should_stop}
+            if residual is not None:
+                kwargs["residual"] = residual
+            cx, cy = (None, None) if centre is None else centre
+            return find_ring(data, cx, cy, **kwargs)
+
+        self.run_task(work, "Finding the ring", self._ring_found)
+
+    def _ring_found(self, ring) -> None:
+        m = self.model
+        if not getattr(ring, "found", False):
+            self.show_error(ring.message or "No ring or arc was found: mark the arc by hand.")
+            return
+        xs, ys = np.asarray(ring.points_x, float), np.asarray(ring.points_y, float)
+        if xs.size > 32:
+            keep = np.linspace(0, xs.size - 1, 32).round().astype(int)
+            xs, ys = xs[keep], ys[keep]
+        self.undo_stack.beginMacro("ring finder result")
+        if m.centre is None:
+            self.undo_stack.push(SetCentre(m, (ring.center_x, ring.center_y), "found"))
+        if m.active_system.points or m.active_system.images:
+            self.undo_stack.push(AddSystem(m))
+        if ring.lens_light is not None and m.image is not None and m.image.lens_light is None:
+            m.set_lens_light(ring.lens_light.model, ring.lens_light.method)
+            self._sync_display_widgets()
+        for x, y in zip(xs, ys):
+            self.undo_stack.push(AddMark(m, "point", m.active, (float(x), float(y))))
+        self.undo_stack.endMacro()
+        confidence = "confident" if ring.confident else "not confident: check the marks"
+        warn = f" {ring.warnings[-1]}" if ring.warnings else ""  # the last is about the ring itself
+        self.show_message(f"Ring found at {ring.radius_pix:.1f} px ({confidence}); its points are editable.{warn}")
+
+    def fit_lens_light(self, then_layer: str = "residual") -> None:
+        image = self._image_or_hint()
+        if image is None:
+            return
+        data, centre = image.data, self.model.centre
+
+        def work(progress, should_stop):
+            from lensmass.core.lenslight import fit_lens_light
+            from lensmass.core.ringfinder import find_center
+
+            cx, cy = centre if centre is not None else find_center(data)
+            return fit_lens_light(data, cx, cy, progress=progress, should_stop=should_stop)
+
+        self.run_task(work, "Fitting the lens light", lambda fit: self._light_fitted(fit, then_layer))
+
+    def _light_fitted(self, fit, then_layer: str = "residual") -> None:
+        if self.model.image is None:
+            return
+        self.model.set_lens_light(fit.model, fit.method)
+        self.set_display(layer=then_layer)
+        note = f" {fit.notes[0]}" if getattr(fit, "notes", None) else ""
+        self.show_message(f"Lens light: Sersic n = {fit.sersic_n:.2f}, R_eff = {fit.r_eff_pix:.1f} px; "
+                          f"showing the {then_layer}.{note}")
