@@ -83,9 +83,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 def _settings_from_args(args: argparse.Namespace) -> dict[str, Any]:
     from lensmass.core.cosmology import cosmology_label
 
+    from lensmass.core import limits
+
     cosmo = cosmology_from_args(args)
-    if args.samples < 100:
-        raise LensInputError(f"Use at least 100 Monte Carlo samples, got {args.samples}.")
+    workers = max(1, min(int(args.workers), limits.usable_cores()))
+    limits.monte_carlo_samples(args.samples, memory_bytes=limits.available_memory_bytes() // workers)
+    limits.seed(args.seed)
     return {"cosmology": cosmology_label(cosmo), "_cosmology": cosmo, "concentration": str(args.concentration),
             "halo_definition": args.halo_definition, "samples": int(args.samples), "seed": int(args.seed)}
 
@@ -312,7 +315,7 @@ def write_results(path: Path, records, settings, models) -> None:
     from lensmass.io.atomic import atomic_path
 
     table = results_table(list(records), settings, models)
-    with atomic_path(path) as tmp:
+    with atomic_path(path, "--out") as tmp:
         table.write(tmp, format="ascii.ecsv", overwrite=True)
 
 
@@ -358,11 +361,20 @@ def run(args: argparse.Namespace) -> int:
     out = Path(args.out)
     if out.suffix.lower() != ".ecsv":
         raise LensInputError(f"--out must name an .ecsv file (got '{out.name}'): RESULTS is an ECSV table.")
+    from lensmass.io.atomic import check_writable
+
+    check_writable(out, "--out")
     if args.workers < 1:
         raise LensInputError(f"--workers must be 1 or more, got {args.workers}.")
-    if not (args.save_every > 0):
+    if not (args.save_every > 0 and math.isfinite(args.save_every)):
         raise LensInputError(f"--save-every must be a positive number of seconds, got {args.save_every}.")
     settings = _settings_from_args(args)
+    from lensmass.core.limits import usable_cores
+
+    if args.workers > usable_cores():
+        print(f"lensmass batch: using {usable_cores()} worker(s), not {args.workers}: this machine gives lensmass "
+              f"{usable_cores()} core(s), and more workers than cores only add start-up time.", file=sys.stderr)
+        args.workers = usable_cores()
     _, c_label = concentration_relation(settings["concentration"], settings["halo_definition"])
     models = model_descriptions(settings["cosmology"], c_label, settings["halo_definition"])
     manifest = read_manifest(args.manifest)
@@ -379,7 +391,10 @@ def run(args: argparse.Namespace) -> int:
     progress = _progress_bar(len(todo), args.no_progress)
     previous_sigterm = _sigterm_as_interrupt()
     try:
-        if args.workers == 1 or len(todo) < 2:
+        if args.workers > 1 and len(todo) < 2 * args.workers:
+            print(f"lensmass batch: {len(todo)} row(s) run in this process: starting {args.workers} workers would "
+                  "take longer than the rows.", file=sys.stderr)
+        if args.workers == 1 or len(todo) < 2 * args.workers:
             for chunk in _chunks(todo, 1):
                 recs = run_rows(chunk, settings)
                 saver.add(recs)

@@ -13,6 +13,7 @@ import numpy as np
 
 from lensmass.core.concentration import concentration_relation
 from lensmass.core.cosmology import angular_diameter_distances_mpc, cosmology_label, resolve_cosmology
+from lensmass.core import limits
 from lensmass.core.errors import LensInputError
 from lensmass.core.lensing import arcsec_to_mpc, sigma_crit_msun_per_mpc2
 from lensmass.core.nfw import HALO_DEFINITIONS, nfw_mass_for_einstein_radius, overdensity_density_msun_per_mpc3
@@ -182,8 +183,10 @@ def estimate(
         raise LensInputError(f"Unknown halo definition '{halo_definition}': use one of {', '.join(HALO_DEFINITIONS)}.")
     cosmo = resolve_cosmology(cosmology)
     c_of_m, c_label = concentration_relation(concentration, halo_definition)
-    theta = _check_positive("The Einstein radius", theta_e_arcsec, "--theta-e")
+    theta = limits.einstein_radius_arcsec(_check_positive("The Einstein radius", theta_e_arcsec, "--theta-e"))
     zl = _check_positive("The lens redshift", z_l, "--zl")
+    limits.redshift_upper(zl, "The lens redshift", "--zl")
+    seed = limits.seed(seed)
     errs = {
         "theta": _check_error("theta_E", theta_e_err, "--theta-e-err"),
         "zl": _check_error("z_l", z_l_err, "--zl-err"),
@@ -192,6 +195,7 @@ def estimate(
     kind, zs_model = _source_redshift_model(z_s, z_s_range, z_s_distribution)
     if kind == "fixed":
         zs = _check_positive("The source redshift", z_s, "--zs")
+        limits.redshift_upper(zs, "The source redshift", "--zs")
         zl_b, zs_b = np.broadcast_arrays(zl, zs)
         in_front = np.flatnonzero(np.ravel(zs_b <= zl_b))
         if in_front.size:
@@ -213,9 +217,7 @@ def estimate(
     wants_mc = kind != "fixed" or any(v > 0 for v in errs.values())
     if wants_mc and not scalar_input:
         raise LensInputError("Uncertainties are propagated for one lens at a time: call estimate per lens, or use 'lensmass batch'.")
-    n_samples = int(samples)
-    if wants_mc and n_samples < 100:
-        raise LensInputError(f"Use at least 100 Monte Carlo samples, got {samples}.")
+    n_samples = limits.monte_carlo_samples(samples) if wants_mc else int(samples)
 
     notes: list[str] = []
     result: dict[str, Any] = {"cosmology": cosmology_label(cosmo)}
@@ -236,13 +238,15 @@ def estimate(
                 f"Only {int(keep.sum())} of {n_samples} Monte Carlo draws put the source behind the lens "
                 "with a positive radius: the redshift errors or range are too wide for this lens."
             )
-        sampled = derive_quantities(t_s[keep], zl_s[keep], zs_s[keep], cosmo, c_of_m, halo_definition)
+        sampled = derive_in_chunks(t_s[keep], zl_s[keep], zs_s[keep], cosmo, c_of_m, halo_definition)
+        del t_s, zl_s, zs_s, keep
         result.update(summarize_many(sampled))
         result["mc_samples"] = n_samples
         result["mc_rejected"] = n_rejected
         result["mc_seed"] = seed
+        n_kept = int(sampled["theta_e_arcsec"].size)
         n_nfw_failed = int((~np.isfinite(sampled["nfw_m200_msun"])).sum())
-        notes.extend(monte_carlo_notes(n_samples, n_rejected, n_nfw_failed, int(keep.sum())))
+        notes.extend(monte_carlo_notes(n_samples, n_rejected, n_nfw_failed, n_kept))
         result["_samples"] = sampled  # for plots; dropped from JSON output
 
     if kind == "fixed":
@@ -263,10 +267,33 @@ def estimate(
         result["versus_zs"] = _versus_zs(float(theta), float(zl), kind, zs_model, cosmo, c_of_m,
                                          halo_definition, versus_zs_points)
 
+    limits.below_light_speed(result["sis_sigma_v_kms"], fix="the Einstein radius is too large for these "
+                             "redshifts (or z_s is barely behind z_l); check --theta-e, --zl and --zs")
     notes.extend(model_notes(theta, result["nfw_m200_msun"], c_label))
     result["notes"] = notes
     result["models"] = model_descriptions(result["cosmology"], c_label, halo_definition)
     return result
+
+
+def derive_in_chunks(theta_e_arcsec, z_l, z_s, cosmo, concentration_of_mass: Callable,
+                     halo_definition: str = "200c", chunk: int | None = None) -> dict[str, np.ndarray]:
+    """:func:`derive_quantities` on 1-D sample arrays, :data:`lensmass.core.limits.MC_CHUNK` draws at a time.
+
+    Every derived number depends on its own draw only, so the result is identical to one call on
+    the whole arrays; the temporaries (mostly the NFW root find) stay bounded by the chunk size.
+    """
+    chunk = int(chunk or limits.MC_CHUNK)
+    n = int(np.size(theta_e_arcsec))
+    if n <= chunk:
+        return derive_quantities(theta_e_arcsec, z_l, z_s, cosmo, concentration_of_mass, halo_definition)
+    out = {key: np.empty(n) for key in DERIVED_KEYS}
+    for start in range(0, n, chunk):
+        part = slice(start, start + chunk)
+        block = derive_quantities(theta_e_arcsec[part], z_l[part], z_s[part], cosmo, concentration_of_mass,
+                                  halo_definition)
+        for key in DERIVED_KEYS:
+            out[key][part] = block[key]
+    return out
 
 
 def monte_carlo_notes(n_samples: int, n_rejected: int, n_nfw_failed: int, n_kept: int) -> list[str]:
@@ -289,6 +316,11 @@ def model_notes(theta_e_arcsec, nfw_m200_msun, concentration_label: str) -> list
         notes.append(
             f"No NFW halo between 1e6 and 1e18 Msun with {concentration_label} gives this Einstein radius at "
             "these redshifts: the NFW numbers are empty."
+        )
+    if np.any(np.asarray(theta_e_arcsec, float) > limits.THETA_E_NOTE_ARCSEC):
+        notes.append(
+            f"An Einstein radius above {limits.THETA_E_NOTE_ARCSEC:g}\" is larger than any known lens (the largest "
+            "cluster lenses reach about 1'): check that theta_E is a radius in arcsec."
         )
     if np.any(np.asarray(theta_e_arcsec, float) < GALAXY_SCALE_ARCSEC):
         notes.append(

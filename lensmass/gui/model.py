@@ -440,7 +440,12 @@ class WindowModel:
         return s
 
     def load_session(self, session: Session, loaded_image=None, path: str | None = None) -> None:
-        """Replace everything by a session (and the image it names, already loaded)."""
+        """Replace everything by a session (and the image it names, already loaded).
+
+        Marks that lie off the image are refused with one sentence (nothing is replaced).
+        """
+        if loaded_image is not None:
+            marks_on_image(session, loaded_image.data.shape)
         with self.batch():
             self.session = copy.deepcopy(session)
             if not self.session.arcs:
@@ -506,3 +511,17 @@ def _parse_number(text: str, key: str, *, v: dict, positive=False, nonneg=False,
         v[key] = f"{names[key]} cannot be negative, got {value:g}: give the 1-sigma error as a positive number."
         return None
     return value
+
+
+def marks_on_image(session: Session, shape: tuple[int, int]) -> None:
+    """Refuse a session whose centre or marked points lie off the image (0-based column, row)."""
+    from lensmass.core.limits import on_image
+
+    fix = "the session does not belong to this image: correct the field in the file or open the right image"
+    if session.centre is not None:
+        on_image(session.centre.x, session.centre.y, shape, "The session's lens centre", fix)
+    for arc in session.arcs:
+        for kind, pts in (("point", arc.points), ("image", arc.images)):
+            if pts:
+                xy = list(zip(*pts))
+                on_image(xy[0], xy[1], shape, f"An arc {kind} of system {arc.name}", fix)

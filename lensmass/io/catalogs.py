@@ -150,6 +150,12 @@ def resolve_columns(colnames: list[str], mapping: dict[str, str], *, need_z: boo
             resolved[role] = actual
         elif role in guesses:
             resolved[role] = guesses[role]
+    by_column: dict[str, str] = {}
+    for role, name in resolved.items():
+        if name in by_column:
+            raise LensInputError(f"Column '{name}' is used for both {by_column[name]} and {role}: map each role to "
+                                 "its own column with --columns.")
+        by_column[name] = role
     for role in REQUIRED_ROLES + (("z",) if need_z else ()):
         if role not in resolved:
             alternative = ", or give one source redshift for all with --zs" if role == "z" else ""

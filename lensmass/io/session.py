@@ -54,6 +54,7 @@ from pathlib import Path
 from typing import Any, Callable, Mapping
 
 from lensmass.core.errors import LensInputError
+from lensmass.core.limits import JSON_DEPTH_MAX, MC_SAMPLES_MAX, SEED_MAX
 
 #: Top-level tag that marks a lensmass session file.
 FORMAT_TAG = "lensmass-session"
@@ -69,6 +70,9 @@ AUTOSAVE_SUFFIX = ".autosave.json"
 
 ARC_SHAPES = ("circle", "ellipse")
 CENTRE_HOW = ("hand", "found")
+
+#: Largest session file read (bytes); sessions are kilobytes.
+SESSION_MAX_BYTES = 64_000_000
 
 #: schema n -> function turning a schema-n dict into a schema-(n+1) dict.
 MIGRATIONS: dict[int, Callable[[dict], dict]] = {}
@@ -331,11 +335,13 @@ class _Reader:
             raise self.fail(where, kind + (" or null" if optional else ""), value)
         return float(value)
 
-    def integer(self, value, where, *, optional=False, minimum=None) -> int | None:
+    def integer(self, value, where, *, optional=False, minimum=None, maximum=None) -> int | None:
         if value is None and optional:
             return None
-        if not isinstance(value, int) or isinstance(value, bool) or (minimum is not None and value < minimum):
+        if not isinstance(value, int) or isinstance(value, bool) or (minimum is not None and value < minimum) \
+                or (maximum is not None and value > maximum):
             limit = f" >= {minimum}" if minimum is not None else ""
+            limit += f" and <= {maximum:,}" if maximum is not None else ""
             raise self.fail(where, f"a whole number{limit}" + (" or null" if optional else ""), value)
         return int(value)
 
@@ -530,8 +536,8 @@ def _session_from_dict(data: Mapping[str, Any], base_dir, source: str) -> Sessio
         cosmology=cosmology,
         concentration=conc,
         halo_definition=r.text(d.get("halo_definition", "200c"), "halo_definition", choices=("200c", "200m", "vir")),
-        mc_samples=r.integer(d.get("mc_samples", 10_000), "mc_samples", minimum=1),
-        mc_seed=r.integer(seed, "mc_seed", optional=True, minimum=0),
+        mc_samples=r.integer(d.get("mc_samples", 10_000), "mc_samples", minimum=1, maximum=MC_SAMPLES_MAX),
+        mc_seed=r.integer(seed, "mc_seed", optional=True, minimum=0, maximum=SEED_MAX),
         arcs=arcs,
         ring=r.obj(d.get("ring"), "ring", optional=True),
         notes=r.text(d.get("notes", ""), "notes"),
@@ -588,13 +594,23 @@ def _read_json(path: Path, what: str) -> Any:
     if not path.is_file():
         raise LensInputError(f"{what} '{path}' does not exist: check the path or pick the file again.")
     try:
+        size = path.stat().st_size
+        if size > SESSION_MAX_BYTES:
+            raise LensInputError(f"{what} '{path}' is {size / 1e6:.0f} MB, far larger than any lensmass session "
+                                 f"(they are kilobytes; at most {SESSION_MAX_BYTES // 10**6} MB is read): "
+                                 "check that it is the file you meant.")
         raw = path.read_bytes()
     except OSError as exc:
         raise LensInputError(f"Cannot read {what.lower()} '{path}' ({exc.strerror or exc}): check its permissions.") from None
     if not raw.strip():
         raise LensInputError(f"{what} '{path}' is empty (half-written?): open a backup or an autosave instead.")
     try:
-        return json.loads(raw.decode("utf-8"))
+        data = json.loads(raw.decode("utf-8"))
+        _check_depth(data, path, what)
+        return data
+    except RecursionError:
+        raise LensInputError(f"{what} '{path}' is nested too deeply to be a lensmass session (more than "
+                             f"{JSON_DEPTH_MAX} levels): open a session saved by lensmass.") from None
     except UnicodeDecodeError:
         raise LensInputError(f"{what} '{path}' is not a text file: open a session saved by lensmass.") from None
     except json.JSONDecodeError as exc:
@@ -607,6 +623,17 @@ def _read_json(path: Path, what: str) -> Any:
             f"{what} '{path}' is not valid JSON (line {exc.lineno}, column {exc.colno}): "
             "it is damaged; open a backup or an autosave instead."
         ) from None
+
+
+def _check_depth(data: Any, path: Path, what: str) -> None:
+    """Refuse JSON nested deeper than :data:`lensmass.core.limits.JSON_DEPTH_MAX` (walked without recursion)."""
+    stack = [(data, 1)]
+    while stack:
+        value, depth = stack.pop()
+        if depth > JSON_DEPTH_MAX:
+            raise RecursionError
+        children = value.values() if isinstance(value, dict) else value if isinstance(value, list) else ()
+        stack.extend((v, depth + 1) for v in children if isinstance(v, (dict, list)))
 
 
 def load_session(path: str | os.PathLike) -> Session:
@@ -666,6 +693,7 @@ def write_autosave(session: Session, key: str, origin: str | os.PathLike | None 
                           "origin": None if origin is None else str(Path(origin).absolute())}}
     text = session_json(session, None, extra=block)
     try:
+        target.parent.mkdir(parents=True, exist_ok=True)  # our own data folder: made on first use
         write_text_atomic(target, text)
     except OSError as exc:
         raise LensInputError(f"Could not write the autosave in '{target.parent}' ({exc.strerror or exc}); "
