@@ -144,7 +144,8 @@ def analyse_shear_catalog(
         if value is not None:
             limits.positive_radius(value, flag)
     if r_min is not None and r_max is not None and not r_min < r_max:
-        raise LensInputError(f"--rmin ({r_min:g}) must be smaller than --rmax ({r_max:g}).")
+        raise LensInputError(f"The radial range needs rmin < rmax, got --rmin {r_min:g} and --rmax {r_max:g}; "
+                             "swap or correct them.")
     if zeta_radii is not None:
         for value in zeta_radii:
             limits.positive_radius(value, "--zeta-radii")

@@ -20,16 +20,16 @@ from lensmass.core.errors import LensInputError
 
 #: errno -> what to tell the user to do.
 _FIXES = {
-    errno.ENOSPC: "free some space or write elsewhere",
-    errno.EDQUOT: "free some space or write elsewhere",
-    errno.EACCES: "choose a folder you can write to",
-    errno.EPERM: "choose a folder you can write to",
-    errno.EROFS: "the disk is read-only: choose another place",
-    errno.ENOENT: "choose a folder that exists",
-    errno.ENOTDIR: "part of the path is a file, not a folder: check the path",
+    errno.ENOSPC: "free some space or choose another folder",
+    errno.EDQUOT: "free some space or choose another folder",
+    errno.EACCES: "choose another folder (one you can write to)",
+    errno.EPERM: "choose another folder (one you can write to)",
+    errno.EROFS: "the disk is read-only: choose another folder",
+    errno.ENOENT: "choose another folder (one that exists)",
+    errno.ENOTDIR: "part of the path is a file, not a folder: choose another folder",
     errno.EISDIR: "give a file name, not a folder",
     errno.ENAMETOOLONG: "use a shorter name",
-    errno.EFBIG: "the file is larger than this disk allows: write elsewhere",
+    errno.EFBIG: "the file is larger than this disk allows: choose another folder",
 }
 
 
@@ -69,9 +69,9 @@ def write_failure(target: str | os.PathLike, exc: OSError, what: str = "") -> Le
     """The one sentence for a failed write of ``target``."""
     label = f" ({what})" if what else ""
     reason = exc.strerror or type(exc).__name__
-    fix = _FIXES.get(exc.errno or 0, "check the path and the free space")
+    fix = _FIXES.get(exc.errno or 0, "check the path and the free space, or choose another folder")
     existed = Path(target).is_file()
-    kept = "; the previous file is unchanged" if existed else "; nothing was written"
+    kept = "; the previous file there is unchanged" if existed else "; nothing was written"
     return LensInputError(f"Could not write '{target}'{label}: {reason.lower()}{kept}; {fix}.")
 
 
