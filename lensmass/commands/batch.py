@@ -179,6 +179,10 @@ def result_record(row, result: dict | None, error: str) -> dict[str, Any]:
     rec["method"] = str(result.get("method", "") or "")
     rec["notes"] = " | ".join(result.get("notes") or [])
     rec["error"] = error
+    from lensmass.io.spreadsheet import spreadsheet_safe
+
+    for key in ("id", "cosmology", "source", "method", "notes", "error"):  # RESULTS may be opened in a spreadsheet
+        rec[key] = spreadsheet_safe(rec[key])
     return rec
 
 
@@ -341,7 +345,9 @@ def read_previous(path: Path, settings: dict, manifest) -> dict[int, dict[str, A
     for name in table.colnames:  # ECSV reads empty strings back as masked
         if table[name].dtype.kind in "US" and hasattr(table[name], "filled"):
             table[name] = table[name].filled("")
-    ids = {r.index + 1: r.id for r in manifest.rows}
+    from lensmass.io.spreadsheet import spreadsheet_safe
+
+    ids = {r.index + 1: spreadsheet_safe(r.id) for r in manifest.rows}
     kept = {}
     for rec in table:
         d = {n: (rec[n].item() if hasattr(rec[n], "item") else rec[n]) for n in table.colnames}
