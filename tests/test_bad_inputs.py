@@ -79,7 +79,7 @@ ISSUE_CASES = [
                               "0.9"], CLEAN, "--max-radius"),
     c("bootstrap-negative", [*SHEAR_BASE, "--bootstrap", "-1"], CLEAN, "--bootstrap"),
     c("png-decompression-bomb", ["measure", "{bomb_png}", "--pixel-scale", "0.2", *MEAS_PTS], CLEAN, "pixels"),
-    c("singular-cd-matrix", ["measure", "{cd_singular}", *MEAS_PTS], CLEAN, "singular"),
+    c("singular-cd-matrix", ["measure", "{cd_degenerate}", *MEAS_PTS], CLEAN, "singular"),
     c("cdelt-1e-15", ["measure", "{cdelt_tiny}", *MEAS_PTS], CLEAN, "pixel scale"),
     c("session-nested-100000", ["gui", "{session_deep}", "--screenshot", "{tmp}/deep.png"], CLEAN, "nested"),
     c("session-mc-samples-1e12", ["gui", "{session_huge_mc}", "--screenshot", "{tmp}/mc.png"], CLEAN, "mc_samples"),
@@ -111,7 +111,152 @@ for _opt, (_argv, _ext) in OUTPUT_OPTIONS.items():
     ISSUE_CASES.append(c(f"{_opt} is a folder", [*_argv, "{folder}" + _ext], CLEAN, "folder"))
     ISSUE_CASES.append(c(f"{_opt} under /proc", [*_argv, "/proc/lensmass-test/out" + _ext], CLEAN, ""))
 
+# ---------------------------------------------------------------------------------- more of our own
+
+E0 = ["estimate", "--zl", "0.25", "--zs", "0.9"]
 OWN_CASES: list[Case] = []
+for v in ("0", "-1", "nan", "inf", "3600", "1e300"):
+    OWN_CASES.append(c(f"estimate theta-e {v}", ["estimate", "--theta-e", v, "--zl", "0.25", "--zs", "0.9"], CLEAN,
+                       "Einstein radius"))
+for v in ("-0.1", "nan", "inf"):
+    OWN_CASES.append(c(f"estimate theta-e-err {v}", [*EST, "--theta-e-err", v], CLEAN, "theta_E"))
+for v in ("0", "-0.1", "nan", "inf", "2000"):
+    OWN_CASES.append(c(f"estimate zl {v}", ["estimate", "--theta-e", "1.4", "--zl", v, "--zs", "0.9"], CLEAN,
+                       "lens redshift"))
+for v, phrase in (("0", "source redshift"), ("nan", "source redshift"), ("0.2", "behind the lens"),
+                  ("0.25", "behind the lens"), ("5000", "source redshift")):
+    OWN_CASES.append(c(f"estimate zs {v}", ["estimate", "--theta-e", "1.4", "--zl", "0.25", "--zs", v], CLEAN, phrase))
+for flag in ("--zl-err", "--zs-err"):
+    for v in ("-1", "nan"):
+        OWN_CASES.append(c(f"estimate {flag} {v}", [*EST, flag, v], CLEAN, "uncertainty"))
+for v in ("1", "a,b", "2,1", "0,1", "nan,2", "-1,2", "1,2,3"):
+    OWN_CASES.append(c(f"estimate zs-range {v}", ["estimate", "--theta-e", "1.4", "--zl", "0.25", "--zs-range", v,
+                                                  "--samples", "300"], CLEAN, "range"))
+for name in ("missing", "empty", "dup_z", "neg_w", "folder_zt", "passwd", "zero_w"):
+    OWN_CASES.append(c(f"estimate zs-table {name}", ["estimate", "--theta-e", "1.4", "--zl", "0.25", "--zs-table",
+                                                     "{zt_" + name + "}", "--samples", "300"], CLEAN, ""))
+for v in ("0", "50", "-5", "1000000000", "1000000000000"):
+    OWN_CASES.append(c(f"estimate samples {v}", [*EST[:-2], "--theta-e-err", "0.05", "--samples", v], CLEAN,
+                       "samples"))
+for v in ("-1", "-100", str(2**130)):
+    OWN_CASES.append(c(f"estimate seed {v}", [*EST[:-2], "--theta-e-err", "0.05", "--seed", v], CLEAN, "--seed"))
+for argv, phrase in ((["--h0", "0", "--om0", "0.3"], "H0"), (["--h0", "-70", "--om0", "0.3"], "H0"),
+                     (["--h0", "nan", "--om0", "0.3"], "H0"), (["--h0", "1e6", "--om0", "0.3"], "H0"),
+                     (["--h0", "70", "--om0", "0"], "Om0"), (["--h0", "70", "--om0", "-0.3"], "Om0"),
+                     (["--h0", "70", "--om0", "5"], "Om0"), (["--h0", "70", "--om0", "nan"], "Om0"),
+                     (["--h0", "70", "--om0", "0.3", "--ode0", "nan"], "Ode0"),
+                     (["--h0", "70", "--om0", "0.05", "--ode0", "1.5"], "big bang"),
+                     (["--h0", "70"], "Om0"), (["--om0", "0.3"], "H0"),
+                     (["--cosmology", "Nope"], "Unknown cosmology"),
+                     (["--cosmology", "Planck18", "--h0", "70", "--om0", "0.3"], "not both")):
+    OWN_CASES.append(c(f"estimate cosmology {' '.join(argv)}", [*EST, *argv], CLEAN, phrase))
+for v in ("-3", "0", "nan", "abc", "1e9", "inf"):
+    OWN_CASES.append(c(f"estimate concentration {v}", [*EST, "--concentration", v], CLEAN, "concentration"))
+for argv, phrase in ((["--halo-definition", "500c"], "--halo-definition"), (["--foo"], "unrecognized"),
+                     (["--samples", "1e3"], "--samples"), (["--theta-e"], "--theta-e")):
+    OWN_CASES.append(c(f"estimate argparse {' '.join(argv)}", [*EST, *argv], CLEAN, phrase))
+OWN_CASES.append(c("estimate missing --zl", ["estimate", "--theta-e", "1.4", "--zs", "0.9"], CLEAN, "--zl"))
+OWN_CASES.append(c("estimate theta-e 150 flagged", ["estimate", "--theta-e", "150", "--zl", "0.25", "--zs", "2.5",
+                                                    "--json"], FLAG, "larger than any known lens"))
+OWN_CASES.append(c("estimate zs barely behind zl", ["estimate", "--theta-e", "30", "--zl", "0.5", "--zs",
+                                                    "0.5000000001"], CLEAN, "faster than light"))
+LIGHT = [*EST, "--lens-mag", "18.9", "--band", "sdss_r", "--r-eff", "1.2"]
+for argv in (["--lens-mag", "nan"], ["--band", "nope"], ["--r-eff", "-1"], ["--sersic-n", "0"],
+             ["--stellar-ml", "-1"], ["--kcorr", "nan"], ["--extinction", "-1"], ["--r-eff", "inf"]):
+    OWN_CASES.append(c(f"estimate light {' '.join(argv)}", [*LIGHT, *argv], CLEAN, argv[0].lstrip("-").split("-")[0]))
+
+MEAS = ["measure", str(RING), *MEAS_PTS]
+for v in ("0", "-0.2", "nan", "1e-6", "7200"):
+    OWN_CASES.append(c(f"measure pixel-scale {v}", [*MEAS, "--pixel-scale", v], CLEAN, "pixel scale"))
+for v in ("-1", "0.3", "nan"):
+    OWN_CASES.append(c(f"measure pixel-scale-err {v}", [*MEAS, "--pixel-scale", "0.2", "--pixel-scale-err", v],
+                       CLEAN, "error"))
+for v, phrase in (("a,b", "--center"), ("1", "--center"), ("nan,nan", "outside"), ("-5,-5", "outside"),
+                  ("1e9,1e9", "outside")):
+    OWN_CASES.append(c(f"measure center {v}", [*MEAS, f"--center={v}"], CLEAN, phrase))
+for v, phrase in (("400,100", "declination"), ("201.4,95", "declination"), ("a,b", "--center-sky"),
+                  ("10,10", "does not fall on")):
+    OWN_CASES.append(c(f"measure center-sky {v}", [*MEAS, "--center-sky", v], CLEAN, phrase))
+for argv, phrase in ((["--hdu", "7"], "HDU"), (["--hdu", "NOPE"], "HDU"), (["--plane", "x"], "--plane")):
+    OWN_CASES.append(c(f"measure {' '.join(argv)}", [*MEAS, *argv], CLEAN, phrase))
+for name, phrase in (("missing", "No such"), ("empty", "empty"), ("header_only", "no points"),
+                     ("wrong_header", "header"), ("text", "two numbers"), ("nan", "NaN"), ("folder", "not an "),
+                     ("two", ""), ("same", ""), ("binary", "")):
+    OWN_CASES.append(c(f"measure points {name}", ["measure", str(RING), "--points", "{pts_" + name + "}", "--zl",
+                                                   "0.25", "--zs", "0.9", "--samples", "300"], CLEAN, phrase))
+for name, phrase in (("missing", "No such"), ("empty", "empty"), ("folder", "folder"), ("text", "not a valid FITS"),
+                     ("truncated", "truncated"), ("png_text", "not a readable picture"), ("table", "table"),
+                     ("all_nan", "NaN"), ("cube", "--plane")):
+    OWN_CASES.append(c(f"measure image {name}", ["measure", "{img_" + name + "}", "--pixel-scale", "0.2",
+                                                  "--auto-ring", "--zl", "0.25", "--zs", "0.9"], CLEAN, phrase))
+for v in ("0", "inf", "-1e9"):
+    OWN_CASES.append(c(f"measure max-radius {v}", ["measure", str(RING), "--auto-ring", "--max-radius", v, "--zl",
+                                                   "0.25", "--zs", "0.9"], CLEAN, "--max-radius"))
+OWN_CASES.append(c("measure auto-ring on a blank image", ["measure", "{img_blank}", "--pixel-scale", "0.2",
+                                                           "--auto-ring", "--zl", "0.25", "--zs", "0.9"], CLEAN, "ring"))
+OWN_CASES.append(c("measure sky points without WCS", ["measure", "{img_blank}", "--pixel-scale", "0.2", "--points",
+                                                       "{pts_sky_ok}", "--zl", "0.25", "--zs", "0.9"], CLEAN, "WCS"))
+
+for argv, phrase in ((["--bins", "0"], "--bins"), (["--bins", "-3"], "--bins"), (["--bootstrap", "10000000"],
+                                                                                 "--bootstrap"),
+                     (["--seed", "-1"], "--seed"), (["--zs-margin", "nan"], "--zs-margin"),
+                     (["--zs-margin", "inf"], "--zs-margin"), (["--rmin", "-1"], "--rmin"), (["--rmin", "nan"],
+                                                                                            "--rmin"),
+                     (["--rmax", "0"], "--rmax"), (["--rmin", "5", "--rmax", "2"], "rmin < rmax"),
+                     (["--map-pixels", "0"], "--map-pixels"), (["--map-pixels", "1000000"], "--map-pixels"),
+                     (["--map-noise", "0"], "--map-noise"), (["--map-noise", "100000"], "--map-noise"),
+                     (["--map-smoothing", "-60"], "--map-smoothing"), (["--map-smoothing", "nan"], "--map-smoothing"),
+                     (["--zeta-radii", "5,2"], "zeta"), (["--zeta-radii", "-1,3"], "--zeta-radii"),
+                     (["--zeta-radii", "a,b"], "--zeta-radii"), (["--zs", "0.1"], "behind the lens")):
+    OWN_CASES.append(c(f"shear {' '.join(argv)}", [*SHEAR_BASE, *argv], CLEAN, phrase))
+SHEAR_SMALL = ["shear", "{cat_small}", "--center-sky", "141.3720,18.2705", "--bootstrap", "0", "--zs", "1.0"]
+for argv, phrase in ((["--zl", "0"], "lens redshift"), (["--zl", "nan"], "lens redshift"),
+                     (["--zl", "5000"], "lens redshift"),
+                     (["--zl", "0.35", "--center-sky", "400,100"], "declination"),
+                     (["--zl", "0.35", "--center-sky", "a,b"], "--center-sky"),
+                     (["--zl", "0.35", "--columns", "e1=E1,e2=E1"], "both"),
+                     (["--zl", "0.35", "--columns", "ra=NOPE"], "NOPE"),
+                     (["--zl", "0.35", "--columns", "bogus"], "column")):
+    OWN_CASES.append(c(f"shear small {' '.join(argv)}", [*SHEAR_SMALL, *argv], CLEAN, phrase))
+for name, phrase in (("missing", "does not exist"), ("folder", ""), ("empty", ""), ("text", "")):
+    OWN_CASES.append(c(f"shear catalogue {name}", ["shear", "{cat_" + name + "}", "--zl", "0.35", "--center-sky",
+                                                    "141.3720,18.2705", "--zs", "1.0"], CLEAN, phrase))
+
+BATCH = ["batch", "{manifest_two}", "--no-progress", "--samples", "200"]
+for argv, phrase in ((["--workers", "0"], "--workers"), (["--workers", "-1"], "--workers"),
+                     (["--save-every", "0"], "--save-every"), (["--save-every", "nan"], "--save-every"),
+                     (["--save-every", "-1"], "--save-every"), (["--samples", "10"], "samples"),
+                     (["--samples", "1000000000000"], "--samples"), (["--seed", "-1"], "--seed")):
+    OWN_CASES.append(c(f"batch {' '.join(argv)}", [*BATCH, "--out", "{tmp}/b{uniq}.ecsv", *argv], CLEAN, phrase))
+OWN_CASES.append(c("batch out not ecsv", [*BATCH, "--out", "{tmp}/b.csv"], CLEAN, ".ecsv"))
+for name, phrase in (("missing", "does not exist"), ("folder_m", "manifest table"), ("empty_m", "empty"),
+                     ("dup_ids", "twice"), ("dup_case", "twice"), ("dup_alias", "twice")):
+    OWN_CASES.append(c(f"batch manifest {name}", ["batch", "{man_" + name + "}", "--out", "{tmp}/m{uniq}.ecsv",
+                                                   "--no-progress"], CLEAN, phrase))
+OWN_CASES.append(c("batch out exists", [*BATCH, "--out", "{existing_ecsv}"], CLEAN, "already exists"))
+OWN_CASES.append(c("batch nonsense rows flagged", ["batch", "{man_nonsense}", "--out", "{tmp}/n.ecsv",
+                                                   "--no-progress", "--samples", "200"], FLAG, "failed"))
+
+GRADE = ["grade", "{class_csv}"]
+for v in ("0", "2", "nan", "-1"):
+    OWN_CASES.append(c(f"grade tolerance {v}", [*GRADE, "--out", "{tmp}/g{uniq}.csv", "--tolerance", v], CLEAN,
+                       "tolerance"))
+OWN_CASES.append(c("grade out txt", [*GRADE, "--out", "{tmp}/g.txt"], CLEAN, ".csv"))
+OWN_CASES.append(c("grade out equals html", [*GRADE, "--out", "{tmp}/same.csv", "--html", "{tmp}/same.csv"],
+                   CLEAN, "same file"))
+for name, phrase in (("missing", "does not exist"), ("no_student", "student"), ("no_answers", "answer")):
+    OWN_CASES.append(c(f"grade submissions {name}", ["grade", "{cls_" + name + "}", "--out", "{tmp}/c{uniq}.csv"],
+                       CLEAN, phrase))
+
+SHOT = ["--screenshot", "{tmp}/s{uniq}.png"]
+for name, phrase in (("not_json", "not valid JSON"), ("empty", "empty"), ("truncated", "ends too early"),
+                     ("wrong_tag", ""), ("future", "schema"), ("mc_zero", "mc_samples"), ("seed_neg", "mc_seed"),
+                     ("arc_off", "outside"), ("too_big", "MB")):
+    OWN_CASES.append(c(f"gui session {name}", ["gui", "{ses_" + name + "}", *SHOT], CLEAN, phrase))
+for argv, phrase in ((["--size", "10x10"], "--size"), (["--size", "abc"], "--size"),
+                     (["--screenshot", "{tmp}/s.jpg"], ".png")):
+    OWN_CASES.append(c(f"gui {' '.join(argv)}", ["gui", str(RING), *argv] + ([] if "--screenshot" in argv else SHOT),
+                       CLEAN, phrase))
 ALL_CASES = ISSUE_CASES + OWN_CASES
 
 
@@ -156,7 +301,7 @@ def files(tmp_path_factory):
     for name, cards in {"wcs90": {"CDELT1": -90.0, "CDELT2": 90.0},
                         "cdelt_nan": {"CDELT1": "NaN", "CDELT2": "NaN"},
                         "cdelt_tiny": {"CDELT1": -1e-15, "CDELT2": 1e-15},
-                        "cd_singular": {"CD1_1": 1e-5, "CD1_2": 1e-5, "CD2_1": 1e-5, "CD2_2": 1e-5}}.items():
+                        "cd_degenerate": {"CD1_1": 1e-5, "CD1_2": 1e-5, "CD2_1": 1e-5, "CD2_2": 1e-5}}.items():
         _fits_with(d / f"{name}.fits", **cards)
         f[name] = str(d / f"{name}.fits")
     fits.PrimaryHDU(np.ones((1, 1), np.float32)).writeto(d / "one.fits")
@@ -187,7 +332,101 @@ def files(tmp_path_factory):
     far = dict(base, centre={"x": -1e9, "y": -1e9, "how": "hand"})
     (d / "far.lensmass.json").write_text(json.dumps(far))
     f["session_far_centre"] = str(d / "far.lensmass.json")
+    _more_files(d, f, base, pts)
     return f
+
+
+def _more_files(d: Path, f: dict, base: dict, pts) -> None:
+    """Inputs of the cases of our own (files that are missing, empty, damaged or of the wrong kind)."""
+    def put(key, name, text=None, data=None):
+        path = d / name
+        if text is not None:
+            path.write_text(text)
+        if data is not None:
+            path.write_bytes(data)
+        f[key] = str(path)
+
+    # redshift tables
+    put("zt_missing", "nope_nz.csv")
+    put("zt_empty", "empty_nz.csv", "")
+    put("zt_dup_z", "dup_nz.csv", "z,weight\n1.0,1\n1.0,2\n2.0,1\n")
+    put("zt_neg_w", "neg_nz.csv", "z,weight\n1.0,1\n1.5,-2\n2.0,1\n")
+    put("zt_zero_w", "zero_nz.csv", "z,weight\n1.0,0\n1.5,0\n2.0,0\n")
+    (d / "nz_folder.csv").mkdir()
+    f["zt_folder_zt"] = str(d / "nz_folder.csv")
+    f["zt_passwd"] = "/etc/passwd"
+    # points files
+    put("pts_missing", "nope_pts.csv")
+    put("pts_empty", "empty_pts.csv", "")
+    put("pts_header_only", "head_pts.csv", "x,y\n")
+    put("pts_wrong_header", "wrong_pts.csv", "u,v\n1,2\n")
+    put("pts_text", "text_pts.csv", "x,y\n1,two\n")
+    put("pts_nan", "nan_pts.csv", "x,y\n50,50\nnan,40\n45,45\n")
+    (d / "pts_dir.csv").mkdir()
+    f["pts_folder"] = str(d / "pts_dir.csv")
+    put("pts_two", "two_pts.csv", "x,y\n50,40\n57,50\n")
+    put("pts_same", "same_pts.csv", "x,y\n" + "50,50\n" * 6)
+    put("pts_binary", "bin_pts.csv", data=bytes(range(256)) * 4)
+    put("pts_sky_ok", "sky_ok.csv", "ra,dec\n201.4471,4.1882\n201.4472,4.1883\n201.4470,4.1884\n")
+    # images
+    put("img_missing", "nope.fits")
+    put("img_empty", "empty.fits", "")
+    (d / "img_dir.fits").mkdir()
+    f["img_folder"] = str(d / "img_dir.fits")
+    put("img_text", "text.fits", "this is not a FITS file\n" * 20)
+    put("img_truncated", "trunc.fits", data=RING.read_bytes()[:5000])
+    put("img_png_text", "text.png", "not a picture")
+    Table({"a": [1.0, 2.0]}).write(d / "table.fits")
+    fits.HDUList([fits.PrimaryHDU(), fits.BinTableHDU(Table({"a": [1.0]}))]).writeto(d / "onlytable.fits")
+    f["img_table"] = str(d / "onlytable.fits")
+    fits.PrimaryHDU(np.full((20, 20), np.nan, np.float32)).writeto(d / "nan.fits")
+    f["img_all_nan"] = str(d / "nan.fits")
+    fits.PrimaryHDU(np.zeros((3, 20, 20), np.float32)).writeto(d / "cube.fits")
+    f["img_cube"] = str(d / "cube.fits")
+    fits.PrimaryHDU(np.zeros((60, 60), np.float32)).writeto(d / "blank.fits")
+    f["img_blank"] = str(d / "blank.fits")
+    # shear catalogues
+    cat = Table.read(SHEAR)[:400]
+    cat["RA", "DEC", "E1", "E2"].write(d / "small_cat.csv", format="ascii.csv")
+    f["cat_small"] = str(d / "small_cat.csv")
+    f["cat_missing"] = str(d / "nope_cat.fits")
+    (d / "cat_dir.csv").mkdir()
+    f["cat_folder"] = str(d / "cat_dir.csv")
+    put("cat_empty", "empty_cat.csv", "")
+    put("cat_text", "text_cat.fits", "no table here\n")
+    # manifests
+    f["man_missing"] = str(d / "nope_manifest.csv")
+    (d / "man_dir").mkdir()
+    (d / "man_dir" / "x.fits").write_bytes(RING.read_bytes())
+    f["man_folder_m"] = str(d / "man_dir")
+    put("man_empty_m", "empty_manifest.csv", "")
+    put("man_dup_ids", "dupid.csv", "id,theta_e_arcsec,z_l,z_s\nA,1.2,0.3,1.1\nA,1.3,0.3,1.1\n")
+    put("man_dup_case", "dupcase.csv", "id,theta_e_arcsec,Z_L,z_s,z_l\nA,1.2,0.3,1.1,0.4\n")
+    put("man_dup_alias", "dupalias.csv", "id,theta_e_arcsec,zl,z_s,z_l\nA,1.2,0.3,1.1,0.4\n")
+    put("man_nonsense", "nonsense.csv", "id,theta_e_arcsec,z_l,z_s\nok,1.2,0.3,1.1\nhuge,1e6,0.3,1.1\n"
+        "far,1.2,2000,3000\n")
+    (d / "exists.ecsv").write_text("# %ECSV 1.0\n")
+    f["existing_ecsv"] = str(d / "exists.ecsv")
+    # submissions
+    f["cls_missing"] = str(d / "nope_class.csv")
+    put("cls_no_student", "nostudent.csv", "name,theta_e_arcsec,z_l,z_s,mass_einstein_msun\nann,1.5,0.35,1.4,1e11\n")
+    put("cls_no_answers", "noanswers.csv", "student,theta_e_arcsec,z_l,z_s\nann,1.5,0.35,1.4\n")
+    # sessions
+    put("ses_not_json", "notjson.lensmass.json", "{this is not json")
+    put("ses_empty", "empty.lensmass.json", "")
+    put("ses_truncated", "trunc.lensmass.json", json.dumps(base)[:-30])
+    put("ses_wrong_tag", "tag.lensmass.json", json.dumps(dict(base, format="something-else")))
+    put("ses_future", "future.lensmass.json", json.dumps(dict(base, schema=99)))
+    put("ses_mc_zero", "mczero.lensmass.json", json.dumps(dict(base, mc_samples=0)))
+    put("ses_seed_neg", "seedneg.lensmass.json", json.dumps(dict(base, mc_seed=-5)))
+    arcs = json.loads(json.dumps(base.get("arcs", [])))
+    if arcs:
+        arcs[0]["points"] = [[5000.0, 5000.0]] + list(arcs[0].get("points", []))
+    put("ses_arc_off", "arcoff.lensmass.json", json.dumps(dict(base, arcs=arcs, centre=None)))
+    with open(d / "big.lensmass.json", "wb") as fh:
+        fh.write(b"{")
+        fh.truncate(65_000_001)  # sparse: takes no disk space
+    f["ses_too_big"] = str(d / "big.lensmass.json")
 
 
 def _expand(argv, files, uniq):
@@ -226,3 +465,21 @@ def test_bad_input(case, files, capsys, monkeypatch):
     monkeypatch.setenv("QT_QPA_PLATFORM", "offscreen")
     code, out, err = run_case(case, files, capsys, uniq=str(abs(hash(case.name))))
     assert verdict(case, code, out, err) == case.outcome
+
+
+def test_tally(files, capsys, monkeypatch):
+    """Print every case's outcome and sentence (run with -s); the counts go in the closing note."""
+    import os
+
+    if not os.environ.get("LENSMASS_TALLY"):
+        pytest.skip("set LENSMASS_TALLY=1 to print the tally")
+    monkeypatch.setenv("QT_QPA_PLATFORM", "offscreen")
+    lines, counts = [], {CLEAN: 0, FLAG: 0, "other": 0}
+    for case in ALL_CASES:
+        code, out, err = run_case(case, files, capsys, uniq="t" + str(abs(hash(case.name))))
+        v = verdict(case, code, out, err)
+        counts[v if v in counts else "other"] += 1
+        lines.append(f"{v:>5} | {case.name} | {err.strip().splitlines()[-1] if err.strip() else ''}")
+    with capsys.disabled():
+        print("\n".join(lines))
+        print(f"tried {len(ALL_CASES)}: clean {counts[CLEAN]}, flagged {counts[FLAG]}, other {counts['other']}")

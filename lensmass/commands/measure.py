@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import argparse
 import sys
+from pathlib import Path
 
 import numpy as np
 
@@ -79,6 +80,9 @@ def measure_from_args(args: argparse.Namespace) -> dict:
         ra, dec = parse_pair(args.center_sky, "--center-sky")
         limits.sky_position(ra, dec, "--center-sky", "give the lens centre as RA,DEC in degrees")
         x, y = image.sky_to_pixel(ra, dec)
+        if not (np.isfinite(x) and np.isfinite(y)):
+            raise LensInputError(f"--center-sky {ra:g},{dec:g} does not fall on {Path(args.image).name} (it is on the "
+                                 "far side of the sky for this image's projection); check RA,DEC.")
         center = (float(x), float(y))
     if center is not None:
         ny, nx = image.shape

@@ -181,6 +181,12 @@ def measure_theta_e_from_points(
                                                               pixel_matrix_arcsec)
     px = np.asarray(x, float).ravel()
     py = np.asarray(y, float).ravel()
+    if data is not None:
+        from lensmass.core.limits import on_image
+
+        on_image(px, py, np.shape(data), "A marked point", "check that the points belong to this image")
+        if center is not None:
+            on_image(center[0], center[1], np.shape(data), "The lens centre", "check --center")
     need = {"circle": 3 if center is None else 1, "ellipse": 5 if center is None else 4, "images": 2}[shape]
     if px.size < need:
         what = {"circle": "arc points for a circle", "ellipse": "arc points for an ellipse",

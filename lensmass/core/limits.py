@@ -40,16 +40,19 @@ THETA_E_MAX_ARCSEC = 3600.0
 THETA_E_NOTE_ARCSEC = 120.0
 #: Largest redshift accepted for a lens or a source (beyond the surface of last scattering, z ~ 1100).
 REDSHIFT_MAX = 1100.0
-#: Peak bytes one Monte Carlo draw of :func:`lensmass.core.estimate.estimate` keeps for the whole run
-#: (3 inputs + 13 derived numbers, float64, plus the rejection mask); the temporaries of the NFW root
-#: find are bounded by the chunk size. Measured with tracemalloc (benchmarks/bench_estimate.py).
-MC_BYTES_PER_DRAW = 160
+#: Peak bytes per Monte Carlo draw of :func:`lensmass.core.estimate.estimate` when it runs in chunks
+#: (3 inputs + 13 derived numbers in float64, masks, percentile copies): measured with tracemalloc at
+#: 201 bytes (2e6 draws) and 249 (1e6 draws) against 350 unchunked (benchmarks/bench_estimate.py).
+MC_BYTES_PER_DRAW = 250
 #: Monte Carlo draws derived at once (bounds the temporaries of the root find, ~350 bytes a draw).
 MC_CHUNK = 250_000
 #: Never more Monte Carlo draws than this, whatever the memory (10^8 draws: percentiles to 1e-4).
 MC_SAMPLES_MAX = 100_000_000
 #: Fraction of the available memory one run may plan to use.
 MEMORY_FRACTION = 0.5
+#: Fixed NFW concentrations accepted: halos in simulations and lensing data have c200 of about 1 to 30
+#: (Duffy et al. 2008, fig. 1; common practice), so this range is generous.
+CONCENTRATION_RANGE = (0.1, 100.0)
 #: Radial bins of a shear profile, and bootstrap resamplings.
 SHEAR_BINS_MAX = 1000
 BOOTSTRAP_MAX = 100_000

@@ -99,6 +99,8 @@ def catalog_format(path: str | Path) -> str:
 
 
 def _read_table(path: Path, fmt: str, columns: list[str] | None = None):
+    if path.is_dir():
+        raise LensInputError(f"'{path}' is a folder, not a catalogue: give the catalogue file itself.")
     if not path.is_file():
         raise LensInputError(f"Catalogue '{path}' does not exist: check the path.")
     if fmt == "parquet":

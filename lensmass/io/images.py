@@ -387,7 +387,8 @@ def _celestial_wcs(header, notes: list[str], problem: list[str] | None = None):
         m = cel.pixel_scale_matrix
     except Exception:
         return None
-    if not np.all(np.isfinite(m)) or abs(np.linalg.det(m)) == 0:
+    norms = np.sqrt((np.asarray(m, float) ** 2).sum(axis=0)) if np.all(np.isfinite(m)) else np.zeros(2)
+    if not np.all(np.isfinite(m)) or abs(np.linalg.det(m)) <= 1e-9 * norms[0] * norms[1]:
         problem.append("its CD/PC matrix is singular or not finite: the two pixel axes point the same way on the sky")
         notes.append("The WCS has a singular or non-finite CD/PC matrix; sky coordinates ignored.")
         return None
