@@ -68,6 +68,17 @@ def _load(module_name: str):
         raise
 
 
+def _warnings_on_one_line(command: str) -> None:
+    """Library warnings (numpy, scipy, astropy) as one line each, without the source line they came from."""
+    import warnings
+
+    def show(message, category, filename, lineno, file=None, line=None):
+        text = " ".join(str(message).split()) or category.__name__
+        print(f"lensmass {command}: warning from {category.__name__}: {text[:200]}", file=sys.stderr)
+
+    warnings.showwarning = show
+
+
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the ``lensmass`` console script."""
     if argv is not None:
@@ -87,6 +98,8 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_BAD_INPUT
     from lensmass.core.errors import LensInputError
 
+    if not os.environ.get("LENSMASS_DEBUG"):
+        _warnings_on_one_line(args.command)
     try:
         return int(module.run(args) or 0)
     except LensInputError as exc:

@@ -160,6 +160,19 @@ OWN_CASES.append(c("estimate theta-e 150 flagged", ["estimate", "--theta-e", "15
                                                     "--json"], FLAG, "larger than any known lens"))
 OWN_CASES.append(c("estimate zs barely behind zl", ["estimate", "--theta-e", "30", "--zl", "0.5", "--zs",
                                                     "0.5000000001"], CLEAN, "faster than light"))
+for argv, phrase in ((["--theta-e", "1e-300"], "microarcsecond"), (["--zl", "1e-300"], "peculiar velocities"),
+                     (["--zs-range", "0.3,1e9"], "1100"), (["--h0", "1e-300", "--om0", "0.3"], "H0"),
+                     (["--h0", "70", "--om0", "0.3", "--ode0", "-5"], "undefined")):
+    base = {"--theta-e": "1.4", "--zl": "0.25", "--zs": "0.9"}
+    for k in range(0, len(argv), 2):
+        if argv[k] in base:
+            base[argv[k]] = argv[k + 1]
+    rest = [a for k in range(0, len(argv), 2) if argv[k] not in base for a in argv[k:k + 2]]
+    if "--zs-range" in rest:
+        base.pop("--zs")
+    OWN_CASES.append(c(f"estimate extreme {' '.join(argv)}", ["estimate", *[a for kv in base.items() for a in kv],
+                                                               *rest, "--samples", "300"], CLEAN, phrase))
+OWN_CASES.append(c("measure --hdu -1", [*MEAS_PTS[:0], "measure", str(RING), *MEAS_PTS, "--hdu=-1"], CLEAN, "HDU"))
 LIGHT = [*EST, "--lens-mag", "18.9", "--band", "sdss_r", "--r-eff", "1.2"]
 for argv in (["--lens-mag", "nan"], ["--band", "nope"], ["--r-eff", "-1"], ["--sersic-n", "0"],
              ["--stellar-ml", "-1"], ["--kcorr", "nan"], ["--extinction", "-1"], ["--r-eff", "inf"]):

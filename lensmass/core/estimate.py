@@ -114,9 +114,11 @@ def _source_redshift_model(z_s, z_s_range, z_s_distribution):
             raise LensInputError("The source redshift range must be two numbers, ZMIN,ZMAX (for example 1.0,3.0).") from None
         if not (np.isfinite(lo) and np.isfinite(hi) and 0 < lo < hi):
             raise LensInputError(f"The source redshift range needs 0 < ZMIN < ZMAX, got {lo:g},{hi:g}.")
+        limits.redshift_upper(hi, "The top of the source redshift range", "--zs-range")
         return "range", (lo, hi)
     if z_s_distribution is not None:
         zt, wt = (np.asarray(v, float) for v in z_s_distribution)
+        limits.redshift_upper(zt[np.isfinite(zt) & (zt > limits.REDSHIFT_MAX)], "A redshift of the table", "--zs-table")
         distribution_samples(zt, wt, 1, np.random.default_rng(0))  # validates with clear messages
         return "table", (zt, wt)
     return "fixed", None

@@ -38,6 +38,11 @@ PIXEL_SCALE_MAX_ARCSEC = 3600.0
 THETA_E_MAX_ARCSEC = 3600.0
 #: Einstein radii above this get a note: larger than any known lens (common practice: < ~1 arcmin).
 THETA_E_NOTE_ARCSEC = 120.0
+#: Smallest Einstein radius accepted (arcsec): a microarcsecond, far below any measured image splitting.
+THETA_E_MIN_ARCSEC = 1e-6
+#: Smallest redshift accepted: below ~1e-4 (about 0.4 Mpc) peculiar velocities swamp the Hubble flow,
+#: so a redshift no longer gives a distance (common practice).
+REDSHIFT_MIN = 1e-4
 #: Largest redshift accepted for a lens or a source (beyond the surface of last scattering, z ~ 1100).
 REDSHIFT_MAX = 1100.0
 #: Peak bytes per Monte Carlo draw of :func:`lensmass.core.estimate.estimate` when it runs in chunks
@@ -181,6 +186,11 @@ def pixel_scale(scale_arcsec, what: str = "The pixel scale", fix: str = "check -
 def einstein_radius_arcsec(theta, flag: str = "--theta-e") -> np.ndarray:
     """Einstein radii: positive, finite and below 1 deg (the SIS and thin-lens formulas assume small angles)."""
     arr = np.asarray(theta, dtype=float)
+    too_small = np.isfinite(arr) & (arr > 0) & (arr < THETA_E_MIN_ARCSEC)
+    if np.any(too_small):
+        shown = float(arr.ravel()[np.flatnonzero(too_small.ravel())[0]])
+        raise LensInputError(f"The Einstein radius {shown:g}\" is below a microarcsecond, far smaller than any "
+                             f"measured lens; check {flag} (it is in arcsec).")
     too_big = np.isfinite(arr) & (arr >= THETA_E_MAX_ARCSEC)
     if np.any(too_big):
         shown = float(arr.ravel()[np.flatnonzero(too_big.ravel())[0]])
@@ -192,8 +202,14 @@ def einstein_radius_arcsec(theta, flag: str = "--theta-e") -> np.ndarray:
 
 
 def redshift_upper(z, what: str, flag: str) -> None:
-    """Redshifts above :data:`REDSHIFT_MAX` (before the surface of last scattering) are refused."""
+    """Redshifts above :data:`REDSHIFT_MAX` (before the surface of last scattering) or below
+    :data:`REDSHIFT_MIN` (where redshift is no distance) are refused."""
     arr = np.asarray(z, dtype=float)
+    low = np.isfinite(arr) & (arr > 0) & (arr < REDSHIFT_MIN)
+    if np.any(low):
+        shown = float(arr.ravel()[np.flatnonzero(low.ravel())[0]])
+        raise LensInputError(f"{what} {shown:g} is below {REDSHIFT_MIN:g}, where peculiar velocities swamp the "
+                             f"expansion and a redshift gives no distance; check {flag}.")
     bad = np.isfinite(arr) & (arr > REDSHIFT_MAX)
     if np.any(bad):
         shown = float(arr.ravel()[np.flatnonzero(bad.ravel())[0]])

@@ -269,6 +269,8 @@ def _choose_hdu(p: Path, hdul, hdu):
     if hdu is not None:
         try:
             key = int(hdu) if str(hdu).lstrip("-").isdigit() else str(hdu)
+            if isinstance(key, int) and key < 0:
+                raise IndexError
             chosen = hdul[key]
         except (KeyError, IndexError):
             raise _fail_open(p, f"it has no HDU '{hdu}' (it has {n}, numbered 0 to {n - 1})") from None
