@@ -114,11 +114,11 @@ def _source_redshift_model(z_s, z_s_range, z_s_distribution):
             raise LensInputError("The source redshift range must be two numbers, ZMIN,ZMAX (for example 1.0,3.0).") from None
         if not (np.isfinite(lo) and np.isfinite(hi) and 0 < lo < hi):
             raise LensInputError(f"The source redshift range needs 0 < ZMIN < ZMAX, got {lo:g},{hi:g}.")
-        limits.redshift_upper(hi, "The top of the source redshift range", "--zs-range")
+        limits.redshift_in_range(hi, "The top of the source redshift range", "--zs-range")
         return "range", (lo, hi)
     if z_s_distribution is not None:
         zt, wt = (np.asarray(v, float) for v in z_s_distribution)
-        limits.redshift_upper(zt[np.isfinite(zt) & (zt > limits.REDSHIFT_MAX)], "A redshift of the table", "--zs-table")
+        limits.redshift_in_range(zt[np.isfinite(zt) & (zt > limits.REDSHIFT_MAX)], "A redshift of the table", "--zs-table")
         distribution_samples(zt, wt, 1, np.random.default_rng(0))  # validates with clear messages
         return "table", (zt, wt)
     return "fixed", None
@@ -187,7 +187,7 @@ def estimate(
     c_of_m, c_label = concentration_relation(concentration, halo_definition)
     theta = limits.einstein_radius_arcsec(_check_positive("The Einstein radius", theta_e_arcsec, "--theta-e"))
     zl = _check_positive("The lens redshift", z_l, "--zl")
-    limits.redshift_upper(zl, "The lens redshift", "--zl")
+    limits.redshift_in_range(zl, "The lens redshift", "--zl")
     seed = limits.seed(seed)
     errs = {
         "theta": _check_error("theta_E", theta_e_err, "--theta-e-err"),
@@ -197,7 +197,7 @@ def estimate(
     kind, zs_model = _source_redshift_model(z_s, z_s_range, z_s_distribution)
     if kind == "fixed":
         zs = _check_positive("The source redshift", z_s, "--zs")
-        limits.redshift_upper(zs, "The source redshift", "--zs")
+        limits.redshift_in_range(zs, "The source redshift", "--zs")
         zl_b, zs_b = np.broadcast_arrays(zl, zs)
         in_front = np.flatnonzero(np.ravel(zs_b <= zl_b))
         if in_front.size:

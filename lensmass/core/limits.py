@@ -97,6 +97,12 @@ def usable_cores() -> int:
         return max(1, os.cpu_count() or 1)
 
 
+def _first(values: np.ndarray, bad: np.ndarray) -> float | None:
+    """The first value where ``bad`` holds (for the message), or None when none does."""
+    hits = np.flatnonzero(np.ravel(bad))
+    return float(np.ravel(values)[hits[0]]) if hits.size else None
+
+
 def _fmt(value) -> str:
     try:
         return f"{float(value):g}"
@@ -186,14 +192,12 @@ def pixel_scale(scale_arcsec, what: str = "The pixel scale", fix: str = "check -
 def einstein_radius_arcsec(theta, flag: str = "--theta-e") -> np.ndarray:
     """Einstein radii: positive, finite and below 1 deg (the SIS and thin-lens formulas assume small angles)."""
     arr = np.asarray(theta, dtype=float)
-    too_small = np.isfinite(arr) & (arr > 0) & (arr < THETA_E_MIN_ARCSEC)
-    if np.any(too_small):
-        shown = float(arr.ravel()[np.flatnonzero(too_small.ravel())[0]])
+    shown = _first(arr, np.isfinite(arr) & (arr > 0) & (arr < THETA_E_MIN_ARCSEC))
+    if shown is not None:
         raise LensInputError(f"The Einstein radius {shown:g}\" is below a microarcsecond, far smaller than any "
                              f"measured lens; check {flag} (it is in arcsec).")
-    too_big = np.isfinite(arr) & (arr >= THETA_E_MAX_ARCSEC)
-    if np.any(too_big):
-        shown = float(arr.ravel()[np.flatnonzero(too_big.ravel())[0]])
+    shown = _first(arr, np.isfinite(arr) & (arr >= THETA_E_MAX_ARCSEC))
+    if shown is not None:
         raise LensInputError(
             f"The Einstein radius {shown:g}\" is 1 deg or more, far beyond any lens (the largest known are about "
             f"1'); check {flag} (it is in arcsec)."
@@ -201,18 +205,16 @@ def einstein_radius_arcsec(theta, flag: str = "--theta-e") -> np.ndarray:
     return arr
 
 
-def redshift_upper(z, what: str, flag: str) -> None:
+def redshift_in_range(z, what: str, flag: str) -> None:
     """Redshifts above :data:`REDSHIFT_MAX` (before the surface of last scattering) or below
     :data:`REDSHIFT_MIN` (where redshift is no distance) are refused."""
     arr = np.asarray(z, dtype=float)
-    low = np.isfinite(arr) & (arr > 0) & (arr < REDSHIFT_MIN)
-    if np.any(low):
-        shown = float(arr.ravel()[np.flatnonzero(low.ravel())[0]])
+    shown = _first(arr, np.isfinite(arr) & (arr > 0) & (arr < REDSHIFT_MIN))
+    if shown is not None:
         raise LensInputError(f"{what} {shown:g} is below {REDSHIFT_MIN:g}, where peculiar velocities swamp the "
                              f"expansion and a redshift gives no distance; check {flag}.")
-    bad = np.isfinite(arr) & (arr > REDSHIFT_MAX)
-    if np.any(bad):
-        shown = float(arr.ravel()[np.flatnonzero(bad.ravel())[0]])
+    shown = _first(arr, np.isfinite(arr) & (arr > REDSHIFT_MAX))
+    if shown is not None:
         raise LensInputError(f"{what} {shown:g} is beyond z = {REDSHIFT_MAX:g} (nothing is seen from before the "
                              f"cosmic microwave background); check {flag}.")
 
@@ -220,9 +222,8 @@ def redshift_upper(z, what: str, flag: str) -> None:
 def below_light_speed(sigma_kms, what: str = "The SIS velocity dispersion", fix: str = "") -> None:
     """Refuse velocities at or above c: no lens of any mass makes them."""
     arr = np.asarray(sigma_kms, dtype=float)
-    bad = np.isfinite(arr) & (arr >= SPEED_OF_LIGHT_KMS)
-    if np.any(bad):
-        shown = float(arr.ravel()[np.flatnonzero(bad.ravel())[0]])
+    shown = _first(arr, np.isfinite(arr) & (arr >= SPEED_OF_LIGHT_KMS))
+    if shown is not None:
         raise LensInputError(
             f"{what} would be {shown:,.0f} km/s, faster than light: {fix or 'check the Einstein radius and the redshifts'}."
         )
@@ -234,13 +235,11 @@ def sky_position(ra_deg, dec_deg, what: str = "The position", fix: str = "give R
     dec = np.asarray(dec_deg, dtype=float)
     if not (np.all(np.isfinite(ra)) and np.all(np.isfinite(dec))):
         raise LensInputError(f"{what} has a NaN or infinite coordinate; {fix}.")
-    bad_dec = np.abs(dec) > 90
-    if np.any(bad_dec):
-        shown = float(dec.ravel()[np.flatnonzero(bad_dec.ravel())[0]])
+    shown = _first(dec, np.abs(dec) > 90)
+    if shown is not None:
         raise LensInputError(f"{what} has declination {shown:g} deg, off the sphere (Dec lies within +-90 deg); {fix}.")
-    bad_ra = np.abs(ra) > 360
-    if np.any(bad_ra):
-        shown = float(ra.ravel()[np.flatnonzero(bad_ra.ravel())[0]])
+    shown = _first(ra, np.abs(ra) > 360)
+    if shown is not None:
         raise LensInputError(f"{what} has right ascension {shown:g} deg, outside 0 to 360 deg; {fix}.")
 
 

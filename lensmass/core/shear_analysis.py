@@ -139,7 +139,7 @@ def analyse_shear_catalog(
     c_of_m, c_label = concentration_relation(concentration, halo_definition)
     check_run_sizes(n_bins, n_bootstrap, seed)
     limits.non_negative(z_margin, "--zs-margin", "sources are kept when z > z_l + margin")
-    limits.redshift_upper(z_l, "The lens redshift", "--zl")
+    limits.redshift_in_range(z_l, "The lens redshift", "--zl")
     for value, flag in ((r_min, "--rmin"), (r_max, "--rmax")):
         if value is not None:
             limits.positive_radius(value, flag)
