@@ -243,7 +243,8 @@ for argv, phrase in ((["--workers", "0"], "--workers"), (["--workers", "-1"], "-
     OWN_CASES.append(c(f"batch {' '.join(argv)}", [*BATCH, "--out", "{tmp}/b{uniq}.ecsv", *argv], CLEAN, phrase))
 OWN_CASES.append(c("batch out not ecsv", [*BATCH, "--out", "{tmp}/b.csv"], CLEAN, ".ecsv"))
 for name, phrase in (("missing", "does not exist"), ("folder_m", "manifest table"), ("empty_m", "empty"),
-                     ("dup_ids", "twice"), ("dup_case", "twice"), ("dup_alias", "twice")):
+                     ("dup_ids", "twice"), ("dup_case", "twice"), ("dup_alias", "twice"),
+                     ("passwd", "none of the manifest columns")):
     OWN_CASES.append(c(f"batch manifest {name}", ["batch", "{man_" + name + "}", "--out", "{tmp}/m{uniq}.ecsv",
                                                    "--no-progress"], CLEAN, phrase))
 OWN_CASES.append(c("batch out exists", [*BATCH, "--out", "{existing_ecsv}"], CLEAN, "already exists"))
@@ -413,6 +414,7 @@ def _more_files(d: Path, f: dict, base: dict, pts) -> None:
     (d / "man_dir" / "x.fits").write_bytes(RING.read_bytes())
     f["man_folder_m"] = str(d / "man_dir")
     put("man_empty_m", "empty_manifest.csv", "")
+    put("man_passwd", "passwd.csv", "root:x:0:0:root:/root:/bin/bash\ndaemon:x:1:1:daemon:/usr/sbin\n")
     put("man_dup_ids", "dupid.csv", "id,theta_e_arcsec,z_l,z_s\nA,1.2,0.3,1.1\nA,1.3,0.3,1.1\n")
     put("man_dup_case", "dupcase.csv", "id,theta_e_arcsec,Z_L,z_s,z_l\nA,1.2,0.3,1.1,0.4\n")
     put("man_dup_alias", "dupalias.csv", "id,theta_e_arcsec,zl,z_s,z_l\nA,1.2,0.3,1.1,0.4\n")

@@ -149,6 +149,10 @@ def read_manifest(path: str | Path) -> Manifest:
 
     unique_names(names, f"manifest '{path.name}'", _canonical)
     rename = {n: _canonical(n) for n in names}
+    known = set(NUMERIC_COLUMNS) | {"id", "image", "points", "notes", "z_s_min", "z_s_max", "pixel_scale_arcsec"}
+    if not known & set(rename.values()):
+        raise LensInputError(f"'{path.name}' has none of the manifest columns (id, image, points, theta_e_arcsec, "
+                             "z_l, z_s ...) in its header row: is it the manifest you meant?")
     base = path.parent
     rows: list[ManifestRow] = []
     for i, raw in enumerate(cells):
