@@ -33,7 +33,7 @@ EXIT_INTERNAL = 70
 class _OneLineParser(argparse.ArgumentParser):
     """argparse, but a usage error is one line (the problem and where to look), exit status 2."""
 
-    def error(self, message: str):  # noqa: D401 - argparse's hook
+    def error(self, message: str):  # argparse's hook
         text = " ".join(str(message).split())
         self.exit(EXIT_BAD_INPUT, f"{self.prog}: {text}; see '{self.prog} --help'.\n")
 

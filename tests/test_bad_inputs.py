@@ -19,7 +19,6 @@ row says so (speed of light: CODATA via astropy.constants; declination within
 from __future__ import annotations
 
 import json
-import math
 from dataclasses import dataclass
 from pathlib import Path
 

@@ -118,7 +118,7 @@ def _shear(**k):
     def call(d):
         from lensmass.core.shear_analysis import analyse_shear_catalog
 
-        args = dict(z_l=0.35, z_s=1.0, center_ra=141.37, center_dec=18.27)
+        args = {"z_l": 0.35, "z_s": 1.0, "center_ra": 141.37, "center_dec": 18.27}
         args.update(k)
         ra, dec = np.array([141.37, 141.38]), np.array([18.27, 18.28])
         return analyse_shear_catalog(ra, dec, np.zeros(2), np.zeros(2), np.ones(2), None, **args)

@@ -70,7 +70,8 @@ def test_manifest_pointing_at_a_system_file_does_not_echo_it(tmp_path, capsys):
     out = tmp_path / "r.ecsv"
     assert main(["batch", str(m), "--out", str(out), "--no-progress", "--samples", "200"]) == 3
     err = Table.read(out)["error"][0]
-    first_line = open("/etc/passwd").readline().strip()
+    with open("/etc/passwd") as fh:
+        first_line = fh.readline().strip()
     assert err and first_line not in err and "root:" not in err
 
 

@@ -23,7 +23,7 @@ from __future__ import annotations
 
 import math
 import os
-from typing import Iterable
+from collections.abc import Iterable
 
 import numpy as np
 
@@ -286,7 +286,7 @@ def has_big_bang(cosmo) -> None:
         warnings.simplefilter("ignore")
         try:
             e = np.asarray(cosmo.efunc(z), float)
-        except Exception:  # astropy refuses some parameter sets outright
+        except (ValueError, TypeError, ArithmeticError):  # astropy refuses some parameter sets outright
             e = np.full(z.shape, np.nan)
     bad = ~(np.isfinite(e) & (e > 0))
     if np.any(bad):

@@ -13,8 +13,8 @@ import errno
 import os
 import tempfile
 import time
+from collections.abc import Iterator
 from pathlib import Path
-from typing import Iterator
 
 from lensmass.core.errors import LensInputError
 

@@ -9,7 +9,6 @@ changed: a cell whose text is a number (``-1.5``, ``+3e4``) is left as it is.
 
 from __future__ import annotations
 
-import math
 from typing import Any
 
 #: First characters that make a spreadsheet evaluate a cell.

@@ -14,9 +14,9 @@ import numpy as np
 import pytest
 
 pytest.importorskip("PySide6")
-from astropy.io import fits  # noqa: E402
+from astropy.io import fits
 
-from tests.gui.conftest import REPO, demo_field, type_into, wait_idle  # noqa: E402
+from tests.gui.conftest import REPO, demo_field, type_into, wait_idle
 
 
 def _png_header_only(width, height):
