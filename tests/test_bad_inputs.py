@@ -359,28 +359,24 @@ def _more_files(d: Path, f: dict, base: dict, pts) -> None:
             path.write_bytes(data)
         f[key] = str(path)
 
-    # redshift tables
-    put("zt_missing", "nope_nz.csv")
-    put("zt_empty", "empty_nz.csv", "")
-    put("zt_dup_z", "dup_nz.csv", "z,weight\n1.0,1\n1.0,2\n2.0,1\n")
-    put("zt_neg_w", "neg_nz.csv", "z,weight\n1.0,1\n1.5,-2\n2.0,1\n")
-    put("zt_zero_w", "zero_nz.csv", "z,weight\n1.0,0\n1.5,0\n2.0,0\n")
-    (d / "nz_folder.csv").mkdir()
-    f["zt_folder_zt"] = str(d / "nz_folder.csv")
+    text_files = {  # key: (file name, text); None = the file does not exist
+        "zt_missing": ("nope_nz.csv", None), "zt_empty": ("empty_nz.csv", ""),
+        "zt_dup_z": ("dup_nz.csv", "z,weight\n1.0,1\n1.0,2\n2.0,1\n"),
+        "zt_neg_w": ("neg_nz.csv", "z,weight\n1.0,1\n1.5,-2\n2.0,1\n"),
+        "zt_zero_w": ("zero_nz.csv", "z,weight\n1.0,0\n1.5,0\n2.0,0\n"),
+        "pts_missing": ("nope_pts.csv", None), "pts_empty": ("empty_pts.csv", ""),
+        "pts_header_only": ("head_pts.csv", "x,y\n"), "pts_wrong_header": ("wrong_pts.csv", "u,v\n1,2\n"),
+        "pts_text": ("text_pts.csv", "x,y\n1,two\n"), "pts_nan": ("nan_pts.csv", "x,y\n50,50\nnan,40\n45,45\n"),
+        "pts_two": ("two_pts.csv", "x,y\n50,40\n57,50\n"), "pts_same": ("same_pts.csv", "x,y\n" + "50,50\n" * 6),
+        "pts_sky_ok": ("sky_ok.csv", "ra,dec\n201.4471,4.1882\n201.4472,4.1883\n201.4470,4.1884\n"),
+    }
+    for key, (name, text) in text_files.items():
+        put(key, name, text)
+    for key, name in (("zt_folder_zt", "nz_folder.csv"), ("pts_folder", "pts_dir.csv")):
+        (d / name).mkdir()
+        f[key] = str(d / name)
     f["zt_passwd"] = "/etc/passwd"
-    # points files
-    put("pts_missing", "nope_pts.csv")
-    put("pts_empty", "empty_pts.csv", "")
-    put("pts_header_only", "head_pts.csv", "x,y\n")
-    put("pts_wrong_header", "wrong_pts.csv", "u,v\n1,2\n")
-    put("pts_text", "text_pts.csv", "x,y\n1,two\n")
-    put("pts_nan", "nan_pts.csv", "x,y\n50,50\nnan,40\n45,45\n")
-    (d / "pts_dir.csv").mkdir()
-    f["pts_folder"] = str(d / "pts_dir.csv")
-    put("pts_two", "two_pts.csv", "x,y\n50,40\n57,50\n")
-    put("pts_same", "same_pts.csv", "x,y\n" + "50,50\n" * 6)
     put("pts_binary", "bin_pts.csv", data=bytes(range(256)) * 4)
-    put("pts_sky_ok", "sky_ok.csv", "ra,dec\n201.4471,4.1882\n201.4472,4.1883\n201.4470,4.1884\n")
     # images
     put("img_missing", "nope.fits")
     put("img_empty", "empty.fits", "")
