@@ -99,3 +99,13 @@ def test_typed_nonsense_is_a_sentence_where_it_is_typed(qtbot, ring_window, fiel
     status = window.results_panel.status.text()
     assert status and "\n" not in status and phrase.lower() in status.lower(), status
     assert window.results_panel.values["mass_einstein_msun"].text() == "–"  # no confident number
+
+
+def test_stored_marks_off_the_image_are_refused_and_change_nothing(qtbot, ring_window):
+    window, truth = ring_window
+    window.model.add_mark("point", 0, tuple(truth["arc_points_xy"][0]))
+    state = window.model.to_session().to_dict()
+    state["arcs"][0]["points"] = [[5000.0, 5000.0]]
+    assert window.restore_marks(state) is False
+    assert "outside the 100 x 100 image" in window.last_message and "\n" not in window.last_message
+    assert window.model.active_system.points == [tuple(truth["arc_points_xy"][0])]
