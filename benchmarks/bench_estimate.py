@@ -58,11 +58,35 @@ def main() -> None:
                                              samples=10_000))
     print(f"Monte Carlo, 10^4 samples, one lens: {t_mc:.3f} s (target < 0.2 s) ratio {t_mc / 0.2:.2f} of target")
 
+    memory_per_draw()
+
     cmd = [sys.executable, "-m", "lensmass.cli", "estimate", "--theta-e", "1.2", "--zl", "0.3", "--zs", "1.0"]
     subprocess.run(cmd, capture_output=True)  # warm the bytecode cache
     t_cli = best_of(lambda: subprocess.run(cmd, capture_output=True, check=True))
     print(f"'lensmass estimate' wall time incl. start-up: {t_cli:.2f} s (target < 1.5 s) "
           f"ratio {t_cli / 1.5:.2f} of target")
+
+
+def memory_per_draw() -> None:
+    """Peak traced bytes per Monte Carlo draw, unchunked (2e5 draws) and chunked (2e6 draws).
+
+    Baseline: 350 bytes a draw before the Monte Carlo ran in chunks (issue 15). Target: the
+    chunked figure at or below lensmass.core.limits.MC_BYTES_PER_DRAW, which bounds --samples.
+    """
+    import tracemalloc
+
+    import lensmass
+    from lensmass.core.limits import MC_BYTES_PER_DRAW
+
+    for n in (200_000, 2_000_000):
+        tracemalloc.start()
+        wall, cpu = time.perf_counter(), time.process_time()
+        lensmass.estimate(1.4, 0.25, 0.9, theta_e_err=0.05, z_l_err=0.01, z_s_err=0.02, samples=n)
+        wall, cpu = time.perf_counter() - wall, time.process_time() - cpu
+        peak = tracemalloc.get_traced_memory()[1] / n
+        tracemalloc.stop()
+        print(f"Monte Carlo memory, {n:.0e} draws: {peak:.0f} bytes/draw peak (baseline 350, ratio {peak / 350:.2f}; "
+              f"limit used for --samples {MC_BYTES_PER_DRAW}); wall {wall:.2f} s, CPU {cpu:.2f} s")
 
 
 if __name__ == "__main__":

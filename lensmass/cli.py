@@ -43,8 +43,16 @@ EXIT_BAD_INPUT = 2
 EXIT_INTERNAL = 70
 
 
+class _OneLineParser(argparse.ArgumentParser):
+    """argparse, but a usage error is one line (the problem and where to look), exit status 2."""
+
+    def error(self, message: str):  # argparse's hook
+        text = " ".join(str(message).split())
+        self.exit(EXIT_BAD_INPUT, f"{self.prog}: {text}; see '{self.prog} --help'.\n")
+
+
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = _OneLineParser(
         prog="lensmass",
         description="From a lensing image to a defensible, model-labelled mass.",
     )
@@ -73,6 +81,17 @@ def _load(module_name: str):
         raise
 
 
+def _warnings_on_one_line(command: str) -> None:
+    """Library warnings (numpy, scipy, astropy) as one line each, without the source line they came from."""
+    import warnings
+
+    def show(message, category, filename, lineno, file=None, line=None):
+        text = " ".join(str(message).split()) or category.__name__
+        print(f"lensmass {command}: warning from {category.__name__}: {text[:200]}", file=sys.stderr)
+
+    warnings.showwarning = show
+
+
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the ``lensmass`` console script."""
     if argv is not None:
@@ -82,13 +101,18 @@ def main(argv: list[str] | None = None) -> int:
         args_list = ["gui"]
         sys.argv = [sys.argv[0], "gui"]
     parser = build_parser()
-    args = parser.parse_args(args_list)
+    try:
+        args = parser.parse_args(args_list)
+    except SystemExit as exc:  # --help, --version, or a usage error already printed on one line
+        return exc.code if isinstance(exc.code, int) else EXIT_BAD_INPUT
     module = getattr(args, "_module", None)
     if module is None:
         print(f"lensmass: the '{args.command}' command is not available in this build.", file=sys.stderr)
         return EXIT_BAD_INPUT
     from lensmass.core.errors import LensInputError, in_words
 
+    if not os.environ.get("LENSMASS_DEBUG"):
+        _warnings_on_one_line(args.command)
     try:
         return int(module.run(args) or 0)
     except LensInputError as exc:
@@ -101,6 +125,19 @@ def main(argv: list[str] | None = None) -> int:
         # The reader of our output went away (e.g. `| head`): not an error of the user's.
         sys.stdout = open(os.devnull, "w")
         return 0
+    except MemoryError:
+        print(f"lensmass {args.command}: this run needs more memory than the machine has; ask for less "
+              "(fewer --samples, --bins or map pixels, a smaller image or catalogue).", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except RecursionError:
+        print(f"lensmass {args.command}: an input file is nested too deeply to be read; check that it is the "
+              "file you meant.", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except OSError as exc:  # a file vanished or a disk filled outside the places that name the file
+        where = f" '{exc.filename}'" if exc.filename else ""
+        print(f"lensmass {args.command}: {(exc.strerror or type(exc).__name__).lower()}{where}; check the path "
+              "and the free space, then run again.", file=sys.stderr)
+        return EXIT_BAD_INPUT
     except Exception as exc:  # last safety net: one line, never a traceback
         if os.environ.get("LENSMASS_DEBUG"):
             raise

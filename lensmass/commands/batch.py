@@ -24,6 +24,7 @@ Exit status: 0 when every row was measured; 3 when some rows failed (their
 from __future__ import annotations
 
 import argparse
+import math
 import sys
 from pathlib import Path
 from typing import Any
@@ -77,16 +78,20 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def _settings_from_args(args: argparse.Namespace) -> dict[str, Any]:
     return batch_settings(cosmology=cosmology_from_args(args), concentration=args.concentration,
-                          halo_definition=args.halo_definition, samples=args.samples, seed=args.seed)
+                          halo_definition=args.halo_definition, samples=args.samples, seed=args.seed,
+                          workers=max(1, int(args.workers)))
 
 
 def run(args: argparse.Namespace) -> int:
     out = Path(args.out)
     if out.suffix.lower() != ".ecsv":
         raise LensInputError(f"--out must name an .ecsv file (got '{out.name}'): RESULTS is an ECSV table.")
+    from lensmass.io.atomic import check_writable
+
+    check_writable(out, "--out")
     if args.workers < 1:
         raise LensInputError(f"--workers must be 1 or more, got {args.workers}.")
-    if not (args.save_every > 0):
+    if not (args.save_every > 0 and math.isfinite(args.save_every)):
         raise LensInputError(f"--save-every must be a positive number of seconds, got {args.save_every}.")
     if out.exists() and not args.resume:
         raise LensInputError(f"'{out}' already exists: add --resume to continue it, or choose another --out.")

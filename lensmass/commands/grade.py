@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import math
 from pathlib import Path
 
 from lensmass.commands.common import add_cosmology_options, cosmology_from_args
@@ -36,6 +37,14 @@ def run(args: argparse.Namespace) -> int:
     if out.suffix.lower() != ".csv":
         raise LensInputError(f"--out must name a .csv file (got '{out.name}').")
     html_path = Path(args.html) if args.html else out.with_suffix(".html")
+    from lensmass.io.atomic import check_writable
+
+    check_writable(out, "--out")
+    check_writable(html_path, "--html" if args.html else "the summary beside --out")
+    if out.absolute() == html_path.absolute():
+        raise LensInputError("--out and --html name the same file: give them different names.")
+    if not (math.isfinite(args.tolerance) and 0 < args.tolerance < 1):
+        raise LensInputError(f"--tolerance is a relative error between 0 and 1 (0.05 = 5%), got {args.tolerance}.")
     cosmo = cosmology_from_args(args)
     report = grade_class(args.submissions, cosmo, args.tolerance)
     write_report_csv(out, report)

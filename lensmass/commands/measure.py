@@ -8,6 +8,9 @@ from __future__ import annotations
 
 import argparse
 import sys
+from pathlib import Path
+
+import numpy as np
 
 from lensmass.commands.common import (
     add_redshift_options,
@@ -57,8 +60,11 @@ def measure_from_args(args: argparse.Namespace) -> dict:
     from lensmass.commands.estimate import estimate_from_args
     from lensmass.core.einstein import measure_auto_ring, measure_from_points
     from lensmass.core.errors import LensInputError
+    from lensmass.core import limits
     from lensmass.io.images import load_image
 
+    if args.max_radius is not None:
+        limits.positive_radius(args.max_radius, "--max-radius")
     image = load_image(args.image, hdu=args.hdu, plane=args.plane, pixel_scale_arcsec=args.pixel_scale,
                        pixel_scale_err_arcsec=args.pixel_scale_err or 0.0)
     image.require_pixel_scale()
@@ -67,11 +73,16 @@ def measure_from_args(args: argparse.Namespace) -> dict:
         center = parse_pair(args.center, "--center")
     elif args.center_sky:
         ra, dec = parse_pair(args.center_sky, "--center-sky")
+        limits.sky_position(ra, dec, "--center-sky", "give the lens centre as RA,DEC in degrees")
         x, y = image.sky_to_pixel(ra, dec)
+        if not (np.isfinite(x) and np.isfinite(y)):
+            raise LensInputError(f"--center-sky {ra:g},{dec:g} does not fall on {Path(args.image).name} (it is on the "
+                                 "far side of the sky for this image's projection); check RA,DEC.")
         center = (float(x), float(y))
     if center is not None:
         ny, nx = image.shape
-        if not (-0.5 <= center[0] < nx - 0.5 and -0.5 <= center[1] < ny - 0.5):
+        if not (np.isfinite(center[0]) and np.isfinite(center[1])
+                and -0.5 <= center[0] < nx - 0.5 and -0.5 <= center[1] < ny - 0.5):
             raise LensInputError(f"The lens centre ({center[0]:.1f}, {center[1]:.1f}) is outside the {nx} x {ny} image; "
                                  "check --center (0-based column,row) or --center-sky.")
 
@@ -123,6 +134,10 @@ def print_measurement(result: dict, as_json: bool, extra_rows=()) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    if args.save_residual:
+        from lensmass.io.atomic import check_writable
+
+        check_writable(args.save_residual, "--save-residual")
     result = measure_from_args(args)
     if args.save_residual:
         save_residual(args.save_residual, result)

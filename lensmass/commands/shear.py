@@ -60,16 +60,34 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     out.add_argument("--map-noise", type=int, default=16, help="rotated realisations for the noise map (default 16)")
 
 
+def check_shear_options(args: argparse.Namespace) -> None:
+    """Refuse impossible or oversized options before the catalogue is read (one sentence each)."""
+    from lensmass.core import limits
+    from lensmass.core.shear_analysis import check_run_sizes
+
+    check_run_sizes(args.bins, args.bootstrap, args.seed)
+    limits.non_negative(args.zs_margin, "--zs-margin", "sources are kept when z > z_l + margin")
+    limits.count(args.map_pixels, "--map-pixels", 8, limits.MAP_PIXELS_MAX, "a map finer than the galaxy density "
+                 "only shows noise")
+    limits.count(args.map_noise, "--map-noise", 1, limits.MAP_NOISE_MAX, "a few dozen realisations settle the noise")
+    limits.positive_radius(args.map_smoothing, "--map-smoothing")
+
+
 def centre_from_args(args: argparse.Namespace) -> tuple[float, float]:
     """The lens centre in degrees, from --center-sky or --center-pixel with --image."""
+    from lensmass.core import limits
+
     if args.center_sky:
-        return parse_pair(args.center_sky, "--center-sky")
+        ra, dec = parse_pair(args.center_sky, "--center-sky")
+        limits.sky_position(ra, dec, "--center-sky", "give the lens centre as RA,DEC in degrees")
+        return ra, dec
     x, y = parse_pair(args.center_pixel, "--center-pixel")
     if not args.image:
         raise LensInputError("--center-pixel needs --image FITS, whose WCS turns the pixel into RA/Dec.")
     from lensmass.io.images import load_image
 
     image = load_image(args.image)
+    limits.on_image(x, y, image.shape, "--center-pixel", "check --center-pixel")
     ra, dec = image.pixel_to_sky(x, y)
     return float(ra), float(dec)
 
@@ -79,6 +97,7 @@ def run_shear(args: argparse.Namespace, progress=None) -> dict:
     from lensmass.core.shear_analysis import analyse_shear_catalog
     from lensmass.io.catalogs import read_shear_catalog
 
+    check_shear_options(args)
     center_ra, center_dec = centre_from_args(args)
     cosmo = cosmology_from_args(args)
     cat = read_shear_catalog(args.catalog, args.columns, need_z=args.zs is None,
@@ -124,7 +143,13 @@ def format_profile(result: dict) -> str:
 
 
 def run(args: argparse.Namespace) -> int:
+    from lensmass.io.atomic import check_writable
     from lensmass.io.catalogs import write_mass_map_fits, write_profile_ecsv
+
+    check_shear_options(args)
+    for flag, path in (("--map-out", args.map_out), ("--profile-out", args.profile_out)):
+        if path:
+            check_writable(path, flag)
 
     result = run_shear(args)
     if args.map_out:

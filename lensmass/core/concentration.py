@@ -83,4 +83,10 @@ def concentration_relation(spec, definition: str = "200c") -> tuple[Callable, st
     value = float(spec)
     if not (np.isfinite(value) and value > 0):
         raise LensInputError(f"A fixed concentration must be a positive number, got {spec}.")
+    from lensmass.core.limits import CONCENTRATION_RANGE
+
+    lo, hi = CONCENTRATION_RANGE
+    if not lo <= value <= hi:
+        raise LensInputError(f"A fixed concentration of {value:g} is outside {lo:g} to {hi:g}, where simulated and "
+                             "observed halos lie; check --concentration.")
     return (lambda m, z, h: np.full(np.broadcast(np.asarray(m), np.asarray(z)).shape, value)), f"fixed c = {value:g}"

@@ -64,19 +64,26 @@ def resolve_cosmology(
             )
         if h0 is None or om0 is None:
             raise LensInputError("A custom cosmology needs both H0 and Om0 (for example --h0 70 --om0 0.3).")
-        if not (np.isfinite(h0) and h0 > 0):
-            raise LensInputError(f"H0 must be a positive number in km/s/Mpc, got {h0}.")
+        if not (np.isfinite(h0) and 10 <= h0 <= 1000):
+            raise LensInputError(f"H0 must be a positive number in km/s/Mpc (about 70), got {h0}; check --h0.")
         if not (np.isfinite(om0) and 0 < om0 <= 2):
             raise LensInputError(f"Om0 must lie between 0 and 2, got {om0}.")
         if ode0 is None:
             return FlatLambdaCDM(H0=h0, Om0=om0, name=f"flat LCDM (H0={h0:g}, Om0={om0:g})")
         if not np.isfinite(ode0):
             raise LensInputError(f"Ode0 must be a finite number, got {ode0}.")
-        return LambdaCDM(H0=h0, Om0=om0, Ode0=ode0,
-                         name=f"LCDM (H0={h0:g}, Om0={om0:g}, Ode0={ode0:g})")
+        from lensmass.core.limits import has_big_bang
+
+        cosmo = LambdaCDM(H0=h0, Om0=om0, Ode0=ode0, name=f"LCDM (H0={h0:g}, Om0={om0:g}, Ode0={ode0:g})")
+        has_big_bang(cosmo)
+        return cosmo
     if spec is None:
         spec = DEFAULT_COSMOLOGY
     if isinstance(spec, Cosmology):
+        if spec.name not in realizations.available:
+            from lensmass.core.limits import has_big_bang
+
+            has_big_bang(spec)
         return spec
     if isinstance(spec, str):
         if spec in realizations.available:
@@ -153,8 +160,17 @@ def distance_grid(cosmo) -> DistanceGrid:
 
         x = np.linspace(0.0, np.log1p(_GRID_ZMAX), _GRID_NODES)
         z = np.expm1(x)
+        import warnings
+
         dh = cosmo.hubble_distance.to_value("Mpc")
-        dc = cosmo.comoving_distance(z[1:]).to_value("Mpc")
+        with warnings.catch_warnings(), np.errstate(all="ignore"):
+            warnings.simplefilter("ignore")  # undefined distances are reported in one sentence below
+            dc = cosmo.comoving_distance(z[1:]).to_value("Mpc")
+        if not (np.all(np.isfinite(dc)) and np.isfinite(dh) and np.all(dc > 0)):
+            raise LensInputError(
+                f"Distances are undefined in the cosmology {cosmology_label(cosmo)} (astropy returns no finite "
+                "comoving distance); choose a standard model, e.g. --ode0 0 or more, or a preset with --cosmology."
+            )
         ratio = np.concatenate([[1.0], dc / (dh * z[1:])])
         grid = DistanceGrid(dh, float(cosmo.Ok0), _GRID_ZMAX, CubicSpline(x, ratio), cosmo)
         if len(_GRIDS) > 32:

@@ -105,11 +105,13 @@ def _geometry(image, pixel_scale_arcsec, pixel_scale_err_arcsec, pixel_matrix_ar
     scale = pixel_scale_arcsec if pixel_scale_arcsec is not None else getattr(image, "pixel_scale_arcsec", None)
     err = pixel_scale_err_arcsec if pixel_scale_err_arcsec is not None else getattr(image, "pixel_scale_err_arcsec", 0.0)
     if scale is None:
+        if image is not None and hasattr(image, "require_pixel_scale"):
+            image.require_pixel_scale()  # names what is wrong with the file's WCS
         raise LensInputError("The pixel scale is unknown (the image has no usable WCS): "
                              "give it with --pixel-scale ARCSEC (arcsec per pixel).")
-    scale = float(scale)
-    if not np.isfinite(scale) or scale <= 0:
-        raise LensInputError(f"The pixel scale must be a positive number of arcsec per pixel, got {scale}.")
+    from lensmass.core.limits import pixel_scale
+
+    scale = pixel_scale(scale)
     matrix = pixel_matrix_arcsec
     if matrix is None and image is not None and pixel_scale_arcsec is None:
         matrix = getattr(image, "pixel_matrix_arcsec", None)
@@ -179,6 +181,12 @@ def measure_theta_e_from_points(
                                                               pixel_matrix_arcsec)
     px = np.asarray(x, float).ravel()
     py = np.asarray(y, float).ravel()
+    if data is not None:
+        from lensmass.core.limits import on_image
+
+        on_image(px, py, np.shape(data), "A marked point", "check that the points belong to this image")
+        if center is not None:
+            on_image(center[0], center[1], np.shape(data), "The lens centre", "check --center")
     need = {"circle": 3 if center is None else 1, "ellipse": 5 if center is None else 4, "images": 2}[shape]
     if px.size < need:
         what = {"circle": "arc points for a circle", "ellipse": "arc points for an ellipse",
@@ -324,6 +332,14 @@ def measure_theta_e_auto_ring(
     if data is None:
         raise LensInputError("The ring finder needs the image pixels; open the image first.")
     cx, cy = (None, None) if center is None else center
+    if max_radius_pix is not None:
+        from lensmass.core.limits import positive_radius
+
+        positive_radius(max_radius_pix, "--max-radius")
+    if center is not None:
+        from lensmass.core.limits import on_image
+
+        on_image(cx, cy, data.shape, "The lens centre", "check --center")
     ring = find_ring(data, cx, cy, max_radius_pix=max_radius_pix, progress=progress, should_stop=should_stop)
     if not ring.found or (require_confident and not ring.confident):
         raise LensInputError(f"{ring.message} Mark points on the arcs instead (--points FILE).")

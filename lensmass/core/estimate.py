@@ -13,6 +13,7 @@ import numpy as np
 
 from lensmass.core.concentration import concentration_relation
 from lensmass.core.cosmology import angular_diameter_distances_mpc, cosmology_label, resolve_cosmology
+from lensmass.core import limits
 from lensmass.core.errors import LensInputError
 from lensmass.core.lensing import arcsec_to_mpc, sigma_crit_msun_per_mpc2
 from lensmass.core.nfw import HALO_DEFINITIONS, nfw_mass_for_einstein_radius, overdensity_density_msun_per_mpc3
@@ -111,9 +112,11 @@ def _source_redshift_model(z_s, z_s_range, z_s_distribution):
             raise LensInputError("The source redshift range must be two numbers, ZMIN,ZMAX (for example 1.0,3.0).") from None
         if not (np.isfinite(lo) and np.isfinite(hi) and 0 < lo < hi):
             raise LensInputError(f"The source redshift range needs 0 < ZMIN < ZMAX, got {lo:g},{hi:g}.")
+        limits.redshift_in_range(hi, "The top of the source redshift range", "--zs-range")
         return "range", (lo, hi)
     if z_s_distribution is not None:
         zt, wt = (np.asarray(v, float) for v in z_s_distribution)
+        limits.redshift_in_range(zt[np.isfinite(zt) & (zt > limits.REDSHIFT_MAX)], "A redshift of the table", "--zs-table")
         distribution_samples(zt, wt, 1, np.random.default_rng(0))  # validates with clear messages
         return "table", (zt, wt)
     return "fixed", None
@@ -199,6 +202,7 @@ def estimate(
     z_l, z_s, z_l_err, z_s_err = (to_plain(v, what, name) for v, what, name in (
         (z_l, "The lens redshift", "z_l"), (z_s, "The source redshift", "z_s"),
         (z_l_err, "The error of the lens redshift", "z_l_err"), (z_s_err, "The error of the source redshift", "z_s_err")))
+    seed = limits.seed(seed, "`seed`")
     kind, zs_model = _source_redshift_model(z_s, z_s_range, z_s_distribution)
     if kind == "fixed" and any(np.ndim(v) for v in (theta_e_arcsec, z_l, z_s, theta_e_err, z_l_err, z_s_err)):
         from lensmass.core.estimate_arrays import estimate_arrays
@@ -206,8 +210,10 @@ def estimate(
         return estimate_arrays(theta_e_arcsec, z_l, z_s, theta_e_err, z_l_err, z_s_err, cosmo=cosmo, concentration=concentration,
                                c_of_m=c_of_m, c_label=c_label, halo_definition=halo_definition, samples=samples, seed=seed,
                                strict=strict)
-    theta = _check_positive("The Einstein radius", theta_e_arcsec, "theta_e_arcsec")
+    theta = limits.einstein_radius_arcsec(_check_positive("The Einstein radius", theta_e_arcsec, "theta_e_arcsec"),
+                                          "`theta_e_arcsec`")
     zl = _check_positive("The lens redshift", z_l, "z_l")
+    limits.redshift_in_range(zl, "The lens redshift", "`z_l`")
     errs = {
         "theta": _check_error("theta_E", theta_e_err, "theta_e_err"),
         "zl": _check_error("z_l", z_l_err, "z_l_err"),
@@ -215,6 +221,7 @@ def estimate(
     }
     if kind == "fixed":
         zs = _check_positive("The source redshift", z_s, "z_s")
+        limits.redshift_in_range(zs, "The source redshift", "`z_s`")
         zl_b, zs_b = np.broadcast_arrays(zl, zs)
         in_front = np.flatnonzero(np.ravel(zs_b <= zl_b))
         if in_front.size:
@@ -237,9 +244,7 @@ def estimate(
     if wants_mc and not scalar_input:
         raise LensInputError("An unknown source redshift (range or table) is marginalised for one lens at a time: "
                              "call estimate per lens.")
-    n_samples = int(samples)
-    if wants_mc and n_samples < 100:
-        raise LensInputError(f"Use at least 100 Monte Carlo samples, got {samples}.")
+    n_samples = limits.monte_carlo_samples(samples, "`samples`") if wants_mc else int(samples)
 
     notes: list[str] = []
     result: dict[str, Any] = {"cosmology": cosmology_label(cosmo)}
@@ -260,13 +265,15 @@ def estimate(
                 f"Only {int(keep.sum())} of {n_samples} Monte Carlo draws put the source behind the lens "
                 "with a positive radius: the redshift errors or range are too wide for this lens."
             )
-        sampled = derive_quantities(t_s[keep], zl_s[keep], zs_s[keep], cosmo, c_of_m, halo_definition)
+        sampled = derive_in_chunks(t_s[keep], zl_s[keep], zs_s[keep], cosmo, c_of_m, halo_definition)
+        del t_s, zl_s, zs_s, keep
         result.update(summarize_many(sampled))
         result["mc_samples"] = n_samples
         result["mc_rejected"] = n_rejected
         result["mc_seed"] = seed
+        n_kept = int(sampled["theta_e_arcsec"].size)
         n_nfw_failed = int((~np.isfinite(sampled["nfw_m200_msun"])).sum())
-        notes.extend(monte_carlo_notes(n_samples, n_rejected, n_nfw_failed, int(keep.sum())))
+        notes.extend(monte_carlo_notes(n_samples, n_rejected, n_nfw_failed, n_kept))
         result["_samples"] = sampled  # for plots; dropped from JSON output
 
     if kind == "fixed":
@@ -287,10 +294,33 @@ def estimate(
         result["versus_zs"] = _versus_zs(float(theta), float(zl), kind, zs_model, cosmo, c_of_m,
                                          halo_definition, versus_zs_points)
 
+    limits.below_light_speed(result["sis_sigma_v_kms"], fix="the Einstein radius is too large for these "
+                             "redshifts (or z_s is barely behind z_l); check --theta-e, --zl and --zs")
     notes.extend(model_notes(theta, result["nfw_m200_msun"], c_label))
     result["notes"] = notes
     result["models"] = model_descriptions(result["cosmology"], c_label, halo_definition)
     return LensResult(result)
+
+
+def derive_in_chunks(theta_e_arcsec, z_l, z_s, cosmo, concentration_of_mass: Callable,
+                     halo_definition: str = "200c", chunk: int | None = None) -> dict[str, np.ndarray]:
+    """:func:`derive_quantities` on 1-D sample arrays, :data:`lensmass.core.limits.MC_CHUNK` draws at a time.
+
+    Every derived number depends on its own draw only, so the result is identical to one call on
+    the whole arrays; the temporaries (mostly the NFW root find) stay bounded by the chunk size.
+    """
+    chunk = int(chunk or limits.MC_CHUNK)
+    n = int(np.size(theta_e_arcsec))
+    if n <= chunk:
+        return derive_quantities(theta_e_arcsec, z_l, z_s, cosmo, concentration_of_mass, halo_definition)
+    out = {key: np.empty(n) for key in DERIVED_KEYS}
+    for start in range(0, n, chunk):
+        part = slice(start, start + chunk)
+        block = derive_quantities(theta_e_arcsec[part], z_l[part], z_s[part], cosmo, concentration_of_mass,
+                                  halo_definition)
+        for key in DERIVED_KEYS:
+            out[key][part] = block[key]
+    return out
 
 
 def monte_carlo_notes(n_samples: int, n_rejected: int, n_nfw_failed: int, n_kept: int) -> list[str]:
@@ -313,6 +343,11 @@ def model_notes(theta_e_arcsec, nfw_m200_msun, concentration_label: str) -> list
         notes.append(
             f"No NFW halo between 1e6 and 1e18 Msun with {concentration_label} gives this Einstein radius at "
             "these redshifts: the NFW numbers are empty."
+        )
+    if np.any(np.asarray(theta_e_arcsec, float) > limits.THETA_E_NOTE_ARCSEC):
+        notes.append(
+            f"An Einstein radius above {limits.THETA_E_NOTE_ARCSEC:g}\" is larger than any known lens (the largest "
+            "cluster lenses reach about 1'): check that theta_E is a radius in arcsec."
         )
     if np.any(np.asarray(theta_e_arcsec, float) < GALAXY_SCALE_ARCSEC):
         notes.append(

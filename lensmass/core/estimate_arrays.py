@@ -14,6 +14,7 @@ from typing import Any, Callable
 
 import numpy as np
 
+from lensmass.core import limits
 from lensmass.core.cosmology import cosmology_label
 from lensmass.core.errors import LensInputError
 from lensmass.core.estimate import DERIVED_KEYS, derive_quantities, model_descriptions, model_notes
@@ -44,7 +45,11 @@ def _bad_masks(cols: list[np.ndarray]) -> list[np.ndarray]:
     for col, (_, _, kind) in zip(cols, _INPUTS):
         with np.errstate(invalid="ignore"):
             masks.append(~np.isfinite(col) | ((col <= 0) if kind == "positive" else (col < 0)))
+    ok = ~masks[0] & ~masks[1] & ~masks[2]
     with np.errstate(invalid="ignore"):
+        z_out = lambda z: (z < limits.REDSHIFT_MIN) | (z > limits.REDSHIFT_MAX)  # noqa: E731
+        masks.append(ok & ((cols[0] < limits.THETA_E_MIN_ARCSEC) | (cols[0] >= limits.THETA_E_MAX_ARCSEC)
+                           | z_out(cols[1]) | z_out(cols[2])))  # outside the physical limits (core/limits.py)
         masks.append(~masks[1] & ~masks[2] & (cols[2] <= cols[1]))  # source in front of the lens
     return masks
 
@@ -54,6 +59,13 @@ def _reason(i: int, cols: list[np.ndarray], masks: list[np.ndarray]) -> str | No
         if mask[i]:
             need = "a positive finite number" if kind == "positive" else "zero or positive"
             return f"{what} (`{name}`) must be {need}, got {col[i]}."
+    if masks[-2][i]:
+        try:
+            limits.einstein_radius_arcsec(cols[0][i], "`theta_e_arcsec`")
+            limits.redshift_in_range(cols[1][i], "The lens redshift", "`z_l`")
+            limits.redshift_in_range(cols[2][i], "The source redshift", "`z_s`")
+        except LensInputError as exc:
+            return str(exc)
     if masks[-1][i]:
         return ("The source must lie behind the lens: z_s must be larger than z_l "
                 f"(got z_l = {cols[1][i]:g}, z_s = {cols[2][i]:g}); check that the two redshifts are not swapped.")
@@ -81,8 +93,8 @@ def estimate_arrays(theta_e_arcsec, z_l, z_s, theta_e_err, z_l_err, z_s_err, *, 
         for i in np.flatnonzero(bad):
             problems[int(i)] = _reason(int(i), cols, masks)
     wants_mc = bool(np.any((t_err > 0) | (zl_err > 0) | (zs_err > 0)))
-    if wants_mc and int(samples) < 100:
-        raise LensInputError(f"Use at least 100 Monte Carlo samples, got {samples}.")
+    if wants_mc:
+        samples = limits.monte_carlo_samples(samples, "`samples`")
     label = cosmology_label(cosmo)
     result: dict[str, Any] = {"cosmology": label}
     good = ~bad

@@ -19,6 +19,7 @@ from typing import Any
 
 import numpy as np
 
+from lensmass.core import limits
 from lensmass.core.concentration import concentration_relation
 from lensmass.core.cosmology import cosmology_label, resolve_cosmology
 from lensmass.core.estimate import (
@@ -28,6 +29,7 @@ from lensmass.core.estimate import (
     model_notes,
     monte_carlo_notes,
 )
+from lensmass.core.limits import MC_CHUNK
 from lensmass.core.uncertainty import DEFAULT_SAMPLES, normal_samples
 
 #: Percentiles behind median, 68% and 95% intervals (as in lensmass.core.uncertainty.summarize).
@@ -87,6 +89,10 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
     for e in (t_err, zl_err, zs_err):
         ok &= np.isfinite(e) & (e >= 0)
     ok &= zs > zl
+    # rows outside the physical limits go through estimate(), which names the problem
+    ok &= (theta < limits.THETA_E_MAX_ARCSEC) & (zl <= limits.REDSHIFT_MAX) & (zs <= limits.REDSHIFT_MAX)
+    ok &= np.array([isinstance(s_, (int, np.integer)) and 0 <= s_ <= limits.SEED_MAX for s_ in seeds], bool) \
+        if n_rows else ok
     n = int(samples)
     if n < 100:
         ok[:] = False
@@ -97,10 +103,12 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
     if idx.size == 0:
         return results
     central = derive_quantities(theta[idx], zl[idx], zs[idx], cosmo, c_of_m, halo_definition)
-    keys = tuple(DERIVED_KEYS)  # one read of the registry for all rows
+    ok[idx[~(central["sis_sigma_v_kms"] < limits.SPEED_OF_LIGHT_KMS)]] = False  # estimate() says why
 
     wants = (t_err > 0) | (zl_err > 0) | (zs_err > 0)
-    mc_rows, draws, rejected = [], [], {}
+    summaries: dict[int, dict] = {}
+    rejected: dict[int, int] = {}
+    group: list[tuple[int, tuple]] = []
     for i in idx[wants[idx]]:
         rng = np.random.default_rng(int(seeds[i]))
         t_s = normal_samples(theta[i], t_err[i], n, rng)
@@ -110,40 +118,49 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
         if keep.sum() < 0.5 * n:
             ok[i] = False  # estimate() refuses this row with its own message
             continue
-        mc_rows.append(i)
-        draws.append((t_s[keep], zl_s[keep], zs_s[keep]))
+        group.append((i, (t_s[keep], zl_s[keep], zs_s[keep])))
         rejected[i] = int(n - keep.sum())
-    summaries: dict[int, dict] = {}
-    if mc_rows:
-        lengths = np.array([d[0].size for d in draws])
-        stacked = derive_quantities(np.concatenate([d[0] for d in draws]), np.concatenate([d[1] for d in draws]),
-                                    np.concatenate([d[2] for d in draws]), cosmo, c_of_m, halo_definition)
-        pct = {key: _row_percentiles(stacked[key], lengths) for key in keys}
-        m200 = stacked["nfw_m200_msun"]
-        bounds = np.concatenate([[0], np.cumsum(lengths)])
-        for j, i in enumerate(mc_rows):
-            seg = m200[bounds[j]:bounds[j + 1]]
-            summaries[i] = {
-                "medians": {k: float(pct[k][j, 2]) for k in keys},
-                "intervals68": {k: [float(pct[k][j, 1]), float(pct[k][j, 3])] for k in keys},
-                "intervals95": {k: [float(pct[k][j, 0]), float(pct[k][j, 4])] for k in keys},
-                "_nfw_failed": int((~np.isfinite(seg)).sum()), "_n_kept": int(seg.size),
-            }
+        if sum(d[0].size for _, d in group) >= MC_CHUNK:  # bounded memory: summarise rows in groups
+            summaries.update(_summarise_group(group, cosmo, c_of_m, halo_definition))
+            group = []
+    if group:
+        summaries.update(_summarise_group(group, cosmo, c_of_m, halo_definition))
 
     for j, i in enumerate(idx):
         if not ok[i]:
             continue
         result: dict[str, Any] = {"cosmology": label}
         notes: list[str] = []
-        if i in summaries:
+        if i in summaries and ok[i]:
             s = summaries[i]
             result.update({k: s[k] for k in ("medians", "intervals68", "intervals95")})
             result["mc_samples"], result["mc_rejected"], result["mc_seed"] = n, rejected[i], int(seeds[i])
             notes.extend(monte_carlo_notes(n, rejected[i], s["_nfw_failed"], s["_n_kept"]))
-        for key in keys:
+        for key in DERIVED_KEYS:
             result[key] = float(central[key][j])
         notes.extend(model_notes(theta[i], result["nfw_m200_msun"], c_label))
         result["notes"] = notes
         result["models"] = dict(models)
         results[i] = result
     return results
+
+
+def _summarise_group(group, cosmo, c_of_m, halo_definition) -> dict[int, dict]:
+    """Percentile summaries of several rows' kept draws, derived in one stacked pass."""
+    draws = [d for _, d in group]
+    lengths = np.array([d[0].size for d in draws])
+    stacked = derive_quantities(np.concatenate([d[0] for d in draws]), np.concatenate([d[1] for d in draws]),
+                                np.concatenate([d[2] for d in draws]), cosmo, c_of_m, halo_definition)
+    pct = {key: _row_percentiles(stacked[key], lengths) for key in DERIVED_KEYS}
+    m200 = stacked["nfw_m200_msun"]
+    bounds = np.concatenate([[0], np.cumsum(lengths)])
+    out = {}
+    for j, (i, _) in enumerate(group):
+        seg = m200[bounds[j]:bounds[j + 1]]
+        out[i] = {
+            "medians": {k: float(pct[k][j, 2]) for k in DERIVED_KEYS},
+            "intervals68": {k: [float(pct[k][j, 1]), float(pct[k][j, 3])] for k in DERIVED_KEYS},
+            "intervals95": {k: [float(pct[k][j, 0]), float(pct[k][j, 4])] for k in DERIVED_KEYS},
+            "_nfw_failed": int((~np.isfinite(seg)).sum()), "_n_kept": int(seg.size),
+        }
+    return out

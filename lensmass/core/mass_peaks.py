@@ -153,8 +153,7 @@ def mass_peaks(
     for _ in range(int(n_noise)):
         rotated.append(grid.kappa(rotation=np.exp(2j * np.pi * rng.random(grid.n_inside)), e_mode_only=True))
         tick()
-    rotated = np.array(rotated)
-    noise = rotated.std(axis=0, ddof=1)
+    noise = np.array(rotated).std(axis=0, ddof=1)
     valid = noise > 0
     noise_safe = np.where(valid, noise, np.inf)
     radius = max(1, int(round(0.5 * smoothing_arcsec / pix)))

@@ -15,6 +15,7 @@ from lensmass.core.aperture_mass import zeta_from_profile, zeta_mass_bound_msun
 from lensmass.core.concentration import concentration_relation
 from lensmass.core.constants import ARCSEC_RAD
 from lensmass.core.cosmology import cosmology_label, resolve_cosmology
+from lensmass.core import limits
 from lensmass.core.errors import LensInputError
 from lensmass.core.nfw import HALO_DEFINITIONS, nfw_halo, nfw_mass_2d_msun
 from lensmass.core.shear_fit import cross_shear_test, fit_nfw, fit_sis
@@ -58,6 +59,13 @@ def effective_source_redshift(beta_mean: float, z_l: float, cosmo) -> float:
     if not (beta[0] <= beta_mean <= beta[-1]):
         return float("nan")
     return float(np.interp(beta_mean, beta, z))
+
+
+def check_run_sizes(n_bins, n_bootstrap, seed) -> None:
+    """Bins, bootstrap resamplings and seed within :mod:`lensmass.core.limits` (before any work)."""
+    limits.count(n_bins, "--bins", 1, limits.SHEAR_BINS_MAX, "a profile is a few to a few tens of bins")
+    limits.count(n_bootstrap, "--bootstrap", 0, limits.BOOTSTRAP_MAX, "a few hundred resamplings settle the errors")
+    limits.seed(seed)
 
 
 def analyse_shear_catalog(
@@ -129,6 +137,18 @@ def analyse_shear_catalog(
         raise LensInputError(f"Unknown halo definition '{halo_definition}': use one of {', '.join(HALO_DEFINITIONS)}.")
     cosmo = resolve_cosmology(cosmology)
     c_of_m, c_label = concentration_relation(concentration, halo_definition)
+    check_run_sizes(n_bins, n_bootstrap, seed)
+    limits.non_negative(z_margin, "--zs-margin", "sources are kept when z > z_l + margin")
+    limits.redshift_in_range(z_l, "The lens redshift", "--zl")
+    for value, flag in ((r_min, "--rmin"), (r_max, "--rmax")):
+        if value is not None:
+            limits.positive_radius(value, flag)
+    if r_min is not None and r_max is not None and not r_min < r_max:
+        raise LensInputError(f"The radial range needs rmin < rmax, got --rmin {r_min:g} and --rmax {r_max:g}; "
+                             "swap or correct them.")
+    if zeta_radii is not None:
+        for value in zeta_radii:
+            limits.positive_radius(value, "--zeta-radii")
     if not (np.isfinite(z_l) and z_l > 0):
         raise LensInputError(f"The lens redshift must be a positive number, got {z_l}; check --zl.")
     if z is None and z_s is None:

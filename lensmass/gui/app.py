@@ -97,42 +97,98 @@ def run_window(path: str | None = None, screenshot: str | None = None, size: tup
         os.environ["QT_QPA_PLATFORM"] = "offscreen"
     if screenshot and not str(screenshot).lower().endswith(".png"):
         raise LensInputError(f"The screenshot must be a .png file, got '{screenshot}'.")
+    if screenshot:
+        from lensmass.io.atomic import check_writable
+
+        check_writable(screenshot, "--screenshot")
     if path is not None and not Path(path).exists():
         raise LensInputError(f"No such image or session file: {path}; check the path.")
+    qt = sys.modules.get("PySide6.QtWidgets")
+    problem = "" if qt is not None and qt.QApplication.instance() is not None else display_problem()
+    if problem and screenshot:
+        os.environ["QT_QPA_PLATFORM"] = "offscreen"  # a screenshot needs no screen
+        problem = ""
+    if problem:
+        raise LensInputError(f"{problem}: run lensmass on a desktop (or ssh -X), or render the window without a "
+                             "screen with --screenshot OUT.png.")
+    if screenshot:
+        import tempfile
+
+        # A screenshot must not depend on (or change) the user's remembered layout: settings in a
+        # temporary folder, removed afterwards.
+        with tempfile.TemporaryDirectory(prefix="lensmass-shot-") as folder:
+            return _run(path, screenshot, size, folder)
+    return _run(path, screenshot, size, None)
+
+
+def display_problem(environ=None, platform: str | None = None) -> str:
+    """Why Qt could not open a window here ('' when it can): checked before Qt aborts the process.
+
+    On Linux a window needs a Wayland compositor or an X server (DISPLAY); a local DISPLAY ``:N``
+    must have its socket /tmp/.X11-unix/XN (X11 convention, common practice).
+    """
+    env = os.environ if environ is None else environ
+    platform = sys.platform if platform is None else platform
+    if not platform.startswith("linux"):
+        return ""
+    qpa = env.get("QT_QPA_PLATFORM", "")
+    if qpa and not qpa.startswith(("xcb", "wayland")):
+        return ""  # offscreen, vnc, eglfs...: Qt needs no display server
+    if env.get("WAYLAND_DISPLAY") and not qpa.startswith("xcb"):
+        return ""
+    display = env.get("DISPLAY", "")
+    if not display:
+        return "There is no display to open the window on (DISPLAY is not set)"
+    host, _, number = display.partition(":")
+    number = number.split(".")[0]
+    if not host and number.isdigit() and not Path(f"/tmp/.X11-unix/X{number}").exists():
+        return f"The display {display} has no X server running"
+    return ""
+
+
+def _run(path, screenshot, size, settings_folder) -> int:
     app = application()
     from PySide6.QtCore import QSettings
 
     from lensmass.gui.mainwindow import MainWindow
 
     settings = None
-    if screenshot:
-        # A screenshot must not depend on (or change) the user's remembered layout.
-        import tempfile
-
-        settings = QSettings(str(Path(tempfile.mkdtemp(prefix="lensmass-shot-")) / "settings.ini"), QSettings.IniFormat)
+    if settings_folder is not None:
+        settings = QSettings(str(Path(settings_folder) / "settings.ini"), QSettings.IniFormat)
     window = MainWindow(settings, offer_recovery=not screenshot, interactive=not screenshot, load_panels="deferred")
     window.resize(*(size or (1440, 900)))
+    if not screenshot:
+        if path is not None:
+            window.open_path(path)  # a file that does not open is a sentence in the window
+        window.show()
+        return int(app.exec())
+    try:
+        return _screenshot(app, window, path, screenshot)
+    finally:
+        window.model.dirty = False
+        window.close()
+        if settings is not None:
+            settings.sync()  # written now, while its temporary folder still exists
+
+
+def _screenshot(app, window, path, screenshot) -> int:
     opened = True
     if path is not None:
         # Open before the first show: the image is in the first paint, extra panels load after it.
         opened = window.open_path(path)
     window.show()
     app.processEvents()
-    if not opened and screenshot:
+    if not opened:
         raise LensInputError(window.last_error or f"Could not open {path}.")
-    if screenshot:
-        wait_until_idle(window)
-        window.canvas.fit_to_window()
-        if window.model.fit is not None:
-            f = window.model.fit
-            window.canvas.centre_on_image(f.center_x, f.center_y)
-            window.canvas.zoom_to(max(window.canvas.zoom, min(window.canvas.width(), window.canvas.height())
-                                      / (11.0 * max(f.a_px, 1.0))))
-            window.canvas.centre_on_image(f.center_x, f.center_y)
-        app.processEvents()
-        out = window.save_screenshot(screenshot)
-        window.model.dirty = False
-        window.close()
-        print(f"lensmass gui: screenshot written to {out}")
-        return 0
-    return int(app.exec())
+    wait_until_idle(window)
+    window.canvas.fit_to_window()
+    if window.model.fit is not None:
+        f = window.model.fit
+        window.canvas.centre_on_image(f.center_x, f.center_y)
+        window.canvas.zoom_to(max(window.canvas.zoom, min(window.canvas.width(), window.canvas.height())
+                                  / (11.0 * max(f.a_px, 1.0))))
+        window.canvas.centre_on_image(f.center_x, f.center_y)
+    app.processEvents()
+    out = window.save_screenshot(screenshot)
+    print(f"lensmass gui: screenshot written to {out}")
+    return 0

@@ -175,7 +175,7 @@ class ClusterPanel(QWidget):
         except LensInputError as exc:
             self.status.setText(str(exc))
             return
-        from lensmass.commands.components import run_components
+        from lensmass.io.cluster_run import run_components
 
         def work(progress, should_stop):
             def tick(fraction, message):

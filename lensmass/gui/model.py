@@ -1,5 +1,9 @@
 """The state of the window as a plain Python object (no Qt): testable without a window.
 
+Longer than 500 lines because it is the window's one observable data model (marks, arc systems,
+derived fits, typed-value validation and the check of stored marks against the open image); splitting it
+would scatter one object's state.
+
 :class:`WindowModel` holds the persistent part of a measurement as a
 :class:`lensmass.io.session.Session` (image reference, display choice, arc
 systems with points, images and z_s, lens centre, z_l, cosmology,
@@ -441,7 +445,12 @@ class WindowModel:
         return s
 
     def load_session(self, session: Session, loaded_image=None, path: str | None = None) -> None:
-        """Replace everything by a session (and the image it names, already loaded)."""
+        """Replace everything by a session (and the image it names, already loaded).
+
+        Marks that lie off the image are refused with one sentence (nothing is replaced).
+        """
+        if loaded_image is not None:
+            marks_on_image(session, loaded_image.data.shape)
         with self.batch():
             self.session = copy.deepcopy(session)
             if not self.session.arcs:
@@ -507,3 +516,17 @@ def _parse_number(text: str, key: str, *, v: dict, positive=False, nonneg=False,
         v[key] = f"{names[key]} cannot be negative, got {value:g}: give the 1-sigma error as a positive number."
         return None
     return value
+
+
+def marks_on_image(session: Session, shape: tuple[int, int]) -> None:
+    """Refuse a session whose centre or marked points lie off the image (0-based column, row)."""
+    from lensmass.core.limits import on_image
+
+    fix = "the session does not belong to this image: correct the field in the file or open the right image"
+    if session.centre is not None:
+        on_image(session.centre.x, session.centre.y, shape, "The session's lens centre", fix)
+    for arc in session.arcs:
+        for kind, pts in (("point", arc.points), ("image", arc.images)):
+            if pts:
+                xy = list(zip(*pts))
+                on_image(xy[0], xy[1], shape, f"An arc {kind} of system {arc.name}", fix)

@@ -160,6 +160,13 @@ class WindowFilesMixin:
         # A fresh undo stack, as when a session opens: the restored marks are where this visit starts;
         # undoing them one by one would walk back through edits made in an earlier visit, and one
         # undo step back to a bare image is what "open the image again" already gives.
+        try:
+            from lensmass.gui.model import marks_on_image
+
+            marks_on_image(session, loaded.data.shape)  # marks stored for another image are refused
+        except LensInputError as exc:
+            self.show_message(str(exc))
+            return False
         self.undo_stack.clear()
         self.tasks.cancel()
         self.model.load_session(session, loaded, path)

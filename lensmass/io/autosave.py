@@ -60,6 +60,7 @@ def write_autosave(session: Session, key: str, origin: str | os.PathLike | None 
                           "origin": None if origin is None else str(Path(origin).absolute())}}
     text = session_json(session, None, extra=block)
     try:
+        target.parent.mkdir(parents=True, exist_ok=True)  # our own data folder: made on first use
         write_text_atomic(target, text)
     except OSError as exc:
         raise LensInputError(f"Could not write the autosave in '{target.parent}' ({exc.strerror or exc}); "

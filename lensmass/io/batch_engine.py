@@ -136,6 +136,10 @@ def result_record(row, result: dict | None, error: str) -> dict[str, Any]:
     rec["method"] = str(result.get("method", "") or "")
     rec["notes"] = " | ".join(result.get("notes") or [])
     rec["error"] = error
+    from lensmass.io.spreadsheet import spreadsheet_safe
+
+    for key in ("id", "cosmology", "source", "method", "notes", "error"):  # RESULTS may be opened in a spreadsheet
+        rec[key] = spreadsheet_safe(rec[key])
     return rec
 
 
@@ -276,7 +280,7 @@ def write_results(path: Path, records, settings, models) -> None:
     from lensmass.io.atomic import atomic_path
 
     table = results_table(list(records), settings, models)
-    with atomic_path(path) as tmp:
+    with atomic_path(path, "--out") as tmp:
         table.write(tmp, format="ascii.ecsv", overwrite=True)
 
 
@@ -311,7 +315,9 @@ def read_previous(path: Path, settings: dict, manifest) -> dict[int, dict[str, A
             raise LensInputError(f"'{path}' has no '{needed}' column, so its rows cannot be matched to the manifest: "
                                  "move it aside or write to a new --out.")
     template = result_record(_EmptyRow(), None, "")  # a column an older file lacks gets its empty value
-    ids = {r.index + 1: r.id for r in manifest.rows}
+    from lensmass.io.spreadsheet import spreadsheet_safe
+
+    ids = {r.index + 1: spreadsheet_safe(r.id) for r in manifest.rows}
     kept = {}
     for rec in table:
         d = {**template, **{n: (rec[n].item() if hasattr(rec[n], "item") else rec[n]) for n in table.colnames}}
@@ -335,13 +341,15 @@ class BatchOutcome:
 
 
 def batch_settings(*, cosmology: Any = None, concentration: str | float = "duffy08", halo_definition: str = "200c",
-                   samples: int = DEFAULT_SAMPLES, seed: int = DEFAULT_SEED) -> dict[str, Any]:
+                   samples: int = DEFAULT_SAMPLES, seed: int = DEFAULT_SEED, workers: int = 1) -> dict[str, Any]:
     """The settings of a run (checked); they must match for a resumed run to keep rows."""
     from lensmass.core.cosmology import cosmology_label, resolve_cosmology
 
+    from lensmass.core import limits
+
     cosmo = resolve_cosmology(cosmology)
-    if int(samples) < 100:
-        raise LensInputError(f"Use at least 100 Monte Carlo samples (`samples`), got {samples}.")
+    limits.monte_carlo_samples(samples, "`samples`", memory_bytes=limits.available_memory_bytes() // max(1, workers))
+    limits.seed(seed, "`seed`")
     return {"cosmology": cosmology_label(cosmo), "_cosmology": cosmo, "concentration": str(concentration),
             "halo_definition": halo_definition, "samples": int(samples), "seed": int(seed)}
 
@@ -372,7 +380,7 @@ def run_batch(manifest, out, *, settings: dict[str, Any] | None = None, workers:
         raise LensInputError(f"RESULTS must be an .ecsv file (got '{out.name}').")
     if int(workers) < 1:
         raise LensInputError(f"The number of worker processes (`workers`) must be 1 or more, got {workers}.")
-    if not (save_every > 0):
+    if not (save_every > 0 and math.isfinite(save_every)):
         raise LensInputError(f"The save interval (`save_every`) must be a positive number of seconds, got {save_every}.")
     settings = settings or batch_settings()
     _, c_label = concentration_relation(settings["concentration"], settings["halo_definition"])
@@ -391,8 +399,17 @@ def run_batch(manifest, out, *, settings: dict[str, Any] | None = None, workers:
     progress = on_progress or (lambda n: None)
     saver = _Saver(out, records, settings, models, save_every)
     saver.save()  # a valid (possibly empty) RESULTS exists from the start
+    from lensmass.core.limits import usable_cores
+
+    if workers > usable_cores():
+        if say is not None:
+            say(f"using {usable_cores()} worker(s), not {workers}: this machine gives lensmass {usable_cores()} "
+                "core(s), and more workers than cores only add start-up time.")
+        workers = usable_cores()
+    if workers > 1 and len(todo) < 2 * workers and say is not None:
+        say(f"{len(todo)} row(s) run in this process: starting {workers} workers would take longer than the rows.")
     try:
-        if workers == 1 or len(todo) < 2:
+        if workers == 1 or len(todo) < 2 * workers:
             for chunk in _chunks(todo, 1):
                 recs = run_rows(chunk, settings)
                 saver.add(recs)

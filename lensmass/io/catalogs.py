@@ -99,6 +99,8 @@ def catalog_format(path: str | Path) -> str:
 
 
 def _read_table(path: Path, fmt: str, columns: list[str] | None = None):
+    if path.is_dir():
+        raise LensInputError(f"'{path}' is a folder, not a catalogue: give the catalogue file itself.")
     if not path.is_file():
         raise LensInputError(f"Catalogue '{path}' does not exist: check the path.")
     if fmt == "parquet":
@@ -150,6 +152,12 @@ def resolve_columns(colnames: list[str], mapping: dict[str, str], *, need_z: boo
             resolved[role] = actual
         elif role in guesses:
             resolved[role] = guesses[role]
+    by_column: dict[str, str] = {}
+    for role, name in resolved.items():
+        if name in by_column:
+            raise LensInputError(f"Column '{name}' is used for both {by_column[name]} and {role}: map each role to "
+                                 "its own column with --columns.")
+        by_column[name] = role
     for role in REQUIRED_ROLES + (("z",) if need_z else ()):
         if role not in resolved:
             alternative = ", or give one source redshift for all with --zs" if role == "z" else ""

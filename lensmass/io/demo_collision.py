@@ -16,6 +16,7 @@ Files (``lensmass demo OUTDIR``): ``tris_collide_e_shear.fits``, ``tris_collide_
 from __future__ import annotations
 
 import json
+from typing import Any
 import os
 from pathlib import Path
 
@@ -79,7 +80,7 @@ def make_collision_field(cosmology=None) -> dict:
     from astropy.table import Table
 
     cosmo = resolve_cosmology(cosmology)
-    s = SETUP
+    s: Any = SETUP
     rng = np.random.default_rng(s["seed"])
     ra0, dec0, z_l = s["center_ra"], s["center_dec"], s["z_l"]
     halos = [dict(h) for h in s["halos"]]
@@ -95,21 +96,24 @@ def make_collision_field(cosmology=None) -> dict:
              "WEIGHT": np.ones(n, np.float32), "Z_PHOT": sim["z"].astype(np.float32)}
 
     # members: stellar masses lognormal about 10^10.9 Msun (0.4 dex); r-band magnitudes from M/L = 3
-    mx, my, logm, kind = [], [], [], []
+    mx_parts: list = []
+    my_parts: list = []
+    logm_parts: list = []
+    kind: list = []
     for h, (count, sig) in zip(halos, s["members"]):
-        mx.append(h["x_arcsec"] + rng.normal(0, sig, count))
-        my.append(h["y_arcsec"] + rng.normal(0, sig, count))
+        mx_parts.append(h["x_arcsec"] + rng.normal(0, sig, count))
+        my_parts.append(h["y_arcsec"] + rng.normal(0, sig, count))
         lm = rng.normal(10.9, 0.4, count)
         lm[0] = 11.9  # a dominant central galaxy
-        mx[-1][0], my[-1][0] = h["x_arcsec"] + rng.normal(0, 3), h["y_arcsec"] + rng.normal(0, 3)
-        logm.append(lm)
+        mx_parts[-1][0], my_parts[-1][0] = h["x_arcsec"] + rng.normal(0, 3), h["y_arcsec"] + rng.normal(0, 3)
+        logm_parts.append(lm)
         kind += [h["name"]] * count
     half = 0.5 * s["field_arcsec"]
-    mx.append(rng.uniform(-half, half, s["interlopers"]))
-    my.append(rng.uniform(-half, half, s["interlopers"]))
-    logm.append(rng.normal(10.6, 0.4, s["interlopers"]))
+    mx_parts.append(rng.uniform(-half, half, s["interlopers"]))
+    my_parts.append(rng.uniform(-half, half, s["interlopers"]))
+    logm_parts.append(rng.normal(10.6, 0.4, s["interlopers"]))
     kind += ["interloper"] * s["interlopers"]
-    mx, my, logm = np.concatenate(mx), np.concatenate(my), np.concatenate(logm)
+    mx, my, logm = np.concatenate(mx_parts), np.concatenate(my_parts), np.concatenate(logm_parts)
     mra, mdec = tangent_plane_to_sky(mx, my, ra0, dec0)
     from lensmass.core.cosmology import luminosity_distance_mpc
 
@@ -167,7 +171,7 @@ def _truth(halos, members, is_member, logm, mx, my, gx, gy, gas_map, cosmo, n_ga
     from lensmass.core.peak_offsets import kpc_per_arcsec
     from lensmass.core.shear_profile import lens_distance_mpc
 
-    s = SETUP
+    s: Any = SETUP
     d_l = lens_distance_mpc(s["z_l"], cosmo)
     scale = kpc_per_arcsec(d_l)
     ap_kpc = 250.0

@@ -82,9 +82,12 @@ def _ungradable(quantity: str, submitted: float, diagnosis: str) -> dict[str, An
 
 
 def _cell(value) -> str:
+    """A CSV cell: floats in full precision (NaN empty), text made safe for spreadsheets."""
+    from lensmass.io.spreadsheet import spreadsheet_safe
+
     if isinstance(value, float):
         return "" if not math.isfinite(value) else repr(value)
-    return str(value)
+    return spreadsheet_safe(str(value))
 
 
 def report_csv_text(report: list[dict[str, Any]]) -> str:

@@ -1,5 +1,8 @@
 """Open an image for measuring: FITS (with WCS) or PNG/JPEG/TIFF, masked pixels as NaN.
 
+Longer than 500 lines because one loader serves every image format and keeps their shared sanity
+checks together (WCS and pixel-scale limits, masked pixels, Pillow's decompression-bomb guard).
+
 Pixel convention everywhere in lensmass: ``x`` is the 0-based column and ``y``
 the 0-based row of the array *as stored in the file* (FITS as stored; for PNG,
 JPEG and TIFF row 0 is the top row as stored). Sky conversions use astropy's
@@ -80,6 +83,8 @@ class LoadedImage:
     plane: int | None = None
     kind: str = "fits"
     notes: list[str] = field(default_factory=list)
+    #: Why the file's WCS was not used (empty when it was, or when there is none).
+    wcs_problem: str = ""
 
     @property
     def shape(self) -> tuple[int, int]:
@@ -112,8 +117,12 @@ class LoadedImage:
     def require_pixel_scale(self) -> float:
         """The pixel scale, or a clear error saying how to give it."""
         if self.pixel_scale_arcsec is None:
+            name = Path(self.path).name or "This image"
+            if self.wcs_problem:
+                raise LensInputError(f"{name} has an unusable WCS ({self.wcs_problem}), so its pixel scale is "
+                                     "unknown: fix the header or give --pixel-scale ARCSEC (arcsec per pixel).")
             raise LensInputError(
-                f"{Path(self.path).name or 'This image'} has no usable WCS, so its pixel scale is unknown: "
+                f"{name} has no usable WCS, so its pixel scale is unknown: "
                 "give it with --pixel-scale ARCSEC (arcsec per pixel)."
             )
         return float(self.pixel_scale_arcsec)
@@ -194,8 +203,14 @@ def _check_user_scale(scale, err) -> float | None:
         raise LensInputError(f"The pixel scale must be a number of arcsec per pixel, got {scale!r}.") from None
     if not np.isfinite(s) or s <= 0:
         raise LensInputError(f"The pixel scale must be a positive number of arcsec per pixel, got {scale}.")
+    from lensmass.core import limits
+
+    limits.pixel_scale(s, "The pixel scale", "give --pixel-scale in arcsec per pixel")
     if not np.isfinite(e) or e < 0:
         raise LensInputError(f"The pixel-scale error must be zero or positive, got {err}.")
+    if e >= s:
+        raise LensInputError(f"The pixel-scale error {e:g}\" is as large as the scale {s:g}\" itself; check "
+                             "--pixel-scale-err (a 1-sigma error in arcsec per pixel).")
     return s
 
 
@@ -235,12 +250,14 @@ def _load_fits(p: Path, hdu, plane) -> LoadedImage:
             raise _fail_open(p, f"HDU {index} holds no image data; choose another with --hdu")
         notes: list[str] = []
         raw, plane_used = _pick_plane(p, raw, plane, notes)
+        _check_size(p, *raw.shape)
         data = _to_float_masked(raw, header, chosen)
     finally:
         hdul.close()
-    wcs = _celestial_wcs(header, notes)
+    problem: list[str] = []
+    wcs = _celestial_wcs(header, notes, problem)
     return LoadedImage(data=data, path=str(p), header=header, wcs=wcs, hdu_index=index, plane=plane_used,
-                       kind="fits", notes=notes)
+                       kind="fits", notes=notes, wcs_problem="; ".join(problem))
 
 
 def _short(exc: Exception) -> str:
@@ -259,6 +276,8 @@ def _choose_hdu(p: Path, hdul, hdu):
     if hdu is not None:
         try:
             key = int(hdu) if str(hdu).lstrip("-").isdigit() else str(hdu)
+            if isinstance(key, int) and key < 0:
+                raise IndexError
             chosen = hdul[key]
         except (KeyError, IndexError):
             raise _fail_open(p, f"it has no HDU '{hdu}' (it has {n}, numbered 0 to {n - 1})") from None
@@ -296,6 +315,18 @@ def _pick_plane(p: Path, raw: np.ndarray, plane, notes: list[str]):
     return squeezed[int(plane)], int(plane)
 
 
+def _check_size(p: Path, ny: int, nx: int) -> None:
+    """Refuse images larger than :data:`lensmass.core.limits.IMAGE_PIXELS_MAX` or the free memory, before reading."""
+    from lensmass.core import limits
+
+    n = int(ny) * int(nx)
+    need = 12 * n  # the float copy plus display and work arrays, about three float32 copies
+    if n > limits.IMAGE_PIXELS_MAX or need > limits.MEMORY_FRACTION * limits.available_memory_bytes():
+        raise _fail_open(p, f"it has {nx} x {ny} pixels, more than lensmass reads at once (up to "
+                            f"{limits.IMAGE_PIXELS_MAX / 1e6:.0f} million and about half the free memory); "
+                            "crop a cutout around the lens first")
+
+
 def _to_float_masked(raw: np.ndarray, header, hdu_obj) -> np.ndarray:
     """One native-endian float copy of the (memory-mapped) data, BLANK and non-finite -> NaN."""
     if raw.size == 0:
@@ -318,8 +349,37 @@ def _to_float_masked(raw: np.ndarray, header, hdu_obj) -> np.ndarray:
     return data
 
 
-def _celestial_wcs(header, notes: list[str]):
+#: Header cards that define the pixel-to-sky map (their values must be finite numbers).
+_WCS_NUMBER_CARDS = ("CRPIX1", "CRPIX2", "CRVAL1", "CRVAL2", "CDELT1", "CDELT2", "CD1_1", "CD1_2", "CD2_1", "CD2_2",
+                     "PC1_1", "PC1_2", "PC2_1", "PC2_2", "CROTA2")
+
+
+def _wcs_card_problem(header) -> str:
+    """A bad WCS number card (astropy silently skips a non-numeric CDELT and uses 1 deg), or ''."""
+    for key in _WCS_NUMBER_CARDS:
+        if key in header:
+            value = header[key]
+            if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(value):
+                return f"card {key} = {str(value)[:20]!r} is not a finite number"
+    has_scale = any(k in header for k in ("CDELT1", "CDELT2", "CD1_1", "CD1_2", "CD2_1", "CD2_2"))
+    has_celestial = any(str(header.get(f"CTYPE{i}", "")).upper()[:4] in ("RA--", "DEC-", "GLON", "GLAT", "ELON", "ELAT")
+                        for i in (1, 2))
+    if has_celestial and not has_scale:
+        return "it names sky axes but gives no CDELTi or CDi_j scale cards"
+    return ""
+
+
+def _celestial_wcs(header, notes: list[str], problem: list[str] | None = None):
     from astropy.wcs import WCS, FITSFixedWarning
+
+    from lensmass.core import limits
+
+    problem = [] if problem is None else problem
+    bad_card = _wcs_card_problem(header)
+    if bad_card:
+        problem.append(bad_card)
+        notes.append(f"The WCS is not used: {bad_card}; no sky coordinates.")
+        return None
 
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", FITSFixedWarning)
@@ -336,8 +396,16 @@ def _celestial_wcs(header, notes: list[str]):
         m = cel.pixel_scale_matrix
     except Exception:
         return None
-    if not np.all(np.isfinite(m)) or abs(np.linalg.det(m)) == 0:
+    norms = np.sqrt((np.asarray(m, float) ** 2).sum(axis=0)) if np.all(np.isfinite(m)) else np.zeros(2)
+    if not np.all(np.isfinite(m)) or abs(np.linalg.det(m)) <= 1e-9 * norms[0] * norms[1]:
+        problem.append("its CD/PC matrix is singular or not finite: the two pixel axes point the same way on the sky")
         notes.append("The WCS has a singular or non-finite CD/PC matrix; sky coordinates ignored.")
+        return None
+    scale = float(np.sqrt(abs(np.linalg.det(m)))) * DEG_TO_ARCSEC
+    if not (limits.PIXEL_SCALE_MIN_ARCSEC <= scale <= limits.PIXEL_SCALE_MAX_ARCSEC):
+        problem.append(f"its pixel scale is {scale:.3g}\" per pixel, outside {limits.PIXEL_SCALE_MIN_ARCSEC:g}\" "
+                       "to 1 deg per pixel")
+        notes.append(f"The WCS is not used: {problem[-1]}.")
         return None
     return cel
 
@@ -374,8 +442,11 @@ def _load_raster(p: Path) -> LoadedImage:
     except ImportError:  # pragma: no cover - Pillow comes with matplotlib
         raise LensInputError("Reading PNG/JPEG/TIFF needs the Pillow package: pip install pillow.") from None
     notes: list[str] = []
+    from PIL import Image as _pil
+
     try:
         with Image.open(p) as im:
+            _check_size(p, im.size[1], im.size[0])
             im.load()
             mode = im.mode
             if mode in ("RGB", "RGBA", "P", "LA", "CMYK", "YCbCr"):
@@ -386,7 +457,10 @@ def _load_raster(p: Path) -> LoadedImage:
                              "for photometry use a FITS band.")
             else:
                 data = np.asarray(im, dtype=np.float32 if mode not in ("I", "F") else np.float64)
-    except (UnidentifiedImageError, OSError, SyntaxError, ValueError) as exc:
+    except _pil.DecompressionBombError:
+        raise _fail_open(p, "it declares more pixels than Pillow will decode safely (a possible decompression "
+                            "bomb); crop or convert it to FITS first") from None
+    except (UnidentifiedImageError, OSError, SyntaxError, ValueError, EOFError) as exc:
         raise _fail_open(p, f"it is not a readable picture ({_short(exc)})") from None
     if data.ndim != 2:
         raise _fail_open(p, "the picture is not a 2-D image")

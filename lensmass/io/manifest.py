@@ -105,6 +105,9 @@ def read_table_cells(path: str | Path, what: str = "table") -> tuple[list[str], 
         ) from None
     if not names:
         raise LensInputError(f"The {what} '{path}' is empty: it needs a header row and one row per entry.")
+    from lensmass.core.limits import unique_names
+
+    unique_names(names, f"{what} '{path.name}'", lambda n: n.strip().lower())
     return names, rows
 
 
@@ -142,7 +145,14 @@ def read_manifest(path: str | Path) -> Manifest:
     if path.is_dir():
         return _folder_manifest(path)
     names, cells = read_table_cells(path, "manifest")
+    from lensmass.core.limits import unique_names
+
+    unique_names(names, f"manifest '{path.name}'", _canonical)
     rename = {n: _canonical(n) for n in names}
+    known = set(NUMERIC_COLUMNS) | {"id", "image", "points", "notes", "z_s_min", "z_s_max", "pixel_scale_arcsec"}
+    if not known & set(rename.values()):
+        raise LensInputError(f"'{path.name}' has none of the manifest columns (id, image, points, theta_e_arcsec, "
+                             "z_l, z_s ...) in its header row: is it the manifest you meant?")
     base = path.parent
     rows: list[ManifestRow] = []
     for i, raw in enumerate(cells):

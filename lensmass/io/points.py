@@ -18,6 +18,10 @@ from lensmass.core.errors import LensInputError
 from lensmass.io.atomic import write_text_atomic
 
 
+#: A points file is a short list; anything larger is the wrong file.
+POINTS_FILE_MAX_BYTES = 10_000_000
+
+
 @dataclass(frozen=True)
 class PointsTable:
     """Positions read from a points file: ``frame`` is "pixel" (x, y) or "sky" (ra, dec in degrees)."""
@@ -28,10 +32,25 @@ class PointsTable:
     path: str = ""
 
     def to_pixels(self, image) -> tuple[np.ndarray, np.ndarray]:
-        """(x, y) pixels; sky positions are converted with the image's WCS."""
+        """(x, y) pixels; sky positions are converted with the image's WCS.
+
+        Positions off the sphere, or off the image (when there is one), are refused with one sentence.
+        """
+        from lensmass.core import limits
+
+        name = Path(self.path).name or "the points file"
         if self.frame == "pixel":
-            return self.a, self.b
-        return image.sky_to_pixel(self.a, self.b)
+            x, y = self.a, self.b
+        else:
+            limits.sky_position(self.a, self.b, f"A point of {name}", "give ra,dec in degrees")
+            if image is None:
+                return self.a, self.b
+            x, y = image.sky_to_pixel(self.a, self.b)
+        if image is not None:
+            limits.on_image(x, y, image.shape, f"A point of {name}",
+                            "check that the points belong to this image" + ("" if self.frame == "pixel" else
+                                                                            " and its WCS"))
+        return x, y
 
 
 def read_points(path: str | os.PathLike) -> PointsTable:
@@ -49,6 +68,11 @@ def read_points(path: str | os.PathLike) -> PointsTable:
     p = Path(path)
     if not p.exists():
         raise LensInputError(f"No such points file: {p}; check the path.")
+    if not p.is_file():
+        raise LensInputError(f"The points file {p} is not an ordinary file; give the CSV of marked points.")
+    if p.stat().st_size > POINTS_FILE_MAX_BYTES:
+        raise LensInputError(f"The points file {p.name} is {p.stat().st_size / 1e6:.0f} MB, far more than a list of "
+                             "marked points; check that it is the right file.")
     try:
         text = p.read_text(encoding="utf-8-sig")
     except (OSError, UnicodeDecodeError):
@@ -64,7 +88,7 @@ def read_points(path: str | os.PathLike) -> PointsTable:
         frame, ka, kb = "sky", header.index("ra"), header.index("dec")
     else:
         raise LensInputError(f"The points file {p.name} needs a header row naming columns x,y (pixels) or ra,dec "
-                             f"(degrees); its first line is '{lines[0][:60]}'.")
+                             f"(degrees); its first line names {len(header)} other column(s).")
     a, b = [], []
     for i, row in enumerate(rows[1:], start=2):
         try:

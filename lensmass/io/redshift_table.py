@@ -18,6 +18,10 @@ def read_redshift_table(path: str | Path) -> tuple[np.ndarray, np.ndarray]:
     from astropy.table import Table
 
     path = Path(path)
+    if path.is_dir():
+        raise LensInputError(f"'{path}' is a folder, not a redshift table: give --zs-table the table file itself.")
+    if path.is_file() and path.stat().st_size == 0:
+        raise LensInputError(f"Redshift table '{path}' is empty: it needs a header 'z,weight' and one row per redshift.")
     if not path.is_file():
         raise LensInputError(f"Redshift table '{path}' does not exist: check the path given to --zs-table.")
     try:
@@ -31,7 +35,8 @@ def read_redshift_table(path: str | Path) -> tuple[np.ndarray, np.ndarray]:
     missing = [c for c in ("z", "weight") if c not in names]
     if missing:
         raise LensInputError(
-            f"Redshift table '{path}' lacks column(s) {', '.join(missing)}; it has {', '.join(table.colnames)}."
+            f"Redshift table '{path}' lacks column(s) {', '.join(missing)}; it has {len(table.colnames)} other "
+            "column(s): name them z and weight."
         )
     try:
         z = np.asarray(table[names["z"]], dtype=float)

@@ -51,6 +51,7 @@ from pathlib import Path
 from typing import Any, Callable, Mapping
 
 from lensmass.core.errors import LensInputError
+from lensmass.core.limits import JSON_DEPTH_MAX
 from lensmass.core.uncertainty import DEFAULT_SAMPLES, DEFAULT_SEED
 
 #: Top-level tag that marks a lensmass session file.
@@ -67,6 +68,9 @@ AUTOSAVE_SUFFIX = ".autosave.json"
 
 ARC_SHAPES = ("circle", "ellipse")
 CENTRE_HOW = ("hand", "found")
+
+#: Largest session file read (bytes); sessions are kilobytes.
+SESSION_MAX_BYTES = 64_000_000
 
 #: schema n -> function turning a schema-n dict into a schema-(n+1) dict.
 MIGRATIONS: dict[int, Callable[[dict], dict]] = {}
@@ -404,13 +408,23 @@ def _read_json(path: Path, what: str) -> Any:
     if not path.is_file():
         raise LensInputError(f"{what} '{path}' does not exist: check the path or pick the file again.")
     try:
+        size = path.stat().st_size
+        if size > SESSION_MAX_BYTES:
+            raise LensInputError(f"{what} '{path}' is {size / 1e6:.0f} MB, far larger than any lensmass session "
+                                 f"(they are kilobytes; at most {SESSION_MAX_BYTES // 10**6} MB is read): "
+                                 "check that it is the file you meant.")
         raw = path.read_bytes()
     except OSError as exc:
         raise LensInputError(f"Cannot read {what.lower()} '{path}' ({exc.strerror or exc}): check its permissions.") from None
     if not raw.strip():
         raise LensInputError(f"{what} '{path}' is empty (half-written?): open a backup or an autosave instead.")
     try:
-        return json.loads(raw.decode("utf-8"))
+        data = json.loads(raw.decode("utf-8"))
+        _check_depth(data, path, what)
+        return data
+    except RecursionError:
+        raise LensInputError(f"{what} '{path}' is nested too deeply to be a lensmass session (more than "
+                             f"{JSON_DEPTH_MAX} levels): open a session saved by lensmass.") from None
     except UnicodeDecodeError:
         raise LensInputError(f"{what} '{path}' is not a text file: open a session saved by lensmass.") from None
     except json.JSONDecodeError as exc:
@@ -423,6 +437,17 @@ def _read_json(path: Path, what: str) -> Any:
             f"{what} '{path}' is not valid JSON (line {exc.lineno}, column {exc.colno}): "
             "it is damaged; open a backup or an autosave instead."
         ) from None
+
+
+def _check_depth(data: Any, path: Path, what: str) -> None:
+    """Refuse JSON nested deeper than :data:`lensmass.core.limits.JSON_DEPTH_MAX` (walked without recursion)."""
+    stack = [(data, 1)]
+    while stack:
+        value, depth = stack.pop()
+        if depth > JSON_DEPTH_MAX:
+            raise RecursionError
+        children = value.values() if isinstance(value, dict) else value if isinstance(value, list) else ()
+        stack.extend((v, depth + 1) for v in children if isinstance(v, (dict, list)))
 
 
 def load_session(path: str | os.PathLike) -> Session:

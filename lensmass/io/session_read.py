@@ -10,6 +10,7 @@ from pathlib import Path
 from typing import Any, Mapping
 
 from lensmass.core.errors import LensInputError
+from lensmass.core.limits import MC_SAMPLES_MAX, SEED_MAX
 from lensmass.core.uncertainty import DEFAULT_SAMPLES, DEFAULT_SEED
 from lensmass.io.session import (
     ARC_SHAPES,
@@ -55,11 +56,13 @@ class _Reader:
             raise self.fail(where, kind + (" or null" if optional else ""), value)
         return float(value)
 
-    def integer(self, value, where, *, optional=False, minimum=None) -> int | None:
+    def integer(self, value, where, *, optional=False, minimum=None, maximum=None) -> int | None:
         if value is None and optional:
             return None
-        if not isinstance(value, int) or isinstance(value, bool) or (minimum is not None and value < minimum):
+        if not isinstance(value, int) or isinstance(value, bool) or (minimum is not None and value < minimum) \
+                or (maximum is not None and value > maximum):
             limit = f" >= {minimum}" if minimum is not None else ""
+            limit += f" and <= {maximum:,}" if maximum is not None else ""
             raise self.fail(where, f"a whole number{limit}" + (" or null" if optional else ""), value)
         return int(value)
 
@@ -196,8 +199,8 @@ def session_from_dict(data: Mapping[str, Any], base_dir, source: str) -> Session
         cosmology=cosmology,
         concentration=conc,
         halo_definition=r.text(d.get("halo_definition", "200c"), "halo_definition", choices=("200c", "200m", "vir")),
-        mc_samples=r.integer(d.get("mc_samples", DEFAULT_SAMPLES), "mc_samples", minimum=1),
-        mc_seed=r.integer(seed, "mc_seed", optional=True, minimum=0),
+        mc_samples=r.integer(d.get("mc_samples", DEFAULT_SAMPLES), "mc_samples", minimum=1, maximum=MC_SAMPLES_MAX),
+        mc_seed=r.integer(seed, "mc_seed", optional=True, minimum=0, maximum=SEED_MAX),
         arcs=arcs,
         ring=r.obj(d.get("ring"), "ring", optional=True),
         notes=r.text(d.get("notes", ""), "notes"),

@@ -465,6 +465,9 @@ def _write_table(table, path: str | Path) -> None:
     fmt = {".ecsv": "ascii.ecsv", ".csv": "ascii.csv"}.get(path.suffix.lower())
     if fmt is None:
         raise LensInputError(f"Cannot export to '{path}': the file name must end in .ecsv or .csv.")
+    from lensmass.io.spreadsheet import safe_table_text
+
+    safe_table_text(table)  # grader names and notes may start with '=' (spreadsheet formulas)
     with atomic_path(path) as tmp:
         table.write(tmp, format=fmt, overwrite=True)
 

@@ -87,6 +87,7 @@ def test_second_grader_consensus_disputed_filter_and_export(panel, queue, qtbot,
     assert panel.candidate_ids() == ["Q-00"]
     panel.filter_box.setCurrentIndex(1)  # not graded by me
     assert panel.candidate_ids() == ["Q-01", "Q-02"]
+    (tmp_path / "out").mkdir()  # exports make no folders (issue 15)
     cons, meas = panel.export(tmp_path / "out" / "consensus.ecsv")
     from astropy.table import Table
 

@@ -115,6 +115,7 @@ def test_absolute_hint_is_used_when_only_the_session_moves(tmp_path):
     image = tmp_path / "data" / "k17.fits"
     image.parent.mkdir()
     image.write_bytes(b"x")
+    (tmp_path / "a").mkdir()  # saving makes no folders (issue 15)
     save_session(tmp_path / "a" / "s.lensmass.json", Session(image=ImageRef(str(image))))
     (tmp_path / "elsewhere" / "deeper").mkdir(parents=True)
     target = tmp_path / "elsewhere" / "deeper" / "s.lensmass.json"
