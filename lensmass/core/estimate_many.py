@@ -20,13 +20,14 @@ from typing import Any
 import numpy as np
 
 from lensmass.core.concentration import concentration_relation
-from lensmass.core.cosmology import cosmology_label, resolve_cosmology
+from lensmass.core.cosmology import cosmology_label, little_h, resolve_cosmology
 from lensmass.core.estimate import (
     DERIVED_KEYS,
     derive_quantities,
     model_descriptions,
     model_notes,
     monte_carlo_notes,
+    range_notes,
 )
 from lensmass.core.uncertainty import DEFAULT_SAMPLES, normal_samples
 
@@ -77,6 +78,7 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
     (500, False)
     """
     cosmo = resolve_cosmology(cosmology)
+    h = little_h(cosmo)
     c_of_m, c_label = concentration_relation(concentration, halo_definition)
     cols = [np.asarray(v, float).ravel() for v in (theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err)]
     theta, t_err, zl, zl_err, zs, zs_err = cols
@@ -91,7 +93,7 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
     if n < 100:
         ok[:] = False
     label = cosmology_label(cosmo)
-    models = model_descriptions(label, c_label, halo_definition)
+    models = model_descriptions(label, c_label, halo_definition, cosmo)
     results: list[dict[str, Any] | None] = [None] * n_rows
     idx = np.flatnonzero(ok)
     if idx.size == 0:
@@ -99,19 +101,22 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
     central = derive_quantities(theta[idx], zl[idx], zs[idx], cosmo, c_of_m, halo_definition)
 
     wants = (t_err > 0) | (zl_err > 0) | (zs_err > 0)
-    mc_rows, draws, rejected = [], [], {}
+    mc_rows, draws, rejected, causes = [], [], {}, {}
     for i in idx[wants[idx]]:
         rng = np.random.default_rng(int(seeds[i]))
         t_s = normal_samples(theta[i], t_err[i], n, rng)
         zl_s = normal_samples(zl[i], zl_err[i], n, rng)
         zs_s = normal_samples(zs[i], zs_err[i], n, rng)
-        keep = (t_s > 0) & (zl_s > 0) & (zs_s > zl_s)
+        bad_theta = t_s <= 0
+        bad_z = (zl_s <= 0) | (zs_s <= zl_s)
+        keep = ~bad_theta & ~bad_z
         if keep.sum() < 0.5 * n:
             ok[i] = False  # estimate() refuses this row with its own message
             continue
         mc_rows.append(i)
         draws.append((t_s[keep], zl_s[keep], zs_s[keep]))
         rejected[i] = int(n - keep.sum())
+        causes[i] = (int(bad_theta.sum()), int(bad_z.sum()))
     summaries: dict[int, dict] = {}
     if mc_rows:
         lengths = np.array([d[0].size for d in draws])
@@ -138,10 +143,12 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
             s = summaries[i]
             result.update({k: s[k] for k in ("medians", "intervals68", "intervals95")})
             result["mc_samples"], result["mc_rejected"], result["mc_seed"] = n, rejected[i], int(seeds[i])
-            notes.extend(monte_carlo_notes(n, rejected[i], s["_nfw_failed"], s["_n_kept"]))
+            notes.extend(monte_carlo_notes(n, rejected[i], s["_nfw_failed"], s["_n_kept"], *causes[i]))
         for key in DERIVED_KEYS:
             result[key] = float(central[key][j])
         notes.extend(model_notes(theta[i], result["nfw_m200_msun"], c_label))
+        notes[-1:-1] = range_notes(result["nfw_m200_msun"], result["z_l"], result["d_ls_mpc"] / result["d_s_mpc"],
+                                   concentration, h, cosmo, halo_definition)
         result["notes"] = notes
         result["models"] = dict(models)
         results[i] = result
