@@ -20,12 +20,13 @@ SHEAR_DISPLAY = [
     ("z_l", "z_l", ""),
     ("z_s_effective", "z_s (eff.)", ""),
     ("n_used", "galaxies", ""),
-    ("sis_sigma_v_kms", "SIS sigma_v", "km/s"),
-    ("sis_theta_e_arcsec", "SIS theta_E", "arcsec"),
+    ("detection_significance", "detection", "sigma (NFW vs no lens)"),
+    ("sis_sigma_v_kms", "SIS sigma_v", "km/s (posterior median)"),
+    ("sis_theta_e_arcsec", "SIS theta_E", "arcsec (posterior median)"),
     ("chi2_sis", "SIS chi^2", ""),
-    ("nfw_m200_msun", "NFW M200", "Msun"),
+    ("nfw_m200_msun", "NFW M200", "Msun (posterior median)"),
     ("nfw_c200", "NFW c200", ""),
-    ("nfw_r200_kpc", "NFW r200", "kpc"),
+    ("nfw_r200_kpc", "NFW r200", "kpc (posterior median)"),
     ("chi2_nfw", "NFW chi^2", ""),
     ("cross_shear_pvalue", "g_x p-value", ""),
     ("zeta", "zeta", ""),
@@ -118,6 +119,21 @@ def make_map(args: argparse.Namespace, result: dict):
                                n_noise=args.map_noise, seed=args.seed)
 
 
+#: Rows that give way to upper limits when the data do not detect the halo.
+_UPPER_LIMIT_ROWS = {
+    "sis_sigma_v_kms": ("sis_sigma_v_upper95_kms", "SIS sigma_v <", "km/s (95% upper limit)"),
+    "nfw_m200_msun": ("nfw_m200_upper95_msun", "NFW M200 <", "Msun (95% upper limit)"),
+}
+
+
+def display_rows(result: dict) -> list[tuple[str, str, str]]:
+    """The rows of the readable output: medians when the halo is detected, upper limits when not."""
+    if result.get("detected", True):
+        return list(SHEAR_DISPLAY)
+    hidden = {"sis_theta_e_arcsec", "nfw_c200", "nfw_r200_kpc"}
+    return [_UPPER_LIMIT_ROWS.get(key, (key, label, unit)) for key, label, unit in SHEAR_DISPLAY if key not in hidden]
+
+
 def format_profile(result: dict) -> str:
     lines = ["", f"{'R [arcsec]':>11}{'R [kpc]':>9}{'N':>7}{'g_t':>9}{'err':>8}{'g_x':>9}{'err':>8}"
              f"{'SIS':>8}{'NFW':>8}{'DSigma':>9}"]
@@ -154,7 +170,7 @@ def run(args: argparse.Namespace) -> int:
 
         print(dumps(result))
     else:
-        print(format_table(result, rows=SHEAR_DISPLAY))
+        print(format_table(result, rows=display_rows(result)))
         print(format_profile(result))
         if "map" in result:
             print(f"mass map written to {args.map_out} (peak kappa_E {format_number(result['map']['kappa_e_peak'])})")

@@ -18,7 +18,7 @@ from lensmass.core.cosmology import cosmology_label, little_h, resolve_cosmology
 from lensmass.core.errors import LensInputError
 from lensmass.core.lensing import sigma_crit_msun_per_mpc2
 from lensmass.core.nfw import HALO_DEFINITIONS, nfw_halo, nfw_mass_2d_msun, nfw_surface_density_msun_per_mpc2
-from lensmass.core.shear_fit import cross_shear_test, fit_nfw, fit_sis
+from lensmass.core.shear_fit import DETECTION_SIGMA, PRIORS, cross_shear_test, fit_nfw, fit_sis
 from lensmass.core.shear_profile import (
     DEFAULT_Z_MARGIN,
     catalog_shear_profile,
@@ -245,12 +245,25 @@ def analyse_shear_catalog(
         zeta_radius_kpc=r_in_mpc * 1e3, zeta_outer_radius_kpc=z_out * ARCSEC_RAD * d_l * 1e3,
         nfw_mass_2d_at_zeta_radius_msun=nfw_m2d_zeta,
         free_concentration=bool(free_concentration),
+        detection_significance=nfw.significance, sis_detection_significance=sis.significance,
+        detected=nfw.detected,
+        nfw_m200_upper95_msun=nfw.upper["nfw_m200_msun"], sis_sigma_v_upper95_kms=sis.upper["sis_sigma_v_kms"],
+        priors=dict(PRIORS),
     )
     result["profile"] = profile_rows(profile, sis.model_profile, nfw.model_profile)
     result["notes"] = _notes(sis, nfw, p_x, dropped, zeta_mass, zeta_mass_err, nfw_m2d_zeta, z is not None,
                              zeta_mass_weak)
+    from lensmass.core.estimate import range_notes
+
+    result["notes"].insert(-1, (
+        f"Fit values are posterior medians; the maximum-likelihood best fit ('best_fit', drawn as the model "
+        f"curves and written to the profile file) is sigma_v = {best['sis_sigma_v_kms']:.4g} km/s, "
+        f"M200 = {best['nfw_m200_msun']:.4g} Msun, c200 = {best['nfw_c200']:.3g}."))
+    result["notes"][-1:-1] = range_notes(nfw.best["nfw_m200_msun"] if nfw.detected else np.nan, z_l,
+                                         profile.beta_mean, concentration if not free_concentration else None,
+                                         little_h(cosmo), cosmo, halo_definition)
     result["models"] = model_descriptions(result["cosmology"], c_label, halo_definition, free_concentration,
-                                          result["source_redshifts"])
+                                          result["source_redshifts"], cosmo)
     result["_profile"] = profile
     result["_fits"] = {"sis": sis, "nfw": nfw}
     result["_galaxies"] = {"x_arcsec": x, "y_arcsec": y, "e1": e1a, "e2": e2a, "weight": w, "usable": ok}
@@ -341,8 +354,22 @@ def profile_rows(profile, sis_model, nfw_model) -> list[dict[str, float]]:
     return rows
 
 
+def detection_note(sis, nfw) -> str | None:
+    """The sentence that replaces a measurement when the data do not detect the halo."""
+    if nfw.detected:
+        return None
+    return (f"The data do not detect the halo: the NFW fit beats no lens at {nfw.significance:.1f} sigma "
+            f"(SIS {sis.significance:.1f} sigma; {DETECTION_SIGMA:g} needed). Read the masses as upper limits: "
+            f"M200 < {nfw.upper['nfw_m200_msun']:.3g} Msun and sigma_v < {sis.upper['sis_sigma_v_kms']:.0f} km/s "
+            f"(95%, one-sided; priors {PRIORS['NFW']} and {PRIORS['SIS']}). The medians and intervals are "
+            "posterior summaries under those priors, not measurements.")
+
+
 def _notes(sis, nfw, p_cross, dropped, zeta_mass, zeta_err, nfw_m2d, per_galaxy_z, zeta_mass_weak) -> list[str]:
     notes = list(sis.notes) + list(nfw.notes)
+    undetected = detection_note(sis, nfw)
+    if undetected:
+        notes.insert(0, undetected)
     total = sum(v for k, v in dropped.items() if k != "outside_radial_range")
     if total:
         parts = ", ".join(f"{v} {k.replace('_', ' ')}" for k, v in dropped.items() if v and k != "outside_radial_range")
@@ -370,21 +397,26 @@ def _notes(sis, nfw, p_cross, dropped, zeta_mass, zeta_err, nfw_m2d, per_galaxy_
 
 
 def model_descriptions(cosmology_name: str, concentration_label: str, halo_definition: str,
-                       free_concentration: bool, source_redshifts: str) -> dict[str, str]:
+                       free_concentration: bool, source_redshifts: str, cosmo: Any = None) -> dict[str, str]:
     """Which model and assumptions produced each reported number."""
-    boundary = {"200c": "200 x critical density at z_l", "200m": "200 x mean matter density at z_l",
-                "vir": "virial overdensity of Bryan & Norman (1998) at z_l"}[halo_definition]
+    from lensmass.core.nfw import halo_boundary_description
+
+    if cosmo is not None:
+        boundary = halo_boundary_description(halo_definition, cosmo)
+    else:
+        boundary = {"200c": "200 x critical density at z_l", "200m": "200 x mean matter density at z_l",
+                    "vir": "virial overdensity of Bryan & Norman (1998) at z_l"}[halo_definition]
     like = ("Gaussian likelihood of the binned tangential reduced shear (shape-noise errors), "
-            f"posterior on a grid, flat prior in log; value = posterior median; distances in {cosmology_name}; "
-            f"source redshifts: {source_redshifts}")
+            "posterior on a grid; value = posterior median, best_fit = maximum likelihood; "
+            f"distances in {cosmology_name}; source redshifts: {source_redshifts}")
     c_text = "c free (flat prior in log c, 0.3-40)" if free_concentration else f"c from {concentration_label}"
-    nfw = f"NFW halo (Wright & Brainerd 2000), boundary {boundary}, {c_text}; {like}"
+    nfw = f"NFW halo (Wright & Brainerd 2000), boundary {boundary}, {c_text}; prior {PRIORS['NFW']}; {like}"
     zeta = ("aperture densitometry (Fahlman et al. 1994): lower bound on the projected mass inside the inner "
             "radius, from the Delta Sigma profile in the annulus with the reduced shear converted to shear by the "
             "convergence of the fitted NFW halo, gamma_t = g_t (1 - kappa); the bound rests on that convergence "
             "in the annulus (its 68% range is in the error), not on the NFW mass inside the inner radius")
     return {
-        "sis_sigma_v_kms": "singular isothermal sphere fitted to the reduced shear; " + like,
+        "sis_sigma_v_kms": f"singular isothermal sphere fitted to the reduced shear; prior {PRIORS['SIS']}; " + like,
         "sis_theta_e_arcsec": "Einstein radius of the fitted SIS for a source at z_s_effective "
         "(the redshift with the sample's mean D_ls/D_s)",
         "nfw_m200_msun": nfw,
@@ -394,6 +426,12 @@ def model_descriptions(cosmology_name: str, concentration_label: str, halo_defin
         "zeta": "zeta(theta1, theta2) = mean kappa inside theta1 minus mean kappa in the annulus (Fahlman et al. 1994)",
         "delta_sigma_msun_per_pc2": "excess surface density Sigma_cr g_t, each galaxy's own Sigma_cr, weights w / Sigma_cr^2",
         "cross_shear_pvalue": "chi^2 of the binned cross shear against zero (expected for lensing)",
+        "detection_significance": "likelihood ratio of the best NFW fit against no lens (zero shear), as Gaussian "
+        f"sigma (Wilks' theorem); below {DETECTION_SIGMA:g} the halo counts as not detected",
+        "nfw_m200_upper95_msun": "one-sided 95% upper limit on M200: 95th percentile of the NFW posterior under "
+        f"the prior {PRIORS['NFW']}",
+        "sis_sigma_v_upper95_kms": "one-sided 95% upper limit on the SIS sigma_v: 95th percentile of its posterior "
+        f"under the prior {PRIORS['SIS']}",
         "nfw_mass_2d_at_zeta_radius_msun": "projected mass of the best-fit NFW halo inside the zeta inner radius",
         "zeta_mass_weak_shear_msun": "the zeta mass with the reduced shear read as shear (weak-shear limit, "
         "kappa << 1): above the truth where kappa is not small, so not a bound; shown for comparison",
