@@ -3,8 +3,8 @@
 The commands are read from README.md itself: its ``bash`` blocks and the inline code that starts
 with ``lensmass``. Synopses (``lensmass batch MANIFEST --out RESULTS.ecsv [--workers N] [--resume]``)
 run with their placeholders filled by small files made here and every optional part included.
-Window commands run in a child process with the offscreen Qt platform; a timer reports what the
-window shows and closes it. The install-and-test line is the suite itself and is not re-run; the
+Window commands run one after another in a child process with the offscreen Qt platform; a timer
+reports what each window shows and closes it. The install-and-test line is the suite itself and is not re-run; the
 extras it names are checked in pyproject.toml instead.
 """
 
@@ -101,60 +101,68 @@ def test_readme_lists_the_commands_this_test_knows():
 
 
 _WINDOW_PROBE = """
-import sys
+import json, sys
 from PySide6.QtCore import QTimer
-from lensmass.gui.app import application
-app = application()
-def probe(tries=[0]):
-    from lensmass.gui.mainwindow import MainWindow
-    shown = [w for w in app.topLevelWidgets() if isinstance(w, MainWindow) and w.isVisible()]
-    tries[0] += 1
-    if shown and (shown[0].windowTitle() != "lensmass" or sys.argv[1:] in ([], ["gui"]) or tries[0] > 100):
-        print("WINDOW:", shown[0].windowTitle(), "| image:", shown[0].model.image is not None, flush=True)
-        for w in shown:
-            w.model.dirty = False
-            w.close()
-        quitter.start(100)  # quit() before exec() (inside an early processEvents) is ignored: repeat it
-    else:
-        QTimer.singleShot(200, probe)
-quitter = QTimer()
-quitter.timeout.connect(app.quit)
-QTimer.singleShot(200, probe)
 from lensmass.cli import main
-sys.exit(main(sys.argv[1:]))
+from lensmass.gui.app import application
+from lensmass.gui.mainwindow import MainWindow
+
+app = application()
+quitter = QTimer()
+quitter.timeout.connect(app.quit)  # quit() before exec() (inside an early processEvents) is ignored: repeat it
+for argv in json.loads(sys.argv[1]):
+    poll, tries = QTimer(), [0]
+
+    def probe(argv=argv, poll=poll, tries=tries):
+        shown = [w for w in app.topLevelWidgets() if isinstance(w, MainWindow) and w.isVisible()]
+        tries[0] += 1
+        if shown and (shown[0].windowTitle() != "lensmass" or len(argv) < 2 or tries[0] > 100):
+            print("WINDOW", json.dumps(argv), shown[0].windowTitle(), "| image:", shown[0].model.image is not None,
+                  flush=True)
+            for w in shown:
+                w.model.dirty = False
+                w.close()
+            poll.stop()
+            quitter.start(100)
+
+    if "--screenshot" not in argv:
+        poll.timeout.connect(probe)
+        poll.start(200)
+    code = main(argv)
+    poll.stop()
+    quitter.stop()
+    print("EXIT", json.dumps(argv), code, flush=True)
 """
 
 
-def _run_window(argv: list[str], cwd: Path) -> subprocess.CompletedProcess:
-    env = dict(os.environ, QT_QPA_PLATFORM="offscreen", HOME=str(cwd), XDG_CONFIG_HOME=str(cwd / "config"),
-               LENSMASS_DATA_DIR=str(cwd / "data"), PYTHONPATH=str(REPO))
-    return subprocess.run([sys.executable, "-c", _WINDOW_PROBE, *argv[1:]], cwd=cwd, env=env, capture_output=True,
-                          text=True, timeout=240)
+def test_readme_window_commands_run_as_written(workdir):
+    """The window commands, in one offscreen child process (one start-up of Qt for all of them)."""
+    runs = [expand(c)[1:] for c in readme_commands() if c.startswith("lensmass") and _is_window(expand(c))]
+    assert runs, "README.md shows no window command"
+    env = dict(os.environ, QT_QPA_PLATFORM="offscreen", HOME=str(workdir), XDG_CONFIG_HOME=str(workdir / "config"),
+               LENSMASS_DATA_DIR=str(workdir / "data"), PYTHONPATH=str(REPO))
+    done = subprocess.run([sys.executable, "-c", _WINDOW_PROBE, json.dumps(runs)], cwd=workdir, env=env,
+                          capture_output=True, text=True, timeout=600)
+    assert done.returncode == 0 and "Traceback" not in done.stderr, done.stderr[-2000:]
+    for argv in runs:
+        assert f"EXIT {json.dumps(argv)} 0" in done.stdout, (argv, done.stdout[-2000:])
+        if "--screenshot" in argv:
+            shot = workdir / argv[argv.index("--screenshot") + 1]
+            assert shot.stat().st_size > 10_000 and shot.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+            continue
+        line = next(x for x in done.stdout.splitlines() if x.startswith(f"WINDOW {json.dumps(argv)}"))
+        if len(argv) > 1:  # opened on a file: the title names it and an image is shown
+            assert Path(argv[1]).name in line and "image: True" in line, line
 
 
 def _is_window(argv: list[str]) -> bool:
-    return argv == ["lensmass"] or (argv[1] == "gui" and "--screenshot" not in argv)
+    return argv == ["lensmass"] or argv[1] == "gui"
 
 
-@pytest.mark.parametrize("command", [c for c in readme_commands() if c.startswith("lensmass")])
+@pytest.mark.parametrize("command", [c for c in readme_commands() if c.startswith("lensmass")
+                                     and not _is_window(expand(c))])
 def test_readme_command_runs_as_written(command, workdir, monkeypatch, capsys):
     argv = expand(command)
-    if _is_window(argv):
-        done = _run_window(argv, workdir)
-        assert done.returncode == 0, done.stderr[-2000:]
-        assert "WINDOW:" in done.stdout and "Traceback" not in done.stderr
-        if len(argv) > 2:  # opened on a file: the title names it and an image is shown
-            assert Path(argv[2]).stem.split(".")[0] in done.stdout and "image: True" in done.stdout
-        return
-    if argv[1] == "gui":  # --screenshot: also a child process, so its QApplication is its own
-        done = subprocess.run([sys.executable, "-m", "lensmass.cli", *argv[1:]], cwd=workdir, capture_output=True,
-                              text=True, timeout=240, env=dict(os.environ, QT_QPA_PLATFORM="offscreen",
-                                                               LENSMASS_DATA_DIR=str(workdir / "data"),
-                                                               PYTHONPATH=str(REPO)))
-        assert done.returncode == 0, done.stderr[-2000:]
-        shot = workdir / PLACEHOLDERS["OUT.png"]
-        assert shot.stat().st_size > 10_000 and shot.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
-        return
     monkeypatch.chdir(workdir)
     status = main(argv[1:])
     out, err = capsys.readouterr()
