@@ -115,6 +115,9 @@ class GradingDialog(QDialog):
         self.report, self.cosmology_label = report, cosmology_label(cosmo)
         self._fill(report)
         self.summary.setText(f"{summary_sentence(report)} (cosmology {self.cosmology_label}).")
+        # a wrapped label keeps its old height in the layout unless told how tall its new text is
+        self.summary.setMinimumHeight(self.summary.heightForWidth(max(self.summary.width(), 200)))
+        self.layout().activate()
         self.save_button.setEnabled(True)
         return True
 

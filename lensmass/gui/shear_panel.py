@@ -274,6 +274,10 @@ class ShearPanel(QWidget):
 
     def _say(self, text: str) -> None:
         self.status.setText(text)
+        # a wrapped label keeps its old height in the layout unless told how tall its new text is
+        self.status.setMinimumHeight(self.status.heightForWidth(max(self.status.width(), 200)) if text else 0)
+        if self.layout() is not None:
+            self.layout().activate()
 
     # ------------------------------------------------------------- catalogue
     def choose_catalog(self) -> None:
