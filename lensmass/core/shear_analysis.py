@@ -16,6 +16,7 @@ from lensmass.core.concentration import concentration_relation
 from lensmass.core.constants import ARCSEC_RAD
 from lensmass.core.cosmology import cosmology_label, little_h, resolve_cosmology
 from lensmass.core.errors import LensInputError
+from lensmass.core.estimate import range_notes
 from lensmass.core.lensing import sigma_crit_msun_per_mpc2
 from lensmass.core.nfw import HALO_DEFINITIONS, nfw_halo, nfw_mass_2d_msun, nfw_surface_density_msun_per_mpc2
 from lensmass.core.shear_fit import DETECTION_SIGMA, PRIORS, cross_shear_test, fit_nfw, fit_sis
@@ -201,8 +202,9 @@ def analyse_shear_catalog(
             zetas.append(_zeta_from_subbins(profile.fine, zeta_slice, z_in, z_out, halo, profile.cells, d_l))
         else:
             zetas.append(_zeta(z_in, z_out, zeta_edges, t_n, e_t, e_x, w_n, sigma_cr, d_l, halo))
-    (zeta_weak, _, zeta_s_weak, _), (zeta, zeta_err, zeta_s, zeta_s_err), (_, _, zeta_s_hi, _) = zetas
+    (zeta_weak, _, zeta_s_weak, _), (zeta, zeta_err, zeta_s, zeta_s_err), (zeta_hi, _, zeta_s_hi, _) = zetas
     # the convergence of the fitted halo is uncertain: its 68% spread adds to the error
+    zeta_err = float(np.hypot(zeta_err, zeta - zeta_hi))
     zeta_s_err = float(np.hypot(zeta_s_err, zeta_s - zeta_s_hi))
     zeta_mass = zeta_mass_bound_msun(r_in_mpc, zeta_s)
     zeta_mass_err = zeta_mass_bound_msun(r_in_mpc, zeta_s_err)
@@ -253,8 +255,6 @@ def analyse_shear_catalog(
     result["profile"] = profile_rows(profile, sis.model_profile, nfw.model_profile)
     result["notes"] = _notes(sis, nfw, p_x, dropped, zeta_mass, zeta_mass_err, nfw_m2d_zeta, z is not None,
                              zeta_mass_weak)
-    from lensmass.core.estimate import range_notes
-
     result["notes"].insert(-1, (
         f"Fit values are posterior medians; the maximum-likelihood best fit ('best_fit', drawn as the model "
         f"curves and written to the profile file) is sigma_v = {best['sis_sigma_v_kms']:.4g} km/s, "
