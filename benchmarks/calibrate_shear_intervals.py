@@ -60,7 +60,8 @@ def sweep(m200, z_l, density, extra, n):
         z2 += pull <= 2
     print(f"M200 {m200:.0e} z_l {z_l} {density:g}/arcmin^2 {extra or ''}: in 68% {in68 / n:.2f}, in 95% "
           f"{in95 / n:.2f}, below 95% upper limit {below / n:.2f}, detected {detected / n:.2f}, "
-          f"median significance {np.median(sig):.1f}; zeta within 1/2 errors {z1 / n:.2f}/{z2 / n:.2f} ({n} seeds, {time.perf_counter() - start:.0f} s wall, "
+          f"median significance {np.median(sig):.1f}; zeta within 1/2 errors {z1 / n:.2f}/{z2 / n:.2f} "
+          f"({n} seeds, {time.perf_counter() - start:.0f} s wall, "
           f"{time.process_time() - cpu:.0f} s CPU)")
 
 

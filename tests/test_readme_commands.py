@@ -71,7 +71,8 @@ def workdir(tmp_path_factory):
     # nz.csv, columns z, weight: a Smail et al. (1994) n(z) ~ z^2 exp(-(z/0.7)^1.5) on a grid
     z = np.linspace(0.4, 3.0, 27)
     with open(d / "nz.csv", "w", newline="") as fh:
-        csv.writer(fh).writerows([("z", "weight"), *((f"{v:.2f}", f"{v**2 * np.exp(-(v / 0.7) ** 1.5):.5f}") for v in z)])
+        rows = ((f"{v:.2f}", f"{v**2 * np.exp(-(v / 0.7) ** 1.5):.5f}") for v in z)
+        csv.writer(fh).writerows([("z", "weight"), *rows])
     # cutout.png + arcs.csv: the demo ring as an 8-bit picture (rows as stored) and its arc points
     ring = fits.getdata(REPO / "demo_fields" / "tris_ring_a.fits").astype(float)
     lo, hi = np.percentile(ring, [1, 99.5])

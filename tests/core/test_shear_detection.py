@@ -37,7 +37,8 @@ def test_significance_is_sqrt_delta_chi2_for_one_parameter():
     assert detection_significance(10.0, 10.0 - stats.chi2.isf(stats.norm.sf(2) * 2, 2), 2) == pytest.approx(2.0)
 
 
-@pytest.mark.parametrize("m200, z_l", [(1e14, 0.3), (1e14, 0.7), (8e14, 0.3)])  # the low-S/N cases; a rich cluster
+# the low-S/N cases, and a rich cluster
+@pytest.mark.parametrize("m200, z_l", [(1e14, 0.3), (1e14, 0.7), (8e14, 0.3)])
 def test_intervals_cover_the_truth_at_low_and_high_signal_to_noise(m200, z_l):
     in68 = in95 = above = 0
     for seed in range(N_SEEDS):
