@@ -274,10 +274,6 @@ class ShearPanel(QWidget):
 
     def _say(self, text: str) -> None:
         self.status.setText(text)
-        # a wrapped label keeps its old height in the layout unless told how tall its new text is
-        self.status.setMinimumHeight(self.status.heightForWidth(max(self.status.width(), 200)) if text else 0)
-        if self.layout() is not None:
-            self.layout().activate()
 
     # ------------------------------------------------------------- catalogue
     def choose_catalog(self) -> None:
@@ -478,9 +474,9 @@ def result_summary(result: dict) -> str:
     if not detected:
         sis = [limit("SIS sigma_v", "sis_sigma_v_upper95_kms", "km/s")]
         nfw = [limit("NFW M200", "nfw_m200_upper95_msun", "Msun")]
+    significance = format_number(result.get("detection_significance"))
     parts = [
-        f"detection: {format_number(result.get('detection_significance'))} sigma (NFW against no lens)"
-        + ("" if detected else ": NOT detected"),
+        *([] if detected else [f"NOT detected: {significance} sigma (NFW against no lens)"]),
         *sis,
         f"SIS chi^2 {format_number(result['chi2_sis'])} for {result['dof_sis']} dof",
         *nfw,
@@ -488,7 +484,8 @@ def result_summary(result: dict) -> str:
         f"cross shear: chi^2 {format_number(result['cross_shear_chi2'])}, p = {format_number(result['cross_shear_pvalue'])}",
         f"zeta mass >= {format_number(result['zeta_mass_msun'])} +- {format_number(result['zeta_mass_err_msun'])} Msun "
         f"inside {format_number(result['zeta_radius_kpc'])} kpc",
-        f"({result['cosmology']}; NFW c from {result['concentration']}; values are posterior medians, "
-        "priors uniform in M200 and sigma_v^2)",
+        f"({result['cosmology']}; NFW c from {result['concentration']}; posterior medians; "
+        f"detected at {significance} sigma)" if detected else
+        f"({result['cosmology']}; NFW c from {result['concentration']}; priors uniform in M200 and sigma_v^2)",
     ]
     return "\n".join(parts)
