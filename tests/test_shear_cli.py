@@ -188,3 +188,30 @@ def test_flipping_both_signs_negates_the_tangential_shear(capsys, small_catalog)
     a, f = json.loads(out), json.loads(out_f)
     assert [r["g_t"] for r in f["profile"]] == pytest.approx([-r["g_t"] for r in a["profile"]], abs=1e-12)
     assert f["catalog"]["flipped"] == ["e1", "e2"]
+
+
+def test_terminal_and_profile_file_say_which_m200_is_which(capsys, small_catalog, tmp_path):
+    # issue 16: the profile file's best_fit and the terminal's figure differed without saying which is which
+    prof = tmp_path / "p.ecsv"
+    code, out, err = _run(capsys, small_catalog, "--zl", ZL, "--center-sky", f"{RA0},{DEC0}", "--rmin", 1,
+                          "--rmax", 7, "--bootstrap", 0, "--profile-out", prof, *COLUMNS)
+    assert code == 0, err
+    meta = Table.read(prof).meta
+    best, median = meta["best_fit"]["nfw_m200_msun"], meta["medians"]["nfw_m200_msun"]
+    assert best != median and "maximum-likelihood" in meta["values"] and "posterior medians" in meta["values"]
+    row = next(line for line in out.splitlines() if line.startswith("NFW M200"))
+    assert f"{median:.4g}" in row and row.endswith("Msun (posterior median)")
+    assert f"M200 = {best:.4g} Msun" in out and "maximum-likelihood best fit" in out
+    assert "detection" in out and meta["detected"] is True
+
+
+def test_shear_fit_outside_the_concentration_calibration_is_noted(capsys, small_catalog):
+    # Duffy et al. (2008) is calibrated for z <= 2 (from memory; shared/REFERENCES.md): a lens at z_l = 2.2
+    sim = simulate_shear_catalog(center_ra=RA0, center_dec=DEC0, z_l=2.2, cosmo=resolve_cosmology("Planck18"),
+                                 field_arcsec=600, n_galaxies=8000, m200_msun=1e15, z_s=3.5, seed=7)
+    from lensmass.core.shear_analysis import analyse_shear_catalog
+
+    r = analyse_shear_catalog(sim["ra"], sim["dec"], sim["e1"], sim["e2"], z_s=3.5, z_l=2.2, center_ra=RA0,
+                              center_dec=DEC0, n_bootstrap=0)
+    assert r["detected"]  # the halo is seen; its mass then rests on an extrapolated c(M)
+    assert any("Duffy et al. (2008)" in n and "extrapolated" in n for n in r["notes"])

@@ -31,7 +31,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from lensmass.core.cosmology import cosmology_label
-    from lensmass.io.grading_report import grade_class, summary_counts, write_report_csv, write_summary_html
+    from lensmass.io.grading_report import grade_class, summary_sentence, write_report_csv, write_summary_html
 
     out = Path(args.out)
     if out.suffix.lower() != ".csv":
@@ -50,14 +50,5 @@ def run(args: argparse.Namespace) -> int:
     write_report_csv(out, report)
     write_summary_html(html_path, report, title=f"Grading of {Path(args.submissions).name}",
                        cosmology=cosmology_label(cosmo), tolerance=args.tolerance)
-    s = summary_counts(report)
-    line = (f"{len(s['students'])} students, {len(report)} answers: {s['verdicts'].get('pass', 0)} pass, "
-            f"{s['verdicts'].get('fail', 0)} fail")
-    if s["mistakes"]:
-        from lensmass.core.grading import MISTAKES
-
-        desc = {m.key: m.description for m in MISTAKES}
-        key, n = s["mistakes"][0]
-        line += f"; most common mistake ({n}): {desc[key]}"
-    print(line + f".\nreport: {out}\nsummary: {html_path}")
+    print(summary_sentence(report) + f".\nreport: {out}\nsummary: {html_path}")
     return 0

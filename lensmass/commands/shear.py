@@ -18,9 +18,14 @@ from lensmass.core.result_keys import table_rows
 from lensmass.core.uncertainty import DEFAULT_SEED
 
 #: Display rows of the readable output (key, label, unit), labels and units from the key registry.
-SHEAR_DISPLAY = table_rows(["z_l", "z_s_effective", "n_used", "sis_sigma_v_kms", "sis_theta_e_arcsec", "chi2_sis",
-                            "nfw_m200_msun", "nfw_c200", "nfw_r200_kpc", "chi2_nfw", "cross_shear_pvalue", "zeta",
+SHEAR_DISPLAY = table_rows(["z_l", "z_s_effective", "n_used", "detection_significance", "sis_sigma_v_kms",
+                            "sis_theta_e_arcsec", "chi2_sis", "nfw_m200_msun", "nfw_c200", "nfw_r200_kpc", "chi2_nfw", "cross_shear_pvalue", "zeta",
                             "zeta_mass_msun", "zeta_radius_kpc"])
+
+#: Keys of the table whose values are the fits' posterior medians (the profile file's best_fit holds the
+#: maximum-likelihood values).
+_POSTERIOR_MEDIAN = {"sis_sigma_v_kms", "sis_theta_e_arcsec", "nfw_m200_msun", "nfw_r200_kpc"}
+
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -126,6 +131,22 @@ def make_map(args: argparse.Namespace, result: dict):
                                n_noise=args.map_noise, seed=args.seed)
 
 
+#: Rows that give way to upper limits when the data do not detect the halo.
+_UPPER_LIMIT_ROWS = {
+    "sis_sigma_v_kms": ("sis_sigma_v_upper95_kms", "SIS sigma_v <", "km/s (95% upper limit)"),
+    "nfw_m200_msun": ("nfw_m200_upper95_msun", "NFW M200 <", "Msun (95% upper limit)"),
+}
+
+
+def display_rows(result: dict) -> list[tuple[str, str, str]]:
+    """The rows of the readable output: medians when the halo is detected, upper limits when not."""
+    if result.get("detected", True):  # the fitted values shown are posterior medians: say so beside their unit
+        return [(key, label, f"{unit} (posterior median)" if key in _POSTERIOR_MEDIAN else unit)
+                for key, label, unit in SHEAR_DISPLAY]
+    hidden = {"sis_theta_e_arcsec", "nfw_c200", "nfw_r200_kpc"}
+    return [_UPPER_LIMIT_ROWS.get(key, (key, label, unit)) for key, label, unit in SHEAR_DISPLAY if key not in hidden]
+
+
 def format_profile(result: dict) -> str:
     lines = ["", f"{'R [arcsec]':>11}{'R [kpc]':>9}{'N':>7}{'g_t':>9}{'err':>8}{'g_x':>9}{'err':>8}"
              f"{'SIS':>8}{'NFW':>8}{'DSigma':>9}"]
@@ -168,7 +189,7 @@ def run(args: argparse.Namespace) -> int:
 
         print(dumps(result))
     else:
-        print(format_table(result, rows=SHEAR_DISPLAY))
+        print(format_table(result, rows=display_rows(result)))
         print(format_profile(result))
         if "map" in result:
             print(f"mass map written to {args.map_out} (peak kappa_E {format_number(result['map']['kappa_e_peak'])})")

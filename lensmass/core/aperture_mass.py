@@ -6,7 +6,12 @@ Fahlman, Kaiser, Squires & Luppino (1994, ApJ 437, 56), eq. (4):
 Since the mean convergence of the annulus is not negative, pi (D_l theta1)^2 Sigma_cr zeta is a
 lower bound on the projected mass inside theta1, whatever the mass profile. With per-galaxy
 redshifts the same integral of Delta Sigma = Sigma_cr gamma_t gives the bound in Msun directly.
-The tangential reduced shear stands in for gamma_t (exact in the weak regime, kappa << 1).
+
+The data give the reduced shear g = gamma / (1 - kappa), not gamma (Bartelmann & Schneider 2001,
+Phys. Rep. 340, 291, eq. 4.15). Fed g_t in place of gamma_t, zeta exceeds the truth where kappa is
+not small (for a 2e15 Msun NFW halo at z_l = 0.45, annulus 0.5'-5', by 7%) and is no bound. The
+route used here converts each bin with a model convergence first, gamma_t = g_t (1 - kappa)
+(:func:`shear_from_reduced_shear`); the bound then rests on that convergence in the annulus.
 """
 
 from __future__ import annotations
@@ -58,3 +63,17 @@ def zeta_from_profile(edges, mean, error, r_inner: float, r_outer: float) -> tup
 def zeta_mass_bound_msun(r_inner_mpc: float, zeta_sigma_msun_per_mpc2: float) -> float:
     """Lower bound on the projected mass inside r_inner: pi r_inner^2 zeta_Sigma (Fahlman et al. 1994)."""
     return float(np.pi * r_inner_mpc**2 * zeta_sigma_msun_per_mpc2)
+
+
+def shear_from_reduced_shear(g_t, kappa):
+    """gamma_t = g_t (1 - kappa): the tangential shear from the reduced shear and a convergence.
+
+    ``kappa`` is the convergence for the sources that measured ``g_t`` (for a bin of
+    galaxies at several redshifts, its weighted mean over them). NaN stays NaN.
+
+    Examples
+    --------
+    >>> float(shear_from_reduced_shear(0.2, 0.25))
+    0.15000000000000002
+    """
+    return np.asarray(g_t, float) * (1.0 - np.asarray(kappa, float))

@@ -11,6 +11,10 @@ Dutton & Maccio (2014), MNRAS 441, 3359, eqs. (7)-(8), Delta = 200 critical:
   log10 c = a + b log10(M / 1e12 h^-1 Msun), a = 0.520 + 0.385 exp(-0.617 z^1.21),
   b = -0.101 + 0.026 z; and their virial fit, eqs. (9)-(10) (from memory):
   a = 0.537 + 0.488 exp(-0.718 z^1.08), b = -0.097 + 0.024 z.
+
+Calibration ranges (from memory; shared/REFERENCES.md quotes the Duffy one): Duffy et al. (2008)
+fit haloes of 1e11-1e15 h^-1 Msun at 0 <= z <= 2; Dutton & Maccio (2014) fit 1e10-1e15 h^-1 Msun
+at 0 <= z <= 5. A relation used outside them is an extrapolation and the output says so.
 """
 
 from __future__ import annotations
@@ -26,6 +30,9 @@ _DUFFY08 = {
     "vir": (7.85, -0.081, -0.71),
     "200m": (10.14, -0.081, -1.01),
 }
+
+#: (z_max, M_min, M_max in h^-1 Msun) over which each relation was fitted (from memory, see above).
+CALIBRATION_RANGES = {"duffy08": (2.0, 1e11, 1e15), "dutton14": (5.0, 1e10, 1e15)}
 
 #: Human descriptions used in the output's assumption notes.
 RELATION_LABELS = {
@@ -90,3 +97,37 @@ def concentration_relation(spec, definition: str = "200c") -> tuple[Callable, st
         raise LensInputError(f"A fixed concentration of {value:g} is outside {lo:g} to {hi:g}, where simulated and "
                              "observed halos lie; check --concentration.")
     return (lambda m, z, h: np.full(np.broadcast(np.asarray(m), np.asarray(z)).shape, value)), f"fixed c = {value:g}"
+
+
+def calibration_note(spec, m_msun, z, h: float) -> str | None:
+    """A sentence when a c(M, z) relation is used outside its calibration, else None.
+
+    ``m_msun`` and ``z`` may be arrays (one entry per lens): the sentence counts the
+    lenses outside. Fixed concentrations have no calibration and give None.
+
+    Examples
+    --------
+    >>> calibration_note("duffy08", 1e15, 2.5, 0.7)[:60]
+    'Duffy et al. (2008) c(M, z), full sample is calibrated for 0'
+    """
+    key = spec.strip().lower() if isinstance(spec, str) else None
+    if key not in CALIBRATION_RANGES:
+        return None
+    z_max, m_lo, m_hi = CALIBRATION_RANGES[key]
+    m_h = np.atleast_1d(np.asarray(m_msun, float)) * h
+    z_arr = np.broadcast_to(np.atleast_1d(np.asarray(z, float)), m_h.shape)
+    finite = np.isfinite(m_h)
+    bad_z = finite & (z_arr > z_max)
+    bad_m = finite & ((m_h < m_lo) | (m_h > m_hi))
+    if not np.any(bad_z | bad_m):
+        return None
+    reasons = []
+    if np.any(bad_z):
+        reasons.append(f"z_l = {float(np.max(z_arr[bad_z])):.3g}")
+    if np.any(bad_m):
+        reasons.append(f"M = {float(m_h[bad_m][0]):.3g} h^-1 Msun")
+    count = "" if m_h.size == 1 else f" for {int(np.count_nonzero(bad_z | bad_m))} of {m_h.size} lenses"
+    span = f"{m_lo:.0e}-{m_hi:.0e}".replace("e+", "e")
+    return (f"{RELATION_LABELS[key]} is calibrated for 0 <= z <= {z_max:g} and {span} h^-1 Msun; "
+            f"here it is extrapolated{count} ({', '.join(reasons)}): the concentration, and the NFW mass that "
+            "depends on it, rest on an extrapolation.")

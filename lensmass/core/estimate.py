@@ -12,7 +12,7 @@ from typing import Any, Callable
 import numpy as np
 
 from lensmass.core.concentration import concentration_relation
-from lensmass.core.cosmology import angular_diameter_distances_mpc, cosmology_label, resolve_cosmology
+from lensmass.core.cosmology import angular_diameter_distances_mpc, cosmology_label, little_h, resolve_cosmology
 from lensmass.core import limits
 from lensmass.core.errors import LensInputError
 from lensmass.core.lensing import arcsec_to_mpc, sigma_crit_msun_per_mpc2
@@ -32,6 +32,12 @@ from lensmass.core.uncertainty import (
 #: Keys whose values are derived numbers (each gets a median and intervals): the "estimate" group of
 #: the key registry, read live so a registered key appears here too.
 DERIVED_KEYS = keys_in("estimate")
+
+#: NFW masses above this exceed any halo observed (common practice: the most massive known
+#: clusters have M200 of a few 1e15 Msun).
+MASSIVE_HALO_MSUN = 1e16
+#: D_ls / D_s below this: the source sits just behind the lens and every mass scales as its inverse.
+SMALL_BETA = 0.2
 
 #: Einstein radii below this are treated as galaxy-scale for the NFW caveat (common practice:
 #: about 1" for massive single galaxies, several arcsec for groups).
@@ -258,12 +264,14 @@ def estimate(
             zs_s = rng.uniform(zs_model[0], zs_model[1], n_samples)
         else:
             zs_s = distribution_samples(zs_model[0], zs_model[1], n_samples, rng)
-        keep = (t_s > 0) & (zl_s > 0) & (zs_s > zl_s)
+        bad_theta = t_s <= 0
+        bad_z = (zl_s <= 0) | (zs_s <= zl_s)
+        keep = ~bad_theta & ~bad_z
         n_rejected = int(n_samples - keep.sum())
         if keep.sum() < 0.5 * n_samples:
             raise LensInputError(
-                f"Only {int(keep.sum())} of {n_samples} Monte Carlo draws put the source behind the lens "
-                "with a positive radius: the redshift errors or range are too wide for this lens."
+                f"Only {int(keep.sum())} of {n_samples} Monte Carlo draws are usable: "
+                f"{rejection_causes(int(bad_theta.sum()), int(bad_z.sum()), kind != 'fixed')}."
             )
         sampled = derive_in_chunks(t_s[keep], zl_s[keep], zs_s[keep], cosmo, c_of_m, halo_definition)
         del t_s, zl_s, zs_s, keep
@@ -273,7 +281,8 @@ def estimate(
         result["mc_seed"] = seed
         n_kept = int(sampled["theta_e_arcsec"].size)
         n_nfw_failed = int((~np.isfinite(sampled["nfw_m200_msun"])).sum())
-        notes.extend(monte_carlo_notes(n_samples, n_rejected, n_nfw_failed, n_kept))
+        notes.extend(monte_carlo_notes(n_samples, n_rejected, n_nfw_failed, n_kept,
+                                       int(bad_theta.sum()), int(bad_z.sum()), kind != "fixed"))
         result["_samples"] = sampled  # for plots; dropped from JSON output
 
     if kind == "fixed":
@@ -295,10 +304,13 @@ def estimate(
                                          halo_definition, versus_zs_points)
 
     limits.below_light_speed(result["sis_sigma_v_kms"], fix="the Einstein radius is too large for these "
-                             "redshifts (or z_s is barely behind z_l); check --theta-e, --zl and --zs")
+                             "redshifts (or z_s is barely behind z_l); check `theta_e_arcsec`, `z_l` and `z_s`")
     notes.extend(model_notes(theta, result["nfw_m200_msun"], c_label))
+    beta = np.asarray(result["d_ls_mpc"], float) / np.asarray(result["d_s_mpc"], float)
+    notes[-1:-1] = range_notes(result["nfw_m200_msun"], result["z_l"], beta, concentration, little_h(cosmo),
+                               cosmo, halo_definition)
     result["notes"] = notes
-    result["models"] = model_descriptions(result["cosmology"], c_label, halo_definition)
+    result["models"] = model_descriptions(result["cosmology"], c_label, halo_definition, cosmo)
     return LensResult(result)
 
 
@@ -323,14 +335,31 @@ def derive_in_chunks(theta_e_arcsec, z_l, z_s, cosmo, concentration_of_mass: Cal
     return out
 
 
-def monte_carlo_notes(n_samples: int, n_rejected: int, n_nfw_failed: int, n_kept: int) -> list[str]:
-    """Caveats about the Monte Carlo draws (rejected draws, draws with no NFW solution)."""
+def rejection_causes(n_bad_theta: int, n_bad_z: int, z_s_unknown: bool) -> str:
+    """Which input made Monte Carlo draws unusable, with counts and the fix (one clause)."""
+    parts = []
+    if n_bad_theta:
+        parts.append(f"{n_bad_theta} drew a non-positive Einstein radius (the theta_E error is too large "
+                     "for theta_E; check `theta_e_err`)")
+    if n_bad_z:
+        where = "the source redshift range or table reaches" if z_s_unknown else "the redshift errors put"
+        parts.append(f"{n_bad_z} had z_s <= z_l or z_l <= 0 ({where} the source at or in front of the lens; "
+                     "check `z_l_err`, `z_s_err` or the source redshifts)")
+    return "; ".join(parts) if parts else "none was rejected"
+
+
+def monte_carlo_notes(n_samples: int, n_rejected: int, n_nfw_failed: int, n_kept: int,
+                      n_bad_theta: int | None = None, n_bad_z: int | None = None,
+                      z_s_unknown: bool = False) -> list[str]:
+    """Caveats about the Monte Carlo draws (rejected draws and their cause, draws with no NFW solution)."""
     notes = []
     if n_rejected:
-        notes.append(
-            f"{n_rejected} of {n_samples} Monte Carlo draws had z_s <= z_l or a non-positive value "
-            "and were rejected."
-        )
+        if n_bad_theta is None or n_bad_z is None:
+            cause = "had z_s <= z_l or a non-positive value"
+        else:
+            cause = "were rejected: " + rejection_causes(n_bad_theta, n_bad_z, z_s_unknown)
+        notes.append(f"{n_rejected} of {n_samples} Monte Carlo draws {cause}" +
+                     (" and were rejected." if n_bad_theta is None or n_bad_z is None else "."))
     if 0 < n_nfw_failed < n_kept:
         notes.append(f"In {n_nfw_failed} draws no NFW halo could give the radius; the NFW intervals use the rest.")
     return notes
@@ -358,6 +387,39 @@ def model_notes(theta_e_arcsec, nfw_m200_msun, concentration_label: str) -> list
     return notes
 
 
+def range_notes(nfw_m200_msun, z_l, beta, concentration, h: float, cosmo, halo_definition: str) -> list[str]:
+    """Caveats when a number rests on a model outside its range.
+
+    A c(M) relation outside its calibration, a halo above any observed
+    (:data:`MASSIVE_HALO_MSUN`), a source just behind the lens (D_ls / D_s below
+    :data:`SMALL_BETA`), and a virial boundary in a cosmology the Bryan & Norman fits do not cover.
+    """
+    from lensmass.core.concentration import calibration_note
+    from lensmass.core.nfw import virial_overdensity
+
+    notes = []
+    m = np.atleast_1d(np.asarray(nfw_m200_msun, float))
+    c_note = calibration_note(concentration, m, z_l, h)
+    if c_note:
+        notes.append(c_note)
+    big = np.isfinite(m) & (m > MASSIVE_HALO_MSUN)
+    if np.any(big):
+        count = "" if m.size == 1 else f" for {int(big.sum())} of {m.size} lenses"
+        notes.append(f"The NFW M200 ({float(np.max(m[big])):.3g} Msun{count}) is above 1e16 Msun, more than any "
+                     "halo observed: suspect the redshifts (a source just behind the lens) or the Einstein radius.")
+    b = np.atleast_1d(np.asarray(beta, float))
+    small = np.isfinite(b) & (b < SMALL_BETA)
+    if np.any(small):
+        count = "" if b.size == 1 else f" for {int(small.sum())} of {b.size} lenses"
+        notes.append(f"D_ls/D_s = {float(np.min(b[small])):.3g}{count}: the source lies just behind the lens, so "
+                     "Sigma_cr and every mass scale as D_s/D_ls and a small redshift error moves them a lot.")
+    if halo_definition == "vir":
+        label = virial_overdensity(0.0, cosmo)[1]
+        if "outside" in label:
+            notes.append(f"The virial boundary uses the {label}.")
+    return notes
+
+
 def _versus_zs(theta, zl, kind, zs_model, cosmo, c_of_m, definition, n_points) -> list[dict[str, float]]:
     if kind == "range":
         lo, hi = zs_model
@@ -382,11 +444,20 @@ def _table_support(z: np.ndarray, weight: np.ndarray) -> tuple[float, float]:
     return float(z[max(nonzero[0] - 1, 0)]), float(z[min(nonzero[-1] + 1, len(z) - 1)])
 
 
-def model_descriptions(cosmology_name: str, concentration_label: str, halo_definition: str) -> dict[str, str]:
-    """Which model and assumptions produced each reported number."""
+def model_descriptions(cosmology_name: str, concentration_label: str, halo_definition: str,
+                       cosmo: Any = None) -> dict[str, str]:
+    """Which model and assumptions produced each reported number.
+
+    With ``cosmo`` the virial boundary names the Bryan & Norman (1998) fit used for it.
+    """
+    from lensmass.core.nfw import halo_boundary_description
+
     dist = f"angular-diameter distance in {cosmology_name} (astropy; Hogg 1999)"
-    boundary = {"200c": "200 x critical density at z_l", "200m": "200 x mean matter density at z_l",
-                "vir": "virial overdensity of Bryan & Norman (1998) at z_l"}[halo_definition]
+    if cosmo is not None:
+        boundary = halo_boundary_description(halo_definition, cosmo)
+    else:
+        boundary = {"200c": "200 x critical density at z_l", "200m": "200 x mean matter density at z_l",
+                    "vir": "virial overdensity of Bryan & Norman (1998) at z_l"}[halo_definition]
     nfw = f"NFW halo alone (no stars), boundary {boundary}, concentration from {concentration_label}; "
     nfw += "halo mass chosen so its mean convergence inside theta_E is 1"
     return {

@@ -21,13 +21,14 @@ import numpy as np
 
 from lensmass.core import limits
 from lensmass.core.concentration import concentration_relation
-from lensmass.core.cosmology import cosmology_label, resolve_cosmology
+from lensmass.core.cosmology import cosmology_label, little_h, resolve_cosmology
 from lensmass.core.estimate import (
     DERIVED_KEYS,
     derive_quantities,
     model_descriptions,
     model_notes,
     monte_carlo_notes,
+    range_notes,
 )
 from lensmass.core.limits import MC_CHUNK
 from lensmass.core.uncertainty import DEFAULT_SAMPLES, normal_samples
@@ -79,6 +80,7 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
     (500, False)
     """
     cosmo = resolve_cosmology(cosmology)
+    h = little_h(cosmo)
     c_of_m, c_label = concentration_relation(concentration, halo_definition)
     cols = [np.asarray(v, float).ravel() for v in (theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err)]
     theta, t_err, zl, zl_err, zs, zs_err = cols
@@ -97,7 +99,7 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
     if n < 100:
         ok[:] = False
     label = cosmology_label(cosmo)
-    models = model_descriptions(label, c_label, halo_definition)
+    models = model_descriptions(label, c_label, halo_definition, cosmo)
     results: list[dict[str, Any] | None] = [None] * n_rows
     idx = np.flatnonzero(ok)
     if idx.size == 0:
@@ -109,17 +111,21 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
     summaries: dict[int, dict] = {}
     rejected: dict[int, int] = {}
     group: list[tuple[int, tuple]] = []
+    causes: dict[int, tuple[int, int]] = {}
     for i in idx[wants[idx]]:
         rng = np.random.default_rng(int(seeds[i]))
         t_s = normal_samples(theta[i], t_err[i], n, rng)
         zl_s = normal_samples(zl[i], zl_err[i], n, rng)
         zs_s = normal_samples(zs[i], zs_err[i], n, rng)
-        keep = (t_s > 0) & (zl_s > 0) & (zs_s > zl_s)
+        bad_theta = t_s <= 0
+        bad_z = (zl_s <= 0) | (zs_s <= zl_s)
+        keep = ~bad_theta & ~bad_z
         if keep.sum() < 0.5 * n:
             ok[i] = False  # estimate() refuses this row with its own message
             continue
         group.append((i, (t_s[keep], zl_s[keep], zs_s[keep])))
         rejected[i] = int(n - keep.sum())
+        causes[i] = (int(bad_theta.sum()), int(bad_z.sum()))
         if sum(d[0].size for _, d in group) >= MC_CHUNK:  # bounded memory: summarise rows in groups
             summaries.update(_summarise_group(group, cosmo, c_of_m, halo_definition))
             group = []
@@ -135,10 +141,12 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
             s = summaries[i]
             result.update({k: s[k] for k in ("medians", "intervals68", "intervals95")})
             result["mc_samples"], result["mc_rejected"], result["mc_seed"] = n, rejected[i], int(seeds[i])
-            notes.extend(monte_carlo_notes(n, rejected[i], s["_nfw_failed"], s["_n_kept"]))
+            notes.extend(monte_carlo_notes(n, rejected[i], s["_nfw_failed"], s["_n_kept"], *causes[i]))
         for key in DERIVED_KEYS:
             result[key] = float(central[key][j])
         notes.extend(model_notes(theta[i], result["nfw_m200_msun"], c_label))
+        notes[-1:-1] = range_notes(result["nfw_m200_msun"], result["z_l"], result["d_ls_mpc"] / result["d_s_mpc"],
+                                   concentration, h, cosmo, halo_definition)
         result["notes"] = notes
         result["models"] = dict(models)
         results[i] = result

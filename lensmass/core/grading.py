@@ -285,3 +285,101 @@ def grade_answer(quantity: str, submitted: float, theta_e_arcsec: float, z_l: fl
     ['diameter_for_radius']
     """
     return grade_answers({quantity: submitted}, theta_e_arcsec, z_l, z_s, cosmo, tolerance)[0]
+
+
+# --- summaries: per student, and the class's mistakes counted by students ---------------------
+
+
+def plural(n: int, word: str, many: str | None = None) -> str:
+    """'1 student', '2 students' (``many`` for irregular plurals).
+
+    Examples
+    --------
+    >>> plural(1, "student"), plural(3, "answer"), plural(0, "mistake")
+    ('1 student', '3 answers', '0 mistakes')
+    """
+    return f"{n} {word if n == 1 else (many or word + 's')}"
+
+
+@dataclass(frozen=True)
+class StudentSummary:
+    """One student's verdicts and the mistake that best explains the failed answers.
+
+    ``explanation`` holds the keys of :data:`MISTAKES` that explain the most failed
+    answers (several when the answers cannot tell them apart, empty when none
+    matches); ``explained`` counts the failed answers they explain.
+    """
+
+    student: str
+    passed: tuple[str, ...]
+    failed: tuple[str, ...]
+    missing: tuple[str, ...]
+    not_graded: tuple[str, ...]
+    explanation: tuple[str, ...]
+    explained: int
+
+    @property
+    def sentence(self) -> str:
+        """The summary as a sentence a teaching assistant reads."""
+        answered = len(self.passed) + len(self.failed)
+        parts = [f"{len(self.passed)} of {plural(answered, 'answer')} pass"]
+        if self.explanation:
+            desc = {m.key: m.description for m in MISTAKES}
+            who = " or ".join(desc[k] for k in self.explanation)
+            fails = len(self.failed) - len(self.not_graded)
+            parts.append(f"{self.explained} of {fails} failed explained: {who}"
+                         + (" (these answers cannot tell them apart)" if len(self.explanation) > 1 else ""))
+        elif len(self.failed) > len(self.not_graded):
+            parts.append("no known mistake explains the failed answers")
+        if self.not_graded:
+            parts.append(f"not graded: {', '.join(self.not_graded)}")
+        if self.missing:
+            parts.append(f"missing: {', '.join(self.missing)}")
+        return "; ".join(parts)
+
+
+def summarise_student(student: str, rows: list[dict], expected_quantities: list[str]) -> StudentSummary:
+    """Summarise one student's graded rows (dicts with ``quantity``, ``verdict``, ``mistakes``).
+
+    A failed answer may match several mistakes; the student's explanation is the mistake
+    (or the set of mistakes that match exactly the same answers) matching the most of
+    them, so one slip is never counted as two.
+    """
+    answered = [r for r in rows if r.get("verdict") in ("pass", "fail") and r.get("quantity")]
+    passed = tuple(r["quantity"] for r in answered if r["verdict"] == "pass")
+    failed = tuple(r["quantity"] for r in answered if r["verdict"] == "fail")
+    not_graded = tuple(r["quantity"] for r in answered if r["verdict"] == "fail"
+                       and str(r.get("diagnosis", "")).startswith("not graded"))
+    given = {r["quantity"] for r in rows if r.get("quantity")}
+    missing = tuple(q for q in expected_quantities if q not in given or
+                    any(r["quantity"] == q and r.get("verdict") == "missing" for r in rows))
+    matched: dict[str, frozenset] = {}
+    for r in answered:
+        for key in r.get("mistakes", []) or []:
+            matched[key] = matched.get(key, frozenset()) | {r["quantity"]}
+    if not matched:
+        return StudentSummary(student, passed, failed, missing, not_graded, (), 0)
+    best = max(len(v) for v in matched.values())
+    order = [m.key for m in MISTAKES]
+    top = sorted((k for k, v in matched.items() if len(v) == best), key=order.index)
+    return StudentSummary(student, passed, failed, missing, not_graded, tuple(top), best)
+
+
+def class_mistakes(summaries: list[StudentSummary]) -> list[tuple[tuple[str, ...], int]]:
+    """Each explanation with the number of students it explains, most common first.
+
+    A student counts once, under the one explanation of their answers (a set of
+    mistakes when the answers cannot tell them apart).
+    """
+    counts: dict[tuple[str, ...], int] = {}
+    for s in summaries:
+        if s.explanation:
+            counts[s.explanation] = counts.get(s.explanation, 0) + 1
+    order = [m.key for m in MISTAKES]
+    return sorted(counts.items(), key=lambda kv: (-kv[1], order.index(kv[0][0])))
+
+
+def describe_explanation(keys: tuple[str, ...]) -> str:
+    """The mistakes of an explanation in words ('A' or 'A or B')."""
+    desc = {m.key: m.description for m in MISTAKES}
+    return " or ".join(desc[k] for k in keys)

@@ -8,7 +8,9 @@ with x = R / r_s and F(x) = arccosh(1/x)/sqrt(1-x^2) (x < 1), arccos(1/x)/sqrt(x
   Sigma(x) = 2 rho_s r_s (1 - F) / (x^2 - 1),
   mean Sigma(<x) = 4 rho_s r_s [ln(x/2) + F] / x^2,
   gamma_t = [mean Sigma(<x) - Sigma(x)] / Sigma_cr.
-Bryan & Norman (1998), ApJ 495, 80, eq. (6): Delta_vir = 18 pi^2 + 82 x - 39 x^2, x = Omega_m(z) - 1.
+Bryan & Norman (1998), ApJ 495, 80, eq. (6), x = Omega_m(z) - 1, relative to the critical density:
+  Delta_vir = 18 pi^2 + 82 x - 39 x^2 (flat, Omega_m + Omega_Lambda = 1),
+  Delta_vir = 18 pi^2 + 60 x - 32 x^2 (open, Omega_Lambda = 0).
 
 Numerics: F is evaluated as arctanh(s)/s or arctan(s)/s with s = sqrt|x^2 - 1|, which is well
 conditioned; near x = 1 the ratio (1 - F)/(x^2 - 1) uses its series sum_k (-t)^k / (2k + 3),
@@ -29,11 +31,50 @@ _SERIES_LIMIT = 0.05
 _SERIES_TERMS = 16
 
 
+#: Curvature below this counts as flat for the choice of the Bryan & Norman (1998) fit.
+_FLAT_TOLERANCE = 1e-3
+
+
+def virial_overdensity(z, cosmo) -> tuple[np.ndarray, str]:
+    """Bryan & Norman (1998) virial overdensity relative to the critical density, and which fit was used.
+
+    Their eq. (6) has one fit for flat models with a cosmological constant
+    (18 pi^2 + 82 x - 39 x^2) and one for open models without (18 pi^2 + 60 x - 32 x^2),
+    x = Omega_m(z) - 1. Models with both curvature and dark energy have no fit of
+    theirs: the flat one is used and the label says so.
+
+    Examples
+    --------
+    >>> from astropy.cosmology import LambdaCDM
+    >>> d, label = virial_overdensity(0.0, LambdaCDM(70, 1.0, 0.0))  # Einstein-de Sitter: 18 pi^2
+    >>> round(float(d), 2), label
+    (177.65, 'Bryan & Norman (1998) flat-Lambda fit')
+    """
+    x = cosmo.Om(np.asarray(z, float)) - 1.0
+    ode0 = float(getattr(cosmo, "Ode0", 0.0) or 0.0)
+    ok0 = float(getattr(cosmo, "Ok0", 0.0) or 0.0)
+    if ode0 == 0.0 and ok0 > _FLAT_TOLERANCE:
+        return 18 * np.pi**2 + 60 * x - 32 * x**2, "Bryan & Norman (1998) open (Omega_Lambda = 0) fit"
+    label = "Bryan & Norman (1998) flat-Lambda fit"
+    if abs(ok0) > _FLAT_TOLERANCE:
+        label += (f" used outside its range (Omega_k = {ok0:.3g} with dark energy: their fits cover flat-Lambda "
+                  "and open Omega_Lambda = 0 models only)")
+    return 18 * np.pi**2 + 82 * x - 39 * x**2, label
+
+
+def halo_boundary_description(definition: str, cosmo) -> str:
+    """Words for the halo boundary, naming the Bryan & Norman fit used for virial haloes."""
+    if definition == "vir":
+        return f"virial overdensity at z_l, {virial_overdensity(0.0, cosmo)[1]}"
+    return {"200c": "200 x critical density at z_l", "200m": "200 x mean matter density at z_l"}[definition]
+
+
 def overdensity_density_msun_per_mpc3(z, cosmo, definition: str = "200c") -> np.ndarray:
     """The mean density Delta * rho_ref inside the halo boundary, in Msun / Mpc^3.
 
     ``"200c"``: 200 rho_crit(z); ``"200m"``: 200 Omega_m(z) rho_crit(z); ``"vir"``:
-    Bryan & Norman (1998) Delta_vir(z) rho_crit(z) (for flat models with a cosmological constant).
+    Bryan & Norman (1998) Delta_vir(z) rho_crit(z), with their fit for the cosmology
+    (see :func:`virial_overdensity`).
     """
     rho_c = critical_density_msun_per_mpc3(z, cosmo)
     if definition == "200c":
@@ -41,8 +82,7 @@ def overdensity_density_msun_per_mpc3(z, cosmo, definition: str = "200c") -> np.
     if definition == "200m":
         return 200.0 * cosmo.Om(np.asarray(z, float)) * rho_c
     if definition == "vir":
-        x = cosmo.Om(np.asarray(z, float)) - 1.0
-        return (18 * np.pi**2 + 82 * x - 39 * x**2) * rho_c
+        return virial_overdensity(z, cosmo)[0] * rho_c
     raise LensInputError(f"Unknown halo definition '{definition}': use one of {', '.join(HALO_DEFINITIONS)}.")
 
 

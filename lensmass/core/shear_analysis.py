@@ -11,14 +11,16 @@ from typing import Any, Callable
 
 import numpy as np
 
-from lensmass.core.aperture_mass import zeta_from_profile, zeta_mass_bound_msun
+from lensmass.core.aperture_mass import shear_from_reduced_shear, zeta_from_profile, zeta_mass_bound_msun
 from lensmass.core.concentration import concentration_relation
 from lensmass.core.constants import ARCSEC_RAD
-from lensmass.core.cosmology import cosmology_label, resolve_cosmology
+from lensmass.core.cosmology import cosmology_label, little_h, resolve_cosmology
 from lensmass.core import limits
 from lensmass.core.errors import LensInputError
-from lensmass.core.nfw import HALO_DEFINITIONS, nfw_halo, nfw_mass_2d_msun
-from lensmass.core.shear_fit import cross_shear_test, fit_nfw, fit_sis
+from lensmass.core.estimate import range_notes
+from lensmass.core.lensing import sigma_crit_msun_per_mpc2
+from lensmass.core.nfw import HALO_DEFINITIONS, nfw_halo, nfw_mass_2d_msun, nfw_surface_density_msun_per_mpc2
+from lensmass.core.shear_fit import DETECTION_SIGMA, PRIORS, cross_shear_test, fit_nfw, fit_sis
 from lensmass.core.shear_profile import (
     DEFAULT_Z_MARGIN,
     catalog_shear_profile,
@@ -209,14 +211,24 @@ def analyse_shear_catalog(
     x2, dof_x, p_x = cross_shear_test(profile)
 
     step(0.85, "aperture mass")
-    if zeta_slice is not None:
-        zeta, zeta_err, zeta_s, zeta_s_err = _zeta_from_subbins(profile.fine, zeta_slice, z_in, z_out)
-    else:
-        zeta, zeta_err, zeta_s, zeta_s_err = _zeta(z_in, z_out, zeta_edges, t_n, e_t, e_x, w_n, sigma_cr, d_l)
     r_in_mpc = z_in * ARCSEC_RAD * d_l
+    nfw_best_halo = nfw_halo(nfw.best["nfw_m200_msun"], nfw.best["nfw_c200"], z_l, cosmo, halo_definition)
+    m_hi = float(nfw.quantiles["nfw_m200_msun"][3])
+    c_hi = nfw.best["nfw_c200"] if free_concentration else float(c_of_m(m_hi, z_l, little_h(cosmo)))
+    halos = (None, nfw_best_halo, nfw_halo(m_hi, c_hi, z_l, cosmo, halo_definition))
+    zetas = []
+    for halo in halos:  # uncorrected (weak-shear limit), best-fit convergence, 84th-percentile convergence
+        if zeta_slice is not None:
+            zetas.append(_zeta_from_subbins(profile.fine, zeta_slice, z_in, z_out, halo, profile.cells, d_l))
+        else:
+            zetas.append(_zeta(z_in, z_out, zeta_edges, t_n, e_t, e_x, w_n, sigma_cr, d_l, halo))
+    (zeta_weak, _, zeta_s_weak, _), (zeta, zeta_err, zeta_s, zeta_s_err), (zeta_hi, _, zeta_s_hi, _) = zetas
+    # the convergence of the fitted halo is uncertain: its 68% spread adds to the error
+    zeta_err = float(np.hypot(zeta_err, zeta - zeta_hi))
+    zeta_s_err = float(np.hypot(zeta_s_err, zeta_s - zeta_s_hi))
     zeta_mass = zeta_mass_bound_msun(r_in_mpc, zeta_s)
     zeta_mass_err = zeta_mass_bound_msun(r_in_mpc, zeta_s_err)
-    nfw_best_halo = nfw_halo(nfw.best["nfw_m200_msun"], nfw.best["nfw_c200"], z_l, cosmo, halo_definition)
+    zeta_mass_weak = zeta_mass_bound_msun(r_in_mpc, zeta_s_weak)
     nfw_m2d_zeta = float(nfw_mass_2d_msun(r_in_mpc, nfw_best_halo))
 
     step(0.95, "assembling results")
@@ -250,15 +262,28 @@ def analyse_shear_catalog(
         cross_shear_chi2=x2, cross_shear_dof=dof_x, cross_shear_pvalue=p_x,
         zeta=zeta, zeta_err=zeta_err,
         zeta_mass_msun=zeta_mass, zeta_mass_err_msun=zeta_mass_err,
+        zeta_mass_weak_shear_msun=zeta_mass_weak, zeta_weak_shear=zeta_weak,
         zeta_radius_arcsec=z_in, zeta_outer_radius_arcsec=z_out,
         zeta_radius_kpc=r_in_mpc * 1e3, zeta_outer_radius_kpc=z_out * ARCSEC_RAD * d_l * 1e3,
         nfw_mass_2d_at_zeta_radius_msun=nfw_m2d_zeta,
         free_concentration=bool(free_concentration),
+        detection_significance=nfw.significance, sis_detection_significance=sis.significance,
+        detected=nfw.detected,
+        nfw_m200_upper95_msun=nfw.upper["nfw_m200_msun"], sis_sigma_v_upper95_kms=sis.upper["sis_sigma_v_kms"],
+        priors=dict(PRIORS),
     )
     result["profile"] = profile_rows(profile, sis.model_profile, nfw.model_profile)
-    result["notes"] = _notes(sis, nfw, p_x, dropped, zeta_mass, zeta_mass_err, nfw_m2d_zeta, z is not None)
+    result["notes"] = _notes(sis, nfw, p_x, dropped, zeta_mass, zeta_mass_err, nfw_m2d_zeta, z is not None,
+                             zeta_mass_weak)
+    result["notes"].insert(-1, (
+        f"Fit values are posterior medians; the maximum-likelihood best fit ('best_fit', drawn as the model "
+        f"curves and written to the profile file) is sigma_v = {best['sis_sigma_v_kms']:.4g} km/s, "
+        f"M200 = {best['nfw_m200_msun']:.4g} Msun, c200 = {best['nfw_c200']:.3g}."))
+    result["notes"][-1:-1] = range_notes(nfw.best["nfw_m200_msun"] if nfw.detected else np.nan, z_l,
+                                         profile.beta_mean, concentration if not free_concentration else None,
+                                         little_h(cosmo), cosmo, halo_definition)
     result["models"] = model_descriptions(result["cosmology"], c_label, halo_definition, free_concentration,
-                                          result["source_redshifts"])
+                                          result["source_redshifts"], cosmo)
     result["_profile"] = profile
     result["_fits"] = {"sis": sis, "nfw": nfw}
     result["_galaxies"] = {"x_arcsec": x, "y_arcsec": y, "e1": e1a, "e2": e2a, "weight": w, "usable": ok}
@@ -276,19 +301,49 @@ def _zeta_subbins(fine_edges: np.ndarray, z_in: float, z_out: float) -> slice | 
     return None
 
 
-def _zeta_from_subbins(fine, sl: slice, z_in, z_out):
-    """zeta and zeta_Sigma with errors from the profile's sub-bins ``sl``."""
+def _convergence_inf(halo, radius_mpc, d_l):
+    """Convergence of ``halo`` for a source with D_ls / D_s = 1."""
+    return nfw_surface_density_msun_per_mpc2(radius_mpc, halo) / sigma_crit_msun_per_mpc2(d_l, 1.0, 1.0)
+
+
+def _subbin_kappa(fine_edges, cells, halo, d_l):
+    """Convergence of ``halo`` in each sub-bin, averaged as the two estimators weight their galaxies.
+
+    With g = beta gamma_inf / (1 - beta kappa_inf) per galaxy, gamma_t = g_t (1 - kappa) in a bin of
+    mean g_t (weights w) needs kappa_inf <beta^2>/<beta>; the Delta Sigma mean (weights w beta^2)
+    needs kappa_inf <beta^3>/<beta^2> (moments over the bin's cells, first order in the shear).
+    """
+    n = fine_edges.size - 1
+    k = np.searchsorted(fine_edges, cells.theta_arcsec, side="right") - 1
+    ok = (k >= 0) & (k < n)
+    w, b, v = cells.weight[ok], cells.beta[ok], cells.beta_var[ok]
+    m = [np.bincount(k[ok], w * mom, n) for mom in (b, b * b + v, b**3 + 3 * b * v)]
+    centre_mpc = np.sqrt(fine_edges[1:] * fine_edges[:-1]) * ARCSEC_RAD * d_l
+    kappa_inf = _convergence_inf(halo, centre_mpc, d_l)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return kappa_inf * m[1] / m[0], kappa_inf * m[2] / m[1]
+
+
+def _zeta_from_subbins(fine, sl: slice, z_in, z_out, halo=None, cells=None, d_l=None):
+    """zeta and zeta_Sigma with errors from the profile's sub-bins ``sl``; with ``halo``, the
+    reduced shear is first converted to shear with the halo's convergence."""
     e = fine.edges_arcsec[sl.start:sl.stop + 1]
-    zeta = zeta_from_profile(e, fine.g_t[sl], fine.g_t_err[sl], z_in, z_out)
-    zeta_s = zeta_from_profile(e, fine.delta_sigma_msun_per_mpc2[sl], fine.delta_sigma_err_msun_per_mpc2[sl],
-                               z_in, z_out)
+    g_t, ds = fine.g_t[sl], fine.delta_sigma_msun_per_mpc2[sl]
+    if halo is not None:
+        kappa_g, kappa_ds = _subbin_kappa(e, cells, halo, d_l)
+        g_t, ds = shear_from_reduced_shear(g_t, kappa_g), shear_from_reduced_shear(ds, kappa_ds)
+    zeta = zeta_from_profile(e, g_t, fine.g_t_err[sl], z_in, z_out)
+    zeta_s = zeta_from_profile(e, ds, fine.delta_sigma_err_msun_per_mpc2[sl], z_in, z_out)
     return (*zeta, *zeta_s)
 
 
-def _zeta(z_in, z_out, zeta_edges, theta, e_t, e_x, w, sigma_cr, d_l):
-    """zeta and zeta_Sigma with errors from a profile of the annulus alone."""
+def _zeta(z_in, z_out, zeta_edges, theta, e_t, e_x, w, sigma_cr, d_l, halo=None):
+    """zeta and zeta_Sigma with errors from a profile of the annulus alone; with ``halo``, each
+    galaxy's reduced shear is converted to shear with the halo's convergence at its redshift."""
     ann = (theta >= z_in) & (theta < z_out)
     t_a, et_a, ex_a, w_a, sc_a = take_where(ann, theta, e_t, e_x, w, np.broadcast_to(sigma_cr, theta.shape))
+    if halo is not None:
+        et_a = shear_from_reduced_shear(et_a, nfw_surface_density_msun_per_mpc2(t_a * ARCSEC_RAD * d_l, halo) / sc_a)
     zp = shear_profile(t_a, et_a, ex_a, w_a, zeta_edges, sigma_cr_msun_per_mpc2=sc_a, d_l_mpc=d_l,
                        with_model_cells=False)
     zeta = zeta_from_profile(zeta_edges, zp.g_t, zp.g_t_err, z_in, z_out)
@@ -319,8 +374,22 @@ def profile_rows(profile, sis_model, nfw_model) -> list[dict[str, float]]:
     return rows
 
 
-def _notes(sis, nfw, p_cross, dropped, zeta_mass, zeta_err, nfw_m2d, per_galaxy_z) -> list[str]:
+def detection_note(sis, nfw) -> str | None:
+    """The sentence that replaces a measurement when the data do not detect the halo."""
+    if nfw.detected:
+        return None
+    return (f"The data do not detect the halo: the NFW fit beats no lens at {nfw.significance:.1f} sigma "
+            f"(SIS {sis.significance:.1f} sigma; {DETECTION_SIGMA:g} needed). Read the masses as upper limits: "
+            f"M200 < {nfw.upper['nfw_m200_msun']:.3g} Msun and sigma_v < {sis.upper['sis_sigma_v_kms']:.0f} km/s "
+            f"(95%, one-sided; priors {PRIORS['NFW']} and {PRIORS['SIS']}). The medians and intervals are "
+            "posterior summaries under those priors, not measurements.")
+
+
+def _notes(sis, nfw, p_cross, dropped, zeta_mass, zeta_err, nfw_m2d, per_galaxy_z, zeta_mass_weak) -> list[str]:
     notes = list(sis.notes) + list(nfw.notes)
+    undetected = detection_note(sis, nfw)
+    if undetected:
+        notes.insert(0, undetected)
     total = sum(v for k, v in dropped.items() if k != "outside_radial_range")
     if total:
         parts = ", ".join(f"{v} {k.replace('_', ' ')}" for k, v in dropped.items() if v and k != "outside_radial_range")
@@ -331,9 +400,15 @@ def _notes(sis, nfw, p_cross, dropped, zeta_mass, zeta_err, nfw_m2d, per_galaxy_
     for fit in (sis, nfw):
         if np.isfinite(fit.pvalue) and fit.pvalue < 0.01:
             notes.append(f"The {fit.model} model fits poorly (p = {fit.pvalue:.2g}).")
+    if np.isfinite(zeta_mass) and np.isfinite(zeta_mass_weak) and zeta_mass_weak > 0 \
+            and zeta_mass_weak - zeta_mass > 0.02 * zeta_mass_weak:
+        notes.append(f"The convergence is not small in the zeta annulus: converting the reduced shear to shear "
+                     f"(gamma_t = g_t (1 - kappa), kappa of the fitted NFW halo) lowered the zeta mass by "
+                     f"{100 * (1 - zeta_mass / zeta_mass_weak):.0f}%; read uncorrected ({zeta_mass_weak:.3g} Msun) "
+                     "it would not be a lower bound.")
     if np.isfinite(zeta_mass) and np.isfinite(nfw_m2d) and zeta_mass > nfw_m2d + 2 * zeta_err:
         notes.append("The zeta lower bound exceeds the projected mass of the fitted NFW halo at that radius "
-                     "by more than 2 sigma: the NFW fit may underestimate the mass.")
+                     "by more than 2 sigma: the NFW fit may underestimate the mass inside that radius.")
     if per_galaxy_z:
         notes.append("Per-galaxy redshifts are used as given: photometric-redshift errors and outliers bias "
                      "Sigma_cr and are not propagated.")
@@ -342,19 +417,26 @@ def _notes(sis, nfw, p_cross, dropped, zeta_mass, zeta_err, nfw_m2d, per_galaxy_
 
 
 def model_descriptions(cosmology_name: str, concentration_label: str, halo_definition: str,
-                       free_concentration: bool, source_redshifts: str) -> dict[str, str]:
+                       free_concentration: bool, source_redshifts: str, cosmo: Any = None) -> dict[str, str]:
     """Which model and assumptions produced each reported number."""
-    boundary = {"200c": "200 x critical density at z_l", "200m": "200 x mean matter density at z_l",
-                "vir": "virial overdensity of Bryan & Norman (1998) at z_l"}[halo_definition]
+    from lensmass.core.nfw import halo_boundary_description
+
+    if cosmo is not None:
+        boundary = halo_boundary_description(halo_definition, cosmo)
+    else:
+        boundary = {"200c": "200 x critical density at z_l", "200m": "200 x mean matter density at z_l",
+                    "vir": "virial overdensity of Bryan & Norman (1998) at z_l"}[halo_definition]
     like = ("Gaussian likelihood of the binned tangential reduced shear (shape-noise errors), "
-            f"posterior on a grid, flat prior in log; value = posterior median; distances in {cosmology_name}; "
-            f"source redshifts: {source_redshifts}")
+            "posterior on a grid; value = posterior median, best_fit = maximum likelihood; "
+            f"distances in {cosmology_name}; source redshifts: {source_redshifts}")
     c_text = "c free (flat prior in log c, 0.3-40)" if free_concentration else f"c from {concentration_label}"
-    nfw = f"NFW halo (Wright & Brainerd 2000), boundary {boundary}, {c_text}; {like}"
-    zeta = ("aperture densitometry (Fahlman et al. 1994): model-independent lower bound on the projected mass "
-            "inside the inner radius, from the Delta Sigma profile in the annulus (weak-shear limit)")
+    nfw = f"NFW halo (Wright & Brainerd 2000), boundary {boundary}, {c_text}; prior {PRIORS['NFW']}; {like}"
+    zeta = ("aperture densitometry (Fahlman et al. 1994): lower bound on the projected mass inside the inner "
+            "radius, from the Delta Sigma profile in the annulus with the reduced shear converted to shear by the "
+            "convergence of the fitted NFW halo, gamma_t = g_t (1 - kappa); the bound rests on that convergence "
+            "in the annulus (its 68% range is in the error), not on the NFW mass inside the inner radius")
     return {
-        "sis_sigma_v_kms": "singular isothermal sphere fitted to the reduced shear; " + like,
+        "sis_sigma_v_kms": f"singular isothermal sphere fitted to the reduced shear; prior {PRIORS['SIS']}; " + like,
         "sis_theta_e_arcsec": "Einstein radius of the fitted SIS for a source at z_s_effective "
         "(the redshift with the sample's mean D_ls/D_s)",
         "nfw_m200_msun": nfw,
@@ -364,7 +446,15 @@ def model_descriptions(cosmology_name: str, concentration_label: str, halo_defin
         "zeta": "zeta(theta1, theta2) = mean kappa inside theta1 minus mean kappa in the annulus (Fahlman et al. 1994)",
         "delta_sigma_msun_per_pc2": "excess surface density Sigma_cr g_t, each galaxy's own Sigma_cr, weights w / Sigma_cr^2",
         "cross_shear_pvalue": "chi^2 of the binned cross shear against zero (expected for lensing)",
+        "detection_significance": "likelihood ratio of the best NFW fit against no lens (zero shear), as Gaussian "
+        f"sigma (Wilks' theorem); below {DETECTION_SIGMA:g} the halo counts as not detected",
+        "nfw_m200_upper95_msun": "one-sided 95% upper limit on M200: 95th percentile of the NFW posterior under "
+        f"the prior {PRIORS['NFW']}",
+        "sis_sigma_v_upper95_kms": "one-sided 95% upper limit on the SIS sigma_v: 95th percentile of its posterior "
+        f"under the prior {PRIORS['SIS']}",
         "nfw_mass_2d_at_zeta_radius_msun": "projected mass of the best-fit NFW halo inside the zeta inner radius",
+        "zeta_mass_weak_shear_msun": "the zeta mass with the reduced shear read as shear (weak-shear limit, "
+        "kappa << 1): above the truth where kappa is not small, so not a bound; shown for comparison",
     }
 
 

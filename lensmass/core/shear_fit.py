@@ -10,8 +10,18 @@ of the expected ellipticity: g for |g| <= 1 and 1/g otherwise (Seitz & Schneider
        c from a concentration-mass relation (default Duffy et al. 2008, as in
        ``estimate``) or free.
 The likelihood is Gaussian in the bin means with their shape-noise errors; the
-posterior (prior uniform in log sigma_v, log M200 and log c) is evaluated on a grid
-that is refined around its peak, giving medians and 68% / 95% intervals.
+posterior is evaluated on a grid that is refined around its peak, giving medians and
+68% / 95% intervals. Priors are uniform in the signal amplitude: in sigma_v^2 for the
+SIS (its shear is proportional to sigma_v^2) and in M200 for NFW (log c uniform when c
+is free), over :data:`SIS_SIGMA_RANGE_KMS` and :data:`NFW_LOG10_MASS_RANGE`. A prior
+uniform in log M piles the posterior up at its lower edge when the data do not detect
+the halo (the interval then depends on that edge, not on the data); a uniform one gives
+a one-sided 95% upper limit that the data set.
+
+Each fit also gives a detection significance: the likelihood ratio of the best fit
+against no lens (zero shear), Delta chi^2 = chi^2_0 - chi^2_min, turned into Gaussian
+sigma with the fit's number of parameters (Wilks' theorem; for one parameter
+sigma = sqrt(Delta chi^2)). Below :data:`DETECTION_SIGMA` the halo is not detected.
 """
 
 from __future__ import annotations
@@ -39,6 +49,12 @@ QUANTILES = (0.025, 0.16, 0.5, 0.84, 0.975)
 SIS_SIGMA_RANGE_KMS = (10.0, 5000.0)
 NFW_LOG10_MASS_RANGE = (10.0, 17.0)
 NFW_CONCENTRATION_RANGE = (0.3, 40.0)
+#: Detections below this significance are reported as upper limits (common practice: 3 sigma).
+DETECTION_SIGMA = 3.0
+#: One-sided level of the upper limits.
+UPPER_LIMIT_LEVEL = 0.95
+PRIORS = {"SIS": "uniform in sigma_v^2 (the SIS shear amplitude), 10-5000 km/s",
+          "NFW": "uniform in M200, 1e10-1e17 Msun"}
 _CHUNK_ELEMENTS = 4_000_000
 _LNP_FLOOR = -40.0
 
@@ -96,12 +112,42 @@ def _chunked(fn: Callable, params: tuple[np.ndarray, ...], n_cells: int) -> np.n
     return np.concatenate([fn(*(p[i:i + step] for p in params)) for i in range(0, n, step)])
 
 
-def _grid_quantiles(x: np.ndarray, lnp: np.ndarray) -> np.ndarray:
+def _grid_quantiles(x: np.ndarray, lnp: np.ndarray, levels=QUANTILES) -> np.ndarray:
     """Quantiles of a 1-D density tabulated on an increasing grid (trapezoid CDF)."""
     p = np.exp(lnp - np.max(lnp))
     cdf = np.concatenate([[0.0], np.cumsum(0.5 * (p[1:] + p[:-1]) * np.diff(x))])
     cdf /= cdf[-1]
-    return np.interp(QUANTILES, cdf, x)
+    return np.interp(levels, cdf, x)
+
+
+def detection_significance(chi2_null: float, chi2_min: float, n_par: int) -> float:
+    """Gaussian-equivalent significance of a fit against no lens (Wilks' theorem).
+
+    Examples
+    --------
+    >>> round(detection_significance(25.0, 16.0, 1), 6)  # sqrt(Delta chi^2) for one parameter
+    3.0
+    """
+    delta = max(float(chi2_null) - float(chi2_min), 0.0)
+    return float(stats.norm.isf(0.5 * stats.chi2.sf(delta, n_par)))
+
+
+def _posterior_1d(chi2_of: Callable, lo: float, hi: float, prior_slope: float, n: int = 161):
+    """Grid, chi^2 and log posterior in x = log10(parameter), prior density in x ~ 10^(prior_slope x).
+
+    The likelihood grid of :func:`_refine_1d` is laid again over the region where the
+    posterior (likelihood times prior) is above the floor, so a prior that cuts one side
+    off still leaves ``n`` points across what remains.
+    """
+    x, c = _refine_1d(chi2_of, lo, hi)
+    lnp = -0.5 * (c - np.min(c)) + prior_slope * np.log(10.0) * x
+    inside = np.flatnonzero(lnp - np.max(lnp) > _LNP_FLOOR)
+    step = x[1] - x[0]
+    a, b = max(lo, x[inside[0]] - step), min(hi, x[inside[-1]] + step)
+    x = np.linspace(a, b, n)
+    c = chi2_of(x)
+    lnp = -0.5 * (c - np.min(c)) + prior_slope * np.log(10.0) * x
+    return x, c, lnp - np.max(lnp)
 
 
 @dataclass
@@ -120,6 +166,13 @@ class FitResult:
     model_profile: np.ndarray
     grid: dict[str, np.ndarray] = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
+    significance: float = float("nan")
+    upper: dict[str, float] = field(default_factory=dict)
+
+    @property
+    def detected(self) -> bool:
+        """True when the fit beats no lens at :data:`DETECTION_SIGMA` or more."""
+        return bool(self.significance >= DETECTION_SIGMA)
 
     def interval(self, key: str, level: int = 68) -> list[float]:
         q = self.quantiles[key]
@@ -176,14 +229,22 @@ def _grid_minimum(x: np.ndarray, chi2: np.ndarray) -> float:
 
 
 def _finish(model: str, best: dict, quantiles: dict, chi2_min: float, n_data: int, n_par: int,
-            model_profile: np.ndarray, grid: dict, at_edge: bool) -> FitResult:
+            model_profile: np.ndarray, grid: dict, at_edge: bool, chi2_null: float,
+            upper: dict[str, float]) -> FitResult:
     dof = n_data - n_par
     pvalue = float(stats.chi2.sf(chi2_min, dof)) if dof > 0 else float("nan")
+    significance = detection_significance(chi2_null, chi2_min, n_par)
     notes = []
-    if at_edge:
+    if at_edge and significance >= DETECTION_SIGMA:
         notes.append(f"The {model} posterior reaches the edge of the searched range: the data barely "
                      "constrain this model; treat its interval as a bound.")
-    return FitResult(model, best, quantiles, float(chi2_min), int(dof), pvalue, model_profile, grid, notes)
+    return FitResult(model, best, quantiles, float(chi2_min), int(dof), pvalue, model_profile, grid, notes,
+                     significance, upper)
+
+
+def _chi2_null(profile: ShearProfile, use, data, err) -> float:
+    """chi^2 of the profile against zero shear (no lens)."""
+    return float(np.sum((data / err) ** 2))
 
 
 def fit_sis(profile: ShearProfile, *, sigma_v_range_kms: tuple[float, float] = SIS_SIGMA_RANGE_KMS) -> FitResult:
@@ -204,9 +265,9 @@ def fit_sis(profile: ShearProfile, *, sigma_v_range_kms: tuple[float, float] = S
                         (np.asarray(log_s),), cells.weight.size)
 
     lo, hi = np.log10(sigma_v_range_kms)
-    x, c = _refine_1d(chi2_of, lo, hi)
-    lnp = -0.5 * (c - np.min(c))
+    x, c, lnp = _posterior_1d(chi2_of, lo, hi, prior_slope=2.0)  # uniform in sigma_v^2
     q_log = _grid_quantiles(x, lnp)
+    s_up = float(10.0 ** _grid_quantiles(x, lnp, [UPPER_LIMIT_LEVEL])[0])
     s_best = 10.0 ** _grid_minimum(x, c)
     sigma_q = 10.0**q_log
     theta_q = sis_theta_e_arcsec(sigma_q, 1.0, profile.beta_mean)
@@ -214,9 +275,11 @@ def fit_sis(profile: ShearProfile, *, sigma_v_range_kms: tuple[float, float] = S
             "sis_theta_e_arcsec": float(sis_theta_e_arcsec(s_best, 1.0, profile.beta_mean))}
     model_profile = profile.cells.bin_average(sis_model_cells(s_best, cells))
     at_edge = bool(lnp[0] > -10 and x[0] <= lo + 1e-12) or bool(lnp[-1] > -10 and x[-1] >= hi - 1e-12)
+    upper = {"sis_sigma_v_kms": s_up, "sis_theta_e_arcsec": float(sis_theta_e_arcsec(s_up, 1.0, profile.beta_mean))}
     return _finish("SIS", best, {"sis_sigma_v_kms": sigma_q, "sis_theta_e_arcsec": theta_q},
                    float(np.min(c)), int(use.sum()), 1, model_profile,
-                   {"sis_sigma_v_kms": 10.0**x, "posterior": np.exp(lnp)}, at_edge)
+                   {"sis_sigma_v_kms": 10.0**x, "posterior": np.exp(lnp)}, at_edge,
+                   _chi2_null(profile, use, data, err), upper)
 
 
 def fit_nfw(
@@ -260,9 +323,9 @@ def fit_nfw(
         def chi2_of(log_m):
             return chi2_mc(log_m, np.log10(c_of_m(10.0**np.asarray(log_m), z_l, h)))
 
-        x, c = _refine_1d(chi2_of, lo, hi)
-        lnp = -0.5 * (c - np.min(c))
+        x, c, lnp = _posterior_1d(chi2_of, lo, hi, prior_slope=1.0)  # uniform in M200
         m_q = 10.0 ** _grid_quantiles(x, lnp)
+        m_up = float(10.0 ** _grid_quantiles(x, lnp, [UPPER_LIMIT_LEVEL])[0])
         c_q = np.sort(c_of_m(m_q, z_l, h))
         m_best = 10.0 ** _grid_minimum(x, c)
         c_best = float(c_of_m(m_best, z_l, h))
@@ -270,13 +333,14 @@ def fit_nfw(
         n_par = 1
         at_edge = bool(lnp[0] > -10 and x[0] <= lo + 1e-12) or bool(lnp[-1] > -10 and x[-1] >= hi - 1e-12)
     else:
-        m_q, c_q, m_best, c_best, grid, c_min, at_edge = _fit_nfw_2d(chi2_mc)
+        m_q, c_q, m_best, c_best, grid, c_min, at_edge, m_up = _fit_nfw_2d(chi2_mc)
         c = np.array([c_min])
         n_par = 2
     quantiles = {"nfw_m200_msun": m_q, "nfw_c200": c_q, "nfw_r200_kpc": r200_kpc(m_q)}
     best = {"nfw_m200_msun": float(m_best), "nfw_c200": float(c_best), "nfw_r200_kpc": float(r200_kpc(m_best))}
     model_profile = cells.bin_average(nfw_model_cells(m_best, c_best, cells, z_l, cosmo, d_l, halo_definition))
-    return _finish("NFW", best, quantiles, float(np.min(c)), int(use.sum()), n_par, model_profile, grid, at_edge)
+    return _finish("NFW", best, quantiles, float(np.min(c)), int(use.sum()), n_par, model_profile, grid, at_edge,
+                   _chi2_null(profile, use, data, err), {"nfw_m200_msun": m_up, "nfw_r200_kpc": float(r200_kpc(m_up))})
 
 
 def _fit_nfw_2d(chi2_mc: Callable, n_m: int = 81, n_c: int = 61, rounds: int = 4):
@@ -297,15 +361,18 @@ def _fit_nfw_2d(chi2_mc: Callable, n_m: int = 81, n_c: int = 61, rounds: int = 4
         if resolved or np.allclose(new, box):
             break
         box = new
-    p = np.exp(lnp)
-    m_q = 10.0 ** _grid_quantiles(lm, np.log(np.maximum(p.sum(axis=1), 1e-300)))
+    # prior uniform in M200 (density in log10 M ~ M) and uniform in log c
+    p = np.exp(lnp) * 10.0 ** (lm - lm.max())[:, None]
+    m_marginal = np.log(np.maximum(p.sum(axis=1), 1e-300))
+    m_q = 10.0 ** _grid_quantiles(lm, m_marginal)
+    m_up = float(10.0 ** _grid_quantiles(lm, m_marginal, [UPPER_LIMIT_LEVEL])[0])
     c_q = 10.0 ** _grid_quantiles(lc, np.log(np.maximum(p.sum(axis=0), 1e-300)))
     i, j = np.unravel_index(int(np.argmin(chi2)), chi2.shape)
     edge = lnp[[0, -1], :].max() > -10 or lnp[:, [0, -1]].max() > -10
     at_edge = bool(edge and (np.isclose(lm[0], full[0]) or np.isclose(lm[-1], full[1])
                              or np.isclose(lc[0], full[2]) or np.isclose(lc[-1], full[3])))
     grid = {"nfw_m200_msun": 10.0**lm, "nfw_c200": 10.0**lc, "posterior": p}
-    return m_q, c_q, 10.0 ** lm[i], 10.0 ** lc[j], grid, float(np.min(chi2)), at_edge
+    return m_q, c_q, 10.0 ** lm[i], 10.0 ** lc[j], grid, float(np.min(chi2)), at_edge, m_up
 
 
 def cross_shear_test(profile: ShearProfile) -> tuple[float, int, float]:

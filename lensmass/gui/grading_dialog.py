@@ -100,8 +100,7 @@ class GradingDialog(QDialog):
     def grade(self) -> bool:
         """Grade the chosen table; fills the table and the summary. True on success."""
         from lensmass.core.cosmology import cosmology_label
-        from lensmass.core.grading import MISTAKES
-        from lensmass.io.grading_report import grade_class, summary_counts
+        from lensmass.io.grading_report import grade_class, summary_sentence
 
         path = self.path_edit.text().strip()
         if not path:
@@ -115,13 +114,10 @@ class GradingDialog(QDialog):
             return False
         self.report, self.cosmology_label = report, cosmology_label(cosmo)
         self._fill(report)
-        s = summary_counts(report)
-        text = (f"{len(s['students'])} students, {len(report)} answers: {s['verdicts'].get('pass', 0)} pass, "
-                f"{s['verdicts'].get('fail', 0)} fail (cosmology {self.cosmology_label}).")
-        if s["mistakes"]:
-            desc = {m.key: m.description for m in MISTAKES}
-            text += " Common mistakes: " + "; ".join(f"{desc[k]} ({n})" for k, n in s["mistakes"][:3]) + "."
-        self.summary.setText(text)
+        self.summary.setText(f"{summary_sentence(report)} (cosmology {self.cosmology_label}).")
+        # a wrapped label keeps its old height in the layout unless told how tall its new text is
+        self.summary.setMinimumHeight(self.summary.heightForWidth(max(self.summary.width(), 200)))
+        self.layout().activate()
         self.save_button.setEnabled(True)
         return True
 

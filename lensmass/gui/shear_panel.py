@@ -465,16 +465,29 @@ def result_summary(result: dict) -> str:
         interval = f" [{format_number(lo)}, {format_number(hi)}]" if lo is not None else ""
         return f"{label}: {format_number(result[key])}{interval} {unit}".rstrip()
 
+    detected = result.get("detected", True)
+
+    def limit(label, key, unit):
+        return f"{label} < {format_number(result[key])} {unit} (95% upper limit)"
+
+    sis = [line("SIS sigma_v", "sis_sigma_v_kms", "km/s"),
+           line("SIS theta_E", "sis_theta_e_arcsec", f"arcsec (z_s = {format_number(result['z_s_effective'])})")]
+    nfw = [line("NFW M200", "nfw_m200_msun", "Msun"), line("NFW c200", "nfw_c200")]
+    if not detected:
+        sis = [limit("SIS sigma_v", "sis_sigma_v_upper95_kms", "km/s")]
+        nfw = [limit("NFW M200", "nfw_m200_upper95_msun", "Msun")]
+    significance = format_number(result.get("detection_significance"))
     parts = [
-        line("SIS sigma_v", "sis_sigma_v_kms", "km/s"),
-        line("SIS theta_E", "sis_theta_e_arcsec", f"arcsec (z_s = {format_number(result['z_s_effective'])})"),
+        *([] if detected else [f"NOT detected: {significance} sigma (NFW against no lens)"]),
+        *sis,
         f"SIS chi^2 {format_number(result['chi2_sis'])} for {result['dof_sis']} dof",
-        line("NFW M200", "nfw_m200_msun", "Msun"),
-        line("NFW c200", "nfw_c200"),
+        *nfw,
         f"NFW chi^2 {format_number(result['chi2_nfw'])} for {result['dof_nfw']} dof",
         f"cross shear: chi^2 {format_number(result['cross_shear_chi2'])}, p = {format_number(result['cross_shear_pvalue'])}",
         f"zeta mass >= {format_number(result['zeta_mass_msun'])} +- {format_number(result['zeta_mass_err_msun'])} Msun "
         f"inside {format_number(result['zeta_radius_kpc'])} kpc",
-        f"({result['cosmology']}; NFW c from {result['concentration']}; values are posterior medians)",
+        f"({result['cosmology']}; NFW c from {result['concentration']}; posterior medians; "
+        f"detected at {significance} sigma)" if detected else
+        f"({result['cosmology']}; NFW c from {result['concentration']}; priors uniform in M200 and sigma_v^2)",
     ]
     return "\n".join(parts)

@@ -265,8 +265,12 @@ def write_profile_ecsv(path: str | Path, result: dict) -> None:
             if name.endswith(ending):
                 table[name].unit = unit
     keep = ("cosmology", "z_l", "center_ra", "center_dec", "source_redshifts", "z_s_effective", "n_used",
-            "n_dropped", "best_fit", "intervals68", "intervals95", "models")
+            "n_dropped", "best_fit", "medians", "intervals68", "intervals95", "detection_significance", "detected",
+            "nfw_m200_upper95_msun", "sis_sigma_v_upper95_kms", "priors", "models")
     table.meta.update(to_jsonable({k: result[k] for k in keep if k in result}))
+    table.meta["values"] = ("best_fit: maximum-likelihood parameters (the model columns g_t_model_sis and "
+                            "g_t_model_nfw); medians: posterior medians (the values the terminal and the window "
+                            "show); intervals: posterior percentiles under the stated priors")
     with atomic_path(path) as tmp:
         table.write(tmp, format="ascii.ecsv", overwrite=True)
 

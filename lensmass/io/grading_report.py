@@ -2,9 +2,9 @@
 
 Submissions (CSV or ECSV): columns ``student``, ``theta_e_arcsec``, ``z_l``, ``z_s``
 and any of the gradable quantities of :data:`lensmass.core.grading.GRADABLE`.
-The report has one row per student and submitted quantity: ``student``,
+The report has one row per student and quantity: ``student``,
 ``quantity``, ``submitted``, ``expected``, ``relative_error``, ``verdict``
-(``pass``/``fail``) and ``diagnosis``. A student row that cannot be graded (a
+(``pass``/``fail``, or ``missing`` for an answer left blank) and ``diagnosis``. A student row that cannot be graded (a
 missing or non-numeric lens input, a source in front of the lens) still gets its
 rows, failed, with the reason as diagnosis: no student is dropped.
 """
@@ -20,7 +20,15 @@ from pathlib import Path
 from typing import Any
 
 from lensmass.core.errors import LensInputError
-from lensmass.core.grading import DEFAULT_TOLERANCE, GRADABLE, MISTAKES, grade_answers
+from lensmass.core.grading import (
+    DEFAULT_TOLERANCE,
+    GRADABLE,
+    class_mistakes,
+    describe_explanation,
+    grade_answers,
+    plural,
+    summarise_student,
+)
 from lensmass.io.atomic import write_text_atomic
 from lensmass.io.manifest import parse_number, read_table_cells
 
@@ -48,7 +56,7 @@ def grade_class(path: str | Path, cosmo, tolerance: float = DEFAULT_TOLERANCE) -
     report: list[dict[str, Any]] = []
     for i, raw in enumerate(cells, start=1):
         student = raw.get(lowered["student"], "").strip() or f"row {i}"
-        answers, bad_answer = {}, {}
+        answers, bad_answer, blank = {}, {}, []
         for q in quantities:
             text = raw.get(lowered[q], "")
             try:
@@ -58,6 +66,8 @@ def grade_class(path: str | Path, cosmo, tolerance: float = DEFAULT_TOLERANCE) -
                 continue
             if value is not None:
                 answers[q] = value
+            else:
+                blank.append(q)
         try:
             lens = [parse_number(raw.get(lowered[c], ""), c) for c in INPUT_COLUMNS]
             if any(v is None for v in lens):
@@ -71,8 +81,9 @@ def grade_class(path: str | Path, cosmo, tolerance: float = DEFAULT_TOLERANCE) -
             report.append({"student": student, **row})
         for q, (text, why) in bad_answer.items():
             report.append({"student": student, **_ungradable(q, math.nan, f"not graded: {why}"), "submitted_text": text})
-        if not answers and not bad_answer:
-            report.append({"student": student, **_ungradable("", math.nan, "no answer was submitted")})
+        for q in blank:
+            report.append({"student": student, **_ungradable(q, math.nan, "no answer was submitted"),
+                           "verdict": "missing"})
     return report
 
 
@@ -107,22 +118,46 @@ def write_report_csv(path: str | Path, report: list[dict[str, Any]]) -> None:
 
 
 def summary_counts(report: list[dict[str, Any]]) -> dict[str, Any]:
-    """Counts per verdict, per quantity and per diagnosed mistake."""
+    """Counts per verdict and quantity, per-student summaries and the class's mistakes by student.
+
+    ``mistakes`` lists (explanation, number of students): each student counts once, under the
+    mistake that explains most of their failed answers (:func:`lensmass.core.grading.summarise_student`).
+    """
     verdicts = Counter(r["verdict"] for r in report)
     per_quantity: dict[str, Counter] = {}
     for r in report:
-        per_quantity.setdefault(r["quantity"], Counter())[r["verdict"]] += 1
-    mistakes = Counter(k for r in report for k in r.get("mistakes", []))
-    students = sorted({r["student"] for r in report})
-    all_pass = [s for s in students if all(r["verdict"] == "pass" for r in report if r["student"] == s)]
+        if r["quantity"]:
+            per_quantity.setdefault(r["quantity"], Counter())[r["verdict"]] += 1
+    students = list(dict.fromkeys(r["student"] for r in report))
+    quantities = [q for q in GRADABLE if q in per_quantity]
+    summaries = [summarise_student(s, [r for r in report if r["student"] == s], quantities) for s in students]
+    all_pass = [x.student for x in summaries if not x.failed and x.passed and not x.missing]
     return {"verdicts": dict(verdicts), "per_quantity": {q: dict(c) for q, c in per_quantity.items()},
-            "mistakes": mistakes.most_common(), "students": students, "all_pass": all_pass}
+            "mistakes": class_mistakes(summaries), "students": students, "all_pass": all_pass,
+            "summaries": summaries, "n_answers": verdicts.get("pass", 0) + verdicts.get("fail", 0)}
+
+
+def summary_sentence(report: list[dict[str, Any]]) -> str:
+    """One line for the terminal and the window: counts, and the most common mistake by students."""
+    s = summary_counts(report)
+    v = s["verdicts"]
+    line = (f"{plural(len(s['students']), 'student')}, {plural(s['n_answers'], 'answer')}: {v.get('pass', 0)} pass, "
+            f"{v.get('fail', 0)} fail")
+    if v.get("missing"):
+        line += f", {v['missing']} missing"
+    if s["mistakes"]:
+        n = s["mistakes"][0][1]
+        top = [describe_explanation(keys) for keys, count in s["mistakes"] if count == n]
+        if len(top) == 1:
+            line += f"; most common mistake ({plural(n, 'student')}): {top[0]}"
+        else:
+            line += f"; most common mistakes ({plural(n, 'student')} each): {'; '.join(top)}"
+    return line
 
 
 def summary_html(report: list[dict[str, Any]], *, title: str, cosmology: str, tolerance: float) -> str:
     """A self-contained HTML page: counts per verdict and quantity, the common mistakes, every row."""
     s = summary_counts(report)
-    desc = {m.key: m.description for m in MISTAKES}
     e = html.escape
     parts = [
         "<!DOCTYPE html>", "<html lang='en'><head><meta charset='utf-8'>", f"<title>{e(title)}</title>",
@@ -133,22 +168,36 @@ def summary_html(report: list[dict[str, Any]], *, title: str, cosmology: str, to
         f"<p>Expected values: angular-diameter distances in {e(cosmology)}, Sigma_cr = c^2 D_s / (4 pi G D_l D_ls), "
         "M(&lt;theta_E) = pi Sigma_cr (D_l theta_E)^2, sigma_SIS from theta_E = 4 pi (sigma/c)^2 D_ls/D_s "
         f"(Narayan &amp; Bartelmann 1996; Hogg 1999). An answer passes within {tolerance:.3g} relative error.</p>",
-        f"<p>{len(s['students'])} students, {len(report)} answers: "
+        f"<p>{plural(len(s['students']), 'student')}, {plural(s['n_answers'], 'answer')}: "
         f"<span class='pass'>{s['verdicts'].get('pass', 0)} pass</span>, "
-        f"<span class='fail'>{s['verdicts'].get('fail', 0)} fail</span>; "
-        f"{len(s['all_pass'])} students passed every answer.</p>",
-        "<h2>By quantity</h2><table><tr><th>quantity</th><th>unit</th><th>pass</th><th>fail</th></tr>",
+        f"<span class='fail'>{s['verdicts'].get('fail', 0)} fail</span>, "
+        f"{s['verdicts'].get('missing', 0)} missing; "
+        f"{plural(len(s['all_pass']), 'student')} answered everything and passed every answer.</p>",
+        "<h2>By student</h2><table><tr><th>student</th><th>pass</th><th>fail</th><th>missing</th>"
+        "<th>the mistake that explains the failed answers</th></tr>",
     ]
+    for x in s["summaries"]:
+        why = describe_explanation(x.explanation) if x.explanation else (
+            "no known mistake matches" if len(x.failed) > len(x.not_graded) else "")
+        if x.explanation:
+            why += f" ({x.explained} of {len(x.failed) - len(x.not_graded)} failed)"
+        if x.not_graded:
+            why += ("; " if why else "") + "not graded: " + ", ".join(x.not_graded)
+        parts.append(f"<tr><td>{e(x.student)}</td><td class='num'>{len(x.passed)}</td>"
+                     f"<td class='num'>{len(x.failed)}</td><td>{e(', '.join(x.missing))}</td><td>{e(why)}</td></tr>")
+    parts.append("</table><h2>By quantity</h2><table><tr><th>quantity</th><th>unit</th><th>pass</th><th>fail</th>"
+                 "<th>missing</th></tr>")
     for q in GRADABLE:
         if q in s["per_quantity"]:
             c = s["per_quantity"][q]
             parts.append(f"<tr><td>{e(q)}</td><td>{e(GRADABLE[q])}</td><td class='num'>{c.get('pass', 0)}</td>"
-                         f"<td class='num'>{c.get('fail', 0)}</td></tr>")
+                         f"<td class='num'>{c.get('fail', 0)}</td><td class='num'>{c.get('missing', 0)}</td></tr>")
     parts.append("</table><h2>Common mistakes</h2>")
     if s["mistakes"]:
-        parts.append("<table><tr><th>mistake</th><th>answers matching it</th></tr>")
-        for key, n in s["mistakes"]:
-            parts.append(f"<tr><td>{e(desc.get(key, key))}</td><td class='num'>{n}</td></tr>")
+        parts.append("<p>Each student counts once, under the mistake that explains most of their failed answers.</p>"
+                     "<table><tr><th>mistake</th><th>students</th></tr>")
+        for keys, n in s["mistakes"]:
+            parts.append(f"<tr><td>{e(describe_explanation(keys))}</td><td class='num'>{n}</td></tr>")
         parts.append("</table>")
     else:
         parts.append("<p>No failed answer matched a known mistake.</p>")

@@ -106,3 +106,29 @@ def test_cancel_keeps_previous_state(cluster, qtbot):
     w.tasks.cancel()
     qtbot.waitUntil(lambda: not w.tasks.busy, timeout=30000)
     assert panel.output is None or np.isfinite(panel.output["result"]["nfw_m200_msun"])
+
+
+def test_undetected_halo_shows_upper_limits(cluster, qtbot, tmp_path):
+    # a 1e14 Msun halo at z_l = 0.7 behind 20 galaxies per arcmin^2 (seeded simulation, core.shear_simulation):
+    # the data do not detect it, so the panel shows the significance and upper limits, not medians
+    from astropy.cosmology import Planck18
+    from astropy.table import Table
+
+    from lensmass.core.shear_simulation import simulate_shear_catalog
+
+    w, panel, truth = cluster
+    cat = simulate_shear_catalog(center_ra=150.0, center_dec=2.0, z_l=0.7, cosmo=Planck18, field_arcsec=1200.0,
+                                 density_per_arcmin2=20.0, m200_msun=1e14, seed=1003)
+    path = tmp_path / "faint.csv"
+    Table({"RA": cat["ra"], "DEC": cat["dec"], "E1": cat["e1"], "E2": cat["e2"], "Z_PHOT": cat["z"]}).write(path)
+    dialog = panel.column_dialog(str(path))
+    _accept_soon(dialog)
+    assert panel.open_catalog(str(path), dialog)
+    panel.centre_edit.setText("150.0, 2.0")
+    panel.zl_edit.setText("0.7")
+    qtbot.mouseClick(panel.run_button, Qt.LeftButton)
+    qtbot.waitUntil(lambda: panel.output is not None, timeout=60000)
+    text = panel.results.text()
+    assert "NOT detected" in text
+    limit = panel.output["result"]["nfw_m200_upper95_msun"]
+    assert limit > 1e14 and "NFW M200 < " in text and "(95% upper limit)" in text

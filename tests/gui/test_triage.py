@@ -119,6 +119,8 @@ def test_grading_dialog(panel, qtbot, tmp_path):
     verdicts = {dlg.table.item(i, 0).text(): dlg.table.item(i, 5).text() for i in range(2)}
     assert verdicts == {"ana": "pass", "bo": "fail"}
     assert "diameter" in dlg.table.item(1, 6).text() and "2 students" in dlg.summary.text()
+    assert "most common mistake (1 student): used the ring's diameter" in dlg.summary.text()
+    assert dlg.summary.height() >= dlg.summary.heightForWidth(dlg.summary.width())  # the whole sentence shows
     report, page = dlg.save(tmp_path / "lab-report.csv")
     with open(report, newline="") as fh:
         assert [r["verdict"] for r in csv.DictReader(fh)] == ["pass", "fail"]
