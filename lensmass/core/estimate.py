@@ -137,6 +137,7 @@ def estimate(
     concentration: str | float = "duffy08",
     halo_definition: str = "200c",
     theta_e_err: float = 0.0,
+    theta_e_draws: np.ndarray | None = None,
     z_l_err: float = 0.0,
     z_s_err: float = 0.0,
     z_s_range: tuple[float, float] | None = None,
@@ -162,6 +163,9 @@ def estimate(
     theta_e_err, z_l_err, z_s_err : float or array_like
         1-sigma Gaussian errors, propagated by Monte Carlo; for arrays each lens i gets its own
         draws with seed ``seed + i`` (the same numbers as a call for that lens alone).
+    theta_e_draws : array_like, optional
+        Posterior draws of theta_E (e.g. from :func:`lensmass.core.lens_model.fit_lens_model`); the
+        Monte Carlo resamples them instead of a Gaussian of width ``theta_e_err`` (one lens only).
     z_s_range, z_s_distribution : optional
         For an unknown source redshift instead of ``z_s``: a uniform range
         ``(zmin, zmax)`` or a table ``(z, weight)``; every number is marginalised.
@@ -209,6 +213,12 @@ def estimate(
         (z_l, "The lens redshift", "z_l"), (z_s, "The source redshift", "z_s"),
         (z_l_err, "The error of the lens redshift", "z_l_err"), (z_s_err, "The error of the source redshift", "z_s_err")))
     seed = limits.seed(seed, "`seed`")
+    draws = None
+    if theta_e_draws is not None:
+        draws = np.asarray(theta_e_draws, float).ravel()
+        draws = draws[np.isfinite(draws)]
+        if draws.size < 100 or np.any(draws <= 0):
+            raise LensInputError("The theta_E draws must be at least 100 positive numbers (posterior draws of a fit).")
     kind, zs_model = _source_redshift_model(z_s, z_s_range, z_s_distribution)
     if kind == "fixed" and any(np.ndim(v) for v in (theta_e_arcsec, z_l, z_s, theta_e_err, z_l_err, z_s_err)):
         from lensmass.core.estimate_arrays import estimate_arrays
@@ -246,7 +256,7 @@ def estimate(
             )
         zs = None
     scalar_input = theta.ndim == 0 and zl.ndim == 0 and (zs is None or np.ndim(zs) == 0)
-    wants_mc = kind != "fixed" or any(v > 0 for v in errs.values())
+    wants_mc = kind != "fixed" or any(v > 0 for v in errs.values()) or draws is not None
     if wants_mc and not scalar_input:
         raise LensInputError("An unknown source redshift (range or table) is marginalised for one lens at a time: "
                              "call estimate per lens.")
@@ -256,7 +266,8 @@ def estimate(
     result: dict[str, Any] = {"cosmology": cosmology_label(cosmo)}
     if wants_mc:
         rng = np.random.default_rng(seed)
-        t_s = normal_samples(theta, errs["theta"], n_samples, rng)
+        t_s = (normal_samples(theta, errs["theta"], n_samples, rng) if draws is None
+               else rng.choice(draws, size=n_samples, replace=True))
         zl_s = normal_samples(zl, errs["zl"], n_samples, rng)
         if kind == "fixed":
             zs_s = normal_samples(zs, errs["zs"], n_samples, rng)
