@@ -67,8 +67,8 @@ def find_images(lens: SIEShear, beta_x: float, beta_y: float, *, n_angles: int =
     """
     phi = np.linspace(0.0, 2 * np.pi, int(n_angles) + 1)
     cross, _ = _cross_and_radius(lens, beta_x, beta_y, phi)
-    idx = np.flatnonzero(np.sign(cross[:-1]) * np.sign(cross[1:]) <= 0)
-    idx = idx[cross[idx] != 0] if idx.size > 1 else idx
+    idx = np.flatnonzero(np.sign(cross[:-1]) * np.sign(cross[1:]) < 0)
+    exact = phi[:-1][cross[:-1] == 0]  # a root falling exactly on a grid angle
     lo, hi = phi[idx], phi[idx + 1]
     f_lo = cross[idx]
     for _ in range(int(iterations)):  # bisection on every bracket at once
@@ -78,7 +78,7 @@ def find_images(lens: SIEShear, beta_x: float, beta_y: float, *, n_angles: int =
         lo = np.where(left, mid, lo)
         f_lo = np.where(left, f_mid, f_lo)
         hi = np.where(left, hi, mid)
-    root = 0.5 * (lo + hi)
+    root = np.concatenate([0.5 * (lo + hi), exact])
     _, r = _cross_and_radius(lens, beta_x, beta_y, root)
     keep = r > 1e-9
     root, r = root[keep], r[keep]

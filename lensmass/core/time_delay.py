@@ -33,7 +33,7 @@ def delay_days_from_fermat(delta_tau_arcsec2, time_delay_distance) -> np.ndarray
     Examples
     --------
     >>> round(float(delay_days_from_fermat(1.0, 1000.0)), 3)
-    1.213
+    28.001
     """
     return np.asarray(delta_tau_arcsec2, float) * ARCSEC_RAD**2 * np.asarray(time_delay_distance) * _MPC_M \
         / _C_M_S / _DAY_S
