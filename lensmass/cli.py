@@ -17,6 +17,7 @@ import sys
 SUBCOMMANDS: dict[str, tuple[str, str]] = {
     "estimate": ("lensmass.commands.estimate", "Einstein radius + redshifts -> distances, Sigma_cr, masses."),
     "measure": ("lensmass.commands.measure", "Measure theta_E on an image (points file or ring finder), then estimate."),
+    "model": ("lensmass.commands.model", "Fit an SIE + external shear lens model to marked images and arcs."),
     "shear": ("lensmass.commands.shear", "Weak-lensing shear catalogue -> profile, SIS/NFW fits, aperture mass, map."),
     "components": ("lensmass.commands.components",
                    "Cluster: mass peaks vs gas and galaxies, offsets, dark and ordinary mass budgets."),

@@ -28,8 +28,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
 
 
-def estimate_from_args(args: argparse.Namespace, theta_e_arcsec: float, theta_e_err: float) -> dict:
-    """Call the core estimate with the shared options of ``args`` (used by measure too)."""
+def estimate_from_args(args: argparse.Namespace, theta_e_arcsec: float, theta_e_err: float,
+                       theta_e_draws=None) -> dict:
+    """Call the core estimate with the shared options of ``args`` (used by measure and model too);
+    ``theta_e_draws`` (posterior draws of a lens model) replace the Gaussian theta_E error."""
     from lensmass.core.estimate import estimate
 
     z_range = parse_pair(args.zs_range, "--zs-range") if getattr(args, "zs_range", None) else None
@@ -45,7 +47,8 @@ def estimate_from_args(args: argparse.Namespace, theta_e_arcsec: float, theta_e_
         cosmology=cosmology_from_args(args),
         concentration=args.concentration,
         halo_definition=args.halo_definition,
-        theta_e_err=theta_e_err,
+        theta_e_err=theta_e_err if theta_e_draws is None else 0.0,
+        theta_e_draws=theta_e_draws,
         z_l_err=args.zl_err,
         z_s_err=args.zs_err,
         z_s_range=z_range,

@@ -1,5 +1,9 @@
 """Points files: CSV with a header row, columns ``x,y`` (pixels) or ``ra,dec`` (degrees).
 
+Optional columns for lens models: ``system`` (a label naming the background source a point belongs
+to; points of one source share it) and ``kind`` (``image`` for one of the multiple images of a
+compact source or knot, ``arc`` for a point anywhere along an extended arc).
+
 Pixels follow the lensmass convention: 0-based column (x) and row (y) of the array
 as stored in the file. Extra columns are ignored; blank lines and lines starting
 with ``#`` are skipped. Column names are case-insensitive.
@@ -30,6 +34,8 @@ class PointsTable:
     a: np.ndarray
     b: np.ndarray
     path: str = ""
+    system: np.ndarray | None = None
+    kind: np.ndarray | None = None
 
     def to_pixels(self, image) -> tuple[np.ndarray, np.ndarray]:
         """(x, y) pixels; sky positions are converted with the image's WCS.
@@ -89,8 +95,20 @@ def read_points(path: str | os.PathLike) -> PointsTable:
     else:
         raise LensInputError(f"The points file {p.name} needs a header row naming columns x,y (pixels) or ra,dec "
                              f"(degrees); its first line names {len(header)} other column(s).")
-    a, b = [], []
+    a, b, systems, kinds = [], [], [], []
+    ks = header.index("system") if "system" in header else None
+    kk = header.index("kind") if "kind" in header else None
     for i, row in enumerate(rows[1:], start=2):
+        if ks is not None:
+            label = row[ks].strip() if ks < len(row) else ""
+            if not label:
+                raise LensInputError(f"Row {i} of {p.name} has no system label; name the source each point belongs to.")
+            systems.append(label)
+        if kk is not None:
+            kind = row[kk].strip().lower() if kk < len(row) else ""
+            if kind not in ("image", "arc"):
+                raise LensInputError(f"Row {i} of {p.name} has kind '{kind}'; the kind column takes 'image' or 'arc'.")
+            kinds.append(kind)
         try:
             va, vb = float(row[ka]), float(row[kb])
         except (IndexError, ValueError):
@@ -102,7 +120,8 @@ def read_points(path: str | os.PathLike) -> PointsTable:
         b.append(vb)
     if not a:
         raise LensInputError(f"The points file {p.name} has a header but no points; add one row per point.")
-    return PointsTable(frame, np.array(a), np.array(b), str(p))
+    return PointsTable(frame, np.array(a), np.array(b), str(p), np.array(systems) if ks is not None else None,
+                       np.array(kinds) if kk is not None else None)
 
 
 def write_points(path: str | os.PathLike, x, y, frame: str = "pixel") -> None:
