@@ -120,7 +120,8 @@ def model_from_args(args: argparse.Namespace) -> dict:
     def run_estimate(theta, err, draws):
         return estimate_from_args(args, theta, err, theta_e_draws=draws)
 
-    result = fit_lens_model(x, y, pts.system, pts.kind, image=image, pixel_scale_arcsec=args.pixel_scale,
+    result = fit_lens_model(x, y, pts.system, pts.kind, image=image,
+                            pixel_scale_arcsec=args.pixel_scale if image is None else None,
                             point_err_pix=args.click_err, center=center, center_err_pix=args.center_err,
                             light_axis_ratio=light_q, light_position_angle_deg=light_pa,
                             light_axis_ratio_err=args.light_shape_err, z_l=args.zl,

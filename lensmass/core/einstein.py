@@ -30,7 +30,7 @@ from typing import Any, Callable
 
 import numpy as np
 
-from lensmass.core.arcfit import fit_circle, fit_ellipse, multiple_image_radius
+from lensmass.core.arcfit import _algebraic_circle, arc_span_deg, fit_circle, fit_ellipse, multiple_image_radius
 from lensmass.core.errors import LensInputError
 from lensmass.core.progress import ProgressCallback, StopCallback
 from lensmass.core.ridge import refine_to_ridge
@@ -38,6 +38,18 @@ from lensmass.core.ridge import refine_to_ridge
 #: Default 1-sigma uncertainty of a marked position, in pixels (a click is good to about half a pixel).
 DEFAULT_POINT_ERR_PIX = 0.5
 SHAPES = ("circle", "ellipse", "images")
+#: An ellipse needs points around at least half of the ring (common practice: a short arc fixes a local
+#: curvature, not the axes).
+ELLIPSE_MIN_SPAN_DEG = 180.0
+
+
+def _rough_center(x, y) -> tuple[float, float]:
+    """Centre of the algebraic circle through the points (their mean if they are collinear)."""
+    try:
+        cx, cy, _ = _algebraic_circle(np.asarray(x, float), np.asarray(y, float))
+        return cx, cy
+    except LensInputError:
+        return float(np.mean(x)), float(np.mean(y))
 
 
 @dataclass
@@ -221,6 +233,12 @@ def measure_theta_e_from_points(
                   else "circle fit (algebraic start, geometric least squares)")
         notes.extend(fit.warnings)
     elif shape == "ellipse":
+        span = arc_span_deg(ex, ey, *((0.0, 0.0) if center is not None else _rough_center(ex, ey)))
+        if span < ELLIPSE_MIN_SPAN_DEG:
+            raise LensInputError(
+                f"The points span only {span:.0f} deg around the centre: an ellipse is not fixed by a short arc "
+                "(its radius can come out anywhere with a tiny error); fit a circle with the lens centre held, "
+                "or fit the lens model ('lensmass model') with the arc's counter-image.")
         ellipse = fit_ellipse(ex, ey, center=sky_center, point_err=point_err)
         theta, fit_err, rms = ellipse.theta_e, ellipse.theta_e_err, ellipse.rms
         cxy = (ellipse.center_x, ellipse.center_y)
@@ -238,9 +256,13 @@ def measure_theta_e_from_points(
         notes.extend(est.warnings)
         d = np.hypot(ex - cxy[0], ey - cxy[1])
         rms = float(np.sqrt(np.mean((d - theta) ** 2))) if est.n_images > 2 or center is not None else float("nan")
-    if not np.isfinite(fit_err):
-        fit_err = point_err / np.sqrt(px.size)
-        notes.append("The fit had no scatter to estimate an error; the position uncertainty alone was used.")
+    if not np.isfinite(fit_err) or not np.isfinite(theta):
+        raise LensInputError("The fit cannot estimate an error for these points (they fix the shape exactly or "
+                             "are degenerate): mark more points spread along the arcs.")
+    if shape == "circle" and fit.arc_span_deg < 180.0:
+        notes.append("A single arc lies outside the critical curve (about theta_E + beta from the lens for an "
+                     "isothermal lens), so a circle through it overestimates theta_E by the unknown source offset; "
+                     "mark the counter-image and fit the lens model ('lensmass model') for a bounded answer.")
     err = float(np.hypot(fit_err, theta * scale_err / scale))
     inv = np.linalg.inv(matrix)
     dxp, dyp = inv @ np.array(cxy, float)

@@ -508,8 +508,13 @@ def _finish(image: LoadedImage, user_scale: float | None, user_err: float) -> No
         image.pixel_scale_arcsec = user_scale
         image.pixel_scale_err_arcsec = float(user_err or 0.0)
         image.pixel_scale_xy_arcsec = (user_scale, user_scale)
-        image.pixel_matrix_arcsec = np.array([[-user_scale, 0.0], [0.0, user_scale]])
-        image.notes.append(f"Pixel scale {user_scale:g}\"/pixel given by the user (no WCS in the file).")
+        # FITS rows run upwards (row 0 at the bottom); PNG/JPEG/TIFF rows run downwards (row 0 at the top).
+        # Either way the picture is taken as north up, east left (common practice for cutouts).
+        north = user_scale if image.kind == "fits" else -user_scale
+        image.pixel_matrix_arcsec = np.array([[-user_scale, 0.0], [0.0, north]])
+        image.notes.append(f"Pixel scale {user_scale:g}\"/pixel given by the user (no WCS in the file)"
+                           + ("; row 0 is the top of the picture, taken as north up, east left." if image.kind != "fits"
+                              else "; taken as north up, east left."))
     elif image.kind == "fits":
         image.notes.append("No usable WCS in the file: give the pixel scale with --pixel-scale ARCSEC to measure.")
 
