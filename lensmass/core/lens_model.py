@@ -109,8 +109,11 @@ def fit_lens_model_arcsec(
     seed: int | None = 1,
     progress: ProgressCallback = None,
     should_stop: StopCallback = None,
-) -> tuple[LensModelFit, dict[str, Any]]:
+    summary: bool = True,
+) -> tuple[LensModelFit, dict[str, Any] | None]:
     """Fit and summarise on sky offsets (arcsec, x east, y north); returns (fit, summary).
+
+    ``summary=False`` skips the predicted images and delays (summary None): for calibration sweeps.
 
     ``center`` = (x, y, sigma) of the lens light (arcsec), ``light_shape`` = (q, angle_rad, sigma_q);
     ``source_scale`` maps a system to its D_ls/D_s relative to the reference (first) system.
@@ -124,6 +127,9 @@ def fit_lens_model_arcsec(
     cy0 = center[1] if center is not None else float(np.mean(y))
     rmax = float(np.max(np.hypot(x - cx0, y - cy0)))
     lone = _lone_arc(system, kind, x, y, cx0, cy0)
+    if lone and x.size < 5:
+        raise LensInputError(f"A single arc needs at least 5 marked points along it, got {x.size}: mark more of "
+                             "the arc (or its counter-image).")
     kw = {} if shear_sigma is None else {"shear_sigma": float(shear_sigma)}
     priors = LensPriors(center=center, light_shape=light_shape, theta_e_max=max(3 * rmax, 10 * np.max(err)),
                         center_box=(float(np.min(x) - 0.1 * span), float(np.max(x) + 0.1 * span),
@@ -132,7 +138,7 @@ def fit_lens_model_arcsec(
     data = MarkedSystems(x, y, system, kind, err, dict(source_scale or {}))
     fit = sample_lens_model(data, priors, draws=draws, method=method, seed=seed, progress=progress,
                             should_stop=should_stop)
-    return fit, summarize_fit(fit, n_constraints, lone)
+    return fit, (summarize_fit(fit, n_constraints, lone) if summary else None)
 
 
 def summarize_fit(fit: LensModelFit, n_constraints: int, lone_arc: bool) -> dict[str, Any]:
@@ -453,7 +459,7 @@ def fit_lens_model(
     summary["reference_system"] = ref_name
     summary["source_scale"] = scales
     summary["reference_pixel"] = [ref[0], ref[1]]
-    summary["_pixel_matrix"] = matrix
+    summary["pixel_matrix_arcsec"] = [[float(v) for v in row] for row in matrix]
     notes.append(f"Position error of every mark: {point_err_pix:g} px = {err_arcsec:.3g} arcsec (1 sigma"
                  f"{'; the default' if point_err_pix == DEFAULT_POINT_ERR_PIX else ''}).")
     te_draws = summary["_theta_e_draws"]
@@ -501,4 +507,20 @@ def fit_lens_model(
     return result
 
 
-__all__ = ["DEFAULT_POINT_ERR_PIX", "MODEL_NAME", "fit_lens_model", "fit_lens_model_arcsec", "summarize_fit"]
+def model_curves(summary: Mapping[str, Any], n: int = 721) -> dict[str, tuple[np.ndarray, np.ndarray]]:
+    """Critical curve (pixels), caustic and cut (arcsec, source plane) of the best model of a stored
+    summary (the ``lens_model`` entry of a result, also after a JSON round trip)."""
+    from lensmass.core.sie import SIEShear
+
+    b = summary["best"]
+    lens = SIEShear(b["theta_e_arcsec"], b["axis_ratio"], b["angle_rad"], b["center_x_arcsec"],
+                    b["center_y_arcsec"], b["gamma1"], b["gamma2"])
+    inv = np.linalg.inv(np.asarray(summary["pixel_matrix_arcsec"], float))
+    ref = np.asarray(summary["reference_pixel"], float)
+    cx, cy = critical_curve(lens, n)
+    d = inv @ np.vstack([cx, cy])
+    return {"critical_curve_pix": (ref[0] + d[0], ref[1] + d[1]), "caustic_arcsec": caustic(lens, n),
+            "cut_arcsec": cut(lens, n), "critical_curve_arcsec": (cx, cy)}
+
+
+__all__ = ["model_curves", "DEFAULT_POINT_ERR_PIX", "MODEL_NAME", "fit_lens_model", "fit_lens_model_arcsec", "summarize_fit"]
