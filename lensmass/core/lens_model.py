@@ -38,9 +38,10 @@ def _circular_summary(values_deg: np.ndarray, period: float = 180.0) -> dict[str
     mean = np.angle(np.mean(np.exp(1j * k * v))) / k
     unwrapped = mean + (v - mean + period / 2) % period - period / 2
     s = summarize(unwrapped)
-    return {"median": float(s["median"] % period),
-            "interval68": [float(a) for a in s["interval68"]],
-            "interval95": [float(a) for a in s["interval95"]]}
+    shift = s["median"] % period - s["median"]  # median in [0, period); the intervals move with it
+    return {"median": float(s["median"] + shift),
+            "interval68": [float(a + shift) for a in s["interval68"]],
+            "interval95": [float(a + shift) for a in s["interval95"]]}
 
 
 def _check_inputs(x, y, system, kind):
@@ -238,8 +239,9 @@ def summarize_fit(fit: LensModelFit, n_constraints: int, lone_arc: bool) -> dict
     if n_image_points and not np.any(data.kind == "arc"):
         chi2_note = "image-plane chi^2 of the marked images about the best model's images"
     else:
-        chi2 = float(-2 * fit.posterior.log_likelihood(fit.best[None, :])[0])
-        chi2_note = "-2 ln(likelihood) of the best model (arc points with the source spread)"
+        chi2 = float(fit.posterior.chi2(fit.best))
+        chi2_note = ("chi^2 of the best model, linearised in the image plane, with the arc points' spread about "
+                     "their source included in their errors")
     degeneracy = []
     if n_constraints + (2 if priors.center is not None else 0) - 7 < 1:
         degeneracy.append(

@@ -18,7 +18,7 @@ and compared with the marks in the image plane (residuals and the image-plane ch
 Priors (stated in every result): theta_E uniform; axis ratio uniform in [Q_MIN, 1] and major-axis
 direction uniform; shear components Gaussian of width SHEAR_PRIOR_SIGMA; centre uniform inside the
 marks' box unless the lens-light centre is given (then Gaussian); optional Gaussian prior on the
-ellipticity from the lens light; arc spread s log-uniform in [ARC_SPREAD_MIN, ARC_SPREAD_MAX] arcsec.
+ellipticity from the lens light; arc spread s uniform in [0, ARC_SPREAD_MAX] arcsec.
 
 Sampler: ``emcee`` (Foreman-Mackey et al. 2013, PASP 125, 306), the affine-invariant ensemble sampler
 of Goodman & Weare (2010): well kept, pure Python, no tuning of step sizes, handles the strongly
@@ -43,7 +43,6 @@ KINDS = ("image", "arc")
 Q_MIN = 0.2
 SHEAR_PRIOR_SIGMA = 0.05
 SHEAR_MAX = 0.5
-ARC_SPREAD_MIN = 0.01
 ARC_SPREAD_MAX = 2.0
 DEFAULT_WALKERS = 32
 #: Importance sampling is used when its effective sample size reaches this (percentiles of 400
@@ -99,10 +98,10 @@ class LensPriors:
         if self.light_shape is not None:
             out.append(f"mass ellipticity Gaussian about the lens light's (q = {self.light_shape[0]:.3g}, "
                        f"sigma_q = {self.light_shape[2]:.3g})")
-        out.append(f"arc spread in the source plane log-uniform in [{ARC_SPREAD_MIN:g}, {ARC_SPREAD_MAX:g}] arcsec")
+        out.append(f"spread of arc points about their source uniform in [0, {ARC_SPREAD_MAX:g}] arcsec")
         if self.lone_arc:
-            out.append("lone arc: taken to be the outer image (outside the critical curve) of a source that "
-                       "is multiply imaged (inside the cut)")
+            out.append("lone arc: not wholly inside the critical curve (part of it outside, as an outer image or "
+                       "a merging pair across the curve), from a source that is multiply imaged (inside the cut)")
         return out
 
 
@@ -125,7 +124,8 @@ def rows_from_lens(theta_e, q, angle_rad, x0, y0, gamma1, gamma2) -> np.ndarray:
 
 
 class _Posterior:
-    """Vectorised log posterior over rows [theta_e, u1, u2, x0, y0, g1, g2, log s_j...].
+    """Vectorised log posterior over rows [theta_e, u1, u2, x0, y0, g1, g2, s_j...] (s_j the spread of the
+    arc points of system j about their source, arcsec).
 
     A prior uniform in q and in angle has density proportional to 1 / (1 + e)^2 in the (u1, u2)
     plane (e = |u|^2; the area element of the e-plane is 2 e times that of the u-plane), so the
@@ -164,15 +164,22 @@ class _Posterior:
             sig_e = max(lsig * 2 / (1 + lq) ** 2, 1e-3)
             lp += -0.5 * ((e * np.cos(phi2) - le1) ** 2 + (e * np.sin(phi2) - le2) ** 2) / sig_e**2
         if self.arc_systems:
-            ls = p[:, 7:]
-            ok &= np.all((ls > np.log(ARC_SPREAD_MIN)) & (ls < np.log(ARC_SPREAD_MAX)), axis=1)
+            spread = p[:, 7:]
+            ok &= np.all((spread >= 0) & (spread < ARC_SPREAD_MAX), axis=1)
         return np.where(ok, lp, -np.inf)
 
-    def log_likelihood(self, p: np.ndarray, want_sources: bool = False):
+    def chi2(self, row: np.ndarray) -> float:
+        """The quadratic (chi^2) part of the likelihood of one parameter row, sources at their best."""
+        self._last_chi2 = None
+        self.log_likelihood(np.atleast_2d(row), want_chi2=True)
+        return float(self._last_chi2[0])
+
+    def log_likelihood(self, p: np.ndarray, want_sources: bool = False, want_chi2: bool = False):
         lens = lens_from_rows(p)
         lens = SIEShear(*(np.asarray(v)[:, None] for v in (lens.theta_e, lens.q, lens.angle_rad, lens.x0, lens.y0,
                                                            lens.gamma1, lens.gamma2)))
         total = np.zeros(p.shape[0])
+        chi2 = np.zeros(p.shape[0])
         sources = {}
         for name, x, y, is_arc, var, f, arc_index in self.groups:
             bx, by, a11, a22, a12 = lens_mapping(lens.scaled(f) if f != 1.0 else lens, x, y)
@@ -180,7 +187,7 @@ class _Posterior:
             c22 = var * (a12 * a12 + a22 * a22)
             c12 = var * (a11 + a22) * a12
             if arc_index is not None:
-                s2 = np.exp(2 * p[:, 7 + arc_index])[:, None] * is_arc
+                s2 = (p[:, 7 + arc_index] ** 2)[:, None] * is_arc
                 c11 = c11 + s2
                 c22 = c22 + s2
             det_c = np.maximum(c11 * c22 - c12 * c12, 1e-300)
@@ -193,15 +200,19 @@ class _Posterior:
             my = (f11 * v2 - f12 * v1) / det_f
             quad = (p11 * bx * bx + 2 * p12 * bx * by + p22 * by * by).sum(1) - (mx * v1 + my * v2)
             det_a = a11 * a22 - a12 * a12
+            chi2 += quad
             total += (-0.5 * quad - 0.5 * np.log(det_c).sum(1) + np.log(np.maximum(np.abs(det_a), 1e-300)).sum(1)
                       - 0.5 * np.log(det_f))
             if self.priors.lone_arc:
-                # outer image: both eigenvalues of A positive at every arc point; source inside the cut (~ theta_E)
-                outer = np.all((det_a > 0) & (a11 + a22 > 0), axis=1)
+                # a tangential arc is never wholly inside the critical curve: some point has positive parity
+                # (both eigenvalues of A positive); its source is multiply imaged (inside the cut, ~ theta_E)
+                outer = np.any((det_a > 0) & (a11 + a22 > 0) & is_arc, axis=1)
                 inside = np.hypot(mx - p[:, 3], my - p[:, 4]) < p[:, 0] * f
                 total = np.where(outer & inside, total, -np.inf)
             if want_sources:
                 sources[name] = (mx, my)
+        if want_chi2:
+            self._last_chi2 = chi2
         return (total, sources) if want_sources else total
 
     def lone_arc_needs_outer(self, row: np.ndarray) -> bool:
@@ -223,8 +234,8 @@ class _Posterior:
 # ----------------------------------------------------------------------------------------- fit
 @dataclass
 class LensModelFit:
-    """Posterior of an SIE + shear fit: ``draws`` (n, n_params) rows [theta_e, e1, e2, x0, y0, g1, g2,
-    log s...], the posterior object, the best (maximum posterior) row, and sampler diagnostics."""
+    """Posterior of an SIE + shear fit: ``draws`` (n, n_params) rows [theta_e, u1, u2, x0, y0, g1, g2,
+    s...], the posterior object, the best (maximum posterior) row, and sampler diagnostics."""
 
     draws: np.ndarray
     best: np.ndarray
@@ -319,7 +330,7 @@ def _least_squares(post: _Posterior, start: np.ndarray):
 def _optimise(post: _Posterior, start: np.ndarray, rng: np.random.Generator, n_starts: int = 3) -> np.ndarray:
     """The best of a few least-squares runs from different shapes, judged by the full posterior."""
     best, best_val = None, -np.inf
-    extra = np.full(post.n_params - 7, np.log(0.1))
+    extra = np.full(post.n_params - 7, 0.05)
     for k in range(n_starts):
         p0 = start.copy()
         if k:
@@ -366,7 +377,7 @@ def _prior_scales(post: _Posterior, best: np.ndarray) -> np.ndarray:
     """Widths the data may leave to the priors: used to regularise the proposal."""
     pr = post.priors
     cs = pr.center[2] if pr.center is not None else 0.3 * best[0]
-    return np.r_[0.3 * best[0], 0.35, 0.35, cs, cs, pr.shear_sigma, pr.shear_sigma, np.full(post.n_params - 7, 1.0)]
+    return np.r_[0.3 * best[0], 0.35, 0.35, cs, cs, pr.shear_sigma, pr.shear_sigma, np.full(post.n_params - 7, 0.3)]
 
 
 def _laplace_proposal(post: _Posterior, best: np.ndarray) -> np.ndarray:
@@ -401,6 +412,24 @@ def _importance(post: _Posterior, best: np.ndarray, cov: np.ndarray, n: int, rng
     w[~np.isfinite(w)] = 0.0
     ess = float(w.sum() ** 2 / np.sum(w * w)) if w.sum() > 0 else 0.0
     return rows, w, ess
+
+
+def _autocorrelation_steps(chain: np.ndarray) -> float:
+    """The largest integrated autocorrelation time of the chain (emcee's estimator), quietly."""
+    import logging
+
+    import emcee
+
+    logger = logging.getLogger("emcee.autocorr")
+    level = logger.level
+    logger.setLevel(logging.ERROR)
+    try:
+        with np.errstate(all="ignore"):
+            return float(np.nanmax(emcee.autocorr.integrated_time(chain, quiet=True)))
+    except Exception:  # noqa: BLE001 - the estimate itself may fail on short chains
+        return float("nan")
+    finally:
+        logger.setLevel(level)
 
 
 def sample_lens_model(data: MarkedSystems, priors: LensPriors, *, draws: int = 4000, method: str = "auto",
@@ -472,10 +501,7 @@ def sample_lens_model(data: MarkedSystems, priors: LensPriors, *, draws: int = 4
             report(progress, 0.2 + 0.75 * i / total)
     chain = sampler.get_chain(discard=burn)
     flat = chain.reshape(-1, ndim)
-    try:
-        tau = float(np.nanmax(emcee.autocorr.integrated_time(chain, quiet=True)))
-    except Exception:  # noqa: BLE001 - the estimate itself may fail on short chains
-        tau = float("nan")
+    tau = _autocorrelation_steps(chain)
     if np.isfinite(tau) and steps < 20 * tau:
         notes.append(f"The sampler's autocorrelation time is {tau:.0f} steps against {steps} kept steps: "
                      "the posterior tails are uncertain; rerun with more steps.")

@@ -135,7 +135,7 @@ class SourcePlaneView(QWidget):
     def __init__(self):
         super().__init__()
         self.setObjectName("lens_model_source_plane")
-        self.setMinimumSize(QSize(180, 150))
+        self.setMinimumSize(QSize(200, 230))
         self.curves: dict | None = None
         self.sources: list[tuple[str, float, float, float, float]] = []
 
@@ -307,8 +307,7 @@ class LensModelPanel(QWidget):
         self.source_view.set_model(self.curves, sources)
         self.table.setText(result_table(result))
         self.notes.setText("\n".join(f"• {n}" for n in result.get("notes", [])))
-        self.status.setText(f"{lm['model']}: chi^2 {lm['chi2']:.3g} for {lm['dof']} degrees of freedom "
-                            f"({lm['sampler']} posterior, {lm['n_draws']} draws).")
+        self.status.setText(f"{lm['model']} ({lm['sampler']} posterior, {lm['n_draws']} draws): {chi2_text(lm)}.")
         self.canvas.update()
 
     def _draw(self, painter, canvas) -> None:
@@ -337,13 +336,21 @@ class LensModelPanel(QWidget):
                 painter.drawEllipse(p, 6.5, 6.5)
 
 
-def _interval(block: dict | None, digits: str = ".4g") -> str:
+def _interval(block: dict | None, digits: str = ".3g") -> str:
     if not block:
         return "-"
     lo, hi = block["interval68"]
     lo95, hi95 = block["interval95"]
-    return (f"{format(block['median'], digits):>8}  [{format(lo, digits)}, {format(hi, digits)}]  "
-            f"95% [{format(lo95, digits)}, {format(hi95, digits)}]")
+    return (f"{format(block['median'], digits):>7} {format(lo, digits):>7} {format(hi, digits):<7}"
+            f" {format(lo95, digits):>7} {format(hi95, digits)}")
+
+
+def chi2_text(lm: dict) -> str:
+    """The chi^2 line: with no more constraints than parameters it is zero by construction."""
+    if lm["dof"] <= 0:
+        return (f"the marks ({lm['n_constraints']} numbers) do not over-constrain the model (chi^2 "
+                f"{lm['chi2']:.2g}); the priors fill in the rest")
+    return f"chi^2 {lm['chi2']:.3g} for {lm['dof']} degrees of freedom"
 
 
 def result_table(result: dict) -> str:
@@ -351,18 +358,21 @@ def result_table(result: dict) -> str:
     lm = result["lens_model"]
     p = lm["parameters"]
     rows = [("theta_E (arcsec)", _interval(p["theta_e_arcsec"])),
-            ("R mean kappa=1", _interval(p["mean_kappa_radius_arcsec"])),
+            ("R(mean kappa=1)", _interval(p["mean_kappa_radius_arcsec"])),
             ("axis ratio q", _interval(p["axis_ratio"])),
-            ("PA (deg E of N)", _interval(p["position_angle_deg"], ".1f")),
+            ("PA (deg E of N)", _interval(p["position_angle_deg"], ".0f")),
             ("shear", _interval(p["shear"])),
-            ("shear PA (deg)", _interval(p["shear_angle_deg"], ".1f"))]
+            ("shear PA (deg)", _interval(p["shear_angle_deg"], ".0f"))]
     i68 = result.get("intervals68") or {}
-    for key, label in (("mass_einstein_msun", "M(<theta_E) Msun"), ("sis_sigma_v_kms", "sigma_SIS km/s")):
+    for key, label in (("mass_einstein_msun", "M(<thE) Msun"), ("sis_sigma_v_kms", "sigma_SIS km/s")):
         if key in result and key in i68:
             lo, hi = i68[key]
-            rows.append((label, f"{format_number(result[key]):>8}  [{format_number(lo)}, {format_number(hi)}]"))
-    lines = [f"{a:<18}{b}" for a, b in rows]
-    lines.append("images: marked -> model (px), residual, magnification [68%]")
+            lo95, hi95 = (result.get("intervals95") or {}).get(key, (lo, hi))
+            rows.append((label, f"{format_number(result[key]):>7} {format_number(lo):>7} {format_number(hi):<7} "
+                                f"{format_number(lo95):>7} {format_number(hi95)}"))
+    lines = [f"{'':<17}{'median':>7} {'68% interval':^15} {'95% interval':^15}"]
+    lines += [f"{a:<17}{b}" for a, b in rows]
+    lines.append("images: marked -> model (px), residual, magnification [68%]:")
     for e in lm["images"]:
         if e.get("kind") == "arc":
             continue
@@ -381,5 +391,6 @@ def result_table(result: dict) -> str:
         lines.append(f"arc points: rms residual {np.sqrt(np.mean([e['residual_arcsec'] ** 2 for e in arcs])):.3f}\" "
                      f"({len(arcs)} points)")
     for d in lm.get("time_delays", []):
-        lines.append(f"delay {d['system']}{d['image']}-{d['system']}1 (days) {_interval(d['delay_days'], '.3g')}")
+        lines.append(f"{'delay ' + d['system'] + str(d['image']) + '-' + d['system'] + '1 (d)':<17}"
+                     f"{_interval(d['delay_days'])}")
     return "\n".join(lines)

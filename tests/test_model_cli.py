@@ -1,0 +1,51 @@
+"""``lensmass model`` from a points file with system and kind columns (our own layout)."""
+
+import json
+
+import numpy as np
+
+from lensmass.cli import main
+from lensmass.core.image_finder import find_images
+from lensmass.core.sie import SIEShear
+
+
+def _points(tmp_path, rows, header="x,y,system,kind"):
+    p = tmp_path / "marks.csv"
+    p.write_text(header + "\n" + "\n".join(",".join(str(v) for v in r) for r in rows) + "\n")
+    return p
+
+
+def _quad_rows():
+    im = find_images(SIEShear(1.1, 0.8, 0.6, 0.0, 0.0, 0.02, 0.03), 0.04, -0.05)
+    # east to the left, north up (pixel scale 0.05")
+    return [(round(80 - x / 0.05, 3), round(80 + y / 0.05, 3), "Q", "image") for x, y in zip(im.x, im.y)]
+
+
+def test_model_json_has_parameters_images_delays_and_masses(tmp_path, capsys):
+    p = _points(tmp_path, _quad_rows())
+    code = main(["model", "--points", str(p), "--pixel-scale", "0.05", "--center", "80,80", "--zl", "0.3",
+                 "--zs", "1.4", "--samples", "500", "--draws", "1000", "--json"])
+    out = capsys.readouterr().out
+    assert code == 0
+    r = json.loads(out)
+    lm = r["lens_model"]
+    # exact images (no click noise): the 95% interval holds the true theta_E of 1.1 arcsec
+    lo, hi = lm["parameters"]["theta_e_arcsec"]["interval95"]
+    assert lo <= 1.1 <= hi
+    assert len([e for e in lm["images"] if e["marked_x"] is not None]) == 4
+    assert len(lm["time_delays"]) == 3 and "intervals68" in r and "mass_einstein_msun" in r["intervals68"]
+    assert "intermediate-axis" in lm["theta_e_convention"]
+    assert any("0.5 px" in n for n in r["notes"])  # the default click error is stated
+    assert "lens model" in r["models"]["theta_e_arcsec"] or "SIE" in r["models"]["theta_e_arcsec"]
+
+
+def test_model_table_and_bad_kind(tmp_path, capsys):
+    p = _points(tmp_path, _quad_rows())
+    assert main(["model", "--points", str(p), "--pixel-scale", "0.05", "--center", "80,80", "--zl", "0.3",
+                 "--zs", "1.4", "--samples", "500", "--draws", "1000"]) == 0
+    out = capsys.readouterr().out
+    assert "theta_E" in out and "delay system Q image 2" in out
+    bad = _points(tmp_path, [(1, 2, "A", "knot"), (3, 4, "A", "image")])
+    assert main(["model", "--points", str(bad), "--pixel-scale", "0.05", "--zl", "0.3", "--zs", "1.4"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "kind" in err[0]
