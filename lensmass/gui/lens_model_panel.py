@@ -229,7 +229,7 @@ class LensModelPanel(QWidget):
         outer.addWidget(self.status)
         self.table = QLabel()
         self.table.setObjectName("lens_model_results")
-        self.table.setStyleSheet("font-family: monospace;")
+        self.table.setStyleSheet("font-family: monospace; font-size: 85%;")
         self.table.setTextInteractionFlags(Qt.TextSelectableByMouse)
         self.table.setWordWrap(False)
         outer.addWidget(self.table)
@@ -348,8 +348,8 @@ def _interval(block: dict | None, digits: str = ".3g") -> str:
 def chi2_text(lm: dict) -> str:
     """The chi^2 line: with no more constraints than parameters it is zero by construction."""
     if lm["dof"] <= 0:
-        return (f"the marks ({lm['n_constraints']} numbers) do not over-constrain the model (chi^2 "
-                f"{lm['chi2']:.2g}); the priors fill in the rest")
+        return (f"the marks give {lm['n_constraints']} constraints on the lens beyond the source positions, "
+                f"too few to test the fit (chi^2 {lm['chi2']:.2g}); the priors fill in the rest")
     return f"chi^2 {lm['chi2']:.3g} for {lm['dof']} degrees of freedom"
 
 
