@@ -102,6 +102,9 @@ class WindowExportMixin:
                                      Path(m.image.path).name)
         cosmo, definition = m.session.cosmology.resolve(), m.session.halo_definition
         title = f"Lens mass report: {Path(m.image.path).name}"
+        extra = [line for panel in getattr(self, "panels", []) for line in getattr(panel, "report_lines", list)()]
+        if extra:  # e.g. the lens model's parameters and delays, as notes of the page
+            result = dict(result, notes=list(result.get("notes") or []) + extra)
 
         def render(progress=None, should_stop=None):
             return render_report(path, cut, overlay, inputs, result, title=title,

@@ -78,6 +78,23 @@ def test_fit_the_demo_double_undo_and_save(make_window, qtbot, tmp_path):
     assert (delay > 0) == (d[0] > d[1])
     # the critical curve is drawn over the image
     assert _has_colour(w.canvas.grab().toImage(), CRITICAL_COLOUR)
+    # the exported report carries the model (its parameters and delays as notes of the page)
+    import lensmass.io.report as report
+
+    seen = {}
+    original = report.render_report
+
+    def spy(path, *args, **kwargs):
+        seen["notes"] = args[3].get("notes", [])
+        return original(path, *args, **kwargs)
+
+    report.render_report = spy
+    try:
+        assert w.export_report(str(tmp_path / "page.png")) is not None
+    finally:
+        report.render_report = original
+    assert any("Lens model SIE + external shear" in n for n in seen["notes"])
+    assert any("time delays" in n for n in seen["notes"])
     # undo removes the model, redo brings it back (one step each)
     qtbot.keyClick(w, Qt.Key_Z, Qt.ControlModifier)
     assert panel.model_result is None
