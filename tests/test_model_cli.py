@@ -2,8 +2,6 @@
 
 import json
 
-import numpy as np
-
 from lensmass.cli import main
 from lensmass.core.image_finder import find_images
 from lensmass.core.sie import SIEShear

@@ -12,16 +12,28 @@ and 68/95% intervals, the priors, the predicted images and the time delays).
 
 from __future__ import annotations
 
-from typing import Any, Callable, Mapping
+from collections.abc import Callable, Mapping
+from typing import Any
 
 import numpy as np
 
 from lensmass.core.caustics import caustic, critical_curve, cut
 from lensmass.core.errors import LensInputError
 from lensmass.core.image_finder import find_images
-from lensmass.core.lens_model_fit import KINDS, LensModelFit, LensPriors, MarkedSystems, sample_lens_model
+from lensmass.core.lens_model_fit import (
+    KINDS,
+    LensModelFit,
+    LensPriors,
+    MarkedSystems,
+    sample_lens_model,
+)
 from lensmass.core.progress import ProgressCallback, StopCallback
-from lensmass.core.sie import THETA_E_CONVENTION, fermat_potential, mean_convergence_radius, position_angle_deg
+from lensmass.core.sie import (
+    THETA_E_CONVENTION,
+    fermat_potential,
+    mean_convergence_radius,
+    position_angle_deg,
+)
 from lensmass.core.uncertainty import summarize
 
 #: Default 1-sigma error of a marked position, pixels (a click is good to about half a pixel).
@@ -536,4 +548,4 @@ def model_curves(summary: Mapping[str, Any], n: int = 721) -> dict[str, tuple[np
             "cut_arcsec": cut(lens, n), "critical_curve_arcsec": (cx, cy)}
 
 
-__all__ = ["model_curves", "DEFAULT_POINT_ERR_PIX", "MODEL_NAME", "fit_lens_model", "fit_lens_model_arcsec", "summarize_fit"]
+__all__ = ["DEFAULT_POINT_ERR_PIX", "MODEL_NAME", "fit_lens_model", "fit_lens_model_arcsec", "model_curves", "summarize_fit"]

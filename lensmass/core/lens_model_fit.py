@@ -29,6 +29,7 @@ vectorised call.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+
 import numpy as np
 
 from lensmass.core.errors import LensInputError

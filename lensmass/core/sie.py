@@ -59,12 +59,12 @@ class SIEShear:
     gamma1: object = 0.0
     gamma2: object = 0.0
 
-    def scaled(self, factor) -> "SIEShear":
+    def scaled(self, factor) -> SIEShear:
         """The same lens for a source with D_ls/D_s ``factor`` times the reference one."""
         return SIEShear(np.multiply(self.theta_e, factor), self.q, self.angle_rad, self.x0, self.y0,
                         np.multiply(self.gamma1, factor), np.multiply(self.gamma2, factor))
 
-    def take(self, index) -> "SIEShear":
+    def take(self, index) -> SIEShear:
         """One parameter set out of arrays of them."""
         return SIEShear(*(np.asarray(getattr(self, f.name))[index] for f in fields(self)))
 

@@ -13,14 +13,21 @@ Every new fit or clearing is one undoable step; the inputs and the last fit are 
 from __future__ import annotations
 
 import copy
-import math
 from typing import Any
 
 import numpy as np
 from PySide6.QtCore import QPointF, QRectF, QSize, Qt
 from PySide6.QtGui import QColor, QPainter, QPainterPath, QPen, QUndoCommand
-from PySide6.QtWidgets import (QCheckBox, QFormLayout, QHBoxLayout, QLabel, QLineEdit, QPushButton,
-                               QVBoxLayout, QWidget)
+from PySide6.QtWidgets import (
+    QCheckBox,
+    QFormLayout,
+    QHBoxLayout,
+    QLabel,
+    QLineEdit,
+    QPushButton,
+    QVBoxLayout,
+    QWidget,
+)
 
 from lensmass.commands.common import format_number
 from lensmass.core.errors import LensInputError
@@ -43,16 +50,10 @@ FIELDS = {
 
 
 def _number(texts: dict, key: str, *, positive=False, default=None):
-    text = (texts.get(key) or "").strip()
-    if not text:
-        return default
-    try:
-        value = float(text.replace(",", "."))
-    except ValueError:
-        raise LensInputError(f"The {FIELDS[key][0]} must be a number, got '{text}'.") from None
-    if not math.isfinite(value) or (positive and value <= 0):
-        raise LensInputError(f"The {FIELDS[key][0]} must be a positive number, got '{text}'.")
-    return value
+    """A typed number of the panel (empty: ``default``), one sentence on bad input (the shear dock's parser)."""
+    from lensmass.gui.shear_panel import _number as parse_number
+
+    return parse_number(texts.get(key), FIELDS[key][0], positive=positive, default=default)
 
 
 def gather_marks(session) -> tuple[list, list, list, list, dict]:
@@ -118,7 +119,7 @@ def stored_result(result: dict) -> dict:
 class SetLensModel(QUndoCommand):
     """Replace the panel's lens model (a new fit, or None to clear it): one undoable step."""
 
-    def __init__(self, panel: "LensModelPanel", new: dict | None, text: str):
+    def __init__(self, panel: LensModelPanel, new: dict | None, text: str):
         super().__init__(text)
         self.panel, self.new, self.old = panel, new, panel.model_result
 
@@ -143,7 +144,7 @@ class SourcePlaneView(QWidget):
         self.curves, self.sources = curves, list(sources)
         self.update()
 
-    def paintEvent(self, _event) -> None:  # noqa: N802 - Qt name
+    def paintEvent(self, _event) -> None:
         p = QPainter(self)
         p.setRenderHint(QPainter.Antialiasing)
         p.fillRect(self.rect(), QColor("#14181d"))

@@ -12,7 +12,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from lensmass.core.raytrace import ClumpySource, ExternalShear, SIELens, arc_ridge_points, point_images
+from lensmass.core.raytrace import (
+    ClumpySource,
+    ExternalShear,
+    SIELens,
+    arc_ridge_points,
+    point_images,
+)
 
 PIXEL_ARCSEC = 0.05
 

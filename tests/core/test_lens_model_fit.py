@@ -18,8 +18,13 @@ from lensmass.core.estimate import estimate
 from lensmass.core.image_finder import find_images
 from lensmass.core.lens_model import fit_lens_model, fit_lens_model_arcsec
 from lensmass.core.sie import SIEShear
-
-from tests.core.lens_injection import PIXEL_ARCSEC, arc_case, coverage, fit_case, point_case
+from tests.core.lens_injection import (
+    PIXEL_ARCSEC,
+    arc_case,
+    coverage,
+    fit_case,
+    point_case,
+)
 
 logging.getLogger("emcee").setLevel(logging.ERROR)
 

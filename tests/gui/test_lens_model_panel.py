@@ -12,10 +12,10 @@ import numpy as np
 import pytest
 
 pytest.importorskip("PySide6")
-from PySide6.QtCore import Qt  # noqa: E402
-from PySide6.QtGui import QColor  # noqa: E402
+from PySide6.QtCore import Qt
+from PySide6.QtGui import QColor
 
-from tests.gui.conftest import click_image, demo_field, type_into, wait_idle  # noqa: E402
+from tests.gui.conftest import click_image, demo_field, type_into, wait_idle
 
 
 def _panel(qtbot, window):
@@ -79,7 +79,7 @@ def test_fit_the_demo_double_undo_and_save(make_window, qtbot, tmp_path):
     # the critical curve is drawn over the image
     assert _has_colour(w.canvas.grab().toImage(), CRITICAL_COLOUR)
     # the exported report carries the model (its parameters and delays as notes of the page)
-    import lensmass.io.report as report
+    from lensmass.io import report
 
     seen = {}
     original = report.render_report
