@@ -108,6 +108,21 @@ def theta_e_from_pixels(radius_pix: float, radius_err_pix: float, pixel_scale_ar
     return theta, err
 
 
+def north_up_matrix(scale_arcsec: float, rows_run_down: bool = False) -> np.ndarray:
+    """Pixel offsets (dx, dy) to (east, north) arcsec for a north-up, east-left picture.
+
+    FITS rows run upwards (row 0 at the bottom); PNG/JPEG/TIFF rows run downwards (row 0 at the top),
+    so there a step down a row is a step south (common practice for pictures).
+
+    Examples
+    --------
+    >>> north_up_matrix(0.2, rows_run_down=True).tolist()
+    [[-0.2, 0.0], [0.0, -0.2]]
+    """
+    s = float(scale_arcsec)
+    return np.array([[-s, 0.0], [0.0, -s if rows_run_down else s]])
+
+
 def _geometry(image, pixel_scale_arcsec, pixel_scale_err_arcsec, pixel_matrix_arcsec):
     """(matrix, scale, scale_err, pixel_to_sky, data, notes) from an image and/or explicit values."""
     data = getattr(image, "data", None) if image is not None else None
@@ -128,7 +143,7 @@ def _geometry(image, pixel_scale_arcsec, pixel_scale_err_arcsec, pixel_matrix_ar
     if matrix is None and image is not None and pixel_scale_arcsec is None:
         matrix = getattr(image, "pixel_matrix_arcsec", None)
     if matrix is None:
-        matrix = np.array([[-scale, 0.0], [0.0, scale]])
+        matrix = north_up_matrix(scale, rows_run_down=getattr(image, "kind", "fits") not in ("fits", None))
     matrix = np.asarray(matrix, float)
     to_sky = None
     if image is not None and getattr(image, "wcs", None) is not None:

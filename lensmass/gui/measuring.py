@@ -46,7 +46,8 @@ def measure_system(system, centre: tuple[float, float] | None, image: ImageState
     m = einstein.measure_theta_e_from_points(pts[:, 0], pts[:, 1], image=image.loaded, shape=shape, center=centre)
     matrix = np.asarray(getattr(image.loaded, "pixel_matrix_arcsec", None)
                         if getattr(image.loaded, "pixel_matrix_arcsec", None) is not None
-                        else [[-m.pixel_scale_arcsec, 0.0], [0.0, m.pixel_scale_arcsec]], float)
+                        else einstein.north_up_matrix(m.pixel_scale_arcsec,
+                                                      getattr(image.loaded, "kind", "fits") != "fits"), float)
     radius_px = m.theta_e_arcsec / m.pixel_scale_arcsec
     a_px = b_px = radius_px
     angle = 0.0

@@ -32,6 +32,7 @@ from typing import Any
 import numpy as np
 from astropy.utils.exceptions import AstropyUserWarning
 
+from lensmass.core.einstein import north_up_matrix
 from lensmass.core.errors import LensInputError
 from lensmass.io.image_views import colour_composite, display_limits, load_colour_composite  # noqa: F401 (moved; old paths)
 
@@ -510,8 +511,7 @@ def _finish(image: LoadedImage, user_scale: float | None, user_err: float) -> No
         image.pixel_scale_xy_arcsec = (user_scale, user_scale)
         # FITS rows run upwards (row 0 at the bottom); PNG/JPEG/TIFF rows run downwards (row 0 at the top).
         # Either way the picture is taken as north up, east left (common practice for cutouts).
-        north = user_scale if image.kind == "fits" else -user_scale
-        image.pixel_matrix_arcsec = np.array([[-user_scale, 0.0], [0.0, north]])
+        image.pixel_matrix_arcsec = north_up_matrix(user_scale, rows_run_down=image.kind != "fits")
         image.notes.append(f"Pixel scale {user_scale:g}\"/pixel given by the user (no WCS in the file)"
                            + ("; row 0 is the top of the picture, taken as north up, east left." if image.kind != "fits"
                               else "; taken as north up, east left."))

@@ -27,14 +27,19 @@ def test_single_arc_circle_says_it_overestimates():
     assert any("outside the critical curve" in n for n in m.notes)
 
 
+@pytest.mark.parametrize("scale_later", [False, True])
 @pytest.mark.parametrize("pa_deg", [30.0, 120.0])
-def test_png_position_angle_is_not_mirrored(tmp_path, pa_deg):
+def test_png_position_angle_is_not_mirrored(tmp_path, pa_deg, scale_later):
     # PNG/JPEG rows run from the top (common practice for pictures): on a north-up, east-left cutout a ring
     # elongated at PA (east of north) must come back with that PA, not 180 - PA (the issue saw 150 for 30).
     s = 0.1
     p = tmp_path / "cutout.png"
     Image.fromarray(np.zeros((200, 200), np.uint8)).save(p)
-    image = load_image(p, pixel_scale_arcsec=s)
+    if scale_later:  # the window's way: open the picture, then set its pixel scale
+        image = load_image(p)
+        image.pixel_scale_arcsec = s
+    else:
+        image = load_image(p, pixel_scale_arcsec=s)
     t = np.linspace(0, 2 * np.pi, 25)[:-1]
     a, b = 6.0, 4.0  # arcsec
     major = np.array([np.sin(np.radians(pa_deg)), np.cos(np.radians(pa_deg))])  # (east, north)
