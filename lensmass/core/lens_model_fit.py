@@ -314,6 +314,11 @@ def _least_squares(post: _Posterior, start: np.ndarray):
 
     lo = np.r_[1e-4, -u_max, -u_max, -np.inf, -np.inf, -SHEAR_MAX, -SHEAR_MAX, np.full(2 * n_sys, -np.inf)]
     hi = np.r_[pr.theta_e_max, u_max, u_max, np.inf, np.inf, SHEAR_MAX, SHEAR_MAX, np.full(2 * n_sys, np.inf)]
+    start = np.array(start[:7], float)
+    u0 = np.hypot(start[1], start[2])
+    if u0 > 0.9 * u_max:  # a random start may lie outside the allowed ellipticities
+        start[1:3] *= 0.9 * u_max / u0
+    start[0] = min(max(start[0], 1e-3), 0.99 * pr.theta_e_max)
     lens0 = lens_from_rows(start)
     beta0 = []
     for _, x, y, _, _, f, _ in groups:
