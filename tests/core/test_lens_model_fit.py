@@ -78,7 +78,7 @@ def test_arcs_with_counter_image_cover():
     assert lo <= case.theta_e <= hi
 
 
-@pytest.mark.parametrize("seed", [3000, 3002])
+@pytest.mark.parametrize("seed", [6000, 6001])  # not the seeds the lone-arc spread was calibrated on
 def test_lone_arc_gives_a_bounded_range_that_contains_the_truth_and_says_why(seed):
     case = arc_case(seed, lone=True)
     fit, summary = fit_lens_model_arcsec(case.x, case.y, case.system, case.kind, point_err_arcsec=PIXEL_ARCSEC,
