@@ -53,7 +53,8 @@ def _number(texts: dict, key: str, *, positive=False, default=None):
     """A typed number of the panel (empty: ``default``), one sentence on bad input (the shear dock's parser)."""
     from lensmass.gui.shear_panel import _number as parse_number
 
-    return parse_number(texts.get(key), FIELDS[key][0], positive=positive, default=default)
+    text = (texts.get(key) or "").strip()
+    return default if not text else parse_number(text, FIELDS[key][0], positive=positive, default=default)
 
 
 def gather_marks(session) -> tuple[list, list, list, list, dict]:
