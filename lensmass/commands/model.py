@@ -146,6 +146,8 @@ def _interval(block: dict, digits: str = ".4g") -> str:
 
 def format_model(result: dict) -> str:
     """The lens-model part of the readable output."""
+    from lensmass.core.lens_model import chi2_text
+
     lm = result["lens_model"]
     p = lm["parameters"]
     lines = [f"lens model: {lm['model']} ({lm['sampler']} posterior, {lm['n_draws']} draws)",
@@ -157,7 +159,7 @@ def format_model(result: dict) -> str:
              f"  shear             {_interval(p['shear'])}",
              f"  shear PA          {_interval(p['shear_angle_deg'], '.1f')} deg (images stretched along it)",
              f"  centre            x = {format_number(result['center_x'])}, y = {format_number(result['center_y'])} px",
-             f"  chi^2             {lm['chi2']:.3g} for {lm['dof']} degrees of freedom ({lm['chi2_meaning']})",
+             f"  fit               {chi2_text(lm)}",
              f"  click error       {lm['point_err_pix']:g} px = {lm['point_err_arcsec']:.3g} arcsec (1 sigma)"]
     lines.append("  images (pixels; magnification median and 68% interval; residual = marked - model):")
     for e in lm["images"]:

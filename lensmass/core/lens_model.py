@@ -153,7 +153,7 @@ def fit_lens_model_arcsec(
     priors = LensPriors(center=center, light_shape=light_shape, theta_e_max=max(3 * rmax, 10 * np.max(err)),
                         center_box=(float(np.min(x) - 0.1 * span), float(np.max(x) + 0.1 * span),
                                     float(np.min(y) - 0.1 * span), float(np.max(y) + 0.1 * span)),
-                        lone_arc=lone, **kw)
+                        lone_arc=lone, has_arcs=bool(np.any(kind == "arc")), **kw)
     data = MarkedSystems(x, y, system, kind, err, dict(source_scale or {}))
     fit = sample_lens_model(data, priors, draws=draws, method=method, seed=seed, progress=progress,
                             should_stop=should_stop)
@@ -534,6 +534,14 @@ def fit_lens_model(
                                  "(c D_ls) from the chosen cosmology; z errors not included")
     result["models"] = models
     return result
+
+
+def chi2_text(summary: Mapping[str, Any]) -> str:
+    """The chi^2 sentence of a summary: with no more constraints than parameters it is zero by construction."""
+    if summary["dof"] <= 0:
+        return (f"the marks give {summary['n_constraints']} constraints on the lens beyond the source positions, "
+                f"too few to test the fit (chi^2 {summary['chi2']:.2g}); the priors fill in the rest")
+    return f"chi^2 {summary['chi2']:.3g} for {summary['dof']} degrees of freedom ({summary['chi2_meaning']})"
 
 
 def model_curves(summary: Mapping[str, Any], n: int = 721) -> dict[str, tuple[np.ndarray, np.ndarray]]:

@@ -87,6 +87,7 @@ class LensPriors:
     shear_sigma: float = SHEAR_PRIOR_SIGMA
     q_min: float = Q_MIN
     lone_arc: bool = False
+    has_arcs: bool = False
 
     def describe(self) -> list[str]:
         out = [f"theta_E uniform in (0, {self.theta_e_max:.3g}] arcsec",
@@ -99,7 +100,8 @@ class LensPriors:
         if self.light_shape is not None:
             out.append(f"mass ellipticity Gaussian about the lens light's (q = {self.light_shape[0]:.3g}, "
                        f"sigma_q = {self.light_shape[2]:.3g})")
-        out.append(f"spread of arc points about their source uniform in [0, {ARC_SPREAD_MAX:g}] arcsec")
+        if self.has_arcs:
+            out.append(f"spread of arc points about their source uniform in [0, {ARC_SPREAD_MAX:g}] arcsec")
         if self.lone_arc:
             out.append("lone arc: not wholly inside the critical curve (part of it outside, as an outer image or "
                        "a merging pair across the curve), from a source that is multiply imaged (inside the cut)")

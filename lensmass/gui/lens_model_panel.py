@@ -32,6 +32,7 @@ from PySide6.QtWidgets import (
 from lensmass.commands.common import format_number
 from lensmass.core.errors import LensInputError
 from lensmass.gui.canvas import SYSTEM_COLOURS
+from lensmass.core.lens_model import chi2_text
 from lensmass.gui.panel_registry import mark_unsaved
 
 LAYER = "lens_model"
@@ -365,14 +366,6 @@ def _interval(block: dict | None, digits: str = ".3g") -> str:
     lo95, hi95 = block["interval95"]
     return (f"{format(block['median'], digits):>7} {format(lo, digits):>7} {format(hi, digits):<7}"
             f" {format(lo95, digits):>7} {format(hi95, digits)}")
-
-
-def chi2_text(lm: dict) -> str:
-    """The chi^2 line: with no more constraints than parameters it is zero by construction."""
-    if lm["dof"] <= 0:
-        return (f"the marks give {lm['n_constraints']} constraints on the lens beyond the source positions, "
-                f"too few to test the fit (chi^2 {lm['chi2']:.2g}); the priors fill in the rest")
-    return f"chi^2 {lm['chi2']:.3g} for {lm['dof']} degrees of freedom"
 
 
 def result_table(result: dict) -> str:
