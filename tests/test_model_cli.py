@@ -42,7 +42,7 @@ def test_model_table_and_bad_kind(tmp_path, capsys):
     assert main(["model", "--points", str(p), "--pixel-scale", "0.05", "--center", "80,80", "--zl", "0.3",
                  "--zs", "1.4", "--samples", "500", "--draws", "1000"]) == 0
     out = capsys.readouterr().out
-    assert "theta_E" in out and "delay system Q image 2" in out
+    assert "theta_E (arcsec)" in out and "delay Q2-Q1 (d)" in out
     bad = _points(tmp_path, [(1, 2, "A", "knot"), (3, 4, "A", "image")])
     assert main(["model", "--points", str(bad), "--pixel-scale", "0.05", "--zl", "0.3", "--zs", "1.4"]) == 2
     err = capsys.readouterr().err.strip().splitlines()

@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import argparse
 
+import numpy as np
+
 from lensmass.commands.common import (
     add_cosmology_options,
     add_halo_options,
@@ -137,11 +139,52 @@ def _cosmology(args):
     return cosmology_from_args(args)
 
 
-def _interval(block: dict, digits: str = ".4g") -> str:
+#: The model parameters as every output shows them: (key of ``lens_model["parameters"]``, label, unit, format).
+PARAMETER_ROWS = (
+    ("theta_e_arcsec", "theta_E", "arcsec", ".4g"),
+    ("mean_kappa_radius_arcsec", "R(mean kappa=1)", "arcsec", ".4g"),
+    ("axis_ratio", "axis ratio q", "", ".3g"),
+    ("position_angle_deg", "PA (E of N)", "deg", ".0f"),
+    ("shear", "shear", "", ".3g"),
+    ("shear_angle_deg", "shear PA", "deg", ".0f"),
+)
+
+
+def interval_columns(block: dict | None, digits: str = ".4g") -> str:
+    """``median  lo68 hi68  lo95 hi95`` in fixed-width columns ("-" without a block)."""
+    if not block:
+        return "-"
     lo, hi = block["interval68"]
     lo95, hi95 = block["interval95"]
-    return (f"{format(block['median'], digits)}  68% [{format(lo, digits)}, {format(hi, digits)}]  "
-            f"95% [{format(lo95, digits)}, {format(hi95, digits)}]")
+    return (f"{format(block['median'], digits):>8} {format(lo, digits):>8} {format(hi, digits):<8}"
+            f" {format(lo95, digits):>8} {format(hi95, digits)}")
+
+
+def image_lines(lm: dict) -> list[str]:
+    """One line per image: marked -> model position (pixels), residual, magnification median [68%]."""
+    lines = []
+    for e in lm["images"]:
+        if e.get("kind") == "arc":
+            continue
+        mu = e.get("magnification")
+        mu_txt = (f"mu {mu['median']:+.3g} [{mu['interval68'][0]:+.3g}, {mu['interval68'][1]:+.3g}]" if mu
+                  else f"mu {e.get('model_magnification', float('nan')):+.3g}")
+        if e.get("marked_x") is None:
+            lines.append(f"{e['system']}: not marked -> ({e['model_x']:.1f}, {e['model_y']:.1f})  {mu_txt}")
+        elif e.get("model_x") is None:
+            lines.append(f"{e['system']}: ({e['marked_x']:.1f}, {e['marked_y']:.1f}) -> no model image")
+        else:
+            lines.append(f"{e['system']}: ({e['marked_x']:.1f}, {e['marked_y']:.1f}) -> ({e['model_x']:.1f}, "
+                         f"{e['model_y']:.1f})  {e['residual_arcsec']:.3f}\"  {mu_txt}")
+    arcs = [e["residual_arcsec"] for e in lm["images"] if e.get("kind") == "arc"]
+    if arcs:
+        lines.append(f"arc points: rms residual {float(np.sqrt(np.mean(np.square(arcs)))):.3f}\" ({len(arcs)} points)")
+    return lines
+
+
+def delay_rows(lm: dict) -> list[tuple[str, dict]]:
+    """(label, summary) of each predicted delay, days, relative to the first image of its system."""
+    return [(f"delay {d['system']}{d['image']}-{d['system']}1 (d)", d["delay_days"]) for d in lm.get("time_delays", [])]
 
 
 def format_model(result: dict) -> str:
@@ -152,32 +195,15 @@ def format_model(result: dict) -> str:
     p = lm["parameters"]
     lines = [f"lens model: {lm['model']} ({lm['sampler']} posterior, {lm['n_draws']} draws)",
              f"  {lm['theta_e_convention']}",
-             f"  theta_E           {_interval(p['theta_e_arcsec'])} arcsec",
-             f"  R(mean kappa = 1) {_interval(p['mean_kappa_radius_arcsec'])} arcsec",
-             f"  axis ratio q      {_interval(p['axis_ratio'])}",
-             f"  PA (E of N)       {_interval(p['position_angle_deg'], '.1f')} deg",
-             f"  shear             {_interval(p['shear'])}",
-             f"  shear PA          {_interval(p['shear_angle_deg'], '.1f')} deg (images stretched along it)",
-             f"  centre            x = {format_number(result['center_x'])}, y = {format_number(result['center_y'])} px",
-             f"  fit               {chi2_text(lm)}",
-             f"  click error       {lm['point_err_pix']:g} px = {lm['point_err_arcsec']:.3g} arcsec (1 sigma)"]
-    lines.append("  images (pixels; magnification median and 68% interval; residual = marked - model):")
-    for e in lm["images"]:
-        if e.get("kind") == "arc":
-            continue
-        mu = e.get("magnification")
-        mu_txt = (f"mu {mu['median']:+.3g} [{mu['interval68'][0]:+.3g}, {mu['interval68'][1]:+.3g}]"
-                  if mu else f"mu {e.get('model_magnification', float('nan')):+.3g}")
-        if e.get("marked_x") is None:
-            lines.append(f"    system {e['system']}: predicted, not marked, at ({e['model_x']:.1f}, {e['model_y']:.1f}) "
-                         f"{mu_txt}")
-        elif e.get("model_x") is None:
-            lines.append(f"    system {e['system']}: marked ({e['marked_x']:.1f}, {e['marked_y']:.1f}): no model image")
-        else:
-            lines.append(f"    system {e['system']}: marked ({e['marked_x']:.1f}, {e['marked_y']:.1f}) model "
-                         f"({e['model_x']:.1f}, {e['model_y']:.1f}) residual {e['residual_arcsec']:.3g}\" {mu_txt}")
-    for d in lm.get("time_delays", []):
-        lines.append(f"  delay system {d['system']} image {d['image']} - image 1: {_interval(d['delay_days'], '.3g')} days")
+             f"  {'':<20}{'median':>8} {'68% interval':^17} {'95% interval':^17}"]
+    lines += [f"  {label + (' (' + unit + ')' if unit else ''):<20}{interval_columns(p[key], fmt)}"
+              for key, label, unit, fmt in PARAMETER_ROWS]
+    lines += [f"  {label:<20}{interval_columns(block, '.3g')}" for label, block in delay_rows(lm)]
+    lines += [f"  centre: x = {format_number(result['center_x'])}, y = {format_number(result['center_y'])} px",
+              f"  fit: {chi2_text(lm)}",
+              f"  click error {lm['point_err_pix']:g} px = {lm['point_err_arcsec']:.3g} arcsec (1 sigma)",
+              "  images: marked -> model (px), residual, magnification [68%]:"]
+    lines += [f"    {line}" for line in image_lines(lm)]
     lines.append("  priors: " + "; ".join(lm["priors"]))
     return "\n".join(lines)
 

@@ -29,7 +29,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from lensmass.commands.common import format_number
+from lensmass.commands.model import PARAMETER_ROWS, delay_rows, image_lines, interval_columns
 from lensmass.core.errors import LensInputError
 from lensmass.gui.canvas import SYSTEM_COLOURS
 from lensmass.core.lens_model import chi2_text
@@ -302,7 +302,7 @@ class LensModelPanel(QWidget):
                 f"{iv(p['theta_e_arcsec'])} arcsec, q = {iv(p['axis_ratio'])}, PA = {iv(p['position_angle_deg'], '.0f')} "
                 f"deg, shear = {iv(p['shear'])} at {iv(p['shear_angle_deg'], '.0f')} deg; {chi2_text(lm)}.")
         lines = [text]
-        delays = [f"{d['system']}{d['image']}-{d['system']}1 {iv(d['delay_days'])} d" for d in lm.get("time_delays", [])]
+        delays = [f"{label[6:-4]} {iv(block)} d" for label, block in delay_rows(lm)]
         if delays:
             lines.append("Predicted time delays: " + "; ".join(delays) + ".")
         return lines
@@ -359,53 +359,20 @@ class LensModelPanel(QWidget):
                 painter.drawEllipse(p, 6.5, 6.5)
 
 
-def _interval(block: dict | None, digits: str = ".3g") -> str:
-    if not block:
-        return "-"
-    lo, hi = block["interval68"]
-    lo95, hi95 = block["interval95"]
-    return (f"{format(block['median'], digits):>7} {format(lo, digits):>7} {format(hi, digits):<7}"
-            f" {format(lo95, digits):>7} {format(hi95, digits)}")
-
-
 def result_table(result: dict) -> str:
-    """The model's numbers as the panel shows them (medians, 68% and 95% intervals)."""
+    """The model's numbers as the dock shows them: the command line's rows and columns."""
     lm = result["lens_model"]
     p = lm["parameters"]
-    rows = [("theta_E (arcsec)", _interval(p["theta_e_arcsec"])),
-            ("R(mean kappa=1)", _interval(p["mean_kappa_radius_arcsec"])),
-            ("axis ratio q", _interval(p["axis_ratio"])),
-            ("PA (deg E of N)", _interval(p["position_angle_deg"], ".0f")),
-            ("shear", _interval(p["shear"])),
-            ("shear PA (deg)", _interval(p["shear_angle_deg"], ".0f"))]
-    i68 = result.get("intervals68") or {}
-    for key, label in (("mass_einstein_msun", "M(<thE) Msun"), ("sis_sigma_v_kms", "sigma_SIS km/s")):
+    rows = [(label + (f" ({unit})" if unit else ""), interval_columns(p[key], fmt if fmt != ".4g" else ".3g"))
+            for key, label, unit, fmt in PARAMETER_ROWS]
+    i68, i95 = result.get("intervals68") or {}, result.get("intervals95") or {}
+    for key, label in (("mass_einstein_msun", "M(<thE) (Msun)"), ("sis_sigma_v_kms", "sigma_SIS (km/s)")):
         if key in result and key in i68:
-            lo, hi = i68[key]
-            lo95, hi95 = (result.get("intervals95") or {}).get(key, (lo, hi))
-            rows.append((label, f"{format_number(result[key]):>7} {format_number(lo):>7} {format_number(hi):<7} "
-                                f"{format_number(lo95):>7} {format_number(hi95)}"))
-    lines = [f"{'':<17}{'median':>7} {'68% interval':^15} {'95% interval':^15}"]
+            block = {"median": result[key], "interval68": i68[key], "interval95": i95.get(key, i68[key])}
+            rows.append((label, interval_columns(block, ".4g")))
+    rows += [(label, interval_columns(block, ".3g")) for label, block in delay_rows(lm)]
+    lines = [f"{'':<17}{'median':>8} {'68% interval':^17} {'95% interval':^17}"]
     lines += [f"{a:<17}{b}" for a, b in rows]
     lines.append("images: marked -> model (px), residual, magnification [68%]:")
-    for e in lm["images"]:
-        if e.get("kind") == "arc":
-            continue
-        mu = e.get("magnification")
-        mu_txt = (f"{mu['median']:+.3g} [{mu['interval68'][0]:+.3g}, {mu['interval68'][1]:+.3g}]" if mu
-                  else f"{e.get('model_magnification', float('nan')):+.3g}")
-        if e.get("marked_x") is None:
-            lines.append(f"  {e['system']}: (not marked) -> ({e['model_x']:.1f}, {e['model_y']:.1f})  mu {mu_txt}")
-        elif e.get("model_x") is None:
-            lines.append(f"  {e['system']}: ({e['marked_x']:.1f}, {e['marked_y']:.1f}) -> no model image")
-        else:
-            lines.append(f"  {e['system']}: ({e['marked_x']:.1f}, {e['marked_y']:.1f}) -> ({e['model_x']:.1f}, "
-                         f"{e['model_y']:.1f})  {e['residual_arcsec']:.3f}\"  mu {mu_txt}")
-    arcs = [e for e in lm["images"] if e.get("kind") == "arc"]
-    if arcs:
-        lines.append(f"arc points: rms residual {np.sqrt(np.mean([e['residual_arcsec'] ** 2 for e in arcs])):.3f}\" "
-                     f"({len(arcs)} points)")
-    for d in lm.get("time_delays", []):
-        lines.append(f"{'delay ' + d['system'] + str(d['image']) + '-' + d['system'] + '1 (d)':<17}"
-                     f"{_interval(d['delay_days'])}")
+    lines += [f"  {line}" for line in image_lines(lm)]
     return "\n".join(lines)
