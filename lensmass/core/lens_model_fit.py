@@ -46,6 +46,11 @@ SHEAR_PRIOR_SIGMA = 0.05
 SHEAR_MAX = 0.5
 ARC_SPREAD_MAX = 2.0
 DEFAULT_WALKERS = 32
+#: Points marked along an arc are not independent draws (neighbours trace the same part of the source), so
+#: the likelihood of a system with arc points is raised to this power: each arc point counts as a third of
+#: an independent one. Without it the 95% intervals of theta_E covered the truth in 14 of 20
+#: inject-and-recover arc systems (68%: 10 of 20); see benchmarks/bench_lens_model.py for the figures with it.
+ARC_LIKELIHOOD_WEIGHT = 1.0 / 3.0
 #: Importance sampling is used when its effective sample size reaches this (percentiles of 400
 #: independent draws place the 2.5% and 97.5% points to about +-0.8% in probability).
 MIN_EFFECTIVE_DRAWS = 400
@@ -204,8 +209,9 @@ class _Posterior:
             quad = (p11 * bx * bx + 2 * p12 * bx * by + p22 * by * by).sum(1) - (mx * v1 + my * v2)
             det_a = a11 * a22 - a12 * a12
             chi2 += quad
-            total += (-0.5 * quad - 0.5 * np.log(det_c).sum(1) + np.log(np.maximum(np.abs(det_a), 1e-300)).sum(1)
-                      - 0.5 * np.log(det_f))
+            weight = ARC_LIKELIHOOD_WEIGHT if arc_index is not None else 1.0
+            total += weight * (-0.5 * quad - 0.5 * np.log(det_c).sum(1)
+                               + np.log(np.maximum(np.abs(det_a), 1e-300)).sum(1) - 0.5 * np.log(det_f))
             if self.priors.lone_arc:
                 # a tangential arc is never wholly inside the critical curve: some point has positive parity
                 # (both eigenvalues of A positive); its source is multiply imaged (inside the cut, ~ theta_E)
