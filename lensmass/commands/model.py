@@ -139,25 +139,27 @@ def _cosmology(args):
     return cosmology_from_args(args)
 
 
-#: The model parameters as every output shows them: (key of ``lens_model["parameters"]``, label, unit, format).
+#: The model parameters as every output shows them: (key of ``lens_model["parameters"]``, label, short label
+#: for narrow places such as the window's dock, unit, format).
 PARAMETER_ROWS = (
-    ("theta_e_arcsec", "theta_E", "arcsec", ".4g"),
-    ("mean_kappa_radius_arcsec", "R(mean kappa=1)", "arcsec", ".4g"),
-    ("axis_ratio", "axis ratio q", "", ".3g"),
-    ("position_angle_deg", "PA (E of N)", "deg", ".0f"),
-    ("shear", "shear", "", ".3g"),
-    ("shear_angle_deg", "shear PA", "deg", ".0f"),
+    ("theta_e_arcsec", "theta_E", 'theta_E ["]', "arcsec", ".4g"),
+    ("mean_kappa_radius_arcsec", "R(mean kappa=1)", 'R(kbar=1) ["]', "arcsec", ".4g"),
+    ("axis_ratio", "axis ratio q", "q", "", ".3g"),
+    ("position_angle_deg", "PA (E of N)", "PA [deg]", "deg", ".0f"),
+    ("shear", "shear", "shear", "", ".3g"),
+    ("shear_angle_deg", "shear PA", "shear PA", "deg", ".0f"),
 )
 
 
-def interval_columns(block: dict | None, digits: str = ".4g") -> str:
+def interval_columns(block: dict | None, digits: str = ".4g", width: int = 8) -> str:
     """``median  lo68 hi68  lo95 hi95`` in fixed-width columns ("-" without a block)."""
     if not block:
         return "-"
     lo, hi = block["interval68"]
     lo95, hi95 = block["interval95"]
-    return (f"{format(block['median'], digits):>8} {format(lo, digits):>8} {format(hi, digits):<8}"
-            f" {format(lo95, digits):>8} {format(hi95, digits)}")
+    w = width
+    return (f"{format(block['median'], digits):>{w}} {format(lo, digits):>{w}} {format(hi, digits):<{w}}"
+            f" {format(lo95, digits):>{w}} {format(hi95, digits)}")
 
 
 def image_lines(lm: dict) -> list[str]:
@@ -197,7 +199,7 @@ def format_model(result: dict) -> str:
              f"  {lm['theta_e_convention']}",
              f"  {'':<20}{'median':>8} {'68% interval':^17} {'95% interval':^17}"]
     lines += [f"  {label + (' (' + unit + ')' if unit else ''):<20}{interval_columns(p[key], fmt)}"
-              for key, label, unit, fmt in PARAMETER_ROWS]
+              for key, label, _short, unit, fmt in PARAMETER_ROWS]
     lines += [f"  {label:<20}{interval_columns(block, '.3g')}" for label, block in delay_rows(lm)]
     lines += [f"  centre: x = {format_number(result['center_x'])}, y = {format_number(result['center_y'])} px",
               f"  fit: {chi2_text(lm)}",

@@ -360,19 +360,18 @@ class LensModelPanel(QWidget):
 
 
 def result_table(result: dict) -> str:
-    """The model's numbers as the dock shows them: the command line's rows and columns."""
+    """The model's numbers as the dock shows them: the command line's rows, short labels, narrow columns."""
     lm = result["lens_model"]
     p = lm["parameters"]
-    rows = [(label + (f" ({unit})" if unit else ""), interval_columns(p[key], fmt if fmt != ".4g" else ".3g"))
-            for key, label, unit, fmt in PARAMETER_ROWS]
+    rows = [(short, interval_columns(p[key], ".3g", 6)) for key, _label, short, _unit, _fmt in PARAMETER_ROWS]
     i68, i95 = result.get("intervals68") or {}, result.get("intervals95") or {}
-    for key, label in (("mass_einstein_msun", "M(<thE) (Msun)"), ("sis_sigma_v_kms", "sigma_SIS (km/s)")):
+    for key, label in (("mass_einstein_msun", "M(<thE) Msun"), ("sis_sigma_v_kms", "sigma_SIS")):
         if key in result and key in i68:
             block = {"median": result[key], "interval68": i68[key], "interval95": i95.get(key, i68[key])}
-            rows.append((label, interval_columns(block, ".4g")))
-    rows += [(label, interval_columns(block, ".3g")) for label, block in delay_rows(lm)]
-    lines = [f"{'':<17}{'median':>8} {'68% interval':^17} {'95% interval':^17}"]
-    lines += [f"{a:<17}{b}" for a, b in rows]
-    lines.append("images: marked -> model (px), residual, magnification [68%]:")
-    lines += [f"  {line}" for line in image_lines(lm)]
+            rows.append((label, interval_columns(block, ".3g", 6)))
+    rows += [(label[6:-4] + " [d]", interval_columns(block, ".3g", 6)) for label, block in delay_rows(lm)]
+    lines = [f"{'':<13}{'median':>6} {'68% interval':^13} {'95% interval':^13}"]
+    lines += [f"{a:<13}{b}" for a, b in rows]
+    lines.append("images: marked -> model (px), residual, mu [68%]:")
+    lines += [f" {line}" for line in image_lines(lm)]
     return "\n".join(lines)
