@@ -29,9 +29,9 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 logging.disable(logging.WARNING)
 
-from lensmass.core.einstein import measure_theta_e_from_points
-from lensmass.core.lens_model import fit_lens_model, fit_lens_model_arcsec
-from tests.core.lens_injection import PIXEL_ARCSEC, arc_case, point_case
+from lensmass.core.einstein import measure_theta_e_from_points  # noqa: E402
+from lensmass.core.lens_model import fit_lens_model, fit_lens_model_arcsec  # noqa: E402
+from tests.core.lens_injection import PIXEL_ARCSEC, arc_case, point_case  # noqa: E402
 
 
 def _timed(fn, repeat=3):

@@ -1,4 +1,7 @@
-"""From marked images and arcs to an SIE + external shear model with intervals, predicted images,
+"""Longer than 500 lines because the fit's summary (parameters, images, delays, masses) is one unit with
+the pixel wrapper that all three front ends call; the posterior itself lives in lens_model_fit.py.
+
+From marked images and arcs to an SIE + external shear model with intervals, predicted images,
 time delays and masses: the one function the window, the command line and Python call.
 
 :func:`fit_lens_model` works in pixels on an image (like :mod:`lensmass.core.einstein`): positions are
@@ -56,10 +59,11 @@ def _circular_summary(values_deg: np.ndarray, period: float = 180.0) -> dict[str
     mean = np.angle(np.mean(np.exp(1j * k * v))) / k
     unwrapped = mean + (v - mean + period / 2) % period - period / 2
     s = summarize(unwrapped)
-    shift = s["median"] % period - s["median"]  # median in [0, period); the intervals move with it
-    return {"median": float(s["median"] + shift),
-            "interval68": [float(a + shift) for a in s["interval68"]],
-            "interval95": [float(a + shift) for a in s["interval95"]]}
+    median = float(s["median"])  # type: ignore[arg-type]
+    i68: list[float] = list(s["interval68"])  # type: ignore[call-overload]
+    i95: list[float] = list(s["interval95"])  # type: ignore[call-overload]
+    shift = median % period - median  # median in [0, period); the intervals move with it
+    return {"median": median + shift, "interval68": [a + shift for a in i68], "interval95": [a + shift for a in i95]}
 
 
 def _check_inputs(x, y, system, kind):

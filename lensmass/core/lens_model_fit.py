@@ -1,4 +1,7 @@
-"""Fit an SIE + external shear to marked images and arc points, with a sampled posterior.
+"""Longer than 500 lines because the posterior, its optimiser and its two samplers share private state
+(the vectorised posterior object) and are tested together.
+
+Fit an SIE + external shear to marked images and arc points, with a sampled posterior.
 
 Data: points in arcsec (x east, y north), each belonging to a *system* (one background source,
 with its own D_ls/D_s) and being either an ``image`` (a point of the source seen in several images:

@@ -29,7 +29,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from lensmass.commands.model import PARAMETER_ROWS, delay_rows, image_lines, interval_columns
+from lensmass.io.lens_model_text import PARAMETER_ROWS, delay_rows, image_lines, interval_columns
 from lensmass.core.errors import LensInputError
 from lensmass.gui.canvas import SYSTEM_COLOURS
 from lensmass.core.lens_model import chi2_text

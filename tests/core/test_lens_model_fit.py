@@ -93,7 +93,8 @@ def test_lone_arc_gives_a_bounded_range_that_contains_the_truth_and_says_why(see
 def test_two_sources_at_different_redshifts_share_one_lens():
     # each system's deflection scales with D_ls/D_s (Narayan & Bartelmann 1996), from astropy distances here
     z_l, z_a, z_b = 0.4, 1.0, 2.5
-    ratio = lambda z: (Planck18.angular_diameter_distance(z_l, z) / Planck18.angular_diameter_distance(z)).value
+    def ratio(z):
+        return (Planck18.angular_diameter_distance(z_l, z) / Planck18.angular_diameter_distance(z)).value
     f = ratio(z_b) / ratio(z_a)
     lens = SIEShear(1.3, 0.75, 0.4, 0.0, 0.0, 0.03, -0.02)
     ia = find_images(lens, 0.06, -0.04)

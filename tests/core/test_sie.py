@@ -84,7 +84,8 @@ def test_deflection_against_integral_of_the_convergence():
 
     for x, y in [(0.7, 0.3), (-1.9, 1.2), (0.2, -2.5), (3.0, 0.01)]:
         def j(n):
-            f = lambda t: kappa(np.sqrt(t * (x * x + y * y / (1 - (1 - q * q) * t)))) / (1 - (1 - q * q) * t) ** (n + 0.5)
+            def f(t):
+                return kappa(np.sqrt(t * (x * x + y * y / (1 - (1 - q * q) * t)))) / (1 - (1 - q * q) * t) ** (n + 0.5)
             return integrate.quad(f, 0, 1, limit=200)[0]
 
         ax, ay = sie_deflection(lens, x, y)
