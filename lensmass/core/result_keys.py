@@ -152,6 +152,8 @@ _FACTS: list[KeyFact] = [
     _f("method", "method", None, "how the Einstein radius was measured", _M, fmt="text"),
     _f("n_points", "points", None, "number of marked or found points in the fit", _M, fmt="count"),
     _f("points_xy", "points", "pix", "the points fitted (0-based column, row)", _M, fmt="block"),
+    _f("lens_model", "lens model", None, "SIE + external shear fitted to the marks: parameters with 68/95% "
+       "intervals, priors, predicted images, time delays (lensmass.core.lens_model)", _M, fmt="block"),
     _f("center_x", "centre x", "pix", "lens centre, 0-based column", _M),
     _f("center_y", "centre y", "pix", "lens centre, 0-based row", _M),
     _f("center_ra", "centre RA", "deg", "lens centre, right ascension", _M),
