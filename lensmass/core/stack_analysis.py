@@ -205,7 +205,8 @@ def analyse_stack(
             "of the lenses (sample variance and shape noise)",
             "mean_halo_m200_msun": f"NFW halo (Wright & Brainerd 2000), boundary {boundary} at each lens's z, c from "
             f"{c_label}, plus a central point mass of {point_mass_msun:.3g} Msun; model averaged over the pairs' lens "
-            "redshifts and radii; Gaussian likelihood with the Hartlap-debiased inverse jackknife covariance, "
+            "redshifts and radii; likelihood of Sellentin & Heavens (2016) for the jackknife covariance (its noise "
+            "widens the interval), "
             "posterior on a grid, flat prior in log M200; value = posterior median",
             "mean_halo_c200": f"{c_label} at the weighted mean lens redshift and the median M200",
         },

@@ -4,7 +4,8 @@ Lenses are NFW haloes (Wright & Brainerd 2000 via :mod:`lensmass.core.nfw`, c fr
 relation) placed uniformly on a patch of sky with redshifts uniform in a range; sources are
 uniform on the same patch with redshifts from n(z) ~ z^2 exp[-(z/z0)^1.5] (Smail et al. 1994).
 Every source feels the shear and convergence of every lens in front of it within
-``truncate_mpc`` (summed: the weak-field superposition), is given the reduced shear
+``truncate_mpc`` (summed: the weak-field superposition; the field's mean convergence is
+subtracted, since convergence is measured against the mean density), is given the reduced shear
 g = gamma / (1 - kappa) exactly (Seitz & Schneider 1997, via
 :func:`lensmass.core.shear_simulation.apply_reduced_shear`), and optionally an additive shear
 systematic (c1, c2) such as an uncorrected PSF leaves (common practice).
@@ -79,6 +80,10 @@ def simulate_stack(*, n_lenses: int, n_sources: int, m200_msun: float, cosmo, ra
         phi = np.arctan2(y, x)
         np.add.at(gamma, j, -g_t * np.exp(2j * phi))  # tangential shear in the east/north convention
         np.add.at(kappa, j, nfw_convergence(r, halo, sigma_cr))
+    # convergence is relative to the mean density: without this a dense population adds a positive mass sheet
+    # that raises every g = gamma / (1 - kappa) (common practice)
+    behind_any = sz > lz.min()
+    kappa[behind_any] -= kappa[behind_any].mean()
     e = apply_reduced_shear(e_int, gamma / (1 - kappa)) + complex(*additive)
     return {"lens_ra": lra, "lens_dec": ldec, "lens_z": lz, "ra": sra, "dec": sdec, "e1": e.real, "e2": e.imag,
             "weight": np.ones(n_sources), "z": sz}

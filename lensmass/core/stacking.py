@@ -43,6 +43,8 @@ from lensmass.core.errors import LensInputError
 
 #: Lens-redshift cells of the model average.
 Z_CELLS = 8
+#: Radial sub-bins per bin of the model average (the model is convex in R).
+MODEL_SUBBINS = 8
 #: Pairs handled at once (memory of one chunk: about 30 arrays of this length).
 _PAIR_CHUNK = 1 << 20
 _SUM_KEYS = ("n", "w", "wr", "t", "x", "s2")
@@ -108,7 +110,7 @@ class StackSums:
 
 def empty_stack_sums(layout: StackLayout) -> StackSums:
     shape = (layout.n_patches, layout.n_bins)
-    zshape = (len(layout.z_cell_edges) - 1, layout.n_bins)
+    zshape = (len(layout.z_cell_edges) - 1, layout.n_bins * MODEL_SUBBINS)
     return StackSums({k: np.zeros(shape) for k in _SUM_KEYS}, {k: np.zeros(shape) for k in _SUM_KEYS},
                      {k: np.zeros(zshape) for k in _MODEL_KEYS})
 
@@ -208,6 +210,7 @@ def _pair_sums(layout: StackLayout, grid, points: PointSet, src: dict, tree, tar
     n_bins = layout.n_bins
     n_z = len(layout.z_cell_edges) - 1
     z_edges = np.asarray(layout.z_cell_edges, float)
+    log_lo, log_span = np.log(edges[0]), np.log(edges[-1] / edges[0])  # bins are logarithmic
     # lenses in slices of redshift (each with its own largest angle), then chunks of about _PAIR_CHUNK pairs;
     # the pairs come from a dual-tree search (cKDTree.sparse_distance_matrix), as index arrays, not lists
     order = np.argsort(z_l, kind="stable")
@@ -263,9 +266,12 @@ def _pair_sums(layout: StackLayout, grid, points: PointSet, src: dict, tree, tar
             target[k] += np.bincount(key, weights=v, minlength=size).reshape(layout.n_patches, n_bins)
         if model is not None:
             zc = np.clip(np.searchsorted(z_edges, zl, side="right") - 1, 0, n_z - 1)
-            mkey = zc * n_bins + b
+            sub = np.clip(((np.log(r) - log_lo) * (n_bins * MODEL_SUBBINS / log_span)).astype(np.intp), 0,
+                          n_bins * MODEL_SUBBINS - 1)
+            mkey = zc * (n_bins * MODEL_SUBBINS) + sub
+            n_m = n_bins * MODEL_SUBBINS
             for k, v in (("w", wls), ("wr", wls * r), ("wz", wls * zl), ("wi", wls / sigma_cr)):
-                model[k] += np.bincount(mkey, weights=v, minlength=n_z * n_bins).reshape(n_z, n_bins)
+                model[k] += np.bincount(mkey, weights=v, minlength=n_z * n_m).reshape(n_z, n_m)
 
 
 @dataclass
@@ -355,16 +361,20 @@ def nfw_delta_sigma_model(m200_msun, sums: StackSums, layout: StackLayout, *, co
         zc = np.where(use, sums.model["wz"] / w, np.nan)
         inv_sigma_cr = np.where(use, sums.model["wi"] / w, 0.0)
     m = np.asarray(m200_msun, float)[..., None]
-    total = np.zeros(m.shape[:-1] + (layout.n_bins,))
+    total = np.zeros(m.shape[:-1] + (w.shape[1],))
     for i in np.flatnonzero(use.any(axis=1)):
         z_i = float(np.nansum(zc[i] * w[i]) / w[i].sum())
         halo = nfw_halo(m, c_of_m(m, z_i, h), z_i, layout.cosmo, halo_definition)
-        sigma = nfw_surface_density_msun_per_mpc2(r[i], halo)
-        ds = nfw_mean_surface_density_msun_per_mpc2(r[i], halo) - sigma + point_mass_msun / (np.pi * r[i] ** 2)
+        r_i = r[i]
+        sigma = nfw_surface_density_msun_per_mpc2(r_i, halo)
+        ds = nfw_mean_surface_density_msun_per_mpc2(r_i, halo) - sigma + point_mass_msun / (np.pi * r_i**2)
         # the data estimate Sigma_cr g = Delta Sigma / (1 - Sigma <Sigma_cr^-1>): reduced shear, common practice
         total = total + w[i] * ds / (1.0 - sigma * inv_sigma_cr[i])
+    # sub-bins to bins: weighted sums
+    n_b = layout.n_bins
+    total = total.reshape(total.shape[:-1] + (n_b, MODEL_SUBBINS)).sum(axis=-1)
     with np.errstate(invalid="ignore", divide="ignore"):
-        return total / w.sum(axis=0)
+        return total / w.sum(axis=0).reshape(n_b, MODEL_SUBBINS).sum(axis=-1)
 
 
 @dataclass
@@ -385,8 +395,9 @@ class StackFit:
 def fit_stack_nfw(profile: StackProfile, sums: StackSums, layout: StackLayout, *, concentration="duffy08",
                   halo_definition: str = "200c", point_mass_msun: float = 0.0,
                   r_fit_mpc: tuple[float, float] | None = None) -> StackFit:
-    """Fit the mean NFW M200 (plus a fixed central point mass) to the stacked Delta Sigma with the
-    Hartlap-debiased inverse jackknife covariance; grid posterior, median and 68% / 95% intervals."""
+    """Fit the mean NFW M200 (plus a fixed central point mass) to the stacked Delta Sigma with the jackknife
+    covariance: Sellentin & Heavens (2016) likelihood for a covariance estimated from the patches (chi^2 and
+    its p-value with the Hartlap-debiased inverse); grid posterior, median and 68% / 95% intervals."""
     from scipy import stats
 
     from lensmass.core.shear_fit import NFW_LOG10_MASS_RANGE, QUANTILES, _grid_minimum, _grid_quantiles, _refine_1d
@@ -418,7 +429,12 @@ def fit_stack_nfw(profile: StackProfile, sums: StackSums, layout: StackLayout, *
 
     lo, hi = NFW_LOG10_MASS_RANGE
     x, c = _refine_1d(chi2_of, lo, hi)
-    lnp = -0.5 * (c - np.min(c))
+    # likelihood of data with a covariance estimated from n_p samples (Sellentin & Heavens 2016, MNRAS 456,
+    # L132, eq. 12): (1 + chi2 / (n_p - 1))^(-n_p / 2) with chi2 from the sample covariance's inverse; wider
+    # than the Gaussian, as the noise of the jackknife covariance requires
+    chi2_raw = c / hartlap
+    lnp = -0.5 * n_p * np.log1p(chi2_raw / (n_p - 1))
+    lnp = lnp - np.max(lnp)
     q = 10.0 ** _grid_quantiles(x, lnp)
     best = 10.0 ** _grid_minimum(x, c)
     chi2 = float(chi2_of(np.log10(best)))

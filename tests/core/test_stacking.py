@@ -42,7 +42,7 @@ def _isolated_sis_field(sigma_kms=250.0, seed=5):
     nearest, sep, _ = src.match_to_catalog_sky(lens)
     l_c = lens[nearest]
     zl = lz[nearest]
-    d_ls = cosmo.angular_diameter_distance_z1z2(zl, sz)
+    d_ls = cosmo.angular_diameter_distance(zl, sz)
     d_s = cosmo.angular_diameter_distance(sz)
     theta_e = (4 * np.pi * (sigma_kms * u.km / u.s / c) ** 2 * d_ls / d_s).decompose().value * u.rad
     gamma_t = (theta_e / (2 * sep.to(u.rad))).decompose().value
@@ -60,22 +60,23 @@ def test_sis_stack_matches_sigma_squared_over_2GR():
                       n_patches=15, n_randoms=0)
     rows = r["profile"]
     for row in rows:
-        lo, hi = row["r_lo_mpc"] * u.Mpc, row["r_hi_mpc"] * u.Mpc
-        # mean of 1/R over pairs uniform in area within the bin: 2 / (lo + hi)
-        expected = ((sigma * u.km / u.s) ** 2 / (2 * G) * 2 / (lo + hi)).to_value(u.Msun / u.pc**2)
-        assert row["delta_sigma_msun_per_pc2"] == pytest.approx(expected, rel=0.01)
+        # at the bin's weighted mean radius; the bin average of 1/R exceeds 1/<R> by about (ln(hi/lo))^2 / 12
+        # = 0.3% for these bins (Jensen's inequality), hence 0.5%
+        expected = ((sigma * u.km / u.s) ** 2 / (2 * G * row["r_mean_mpc"] * u.Mpc)).to_value(u.Msun / u.pc**2)
+        assert row["delta_sigma_msun_per_pc2"] == pytest.approx(expected, rel=0.005)
         assert abs(row["delta_sigma_cross_msun_per_pc2"]) < 1e-3 * expected
     assert any("No random points" in n for n in r["notes"])
 
 
 def test_random_subtraction_removes_an_additive_shear_systematic():
-    # an additive (c1, c2) averages out of e_t only over full circles; near the field's edges it does not,
-    # and the same sums around random points carry it (Singh et al. 2017; common practice)
-    base = dict(n_lenses=150, n_sources=60000, m200_msun=1e14, cosmo=PLANCK, ra_range=(30.0, 31.0),
-                dec_range=(-0.5, 0.5), sigma_e=0.0, seed=3)
+    # an additive (c1, c2) averages out of e_t only over full circles; near the field's edges it does not
+    # (in a long strip the north and south edges dominate), and the same sums around random points carry it
+    # (Singh et al. 2017; common practice)
+    base = dict(n_lenses=150, n_sources=40000, m200_msun=1e14, cosmo=PLANCK, ra_range=(30.0, 33.0),
+                dec_range=(-0.25, 0.25), sigma_e=0.0, seed=3)
     clean = simulate_stack(**base)
     biased = simulate_stack(**base, additive=(0.03, -0.02))
-    opts = dict(cosmology=PLANCK, r_min_mpc=0.2, r_max_mpc=3.0, n_bins=6, n_patches=12, n_randoms=6000, seed=1)
+    opts = dict(cosmology=PLANCK, r_min_mpc=0.2, r_max_mpc=2.0, n_bins=5, n_patches=12, n_randoms=1500, seed=1)
     lens = (clean["lens_ra"], clean["lens_dec"], clean["lens_z"])
     a = analyse_stack(*lens, _blocks(clean), **opts)
     b = analyse_stack(*lens, _blocks(biased), **opts)
@@ -84,19 +85,23 @@ def test_random_subtraction_removes_an_additive_shear_systematic():
                           for p, q in zip(a["profile"], b["profile"])])
     shift = np.array([q["delta_sigma_msun_per_pc2"] - p["delta_sigma_msun_per_pc2"]
                       for p, q in zip(a["profile"], b["profile"])])
-    assert np.max(np.abs(raw_shift[-2:] / signal[-2:])) > 0.2  # the systematic is there around the lenses
-    assert np.all(np.abs(shift) < 0.15 * np.abs(raw_shift) + 0.02 * np.abs(signal))  # and removed
+    # the outer annuli cross the strip's edges: there the systematic shifts Delta Sigma by >20% of the signal
+    assert abs(raw_shift[-1]) > 0.2 * abs(signal[-1])
+    # and the random subtraction removes most of it (what remains, at small R too, is the sampling noise of
+    # the constant shear over a finite number of sources, which no subtraction can remove)
+    outer = slice(-3, None)
+    assert np.sqrt(np.mean(shift[outer] ** 2)) < 0.3 * np.sqrt(np.mean(raw_shift[outer] ** 2))
 
 
 @pytest.fixture(scope="module")
 def noise_runs():
-    """30 independent noise-dominated realisations (same lens count and field)."""
+    """40 independent realisations (same lens count and field), noise-dominated; haloes sheared within 1 Mpc."""
     out = []
-    for seed in range(30):
-        s = simulate_stack(n_lenses=120, n_sources=30000, m200_msun=3e13, cosmo=PLANCK, ra_range=(30.0, 31.2),
-                           dec_range=(-0.6, 0.6), seed=500 + seed)
+    for seed in range(40):
+        s = simulate_stack(n_lenses=100, n_sources=50000, m200_msun=3e13, cosmo=PLANCK, ra_range=(30.0, 31.2),
+                           dec_range=(-0.6, 0.6), truncate_mpc=1.0, seed=500 + seed)
         out.append(analyse_stack(s["lens_ra"], s["lens_dec"], s["lens_z"], _blocks(s), cosmology=PLANCK,
-                                 r_min_mpc=0.1, r_max_mpc=1.5, n_bins=5, n_patches=20, n_randoms=0, seed=seed))
+                                 r_min_mpc=0.2, r_max_mpc=1.0, n_bins=4, n_patches=20, n_randoms=0, seed=seed))
     return out
 
 
@@ -108,7 +113,7 @@ def test_jackknife_covariance_matches_the_scatter_over_realisations(noise_runs):
     assert abs(np.mean(ratio) - 1) < 0.2, ratio
     # the shape-noise error alone (sqrt(sum w^2 sigma_cr^2 e^2 / 2) / sum w) is of the same size
     noise = np.array([[row["shape_noise_err_msun_per_pc2"] ** 2 for row in r["profile"]] for r in noise_runs])
-    assert 0.6 < np.mean(noise.mean(axis=0) / ds.var(axis=0, ddof=1)) < 1.4
+    assert 0.7 < np.mean(noise.mean(axis=0) / ds.var(axis=0, ddof=1)) < 1.3
 
 
 def test_mean_m200_of_an_nfw_population_is_inside_its_95_percent_interval():
