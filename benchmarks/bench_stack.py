@@ -21,6 +21,8 @@ from pathlib import Path
 
 import numpy as np
 
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))  # this checkout's lensmass, here and in workers
+
 
 def coverage(n: int) -> None:
     from lensmass.core.cosmology import resolve_cosmology

@@ -2,8 +2,8 @@
 
 :class:`ClusterBlocks` offers the same ``total(fn)`` as an in-memory or streamed catalogue:
 each partition (one file) becomes one task that reads its rows on a worker and returns
-``fn``'s sums; the sums are added pairwise on the cluster, so only the final total (a few
-hundred kB for a shear profile) comes back. Workers read the files themselves: the paths
+``fn``'s sums (a few hundred kB for a shear profile, whatever the number of rows); the client
+adds them in partition order, as a single process does. Workers read the files themselves: the paths
 must be visible to them (a shared file system or the same machine).
 
 Connect with an address (``tcp://host:8786``, what ``dask scheduler`` prints) or pass a
@@ -12,7 +12,6 @@ Connect with an address (``tcp://host:8786``, what ``dask scheduler`` prints) or
 
 from __future__ import annotations
 
-import operator
 from typing import Any, Callable
 
 from lensmass.core.errors import LensInputError
@@ -38,16 +37,17 @@ def connect(address_or_client: Any):
                              "address (e.g. tcp://host:8786) and that the scheduler is running.") from None
 
 
-def tree_total(client, futures: list):
-    """Add futures pairwise on the cluster; the total's value."""
+def ordered_total(futures: list):
+    """Add the futures' results on the client, in partition order (the order a single process adds them,
+    so both give the same rounding); each result is released once added."""
     if not futures:
         raise LensInputError("There is nothing to add up: the catalogue has no partitions.")
-    while len(futures) > 1:
-        paired = [client.submit(operator.add, a, b, pure=False) for a, b in zip(futures[::2], futures[1::2])]
-        if len(futures) % 2:
-            paired.append(futures[-1])
-        futures = paired
-    return futures[0].result()
+    total = 0
+    for i, fut in enumerate(futures):
+        total = total + fut.result()
+        futures[i] = None
+        fut.release()
+    return total
 
 
 class ClusterBlocks:
@@ -69,7 +69,7 @@ class ClusterBlocks:
         futures = self.client.map(partition_total, [fn] * len(parts), parts, [self.files.block_rows] * len(parts),
                                   pure=False)
         try:
-            return tree_total(self.client, futures)
+            return ordered_total(futures)
         except LensInputError:
             raise
         except MemoryError:
