@@ -165,14 +165,14 @@ class Farthest:
 
 def farthest_usable(selection: tuple, block: CatalogBlock) -> Farthest:
     """The farthest usable galaxy of a block from the centre; ``selection`` = (ra0, dec0, z_l, z_s, z_margin)."""
-    from lensmass.core import shear_profile as sp
+    from lensmass.core import shear_geometry as sg, shear_profile as sp
 
     ra0, dec0, z_l, z_s, margin = selection
     far = Farthest(-np.inf, 0, {k: 0 for k in sp.DROP_REASONS})
     for start in range(0, block.n_rows, BLOCK_ROWS):
         sl = slice(start, start + BLOCK_ROWS)
-        x, y = sp._gnomonic(np.asarray(block.ra_deg[sl], float), np.asarray(block.dec_deg[sl], float), ra0, dec0)
-        theta = sp._radius(x, y)
+        x, y = sg._gnomonic(np.asarray(block.ra_deg[sl], float), np.asarray(block.dec_deg[sl], float), ra0, dec0)
+        theta = sg._radius(x, y)
         e1, e2 = np.asarray(block.e1[sl], float), np.asarray(block.e2[sl], float)
         w = np.ones_like(e1) if block.weight is None else np.asarray(block.weight[sl], float)
         z = None if (z_s is not None or block.z is None) else np.asarray(block.z[sl], float)
@@ -266,14 +266,14 @@ def catalog_block_sums(layout: SumLayout, ra_deg, dec_deg, e1, e2, weight=None, 
 
 def _add_piece(total: ShearSums, layout: SumLayout, ctx: _Context, ra, dec, e1, e2, w, z, first_row: int) -> None:
     """Add one cache-sized piece of rows to ``total`` (in place)."""
-    from lensmass.core import shear_profile as sp
+    from lensmass.core import shear_geometry as sg, shear_profile as sp
 
     ra, dec = np.asarray(ra, float), np.asarray(dec, float)
     e1, e2 = np.asarray(e1, float), np.asarray(e2, float)
     w = np.ones_like(e1) if w is None else np.asarray(w, float)
     z = None if z is None else np.asarray(z, float)
-    x, y = sp._gnomonic(ra, dec, float(layout.center_ra), float(layout.center_dec))
-    theta = sp._radius(x, y)
+    x, y = sg._gnomonic(ra, dec, float(layout.center_ra), float(layout.center_dec))
+    theta = sg._radius(x, y)
     ok, tally = sp.select_sources(e1, e2, w, z, layout.z_l, positions_ok=np.isfinite(theta), z_margin=layout.z_margin)
     for k, v in tally.items():
         total.dropped[k] += v
@@ -289,7 +289,7 @@ def _add_piece(total: ShearSums, layout: SumLayout, ctx: _Context, ra, dec, e1, 
     if index.size == 0:
         return
     t, xs, ys, g1, g2, ws = (a.take(index) for a in (theta, x, y, e1, e2, w))
-    e_t, e_x = sp._tangential_cross(g1, g2, xs, ys)
+    e_t, e_x = sg._tangential_cross(g1, g2, xs, ys)
     beta = np.full(t.size, ctx.beta_one) if z is None else ctx.beta_of(z.take(index))
     with np.errstate(divide="ignore"):
         sc = sigma_crit_msun_per_mpc2(ctx.d_l, 1.0, beta)  # D_s / D_ls = 1 / beta
@@ -312,12 +312,20 @@ def _add_piece(total: ShearSums, layout: SumLayout, ctx: _Context, ra, dec, e1, 
                 total.boot[..., j] += np.bincount(key, weights=values, minlength=size).reshape(BOOTSTRAP_GROUPS, -1)
 
 
+def galaxy_layout(edges_arcsec, *, bootstrap: bool = False, seed: int | None = 0) -> SumLayout:
+    """A layout for galaxies already selected and rotated (no centre, lens or cosmology needed)."""
+    return SumLayout(0.0, 0.0, float("nan"), None, tuple(float(e) for e in np.asarray(edges_arcsec, float)),
+                     bootstrap=bootstrap, seed=int(0 if seed is None else seed))
+
+
 def galaxy_sums(layout: SumLayout, theta_arcsec, e_t, e_x, weight, beta=None, sigma_cr=None,
                 first_row: int = 0) -> ShearSums:
     """Sums of galaxies already selected and rotated (radius, e_t, e_x, weight, D_ls / D_s and Sigma_cr
     per galaxy or one value); the route of :func:`lensmass.core.shear_profile.shear_profile`."""
+    from lensmass.core import shear_profile as sp
+
     total = empty_sums(layout)
-    ctx = _context(layout)
+    fine_index = sp._fine_indexer(np.asarray(layout.edges_arcsec, float), RADIAL_SUBBINS)
     theta = np.asarray(theta_arcsec, float)
     n = theta.size
     cols = [np.broadcast_to(np.asarray(a, float), theta.shape) for a in (e_t, e_x, weight)]
@@ -329,7 +337,7 @@ def galaxy_sums(layout: SumLayout, theta_arcsec, e_t, e_x, weight, beta=None, si
         t = theta[sl]
         et, ex, w = (c[sl] for c in cols)
         b = np.ones_like(t) if beta_a is None else beta_a[sl]
-        fine = ctx.fine_index(t)
+        fine = fine_index(t)
         bq = np.clip((b * BETA_CELLS).astype(np.intp), 0, BETA_CELLS - 1)
         cell = np.where(fine >= 0, fine * BETA_CELLS + bq, layout.n_cells)
         _accumulate(total.cells, cell, layout.n_cells, t, et, ex, w, b, None if sc_a is None else sc_a[sl], keys)
@@ -374,7 +382,7 @@ def _accumulate(out: dict, cell, size: int, theta, e_t, e_x, w, beta, sc, keys) 
 
 
 def profile_from_sums(sums: ShearSums, layout: SumLayout, *, n_bootstrap: int = 0, with_sigma_cr: bool = True,
-                      with_model_cells: bool = True):
+                      with_model_cells: bool = True, d_l_mpc: float | None = None):
     """The :class:`lensmass.core.shear_profile.ShearProfile` of summed rows.
 
     Means, shape-noise errors (both components pooled), Delta Sigma and its error come from
@@ -417,7 +425,7 @@ def profile_from_sums(sums: ShearSums, layout: SumLayout, *, n_bootstrap: int = 
     fine_profile = sp.FineProfile(sp._fine_edges(edges, RADIAL_SUBBINS), ft, ferr, fds, fds_err)
     with np.errstate(invalid="ignore", divide="ignore"):
         beta_mean = float(cell["wbeta"].sum() / cell["w"].sum()) if count.sum() else float("nan")
-    d_l = _context(layout).d_l
+    d_l = d_l_mpc if layout.cosmo is None else _context(layout).d_l
     return sp.ShearProfile(edges, r_mean, count, wsum, g_t, err, g_x, err.copy(), boot_t, boot_x,
                            ds, ds_err, cells, beta_mean, d_l, fine_profile)
 
