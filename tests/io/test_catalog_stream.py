@@ -221,3 +221,18 @@ def test_unreachable_scheduler_is_one_sentence(sim, tmp_path, capsys, monkeypatc
                  "--scheduler", "tcp://127.0.0.1:9"])
     err = capsys.readouterr().err
     assert code == 2 and "Cannot reach the Dask scheduler" in err and len(err.strip().splitlines()) == 1
+
+
+def test_a_catalogue_too_large_for_memory_is_one_sentence_naming_the_size(sim, tmp_path, monkeypatch):
+    # the free memory is made to look tiny; the in-memory reader must say how much it needs and the way out
+    import os
+
+    from lensmass.io.catalogs import read_shear_catalog
+
+    path = tmp_path / "one.fits"
+    write_shear_catalog_fits(path, _columns(sim))
+    real = os.sysconf
+    monkeypatch.setattr(os, "sysconf", lambda name: 1 if name == "SC_AVPHYS_PAGES" else real(name))
+    with pytest.raises(LensInputError, match=r"Reading the 20,000 rows of 'one.fits' into memory needs about "
+                                             r"[0-9.]+ GB but 0.0 GB is free: leave out --map-out"):
+        read_shear_catalog(path)
