@@ -27,7 +27,7 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))  # this checkout's lensmass, here and in workers
 
 RA0, DEC0, ZL = 141.372, 18.2705, 0.35
-OPTIONS = dict(z_l=ZL, center_ra=RA0, center_dec=DEC0, r_min=1.0, r_max=60.0, n_bins=10, n_bootstrap=100)
+OPTIONS = {"z_l": ZL, "center_ra": RA0, "center_dec": DEC0, "r_min": 1.0, "r_max": 60.0, "n_bins": 10, "n_bootstrap": 100}
 
 
 def write_catalogue(folder: Path, n: int, n_files: int) -> None:
@@ -92,7 +92,7 @@ def child(mode: str, folder: str, scheduler: str | None) -> dict:
 def run_child(mode: str, folder: Path, scheduler: str | None = None) -> dict:
     env = dict(os.environ, PYTHONPATH=str(Path(__file__).resolve().parents[1]))
     cmd = [sys.executable, __file__, "--child", mode, str(folder)] + (["--scheduler", scheduler] if scheduler else [])
-    done = subprocess.run(cmd, env=env, capture_output=True, text=True)
+    done = subprocess.run(cmd, env=env, capture_output=True, text=True, check=False)
     if done.returncode:
         raise SystemExit(f"{mode} run failed:\n{done.stderr[-2000:]}")
     return json.loads(done.stdout.strip().splitlines()[-1])

@@ -71,7 +71,7 @@ def test_streamed_stack_equals_in_memory_and_writes_its_profile(files, tmp_path,
 
 
 def test_readable_table_writes_delta_sigma_out(files, capsys):
-    s, folder, lenses = files
+    _s, folder, lenses = files
     assert main(["stack", str(folder), "--lenses", str(lenses), "--lens-columns", "z=ZSPEC", "--columns", "z=Z_B",
                  *ARGS]) == 0
     out = capsys.readouterr().out
@@ -95,7 +95,7 @@ def test_stack_on_a_dask_cluster_equals_in_memory(files, capsys):
     (["--patches", "1"], "at least 2 patches"),
 ])
 def test_bad_input_one_line(files, capsys, extra, needle):
-    s, folder, lenses = files
+    _s, folder, lenses = files
     args = ["stack", str(folder), "--lenses", str(lenses), "--lens-columns", "z=ZSPEC", "--columns", "z=Z_B"]
     code = main(args + extra)
     err = capsys.readouterr().err

@@ -7,8 +7,8 @@ import math
 
 from lensmass.commands.common import (
     add_cosmology_options,
-    add_scheduler_option,
     add_halo_options,
+    add_scheduler_option,
     cosmology_from_args,
     format_number,
     format_table,
@@ -114,11 +114,12 @@ def run_shear(args: argparse.Namespace, progress=None) -> dict:
     cosmo = cosmology_from_args(args)
     zeta = parse_pair(args.zeta_radii, "--zeta-radii") if args.zeta_radii else None
     specs = args.catalog if isinstance(args.catalog, list) else [args.catalog]
-    options = dict(z_l=args.zl, z_s=args.zs, center_ra=center_ra, center_dec=center_dec,
-                   r_min=args.rmin, r_max=args.rmax, n_bins=args.bins, unit=args.unit, log_bins=not args.linear_bins,
-                   cosmology=cosmo, concentration=args.concentration, halo_definition=args.halo_definition,
-                   free_concentration=args.free_concentration, n_bootstrap=args.bootstrap, seed=args.seed,
-                   zeta_radii=zeta, z_margin=args.zs_margin, progress=progress)
+    options = {"z_l": args.zl, "z_s": args.zs, "center_ra": center_ra, "center_dec": center_dec,
+               "r_min": args.rmin, "r_max": args.rmax, "n_bins": args.bins, "unit": args.unit,
+               "log_bins": not args.linear_bins, "cosmology": cosmo, "concentration": args.concentration,
+               "halo_definition": args.halo_definition, "free_concentration": args.free_concentration,
+               "n_bootstrap": args.bootstrap, "seed": args.seed, "zeta_radii": zeta, "z_margin": args.zs_margin,
+               "progress": progress}
     if getattr(args, "map_out", None):
         if len(specs) > 1 or getattr(args, "scheduler", None):
             raise LensInputError("--map-out needs the catalogue in memory: give one catalogue file and no "
@@ -176,8 +177,8 @@ def display_rows(result: dict) -> list[tuple[str, str, str]]:
 
 
 def format_profile(result: dict) -> str:
-    lines = ["", f"{'R [arcsec]':>11}{'R [kpc]':>9}{'N':>7}{'g_t':>9}{'err':>8}{'g_x':>9}{'err':>8}"
-             f"{'SIS':>8}{'NFW':>8}{'Delta Sigma':>13}"]
+    lines = ["", (f"{'R [arcsec]':>11}{'R [kpc]':>9}{'N':>7}{'g_t':>9}{'err':>8}{'g_x':>9}{'err':>8}"
+                  f"{'SIS':>8}{'NFW':>8}{'Delta Sigma':>13}")]
     for r in result["profile"]:
         vals = [r["g_t"], r["g_t_err"], r["g_x"], r["g_x_err"], r["g_t_model_sis"], r["g_t_model_nfw"]]
         cells = "".join(f"{v:>9.4f}" if i % 2 == 0 else f"{v:>8.4f}" for i, v in enumerate(vals[:4]))

@@ -90,7 +90,7 @@ class ShearSums:
     n_near: int = 0
     dropped: dict[str, int] = field(default_factory=dict)
 
-    def __add__(self, other: "ShearSums") -> "ShearSums":
+    def __add__(self, other: ShearSums) -> ShearSums:
         if isinstance(other, int) and other == 0:  # the start of ``sum()``
             return self
         return ShearSums(
@@ -154,7 +154,7 @@ class Farthest:
     n_usable: int
     dropped: dict[str, int]
 
-    def __add__(self, other: "Farthest") -> "Farthest":
+    def __add__(self, other: Farthest) -> Farthest:
         if isinstance(other, int) and other == 0:
             return self
         return Farthest(max(self.theta_max_arcsec, other.theta_max_arcsec), self.n_usable + other.n_usable,

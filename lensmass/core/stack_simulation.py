@@ -18,10 +18,13 @@ from itertools import chain
 import numpy as np
 
 from lensmass.core.concentration import concentration_relation
-from lensmass.core.constants import C2_OVER_4PIG_MSUN_PER_MPC
 from lensmass.core.cosmology import distance_grid, little_h
-from lensmass.core.shear_simulation import apply_reduced_shear, intrinsic_ellipticities, smail_redshifts
-from lensmass.core.stacking import unit_vectors
+from lensmass.core.shear_simulation import (
+    apply_reduced_shear,
+    intrinsic_ellipticities,
+    smail_redshifts,
+)
+from lensmass.core.stacking import pair_offsets, pair_sigma_cr, unit_vectors
 
 
 def uniform_sky(n: int, ra_range, dec_range, rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
@@ -53,7 +56,6 @@ def simulate_stack(*, n_lenses: int, n_sources: int, m200_msun: float, cosmo, ra
     dc_l = grid.comoving_mpc(lz)
     d_l = grid.transverse_mpc(dc_l) / (1 + lz)
     dc_s = grid.comoving_mpc(sz)
-    d_s = grid.transverse_mpc(dc_s) / (1 + sz)
     gamma = np.zeros(n_sources, complex)
     kappa = np.zeros(n_sources)
     tree = cKDTree(unit_vectors(sra, sdec))
@@ -67,14 +69,11 @@ def simulate_stack(*, n_lenses: int, n_sources: int, m200_msun: float, cosmo, ra
         j, i = j_all[start:start + (1 << 20)], i_all[start:start + (1 << 20)]
         behind = sz[j] > lz[i]
         j, i = j[behind], i[behind]
-        d_ra = np.radians(sra[j] - lra[i])
         dl_, ds_ = np.radians(ldec[i]), np.radians(sdec[j])
-        x = np.cos(ds_) * np.sin(d_ra)
-        y = np.cos(dl_) * np.sin(ds_) - np.sin(dl_) * np.cos(ds_) * np.cos(d_ra)
-        cos_c = np.sin(dl_) * np.sin(ds_) + np.cos(dl_) * np.cos(ds_) * np.cos(d_ra)
-        r = d_l[i] * np.arctan2(np.hypot(x, y), cos_c)
-        d_ls = grid.transverse_mpc(dc_s[j] - dc_l[i]) / (1 + sz[j])
-        sigma_cr = C2_OVER_4PIG_MSUN_PER_MPC * d_s[j] / (d_l[i] * d_ls)
+        x, y, theta = pair_offsets(np.radians(lra[i]), np.sin(dl_), np.cos(dl_), np.radians(sra[j]), np.sin(ds_),
+                                   np.cos(ds_))
+        r = d_l[i] * theta
+        sigma_cr = pair_sigma_cr(grid, dc_l[i], d_l[i], dc_s[j], sz[j])
         halo = nfw_halo(m[i], c_l[i], lz[i], cosmo, halo_definition)
         g_t = nfw_shear(r, halo, sigma_cr)
         phi = np.arctan2(y, x)

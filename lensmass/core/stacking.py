@@ -33,7 +33,6 @@ unit vectors.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from itertools import chain
 from typing import Any
 
 import numpy as np
@@ -101,7 +100,7 @@ class StackSums:
     def __add__(self, other):
         if isinstance(other, int) and other == 0:
             return self
-        add = lambda a, b: {k: v + b[k] for k, v in a.items()}  # noqa: E731
+        add = lambda a, b: {k: v + b[k] for k, v in a.items()}
         return StackSums(add(self.lens, other.lens), add(self.random, other.random), add(self.model, other.model),
                          self.n_sources + other.n_sources, self.n_sources_used + other.n_sources_used)
 
@@ -229,15 +228,8 @@ def _pair_sums(layout: StackLayout, grid, points: PointSet, src: dict, tree, tar
             j, li, zs, zl = j.take(keep), li.take(keep), zs.take(keep), zl.take(keep)
         if j.size == 0:
             continue
-        # separation and direction of the source seen from the lens (tangent plane at the lens)
-        d_ra = src["ra"].take(j) - ra_l.take(li)
-        cds, sds = src["cos_dec"].take(j), src["sin_dec"].take(j)
-        cl, sl_ = cos_l.take(li), sin_l.take(li)
-        cos_dra = np.cos(d_ra)
-        x = cds * np.sin(d_ra)
-        y = cl * sds - sl_ * cds * cos_dra
-        cos_c = sl_ * sds + cl * cds * cos_dra
-        theta = np.arctan2(np.hypot(x, y), cos_c)
+        x, y, theta = pair_offsets(ra_l.take(li), sin_l.take(li), cos_l.take(li), src["ra"].take(j),
+                                   src["sin_dec"].take(j), src["cos_dec"].take(j))
         r = d_l.take(li) * theta
         b = np.searchsorted(edges, r, side="right") - 1
         inside = (b >= 0) & (b < n_bins)
@@ -253,9 +245,7 @@ def _pair_sums(layout: StackLayout, grid, points: PointSet, src: dict, tree, tar
         g1, g2 = src["e1"].take(j), src["e2"].take(j)
         e_t = -(g1 * cos2 + g2 * sin2)
         e_x = g1 * sin2 - g2 * cos2
-        d_ls = grid.transverse_mpc(src["dc"].take(j) - dc_l.take(li)) / (1 + zs)
-        d_s = grid.transverse_mpc(src["dc"].take(j)) / (1 + zs)
-        sigma_cr = C2_OVER_4PIG_MSUN_PER_MPC * d_s / (d_l.take(li) * d_ls)
+        sigma_cr = pair_sigma_cr(grid, dc_l.take(li), d_l.take(li), src["dc"].take(j), zs)
         wls = points.weight.take(li) * src["w"].take(j) / (sigma_cr * sigma_cr)
         key = points.patch.take(li) * n_bins + b
         size = layout.n_patches * n_bins
@@ -272,6 +262,24 @@ def _pair_sums(layout: StackLayout, grid, points: PointSet, src: dict, tree, tar
             n_m = n_bins * MODEL_SUBBINS
             for k, v in (("w", wls), ("wr", wls * r), ("wz", wls * zl), ("wi", wls / sigma_cr)):
                 model[k] += np.bincount(mkey, weights=v, minlength=n_z * n_m).reshape(n_z, n_m)
+
+
+def pair_offsets(ra_l_rad, sin_dec_l, cos_dec_l, ra_s_rad, sin_dec_s, cos_dec_s):
+    """Direction (x east, y north, unnormalised) and true angle (rad) of each source seen from its lens:
+    the tangent plane at the lens (Calabretta & Greisen 2002, zenithal projection)."""
+    d_ra = ra_s_rad - ra_l_rad
+    cos_dra = np.cos(d_ra)
+    x = cos_dec_s * np.sin(d_ra)
+    y = cos_dec_l * sin_dec_s - sin_dec_l * cos_dec_s * cos_dra
+    cos_c = sin_dec_l * sin_dec_s + cos_dec_l * cos_dec_s * cos_dra
+    return x, y, np.arctan2(np.hypot(x, y), cos_c)
+
+
+def pair_sigma_cr(grid, dc_l_mpc, d_l_mpc, dc_s_mpc, z_s):
+    """Sigma_cr (Msun / Mpc^2) of lens-source pairs from comoving distances (Hogg 1999, eqs. 16 and 19)."""
+    d_ls = grid.transverse_mpc(dc_s_mpc - dc_l_mpc) / (1 + z_s)
+    d_s = grid.transverse_mpc(dc_s_mpc) / (1 + z_s)
+    return C2_OVER_4PIG_MSUN_PER_MPC * d_s / (d_l_mpc * d_ls)
 
 
 @dataclass
@@ -312,7 +320,7 @@ def stack_profile(sums: StackSums, layout: StackLayout, lenses: PointSet, random
     """Delta Sigma(R), its parts and the jackknife covariance from the summed pairs."""
     lw = np.bincount(lenses.patch, weights=lenses.weight, minlength=layout.n_patches)
     rw = None if randoms is None else np.bincount(randoms.patch, weights=randoms.weight, minlength=layout.n_patches)
-    total = lambda d: {k: v.sum(axis=0) for k, v in d.items()}  # noqa: E731
+    total = lambda d: {k: v.sum(axis=0) for k, v in d.items()}
     lens_t = total(sums.lens)
     rand_t = total(sums.random) if randoms is not None else None
     if randoms is not None and rand_t is not None and np.any((lens_t["w"] > 0) & ~(rand_t["w"] > 0)):
@@ -350,7 +358,11 @@ def nfw_delta_sigma_model(m200_msun, sums: StackSums, layout: StackLayout, *, co
     reduced shear), averaged over the cells with the pairs' weights."""
     from lensmass.core.concentration import concentration_relation
     from lensmass.core.cosmology import little_h
-    from lensmass.core.nfw import nfw_halo, nfw_mean_surface_density_msun_per_mpc2, nfw_surface_density_msun_per_mpc2
+    from lensmass.core.nfw import (
+        nfw_halo,
+        nfw_mean_surface_density_msun_per_mpc2,
+        nfw_surface_density_msun_per_mpc2,
+    )
 
     c_of_m, _ = concentration_relation(concentration, halo_definition)
     h = little_h(layout.cosmo)
@@ -400,7 +412,13 @@ def fit_stack_nfw(profile: StackProfile, sums: StackSums, layout: StackLayout, *
     its p-value with the Hartlap-debiased inverse); grid posterior, median and 68% / 95% intervals."""
     from scipy import stats
 
-    from lensmass.core.shear_fit import NFW_LOG10_MASS_RANGE, QUANTILES, _grid_minimum, _grid_quantiles, _refine_1d
+    from lensmass.core.shear_fit import (
+        NFW_LOG10_MASS_RANGE,
+        QUANTILES,
+        _grid_minimum,
+        _grid_quantiles,
+        _refine_1d,
+    )
 
     use = np.isfinite(profile.delta_sigma) & (profile.n_pairs > 0) & np.all(np.isfinite(profile.covariance), axis=0)
     if r_fit_mpc is not None:

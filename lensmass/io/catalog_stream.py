@@ -19,9 +19,9 @@ from __future__ import annotations
 
 import glob
 import os
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Callable, Iterator
 
 import numpy as np
 

@@ -12,7 +12,8 @@ Connect with an address (``tcp://host:8786``, what ``dask scheduler`` prints) or
 
 from __future__ import annotations
 
-from typing import Any, Callable
+from collections.abc import Callable
+from typing import Any
 
 from lensmass.core.errors import LensInputError
 

@@ -27,7 +27,7 @@ def read_point_catalog(path, columns=None, *, what: str = "lens") -> dict[str, n
     mapping = parse_column_map(columns) if isinstance(columns, str) or columns is None else dict(columns)
     unknown = set(mapping) - set(POINT_ROLES)
     if unknown:
-        raise LensInputError(f"Unknown role '{sorted(unknown)[0]}' for the {what} catalogue: use ra, dec, z, weight.")
+        raise LensInputError(f"Unknown role '{min(unknown)}' for the {what} catalogue: use ra, dec, z, weight.")
     try:
         names = _column_names(path, fmt)
         lower = {n.lower(): n for n in names}

@@ -72,11 +72,11 @@ def test_random_subtraction_removes_an_additive_shear_systematic():
     # an additive (c1, c2) averages out of e_t only over full circles; near the field's edges it does not
     # (in a long strip the north and south edges dominate), and the same sums around random points carry it
     # (Singh et al. 2017; common practice)
-    base = dict(n_lenses=150, n_sources=40000, m200_msun=1e14, cosmo=PLANCK, ra_range=(30.0, 33.0),
-                dec_range=(-0.25, 0.25), sigma_e=0.0, seed=3)
+    base = {"n_lenses": 150, "n_sources": 40000, "m200_msun": 1e14, "cosmo": PLANCK, "ra_range": (30.0, 33.0),
+                "dec_range": (-0.25, 0.25), "sigma_e": 0.0, "seed": 3}
     clean = simulate_stack(**base)
     biased = simulate_stack(**base, additive=(0.03, -0.02))
-    opts = dict(cosmology=PLANCK, r_min_mpc=0.2, r_max_mpc=2.0, n_bins=5, n_patches=12, n_randoms=1500, seed=1)
+    opts = {"cosmology": PLANCK, "r_min_mpc": 0.2, "r_max_mpc": 2.0, "n_bins": 5, "n_patches": 12, "n_randoms": 1500, "seed": 1}
     lens = (clean["lens_ra"], clean["lens_dec"], clean["lens_z"])
     a = analyse_stack(*lens, _blocks(clean), **opts)
     b = analyse_stack(*lens, _blocks(biased), **opts)
@@ -139,7 +139,7 @@ def test_point_mass_for_the_stars_lowers_the_halo_mass():
     # common practice: a central M_*/(pi R^2) term takes the inner signal that an NFW-only fit gives the halo
     s = simulate_stack(n_lenses=200, n_sources=80000, m200_msun=1e14, cosmo=PLANCK, ra_range=(30.0, 31.5),
                        dec_range=(-0.75, 0.75), seed=2)
-    opts = dict(cosmology=PLANCK, r_min_mpc=0.1, r_max_mpc=1.5, n_bins=6, n_patches=24, n_randoms=600)
+    opts = {"cosmology": PLANCK, "r_min_mpc": 0.1, "r_max_mpc": 1.5, "n_bins": 6, "n_patches": 24, "n_randoms": 600}
     bare = analyse_stack(s["lens_ra"], s["lens_dec"], s["lens_z"], _blocks(s), **opts)
     stars = analyse_stack(s["lens_ra"], s["lens_dec"], s["lens_z"], _blocks(s), point_mass_msun=5e12, **opts)
     assert stars["mean_halo_m200_msun"] < bare["mean_halo_m200_msun"]

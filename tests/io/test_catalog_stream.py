@@ -8,14 +8,15 @@ which tests/core/test_shear_profile.py checks against astropy distances.
 
 from __future__ import annotations
 
+import itertools
 import json
 
+import astropy.units as u
 import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 from astropy.coordinates import SkyCoord
-import astropy.units as u
 
 from lensmass.cli import main
 from lensmass.core.cosmology import resolve_cosmology
@@ -28,7 +29,7 @@ from lensmass.io.distributed import ClusterBlocks
 
 RA0, DEC0, ZL = 141.372, 18.2705, 0.35
 COSMO = resolve_cosmology("Planck18")
-OPTIONS = dict(z_l=ZL, center_ra=RA0, center_dec=DEC0, cosmology=COSMO, n_bootstrap=40)
+OPTIONS = {"z_l": ZL, "center_ra": RA0, "center_dec": DEC0, "cosmology": COSMO, "n_bootstrap": 40}
 PROFILE_FIELDS = ("n_galaxies", "weight_sum", "r_mean_arcsec", "g_t", "g_t_err", "g_x", "g_t_err_boot",
                   "delta_sigma_msun_per_mpc2", "delta_sigma_err_msun_per_mpc2")
 RESULT_KEYS = ("n_rows", "n_used", "sis_sigma_v_kms", "nfw_m200_msun", "nfw_c200", "chi2_sis", "chi2_nfw",
@@ -103,7 +104,7 @@ def test_parquet_folder_streams_to_the_in_memory_numbers(sim, tmp_path):
 def test_several_files_a_glob_and_fits_slices_give_the_same_numbers(sim, tmp_path):
     n = sim["ra"].size
     cuts = [0, 6000, 6001, 14000, n]
-    for k, (lo, hi) in enumerate(zip(cuts[:-1], cuts[1:])):
+    for k, (lo, hi) in enumerate(itertools.pairwise(cuts)):
         write_shear_catalog_fits(tmp_path / f"tile{k}.fits", _columns(sim, slice(lo, hi)))
     a = _in_memory(sim)
     listed = [tmp_path / f"tile{k}.fits" for k in range(4)]
