@@ -76,3 +76,8 @@ class ClusterBlocks:
         except MemoryError:
             raise LensInputError("A Dask worker ran out of memory: give the workers more memory, or split the "
                                  "catalogue into smaller files.") from None
+        except (ImportError, RuntimeError, OSError) as exc:  # a worker without lensmass, a lost worker, a path
+            first = str(exc).strip().splitlines()[0] if str(exc).strip() else ""
+            raise LensInputError(f"The Dask cluster could not finish the work ({type(exc).__name__}: {first[:160]}): "
+                                 "every worker needs the same lensmass version and must see the catalogue at the "
+                                 "same path.") from None
