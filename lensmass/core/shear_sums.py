@@ -165,10 +165,10 @@ class Farthest:
 
 def farthest_usable(selection: tuple, block: CatalogBlock) -> Farthest:
     """The farthest usable galaxy of a block from the centre; ``selection`` = (ra0, dec0, z_l, z_s, z_margin)."""
-    from lensmass.core import shear_geometry as sg, shear_profile as sp
+    from lensmass.core import shear_geometry as sg, shear_sources as ss
 
     ra0, dec0, z_l, z_s, margin = selection
-    far = Farthest(-np.inf, 0, {k: 0 for k in sp.DROP_REASONS})
+    far = Farthest(-np.inf, 0, {k: 0 for k in ss.DROP_REASONS})
     for start in range(0, block.n_rows, BLOCK_ROWS):
         sl = slice(start, start + BLOCK_ROWS)
         x, y = sg._gnomonic(np.asarray(block.ra_deg[sl], float), np.asarray(block.dec_deg[sl], float), ra0, dec0)
@@ -176,7 +176,7 @@ def farthest_usable(selection: tuple, block: CatalogBlock) -> Farthest:
         e1, e2 = np.asarray(block.e1[sl], float), np.asarray(block.e2[sl], float)
         w = np.ones_like(e1) if block.weight is None else np.asarray(block.weight[sl], float)
         z = None if (z_s is not None or block.z is None) else np.asarray(block.z[sl], float)
-        ok, tally = sp.select_sources(e1, e2, w, z, z_l, positions_ok=np.isfinite(theta), z_margin=margin)
+        ok, tally = ss.select_sources(e1, e2, w, z, z_l, positions_ok=np.isfinite(theta), z_margin=margin)
         n_ok = int(np.count_nonzero(ok))
         part = Farthest(float(np.max(theta, where=ok, initial=-np.inf)) if n_ok else -np.inf, n_ok, tally)
         far = far + part
@@ -197,9 +197,9 @@ class _Context:
     """Per-layout constants a block needs (distances, indexers), built once per process."""
 
     def __init__(self, layout: SumLayout):
-        from lensmass.core import shear_profile as sp
+        from lensmass.core import shear_profile as sp, shear_sources as ss
 
-        self.d_l = sp.lens_distance_mpc(layout.z_l, layout.cosmo)
+        self.d_l = ss.lens_distance_mpc(layout.z_l, layout.cosmo)
         edges = np.asarray(layout.edges_arcsec, float)
         self.lo, self.hi = float(edges[0]), float(edges[-1])
         self.fine_index = sp._fine_indexer(edges, RADIAL_SUBBINS)
@@ -209,11 +209,11 @@ class _Context:
             self.ann_index = sp._fine_indexer(ann, 1)
             self.n_ann = ann.size - 1
         if layout.z_s is None:
-            table = sp._beta_table(layout.z_l, layout.cosmo)
-            self.beta_of = lambda z: sp._beta_from_table(z, layout.z_l, table, layout.cosmo)
+            table = ss._beta_table(layout.z_l, layout.cosmo)
+            self.beta_of = lambda z: ss._beta_from_table(z, layout.z_l, table, layout.cosmo)
             self.beta_one = None
         else:
-            self.beta_one = float(sp.lensing_efficiency(layout.z_l, np.array([float(layout.z_s)]), layout.cosmo)[0][0])
+            self.beta_one = float(ss.lensing_efficiency(layout.z_l, np.array([float(layout.z_s)]), layout.cosmo)[0][0])
 
 
 _CONTEXTS: dict[tuple, _Context] = {}
@@ -266,7 +266,7 @@ def catalog_block_sums(layout: SumLayout, ra_deg, dec_deg, e1, e2, weight=None, 
 
 def _add_piece(total: ShearSums, layout: SumLayout, ctx: _Context, ra, dec, e1, e2, w, z, first_row: int) -> None:
     """Add one cache-sized piece of rows to ``total`` (in place)."""
-    from lensmass.core import shear_geometry as sg, shear_profile as sp
+    from lensmass.core import shear_geometry as sg, shear_sources as ss
 
     ra, dec = np.asarray(ra, float), np.asarray(dec, float)
     e1, e2 = np.asarray(e1, float), np.asarray(e2, float)
@@ -274,7 +274,7 @@ def _add_piece(total: ShearSums, layout: SumLayout, ctx: _Context, ra, dec, e1, 
     z = None if z is None else np.asarray(z, float)
     x, y = sg._gnomonic(ra, dec, float(layout.center_ra), float(layout.center_dec))
     theta = sg._radius(x, y)
-    ok, tally = sp.select_sources(e1, e2, w, z, layout.z_l, positions_ok=np.isfinite(theta), z_margin=layout.z_margin)
+    ok, tally = ss.select_sources(e1, e2, w, z, layout.z_l, positions_ok=np.isfinite(theta), z_margin=layout.z_margin)
     for k, v in tally.items():
         total.dropped[k] += v
     with np.errstate(invalid="ignore"):
