@@ -100,3 +100,15 @@ def test_bad_input_one_line(files, capsys, extra, needle):
     code = main(args + extra)
     err = capsys.readouterr().err
     assert code == 2 and needle in err and len(err.strip().splitlines()) == 1
+
+
+def test_every_stack_key_is_in_the_registry(files, capsys):
+    # one source for each fact about a number: the key registry (lensmass.core.result_keys)
+    from lensmass.core.result_keys import RESULT_KEYS
+
+    s, folder, lenses = files
+    assert main(["stack", str(folder), "--lenses", str(lenses), "--lens-columns", "z=ZSPEC", "--columns", "z=Z_B",
+                 *ARGS, "--json"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    missing = [k for k in list(out) + list(out["profile"][0]) if k not in RESULT_KEYS]
+    assert not missing, missing
