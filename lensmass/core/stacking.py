@@ -100,7 +100,9 @@ class StackSums:
     def __add__(self, other):
         if isinstance(other, int) and other == 0:
             return self
-        add = lambda a, b: {k: v + b[k] for k, v in a.items()}
+        def add(a, b):
+            return {k: v + b[k] for k, v in a.items()}
+
         return StackSums(add(self.lens, other.lens), add(self.random, other.random), add(self.model, other.model),
                          self.n_sources + other.n_sources, self.n_sources_used + other.n_sources_used)
 
@@ -320,7 +322,9 @@ def stack_profile(sums: StackSums, layout: StackLayout, lenses: PointSet, random
     """Delta Sigma(R), its parts and the jackknife covariance from the summed pairs."""
     lw = np.bincount(lenses.patch, weights=lenses.weight, minlength=layout.n_patches)
     rw = None if randoms is None else np.bincount(randoms.patch, weights=randoms.weight, minlength=layout.n_patches)
-    total = lambda d: {k: v.sum(axis=0) for k, v in d.items()}
+    def total(d):
+        return {k: v.sum(axis=0) for k, v in d.items()}
+
     lens_t = total(sums.lens)
     rand_t = total(sums.random) if randoms is not None else None
     if randoms is not None and rand_t is not None and np.any((lens_t["w"] > 0) & ~(rand_t["w"] > 0)):
@@ -329,12 +333,12 @@ def stack_profile(sums: StackSums, layout: StackLayout, lenses: PointSet, random
     ds, ds_l, ds_r, b, dx = _estimate(lens_t, rand_t, lw.sum(), 0 if rw is None else rw.sum(), boost)
     # delete-one jackknife over the patches that hold lenses
     patches = np.flatnonzero(lw > 0)
-    jk = []
+    rows = []
     for k in patches:
         lens_k = {key: lens_t[key] - sums.lens[key][k] for key in lens_t}
         rand_k = None if rand_t is None else {key: rand_t[key] - sums.random[key][k] for key in rand_t}
-        jk.append(_estimate(lens_k, rand_k, lw.sum() - lw[k], 0 if rw is None else rw.sum() - rw[k], boost)[0])
-    jk = np.array(jk)
+        rows.append(_estimate(lens_k, rand_k, lw.sum() - lw[k], 0 if rw is None else rw.sum() - rw[k], boost)[0])
+    jk = np.array(rows)
     n_p = jk.shape[0]
     with np.errstate(invalid="ignore"):
         dev = jk - jk.mean(axis=0)
