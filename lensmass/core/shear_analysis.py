@@ -3,6 +3,10 @@
 The window and the ``lensmass shear`` command both call :func:`analyse_shear_catalog`,
 so every number has one source. Each number is labelled in ``models`` with the model
 and assumptions behind it.
+
+Longer than 500 lines because it holds both entry points (arrays in memory and blocks from files or a
+cluster) beside the zeta corrections and the notes; moving ArrayBlocks and the zeta helpers to their own
+modules is the next split.
 """
 
 from __future__ import annotations
