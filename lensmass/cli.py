@@ -21,6 +21,7 @@ SUBCOMMANDS: dict[str, tuple[str, str]] = {
     "shear": ("lensmass.commands.shear", "Weak-lensing shear catalogue -> profile, SIS/NFW fits, aperture mass, map."),
     "components": ("lensmass.commands.components",
                    "Cluster: mass peaks vs gas and galaxies, offsets, dark and ordinary mass budgets."),
+    "stack": ("lensmass.commands.stack", "Stack Delta Sigma(R) around many lenses -> mean halo mass (jackknife errors)."),
     "batch": ("lensmass.commands.batch", "Run estimate/measure over every row of a manifest."),
     "grade": ("lensmass.commands.grade", "Grade a class's lensing answers and diagnose the classic mistakes."),
     "demo": ("lensmass.commands.demo", "Write the synthetic demo fields (ray-traced) into a folder."),

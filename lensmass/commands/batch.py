@@ -33,6 +33,7 @@ from lensmass.commands.common import (
     add_cosmology_options,
     add_halo_options,
     add_sampling_options,
+    add_scheduler_option,
     cosmology_from_args,
 )
 from lensmass.core.errors import LensInputError
@@ -68,6 +69,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--save-every", type=float, default=2.0, metavar="SECONDS",
                         help="rewrite RESULTS at most this often while rows finish (default 2)")
     parser.add_argument("--no-progress", action="store_true", help="no progress bar on the terminal")
+    add_scheduler_option(parser)
     add_cosmology_options(parser)
     add_halo_options(parser)
     add_sampling_options(parser)
@@ -104,7 +106,7 @@ def run(args: argparse.Namespace) -> int:
     previous_sigterm = _sigterm_as_interrupt()
     try:
         done = run_batch(manifest, out, settings=settings, workers=args.workers, resume=args.resume,
-                         save_every=args.save_every, on_progress=progress.update,
+                         save_every=args.save_every, on_progress=progress.update, scheduler=args.scheduler,
                          say=lambda text: print(f"lensmass batch: {text}", file=sys.stderr))
     finally:
         _restore_sigterm(previous_sigterm)

@@ -69,3 +69,10 @@ def parse_pair(text: str, what: str) -> tuple[float, float]:
 
 #: Display name and unit of each key, in the order of the readable table (from the key registry).
 DISPLAY = ESTIMATE_ROWS
+
+
+def add_scheduler_option(parser: argparse.ArgumentParser) -> None:
+    """``--scheduler ADDRESS``: send the per-partition work to an existing Dask cluster."""
+    parser.add_argument("--scheduler", metavar="ADDRESS", default=None,
+                        help="address of a running Dask scheduler (e.g. tcp://10.0.0.5:8786): each file is worked "
+                             "on a worker of that cluster, which must see the same paths; default: this process")

@@ -8,6 +8,7 @@ import math
 from lensmass.commands.common import (
     add_cosmology_options,
     add_halo_options,
+    add_scheduler_option,
     cosmology_from_args,
     format_number,
     format_table,
@@ -29,7 +30,9 @@ _POSTERIOR_MEDIAN = {"sis_sigma_v_kms", "sis_theta_e_arcsec", "nfw_m200_msun", "
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("catalog", metavar="CATALOG", help="shape catalogue: .fits, .csv, .ecsv or .parquet")
+    parser.add_argument("catalog", metavar="CATALOG", nargs="+",
+                        help="shape catalogue: .fits, .csv, .ecsv or .parquet files, a quoted glob pattern, or a "
+                             "partitioned Parquet folder; read in blocks, so it may be larger than memory")
     parser.add_argument("--zl", type=float, required=True, help="lens redshift")
     centre = parser.add_mutually_exclusive_group(required=True)
     centre.add_argument("--center-sky", metavar="RA,DEC", help="lens centre in degrees")
@@ -53,6 +56,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     prof.add_argument("--bootstrap", type=int, default=200, help="bootstrap resamplings for profile errors (default 200, 0 = off)")
     prof.add_argument("--seed", type=int, default=DEFAULT_SEED, help="random seed (bootstrap, noise map)")
     prof.add_argument("--zeta-radii", metavar="INNER,OUTER", help="zeta annulus in --unit (default sqrt(rmin rmax), rmax)")
+    add_scheduler_option(parser)
     add_cosmology_options(parser)
     add_halo_options(parser)
     parser.add_argument("--free-concentration", action="store_true", help="fit NFW c200 too instead of c(M)")
@@ -98,28 +102,53 @@ def centre_from_args(args: argparse.Namespace) -> tuple[float, float]:
 
 
 def run_shear(args: argparse.Namespace, progress=None) -> dict:
-    """Read the catalogue named in ``args`` and run the core analysis (used by the CLI)."""
-    from lensmass.core.shear_analysis import analyse_shear_catalog
-    from lensmass.io.catalogs import read_shear_catalog
+    """Read the catalogue named in ``args`` and run the core analysis (used by the CLI).
+
+    The catalogue streams through the block engine (one process, or the Dask cluster of
+    ``--scheduler``); with ``--map-out`` it is read into memory, since the map needs every galaxy.
+    """
+    from lensmass.core.shear_analysis import analyse_shear_blocks, analyse_shear_catalog
 
     check_shear_options(args)
     center_ra, center_dec = centre_from_args(args)
     cosmo = cosmology_from_args(args)
-    cat = read_shear_catalog(args.catalog, args.columns, need_z=args.zs is None,
-                             flip_e1=args.flip_e1, flip_e2=args.flip_e2)
     zeta = parse_pair(args.zeta_radii, "--zeta-radii") if args.zeta_radii else None
-    result = analyse_shear_catalog(
-        cat.ra_deg, cat.dec_deg, cat.e1, cat.e2, cat.weight, None if args.zs is not None else cat.z,
-        z_l=args.zl, z_s=args.zs, center_ra=center_ra, center_dec=center_dec,
-        r_min=args.rmin, r_max=args.rmax, n_bins=args.bins, unit=args.unit, log_bins=not args.linear_bins,
-        cosmology=cosmo, concentration=args.concentration, halo_definition=args.halo_definition,
-        free_concentration=args.free_concentration, n_bootstrap=args.bootstrap, seed=args.seed,
-        zeta_radii=zeta, z_margin=args.zs_margin, progress=progress,
-    )
-    result["catalog"] = {"path": cat.path, "columns": cat.columns, "flipped": list(cat.flips)}
-    if args.zs is not None and cat.z is not None:
+    specs = args.catalog if isinstance(args.catalog, list) else [args.catalog]
+    options = {"z_l": args.zl, "z_s": args.zs, "center_ra": center_ra, "center_dec": center_dec,
+               "r_min": args.rmin, "r_max": args.rmax, "n_bins": args.bins, "unit": args.unit,
+               "log_bins": not args.linear_bins, "cosmology": cosmo, "concentration": args.concentration,
+               "halo_definition": args.halo_definition, "free_concentration": args.free_concentration,
+               "n_bootstrap": args.bootstrap, "seed": args.seed, "zeta_radii": zeta, "z_margin": args.zs_margin,
+               "progress": progress}
+    if getattr(args, "map_out", None):
+        if len(specs) > 1 or getattr(args, "scheduler", None):
+            raise LensInputError("--map-out needs the catalogue in memory: give one catalogue file and no "
+                                 "--scheduler, or leave out --map-out for a profile of the whole survey.")
+        from lensmass.io.catalogs import read_shear_catalog
+
+        cat = read_shear_catalog(specs[0], args.columns, need_z=args.zs is None,
+                                 flip_e1=args.flip_e1, flip_e2=args.flip_e2)
+        result = analyse_shear_catalog(cat.ra_deg, cat.dec_deg, cat.e1, cat.e2, cat.weight,
+                                       None if args.zs is not None else cat.z, **options)
+        path, columns, has_z, route = cat.path, cat.columns, cat.z is not None, "in memory"
+    else:
+        from lensmass.io.catalog_stream import CatalogFiles
+
+        files = CatalogFiles(specs, args.columns, need_z=args.zs is None, flip_e1=args.flip_e1, flip_e2=args.flip_e2)
+        blocks, route = files, f"streamed in blocks of {files.block_rows:,} rows in one process"
+        if getattr(args, "scheduler", None):
+            from lensmass.io.distributed import ClusterBlocks
+
+            blocks = ClusterBlocks(files, args.scheduler)
+            route = f"Dask cluster at {args.scheduler}, {len(files.partitions)} partitions"
+        result = analyse_shear_blocks(blocks, **options)
+        path, columns, has_z = files.path, files.columns, "z" in files.columns
+    result["catalog"] = {"path": path, "columns": columns, "flipped": [r for r, f in
+                                                                       (("e1", args.flip_e1), ("e2", args.flip_e2)) if f],
+                         "read": route}
+    if args.zs is not None and has_z:
         result["notes"].insert(0, f"--zs {args.zs:g} is used for every galaxy; the catalogue's column "
-                                  f"'{cat.columns['z']}' is ignored.")
+                                  f"'{columns['z']}' is ignored.")
     return result
 
 
@@ -148,16 +177,17 @@ def display_rows(result: dict) -> list[tuple[str, str, str]]:
 
 
 def format_profile(result: dict) -> str:
-    lines = ["", f"{'R [arcsec]':>11}{'R [kpc]':>9}{'N':>7}{'g_t':>9}{'err':>8}{'g_x':>9}{'err':>8}"
-             f"{'SIS':>8}{'NFW':>8}{'DSigma':>9}"]
+    lines = ["", (f"{'R [arcsec]':>11}{'R [kpc]':>9}{'N':>7}{'g_t':>9}{'err':>8}{'g_x':>9}{'err':>8}"
+                  f"{'SIS':>8}{'NFW':>8}{'Delta Sigma':>13}")]
     for r in result["profile"]:
         vals = [r["g_t"], r["g_t_err"], r["g_x"], r["g_x_err"], r["g_t_model_sis"], r["g_t_model_nfw"]]
         cells = "".join(f"{v:>9.4f}" if i % 2 == 0 else f"{v:>8.4f}" for i, v in enumerate(vals[:4]))
         cells += "".join(f"{v:>8.4f}" for v in vals[4:])
         ds = r["delta_sigma_msun_per_pc2"]
-        ds_text = f"{ds:>9.1f}" if math.isfinite(ds) else f"{'-':>9}"
+        ds_text = f"{ds:>13.1f}" if math.isfinite(ds) else f"{'-':>13}"
         lines.append(f"{r['r_mean_arcsec']:>11.1f}{r['r_mean_kpc']:>9.0f}{r['n_galaxies']:>7d}{cells}{ds_text}")
-    lines.append("(g_t, g_x: weighted mean tangential/cross ellipticity = reduced shear; DSigma in Msun/pc^2)")
+    lines.append("(g_t, g_x: weighted mean tangential/cross ellipticity = reduced shear; Delta Sigma: excess "
+                 "surface density in Msun/pc^2)")
     dropped = ", ".join(f"{k.replace('_', ' ')} {v}" for k, v in result["n_dropped"].items())
     lines.append(f"rows read {result['n_rows']}; dropped: {dropped}")
     return "\n".join(lines)

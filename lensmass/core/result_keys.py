@@ -46,7 +46,7 @@ UNIT_FORMS: dict[str, tuple[str, str, str]] = {
 }
 
 #: Which step makes a key.
-GROUPS = ("estimate", "measure", "light", "shear", "profile", "meta")
+GROUPS = ("estimate", "measure", "light", "shear", "profile", "stack", "meta")
 #: How a value is written: 4 significant figures, an integer count, text, a yes/no flag,
 #: or a block (mapping or list) that tables do not print.
 FORMATS = ("number", "count", "text", "flag", "block")
@@ -112,6 +112,7 @@ def _f(key, label, unit, description, group, **kw) -> KeyFact:
 
 
 _E, _M, _L, _S, _P, _X = "estimate", "measure", "light", "shear", "profile", "meta"
+_K = "stack"
 
 _FACTS: list[KeyFact] = [
     # ---------------------------------------------------------------- estimate (one per derived number)
@@ -253,6 +254,40 @@ _FACTS: list[KeyFact] = [
     _f("delta_sigma_msun_per_pc2", "Delta Sigma", "solMass / pc2", "excess surface density", _P,
        rich="ΔΣ", math=r"$\Delta\Sigma$"),
     _f("delta_sigma_err_msun_per_pc2", "Delta Sigma err", "solMass / pc2", "1-sigma error of Delta Sigma", _P),
+    # ---------------------------------------------------------------- stacked galaxy-galaxy lensing (lensmass stack)
+    _f("n_lenses", "lenses", None, "lenses stacked", _K, fmt="count"),
+    _f("n_randoms", "random points", None, "random points whose Delta Sigma is subtracted", _K, fmt="count"),
+    _f("n_sources_read", "sources read", None, "source rows read", _K, fmt="count"),
+    _f("n_sources_used", "sources used", None, "sources with finite values, |e| < 1, w > 0, behind the nearest lens",
+       _K, fmt="count"),
+    _f("n_patches", "jackknife patches", None, "sky patches holding lenses in the jackknife", _K, fmt="count"),
+    _f("mean_lens_z", "mean z_l", None, "weighted mean lens redshift", _K),
+    _f("mean_halo_m200_msun", "mean halo M200", "solMass",
+       "M200 of the NFW halo fitted to the stacked Delta Sigma (posterior median)", _K),
+    _f("mean_halo_c200", "c200 (relation)", None, "concentration of the mean halo from the c(M) relation", _K),
+    _f("point_mass_msun", "central M_*", "solMass", "central point mass for the lenses' stars in the fit", _K),
+    _f("stack_chi2", "chi^2", None, "chi^2 of the stacked NFW fit (Hartlap-debiased inverse covariance)", _K),
+    _f("stack_dof", "dof", None, "degrees of freedom of the stacked fit", _K, fmt="count"),
+    _f("stack_pvalue", "p-value", None, "p-value of the stacked fit's chi^2", _K),
+    _f("hartlap_factor", "Hartlap factor", None, "(N_patches - N_bins - 2) / (N_patches - 1)", _K),
+    _f("covariance_msun2_per_pc4", "covariance", None, "jackknife covariance of Delta Sigma, (Msun/pc^2)^2", _K,
+       fmt="block"),
+    _f("catalogs", "catalogues", None, "the source, lens and random catalogues read", _K, fmt="block"),
+    _f("r_lo_mpc", "R low", "Mpc", "inner edge of the physical radial bin", _K),
+    _f("r_hi_mpc", "R high", "Mpc", "outer edge of the physical radial bin", _K),
+    _f("r_mean_mpc", "R mean", "Mpc", "pair-weighted mean physical radius", _K),
+    _f("n_pairs", "pairs", None, "lens-source pairs in the bin", _K, fmt="count"),
+    _f("delta_sigma_lenses_msun_per_pc2", "Delta Sigma (lenses)", "solMass / pc2",
+       "Delta Sigma around the lenses before boost and random subtraction", _K),
+    _f("delta_sigma_randoms_msun_per_pc2", "Delta Sigma (randoms)", "solMass / pc2",
+       "Delta Sigma around the random points", _K),
+    _f("boost", "boost", None, "boost factor: weighted sources per lens over those per random point", _K),
+    _f("delta_sigma_cross_msun_per_pc2", "Delta Sigma cross", "solMass / pc2",
+       "the same estimator with e_x (expected 0)", _K),
+    _f("shape_noise_err_msun_per_pc2", "shape-noise err", "solMass / pc2", "1-sigma shape-noise error of Delta Sigma",
+       _K),
+    _f("delta_sigma_model_msun_per_pc2", "Delta Sigma model", "solMass / pc2", "Delta Sigma of the fitted NFW halo",
+       _K),
     # ---------------------------------------------------------------- what every result carries
     _f("cosmology", "cosmology", None, "cosmology of the distances", _X, fmt="text"),
     _f("notes", "notes", None, "caveats of the result", _X, fmt="block"),

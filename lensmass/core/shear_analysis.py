@@ -3,11 +3,17 @@
 The window and the ``lensmass shear`` command both call :func:`analyse_shear_catalog`,
 so every number has one source. Each number is labelled in ``models`` with the model
 and assumptions behind it.
+
+Longer than 500 lines because it holds both entry points (arrays in memory and blocks from files or a
+cluster) beside the zeta corrections and the notes; moving ArrayBlocks and the zeta helpers to their own
+modules is the next split.
 """
 
 from __future__ import annotations
 
-from typing import Any, Callable
+from collections.abc import Callable
+from functools import partial
+from typing import Any
 
 import numpy as np
 
@@ -23,17 +29,20 @@ from lensmass.core.nfw import HALO_DEFINITIONS, nfw_halo, nfw_mass_2d_msun, nfw_
 from lensmass.core.shear_fit import DETECTION_SIGMA, PRIORS, cross_shear_test, fit_nfw, fit_sis
 from lensmass.core.shear_profile import (
     DEFAULT_Z_MARGIN,
-    catalog_shear_profile,
     lens_distance_mpc,
-    lensed_sources,
     lensing_efficiency,
     profile_subbin_edges,
     radial_bin_edges,
     select_sources,
-    shear_profile,
     sky_offsets_and_radius,
-    take_where,
-    within_radii,
+)
+from lensmass.core.shear_sums import (
+    CatalogBlock,
+    SumLayout,
+    annulus_profile,
+    block_sums,
+    farthest_usable,
+    profile_from_sums,
 )
 from lensmass.core.uncertainty import DEFAULT_SEED
 
@@ -77,11 +86,67 @@ def analyse_shear_catalog(
     e2,
     weight=None,
     z=None,
+    **options: Any,
+) -> dict[str, Any]:
+    """Profile, fits, cross-shear test and zeta mass of a shape catalogue held in memory.
+
+    Parameters
+    ----------
+    ra_deg, dec_deg, e1, e2, weight, z : array_like
+        Catalogue columns (degrees; ellipticities in the east/north frame; optional
+        weights and per-galaxy source redshifts). Bad rows are dropped and counted.
+    **options
+        As for :func:`analyse_shear_blocks` (``z_l``, ``center_ra``, ``center_dec`` required).
+
+    Returns
+    -------
+    dict
+        The result of :func:`analyse_shear_blocks`, plus ``_galaxies`` (the columns, for
+        :func:`mass_map_for_result`). The arrays go through the same block engine
+        (:mod:`lensmass.core.shear_sums`) as a streamed or distributed catalogue, so the
+        numbers agree with those routes to rounding.
+    """
+    blocks = ArrayBlocks(ra_deg, dec_deg, e1, e2, weight, z)
+    if z is None and options.get("z_s") is None:
+        raise LensInputError("No source redshift: give --zs for all galaxies, or map a redshift column with --columns z=NAME.")
+    result = analyse_shear_blocks(blocks, per_galaxy_z=z is not None, **options)
+    result["_galaxies"] = {"ra_deg": blocks.ra, "dec_deg": blocks.dec, "e1": blocks.e1, "e2": blocks.e2,
+                           "weight": blocks.weight, "z": blocks.z}
+    return result
+
+
+class ArrayBlocks:
+    """Catalogue columns in memory as one block of rows (the engine works through it in pieces).
+
+    Any source of rows offers ``total(fn)``: ``fn(block)`` for each of its blocks, the results
+    added; ``lensmass.io.catalog_stream`` and ``lensmass.io.distributed`` offer the same for
+    files and for Dask clusters.
+    """
+
+    def __init__(self, ra_deg, dec_deg, e1, e2, weight=None, z=None):
+        self.ra = np.asarray(ra_deg, float)
+        self.dec = np.asarray(dec_deg, float)
+        self.e1 = np.asarray(e1, float)
+        self.e2 = np.asarray(e2, float)
+        self.weight = np.ones(self.ra.size) if weight is None else np.asarray(weight, float)
+        self.z = None if z is None else np.asarray(z, float)
+        if not (self.dec.shape == self.e1.shape == self.e2.shape == self.weight.shape == self.ra.shape) or (
+                self.z is not None and self.z.shape != self.ra.shape):
+            raise LensInputError("The catalogue columns differ in length: give one value per galaxy in each column.")
+        self.n_rows = int(self.ra.size)
+
+    def total(self, fn):
+        return fn(CatalogBlock(self.ra, self.dec, self.e1, self.e2, self.weight, self.z, 0))
+
+
+def analyse_shear_blocks(
+    blocks,
     *,
     z_l: float,
     center_ra: float,
     center_dec: float,
     z_s: float | None = None,
+    per_galaxy_z: bool | None = None,
     r_min: float | None = None,
     r_max: float | None = None,
     n_bins: int = 8,
@@ -97,26 +162,26 @@ def analyse_shear_catalog(
     z_margin: float = DEFAULT_Z_MARGIN,
     progress: Callable[[float, str], None] | None = None,
 ) -> dict[str, Any]:
-    """Profile, fits, cross-shear test and zeta mass of a shape catalogue about a centre.
+    """Profile, fits, cross-shear test and zeta mass of a catalogue given as blocks of rows.
 
     Parameters
     ----------
-    ra_deg, dec_deg, e1, e2, weight, z : array_like
-        Catalogue columns (degrees; ellipticities in the east/north frame; optional
-        weights and per-galaxy source redshifts). Bad rows are dropped and counted.
+    blocks
+        Anything with ``total(fn)`` applying ``fn`` to each :class:`CatalogBlock` and adding the
+        results: :class:`ArrayBlocks` (memory), a streamed file set or a Dask cluster.
     z_l : float
         Lens redshift.
     center_ra, center_dec : float
         The lens centre in degrees.
     z_s : float, optional
-        One source redshift for all galaxies (instead of ``z``).
+        One source redshift for all galaxies (instead of each row's ``z``).
     r_min, r_max, n_bins, unit, log_bins
         Radial bins, in ``unit`` (arcsec, arcmin or physical mpc at the lens);
-        default r_max = the farthest galaxy, r_min = 5% of r_max.
+        default r_max = the farthest usable galaxy (one extra pass), r_min = 5% of r_max.
     cosmology, concentration, halo_definition, free_concentration
         As in :func:`lensmass.core.estimate.estimate` (same defaults, so both agree on one halo).
     n_bootstrap, seed : int
-        Bootstrap resamplings over galaxies for the second set of profile errors.
+        Bootstrap resamplings (of 2000 groups of galaxies) for the second set of profile errors.
     zeta_radii : (float, float), optional
         Inner and outer radius of the zeta annulus in ``unit``; default the geometric
         mean of the radial range and r_max.
@@ -153,28 +218,20 @@ def analyse_shear_catalog(
             limits.positive_radius(value, "--zeta-radii")
     if not (np.isfinite(z_l) and z_l > 0):
         raise LensInputError(f"The lens redshift must be a positive number, got {z_l}; check --zl.")
-    if z is None and z_s is None:
-        raise LensInputError("No source redshift: give --zs for all galaxies, or map a redshift column with --columns z=NAME.")
     if z_s is not None and not (np.isfinite(z_s) and z_s > z_l):
         raise LensInputError(
             f"The source redshift {z_s:g} is not behind the lens at z_l = {z_l:g}: check --zs and --zl."
         )
     if not (np.isfinite(center_ra) and np.isfinite(center_dec) and -90 <= center_dec <= 90):
         raise LensInputError(f"The centre RA, Dec = {center_ra}, {center_dec} is not on the sky: give degrees.")
-    ra = np.asarray(ra_deg, float)
-    n_rows = int(ra.size)
-    w = np.ones(n_rows) if weight is None else np.asarray(weight, float)
-    step(0.05, "projecting positions")
-    x, y, theta, placed = sky_offsets_and_radius(ra, dec_deg, center_ra, center_dec)
-    ok, dropped = select_sources(e1, e2, w, z, z_l, positions_ok=placed, z_margin=z_margin)
-    if z is None:
-        dropped["source_not_behind_lens"] = 0
-    if not np.any(ok):
-        reasons = ", ".join(f"{k.replace('_', ' ')}: {v}" for k, v in dropped.items() if v)
-        raise LensInputError(f"No usable galaxies in the catalogue ({reasons}): check the columns and --zl.")
+    per_galaxy_z = z_s is None if per_galaxy_z is None else per_galaxy_z and z_s is None
     d_l = lens_distance_mpc(z_l, cosmo)
     if r_max is None:
-        r_max_as = float(np.max(np.where(ok, theta, -np.inf))) * (1 + 1e-9)
+        step(0.02, "finding the farthest galaxy")
+        far = blocks.total(partial(farthest_usable, (float(center_ra), float(center_dec), float(z_l), z_s, z_margin)))
+        if far.n_usable == 0:
+            _no_usable(far.dropped)
+        r_max_as = far.theta_max_arcsec * (1 + 1e-9)
     else:
         r_max_as = to_arcsec(r_max, unit, d_l)
     r_min_as = DEFAULT_INNER_FRACTION * r_max_as if r_min is None else to_arcsec(r_min, unit, d_l)
@@ -188,21 +245,20 @@ def analyse_shear_catalog(
         from lensmass.core.aperture_mass import zeta_prefactor
 
         zeta_prefactor(z_in, z_out)  # raises the clear message
-    # only galaxies in the profile or the zeta annulus take part in what follows
-    in_range, near = within_radii(theta, ok, (edges[0], edges[-1]), (z_in, z_out))
-    n_in_range = int(np.count_nonzero(in_range))
-    dropped["outside_radial_range"] = int(np.count_nonzero(ok)) - n_in_range
-    e1a, e2a = np.asarray(e1, float), np.asarray(e2, float)
-    step(0.15, "source distances and binned profile")
-    z_col = z_s if z is None else z
     zeta_slice = _zeta_subbins(profile_subbin_edges(edges), z_in, z_out)
-    if zeta_slice is not None:  # the usual case: no per-galaxy arrays of the selection are needed
-        profile = catalog_shear_profile(near, in_range, theta, x, y, e1a, e2a, w, z_col, z_l, cosmo, edges,
-                                        n_bootstrap=n_bootstrap, seed=seed)
-    else:
-        t_n, e_t, e_x, w_n, beta, sigma_cr, _ = lensed_sources(near, theta, x, y, e1a, e2a, w, z_col, z_l, cosmo)
-        profile = shear_profile(t_n, e_t, e_x, w_n, edges, beta=beta, sigma_cr_msun_per_mpc2=sigma_cr,
-                                d_l_mpc=d_l, n_bootstrap=n_bootstrap, seed=seed)
+    layout = SumLayout(float(center_ra), float(center_dec), float(z_l), cosmo, tuple(float(e) for e in edges),
+                       z_s=None if z_s is None else float(z_s), z_margin=float(z_margin),
+                       annulus_edges_arcsec=None if zeta_slice is not None else tuple(float(e) for e in zeta_edges),
+                       bootstrap=bool(n_bootstrap), seed=int(DEFAULT_SEED if seed is None else seed))
+    step(0.15, "source distances and binned profile")
+    sums = blocks.total(partial(block_sums, layout))
+    if sums.n_usable == 0:
+        _no_usable(sums.dropped)
+    dropped = dict(sums.dropped)
+    if not per_galaxy_z:
+        dropped["source_not_behind_lens"] = 0
+    dropped["outside_radial_range"] = sums.n_usable - sums.n_in_bins
+    profile = profile_from_sums(sums, layout, n_bootstrap=n_bootstrap)
     step(0.5, "SIS fit")
     sis = fit_sis(profile)
     step(0.65, "NFW fit")
@@ -221,7 +277,7 @@ def analyse_shear_catalog(
         if zeta_slice is not None:
             zetas.append(_zeta_from_subbins(profile.fine, zeta_slice, z_in, z_out, halo, profile.cells, d_l))
         else:
-            zetas.append(_zeta(z_in, z_out, zeta_edges, t_n, e_t, e_x, w_n, sigma_cr, d_l, halo))
+            zetas.append(_zeta_from_annulus(sums, layout, zeta_edges, z_in, z_out, halo, profile.beta_mean, d_l))
     (zeta_weak, _, zeta_s_weak, _), (zeta, zeta_err, zeta_s, zeta_s_err), (zeta_hi, _, zeta_s_hi, _) = zetas
     # the convergence of the fitted halo is uncertain: its 68% spread adds to the error
     zeta_err = float(np.hypot(zeta_err, zeta - zeta_hi))
@@ -232,15 +288,16 @@ def analyse_shear_catalog(
     nfw_m2d_zeta = float(nfw_mass_2d_msun(r_in_mpc, nfw_best_halo))
 
     step(0.95, "assembling results")
+    source_redshifts = "per-galaxy column" if per_galaxy_z else f"single z_s = {z_s:g}"
     result: dict[str, Any] = {
         "cosmology": cosmology_label(cosmo),
         "z_l": float(z_l),
         "center_ra": float(center_ra),
         "center_dec": float(center_dec),
-        "n_rows": n_rows,
-        "n_used": n_in_range,
+        "n_rows": int(sums.n_rows),
+        "n_used": int(sums.n_in_bins),
         "n_dropped": dropped,
-        "source_redshifts": "per-galaxy column" if z is not None else f"single z_s = {z_s:g}",
+        "source_redshifts": source_redshifts,
         "z_s_effective": effective_source_redshift(profile.beta_mean, z_l, cosmo),
         "beta_mean": profile.beta_mean,
         "d_l_mpc": d_l,
@@ -273,7 +330,7 @@ def analyse_shear_catalog(
         priors=dict(PRIORS),
     )
     result["profile"] = profile_rows(profile, sis.model_profile, nfw.model_profile)
-    result["notes"] = _notes(sis, nfw, p_x, dropped, zeta_mass, zeta_mass_err, nfw_m2d_zeta, z is not None,
+    result["notes"] = _notes(sis, nfw, p_x, dropped, zeta_mass, zeta_mass_err, nfw_m2d_zeta, per_galaxy_z,
                              zeta_mass_weak)
     result["notes"].insert(-1, (
         f"Fit values are posterior medians; the maximum-likelihood best fit ('best_fit', drawn as the model "
@@ -285,10 +342,16 @@ def analyse_shear_catalog(
     result["models"] = model_descriptions(result["cosmology"], c_label, halo_definition, free_concentration,
                                           result["source_redshifts"], cosmo)
     result["_profile"] = profile
+    result["_sums"] = sums
     result["_fits"] = {"sis": sis, "nfw": nfw}
-    result["_galaxies"] = {"x_arcsec": x, "y_arcsec": y, "e1": e1a, "e2": e2a, "weight": w, "usable": ok}
+    result["_selection"] = {"z_s": z_s, "z_margin": float(z_margin)}
     step(1.0, "done")
     return result
+
+
+def _no_usable(dropped: dict) -> None:
+    reasons = ", ".join(f"{k.replace('_', ' ')}: {v}" for k, v in dropped.items() if v)
+    raise LensInputError(f"No usable galaxies in the catalogue ({reasons}): check the columns and --zl.")
 
 
 def _zeta_subbins(fine_edges: np.ndarray, z_in: float, z_out: float) -> slice | None:
@@ -337,17 +400,17 @@ def _zeta_from_subbins(fine, sl: slice, z_in, z_out, halo=None, cells=None, d_l=
     return (*zeta, *zeta_s)
 
 
-def _zeta(z_in, z_out, zeta_edges, theta, e_t, e_x, w, sigma_cr, d_l, halo=None):
-    """zeta and zeta_Sigma with errors from a profile of the annulus alone; with ``halo``, each
-    galaxy's reduced shear is converted to shear with the halo's convergence at its redshift."""
-    ann = (theta >= z_in) & (theta < z_out)
-    t_a, et_a, ex_a, w_a, sc_a = take_where(ann, theta, e_t, e_x, w, np.broadcast_to(sigma_cr, theta.shape))
+def _zeta_from_annulus(sums, layout, zeta_edges, z_in, z_out, halo=None, beta_mean=None, d_l=None):
+    """zeta and zeta_Sigma with errors from the engine's sums in the annulus bins (an annulus off the
+    profile's sub-bin edges); with ``halo``, the reduced shear is converted to shear with the halo's
+    convergence at the annulus bins' centres for the sample's mean D_ls / D_s (first order)."""
+    g_t, g_err, ds, ds_err = annulus_profile(sums, layout)
     if halo is not None:
-        et_a = shear_from_reduced_shear(et_a, nfw_surface_density_msun_per_mpc2(t_a * ARCSEC_RAD * d_l, halo) / sc_a)
-    zp = shear_profile(t_a, et_a, ex_a, w_a, zeta_edges, sigma_cr_msun_per_mpc2=sc_a, d_l_mpc=d_l,
-                       with_model_cells=False)
-    zeta = zeta_from_profile(zeta_edges, zp.g_t, zp.g_t_err, z_in, z_out)
-    zeta_s = zeta_from_profile(zeta_edges, zp.delta_sigma_msun_per_mpc2, zp.delta_sigma_err_msun_per_mpc2, z_in, z_out)
+        centre_mpc = np.sqrt(zeta_edges[1:] * zeta_edges[:-1]) * ARCSEC_RAD * d_l
+        kappa = _convergence_inf(halo, centre_mpc, d_l) * beta_mean
+        g_t, ds = shear_from_reduced_shear(g_t, kappa), shear_from_reduced_shear(ds, kappa)
+    zeta = zeta_from_profile(zeta_edges, g_t, g_err, z_in, z_out)
+    zeta_s = zeta_from_profile(zeta_edges, ds, ds_err, z_in, z_out)
     return (*zeta, *zeta_s)
 
 
@@ -460,13 +523,20 @@ def model_descriptions(cosmology_name: str, concentration_label: str, halo_defin
 
 def mass_map_for_result(result: dict, *, n_pixels: int = 128, extent_arcsec: float | None = None,
                         smoothing_arcsec: float = 60.0, n_noise: int = 16, seed: int | None = DEFAULT_SEED):
-    """Kaiser-Squires map of the galaxies an :func:`analyse_shear_catalog` result used, centred on its centre."""
+    """Kaiser-Squires map of the usable galaxies of an in-memory :func:`analyse_shear_catalog` result,
+    centred on its centre (the same selection as the profile: finite values, |e| < 1, w > 0, behind the lens)."""
     from lensmass.core.mass_map import mass_map
 
-    gal = result["_galaxies"]
-    ok = gal["usable"]
-    return mass_map(gal["x_arcsec"][ok], gal["y_arcsec"][ok], gal["e1"][ok], gal["e2"][ok], gal["weight"][ok],
-                    n_pixels=n_pixels,
+    gal = result.get("_galaxies")
+    if gal is None:
+        raise LensInputError("The mass map needs the catalogue in memory: run it on one catalogue file "
+                             "without --scheduler, or make the map of a smaller part of the survey.")
+    x, y, _, placed = sky_offsets_and_radius(gal["ra_deg"], gal["dec_deg"], result["center_ra"], result["center_dec"])
+    sel = result.get("_selection", {})
+    z = gal["z"] if sel.get("z_s") is None else None
+    ok, _ = select_sources(gal["e1"], gal["e2"], gal["weight"], z, result["z_l"], positions_ok=placed,
+                           z_margin=sel.get("z_margin", DEFAULT_Z_MARGIN))
+    return mass_map(x[ok], y[ok], gal["e1"][ok], gal["e2"][ok], gal["weight"][ok], n_pixels=n_pixels,
                     extent_arcsec=extent_arcsec, smoothing_arcsec=smoothing_arcsec, n_noise=n_noise, seed=seed)
 
 

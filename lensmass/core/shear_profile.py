@@ -9,7 +9,9 @@ tangential shear g_t = gamma_t / (1 - kappa) (Seitz & Schneider 1997, A&A 318, 6
 The excess surface density Delta Sigma = Sigma_cr g_t uses each galaxy's own Sigma_cr,
 weighted by w Sigma_cr^-2 (common practice, the minimum-variance weight for Delta Sigma).
 
-Everything is vectorised over galaxies (``numpy.bincount``), so 10^7 galaxies fit in memory.
+Everything is vectorised over galaxies (``numpy.bincount``); the sums behind every profile come
+from the block engine of :mod:`lensmass.core.shear_sums`, shared with streamed and distributed
+catalogues.
 
 The geometry lives in :mod:`lensmass.core.shear_geometry` and the source selection and
 lensing efficiency in :mod:`lensmass.core.shear_sources`; their public names are re-exported here.
@@ -23,7 +25,6 @@ import numpy as np
 
 from lensmass.core.errors import LensInputError
 from lensmass.core.shear_geometry import (
-    _BLOCK,
     radius_arcsec,
     sky_offsets_and_radius,
     take_where,
@@ -33,88 +34,21 @@ from lensmass.core.shear_geometry import (
     within_radii,
 )
 from lensmass.core.shear_sources import (
-    _BETA_GRID_NODES,
-    _BETA_ZMAX,
     DEFAULT_Z_MARGIN,
     DROP_REASONS,
-    _beta_from_table,
-    _beta_table,
-    _lensed_blocks,
     lens_distance_mpc,
-    lensed_sources,
     lensing_efficiency,
     select_sources,
 )
 
 __all__ = ["DROP_REASONS", "DEFAULT_Z_MARGIN", "tangent_plane_offsets_arcsec", "tangent_plane_to_sky", "radius_arcsec",
            "sky_offsets_and_radius", "within_radii", "tangential_cross", "take_where", "select_sources",
-           "lens_distance_mpc", "lensing_efficiency", "lensed_sources", "catalog_shear_profile", "radial_bin_edges",
+           "lens_distance_mpc", "lensing_efficiency", "radial_bin_edges",
            "ModelCells", "ShearProfile", "FineProfile", "profile_subbin_edges", "shear_profile"]
 
-_RADIAL_SUBBINS = 8
-_BETA_CELLS = 4
-_BOOTSTRAP_GROUPS = 2000
+_RADIAL_SUBBINS = 8  # as lensmass.core.shear_sums.RADIAL_SUBBINS
 
 
-
-def catalog_shear_profile(mask, in_bins, theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight, z_s, z_l: float, cosmo,
-                          edges_arcsec, *, n_bootstrap: int = 0, seed: int | None = 0) -> "ShearProfile":
-    """:func:`shear_profile` of the galaxies where ``mask`` holds, straight from the catalogue columns.
-
-    The same profile as :func:`lensed_sources` followed by :func:`shear_profile` (with beta,
-    Sigma_cr and the model cells), made in one pass over blocks of rows without arrays of the
-    selected galaxies: for 10^6 galaxies, writing those arrays costs as much as the arithmetic.
-    ``in_bins`` marks the rows of ``mask`` inside the edges (as :func:`within_radii` gives them);
-    ``z_s`` is a per-galaxy column or one redshift for all. Sums are added block by block, so
-    the numbers agree with the two-step route to rounding (about 1e-15).
-    """
-    edges = np.asarray(edges_arcsec, float)
-    mask, in_bins = np.asarray(mask, bool), np.asarray(in_bins, bool)
-    d_l = lens_distance_mpc(z_l, cosmo)
-    fine_index = _fine_indexer(edges, _RADIAL_SUBBINS)
-    n_inside = int(np.count_nonzero(in_bins))
-    # D_ls / D_s as lensed_sources takes it: exact distances up to _BETA_GRID_NODES galaxies, else the table
-    table = None if int(np.count_nonzero(mask)) <= _BETA_GRID_NODES else _beta_table(z_l, cosmo)
-
-    def beta_of(z):
-        return lensing_efficiency(z_l, z, cosmo)[0] if table is None else _beta_from_table(z, z_l, table, cosmo)
-
-    if np.ndim(z_s) == 0:
-        b_min = b_max = float(lensing_efficiency(z_l, np.array([float(z_s)]), cosmo)[0][0])
-        z_col = None
-    else:
-        z_col = np.asarray(z_s, float)
-        b_min, b_max = _beta_range(in_bins, z_col, beta_of, table)
-    galaxies = _lensed_blocks(mask, (theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight), z_col, beta_of, d_l,
-                              beta_one=b_min)
-    blocks = ((fine_index(block[0]), *block) for block in galaxies)
-    if not b_min <= b_max:
-        b_min = b_max = 0.0
-    return _profile_from_blocks(blocks, edges, b_min, b_max, n_inside, True, d_l, n_bootstrap, seed, True)
-
-
-def _beta_range(in_bins: np.ndarray, z: np.ndarray, beta_of, table) -> tuple[float, float]:
-    """Smallest and largest D_ls / D_s over the rows in ``in_bins``: from their extreme redshifts when
-    the tabulated D_ls / D_s rises with z_s (always in flat models; checked, as a closed one may turn), else per
-    galaxy."""
-    def in_bin_blocks():
-        for start in range(0, z.size, _BLOCK):
-            zb = z[start:start + _BLOCK].take(np.flatnonzero(in_bins[start:start + _BLOCK]))
-            if zb.size:
-                yield zb
-
-    if table is not None:
-        extremes = [(float(zb.min()), float(zb.max())) for zb in in_bin_blocks()]
-        if not extremes:
-            return np.inf, -np.inf
-        z_lo, z_hi = min(e[0] for e in extremes), max(e[1] for e in extremes)
-        if z_hi <= _BETA_ZMAX and np.all(np.diff(table[2]) >= 0):
-            beta = beta_of(np.array([z_lo, z_hi]))
-            return float(beta[0]), float(beta[1])
-    ranges = [(float(b.min()), float(b.max())) for b in map(beta_of, in_bin_blocks())]
-    if not ranges:
-        return np.inf, -np.inf
-    return min(r[0] for r in ranges), max(r[1] for r in ranges)
 
 
 # ---------------------------------------------------------------- binning
@@ -273,17 +207,6 @@ def _fine_indexer(edges: np.ndarray, n_sub: int):
     return index
 
 
-def _cells_from_sums(sums: dict, n_bins: int, n_beta: int) -> ModelCells:
-    wsum = sums["w"]
-    keep = wsum > 0
-    with np.errstate(invalid="ignore", divide="ignore"):
-        t = sums["wtheta"] / wsum
-        b = sums["wbeta"] / wsum
-        var = np.maximum(sums["wbeta2"] / wsum - b * b, 0.0)
-    bins = np.arange(wsum.size) // (_RADIAL_SUBBINS * n_beta)
-    return ModelCells(bins[keep], t[keep], b[keep], var[keep], wsum[keep], n_bins)
-
-
 def _bootstrap_errors(sw, st, sx, n_boot, rng):
     """Bootstrap errors of the bin means from sums per (group, bin), shape (groups, n_bins)."""
     groups = sw.shape[0]
@@ -292,33 +215,6 @@ def _bootstrap_errors(sw, st, sx, n_boot, rng):
         bt = (counts @ st) / (counts @ sw)
         bx = (counts @ sx) / (counts @ sw)
     return np.nanstd(bt, axis=0, ddof=1), np.nanstd(bx, axis=0, ddof=1)
-
-
-def _block_sums(fine, theta, e_t, e_x, w, beta, sc, n_beta, b_min, b_max, size, with_model_cells):
-    """Sums over one block of galaxies per (sub-bin, beta cell); galaxies outside the bins go to a
-    trash cell that is cut off."""
-    cell = np.where(fine >= 0, fine, size // n_beta).astype(np.intp, copy=False)
-    beta = np.ones_like(theta) if beta is None else beta
-    if n_beta > 1:
-        bq = np.minimum(((beta - b_min) * (n_beta / (b_max - b_min))).astype(np.int64), n_beta - 1)
-        cell = cell * n_beta + np.where(fine >= 0, bq, 0)
-    w2 = w * w
-    wb = w * beta
-    weights = {"n": None, "w": w, "wtheta": w * theta, "st": w * e_t, "sx": w * e_x, "s2": w2,
-               "s2t": w2 * e_t, "s2x": w2 * e_x, "s2ee": w2 * (e_t * e_t + e_x * e_x), "wbeta": wb}
-    if with_model_cells:
-        weights["wbeta2"] = wb * beta
-    if sc is not None:
-        finite = np.isfinite(sc)
-        if not np.all(finite):  # sources not behind the lens carry no Delta Sigma weight
-            wd = np.where(finite, w / (sc * sc), 0.0)
-            sc = np.where(finite, sc, 0.0)
-        else:
-            wd = w / (sc * sc)
-        wd2 = wd * wd
-        dt, dx = sc * e_t, sc * e_x
-        weights.update(d=wd, dt=wd * dt, dx=wd * dx, d2=wd2, d2t=wd2 * dt, d2x=wd2 * dx, d2ee=wd2 * (dt * dt + dx * dx))
-    return {k: np.bincount(cell, weights=v, minlength=size + n_beta)[:size] for k, v in weights.items()}
 
 
 def shear_profile(
@@ -350,99 +246,18 @@ def shear_profile(
     with_model_cells : bool
         Group the galaxies in cells for the model fits (skip when no fit follows).
     n_bootstrap : int
-        Bootstrap resamplings over galaxies (0 to skip). Galaxies are dealt at random
-        into at most 2000 equal groups that are resampled; with fewer galaxies each
-        galaxy is its own group, i.e. the ordinary bootstrap.
+        Bootstrap resamplings over galaxies (0 to skip): galaxies are hashed by their
+        index into 2000 groups (:func:`lensmass.core.shear_sums.bootstrap_group`) that are
+        resampled.
 
     Notes
     -----
     Shape-noise error of a bin: sqrt(sum w^2 [(e_t - <e_t>)^2 + (e_x - <e_x>)^2] / 2) / sum w,
     pooling both components (common practice; Bartelmann & Schneider 2001, sec. 4.2).
     """
-    edges = np.asarray(edges_arcsec, float)
-    n_bins = edges.size - 1
-    n_fine = n_bins * _RADIAL_SUBBINS
-    theta = np.asarray(theta_arcsec, float)
-    e_t = np.asarray(e_t, float)
-    e_x = np.asarray(e_x, float)
-    w = np.asarray(weight, float)
-    beta_arr = None if beta is None else np.broadcast_to(np.asarray(beta, float), theta.shape)
-    sc_arr = (None if sigma_cr_msun_per_mpc2 is None
-              else np.broadcast_to(np.asarray(sigma_cr_msun_per_mpc2, float), theta.shape))
-    blocks = [slice(i, i + _BLOCK) for i in range(0, theta.size, _BLOCK)]
-    fine = np.empty(theta.size, np.int32 if n_fine < 2**31 - 1 else np.int64)
-    b_min, b_max = np.inf, -np.inf  # range of beta over the galaxies inside the bins
-    fine_index = _fine_indexer(edges, _RADIAL_SUBBINS)
-    for b in blocks:
-        fine[b] = f = fine_index(theta[b])
-        if beta_arr is not None and f.size:
-            # (np.min with where= is ~20x slower than a plain reduction, so take the inside values)
-            inside = beta_arr[b] if f.min() >= 0 else beta_arr[b].take(np.flatnonzero(f >= 0))
-            if inside.size:
-                b_min, b_max = min(b_min, float(inside.min())), max(b_max, float(inside.max()))
-    if not b_min <= b_max:
-        b_min = b_max = 0.0
+    from lensmass.core.shear_sums import galaxy_sums, galaxy_layout, profile_from_sums
 
-    blocks = ((fine[b], theta[b], e_t[b], e_x[b], w[b], None if beta_arr is None else beta_arr[b],
-               None if sc_arr is None else sc_arr[b]) for b in blocks)
-    return _profile_from_blocks(blocks, edges, b_min, b_max, int(np.count_nonzero(fine >= 0)), sc_arr is not None,
-                                d_l_mpc, n_bootstrap, seed, with_model_cells)
-
-
-def _profile_from_blocks(blocks, edges, b_min, b_max, n_inside, with_sigma_cr, d_l_mpc, n_bootstrap, seed,
-                         with_model_cells) -> ShearProfile:
-    """The profile from blocks (sub-bin index, theta, e_t, e_x, w, beta or None, Sigma_cr or None),
-    given the range of beta over the ``n_inside`` galaxies inside the bins."""
-    n_bins = edges.size - 1
-    n_fine = n_bins * _RADIAL_SUBBINS
-    # one index (sub-bin x beta cell) and one set of sums; bins, sub-bins and cells aggregate them
-    n_beta = 1
-    if with_model_cells and b_max - b_min > 1e-12 * max(b_max, 1e-300):
-        n_beta = _BETA_CELLS
-    size = n_fine * n_beta
-    boot = None
-    if n_bootstrap and n_inside > 1:
-        # galaxies dealt at random into equal groups (in the order they come), sums per (group, bin)
-        rng = np.random.default_rng(seed)
-        groups = min(n_inside, _BOOTSTRAP_GROUPS)
-        gid = rng.permutation(n_inside) % groups
-        boot, boot_size, pos = [np.zeros(groups * n_bins) for _ in range(3)], groups * n_bins, 0
-    cell_sums: dict[str, np.ndarray] = {}
-    for fine, theta, e_t, e_x, w, beta, sc in blocks:
-        sums_b = _block_sums(fine, theta, e_t, e_x, w, beta, sc, n_beta, b_min, b_max, size, with_model_cells)
-        for k, v in sums_b.items():
-            cell_sums[k] = cell_sums[k] + v if k in cell_sums else v
-        if boot is not None:
-            index = np.flatnonzero(fine >= 0)
-            key = gid[pos:pos + index.size] * n_bins + fine.take(index) // _RADIAL_SUBBINS
-            w_in = w.take(index)
-            for total, values in zip(boot, (w_in, w_in * e_t.take(index), w_in * e_x.take(index))):
-                total += np.bincount(key, weights=values, minlength=boot_size)
-            pos += index.size
-    if not cell_sums:  # no galaxies
-        empty = np.zeros(0)
-        cell_sums = _block_sums(np.zeros(0, np.int64), empty, empty, empty, empty, None,
-                                empty if with_sigma_cr else None, n_beta, b_min, b_max, size, with_model_cells)
-    fine_sums = {k: v.reshape(n_fine, n_beta).sum(axis=1) for k, v in cell_sums.items()}
-    sums = {k: v.reshape(n_bins, _RADIAL_SUBBINS).sum(axis=1) for k, v in fine_sums.items()}
-
-    count = sums["n"].astype(np.int64)
-    wsum = sums["w"]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        r_mean = sums["wtheta"] / wsum
-    g_t, g_x, err = _means_errors(sums, "s", "w")
-    ft, _, ferr = _means_errors(fine_sums, "s", "w")
-    ds = ds_err = fds = fds_err = None
-    if with_sigma_cr:
-        ds, _, ds_err = _means_errors(sums, "d", "d")
-        fds, _, fds_err = _means_errors(fine_sums, "d", "d")
-    nan = np.full(n_bins, np.nan)
-    boot_t, boot_x = nan, nan.copy()
-    if boot is not None:
-        boot_t, boot_x = _bootstrap_errors(*(b.reshape(groups, n_bins) for b in boot), int(n_bootstrap), rng)
-    cells = _cells_from_sums(cell_sums, n_bins, n_beta) if with_model_cells else None
-    fine_profile = FineProfile(_fine_edges(edges, _RADIAL_SUBBINS), ft, ferr, fds, fds_err)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        beta_mean = float(cell_sums["wbeta"].sum() / cell_sums["w"].sum()) if count.sum() else float("nan")
-    return ShearProfile(edges, r_mean, count, wsum, g_t, err, g_x, err.copy(), boot_t, boot_x,
-                        ds, ds_err, cells, beta_mean, d_l_mpc, fine_profile)
+    layout = galaxy_layout(edges_arcsec, bootstrap=bool(n_bootstrap), seed=seed)
+    sums = galaxy_sums(layout, theta_arcsec, e_t, e_x, weight, beta, sigma_cr_msun_per_mpc2)
+    return profile_from_sums(sums, layout, n_bootstrap=n_bootstrap, with_sigma_cr=sigma_cr_msun_per_mpc2 is not None,
+                             with_model_cells=with_model_cells, d_l_mpc=d_l_mpc)

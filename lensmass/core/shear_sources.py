@@ -11,7 +11,7 @@ import numpy as np
 
 from lensmass.core.cosmology import angular_diameter_distances_mpc
 from lensmass.core.lensing import sigma_crit_msun_per_mpc2
-from lensmass.core.shear_geometry import _BLOCK, _blockwise, _tangential_cross, take_where, tangential_cross
+from lensmass.core.shear_geometry import _blockwise
 
 #: Order in which a bad row is attributed to one reason (each dropped row counted once).
 DROP_REASONS = ("non_finite", "ellipticity_ge_1", "weight_not_positive", "source_not_behind_lens")
@@ -131,46 +131,3 @@ def _beta_from_table(z: np.ndarray, z_l: float, table, cosmo) -> np.ndarray:
         beta[far] = d_ls / d_s
     return beta
 
-
-def lensed_sources(mask, theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight, z_s, z_l: float, cosmo):
-    """The galaxies where ``mask`` holds, ready for :func:`shear_profile`, in one pass over blocks.
-
-    Returns their radius, tangential and cross ellipticity, weight, D_ls / D_s and Sigma_cr
-    (as :func:`take_where`, :func:`tangential_cross` and :func:`lensing_efficiency` give them),
-    and D_l. ``z_s`` is a per-galaxy column or one redshift for all.
-    """
-    mask = np.asarray(mask, bool)
-    n = int(np.count_nonzero(mask))
-    d_l = lens_distance_mpc(z_l, cosmo)
-    if np.ndim(z_s) == 0 or n <= _BETA_GRID_NODES:
-        columns = [theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight] + ([] if np.ndim(z_s) == 0 else [z_s])
-        t_n, x_n, y_n, e1_n, e2_n, w_n, *z_n = take_where(mask, *columns)
-        beta, sigma_cr, _ = lensing_efficiency(z_l, z_n[0] if z_n else z_s, cosmo)
-        return (t_n, *tangential_cross(e1_n, e2_n, x_n, y_n), w_n, beta, sigma_cr, d_l)
-    outs = [np.empty(n) for _ in range(6)]
-    pos = 0
-    table = _beta_table(z_l, cosmo)
-    beta_of = lambda z: _beta_from_table(z, z_l, table, cosmo)  # noqa: E731
-    for block in _lensed_blocks(mask, (theta_arcsec, x_arcsec, y_arcsec, e1, e2, weight), z_s, beta_of, d_l):
-        k = block[0].size
-        for out, values in zip(outs, block):
-            out[pos:pos + k] = values
-        pos += k
-    return (*outs, d_l)
-
-
-def _lensed_blocks(mask, columns, z_col, beta_of, d_l: float, beta_one: float | None = None):
-    """Per block of rows, the masked galaxies' (theta, e_t, e_x, w, beta, Sigma_cr) from the
-    columns (theta, x, y, e1, e2, w) and the redshift column ``z_col`` (D_ls / D_s = ``beta_of(z)``),
-    or one D_ls / D_s ``beta_one`` for all when ``z_col`` is None. Blocks with no such galaxy are skipped."""
-    columns = [np.asarray(a, float) for a in columns]
-    z_col = None if z_col is None else np.asarray(z_col, float)
-    for start in range(0, mask.size, _BLOCK):
-        index = np.flatnonzero(mask[start:start + _BLOCK])
-        if not index.size:
-            continue
-        t, x, y, g1, g2, w = (a[start:start + _BLOCK].take(index) for a in columns)
-        beta = np.full(t.size, beta_one) if z_col is None else beta_of(z_col[start:start + _BLOCK].take(index))
-        with np.errstate(divide="ignore"):
-            sigma_cr = sigma_crit_msun_per_mpc2(d_l, 1.0, beta)  # D_s / D_ls = 1 / beta
-        yield (t, *_tangential_cross(g1, g2, x, y), w, beta, sigma_cr)

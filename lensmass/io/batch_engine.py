@@ -356,11 +356,13 @@ def batch_settings(*, cosmology: Any = None, concentration: str | float = "duffy
 
 def run_batch(manifest, out, *, settings: dict[str, Any] | None = None, workers: int = 1, resume: bool = False,
               save_every: float = 2.0, on_progress: Callable[[int], None] | None = None,
-              say: Callable[[str], None] | None = None) -> BatchOutcome:
+              say: Callable[[str], None] | None = None, scheduler: Any = None) -> BatchOutcome:
     """Run every row of ``manifest`` (a path or a read manifest) and write RESULTS to ``out`` (.ecsv).
 
     ``settings`` come from :func:`batch_settings` (defaults when None). ``on_progress(n)`` is
     called with the number of rows just finished; ``say(text)`` with one-line news (resuming).
+    ``scheduler`` (a Dask scheduler address or ``distributed.Client``) runs blocks of rows as tasks
+    on that cluster instead of local processes.
 
     Examples
     --------
@@ -409,7 +411,9 @@ def run_batch(manifest, out, *, settings: dict[str, Any] | None = None, workers:
     if workers > 1 and len(todo) < 2 * workers and say is not None:
         say(f"{len(todo)} row(s) run in this process: starting {workers} workers would take longer than the rows.")
     try:
-        if workers == 1 or len(todo) < 2 * workers:
+        if scheduler is not None:
+            _run_on_cluster(todo, settings, scheduler, saver, progress)
+        elif workers == 1 or len(todo) < 2 * workers:
             for chunk in _chunks(todo, 1):
                 recs = run_rows(chunk, settings)
                 saver.add(recs)
@@ -420,6 +424,25 @@ def run_batch(manifest, out, *, settings: dict[str, Any] | None = None, workers:
         saver.save()
     failed = sum(1 for r in records.values() if r["error"])
     return BatchOutcome(out, len(records), len(records) - failed, failed, n_resumed)
+
+
+def _run_on_cluster(todo, settings, scheduler, saver, progress) -> None:
+    """Blocks of rows as tasks on a Dask cluster (its workers must see the manifest's files); the same
+    :func:`run_rows` as local workers, so per-row seeds give the same numbers."""
+    from lensmass.io.distributed import connect
+
+    client = connect(scheduler)
+    n_workers = max(1, len(client.scheduler_info().get("workers", {})))
+    futures = client.map(run_rows, _chunks(todo, n_workers), settings=settings, pure=False)
+    try:
+        for fut in futures:  # in order: RESULTS is saved as rows arrive
+            recs = fut.result()
+            saver.add(recs)
+            progress(len(recs))
+    finally:
+        client.cancel(futures)
+        if client is not scheduler:
+            client.close()
 
 
 def _chunks(todo, workers: int) -> list[list]:

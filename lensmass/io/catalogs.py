@@ -212,11 +212,15 @@ def read_shear_catalog(
     path = Path(path)
     mapping = parse_column_map(columns) if isinstance(columns, str) or columns is None else dict(columns)
     fmt = catalog_format(path)
-    table = _read_table(path, fmt)
-    if len(table) == 0:
-        raise LensInputError(f"Catalogue '{path.name}' has no rows: it needs one row per galaxy.")
-    resolved = resolve_columns(list(table.colnames), mapping, need_z=need_z)
-    data = {role: _float_column(table, name, role) for role, name in resolved.items()}
+    try:
+        table = _read_table(path, fmt)
+        if len(table) == 0:
+            raise LensInputError(f"Catalogue '{path.name}' has no rows: it needs one row per galaxy.")
+        resolved = resolve_columns(list(table.colnames), mapping, need_z=need_z)
+        _check_memory(path, len(table), len(resolved))
+        data = {role: _float_column(table, name, role) for role, name in resolved.items()}
+    except MemoryError:
+        raise LensInputError(_memory_sentence(path, None)) from None
     e1 = -data["e1"] if flip_e1 else data["e1"]
     e2 = -data["e2"] if flip_e2 else data["e2"]
     weight = data.get("weight")
@@ -224,6 +228,26 @@ def read_shear_catalog(
         weight = np.ones_like(e1)
     flips = tuple(n for n, f in (("e1", flip_e1), ("e2", flip_e2)) if f)
     return ShearCatalog(data["ra"], data["dec"], e1, e2, weight, data.get("z"), str(path), resolved, flips)
+
+
+def _memory_sentence(path: Path, n_rows: int | None, need_gb: float | None = None, free_gb: float | None = None) -> str:
+    size = f"the {n_rows:,} rows of '{path.name}'" if n_rows else f"'{path.name}'"
+    amounts = f" needs about {need_gb:.1f} GB but {free_gb:.1f} GB is free" if need_gb else " does not fit in memory"
+    return (f"Reading {size} into memory{amounts}: leave out --map-out so `lensmass shear` streams the catalogue "
+            "in blocks, or map a smaller part of the survey.")
+
+
+def _check_memory(path: Path, n_rows: int, n_columns: int) -> None:
+    """A clear sentence before the float columns of a huge table would exhaust the free memory."""
+    import os
+
+    need = n_rows * (n_columns + 3) * 8.0  # float columns plus the analysis' per-row arrays
+    try:
+        free = os.sysconf("SC_AVPHYS_PAGES") * os.sysconf("SC_PAGE_SIZE")
+    except (ValueError, OSError, AttributeError):
+        return
+    if need > free:
+        raise LensInputError(_memory_sentence(path, n_rows, need / 1e9, free / 1e9))
 
 
 def preview_catalog(path: str | Path, n_rows: int = 5) -> tuple[list[str], list[list[str]]]:

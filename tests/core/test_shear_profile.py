@@ -178,34 +178,45 @@ def test_projection_in_blocks_matches_astropy_for_a_large_catalogue():
         np.testing.assert_array_equal(tangent_plane_offsets_arcsec(ra, dec, ra0, dec0)[0], x)
 
 
-def test_block_pass_of_the_sources_near_the_bins():
-    # More galaxies than the D_ls / D_s table nodes, so the one-pass route is taken. References: astropy
-    # angular_diameter_distance(z1, z2) for D_ls / D_s (on a sample of rows; the grid is good to 1e-6) and
-    # the tangential/cross formulas of shared/REFERENCES.md with phi = arctan2(y, x) from numpy.
-    from lensmass.core.shear_profile import _BETA_GRID_NODES, lensed_sources
+def test_block_engine_sums_match_astropy_distances_and_numpy_rotations():
+    # More galaxies than one cache-sized piece, so the engine works in pieces. References: astropy
+    # angular_diameter_distance(z1, z2) for D_ls / D_s and Sigma_cr (the engine's table is good to 1e-6),
+    # astropy separations, and the tangential/cross formulas of shared/REFERENCES.md with numpy's arctan2.
+    from astropy.coordinates import SkyCoord
+    import astropy.constants as const
+
+    from lensmass.core.shear_sums import BETA_CELLS, RADIAL_SUBBINS, SumLayout, catalog_block_sums
 
     rng = np.random.default_rng(12)
-    n = _BETA_GRID_NODES + 40_000
-    x, y = rng.uniform(-900, 900, (2, n))
-    theta = np.hypot(x, y)
+    n = 90_000
+    ra0, dec0 = 141.0, 18.0
+    ra, dec = ra0 + rng.uniform(-0.25, 0.25, n), dec0 + rng.uniform(-0.25, 0.25, n)
     e1, e2 = rng.normal(0, 0.25, (2, n))
     w = rng.uniform(0.2, 1.0, n)
     z = rng.uniform(0.2, 3.0, n)
-    mask = (theta > 30) & (theta < 880)
-    t_n, et, ex, w_n, beta, sc, d_l = lensed_sources(mask, theta, x, y, e1, e2, w, z, 0.35, COSMO)
-    np.testing.assert_array_equal(t_n, theta[mask])
-    np.testing.assert_array_equal(w_n, w[mask])
-    phi = np.arctan2(y[mask], x[mask])
-    np.testing.assert_allclose(et, -(e1[mask] * np.cos(2 * phi) + e2[mask] * np.sin(2 * phi)), atol=1e-13)
-    np.testing.assert_allclose(ex, e1[mask] * np.sin(2 * phi) - e2[mask] * np.cos(2 * phi), atol=1e-13)
-    zs = z[mask]
-    behind = zs > 0.35
-    assert np.all(beta[~behind] == 0) and np.all(np.isinf(sc[~behind]))
-    pick = np.flatnonzero(behind)[::2000]
-    d_s = COSMO.angular_diameter_distance(zs[pick]).to_value(u.Mpc)
-    d_ls = COSMO.angular_diameter_distance(0.35, zs[pick]).to_value(u.Mpc)
-    np.testing.assert_allclose(beta[pick], d_ls / d_s, rtol=1e-6)
-    np.testing.assert_allclose(sc[pick], sigma_crit_msun_per_mpc2(d_l, d_s, d_ls), rtol=1e-6)
+    edges = radial_bin_edges(30.0, 880.0, 5)
+    layout = SumLayout(ra0, dec0, 0.35, COSMO, tuple(edges))
+    sums = catalog_block_sums(layout, ra, dec, e1, e2, w, z)
+    c, g = SkyCoord(ra0 * u.deg, dec0 * u.deg), SkyCoord(ra * u.deg, dec * u.deg)
+    theta = c.separation(g).arcsec
+    phi = np.pi / 2 - c.position_angle(g).rad
+    e_t = -(e1 * np.cos(2 * phi) + e2 * np.sin(2 * phi))
+    e_x = e1 * np.sin(2 * phi) - e2 * np.cos(2 * phi)
+    use = (z > 0.45) & (theta >= edges[0]) & (theta < edges[-1]) & (e1 * e1 + e2 * e2 < 1)  # |e| < 1 kept
+    d_l = COSMO.angular_diameter_distance(0.35)
+    d_s, d_ls = COSMO.angular_diameter_distance(z[use]), COSMO.angular_diameter_distance(0.35, z[use])
+    beta = (d_ls / d_s).value
+    sigma_cr = (const.c**2 / (4 * np.pi * const.G) * d_s / (d_l * d_ls)).to_value(u.Msun / u.Mpc**2)
+    per_bin = lambda key: sums.cells[key].reshape(edges.size - 1, RADIAL_SUBBINS * BETA_CELLS).sum(axis=1)  # noqa: E731
+    b = np.searchsorted(edges, theta[use], side="right") - 1
+    ref = lambda v: np.bincount(b, weights=v, minlength=edges.size - 1)  # noqa: E731
+    np.testing.assert_array_equal(per_bin("n"), ref(np.ones(b.size)))
+    np.testing.assert_allclose(per_bin("st"), ref(w[use] * e_t[use]), rtol=1e-9)
+    np.testing.assert_allclose(per_bin("sx"), ref(w[use] * e_x[use]), rtol=1e-9)
+    np.testing.assert_allclose(per_bin("wbeta"), ref(w[use] * beta), rtol=1e-6)
+    wd = w[use] / sigma_cr**2
+    np.testing.assert_allclose(per_bin("dt"), ref(wd * sigma_cr * e_t[use]), rtol=1e-6)
+    assert sums.n_in_bins == use.sum()
 
 
 def test_profile_summed_in_blocks_equals_direct_weighted_means():
@@ -227,46 +238,41 @@ def test_profile_summed_in_blocks_equals_direct_weighted_means():
         np.testing.assert_allclose(p.g_t_err[i], np.sqrt(scatter) / w[inb].sum(), rtol=1e-9)
 
 
-@pytest.mark.parametrize("one_redshift,n", [(False, 60_000), (False, 160_000), (True, 60_000)])
-def test_one_pass_catalogue_profile_equals_the_two_step_route(one_redshift, n):
-    # The one-pass route (catalog_shear_profile) against the two steps it replaces (lensed_sources then
-    # shear_profile, themselves checked against astropy and numpy.average above): equal to rounding,
-    # with the bootstrap on (the same galaxies dealt to the same groups); with exact distances
-    # (under 1e5 galaxies) and with the D_ls / D_s table (over).
-    from lensmass.core.shear_profile import catalog_shear_profile, lensed_sources
+@pytest.mark.parametrize("one_redshift", [False, True])
+def test_catalogue_engine_equals_the_profile_of_the_selected_galaxies(one_redshift):
+    # The engine straight from catalogue columns (catalog_block_sums) against shear_profile of the galaxies
+    # selected and rotated here with numpy and astropy distances (D_ls / D_s to 1e-6 in the engine's table),
+    # bootstrap on (rows hashed into the same groups by their index).
+    from astropy.coordinates import SkyCoord
+
+    from lensmass.core.shear_sums import SumLayout, catalog_block_sums, profile_from_sums
 
     rng = np.random.default_rng(14)
-    x, y = rng.uniform(-900, 900, (2, n))
-    theta = np.hypot(x, y)
-    e1, e2 = rng.normal(0, 0.25, (2, n))
+    n = 60_000
+    ra0, dec0 = 141.0, 18.0
+    ra, dec = ra0 + rng.uniform(-0.25, 0.25, n), dec0 + rng.uniform(-0.25, 0.25, n)
+    e1, e2 = rng.normal(0, 0.25, (2, n)).clip(-0.7, 0.7)  # all |e| < 1: the two routes select the same rows
     w = rng.uniform(0.2, 1.0, n)
-    z = 1.2 if one_redshift else rng.uniform(0.5, 3.0, n)
+    z = np.full(n, 1.2) if one_redshift else rng.uniform(0.5, 3.0, n)
     edges = radial_bin_edges(40.0, 850.0, 6)
-    near = (theta >= 30) & (theta < 880)
-    in_bins = near & (theta >= edges[0]) & (theta < edges[-1])
-    t_n, et, ex, w_n, beta, sc, d_l = lensed_sources(near, theta, x, y, e1, e2, w, z, 0.35, COSMO)
-    two = shear_profile(t_n, et, ex, w_n, edges, beta=beta, sigma_cr_msun_per_mpc2=sc, d_l_mpc=d_l,
-                        n_bootstrap=50, seed=3)
-    one = catalog_shear_profile(near, in_bins, theta, x, y, e1, e2, w, z, 0.35, COSMO, edges, n_bootstrap=50, seed=3)
-    np.testing.assert_array_equal(one.n_galaxies, two.n_galaxies)
-    for name in ("g_t", "g_t_err", "g_x", "r_mean_arcsec", "delta_sigma_msun_per_mpc2", "g_t_err_boot"):
-        np.testing.assert_allclose(getattr(one, name), getattr(two, name), rtol=1e-12, err_msg=name)
-    np.testing.assert_allclose(one.cells.beta, two.cells.beta, rtol=1e-12)
-    np.testing.assert_allclose(one.cells.weight, two.cells.weight, rtol=1e-12)
-    np.testing.assert_allclose(one.fine.g_t, two.fine.g_t, rtol=1e-12)
-    assert one.beta_mean == pytest.approx(two.beta_mean, rel=1e-13)
-    # And against outside references directly: the weighted mean (numpy.average, common practice) of
-    # e_t = -(e1 cos 2phi + e2 sin 2phi) (shared/REFERENCES.md, phi = numpy arctan2) in each bin; for one
-    # source redshift, Delta Sigma = Sigma_cr g_t with Sigma_cr = c^2 D_s / (4 pi G D_l D_ls) from astropy.
-    phi = np.arctan2(y, x)
+    layout = SumLayout(ra0, dec0, 0.35, COSMO, tuple(edges), z_s=1.2 if one_redshift else None, bootstrap=True, seed=3)
+    one = profile_from_sums(catalog_block_sums(layout, ra, dec, e1, e2, w, None if one_redshift else z),
+                            layout, n_bootstrap=50)
+    c, g = SkyCoord(ra0 * u.deg, dec0 * u.deg), SkyCoord(ra * u.deg, dec * u.deg)
+    theta = c.separation(g).arcsec
+    phi = np.pi / 2 - c.position_angle(g).rad
     e_t = -(e1 * np.cos(2 * phi) + e2 * np.sin(2 * phi))
+    e_x = e1 * np.sin(2 * phi) - e2 * np.cos(2 * phi)
+    d_l = COSMO.angular_diameter_distance(0.35).to_value(u.Mpc)
+    d_s = COSMO.angular_diameter_distance(z).to_value(u.Mpc)
+    d_ls = COSMO.angular_diameter_distance(0.35, z).to_value(u.Mpc)
+    two = shear_profile(theta, e_t, e_x, w, edges, beta=d_ls / d_s, sigma_cr_msun_per_mpc2=sigma_crit_msun_per_mpc2(
+        d_l, d_s, d_ls), d_l_mpc=d_l, n_bootstrap=50, seed=3)
+    np.testing.assert_array_equal(one.n_galaxies, two.n_galaxies)
+    for name in ("g_t", "g_t_err", "g_x", "r_mean_arcsec", "g_t_err_boot"):
+        np.testing.assert_allclose(getattr(one, name), getattr(two, name), rtol=1e-8, err_msg=name)
+    np.testing.assert_allclose(one.delta_sigma_msun_per_mpc2, two.delta_sigma_msun_per_mpc2, rtol=1e-6)
+    assert one.beta_mean == pytest.approx(two.beta_mean, rel=1e-6)
     for i in range(edges.size - 1):
-        inb = in_bins & (theta >= edges[i]) & (theta < edges[i + 1])
+        inb = (theta >= edges[i]) & (theta < edges[i + 1])
         assert one.g_t[i] == pytest.approx(np.average(e_t[inb], weights=w[inb]), rel=1e-9, abs=1e-12)
-    if one_redshift:
-        import astropy.constants as const
-
-        d_l_q, d_s_q = COSMO.angular_diameter_distance(0.35), COSMO.angular_diameter_distance(1.2)
-        d_ls_q = COSMO.angular_diameter_distance(0.35, 1.2)
-        sigma_cr = (const.c**2 / (4 * np.pi * const.G) * d_s_q / (d_l_q * d_ls_q)).to_value(u.Msun / u.Mpc**2)
-        np.testing.assert_allclose(one.delta_sigma_msun_per_mpc2, sigma_cr * one.g_t, rtol=1e-6)

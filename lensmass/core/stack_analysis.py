@@ -1,0 +1,214 @@
+"""The stacking job: a lens catalogue, random points and a source catalogue (in blocks) to the stacked
+Delta Sigma(R), its jackknife covariance and the mean halo mass of the lens sample.
+
+The window (none yet), the ``lensmass stack`` command and Python all call :func:`analyse_stack`;
+the physics is in :mod:`lensmass.core.stacking`. Sources come as anything with ``total(fn)``
+(see :class:`lensmass.core.shear_analysis.ArrayBlocks`, the streamed files of
+:mod:`lensmass.io.catalog_stream` or a Dask cluster of :mod:`lensmass.io.distributed`).
+"""
+
+from __future__ import annotations
+
+from functools import partial
+from typing import Any
+
+import numpy as np
+
+from lensmass.core.cosmology import cosmology_label, resolve_cosmology
+from lensmass.core.errors import LensInputError
+from lensmass.core.lensing import MPC2_PER_PC2
+from lensmass.core.nfw import HALO_DEFINITIONS
+from lensmass.core.stacking import (
+    Z_CELLS,
+    PointSet,
+    StackLayout,
+    assign_patches,
+    fit_stack_nfw,
+    jackknife_patches,
+    stack_block_sums,
+    stack_profile,
+)
+
+#: Default number of random points per lens when none are given.
+DEFAULT_RANDOMS_PER_LENS = 10
+DEFAULT_PATCHES = 32
+
+
+def random_points_like(lens_ra, lens_dec, lens_z, n: int, seed: int = 0) -> tuple[np.ndarray, ...]:
+    """Random points uniform on the sphere inside the lenses' RA/Dec box, redshifts drawn from the
+    lenses' (common practice when no random catalogue of the survey mask is at hand)."""
+    ra, dec = np.asarray(lens_ra, float), np.asarray(lens_dec, float)
+    rng = np.random.default_rng(seed)
+    span = ra.max() - ra.min()
+    if span > 180:  # the lenses straddle RA = 0: use -180..180
+        ra = np.where(ra > 180, ra - 360, ra)
+    lo, hi = ra.min(), ra.max()
+    s_lo, s_hi = np.sin(np.radians(dec.min())), np.sin(np.radians(dec.max()))
+    r_ra = rng.uniform(lo, hi, n) % 360.0
+    r_dec = np.degrees(np.arcsin(rng.uniform(s_lo, s_hi, n)))
+    r_z = rng.choice(np.asarray(lens_z, float), n, replace=True)
+    return r_ra, r_dec, r_z
+
+
+def analyse_stack(
+    lens_ra,
+    lens_dec,
+    lens_z,
+    sources,
+    *,
+    lens_weight=None,
+    randoms: tuple | None = None,
+    n_randoms: int | None = None,
+    r_min_mpc: float = 0.05,
+    r_max_mpc: float = 3.0,
+    n_bins: int = 10,
+    n_patches: int = DEFAULT_PATCHES,
+    cosmology: Any = None,
+    concentration: str | float = "duffy08",
+    halo_definition: str = "200c",
+    point_mass_msun: float = 0.0,
+    boost: bool = True,
+    z_margin: float = 0.1,
+    seed: int = 0,
+) -> dict[str, Any]:
+    """Stacked excess surface density around lenses, minus the same around random points, with a
+    boost factor, jackknife covariance and the mean NFW M200 of the sample.
+
+    Parameters
+    ----------
+    lens_ra, lens_dec, lens_z : array_like
+        Lens positions (degrees) and redshifts; ``lens_weight`` optional weights.
+    sources
+        Source catalogue in blocks (``total(fn)``), each row with a redshift.
+    randoms : (ra, dec, z), optional
+        Random points tracing the lenses' footprint and redshifts. Without them,
+        ``n_randoms`` (default 10 per lens) are drawn in the lenses' RA/Dec box;
+        ``n_randoms=0`` skips the random subtraction and the boost.
+    r_min_mpc, r_max_mpc, n_bins
+        Logarithmic bins of physical projected radius at each lens (Mpc).
+    n_patches : int
+        Jackknife patches (k-means on the lenses).
+    point_mass_msun : float
+        A central point mass added to every halo (the lenses' stars); 0 for none.
+
+    Returns
+    -------
+    dict
+        ``mean_halo_m200_msun`` (posterior median) with ``intervals68`` / ``intervals95``,
+        ``mean_halo_c200``, ``stack_chi2`` with ``stack_dof`` and ``stack_pvalue``, counts,
+        the binned ``profile`` (Msun / pc^2), ``covariance_msun2_per_pc4``, ``notes`` and ``models``.
+    """
+    from lensmass.core.concentration import concentration_relation
+    from lensmass.core.cosmology import little_h
+
+    if halo_definition not in HALO_DEFINITIONS:
+        raise LensInputError(f"Unknown halo definition '{halo_definition}': use one of {', '.join(HALO_DEFINITIONS)}.")
+    cosmo = resolve_cosmology(cosmology)
+    c_of_m, c_label = concentration_relation(concentration, halo_definition)
+    lra, ldec, lz = (np.asarray(a, float).ravel() for a in (lens_ra, lens_dec, lens_z))
+    lw = np.ones(lra.size) if lens_weight is None else np.asarray(lens_weight, float).ravel()
+    if not (lra.size == ldec.size == lz.size == lw.size):
+        raise LensInputError("The lens columns differ in length: give one RA, Dec and z per lens.")
+    good = np.isfinite(lra) & np.isfinite(ldec) & (np.abs(ldec) <= 90) & np.isfinite(lz) & (lz > 0) & (lw > 0)
+    n_bad_lenses = int(lra.size - good.sum())
+    lra, ldec, lz, lw = lra[good], ldec[good], lz[good], lw[good]
+    if lra.size < 2:
+        raise LensInputError("Fewer than two usable lenses (finite RA, Dec, z > 0, weight > 0): check the lens "
+                             "catalogue and its columns.")
+    if not (np.isfinite(r_min_mpc) and np.isfinite(r_max_mpc) and 0 < r_min_mpc < r_max_mpc):
+        raise LensInputError(f"The radial range needs 0 < rmin < rmax in Mpc, got {r_min_mpc:g} to {r_max_mpc:g}.")
+    if int(n_bins) < 2:
+        raise LensInputError(f"Use at least 2 radial bins, got {n_bins}.")
+    edges = np.geomspace(r_min_mpc, r_max_mpc, int(n_bins) + 1)
+    centres = jackknife_patches(lra, ldec, int(n_patches), seed)
+    lenses = PointSet(lra, ldec, lz, lw, assign_patches(lra, ldec, centres))
+    if randoms is not None:
+        rra, rdec, rz = (np.asarray(a, float).ravel() for a in randoms)
+        ok = np.isfinite(rra) & np.isfinite(rdec) & np.isfinite(rz) & (rz > 0)
+        rra, rdec, rz = rra[ok], rdec[ok], rz[ok]
+        random_origin = f"{rra.size} random points given"
+    else:
+        n_r = DEFAULT_RANDOMS_PER_LENS * lra.size if n_randoms is None else int(n_randoms)
+        rra, rdec, rz = random_points_like(lra, ldec, lz, n_r, seed + 1) if n_r else (np.zeros(0),) * 3
+        random_origin = (f"{n_r} random points uniform in the lenses' RA/Dec box with the lenses' redshifts "
+                         "(assumes the sources cover that box evenly)") if n_r else "no random points"
+    rand = PointSet(rra, rdec, rz, np.ones(rra.size), assign_patches(rra, rdec, centres)) if rra.size else None
+    z_lo, z_hi = float(lz.min()), float(lz.max())
+    if rand is not None:
+        z_lo = min(z_lo, float(rz.min()))
+    z_edges = np.linspace(z_lo, max(z_hi, z_lo + 1e-6), Z_CELLS + 1)
+    layout = StackLayout(tuple(float(e) for e in edges), cosmo, int(n_patches), tuple(float(e) for e in z_edges),
+                         float(z_margin))
+    sums = sources.total(partial(stack_block_sums, layout, lenses, rand))
+    if sums.n_sources_used == 0:
+        raise LensInputError("No usable sources (finite values, |e| < 1, weight > 0, behind the nearest lens): "
+                             "check the source catalogue's columns and redshifts.")
+    profile = stack_profile(sums, layout, lenses, rand, boost=boost and rand is not None)
+    fit = fit_stack_nfw(profile, sums, layout, concentration=concentration, halo_definition=halo_definition,
+                        point_mass_msun=float(point_mass_msun))
+    mean_z = float(np.average(lz, weights=lw))
+    q = fit.quantiles
+    c_med = float(c_of_m(fit.m200_msun, mean_z, little_h(cosmo)))
+    to_pc = MPC2_PER_PC2
+    rows = []
+    for i in range(edges.size - 1):
+        rows.append({
+            "r_lo_mpc": float(edges[i]), "r_hi_mpc": float(edges[i + 1]), "r_mean_mpc": float(profile.r_mean_mpc[i]),
+            "n_pairs": int(profile.n_pairs[i]),
+            "delta_sigma_msun_per_pc2": float(profile.delta_sigma[i] * to_pc),
+            "delta_sigma_err_msun_per_pc2": float(profile.delta_sigma_err[i] * to_pc),
+            "delta_sigma_lenses_msun_per_pc2": float(profile.delta_sigma_lens[i] * to_pc),
+            "delta_sigma_randoms_msun_per_pc2": (float(profile.delta_sigma_random[i] * to_pc)
+                                                 if profile.delta_sigma_random is not None else float("nan")),
+            "boost": float(profile.boost[i]),
+            "delta_sigma_cross_msun_per_pc2": float(profile.delta_sigma_cross[i] * to_pc),
+            "shape_noise_err_msun_per_pc2": float(profile.shape_noise_err[i] * to_pc),
+            "delta_sigma_model_msun_per_pc2": float(fit.model[i] * to_pc),
+        })
+    notes = list(profile.notes) + list(fit.notes)
+    if n_bad_lenses:
+        notes.append(f"{n_bad_lenses} lenses were dropped (non-finite position or redshift, or weight <= 0).")
+    if rand is None:
+        notes.append("No random points: neither the random subtraction nor the boost factor is applied, so additive "
+                     "shear systematics and source-lens clustering are not corrected.")
+    if np.isfinite(fit.pvalue) and fit.pvalue < 0.01:
+        notes.append(f"The NFW model fits the stacked profile poorly (p = {fit.pvalue:.2g}): the mean mass is "
+                     "model-dependent; check the radial range (two-halo term at large R, miscentring, stars at small R).")
+    notes.append("The stacked mass is the M200 of one NFW halo whose profile matches the sample's mean Delta Sigma; "
+                 "with a spread of masses it is not the arithmetic mean of the haloes' masses.")
+    notes.append("Masses are model-dependent estimates; see 'models' for the model behind each number.")
+    cosmo_name = cosmology_label(cosmo)
+    boundary = {"200c": "200 x critical density", "200m": "200 x mean matter density",
+                "vir": "virial overdensity of Bryan & Norman (1998)"}[halo_definition]
+    return {
+        "cosmology": cosmo_name,
+        "n_lenses": int(lra.size), "n_randoms": int(rra.size), "n_sources_read": int(sums.n_sources),
+        "n_sources_used": int(sums.n_sources_used), "n_patches": int(profile.n_patches_used),
+        "mean_lens_z": mean_z,
+        "mean_halo_m200_msun": fit.m200_msun, "mean_halo_c200": c_med,
+        "best_fit": {"mean_halo_m200_msun": fit.best_m200_msun},
+        "medians": {"mean_halo_m200_msun": float(q[2])},
+        "intervals68": {"mean_halo_m200_msun": [float(q[1]), float(q[3])]},
+        "intervals95": {"mean_halo_m200_msun": [float(q[0]), float(q[4])]},
+        "point_mass_msun": float(point_mass_msun),
+        "stack_chi2": fit.chi2, "stack_dof": fit.dof, "stack_pvalue": fit.pvalue, "hartlap_factor": fit.hartlap,
+        "profile": rows,
+        "covariance_msun2_per_pc4": (profile.covariance * to_pc**2).tolist(),
+        "notes": notes,
+        "models": {
+            "delta_sigma_msun_per_pc2": "B(R) Delta Sigma around lenses - Delta Sigma around random points; pair "
+            "weights w_l w_s / Sigma_cr^2 with each pair's own Sigma_cr; sources with z_s > z_l + "
+            f"{z_margin:g}; distances in {cosmo_name}; " + random_origin,
+            "boost": "ratio of weighted source counts around lenses and around random points, each per unit lens "
+            "weight (sources physically associated with the lenses dilute the signal)",
+            "delta_sigma_err_msun_per_pc2": f"delete-one jackknife over {profile.n_patches_used} k-means sky patches "
+            "of the lenses (sample variance and shape noise)",
+            "mean_halo_m200_msun": f"NFW halo (Wright & Brainerd 2000), boundary {boundary} at each lens's z, c from "
+            f"{c_label}, plus a central point mass of {point_mass_msun:.3g} Msun; model averaged over the pairs' lens "
+            "redshifts and radii; likelihood of Sellentin & Heavens (2016) for the jackknife covariance (its noise "
+            "widens the interval), "
+            "posterior on a grid, flat prior in log M200; value = posterior median",
+            "mean_halo_c200": f"{c_label} at the weighted mean lens redshift and the median M200",
+        },
+        "_profile": profile, "_fit": fit, "_sums": sums, "_layout": layout,
+    }
