@@ -202,7 +202,7 @@ def fit_lens_light(
         return np.nan_to_num(jac * (weight / noise_bin)[:, None], nan=0.0, posinf=0.0, neginf=0.0)
 
     p = p0
-    with threadpool_limits(1):  # a 9-column SVD per step: BLAS threads only contend (10x slower on 2 busy cores)
+    with threadpool_limits(1):  # 9-column products: BLAS threads only contend (up to 10x slower on 2 busy cores)
         sol, p = _robust_rounds(residuals, jacobian, p, lo, hi, xx, yy, f, sel, vs, noise_bin, weight)
     if sol.status == 0:
         notes.append("The lens-light fit stopped before converging; check the residual image.")
@@ -226,7 +226,7 @@ def _robust_rounds(residuals, jacobian, p, lo, hi, xx, yy, f, sel, vs, noise_bin
     (pixels more than 3 sigma and 10% above the model: arcs, neighbours); ``weight`` is updated in place."""
     for _ in range(CLIP_ROUNDS + 1):
         sol = least_squares(residuals, p, jac=jacobian, bounds=(lo, hi), loss="soft_l1", f_scale=SOFT_SCALE,
-                            max_nfev=MAX_NFEV, x_scale="jac", ftol=1e-5, xtol=1e-5, tr_solver="exact")
+                            max_nfev=MAX_NFEV, x_scale="jac", ftol=1e-5, xtol=1e-5, tr_solver="lsmr")
         p = sol.x
         with np.errstate(over="ignore", invalid="ignore"):
             m_sel = _blurred_sersic_on_grid(p, xx, yy, f)[sel]

@@ -197,7 +197,7 @@ def make_cutout(seed: int, kind: str | None = None, *, lens: bool | None = None,
                   rt.ExternalShear(g * np.cos(2 * gang), g * np.sin(2 * gang), cx, cy)]
         bx, by = rt.source_positions(lenses, xx, yy)
         arcish = kind.startswith("arc")
-        off = te_pix * (rng.uniform(0.25, 0.5) if arcish else rng.uniform(0.0, 0.15))
+        off = te_pix * (rng.uniform(0.25, 0.5) if arcish else rng.uniform(0.0, 0.07))  # rings: source near the axis
         t = rng.uniform(0, 2 * np.pi)
         src_size = float(max(te_pix * rng.uniform(0.06, 0.15), 0.7))
         comps["arc"] = _clumpy_source(rng, bx, by, cx + off * np.cos(t), cy + off * np.sin(t), src_size)

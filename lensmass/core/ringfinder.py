@@ -120,6 +120,8 @@ class RingResult:
     center_source: str = "the light peak near the image centre"
     center_hint: str = ""
     masks: object = None
+    paired: bool = False
+    radius_internal_err_pix: float = float("nan")
 
 
 def find_center(image: np.ndarray, *, search_fraction: float = 0.25, smooth_pix: float = 2.0) -> tuple[float, float]:
@@ -587,6 +589,7 @@ def _pair_of_arcs(best: RingResult, tried: list[RingResult]) -> RingResult:
         best.coverage = float(min(1.0, best.coverage + other.coverage))
         best.axis_ratio, best.angle_deg = float("nan"), float("nan")
         best.kind = "arcs"
+        best.paired = True
         best.message = (f"Arcs on opposite sides of the lens at {r1:.2f} and {r2:.2f} pixels: theta_E = their mean, "
                         f"{radius:.2f} +- {err:.2f} pixels.")
         best.warnings.append("Two arcs on opposite sides of the lens at different radii: the Einstein radius is their "

@@ -95,6 +95,7 @@ PANELS: list[tuple[str, str]] = [
     ("lensmass.gui.light_panel", "LightPanel"),
     ("lensmass.gui.cluster_panel", "ClusterPanel"),
     ("lensmass.gui.triage_panel", "TriagePanel"),
+    ("lensmass.gui.mask_panel", "MaskPanel"),
 ]
 
 #: Where a panel goes when it does not say (``DOCK_AREA``).
