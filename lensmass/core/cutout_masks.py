@@ -32,6 +32,12 @@ from lensmass.core.errors import LensInputError
 THRESHOLD_SIGMA = 3.0
 #: Objects whose peak is below this many sigma are noise or faint arcs: never masked.
 MIN_PEAK_SNR = 3.0
+#: Only objects brighter than this (peak, in sigma) and than this fraction of the lens peak are masked.
+MASK_MIN_PEAK_SNR = 15.0
+MASK_MIN_LENS_RATIO = 0.05
+#: photutils deblending contrast: a component must hold this fraction of its blend's flux to be split
+#: off (lower values cut a lens galaxy and its ring into pieces that look like stars).
+DEBLEND_CONTRAST = 0.05
 #: Smallest object, pixels.
 MIN_PIXELS = 6
 #: Flux fraction inside the half-maximum contour above which a round object is PSF-like (a star).
@@ -62,7 +68,7 @@ class FieldObject:
     halfmax_diameter_pix: float
     elongation: float
     angle_deg: float
-    kind: str = "galaxy"  # "noise": too faint to matter
+    kind: str = "galaxy"  # "noise": too faint to matter; "faint": a knot left unmasked
     blue_excess: float = float("nan")
 
 
@@ -103,7 +109,7 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
     if segm is None:
         return np.zeros(img.shape, np.int32), []
     try:
-        segm = deblend_sources(sm, segm, n_pixels=MIN_PIXELS, n_levels=24, contrast=0.003, progress_bar=False)
+        segm = deblend_sources(sm, segm, n_pixels=MIN_PIXELS, n_levels=32, contrast=DEBLEND_CONTRAST, progress_bar=False)
     except (ValueError, TypeError):  # nothing to deblend
         pass
     labels = np.asarray(segm.data, np.int32)
@@ -157,9 +163,13 @@ def choose_lens(objects: list[FieldObject], shape: tuple[int, int], labels: np.n
     c0x, c0y = (nx - 1) / 2, (ny - 1) / 2
     near = max(6.0, 0.15 * min(nx, ny))
     bright = [o for o in objects if o.peak_snr >= LENS_MIN_PEAK_SNR]
-    cands = [o for o in bright if o.kind != "star" and np.hypot(o.x - c0x, o.y - c0y) <= 2 * near]
-    if not cands:  # only star-like objects near the centre: the nearest (an unresolved galaxy, perhaps)
-        cands = [o for o in bright if np.hypot(o.x - c0x, o.y - c0y) <= 2 * near] or bright
+    cands = [o for o in bright if o.kind != "star" and np.hypot(o.x - c0x, o.y - c0y) <= near]
+    if not cands:
+        # No galaxy right at the centre. A star-like object there is most likely the lens's own core
+        # (a cuspy galaxy deblended from its ring looks compact); failing that, galaxies farther out.
+        central = [o for o in bright if np.hypot(o.x - c0x, o.y - c0y) <= near]
+        cands = central or [o for o in bright if o.kind != "star" and np.hypot(o.x - c0x, o.y - c0y) <= 2 * near]
+        cands = cands or bright
     if not cands:
         return None, "no galaxy above the noise: the cutout centre", (
             "No galaxy stands out near the cutout centre; give the lens centre (--center X,Y) if there is one.")
@@ -169,8 +179,9 @@ def choose_lens(objects: list[FieldObject], shape: tuple[int, int], labels: np.n
     how = "the compact light peak nearest the cutout centre that is not a star"
     hint = ""
     if lens.kind == "star":
-        how = "the only bright object near the centre, which looks like a star"
-        hint = "The only bright object near the centre looks like a star; give the lens centre (--center X,Y)."
+        how = "the compact light peak nearest the cutout centre (compact enough to be a star)"
+        hint = ("The object at the cutout centre is as compact as a star; it was taken as the lens: give the lens "
+                "centre (--center X,Y) if it is elsewhere.")
     elif len(order) > 1:
         rival = cands[int(order[1])]
         d0, d1 = dist[order[0]], dist[order[1]]
@@ -238,12 +249,26 @@ def cutout_masks(image: np.ndarray, noise_sigma: float, *, center: tuple[float, 
     else:
         cx, cy = (img.shape[1] - 1) / 2, (img.shape[0] - 1) / 2
     lens_blue = lens.blue_excess if lens is not None else float("nan")
+    touching = set()
+    if lens is not None:
+        around = binary_dilation(labels == lens.label, iterations=2)
+        touching = set(np.unique(labels[around]).tolist()) - {0, lens.label}
     mask = np.zeros(img.shape, bool)
     for o in objects:
         if lens is not None and o.label == lens.label:
             o.kind = "lens"
             continue
-        if o.kind == "noise":
+        if o.label in touching and o.peak_snr < lens.peak_snr:
+            # A piece split off the lens's own blend and fainter than its core: as likely a piece of
+            # the ring or an arc as a neighbour, so it is not masked.
+            o.kind = "faint" if o.kind in ("star", "galaxy") else o.kind
+            continue
+        if o.kind == "noise" or o.peak_snr < MASK_MIN_PEAK_SNR or (lens is not None and o.peak_snr < MASK_MIN_LENS_RATIO
+                                                                  * lens.peak_snr):
+            # Faint knots are left alone: the clumps of a ring or an arc look just like faint stars
+            # and small galaxies, and a faint neighbour hardly moves the ring.
+            if o.kind != "noise":
+                o.kind = "faint"
             continue
         if o.kind != "star":
             bluer = colour is not None and np.isfinite(o.blue_excess) and o.blue_excess > max(lens_blue, 0) + 0.5

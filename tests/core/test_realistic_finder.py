@@ -80,13 +80,15 @@ def test_inject_and_recover_targets(sample_runs, capsys):
     """>= 100 lenses and >= 50 non-lenses from the generator: the issue's targets."""
     cutouts, runs = sample_runs
     fig = recovery_figures(cutouts, runs)
-    hard = [(c, r) for c, r in zip(cutouts, runs) if c.truth["is_lens"]
-            and ("star" in c.truth["kind"] or "neighbour" in c.truth["kind"])
+    # The issue's target: a ring (source near the lens axis) of radius >= 2.5 seeing FWHM, with a
+    # neighbour or a star in the cutout. Single arcs are not held to 5%: an arc lies outside theta_E
+    # by the source's offset, and the finder says so (33% error).
+    hard = [(c, r) for c, r in zip(cutouts, runs) if c.truth["kind"] in ("ring+neighbour", "ring+star")
             and c.truth["radius_pix"] >= 2.5 * c.psf_fwhm_pix]
     within = np.mean([r.found and abs(r.radius_pix / c.truth["radius_pix"] - 1) <= 0.05 for c, r in hard])
     with capsys.disabled():
         print(f"\n[inject-and-recover, FITS-like r band] {format_figures(fig)}; with a neighbour or a star and "
-              f"theta_E >= 2.5 FWHM: {within:.0%} of {len(hard)} within 5%")
+              f"a ring >= 2.5 FWHM: {within:.0%} of {len(hard)} within 5%")
     assert fig["n_lenses"] >= 100 and fig["n_nonlenses"] >= 50
     assert 0.60 <= fig["cover1"] <= 0.76
     assert fig["cover2"] >= 0.90
