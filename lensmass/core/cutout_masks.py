@@ -42,6 +42,8 @@ DEBLEND_CONTRAST = 0.05
 MIN_PIXELS = 6
 #: Flux fraction inside the half-maximum contour above which a round object is PSF-like (a star).
 STAR_HALFMAX_FRACTION = 0.33
+#: A star touching other segments must peak this many times above the brightest of them.
+STAR_BLEND_PEAK_RATIO = 3.0
 #: Largest elongation (a/b) of a star.
 STAR_MAX_ELONGATION = 1.4
 #: An object elongated at least this much, with its major axis within ARC_ANGLE_DEG of the tangent, is an arc.
@@ -136,12 +138,29 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
         objects.append(FieldObject(int(lab), float(ix + sl[1].start), float(iy + sl[0].start), peak / noise_sigma, tot,
                                    int(cut.sum()), float(np.where(half, vals, 0).sum() / tot),
                                    float(2 * np.sqrt(half.sum() / np.pi)), elong, ang, blue_excess=be))
+    peaks = {o.label: o.peak_snr for o in objects}
     for o in objects:
         if o.peak_snr < MIN_PEAK_SNR:
             o.kind = "noise"
         elif o.halfmax_fraction >= STAR_HALFMAX_FRACTION and o.elongation <= STAR_MAX_ELONGATION and o.peak_snr >= 5:
-            o.kind = "star"
+            # PSF-like, and not merely the compact core of a blend it was cut from (a galaxy's core
+            # deblended from its ring holds much of its segment's light inside its half maximum too).
+            rivals = [peaks.get(lab, 0.0) for lab in _touching(labels, o.label)]
+            if not rivals or o.peak_snr >= STAR_BLEND_PEAK_RATIO * max(rivals):
+                o.kind = "star"
     return labels, objects
+
+
+def _touching(labels: np.ndarray, label: int) -> set[int]:
+    """Labels of the segments within 2 pixels of segment ``label``."""
+    ys, xs = np.nonzero(labels == label)
+    if ys.size == 0:
+        return set()
+    y0, y1 = max(0, ys.min() - 3), min(labels.shape[0], ys.max() + 4)
+    x0, x1 = max(0, xs.min() - 3), min(labels.shape[1], xs.max() + 4)
+    box = labels[y0:y1, x0:x1]
+    around = binary_dilation(box == label, iterations=2)
+    return set(np.unique(box[around]).tolist()) - {0, label}
 
 
 def _tangential(o: FieldObject, cx: float, cy: float) -> bool:

@@ -161,8 +161,8 @@ def measure_theta_e_from_points(
         The lens centre in pixels; holds the circle/ellipse centre there.
     refine : bool
         Move each point onto the brightness ridge first (:func:`lensmass.core.ridge.refine_to_ridge`),
-        using ``refine_image`` or, by default, the image with the lens light subtracted
-        (:func:`lensmass.core.lenslight.fit_lens_light_masked`).
+        using ``refine_image``, or the image data and, for points with no ridge there, the image
+        with the lens light subtracted (:func:`lensmass.core.lenslight.fit_lens_light_masked`).
     point_err_pix : float
         1-sigma uncertainty of each position (pixels); a floor under the fit's scatter.
     pixel_scale_arcsec, pixel_scale_err_arcsec, pixel_matrix_arcsec : optional
@@ -201,17 +201,21 @@ def measure_theta_e_from_points(
         else:
             rough = fit_circle(px, py) if px.size >= 3 else None
             rc = (rough.center_x, rough.center_y) if rough else (px.mean(), py.mean())
-        if refine_image is None and data is not None:
-            # Ridges are searched on the lens-subtracted image: under a bright lens in ground seeing the
-            # galaxy's falling light hides the arc's ridge in the raw pixels.
+        moved = [refine_to_ridge(pixels, a, b, rc[0], rc[1]) for a, b in zip(px, py)]
+        if refine_image is None and data is not None and not all(m.ok for m in moved):
+            # Under a bright lens in ground seeing the galaxy's falling light hides an arc's ridge in
+            # the raw pixels: those points are searched again on the lens-subtracted image (the ring
+            # finder's lens light, stars, neighbours and the ring masked). The raw image goes first:
+            # where its ridge shows, it is not moved by the lens model's misfit.
             from lensmass.core.lenslight import fit_lens_light_masked
 
             light = fit_lens_light_masked(data, rc[0], rc[1])
             if light.ok:
-                pixels = light.residual
-                notes.append("Points were moved onto the ridge of the lens-subtracted image (Sersic lens light, "
-                             "stars and neighbours masked).")
-        moved = [refine_to_ridge(pixels, a, b, rc[0], rc[1]) for a, b in zip(px, py)]
+                again = [refine_to_ridge(light.residual, a, b, rc[0], rc[1]) if not m.ok else m
+                         for a, b, m in zip(px, py, moved)]
+                n_more = sum(a.ok and not m.ok for a, m in zip(again, moved))
+                moved = again
+                notes.append(f"{n_more} point(s) found their ridge only on the lens-subtracted image.")
         n_bad = sum(not m.ok for m in moved)
         px = np.array([m.x for m in moved])
         py = np.array([m.y for m in moved])

@@ -57,7 +57,7 @@ from lensmass.core.ridge import ridge_peak
 #: the confident rings of 72 generated lenses (seeds 3000-3071); tests check them on unseen seeds.
 CONFIDENT_SCORE = 10.0
 #: Largest ridge width (FWHM of the ring profile) of a confident ring, in seeing FWHM (fitted PSF).
-CONFIDENT_MAX_WIDTH_PSF = 2.3
+CONFIDENT_MAX_WIDTH_PSF = 2.6
 #: Largest scatter of the ridge points about the fitted ellipse, in ring widths (spiral arms wander).
 CONFIDENT_MAX_RMS_WIDTH = 0.2
 #: Smallest axis ratio of a confident ring (inclined discs and spiral patterns are flatter).

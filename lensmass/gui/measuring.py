@@ -86,7 +86,10 @@ def snap_to_ridge(image: ImageState, x: float, y: float,
     if centre is None:
         return (x, y), "Set the lens centre first: snapping moves a click along the radius from it."
     ridge = _core("ridge", "Snapping onto the arc ridge")
-    out = ridge.refine_to_ridge(lens_subtracted(image, centre), x, y, centre[0], centre[1])
+    first = image.residual if image.lens_light is not None else image.data
+    out = ridge.refine_to_ridge(first, x, y, centre[0], centre[1])
+    if not out.ok and image.lens_light is None:  # as the command line's --refine: lens-subtracted next
+        out = ridge.refine_to_ridge(lens_subtracted(image, centre), x, y, centre[0], centre[1])
     if not out.ok:
         return (x, y), out.warning or "No arc ridge near the click: the point stays where it was clicked."
     return (float(out.x), float(out.y)), out.warning
