@@ -44,6 +44,8 @@ MIN_PIXELS = 6
 STAR_HALFMAX_FRACTION = 0.33
 #: A star touching other segments must peak this many times above the brightest of them.
 STAR_BLEND_PEAK_RATIO = 3.0
+#: A PSF-like object this round is a star even where it touches other segments.
+STAR_ROUND_ELONGATION = 1.2
 #: Largest elongation (a/b) of a star.
 STAR_MAX_ELONGATION = 1.4
 #: An object elongated at least this much, with its major axis within ARC_ANGLE_DEG of the tangent, is an arc.
@@ -145,8 +147,10 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
         elif o.halfmax_fraction >= STAR_HALFMAX_FRACTION and o.elongation <= STAR_MAX_ELONGATION and o.peak_snr >= 5:
             # PSF-like, and not merely the compact core of a blend it was cut from (a galaxy's core
             # deblended from its ring holds much of its segment's light inside its half maximum too).
+            # A very round one is a star even in a blend (a ring's clumps are drawn out along it).
             rivals = [peaks.get(lab, 0.0) for lab in _touching(labels, o.label)]
-            if not rivals or o.peak_snr >= STAR_BLEND_PEAK_RATIO * max(rivals):
+            if (not rivals or o.peak_snr >= STAR_BLEND_PEAK_RATIO * max(rivals)
+                    or o.elongation <= STAR_ROUND_ELONGATION):
                 o.kind = "star"
     return labels, objects
 
@@ -195,6 +199,14 @@ def choose_lens(objects: list[FieldObject], shape: tuple[int, int], labels: np.n
     dist = np.array([np.hypot(o.x - c0x, o.y - c0y) for o in cands])
     order = np.argsort(dist)
     lens = cands[int(order[0])]
+    # A star-like object much nearer the centre and part of the same blend is the lens's own core
+    # (a cuspy galaxy deblended from its ring or arcs looks compact).
+    for o in bright:
+        d = np.hypot(o.x - c0x, o.y - c0y)
+        if (o.kind == "star" and d < 0.5 * dist[order[0]] and d <= near
+                and lens.label in _touching(labels, o.label)):
+            lens, dist, order, cands = o, np.array([d]), np.array([0]), [o]
+            return lens, "the compact light peak nearest the cutout centre (the core of the lens's blend)", ""
     how = "the compact light peak nearest the cutout centre that is not a star"
     hint = ""
     if lens.kind == "star":
@@ -277,7 +289,7 @@ def cutout_masks(image: np.ndarray, noise_sigma: float, *, center: tuple[float, 
         if lens is not None and o.label == lens.label:
             o.kind = "lens"
             continue
-        if o.label in touching and o.peak_snr < lens.peak_snr:
+        if o.label in touching and o.peak_snr < lens.peak_snr and o.kind != "star":
             # A piece split off the lens's own blend and fainter than its core: as likely a piece of
             # the ring or an arc as a neighbour, so it is not masked.
             o.kind = "faint" if o.kind in ("star", "galaxy") else o.kind
