@@ -55,7 +55,7 @@ from lensmass.core.ridge import ridge_peak
 #: shape limits below were set on 60 generated non-lenses (spirals, ring galaxies, pairs, star +
 #: galaxy, ellipticals, noise; seeds 3500-3559) so that at most one got a confident ring, keeping
 #: the confident rings of 72 generated lenses (seeds 3000-3071); tests check them on unseen seeds.
-CONFIDENT_SCORE = 10.0
+CONFIDENT_SCORE = 12.0
 #: Largest ridge width (FWHM of the ring profile) of a confident ring, in seeing FWHM (fitted PSF).
 CONFIDENT_MAX_WIDTH_PSF = 2.6
 #: Largest scatter of the ridge points about the fitted ellipse, in ring widths (spiral arms wander).
