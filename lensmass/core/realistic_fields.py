@@ -24,6 +24,7 @@ pictures: common practice for survey cutouts).
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from scipy.signal import fftconvolve
@@ -174,7 +175,7 @@ def make_cutout(seed: int, kind: str | None = None, *, lens: bool | None = None,
     cx, cy = c0 + rng.uniform(-2.5, 2.5), c0 + rng.uniform(-2.5, 2.5)
     zero = np.zeros_like(xx)
     comps = {"lens": zero, "arc": zero, "other": [zero, zero, zero]}
-    truth = {"kind": kind, "is_lens": is_lens, "seed": seed, "pixel_scale_arcsec": scale,
+    truth: dict[str, Any] = {"kind": kind, "is_lens": is_lens, "seed": seed, "pixel_scale_arcsec": scale,
              "psf_fwhm_arcsec": fwhm, "psf_fwhm_pix": fwhm_pix, "moffat_beta": beta,
              "center_x": float(cx), "center_y": float(cy), "radius_pix": float("nan"), "extras": []}
 

@@ -1,5 +1,8 @@
 """Automatic Einstein-ring finder on the lens-subtracted image.
 
+Longer than 500 lines because masks, centre, three profiles, candidates, arc pairs and the calibrated
+errors are one search whose steps share the sector grid; the masks themselves live in cutout_masks.
+
 Method (our own):
 
 0. Masks and centre (:mod:`lensmass.core.cutout_masks`): the cutout is segmented and
@@ -40,6 +43,7 @@ from __future__ import annotations
 
 import warnings as warnings_module
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from scipy.ndimage import gaussian_filter
@@ -138,7 +142,7 @@ class RingResult:
     ring_width_pix: float = float("nan")
     center_source: str = "the light peak near the image centre"
     center_hint: str = ""
-    masks: object = None
+    masks: Any = None
     paired: bool = False
     radius_internal_err_pix: float = float("nan")
 
@@ -583,11 +587,11 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
             candidates.append(int(k))
             scores.append(float(pr))
             from_top.add(int(k))
-    candidates = np.array(candidates, int)
-    scores = np.array(scores, float)
-    scores = np.where(np.isfinite(scores), np.maximum(scores, 0.0), 0.0)
-    best_score = float(scores.max()) if scores.size else (float(prominence.max()) if prominence.size else 0.0)
-    if not scores.size or best_score < 3.0:
+    candidates_arr = np.array(candidates, int)
+    score_arr = np.array(scores, float)
+    scores_ok = np.where(np.isfinite(score_arr), np.maximum(score_arr, 0.0), 0.0)
+    best_score = float(scores_ok.max()) if scores_ok.size else (float(prominence.max()) if prominence.size else 0.0)
+    if not scores_ok.size or best_score < 3.0:
         empty = RingResult(False, False, "none", float("nan"), float("nan"), best_score, 0.0, cx, cy, float("nan"),
                            float("nan"), float("nan"), np.array([]), np.array([]), radii, prof, err, sigma, res, light,
                            "No ring: no peak of the azimuthal profile stands out by 3 sigma around the centre "
@@ -597,12 +601,12 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     # Several candidates are measured, not only the strongest peak (a star's or a neighbour's
     # residual can outshine the ring in the azimuthal profile); the kept one is the candidate
     # seen in the most directions, among those found, weighted by its significance.
-    order = np.argsort(-scores)[:MAX_CANDIDATES]
+    order = np.argsort(-scores_ok)[:MAX_CANDIDATES]
     tried = []
     for i in order:
-        k = int(candidates[i])
+        k = int(candidates_arr[i])
         p, ps = (top, top_s) if k in from_top else (prof, prof_s)
-        tried.append(_measure_candidate(k, float(scores[i]), res, cx, cy, n_sectors, light, list(warnings), sigma,
+        tried.append(_measure_candidate(k, float(scores_ok[i]), res, cx, cy, n_sectors, light, list(warnings), sigma,
                                         sums, counts, smean, radii, p, ps, err))
     report(progress, 1.0)
     best = max(tried, key=lambda r: (r.found, r.found and r.confident, min(r.score, 30.0) * r.coverage))

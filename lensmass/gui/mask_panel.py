@@ -97,7 +97,7 @@ class MaskPanel(QWidget):
         if image is None:
             self.window.show_message("Open an image first (File > Open).")
             return
-        data, centre, hand = image.data, self.model.centre, image.hand_mask
+        data, centre = image.data, self.model.centre
 
         def work(progress, should_stop):
             from lensmass.core.cutout_masks import cutout_masks
