@@ -21,9 +21,11 @@ Method (our own, on photutils segmentation and deblending):
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
+from astropy.utils.exceptions import AstropyWarning
 from scipy.ndimage import binary_dilation, gaussian_filter
 
 from lensmass.core.errors import LensInputError
@@ -108,14 +110,17 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
     img = np.asarray(image, float)
     finite = np.isfinite(img)
     sm = gaussian_filter(np.where(finite, img, 0.0), smooth_pix)
-    segm = detect_sources(sm, THRESHOLD_SIGMA * noise_sigma / (2 * np.sqrt(np.pi) * smooth_pix),
-                          n_pixels=MIN_PIXELS, mask=~finite)
-    if segm is None:
-        return np.zeros(img.shape, np.int32), []
-    try:
-        segm = deblend_sources(sm, segm, n_pixels=MIN_PIXELS, n_levels=32, contrast=DEBLEND_CONTRAST, progress_bar=False)
-    except (ValueError, TypeError):  # nothing to deblend
-        pass
+    with warnings.catch_warnings():  # "no sources found" is an answer here (a blank cutout), not a warning
+        warnings.simplefilter("ignore", AstropyWarning)
+        segm = detect_sources(sm, THRESHOLD_SIGMA * noise_sigma / (2 * np.sqrt(np.pi) * smooth_pix),
+                              n_pixels=MIN_PIXELS, mask=~finite)
+        if segm is None:
+            return np.zeros(img.shape, np.int32), []
+        try:
+            segm = deblend_sources(sm, segm, n_pixels=MIN_PIXELS, n_levels=32, contrast=DEBLEND_CONTRAST,
+                                   progress_bar=False)
+        except (ValueError, TypeError):  # nothing to deblend
+            pass
     labels = np.asarray(segm.data, np.int32)
     objects = []
     for lab, sl in zip(segm.labels, segm.slices):
