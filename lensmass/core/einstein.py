@@ -188,8 +188,8 @@ def measure_theta_e_from_points(
         The lens centre in pixels; holds the circle/ellipse centre there.
     refine : bool
         Move each point onto the brightness ridge first (:func:`lensmass.core.ridge.refine_to_ridge`),
-        using ``refine_image`` (e.g. the lens-subtracted residual) or the image data; the ridge
-        search removes the local lens-light gradient itself, so the plain image works.
+        using ``refine_image``, or the image data and, for points with no ridge there, the image
+        with the lens light subtracted (:func:`lensmass.core.lenslight.fit_lens_light_masked`).
     point_err_pix : float
         1-sigma uncertainty of each position (pixels); a floor under the fit's scatter.
     pixel_scale_arcsec, pixel_scale_err_arcsec, pixel_matrix_arcsec : optional
@@ -229,6 +229,20 @@ def measure_theta_e_from_points(
             rough = fit_circle(px, py) if px.size >= 3 else None
             rc = (rough.center_x, rough.center_y) if rough else (px.mean(), py.mean())
         moved = [refine_to_ridge(pixels, a, b, rc[0], rc[1]) for a, b in zip(px, py)]
+        if refine_image is None and data is not None and not all(m.ok for m in moved):
+            # Under a bright lens in ground seeing the galaxy's falling light hides an arc's ridge in
+            # the raw pixels: those points are searched again on the lens-subtracted image (the ring
+            # finder's lens light, stars, neighbours and the ring masked). The raw image goes first:
+            # where its ridge shows, it is not moved by the lens model's misfit.
+            from lensmass.core.lenslight import fit_lens_light_masked
+
+            light = fit_lens_light_masked(data, rc[0], rc[1])
+            if light.ok:
+                again = [refine_to_ridge(light.residual, a, b, rc[0], rc[1]) if not m.ok else m
+                         for a, b, m in zip(px, py, moved)]
+                n_more = sum(a.ok and not m.ok for a, m in zip(again, moved))
+                moved = again
+                notes.append(f"{n_more} point(s) found their ridge only on the lens-subtracted image.")
         n_bad = sum(not m.ok for m in moved)
         px = np.array([m.x for m in moved])
         py = np.array([m.y for m in moved])
@@ -349,6 +363,31 @@ def measure_from_points(
     return _run_estimate(m, z_l, z_s, estimate_options, estimate_fn)
 
 
+def find_ring_on_image(
+    image,
+    *,
+    center: tuple[float, float] | None = None,
+    mask: np.ndarray | None = None,
+    residual: np.ndarray | None = None,
+    max_radius_pix: float | None = None,
+    progress: ProgressCallback = None,
+    should_stop: StopCallback = None,
+):
+    """The ring finder on a loaded image: its pixels, its RGB picture (if any), the centre and the
+    hand-painted mask. The window and the command line both call this, so they see the same ring
+    with the same error (:class:`lensmass.core.ringfinder.RingResult`)."""
+    from lensmass.core.ringfinder import find_ring
+
+    data = getattr(image, "data", None) if image is not None else None
+    if image is not None and data is None:
+        data = np.asarray(image)
+    if data is None:
+        raise LensInputError("The ring finder needs the image pixels; open the image first.")
+    cx, cy = (None, None) if center is None else center
+    return find_ring(data, cx, cy, residual=residual, max_radius_pix=max_radius_pix, mask=mask,
+                     colour=getattr(image, "rgb", None), progress=progress, should_stop=should_stop)
+
+
 def measure_theta_e_auto_ring(
     image,
     *,
@@ -357,12 +396,17 @@ def measure_theta_e_auto_ring(
     max_radius_pix: float | None = None,
     pixel_scale_arcsec: float | None = None,
     pixel_scale_err_arcsec: float | None = None,
+    mask: np.ndarray | None = None,
+    residual: np.ndarray | None = None,
     progress: ProgressCallback = None,
     should_stop: StopCallback = None,
 ) -> tuple[ThetaEMeasurement, Any]:
-    """Run the ring finder and turn its radius into theta_E; returns (measurement, RingResult)."""
-    from lensmass.core.ringfinder import find_ring
+    """Run the ring finder and turn its radius into theta_E; returns (measurement, RingResult).
 
+    The window and the command line both come here, with the same inputs: the image (and its
+    RGB picture, if any), the centre, the hand-painted ``mask``; ``residual`` is only for callers
+    that hold their own lens-subtracted image (the finder then does not fit the lens light).
+    """
     if image is None:
         raise LensInputError("The ring finder needs an image: give the image file (or mark points instead).")
     _, scale, scale_err, to_sky, data, notes = _geometry(image, pixel_scale_arcsec, pixel_scale_err_arcsec, None)
@@ -377,12 +421,15 @@ def measure_theta_e_auto_ring(
         from lensmass.core.limits import on_image
 
         on_image(cx, cy, data.shape, "The lens centre", "check --center")
-    ring = find_ring(data, cx, cy, max_radius_pix=max_radius_pix, progress=progress, should_stop=should_stop)
+    ring = find_ring_on_image(image, center=center, mask=mask, residual=residual, max_radius_pix=max_radius_pix,
+                              progress=progress, should_stop=should_stop)
     if not ring.found or (require_confident and not ring.confident):
-        raise LensInputError(f"{ring.message} Mark points on the arcs instead (--points FILE).")
+        hint = f" {ring.center_hint}" if ring.center_hint else ""
+        raise LensInputError(f"{ring.message}{hint} Mark points on the arcs instead (--points FILE).")
     theta, err = theta_e_from_pixels(ring.radius_pix, ring.radius_err_pix, scale, scale_err)
     ra, dec = _sky(to_sky, ring.center_x, ring.center_y)
-    notes = notes + list(ring.warnings)
+    notes = notes + [f"Lens centre ({ring.center_x:.2f}, {ring.center_y:.2f}) pixels: {ring.center_source}."]
+    notes += list(ring.warnings)
     if not ring.confident:
         notes.append(ring.message)
     shape = "ellipse through the ridge, theta_E = sqrt(a b)" if ring.axis_ratio < 1.0 else "circle through the ridge"
@@ -411,6 +458,7 @@ def measure_auto_ring(
     z_s: float | None = None,
     estimate_options: dict | None = None,
     estimate_fn: Callable[[float, float], dict] | None = None,
+    mask: np.ndarray | None = None,
     progress: ProgressCallback = None,
     should_stop: StopCallback = None,
 ) -> dict[str, Any]:
@@ -423,8 +471,8 @@ def measure_auto_ring(
     """
     m, ring = measure_theta_e_auto_ring(image, center=center, require_confident=require_confident,
                                         max_radius_pix=max_radius_pix, pixel_scale_arcsec=pixel_scale_arcsec,
-                                        pixel_scale_err_arcsec=pixel_scale_err_arcsec, progress=progress,
-                                        should_stop=should_stop)
+                                        pixel_scale_err_arcsec=pixel_scale_err_arcsec, mask=mask,
+                                        progress=progress, should_stop=should_stop)
     result = _run_estimate(m, z_l, z_s, estimate_options, estimate_fn)
     result["_ring"] = ring
     return result

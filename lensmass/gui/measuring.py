@@ -63,6 +63,20 @@ def measure_system(system, centre: tuple[float, float] | None, image: ImageState
                      tuple(n for n in m.notes if not n.startswith("No pixel-scale uncertainty")))
 
 
+def lens_subtracted(image: ImageState, centre: tuple[float, float]) -> np.ndarray:
+    """The image with the lens light subtracted, for snapping: the fitted lens light if the user
+    fitted it, else the command line's masked fit (:func:`lensmass.core.lenslight.fit_lens_light_masked`)
+    about ``centre``, computed once per centre and kept on the image state."""
+    if image.lens_light is not None:
+        return image.residual
+    key = (round(float(centre[0]), 2), round(float(centre[1]), 2))
+    cached = getattr(image, "_snap_residual", None)
+    if cached is None or cached[0] != key:
+        light = _core("lenslight", "Snapping onto the arc ridge").fit_lens_light_masked(image.data, *centre)
+        image._snap_residual = (key, light.residual if light.ok else image.data)
+    return image._snap_residual[1]
+
+
 def snap_to_ridge(image: ImageState, x: float, y: float,
                   centre: tuple[float, float] | None) -> tuple[tuple[float, float], str]:
     """Move a click radially onto the arc ridge (lensmass.core.ridge).
@@ -73,8 +87,10 @@ def snap_to_ridge(image: ImageState, x: float, y: float,
     if centre is None:
         return (x, y), "Set the lens centre first: snapping moves a click along the radius from it."
     ridge = _core("ridge", "Snapping onto the arc ridge")
-    data = image.residual if image.lens_light is not None else image.data
-    out = ridge.refine_to_ridge(data, x, y, centre[0], centre[1])
+    first = image.residual if image.lens_light is not None else image.data
+    out = ridge.refine_to_ridge(first, x, y, centre[0], centre[1])
+    if not out.ok and image.lens_light is None:  # as the command line's --refine: lens-subtracted next
+        out = ridge.refine_to_ridge(lens_subtracted(image, centre), x, y, centre[0], centre[1])
     if not out.ok:
         return (x, y), out.warning or "No arc ridge near the click: the point stays where it was clicked."
     return (float(out.x), float(out.y)), out.warning

@@ -47,6 +47,11 @@ class ImageState:
     loaded: Any
     lens_light: np.ndarray | None = None
     lens_light_note: str = ""
+    #: Pixels painted out by hand (True = leave out), added to the automatic masks of the ring
+    #: finder and the lens-light fit; None when nothing is painted.
+    hand_mask: np.ndarray | None = None
+    #: The automatic masks (stars, neighbours) of the last ring search or lens-light fit, for display.
+    auto_mask: np.ndarray | None = None
 
     @property
     def path(self) -> str:

@@ -96,6 +96,7 @@ PANELS: list[tuple[str, str]] = [
     ("lensmass.gui.cluster_panel", "ClusterPanel"),
     ("lensmass.gui.triage_panel", "TriagePanel"),
     ("lensmass.gui.lens_model_panel", "LensModelPanel"),
+    ("lensmass.gui.mask_panel", "MaskPanel"),
 ]
 
 #: Where a panel goes when it does not say (``DOCK_AREA``).

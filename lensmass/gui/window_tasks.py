@@ -113,21 +113,25 @@ class WindowTasksMixin:
         image = self._image_or_hint()
         if image is None:
             return
-        data, centre, residual = image.data, self.model.centre, image.residual
+        loaded, centre, hand = image.loaded, self.model.centre, image.hand_mask
 
         def work(progress, should_stop):
-            from lensmass.core.ringfinder import find_ring
+            # The command line's function with the command line's inputs: the image (not a residual
+            # left by an earlier lens-light fit), the centre and the painted mask.
+            from lensmass.core.einstein import find_ring_on_image
 
-            kwargs = {"progress": progress, "should_stop": should_stop}
-            if residual is not None:
-                kwargs["residual"] = residual
-            cx, cy = (None, None) if centre is None else centre
-            return find_ring(data, cx, cy, **kwargs)
+            return find_ring_on_image(loaded, center=centre, mask=hand, progress=progress, should_stop=should_stop)
 
         self.run_task(work, "Finding the ring", self._ring_found)
 
     def _ring_found(self, ring) -> None:
         m = self.model
+        masks = getattr(ring, "masks", None)
+        if m.image is not None and masks is not None:
+            m.image.auto_mask = masks.mask
+            for panel in getattr(self, "panels", []):
+                if hasattr(panel, "set_auto_mask"):
+                    panel.set_auto_mask(masks.mask)
         if not getattr(ring, "found", False):
             self.show_error(ring.message or "No ring or arc was found: mark the arc by hand.")
             return
@@ -147,21 +151,25 @@ class WindowTasksMixin:
             self.undo_stack.push(AddMark(m, "point", m.active, (float(x), float(y))))
         self.undo_stack.endMacro()
         confidence = "confident" if ring.confident else "not confident: check the marks"
-        warn = f" {ring.warnings[-1]}" if ring.warnings else ""  # the last is about the ring itself
-        self.show_message(f"Ring found at {ring.radius_pix:.1f} px ({confidence}); its points are editable.{warn}")
+        hint = f" {ring.center_hint}" if getattr(ring, "center_hint", "") else ""
+        about_ring = next((w for key in ("barely resolved", "single arc", "Two arcs", "Refitting")
+                           for w in ring.warnings if key in w), "")
+        hint = f" {about_ring}{hint}" if about_ring else hint
+        self.show_message(f"{ring.kind.capitalize()} found at {ring.radius_pix:.2f} +- {ring.radius_err_pix:.2f} px "
+                          f"({confidence}) about the lens centre ({ring.center_x:.1f}, {ring.center_y:.1f}), "
+                          f"{ring.center_source}; its points are editable.{hint}")
 
     def fit_lens_light(self, then_layer: str = "residual") -> None:
         image = self._image_or_hint()
         if image is None:
             return
-        data, centre = image.data, self.model.centre
+        data, centre, hand = image.data, self.model.centre, image.hand_mask
 
         def work(progress, should_stop):
-            from lensmass.core.lenslight import fit_lens_light
-            from lensmass.core.ringfinder import find_center
+            from lensmass.core.lenslight import fit_lens_light_masked
 
-            cx, cy = centre if centre is not None else find_center(data)
-            return fit_lens_light(data, cx, cy, progress=progress, should_stop=should_stop)
+            cx, cy = centre if centre is not None else (None, None)
+            return fit_lens_light_masked(data, cx, cy, mask=hand, progress=progress, should_stop=should_stop)
 
         self.run_task(work, "Fitting the lens light", lambda fit: self._light_fitted(fit, then_layer))
 

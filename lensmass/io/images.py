@@ -86,6 +86,9 @@ class LoadedImage:
     notes: list[str] = field(default_factory=list)
     #: Why the file's WCS was not used (empty when it was, or when there is none).
     wcs_problem: str = ""
+    #: The picture's (ny, nx, 3) RGB values for colour pictures (PNG/JPEG), else None: the ring
+    #: finder uses the colour to tell blue arcs from the red lens light.
+    rgb: np.ndarray | None = None
 
     @property
     def shape(self) -> tuple[int, int]:
@@ -445,6 +448,7 @@ def _load_raster(p: Path) -> LoadedImage:
     notes: list[str] = []
     from PIL import Image as _pil
 
+    rgb = None
     try:
         with Image.open(p) as im:
             _check_size(p, im.size[1], im.size[0])
@@ -471,7 +475,9 @@ def _load_raster(p: Path) -> LoadedImage:
         raise LensInputError("Every pixel of the image is NaN: there is nothing to measure; check the file.")
     data[bad] = np.nan
     notes.append("Pictures (PNG/JPEG/TIFF) carry no sky coordinates; pixel values may be stretched, not linear flux.")
-    return LoadedImage(data=data, path=str(p), kind="raster", notes=notes)
+    if rgb is not None and np.ptp(rgb[..., 0] - rgb[..., 2]) == 0:
+        rgb = None  # a grey picture saved as RGB carries no colour
+    return LoadedImage(data=data, path=str(p), kind="raster", notes=notes, rgb=rgb)
 
 
 def _finish(image: LoadedImage, user_scale: float | None, user_err: float) -> None:

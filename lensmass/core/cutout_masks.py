@@ -1,0 +1,326 @@
+"""What else is in a lens cutout: segmentation, stars, neighbours, the lens centre, and a mask.
+
+Method (our own, on photutils segmentation and deblending):
+
+1. The image, smoothed by a Gaussian of about one pixel, is segmented at
+   :data:`THRESHOLD_SIGMA` times the pixel noise (photutils ``detect_sources``) and blended
+   objects are split at their saddles (photutils ``deblend_sources``).
+2. Each object is described by its peak signal-to-noise, the flux fraction inside its own
+   half-maximum contour, and the elongation and orientation of its second moments.
+   A star is PSF-like: a round object whose half-maximum contour holds a large share of its
+   light (a Gaussian PSF holds 50%, a Moffat PSF of index 2.5-4.5 holds 34-42%; a blurred
+   de Vaucouleurs galaxy much less; common practice: stars are the most concentrated objects).
+3. The lens is the non-star object of good signal nearest the cutout centre (or the one at the
+   user's centre); the hint says when another galaxy is about as close and as bright.
+4. Everything that is neither the lens nor an arc is masked, grown by about its own
+   half-maximum size: stars, neighbours, field galaxies. An arc is an object elongated
+   tangentially about the lens centre (major axis within :data:`ARC_ANGLE_DEG` of the
+   tangent, elongation at least :data:`ARC_ELONGATION`); in a colour image also any object
+   bluer than the lens.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+from astropy.utils.exceptions import AstropyWarning
+from scipy.ndimage import binary_dilation, gaussian_filter
+
+from lensmass.core.errors import LensInputError
+
+#: Segmentation threshold in units of the pixel noise (on the lightly smoothed image).
+THRESHOLD_SIGMA = 3.0
+#: Objects whose peak is below this many sigma are noise or faint arcs: never masked.
+MIN_PEAK_SNR = 3.0
+#: Only objects brighter than this (peak, in sigma) and than this fraction of the lens peak are masked.
+MASK_MIN_PEAK_SNR = 15.0
+MASK_MIN_LENS_RATIO = 0.05
+#: photutils deblending contrast: a component must hold this fraction of its blend's flux to be split
+#: off (lower values cut a lens galaxy and its ring into pieces that look like stars).
+DEBLEND_CONTRAST = 0.05
+#: Smallest object, pixels.
+MIN_PIXELS = 6
+#: Flux fraction inside the half-maximum contour above which a round object is PSF-like (a star).
+STAR_HALFMAX_FRACTION = 0.33
+#: A star touching other segments must peak this many times above the brightest of them.
+STAR_BLEND_PEAK_RATIO = 3.0
+#: A PSF-like object this round is a star even where it touches other segments.
+STAR_ROUND_ELONGATION = 1.2
+#: Largest elongation (a/b) of a star.
+STAR_MAX_ELONGATION = 1.4
+#: An object elongated at least this much, with its major axis within ARC_ANGLE_DEG of the tangent, is an arc.
+ARC_ELONGATION = 1.6
+ARC_ANGLE_DEG = 30.0
+#: Peak signal-to-noise an object needs to be taken as the lens.
+LENS_MIN_PEAK_SNR = 8.0
+#: A second galaxy this close (relative distance) and this bright makes the centre uncertain.
+RIVAL_DISTANCE_RATIO = 1.5
+RIVAL_PEAK_RATIO = 0.5
+
+
+@dataclass
+class FieldObject:
+    """One segmented object. ``kind``: "lens", "star", "galaxy" (a neighbour) or "arc"."""
+
+    label: int
+    x: float
+    y: float
+    peak_snr: float
+    flux: float
+    area_pix: int
+    halfmax_fraction: float
+    halfmax_diameter_pix: float
+    elongation: float
+    angle_deg: float
+    kind: str = "galaxy"  # "noise": too faint to matter; "faint": a knot left unmasked
+    blue_excess: float = float("nan")
+
+
+@dataclass
+class CutoutMasks:
+    """``mask`` is True for pixels to leave out (not lens, not arc); ``segments`` the label image
+    (0 = sky); ``objects`` every segmented object; ``center_x``/``center_y`` the lens centre used,
+    ``center_source`` how it was chosen and ``center_hint`` a sentence when it is uncertain."""
+
+    mask: np.ndarray
+    segments: np.ndarray
+    objects: list[FieldObject]
+    center_x: float
+    center_y: float
+    center_source: str
+    center_hint: str = ""
+    notes: list[str] = field(default_factory=list)
+
+    @property
+    def n_masked(self) -> int:
+        return sum(o.kind in ("star", "galaxy") for o in self.objects)
+
+
+def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray | None = None,
+                    smooth_pix: float = 1.0) -> tuple[np.ndarray, list[FieldObject]]:
+    """Segment and deblend ``image`` (photutils); return the label image and the objects.
+
+    ``colour`` (optional, same shape) is a blue-excess image: positive where bluer than the
+    lens; each object's mean of it is kept as ``blue_excess``.
+    """
+    from photutils.segmentation import deblend_sources, detect_sources
+
+    img = np.asarray(image, float)
+    finite = np.isfinite(img)
+    sm = gaussian_filter(np.where(finite, img, 0.0), smooth_pix)
+    with warnings.catch_warnings():  # "no sources found" is an answer here (a blank cutout), not a warning
+        warnings.simplefilter("ignore", AstropyWarning)
+        segm = detect_sources(sm, THRESHOLD_SIGMA * noise_sigma / (2 * np.sqrt(np.pi) * smooth_pix),
+                              n_pixels=MIN_PIXELS, mask=~finite)
+        if segm is None:
+            return np.zeros(img.shape, np.int32), []
+        try:
+            segm = deblend_sources(sm, segm, n_pixels=MIN_PIXELS, n_levels=32, contrast=DEBLEND_CONTRAST,
+                                   progress_bar=False)
+        except (ValueError, TypeError):  # nothing to deblend
+            pass
+    labels = np.asarray(segm.data, np.int32)
+    objects = []
+    for lab, sl in zip(segm.labels, segm.slices):
+        cut = labels[sl] == lab
+        vals = sm[sl]
+        v = np.where(cut, vals, 0.0)
+        tot = float(v.sum())
+        if tot <= 0:
+            continue
+        peak = float(v.max())
+        half = cut & (vals >= 0.5 * peak)
+        yy, xx = np.mgrid[sl[0], sl[1]]
+        w = np.clip(v, 0, None)
+        mx, my = float((w * xx).sum() / tot), float((w * yy).sum() / tot)
+        dx, dy = xx - mx, yy - my
+        cxx, cyy, cxy = (w * dx * dx).sum() / tot, (w * dy * dy).sum() / tot, (w * dx * dy).sum() / tot
+        ev, vec = np.linalg.eigh(np.array([[cxx, cxy], [cxy, cyy]]))
+        elong = float(np.sqrt(max(ev[1], 1e-9) / max(ev[0], 1e-9)))
+        ang = float(np.degrees(np.arctan2(vec[1, 1], vec[0, 1])))
+        iy, ix = np.unravel_index(int(np.argmax(v)), v.shape)
+        be = float(np.nanmean(colour[sl][cut])) if colour is not None else float("nan")
+        objects.append(FieldObject(int(lab), float(ix + sl[1].start), float(iy + sl[0].start), peak / noise_sigma, tot,
+                                   int(cut.sum()), float(np.where(half, vals, 0).sum() / tot),
+                                   float(2 * np.sqrt(half.sum() / np.pi)), elong, ang, blue_excess=be))
+    peaks = {o.label: o.peak_snr for o in objects}
+    for o in objects:
+        if o.peak_snr < MIN_PEAK_SNR:
+            o.kind = "noise"
+        elif o.halfmax_fraction >= STAR_HALFMAX_FRACTION and o.elongation <= STAR_MAX_ELONGATION and o.peak_snr >= 5:
+            # PSF-like, and not merely the compact core of a blend it was cut from (a galaxy's core
+            # deblended from its ring holds much of its segment's light inside its half maximum too).
+            # A very round one is a star even in a blend (a ring's clumps are drawn out along it).
+            rivals = [peaks.get(lab, 0.0) for lab in _touching(labels, o.label)]
+            if (not rivals or o.peak_snr >= STAR_BLEND_PEAK_RATIO * max(rivals)
+                    or o.elongation <= STAR_ROUND_ELONGATION):
+                o.kind = "star"
+    return labels, objects
+
+
+def _touching(labels: np.ndarray, label: int) -> set[int]:
+    """Labels of the segments within 2 pixels of segment ``label``."""
+    ys, xs = np.nonzero(labels == label)
+    if ys.size == 0:
+        return set()
+    y0, y1 = max(0, ys.min() - 3), min(labels.shape[0], ys.max() + 4)
+    x0, x1 = max(0, xs.min() - 3), min(labels.shape[1], xs.max() + 4)
+    box = labels[y0:y1, x0:x1]
+    around = binary_dilation(box == label, iterations=2)
+    return set(np.unique(box[around]).tolist()) - {0, label}
+
+
+def _tangential(o: FieldObject, cx: float, cy: float) -> bool:
+    radial = np.degrees(np.arctan2(o.y - cy, o.x - cx))
+    diff = abs(((o.angle_deg - radial - 90.0) + 90.0) % 180.0 - 90.0)
+    return o.elongation >= ARC_ELONGATION and diff <= ARC_ANGLE_DEG
+
+
+def choose_lens(objects: list[FieldObject], shape: tuple[int, int], labels: np.ndarray,
+                center: tuple[float, float] | None) -> tuple[FieldObject | None, str, str]:
+    """The lens object, how it was chosen, and a hint when the choice is uncertain."""
+    ny, nx = shape
+    if center is not None:
+        ix = int(np.clip(round(center[0]), 0, nx - 1))
+        iy = int(np.clip(round(center[1]), 0, ny - 1))
+        lab = int(labels[iy, ix])
+        lens = next((o for o in objects if o.label == lab), None)
+        return lens, "given", ""
+    c0x, c0y = (nx - 1) / 2, (ny - 1) / 2
+    near = max(6.0, 0.15 * min(nx, ny))
+    bright = [o for o in objects if o.peak_snr >= LENS_MIN_PEAK_SNR]
+    cands = [o for o in bright if o.kind != "star" and np.hypot(o.x - c0x, o.y - c0y) <= near]
+    if not cands:
+        # No galaxy right at the centre. A star-like object there is most likely the lens's own core
+        # (a cuspy galaxy deblended from its ring looks compact); failing that, galaxies farther out.
+        central = [o for o in bright if np.hypot(o.x - c0x, o.y - c0y) <= near]
+        cands = central or [o for o in bright if o.kind != "star" and np.hypot(o.x - c0x, o.y - c0y) <= 2 * near]
+        cands = cands or bright
+    if not cands:
+        return None, "no galaxy above the noise: the cutout centre", (
+            "No galaxy stands out near the cutout centre; give the lens centre (--center X,Y) if there is one.")
+    dist = np.array([np.hypot(o.x - c0x, o.y - c0y) for o in cands])
+    order = np.argsort(dist)
+    lens = cands[int(order[0])]
+    # A star-like object much nearer the centre and part of the same blend is the lens's own core
+    # (a cuspy galaxy deblended from its ring or arcs looks compact).
+    for o in bright:
+        d = np.hypot(o.x - c0x, o.y - c0y)
+        if (o.kind == "star" and d < 0.5 * dist[order[0]] and d <= near
+                and lens.label in _touching(labels, o.label)):
+            lens, dist, order, cands = o, np.array([d]), np.array([0]), [o]
+            return lens, "the compact light peak nearest the cutout centre (the core of the lens's blend)", ""
+    how = "the compact light peak nearest the cutout centre that is not a star"
+    hint = ""
+    if lens.kind == "star":
+        how = "the compact light peak nearest the cutout centre (compact enough to be a star)"
+        hint = ("The object at the cutout centre is as compact as a star; it was taken as the lens: give the lens "
+                "centre (--center X,Y) if it is elsewhere.")
+    elif len(order) > 1:
+        rival = cands[int(order[1])]
+        d0, d1 = dist[order[0]], dist[order[1]]
+        if d1 <= RIVAL_DISTANCE_RATIO * max(d0, 3.0) and rival.peak_snr >= RIVAL_PEAK_RATIO * lens.peak_snr:
+            hint = (f"Two galaxies are about equally near the cutout centre, at ({lens.x:.1f}, {lens.y:.1f}) and "
+                    f"({rival.x:.1f}, {rival.y:.1f}); the first was taken as the lens: give --center X,Y if it is the other.")
+    if not hint and dist[order[0]] > 0.2 * min(nx, ny):
+        hint = (f"The lens was taken {dist[order[0]]:.0f} pixels from the cutout centre; give --center X,Y if the "
+                "lens is elsewhere.")
+    return lens, how, hint
+
+
+def refine_peak(image: np.ndarray, x: float, y: float, smooth_pix: float = 1.5) -> tuple[float, float]:
+    """Sub-pixel light peak near (x, y): the 5 x 5 centroid of the smoothed image around its local maximum."""
+    img = np.asarray(image, float)
+    ny, nx = img.shape
+    ix, iy = int(round(x)), int(round(y))
+    x0, x1, y0, y1 = max(0, ix - 8), min(nx, ix + 9), max(0, iy - 8), min(ny, iy + 9)
+    cut = img[y0:y1, x0:x1]
+    sm = gaussian_filter(np.where(np.isfinite(cut), cut, np.nanmedian(cut)), smooth_pix)
+    jy, jx = np.unravel_index(int(np.argmax(sm)), sm.shape)
+    a0, a1, b0, b1 = max(0, jx - 2), min(sm.shape[1], jx + 3), max(0, jy - 2), min(sm.shape[0], jy + 3)
+    win = sm[b0:b1, a0:a1]
+    w = np.clip(win - win.min(), 0, None)
+    if w.sum() <= 0:
+        return float(x0 + jx), float(y0 + jy)
+    gy, gx = np.mgrid[b0:b1, a0:a1]
+    return float((w * gx).sum() / w.sum() + x0), float((w * gy).sum() / w.sum() + y0)
+
+
+def cutout_masks(image: np.ndarray, noise_sigma: float, *, center: tuple[float, float] | None = None,
+                 colour: np.ndarray | None = None, extra_mask: np.ndarray | None = None) -> CutoutMasks:
+    """Segment the cutout, find the lens, and mask everything that is neither lens nor arc.
+
+    Parameters
+    ----------
+    image : 2-D array
+        The cutout (NaN = masked).
+    noise_sigma : float
+        Pixel noise.
+    center : (x, y), optional
+        The user's lens centre (0-based column, row); default chosen as described above.
+    colour : 2-D array, optional
+        Blue-excess image (positive = bluer than the lens): objects bluer than the lens are kept as arcs.
+    extra_mask : bool array, optional
+        Pixels the user masked by hand (added to the mask).
+
+    Examples
+    --------
+    >>> yy, xx = np.mgrid[0:64, 0:64]
+    >>> img = 100 * np.exp(-np.hypot(xx - 31, yy - 32) / 3) + 400 * np.exp(-np.hypot(xx - 52, yy - 12) ** 2 / 4)
+    >>> m = cutout_masks(img + np.random.default_rng(0).normal(0, 1, img.shape), 1.0)
+    >>> round(m.center_x), round(m.center_y), bool(m.mask[12, 52]), bool(m.mask[32, 31])
+    (31, 32, True, False)
+    """
+    img = np.asarray(image, float)
+    if img.ndim != 2:
+        raise LensInputError("Masks need a 2-D image.")
+    labels, objects = segment_objects(img, noise_sigma, colour=colour)
+    lens, how, hint = choose_lens(objects, img.shape, labels, center)
+    if center is not None:
+        cx, cy = float(center[0]), float(center[1])
+    elif lens is not None:
+        cx, cy = refine_peak(img, lens.x, lens.y)
+    else:
+        cx, cy = (img.shape[1] - 1) / 2, (img.shape[0] - 1) / 2
+    lens_blue = lens.blue_excess if lens is not None else float("nan")
+    touching = set()
+    if lens is not None:
+        around = binary_dilation(labels == lens.label, iterations=2)
+        touching = set(np.unique(labels[around]).tolist()) - {0, lens.label}
+    mask = np.zeros(img.shape, bool)
+    for o in objects:
+        if lens is not None and o.label == lens.label:
+            o.kind = "lens"
+            continue
+        if o.label in touching and o.peak_snr < lens.peak_snr and o.kind != "star":
+            # A piece split off the lens's own blend and fainter than its core: as likely a piece of
+            # the ring or an arc as a neighbour, so it is not masked.
+            o.kind = "faint" if o.kind in ("star", "galaxy") else o.kind
+            continue
+        if o.kind == "noise" or o.peak_snr < MASK_MIN_PEAK_SNR or (lens is not None and o.peak_snr < MASK_MIN_LENS_RATIO
+                                                                  * lens.peak_snr):
+            # Faint knots are left alone: the clumps of a ring or an arc look just like faint stars
+            # and small galaxies, and a faint neighbour hardly moves the ring.
+            if o.kind != "noise":
+                o.kind = "faint"
+            continue
+        if o.kind != "star":
+            bluer = colour is not None and np.isfinite(o.blue_excess) and o.blue_excess > max(lens_blue, 0) + 0.5
+            o.kind = "arc" if (_tangential(o, cx, cy) or bluer) else "galaxy"
+        if o.kind in ("star", "galaxy"):
+            grow = int(np.clip(round(o.halfmax_diameter_pix), 2, 12))
+            sel = labels == o.label
+            mask |= binary_dilation(sel, iterations=grow)
+    if lens is not None:
+        mask &= labels != lens.label  # never mask the lens itself
+    if extra_mask is not None:
+        mask |= np.asarray(extra_mask, bool)
+    notes = []
+    n_star = sum(o.kind == "star" for o in objects)
+    n_gal = sum(o.kind == "galaxy" for o in objects)
+    if n_star or n_gal:
+        notes.append(f"Masked {n_star} star(s) and {n_gal} neighbouring galaxy(ies) (photutils segmentation and "
+                     "deblending; stars by their PSF-like shape).")
+    return CutoutMasks(mask, labels, objects, float(cx), float(cy), how, hint, notes)

@@ -1,0 +1,350 @@
+"""Inject-and-recover cutouts that look like survey cutouts, not like our clean demo fields.
+
+Each cutout is drawn from a seed: a lens galaxy (elliptical Sersic light, SIE mass with an
+external shear) and an irregular, clumpy background source ray-traced through it, plus what a
+real cutout holds besides: neighbouring galaxies, stars with Moffat (1969) wings, a lens centre
+a few pixels off the cutout centre; or a non-lens (an elliptical, a spiral, a ring galaxy, a
+galaxy pair, a star beside a galaxy, pure noise). Pixel scales run from 0.05" to 0.26" and the
+seeing FWHM from 0.1" to 1.0" (never below 1.8 pixels: survey images are sampled). Three bands
+(g, r, i) are rendered with our own colours (lens light red, arcs blue), and an 8-bit stretched
+RGB picture can be made from them, as survey viewers show cutouts.
+
+Everything is in units of the pixel noise (sky-limited, sigma = 1 per pixel in every band), so
+the brightness draws say directly how visible a feature is. The truth (``radius_pix``, centre,
+kind) is kept with each cutout. This is the project's own generator; the populations are
+invented, chosen to cover the hard cases, not to follow any survey's statistics.
+
+References
+----------
+Kormann, Schneider & Bartelmann (1994), A&A 284, 285 (SIE; critical curve of area pi theta_E^2);
+Moffat (1969), A&A 3, 455 (PSF); Lupton et al. (2004), PASP 116, 133 (asinh stretch of colour
+pictures: common practice for survey cutouts).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+from scipy.signal import fftconvolve
+
+from lensmass.core import raytrace as rt
+
+#: Kinds of cutout the generator makes.
+LENS_KINDS = ("ring", "arc", "ring+neighbour", "ring+star", "arc+neighbour", "arc+star")
+NONLENS_KINDS = ("elliptical", "spiral", "ring galaxy", "galaxy pair", "star + galaxy", "pure noise")
+#: Colours (g, r, i flux per unit i flux) of our invented populations: red lens light, blue arcs.
+COLOUR_LENS = (0.35, 0.7, 1.0)
+COLOUR_ARC = (1.0, 0.8, 0.6)
+COLOUR_DISC = (0.8, 0.85, 0.9)
+
+
+@dataclass
+class Cutout:
+    """One generated cutout.
+
+    ``image`` is the r band (counts in units of the pixel noise); ``bands`` are g, r, i;
+    ``truth`` holds ``is_lens``, ``kind``, ``radius_pix`` (SIE theta_E in pixels, NaN for
+    non-lenses), ``center_x``/``center_y`` (pixels), ``psf_fwhm_pix``, ``pixel_scale_arcsec``
+    and what else is in the field.
+    """
+
+    image: np.ndarray
+    bands: np.ndarray
+    pixel_scale_arcsec: float
+    psf_fwhm_arcsec: float
+    truth: dict = field(default_factory=dict)
+
+    @property
+    def psf_fwhm_pix(self) -> float:
+        return self.psf_fwhm_arcsec / self.pixel_scale_arcsec
+
+
+def _moffat_kernel(fwhm_pix: float, beta: float) -> np.ndarray:
+    return rt.psf_kernel(fwhm_pix, 1.0, "moffat", beta, oversample=3)
+
+
+def _sersic(xx, yy, flux, re, n, q, ang, x0, y0):
+    return rt.sersic_surface_brightness(xx, yy, total_flux=flux, r_eff_arcsec=re, n=n, axis_ratio=q,
+                                        angle_deg=ang, x0=x0, y0=y0)
+
+
+def _grid(n: int, oversample: int):
+    s = (np.arange(n * oversample) + 0.5) / oversample - 0.5
+    return np.meshgrid(s, s)
+
+
+def _bin(fine: np.ndarray, k: int) -> np.ndarray:
+    n = fine.shape[0] // k
+    return fine.reshape(n, k, n, k).mean(axis=(1, 3))
+
+
+def _clumpy_source(rng, bx, by, x0, y0, size):
+    """An irregular source: an off-centre exponential disc plus 3-8 Gaussian clumps (flux 1 in all)."""
+    q, ang = rng.uniform(0.4, 1.0), rng.uniform(0, 180)
+    out = 0.4 * _sersic(bx, by, 1.0, size, 1.0, q, ang, x0, y0)
+    k = int(rng.integers(3, 9))
+    r = size * 1.2 * np.sqrt(rng.uniform(0, 1, k))
+    t = rng.uniform(0, 2 * np.pi, k)
+    w = rng.uniform(0.3, 1.5, k)
+    w = 0.6 * w / w.sum()
+    sig = size * rng.uniform(0.15, 0.45, k)
+    for cx, cy, wi, si in zip(x0 + r * np.cos(t), y0 + r * np.sin(t), w, sig):
+        out = out + wi / (2 * np.pi * si * si) * np.exp(-((bx - cx) ** 2 + (by - cy) ** 2) / (2 * si * si))
+    return out
+
+
+def _spiral(xx, yy, x0, y0, re, q, ang, rng):
+    """An exponential disc with two logarithmic arms and knots (our own shape, flux about 1)."""
+    c, s = np.cos(np.radians(ang)), np.sin(np.radians(ang))
+    dx, dy = xx - x0, yy - y0
+    xp, yp = c * dx + s * dy, (-s * dx + c * dy) / q
+    r = np.hypot(xp, yp) + 1e-9
+    phi = np.arctan2(yp, xp)
+    pitch = rng.uniform(0.2, 0.45)
+    arms = 1 + 0.8 * np.cos(2 * (phi - np.log(r / re) / np.tan(pitch)))
+    disc = np.exp(-1.678 * r / re) * arms
+    return disc / (disc.sum() + 1e-30)
+
+
+def _stretch_8bit(bands: np.ndarray, soft: float, top: float) -> np.ndarray:
+    """Bands (3, ny, nx) -> 8-bit RGB (ny, nx, 3): i -> red, r -> green, g -> blue, asinh stretch
+    of each band with one softening and one top value (colours kept; Lupton et al. 2004 style)."""
+    g, r, i = bands
+    rgb = np.stack([i, r, g], axis=-1)
+    v = np.arcsinh(np.clip(rgb, 0, None) / soft) / np.arcsinh(top / soft)
+    return np.clip(np.round(255 * v), 0, 255).astype(np.uint8)
+
+
+def colour_picture(cutout: Cutout, *, soft: float | None = None, top: float | None = None) -> np.ndarray:
+    """The cutout as an 8-bit stretched RGB picture (ny, nx, 3), as survey viewers show it.
+
+    ``soft`` (in noise units, default 2) sets where the asinh stretch turns from linear to
+    logarithmic; ``top`` (default the 99.8th percentile of the i band) maps to 255.
+    """
+    b = cutout.bands
+    soft = 2.0 if soft is None else float(soft)
+    top = float(np.percentile(b[2], 99.8)) if top is None else float(top)
+    return _stretch_8bit(b, soft, max(top, 3 * soft))
+
+
+def make_cutout(seed: int, kind: str | None = None, *, lens: bool | None = None, size: int | None = None,
+                theta_e_over_fwhm: tuple[float, float] = (1.5, 6.0)) -> Cutout:
+    """Draw one cutout from ``seed``.
+
+    Parameters
+    ----------
+    seed : int
+        Everything follows from it.
+    kind : str, optional
+        One of :data:`LENS_KINDS` or :data:`NONLENS_KINDS`; default drawn (lens or not by ``lens``).
+    size : int, optional
+        Side in pixels; default large enough for the ring and its surroundings (64-128).
+    theta_e_over_fwhm : (lo, hi)
+        Range of the Einstein radius in units of the seeing FWHM.
+
+    Examples
+    --------
+    >>> c = make_cutout(3, "ring+star")
+    >>> c.truth["is_lens"], c.image.shape == c.bands.shape[1:]
+    (True, True)
+    """
+    rng = np.random.default_rng(seed)
+    if kind is None:
+        if lens is None:
+            lens = bool(rng.uniform() < 0.67)
+        kinds = LENS_KINDS if lens else NONLENS_KINDS
+        kind = kinds[int(rng.integers(len(kinds)))]
+    is_lens = kind in LENS_KINDS
+    # Pixel scale, seeing and Einstein radius (5-26 pixels: what a cutout shows), drawn until they agree.
+    while True:
+        scale = float(rng.uniform(0.05, 0.26))
+        fwhm = float(rng.uniform(max(0.1, 1.8 * scale), 1.0))
+        fwhm_pix = fwhm / scale
+        lo, hi = max(theta_e_over_fwhm[0], 5.0 / fwhm_pix), min(theta_e_over_fwhm[1], 26.0 / fwhm_pix)
+        if lo < hi:
+            break
+    te_pix = float(fwhm_pix * rng.uniform(lo, hi))
+    beta = float(rng.uniform(2.5, 4.5))
+    if size is None:
+        size = int(np.clip(2 * np.ceil(2.6 * te_pix) + 8, 64, 128))
+    ov = 3
+    xx, yy = _grid(size, ov)
+    c0 = (size - 1) / 2
+    cx, cy = c0 + rng.uniform(-2.5, 2.5), c0 + rng.uniform(-2.5, 2.5)
+    zero = np.zeros_like(xx)
+    comps = {"lens": zero, "arc": zero, "other": [zero, zero, zero]}
+    truth: dict[str, Any] = {"kind": kind, "is_lens": is_lens, "seed": seed, "pixel_scale_arcsec": scale,
+             "psf_fwhm_arcsec": fwhm, "psf_fwhm_pix": fwhm_pix, "moffat_beta": beta,
+             "center_x": float(cx), "center_y": float(cy), "radius_pix": float("nan"), "extras": []}
+
+    def add_other(img, colour):
+        for b in range(3):
+            comps["other"][b] = comps["other"][b] + img * colour[b]
+
+    # Main galaxy (the lens, or the non-lens galaxy): elliptical Sersic light, peak 30-400 x noise.
+    lens_q, lens_ang = float(rng.uniform(0.55, 1.0)), float(rng.uniform(0, 180))
+    re_pix = float(te_pix * rng.uniform(0.4, 1.2)) if is_lens else float(rng.uniform(3, 14))
+    gal_n = float(rng.uniform(2.5, 5.0))
+    lens_light = _sersic(xx, yy, 1.0, re_pix, gal_n, lens_q, lens_ang, cx, cy)
+    if kind != "pure noise" and kind != "spiral":
+        comps["lens"] = lens_light
+    if is_lens:
+        q_m = float(np.clip(lens_q + rng.normal(0, 0.1), 0.55, 1.0))
+        g = rng.uniform(0, 0.05)
+        gang = rng.uniform(0, np.pi)
+        lenses = [rt.SIELens(te_pix, q_m, lens_ang + rng.normal(0, 10), cx, cy),
+                  rt.ExternalShear(g * np.cos(2 * gang), g * np.sin(2 * gang), cx, cy)]
+        bx, by = rt.source_positions(lenses, xx, yy)
+        arcish = kind.startswith("arc")
+        off = te_pix * (rng.uniform(0.25, 0.5) if arcish else rng.uniform(0.0, 0.07))  # rings: source near the axis
+        t = rng.uniform(0, 2 * np.pi)
+        src_size = float(max(te_pix * rng.uniform(0.06, 0.15), 0.7))
+        comps["arc"] = _clumpy_source(rng, bx, by, cx + off * np.cos(t), cy + off * np.sin(t), src_size)
+        truth.update(radius_pix=te_pix, theta_e_arcsec=te_pix * scale, mass_axis_ratio=q_m, shear=float(g),
+                     source_offset_pix=float(off))
+    # Everything else in the field.
+    if kind in ("ring+neighbour", "arc+neighbour") or (kind in ("elliptical", "galaxy pair") and rng.uniform() < 0.3):
+        d = te_pix * rng.uniform(1.3, 1.8) if is_lens else rng.uniform(8, 0.45 * size)
+        t = rng.uniform(0, 2 * np.pi)
+        nx_, ny_ = cx + d * np.cos(t), cy + d * np.sin(t)
+        img = _sersic(xx, yy, 1.0, rng.uniform(0.8, 2.5), rng.uniform(1, 4), rng.uniform(0.5, 1), rng.uniform(0, 180),
+                      nx_, ny_)
+        add_other(img * rng.uniform(0.15, 0.6), _random_colour(rng))
+        truth["extras"].append(("neighbour", float(nx_), float(ny_)))
+    stars = []
+    if kind in ("ring+star", "arc+star", "star + galaxy"):
+        d_arcsec = rng.uniform(3.5, 5.0)
+        d = min(d_arcsec / scale, 0.45 * size)
+        d = max(d, 1.4 * te_pix) if is_lens else max(d, 6.0)
+        d = min(d, 0.47 * size)
+        t = rng.uniform(0, 2 * np.pi)
+        stars.append((cx + d * np.cos(t), cy + d * np.sin(t), rng.uniform(0.5, 8.0)))
+    if kind == "galaxy pair":
+        d = rng.uniform(1.0, 3.0) / scale
+        d = float(np.clip(d, 2.5 * re_pix, 0.4 * size))
+        t = rng.uniform(0, 2 * np.pi)
+        img = _sersic(xx, yy, 1.0, re_pix * rng.uniform(0.5, 1.2), rng.uniform(2, 5), rng.uniform(0.5, 1),
+                      rng.uniform(0, 180), cx + d * np.cos(t), cy + d * np.sin(t))
+        add_other(img * rng.uniform(0.3, 1.0), COLOUR_LENS)
+        truth["extras"].append(("companion", float(cx + d * np.cos(t)), float(cy + d * np.sin(t))))
+    if kind == "spiral":
+        disc = _spiral(xx, yy, cx, cy, re_pix * 1.5, rng.uniform(0.4, 1.0), rng.uniform(0, 180), rng)
+        disc = disc * ov * ov * rng.uniform(0.5, 1.5)
+        bulge = lens_light * rng.uniform(0.1, 0.5)
+        comps["lens"] = bulge
+        add_other(disc, COLOUR_DISC)
+    if kind == "ring galaxy":
+        # A bulge inside a star-forming ring: our non-lens look-alike of an Einstein ring.
+        rr_ring = rng.uniform(2.0, 4.0) * re_pix
+        rr_ring = float(min(rr_ring, 0.4 * size))
+        q_r, a_r = rng.uniform(0.4, 1.0), np.radians(rng.uniform(0, 180))
+        dx, dy = xx - cx, yy - cy
+        xp, yp = np.cos(a_r) * dx + np.sin(a_r) * dy, (-np.sin(a_r) * dx + np.cos(a_r) * dy) / q_r
+        width = rr_ring * rng.uniform(0.12, 0.3)
+        ring = np.exp(-0.5 * ((np.hypot(xp, yp) - rr_ring) / width) ** 2)
+        ring *= 1 + 0.7 * np.cos(np.arctan2(yp, xp) * rng.integers(1, 4) + rng.uniform(0, 6))
+        add_other(ring / ring.sum() * ov * ov * rng.uniform(0.4, 1.2), COLOUR_ARC)
+        truth["ring_galaxy_radius_pix"] = rr_ring
+    # Random extra neighbours anywhere (realistic crowding), for half the cutouts.
+    if rng.uniform() < 0.5:
+        for _ in range(int(rng.integers(1, 3))):
+            px_, py_ = rng.uniform(0, size, 2)
+            if np.hypot(px_ - cx, py_ - cy) < (2.2 * te_pix if is_lens else 10):
+                continue
+            img = _sersic(xx, yy, 1.0, rng.uniform(0.8, 3), rng.uniform(1, 4), rng.uniform(0.4, 1), rng.uniform(0, 180),
+                          px_, py_)
+            add_other(img * rng.uniform(0.05, 0.4), _random_colour(rng))
+            truth["extras"].append(("field galaxy", float(px_), float(py_)))
+
+    # Brightness (in units of the pixel noise after the PSF): lens peak 30-400, arcs 4-20 per pixel.
+    kern = _moffat_kernel(fwhm_pix, beta)
+    lens_peak = rng.uniform(30, 400)
+    lens_img = _bin(comps["lens"], ov)
+    lens_img = _blur(lens_img, kern)
+    if lens_img.max() > 0:
+        lens_img *= lens_peak / lens_img.max()
+    unit = lens_peak / max(_blur(_bin(lens_light, ov), kern).max(), 1e-30)
+    bands = np.zeros((3, size, size))
+    for b in range(3):
+        bands[b] += lens_img * COLOUR_LENS[b]
+        bands[b] += _blur(_bin(comps["other"][b], ov), kern) * unit
+    if is_lens:
+        arc = _blur(_bin(comps["arc"], ov), kern)
+        arc_peak = rng.uniform(4.0, 20.0)
+        arc *= arc_peak / max(arc.max(), 1e-30)
+        truth["arc_peak_snr"] = float(arc_peak)
+        for b in range(3):
+            bands[b] += arc * COLOUR_ARC[b] / COLOUR_ARC[1]
+    for sx, sy, amp in stars:
+        star = _point(size, sx, sy, fwhm_pix, beta)
+        peak = lens_peak * amp
+        colour = _random_colour(rng)
+        for b in range(3):
+            bands[b] += star * peak / star.max() * colour[b]
+        truth["extras"].append(("star", float(sx), float(sy)))
+    bands += rng.normal(0.0, 1.0, bands.shape)
+    return Cutout(bands[1].astype(np.float32), bands.astype(np.float32), scale, fwhm, truth)
+
+
+def _random_colour(rng) -> tuple[float, float, float]:
+    t = rng.uniform(0, 1)  # 0 blue .. 1 red
+    return (1.0 - 0.7 * t, 0.8, 0.6 + 0.4 * t)
+
+
+def _blur(img: np.ndarray, kern: np.ndarray) -> np.ndarray:
+    return fftconvolve(img, kern, mode="same")
+
+
+def _point(size: int, x0: float, y0: float, fwhm_pix: float, beta: float) -> np.ndarray:
+    """A Moffat star integrated over pixels (3 x 3 sub-samples)."""
+    xx, yy = _grid(size, 3)
+    return _bin(rt.psf_profile(np.hypot(xx - x0, yy - y0), fwhm_pix, "moffat", beta), 3)
+
+
+def make_sample(n_lenses: int, n_nonlenses: int, *, first_seed: int = 0, **kwargs) -> list[Cutout]:
+    """``n_lenses`` lenses cycling through :data:`LENS_KINDS`, then ``n_nonlenses`` non-lenses through
+    :data:`NONLENS_KINDS`, with seeds ``first_seed, first_seed + 1, ...``."""
+    out = [make_cutout(first_seed + i, LENS_KINDS[i % len(LENS_KINDS)], **kwargs) for i in range(n_lenses)]
+    out += [make_cutout(first_seed + n_lenses + i, NONLENS_KINDS[i % len(NONLENS_KINDS)], **kwargs)
+            for i in range(n_nonlenses)]
+    return out
+
+
+def recovery_figures(cutouts, results, *, within: float = 0.05) -> dict:
+    """Figures of a finder run over generated cutouts.
+
+    ``results`` are ring-finder answers (objects with ``found``, ``confident``, ``radius_pix``,
+    ``radius_err_pix``), one per cutout. Returns counts and rates: ``found`` (fraction of lenses
+    found), ``within`` (fraction of lenses found within ``within`` of the truth), ``bias`` and
+    ``scatter`` (median and 1.4826 MAD of the fractional radius error of found lenses), ``cover1`` /
+    ``cover2`` (fraction of found lenses whose truth is inside 1 / 2 stated sigma) and
+    ``false_confident`` (fraction of non-lenses given a confident ring).
+    """
+    lens = [(c, r) for c, r in zip(cutouts, results) if c.truth["is_lens"]]
+    non = [(c, r) for c, r in zip(cutouts, results) if not c.truth["is_lens"]]
+    found = [(c, r) for c, r in lens if r.found]
+    frac = np.array([r.radius_pix / c.truth["radius_pix"] - 1 for c, r in found])
+    pull = np.array([(r.radius_pix - c.truth["radius_pix"]) / r.radius_err_pix for c, r in found])
+    n_l = max(len(lens), 1)
+    out = {
+        "n_lenses": len(lens), "n_nonlenses": len(non), "n_found": len(found),
+        "found": len(found) / n_l,
+        "within": float(np.sum(np.abs(frac) <= within)) / n_l,
+        "bias": float(np.median(frac)) if frac.size else float("nan"),
+        "scatter": float(1.4826 * np.median(np.abs(frac - np.median(frac)))) if frac.size else float("nan"),
+        "cover1": float(np.mean(np.abs(pull) <= 1)) if pull.size else float("nan"),
+        "cover2": float(np.mean(np.abs(pull) <= 2)) if pull.size else float("nan"),
+        "false_confident": float(np.mean([r.confident and r.found for _, r in non])) if non else float("nan"),
+        "false_found": float(np.mean([r.found for _, r in non])) if non else float("nan"),
+    }
+    return out
+
+
+def format_figures(fig: dict) -> str:
+    """One line of :func:`recovery_figures` for test output and benchmark scripts."""
+    return (f"{fig['n_lenses']} lenses: found {fig['found']:.0%}, within 5% {fig['within']:.0%}, "
+            f"bias {fig['bias']:+.1%}, scatter {fig['scatter']:.1%}, inside 1 sigma {fig['cover1']:.0%}, "
+            f"inside 2 sigma {fig['cover2']:.0%}; {fig['n_nonlenses']} non-lenses: confident ring "
+            f"{fig['false_confident']:.1%} (any ring {fig['false_found']:.0%})")

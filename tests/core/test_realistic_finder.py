@@ -1,0 +1,114 @@
+"""The ring finder on survey-like cutouts: neighbours, stars, colour pictures, calibrated errors.
+
+The cutouts come from the project's own inject-and-recover generator
+(:mod:`lensmass.core.realistic_fields`); the truth is the SIE Einstein radius of Kormann,
+Schneider & Bartelmann (1994), whose critical curve has area pi theta_E^2 (see
+lensmass.core.raytrace). Coverage targets are those of a Gaussian error: truth inside 1 sigma
+68.3% and inside 2 sigma 95.4% of the time (common practice); the issue asks for 60-76% and
+at least 90%.
+"""
+
+import numpy as np
+import pytest
+from scipy.optimize._numdiff import approx_derivative
+
+from lensmass.core.cutout_masks import cutout_masks
+from lensmass.core.errors import LensInputError
+from lensmass.core.lenslight import _blurred_sersic_on_grid, blurred_sersic_jacobian
+from lensmass.core.realistic_fields import (
+    colour_picture,
+    format_figures,
+    make_cutout,
+    make_sample,
+    recovery_figures,
+)
+from lensmass.core.ringfinder import find_ring
+
+#: Seeds of the test sample (the calibration was made on seeds 3000-3999; these are unseen).
+FIRST_SEED = 71000
+N_LENSES, N_NONLENSES = 102, 54
+
+
+class _Failed:
+    found = confident = False
+    radius_pix = radius_err_pix = float("nan")
+
+
+def _run(image, **kwargs):
+    try:
+        return find_ring(image, **kwargs)
+    except LensInputError:
+        return _Failed()
+
+
+@pytest.fixture(scope="module")
+def sample_runs():
+    cutouts = make_sample(N_LENSES, N_NONLENSES, first_seed=FIRST_SEED)
+    return cutouts, [_run(c.image) for c in cutouts]
+
+
+def test_blurred_sersic_jacobian_matches_scipy_finite_differences():
+    # Reference: scipy's approx_derivative (3-point) of the same model. The PSF-width column uses the
+    # heat equation of the Gaussian (dG/ds = s Laplacian G, common practice) with a discrete Laplacian: 5%.
+    xx, yy = np.meshgrid(np.arange(60.0), np.arange(60.0))
+    p = np.array([np.log(5000), np.log(6), 3.2, 0.7, 25.0, 30.3, 29.6, 0.5, np.log(2.0)])
+    jac = blurred_sersic_jacobian(p, xx, yy, 1.0)
+    ref = approx_derivative(lambda q: _blurred_sersic_on_grid(q, xx, yy, 1.0).ravel(), p, method="3-point")
+    ref = ref.T.reshape(9, 60, 60)
+    away = np.hypot(xx - 30.3, yy - 29.6) >= 2  # the cusp's pixel: the model clips r, the derivative too
+    for k in range(8):
+        assert np.max(np.abs(jac[k][away] - ref[k][away])) <= 1e-5 * np.max(np.abs(ref[k]))
+    assert np.max(np.abs(jac[8][away] - ref[8][away])) <= 0.05 * np.max(np.abs(ref[8]))
+
+
+def test_star_is_masked_and_the_lens_is_the_centre():
+    # A star (Moffat 1969 PSF, index 2.5-4.5) is PSF-like: a Gaussian holds 50% of its light inside its
+    # half-maximum contour, a Moffat 34-42% (from the profiles' closed forms), a resolved galaxy far less.
+    hits = 0
+    for seed in range(400, 412):
+        c = make_cutout(seed, "ring+star")
+        m = cutout_masks(c.image, 1.0)
+        sx, sy = next((x, y) for k, x, y in c.truth["extras"] if k == "star")
+        star_masked = m.mask[int(round(sy)), int(round(sx))]
+        centre_ok = np.hypot(m.center_x - c.truth["center_x"], m.center_y - c.truth["center_y"]) < 1.5
+        hits += bool(star_masked and centre_ok)
+        assert m.center_source
+    assert hits >= 11
+
+
+def test_inject_and_recover_targets(sample_runs, capsys):
+    """>= 100 lenses and >= 50 non-lenses from the generator: the issue's targets."""
+    cutouts, runs = sample_runs
+    fig = recovery_figures(cutouts, runs)
+    # The issue's target: a ring (source near the lens axis) of radius >= 2.5 seeing FWHM, with a
+    # neighbour or a star in the cutout. Single arcs are not held to 5%: an arc lies outside theta_E
+    # by the source's offset, and the finder says so (33% error).
+    hard = [(c, r) for c, r in zip(cutouts, runs) if c.truth["kind"] in ("ring+neighbour", "ring+star")
+            and c.truth["radius_pix"] >= 2.5 * c.psf_fwhm_pix]
+    within = np.mean([r.found and abs(r.radius_pix / c.truth["radius_pix"] - 1) <= 0.05 for c, r in hard])
+    with capsys.disabled():
+        print(f"\n[inject-and-recover, FITS-like r band] {format_figures(fig)}; with a neighbour or a star and "
+              f"a ring >= 2.5 FWHM: {within:.0%} of {len(hard)} within 5%")
+    assert fig["n_lenses"] >= 100 and fig["n_nonlenses"] >= 50
+    assert 0.60 <= fig["cover1"] <= 0.76
+    assert fig["cover2"] >= 0.90
+    assert fig["false_confident"] < 0.02
+    assert within >= 0.80
+
+
+def test_colour_picture_stretch_does_not_move_the_radius():
+    # The same field as two 8-bit pictures of different asinh softening (Lupton et al. 2004 stretch,
+    # common practice): the radii agree within their stated errors, and the error says the picture
+    # carries no calibrated flux.
+    c = make_cutout(3006, "ring")
+    answers = []
+    for soft in (1.0, 6.0):
+        pic = colour_picture(c, soft=soft)
+        grey = pic.astype(np.float32) @ np.array([0.299, 0.587, 0.114], np.float32)
+        answers.append(find_ring(grey, colour=pic))
+    a, b = answers
+    assert a.found and b.found
+    assert abs(a.radius_pix - b.radius_pix) <= np.hypot(a.radius_err_pix, b.radius_err_pix)
+    assert any("not calibrated flux" in w for w in a.warnings)
+    for r in answers:
+        assert abs(r.radius_pix - c.truth["radius_pix"]) <= 2 * r.radius_err_pix

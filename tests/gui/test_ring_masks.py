@@ -1,0 +1,78 @@
+"""The window's ring finder and lens-light fit on a survey-like cutout: same answer as the command
+line, whatever was clicked before; masks shown and painted by hand."""
+
+from __future__ import annotations
+
+import numpy as np
+from PySide6.QtCore import Qt
+import pytest
+
+from lensmass.core.realistic_fields import make_cutout
+from lensmass.io.cutout_files import write_cutout_fits
+from tests.gui.conftest import click_image, wait_idle
+
+
+@pytest.fixture
+def star_field(tmp_path):
+    """A ring with a Moffat star beside it (the project's generator), as FITS with a rotated WCS."""
+    cutout = make_cutout(3021, "ring+star")
+    path = write_cutout_fits(tmp_path / "tris_cutout.fits", cutout, rotation_deg=33.0)
+    return path, cutout
+
+
+def _find_ring(qtbot, window):
+    answers = []
+    original = window._ring_found
+    window._ring_found = lambda ring: (answers.append(ring), original(ring))
+    qtbot.mouseClick(window.ring_button, Qt.LeftButton)
+    qtbot.waitUntil(lambda: bool(answers), timeout=120000)
+    wait_idle(qtbot, window, 120000)
+    window._ring_found = original
+    return answers[0]
+
+
+def test_window_ring_is_the_command_lines_after_fit_lens_light(qtbot, make_window, star_field):
+    from lensmass.core.einstein import measure_theta_e_auto_ring
+    from lensmass.io.images import load_image
+
+    path, cutout = star_field
+    window = make_window(load_panels=True)
+    assert window.open_path(str(path))
+    window.canvas.fit_to_window()
+    qtbot.mouseClick(window.light_button, Qt.LeftButton)  # "Fit lens light" first: it must not change the ring
+    wait_idle(qtbot, window, 120000)
+    assert "Sersic n" in window.statusBar().currentMessage()
+    ring = _find_ring(qtbot, window)
+    cli, cli_ring = measure_theta_e_auto_ring(load_image(path), require_confident=False)
+    # One code path: the same function with the same inputs gives the same radius and error.
+    assert ring.radius_pix == pytest.approx(cli_ring.radius_pix, abs=1e-9)
+    assert ring.radius_err_pix == pytest.approx(cli_ring.radius_err_pix, abs=1e-9)
+    assert ring.radius_pix == pytest.approx(cutout.truth["radius_pix"], abs=2 * ring.radius_err_pix)
+    message = window.statusBar().currentMessage()
+    assert "lens centre" in message
+    # The star's automatic mask is on the image (shown by the Masks dock).
+    sx, sy = next((x, y) for k, x, y in cutout.truth["extras"] if k == "star")
+    assert window.model.image.auto_mask[int(round(sy)), int(round(sx))]
+
+
+def test_painting_a_mask_by_hand_reaches_the_ring_finder(qtbot, make_window, star_field):
+    from lensmass.gui.mask_panel import MaskPanel
+
+    path, cutout = star_field
+    window = make_window(load_panels=True)
+    assert window.open_path(str(path))
+    window.canvas.fit_to_window()
+    panel = next(p for p in window.panels if isinstance(p, MaskPanel))
+    panel.radius.setValue(3)
+    qtbot.mouseClick(panel.paint_button, Qt.LeftButton)
+    click_image(qtbot, window, 10.0, 12.0)
+    hand = window.model.image.hand_mask
+    assert hand is not None and hand[12, 10] and hand.sum() == pytest.approx(np.pi * 9, rel=0.35)
+    assert "painted by hand" in panel.status.text()
+    qtbot.mouseClick(panel.erase_button, Qt.LeftButton)
+    click_image(qtbot, window, 10.0, 12.0)
+    assert window.model.image.hand_mask is None
+    qtbot.mouseClick(panel.paint_button, Qt.LeftButton)
+    click_image(qtbot, window, 10.0, 12.0)
+    ring = _find_ring(qtbot, window)
+    assert ring.masks.mask[12, 10]  # the painted pixels were left out of the search
