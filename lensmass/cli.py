@@ -37,6 +37,17 @@ PARAMETER_FLAGS: dict[str, str] = {
     "pixel_scale_arcsec": "--pixel-scale", "sersic_n": "--sersic-n", "lens_mag": "--lens-mag",
     "r_eff_arcsec": "--r-eff", "stellar_ml": "--stellar-ml", "stellar_mass_msun": "--stellar-mass",
     "workers": "--workers", "save_every": "--save-every",
+    "lens_mag_err": "--lens-mag-err", "kcorr": "--kcorr", "extinction": "--extinction", "band": "--band",
+    "stellar_ml_err": "--stellar-ml-err", "stellar_mass_err_dex": "--stellar-mass-err",
+    "center": "--center", "points": "--points", "max_radius_pix": "--max-radius",
+    "pixel_scale_err_arcsec": "--pixel-scale-err", "hdu": "--hdu", "plane": "--plane",
+    "h0": "--h0", "om0": "--om0", "ode0": "--ode0", "cosmology": "--cosmology",
+    "n_bins": "--bins", "n_bootstrap": "--bootstrap", "z_margin": "--zs-margin", "r_min": "--rmin",
+    "r_max": "--rmax", "zeta_radii": "--zeta-radii", "scheduler": "--scheduler", "columns": "--columns",
+    "map_out": "--map-out", "flip_e1": "--flip-e1", "flip_e2": "--flip-e2", "max_peaks": "--max-peaks",
+    "member_columns": "--member-columns", "xray": "--xray", "mass_to_light": "--mass-to-light",
+    "gas_mass": "--gas-mass", "gas_mass_err": "--gas-mass-err", "n_patches": "--patches",
+    "randoms": "--randoms", "n_randoms": "--random-count", "out": "--out", "store": "--store",
 }
 
 #: Exit status for bad input (one-line message on stderr).

@@ -25,7 +25,7 @@ def zeta_prefactor(r_inner: float, r_outer: float) -> float:
     """2 / (1 - r1^2 / r2^2) of Fahlman et al. (1994), eq. (4)."""
     if not (0 < r_inner < r_outer):
         raise LensInputError(
-            f"The zeta radii need 0 < inner < outer, got {r_inner:g} and {r_outer:g}: give --zeta-radii INNER,OUTER."
+            f"The zeta radii need 0 < inner < outer, got {r_inner:g} and {r_outer:g}: give the two zeta radii (`zeta_radii`), inner first."
         )
     return 2.0 / (1.0 - (r_inner / r_outer) ** 2)
 
@@ -52,7 +52,7 @@ def zeta_from_profile(edges, mean, error, r_inner: float, r_outer: float) -> tup
     good = np.isfinite(mean) & np.isfinite(error)
     if np.count_nonzero(good) < 2:
         raise LensInputError(
-            "Too few galaxies between the zeta radii: widen the annulus with --zeta-radii INNER,OUTER."
+            "Too few galaxies between the zeta radii: widen the annulus (`zeta_radii`)."
         )
     filled = np.interp(centre, centre[good], mean[good])
     err = np.where(good, error, np.interp(centre, centre[good], error[good]))

@@ -155,7 +155,7 @@ def locate_cluster_components(
                     progress=lambda f: tick(0.02 + 0.6 * f, "mass map resamplings"), cancelled=cancelled)
     if not mp.peaks:
         raise LensInputError(f"No mass peak reaches S/N {min_snr:g} on this map: lower the threshold, change the "
-                             "smoothing, or check the ellipticity convention (--flip-e1/--flip-e2).")
+                             "smoothing, or check the ellipticity sign convention (`flip_e1`, `flip_e2`).")
     centres = np.array([[p.x_arcsec, p.y_arcsec] for p in mp.peaks])
     pix = mp.pixel_arcsec
     notes: list[str] = []
@@ -288,8 +288,8 @@ def locate_cluster_components(
         g = np.atleast_1d(np.asarray(gas_mass_msun, float))
         if g.size != len(mp.peaks):
             raise LensInputError(f"Give one gas mass per mass peak ({len(mp.peaks)} found), in peak order; got "
-                                 f"{g.size}: give {len(mp.peaks)}, or keep the strongest {g.size} peaks with "
-                                 f"--max-peaks {g.size}.")
+                                 f"{g.size}: give {len(mp.peaks)}, or keep only the strongest {g.size} peaks "
+                                 f"(`max_peaks`).")
         ge = np.zeros_like(g) if gas_mass_err_msun is None else np.atleast_1d(np.asarray(gas_mass_err_msun, float))
         gas_measured = g
         gas = np.abs(g[None, :] + ge[None, :] * rng.normal(size=(n, g.size)))

@@ -65,8 +65,8 @@ def dutton14_concentration(m_msun, z, h: float, definition: str = "200c") -> np.
         b = -0.097 + 0.024 * z
     else:
         raise LensInputError(
-            "Dutton & Maccio (2014) give no 200-mean relation: use --concentration duffy08 "
-            "or a fixed value with --halo-definition 200m."
+            "Dutton & Maccio (2014) give no 200-mean relation: use the concentration relation (`concentration`) "
+            "duffy08 or a fixed value with the 200m halo definition (`halo_definition`)."
         )
     return 10 ** (a + b * np.log10(np.asarray(m_msun, float) * h / 1e12))
 
@@ -95,7 +95,7 @@ def concentration_relation(spec, definition: str = "200c") -> tuple[Callable, st
     lo, hi = CONCENTRATION_RANGE
     if not lo <= value <= hi:
         raise LensInputError(f"A fixed concentration of {value:g} is outside {lo:g} to {hi:g}, where simulated and "
-                             "observed halos lie; check --concentration.")
+                             "observed halos lie; check the concentration (`concentration`).")
     return (lambda m, z, h: np.full(np.broadcast(np.asarray(m), np.asarray(z)).shape, value)), f"fixed c = {value:g}"
 
 

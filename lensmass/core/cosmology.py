@@ -63,9 +63,9 @@ def resolve_cosmology(
                 "Give either a cosmology preset or H0/Om0 values, not both."
             )
         if h0 is None or om0 is None:
-            raise LensInputError("A custom cosmology needs both H0 and Om0 (for example --h0 70 --om0 0.3).")
+            raise LensInputError("A custom cosmology needs both H0 and Om0 (`h0`, `om0`), for example 70 and 0.3.")
         if not (np.isfinite(h0) and 10 <= h0 <= 1000):
-            raise LensInputError(f"H0 must be a positive number in km/s/Mpc (about 70), got {h0}; check --h0.")
+            raise LensInputError(f"H0 must be a positive number in km/s/Mpc (about 70), got {h0}; check H0 (`h0`).")
         if not (np.isfinite(om0) and 0 < om0 <= 2):
             raise LensInputError(f"Om0 must lie between 0 and 2, got {om0}.")
         if ode0 is None:
@@ -93,7 +93,7 @@ def resolve_cosmology(
             return getattr(realizations, lowered[spec.lower()])
         raise LensInputError(
             f"Unknown cosmology '{spec}': use one of {', '.join(realizations.available)}, "
-            "or give --h0 and --om0 for a custom one."
+            "or give H0 (`h0`) and Om0 (`om0`) for a custom one."
         )
     raise LensInputError(f"Cannot use {spec!r} as a cosmology: give a preset name or an astropy cosmology.")
 
@@ -169,7 +169,8 @@ def distance_grid(cosmo) -> DistanceGrid:
         if not (np.all(np.isfinite(dc)) and np.isfinite(dh) and np.all(dc > 0)):
             raise LensInputError(
                 f"Distances are undefined in the cosmology {cosmology_label(cosmo)} (astropy returns no finite "
-                "comoving distance); choose a standard model, e.g. --ode0 0 or more, or a preset with --cosmology."
+                "comoving distance); choose a standard model, e.g. a dark-energy density (`ode0`) of 0 or more, or a "
+                "preset (`cosmology`)."
             )
         ratio = np.concatenate([[1.0], dc / (dh * z[1:])])
         grid = DistanceGrid(dh, float(cosmo.Ok0), _GRID_ZMAX, CubicSpline(x, ratio), cosmo)

@@ -200,7 +200,7 @@ def choose_lens(objects: list[FieldObject], shape: tuple[int, int], labels: np.n
         cands = cands or bright
     if not cands:
         return None, "no galaxy above the noise: the cutout centre", (
-            "No galaxy stands out near the cutout centre; give the lens centre (--center X,Y) if there is one.")
+            "No galaxy stands out near the cutout centre; give the lens centre in pixels (`center`) if there is one.")
     dist = np.array([np.hypot(o.x - c0x, o.y - c0y) for o in cands])
     order = np.argsort(dist)
     lens = cands[int(order[0])]
@@ -217,16 +217,16 @@ def choose_lens(objects: list[FieldObject], shape: tuple[int, int], labels: np.n
     if lens.kind == "star":
         how = "the compact light peak nearest the cutout centre (compact enough to be a star)"
         hint = ("The object at the cutout centre is as compact as a star; it was taken as the lens: give the lens "
-                "centre (--center X,Y) if it is elsewhere.")
+                "centre in pixels (`center`) if it is elsewhere.")
     elif len(order) > 1:
         rival = cands[int(order[1])]
         d0, d1 = dist[order[0]], dist[order[1]]
         if d1 <= RIVAL_DISTANCE_RATIO * max(d0, 3.0) and rival.peak_snr >= RIVAL_PEAK_RATIO * lens.peak_snr:
             hint = (f"Two galaxies are about equally near the cutout centre, at ({lens.x:.1f}, {lens.y:.1f}) and "
-                    f"({rival.x:.1f}, {rival.y:.1f}); the first was taken as the lens: give --center X,Y if it is the other.")
+                    f"({rival.x:.1f}, {rival.y:.1f}); the first was taken as the lens: give the lens centre (`center`) if it is the other.")
     if not hint and dist[order[0]] > 0.2 * min(nx, ny):
-        hint = (f"The lens was taken {dist[order[0]]:.0f} pixels from the cutout centre; give --center X,Y if the "
-                "lens is elsewhere.")
+        hint = (f"The lens was taken {dist[order[0]]:.0f} pixels from the cutout centre; give the lens centre "
+                "in pixels (`center`) if the lens is elsewhere.")
     return lens, how, hint
 
 

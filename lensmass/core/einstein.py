@@ -135,7 +135,7 @@ def _geometry(image, pixel_scale_arcsec, pixel_scale_err_arcsec, pixel_matrix_ar
         if image is not None and hasattr(image, "require_pixel_scale"):
             image.require_pixel_scale()  # names what is wrong with the file's WCS
         raise LensInputError("The pixel scale is unknown (the image has no usable WCS): "
-                             "give it with --pixel-scale ARCSEC (arcsec per pixel).")
+                             "give it in arcsec per pixel (`pixel_scale_arcsec`).")
     from lensmass.core.limits import pixel_scale
 
     scale = pixel_scale(scale)
@@ -213,7 +213,7 @@ def measure_theta_e_from_points(
 
         on_image(px, py, np.shape(data), "A marked point", "check that the points belong to this image")
         if center is not None:
-            on_image(center[0], center[1], np.shape(data), "The lens centre", "check --center")
+            on_image(center[0], center[1], np.shape(data), "The lens centre", "check the lens centre (`center`)")
     need = {"circle": 3 if center is None else 1, "ellipse": 5 if center is None else 4, "images": 2}[shape]
     if px.size < need:
         what = {"circle": "arc points for a circle", "ellipse": "arc points for an ellipse",
@@ -311,7 +311,7 @@ def _run_estimate(m: ThetaEMeasurement, z_l, z_s, estimate_options, estimate_fn)
         from lensmass.core.estimate import estimate
 
         if z_l is None:
-            raise LensInputError("No lens redshift: give --zl.")
+            raise LensInputError("No lens redshift: give the lens redshift (`z_l`).")
         result = estimate(m.theta_e_arcsec, z_l, z_s, theta_e_err=m.theta_e_err_arcsec, **(estimate_options or {}))
     result = dict(result)
     result.update(m.keys())
@@ -416,16 +416,16 @@ def measure_theta_e_auto_ring(
     if max_radius_pix is not None:
         from lensmass.core.limits import positive_radius
 
-        positive_radius(max_radius_pix, "--max-radius")
+        positive_radius(max_radius_pix, "The search radius (`max_radius_pix`)")
     if center is not None:
         from lensmass.core.limits import on_image
 
-        on_image(cx, cy, data.shape, "The lens centre", "check --center")
+        on_image(cx, cy, data.shape, "The lens centre", "check the lens centre (`center`)")
     ring = find_ring_on_image(image, center=center, mask=mask, residual=residual, max_radius_pix=max_radius_pix,
                               progress=progress, should_stop=should_stop)
     if not ring.found or (require_confident and not ring.confident):
         hint = f" {ring.center_hint}" if ring.center_hint else ""
-        raise LensInputError(f"{ring.message}{hint} Mark points on the arcs instead (--points FILE).")
+        raise LensInputError(f"{ring.message}{hint} Mark points on the arcs instead (`points`).")
     theta, err = theta_e_from_pixels(ring.radius_pix, ring.radius_err_pix, scale, scale_err)
     ra, dec = _sky(to_sky, ring.center_x, ring.center_y)
     notes = notes + [f"Lens centre ({ring.center_x:.2f}, {ring.center_y:.2f}) pixels: {ring.center_source}."]

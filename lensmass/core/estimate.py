@@ -118,11 +118,11 @@ def _source_redshift_model(z_s, z_s_range, z_s_distribution):
             raise LensInputError("The source redshift range must be two numbers, ZMIN,ZMAX (for example 1.0,3.0).") from None
         if not (np.isfinite(lo) and np.isfinite(hi) and 0 < lo < hi):
             raise LensInputError(f"The source redshift range needs 0 < ZMIN < ZMAX, got {lo:g},{hi:g}.")
-        limits.redshift_in_range(hi, "The top of the source redshift range", "--zs-range")
+        limits.redshift_in_range(hi, "The top of the source redshift range", "`z_s_range`")
         return "range", (lo, hi)
     if z_s_distribution is not None:
         zt, wt = (np.asarray(v, float) for v in z_s_distribution)
-        limits.redshift_in_range(zt[np.isfinite(zt) & (zt > limits.REDSHIFT_MAX)], "A redshift of the table", "--zs-table")
+        limits.redshift_in_range(zt[np.isfinite(zt) & (zt > limits.REDSHIFT_MAX)], "A redshift of the table", "the source redshift table (`z_s_distribution`)")
         distribution_samples(zt, wt, 1, np.random.default_rng(0))  # validates with clear messages
         return "table", (zt, wt)
     return "fixed", None
@@ -212,7 +212,7 @@ def estimate(
     z_l, z_s, z_l_err, z_s_err = (to_plain(v, what, name) for v, what, name in (
         (z_l, "The lens redshift", "z_l"), (z_s, "The source redshift", "z_s"),
         (z_l_err, "The error of the lens redshift", "z_l_err"), (z_s_err, "The error of the source redshift", "z_s_err")))
-    seed = limits.seed(seed, "`seed`")
+    seed = limits.seed(seed)
     draws = None
     if theta_e_draws is not None:
         draws = np.asarray(theta_e_draws, float).ravel()
@@ -226,10 +226,9 @@ def estimate(
         return estimate_arrays(theta_e_arcsec, z_l, z_s, theta_e_err, z_l_err, z_s_err, cosmo=cosmo, concentration=concentration,
                                c_of_m=c_of_m, c_label=c_label, halo_definition=halo_definition, samples=samples, seed=seed,
                                strict=strict)
-    theta = limits.einstein_radius_arcsec(_check_positive("The Einstein radius", theta_e_arcsec, "theta_e_arcsec"),
-                                          "`theta_e_arcsec`")
+    theta = limits.einstein_radius_arcsec(_check_positive("The Einstein radius", theta_e_arcsec, "theta_e_arcsec"))
     zl = _check_positive("The lens redshift", z_l, "z_l")
-    limits.redshift_in_range(zl, "The lens redshift", "`z_l`")
+    limits.redshift_in_range(zl, "The lens redshift", "the lens redshift (`z_l`)")
     errs = {
         "theta": _check_error("theta_E", theta_e_err, "theta_e_err"),
         "zl": _check_error("z_l", z_l_err, "z_l_err"),
@@ -237,7 +236,7 @@ def estimate(
     }
     if kind == "fixed":
         zs = _check_positive("The source redshift", z_s, "z_s")
-        limits.redshift_in_range(zs, "The source redshift", "`z_s`")
+        limits.redshift_in_range(zs, "The source redshift", "the source redshift (`z_s`)")
         zl_b, zs_b = np.broadcast_arrays(zl, zs)
         in_front = np.flatnonzero(np.ravel(zs_b <= zl_b))
         if in_front.size:
@@ -260,7 +259,7 @@ def estimate(
     if wants_mc and not scalar_input:
         raise LensInputError("An unknown source redshift (range or table) is marginalised for one lens at a time: "
                              "call estimate per lens.")
-    n_samples = limits.monte_carlo_samples(samples, "`samples`") if wants_mc else int(samples)
+    n_samples = limits.monte_carlo_samples(samples) if wants_mc else int(samples)
 
     notes: list[str] = []
     result: dict[str, Any] = {"cosmology": cosmology_label(cosmo)}

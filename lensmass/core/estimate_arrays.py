@@ -61,9 +61,9 @@ def _reason(i: int, cols: list[np.ndarray], masks: list[np.ndarray]) -> str | No
             return f"{what} (`{name}`) must be {need}, got {col[i]}."
     if masks[-2][i]:
         try:
-            limits.einstein_radius_arcsec(cols[0][i], "`theta_e_arcsec`")
-            limits.redshift_in_range(cols[1][i], "The lens redshift", "`z_l`")
-            limits.redshift_in_range(cols[2][i], "The source redshift", "`z_s`")
+            limits.einstein_radius_arcsec(cols[0][i])
+            limits.redshift_in_range(cols[1][i], "The lens redshift", "the lens redshift (`z_l`)")
+            limits.redshift_in_range(cols[2][i], "The source redshift", "the source redshift (`z_s`)")
         except LensInputError as exc:
             return str(exc)
     if masks[-1][i]:
@@ -94,7 +94,7 @@ def estimate_arrays(theta_e_arcsec, z_l, z_s, theta_e_err, z_l_err, z_s_err, *, 
             problems[int(i)] = _reason(int(i), cols, masks)
     wants_mc = bool(np.any((t_err > 0) | (zl_err > 0) | (zs_err > 0)))
     if wants_mc:
-        samples = limits.monte_carlo_samples(samples, "`samples`")
+        samples = limits.monte_carlo_samples(samples)
     label = cosmology_label(cosmo)
     result: dict[str, Any] = {"cosmology": label}
     good = ~bad

@@ -84,16 +84,16 @@ def two_component_halo(r_e_mpc, mass_einstein_msun, stellar_mass_einstein_msun, 
     return nfw_mass_for_einstein_radius(r_e_mpc, residual, z_l, cosmo, concentration_of_mass, halo_definition)
 
 
-def _finite(name: str, value, flag: str, *, positive=False, non_negative=False) -> float | None:
+def _finite(name: str, value, param: str, *, positive=False, non_negative=False) -> float | None:
     if value is None:
         return None
     try:
         v = float(value)
     except (TypeError, ValueError):
-        raise LensInputError(f"{name} must be a number, got {value!r}; check {flag}.") from None
+        raise LensInputError(f"{name} (`{param}`) must be a number, got {value!r}.") from None
     if not np.isfinite(v) or (positive and v <= 0) or (non_negative and v < 0):
         need = "a positive" if positive else "a zero or positive" if non_negative else "a finite"
-        raise LensInputError(f"{name} must be {need} number, got {value}; check {flag}.")
+        raise LensInputError(f"{name} (`{param}`) must be {need} number, got {value}.")
     return v
 
 
@@ -153,23 +153,23 @@ def _validated_inputs(band, mag_system, lens_mag, lens_mag_err, aperture_mag, ap
     if lens_mag is not None and aperture_mag is not None:
         raise LensInputError("Give the lens magnitude one way only: a total catalogue magnitude or the photometry on the image.")
     if stellar_ml is not None and stellar_mass_msun is not None:
-        raise LensInputError("Give either a stellar mass-to-light ratio (--stellar-ml) or a stellar mass (--stellar-mass), not both.")
-    mag = _finite("The lens magnitude", lens_mag if lens_mag is not None else aperture_mag, "--lens-mag")
+        raise LensInputError("Give either a stellar mass-to-light ratio (`stellar_ml`) or a stellar mass (`stellar_mass_msun`), not both.")
+    mag = _finite("The lens magnitude", lens_mag if lens_mag is not None else aperture_mag, "lens_mag")
     if mag is None and stellar_mass_msun is None:
-        raise LensInputError("The light step needs a lens magnitude (--lens-mag, or --zeropoint for the image) or a stellar mass (--stellar-mass).")
+        raise LensInputError("The light step needs a lens magnitude (`lens_mag`, or a `zeropoint` for the image) or a stellar mass (`stellar_mass_msun`).")
     inp: dict[str, Any] = {
         "mag": mag,
         "mag_kind": "total" if lens_mag is not None else "aperture",
         "mag_err": _finite("The magnitude error", lens_mag_err if lens_mag is not None else aperture_mag_err,
-                           "--lens-mag-err", non_negative=True) or 0.0,
-        "r_eff": _finite("The effective radius", r_eff_arcsec, "--r-eff", positive=True),
+                           "lens_mag_err", non_negative=True) or 0.0,
+        "r_eff": _finite("The effective radius", r_eff_arcsec, "r_eff_arcsec", positive=True),
         "sersic_n": None if sersic_n is None else float(check_sersic_index(sersic_n)),
-        "kcorr": _finite("The k-correction", kcorr, "--kcorr") or 0.0,
-        "extinction": _finite("The Galactic extinction", extinction, "--extinction", non_negative=True) or 0.0,
-        "stellar_ml": _finite("The stellar mass-to-light ratio", stellar_ml, "--stellar-ml", positive=True),
-        "stellar_ml_err": _finite("The error of the stellar M/L", stellar_ml_err, "--stellar-ml-err", non_negative=True) or 0.0,
-        "stellar_mass": _finite("The stellar mass", stellar_mass_msun, "--stellar-mass", positive=True),
-        "stellar_mass_err_dex": _finite("The stellar-mass error", stellar_mass_err_dex, "--stellar-mass-err", non_negative=True) or 0.0,
+        "kcorr": _finite("The k-correction", kcorr, "kcorr") or 0.0,
+        "extinction": _finite("The Galactic extinction", extinction, "extinction", non_negative=True) or 0.0,
+        "stellar_ml": _finite("The stellar mass-to-light ratio", stellar_ml, "stellar_ml", positive=True),
+        "stellar_ml_err": _finite("The error of the stellar M/L", stellar_ml_err, "stellar_ml_err", non_negative=True) or 0.0,
+        "stellar_mass": _finite("The stellar mass", stellar_mass_msun, "stellar_mass_msun", positive=True),
+        "stellar_mass_err_dex": _finite("The stellar-mass error", stellar_mass_err_dex, "stellar_mass_err_dex", non_negative=True) or 0.0,
     }
     inp["profile"] = "sersic" if inp["sersic_n"] is not None else str(stellar_profile or "devaucouleurs").lower()
     projected_mass_fraction(inp["profile"], 1.0, 1.0, inp["sersic_n"])  # validates the name
@@ -179,18 +179,18 @@ def _validated_inputs(band, mag_system, lens_mag, lens_mag_err, aperture_mag, ap
         )
     if mag is not None:
         if band is None:
-            raise LensInputError("A lens magnitude needs its band: give --band (for example V, sdss_r or 2mass_ks).")
+            raise LensInputError("A lens magnitude needs its band: give the band (`band`), for example V, sdss_r or 2mass_ks.")
         sun = solar_magnitude(band)
         system = normalise_system(mag_system)
         inp.update(band=sun.band, system=system, sun_mag=sun.in_system(system), sun_entry=sun)
         if inp["mag_kind"] == "total" and inp["r_eff"] is None:
             raise LensInputError(
-                "A total magnitude needs the effective radius to find the light inside theta_E: give --r-eff ARCSEC."
+                "A total magnitude needs the effective radius to find the light inside theta_E: give it in arcsec (`r_eff_arcsec`)."
             )
     if inp["stellar_mass"] is not None and inp["r_eff"] is None:
-        raise LensInputError("A total stellar mass needs the effective radius to find the part inside theta_E: give --r-eff ARCSEC.")
+        raise LensInputError("A total stellar mass needs the effective radius to find the part inside theta_E: give it in arcsec (`r_eff_arcsec`).")
     if inp["stellar_ml"] is not None and mag is None:
-        raise LensInputError("A stellar mass-to-light ratio needs the lens light: give --lens-mag with --band.")
+        raise LensInputError("A stellar mass-to-light ratio needs the lens light: give the lens magnitude (`lens_mag`) and its band (`band`).")
     return inp
 
 

@@ -123,47 +123,54 @@ def finite_number(value, what: str, fix: str) -> float:
     return v
 
 
-def positive_radius(value, flag: str) -> float:
-    """A finite radius > 0 given with ``flag``."""
-    v = finite_number(value, f"{flag}", f"give a positive radius with {flag}")
+def positive_radius(value, name: str) -> float:
+    """A finite radius > 0; ``name`` says which, in words with its parameter in backquotes."""
+    v = finite_number(value, name, "give a positive radius")
     if v <= 0:
-        raise LensInputError(f"{flag} must be a positive radius, got {_fmt(value)}; give a number above 0.")
+        raise LensInputError(f"{name} must be a positive radius, got {_fmt(value)}; give a number above 0.")
     return v
 
 
-def non_negative(value, flag: str, what: str = "") -> float:
-    """A finite number >= 0 given with ``flag`` (margins, errors)."""
-    v = finite_number(value, flag, f"give zero or a positive number with {flag}")
+def non_negative(value, name: str, what: str = "") -> float:
+    """A finite number >= 0 (margins, errors); ``name`` says which, ``what`` what it does."""
+    v = finite_number(value, name, "give zero or a positive number")
     if v < 0:
-        label = f"{flag} ({what})" if what else flag
+        label = f"{name} ({what})" if what else name
         raise LensInputError(f"{label} must be zero or positive, got {_fmt(value)}; give a number >= 0.")
     return v
 
 
-def count(value, flag: str, minimum: int, maximum: int, why: str = "") -> int:
-    """An integer in [minimum, maximum] given with ``flag``; ``why`` explains the upper limit."""
+def count(value, name: str, minimum: int, maximum: int, why: str = "") -> int:
+    """An integer in [minimum, maximum]; ``name`` says which (in words, its parameter in backquotes),
+    ``why`` explains the upper limit.
+
+    Examples
+    --------
+    >>> count(20, "The number of radial bins (`n_bins`)", 1, 1000)
+    20
+    """
     try:
         n = int(value)
         if n != float(value):
             raise ValueError
     except (TypeError, ValueError, OverflowError):
-        raise LensInputError(f"{flag} must be a whole number, got {value!r}.") from None
+        raise LensInputError(f"{name} must be a whole number, got {value!r}.") from None
     if n < minimum:
-        raise LensInputError(f"{flag} must be {minimum} or more, got {n}.")
+        raise LensInputError(f"{name} must be {minimum} or more, got {n}.")
     if n > maximum:
         extra = f" ({why})" if why else ""
-        raise LensInputError(f"{flag} must be at most {maximum:,}{extra}, got {n:,}; ask for fewer.")
+        raise LensInputError(f"{name} must be at most {maximum:,}{extra}, got {n:,}; ask for fewer.")
     return n
 
 
-def seed(value, flag: str = "--seed") -> int | None:
+def seed(value, name: str = "The random seed (`seed`)") -> int | None:
     """A random seed: None (fresh entropy) or an integer in [0, 2^128)."""
     if value is None:
         return None
-    return count(value, flag, 0, SEED_MAX)
+    return count(value, name, 0, SEED_MAX)
 
 
-def monte_carlo_samples(n, flag: str = "--samples", minimum: int = 100, per_draw_bytes: int = MC_BYTES_PER_DRAW,
+def monte_carlo_samples(n, name: str = "The number of Monte Carlo draws (`samples`)", minimum: int = 100, per_draw_bytes: int = MC_BYTES_PER_DRAW,
                         memory_bytes: int | None = None) -> int:
     """Monte Carlo draws bounded by :data:`MC_SAMPLES_MAX` and half the available memory.
 
@@ -177,10 +184,10 @@ def monte_carlo_samples(n, flag: str = "--samples", minimum: int = 100, per_draw
     most = max(minimum, min(MC_SAMPLES_MAX, by_memory))
     why = (f"about {per_draw_bytes} bytes a draw against {memory / 1024**3:.1f} GB of free memory"
            if by_memory < MC_SAMPLES_MAX else "more draws do not sharpen the percentiles")
-    return count(n, flag, minimum, most, why)
+    return count(n, name, minimum, most, why)
 
 
-def pixel_scale(scale_arcsec, what: str = "The pixel scale", fix: str = "check --pixel-scale or the file's WCS"
+def pixel_scale(scale_arcsec, what: str = "The pixel scale", fix: str = "check the pixel scale (`pixel_scale_arcsec`) or the file's WCS"
                 ) -> float:
     """A pixel scale between 1e-4 arcsec and 1 deg a pixel."""
     s = finite_number(scale_arcsec, what, fix)
@@ -191,34 +198,34 @@ def pixel_scale(scale_arcsec, what: str = "The pixel scale", fix: str = "check -
     return s
 
 
-def einstein_radius_arcsec(theta, flag: str = "--theta-e") -> np.ndarray:
+def einstein_radius_arcsec(theta, name: str = "the Einstein radius (`theta_e_arcsec`)") -> np.ndarray:
     """Einstein radii: positive, finite and below 1 deg (the SIS and thin-lens formulas assume small angles)."""
     arr = np.asarray(theta, dtype=float)
     shown = _first(arr, np.isfinite(arr) & (arr > 0) & (arr < THETA_E_MIN_ARCSEC))
     if shown is not None:
         raise LensInputError(f"The Einstein radius {shown:g}\" is below a microarcsecond, far smaller than any "
-                             f"measured lens; check {flag} (it is in arcsec).")
+                             f"measured lens; check {name} (it is in arcsec).")
     shown = _first(arr, np.isfinite(arr) & (arr >= THETA_E_MAX_ARCSEC))
     if shown is not None:
         raise LensInputError(
             f"The Einstein radius {shown:g}\" is 1 deg or more, far beyond any lens (the largest known are about "
-            f"1'); check {flag} (it is in arcsec)."
+            f"1'); check {name} (it is in arcsec)."
         )
     return arr
 
 
-def redshift_in_range(z, what: str, flag: str) -> None:
-    """Redshifts above :data:`REDSHIFT_MAX` (before the surface of last scattering) or below
+def redshift_in_range(z, what: str, name: str) -> None:
+    """Redshifts (``what`` in words, ``name`` its parameter in backquotes) above :data:`REDSHIFT_MAX` (before the surface of last scattering) or below
     :data:`REDSHIFT_MIN` (where redshift is no distance) are refused."""
     arr = np.asarray(z, dtype=float)
     shown = _first(arr, np.isfinite(arr) & (arr > 0) & (arr < REDSHIFT_MIN))
     if shown is not None:
         raise LensInputError(f"{what} {shown:g} is below {REDSHIFT_MIN:g}, where peculiar velocities swamp the "
-                             f"expansion and a redshift gives no distance; check {flag}.")
+                             f"expansion and a redshift gives no distance; check {name}.")
     shown = _first(arr, np.isfinite(arr) & (arr > REDSHIFT_MAX))
     if shown is not None:
         raise LensInputError(f"{what} {shown:g} is beyond z = {REDSHIFT_MAX:g} (nothing is seen from before the "
-                             f"cosmic microwave background); check {flag}.")
+                             f"cosmic microwave background); check {name}.")
 
 
 def below_light_speed(sigma_kms, what: str = "The SIS velocity dispersion", fix: str = "") -> None:
@@ -293,5 +300,5 @@ def has_big_bang(cosmo) -> None:
         zb = float(z[np.flatnonzero(bad)[0]])
         raise LensInputError(
             f"This cosmology has no big bang: its expansion rate is imaginary at z = {zb:.3g} (the universe "
-            "would have bounced); lower --ode0 or raise --om0."
+            "would have bounced); lower the dark-energy density (`ode0`) or raise the matter density (`om0`)."
         )

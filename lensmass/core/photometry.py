@@ -315,9 +315,9 @@ def counts_to_magnitude(flux, flux_err, zeropoint: float, exptime_s: float = 1.0
     (20.0, 0.0)
     """
     if not np.isfinite(zeropoint):
-        raise LensInputError("The photometric zeropoint must be a number: give --zeropoint or a header keyword with --zeropoint-key.")
+        raise LensInputError("The photometric zeropoint must be a number: give its value (`zeropoint`) or the header keyword that holds it (`zeropoint_key`).")
     if not (np.isfinite(exptime_s) and exptime_s > 0):
-        raise LensInputError(f"The exposure time must be a positive number of seconds, got {exptime_s}; check --exptime.")
+        raise LensInputError(f"The exposure time must be a positive number of seconds, got {exptime_s}; check the exposure time (`exptime`).")
     if not (np.isfinite(flux) and flux > 0):
         raise LensInputError(
             f"The lens flux inside theta_E is {flux:.4g} after sky subtraction (not positive): "

@@ -299,7 +299,7 @@ def find_ring(
     rmin = float(min_radius_pix)
     if rmax <= rmin + 4 * BIN_PIX:
         raise LensInputError("The lens centre is too close to the image edge to search for a ring; "
-                             "give a centre farther from the edge or a larger --max-radius.")
+                             "give a centre farther from the edge or a larger search radius (`max_radius_pix`).")
     if residual is not None:
         out = _search(np.asarray(residual), cx, cy, rmin, rmax, n_sectors, None, warnings, progress, should_stop)
     elif not subtract_lens_light:

@@ -31,7 +31,7 @@ def check_sersic_index(n) -> np.ndarray:
     arr = np.asarray(n, float)
     lo, hi = SERSIC_N_RANGE
     if not np.all(np.isfinite(arr) & (arr >= lo) & (arr <= hi)):
-        raise LensInputError(f"The Sersic index must lie between {lo:g} and {hi:g}, got {n}; check --sersic-n.")
+        raise LensInputError(f"The Sersic index must lie between {lo:g} and {hi:g}, got {n}; check the Sersic index (`sersic_n`).")
     return arr
 
 

@@ -74,8 +74,8 @@ def effective_source_redshift(beta_mean: float, z_l: float, cosmo) -> float:
 
 def check_run_sizes(n_bins, n_bootstrap, seed) -> None:
     """Bins, bootstrap resamplings and seed within :mod:`lensmass.core.limits` (before any work)."""
-    limits.count(n_bins, "--bins", 1, limits.SHEAR_BINS_MAX, "a profile is a few to a few tens of bins")
-    limits.count(n_bootstrap, "--bootstrap", 0, limits.BOOTSTRAP_MAX, "a few hundred resamplings settle the errors")
+    limits.count(n_bins, "The number of radial bins (`n_bins`)", 1, limits.SHEAR_BINS_MAX, "a profile is a few to a few tens of bins")
+    limits.count(n_bootstrap, "The number of bootstrap resamplings (`n_bootstrap`)", 0, limits.BOOTSTRAP_MAX, "a few hundred resamplings settle the errors")
     limits.seed(seed)
 
 
@@ -108,7 +108,7 @@ def analyse_shear_catalog(
     """
     blocks = ArrayBlocks(ra_deg, dec_deg, e1, e2, weight, z)
     if z is None and options.get("z_s") is None:
-        raise LensInputError("No source redshift: give --zs for all galaxies, or map a redshift column with --columns z=NAME.")
+        raise LensInputError("No source redshift: give one for all galaxies (`z_s`), or each galaxy's redshift (`z`).")
     result = analyse_shear_blocks(blocks, per_galaxy_z=z is not None, **options)
     result["_galaxies"] = {"ra_deg": blocks.ra, "dec_deg": blocks.dec, "e1": blocks.e1, "e2": blocks.e2,
                            "weight": blocks.weight, "z": blocks.z}
@@ -205,22 +205,22 @@ def analyse_shear_blocks(
     cosmo = resolve_cosmology(cosmology)
     c_of_m, c_label = concentration_relation(concentration, halo_definition)
     check_run_sizes(n_bins, n_bootstrap, seed)
-    limits.non_negative(z_margin, "--zs-margin", "sources are kept when z > z_l + margin")
-    limits.redshift_in_range(z_l, "The lens redshift", "--zl")
-    for value, flag in ((r_min, "--rmin"), (r_max, "--rmax")):
+    limits.non_negative(z_margin, "The redshift margin behind the lens (`z_margin`)", "sources are kept when z > z_l + margin")
+    limits.redshift_in_range(z_l, "The lens redshift", "the lens redshift (`z_l`)")
+    for value, name in ((r_min, "The inner radius (`r_min`)"), (r_max, "The outer radius (`r_max`)")):
         if value is not None:
-            limits.positive_radius(value, flag)
+            limits.positive_radius(value, name)
     if r_min is not None and r_max is not None and not r_min < r_max:
-        raise LensInputError(f"The radial range needs rmin < rmax, got --rmin {r_min:g} and --rmax {r_max:g}; "
+        raise LensInputError(f"The radial range needs the inner radius (`r_min`) below the outer (`r_max`), got {r_min:g} and {r_max:g}; "
                              "swap or correct them.")
     if zeta_radii is not None:
         for value in zeta_radii:
-            limits.positive_radius(value, "--zeta-radii")
+            limits.positive_radius(value, "A zeta radius (`zeta_radii`)")
     if not (np.isfinite(z_l) and z_l > 0):
-        raise LensInputError(f"The lens redshift must be a positive number, got {z_l}; check --zl.")
+        raise LensInputError(f"The lens redshift must be a positive number, got {z_l}; check the lens redshift (`z_l`).")
     if z_s is not None and not (np.isfinite(z_s) and z_s > z_l):
         raise LensInputError(
-            f"The source redshift {z_s:g} is not behind the lens at z_l = {z_l:g}: check --zs and --zl."
+            f"The source redshift {z_s:g} is not behind the lens at z_l = {z_l:g}: check the source redshift (`z_s`) and the lens redshift (`z_l`)."
         )
     if not (np.isfinite(center_ra) and np.isfinite(center_dec) and -90 <= center_dec <= 90):
         raise LensInputError(f"The centre RA, Dec = {center_ra}, {center_dec} is not on the sky: give degrees.")
@@ -351,7 +351,7 @@ def analyse_shear_blocks(
 
 def _no_usable(dropped: dict) -> None:
     reasons = ", ".join(f"{k.replace('_', ' ')}: {v}" for k, v in dropped.items() if v)
-    raise LensInputError(f"No usable galaxies in the catalogue ({reasons}): check the columns and --zl.")
+    raise LensInputError(f"No usable galaxies in the catalogue ({reasons}): check the columns and the lens redshift (`z_l`).")
 
 
 def _zeta_subbins(fine_edges: np.ndarray, z_in: float, z_out: float) -> slice | None:
@@ -530,7 +530,7 @@ def mass_map_for_result(result: dict, *, n_pixels: int = 128, extent_arcsec: flo
     gal = result.get("_galaxies")
     if gal is None:
         raise LensInputError("The mass map needs the catalogue in memory: run it on one catalogue file "
-                             "without --scheduler, or make the map of a smaller part of the survey.")
+                             "without a distributed scheduler (`scheduler`), or make the map of a smaller part of the survey.")
     x, y, _, placed = sky_offsets_and_radius(gal["ra_deg"], gal["dec_deg"], result["center_ra"], result["center_dec"])
     sel = result.get("_selection", {})
     z = gal["z"] if sel.get("z_s") is None else None

@@ -123,9 +123,9 @@ def jackknife_patches(ra_deg, dec_deg, n_patches: int, seed: int = 0) -> np.ndar
 
     xyz = unit_vectors(ra_deg, dec_deg)
     if n_patches < 2:
-        raise LensInputError(f"A jackknife needs at least 2 patches, got {n_patches}: raise --patches.")
+        raise LensInputError(f"A jackknife needs at least 2 patches, got {n_patches}: raise the number of patches (`n_patches`).")
     if xyz.shape[0] < n_patches:
-        raise LensInputError(f"{xyz.shape[0]} lenses cannot fill {n_patches} jackknife patches: use fewer --patches.")
+        raise LensInputError(f"{xyz.shape[0]} lenses cannot fill {n_patches} jackknife patches: use fewer patches (`n_patches`).")
     sample = xyz if xyz.shape[0] <= 200_000 else xyz[np.random.default_rng(seed).choice(xyz.shape[0], 200_000, False)]
     centres, _ = kmeans2(sample, n_patches, minit="++", seed=seed)
     norm = np.linalg.norm(centres, axis=1, keepdims=True)
@@ -151,7 +151,7 @@ def stack_block_sums(layout: StackLayout, lenses: PointSet, randoms: PointSet | 
     n = block.n_rows
     out.n_sources = n
     if block.z is None:
-        raise LensInputError("Stacking needs each source's redshift: map a redshift column with --columns z=NAME.")
+        raise LensInputError("Stacking needs each source's redshift: map a redshift column (`columns`, role z).")
     ra, dec = np.asarray(block.ra_deg, float), np.asarray(block.dec_deg, float)
     e1, e2 = np.asarray(block.e1, float), np.asarray(block.e2, float)
     w = np.ones(n) if block.weight is None else np.asarray(block.weight, float)
@@ -329,7 +329,7 @@ def stack_profile(sums: StackSums, layout: StackLayout, lenses: PointSet, random
     rand_t = total(sums.random) if randoms is not None else None
     if randoms is not None and rand_t is not None and np.any((lens_t["w"] > 0) & ~(rand_t["w"] > 0)):
         raise LensInputError("Some radial bins have sources around the lenses but none around the random points: "
-                             "give more random points (--randoms or --random-count).")
+                             "give more random points (`randoms` or `n_randoms`).")
     ds, ds_l, ds_r, b, dx = _estimate(lens_t, rand_t, lw.sum(), 0 if rw is None else rw.sum(), boost)
     # delete-one jackknife over the patches that hold lenses
     patches = np.flatnonzero(lw > 0)
@@ -435,7 +435,7 @@ def fit_stack_nfw(profile: StackProfile, sums: StackSums, layout: StackLayout, *
     hartlap = (n_p - n_d - 2) / (n_p - 1)
     if hartlap <= 0:
         raise LensInputError(f"{n_p} jackknife patches cannot give an invertible covariance of {n_d} bins: use at "
-                             f"least {n_d + 3} patches (--patches) or fewer bins.")
+                             f"least {n_d + 3} patches (`n_patches`) or fewer bins.")
     cov = profile.covariance[np.ix_(use, use)]
     try:
         icov = hartlap * np.linalg.inv(cov)

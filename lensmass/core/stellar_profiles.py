@@ -91,6 +91,6 @@ def projected_mass_fraction(profile: str, radius, r_eff, sersic_n=None) -> np.nd
         return hernquist_projected_fraction(radius, hernquist_scale_radius(r_eff))
     if key == "sersic":
         if sersic_n is None:
-            raise LensInputError("The Sersic light profile needs an index: give --sersic-n N.")
+            raise LensInputError("The Sersic light profile needs an index: give the Sersic index (`sersic_n`).")
         return sersic_enclosed_fraction(radius, r_eff, sersic_n)
     raise LensInputError(f"Unknown stellar profile '{profile}': use one of {', '.join(STELLAR_PROFILES)}.")

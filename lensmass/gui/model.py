@@ -386,7 +386,9 @@ class WindowModel:
                 try:
                     s.cosmology.resolve()
                 except LensInputError as exc:
-                    v["h0"] = str(exc)
+                    from lensmass.gui.words import window_words
+
+                    v["h0"] = window_words(str(exc))
         if self.concentration_is_fixed:
             c = _parse_number(self.texts["concentration_value"], "concentration_value", positive=True, v=v,
                               empty_message="Enter a fixed NFW concentration (for example 5), or pick a c(M, z) relation.")

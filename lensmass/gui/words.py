@@ -14,7 +14,13 @@ FIELD_NAMES = {
     "z_s_err": "z_s error", "z_s_range": "z_s range", "z_s_distribution": "z_s table",
     "concentration": "concentration", "halo_definition": "halo boundary", "samples": "Monte Carlo draws",
     "zeropoint": "zeropoint", "zeropoint_key": "zeropoint keyword", "exptime": "exposure time",
-    "pixel_scale_arcsec": "pixel scale",
+    "pixel_scale_arcsec": "pixel scale", "pixel_scale_err_arcsec": "pixel-scale error", "center": "lens centre mark",
+    "points": "marked points", "max_radius_pix": "search radius", "lens_mag": "lens magnitude",
+    "r_eff_arcsec": "effective radius", "sersic_n": "Sersic index", "stellar_ml": "stellar M/L",
+    "stellar_mass_msun": "stellar mass", "band": "band", "n_bins": "bins", "n_bootstrap": "bootstrap resamplings",
+    "r_min": "inner radius", "r_max": "outer radius", "z_margin": "redshift margin", "zeta_radii": "zeta radii",
+    "columns": "column mapping", "hdu": "HDU", "plane": "plane", "h0": "H0", "om0": "Omega_m", "ode0": "Omega_Lambda",
+    "cosmology": "cosmology",
 }
 
 

@@ -36,7 +36,8 @@ _FIXES = {
 def check_writable(target: str | os.PathLike, what: str = "") -> Path:
     """Refuse, before any work is done, a target that cannot be written: one sentence saying why.
 
-    ``what`` names the option or field the path came from (e.g. ``"--out"``).
+    ``what`` names the parameter or field the path came from, in backquotes (e.g. ``"`out`"``),
+    which the command line shows as its flag.
 
     Examples
     --------

@@ -280,7 +280,7 @@ def write_results(path: Path, records, settings, models) -> None:
     from lensmass.io.atomic import atomic_path
 
     table = results_table(list(records), settings, models)
-    with atomic_path(path, "--out") as tmp:
+    with atomic_path(path, "`out`") as tmp:
         table.write(tmp, format="ascii.ecsv", overwrite=True)
 
 
@@ -293,19 +293,19 @@ def read_previous(path: Path, settings: dict, manifest) -> dict[int, dict[str, A
     except Exception as exc:
         raise LensInputError(
             f"Cannot resume from '{path}' ({type(exc).__name__}): it is not a batch RESULTS table; "
-            "move it aside or choose another --out."
+            "move it aside or choose another results file (`out`)."
         ) from None
     schema = table.meta.get("schema", 1)
     if not isinstance(schema, int) or schema > RESULTS_SCHEMA:
         raise LensInputError(f"'{path}' was written by a newer lensmass (results schema {schema}, this one writes "
-                             f"{RESULTS_SCHEMA}): update lensmass, or write to a new --out.")
+                             f"{RESULTS_SCHEMA}): update lensmass, or write to a new results file (`out`).")
     before = dict(table.meta.get("settings") or {})
     now = {k: settings[k] for k in SETTING_KEYS}
     if before != now:
         changed = ", ".join(k for k in SETTING_KEYS if before.get(k) != now[k]) or "unknown settings"
         raise LensInputError(
             f"'{path}' was made with other settings ({changed} differ): resume with the same options, "
-            "or write to a new --out."
+            "or write to a new results file (`out`)."
         )
     for name in table.colnames:  # ECSV reads empty strings back as masked
         if table[name].dtype.kind in "US" and hasattr(table[name], "filled"):
@@ -313,7 +313,7 @@ def read_previous(path: Path, settings: dict, manifest) -> dict[int, dict[str, A
     for needed in ("row", "id", "error"):
         if needed not in table.colnames:
             raise LensInputError(f"'{path}' has no '{needed}' column, so its rows cannot be matched to the manifest: "
-                                 "move it aside or write to a new --out.")
+                                 "move it aside or write to a new results file (`out`).")
     template = result_record(_EmptyRow(), None, "")  # a column an older file lacks gets its empty value
     from lensmass.io.spreadsheet import spreadsheet_safe
 
@@ -348,8 +348,8 @@ def batch_settings(*, cosmology: Any = None, concentration: str | float = "duffy
     from lensmass.core import limits
 
     cosmo = resolve_cosmology(cosmology)
-    limits.monte_carlo_samples(samples, "`samples`", memory_bytes=limits.available_memory_bytes() // max(1, workers))
-    limits.seed(seed, "`seed`")
+    limits.monte_carlo_samples(samples, memory_bytes=limits.available_memory_bytes() // max(1, workers))
+    limits.seed(seed)
     return {"cosmology": cosmology_label(cosmo), "_cosmology": cosmo, "concentration": str(concentration),
             "halo_definition": halo_definition, "samples": int(samples), "seed": int(seed)}
 

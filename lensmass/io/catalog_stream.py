@@ -234,7 +234,7 @@ def _numeric(values, name: str, role: str, path: Path) -> np.ndarray:
         if arr.dtype.kind == "b":
             return arr.astype(np.float32)
         raise LensInputError(f"Column '{name}' ({role}) of '{path.name}' is not numeric: map a numeric column "
-                             "with --columns.")
+                             "(`columns`).")
     if arr.dtype.byteorder == ">":  # FITS stores big-endian; the arithmetic wants native order
         arr = arr.astype(arr.dtype.newbyteorder("="))
     return arr

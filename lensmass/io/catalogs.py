@@ -80,7 +80,7 @@ def parse_column_map(text: str | None) -> dict[str, str]:
         if not sep or not name:
             raise LensInputError(f"Column mapping '{item}' must read ROLE=COLUMN (for example e1=E1).")
         if role not in ROLES:
-            raise LensInputError(f"Unknown column role '{role}' in --columns: use {', '.join(ROLES)}.")
+            raise LensInputError(f"Unknown column role '{role}' in the column mapping (`columns`): use {', '.join(ROLES)}.")
         mapping[role] = name
     return mapping
 
@@ -156,13 +156,13 @@ def resolve_columns(colnames: list[str], mapping: dict[str, str], *, need_z: boo
     for role, name in resolved.items():
         if name in by_column:
             raise LensInputError(f"Column '{name}' is used for both {by_column[name]} and {role}: map each role to "
-                                 "its own column with --columns.")
+                                 "its own column (`columns`).")
         by_column[name] = role
     for role in REQUIRED_ROLES + (("z",) if need_z else ()):
         if role not in resolved:
-            alternative = ", or give one source redshift for all with --zs" if role == "z" else ""
+            alternative = ", or give one source redshift for all (`z_s`)" if role == "z" else ""
             raise LensInputError(
-                f"The catalogue has no column for {role}: map one with --columns {role}=NAME{alternative} "
+                f"The catalogue has no column for {role}: map one (`columns`, role {role}){alternative} "
                 f"(its columns are: {present})."
             )
     return resolved
@@ -178,7 +178,7 @@ def _float_column(table, name: str, role: str) -> np.ndarray:
         else:
             data = np.asarray(col, dtype=float)
     except (TypeError, ValueError):
-        raise LensInputError(f"Column '{name}' ({role}) is not numeric: map a numeric column with --columns.") from None
+        raise LensInputError(f"Column '{name}' ({role}) is not numeric: map a numeric column (`columns`).") from None
     return np.ascontiguousarray(data, dtype=float)
 
 
@@ -233,7 +233,7 @@ def read_shear_catalog(
 def _memory_sentence(path: Path, n_rows: int | None, need_gb: float | None = None, free_gb: float | None = None) -> str:
     size = f"the {n_rows:,} rows of '{path.name}'" if n_rows else f"'{path.name}'"
     amounts = f" needs about {need_gb:.1f} GB but {free_gb:.1f} GB is free" if need_gb else " does not fit in memory"
-    return (f"Reading {size} into memory{amounts}: leave out --map-out so `lensmass shear` streams the catalogue "
+    return (f"Reading {size} into memory{amounts}: ask for no mass map (`map_out`) so the catalogue is streamed "
             "in blocks, or map a smaller part of the survey.")
 
 

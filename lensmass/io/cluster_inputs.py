@@ -146,13 +146,13 @@ def read_member_catalog(path: str | Path, columns: str | dict | None = None) -> 
                 resolved[role] = name
     for role in ("ra", "dec"):
         if role not in resolved:
-            raise LensInputError(f"The member catalogue has no '{role}' column: map one with --member-columns "
-                                 f"{role}=NAME.")
+            raise LensInputError(f"The member catalogue has no '{role}' column: map one (`member_columns`, "
+                                 f"role {role}).")
     data = {role: _float_column(table, name, role) for role, name in resolved.items()}
     mass = data.get("mstar")
     if mass is None and "log_mstar" in data:
         mass = 10.0 ** data["log_mstar"]
     if mass is None and "mag" not in data:
         raise LensInputError("The member catalogue needs stellar masses (mstar or log_mstar) or magnitudes (mag): "
-                             "map one with --member-columns.")
+                             "map one (`member_columns`).")
     return MemberCatalog(data["ra"], data["dec"], mass, data.get("mag"), resolved, str(p))

@@ -39,7 +39,7 @@ def run_components(args: Any, *, cosmology: Any = None, center_sky: tuple[float 
         counts, exposure = read_xray(args.xray, args.exposure)
         kw.update(xray_counts=counts.data, xray_wcs=counts.wcs, xray_exposure=exposure)
     elif args.exposure:
-        raise LensInputError("An exposure map belongs to an X-ray image: give the X-ray counts image too (--xray).")
+        raise LensInputError("An exposure map belongs to an X-ray image: give the X-ray counts image too (`xray`).")
     if args.members:
         mem = read_member_catalog(args.members, args.member_columns)
         kw.update(member_ra=mem.ra_deg, member_dec=mem.dec_deg)
@@ -48,15 +48,15 @@ def run_components(args: Any, *, cosmology: Any = None, center_sky: tuple[float 
         else:
             if not args.band or args.mass_to_light is None:
                 raise LensInputError("The members have magnitudes but no stellar masses: give their band and a "
-                                     "stellar mass-to-light ratio (--band, --mass-to-light) to turn them into masses.")
+                                     "stellar mass-to-light ratio (`band`, `mass_to_light`) to turn them into masses.")
             from lensmass.core.light import absolute_magnitude, luminosity_lsun
             from lensmass.core.sun_magnitudes import sun_absolute_magnitude
 
             lum = luminosity_lsun(absolute_magnitude(mem.magnitude, args.zl, cosmo), sun_absolute_magnitude(args.band))
             kw.update(member_luminosity_lsun=lum, mass_to_light=args.mass_to_light)
-    gas = _numbers(args.gas_mass, "--gas-mass")
+    gas = _numbers(args.gas_mass, "The gas masses (`gas_mass`)")
     if gas is not None:
-        kw.update(gas_mass_msun=gas, gas_mass_err_msun=_numbers(args.gas_mass_err, "--gas-mass-err"))
+        kw.update(gas_mass_msun=gas, gas_mass_err_msun=_numbers(args.gas_mass_err, "The gas-mass errors (`gas_mass_err`)"))
     if args.gas_map:
         gm = read_sky_image(args.gas_map, "gas mass map")
         kw.update(gas_map_msun_per_pixel=gm.data, gas_map_wcs=gm.wcs, gas_map_err_fraction=args.gas_map_error)

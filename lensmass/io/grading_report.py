@@ -19,7 +19,7 @@ from collections import Counter
 from pathlib import Path
 from typing import Any
 
-from lensmass.core.errors import LensInputError
+from lensmass.core.errors import LensInputError, in_words
 from lensmass.core.grading import (
     DEFAULT_TOLERANCE,
     GRADABLE,
@@ -75,7 +75,7 @@ def grade_class(path: str | Path, cosmo, tolerance: float = DEFAULT_TOLERANCE) -
                 raise LensInputError(f"the row has no {', '.join(absent)}")
             graded = grade_answers(answers, *lens, cosmo, tolerance) if answers else []
         except (ValueError, LensInputError) as exc:
-            reason = str(exc).rstrip(".")
+            reason = in_words(str(exc)).rstrip(".")
             graded = [_ungradable(q, v, f"not graded: {reason}") for q, v in answers.items()]
         for row in graded:
             report.append({"student": student, **row})

@@ -124,10 +124,10 @@ class LoadedImage:
             name = Path(self.path).name or "This image"
             if self.wcs_problem:
                 raise LensInputError(f"{name} has an unusable WCS ({self.wcs_problem}), so its pixel scale is "
-                                     "unknown: fix the header or give --pixel-scale ARCSEC (arcsec per pixel).")
+                                     "unknown: fix the header or give it in arcsec per pixel (`pixel_scale_arcsec`).")
             raise LensInputError(
                 f"{name} has no usable WCS, so its pixel scale is unknown: "
-                "give it with --pixel-scale ARCSEC (arcsec per pixel)."
+                "give it in arcsec per pixel (`pixel_scale_arcsec`)."
             )
         return float(self.pixel_scale_arcsec)
 
@@ -209,12 +209,12 @@ def _check_user_scale(scale, err) -> float | None:
         raise LensInputError(f"The pixel scale must be a positive number of arcsec per pixel, got {scale}.")
     from lensmass.core import limits
 
-    limits.pixel_scale(s, "The pixel scale", "give --pixel-scale in arcsec per pixel")
+    limits.pixel_scale(s, "The pixel scale", "give the pixel scale in arcsec per pixel (`pixel_scale_arcsec`)")
     if not np.isfinite(e) or e < 0:
         raise LensInputError(f"The pixel-scale error must be zero or positive, got {err}.")
     if e >= s:
         raise LensInputError(f"The pixel-scale error {e:g}\" is as large as the scale {s:g}\" itself; check "
-                             "--pixel-scale-err (a 1-sigma error in arcsec per pixel).")
+                             "the pixel-scale error (`pixel_scale_err_arcsec`), a 1-sigma error in arcsec per pixel.")
     return s
 
 
@@ -251,7 +251,7 @@ def _load_fits(p: Path, hdu, plane) -> LoadedImage:
                 raise _fail_open(p, f"the image data are truncated or damaged ({_short(exc)}); "
                                     "re-download or re-export the file") from None
         if raw is None:
-            raise _fail_open(p, f"HDU {index} holds no image data; choose another with --hdu")
+            raise _fail_open(p, f"HDU {index} holds no image data; choose another (`hdu`)")
         notes: list[str] = []
         raw, plane_used = _pick_plane(p, raw, plane, notes)
         _check_size(p, *raw.shape)
@@ -287,7 +287,7 @@ def _choose_hdu(p: Path, hdul, hdu):
             raise _fail_open(p, f"it has no HDU '{hdu}' (it has {n}, numbered 0 to {n - 1})") from None
         index = hdul.index_of(key) if isinstance(key, str) else key
         if not isinstance(chosen, (fits.PrimaryHDU, fits.ImageHDU, fits.CompImageHDU)):
-            raise _fail_open(p, f"HDU {hdu} is a table, not an image; choose an image HDU with --hdu")
+            raise _fail_open(p, f"HDU {hdu} is a table, not an image; choose an image HDU (`hdu`)")
         return index, chosen
     for i in range(n):
         h = hdul[i]
@@ -311,10 +311,10 @@ def _pick_plane(p: Path, raw: np.ndarray, plane, notes: list[str]):
         raise _fail_open(p, f"the data are {squeezed.ndim}-D; lensmass reads 2-D images or one plane of a 3-D cube")
     if plane is None:
         raise LensInputError(
-            f"{p.name} is a 3-D cube of {squeezed.shape[0]} planes: choose one with --plane N (0 to {squeezed.shape[0] - 1})."
+            f"{p.name} is a 3-D cube of {squeezed.shape[0]} planes: choose one (`plane`, 0 to {squeezed.shape[0] - 1})."
         )
     if not 0 <= int(plane) < squeezed.shape[0]:
-        raise LensInputError(f"Plane {plane} does not exist in {p.name}: use --plane 0 to {squeezed.shape[0] - 1}.")
+        raise LensInputError(f"Plane {plane} does not exist in {p.name}: choose a plane (`plane`) from 0 to {squeezed.shape[0] - 1}.")
     notes.append(f"Plane {int(plane)} of a {squeezed.shape[0]}-plane cube.")
     return squeezed[int(plane)], int(plane)
 
@@ -522,7 +522,7 @@ def _finish(image: LoadedImage, user_scale: float | None, user_err: float) -> No
                            + ("; row 0 is the top of the picture, taken as north up, east left." if image.kind != "fits"
                               else "; taken as north up, east left."))
     elif image.kind == "fits":
-        image.notes.append("No usable WCS in the file: give the pixel scale with --pixel-scale ARCSEC to measure.")
+        image.notes.append("No usable WCS in the file: give the pixel scale in arcsec per pixel (`pixel_scale_arcsec`) to measure.")
 
 
 def write_image_fits(path: str | os.PathLike, data: np.ndarray, header=None, history: str = "") -> None:

@@ -19,11 +19,11 @@ def read_redshift_table(path: str | Path) -> tuple[np.ndarray, np.ndarray]:
 
     path = Path(path)
     if path.is_dir():
-        raise LensInputError(f"'{path}' is a folder, not a redshift table: give --zs-table the table file itself.")
+        raise LensInputError(f"'{path}' is a folder, not a redshift table: give the table file itself (`z_s_distribution`).")
     if path.is_file() and path.stat().st_size == 0:
         raise LensInputError(f"Redshift table '{path}' is empty: it needs a header 'z,weight' and one row per redshift.")
     if not path.is_file():
-        raise LensInputError(f"Redshift table '{path}' does not exist: check the path given to --zs-table.")
+        raise LensInputError(f"Redshift table '{path}' does not exist: check the path of the source redshift table (`z_s_distribution`).")
     try:
         fmt = None
         if path.suffix.lower() in (".csv", ".txt", ".dat"):

@@ -62,7 +62,7 @@ class PostgresStore(GradeStore):
             if "authentication" in text or ("database" in text and "does not exist" in text):
                 raise LensInputError(
                     f"The PostgreSQL server at {_server_label(self.url)} refused the store ({text}): "
-                    "check the user, password and database name in the --store URL."
+                    "check the user, password and database name in the store address (`store`)."
                 ) from None
             raise
         self._create_schema(conn)

@@ -37,7 +37,7 @@ def test_sis_velocity_limit_matches_the_sis_formula():
     # theta_E = 4 pi D_ls/D_s radians. Just below, the estimate runs; at the limit it is refused.
     zl, zs = 0.5, 0.5 + 1e-9
     d_s = Planck18.angular_diameter_distance(zs)
-    d_ls = Planck18.angular_diameter_distance_z1z2(zl, zs)
+    d_ls = Planck18.angular_diameter_distance(zl, zs)
     theta_c = (4 * np.pi * d_ls / d_s).to_value(u.dimensionless_unscaled) * 206264.806
     r = estimate(0.9 * theta_c, zl, zs, cosmology="Planck18")
     assert r["sis_sigma_v_kms"] == pytest.approx(np.sqrt(0.9) * limits.SPEED_OF_LIGHT_KMS, rel=1e-4)

@@ -92,7 +92,7 @@ def test_bad_inputs_are_one_sentence():
         lens_aperture_photometry(image, CENTRE, CENTRE, 8.0, annulus=(20.0, 30.0))
     with pytest.raises(LensInputError, match="not positive"):
         counts_to_magnitude(-5.0, 1.0, 25.0)
-    with pytest.raises(LensInputError, match="--exptime"):
+    with pytest.raises(LensInputError, match="exposure time .`exptime`."):
         counts_to_magnitude(5.0, 1.0, 25.0, exptime_s=0.0)
 
 

@@ -68,7 +68,7 @@ def test_total_flux_against_numerical_integral(n):
 
 
 def test_bad_sersic_index():
-    with pytest.raises(LensInputError, match="--sersic-n"):
+    with pytest.raises(LensInputError, match="Sersic index .`sersic_n`."):
         sersic_b(-1.0)
 
 

@@ -93,7 +93,7 @@ def test_noiseless_sis_profile_is_theta_e_over_2theta():
 
 
 def test_lensing_efficiency_matches_astropy():
-    # Reference: astropy angular_diameter_distance_z1z2 (Hogg 1999); interpolated grid to 1e-6.
+    # Reference: astropy angular_diameter_distance(z1, z2) (Hogg 1999); interpolated grid to 1e-6.
     z = np.array([0.5, 1.0, 2.5])
     beta, sc, d_l = lensing_efficiency(0.35, z, COSMO)
     d_s = COSMO.angular_diameter_distance(z).to_value(u.Mpc)

@@ -144,7 +144,9 @@ def test_bad_input_is_one_sentence_and_keeps_the_fields(qtbot, setup):
     assert panel.edits["mag"].text() == "seventeen"
     _type(qtbot, panel, "mag", "17.6")  # no R_e: the core's sentence comes back from the worker
     _press(qtbot, panel, window)
-    assert panel.light_result is None and "--r-eff" in panel.status.text()
+    # the core's sentence names the window's field, never a command-line flag
+    assert panel.light_result is None and "(effective radius)" in panel.status.text()
+    assert "--" not in panel.status.text() and "`" not in panel.status.text()
 
 
 def test_no_result_yet_and_stale_results(qtbot, setup):

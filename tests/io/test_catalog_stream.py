@@ -235,5 +235,5 @@ def test_a_catalogue_too_large_for_memory_is_one_sentence_naming_the_size(sim, t
     real = os.sysconf
     monkeypatch.setattr(os, "sysconf", lambda name: 1 if name == "SC_AVPHYS_PAGES" else real(name))
     with pytest.raises(LensInputError, match=r"Reading the 20,000 rows of 'one.fits' into memory needs about "
-                                             r"[0-9.]+ GB but 0.0 GB is free: leave out --map-out"):
+                                             r"[0-9.]+ GB but 0.0 GB is free: ask for no mass map \(`map_out`\)"):
         read_shear_catalog(path)

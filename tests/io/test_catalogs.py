@@ -53,7 +53,7 @@ def test_missing_column_names_it_and_lists_present(tmp_path):
     assert "'E1'" in msg and "RA, DEC, G1, G2, W, ZPHOT" in msg
     t.remove_column("G2")
     t.write(path, overwrite=True)
-    with pytest.raises(LensInputError, match="no column for e2: map one with --columns e2=NAME"):
+    with pytest.raises(LensInputError, match="no column for e2: map one .`columns`, role e2."):
         read_shear_catalog(path)
 
 

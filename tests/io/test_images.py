@@ -98,7 +98,7 @@ def test_compressed_extension_and_named_hdu(tmp_path):
 def test_cube_needs_a_plane(tmp_path):
     p = tmp_path / "cube.fits"
     fits.PrimaryHDU(np.arange(60, dtype=np.float32).reshape(3, 4, 5)).writeto(p)
-    with pytest.raises(LensInputError, match="--plane"):
+    with pytest.raises(LensInputError, match="`plane`"):
         load_image(p)
     im = load_image(p, plane=2, pixel_scale_arcsec=0.1)
     assert im.data[0, 0] == 40.0 and im.plane == 2
@@ -109,7 +109,7 @@ def test_no_wcs_needs_pixel_scale(tmp_path):
     fits.PrimaryHDU(np.ones((5, 5), np.float32)).writeto(p)
     im = load_image(p)
     assert im.pixel_scale_arcsec is None
-    with pytest.raises(LensInputError, match="--pixel-scale"):
+    with pytest.raises(LensInputError, match="`pixel_scale_arcsec`"):
         im.require_pixel_scale()
     with pytest.raises(LensInputError, match="RA/Dec"):
         im.pixel_to_sky(1, 1)
@@ -126,7 +126,7 @@ def test_png_rows_as_stored_and_grey(tmp_path):
     assert im.data.shape == (6, 8)
     assert im.data[0, 5] == pytest.approx(0.299 * 255, rel=1e-5)
     assert im.wcs is None and im.pixel_scale_arcsec == 0.3
-    with pytest.raises(LensInputError, match="--pixel-scale"):
+    with pytest.raises(LensInputError, match="`pixel_scale_arcsec`"):
         load_image(tmp_path / "pic.png").require_pixel_scale()
 
 
