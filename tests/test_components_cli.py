@@ -65,7 +65,7 @@ def test_json_table_and_files(catalogue, capsys, tmp_path):
 @pytest.mark.parametrize("extra, message", [
     (["--exposure", "x.fits"], "exposure map belongs to an X-ray image"),
     (["--xray", "missing.fits"], "does not exist"),
-    (["--gas-mass", "lots"], "--gas-mass must be numbers"),
+    (["--gas-mass", "lots"], "gas masses (--gas-mass) must be numbers"),
     (["--aperture-kpc", "-5"], "aperture radius must be a positive number"),
 ])
 def test_bad_input_is_one_sentence(catalogue, capsys, extra, message):

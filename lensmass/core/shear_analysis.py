@@ -211,7 +211,8 @@ def analyse_shear_blocks(
         if value is not None:
             limits.positive_radius(value, name)
     if r_min is not None and r_max is not None and not r_min < r_max:
-        raise LensInputError(f"The radial range needs the inner radius (`r_min`) below the outer (`r_max`), got {r_min:g} and {r_max:g}; "
+        raise LensInputError(f"The radial range needs rmin < rmax, got an inner radius (`r_min`) of {r_min:g} and an "
+                             f"outer radius (`r_max`) of {r_max:g}; "
                              "swap or correct them.")
     if zeta_radii is not None:
         for value in zeta_radii:

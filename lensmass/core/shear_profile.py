@@ -66,7 +66,7 @@ def radial_bin_edges(r_min: float, r_max: float, n_bins: int, *, log: bool = Tru
         raise LensInputError(f"The number of radial bins must be at least 1, got {n_bins}.")
     if log:
         if r_min <= 0:
-            raise LensInputError("Logarithmic bins need an inner radius above 0: give a positive inner radius (`r_min`) or use linear bins.")
+            raise LensInputError("Logarithmic bins need rmin > 0: give a positive inner radius (`r_min`) or use linear bins.")
         return np.geomspace(r_min, r_max, int(n_bins) + 1)
     return np.linspace(r_min, r_max, int(n_bins) + 1)
 

@@ -160,7 +160,7 @@ def resolve_columns(colnames: list[str], mapping: dict[str, str], *, need_z: boo
         by_column[name] = role
     for role in REQUIRED_ROLES + (("z",) if need_z else ()):
         if role not in resolved:
-            alternative = ", or give one source redshift for all (`z_s`)" if role == "z" else ""
+            alternative = ", or give one source redshift for all with `z_s`" if role == "z" else ""
             raise LensInputError(
                 f"The catalogue has no column for {role}: map one (`columns`, role {role}){alternative} "
                 f"(its columns are: {present})."
