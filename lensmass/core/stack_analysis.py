@@ -3,7 +3,7 @@ Delta Sigma(R), its jackknife covariance and the mean halo mass of the lens samp
 
 The window (none yet), the ``lensmass stack`` command and Python all call :func:`analyse_stack`;
 the physics is in :mod:`lensmass.core.stacking`. Sources come as anything with ``total(fn)``
-(see :class:`lensmass.core.shear_analysis.ArrayBlocks`, the streamed files of
+(see :class:`lensmass.core.catalog_arrays.ArrayBlocks`, the streamed files of
 :mod:`lensmass.io.catalog_stream` or a Dask cluster of :mod:`lensmass.io.distributed`).
 """
 
