@@ -36,7 +36,8 @@ PARAMETER_FLAGS: dict[str, str] = {
     "seed": "--seed", "zeropoint": "--zeropoint", "zeropoint_key": "--zeropoint-key", "exptime": "--exptime",
     "pixel_scale_arcsec": "--pixel-scale", "sersic_n": "--sersic-n", "lens_mag": "--lens-mag",
     "r_eff_arcsec": "--r-eff", "stellar_ml": "--stellar-ml", "stellar_mass_msun": "--stellar-mass",
-    "workers": "--workers", "save_every": "--save-every",
+    "workers": "--workers", "save_every": "--save-every", "point_mass_msun": "--stellar-mass",
+    "point_mass_prior": "--stellar-mass-prior",
 }
 
 #: Exit status for bad input (one-line message on stderr).
