@@ -37,6 +37,10 @@ BETA_CELLS = 8
 BOOTSTRAP_GROUPS = 2000
 #: Rows per block of the element-wise passes (temporaries stay in the CPU cache).
 BLOCK_ROWS = 1 << 15
+#: Blocks of this many rows or more go through the compiled kernel (:mod:`lensmass.core.shear_kernel`), shorter
+#: ones through the numpy passes (the reference; ``USE_KERNEL = False`` everywhere). Both give the same sums.
+KERNEL_MIN_ROWS = 1 << 16
+USE_KERNEL = True
 
 _GALAXY_KEYS = ("n", "w", "wtheta", "st", "sx", "s2", "s2t", "s2x", "s2ee", "wbeta", "wbeta2")
 _DELTA_SIGMA_KEYS = ("d", "dt", "dx", "d2", "d2t", "d2x", "d2ee")
@@ -226,7 +230,7 @@ class _Context:
             self.beta_one = None
         else:
             self.beta_one = float(ss.lensing_efficiency(layout.z_l, np.array([float(layout.z_s)]), layout.cosmo)[0][0])
-
+        self.kernel = None  # the compiled kernel's constants, made on its first use
 
 _CONTEXTS: dict[tuple, _Context] = {}
 
@@ -268,6 +272,12 @@ def catalog_block_sums(layout: SumLayout, ra_deg, dec_deg, e1, e2, weight=None, 
     total = empty_sums(layout)
     n = int(np.shape(ra_deg)[0])
     z_col = z if layout.z_s is None else None
+    if USE_KERNEL and n >= KERNEL_MIN_ROWS:
+        from lensmass.core import shear_kernel as sk
+        if sk.kernel_applies(layout, ctx, z_col):
+            sk.kernel_block_sums(total, layout, ctx, ra_deg, dec_deg, e1, e2, weight, z_col, first_row)
+            total.n_rows = n
+            return total
     for start in range(0, n, BLOCK_ROWS):
         sl = slice(start, min(n, start + BLOCK_ROWS))
         _add_piece(total, layout, ctx, ra_deg[sl], dec_deg[sl], e1[sl], e2[sl],
