@@ -16,7 +16,7 @@ import numba
 import numpy as np
 
 from lensmass.core.constants import ARCSEC_RAD
-from lensmass.core.shear_geometry import SERIES_MAX
+from lensmass.core.shear_geometry import _ARCTAN_SERIES, _TAN_SERIES, SERIES_MAX
 
 #: Order of the sums in the kernel's output rows (the keys of :data:`lensmass.core.shear_sums._GALAXY_KEYS`
 #: followed by those of ``_DELTA_SIGMA_KEYS``).
@@ -32,39 +32,29 @@ _S13, _S16, _S32 = np.uint64(13), np.uint64(16), np.uint64(32)
 
 
 @numba.njit(**_JIT)
+def _odd_series(x, c):
+    """x (c0 + c1 x^2 + ... + c5 x^10) by Horner's rule, as :func:`lensmass.core.shear_geometry._odd_series`."""
+    x2 = x * x
+    p = x2 * c[5]
+    for k in range(4, 0, -1):
+        p += c[k]
+        p *= x2
+    p += c[0]
+    return p * x
+
+
+_TAN = np.array(_TAN_SERIES)
+_ARCTAN = np.array(_ARCTAN_SERIES)
+
+
+@numba.njit(**_JIT)
 def _tan_s(x):
-    if abs(x) < SERIES_MAX:
-        x2 = x * x
-        p = x2 * (1382.0 / 155925.0)
-        p += 62.0 / 2835.0
-        p *= x2
-        p += 17.0 / 315.0
-        p *= x2
-        p += 2.0 / 15.0
-        p *= x2
-        p += 1.0 / 3.0
-        p *= x2
-        p += 1.0
-        return p * x
-    return math.tan(x)
+    return _odd_series(x, _TAN) if abs(x) < SERIES_MAX else math.tan(x)
 
 
 @numba.njit(**_JIT)
 def _arctan_s(x):
-    if abs(x) < SERIES_MAX:
-        x2 = x * x
-        p = x2 * (-1.0 / 11.0)
-        p += 1.0 / 9.0
-        p *= x2
-        p += -1.0 / 7.0
-        p *= x2
-        p += 1.0 / 5.0
-        p *= x2
-        p += -1.0 / 3.0
-        p *= x2
-        p += 1.0
-        return p * x
-    return math.atan(x)
+    return _odd_series(x, _ARCTAN) if abs(x) < SERIES_MAX else math.atan(x)
 
 
 @numba.njit(**_JIT)
