@@ -4,9 +4,12 @@
                  10^13.5-10^14.2, z_l 0.2-0.4, 80 000 sources on 2.25 deg^2, sigma_e 0.25,
                  600 random points): how often the 68% and 95% intervals hold the true M200
                  (issue 17: the 95% interval in at least 90 of 100). CPU time beside wall time.
+  --coverage-stars N   the same with a central point mass (the stars, M_* drawn in 10^12-10^12.7 Msun)
+                 in every lens, fitted with M200 (flat prior on M_*; 8 bins from 0.05 Mpc): coverage of
+                 both parameters' 68% and 95% intervals.
   --speed        10^4 lenses (+ randoms) over 10^7 sources streamed from a partitioned Parquet
                  folder in /tmp: time (wall and CPU), pairs per second, peak memory.
-Run: /work/venv/bin/python benchmarks/bench_stack.py --coverage 100 --speed
+Run: /work/venv/bin/python benchmarks/bench_stack.py --coverage 100 --coverage-stars 100 --speed
 """
 
 from __future__ import annotations
@@ -54,6 +57,41 @@ def coverage(n: int) -> None:
     print(f"time: wall {time.perf_counter() - w0:.1f} s, cpu {time.process_time() - c0:.1f} s")
 
 
+def coverage_stars(n: int) -> None:
+    from lensmass.core.catalog_arrays import ArrayBlocks
+    from lensmass.core.cosmology import resolve_cosmology
+    from lensmass.core.stack_analysis import analyse_stack
+    from lensmass.core.stack_simulation import simulate_stack
+
+    cosmo = resolve_cosmology("Planck18")
+    hits = {"mean_halo_m200_msun": [0, 0], "point_mass_msun": [0, 0]}
+    ratios = {k: [] for k in hits}
+    w0, c0 = time.perf_counter(), time.process_time()
+    for seed in range(n):
+        truth = {"mean_halo_m200_msun": 10 ** np.random.default_rng(1000 + seed).uniform(13.5, 14.2),
+                 "point_mass_msun": 10 ** np.random.default_rng(2000 + seed).uniform(12.0, 12.7)}
+        s = simulate_stack(n_lenses=200, n_sources=80000, m200_msun=truth["mean_halo_m200_msun"], cosmo=cosmo,
+                           ra_range=(30.0, 31.5), dec_range=(-0.75, 0.75), point_mass_msun=truth["point_mass_msun"],
+                           seed=seed)
+        r = analyse_stack(s["lens_ra"], s["lens_dec"], s["lens_z"],
+                          ArrayBlocks(s["ra"], s["dec"], s["e1"], s["e2"], s["weight"], s["z"]), cosmology=cosmo,
+                          r_min_mpc=0.05, r_max_mpc=1.5, n_bins=8, n_patches=24, n_randoms=600, seed=seed,
+                          point_mass_msun="fit")
+        line = []
+        for key, true in truth.items():
+            lo, hi = r["intervals95"][key]
+            l68, h68 = r["intervals68"][key]
+            hits[key][0] += l68 <= true <= h68
+            hits[key][1] += lo <= true <= hi
+            ratios[key].append(r["medians"][key] / true)
+            line.append(f"{key} true {true:.3e} median {r['medians'][key]:.3e} 95% [{lo:.3e}, {hi:.3e}]")
+        print(f"  seed {seed:3d}: " + "; ".join(line), flush=True)
+    for key, (h68, h95) in hits.items():
+        print(f"{key}: 68% interval {h68}/{n} ({100 * h68 / n:.0f}%), 95% interval {h95}/{n} ({100 * h95 / n:.0f}%); "
+              f"median / true {np.median(ratios[key]):.3f}")
+    print(f"time: wall {time.perf_counter() - w0:.1f} s, cpu {time.process_time() - c0:.1f} s")
+
+
 def speed(n_lenses: int, n_sources: int, randoms_per_lens: int, tmp: Path) -> None:
     import pyarrow as pa
     import pyarrow.parquet as pq
@@ -95,6 +133,7 @@ def speed(n_lenses: int, n_sources: int, randoms_per_lens: int, tmp: Path) -> No
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--coverage", type=int, default=0, metavar="N")
+    parser.add_argument("--coverage-stars", type=int, default=0, metavar="N")
     parser.add_argument("--speed", action="store_true")
     parser.add_argument("--lenses", type=int, default=10_000)
     parser.add_argument("--sources", type=int, default=10_000_000)
@@ -102,6 +141,8 @@ def main(argv=None) -> int:
     args = parser.parse_args(argv)
     if args.coverage:
         coverage(args.coverage)
+    if args.coverage_stars:
+        coverage_stars(args.coverage_stars)
     if args.speed:
         tmp = Path(tempfile.mkdtemp(prefix="lensmass_stack_", dir="/tmp"))
         try:

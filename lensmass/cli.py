@@ -48,6 +48,7 @@ PARAMETER_FLAGS: dict[str, str] = {
     "member_columns": "--member-columns", "xray": "--xray", "mass_to_light": "--mass-to-light",
     "gas_mass": "--gas-mass", "gas_mass_err": "--gas-mass-err", "n_patches": "--patches",
     "randoms": "--randoms", "n_randoms": "--random-count", "out": "--out", "store": "--store",
+    "point_mass_msun": "--stellar-mass", "point_mass_prior": "--stellar-mass-prior",
 }
 
 #: Exit status for bad input (one-line message on stderr).

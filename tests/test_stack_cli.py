@@ -93,6 +93,11 @@ def test_stack_on_a_dask_cluster_equals_in_memory(files, capsys):
     (["--lenses", "missing.csv"], "lens catalogue 'missing.csv' does not exist"),
     (["--random-count", "-3"], "--random-count must be 0 or more"),
     (["--patches", "1"], "at least 2 patches"),
+    (["--stellar-mass", "heavy"], "--stellar-mass takes a mass in Msun or 'fit'"),
+    (["--stellar-mass=-1e11"], "The central point mass (--stellar-mass) must be 0 or more Msun"),
+    (["--stellar-mass", "fit", "--stellar-mass-prior", "3e11"], "--stellar-mass-prior takes MEDIAN,DEX"),
+    (["--stellar-mass", "fit", "--stellar-mass-prior", "3e11,-1"], "(--stellar-mass-prior) needs a median > 0"),
+    (["--stellar-mass-prior", "3e11,0.2"], "needs the point mass fitted: set it to 'fit'"),
 ])
 def test_bad_input_one_line(files, capsys, extra, needle):
     _s, folder, lenses = files
@@ -112,3 +117,11 @@ def test_every_stack_key_is_in_the_registry(files, capsys):
     out = json.loads(capsys.readouterr().out)
     missing = [k for k in list(out) + list(out["profile"][0]) if k not in RESULT_KEYS]
     assert not missing, missing
+
+
+def test_fitted_stellar_mass_is_printed_with_its_interval(files, capsys):
+    _s, folder, lenses = files
+    assert main(["stack", str(folder), "--lenses", str(lenses), "--lens-columns", "z=ZSPEC", "--columns", "z=Z_B",
+                 *ARGS, "--stellar-mass", "fit", "--stellar-mass-prior", "3e11,0.3"]) == 0
+    line = next(row for row in capsys.readouterr().out.splitlines() if row.startswith("central M_*"))
+    assert "[" in line and "Msun" in line  # the 68% interval beside the posterior median

@@ -52,8 +52,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     prof.add_argument("--rmax-mpc", type=float, default=3.0, help="outer radius, physical Mpc (default 3)")
     prof.add_argument("--bins", type=int, default=10, help="logarithmic radial bins (default 10)")
     prof.add_argument("--patches", type=int, default=32, help="jackknife sky patches (default 32)")
-    prof.add_argument("--stellar-mass", type=float, default=0.0, metavar="MSUN",
-                      help="central point mass for the lenses' stars in the fit (default 0: halo only)")
+    prof.add_argument("--stellar-mass", default="0", metavar="MSUN|fit",
+                      help="central point mass for the lenses' stars in the fit: a value in Msun (default 0: halo "
+                           "only), or 'fit' to fit it with M200 and report its intervals")
+    prof.add_argument("--stellar-mass-prior", default=None, metavar="MEDIAN,DEX",
+                      help="with --stellar-mass fit: log-normal prior, median in Msun and width in dex "
+                           "(default flat on 0-1e13 Msun)")
     prof.add_argument("--zs-margin", type=float, default=0.1, help="use sources with z_s > z_l + margin (default 0.1)")
     prof.add_argument("--seed", type=int, default=20261201, help="seed of the patches and drawn random points")
     add_scheduler_option(parser)
@@ -77,6 +81,7 @@ def run_stack(args: argparse.Namespace) -> dict:
         randoms = (r["ra"], r["dec"], r["z"])
     elif args.random_count is not None and args.random_count < 0:
         raise LensInputError(f"--random-count must be 0 or more, got {args.random_count}.")
+    stellar, prior = stellar_mass_options(args.stellar_mass, args.stellar_mass_prior)
     files = CatalogFiles(args.sources, args.columns, need_z=True, flip_e1=args.flip_e1, flip_e2=args.flip_e2)
     blocks, route = files, "streamed in one process"
     if args.scheduler:
@@ -87,11 +92,32 @@ def run_stack(args: argparse.Namespace) -> dict:
         lenses["ra"], lenses["dec"], lenses["z"], blocks, lens_weight=lenses["weight"], randoms=randoms,
         n_randoms=args.random_count, r_min_mpc=args.rmin_mpc, r_max_mpc=args.rmax_mpc, n_bins=args.bins,
         n_patches=args.patches, cosmology=cosmology_from_args(args), concentration=args.concentration,
-        halo_definition=args.halo_definition, point_mass_msun=args.stellar_mass, boost=not args.no_boost,
+        halo_definition=args.halo_definition, point_mass_msun=stellar, point_mass_prior=prior,
+        boost=not args.no_boost,
         z_margin=args.zs_margin, seed=args.seed)
     result["catalogs"] = {"sources": files.path, "source_columns": files.columns, "lenses": str(args.lenses),
                           "randoms": str(args.randoms or ""), "read": route}
     return result
+
+
+def stellar_mass_options(value: str, prior: str | None) -> tuple[float | str, tuple[float, float] | None]:
+    """``--stellar-mass`` (Msun or 'fit') and ``--stellar-mass-prior`` (MEDIAN,DEX) as analyse_stack takes them."""
+    text = str(value).strip().lower()
+    if text == "fit":
+        stellar: float | str = "fit"
+    else:
+        try:
+            stellar = float(text)
+        except ValueError:
+            raise LensInputError(f"--stellar-mass takes a mass in Msun or 'fit', got '{value}'.") from None
+    if prior is None:
+        return stellar, None
+    parts = str(prior).split(",")
+    try:
+        median, dex = (float(p) for p in parts)
+    except ValueError:
+        raise LensInputError(f"--stellar-mass-prior takes MEDIAN,DEX (e.g. 3e11,0.2), got '{prior}'.") from None
+    return stellar, (median, dex)
 
 
 def format_profile(result: dict) -> str:

@@ -265,7 +265,7 @@ _FACTS: list[KeyFact] = [
     _f("mean_halo_m200_msun", "mean halo M200", "solMass",
        "M200 of the NFW halo fitted to the stacked Delta Sigma (posterior median)", _K),
     _f("mean_halo_c200", "c200 (relation)", None, "concentration of the mean halo from the c(M) relation", _K),
-    _f("point_mass_msun", "central M_*", "solMass", "central point mass for the lenses' stars in the fit", _K),
+    _f("point_mass_msun", "central M_*", "solMass", "central point mass for the lenses' stars in the fit: given, or fitted with M200 (posterior median)", _K),
     _f("stack_chi2", "chi^2", None, "chi^2 of the stacked NFW fit (Hartlap-debiased inverse covariance)", _K),
     _f("stack_dof", "dof", None, "degrees of freedom of the stacked fit", _K, fmt="count"),
     _f("stack_pvalue", "p-value", None, "p-value of the stacked fit's chi^2", _K),

@@ -2,11 +2,11 @@
 
 The window and the ``lensmass shear`` command both call :func:`analyse_shear_catalog`,
 so every number has one source. Each number is labelled in ``models`` with the model
-and assumptions behind it.
-
-Longer than 500 lines because it holds both entry points (arrays in memory and blocks from files or a
-cluster) beside the zeta corrections and the notes; moving ArrayBlocks and the zeta helpers to their own
-modules is the next split.
+and assumptions behind it. The parts live in modules of one purpose: the block engine
+(:mod:`lensmass.core.shear_sums`), in-memory columns as blocks (:mod:`lensmass.core.catalog_arrays`),
+the zeta statistic (:mod:`lensmass.core.shear_zeta`), notes and model descriptions
+(:mod:`lensmass.core.shear_notes`), the map and model curves (:mod:`lensmass.core.shear_products`);
+their public names are importable from here too.
 """
 
 from __future__ import annotations
@@ -17,34 +17,34 @@ from typing import Any
 
 import numpy as np
 
-from lensmass.core.aperture_mass import shear_from_reduced_shear, zeta_from_profile, zeta_mass_bound_msun
+from lensmass.core.aperture_mass import zeta_mass_bound_msun
+from lensmass.core.catalog_arrays import ArrayBlocks
 from lensmass.core.concentration import concentration_relation
 from lensmass.core.constants import ARCSEC_RAD
 from lensmass.core.cosmology import cosmology_label, little_h, resolve_cosmology
 from lensmass.core import limits
 from lensmass.core.errors import LensInputError
 from lensmass.core.estimate import range_notes
-from lensmass.core.lensing import sigma_crit_msun_per_mpc2
-from lensmass.core.nfw import HALO_DEFINITIONS, nfw_halo, nfw_mass_2d_msun, nfw_surface_density_msun_per_mpc2
-from lensmass.core.shear_fit import DETECTION_SIGMA, PRIORS, cross_shear_test, fit_nfw, fit_sis
+from lensmass.core.nfw import HALO_DEFINITIONS, nfw_halo, nfw_mass_2d_msun
+from lensmass.core.shear_fit import PRIORS, cross_shear_test, fit_nfw, fit_sis
+from lensmass.core.shear_notes import _notes, detection_note, model_descriptions, profile_rows
+from lensmass.core.shear_products import mass_map_for_result, model_curves
 from lensmass.core.shear_profile import (
     DEFAULT_Z_MARGIN,
     lens_distance_mpc,
     lensing_efficiency,
     profile_subbin_edges,
     radial_bin_edges,
-    select_sources,
-    sky_offsets_and_radius,
 )
-from lensmass.core.shear_sums import (
-    CatalogBlock,
-    SumLayout,
-    annulus_profile,
-    block_sums,
-    farthest_usable,
-    profile_from_sums,
-)
+from lensmass.core.shear_sums import SumLayout, block_sums, farthest_usable, profile_from_sums
+from lensmass.core.shear_zeta import _zeta_from_annulus, _zeta_from_subbins, _zeta_subbins
 from lensmass.core.uncertainty import DEFAULT_SEED
+
+__all__ = [  # the names this module has always offered (some now live in the modules above)
+    "ArrayBlocks", "analyse_shear_blocks", "analyse_shear_catalog", "check_run_sizes", "detection_note",
+    "effective_source_redshift", "mass_map_for_result", "model_curves", "model_descriptions", "profile_rows",
+    "to_arcsec",
+]
 
 RADIUS_UNITS = {"arcsec": 1.0, "arcmin": 60.0}
 #: Default inner radius as a fraction of the outer one.
@@ -113,30 +113,6 @@ def analyse_shear_catalog(
     result["_galaxies"] = {"ra_deg": blocks.ra, "dec_deg": blocks.dec, "e1": blocks.e1, "e2": blocks.e2,
                            "weight": blocks.weight, "z": blocks.z}
     return result
-
-
-class ArrayBlocks:
-    """Catalogue columns in memory as one block of rows (the engine works through it in pieces).
-
-    Any source of rows offers ``total(fn)``: ``fn(block)`` for each of its blocks, the results
-    added; ``lensmass.io.catalog_stream`` and ``lensmass.io.distributed`` offer the same for
-    files and for Dask clusters.
-    """
-
-    def __init__(self, ra_deg, dec_deg, e1, e2, weight=None, z=None):
-        self.ra = np.asarray(ra_deg, float)
-        self.dec = np.asarray(dec_deg, float)
-        self.e1 = np.asarray(e1, float)
-        self.e2 = np.asarray(e2, float)
-        self.weight = np.ones(self.ra.size) if weight is None else np.asarray(weight, float)
-        self.z = None if z is None else np.asarray(z, float)
-        if not (self.dec.shape == self.e1.shape == self.e2.shape == self.weight.shape == self.ra.shape) or (
-                self.z is not None and self.z.shape != self.ra.shape):
-            raise LensInputError("The catalogue columns differ in length: give one value per galaxy in each column.")
-        self.n_rows = int(self.ra.size)
-
-    def total(self, fn):
-        return fn(CatalogBlock(self.ra, self.dec, self.e1, self.e2, self.weight, self.z, 0))
 
 
 def analyse_shear_blocks(
@@ -355,209 +331,3 @@ def _no_usable(dropped: dict) -> None:
     raise LensInputError(f"No usable galaxies in the catalogue ({reasons}): check the columns and the lens redshift (`z_l`).")
 
 
-def _zeta_subbins(fine_edges: np.ndarray, z_in: float, z_out: float) -> slice | None:
-    """The profile's sub-bins that make up the zeta annulus, when it falls on their edges (the
-    default annulus always does), else None."""
-    k1 = int(np.argmin(np.abs(fine_edges - z_in)))
-    k2 = int(np.argmin(np.abs(fine_edges - z_out)))
-    if k2 - k1 >= 4 and np.isclose(fine_edges[k1], z_in, rtol=1e-9) and np.isclose(fine_edges[k2], z_out, rtol=1e-9):
-        return slice(k1, k2)
-    return None
-
-
-def _convergence_inf(halo, radius_mpc, d_l):
-    """Convergence of ``halo`` for a source with D_ls / D_s = 1."""
-    return nfw_surface_density_msun_per_mpc2(radius_mpc, halo) / sigma_crit_msun_per_mpc2(d_l, 1.0, 1.0)
-
-
-def _subbin_kappa(fine_edges, cells, halo, d_l):
-    """Convergence of ``halo`` in each sub-bin, averaged as the two estimators weight their galaxies.
-
-    With g = beta gamma_inf / (1 - beta kappa_inf) per galaxy, gamma_t = g_t (1 - kappa) in a bin of
-    mean g_t (weights w) needs kappa_inf <beta^2>/<beta>; the Delta Sigma mean (weights w beta^2)
-    needs kappa_inf <beta^3>/<beta^2> (moments over the bin's cells, first order in the shear).
-    """
-    n = fine_edges.size - 1
-    k = np.searchsorted(fine_edges, cells.theta_arcsec, side="right") - 1
-    ok = (k >= 0) & (k < n)
-    w, b, v = cells.weight[ok], cells.beta[ok], cells.beta_var[ok]
-    m = [np.bincount(k[ok], w * mom, n) for mom in (b, b * b + v, b**3 + 3 * b * v)]
-    centre_mpc = np.sqrt(fine_edges[1:] * fine_edges[:-1]) * ARCSEC_RAD * d_l
-    kappa_inf = _convergence_inf(halo, centre_mpc, d_l)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        return kappa_inf * m[1] / m[0], kappa_inf * m[2] / m[1]
-
-
-def _zeta_from_subbins(fine, sl: slice, z_in, z_out, halo=None, cells=None, d_l=None):
-    """zeta and zeta_Sigma with errors from the profile's sub-bins ``sl``; with ``halo``, the
-    reduced shear is first converted to shear with the halo's convergence."""
-    e = fine.edges_arcsec[sl.start:sl.stop + 1]
-    g_t, ds = fine.g_t[sl], fine.delta_sigma_msun_per_mpc2[sl]
-    if halo is not None:
-        kappa_g, kappa_ds = _subbin_kappa(e, cells, halo, d_l)
-        g_t, ds = shear_from_reduced_shear(g_t, kappa_g), shear_from_reduced_shear(ds, kappa_ds)
-    zeta = zeta_from_profile(e, g_t, fine.g_t_err[sl], z_in, z_out)
-    zeta_s = zeta_from_profile(e, ds, fine.delta_sigma_err_msun_per_mpc2[sl], z_in, z_out)
-    return (*zeta, *zeta_s)
-
-
-def _zeta_from_annulus(sums, layout, zeta_edges, z_in, z_out, halo=None, beta_mean=None, d_l=None):
-    """zeta and zeta_Sigma with errors from the engine's sums in the annulus bins (an annulus off the
-    profile's sub-bin edges); with ``halo``, the reduced shear is converted to shear with the halo's
-    convergence at the annulus bins' centres for the sample's mean D_ls / D_s (first order)."""
-    g_t, g_err, ds, ds_err = annulus_profile(sums, layout)
-    if halo is not None:
-        centre_mpc = np.sqrt(zeta_edges[1:] * zeta_edges[:-1]) * ARCSEC_RAD * d_l
-        kappa = _convergence_inf(halo, centre_mpc, d_l) * beta_mean
-        g_t, ds = shear_from_reduced_shear(g_t, kappa), shear_from_reduced_shear(ds, kappa)
-    zeta = zeta_from_profile(zeta_edges, g_t, g_err, z_in, z_out)
-    zeta_s = zeta_from_profile(zeta_edges, ds, ds_err, z_in, z_out)
-    return (*zeta, *zeta_s)
-
-
-def profile_rows(profile, sis_model, nfw_model) -> list[dict[str, float]]:
-    """The binned profile as one dict per bin (radii in arcsec and kpc, Delta Sigma in Msun/pc^2)."""
-    e = profile.edges_arcsec
-    to_kpc = ARCSEC_RAD * profile.d_l_mpc * 1e3
-    ds = profile.delta_sigma_msun_per_mpc2
-    dse = profile.delta_sigma_err_msun_per_mpc2
-    rows = []
-    for i in range(e.size - 1):
-        rows.append({
-            "r_lo_arcsec": float(e[i]), "r_hi_arcsec": float(e[i + 1]),
-            "r_mean_arcsec": float(profile.r_mean_arcsec[i]), "r_mean_kpc": float(profile.r_mean_arcsec[i] * to_kpc),
-            "n_galaxies": int(profile.n_galaxies[i]),
-            "g_t": float(profile.g_t[i]), "g_t_err": float(profile.g_t_err[i]),
-            "g_t_err_bootstrap": float(profile.g_t_err_boot[i]),
-            "g_x": float(profile.g_x[i]), "g_x_err": float(profile.g_x_err[i]),
-            "g_x_err_bootstrap": float(profile.g_x_err_boot[i]),
-            "delta_sigma_msun_per_pc2": float(ds[i] * 1e-12) if ds is not None else float("nan"),
-            "delta_sigma_err_msun_per_pc2": float(dse[i] * 1e-12) if dse is not None else float("nan"),
-            "g_t_model_sis": float(sis_model[i]), "g_t_model_nfw": float(nfw_model[i]),
-        })
-    return rows
-
-
-def detection_note(sis, nfw) -> str | None:
-    """The sentence that replaces a measurement when the data do not detect the halo."""
-    if nfw.detected:
-        return None
-    return (f"The data do not detect the halo: the NFW fit beats no lens at {nfw.significance:.1f} sigma "
-            f"(SIS {sis.significance:.1f} sigma; {DETECTION_SIGMA:g} needed). Read the masses as upper limits: "
-            f"M200 < {nfw.upper['nfw_m200_msun']:.3g} Msun and sigma_v < {sis.upper['sis_sigma_v_kms']:.0f} km/s "
-            f"(95%, one-sided; priors {PRIORS['NFW']} and {PRIORS['SIS']}). The medians and intervals are "
-            "posterior summaries under those priors, not measurements.")
-
-
-def _notes(sis, nfw, p_cross, dropped, zeta_mass, zeta_err, nfw_m2d, per_galaxy_z, zeta_mass_weak) -> list[str]:
-    notes = list(sis.notes) + list(nfw.notes)
-    undetected = detection_note(sis, nfw)
-    if undetected:
-        notes.insert(0, undetected)
-    total = sum(v for k, v in dropped.items() if k != "outside_radial_range")
-    if total:
-        parts = ", ".join(f"{v} {k.replace('_', ' ')}" for k, v in dropped.items() if v and k != "outside_radial_range")
-        notes.append(f"{total} catalogue rows were dropped ({parts}).")
-    if np.isfinite(p_cross) and p_cross < 0.01:
-        notes.append(f"The cross shear is not consistent with zero (p = {p_cross:.2g}): suspect a wrong centre, "
-                     "a flipped e1/e2 sign convention, or PSF residuals.")
-    for fit in (sis, nfw):
-        if np.isfinite(fit.pvalue) and fit.pvalue < 0.01:
-            notes.append(f"The {fit.model} model fits poorly (p = {fit.pvalue:.2g}).")
-    if np.isfinite(zeta_mass) and np.isfinite(zeta_mass_weak) and zeta_mass_weak > 0 \
-            and zeta_mass_weak - zeta_mass > 0.02 * zeta_mass_weak:
-        notes.append(f"The convergence is not small in the zeta annulus: converting the reduced shear to shear "
-                     f"(gamma_t = g_t (1 - kappa), kappa of the fitted NFW halo) lowered the zeta mass by "
-                     f"{100 * (1 - zeta_mass / zeta_mass_weak):.0f}%; read uncorrected ({zeta_mass_weak:.3g} Msun) "
-                     "it would not be a lower bound.")
-    if np.isfinite(zeta_mass) and np.isfinite(nfw_m2d) and zeta_mass > nfw_m2d + 2 * zeta_err:
-        notes.append("The zeta lower bound exceeds the projected mass of the fitted NFW halo at that radius "
-                     "by more than 2 sigma: the NFW fit may underestimate the mass inside that radius.")
-    if per_galaxy_z:
-        notes.append("Per-galaxy redshifts are used as given: photometric-redshift errors and outliers bias "
-                     "Sigma_cr and are not propagated.")
-    notes.append("Masses are model-dependent estimates; see 'models' for the model behind each number.")
-    return notes
-
-
-def model_descriptions(cosmology_name: str, concentration_label: str, halo_definition: str,
-                       free_concentration: bool, source_redshifts: str, cosmo: Any = None) -> dict[str, str]:
-    """Which model and assumptions produced each reported number."""
-    from lensmass.core.nfw import halo_boundary_description
-
-    if cosmo is not None:
-        boundary = halo_boundary_description(halo_definition, cosmo)
-    else:
-        boundary = {"200c": "200 x critical density at z_l", "200m": "200 x mean matter density at z_l",
-                    "vir": "virial overdensity of Bryan & Norman (1998) at z_l"}[halo_definition]
-    like = ("Gaussian likelihood of the binned tangential reduced shear (shape-noise errors), "
-            "posterior on a grid; value = posterior median, best_fit = maximum likelihood; "
-            f"distances in {cosmology_name}; source redshifts: {source_redshifts}")
-    c_text = "c free (flat prior in log c, 0.3-40)" if free_concentration else f"c from {concentration_label}"
-    nfw = f"NFW halo (Wright & Brainerd 2000), boundary {boundary}, {c_text}; prior {PRIORS['NFW']}; {like}"
-    zeta = ("aperture densitometry (Fahlman et al. 1994): lower bound on the projected mass inside the inner "
-            "radius, from the Delta Sigma profile in the annulus with the reduced shear converted to shear by the "
-            "convergence of the fitted NFW halo, gamma_t = g_t (1 - kappa); the bound rests on that convergence "
-            "in the annulus (its 68% range is in the error), not on the NFW mass inside the inner radius")
-    return {
-        "sis_sigma_v_kms": f"singular isothermal sphere fitted to the reduced shear; prior {PRIORS['SIS']}; " + like,
-        "sis_theta_e_arcsec": "Einstein radius of the fitted SIS for a source at z_s_effective "
-        "(the redshift with the sample's mean D_ls/D_s)",
-        "nfw_m200_msun": nfw,
-        "nfw_c200": nfw,
-        "nfw_r200_kpc": nfw,
-        "zeta_mass_msun": zeta,
-        "zeta": "zeta(theta1, theta2) = mean kappa inside theta1 minus mean kappa in the annulus (Fahlman et al. 1994)",
-        "delta_sigma_msun_per_pc2": "excess surface density Sigma_cr g_t, each galaxy's own Sigma_cr, weights w / Sigma_cr^2",
-        "cross_shear_pvalue": "chi^2 of the binned cross shear against zero (expected for lensing)",
-        "detection_significance": "likelihood ratio of the best NFW fit against no lens (zero shear), as Gaussian "
-        f"sigma (Wilks' theorem); below {DETECTION_SIGMA:g} the halo counts as not detected",
-        "nfw_m200_upper95_msun": "one-sided 95% upper limit on M200: 95th percentile of the NFW posterior under "
-        f"the prior {PRIORS['NFW']}",
-        "sis_sigma_v_upper95_kms": "one-sided 95% upper limit on the SIS sigma_v: 95th percentile of its posterior "
-        f"under the prior {PRIORS['SIS']}",
-        "nfw_mass_2d_at_zeta_radius_msun": "projected mass of the best-fit NFW halo inside the zeta inner radius",
-        "zeta_mass_weak_shear_msun": "the zeta mass with the reduced shear read as shear (weak-shear limit, "
-        "kappa << 1): above the truth where kappa is not small, so not a bound; shown for comparison",
-    }
-
-
-def mass_map_for_result(result: dict, *, n_pixels: int = 128, extent_arcsec: float | None = None,
-                        smoothing_arcsec: float = 60.0, n_noise: int = 16, seed: int | None = DEFAULT_SEED):
-    """Kaiser-Squires map of the usable galaxies of an in-memory :func:`analyse_shear_catalog` result,
-    centred on its centre (the same selection as the profile: finite values, |e| < 1, w > 0, behind the lens)."""
-    from lensmass.core.mass_map import mass_map
-
-    gal = result.get("_galaxies")
-    if gal is None:
-        raise LensInputError("The mass map needs the catalogue in memory: run it on one catalogue file "
-                             "without a distributed scheduler (`scheduler`), or make the map of a smaller part of the survey.")
-    x, y, _, placed = sky_offsets_and_radius(gal["ra_deg"], gal["dec_deg"], result["center_ra"], result["center_dec"])
-    sel = result.get("_selection", {})
-    z = gal["z"] if sel.get("z_s") is None else None
-    ok, _ = select_sources(gal["e1"], gal["e2"], gal["weight"], z, result["z_l"], positions_ok=placed,
-                           z_margin=sel.get("z_margin", DEFAULT_Z_MARGIN))
-    return mass_map(x[ok], y[ok], gal["e1"][ok], gal["e2"][ok], gal["weight"][ok], n_pixels=n_pixels,
-                    extent_arcsec=extent_arcsec, smoothing_arcsec=smoothing_arcsec, n_noise=n_noise, seed=seed)
-
-
-def model_curves(result: dict, theta_arcsec, cosmology: Any = None) -> dict[str, np.ndarray]:
-    """Best-fit SIS and NFW reduced tangential shear at radii ``theta_arcsec``, for plots.
-
-    Uses one source plane with the sample's mean D_ls / D_s (the fits themselves average
-    over the galaxies' own redshifts), so the curves are a display aid.
-    """
-    from lensmass.core.lensing import sigma_crit_msun_per_mpc2
-    from lensmass.core.nfw import nfw_reduced_shear
-    from lensmass.core.shear_fit import expected_ellipticity
-    from lensmass.core.sis import sis_reduced_shear, sis_theta_e_arcsec
-
-    cosmo = resolve_cosmology(cosmology if cosmology is not None else result["cosmology"])
-    theta = np.asarray(theta_arcsec, float)
-    best = result["best_fit"]
-    beta = result["beta_mean"]
-    d_l = result["d_l_mpc"]
-    sis = sis_reduced_shear(theta, sis_theta_e_arcsec(best["sis_sigma_v_kms"], 1.0, beta))
-    halo = nfw_halo(best["nfw_m200_msun"], best["nfw_c200"], result["z_l"], cosmo, result.get("halo_definition", "200c"))
-    nfw = nfw_reduced_shear(theta * ARCSEC_RAD * d_l, halo, sigma_crit_msun_per_mpc2(d_l, 1.0, beta))
-    return {"sis": expected_ellipticity(sis), "nfw": expected_ellipticity(nfw)}

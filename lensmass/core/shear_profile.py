@@ -180,20 +180,29 @@ def _fine_index(theta: np.ndarray, edges: np.ndarray, n_sub: int) -> np.ndarray:
     return _fine_indexer(edges, n_sub)(theta)
 
 
+def fine_spacing(edges: np.ndarray, n_sub: int) -> tuple[bool, bool, float]:
+    """(log_spaced, linear, scale) of bin edges: sub-bin u = ln(theta / lo) * scale or (theta - lo) * scale."""
+    n_bins = edges.size - 1
+    lo, hi = edges[0], edges[-1]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        log_spaced = bool(lo > 0 and np.allclose(np.diff(np.log(edges)), np.log(hi / lo) / n_bins, rtol=1e-9, atol=0))
+        linear = bool(not log_spaced and np.allclose(np.diff(edges), (hi - lo) / n_bins, rtol=1e-9, atol=0))
+        scale = float(n_bins * n_sub / np.log(hi / lo)) if log_spaced else float(n_bins * n_sub / (hi - lo))
+    return log_spaced, linear, scale
+
+
 def _fine_indexer(edges: np.ndarray, n_sub: int):
     """:func:`_fine_index` as a function of theta, the spacing of the edges detected once."""
     n_bins = edges.size - 1
     lo, hi = edges[0], edges[-1]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        log_spaced = lo > 0 and np.allclose(np.diff(np.log(edges)), np.log(hi / lo) / n_bins, rtol=1e-9, atol=0)
-        linear = not log_spaced and np.allclose(np.diff(edges), (hi - lo) / n_bins, rtol=1e-9, atol=0)
+    log_spaced, linear, scale = fine_spacing(edges, n_sub)
 
     def index(theta):
         with np.errstate(invalid="ignore", divide="ignore"):
             if log_spaced:
-                u = np.log(theta * (1.0 / lo)) * (n_bins * n_sub / np.log(hi / lo))
+                u = np.log(theta * (1.0 / lo)) * scale
             elif linear:
-                u = (theta - lo) * (n_bins * n_sub / (hi - lo))
+                u = (theta - lo) * scale
             else:
                 idx = np.searchsorted(edges, theta, side="right") - 1
                 ok = (idx >= 0) & (idx < n_bins)

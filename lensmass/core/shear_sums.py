@@ -13,8 +13,8 @@ What makes the sums additive:
   is fixed before any row is read;
 * the model cells split each radial sub-bin by D_ls / D_s on a fixed grid over [0, 1]
   (:data:`BETA_CELLS` cells) instead of the range of the data;
-* the bootstrap groups are a hash of each row's place in the whole catalogue (splitmix64,
-  Steele, Lea & Flood 2014), not a permutation of the selected rows.
+* the bootstrap groups are a hash of each row's place in the whole catalogue (the MurmurHash3
+  finaliser, Appleby 2011), not a permutation of the selected rows.
 
 The estimators are those of :mod:`lensmass.core.shear_profile` (weighted means of e_t and
 e_x; Delta Sigma = Sigma_cr e_t with weights w / Sigma_cr^2, common practice).
@@ -37,6 +37,10 @@ BETA_CELLS = 8
 BOOTSTRAP_GROUPS = 2000
 #: Rows per block of the element-wise passes (temporaries stay in the CPU cache).
 BLOCK_ROWS = 1 << 15
+#: Blocks of this many rows or more go through the compiled kernel (:mod:`lensmass.core.shear_kernel`), shorter
+#: ones through the numpy passes (the reference; ``USE_KERNEL = False`` everywhere). Both give the same sums.
+KERNEL_MIN_ROWS = 1 << 16
+USE_KERNEL = True
 
 _GALAXY_KEYS = ("n", "w", "wtheta", "st", "sx", "s2", "s2t", "s2x", "s2ee", "wbeta", "wbeta2")
 _DELTA_SIGMA_KEYS = ("d", "dt", "dx", "d2", "d2t", "d2x", "d2ee")
@@ -184,13 +188,24 @@ def farthest_usable(selection: tuple, block: CatalogBlock) -> Farthest:
 
 
 def bootstrap_group(row, seed: int) -> np.ndarray:
-    """Bootstrap group of each row from its index in the whole catalogue: splitmix64 (Steele, Lea &
-    Flood 2014) of ``row`` mixed with the seed, modulo :data:`BOOTSTRAP_GROUPS`."""
-    x = np.asarray(row, np.uint64) + np.uint64((int(seed) * 0x9E3779B97F4A7C15) % (1 << 64))
-    x = (x ^ (x >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
-    x = (x ^ (x >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
-    x = x ^ (x >> np.uint64(31))
-    return (x % np.uint64(BOOTSTRAP_GROUPS)).astype(np.intp)
+    """Bootstrap group of each row from its index in the whole catalogue.
+
+    The index (its high 32 bits folded in by a Weyl step) is mixed with the seed and scrambled by
+    the 32-bit MurmurHash3 finaliser (Appleby 2011, ``fmix32``, a bijection on 32 bits), then mapped
+    onto :data:`BOOTSTRAP_GROUPS` by a multiply-shift (Lemire 2019, ACM TOMACS 29, 3). 32-bit
+    integer arithmetic is vectorised by numpy, unlike 64-bit multiplication and modulo.
+    """
+    row = np.asarray(row)
+    x = row.astype(np.uint32)  # the low 32 bits
+    if row.size and int(row.max()) >> 32:
+        x += (row >> 32).astype(np.uint32) * np.uint32(0x9E3779B9)
+    x ^= np.uint32((int(seed) * 0x9E3779B9 + 0x7F4A7C15) & 0xFFFFFFFF)
+    x ^= x >> np.uint32(16)
+    x *= np.uint32(0x85EBCA6B)
+    x ^= x >> np.uint32(13)
+    x *= np.uint32(0xC2B2AE35)
+    x ^= x >> np.uint32(16)
+    return ((x.astype(np.uint64) * np.uint64(BOOTSTRAP_GROUPS)) >> np.uint64(32)).astype(np.intp)
 
 
 class _Context:
@@ -200,6 +215,7 @@ class _Context:
         from lensmass.core import shear_profile as sp, shear_sources as ss
 
         self.d_l = ss.lens_distance_mpc(layout.z_l, layout.cosmo)
+        self.inv_sigma_cr_beta = 1.0 / float(sigma_crit_msun_per_mpc2(self.d_l, 1.0, 1.0))
         edges = np.asarray(layout.edges_arcsec, float)
         self.lo, self.hi = float(edges[0]), float(edges[-1])
         self.fine_index = sp._fine_indexer(edges, RADIAL_SUBBINS)
@@ -214,7 +230,7 @@ class _Context:
             self.beta_one = None
         else:
             self.beta_one = float(ss.lensing_efficiency(layout.z_l, np.array([float(layout.z_s)]), layout.cosmo)[0][0])
-
+        self.kernel = None  # the compiled kernel's constants, made on its first use
 
 _CONTEXTS: dict[tuple, _Context] = {}
 
@@ -256,6 +272,12 @@ def catalog_block_sums(layout: SumLayout, ra_deg, dec_deg, e1, e2, weight=None, 
     total = empty_sums(layout)
     n = int(np.shape(ra_deg)[0])
     z_col = z if layout.z_s is None else None
+    if USE_KERNEL and n >= KERNEL_MIN_ROWS:
+        from lensmass.core import shear_kernel as sk
+        if sk.kernel_applies(layout, ctx, z_col):
+            sk.kernel_block_sums(total, layout, ctx, ra_deg, dec_deg, e1, e2, weight, z_col, first_row)
+            total.n_rows = n
+            return total
     for start in range(0, n, BLOCK_ROWS):
         sl = slice(start, min(n, start + BLOCK_ROWS))
         _add_piece(total, layout, ctx, ra_deg[sl], dec_deg[sl], e1[sl], e2[sl],
@@ -283,7 +305,8 @@ def _add_piece(total: ShearSums, layout: SumLayout, ctx: _Context, ra, dec, e1, 
         if layout.annulus_edges_arcsec is not None:
             near = in_bins | (ok & (theta >= ctx.ann_lo) & (theta < ctx.ann_hi))
     total.n_usable += int(np.count_nonzero(ok))
-    total.n_in_bins += int(np.count_nonzero(in_bins))
+    n_in = int(np.count_nonzero(in_bins))
+    total.n_in_bins += n_in
     index = np.flatnonzero(near)
     total.n_near += index.size
     if index.size == 0:
@@ -291,25 +314,37 @@ def _add_piece(total: ShearSums, layout: SumLayout, ctx: _Context, ra, dec, e1, 
     t, xs, ys, g1, g2, ws = (a.take(index) for a in (theta, x, y, e1, e2, w))
     e_t, e_x = sg._tangential_cross(g1, g2, xs, ys)
     beta = np.full(t.size, ctx.beta_one) if z is None else ctx.beta_of(z.take(index))
-    with np.errstate(divide="ignore"):
-        sc = sigma_crit_msun_per_mpc2(ctx.d_l, 1.0, beta)  # D_s / D_ls = 1 / beta
+    inv_sc = beta * ctx.inv_sigma_cr_beta  # 1 / Sigma_cr = (D_l / (c^2 / 4 pi G)) D_ls / D_s; 0 in front
     fine = ctx.fine_index(t)
-    bq = np.minimum((beta * BETA_CELLS).astype(np.intp), BETA_CELLS - 1)
-    cell = np.where(fine >= 0, fine * BETA_CELLS + bq, layout.n_cells)
-    _accumulate(total.cells, cell, layout.n_cells, t, e_t, e_x, ws, beta, sc, _GALAXY_KEYS + _DELTA_SIGMA_KEYS)
+    bq = (beta * BETA_CELLS).astype(np.intp)
+    np.minimum(bq, BETA_CELLS - 1, out=bq)
+    cell = fine * BETA_CELLS
+    cell += bq
+    if n_in < index.size:  # rows only in the annulus go to the trash cell
+        cell[fine < 0] = layout.n_cells
+    targets = [(total.cells, cell, layout.n_cells, _GALAXY_KEYS + _DELTA_SIGMA_KEYS)]
     if layout.annulus_edges_arcsec is not None:
         ann = ctx.ann_index(t)
-        _accumulate(total.annulus, np.where(ann >= 0, ann, ctx.n_ann), ctx.n_ann, t, e_t, e_x, ws, beta, sc,
-                    _ANNULUS_KEYS)
+        targets.append((total.annulus, np.where(ann >= 0, ann, ctx.n_ann), ctx.n_ann, _ANNULUS_KEYS))
+    st, sx = _accumulate(targets, t, e_t, e_x, ws, beta, inv_sc)
     if total.boot is not None:
-        inside = np.flatnonzero(fine >= 0)
-        if inside.size:
-            group = bootstrap_group(first_row + index.take(inside), layout.seed)
-            key = group * layout.n_bins + fine.take(inside) // RADIAL_SUBBINS
-            w_in = ws.take(inside)
-            size = BOOTSTRAP_GROUPS * layout.n_bins
-            for j, values in enumerate((w_in, w_in * e_t.take(inside), w_in * e_x.take(inside))):
-                total.boot[..., j] += np.bincount(key, weights=values, minlength=size).reshape(BOOTSTRAP_GROUPS, -1)
+        columns = [ws, st, sx]
+        if n_in < index.size:
+            inside = np.flatnonzero(fine >= 0)
+            index, fine, columns = index.take(inside), fine.take(inside), [c.take(inside) for c in columns]
+        _add_bootstrap(total.boot, layout, index, first_row, fine, columns)
+
+
+def _add_bootstrap(boot: np.ndarray, layout: SumLayout, rows, first_row: int, fine, columns) -> None:
+    """Add the weight and weighted e_t, e_x of rows to their (bootstrap group, bin) sums (in place)."""
+    if rows.size == 0:
+        return
+    key = bootstrap_group(first_row + rows, layout.seed)
+    key *= layout.n_bins
+    key += fine // RADIAL_SUBBINS
+    size = BOOTSTRAP_GROUPS * layout.n_bins
+    for j, values in enumerate(columns):
+        boot[..., j] += np.bincount(key, weights=values, minlength=size).reshape(BOOTSTRAP_GROUPS, -1)
 
 
 def galaxy_layout(edges_arcsec, *, bootstrap: bool = False, seed: int | None = 0) -> SumLayout:
@@ -340,16 +375,17 @@ def galaxy_sums(layout: SumLayout, theta_arcsec, e_t, e_x, weight, beta=None, si
         fine = fine_index(t)
         bq = np.clip((b * BETA_CELLS).astype(np.intp), 0, BETA_CELLS - 1)
         cell = np.where(fine >= 0, fine * BETA_CELLS + bq, layout.n_cells)
-        _accumulate(total.cells, cell, layout.n_cells, t, et, ex, w, b, None if sc_a is None else sc_a[sl], keys)
+        inv_sc = None
+        if sc_a is not None:
+            sc = sc_a[sl]
+            with np.errstate(divide="ignore"):  # sources not behind the lens carry no Delta Sigma weight
+                inv_sc = np.where(np.isfinite(sc), 1.0 / sc, 0.0)
+        st, sx = _accumulate([(total.cells, cell, layout.n_cells, keys)], t, et, ex, w, b, inv_sc)
         total.n_in_bins += int(np.count_nonzero(fine >= 0))
         if total.boot is not None:
             inside = np.flatnonzero(fine >= 0)
-            group = bootstrap_group(first_row + start + inside, layout.seed)
-            key = group * layout.n_bins + fine.take(inside) // RADIAL_SUBBINS
-            w_in = w.take(inside)
-            size = BOOTSTRAP_GROUPS * layout.n_bins
-            for j, values in enumerate((w_in, w_in * et.take(inside), w_in * ex.take(inside))):
-                total.boot[..., j] += np.bincount(key, weights=values, minlength=size).reshape(BOOTSTRAP_GROUPS, -1)
+            _add_bootstrap(total.boot, layout, start + inside, first_row, fine.take(inside),
+                           [c.take(inside) for c in (w, st, sx)])
     if sc_a is None:
         for k in _DELTA_SIGMA_KEYS:
             total.cells.pop(k, None)
@@ -357,28 +393,52 @@ def galaxy_sums(layout: SumLayout, theta_arcsec, e_t, e_x, weight, beta=None, si
     return total
 
 
-def _accumulate(out: dict, cell, size: int, theta, e_t, e_x, w, beta, sc, keys) -> None:
-    """Add per-cell sums (``cell == size`` is the trash cell of rows outside) to ``out`` in place."""
-    values: dict[str, np.ndarray | None] = {"n": None, "w": w}
-    w2 = w * w
-    if "wtheta" in keys:
-        wb = w * beta
-        values.update(wtheta=w * theta, wbeta=wb, wbeta2=wb * beta)
-    values.update(st=w * e_t, sx=w * e_x, s2=w2, s2t=w2 * e_t, s2x=w2 * e_x, s2ee=w2 * (e_t * e_t + e_x * e_x))
-    if sc is not None and "d" in keys:
-        finite = np.isfinite(sc)
-        if not np.all(finite):  # sources not behind the lens carry no Delta Sigma weight
-            wd = np.where(finite, w / (sc * sc), 0.0)
-            sc = np.where(finite, sc, 0.0)
-        else:
-            wd = w / (sc * sc)
-        wd2 = wd * wd
-        dt, dx = sc * e_t, sc * e_x
-        values.update(d=wd, dt=wd * dt, dx=wd * dx, d2=wd2, d2t=wd2 * dt, d2x=wd2 * dx,
-                      d2ee=wd2 * (dt * dt + dx * dx))
-    for k in keys:
-        if k in values:
-            out[k] += np.bincount(cell, weights=values[k], minlength=size + 1)[:size]
+def _accumulate(targets, theta, e_t, e_x, w, beta, inv_sc) -> tuple[np.ndarray, np.ndarray]:
+    """Add the rows' per-cell sums to each target ``(out, cell, size, keys)`` in place.
+
+    ``cell == size`` is the trash cell of rows outside. Each row's term is one product made in a
+    scratch buffer and binned at once, so the working set stays in the CPU cache. With
+    a = w / Sigma_cr the Delta Sigma weight is w / Sigma_cr^2 = a / Sigma_cr and the weighted
+    Sigma_cr e_t terms are a e_t, ... (common practice: weights 1 / Sigma_cr^2), so there is no
+    division and rows with 1 / Sigma_cr = 0 (in front of the lens) add nothing.
+    Returns w e_t and w e_x (the bootstrap sums use them).
+    """
+    def add(key, values):
+        for out, cell, size, keys in targets:
+            if key in keys:
+                out[key] += np.bincount(cell, weights=values, minlength=size + 1)[:size]
+
+    add("n", None)
+    m = np.multiply
+    b1, b2 = np.empty_like(w), np.empty_like(w)
+    add("w", w)
+    add("wtheta", m(w, theta, out=b1))
+    st, sx = m(w, e_t), m(w, e_x)
+    add("st", st)
+    add("sx", sx)
+    add("s2t", m(w, st, out=b1))
+    add("s2x", m(w, sx, out=b1))
+    ee = m(e_t, e_t)
+    ee += m(e_x, e_x, out=b1)
+    w2 = m(w, w, out=b2)
+    add("s2", w2)
+    add("s2ee", m(w2, ee, out=b1))
+    wb = m(w, beta, out=b2)
+    add("wbeta", wb)
+    add("wbeta2", m(wb, beta, out=b2))
+    if inv_sc is not None:
+        a = m(w, inv_sc)
+        d = m(a, inv_sc)
+        add("d", d)
+        add("d2", m(d, d, out=b2))
+        for key, e in (("t", e_t), ("x", e_x)):
+            de = m(a, e, out=b1)
+            add("d" + key, de)
+            add("d2" + key, m(d, de, out=b2))
+        a *= a
+        a *= ee
+        add("d2ee", a)
+    return st, sx
 
 
 def profile_from_sums(sums: ShearSums, layout: SumLayout, *, n_bootstrap: int = 0, with_sigma_cr: bool = True,

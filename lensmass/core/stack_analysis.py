@@ -3,7 +3,7 @@ Delta Sigma(R), its jackknife covariance and the mean halo mass of the lens samp
 
 The window (none yet), the ``lensmass stack`` command and Python all call :func:`analyse_stack`;
 the physics is in :mod:`lensmass.core.stacking`. Sources come as anything with ``total(fn)``
-(see :class:`lensmass.core.shear_analysis.ArrayBlocks`, the streamed files of
+(see :class:`lensmass.core.catalog_arrays.ArrayBlocks`, the streamed files of
 :mod:`lensmass.io.catalog_stream` or a Dask cluster of :mod:`lensmass.io.distributed`).
 """
 
@@ -23,6 +23,8 @@ from lensmass.core.stacking import (
     PointSet,
     StackLayout,
     assign_patches,
+    POINT_MASS_MAX_MSUN,
+    check_point_mass_prior,
     fit_stack_nfw,
     jackknife_patches,
     stack_block_sums,
@@ -66,7 +68,8 @@ def analyse_stack(
     cosmology: Any = None,
     concentration: str | float = "duffy08",
     halo_definition: str = "200c",
-    point_mass_msun: float = 0.0,
+    point_mass_msun: float | str = 0.0,
+    point_mass_prior: tuple[float, float] | None = None,
     boost: bool = True,
     z_margin: float = 0.1,
     seed: int = 0,
@@ -88,14 +91,20 @@ def analyse_stack(
         Logarithmic bins of physical projected radius at each lens (Mpc).
     n_patches : int
         Jackknife patches (k-means on the lenses).
-    point_mass_msun : float
-        A central point mass added to every halo (the lenses' stars); 0 for none.
+    point_mass_msun : float or "fit"
+        A central point mass added to every halo (the lenses' stars): a fixed value in Msun (0 for
+        none), or ``"fit"`` to fit it alongside M200 (posterior median and intervals under
+        ``point_mass_prior``).
+    point_mass_prior : (median_msun, sigma_dex), optional
+        With ``"fit"``: a log-normal prior on the point mass (e.g. from the lenses' photometry);
+        default flat on [0, 1e13] Msun.
 
     Returns
     -------
     dict
         ``mean_halo_m200_msun`` (posterior median) with ``intervals68`` / ``intervals95``,
-        ``mean_halo_c200``, ``stack_chi2`` with ``stack_dof`` and ``stack_pvalue``, counts,
+        ``mean_halo_c200``, ``point_mass_msun`` (fixed, or fitted with intervals), ``stack_chi2`` with
+        ``stack_dof`` and ``stack_pvalue``, counts,
         the binned ``profile`` (Msun / pc^2), ``covariance_msun2_per_pc4``, ``notes`` and ``models``.
     """
     from lensmass.core.concentration import concentration_relation
@@ -103,6 +112,17 @@ def analyse_stack(
 
     if halo_definition not in HALO_DEFINITIONS:
         raise LensInputError(f"Unknown halo definition '{halo_definition}': use one of {', '.join(HALO_DEFINITIONS)}.")
+    fit_point_mass = isinstance(point_mass_msun, str)
+    if fit_point_mass and str(point_mass_msun).strip().lower() != "fit":
+        raise LensInputError(f"The central point mass (`point_mass_msun`) is a number of Msun or 'fit', got "
+                             f"'{point_mass_msun}'.")
+    fixed_point_mass = 0.0 if fit_point_mass else float(point_mass_msun)
+    if not (np.isfinite(fixed_point_mass) and fixed_point_mass >= 0):
+        raise LensInputError(f"The central point mass (`point_mass_msun`) must be 0 or more Msun, got "
+                             f"{fixed_point_mass:g}.")
+    if point_mass_prior is not None and not fit_point_mass:
+        raise LensInputError("A stellar-mass prior (`point_mass_prior`) needs the point mass fitted: set it to 'fit'.")
+    prior = check_point_mass_prior(point_mass_prior)
     cosmo = resolve_cosmology(cosmology)
     c_of_m, c_label = concentration_relation(concentration, halo_definition)
     lra, ldec, lz = (np.asarray(a, float).ravel() for a in (lens_ra, lens_dec, lens_z))
@@ -145,7 +165,7 @@ def analyse_stack(
                              "check the source catalogue's columns and redshifts.")
     profile = stack_profile(sums, layout, lenses, rand, boost=boost and rand is not None)
     fit = fit_stack_nfw(profile, sums, layout, concentration=concentration, halo_definition=halo_definition,
-                        point_mass_msun=float(point_mass_msun))
+                        point_mass_msun=fixed_point_mass, fit_point_mass=fit_point_mass, point_mass_prior=prior)
     mean_z = float(np.average(lz, weights=lw))
     q = fit.quantiles
     c_med = float(c_of_m(fit.m200_msun, mean_z, little_h(cosmo)))
@@ -177,6 +197,22 @@ def analyse_stack(
     notes.append("The stacked mass is the M200 of one NFW halo whose profile matches the sample's mean Delta Sigma; "
                  "with a spread of masses it is not the arithmetic mean of the haloes' masses.")
     notes.append("Masses are model-dependent estimates; see 'models' for the model behind each number.")
+    best_fit = {"mean_halo_m200_msun": fit.best_m200_msun}
+    medians = {"mean_halo_m200_msun": float(q[2])}
+    i68 = {"mean_halo_m200_msun": [float(q[1]), float(q[3])]}
+    i95 = {"mean_halo_m200_msun": [float(q[0]), float(q[4])]}
+    if fit.point_mass_quantiles is not None:
+        qp = fit.point_mass_quantiles
+        best_fit["point_mass_msun"] = fit.best_point_mass_msun
+        medians["point_mass_msun"] = float(qp[2])
+        i68["point_mass_msun"] = [float(qp[1]), float(qp[3])]
+        i95["point_mass_msun"] = [float(qp[0]), float(qp[4])]
+        prior_text = (f"log-normal prior, median {prior[0]:.3g} Msun, {prior[1]:g} dex" if prior is not None else
+                      f"flat prior on [0, {POINT_MASS_MAX_MSUN:.0e}] Msun")
+        point_text = (f"a central point mass M_* / (pi R^2) fitted with M200 ({prior_text}; intervals from the "
+                      "marginal posterior)")
+    else:
+        point_text = f"a central point mass of {fit.point_mass_msun:.3g} Msun"
     cosmo_name = cosmology_label(cosmo)
     boundary = {"200c": "200 x critical density", "200m": "200 x mean matter density",
                 "vir": "virial overdensity of Bryan & Norman (1998)"}[halo_definition]
@@ -186,11 +222,8 @@ def analyse_stack(
         "n_sources_used": int(sums.n_sources_used), "n_patches": int(profile.n_patches_used),
         "mean_lens_z": mean_z,
         "mean_halo_m200_msun": fit.m200_msun, "mean_halo_c200": c_med,
-        "best_fit": {"mean_halo_m200_msun": fit.best_m200_msun},
-        "medians": {"mean_halo_m200_msun": float(q[2])},
-        "intervals68": {"mean_halo_m200_msun": [float(q[1]), float(q[3])]},
-        "intervals95": {"mean_halo_m200_msun": [float(q[0]), float(q[4])]},
-        "point_mass_msun": float(point_mass_msun),
+        "best_fit": best_fit, "medians": medians, "intervals68": i68, "intervals95": i95,
+        "point_mass_msun": fit.point_mass_msun,
         "stack_chi2": fit.chi2, "stack_dof": fit.dof, "stack_pvalue": fit.pvalue, "hartlap_factor": fit.hartlap,
         "profile": rows,
         "covariance_msun2_per_pc4": (profile.covariance * to_pc**2).tolist(),
@@ -204,11 +237,13 @@ def analyse_stack(
             "delta_sigma_err_msun_per_pc2": f"delete-one jackknife over {profile.n_patches_used} k-means sky patches "
             "of the lenses (sample variance and shape noise)",
             "mean_halo_m200_msun": f"NFW halo (Wright & Brainerd 2000), boundary {boundary} at each lens's z, c from "
-            f"{c_label}, plus a central point mass of {point_mass_msun:.3g} Msun; model averaged over the pairs' lens "
+            f"{c_label}, plus {point_text}; model averaged over the pairs' lens "
             "redshifts and radii; likelihood of Sellentin & Heavens (2016) for the jackknife covariance (its noise "
             "widens the interval), "
             "posterior on a grid, flat prior in log M200; value = posterior median",
             "mean_halo_c200": f"{c_label} at the weighted mean lens redshift and the median M200",
+            "point_mass_msun": "the lenses' stars as a point mass at the centre: " + point_text + " (a model "
+            "choice: the stars' extent and any miscentring fold into it)",
         },
         "_profile": profile, "_fit": fit, "_sums": sums, "_layout": layout,
     }

@@ -37,9 +37,10 @@ def uniform_sky(n: int, ra_range, dec_range, rng: np.random.Generator) -> tuple[
 def simulate_stack(*, n_lenses: int, n_sources: int, m200_msun: float, cosmo, ra_range=(30.0, 32.0),
                    dec_range=(-1.0, 1.0), z_lens_range=(0.2, 0.4), sigma_e: float = 0.25, z0: float = 0.7,
                    additive=(0.0, 0.0), concentration="duffy08", halo_definition: str = "200c",
-                   truncate_mpc: float = 4.0, seed: int = 0) -> dict[str, np.ndarray]:
+                   truncate_mpc: float = 4.0, point_mass_msun: float = 0.0, seed: int = 0) -> dict[str, np.ndarray]:
     """Lenses (``lens_ra``, ``lens_dec``, ``lens_z``) and lensed sources (``ra``, ``dec``, ``e1``, ``e2``,
-    ``weight``, ``z``) of one realisation."""
+    ``weight``, ``z``) of one realisation; ``point_mass_msun`` adds a point mass at each lens centre
+    (the galaxy's stars: gamma_t = M / (pi R^2 Sigma_cr), no convergence off the centre; common practice)."""
     from scipy.spatial import cKDTree
 
     from lensmass.core.nfw import nfw_convergence, nfw_halo, nfw_shear
@@ -76,6 +77,8 @@ def simulate_stack(*, n_lenses: int, n_sources: int, m200_msun: float, cosmo, ra
         sigma_cr = pair_sigma_cr(grid, dc_l[i], d_l[i], dc_s[j], sz[j])
         halo = nfw_halo(m[i], c_l[i], lz[i], cosmo, halo_definition)
         g_t = nfw_shear(r, halo, sigma_cr)
+        if point_mass_msun:
+            g_t = g_t + point_mass_msun / (np.pi * r * r * sigma_cr)
         phi = np.arctan2(y, x)
         np.add.at(gamma, j, -g_t * np.exp(2j * phi))  # tangential shear in the east/north convention
         np.add.at(kappa, j, nfw_convergence(r, halo, sigma_cr))

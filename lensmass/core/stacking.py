@@ -22,7 +22,8 @@ scipy.cluster.vq.kmeans2; every sum is kept per patch): C = (N-1)/N sum_k (DS_k 
 plus an optional central point mass M_* / (pi R^2) for the galaxy's stars, is fitted to the
 stacked profile with that covariance (inverse debiased by the Hartlap et al. 2007, A&A 464, 399,
 factor (N - p - 2)/(N - 1)); the model of each bin averages the halo over the pairs' lens
-redshifts and radii (lens redshift cells) with the pairs' weights, as the data do.
+redshifts and radii (lens redshift cells) with the pairs' weights, as the data do
+(:mod:`lensmass.core.stack_fit`; the point mass fixed, or fitted with M200 under a prior).
 
 The sums are per (patch, radial bin) and per (lens-redshift cell, bin): they add over blocks of
 sources, so a source catalogue streams or runs on a Dask cluster like the shear profile
@@ -354,119 +355,15 @@ def stack_profile(sums: StackSums, layout: StackLayout, lenses: PointSet, random
                         np.sqrt(np.diag(cov)), cov, ds_l, ds_r, b, dx, noise, jk, n_p, notes)
 
 
-def nfw_delta_sigma_model(m200_msun, sums: StackSums, layout: StackLayout, *, concentration="duffy08",
-                          halo_definition: str = "200c", point_mass_msun: float = 0.0) -> np.ndarray:
-    """Model Delta Sigma of each bin (Msun / Mpc^2) for halo masses ``m200_msun`` (any shape + (n_bins,)):
-    NFW (Wright & Brainerd 2000) at each lens-redshift cell's weighted mean z_l and R, plus
-    M_* / (pi R^2), divided by 1 - Sigma <Sigma_cr^-1> (the estimator measures Sigma_cr times the
-    reduced shear), averaged over the cells with the pairs' weights."""
-    from lensmass.core.concentration import concentration_relation
-    from lensmass.core.cosmology import little_h
-    from lensmass.core.nfw import (
-        nfw_halo,
-        nfw_mean_surface_density_msun_per_mpc2,
-        nfw_surface_density_msun_per_mpc2,
-    )
+# the fit to the stacked profile lives in its own module; its names stay importable from here
+from lensmass.core.stack_fit import (  # noqa: E402
+    POINT_MASS_MAX_MSUN,
+    StackFit,
+    check_point_mass_prior,
+    fit_stack_nfw,
+    nfw_delta_sigma_model,
+    point_mass_log_prior,
+)
 
-    c_of_m, _ = concentration_relation(concentration, halo_definition)
-    h = little_h(layout.cosmo)
-    w = sums.model["w"]
-    use = w > 0
-    with np.errstate(invalid="ignore", divide="ignore"):
-        r = np.where(use, sums.model["wr"] / w, 1.0)
-        zc = np.where(use, sums.model["wz"] / w, np.nan)
-        inv_sigma_cr = np.where(use, sums.model["wi"] / w, 0.0)
-    m = np.asarray(m200_msun, float)[..., None]
-    total = np.zeros(m.shape[:-1] + (w.shape[1],))
-    for i in np.flatnonzero(use.any(axis=1)):
-        z_i = float(np.nansum(zc[i] * w[i]) / w[i].sum())
-        halo = nfw_halo(m, c_of_m(m, z_i, h), z_i, layout.cosmo, halo_definition)
-        r_i = r[i]
-        sigma = nfw_surface_density_msun_per_mpc2(r_i, halo)
-        ds = nfw_mean_surface_density_msun_per_mpc2(r_i, halo) - sigma + point_mass_msun / (np.pi * r_i**2)
-        # the data estimate Sigma_cr g = Delta Sigma / (1 - Sigma <Sigma_cr^-1>): reduced shear, common practice
-        total = total + w[i] * ds / (1.0 - sigma * inv_sigma_cr[i])
-    # sub-bins to bins: weighted sums
-    n_b = layout.n_bins
-    total = total.reshape(total.shape[:-1] + (n_b, MODEL_SUBBINS)).sum(axis=-1)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        return total / w.sum(axis=0).reshape(n_b, MODEL_SUBBINS).sum(axis=-1)
-
-
-@dataclass
-class StackFit:
-    """Posterior of the mean halo mass of the stack (grid in log M200, flat prior in log M)."""
-
-    m200_msun: float
-    quantiles: np.ndarray  # 2.5, 16, 50, 84, 97.5 percentiles
-    best_m200_msun: float
-    chi2: float
-    dof: int
-    pvalue: float
-    model: np.ndarray
-    hartlap: float
-    notes: list[str]
-
-
-def fit_stack_nfw(profile: StackProfile, sums: StackSums, layout: StackLayout, *, concentration="duffy08",
-                  halo_definition: str = "200c", point_mass_msun: float = 0.0,
-                  r_fit_mpc: tuple[float, float] | None = None) -> StackFit:
-    """Fit the mean NFW M200 (plus a fixed central point mass) to the stacked Delta Sigma with the jackknife
-    covariance: Sellentin & Heavens (2016) likelihood for a covariance estimated from the patches (chi^2 and
-    its p-value with the Hartlap-debiased inverse); grid posterior, median and 68% / 95% intervals."""
-    from scipy import stats
-
-    from lensmass.core.shear_fit import (
-        NFW_LOG10_MASS_RANGE,
-        QUANTILES,
-        _grid_minimum,
-        _grid_quantiles,
-        _refine_1d,
-    )
-
-    use = np.isfinite(profile.delta_sigma) & (profile.n_pairs > 0) & np.all(np.isfinite(profile.covariance), axis=0)
-    if r_fit_mpc is not None:
-        use &= (profile.r_mean_mpc >= r_fit_mpc[0]) & (profile.r_mean_mpc <= r_fit_mpc[1])
-    n_d = int(use.sum())
-    n_p = profile.n_patches_used
-    if n_d < 2:
-        raise LensInputError("Fewer than two radial bins hold lens-source pairs: widen the radial range or check "
-                             "that the sources lie behind and around the lenses.")
-    hartlap = (n_p - n_d - 2) / (n_p - 1)
-    if hartlap <= 0:
-        raise LensInputError(f"{n_p} jackknife patches cannot give an invertible covariance of {n_d} bins: use at "
-                             f"least {n_d + 3} patches (`n_patches`) or fewer bins.")
-    cov = profile.covariance[np.ix_(use, use)]
-    try:
-        icov = hartlap * np.linalg.inv(cov)
-    except np.linalg.LinAlgError:
-        raise LensInputError("The jackknife covariance is singular: use more patches or fewer bins.") from None
-    data = profile.delta_sigma[use]
-
-    def chi2_of(log_m):
-        model = nfw_delta_sigma_model(10.0 ** np.asarray(log_m), sums, layout, concentration=concentration,
-                                      halo_definition=halo_definition, point_mass_msun=point_mass_msun)[..., use]
-        d = model - data
-        return np.einsum("...i,ij,...j->...", d, icov, d)
-
-    lo, hi = NFW_LOG10_MASS_RANGE
-    x, c = _refine_1d(chi2_of, lo, hi)
-    # likelihood of data with a covariance estimated from n_p samples (Sellentin & Heavens 2016, MNRAS 456,
-    # L132, eq. 12): (1 + chi2 / (n_p - 1))^(-n_p / 2) with chi2 from the sample covariance's inverse; wider
-    # than the Gaussian, as the noise of the jackknife covariance requires
-    chi2_raw = c / hartlap
-    lnp = -0.5 * n_p * np.log1p(chi2_raw / (n_p - 1))
-    lnp = lnp - np.max(lnp)
-    q = 10.0 ** _grid_quantiles(x, lnp)
-    best = 10.0 ** _grid_minimum(x, c)
-    chi2 = float(chi2_of(np.log10(best)))
-    dof = n_d - 1
-    notes = []
-    if (lnp[0] > -10 and x[0] <= lo + 1e-12) or (lnp[-1] > -10 and x[-1] >= hi - 1e-12):
-        notes.append("The stacked NFW posterior reaches the edge of the searched mass range: treat the interval "
-                     "as a bound.")
-    model = nfw_delta_sigma_model(best, sums, layout, concentration=concentration, halo_definition=halo_definition,
-                                  point_mass_msun=point_mass_msun)
-    assert len(QUANTILES) == q.size
-    return StackFit(float(q[2]), q, float(best), chi2, dof, float(stats.chi2.sf(chi2, dof)) if dof > 0 else np.nan,
-                    model, float(hartlap), notes)
+__all__ = ["POINT_MASS_MAX_MSUN", "StackFit", "check_point_mass_prior", "fit_stack_nfw", "nfw_delta_sigma_model",
+           "point_mass_log_prior"]
