@@ -48,7 +48,9 @@ def test_sis_velocity_limit_matches_the_sis_formula():
 def test_monte_carlo_in_chunks_gives_the_same_numbers(monkeypatch):
     args = {"theta_e_err": 0.05, "z_l_err": 0.01, "z_s_err": 0.03, "samples": 3000, "seed": 11}
     whole = estimate(1.4, 0.25, 0.9, **args)
-    monkeypatch.setattr(limits, "MC_CHUNK", 700)
+    from lensmass.core import estimate as estimate_module
+
+    monkeypatch.setattr(estimate_module, "DERIVE_BLOCK", 700)
     chunked = estimate(1.4, 0.25, 0.9, **args)
     for key, values in whole["_samples"].items():
         np.testing.assert_array_equal(values, chunked["_samples"][key])
