@@ -342,7 +342,14 @@ class BatchOutcome:
 
 def batch_settings(*, cosmology: Any = None, concentration: str | float = "duffy08", halo_definition: str = "200c",
                    samples: int = DEFAULT_SAMPLES, seed: int = DEFAULT_SEED, workers: int = 1) -> dict[str, Any]:
-    """The settings of a run (checked); they must match for a resumed run to keep rows."""
+    """The settings of a run (checked); they must match for a resumed run to keep rows.
+
+    Examples
+    --------
+    >>> s = batch_settings(samples=2000, seed=7)
+    >>> s["samples"], s["seed"], s["concentration"]
+    (2000, 7, 'duffy08')
+    """
     from lensmass.core.cosmology import cosmology_label, resolve_cosmology
 
     from lensmass.core import limits
