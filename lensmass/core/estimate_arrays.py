@@ -94,8 +94,8 @@ def estimate_arrays(theta_e_arcsec, z_l, z_s, theta_e_err, z_l_err, z_s_err, *, 
     problems: list[str | None] | None = None
     if not strict:
         problems = [None] * n
-        for i in np.flatnonzero(bad):
-            problems[int(i)] = _reason(int(i), cols, masks)
+        for j in np.flatnonzero(bad):
+            problems[int(j)] = _reason(int(j), cols, masks)
     wants_mc = bool(np.any((t_err > 0) | (zl_err > 0) | (zs_err > 0)))
     if wants_mc:
         samples = limits.monte_carlo_samples(samples)

@@ -266,10 +266,10 @@ class MapGrid:
         spectrum *= self._kernel_ks
         if e_mode_only:
             n2 = self.shape[1]
-            m = n2 // 2 + 1
+            m_half = n2 // 2 + 1
             mirror_rows = (-np.arange(self.shape[0])) % self.shape[0]
-            mirror_cols = (-np.arange(m)) % n2
-            herm = 0.5 * (spectrum[:, :m] + np.conj(spectrum[np.ix_(mirror_rows, mirror_cols)]))
+            mirror_cols = (-np.arange(m_half)) % n2
+            herm = 0.5 * (spectrum[:, :m_half] + np.conj(spectrum[np.ix_(mirror_rows, mirror_cols)]))
             back = sfft.ifft(herm, axis=0, workers=-1, overwrite_x=True)[self.crop[0]]
             return sfft.irfft(back, n=n2, axis=1, workers=-1)[:, self.crop[1]].astype(np.float64)
         back = sfft.ifft(spectrum, axis=0, workers=-1, overwrite_x=True)[self.crop[0]]

@@ -704,7 +704,8 @@ def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma,
     coverage = float(detected.mean())
     window = np.abs(radii - r0) <= max(2.0, 1.5 * width)
     wi = np.flatnonzero(window)
-    px, py = [], []
+    px: Any = []
+    py: Any = []
     for s in np.flatnonzero(detected):
         sp = np.where(counts[s, wi] > 0, smean[s, wi], np.nan) * np.sqrt(radii[wi])
         if np.isfinite(sp).sum() < 5:

@@ -79,7 +79,8 @@ def measure_row(row, settings: dict) -> dict[str, Any]:
     if row.theta_e_arcsec is not None:
         from lensmass.core.estimate import estimate
 
-        result = estimate(row.theta_e_arcsec, row.z_l, row.z_s, theta_e_err=row.theta_e_err or 0.0, **options)
+        result: dict[str, Any] = estimate(row.theta_e_arcsec, row.z_l, row.z_s, theta_e_err=row.theta_e_err or 0.0,
+                                          **options)
         result["source"] = "theta_e_arcsec column"
         return result
     if row.points is None and row.image is None:

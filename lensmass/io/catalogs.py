@@ -174,7 +174,7 @@ def _float_column(table, name: str, role: str) -> np.ndarray:
         raise LensInputError(f"Column '{name}' ({role}) holds arrays per row; map a column of single numbers.")
     try:
         if getattr(col, "mask", None) is not None and np.any(col.mask):
-            data = np.ma.filled(np.ma.asarray(col, dtype=float), np.nan)
+            data: np.ndarray = np.ma.filled(np.ma.asarray(col, dtype=float), np.nan)
         else:
             data = np.asarray(col, dtype=float)
     except (TypeError, ValueError):
