@@ -16,8 +16,9 @@ the figure to compare):
 - 1e7 lenses: estimate CPU 10.0 s vs astropy 15.8 s (0.63x; wall 0.73x), peak 92 bytes a lens;
 - 1e6 lenses: CPU 0.84-0.94 s vs 1.50 s (0.56-0.63x), peak 96 bytes a lens.
 Before (issue 12's first pass): 1.43x CPU and 302 bytes a lens at 1e6. What changed: Newton steps
-with the analytic slope in the NFW inversion (lensmass.core.nfw), work in cache-sized blocks
-(lensmass.core.estimate.DERIVE_BLOCK), the distance spline evaluated on its even nodes.
+with the analytic slope in the NFW inversion (lensmass.core.nfw), work in blocks of 16384 lenses
+(lensmass.core.estimate.DERIVE_BLOCK: bounded memory), no copies of the inputs or of single-number
+errors, the distance spline evaluated on its even nodes.
 """
 
 from __future__ import annotations
