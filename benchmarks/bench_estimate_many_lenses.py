@@ -10,6 +10,15 @@ Prints, for N random lenses (default 10^7; ``--n`` to change), in flat LCDM (H0=
 
 Baseline and measured run are interleaved (A/B, best of the repeats) because this machine's speed
 drifts. Run: python benchmarks/bench_estimate_many_lenses.py [--n 10000000] [--repeat 2]
+
+Last measured (2 shared cores under a load of about 9, so wall times are long and CPU times are
+the figure to compare):
+- 1e7 lenses: estimate CPU 10.0 s vs astropy 15.8 s (0.63x; wall 0.73x), peak 92 bytes a lens;
+- 1e6 lenses: CPU 0.84-0.94 s vs 1.50 s (0.56-0.63x), peak 96 bytes a lens.
+Before (issue 12's first pass): 1.43x CPU and 302 bytes a lens at 1e6. What changed: Newton steps
+with the analytic slope in the NFW inversion (lensmass.core.nfw), work in blocks of 16384 lenses
+(lensmass.core.estimate.DERIVE_BLOCK: bounded memory), no copies of the inputs or of single-number
+errors, the distance spline evaluated on its even nodes.
 """
 
 from __future__ import annotations

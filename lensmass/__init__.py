@@ -16,10 +16,14 @@ job                        names
 =========================  ======================================================================
 mass from theta_E          ``estimate`` (Quantities, arrays, ``strict=``), ``estimate_many``, ``LensResult``
 point fits                 ``fit_circle``, ``fit_ellipse``, ``multiple_image_radius``, ``measure_from_points``
+lens models                ``fit_lens_model`` (pixels on an image), ``fit_lens_model_arcsec`` (sky offsets)
 images and the ring        ``load_image``, ``find_ring``, ``find_center``, ``measure_auto_ring``
-lens light                 ``add_light``, ``light_inside_einstein``
+lens light                 ``fit_lens_light``, ``add_light``, ``light_inside_einstein``
 weak lensing               ``read_shear_catalog``, ``analyse_shear_catalog``, ``shear_profile``, ``mass_map``
-batch and grading         ``run_batch``, ``batch_settings``, ``grade_answers``
+cluster components         ``locate_cluster_components``
+stacking                   ``analyse_stack_catalog`` (arrays), ``analyse_stack`` (blocks of a large catalogue)
+batch and grading          ``run_batch``, ``batch_settings``, ``grade_answers``
+cosmology                  ``resolve_cosmology``
 facts about result keys    ``RESULT_KEYS``, ``KeyFact``, ``register_key``
 =========================  ======================================================================
 """
@@ -39,6 +43,13 @@ _API = {
     "multiple_image_radius": "lensmass.core.arcfit",
     "measure_from_points": "lensmass.core.einstein",
     "measure_auto_ring": "lensmass.core.einstein",
+    "fit_lens_model": "lensmass.core.lens_model",
+    "fit_lens_model_arcsec": "lensmass.core.lens_model",
+    "fit_lens_light": "lensmass.core.lenslight",
+    "locate_cluster_components": "lensmass.core.cluster_components",
+    "analyse_stack_catalog": "lensmass.core.stack_arrays",
+    "analyse_stack": "lensmass.core.stack_analysis",
+    "resolve_cosmology": "lensmass.core.cosmology",
     "find_ring": "lensmass.core.ringfinder",
     "find_center": "lensmass.core.ringfinder",
     "load_image": "lensmass.io.images",

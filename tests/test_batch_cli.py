@@ -149,9 +149,9 @@ def _die(rows):
 
 
 def test_a_dying_worker_is_one_sentence_and_keeps_results(tmp_path, monkeypatch, capsys):
-    import lensmass.io.batch_engine as batch
+    import lensmass.io.batch_workers as workers
 
-    monkeypatch.setattr(batch, "_run_chunk", _die)
+    monkeypatch.setattr(workers, "_run_chunk", _die)
     _manifest(tmp_path / "m.csv", 40)
     out = tmp_path / "r.ecsv"
     status = main(["batch", str(tmp_path / "m.csv"), "--out", str(out), "--workers", "2", "--no-progress",

@@ -15,7 +15,6 @@ import pytest
 
 from lensmass.cli import main
 from lensmass.core import estimate as estimate_module
-from lensmass.core import estimate_many as estimate_many_module
 from lensmass.core.result_keys import RESULT_KEYS, UNIT_FORMS, KeyFact, fact, keys_in, register_key, unregister_key
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_fields"
@@ -136,7 +135,6 @@ def _with_toy(original):
 def toy_key(monkeypatch):
     """DEVELOPERS.md 'How to add a mass model', step 4: the key in derive_quantities and a registry row."""
     monkeypatch.setattr(estimate_module, "derive_quantities", _with_toy(estimate_module.derive_quantities))
-    monkeypatch.setattr(estimate_many_module, "derive_quantities", _with_toy(estimate_many_module.derive_quantities))
     register_key(TOY)
     yield TOY
     unregister_key(TOY.key)

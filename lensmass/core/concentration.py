@@ -71,16 +71,70 @@ def dutton14_concentration(m_msun, z, h: float, definition: str = "200c") -> np.
     return 10 ** (a + b * np.log10(np.asarray(m_msun, float) * h / 1e12))
 
 
-def concentration_relation(spec, definition: str = "200c") -> tuple[Callable, str]:
-    """Return ``(c(m_msun, z, h), label)`` for ``"duffy08"``, ``"dutton14"`` or a number."""
+class PowerLawConcentration:
+    """A c(M, z) relation of the form c = A(z, h) M^B(z), as every relation here is.
+
+    Calling it gives c for (mass in Msun, z, h) exactly as the relation's own function does;
+    :meth:`log_form` gives (ln A, B) per redshift, so ln c = ln A + B ln M, which the NFW
+    inversion (:func:`lensmass.core.nfw.nfw_mass_for_einstein_radius`) uses for its Newton steps.
+
+    Examples
+    --------
+    >>> c_of_m, _ = concentration_relation("duffy08")
+    >>> ln_a, slope = c_of_m.log_form(0.3, 0.7)
+    >>> bool(np.isclose(np.exp(ln_a + slope * np.log(1e13)), c_of_m(1e13, 0.3, 0.7)))
+    True
+    """
+
+    def __init__(self, function: Callable, log_form: Callable):
+        self._function = function
+        self._log_form = log_form
+
+    def __call__(self, m_msun, z, h: float) -> np.ndarray:
+        return self._function(m_msun, z, h)
+
+    def log_form(self, z, h: float) -> tuple[np.ndarray, np.ndarray]:
+        """(ln A, B) of c = A M^B at redshift(s) ``z`` for the Hubble parameter ``h``."""
+        return self._log_form(np.asarray(z, float), float(h))
+
+
+def _duffy08_log_form(definition: str) -> Callable:
+    a, b, c = _DUFFY08[definition]
+    return lambda z, h: (np.log(a) - b * np.log(2e12 / h) + c * np.log1p(z), np.full(np.shape(z), b))
+
+
+def _dutton14_log_form(definition: str) -> Callable:
+    def form(z, h):
+        if definition == "200c":
+            a = 0.520 + (0.905 - 0.520) * np.exp(-0.617 * z**1.21)
+            b = -0.101 + 0.026 * z
+        else:
+            a = 0.537 + (1.025 - 0.537) * np.exp(-0.718 * z**1.08)
+            b = -0.097 + 0.024 * z
+        return np.log(10.0) * (a + b * np.log10(h / 1e12)), b
+
+    return form
+
+
+def concentration_relation(spec, definition: str = "200c") -> tuple[PowerLawConcentration, str]:
+    """Return ``(c(m_msun, z, h), label)`` for ``"duffy08"``, ``"dutton14"`` or a number.
+
+    Examples
+    --------
+    >>> c_of_m, label = concentration_relation(5)
+    >>> float(c_of_m(1e14, 0.3, 0.7)), label
+    (5.0, 'fixed c = 5')
+    """
     if isinstance(spec, str):
         key = spec.strip().lower()
         if key == "duffy08":
-            return (lambda m, z, h: duffy08_concentration(m, z, h, definition)), RELATION_LABELS[key]
+            return PowerLawConcentration(lambda m, z, h: duffy08_concentration(m, z, h, definition),
+                                         _duffy08_log_form(definition)), RELATION_LABELS[key]
         if key == "dutton14":
             if definition == "200m":
                 dutton14_concentration(1e12, 0.0, 0.7, definition)  # raises the clear message
-            return (lambda m, z, h: dutton14_concentration(m, z, h, definition)), RELATION_LABELS[key]
+            return PowerLawConcentration(lambda m, z, h: dutton14_concentration(m, z, h, definition),
+                                         _dutton14_log_form(definition)), RELATION_LABELS[key]
         try:
             spec = float(key)
         except ValueError:
@@ -96,7 +150,9 @@ def concentration_relation(spec, definition: str = "200c") -> tuple[Callable, st
     if not lo <= value <= hi:
         raise LensInputError(f"A fixed concentration of {value:g} is outside {lo:g} to {hi:g}, where simulated and "
                              "observed halos lie; check the concentration (`concentration`).")
-    return (lambda m, z, h: np.full(np.broadcast(np.asarray(m), np.asarray(z)).shape, value)), f"fixed c = {value:g}"
+    return PowerLawConcentration(lambda m, z, h: np.full(np.broadcast(np.asarray(m), np.asarray(z)).shape, value),
+                                 lambda z, h: (np.full(np.shape(z), np.log(value)), np.zeros(np.shape(z)))
+                                 ), f"fixed c = {value:g}"
 
 
 def calibration_note(spec, m_msun, z, h: float) -> str | None:

@@ -124,13 +124,26 @@ class DistanceGrid:
     spline: Any
     cosmo: Any
 
+    def _ratio(self, x: np.ndarray) -> np.ndarray:
+        """The spline at x = ln(1 + z) in [0, ln(1 + zmax)]: its cubic on the interval holding x.
+
+        The nodes are evenly spaced from 0, so the interval is found by one multiplication
+        instead of a search (the same polynomials as ``self.spline(x)``, about five times faster).
+        """
+        nodes, coeffs = self.spline.x, self.spline.c
+        i = np.minimum((x * ((nodes.size - 1) / nodes[-1])).astype(np.intp), nodes.size - 2)
+        t = x - nodes[i]
+        return ((coeffs[0][i] * t + coeffs[1][i]) * t + coeffs[2][i]) * t + coeffs[3][i]
+
     def comoving_mpc(self, z: np.ndarray) -> np.ndarray:
         """Line-of-sight comoving distance D_C(z) in Mpc (Hogg 1999, eq. 15)."""
         z = np.asarray(z, dtype=float)
-        out = np.empty_like(z)
         inside = (z <= self.zmax) & (z >= 0)
+        if inside.all():
+            return self.hubble_distance_mpc * z * self._ratio(np.log1p(z))
+        out = np.empty_like(z)
         zi = z[inside]
-        out[inside] = self.hubble_distance_mpc * zi * self.spline(np.log1p(zi))
+        out[inside] = self.hubble_distance_mpc * zi * self._ratio(np.log1p(zi))
         outside = ~inside & np.isfinite(z) & (z >= 0)
         if np.any(outside):
             out[outside] = self.cosmo.comoving_distance(z[outside]).to_value("Mpc")
@@ -212,10 +225,24 @@ def luminosity_distance_mpc(z, cosmo) -> np.ndarray:
 
 
 def critical_density_msun_per_mpc3(z, cosmo) -> np.ndarray:
-    """rho_crit(z) = 3 H(z)^2 / (8 pi G) in Msun / Mpc^3 (vectorised, analytic in astropy)."""
+    """rho_crit(z) = 3 H(z)^2 / (8 pi G) = rho_crit,0 E(z)^2 in Msun / Mpc^3 (Hogg 1999, eq. 14).
+
+    The same product astropy's ``critical_density`` forms, with the unit conversion done once
+    on the scalar rho_crit,0 instead of on the array.
+
+    Examples
+    --------
+    >>> import astropy.units as u
+    >>> from astropy.cosmology import Planck18
+    >>> ours = critical_density_msun_per_mpc3([0.0, 1.5], Planck18)
+    >>> theirs = Planck18.critical_density([0.0, 1.5]).to_value(u.Msun / u.Mpc**3)
+    >>> bool(np.allclose(ours, theirs, rtol=1e-12))
+    True
+    """
     import astropy.units as u
 
-    return cosmo.critical_density(np.asarray(z, dtype=float)).to_value(u.Msun / u.Mpc**3)
+    rho0 = cosmo.critical_density0.to_value(u.Msun / u.Mpc**3)
+    return rho0 * np.asarray(cosmo.efunc(np.asarray(z, dtype=float)), float) ** 2
 
 
 def little_h(cosmo) -> float:

@@ -468,6 +468,20 @@ def measure_auto_ring(
     ``require_confident``). The :class:`~lensmass.core.ringfinder.RingResult` is kept
     under the private key ``"_ring"`` (residual image, ridge points, profile) for plots;
     private keys are dropped from JSON.
+
+    Examples
+    --------
+    The ring of :func:`lensmass.core.ringfinder.find_ring`'s example at 0.1" a pixel: theta_E = 1.5":
+
+    >>> yy, xx = np.mgrid[0:81, 0:81]
+    >>> r = np.hypot(xx - 40, yy - 40)
+    >>> img = np.exp(-7.67 * ((r / 8) ** 0.25 - 1)) + np.exp(-0.5 * ((r - 15) / 1.5) ** 2)
+    >>> img = img + np.random.default_rng(1).normal(0, 0.02, r.shape)
+    >>> res = measure_auto_ring(img, pixel_scale_arcsec=0.1, z_l=0.3, z_s=1.2)
+    >>> round(res["theta_e_arcsec"], 1), res["method"].split(" (")[0]
+    (1.5, 'automatic ring finder')
+    >>> 1e11 < res["mass_einstein_msun"] < 1e12
+    True
     """
     m, ring = measure_theta_e_auto_ring(image, center=center, require_confident=require_confident,
                                         max_radius_pix=max_radius_pix, pixel_scale_arcsec=pixel_scale_arcsec,

@@ -8,6 +8,15 @@ class LensInputError(ValueError):
 
     The command line prints ``str(error)`` and exits non-zero; the window shows
     it beside the offending field. Never raise it with a traceback-style message.
+
+    Examples
+    --------
+    >>> from lensmass import estimate
+    >>> try:
+    ...     estimate(1.2, 0.5, 0.3)
+    ... except LensInputError as error:
+    ...     print(error)
+    The source must lie behind the lens: z_s must be larger than z_l (got z_l = 0.5, z_s = 0.3); check that the two redshifts are not swapped.
     """
 
 

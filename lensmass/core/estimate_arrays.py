@@ -17,7 +17,7 @@ import numpy as np
 from lensmass.core import limits
 from lensmass.core.cosmology import cosmology_label
 from lensmass.core.errors import LensInputError
-from lensmass.core.estimate import DERIVED_KEYS, derive_quantities, model_descriptions, model_notes
+from lensmass.core.estimate import DERIVED_KEYS, derive_in_chunks, model_descriptions, model_notes
 from lensmass.core.results import LensResult
 
 _INPUTS = (("The Einstein radius", "theta_e_arcsec", "positive"), ("The lens redshift", "z_l", "positive"),
@@ -33,11 +33,15 @@ def _columns(values) -> list[np.ndarray]:
         except (TypeError, ValueError):
             raise LensInputError(f"{what} (`{name}`) must be a number or an array of numbers, got {value!r}.") from None
     try:
-        return [a.ravel() for a in np.broadcast_arrays(*arrays)]
+        shape = np.broadcast_shapes(*(a.shape for a in arrays))
     except ValueError:
         shapes = ", ".join(f"`{name}` {np.shape(a)}" for a, (_, name, _) in zip(arrays, _INPUTS) if np.ndim(a))
         raise LensInputError(f"The input arrays have shapes that do not broadcast ({shapes}): give arrays of "
                              "one length, or single numbers.") from None
+    n = int(np.prod(shape))
+    # a single number stays one number seen n times (no copy: an error of 0 for 10^7 lenses costs nothing)
+    return [np.broadcast_to(a.reshape(-1), (n,)) if a.size == 1 else np.broadcast_to(a, shape).reshape(-1)
+            for a in arrays]
 
 
 def _bad_masks(cols: list[np.ndarray]) -> list[np.ndarray]:
@@ -90,8 +94,8 @@ def estimate_arrays(theta_e_arcsec, z_l, z_s, theta_e_err, z_l_err, z_s_err, *, 
     problems: list[str | None] | None = None
     if not strict:
         problems = [None] * n
-        for i in np.flatnonzero(bad):
-            problems[int(i)] = _reason(int(i), cols, masks)
+        for j in np.flatnonzero(bad):
+            problems[int(j)] = _reason(int(j), cols, masks)
     wants_mc = bool(np.any((t_err > 0) | (zl_err > 0) | (zs_err > 0)))
     if wants_mc:
         samples = limits.monte_carlo_samples(samples)
@@ -100,9 +104,9 @@ def estimate_arrays(theta_e_arcsec, z_l, z_s, theta_e_err, z_l_err, z_s_err, *, 
     good = ~bad
     if not wants_mc:
         if good.all():
-            values = derive_quantities(theta, zl, zs, cosmo, c_of_m, halo_definition)
+            values = derive_in_chunks(theta, zl, zs, cosmo, c_of_m, halo_definition)
         else:
-            part = derive_quantities(theta[good], zl[good], zs[good], cosmo, c_of_m, halo_definition)
+            part = derive_in_chunks(theta[good], zl[good], zs[good], cosmo, c_of_m, halo_definition)
             values = {}
             for key, v in part.items():
                 values[key] = np.full(n, np.nan)
@@ -114,7 +118,8 @@ def estimate_arrays(theta_e_arcsec, z_l, z_s, theta_e_err, z_l_err, z_s_err, *, 
     for key in DERIVED_KEYS:
         result[key] = np.reshape(values[key], shape)
     kept = np.isfinite(np.ravel(result["theta_e_arcsec"])) if not wants_mc else good
-    notes.extend(model_notes(theta[kept], np.ravel(result["nfw_m200_msun"])[kept], c_label))
+    m200 = np.ravel(result["nfw_m200_msun"])
+    notes.extend(model_notes(theta, m200, c_label) if kept.all() else model_notes(theta[kept], m200[kept], c_label))
     if problems is not None and any(p is not None for p in problems):
         n_bad = sum(p is not None for p in problems)
         notes.insert(0, f"{n_bad} of {n} lenses could not be computed (NaN): 'problems' gives the reason for each.")

@@ -24,7 +24,7 @@ from lensmass.core.concentration import concentration_relation
 from lensmass.core.cosmology import cosmology_label, little_h, resolve_cosmology
 from lensmass.core.estimate import (
     DERIVED_KEYS,
-    derive_quantities,
+    derive_in_chunks,
     model_descriptions,
     model_notes,
     monte_carlo_notes,
@@ -104,7 +104,7 @@ def estimate_many(theta_e_arcsec, theta_e_err, z_l, z_l_err, z_s, z_s_err, seeds
     idx = np.flatnonzero(ok)
     if idx.size == 0:
         return results
-    central = derive_quantities(theta[idx], zl[idx], zs[idx], cosmo, c_of_m, halo_definition)
+    central = derive_in_chunks(theta[idx], zl[idx], zs[idx], cosmo, c_of_m, halo_definition)
     ok[idx[~(central["sis_sigma_v_kms"] < limits.SPEED_OF_LIGHT_KMS)]] = False  # estimate() says why
 
     wants = (t_err > 0) | (zl_err > 0) | (zs_err > 0)
@@ -157,7 +157,7 @@ def _summarise_group(group, cosmo, c_of_m, halo_definition) -> dict[int, dict]:
     """Percentile summaries of several rows' kept draws, derived in one stacked pass."""
     draws = [d for _, d in group]
     lengths = np.array([d[0].size for d in draws])
-    stacked = derive_quantities(np.concatenate([d[0] for d in draws]), np.concatenate([d[1] for d in draws]),
+    stacked = derive_in_chunks(np.concatenate([d[0] for d in draws]), np.concatenate([d[1] for d in draws]),
                                 np.concatenate([d[2] for d in draws]), cosmo, c_of_m, halo_definition)
     pct = {key: _row_percentiles(stacked[key], lengths) for key in DERIVED_KEYS}
     m200 = stacked["nfw_m200_msun"]

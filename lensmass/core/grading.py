@@ -261,6 +261,16 @@ def grade_answers(answers: dict[str, float], theta_e_arcsec: float, z_l: float, 
     ``verdict`` (``"pass"`` when |relative error| <= tolerance, else ``"fail"``),
     ``diagnosis`` (a sentence, empty on a pass) and ``mistakes`` (keys of
     :data:`MISTAKES` whose value matches the submission within the tolerance).
+
+    Examples
+    --------
+    A mass computed with D_s where D_ls belongs is failed and the mistake named:
+
+    >>> from astropy.cosmology import Planck18
+    >>> wrong = mistake_ds_for_dls(1.2, 0.3, 1.0, Planck18)["mass_einstein_msun"]
+    >>> row = grade_answers({"mass_einstein_msun": float(wrong)}, 1.2, 0.3, 1.0, Planck18)[0]
+    >>> row["verdict"], row["mistakes"]
+    ('fail', ['ds_for_dls'])
     """
     unknown = [q for q in answers if q not in GRADABLE]
     if unknown:

@@ -181,7 +181,7 @@ class _Posterior:
 
     def chi2(self, row: np.ndarray) -> float:
         """The quadratic (chi^2) part of the likelihood of one parameter row, sources at their best."""
-        self._last_chi2 = None
+        self._last_chi2: np.ndarray | None = None
         self.log_likelihood(np.atleast_2d(row), want_chi2=True)
         return float(self._last_chi2[0])
 

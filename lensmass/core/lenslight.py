@@ -136,6 +136,18 @@ def fit_lens_light(
     >>> m = fit_lens_light(sim.image, 39.8, 39.8)
     >>> round(m.r_eff_pix * 0.2, 1), round(m.sersic_n), round(m.psf_fwhm_pix * 0.2, 1)  # truth 1.2", 4, 0.8"
     (1.2, 4, 0.8)
+
+    Examples
+    --------
+    A de Vaucouleurs galaxy (n = 4, R_e = 6 pixels, q = 0.7) at (40.3, 39.6) with noise:
+
+    >>> from lensmass.core.sersic import sersic_surface_brightness
+    >>> yy, xx = np.mgrid[0:81, 0:81].astype(float)
+    >>> galaxy = sersic_surface_brightness(xx - 40.3, yy - 39.6, total_flux=5000.0, r_eff_arcsec=6.0, n=4.0,
+    ...                                    axis_ratio=0.7, angle_deg=30.0)
+    >>> fit = fit_lens_light(galaxy + np.random.default_rng(2).normal(0, 0.05, xx.shape), 40, 40)
+    >>> fit.ok, round(fit.center_x, 1), round(fit.center_y, 1), round(fit.sersic_n, 1), round(fit.axis_ratio, 2)
+    (True, 40.3, 39.6, 4.0, 0.7)
     """
     img = np.asarray(image, float) if np.asarray(image).dtype.kind != "f" else np.asarray(image)
     ny, nx = img.shape

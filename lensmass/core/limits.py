@@ -49,7 +49,8 @@ REDSHIFT_MAX = 1100.0
 #: (3 inputs + 13 derived numbers in float64, masks, percentile copies): measured with tracemalloc at
 #: 201 bytes (2e6 draws) and 249 (1e6 draws) against 350 unchunked (benchmarks/bench_estimate.py).
 MC_BYTES_PER_DRAW = 250
-#: Monte Carlo draws derived at once (bounds the temporaries of the root find, ~350 bytes a draw).
+#: Monte Carlo draws of many rows summarised at once by ``estimate_many`` (the draws are derived
+#: :data:`lensmass.core.estimate.DERIVE_BLOCK` at a time; this bounds the percentile copies).
 MC_CHUNK = 250_000
 #: Never more Monte Carlo draws than this, whatever the memory (10^8 draws: percentiles to 1e-4).
 MC_SAMPLES_MAX = 100_000_000

@@ -249,39 +249,78 @@ def nfw_einstein_radius_mpc(halo: NFWHalo, sigma_cr_msun_per_mpc2) -> np.ndarray
 INVERSION_LOG10_MASS_RANGE = (6.0, 18.0)
 
 
-def _secant_in_log_mass(mismatch, args, shape, tol: float = 1e-9, maxiter: int = 12) -> np.ndarray:
-    """Fast path of the inversion: secant steps in log10 M from 10^12 and 10^14 Msun.
+_LN10 = float(np.log(10.0))
+_LN2 = float(np.log(2.0))
 
-    ln M_2D(<R_E) is close to linear in log10 M, so the secant settles in about five
-    steps (a third of the bracketed method's evaluations). An element is frozen once its
-    step is below ``tol`` dex (2e-9 in mass; below that the step is round-off noise).
-    Returns NaN where it did not settle inside the search range; the caller hands those
-    to the bracketed solver.
+
+def _power_law_form(concentration_of_mass, z, h: float) -> tuple[np.ndarray, np.ndarray]:
+    """(ln A, B) with c ~ A M^B: exact for the relations of :mod:`lensmass.core.concentration`,
+    the local power law at 10^13 Msun for any other callable (then only the Newton slope uses it)."""
+    form = getattr(concentration_of_mass, "log_form", None)
+    if form is not None:
+        ln_a, slope = form(z, h)
+        return np.broadcast_to(ln_a, z.shape), np.broadcast_to(slope, z.shape)
+    c1 = np.asarray(concentration_of_mass(np.full(z.shape, 1e13), z, h), float)
+    c2 = np.asarray(concentration_of_mass(np.full(z.shape, 1.01e13), z, h), float)
+    slope = np.log(c2 / c1) / np.log(1.01)
+    return np.log(c1) - slope * np.log(1e13), slope
+
+
+def _newton_in_log_mass(r_e, m_e, z, rho_delta, concentration_of_mass, h: float, tol: float = 2e-9,
+                        maxiter: int = 40) -> np.ndarray:
+    """log10 M_Delta of the NFW halo with M_2D(<R_E) = M_E, by Newton steps in x = ln M.
+
+    With c = A M^B (every relation here) and X = R_E / r_s = R_E c / r_Delta:
+
+        f(x) = x - ln m(c) + ln h(X) - ln M_E,   ln X = ln R_E - ln K - x/3 + ln c,
+        f'(x) = 1 - B c m'(c) / m(c) + (B - 1/3) X h'(X) / h(X),
+
+    with m(c) = ln(1 + c) - c/(1 + c), m'(c) = c / (1 + c)^2, h(X) = ln(X/2) + F(X) and
+    h'(X) = X (1 - F(X)) / (X^2 - 1) (dM_2D/dR = 2 pi R Sigma; Wright & Brainerd 2000, eqs. 11, 13),
+    K^3 = 3 / (4 pi Delta rho_ref). ln M_2D is close to linear in ln M, so Newton from
+    M = 100 M_E settles in about five steps, each one pass over the lenses still moving
+    (the slope costs no extra transcendental function). A lens is frozen once its step is
+    below ``tol`` (1e-9 dex). Returns NaN where it did not settle inside 10^6-10^18 Msun.
     """
-    lo_val, hi_val = INVERSION_LOG10_MASS_RANGE
-    n = int(np.prod(shape))
-    flat_args = tuple(np.broadcast_to(a, shape).ravel() for a in args)
-    x0 = np.full(n, 12.0)
-    x1 = np.full(n, 14.0)
-    f0 = mismatch(x0, *flat_args)
-    f1 = mismatch(x1, *flat_args)
-    settled = np.zeros(n, dtype=bool)
-    active = np.arange(n)
+    shape = r_e.shape
+    z = np.asarray(z, float).ravel()
+    ln_me = np.log(m_e).ravel()
+    ln_a, slope = (np.ravel(v) for v in _power_law_form(concentration_of_mass, z, h))
+    exact_c = getattr(concentration_of_mass, "log_form", None) is not None
+    # ln X = b - x/3 + ln c, with b = ln R_E - ln K
+    b = np.log(r_e).ravel() - (np.log(3.0 / (4.0 * np.pi)) - np.log(rho_delta).ravel()) / 3.0
+    lo, hi = (v * _LN10 for v in INVERSION_LOG10_MASS_RANGE)
+    x = np.clip(ln_me + 2.0 * _LN10, lo, hi)
+    out = np.full(x.size, np.nan)
+    active = np.arange(x.size)
     for _ in range(maxiter):
-        xa0, xa1, fa0, fa1 = x0[active], x1[active], f0[active], f1[active]
+        ln_c = ln_a + slope * x if exact_c else np.log(concentration_of_mass(np.exp(x), z, h))
+        c = np.exp(ln_c)
+        ln_x = b - x / 3.0 + ln_c
+        big_x = np.exp(ln_x)
+        f_x = _f_function(big_x)
+        h_x = np.where(big_x < 1e-4, 0.5 * big_x**2 * (_LN2 - ln_x - 0.5), ln_x - _LN2 + f_x)
+        m_c = np.log1p(c) - c / (1.0 + c)
+        t = big_x * big_x - 1.0
         with np.errstate(divide="ignore", invalid="ignore"):
-            step = fa1 * (xa1 - xa0) / (fa1 - fa0)
-        step = np.where(np.isfinite(step), step, 0.0)
-        xa2 = np.clip(xa1 - step, lo_val, hi_val)
-        done = (np.abs(xa2 - xa1) < tol) & (np.abs(fa1) < 1e-8)
-        x0[active], f0[active], x1[active] = xa1, fa1, xa2
-        settled[active[done]] = True
-        active = active[~done]
-        if active.size == 0:
+            g = np.where(np.abs(t) > 1e-4, (1.0 - f_x) / t, 1.0 / 3.0)  # (1 - F) / (X^2 - 1)
+            f = x - np.log(m_c) + np.log(h_x) - ln_me
+            slope_f = 1.0 - slope * c * c / ((1.0 + c) ** 2 * m_c) + (slope - 1.0 / 3.0) * big_x * big_x * g / h_x
+            step = np.clip(f / slope_f, -3.0, 3.0)
+        moving = np.isfinite(step) & (slope_f > 0)
+        x_new = np.clip(x - np.where(moving, step, 0.0), lo, hi)
+        done = moving & (np.abs(x_new - x) < tol)
+        out[active[done]] = x_new[done]
+        # at a bound and pushed outward, or no usable slope: no halo in range here (NaN)
+        drop = done | ~moving | ((x_new == x) & ((x_new == lo) | (x_new == hi)))
+        if drop.all():
             break
-        f1[active] = mismatch(x1[active], *(a[active] for a in flat_args))
-    ok = settled & (x1 > lo_val) & (x1 < hi_val)
-    return np.where(ok, x1, np.nan).reshape(shape)
+        if drop.any():
+            keep = ~drop
+            active, x_new, ln_me, ln_a, slope, b, z = (a[keep] for a in (active, x_new, ln_me, ln_a, slope, b, z))
+        x = x_new
+    out[(out <= lo) | (out >= hi)] = np.nan
+    return (out / _LN10).reshape(shape)
 
 
 def nfw_mass_for_einstein_radius(
@@ -296,12 +335,25 @@ def nfw_mass_for_einstein_radius(
 
     Solves M_2D,NFW(<R_E; M, c(M)) = M(<theta_E) for M_Delta: the mean convergence
     inside R_E is then exactly one. ``concentration_of_mass(m_msun, z, h)`` gives c;
-    all arguments broadcast, and the root find is vectorised (no loop per lens).
+    all arguments broadcast, and the root find is vectorised (no loop per lens):
+    Newton steps in ln M with the analytic slope (:func:`_newton_in_log_mass`), and
+    Chandrupatla's bracketed method for the few lenses they do not settle.
 
     Returns
     -------
     m_delta_msun, concentration : ndarray
         NaN where no halo between 10^6 and 10^18 Msun gives that radius.
+
+    Examples
+    --------
+    >>> from astropy.cosmology import FlatLambdaCDM
+    >>> from lensmass.core.concentration import concentration_relation
+    >>> c_of_m, _ = concentration_relation(4.0)
+    >>> cosmo = FlatLambdaCDM(70, 0.3)
+    >>> m, c = nfw_mass_for_einstein_radius(0.005, 3e11, 0.3, cosmo, c_of_m)
+    >>> halo = nfw_halo(m, c, 0.3, cosmo)  # the mass inside R_E comes back
+    >>> bool(np.isclose(nfw_mass_2d_msun(0.005, halo), 3e11, rtol=1e-8))
+    True
     """
     from scipy.optimize.elementwise import find_root
 
@@ -325,12 +377,12 @@ def nfw_mass_for_einstein_radius(
         return np.log(m2d / m_e)
 
     args = (r_e, m_e, z, rho_delta)
-    log10_m = _secant_in_log_mass(mismatch, args, r_e.shape)
+    log10_m = _newton_in_log_mass(r_e, m_e, z, np.broadcast_to(rho_delta, r_e.shape), concentration_of_mass, h)
     unsettled = good & ~np.isfinite(log10_m)
     if np.any(unsettled):
-        # Safeguard: Chandrupatla's bracketed method on the few draws the secant did not settle,
+        # Safeguard: Chandrupatla's bracketed method on the few lenses Newton did not settle,
         # with the bracket checked so that "no halo reaches this radius" becomes NaN.
-        sub = tuple(np.asarray(a)[unsettled] for a in args)
+        sub = tuple(np.broadcast_to(a, r_e.shape)[unsettled] for a in args)
         lo_val, hi_val = INVERSION_LOG10_MASS_RANGE
         lo = np.full(sub[0].shape, lo_val)
         hi = np.full(sub[0].shape, hi_val)

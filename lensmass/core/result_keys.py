@@ -54,7 +54,14 @@ FORMATS = ("number", "count", "text", "flag", "block")
 
 @dataclass(frozen=True)
 class KeyFact:
-    """Everything the program says about one result key."""
+    """Everything the program says about one result key.
+
+    Examples
+    --------
+    >>> f = fact("mass_einstein_msun")
+    >>> f.unit, f.group
+    ('solMass', 'estimate')
+    """
 
     key: str
     label: str
@@ -316,6 +323,13 @@ def register_key(new: KeyFact) -> KeyFact:
 
     Raises ValueError for a working-data key (``_...``), an unknown group or format, or a
     unit astropy cannot read.
+
+    Examples
+    --------
+    >>> toy = register_key(KeyFact("toy_mass_msun", "toy M", "solMass", "a toy mass", "estimate"))
+    >>> fact("toy_mass_msun").label
+    'toy M'
+    >>> unregister_key("toy_mass_msun")
     """
     if new.key.startswith("_"):
         raise ValueError(f"'{new.key}' is working data (leading '_'): it is never shown, so it is not registered.")

@@ -52,6 +52,15 @@ class LensResult(dict):
 
     It is a ``dict``: ``result["mass_einstein_msun"]``, ``result.get(...)`` and JSON writing work
     as for any mapping. Keys starting with ``_`` are working data and never leave the program.
+
+    Examples
+    --------
+    >>> from lensmass import estimate
+    >>> r = estimate([1.0, 1.5], 0.3, 1.0)
+    >>> isinstance(r, LensResult), len(r.to_table())
+    (True, 2)
+    >>> str(r.to_table()["r_e_kpc"].unit)
+    'kpc'
     """
 
     def public(self) -> dict[str, Any]:

@@ -263,6 +263,18 @@ def shear_profile(
     -----
     Shape-noise error of a bin: sqrt(sum w^2 [(e_t - <e_t>)^2 + (e_x - <e_x>)^2] / 2) / sum w,
     pooling both components (common practice; Bartelmann & Schneider 2001, sec. 4.2).
+
+    Examples
+    --------
+    An SIS of theta_E = 15": e_t = theta_E / (2 theta); the mean over a bin [a, b] of galaxies spread
+    evenly in radius is (theta_E / 2) ln(b / a) / (b - a):
+
+    >>> theta = np.linspace(20.0, 300.0, 5000)
+    >>> p = shear_profile(theta, 15.0 / (2 * theta), np.zeros(5000), np.ones(5000), np.array([20.0, 60.0, 150.0, 300.0]))
+    >>> bool(np.allclose(p.g_t, [7.5 * np.log(b / a) / (b - a) for a, b in [(20, 60), (60, 150), (150, 300)]], rtol=1e-3))
+    True
+    >>> p.n_galaxies.tolist()
+    [715, 1606, 2678]
     """
     from lensmass.core.shear_sums import galaxy_sums, galaxy_layout, profile_from_sums
 

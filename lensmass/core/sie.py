@@ -28,6 +28,7 @@ potential tau = (theta - beta)^2 / 2 - psi.
 from __future__ import annotations
 
 from dataclasses import dataclass, fields
+from typing import Any
 
 import numpy as np
 from scipy.special import ellipk
@@ -51,13 +52,13 @@ class SIEShear:
     True
     """
 
-    theta_e: object
-    q: object = 1.0
-    angle_rad: object = 0.0
-    x0: object = 0.0
-    y0: object = 0.0
-    gamma1: object = 0.0
-    gamma2: object = 0.0
+    theta_e: Any
+    q: Any = 1.0
+    angle_rad: Any = 0.0
+    x0: Any = 0.0
+    y0: Any = 0.0
+    gamma1: Any = 0.0
+    gamma2: Any = 0.0
 
     def scaled(self, factor) -> SIEShear:
         """The same lens for a source with D_ls/D_s ``factor`` times the reference one."""

@@ -106,6 +106,22 @@ def analyse_stack(
         ``mean_halo_c200``, ``point_mass_msun`` (fixed, or fitted with intervals), ``stack_chi2`` with
         ``stack_dof`` and ``stack_pvalue``, counts,
         the binned ``profile`` (Msun / pc^2), ``covariance_msun2_per_pc4``, ``notes`` and ``models``.
+
+    Examples
+    --------
+    Sources held in memory go in as :class:`lensmass.core.shear_analysis.ArrayBlocks` (or use
+    :func:`lensmass.core.stack_arrays.analyse_stack_catalog`); 200 lenses with M200 = 3e13 Msun:
+
+    >>> from astropy.cosmology import Planck18
+    >>> from lensmass.core.shear_analysis import ArrayBlocks
+    >>> from lensmass.core.stack_simulation import simulate_stack
+    >>> s = simulate_stack(n_lenses=200, n_sources=20000, m200_msun=3e13, cosmo=Planck18, seed=2)
+    >>> sources = ArrayBlocks(s["ra"], s["dec"], s["e1"], s["e2"], None, s["z"])
+    >>> r = analyse_stack(s["lens_ra"], s["lens_dec"], s["lens_z"], sources, r_min_mpc=0.1, r_max_mpc=2.0,
+    ...                   n_bins=6, n_patches=10, cosmology=Planck18, seed=1)
+    >>> lo, hi = r["intervals95"]["mean_halo_m200_msun"]
+    >>> bool(lo < 3e13 < hi)
+    True
     """
     from lensmass.core.concentration import concentration_relation
     from lensmass.core.cosmology import little_h

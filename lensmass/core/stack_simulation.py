@@ -47,7 +47,7 @@ def simulate_stack(*, n_lenses: int, n_sources: int, m200_msun: float, cosmo, ra
 
     rng = np.random.default_rng(seed)
     lra, ldec = uniform_sky(n_lenses, ra_range, dec_range, rng)
-    lz = rng.uniform(*z_lens_range, n_lenses)
+    lz = rng.uniform(z_lens_range[0], z_lens_range[1], n_lenses)
     sra, sdec = uniform_sky(n_sources, ra_range, dec_range, rng)
     sz = smail_redshifts(n_sources, rng, z0=z0)
     e_int = intrinsic_ellipticities(n_sources, sigma_e, rng) if sigma_e > 0 else np.zeros(n_sources, complex)

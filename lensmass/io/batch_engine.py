@@ -21,8 +21,6 @@ from __future__ import annotations
 
 import math
 import time
-from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
-from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Callable
@@ -81,7 +79,8 @@ def measure_row(row, settings: dict) -> dict[str, Any]:
     if row.theta_e_arcsec is not None:
         from lensmass.core.estimate import estimate
 
-        result = estimate(row.theta_e_arcsec, row.z_l, row.z_s, theta_e_err=row.theta_e_err or 0.0, **options)
+        result: dict[str, Any] = estimate(row.theta_e_arcsec, row.z_l, row.z_s, theta_e_err=row.theta_e_err or 0.0,
+                                          **options)
         result["source"] = "theta_e_arcsec column"
         return result
     if row.points is None and row.image is None:
@@ -201,45 +200,6 @@ def run_rows(rows, settings: dict) -> list[dict[str, Any]]:
     return out
 
 
-_WORKER_SETTINGS: dict | None = None
-
-
-#: How often a worker looks whether its parent is still there (seconds).
-PARENT_CHECK_S = 0.25
-
-
-def _init_worker(settings: dict, stop=None, parent_pid: int | None = None) -> None:
-    global _WORKER_SETTINGS
-    _WORKER_SETTINGS = settings
-    import signal
-    import threading
-
-    signal.signal(signal.SIGINT, signal.SIG_IGN)  # the parent handles Ctrl-C and saves
-    if parent_pid is not None:
-        threading.Thread(target=_end_with_parent, args=(stop, parent_pid), daemon=True,
-                         name="lensmass-parent-watch").start()
-
-
-def _end_with_parent(stop, parent_pid: int) -> None:
-    """A worker's watch: end at once when the parent asks (Ctrl-C, SIGTERM) or is gone (kill -9).
-
-    A killed parent cannot tell its workers anything; a POSIX child then sees another parent in
-    ``os.getppid()`` (init or a subreaper), which is what this looks for, every :data:`PARENT_CHECK_S`.
-    """
-    import os
-
-    import time
-
-    while True:
-        time.sleep(PARENT_CHECK_S)
-        if (stop is not None and stop.value) or os.getppid() != parent_pid:
-            os._exit(1)
-
-
-def _run_chunk(rows) -> list[dict[str, Any]]:
-    return run_rows(rows, _WORKER_SETTINGS)
-
-
 # --- the results file ---------------------------------------------------------------------
 
 
@@ -342,7 +302,14 @@ class BatchOutcome:
 
 def batch_settings(*, cosmology: Any = None, concentration: str | float = "duffy08", halo_definition: str = "200c",
                    samples: int = DEFAULT_SAMPLES, seed: int = DEFAULT_SEED, workers: int = 1) -> dict[str, Any]:
-    """The settings of a run (checked); they must match for a resumed run to keep rows."""
+    """The settings of a run (checked); they must match for a resumed run to keep rows.
+
+    Examples
+    --------
+    >>> s = batch_settings(samples=2000, seed=7)
+    >>> s["samples"], s["seed"], s["concentration"]
+    (2000, 7, 'duffy08')
+    """
     from lensmass.core.cosmology import cosmology_label, resolve_cosmology
 
     from lensmass.core import limits
@@ -410,77 +377,22 @@ def run_batch(manifest, out, *, settings: dict[str, Any] | None = None, workers:
         workers = usable_cores()
     if workers > 1 and len(todo) < 2 * workers and say is not None:
         say(f"{len(todo)} row(s) run in this process: starting {workers} workers would take longer than the rows.")
+    from lensmass.io.batch_workers import chunks_of, run_on_cluster, run_parallel
+
     try:
         if scheduler is not None:
-            _run_on_cluster(todo, settings, scheduler, saver, progress)
+            run_on_cluster(todo, settings, scheduler, saver, progress)
         elif workers == 1 or len(todo) < 2 * workers:
-            for chunk in _chunks(todo, 1):
+            for chunk in chunks_of(todo, 1):
                 recs = run_rows(chunk, settings)
                 saver.add(recs)
                 progress(len(recs))
         else:
-            _run_parallel(todo, settings, int(workers), saver, progress)
+            run_parallel(todo, settings, int(workers), saver, progress)
     finally:
         saver.save()
     failed = sum(1 for r in records.values() if r["error"])
     return BatchOutcome(out, len(records), len(records) - failed, failed, n_resumed)
-
-
-def _run_on_cluster(todo, settings, scheduler, saver, progress) -> None:
-    """Blocks of rows as tasks on a Dask cluster (its workers must see the manifest's files); the same
-    :func:`run_rows` as local workers, so per-row seeds give the same numbers."""
-    from lensmass.io.distributed import connect
-
-    client = connect(scheduler)
-    n_workers = max(1, len(client.scheduler_info().get("workers", {})))
-    futures = client.map(run_rows, _chunks(todo, n_workers), settings=settings, pure=False)
-    try:
-        for fut in futures:  # in order: RESULTS is saved as rows arrive
-            recs = fut.result()
-            saver.add(recs)
-            progress(len(recs))
-    finally:
-        client.cancel(futures)
-        if client is not scheduler:
-            client.close()
-
-
-def _chunks(todo, workers: int) -> list[list]:
-    """Blocks of rows: large enough that one estimate pass per block pays, small enough for progress."""
-    size = max(1, min(100, len(todo) // (workers * 4) or 1))
-    return [todo[i:i + size] for i in range(0, len(todo), size)]
-
-
-def _run_parallel(todo, settings, workers, saver, progress) -> None:
-    import multiprocessing
-    import os
-
-    chunks = _chunks(todo, workers)
-    context = multiprocessing.get_context()
-    # Set when the run ends early: the workers quit at once instead of finishing their rows. A lock-free
-    # shared byte, not an Event: a worker that dies holding an Event's lock would block the parent's set().
-    stop = context.RawValue("b", 0)
-    with ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_init_worker,
-                             initargs=(settings, stop, os.getpid())) as pool:
-        pending = {pool.submit(_run_chunk, c) for c in chunks}
-        try:
-            while pending:
-                done, pending = wait(pending, return_when=FIRST_COMPLETED)
-                for fut in done:
-                    try:
-                        recs = fut.result()
-                    except BrokenProcessPool:
-                        raise LensInputError(
-                            f"A worker process died (out of memory or killed); {saver.path.name} keeps the "
-                            f"{len(saver.records)} rows done: resume the run with fewer `workers` or `samples`."
-                        ) from None
-                    saver.add(recs)
-                    progress(len(recs))
-        except BaseException:
-            for fut in pending:
-                fut.cancel()
-            stop.value = 1
-            raise
 
 
 class _Saver:

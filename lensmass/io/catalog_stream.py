@@ -149,7 +149,8 @@ class CatalogFiles:
         self.block_rows = int(block_rows)
         self.flips = tuple(n for n, f in (("e1", flip_e1), ("e2", flip_e2)) if f)
         formats = [catalog_format(p) if p.suffix else "parquet" for p in self.paths]
-        parts, first = [], 0
+        parts: list = []
+        first = 0
         for path, fmt in zip(self.paths, formats):
             names, n = _file_columns_and_rows(path, fmt)
             if not parts:

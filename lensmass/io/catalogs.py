@@ -174,7 +174,7 @@ def _float_column(table, name: str, role: str) -> np.ndarray:
         raise LensInputError(f"Column '{name}' ({role}) holds arrays per row; map a column of single numbers.")
     try:
         if getattr(col, "mask", None) is not None and np.any(col.mask):
-            data = np.ma.filled(np.ma.asarray(col, dtype=float), np.nan)
+            data: np.ndarray = np.ma.filled(np.ma.asarray(col, dtype=float), np.nan)
         else:
             data = np.asarray(col, dtype=float)
     except (TypeError, ValueError):
@@ -208,6 +208,16 @@ def read_shear_catalog(
     ShearCatalog
         Rows are not filtered here (NaNs stay): :func:`lensmass.core.shear_profile.select_sources`
         drops and counts bad rows.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> path = pathlib.Path(tempfile.mkdtemp()) / "shapes.fits"
+    >>> write_shear_catalog_fits(path, {"ra": np.array([150.0, 150.1]), "dec": np.array([2.0, 2.1]),
+    ...                                 "e1": np.array([0.1, -0.2]), "e2": np.array([0.0, 0.05])})
+    >>> cat = read_shear_catalog(path)
+    >>> cat.e1.tolist(), cat.z is None
+    ([0.1, -0.2], True)
     """
     path = Path(path)
     mapping = parse_column_map(columns) if isinstance(columns, str) or columns is None else dict(columns)

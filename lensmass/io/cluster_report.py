@@ -135,19 +135,19 @@ def render_components_report(path: str | os.PathLike, result: Mapping[str, Any],
 
     fig = Figure(figsize=(11.0, 8.5))
     FigureCanvasAgg(fig)
-    ax = fig.add_axes([0.05, 0.30, 0.42, 0.62])
+    ax = fig.add_axes((0.05, 0.30, 0.42, 0.62))
     draw_components_map(ax, result, background=optical_on_grid(result, optical))
     ax.set_title("Mass (contours: S/N 2, 3, ...), gas (orange), light peaks (violet)", fontsize=8)
     fig.text(0.05, 0.965, f"Where the mass, gas and galaxies are - z_l = {result['z_l']:g}, {result['cosmology']}, "
                           f"centre RA {result['center_ra']:.4f}, Dec {result['center_dec']:.4f}",
              fontsize=11, fontweight="bold")
-    tx = fig.add_axes([0.52, 0.30, 0.46, 0.62])
+    tx = fig.add_axes((0.52, 0.30, 0.46, 0.62))
     tx.axis("off")
     y = 0.98
     tx.text(0, y, "Mass peaks", fontsize=9, fontweight="bold", transform=tx.transAxes)
     for p in result.get("mass_peaks", []):
         y -= 0.045
-        r95 = next((r for r in p["regions"] if r["level"] and abs(r["level"] - 0.95) < 1e-6), {})
+        r95: dict = next((r for r in p["regions"] if r["level"] and abs(r["level"] - 0.95) < 1e-6), {})
         tx.text(0, y, f"M{p['peak']}: RA {p['ra_deg']:.4f} Dec {p['dec_deg']:.4f}  S/N {p['snr']:.1f}  "
                       f"false-peak p {p['false_peak_probability']:.2g}  95% region "
                       f"{_fmt(r95.get('semi_major_arcsec'))}\" x {_fmt(r95.get('semi_minor_arcsec'))}\"",
@@ -208,13 +208,13 @@ def overlay_in_image_pixels(result: Mapping[str, Any], wcs) -> dict[str, list]:
         snr = np.nan_to_num(mp.kappa_e / np.where(mp.noise > 0, mp.noise, np.inf))
         gen = contourpy.contour_generator(centres, centres, snr)
         for level in np.arange(2.0, max(3.0, float(snr.max())) + 1e-9, 1.0):
-            out["mass"] += [to_pixels(line[:, 0], line[:, 1]) for line in gen.lines(level)]
+            out["mass"] += [to_pixels(line[:, 0], line[:, 1]) for line in map(np.asarray, gen.lines(level))]
     gas = (result.get("_second_maps") or {}).get("gas")
     if gas is not None and np.any(np.isfinite(gas.image)):
         img = np.nan_to_num(gas.image)
         gen = contourpy.contour_generator(centres, centres, img)
         for level in float(np.max(img)) * np.array([0.05, 0.1, 0.2, 0.4, 0.7]):
-            out["gas"] += [to_pixels(line[:, 0], line[:, 1]) for line in gen.lines(level)]
+            out["gas"] += [to_pixels(line[:, 0], line[:, 1]) for line in map(np.asarray, gen.lines(level))]
     t = np.linspace(0, 2 * np.pi, 73)
     for p in result.get("mass_peaks", []):
         r95 = next((r for r in p["regions"] if r["level"] and abs(r["level"] - 0.95) < 1e-6), None)

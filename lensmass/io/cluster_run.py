@@ -34,7 +34,7 @@ def run_components(args: Any, *, cosmology: Any = None, center_sky: tuple[float 
     cat = read_shear_catalog(args.catalog, args.columns, need_z=args.zs is None, flip_e1=args.flip_e1,
                              flip_e2=args.flip_e2)
     centre = center_sky
-    kw = {}
+    kw: dict[str, Any] = {}
     if args.xray:
         counts, exposure = read_xray(args.xray, args.exposure)
         kw.update(xray_counts=counts.data, xray_wcs=counts.wcs, xray_exposure=exposure)

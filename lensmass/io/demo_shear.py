@@ -15,6 +15,7 @@ from __future__ import annotations
 import json
 import sys
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -25,7 +26,7 @@ from lensmass.io.atomic import write_text_atomic
 from lensmass.io.catalogs import write_shear_catalog_fits
 
 DEMO_NAME = "tris_cluster_d_shear"
-DEMO_SETUP = {
+DEMO_SETUP: dict[str, Any] = {
     "field": "tris_cluster_d",
     "survey": "Tern Ridge Imaging Survey (TRIS), invented",
     "center_ra": 141.3720,

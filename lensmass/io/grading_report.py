@@ -73,7 +73,8 @@ def grade_class(path: str | Path, cosmo, tolerance: float = DEFAULT_TOLERANCE) -
             if any(v is None for v in lens):
                 absent = [c for c, v in zip(INPUT_COLUMNS, lens) if v is None]
                 raise LensInputError(f"the row has no {', '.join(absent)}")
-            graded = grade_answers(answers, *lens, cosmo, tolerance) if answers else []
+            theta_e, z_l, z_s = lens
+            graded = grade_answers(answers, theta_e, z_l, z_s, cosmo, tolerance) if answers else []
         except (ValueError, LensInputError) as exc:
             reason = in_words(str(exc)).rstrip(".")
             graded = [_ungradable(q, v, f"not graded: {reason}") for q, v in answers.items()]

@@ -267,7 +267,7 @@ def _session_to_dict(s: Session, base_dir) -> dict[str, Any]:
 
     stored, absolute = _image_paths(s.image.path, base_dir)
     if s.cosmology.h0 is not None or s.cosmology.om0 is not None or s.cosmology.ode0 is not None:
-        cosmology = {"h0": s.cosmology.h0, "om0": s.cosmology.om0, "ode0": s.cosmology.ode0}
+        cosmology: dict[str, Any] = {"h0": s.cosmology.h0, "om0": s.cosmology.om0, "ode0": s.cosmology.ode0}
     else:
         cosmology = {"preset": s.cosmology.preset}
     out: dict[str, Any] = dict(s.extra)

@@ -98,7 +98,7 @@ class _Reader:
             return []
         if not isinstance(value, list):
             raise self.fail(where, "a list of [x, y] pairs", value)
-        return [self.pair(p, f"{where}[{i}]") for i, p in enumerate(value)]
+        return [self.pair(p, f"{where}[{i}]") for i, p in enumerate(value)]  # type: ignore[misc]  # never None here
 
 
 def _resolve_image(image: dict, base_dir, r: _Reader) -> str | None:

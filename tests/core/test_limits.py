@@ -48,11 +48,26 @@ def test_sis_velocity_limit_matches_the_sis_formula():
 def test_monte_carlo_in_chunks_gives_the_same_numbers(monkeypatch):
     args = {"theta_e_err": 0.05, "z_l_err": 0.01, "z_s_err": 0.03, "samples": 3000, "seed": 11}
     whole = estimate(1.4, 0.25, 0.9, **args)
-    monkeypatch.setattr(limits, "MC_CHUNK", 700)
+    from lensmass.core import estimate as estimate_module
+
+    monkeypatch.setattr(estimate_module, "DERIVE_BLOCK", 700)
     chunked = estimate(1.4, 0.25, 0.9, **args)
     for key, values in whole["_samples"].items():
         np.testing.assert_array_equal(values, chunked["_samples"][key])
     assert whole["intervals68"] == chunked["intervals68"] and whole["medians"] == chunked["medians"]
+
+
+def test_many_lenses_in_blocks_give_the_same_numbers(monkeypatch):
+    # estimate on arrays derives DERIVE_BLOCK lenses at a time (bounded memory): each number depends on
+    # its own lens only, so blocks of 7 give exactly the numbers of one pass
+    from lensmass.core import estimate as estimate_module
+
+    theta, z_l = np.linspace(0.5, 30.0, 50), np.linspace(0.1, 0.8, 50)
+    whole = estimate(theta, z_l, z_l + 1.0)
+    monkeypatch.setattr(estimate_module, "DERIVE_BLOCK", 7)
+    blocks = estimate(theta, z_l, z_l + 1.0)
+    for key in estimate_module.DERIVED_KEYS:
+        np.testing.assert_array_equal(whole[key], blocks[key])
 
 
 def test_estimate_many_in_groups_gives_the_same_numbers(monkeypatch):
