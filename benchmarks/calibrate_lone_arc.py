@@ -34,15 +34,24 @@ def _seeds(text: str) -> range:
     return range(int(a), int(b))
 
 
-def calibrate(seeds: range) -> None:
+def log_ratios(seeds: range) -> np.ndarray:
+    """ln(theta_E / r_arc) of the lone arcs of these seeds."""
     logs = []
     for s in seeds:
         case = arc_case(s, lone=True)
         r_arc = float(np.median(np.hypot(case.x - case.center[0], case.y - case.center[1])))
         logs.append(np.log(case.theta_e / r_arc))
-    logs = np.array(logs)
+    return np.array(logs)
+
+
+def calibrate(seeds: range, save: str | None = None, merge: list[str] | None = None) -> None:
+    logs = log_ratios(seeds) if seeds else np.empty(0)
+    if save:
+        np.save(save, logs)
+    for path in merge or []:
+        logs = np.r_[logs, np.load(path)]
     q = np.quantile(logs, LONE_ARC_PROBABILITIES)
-    print(f"{logs.size} lone arcs (seeds {seeds.start}-{seeds.stop - 1}): ln(theta_E / r_arc) mean {logs.mean():+.4f}, "
+    print(f"{logs.size} lone arcs: ln(theta_E / r_arc) mean {logs.mean():+.4f}, "
           f"sd {logs.std(ddof=1):.4f}, min {logs.min():+.4f}, max {logs.max():+.4f}")
     print("quantiles at", list(LONE_ARC_PROBABILITIES))
     print("  (" + ", ".join(f"{v:+.4f}" for v in q) + ")")
@@ -67,9 +76,11 @@ def main() -> None:
     parser = argparse.ArgumentParser()
     parser.add_argument("--calibrate", help="seed range a:b")
     parser.add_argument("--check", help="seed range a:b")
+    parser.add_argument("--save", help="keep the calibration's ln ratios in this .npy file (to split a run)")
+    parser.add_argument("--merge", nargs="*", help=".npy files of earlier parts to pool with this one")
     args = parser.parse_args()
-    if args.calibrate:
-        calibrate(_seeds(args.calibrate))
+    if args.calibrate or args.merge:
+        calibrate(_seeds(args.calibrate) if args.calibrate else range(0), args.save, args.merge)
     if args.check:
         check(_seeds(args.check))
 

@@ -526,26 +526,27 @@ def fit_lens_model(
     te_draws = summary["_theta_e_draws"]
     if scale_err > 0:  # the pixel-scale error scales every angle together
         te_draws = te_draws * (1 + np.random.default_rng(seed).normal(0, scale_err / scale, te_draws.size))
-    pt = summary["parameters"]["theta_e_arcsec"]
-    theta = float(np.median(te_draws))
-    theta_err = float(0.5 * (pt["interval68"][1] - pt["interval68"][0]))
+    summary["theta_e_quantiles_arcsec"] = theta_e_quantiles(te_draws)
     if estimate_fn is not None:
-        result = dict(estimate_fn(theta, theta_err, te_draws))
+        theta = float(np.median(te_draws))
+        pt = summary["parameters"]["theta_e_arcsec"]
+        result = dict(estimate_fn(theta, float(0.5 * (pt["interval68"][1] - pt["interval68"][0])), te_draws))
+        result["theta_e_err_arcsec"] = float(0.5 * (pt["interval68"][1] - pt["interval68"][0]))
     elif z_l is not None and z_s_of:
-        from lensmass.core.estimate import estimate
-
-        opts = dict(estimate_options or {})
-        result = dict(estimate(theta, z_l, z_s_of.get(ref_name, next(iter(z_s_of.values()))),
-                               theta_e_draws=te_draws, **opts))
+        result = masses_from_lens_model({"lens_model": summary}, z_l,
+                                        z_s_of.get(ref_name, next(iter(z_s_of.values()))),
+                                        **dict(estimate_options or {}))
     else:
-        result = {"theta_e_arcsec": theta, "notes": [], "models": {}}
+        draws = model_theta_e_draws(summary)
+        i68 = np.percentile(draws, [16, 84])
+        result = {"theta_e_arcsec": float(np.median(draws)), "theta_e_err_arcsec": float(0.5 * (i68[1] - i68[0])),
+                  "notes": [], "models": {}}
         notes.append("No redshifts given: only the lens model and theta_E, no masses or time delays.")
     ra, dec = (None, None)
     if to_sky is not None:
         r_, d_ = to_sky(cxp, cyp)
         ra, dec = float(r_), float(d_)
     result.update({
-        "theta_e_err_arcsec": theta_err,
         "center_x": cxp, "center_y": cyp, "center_ra": ra, "center_dec": dec,
         "method": f"lens model: {MODEL_NAME} fitted to {px.size} marked points ({summary['sampler']} posterior)",
         "n_points": int(px.size),
@@ -570,6 +571,71 @@ def fit_lens_model(
                                  f"(1 + z_l) D_l D_s / (c D_ls) in the {cosmology_label(cosmo)} cosmology; {z_text}")
     result["models"] = models
     return result
+
+
+#: Percent levels at which a result keeps the theta_E posterior (JSON-friendly; the window and sessions
+#: redraw it from these, so every front end carries the same draws into the masses).
+THETA_E_QUANTILE_LEVELS = tuple(np.linspace(0.0, 100.0, 401))
+#: Draws redrawn from the kept quantiles (and their seed): the same numbers in the window and the command line.
+MODEL_DRAWS = 4000
+MODEL_DRAWS_SEED = 1
+
+
+def theta_e_quantiles(draws) -> list[float]:
+    """The theta_E posterior as its quantiles at THETA_E_QUANTILE_LEVELS (arcsec)."""
+    return [float(v) for v in np.percentile(np.asarray(draws, float), THETA_E_QUANTILE_LEVELS)]
+
+
+def model_theta_e_draws(lens_model: Mapping[str, Any], system: str | None = None) -> np.ndarray:
+    """Posterior draws of theta_E (arcsec) of a fitted model (its ``lens_model`` entry), redrawn by inverse-CDF
+    sampling of the kept quantiles; for another ``system`` than the reference, scaled by its D_ls/D_s
+    relative to the reference source (theta_E of an isothermal lens is proportional to D_ls/D_s).
+
+    Examples
+    --------
+    >>> lm = {"theta_e_quantiles_arcsec": list(np.linspace(0.9, 1.1, 401)), "source_scale": {"b": 1.2}}
+    >>> round(float(np.median(model_theta_e_draws(lm, "b"))), 2)
+    1.2
+    """
+    q = np.asarray(lens_model["theta_e_quantiles_arcsec"], float)
+    u = np.random.default_rng(MODEL_DRAWS_SEED).uniform(0.0, 100.0, MODEL_DRAWS)
+    scale = 1.0 if system is None else float((lens_model.get("source_scale") or {}).get(system, 1.0))
+    return np.interp(u, THETA_E_QUANTILE_LEVELS, q) * scale
+
+
+def masses_from_lens_model(result: Mapping[str, Any], z_l, z_s, *, system: str | None = None,
+                           **estimate_options) -> dict[str, Any]:
+    """The mass budget (:func:`lensmass.core.estimate.estimate`) from a fitted lens model's theta_E posterior.
+
+    ``result`` is a :func:`fit_lens_model` result (or one kept in a session); ``system`` picks whose
+    theta_E (scaled by its D_ls/D_s); ``z_l``, ``z_s`` and ``estimate_options`` (errors, cosmology,
+    samples, seed, ...) as for ``estimate``. The result's ``models`` and ``notes`` say which model and
+    priors gave theta_E. The window's Mass budget, ``lensmass model`` and :func:`fit_lens_model` all
+    call this, so they give the same numbers for the same inputs.
+    """
+    from lensmass.core.estimate import estimate
+
+    lm = result["lens_model"]
+    draws = model_theta_e_draws(lm, system)
+    out = dict(estimate(float(np.median(draws)), z_l, z_s, theta_e_draws=draws, **estimate_options))
+    i68 = np.percentile(draws, [16, 84])
+    out["theta_e_err_arcsec"] = float(0.5 * (i68[1] - i68[0]))
+    out["theta_e_from"] = "lens model"
+    ref = lm.get("reference_system")
+    scaled = system is not None and ref is not None and system != ref and \
+        float((lm.get("source_scale") or {}).get(system, 1.0)) != 1.0
+    models = dict(out.get("models") or {})
+    models["theta_e_arcsec"] = (f"{lm.get('model', MODEL_NAME)} fitted to the marks; "
+                                f"{lm.get('theta_e_convention', THETA_E_CONVENTION)}; median of the posterior, whose "
+                                "draws carry into every mass below"
+                                + (f"; scaled from system {ref} by this source's D_ls/D_s" if scaled else ""))
+    models["lens_model"] = ("SIE (Kormann, Schneider & Bartelmann 1994) + external shear; priors: "
+                            + "; ".join(lm.get("priors") or []))
+    out["models"] = models
+    out["notes"] = [f"theta_E from the lens model ({lm.get('model', MODEL_NAME)}, {lm.get('sampler', '')} posterior), "
+                    "not from a circle through the marks; see 'models' for its assumptions."] \
+        + list(out.get("notes") or [])
+    return out
 
 
 def chi2_text(summary: Mapping[str, Any]) -> str:
@@ -597,4 +663,4 @@ def model_curves(summary: Mapping[str, Any], n: int = 721) -> dict[str, tuple[np
 
 
 __all__ = ["DEFAULT_POINT_ERR_PIX", "MODEL_NAME", "fit_lens_model", "fit_lens_model_arcsec", "lone_arc_theta_e_draws",
-           "model_curves", "summarize_fit"]
+           "masses_from_lens_model", "model_curves", "model_theta_e_draws", "summarize_fit", "theta_e_quantiles"]

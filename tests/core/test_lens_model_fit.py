@@ -142,6 +142,35 @@ def test_delay_intervals_widen_with_redshift_errors_and_say_so():
     assert "exact" in exact["models"]["time_delays"]
 
 
+def test_the_mass_budget_from_a_kept_model_is_the_fits_own():
+    # the window's Mass budget redraws theta_E from the quantiles a result keeps (also after a JSON round trip);
+    # with the same redshifts and options it gives the fit's own masses, and M(<theta_E) = (c^2/4G) D_l D_s/D_ls
+    # theta_E^2 (Narayan & Bartelmann 1996) of the median theta_E, from astropy, within the draws' scatter
+    import json
+
+    import astropy.constants as const
+
+    from lensmass.core.lens_model import masses_from_lens_model
+    from lensmass.io.jsonout import to_jsonable
+
+    lens = SIEShear(1.1, 0.7, 0.5, 0.0, 0.0, 0.03, -0.01)
+    im = find_images(lens, 0.04, -0.02)
+    opts = {"samples": 2000, "seed": 5, "z_l_err": 0.02}
+    r = fit_lens_model(100 - im.x / PIXEL_ARCSEC, 100 + im.y / PIXEL_ARCSEC, pixel_scale_arcsec=PIXEL_ARCSEC,
+                       center=(100, 100), z_l=0.35, z_s=1.8, estimate_options=opts, draws=1000)
+    kept = json.loads(json.dumps(to_jsonable(r)))
+    again = masses_from_lens_model(kept, 0.35, 1.8, **opts)
+    assert again["theta_e_arcsec"] == r["theta_e_arcsec"]
+    assert again["mass_einstein_msun"] == pytest.approx(r["mass_einstein_msun"], rel=1e-12)
+    assert again["intervals68"]["mass_einstein_msun"] == pytest.approx(r["intervals68"]["mass_einstein_msun"])
+    assert "SIE" in again["models"]["theta_e_arcsec"] and "lens model" in again["notes"][0]
+    d = Planck18.angular_diameter_distance(0.35) * Planck18.angular_diameter_distance(1.8) \
+        / Planck18.angular_diameter_distance(0.35, 1.8)
+    theta = (r["theta_e_arcsec"] * u.arcsec).to(u.rad).value
+    assert r["mass_einstein_msun"] == pytest.approx((const.c**2 / (4 * const.G) * d * theta**2).to(u.Msun).value,
+                                                    rel=0.03)
+
+
 def test_estimate_carries_the_theta_e_draws_into_the_mass():
     # M(<theta_E) = (c^2/4G) D_l D_s / D_ls theta_E^2 (Narayan & Bartelmann 1996) is monotonic in theta_E, so its
     # percentiles are those of the draws pushed through it (astropy distances and constants)
