@@ -145,6 +145,7 @@ class ResultsPanel(QWidget):
                             + ("; theta_E from the lens model" if result.get("theta_e_from") == "lens model"
                                else "; theta_E from the circle fit"))
         self.status.setStyleSheet("")
-        warns = list(fit.warnings) if fit is not None else []
+        from_model = result.get("theta_e_from") == "lens model"
+        warns = list(fit.warnings) if fit is not None and not from_model else []  # the circle's caveats
         self.notes.setText("\n".join("• " + t for t in warns + list(result.get("notes") or [])))
         self.copy_button.setEnabled(True)

@@ -88,6 +88,7 @@ def test_fit_the_demo_double_undo_and_save(make_window, qtbot, tmp_path):
     assert rp.values["theta_e_arcsec"].text() == format_number(panel.model_result["theta_e_arcsec"])
     assert rp.values["mass_einstein_msun"].text() == format_number(panel.model_result["mass_einstein_msun"])
     assert "lens model" in rp.notes.text() and "SIE" in rp.values["theta_e_arcsec"].toolTip()
+    assert "Fit the lens model for more" not in rp.notes.text()  # the circle fit's caveat no longer applies
     # the exported report carries the model (its parameters and delays as notes of the page)
     from lensmass.io import report
 
