@@ -1,6 +1,7 @@
 """The theta_E range of a lone arc (an arc marked without its counter-image): calibration and check.
 
-    python benchmarks/calibrate_lone_arc.py --calibrate 3000:3400   # quantiles of ln(theta_E / r_arc)
+    python benchmarks/calibrate_lone_arc.py --calibrate 3000:3700 --save a.npy   # quantiles of ln(theta_E / r_arc)
+    python benchmarks/calibrate_lone_arc.py --calibrate 3700:4400 --merge a.npy   # (the table: both halves)
     python benchmarks/calibrate_lone_arc.py --check 5000:5200       # coverage of the stated range on other seeds
 
 A lone arc lies outside the critical curve by the unknown offset of its source (or straddles it), so its
