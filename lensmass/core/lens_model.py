@@ -528,11 +528,12 @@ def fit_lens_model(
     if scale_err > 0:  # the pixel-scale error scales every angle together
         te_draws = te_draws * (1 + np.random.default_rng(seed).normal(0, scale_err / scale, te_draws.size))
     summary["theta_e_quantiles_arcsec"] = theta_e_quantiles(te_draws)
-    if estimate_fn is not None:
-        theta = float(np.median(te_draws))
-        pt = summary["parameters"]["theta_e_arcsec"]
-        result = dict(estimate_fn(theta, float(0.5 * (pt["interval68"][1] - pt["interval68"][0])), te_draws))
-        result["theta_e_err_arcsec"] = float(0.5 * (pt["interval68"][1] - pt["interval68"][0]))
+    if estimate_fn is not None:  # the same theta_E draws as masses_from_lens_model (the window's budget)
+        draws = model_theta_e_draws(summary)
+        i68 = np.percentile(draws, [16, 84])
+        result = dict(estimate_fn(float(np.median(draws)), float(0.5 * (i68[1] - i68[0])), draws))
+        result["theta_e_err_arcsec"] = float(0.5 * (i68[1] - i68[0]))
+        result["theta_e_from"] = "lens model"
     elif z_l is not None and z_s_of:
         result = masses_from_lens_model({"lens_model": summary}, z_l,
                                         z_s_of.get(ref_name, next(iter(z_s_of.values()))),
