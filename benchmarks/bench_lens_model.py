@@ -78,7 +78,7 @@ def sweep(kind: str, n: int, start: int = 0) -> None:
         elif kind == "arc":
             case = arc_case(2000 + k)
         else:
-            case = arc_case(5000 + k, lone=True)  # not the seeds (3000+) the lone-arc spread was set on
+            case = arc_case(5000 + k, lone=True)  # not the seeds (3000-4399) the lone-arc spread was set on
         t0 = time.process_time()
         fit, summary = fit_lens_model_arcsec(case.x, case.y, case.system, case.kind,
                                              point_err_arcsec=PIXEL_ARCSEC, center=case.center, draws=2000,

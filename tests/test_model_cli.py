@@ -37,6 +37,21 @@ def test_model_json_has_parameters_images_delays_and_masses(tmp_path, capsys):
     assert "lens model" in r["models"]["theta_e_arcsec"] or "SIE" in r["models"]["theta_e_arcsec"]
 
 
+def test_model_cli_gives_the_python_masses_and_carries_z_errors_into_delays(tmp_path, capsys):
+    # one code path: the command line's masses equal lensmass.core.lens_model.masses_from_lens_model on its own
+    # result with the same options; --zl-err/--zs-err reach the delays (D_dt = (1 + z_l) D_l D_s / D_ls)
+    from lensmass.core.lens_model import masses_from_lens_model
+
+    p = _points(tmp_path, _quad_rows())
+    assert main(["model", "--points", str(p), "--pixel-scale", "0.05", "--center", "80,80", "--zl", "0.3",
+                 "--zl-err", "0.03", "--zs", "1.4", "--zs-err", "0.1", "--samples", "500", "--seed", "4",
+                 "--draws", "1000", "--json"]) == 0
+    r = json.loads(capsys.readouterr().out)
+    again = masses_from_lens_model(r, 0.3, 1.4, z_l_err=0.03, z_s_err=0.1, samples=500, seed=4)
+    assert again["mass_einstein_msun"] == r["mass_einstein_msun"]
+    assert "propagated" in r["models"]["time_delays"]
+
+
 def test_model_table_and_bad_kind(tmp_path, capsys):
     p = _points(tmp_path, _quad_rows())
     assert main(["model", "--points", str(p), "--pixel-scale", "0.05", "--center", "80,80", "--zl", "0.3",

@@ -127,7 +127,9 @@ def model_from_args(args: argparse.Namespace) -> dict:
                             light_axis_ratio=light_q, light_position_angle_deg=light_pa,
                             light_axis_ratio_err=args.light_shape_err, z_l=args.zl,
                             z_s=z_map if z_map is not None else z_s,
-                            estimate_options={"cosmology": _cosmology(args)}, estimate_fn=run_estimate,
+                            estimate_options={"cosmology": _cosmology(args), "z_l_err": args.zl_err,
+                                              "z_s_err": args.zs_err},
+                            estimate_fn=run_estimate,
                             draws=args.draws, method=args.sampler, seed=args.seed)
     return result
 

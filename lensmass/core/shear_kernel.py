@@ -12,6 +12,8 @@ from __future__ import annotations
 
 import math
 
+from typing import Any
+
 import numba
 import numpy as np
 
@@ -23,7 +25,7 @@ from lensmass.core.shear_geometry import _ARCTAN_SERIES, _TAN_SERIES, SERIES_MAX
 KERNEL_KEYS = ("n", "w", "wtheta", "st", "sx", "s2", "s2t", "s2x", "s2ee", "wbeta", "wbeta2",
                "d", "dt", "dx", "d2", "d2t", "d2x", "d2ee")
 
-_JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
+_JIT: dict[str, Any] = {"cache": True, "nogil": True, "error_model": "numpy"}
 _M32 = np.uint64(0xFFFFFFFF)
 _WEYL = np.uint64(0x9E3779B9)
 _FMIX1 = np.uint64(0x85EBCA6B)

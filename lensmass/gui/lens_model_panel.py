@@ -87,6 +87,7 @@ def fit_request(app_model, texts: dict) -> dict:
     if session.z_l is not None and z_s:
         first = next(i for i, a in enumerate(session.arcs) if a.name in z_s)
         kwargs = session.estimate_kwargs(first)
+        kwargs["samples"] = int(app_model.mc_samples)  # as the Mass budget's estimate (the same draws)
     return {
         "x": x, "y": y, "system": system, "kind": kind, "z_s": z_s or None, "z_l": session.z_l,
         "image": app_model.image.loaded, "point_err_pix": _number(texts, "click_err", positive=True, default=0.5),
@@ -94,7 +95,7 @@ def fit_request(app_model, texts: dict) -> dict:
         "center_err_pix": _number(texts, "centre_err", positive=True),
         "light_axis_ratio": light_q, "light_position_angle_deg": light_pa,
         "estimate_options": {k: kwargs[k] for k in ("cosmology", "concentration", "halo_definition", "z_l_err",
-                                                     "samples", "seed") if k in kwargs},
+                                                     "z_s_err", "samples", "seed") if k in kwargs},
     }
 
 
@@ -114,7 +115,7 @@ def stored_result(result: dict) -> dict:
 
     keep = ("theta_e_arcsec", "theta_e_err_arcsec", "mass_einstein_msun", "sis_sigma_v_kms", "r_e_kpc",
             "medians", "intervals68", "intervals95", "center_x", "center_y", "method", "notes", "models",
-            "lens_model", "cosmology", "z_l", "z_s")
+            "lens_model", "cosmology", "z_l", "z_s", "points_xy")
     return to_jsonable({k: result[k] for k in keep if k in result})
 
 
@@ -312,6 +313,9 @@ class LensModelPanel(QWidget):
         from lensmass.core.lens_model import model_curves
 
         self.model_result = copy.deepcopy(result)
+        self.app_model.lens_model = self.model_result  # the Mass budget uses it while the marks are unchanged
+        if hasattr(self.window, "request_estimate"):
+            self.window.request_estimate()
         if result is None:
             self.curves = None
             self.table.setText("")

@@ -94,3 +94,19 @@ def snap_to_ridge(image: ImageState, x: float, y: float,
     if not out.ok:
         return (x, y), out.warning or "No arc ridge near the click: the point stays where it was clicked."
     return (float(out.x), float(out.y)), out.warning
+
+
+def masses_for_request(theta: float, theta_err: float, kwargs: dict) -> dict:
+    """The Mass budget of one system from :meth:`WindowModel.estimate_request`'s answer: the lens model's
+    theta_E posterior through :func:`lensmass.core.lens_model.masses_from_lens_model` when the request
+    carries a current model, else :func:`lensmass.core.estimate.estimate` of the circle fit."""
+    kwargs = dict(kwargs)
+    model = kwargs.pop("lens_model_result", None)
+    system = kwargs.pop("lens_model_system", None)
+    note = kwargs.pop("lens_model_note", None)
+    if model is not None:
+        return _core("lens_model", "The lens model").masses_from_lens_model(model, system=system, **kwargs)
+    result = _core("estimate", "Estimating masses").estimate(theta, theta_e_err=theta_err, **kwargs)
+    if note:
+        result["notes"] = [note] + list(result.get("notes") or [])
+    return result

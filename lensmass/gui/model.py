@@ -134,6 +134,9 @@ class WindowModel:
         self.texts["z_l_err"] = self.texts["z_s_err"] = "0"
         self.validation: dict[str, str] = {}
         self.derived: list[SystemState] = []
+        #: The last lens-model fit (the Lens model dock's result), or None: the Mass budget uses its theta_E
+        #: while the marks are the ones it was fitted to.
+        self.lens_model: dict | None = None
         self.dirty = False
         self._muted = 0
         self._pending: list[str] = []
@@ -431,7 +434,8 @@ class WindowModel:
         d = self.derived[index]
         if self.image is None:
             raise LensInputError("No image is open: open one (File > Open) and mark the arc.")
-        if d.fit is None:
+        use_model = self.lens_model_for(index) is not None
+        if d.fit is None and not use_model:
             raise LensInputError(d.fit_problem or "Mark at least three arc points (or two images) to measure theta_E.")
         for key in ("z_l", "z_l_err", "h0", "om0", "ode0", "concentration_value"):
             if key in self.validation:
@@ -442,7 +446,28 @@ class WindowModel:
                     raise LensInputError(self.validation[key])
         kwargs = self.session.estimate_kwargs(index)
         kwargs["samples"] = int(self.mc_samples)
+        if use_model:  # the lens model's theta_E posterior (lensmass.core.lens_model.masses_from_lens_model)
+            kwargs["lens_model_result"] = self.lens_model
+            kwargs["lens_model_system"] = self.session.arcs[index].name
+            lm = self.lens_model["lens_model"]
+            return float(lm["parameters"]["theta_e_arcsec"]["median"]), float("nan"), kwargs
+        if self.lens_model is not None:
+            kwargs["lens_model_note"] = ("A lens model was fitted to other marks than these: theta_E here is the "
+                                         "circle fit again; refit the lens model (Lens model dock) to use it.")
         return d.fit.theta_e_arcsec, d.fit.theta_e_err_arcsec, kwargs
+
+    def lens_model_for(self, index: int) -> dict | None:
+        """The lens model if it was fitted to exactly the current marks and includes system ``index``, else None."""
+        lm = self.lens_model
+        if lm is None or index >= len(self.session.arcs):
+            return None
+        marks = [p for arc in self.session.arcs for p in list(arc.images) + list(arc.points)]
+        fitted = lm.get("points_xy") or []
+        if len(marks) != len(fitted) or not np.allclose(np.asarray(marks, float).reshape(-1, 2),
+                                                          np.asarray(fitted, float).reshape(-1, 2), atol=1e-6):
+            return None
+        name = self.session.arcs[index].name
+        return lm if name in (lm["lens_model"].get("sources") or {}) else None
 
     # ---------------------------------------------------------------- session
     def to_session(self) -> Session:

@@ -35,7 +35,10 @@ def result_text(model: WindowModel) -> str:
     head = [f"lensmass estimate for arc system {model.active_system.name}"]
     if model.image is not None:
         head.append(f"image: {model.image.path}")
-    if fit is not None:
+    if result.get("theta_e_from") == "lens model":
+        head.append(f"theta_E = {result['theta_e_arcsec']:.4g} +- {result['theta_e_err_arcsec']:.2g} arcsec from the "
+                    "lens model (see 'models')")
+    elif fit is not None:
         head.append(f"theta_E = {fit.theta_e_arcsec:.4g} +- {fit.theta_e_err_arcsec:.2g} arcsec from a {fit.method}")
     models = result.get("models") or {}
     tail = ["", "models:"] + [f"  {k}: {v}" for k, v in models.items()]
@@ -132,14 +135,17 @@ class ResultsPanel(QWidget):
             self.values[key].setText(format_number(result.get(key, float("nan"))))
             self.intervals[key].setText(interval_text(result, key))
             tip = models.get(key, "")
-            if key == "theta_e_arcsec" and fit is not None:
+            if key == "theta_e_arcsec" and fit is not None and result.get("theta_e_from") != "lens model":
                 tip = f"{fit.method}; {fit.n_points} marks; pixel scale from the image"
             self.names[key].setToolTip(tip)
             self.values[key].setToolTip(tip)
         n = result.get("mc_samples")
         self.status.setText(f"System {m.active_system.name}: {result.get('cosmology', '')}"
-                            + (f", {n} Monte Carlo draws" if n else ", no uncertainties given"))
+                            + (f", {n} Monte Carlo draws" if n else ", no uncertainties given")
+                            + ("; theta_E from the lens model" if result.get("theta_e_from") == "lens model"
+                               else "; theta_E from the circle fit"))
         self.status.setStyleSheet("")
-        warns = list(fit.warnings) if fit is not None else []
+        from_model = result.get("theta_e_from") == "lens model"
+        warns = list(fit.warnings) if fit is not None and not from_model else []  # the circle's caveats
         self.notes.setText("\n".join("• " + t for t in warns + list(result.get("notes") or [])))
         self.copy_button.setEnabled(True)

@@ -54,7 +54,7 @@ class WindowTasksMixin:
         self._estimating = True
 
         def work(progress, should_stop):
-            from lensmass.core.estimate import estimate
+            from lensmass.gui.measuring import masses_for_request
 
             out = []
             for n, (i, gen, theta, err, kwargs) in enumerate(jobs):
@@ -62,7 +62,7 @@ class WindowTasksMixin:
                     break
                 progress(n / len(jobs), f"system {m.systems[i].name}" if i < len(m.systems) else "")
                 try:
-                    out.append((i, gen, estimate(theta, theta_e_err=err, **kwargs), None))
+                    out.append((i, gen, masses_for_request(theta, err, kwargs), None))
                 except LensInputError as exc:
                     out.append((i, gen, None, str(exc)))
             progress(1.0)

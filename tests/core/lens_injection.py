@@ -33,6 +33,9 @@ class Case:
     q: float
     center: tuple[float, float, float]
     lenses: list
+    source: tuple[float, float] | None = None  # the true source of a point case (arcsec)
+    true_x: np.ndarray | None = None  # the unclicked image positions of a point case
+    true_y: np.ndarray | None = None
 
 
 def random_lens(rng):
@@ -74,7 +77,9 @@ def point_case(seed: int, n_images: int, click_pix: float = 1.0) -> Case:
                 x, y = _clicks(rng, [f[0] for f in found], [f[1] for f in found], click_pix)
                 cx, cy = rng.normal(0, click_pix * PIXEL_ARCSEC, 2)
                 return Case(x, y, np.full(n_images, "A"), np.full(n_images, "image"), te, q,
-                            (float(cx), float(cy), click_pix * PIXEL_ARCSEC), lenses)
+                            (float(cx), float(cy), click_pix * PIXEL_ARCSEC), lenses,
+                            (float(r * np.cos(t)), float(r * np.sin(t))),
+                            np.array([f[0] for f in found]), np.array([f[1] for f in found]))
 
 
 def arc_case(seed: int, lone: bool = False, click_pix: float = 1.0, max_points: int = 30) -> Case:

@@ -209,6 +209,35 @@ def test_sis_time_delay_closed_form():
     assert days > 0  # the saddle-point image B arrives after the minimum A
 
 
+def test_sis_delay_interval_carries_the_redshift_errors():
+    # The SIS closed form Delta t_AB = (1 + z_l)/(2c) (D_l D_s / D_ls)(theta_A^2 - theta_B^2) (Narayan & Bartelmann
+    # 1996; /work/shared/REFERENCES.md) evaluated by astropy on independently drawn Gaussian redshifts gives the
+    # interval the delay must have when only the redshifts are uncertain.
+    from lensmass.core.time_delay import delay_draws_days
+
+    cosmo = FlatLambdaCDM(H0=70, Om0=0.3)
+    z_l, z_s, z_l_err, z_s_err, theta_e, beta = 0.5, 2.0, 0.05, 0.2, 1.2, 0.3
+    lens = SIEShear(theta_e)
+    im = find_images(lens, beta, 0.0)
+    a, b = np.argmax(im.x), np.argmin(im.x)
+    tau = fermat_potential(lens, im.x, im.y, beta, 0.0)
+    days = delay_draws_days(np.full(50, tau[b] - tau[a]), z_l, z_s, cosmo, z_l_err=z_l_err, z_s_err=z_s_err,
+                            n=4000, seed=3)
+    rng = np.random.default_rng(11)
+    zl = rng.normal(z_l, z_l_err, 4000)
+    zs = rng.normal(z_s, z_s_err, 4000)
+    d_l = cosmo.angular_diameter_distance(zl)
+    d_s = cosmo.angular_diameter_distance(zs)
+    d_ls = cosmo.angular_diameter_distance(zl, zs)
+    ta, tb = (np.abs(im.x[[a, b]]) * u.arcsec).to(u.rad).value
+    expected = ((1 + zl) / (2 * const.c) * d_l * d_s / d_ls * (ta**2 - tb**2)).to(u.day).value
+    # percentiles of two independent 4000-draw samples agree to a few per cent of the spread
+    width = np.percentile(expected, 84) - np.percentile(expected, 16)
+    np.testing.assert_allclose(np.percentile(days, [2.5, 16, 50, 84, 97.5]),
+                               np.percentile(expected, [2.5, 16, 50, 84, 97.5]), atol=0.1 * width)
+    assert width > 0.05 * np.median(expected)  # the redshift errors do widen the delay
+
+
 def test_position_angle_convention():
     # x east, y north: a major axis along +y (north) has PA 0; along +x (east) PA 90 (common practice: PA east of north)
     assert float(position_angle_deg(np.pi / 2)) == pytest.approx(0.0)

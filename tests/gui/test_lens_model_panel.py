@@ -78,6 +78,17 @@ def test_fit_the_demo_double_undo_and_save(make_window, qtbot, tmp_path):
     assert (delay > 0) == (d[0] > d[1])
     # the critical curve is drawn over the image
     assert _has_colour(w.canvas.grab().toImage(), CRITICAL_COLOUR)
+    # the main Mass budget now uses the model's theta_E and its posterior, and says so; its numbers are the
+    # model's own (one code path: lensmass.core.lens_model.masses_from_lens_model)
+    from lensmass.core.result_text import format_number
+
+    wait_idle(qtbot, w, timeout=120000)
+    rp = w.results_panel
+    qtbot.waitUntil(lambda: "lens model" in rp.status.text(), timeout=60000)
+    assert rp.values["theta_e_arcsec"].text() == format_number(panel.model_result["theta_e_arcsec"])
+    assert rp.values["mass_einstein_msun"].text() == format_number(panel.model_result["mass_einstein_msun"])
+    assert "lens model" in rp.notes.text() and "SIE" in rp.values["theta_e_arcsec"].toolTip()
+    assert "Fit the lens model for more" not in rp.notes.text()  # the circle fit's caveat no longer applies
     # the exported report carries the model (its parameters and delays as notes of the page)
     from lensmass.io import report
 
@@ -98,6 +109,7 @@ def test_fit_the_demo_double_undo_and_save(make_window, qtbot, tmp_path):
     # undo removes the model, redo brings it back (one step each)
     qtbot.keyClick(w, Qt.Key_Z, Qt.ControlModifier)
     assert panel.model_result is None
+    qtbot.waitUntil(lambda: "circle fit" in rp.status.text(), timeout=60000)  # back to the circle fit
     assert not _has_colour(w.canvas.grab().toImage(), CRITICAL_COLOUR)
     qtbot.keyClick(w, Qt.Key_Z, Qt.ControlModifier | Qt.ShiftModifier)
     assert panel.model_result is not None
