@@ -8,8 +8,9 @@ bend to follow a narrow ring, and the soft-L1 loss (scipy ``least_squares``)
 keeps the bright arc pixels from pulling the fit (pixels well above the model are
 then left out and the fit repeated). The model is blurred by a Gaussian PSF whose width
 is fitted too (the seeing is rarely known exactly). The
-central pixel is left out of the fit (a cuspy profile sampled at pixel centres is
-poor there), so the residual inside about one pixel of the centre is not meaningful.
+pixels within a few pixels of the centre are integrated over their area (a cusp changes by
+tens of per cent across one pixel); the central pixel is still left out of the fit, so the
+residual inside about one pixel of the centre is not meaningful.
 
 References
 ----------
@@ -42,9 +43,10 @@ CORE_SUBSAMPLE = 4
 #: Rounds of leaving out positive outliers (arcs), and evaluations per least-squares run.
 CLIP_ROUNDS = 2
 MAX_NFEV = 50
-#: Use :func:`blurred_sersic_jacobian` in the fit (the ring finder's errors were calibrated with it;
-#: with finite differences three demo ring tests move by 3%). Known weak spot: a bright galaxy with no
-#: seeing blur (R_e 6 px, peak 1e5 sigma) stops at R_e = 1.9 px with it, as finite differences do not.
+#: Use :func:`blurred_sersic_jacobian` in the fit (the ring finder's errors were calibrated with it). A
+#: bright galaxy with no seeing blur (R_e 6 px, peak 1e5 sigma) once stopped at R_e = 1.9 px: the step
+#: tolerance was relative to a parameter vector holding the absolute centre and a wandering angle, and the
+#: PSF-width column was a Laplacian (wrong under a pixel); tests/core/test_lens_light_fit.py keeps it fixed.
 ANALYTIC_JACOBIAN = True
 #: The fitted centre may move this far (pixels) from the starting centre in either coordinate.
 CENTER_RANGE_PIX = 3.0
