@@ -5,7 +5,7 @@ from __future__ import annotations
 SHORTCUTS = [
     ("Ctrl+O", "open an image or session"),
     ("Ctrl+S / Ctrl+Shift+S", "save the session / save as"),
-    ("Ctrl+Z / Ctrl+Shift+Z", "undo / redo any edit"),
+    ("Ctrl+Z / Ctrl+Shift+Z or Ctrl+Y", "undo / redo any edit"),
     ("A", "tool: add arc points"),
     ("I", "tool: mark images of a multiple-image system"),
     ("C", "tool: set the lens centre"),

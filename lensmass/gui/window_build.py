@@ -30,6 +30,7 @@ from lensmass.gui.display import COLORMAPS, LIMITS, STRETCHES
 from lensmass.gui.inputs_panel import InputsPanel
 from lensmass.gui.plots_panel import PlotsPanel
 from lensmass.gui.results_panel import ResultsPanel
+from lensmass.gui.undo_actions import UndoActions
 from lensmass.gui.window_common import LAYERS, TOOLS, _scrolling
 
 
@@ -231,12 +232,8 @@ class WindowBuildMixin:
         self.act_results = A("Export results (JSON/ECSV)...", self.export_results_dialog,
                              QKeySequence("Ctrl+Shift+E"), "Every number, interval and model of every arc system.")
         self.act_quit = A("&Quit", self.close, QKeySequence.Quit)
-        self.act_undo = self.undo_stack.createUndoAction(self, "&Undo")
-        self.act_undo.setShortcut(QKeySequence.Undo)
-        self.act_redo = self.undo_stack.createRedoAction(self, "&Redo")
-        self.act_redo.setShortcuts([QKeySequence.Redo, QKeySequence("Ctrl+Shift+Z")])
-        self.addAction(self.act_undo)
-        self.addAction(self.act_redo)
+        self.undo_actions = UndoActions(self.undo_stack, self)
+        self.act_undo, self.act_redo = self.undo_actions.menu_undo, self.undo_actions.menu_redo
         self.act_delete_last = A("Delete last mark", self.delete_last_mark, QKeySequence(Qt.Key_Backspace),
                                  "Delete the most recent mark of the selected system.")
         self.act_copy = A("Copy results as text", self.copy_results, QKeySequence("Ctrl+Shift+C"))
@@ -301,7 +298,8 @@ class WindowBuildMixin:
         tb.setObjectName("quick_bar")
         tb.setMovable(False)
         tb.setToolButtonStyle(Qt.ToolButtonTextOnly)
-        for a in (self.act_open, self.act_save, self.act_undo, self.act_redo, self.act_ring, self.act_report):
+        for a in (self.act_open, self.act_save, self.undo_actions.bar_undo, self.undo_actions.bar_redo, self.act_ring,
+                  self.act_report):
             tb.addAction(a)
         self._rebuild_recent_menu()
 
