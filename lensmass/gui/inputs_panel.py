@@ -58,6 +58,8 @@ class ValidatedField(QWidget):
         self.edit.setObjectName(f"field_{key}")
         self.edit.setPlaceholderText(placeholder)
         self.edit.setToolTip(TOOLTIPS.get(key, ""))
+        # the red border of a problem must not change the field's height (it would leave its row)
+        self.edit.setFixedHeight(self.edit.sizeHint().height())
         self.problem = QLabel()
         self.problem.setObjectName(f"problem_{key}")
         self.problem.setWordWrap(True)
