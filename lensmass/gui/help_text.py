@@ -18,6 +18,7 @@ SHORTCUTS = [
     ("+ / -", "zoom in / out (or the mouse wheel, around the cursor)"),
     ("L", "cycle image / lens-light model / residual"),
     ("Ctrl+Shift+C", "copy the results as text"),
+    ("P", "copy the RA, Dec under the cursor (right-click the read-out for degrees or pixels)"),
     ("Ctrl+E / Ctrl+Shift+E", "export the report (PDF/PNG) / the results (JSON/ECSV)"),
     ("F1", "this page"),
 ]
