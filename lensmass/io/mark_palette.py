@@ -26,12 +26,13 @@ from __future__ import annotations
 
 import math
 
-#: Arc-system colours in order: amber, rose, sky, lime, lilac, bone.
-SYSTEM_COLOURS = ("#ffb000", "#ff6fb0", "#5cc8ff", "#b4e65a", "#c8a0ff", "#f5f0e1")
-#: The lens centre (vermilion: apart from every system colour).
-CENTRE_COLOUR = "#ff5a36"
+#: Arc-system colours in order: amber, pink, sky, lime, periwinkle, mint. All light (relative luminance
+#: above 0.46), so that on every background either the core or the casing stands out by 3:1.
+SYSTEM_COLOURS = ("#ffb000", "#ff99cc", "#5cc8ff", "#b4e65a", "#b7b0ff", "#7fe3c4")
+#: The lens centre: white, apart from every system colour.
+CENTRE_COLOUR = "#ffffff"
 #: The dark casing under every stroke, and its opacity (0-1).
-CASING_COLOUR, CASING_ALPHA = "#0d1017", 0.8
+CASING_COLOUR, CASING_ALPHA = "#0d1017", 0.9
 #: Ink of the text on a system's label tab.
 TAB_INK = "#0d1017"
 #: Stroke widths on screen (pixels) and in the report (points): core and casing.
