@@ -12,7 +12,6 @@ Outside sources:
 """
 
 import itertools
-import math
 
 import numpy as np
 import pytest
@@ -80,18 +79,13 @@ def test_system_colours_and_the_centre_are_plainly_different():
 
 
 def test_every_glyph_leaves_the_marked_point_open_and_kinds_differ():
-    def distance_to_segment(p0, p1) -> float:
-        (x0, y0), (x1, y1) = p0, p1
-        dx, dy = x1 - x0, y1 - y0
-        t = max(0.0, min(1.0, -(x0 * dx + y0 * dy) / (dx * dx + dy * dy)))
-        return math.hypot(x0 + t * dx, y0 + t * dy)
-
     shapes = {}
     for kind, lines in P.GLYPHS.items():
-        nearest = min(distance_to_segment(a, b) for line in lines for a, b in zip(line, line[1:]))
-        assert nearest >= 0.35, kind  # a third of the glyph's radius is left clear round the point
+        assert P.inner_radius(kind) >= 0.45, kind  # nearly half the glyph's radius is clear round the point
         shapes[kind] = sorted(tuple(round(v, 6) for xy in line for v in xy) for line in lines)
     assert len({str(s) for s in shapes.values()}) == len(shapes)
+    # on screen: at least 2 px clear round the point, the casing included
+    assert P.open_radius_px() >= 2.0
 
 
 def test_tab_ink_is_the_more_legible_of_dark_and_white():

@@ -92,6 +92,7 @@ class ImageCanvas(QWidget):
         self.marks: list[Mark] = []
         self.fits: list[FitShape] = []
         self.system_names: dict[int, str] = {}  # arc system index -> name, for the labels
+        self.label_rects: dict[int, QRectF] = {}  # where each system's fit label was last painted
         self._layers: dict[str, Callable] = {}
         self._claim: tuple[str, Callable[[float, float], None], str] | None = None
         self._press: QPointF | None = None

@@ -20,6 +20,10 @@ if TYPE_CHECKING:
     from lensmass.gui.canvas import FitShape, ImageCanvas, Mark
 
 
+#: Screen radius left open around each marked point (inside every glyph and its casing).
+OPEN_RADIUS_PX = P.open_radius_px()
+
+
 def _colour(hex_colour: str, alpha: float = 1.0) -> QColor:
     c = QColor(hex_colour)
     c.setAlphaF(max(0.0, min(1.0, alpha)))
@@ -211,8 +215,17 @@ def paint_overlay(painter: QPainter, canvas: ImageCanvas, system_names: dict[int
     """Everything marked on ``canvas``: fitted curves, then marks, then labels on top."""
     painter.setRenderHint(QPainter.Antialiasing, True)
     points = [canvas.image_to_widget(m.x, m.y) for m in canvas.marks]
+    # Curves stop short of every marked point, as the glyphs do: the data there stays in view.
+    painter.save()
+    clip = QPainterPath()
+    clip.addRect(QRectF(canvas.rect()))
+    holes = QPainterPath()
+    for p in points:
+        holes.addEllipse(p, OPEN_RADIUS_PX, OPEN_RADIUS_PX)
+    painter.setClipPath(clip.subtracted(holes))
     for shape in canvas.fits:
         paint_fit(painter, canvas, shape, points)
+    painter.restore()
     for mark in sorted(canvas.marks, key=lambda m: (m.active, m.kind == "centre")):
         paint_mark(painter, canvas, mark)
     centre = next((canvas.image_to_widget(m.x, m.y) for m in canvas.marks if m.kind == "centre"), None)
@@ -220,8 +233,11 @@ def paint_overlay(painter: QPainter, canvas: ImageCanvas, system_names: dict[int
     for mark in canvas.marks:
         if mark.kind == "image":
             paint_image_label(painter, canvas, mark, f"{names.get(mark.system, '')}{mark.index + 1}", centre)
+    canvas.label_rects = {}
     for shape in sorted(canvas.fits, key=lambda s: s.active):
-        paint_fit_label(painter, canvas, shape, points)
+        rect = paint_fit_label(painter, canvas, shape, points)
+        if rect is not None:
+            canvas.label_rects[shape.system] = rect
 
 
 def system_icon(index: int, size: int = 14) -> QIcon:

@@ -36,12 +36,12 @@ CASING_COLOUR, CASING_ALPHA = "#0d1017", 0.9
 #: Ink of the text on a system's label tab.
 TAB_INK = "#0d1017"
 #: Stroke widths on screen (pixels) and in the report (points): core and casing.
-CORE_WIDTH_PX, CASING_WIDTH_PX = 1.7, 4.0
+CORE_WIDTH_PX, CASING_WIDTH_PX = 1.7, 3.4
 CORE_WIDTH_PT, CASING_WIDTH_PT = 1.0, 2.4
 #: Opacity of the marks of the systems not selected.
 INACTIVE_ALPHA = 0.55
 #: Glyph radius on screen (pixels) for each mark kind.
-GLYPH_RADIUS_PX = {"point": 6.5, "image": 7.0, "centre": 10.0}
+GLYPH_RADIUS_PX = {"point": 8.0, "image": 7.0, "centre": 10.0}
 #: Fitted curves: outward ticks (count, length in screen pixels); inactive curves are dotted.
 FIT_TICKS, FIT_TICK_PX = 8, 5.0
 INACTIVE_DASH = (1.0, 3.0)
@@ -62,12 +62,32 @@ def _ring(n: int, start_deg: float) -> tuple[tuple[float, float], ...]:
 
 #: Each mark kind as polylines (unit radius, y up); the centre of every glyph is left open.
 GLYPHS: dict[str, tuple[tuple[tuple[float, float], ...], ...]] = {
-    "point": tuple(_spoke(a, 0.38, 1.0) for a in (90.0, 210.0, 330.0)),
+    "point": tuple(_spoke(a, 0.5, 1.0) for a in (90.0, 210.0, 330.0)),
     "image": (_ring(6, 0.0),),
-    "centre": tuple(_spoke(a, 0.4, 1.0) for a in (45.0, 135.0, 225.0, 315.0)),
+    "centre": tuple(_spoke(a, 0.45, 1.0) for a in (45.0, 135.0, 225.0, 315.0)),
 }
 #: What each glyph means, for legends.
 GLYPH_NAMES = {"point": "arc point", "image": "image of a multiple-image system", "centre": "lens centre"}
+
+
+def inner_radius(kind: str) -> float:
+    """How far the glyph of ``kind`` stays from the marked point, in units of its radius.
+
+    >>> round(inner_radius("image"), 4)  # a hexagon's edges: cos 30 deg
+    0.866
+    """
+    def nearest(p0, p1) -> float:
+        (x0, y0), (x1, y1) = p0, p1
+        dx, dy = x1 - x0, y1 - y0
+        t = max(0.0, min(1.0, -(x0 * dx + y0 * dy) / ((dx * dx + dy * dy) or 1.0)))
+        return math.hypot(x0 + t * dx, y0 + t * dy)
+
+    return min(nearest(a, b) for line in GLYPHS[kind] for a, b in zip(line, line[1:]))
+
+
+def open_radius_px() -> float:
+    """Screen radius left uncovered round every marked point (inside every glyph and its casing)."""
+    return min(GLYPH_RADIUS_PX[k] * inner_radius(k) for k in GLYPHS) - CASING_WIDTH_PX / 2
 
 
 def system_colour(index: int) -> str:
