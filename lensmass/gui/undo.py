@@ -108,7 +108,7 @@ class RemoveSystem(QUndoCommand):
 
 class SetSystemShape(QUndoCommand):
     def __init__(self, model: WindowModel, index: int, shape: str):
-        super().__init__(f"fit a {shape}")
+        super().__init__({"circle": "fit a circle", "ellipse": "fit an ellipse"}.get(shape, f"fit the {shape}"))
         self.model, self.index, self.new = model, index, shape
         self.old = model.systems[index].shape
 
