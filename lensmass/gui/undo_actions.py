@@ -33,9 +33,19 @@ def unique_keys(*sequences) -> list[QKeySequence]:
     return out
 
 
-def redo_keys() -> list[QKeySequence]:
-    """The platform's Redo keys plus Ctrl+Shift+Z and Ctrl+Y, each once."""
-    return unique_keys(*QKeySequence.keyBindings(QKeySequence.Redo), *EXTRA_REDO_KEYS)
+def redo_keys(platform_keys=None) -> list[QKeySequence]:
+    """The platform's Redo keys (``platform_keys``, by default Qt's for this platform) plus
+    Ctrl+Shift+Z and Ctrl+Y, each once.
+
+    On a Linux desktop the platform's Redo is Ctrl+Shift+Z alone: giving it again made Qt report
+    an ambiguous shortcut and do nothing, and Ctrl+Y was missing.
+
+    >>> [k.toString() for k in redo_keys(["Ctrl+Shift+Z"])]
+    ['Ctrl+Shift+Z', 'Ctrl+Y']
+    """
+    if platform_keys is None:
+        platform_keys = QKeySequence.keyBindings(QKeySequence.Redo)
+    return unique_keys(*platform_keys, *EXTRA_REDO_KEYS)
 
 
 def undo_keys() -> list[QKeySequence]:
