@@ -115,11 +115,12 @@ def _label_font(painter: QPainter) -> QFont:
 
 
 def fit_label_rect(canvas: ImageCanvas, shape: FitShape, name: str, text: str, font: QFont,
-                   avoid: list[QPointF]) -> tuple[QRectF, QPointF, QPointF]:
+                   avoid: list[QPointF], taken: list[QRectF] = ()) -> tuple[QRectF, QPointF, QPointF]:
     """Where a fit's label goes: (label rectangle, leader start on the curve, leader end).
 
     The label sits outside the curve, beyond a gap, in the direction (of eight, upper right
-    first) that keeps it inside the canvas and farthest from the marks in ``avoid``.
+    first) that keeps it inside the canvas, off the labels already placed (``taken``) and farthest
+    from the marks in ``avoid``.
     """
     fm = QFontMetricsF(font)
     w = fm.horizontalAdvance(name) + 8 + 6 + fm.horizontalAdvance(text)
@@ -145,13 +146,15 @@ def fit_label_rect(canvas: ImageCanvas, shape: FitShape, name: str, text: str, f
         inside = bounds.contains(rect)
         near = min((math.hypot(p.x() - min(max(p.x(), rect.left()), rect.right()),
                                p.y() - min(max(p.y(), rect.top()), rect.bottom())) for p in avoid), default=1e9)
-        score = (inside, min(near, 40.0), -k)
+        free = not any(rect.intersects(other) for other in taken)
+        score = (inside, free, min(near, 40.0), -k)
         if best is None or score > best[0]:
             best = (score, rect, on, end)
     return best[1], best[2], best[3]
 
 
-def paint_fit_label(painter: QPainter, canvas: ImageCanvas, shape: FitShape, avoid: list[QPointF]) -> QRectF | None:
+def paint_fit_label(painter: QPainter, canvas: ImageCanvas, shape: FitShape, avoid: list[QPointF],
+                    taken: list[QRectF] = ()) -> QRectF | None:
     """The fit's label: a tab with the system's name in its colour, then the value, with a leader."""
     if not shape.label:
         return None
@@ -160,7 +163,7 @@ def paint_fit_label(painter: QPainter, canvas: ImageCanvas, shape: FitShape, avo
     if not text:
         name, text = "", shape.label
     font = _label_font(painter)
-    rect, on, end = fit_label_rect(canvas, shape, name, text, font, avoid)
+    rect, on, end = fit_label_rect(canvas, shape, name, text, font, avoid, taken)
     colour = P.system_colour(shape.system)
     alpha = 1.0 if shape.active else P.INACTIVE_ALPHA
     casing, core = _pens(colour, shape.active)
@@ -234,8 +237,8 @@ def paint_overlay(painter: QPainter, canvas: ImageCanvas, system_names: dict[int
         if mark.kind == "image":
             paint_image_label(painter, canvas, mark, f"{names.get(mark.system, '')}{mark.index + 1}", centre)
     canvas.label_rects = {}
-    for shape in sorted(canvas.fits, key=lambda s: s.active):
-        rect = paint_fit_label(painter, canvas, shape, points)
+    for shape in sorted(canvas.fits, key=lambda s: not s.active):  # the selected system's label first
+        rect = paint_fit_label(painter, canvas, shape, points, list(canvas.label_rects.values()))
         if rect is not None:
             canvas.label_rects[shape.system] = rect
 

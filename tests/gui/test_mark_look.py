@@ -101,3 +101,17 @@ def test_system_list_shows_each_systems_glyph(qtbot, ring_window):
     icon = items[1].icon().pixmap(14, 14).toImage()
     assert _near(icon, QPointF(7, 7), 7, P.system_colour(1)) >= 2
     assert "◆" not in items[0].text()
+
+
+def test_labels_of_two_systems_do_not_cover_each_other(qtbot, ring_window):
+    window, truth = ring_window
+    _mark(qtbot, window, truth, n=8)
+    window.add_system_button.click()  # a second system on a wider circle round the same centre
+    cx, cy = truth["center_x"], truth["center_y"]
+    for k in range(6):
+        t = 2 * math.pi * k / 6 + 0.3
+        click_image(qtbot, window, cx + 11 * math.cos(t), cy + 11 * math.sin(t))
+    window.canvas.repaint()
+    rects = window.canvas.label_rects
+    assert set(rects) == {0, 1}
+    assert not rects[0].intersects(rects[1])
