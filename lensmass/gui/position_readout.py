@@ -44,7 +44,7 @@ class PositionReadout(QObject):
             a.setObjectName(f"copy_position_{kind}")
             a.triggered.connect(lambda _c=False, k=kind: self.copy(k))
             self.copy_actions[kind] = a
-        self.copy_key = QAction("Copy the position under the cursor", window)
+        self.copy_key = QAction(COPY_KINDS["sexagesimal"], window)  # the same copy, with its key
         self.copy_key.setObjectName("copy_position")
         self.copy_key.setShortcut(QKeySequence("P"))
         self.copy_key.setShortcutContext(Qt.WindowShortcut)
@@ -66,8 +66,9 @@ class PositionReadout(QObject):
         """Copy entries in the Edit menu, the numbering choice in the View menu."""
         positions = edit.addMenu("Copy &position")
         positions.addAction(self.copy_key)
-        for a in self.copy_actions.values():
-            positions.addAction(a)
+        for kind, a in self.copy_actions.items():
+            if kind != "sexagesimal":
+                positions.addAction(a)
         numbering = view.addMenu("Pixel &numbering")
         for a in self.origin_actions.values():
             numbering.addAction(a)
