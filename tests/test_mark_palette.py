@@ -32,7 +32,7 @@ def _hex(rgb) -> str:
 
 
 def _contrast(a: str, b: str) -> float:
-    """WCAG 2.1 contrast ratio (L1 + 0.05) / (L2 + 0.05), lighter over darker."""
+    """WCAG 2.1 contrast ratio (L1 + 0.05) / (L2 + 0.05), lighter over darker (written here again)."""
     la, lb = sorted((P.relative_luminance(a), P.relative_luminance(b)), reverse=True)
     return (la + 0.05) / (lb + 0.05)
 
@@ -117,3 +117,13 @@ def test_the_report_draws_the_same_glyphs_and_colours():
         assert drawn.get(key) == colour, kind
     fits = [p for p in ax.patches if _hex(p.get_edgecolor()[:3]) == P.system_colour(2)]
     assert len(fits) == 1 and fits[0].get_linestyle() in ("-", "solid")
+
+
+@pytest.mark.parametrize("base", ["#ffffff", "#f0f0f0", "#2b2b2b", "#000000"], ids=["white", "light", "dark", "black"])
+def test_system_colours_as_text_read_on_light_and_dark_window_palettes(base):
+    for colour in CORES:
+        text = P.readable_on(colour, base)
+        assert _contrast(text, base) >= 4.5, (colour, base)  # WCAG 2.1 SC 1.4.3, normal text
+        assert P.contrast_ratio(text, base) == pytest.approx(_contrast(text, base))
+        if _contrast(colour, base) >= 4.5:
+            assert text == colour  # left as it is where it already reads

@@ -162,5 +162,7 @@ class WindowViewMixin:
     def _colour(self, i: int):
         from PySide6.QtGui import QColor
 
-        c = QColor(SYSTEM_COLOURS[i % len(SYSTEM_COLOURS)])
-        return c.darker(150) if self.palette().color(self.palette().ColorRole.Base).lightness() > 128 else c
+        from lensmass.io.mark_palette import readable_on
+
+        base = self.palette().color(self.palette().ColorRole.Base).name()
+        return QColor(readable_on(SYSTEM_COLOURS[i % len(SYSTEM_COLOURS)], base))  # text contrast 4.5:1

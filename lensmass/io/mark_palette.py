@@ -112,6 +112,37 @@ def relative_luminance(hex_colour: str) -> float:
     return 0.2126 * lin[0] + 0.7152 * lin[1] + 0.0722 * lin[2]
 
 
+def contrast_ratio(a: str, b: str) -> float:
+    """WCAG 2.1 contrast ratio of two sRGB colours, lighter over darker (1 to 21).
+
+    >>> round(contrast_ratio("#000000", "#ffffff"), 6)
+    21.0
+    """
+    la, lb = sorted((relative_luminance(a), relative_luminance(b)), reverse=True)
+    return (la + 0.05) / (lb + 0.05)
+
+
+def readable_on(hex_colour: str, background: str, ratio: float = 4.5) -> str:
+    """``hex_colour`` mixed toward black (on a light background) or white (on a dark one) just enough
+    to stand out from ``background`` by ``ratio`` (WCAG 2.1: 4.5 for text): a system's colour as text
+    in lists and panels of a light or a dark window palette.
+
+    >>> readable_on("#ffb000", "#000000")
+    '#ffb000'
+    >>> contrast_ratio(readable_on("#ffb000", "#ffffff"), "#ffffff") >= 4.5
+    True
+    """
+    target = "#000000" if relative_luminance(background) > 0.18 else "#ffffff"
+    rgb = [int(hex_colour.lstrip("#")[i:i + 2], 16) for i in (0, 2, 4)]
+    end = [int(target[1:][i:i + 2], 16) for i in (0, 2, 4)]
+    for step in range(0, 101):
+        t = step / 100.0
+        mixed = "#" + "".join(f"{round(c + (e - c) * t):02x}" for c, e in zip(rgb, end))
+        if contrast_ratio(mixed, background) >= ratio:
+            return mixed
+    return target
+
+
 def tab_ink(hex_colour: str) -> str:
     """Text colour on a label tab of ``hex_colour``: dark ink on light tabs, white on dark ones."""
     return TAB_INK if relative_luminance(hex_colour) > 0.18 else "#ffffff"
