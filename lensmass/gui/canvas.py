@@ -18,14 +18,14 @@ from typing import Callable
 
 import numpy as np
 from PySide6.QtCore import QPointF, QRectF, QSize, Qt, Signal
-from PySide6.QtGui import QColor, QImage, QPainter, QPainterPath, QPen, QPolygonF
+from PySide6.QtGui import QColor, QImage, QPainter, QPen
 from PySide6.QtWidgets import QSizePolicy, QWidget
 
+from lensmass.gui import mark_style
 from lensmass.gui.display import quantise
+from lensmass.io.mark_palette import CENTRE_COLOUR, SYSTEM_COLOURS  # noqa: F401  (names other parts import)
 
-#: Colours of the arc systems, in order (our own calm set; readable on gray, viridis and magma).
-SYSTEM_COLOURS = ("#3fd0b6", "#f2b84b", "#ef7fa8", "#8ab8ff", "#c7e06a", "#ffffff")
-CENTRE_COLOUR = "#ff9d5c"
+# The look of marks lives in lensmass.io.mark_palette (shared with the report) and gui.mark_style.
 MARK_HIT_PX = 9.0
 CLICK_SLOP_PX = 4.0
 MIN_ZOOM, MAX_ZOOM = 1 / 64, 64.0
@@ -91,6 +91,8 @@ class ImageCanvas(QWidget):
         self._top = 0.0   # display-row coordinate at widget y = 0
         self.marks: list[Mark] = []
         self.fits: list[FitShape] = []
+        self.system_names: dict[int, str] = {}  # arc system index -> name, for the labels
+        self.label_rects: dict[int, QRectF] = {}  # where each system's fit label was last painted
         self._layers: dict[str, Callable] = {}
         self._claim: tuple[str, Callable[[float, float], None], str] | None = None
         self._press: QPointF | None = None
@@ -257,10 +259,7 @@ class ImageCanvas(QWidget):
             except Exception:  # a broken panel layer must not stop the window painting
                 pass
             painter.restore()
-        for shape in self.fits:
-            self._paint_fit(painter, shape)
-        for mark in self.marks:
-            self._paint_mark(painter, mark)
+        mark_style.paint_overlay(painter, self, self.system_names)
         self._paint_scale_bar(painter)
         painter.end()
 
@@ -295,66 +294,6 @@ class ImageCanvas(QWidget):
                         r.width() * self.zoom, r.height() * self.zoom)
         painter.setRenderHint(QPainter.SmoothPixmapTransform, False)
         painter.drawImage(target, image)
-
-    def _pen(self, colour: str, width: float = 1.6, active: bool = True, style=Qt.SolidLine) -> QPen:
-        c = QColor(colour)
-        if not active:
-            c.setAlpha(175)
-        pen = QPen(c, width if active else width * 0.8, style)
-        pen.setCosmetic(True)
-        return pen
-
-    def _paint_mark(self, painter: QPainter, mark: Mark) -> None:
-        p = self.image_to_widget(mark.x, mark.y)
-        halo = QPen(QColor(0, 0, 0, 150), 3.6)
-        if mark.kind == "centre":
-            # A cross-hair ring: circle with four ticks outside it.
-            r = 7.0
-            for pen in (halo, self._pen(CENTRE_COLOUR, 1.6)):
-                painter.setPen(pen)
-                painter.setBrush(Qt.NoBrush)
-                painter.drawEllipse(p, r, r)
-                for dx, dy in ((1, 0), (-1, 0), (0, 1), (0, -1)):
-                    painter.drawLine(QPointF(p.x() + dx * (r + 2), p.y() + dy * (r + 2)),
-                                     QPointF(p.x() + dx * (r + 7), p.y() + dy * (r + 7)))
-            return
-        colour = SYSTEM_COLOURS[mark.system % len(SYSTEM_COLOURS)]
-        if mark.kind == "point":  # hollow diamond
-            s = 5.5
-            shape = QPolygonF([QPointF(p.x(), p.y() - s), QPointF(p.x() + s, p.y()),
-                               QPointF(p.x(), p.y() + s), QPointF(p.x() - s, p.y())])
-        else:  # a multiple image: hollow triangle pointing up, a little larger
-            s = 7.0
-            shape = QPolygonF([QPointF(p.x(), p.y() - s), QPointF(p.x() + s * 0.87, p.y() + s * 0.5),
-                               QPointF(p.x() - s * 0.87, p.y() + s * 0.5)])
-        painter.setBrush(Qt.NoBrush)
-        for pen in (halo, self._pen(colour, 1.7, mark.active)):
-            painter.setPen(pen)
-            painter.drawPolygon(shape)
-
-    def _paint_fit(self, painter: QPainter, shape: FitShape) -> None:
-        colour = SYSTEM_COLOURS[shape.system % len(SYSTEM_COLOURS)]
-        c = self.image_to_widget(shape.x, shape.y)
-        a, b = shape.a_px * self.zoom, shape.b_px * self.zoom
-        angle = -shape.angle_deg if self.flip_rows else shape.angle_deg
-        painter.save()
-        painter.translate(c)
-        painter.rotate(angle)
-        painter.setBrush(Qt.NoBrush)
-        painter.setPen(QPen(QColor(0, 0, 0, 120), 3.0))
-        painter.drawEllipse(QPointF(0, 0), a, b)
-        painter.setPen(self._pen(colour, 1.3, shape.active, Qt.DashLine))
-        painter.drawEllipse(QPointF(0, 0), a, b)
-        painter.restore()
-        if shape.label and shape.active:
-            text_at = QPointF(c.x() + a * 0.72 + 6, c.y() - b * 0.72 - 6)
-            path = QPainterPath()
-            font = painter.font()
-            font.setPointSizeF(max(9.0, font.pointSizeF()))
-            path.addText(text_at, font, shape.label)
-            painter.setPen(QPen(QColor(0, 0, 0, 170), 3.0))
-            painter.drawPath(path)
-            painter.fillPath(path, QColor(colour))
 
     def _paint_scale_bar(self, painter: QPainter) -> None:
         scale = getattr(self, "pixel_scale_arcsec", None)

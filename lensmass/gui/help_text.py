@@ -5,7 +5,7 @@ from __future__ import annotations
 SHORTCUTS = [
     ("Ctrl+O", "open an image or session"),
     ("Ctrl+S / Ctrl+Shift+S", "save the session / save as"),
-    ("Ctrl+Z / Ctrl+Shift+Z", "undo / redo any edit"),
+    ("Ctrl+Z / Ctrl+Shift+Z or Ctrl+Y", "undo / redo any edit"),
     ("A", "tool: add arc points"),
     ("I", "tool: mark images of a multiple-image system"),
     ("C", "tool: set the lens centre"),
@@ -18,6 +18,7 @@ SHORTCUTS = [
     ("+ / -", "zoom in / out (or the mouse wheel, around the cursor)"),
     ("L", "cycle image / lens-light model / residual"),
     ("Ctrl+Shift+C", "copy the results as text"),
+    ("P", "copy the RA, Dec under the cursor (right-click the read-out for degrees or pixels)"),
     ("Ctrl+E / Ctrl+Shift+E", "export the report (PDF/PNG) / the results (JSON/ECSV)"),
     ("F1", "this page"),
 ]

@@ -58,6 +58,8 @@ class ValidatedField(QWidget):
         self.edit.setObjectName(f"field_{key}")
         self.edit.setPlaceholderText(placeholder)
         self.edit.setToolTip(TOOLTIPS.get(key, ""))
+        # the red border of a problem must not change the field's height (it would leave its row)
+        self.edit.setFixedHeight(self.edit.sizeHint().height())
         self.problem = QLabel()
         self.problem.setObjectName(f"problem_{key}")
         self.problem.setWordWrap(True)
@@ -88,16 +90,28 @@ class InputsPanel(QWidget):
         self._timers: dict[str, QTimer] = {}
         self._updating = False
         form = QFormLayout(self)
-        form.setLabelAlignment(Qt.AlignRight)
+        form.setLabelAlignment(Qt.AlignRight | Qt.AlignTop)
         form.setFieldGrowthPolicy(QFormLayout.AllNonFixedFieldsGrow)
 
         def pair(a: str, b: str, pa: str, pb: str) -> QWidget:
+            # A value and its error on one line; their problems beneath the whole line, at full
+            # width (a problem under the narrow error field wrapped into a tall column and pushed
+            # the row's fields apart and over the next row).
             w = QWidget()
-            h = QHBoxLayout(w)
+            w.setObjectName(f"pair_{a}")
+            v = QVBoxLayout(w)
+            v.setContentsMargins(0, 0, 0, 0)
+            v.setSpacing(1)
+            h = QHBoxLayout()
             h.setContentsMargins(0, 0, 0, 0)
-            h.addWidget(self._field(a, pa), 3)
+            fields = (self._field(a, pa), self._field(b, pb))
+            h.addWidget(fields[0], 3)
             h.addWidget(QLabel("±"))
-            h.addWidget(self._field(b, pb), 2)
+            h.addWidget(fields[1], 2)
+            v.addLayout(h)
+            for f in fields:
+                f.layout().removeWidget(f.problem)
+                v.addWidget(f.problem)
             return w
 
         form.addRow("z lens", pair("z_l", "z_l_err", "e.g. 0.35", "0"))

@@ -10,6 +10,7 @@ import copy
 from PySide6.QtGui import QUndoCommand
 
 from lensmass.gui.model import WindowModel
+from lensmass.gui.words import input_words
 
 
 class AddMark(QUndoCommand):
@@ -107,7 +108,7 @@ class RemoveSystem(QUndoCommand):
 
 class SetSystemShape(QUndoCommand):
     def __init__(self, model: WindowModel, index: int, shape: str):
-        super().__init__(f"fit a {shape}")
+        super().__init__({"circle": "fit a circle", "ellipse": "fit an ellipse"}.get(shape, f"fit the {shape}"))
         self.model, self.index, self.new = model, index, shape
         self.old = model.systems[index].shape
 
@@ -122,7 +123,7 @@ class SetText(QUndoCommand):
     """A typed input (z_l, z_s, errors, custom cosmology, fixed concentration)."""
 
     def __init__(self, model: WindowModel, key: str, new: str, old: str | None = None):
-        super().__init__(f"set {key}")
+        super().__init__(input_words(key))
         self.model, self.key, self.new = model, key, new
         self.old = model.texts.get(key, "") if old is None else old
         self.system = model.active
@@ -143,7 +144,7 @@ class SetChoice(QUndoCommand):
     """A choice from a list (cosmology preset, concentration relation, halo definition)."""
 
     def __init__(self, model: WindowModel, key: str, new, old):
-        super().__init__(f"choose {key.replace('_', ' ')}")
+        super().__init__(input_words(key))
         self.model, self.key, self.new, self.old = model, key, new, old
 
     def redo(self) -> None:

@@ -29,7 +29,9 @@ from PySide6.QtWidgets import (
 from lensmass.gui.display import COLORMAPS, LIMITS, STRETCHES
 from lensmass.gui.inputs_panel import InputsPanel
 from lensmass.gui.plots_panel import PlotsPanel
+from lensmass.gui.position_readout import PositionReadout
 from lensmass.gui.results_panel import ResultsPanel
+from lensmass.gui.undo_actions import UndoActions
 from lensmass.gui.window_common import LAYERS, TOOLS, _scrolling
 
 
@@ -103,6 +105,7 @@ class WindowBuildMixin:
         self.cancel_button = QPushButton("Cancel")
         self.cancel_button.setObjectName("cancel_task")
         self.cancel_button.setToolTip("Stop the running computation (Esc).")
+        self.readout = PositionReadout(self, self.position_label, self.settings)
         bar.addPermanentWidget(self.position_label)
         bar.addPermanentWidget(self.progress)
         bar.addPermanentWidget(self.cancel_button)
@@ -231,12 +234,8 @@ class WindowBuildMixin:
         self.act_results = A("Export results (JSON/ECSV)...", self.export_results_dialog,
                              QKeySequence("Ctrl+Shift+E"), "Every number, interval and model of every arc system.")
         self.act_quit = A("&Quit", self.close, QKeySequence.Quit)
-        self.act_undo = self.undo_stack.createUndoAction(self, "&Undo")
-        self.act_undo.setShortcut(QKeySequence.Undo)
-        self.act_redo = self.undo_stack.createRedoAction(self, "&Redo")
-        self.act_redo.setShortcuts([QKeySequence.Redo, QKeySequence("Ctrl+Shift+Z")])
-        self.addAction(self.act_undo)
-        self.addAction(self.act_redo)
+        self.undo_actions = UndoActions(self.undo_stack, self)
+        self.act_undo, self.act_redo = self.undo_actions.menu_undo, self.undo_actions.menu_redo
         self.act_delete_last = A("Delete last mark", self.delete_last_mark, QKeySequence(Qt.Key_Backspace),
                                  "Delete the most recent mark of the selected system.")
         self.act_copy = A("Copy results as text", self.copy_results, QKeySequence("Ctrl+Shift+C"))
@@ -280,6 +279,7 @@ class WindowBuildMixin:
         e = mb.addMenu("&Edit")
         for a in (self.act_undo, self.act_redo, self.act_delete_last, self.act_copy):
             e.addAction(a)
+        e_edit = e
         m = mb.addMenu("&Measure")
         for a in self.act_tools + [self.act_new_system, self.act_snap]:
             m.addAction(a)
@@ -290,6 +290,7 @@ class WindowBuildMixin:
         for a in (self.act_fit, self.act_actual, self.act_zoom_in, self.act_zoom_out, self.act_cycle_layer,
                   self.act_invert):
             v.addAction(a)
+        self.readout.add_to_menus(e_edit, v)
         v.addSeparator()
         for dock in (self.marks_dock, self.numbers_dock, self.plots_dock):
             v.addAction(dock.toggleViewAction())
@@ -301,19 +302,21 @@ class WindowBuildMixin:
         tb.setObjectName("quick_bar")
         tb.setMovable(False)
         tb.setToolButtonStyle(Qt.ToolButtonTextOnly)
-        for a in (self.act_open, self.act_save, self.act_undo, self.act_redo, self.act_ring, self.act_report):
+        for a in (self.act_open, self.act_save, self.undo_actions.bar_undo, self.undo_actions.bar_redo, self.act_ring,
+                  self.act_report):
             tb.addAction(a)
         self._rebuild_recent_menu()
 
     def _connect(self) -> None:
         self.model.subscribe(self._on_model)
+        self.model.subscribe(lambda topic: topic == "image" and self.readout.clear())
         c = self.canvas
         c.clicked.connect(self._on_canvas_click)
         c.mark_dragged.connect(self._on_mark_dragged)
         c.mark_released.connect(self._on_mark_released)
         c.mark_delete_requested.connect(self._on_mark_delete)
         c.hovered.connect(self._on_hover)
-        c.left_image.connect(self.position_label.clear)
+        c.left_image.connect(self.readout.leave)
         c.view_changed.connect(self._update_zoom_label)
         c.click_hint.connect(lambda hint: self.show_message(hint or "Clicks on the image add marks again.", 0 if hint else 4000))
         self.tool_buttons.idClicked.connect(lambda i: self._set_tool(TOOLS[i][0]))

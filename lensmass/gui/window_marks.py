@@ -98,19 +98,12 @@ class WindowMarksMixin:
         if not (0 <= col < nx and 0 <= row < ny):
             return
         value = img.data[row, col]
-        text = f"x {x:7.1f}  y {y:7.1f}"
-        if img.loaded.has_sky:
-            try:
-                ra, dec = img.loaded.pixel_to_sky(x, y)
-                text += f"   RA {float(ra):9.5f}  Dec {float(dec):+9.5f}"
-            except Exception:
-                pass
-        text += "   value " + ("masked" if not np.isfinite(value) else f"{value:.4g}")
+        tail = "value " + ("masked" if not np.isfinite(value) else f"{value:.4g}")
         if self.model.display.layer != "image":
             layer = self.model.image.lens_light if self.model.display.layer == "lens light" else self.model.image.residual
             if layer is not None:
-                text += f"   {self.model.display.layer} {layer[row, col]:.4g}"
-        self.position_label.setText(text)
+                tail += f"   {self.model.display.layer} {layer[row, col]:.4g}"
+        self.readout.hover(img.loaded, x, y, tail)
 
     def set_pixel_scale_dialog(self) -> None:
         img = self._image_or_hint()

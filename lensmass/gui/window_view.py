@@ -12,6 +12,7 @@ from lensmass.core.errors import LensInputError
 from lensmass.gui import measuring
 from lensmass.gui.canvas import SYSTEM_COLOURS, FitShape, Mark
 from lensmass.gui.display import COLORMAPS, LIMITS, STRETCHES, DisplayChoice, colour_table
+from lensmass.gui.mark_style import system_icon
 from lensmass.gui.window_common import LAYERS
 
 
@@ -134,6 +135,7 @@ class WindowViewMixin:
         if m.centre is not None:
             marks.append(Mark("centre", -1, 0, m.centre[0], m.centre[1], True))
         self.canvas.marks, self.canvas.fits = marks, fits
+        self.canvas.system_names = {i: s.name for i, s in enumerate(m.systems)}
         self.canvas.update()
         fit = m.fit
         if fit is not None:
@@ -148,7 +150,7 @@ class WindowViewMixin:
         for i, s in enumerate(m.systems):
             zs = f"z_s {s.z_s:g}" if s.z_s is not None else (
                 f"z_s {s.z_s_range[0]:g}-{s.z_s_range[1]:g}" if s.z_s_range else "z_s ?")
-            item = QListWidgetItem(f"◆ {s.name}   {len(s.points)} pts, {len(s.images)} img   {zs}")
+            item = QListWidgetItem(system_icon(i), f"{s.name}   {len(s.points)} pts, {len(s.images)} img   {zs}")
             item.setToolTip(item.text())
             item.setForeground(self._colour(i))
             self.system_list.addItem(item)
@@ -160,5 +162,7 @@ class WindowViewMixin:
     def _colour(self, i: int):
         from PySide6.QtGui import QColor
 
-        c = QColor(SYSTEM_COLOURS[i % len(SYSTEM_COLOURS)])
-        return c.darker(150) if self.palette().color(self.palette().ColorRole.Base).lightness() > 128 else c
+        from lensmass.io.mark_palette import readable_on
+
+        base = self.palette().color(self.palette().ColorRole.Base).name()
+        return QColor(readable_on(SYSTEM_COLOURS[i % len(SYSTEM_COLOURS)], base))  # text contrast 4.5:1

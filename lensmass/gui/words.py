@@ -27,3 +27,32 @@ FIELD_NAMES = {
 def window_words(message: str) -> str:
     """``message`` with its parameter names as the window's fields call them."""
     return in_words(message, FIELD_NAMES)
+
+
+#: Inputs of the "Lens & source" panel that are not result keys, in words.
+_INPUT_WORDS = {"h0": "Hubble constant", "om0": "matter density", "ode0": "dark-energy density",
+                "concentration_value": "fixed NFW concentration", "concentration": "concentration relation"}
+
+
+def input_words(key: str) -> str:
+    """An input field or choice named in words, for undo texts and messages ("source redshift error").
+
+    Redshifts, the cosmology and the halo boundary take their words from the key registry
+    (:mod:`lensmass.core.result_keys`); ``<key>_err`` is "<words of key> error".
+
+    >>> input_words("z_s_err")
+    'source redshift error'
+    >>> input_words("halo_definition")
+    'halo boundary'
+    """
+    from lensmass.core.result_keys import RESULT_KEYS
+
+    if key.endswith("_err"):
+        return f"{input_words(key[:-4])} error"
+    if key in _INPUT_WORDS:
+        return _INPUT_WORDS[key]
+    fact = RESULT_KEYS.get(key)
+    if fact is None:
+        return key.replace("_", " ")
+    # a label that is a symbol (z_s) says less than the description ("source redshift")
+    return fact.description if "_" in fact.label else fact.label

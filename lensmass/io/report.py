@@ -261,12 +261,13 @@ def _rule_at(fig, x0: float, x1: float, y: float, lw: float = 0.8):
 
 def _legend_for_marks(fig, overlay: Overlay, y: float) -> None:
     """One line under the image naming the marks that are drawn on it."""
-    from matplotlib.lines import Line2D
+    from lensmass.io.report_marks import legend_handle
 
-    items = [(overlay.points_px, Line2D([], [], ls="", marker="o", mfc="none", mec=POINT_COLOUR), "arc points"),
-             (overlay.images_px, Line2D([], [], ls="", marker="s", mfc="none", mec=FIT_COLOUR), "image positions"),
-             (overlay.centre_px, Line2D([], [], ls="", marker="+", mec=CENTRE_COLOUR, mew=1.4), "lens centre"),
-             (overlay.circle_px or overlay.ellipse_px, Line2D([], [], color=FIT_COLOUR, ls=(0, (4, 2))),
+    k = overlay.system
+    items = [(overlay.points_px, legend_handle("point", k), "arc points"),
+             (overlay.images_px, legend_handle("image", k), "image positions"),
+             (overlay.centre_px, legend_handle("centre"), "lens centre"),
+             (overlay.circle_px or overlay.ellipse_px, legend_handle("fit", k),
               "fitted ellipse" if overlay.ellipse_px is not None else "fitted circle")]
     shown = [(h, t) for present, h, t in items if present is not None and len(np.atleast_1d(present))]
     if shown:

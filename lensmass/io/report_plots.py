@@ -14,11 +14,14 @@ from typing import Sequence
 import numpy as np
 
 from lensmass.core.errors import LensInputError
+from lensmass.io.mark_palette import CENTRE_COLOUR, system_colour  # noqa: F401  (CENTRE_COLOUR: report names)
 from lensmass.io.report_format import _finite, _mathtext_safe, _power
 
-#: Our palette: ink, muted ink, accent for the SIS, accent for the NFW, marks on the image.
+#: Our palette: ink, muted ink, accent for the SIS, accent for the NFW; marks on the image come from
+#: lensmass.io.mark_palette (the window's look: the first arc system's colour, the lens centre's).
 INK, MUTED, RULE = "#1d2433", "#5b6477", "#c9ced8"
-SIS_COLOUR, NFW_COLOUR, POINT_COLOUR, FIT_COLOUR, CENTRE_COLOUR = "#1f6f8b", "#c0552b", "#ffb000", "#5ee0c0", "#ff4d6d"
+SIS_COLOUR, NFW_COLOUR = "#1f6f8b", "#c0552b"
+POINT_COLOUR = FIT_COLOUR = system_colour(0)
 
 
 @dataclass
@@ -37,6 +40,7 @@ class Overlay:
     ellipse_px: tuple[float, float, float, float, float] | None = None
     origin_px: tuple[float, float] = (0.0, 0.0)
     label: str = ""
+    system: int = 0  # which arc system (its colour in lensmass.io.mark_palette)
 
 
 def cutout(image: np.ndarray, centre_px: tuple[float, float], half_size_px: int) -> tuple[np.ndarray, tuple[int, int]]:
@@ -87,24 +91,22 @@ def draw_cutout(ax, image_cutout: np.ndarray | None, overlay: Overlay, *, scale_
         ax.imshow(masked, origin="lower", cmap="bone", norm=norm, extent=extent, interpolation="nearest")
     else:
         ax.imshow(masked, origin="lower", cmap="bone", extent=extent, interpolation="nearest")
+    from functools import partial
+
     from matplotlib.patches import Circle, Ellipse
+
+    from lensmass.io.report_marks import draw_fit_curve, draw_glyphs
 
     if overlay.circle_px is not None:
         cx, cy, r = overlay.circle_px
-        ax.add_patch(Circle((cx, cy), r, fill=False, ec=FIT_COLOUR, lw=1.2, ls=(0, (4, 2))))
+        draw_fit_curve(ax, partial(Circle, (cx, cy), r), overlay.system)
     if overlay.ellipse_px is not None:
         cx, cy, a, b, ang = overlay.ellipse_px
-        ax.add_patch(Ellipse((cx, cy), 2 * a, 2 * b, angle=ang, fill=False, ec=FIT_COLOUR, lw=1.2, ls=(0, (4, 2))))
-    if len(overlay.points_px):
-        p = np.asarray(overlay.points_px, float).reshape(-1, 2)
-        ax.scatter(p[:, 0], p[:, 1], s=22, facecolors="none", edgecolors=POINT_COLOUR, linewidths=1.1, zorder=3)
-    if len(overlay.images_px):
-        p = np.asarray(overlay.images_px, float).reshape(-1, 2)
-        ax.scatter(p[:, 0], p[:, 1], s=30, marker="s", facecolors="none", edgecolors=FIT_COLOUR, linewidths=1.1,
-                   zorder=3)
+        draw_fit_curve(ax, partial(Ellipse, (cx, cy), 2 * a, 2 * b, angle=ang), overlay.system)
+    draw_glyphs(ax, overlay.points_px, "point", overlay.system)
+    draw_glyphs(ax, overlay.images_px, "image", overlay.system)
     if overlay.centre_px is not None:
-        ax.scatter([overlay.centre_px[0]], [overlay.centre_px[1]], s=50, marker="+", c=CENTRE_COLOUR,
-                   linewidths=1.4, zorder=4)
+        draw_glyphs(ax, [overlay.centre_px], "centre", zorder=4)
     ax.set_xlim(extent[0], extent[1])
     ax.set_ylim(extent[2], extent[3])
     width_arcsec = nx * overlay.pixel_scale_arcsec

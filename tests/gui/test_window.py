@@ -69,8 +69,7 @@ def test_status_bar_shows_pixel_radec_and_value_under_the_cursor(qtbot, ring_win
     qtbot.mouseMove(window.canvas, pos)
     qtbot.waitUntil(lambda: "RA" in window.position_label.text(), timeout=3000)
     text = window.position_label.text()
-    ra = float(text.split("RA")[1].split()[0])
-    dec = float(text.split("Dec")[1].split()[0])
+    ra, dec = (float(v) for v in text.split("Dec")[1].split("(")[1].split()[:2])  # the degrees after h:m:s, d:m:s
     # Truth file: centre RA/Dec of the lens; a click is within a pixel (0.2" = 5.6e-5 deg).
     assert ra == pytest.approx(truth["center_ra"], abs=2e-4)
     assert dec == pytest.approx(truth["center_dec"], abs=2e-4)
