@@ -13,7 +13,13 @@ from PySide6.QtGui import QGuiApplication
 from PySide6.QtWidgets import QGridLayout, QHBoxLayout, QLabel, QPushButton, QVBoxLayout, QWidget
 
 from lensmass.core.result_keys import fact, keys_in
-from lensmass.core.result_text import format_number, format_table, interval_text  # noqa: F401 (interval_text: panels)
+from lensmass.core.result_text import (  # noqa: F401 (interval_text, format_number: other panels)
+    format_number,
+    format_table,
+    interval_text,
+    round_measured,
+    rounded_key,
+)
 from lensmass.gui.model import WindowModel
 
 #: Keys left out of the panel: the redshifts are inputs, shown in "Lens & source".
@@ -36,10 +42,13 @@ def result_text(model: WindowModel) -> str:
     if model.image is not None:
         head.append(f"image: {model.image.path}")
     if fit is not None:
-        head.append(f"theta_E = {fit.theta_e_arcsec:.4g} +- {fit.theta_e_err_arcsec:.2g} arcsec from a {fit.method}")
-    models = result.get("models") or {}
-    tail = ["", "models:"] + [f"  {k}: {v}" for k, v in models.items()]
-    return "\n".join(head + [""] + [format_table(result)] + tail)
+        head.append(f"theta_E = {theta_e_text(fit, '+-')} arcsec from a {fit.method}")
+    return "\n".join(head + [""] + [format_table(result)])
+
+
+def theta_e_text(fit, plus_minus: str = "±") -> str:
+    """The fitted theta_E and its error by the program's one rounding rule ('1.535 ± 0.020')."""
+    return round_measured(fit.theta_e_arcsec, fit.theta_e_err_arcsec).plain(plus_minus)
 
 
 class ResultsPanel(QWidget):
@@ -118,8 +127,9 @@ class ResultsPanel(QWidget):
                 self.values[key].setText("–")
                 self.intervals[key].setText("")
             if fit is not None:
-                self.values["theta_e_arcsec"].setText(format_number(fit.theta_e_arcsec))
-                self.intervals["theta_e_arcsec"].setText(f"± {format_number(fit.theta_e_err_arcsec)}")
+                shown = round_measured(fit.theta_e_arcsec, fit.theta_e_err_arcsec)
+                self.values["theta_e_arcsec"].setText(shown.value_text)
+                self.intervals["theta_e_arcsec"].setText(f"± {shown.error}")
             reason = m.result_problem or m.derived[m.active].fit_problem
             pending = reason is None and fit is not None
             self.status.setText("Working out the masses..." if pending else (reason or "Mark the arc to begin."))
@@ -129,8 +139,9 @@ class ResultsPanel(QWidget):
             return
         models = result.get("models") or {}
         for key, _label, _unit in self.rows:
-            self.values[key].setText(format_number(result.get(key, float("nan"))))
-            self.intervals[key].setText(interval_text(result, key))
+            shown = rounded_key(result, key)
+            self.values[key].setText(shown.value_text)
+            self.intervals[key].setText(shown.interval())
             tip = models.get(key, "")
             if key == "theta_e_arcsec" and fit is not None:
                 tip = f"{fit.method}; {fit.n_points} marks; pixel scale from the image"

@@ -34,7 +34,7 @@ from lensmass.core.uncertainty import DEFAULT_SAMPLES, DEFAULT_SEED
 
 #: Extra measurement keys kept as columns when a row was measured on an image.
 MEASUREMENT_KEYS = ("theta_e_err_arcsec", "method", "center_x", "center_y", "center_ra", "center_dec",
-                    "ring_score", "n_points")
+                    "center_source", "ring_score", "n_points")
 
 #: Core messages name the estimate's parameters; in a batch they are manifest columns.
 PARAMETER_TO_COLUMN = {"theta_e_err": "column theta_e_err", "theta_e_arcsec": "column theta_e_arcsec",
