@@ -12,6 +12,7 @@ from PySide6.QtCore import Qt
 from PySide6.QtGui import QGuiApplication
 from PySide6.QtWidgets import QGridLayout, QHBoxLayout, QLabel, QPushButton, QVBoxLayout, QWidget
 
+from lensmass.core.lens_centre import centre_text
 from lensmass.core.result_keys import fact, keys_in
 from lensmass.core.result_text import (  # noqa: F401 (interval_text, format_number: other panels)
     format_number,
@@ -43,6 +44,8 @@ def result_text(model: WindowModel) -> str:
         head.append(f"image: {model.image.path}")
     if fit is not None:
         head.append(f"theta_E = {theta_e_text(fit, '+-')} arcsec from a {fit.method}")
+    if centre_text(result):
+        head.append(f"lens centre: {centre_text(result)}")
     return "\n".join(head + [""] + [format_table(result)])
 
 
@@ -92,6 +95,12 @@ class ResultsPanel(QWidget):
             grid.addWidget(QLabel(unit), row, 3)
             self.values[key], self.intervals[key], self.names[key] = value, interval, name
         outer.addLayout(grid)
+        self.centre = QLabel()
+        self.centre.setObjectName("results_centre")
+        self.centre.setWordWrap(True)
+        self.centre.setTextInteractionFlags(Qt.TextSelectableByMouse)
+        self.centre.setToolTip(fact("center_source").description)
+        outer.addWidget(self.centre)
         self.notes = QLabel()
         self.notes.setObjectName("results_notes")
         self.notes.setWordWrap(True)
@@ -135,6 +144,7 @@ class ResultsPanel(QWidget):
             self.status.setText("Working out the masses..." if pending else (reason or "Mark the arc to begin."))
             self.status.setStyleSheet("" if pending else "color: #d9534f;")
             self.notes.setText("")
+            self.centre.setText("")
             self.copy_button.setEnabled(False)
             return
         models = result.get("models") or {}
@@ -151,6 +161,8 @@ class ResultsPanel(QWidget):
         self.status.setText(f"System {m.active_system.name}: {result.get('cosmology', '')}"
                             + (f", {n} Monte Carlo draws" if n else ", no uncertainties given"))
         self.status.setStyleSheet("")
+        where = centre_text(result)
+        self.centre.setText(f"Lens centre: {where}" if where else "")
         warns = list(fit.warnings) if fit is not None else []
         self.notes.setText("\n".join("• " + t for t in warns + list(result.get("notes") or [])))
         self.copy_button.setEnabled(True)

@@ -78,23 +78,24 @@ def test_fit_the_demo_double_undo_and_save(make_window, qtbot, tmp_path):
     assert (delay > 0) == (d[0] > d[1])
     # the critical curve is drawn over the image
     assert _has_colour(w.canvas.grab().toImage(), CRITICAL_COLOUR)
-    # the exported report carries the model (its parameters and delays as notes of the page)
-    from lensmass.io import report
+    # the exported report carries the model on a page of its own: its parameters, masses and delays
+    from lensmass.io import report_pages
 
     seen = {}
-    original = report.render_report
+    original = report_pages.lens_model_figure
 
-    def spy(path, *args, **kwargs):
-        seen["notes"] = args[3].get("notes", [])
-        return original(path, *args, **kwargs)
+    def spy(model_result, *args, **kwargs):
+        fig = original(model_result, *args, **kwargs)
+        seen["text"] = " ".join(t.get_text() for ax in fig.axes for t in ax.texts)
+        return fig
 
-    report.render_report = spy
+    report_pages.lens_model_figure = spy
     try:
-        assert w.export_report(str(tmp_path / "page.png")) is not None
+        written = w.export_report(str(tmp_path / "page.png"))
     finally:
-        report.render_report = original
-    assert any("Lens model SIE + external shear" in n for n in seen["notes"])
-    assert any("time delays" in n for n in seen["notes"])
+        report_pages.lens_model_figure = original
+    assert written is not None and (tmp_path / "page-2.png").is_file()  # system A's page, then the model's
+    assert "axis ratio q" in seen["text"] and "delay A2-A1" in seen["text"] and "SIE" in seen["text"]
     # undo removes the model, redo brings it back (one step each)
     qtbot.keyClick(w, Qt.Key_Z, Qt.ControlModifier)
     assert panel.model_result is None
