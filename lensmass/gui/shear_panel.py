@@ -26,6 +26,7 @@ from PySide6.QtWidgets import (QCheckBox, QComboBox, QDialog, QDialogButtonBox, 
                                QGridLayout, QHBoxLayout, QLabel, QLineEdit, QPushButton, QSpinBox,
                                QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget)
 
+from lensmass.gui.file_dialogs import start_path, window_of
 from lensmass.core.result_text import format_number
 from lensmass.core.errors import LensInputError
 from lensmass.gui.workers import TaskCancelled
@@ -279,7 +280,7 @@ class ShearPanel(QWidget):
 
     # ------------------------------------------------------------- catalogue
     def choose_catalog(self) -> None:
-        path, _ = QFileDialog.getOpenFileName(self, "Shape catalogue", "",
+        path, _ = QFileDialog.getOpenFileName(self, "Shape catalogue", start_path(*window_of(self)),
                                               "Catalogues (*.fits *.fit *.fits.gz *.csv *.ecsv *.parquet)")
         if path:
             self.open_catalog(path)

@@ -43,8 +43,10 @@ class WindowExportMixin:
         return True
 
     def _ask_save_path(self, title: str, name: str, filters: str) -> str:
-        start = str(Path(self.settings.value("last_folder", str(Path.home()))) / name)
-        path, _ = QFileDialog.getSaveFileName(self, title, start, filters)
+        from lensmass.gui.file_dialogs import remember_folder, start_path
+
+        path, _ = QFileDialog.getSaveFileName(self, title, start_path(self.model, self.settings, name), filters)
+        remember_folder(self.settings, path)
         return path
 
     def export_results_dialog(self) -> None:

@@ -69,8 +69,9 @@ class WindowFilesMixin:
             self.open_path(paths[0])
 
     def open_dialog(self) -> None:
-        start = self.settings.value("last_folder", str(Path.home()))
-        path, _ = QFileDialog.getOpenFileName(self, "Open image or session", start,
+        from lensmass.gui.file_dialogs import start_path
+
+        path, _ = QFileDialog.getOpenFileName(self, "Open image or session", start_path(self.model, self.settings),
                                               IMAGE_FILTER.replace("Images (", "Images and sessions (*.json ", 1))
         if path:
             self.open_path(path)
@@ -88,7 +89,9 @@ class WindowFilesMixin:
         except LensInputError as exc:
             self.show_error(str(exc))
             return False
-        self.settings.setValue("last_folder", str(Path(path).absolute().parent))
+        from lensmass.gui.file_dialogs import remember_folder
+
+        remember_folder(self.settings, path)
         self._add_recent(path)
         return True
 
@@ -208,9 +211,10 @@ class WindowFilesMixin:
     def save_session_as(self) -> bool:
         from lensmass.io.session import SESSION_SUFFIX
 
-        start = self.model.session_path or str(Path(self.settings.value("last_folder", str(Path.home())))
-                                               / (Path(self.model.image.path).stem + SESSION_SUFFIX
-                                                  if self.model.image else "measurement" + SESSION_SUFFIX))
+        from lensmass.gui.file_dialogs import start_path
+
+        start = self.model.session_path or start_path(self.model, self.settings, (
+            Path(self.model.image.path).stem if self.model.image else "measurement") + SESSION_SUFFIX)
         path, _ = QFileDialog.getSaveFileName(self, "Save session", start, SESSION_FILTER)
         return bool(path) and self._save_to(path)
 
