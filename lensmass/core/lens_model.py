@@ -519,6 +519,7 @@ def fit_lens_model(
     result.update({
         "theta_e_err_arcsec": theta_err,
         "center_x": cxp, "center_y": cyp, "center_ra": ra, "center_dec": dec,
+        "center_source": f"mass centre of the best-fitting {MODEL_NAME} model",
         "method": f"lens model: {MODEL_NAME} fitted to {px.size} marked points ({summary['sampler']} posterior)",
         "n_points": int(px.size),
         "pixel_scale_arcsec": scale,

@@ -81,6 +81,14 @@ class Rounded:
     low: str = ""
     high: str = ""
     power: int | None = None
+    decimals: int | None = None
+    """Decimal places of the mantissas (None: the value was written without an uncertainty)."""
+
+    def same(self, x: Any) -> str:
+        """Another number (e.g. a 95% bound) as a mantissa with this one's power and decimals."""
+        if self.decimals is None or not _finite(x):
+            return format_number(x)
+        return _fixed(float(x) / 10.0 ** (self.power or 0), self.decimals)
 
     def _with_power(self, mantissa: str) -> str:
         return mantissa if self.power is None else f"{mantissa}e{self.power:+03d}"
@@ -151,6 +159,7 @@ def round_measured(value: Any, error: Any = None, interval: Sequence[Any] | None
         "" if lo is None else _fixed(lo / scale, decimals),
         "" if hi is None else _fixed(hi / scale, decimals),
         power,
+        decimals,
     )
 
 
@@ -174,7 +183,7 @@ def rounded_key(result: dict, key: str) -> Rounded:
         return Rounded(round_measured(result[key], result[key]).error)
     interval = (result.get("intervals68") or {}).get(key)
     r = round_measured(result.get(key, float("nan")), uncertainty_of(result, key), interval)
-    return Rounded(r.value, "", r.low, r.high, r.power)
+    return Rounded(r.value, "", r.low, r.high, r.power, r.decimals)
 
 
 def interval_text(result: dict, key: str) -> str:

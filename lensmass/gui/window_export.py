@@ -36,7 +36,7 @@ class WindowExportMixin:
         if self.tasks.busy and self._estimating:
             self.tasks.wait(10000)
             QApplication.processEvents()
-        if self.model.result is None:
+        if not any(d.result is not None for d in self.model.derived):  # every system with a result is exported
             self.show_error(self.model.result_problem or "There is no result to export yet: mark the arc and "
                             "enter the redshifts first.")
             return False
@@ -94,14 +94,20 @@ class WindowExportMixin:
             return None
         m = self.model
         session = m.to_session()
-        pages = []
+        pages, left_out = [], []
         for i, (system, d) in enumerate(zip(m.systems, m.derived)):
             if d.result is None or d.fit is None:
+                if system.points or system.images:
+                    reason = d.result_problem or d.fit_problem or "it has no result yet"
+                    left_out.append(f"Arc system {system.name} is not in this report: {reason.rstrip('.')}.")
                 continue
             cut, overlay = self._report_cutout(d.fit, system)
             inputs = inputs_from_session(session, i, d.fit.theta_e_arcsec, d.fit.theta_e_err_arcsec,
                                          Path(m.image.path).name)
             pages.append(SystemPage(system.name, cut, overlay, inputs, d.result))
+        if left_out and pages:  # said on the first page, so a missing system is never silent
+            first = pages[0]
+            first.result = dict(first.result, notes=left_out + list(first.result.get("notes") or []))
         lens_model = self._report_lens_model()
         cosmo, definition = m.session.cosmology.resolve(), m.session.halo_definition
         title = f"Lens mass report: {Path(m.image.path).name}"

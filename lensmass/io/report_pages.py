@@ -55,11 +55,7 @@ def _block_text(block: Mapping[str, Any] | None) -> tuple[str, str, str]:
     lo95, hi95 = block.get("interval95") or (None, None)
     i95 = ""
     if lo95 is not None and hi95 is not None and r68.low:
-        # the 95% bounds to the decimals of the 68% ones
-        dec = len(r68.low.split(".")[1]) if "." in r68.low else 0
-        scale = 10.0 ** (r68.power or 0)
-        i95 = f"[{lo95 / scale:.{dec}f}, {hi95 / scale:.{dec}f}]" + (
-            "" if r68.power is None else f"$\\times10^{{{r68.power}}}$")
+        i95 = f"[{r68.same(lo95)}, {r68.same(hi95)}]" + ("" if r68.power is None else f"$\\times10^{{{r68.power}}}$")
     return value, i68, i95
 
 
@@ -136,8 +132,12 @@ def lens_model_figure(model_result: Mapping[str, Any], image_cutout: np.ndarray 
 
     ax_im = fig.add_axes((0.06, 0.40, 0.88, 0.17))
     _section(ax_im, "images: marked -> model (pixels), residual, magnification")
+    from lensmass.core.lens_centre import centre_text
+
+    centre = centre_text(dict(model_result))
     _wrapped(ax_im, [_mathtext_safe(line) for line in image_lines(lm)] +
-             [_mathtext_safe(f"Fit: {lm['sampler']} posterior, {lm['n_draws']} draws; {chi2_text(lm)}.")],
+             [_mathtext_safe(f"Fit: {lm['sampler']} posterior, {lm['n_draws']} draws; {chi2_text(lm)}.")] +
+             ([_mathtext_safe(f"Lens centre: {centre}.")] if centre else []),
              top=0.9, size=6.8, gap=0.01)
 
     ax_notes = fig.add_axes((0.06, 0.22, 0.88, 0.14))
