@@ -324,12 +324,18 @@ def _fresh_window(qtbot, tmp_path):
     return fresh
 
 
-def test_after_a_crash_the_next_window_offers_the_autosave(qtbot, make_window, tmp_path):
-    crashed, written = _crashed_autosave(qtbot, make_window, tmp_path)
+def _after_crash(qtbot, make_window, tmp_path, answer: str, save_as: str | None = None):
+    """A crashed window's autosave, a fresh window, and its recovery prompt answered with ``answer``."""
+    crashed, written = _crashed_autosave(qtbot, make_window, tmp_path, save_as=save_as)
     fresh = _fresh_window(qtbot, tmp_path)
     seen: list = []
-    _answer_prompt(qtbot, "Restore my work", seen)
+    _answer_prompt(qtbot, answer, seen)
     fresh.offer_recovery()
+    return crashed, written, fresh, seen
+
+
+def test_after_a_crash_the_next_window_offers_the_autosave(qtbot, make_window, tmp_path):
+    crashed, written, fresh, seen = _after_crash(qtbot, make_window, tmp_path, "Restore my work")
     text, buttons = seen[0]
     assert sorted(buttons) == ["Decide later", "Discard it", "Restore my work"]
     assert "did not close cleanly" in text and "tris_ring_a.fits" in text and "autosaved on" in text
@@ -339,11 +345,8 @@ def test_after_a_crash_the_next_window_offers_the_autosave(qtbot, make_window, t
 
 
 def test_restored_session_keeps_its_name_and_path(qtbot, make_window, tmp_path):
-    crashed, written = _crashed_autosave(qtbot, make_window, tmp_path, save_as="night3.lensmass.json")
-    fresh = _fresh_window(qtbot, tmp_path)
-    seen: list = []
-    _answer_prompt(qtbot, "Restore my work", seen)
-    fresh.offer_recovery()
+    crashed, written, fresh, seen = _after_crash(qtbot, make_window, tmp_path, "Restore my work",
+                                                 save_as="night3.lensmass.json")
     assert "the session 'night3.lensmass.json'" in seen[0][0]
     assert fresh.model.session_path == str(tmp_path / "night3.lensmass.json")
     assert fresh.windowTitle().startswith("night3.lensmass.json *")  # its name, with unsaved changes
@@ -356,11 +359,7 @@ def test_restored_session_keeps_its_name_and_path(qtbot, make_window, tmp_path):
 
 
 def test_decide_later_keeps_the_autosave_and_discard_deletes_it(qtbot, make_window, tmp_path):
-    crashed, written = _crashed_autosave(qtbot, make_window, tmp_path)
-    fresh = _fresh_window(qtbot, tmp_path)
-    seen: list = []
-    _answer_prompt(qtbot, "Decide later", seen)
-    fresh.offer_recovery()
+    crashed, written, fresh, seen = _after_crash(qtbot, make_window, tmp_path, "Decide later")
     assert written.exists() and fresh.model.image is None  # nothing restored, nothing lost
     _answer_prompt(qtbot, "Discard it", seen)
     fresh.offer_recovery()
