@@ -129,6 +129,9 @@ def result_record(row, result: dict | None, error: str) -> dict[str, Any]:
             bounds = (result.get(block) or {}).get(key)
             rec[key + suffix] = _num(bounds[i]) if bounds else math.nan
     rec["theta_e_err_arcsec"] = _num(result.get("theta_e_err_arcsec"))
+    for key in ("center_x", "center_y", "center_ra", "center_dec"):  # the lens centre of an image row
+        rec[key] = _num(result.get(key))
+    rec["center_source"] = str(result.get("center_source", "") or "")
     rec["mc_samples"] = int(result.get("mc_samples") or 0)
     rec["mc_rejected"] = int(result.get("mc_rejected") or 0)
     rec["cosmology"] = str(result.get("cosmology", ""))
@@ -138,7 +141,7 @@ def result_record(row, result: dict | None, error: str) -> dict[str, Any]:
     rec["error"] = error
     from lensmass.io.spreadsheet import spreadsheet_safe
 
-    for key in ("id", "cosmology", "source", "method", "notes", "error"):  # RESULTS may be opened in a spreadsheet
+    for key in ("id", "cosmology", "source", "method", "center_source", "notes", "error"):  # RESULTS may be opened in a spreadsheet
         rec[key] = spreadsheet_safe(rec[key])
     return rec
 
