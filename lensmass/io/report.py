@@ -26,7 +26,6 @@ from typing import Any, Mapping, Sequence
 
 import numpy as np
 
-from lensmass.core.errors import LensInputError
 from lensmass.core.result_keys import RESULT_KEYS, fact, keys_in
 from lensmass.io.report_format import _mathtext_safe, format_interval, format_value
 from lensmass.io.report_plots import (
@@ -356,24 +355,13 @@ def render_report(path: str | os.PathLike, image_cutout: np.ndarray | None, over
     >>> out.read_bytes()[:4]
     b'%PDF'
     """
-    from lensmass import __version__
-    from lensmass.io.atomic import atomic_path
+    from lensmass.io.report_pages import report_format_of, write_figures
 
-    target = Path(path).absolute()
-    fmt = target.suffix.lower().lstrip(".")
-    if fmt not in ("png", "pdf"):
-        raise LensInputError(f"Cannot write a report as '{target.suffix or target.name}': name the file .png or .pdf.")
+    report_format_of(path)  # a wrong suffix is refused before any drawing
     fig = report_figure(image_cutout, overlay, inputs, result, title=title, subtitle=subtitle, cosmo=cosmo,
                         halo_definition=halo_definition, curves=curves, histogram=histogram,
                         generated_at=generated_at)
-    meta = {"Title": title, "Creator": f"lensmass {__version__}"} if fmt == "pdf" else {
-        "Title": title, "Software": f"lensmass {__version__}"}
-    try:
-        with atomic_path(target) as tmp:
-            fig.savefig(tmp, format=fmt, dpi=dpi, metadata=meta, facecolor="white")
-    except OSError as exc:
-        raise LensInputError(f"Could not write the report '{target}' ({exc.strerror or exc}): choose another folder.") from None
-    return target
+    return write_figures(path, [fig], title=title, dpi=dpi)[0]
 
 
 def inputs_from_session(session, arc: int | str = 0, theta_e_arcsec: float | None = None,

@@ -176,14 +176,9 @@ def render_report_pages(path: str | os.PathLike, systems: Sequence[SystemPage],
     >>> [p.name for p in render_report_pages(out, pages)]
     ['report.pdf']
     """
-    from lensmass import __version__
-    from lensmass.io.atomic import atomic_path
     from lensmass.io.report import report_figure
 
-    target = Path(path).absolute()
-    fmt = target.suffix.lower().lstrip(".")
-    if fmt not in ("png", "pdf"):
-        raise LensInputError(f"Cannot write a report as '{target.suffix or target.name}': name the file .png or .pdf.")
+    report_format_of(path)  # a wrong suffix is refused before any drawing
     if not systems and lens_model is None:
         raise LensInputError("There is nothing to report yet: mark an arc system and enter the redshifts first.")
     when = generated_at or datetime.now(timezone.utc)
@@ -198,6 +193,25 @@ def render_report_pages(path: str | os.PathLike, systems: Sequence[SystemPage],
         result, cut, overlay = lens_model
         subtitle = f"lens model: {result['lens_model']['model']}" + (f" (page {total} of {total})" if total > 1 else "")
         figures.append(lens_model_figure(result, cut, overlay, title=title, subtitle=subtitle, generated_at=when))
+    return write_figures(path, figures, title=title, dpi=dpi)
+
+
+def report_format_of(path: str | os.PathLike) -> str:
+    """'pdf' or 'png' from the file name; any other name is one sentence."""
+    target = Path(path).absolute()
+    fmt = target.suffix.lower().lstrip(".")
+    if fmt not in ("png", "pdf"):
+        raise LensInputError(f"Cannot write a report as '{target.suffix or target.name}': name the file .png or .pdf.")
+    return fmt
+
+
+def write_figures(path: str | os.PathLike, figures: Sequence[Any], *, title: str, dpi: int = 150) -> list[Path]:
+    """Write report pages atomically: all in one PDF, or one PNG each (``name.png``, ``name-2.png``, ...)."""
+    from lensmass import __version__
+    from lensmass.io.atomic import atomic_path
+
+    target = Path(path).absolute()
+    fmt = report_format_of(target)
     written = []
     try:
         if fmt == "pdf":
