@@ -22,6 +22,7 @@ from lensmass.core.result_text import (  # noqa: F401 (interval_text, format_num
     rounded_key,
 )
 from lensmass.gui.model import WindowModel
+from lensmass.gui.words import window_note
 
 #: Keys left out of the panel: the redshifts are inputs, shown in "Lens & source".
 _INPUT_KEYS = ("z_l", "z_s")
@@ -164,5 +165,5 @@ class ResultsPanel(QWidget):
         where = centre_text(result)
         self.centre.setText(f"Lens centre: {where}" if where else "")
         warns = list(fit.warnings) if fit is not None else []
-        self.notes.setText("\n".join("• " + t for t in warns + list(result.get("notes") or [])))
+        self.notes.setText("\n".join("• " + window_note(t) for t in warns + list(result.get("notes") or [])))
         self.copy_button.setEnabled(True)

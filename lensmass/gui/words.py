@@ -7,6 +7,7 @@ shows its flag instead (``lensmass.cli.PARAMETER_FLAGS``) and the window the nam
 from __future__ import annotations
 
 from lensmass.core.errors import in_words
+from lensmass.core.result_keys import MODEL_NOTE
 
 #: Python parameter -> how the window's fields call it.
 FIELD_NAMES = {
@@ -21,3 +22,13 @@ FIELD_NAMES = {
 def window_words(message: str) -> str:
     """``message`` with its parameter names as the window's fields call them."""
     return in_words(message, FIELD_NAMES)
+
+
+#: The model note as the Mass budget panel says it (its models are in the rows' tooltips and the copied text).
+WINDOW_MODEL_NOTE = ("Masses are model-dependent estimates: point at a row to see the model and assumptions "
+                     "behind its number; Copy as text lists them all.")
+
+
+def window_note(note: str) -> str:
+    """A result's note as the window shows it (the model note says where the window lists the models)."""
+    return WINDOW_MODEL_NOTE if note == MODEL_NOTE else window_words(note)

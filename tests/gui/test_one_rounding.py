@@ -58,6 +58,11 @@ def test_window_report_and_command_line_write_the_same_numbers(qtbot, make_windo
     assert win_theta[0] == f"{fit.theta_e_arcsec:.{decimals}f}"
     assert f"{fit.theta_e_arcsec:.{decimals}f} ± {err:.{decimals}f}" in w.fit_label.text()
 
+    # the model note in words: where the window lists the models, never a JSON key
+    assert "point at a row to see the model" in panel.notes.text() and "'models'" not in panel.notes.text()
+    assert all(models_text in panel.names[key].toolTip() for key, models_text in result["models"].items()
+               if key in panel.names and key != "theta_e_arcsec")
+
     # the command line on the same marks, redshifts and Monte Carlo draws
     csv = tmp_path / "marks.csv"
     csv.write_text("x,y\n" + "\n".join(f"{x},{y}" for x, y in w.model.active_system.points) + "\n")
@@ -84,6 +89,7 @@ def test_window_report_and_command_line_write_the_same_numbers(qtbot, make_windo
     mant, power = re.fullmatch(r"([\d.]+)e\+(\d+)", win_mass[0]).groups()
     assert f"${mant}\\times10^{{{int(power)}}}$" in texts
     assert f"{fit.theta_e_arcsec:.{decimals}f} ± {err:.{decimals}f} arcsec" in texts  # the inputs' measured line
+    assert not any("'models'" in t for t in texts) and "'models'" not in out
 
     # one lens centre: the window's line, the command line's line and the report's rows agree with astropy
     from astropy.coordinates import SkyCoord
