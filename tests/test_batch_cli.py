@@ -54,6 +54,10 @@ def test_points_file_rows_are_measured(tmp_path):
     # a circle of radius 7 px at 0.2"/px has radius 1.4" (geometry; common practice)
     assert row["theta_e_arcsec"] == pytest.approx(1.4, rel=1e-4)  # points rounded to 1e-4 px
     assert "points file arc.csv" in row["source"] and row["method"].startswith("circle")
+    # the lens centre: the circle's centre (60, 50) px, and which centre it is; no WCS, so no RA/Dec
+    assert (row["center_x"], row["center_y"]) == pytest.approx((60.0, 50.0), abs=1e-3)
+    assert row["center_source"] == "centre of the circle fitted to the arc points"
+    assert np.isnan(row["center_ra"])
 
 
 def test_all_good_rows_exit_zero_and_existing_results_are_protected(tmp_path, capsys):

@@ -136,3 +136,24 @@ def test_save_residual_keeps_wcs(tmp_path, capsys):
     yy, xx = np.indices(res.data.shape)
     far = np.hypot(xx - 50.3, yy - 49.6) > 30
     assert abs(float(np.nanmedian(res.data[far]))) < 0.2
+
+
+def test_lens_centre_is_on_the_sky_and_says_which_centre(tmp_path, capsys):
+    # RA/Dec checked against astropy's own WCS transform of the FITS header (a reference library)
+    from astropy.io import fits
+    from astropy.wcs import WCS
+
+    t = _truth("tris_ring_a")
+    csv = _points_csv(tmp_path, t["arc_points_xy"][::4])
+    cx, cy = t["center_x"], t["center_y"]
+    code, out, err = _run(capsys, "measure", str(RING), "--points", str(csv), "--zl", "0.25", "--zs", "0.9",
+                          "--samples", "300", "--center", f"{cx},{cy}", "--json")
+    assert code == 0, err
+    r = json.loads(out)
+    sky = WCS(fits.getheader(RING)).pixel_to_world(cx, cy)
+    assert (r["center_ra"], r["center_dec"]) == pytest.approx((sky.ra.deg, sky.dec.deg), abs=1e-9)
+    assert r["center_source"] == "given by the user (held fixed in the fit)"
+    code, out, err = _run(capsys, "measure", str(RING), "--points", str(csv), "--zl", "0.25", "--zs", "0.9",
+                          "--samples", "300", "--center", f"{cx},{cy}")
+    line = next(s for s in out.splitlines() if s.startswith("lens centre: "))
+    assert sky.to_string("hmsdms", sep=":", precision=2).split()[0] in line and line.endswith("held fixed in the fit)")

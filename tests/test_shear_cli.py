@@ -9,6 +9,7 @@ from astropy.io import fits
 from astropy.table import Table
 from astropy.wcs import WCS
 
+from lensmass.core.result_text import round_measured
 from lensmass.cli import main
 from lensmass.core.concentration import duffy08_concentration
 from lensmass.core.cosmology import little_h, resolve_cosmology
@@ -200,7 +201,9 @@ def test_terminal_and_profile_file_say_which_m200_is_which(capsys, small_catalog
     best, median = meta["best_fit"]["nfw_m200_msun"], meta["medians"]["nfw_m200_msun"]
     assert best != median and "maximum-likelihood" in meta["values"] and "posterior medians" in meta["values"]
     row = next(line for line in out.splitlines() if line.startswith("NFW M200"))
-    assert f"{median:.4g}" in row and row.endswith("Msun (posterior median)")
+    # the median as the one rounding rule writes it (two figures of the interval's half-width)
+    shown = round_measured(median, interval=meta["intervals68"]["nfw_m200_msun"]).value_text
+    assert row.split()[2] == shown and row.endswith("Msun (posterior median)")
     assert f"M200 = {best:.4g} Msun" in out and "maximum-likelihood best fit" in out
     assert "detection" in out and meta["detected"] is True
 

@@ -17,7 +17,6 @@ from lensmass.commands.common import (
     add_cosmology_options,
     add_halo_options,
     add_sampling_options,
-    format_number,
     parse_pair,
 )
 from lensmass.commands.light_options import LIGHT_ROWS, add_light_options, apply_light_to_measurement
@@ -125,11 +124,9 @@ def print_measurement(result: dict, as_json: bool, extra_rows=()) -> None:
 
     if not as_json:
         print(f"method: {result.get('method', '')}")
-        cx, cy = result.get("center_x"), result.get("center_y")
-        line = f"lens centre: x = {format_number(cx)}, y = {format_number(cy)} (pixels, 0-based)"
-        if result.get("center_ra") is not None:
-            line += f"; RA = {result['center_ra']:.6f}, Dec = {result['center_dec']:+.6f} deg"
-        print(line)
+        from lensmass.core.lens_centre import centre_text
+
+        print(f"lens centre: {centre_text(result)}")
     print_result(result, as_json, extra_rows=list(MEASURE_ROWS) + list(extra_rows))
 
 

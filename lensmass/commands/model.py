@@ -15,7 +15,6 @@ from lensmass.commands.common import (
     add_halo_options,
     add_redshift_options,
     add_sampling_options,
-    format_number,
     parse_pair,
 )
 
@@ -142,6 +141,7 @@ def _cosmology(args):
 
 def format_model(result: dict) -> str:
     """The lens-model part of the readable output."""
+    from lensmass.core.lens_centre import centre_text
     from lensmass.core.lens_model import chi2_text
 
     lm = result["lens_model"]
@@ -152,7 +152,7 @@ def format_model(result: dict) -> str:
     lines += [f"  {label + (' (' + unit + ')' if unit else ''):<20}{interval_columns(p[key], fmt)}"
               for key, label, _short, unit, fmt in PARAMETER_ROWS]
     lines += [f"  {label:<20}{interval_columns(block, '.3g')}" for label, block in delay_rows(lm)]
-    lines += [f"  centre: x = {format_number(result['center_x'])}, y = {format_number(result['center_y'])} px",
+    lines += [f"  lens centre: {centre_text(result)}",
               f"  fit: {chi2_text(lm)}",
               f"  click error {lm['point_err_pix']:g} px = {lm['point_err_arcsec']:.3g} arcsec (1 sigma)",
               "  images: marked -> model (px), residual, magnification [68%]:"]

@@ -72,6 +72,8 @@ class ThetaEMeasurement:
     fit_position_angle_deg: float | None = None
     points_xy: list[list[float]] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
+    center_source: str = ""
+    """Which centre it is, in words (see :mod:`lensmass.core.lens_centre`)."""
 
     def keys(self) -> dict[str, Any]:
         """The measurement keys merged into the estimate result."""
@@ -81,6 +83,7 @@ class ThetaEMeasurement:
             "center_y": self.center_y,
             "center_ra": self.center_ra,
             "center_dec": self.center_dec,
+            "center_source": self.center_source,
             "method": self.method,
             "fit_rms_arcsec": self.fit_rms_arcsec,
             "ring_score": self.ring_score,
@@ -299,9 +302,12 @@ def measure_theta_e_from_points(
     ra, dec = _sky(to_sky, cx_pix, cy_pix)
     if scale_err == 0:
         notes.append("No pixel-scale uncertainty given: theta_E error is from the fit alone.")
+    from lensmass.core.lens_centre import CENTRE_HOW_WORDS, FITTED_CENTRE_WORDS
+
+    source = CENTRE_HOW_WORDS["given"] if center is not None else FITTED_CENTRE_WORDS[shape]
     return ThetaEMeasurement(float(theta), err, cx_pix, cy_pix, ra, dec, method, float(rms), int(px.size), scale,
                              None, None, axis_ratio, pa,
-                             [[float(a), float(b)] for a, b in zip(px, py)], notes)
+                             [[float(a), float(b)] for a, b in zip(px, py)], notes, source)
 
 
 def _run_estimate(m: ThetaEMeasurement, z_l, z_s, estimate_options, estimate_fn) -> dict[str, Any]:
@@ -442,7 +448,9 @@ def measure_theta_e_auto_ring(
     m = ThetaEMeasurement(theta, err, ring.center_x, ring.center_y, ra, dec, method, ring.fit_rms_pix * scale,
                           int(ring.points_x.size), scale, ring.score, ring.confident,
                           float(ring.axis_ratio) if np.isfinite(ring.axis_ratio) else None, pa,
-                          [[float(a), float(b)] for a, b in zip(ring.points_x, ring.points_y)], notes)
+                          [[float(a), float(b)] for a, b in zip(ring.points_x, ring.points_y)], notes,
+                          "given by the user" if ring.center_source == "given"
+                          else f"ring finder's centre: {ring.center_source}")
     return m, ring
 
 

@@ -11,6 +11,7 @@ from typing import Any, Callable
 
 import numpy as np
 
+from lensmass.core.result_keys import MODEL_NOTE
 from lensmass.core.concentration import concentration_relation
 from lensmass.core.cosmology import angular_diameter_distances_mpc, cosmology_label, little_h, resolve_cosmology
 from lensmass.core import limits
@@ -402,7 +403,7 @@ def model_notes(theta_e_arcsec, nfw_m200_msun, concentration_label: str) -> list
             "Galaxy-scale lens: an NFW-only halo overestimates the mass, because NFW is too shallow in the "
             "centre and the stars that make most of the Einstein radius are missing from the model."
         )
-    notes.append("Masses are model-dependent estimates; see 'models' for the model behind each number.")
+    notes.append(MODEL_NOTE)
     return notes
 
 

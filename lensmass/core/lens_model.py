@@ -575,6 +575,7 @@ def fit_lens_model(
         ra, dec = float(r_), float(d_)
     result.update({
         "center_x": cxp, "center_y": cyp, "center_ra": ra, "center_dec": dec,
+        "center_source": f"mass centre of the best-fitting {MODEL_NAME} model",
         "method": f"lens model: {MODEL_NAME} fitted to {px.size} marked points ({summary['sampler']} posterior)",
         "n_points": int(px.size),
         "pixel_scale_arcsec": scale,
@@ -660,7 +661,7 @@ def masses_from_lens_model(result: Mapping[str, Any], z_l, z_s, *, system: str |
                             + "; ".join(lm.get("priors") or []))
     out["models"] = models
     out["notes"] = [f"theta_E from the lens model ({lm.get('model', MODEL_NAME)}, {lm.get('sampler', '')} posterior), "
-                    "not from a circle through the marks; see 'models' for its assumptions."] \
+                    "not from a circle through the marks; its assumptions are listed with each number."] \
         + list(out.get("notes") or [])
     return out
 

@@ -45,6 +45,11 @@ UNIT_FORMS: dict[str, tuple[str, str, str]] = {
     "dex": ("dex", "dex", "dex"),
 }
 
+#: The note every mass result carries, in words (no key names): the outputs list each number's model
+#: beside it (the window's tooltips and copied text, the report's model block, the command line's table).
+MODEL_NOTE = ("Masses are model-dependent estimates: each number is listed with the model and assumptions "
+              "that produced it.")
+
 #: Which step makes a key.
 GROUPS = ("estimate", "measure", "light", "shear", "profile", "stack", "meta")
 #: How a value is written: 4 significant figures, an integer count, text, a yes/no flag,
@@ -164,8 +169,10 @@ _FACTS: list[KeyFact] = [
        "intervals, priors, predicted images, time delays (lensmass.core.lens_model)", _M, fmt="block"),
     _f("center_x", "centre x", "pix", "lens centre, 0-based column", _M),
     _f("center_y", "centre y", "pix", "lens centre, 0-based row", _M),
-    _f("center_ra", "centre RA", "deg", "lens centre, right ascension", _M),
-    _f("center_dec", "centre Dec", "deg", "lens centre, declination", _M),
+    _f("center_ra", "centre RA", "deg", "lens centre, right ascension (ICRS, from the image's WCS)", _M),
+    _f("center_dec", "centre Dec", "deg", "lens centre, declination (ICRS, from the image's WCS)", _M),
+    _f("center_source", "lens centre", None, "which lens centre theta_E was measured about: marked by hand, "
+       "given, found by the ring finder, or the fitted curve's own centre", _M, fmt="text"),
     _f("ring_confident", "ring confident", None, "whether the ring finder's detection clears its threshold", _M,
        fmt="flag"),
     # ---------------------------------------------------------------- lens light

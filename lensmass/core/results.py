@@ -32,7 +32,7 @@ from typing import Any
 import numpy as np
 
 from lensmass.core.result_keys import RESULT_KEYS, fact
-from lensmass.core.result_text import format_number, interval_text
+from lensmass.core.result_text import interval_text, value_text
 
 #: Suffix of each bound column -> (interval block, index in [low, high], percentile); as in the ECSV export.
 BOUND_COLUMNS = {"_p16": ("intervals68", 0, "16th"), "_p84": ("intervals68", 1, "84th"),
@@ -124,7 +124,7 @@ class LensResult(dict):
     def __repr__(self) -> str:
         if self.n_lenses > 1 or any(np.ndim(self[k]) for k in self._rows()):
             return f"<LensResult of {self.n_lenses} lenses: {', '.join(self._rows())}; .to_table() shows them>"
-        parts = [f"{fact(k).label} = {format_number(self[k])} {fact(k).plain_unit}".rstrip() for k in self._rows()]
+        parts = [f"{fact(k).label} = {value_text(self, k)} {fact(k).plain_unit}".rstrip() for k in self._rows()]
         notes = self.get("notes") or []
         return "LensResult(" + "; ".join(parts) + (f"; {len(notes)} notes" if notes else "") + ")"
 
@@ -137,7 +137,7 @@ class LensResult(dict):
         else:
             rows = "".join(
                 f"<tr title='{html.escape(str(models.get(k, '')), quote=True)}'><td>{fact(k).rich_label}</td>"
-                f"<td style='text-align:right'>{format_number(self[k])}</td><td>{interval_text(self, k)}</td>"
+                f"<td style='text-align:right'>{value_text(self, k)}</td><td>{interval_text(self, k)}</td>"
                 f"<td>{fact(k).rich_unit}</td></tr>" for k in self._rows())
             body = ("<table><tr><th></th><th>value</th><th>68% interval</th><th>unit</th></tr>" + rows + "</table>")
         model_list = "".join(f"<li><code>{html.escape(k)}</code>: {html.escape(str(v))}</li>"

@@ -7,6 +7,7 @@ from typing import Any
 import numpy as np
 
 from lensmass.core.constants import ARCSEC_RAD
+from lensmass.core.result_keys import MODEL_NOTE
 from lensmass.core.shear_fit import DETECTION_SIGMA, PRIORS
 
 
@@ -71,7 +72,7 @@ def _notes(sis, nfw, p_cross, dropped, zeta_mass, zeta_err, nfw_m2d, per_galaxy_
     if per_galaxy_z:
         notes.append("Per-galaxy redshifts are used as given: photometric-redshift errors and outliers bias "
                      "Sigma_cr and are not propagated.")
-    notes.append("Masses are model-dependent estimates; see 'models' for the model behind each number.")
+    notes.append(MODEL_NOTE)
     return notes
 
 

@@ -14,6 +14,7 @@ from typing import Any
 
 import numpy as np
 
+from lensmass.core.result_keys import MODEL_NOTE
 from lensmass.core.cosmology import cosmology_label, resolve_cosmology
 from lensmass.core.errors import LensInputError
 from lensmass.core.lensing import MPC2_PER_PC2
@@ -212,7 +213,7 @@ def analyse_stack(
                      "model-dependent; check the radial range (two-halo term at large R, miscentring, stars at small R).")
     notes.append("The stacked mass is the M200 of one NFW halo whose profile matches the sample's mean Delta Sigma; "
                  "with a spread of masses it is not the arithmetic mean of the haloes' masses.")
-    notes.append("Masses are model-dependent estimates; see 'models' for the model behind each number.")
+    notes.append(MODEL_NOTE)
     best_fit = {"mean_halo_m200_msun": fit.best_m200_msun}
     medians = {"mean_halo_m200_msun": float(q[2])}
     i68 = {"mean_halo_m200_msun": [float(q[1]), float(q[3])]}

@@ -23,6 +23,7 @@ from PySide6.QtGui import QColor, QPen, QPolygonF
 from PySide6.QtWidgets import (QCheckBox, QFileDialog, QFormLayout, QHBoxLayout, QLabel, QLineEdit, QPushButton,
                                QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget)
 
+from lensmass.gui.file_dialogs import start_path, window_of
 from lensmass.core.errors import LensInputError
 from lensmass.gui.panel_registry import mark_unsaved, resolved_path, stored_path
 from lensmass.gui.workers import TaskCancelled
@@ -117,7 +118,7 @@ class ClusterPanel(QWidget):
 
     # ------------------------------------------------------------------ inputs
     def _browse(self, edit: QLineEdit, label: str) -> None:
-        path, _ = QFileDialog.getOpenFileName(self, f"Choose the {label}")
+        path, _ = QFileDialog.getOpenFileName(self, f"Choose the {label}", start_path(*window_of(self)))
         if path:
             edit.setText(path)
             mark_unsaved(self.window)
@@ -270,7 +271,7 @@ class ClusterPanel(QWidget):
 
     # ------------------------------------------------------------------ export and sessions
     def _export_dialog(self) -> None:
-        path, _ = QFileDialog.getSaveFileName(self, "Export", "components.json",
+        path, _ = QFileDialog.getSaveFileName(self, "Export", start_path(*window_of(self), "components.json"),
                                               "JSON (*.json);;ECSV (*.ecsv);;Report (*.png *.pdf)")
         if path:
             self.export(path)

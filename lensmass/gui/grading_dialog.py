@@ -16,6 +16,7 @@ from PySide6.QtGui import QBrush, QColor
 from PySide6.QtWidgets import (QComboBox, QDialog, QDoubleSpinBox, QFileDialog, QFormLayout, QHBoxLayout, QLabel,
                                QLineEdit, QPushButton, QTableWidget, QTableWidgetItem, QVBoxLayout)
 
+from lensmass.gui.file_dialogs import start_path, window_of
 from lensmass.core.errors import LensInputError
 
 VERDICT_COLOURS = {"pass": "#1b7a3a", "fail": "#b3261e"}
@@ -80,7 +81,8 @@ class GradingDialog(QDialog):
         self.resize(900, 520)
 
     def _browse(self) -> None:
-        path, _ = QFileDialog.getOpenFileName(self, "Submissions table", "", "Tables (*.csv *.ecsv)")
+        path, _ = QFileDialog.getOpenFileName(self, "Submissions table", start_path(*window_of(self)),
+                                              "Tables (*.csv *.ecsv)")
         if path:
             self.path_edit.setText(path)
 
@@ -137,7 +139,8 @@ class GradingDialog(QDialog):
         self.table.resizeColumnsToContents()
 
     def _save_dialog(self) -> None:
-        path, _ = QFileDialog.getSaveFileName(self, "Save the report", "report.csv", "CSV (*.csv)")
+        path, _ = QFileDialog.getSaveFileName(self, "Save the report", start_path(*window_of(self), "report.csv"),
+                                              "CSV (*.csv)")
         if path:
             self.save(path)
 

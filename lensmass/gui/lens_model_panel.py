@@ -288,26 +288,6 @@ class LensModelPanel(QWidget):
             self.window.undo_stack.push(SetLensModel(self, None, "clear lens model"))
             mark_unsaved(self.window)
 
-    def report_lines(self) -> list[str]:
-        """The lens model in one or two sentences for the exported report (none without a fit)."""
-        if self.model_result is None:
-            return []
-        lm = self.model_result["lens_model"]
-        p = lm["parameters"]
-
-        def iv(block, digits=".3g"):
-            lo, hi = block["interval68"]
-            return f"{format(block['median'], digits)} [{format(lo, digits)}, {format(hi, digits)}]"
-
-        text = (f"Lens model {lm['model']} fitted to the marks (68% intervals): theta_E = "
-                f"{iv(p['theta_e_arcsec'])} arcsec, q = {iv(p['axis_ratio'])}, PA = {iv(p['position_angle_deg'], '.0f')} "
-                f"deg, shear = {iv(p['shear'])} at {iv(p['shear_angle_deg'], '.0f')} deg; {chi2_text(lm)}.")
-        lines = [text]
-        delays = [f"{label[6:-4]} {iv(block)} d" for label, block in delay_rows(lm)]
-        if delays:
-            lines.append("Predicted time delays: " + "; ".join(delays) + ".")
-        return lines
-
     # ------------------------------------------------------------------ showing
     def show_model(self, result: dict | None) -> None:
         from lensmass.core.lens_model import model_curves

@@ -23,7 +23,7 @@ from PySide6.QtGui import QColor, QImage, QPen
 from PySide6.QtWidgets import (QCheckBox, QComboBox, QFormLayout, QGridLayout, QGroupBox, QHBoxLayout, QLabel,
                                QLineEdit, QPushButton, QVBoxLayout, QWidget)
 
-from lensmass.core.result_text import format_number, interval_text
+from lensmass.core.result_text import interval_text, value_text
 from lensmass.core.einstein_photometry import light_inside_einstein, photometry_note
 from lensmass.core.result_keys import fact, keys_in
 from lensmass.core.errors import LensInputError
@@ -393,7 +393,7 @@ class LightPanel(QWidget):
         models = (light or {}).get("models") or {}
         for key, _, _ in self.rows:
             value = None if light is None else light.get(key)
-            self.values[key].setText("–" if value is None else format_number(value))
+            self.values[key].setText("–" if value is None else value_text(light, key))
             self.values[key].setToolTip(models.get(key, ""))
             self.intervals[key].setText("" if value is None else interval_text(light, key))
         if light is None:

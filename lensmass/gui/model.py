@@ -428,6 +428,30 @@ class WindowModel:
     def result_problem(self) -> str | None:
         return self.derived[self.active].result_problem
 
+    def measurement_keys(self, system: int) -> dict[str, Any]:
+        """The keys a measurement adds to a system's estimate (as the command line's ``measure`` does):
+        the fit's theta_E error, method and points, and the lens centre it used, on the sky when the
+        image has a WCS, saying which centre it is (:mod:`lensmass.core.lens_centre`)."""
+        from lensmass.core.lens_centre import CENTRE_HOW_WORDS, FITTED_CENTRE_WORDS, centre_keys
+
+        fit = self.derived[system].fit
+        if fit is None or self.image is None:
+            return {}
+        held = self.session.centre
+        source = (CENTRE_HOW_WORDS.get(held.how, CENTRE_HOW_WORDS["hand"]) if held is not None
+                  else FITTED_CENTRE_WORDS.get(fit.shape, FITTED_CENTRE_WORDS["circle"]))
+        loaded = self.image.loaded
+        to_sky = loaded.pixel_to_sky if getattr(loaded, "has_sky", False) else None
+        keys = {"theta_e_err_arcsec": float(fit.theta_e_err_arcsec), "method": fit.method,
+                "n_points": int(fit.n_points)}
+        if self.image.pixel_scale_arcsec:
+            keys["pixel_scale_arcsec"] = float(self.image.pixel_scale_arcsec)
+        try:
+            keys.update(centre_keys(fit.center_x, fit.center_y, source, to_sky))
+        except Exception:  # a WCS that cannot place this pixel: the centre in pixels only
+            keys.update(centre_keys(fit.center_x, fit.center_y, source, None))
+        return keys
+
     def estimate_request(self, system: int | None = None) -> tuple[float, float, dict]:
         """(theta_E, its error, keyword arguments of estimate()) for a system, or LensInputError why not."""
         index = self.active if system is None else system

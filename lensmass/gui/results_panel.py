@@ -12,9 +12,17 @@ from PySide6.QtCore import Qt
 from PySide6.QtGui import QGuiApplication
 from PySide6.QtWidgets import QGridLayout, QHBoxLayout, QLabel, QPushButton, QVBoxLayout, QWidget
 
+from lensmass.core.lens_centre import centre_text
 from lensmass.core.result_keys import fact, keys_in
-from lensmass.core.result_text import format_number, format_table, interval_text  # noqa: F401 (interval_text: panels)
+from lensmass.core.result_text import (  # noqa: F401 (interval_text, format_number: other panels)
+    format_number,
+    format_table,
+    interval_text,
+    round_measured,
+    rounded_key,
+)
 from lensmass.gui.model import WindowModel
+from lensmass.gui.words import window_note
 
 #: Keys left out of the panel: the redshifts are inputs, shown in "Lens & source".
 _INPUT_KEYS = ("z_l", "z_s")
@@ -36,13 +44,18 @@ def result_text(model: WindowModel) -> str:
     if model.image is not None:
         head.append(f"image: {model.image.path}")
     if result.get("theta_e_from") == "lens model":
-        head.append(f"theta_E = {result['theta_e_arcsec']:.4g} +- {result['theta_e_err_arcsec']:.2g} arcsec from the "
-                    "lens model (see 'models')")
+        shown = round_measured(result["theta_e_arcsec"], result["theta_e_err_arcsec"]).plain("+-")
+        head.append(f"theta_E = {shown} arcsec from the lens model")
     elif fit is not None:
-        head.append(f"theta_E = {fit.theta_e_arcsec:.4g} +- {fit.theta_e_err_arcsec:.2g} arcsec from a {fit.method}")
-    models = result.get("models") or {}
-    tail = ["", "models:"] + [f"  {k}: {v}" for k, v in models.items()]
-    return "\n".join(head + [""] + [format_table(result)] + tail)
+        head.append(f"theta_E = {theta_e_text(fit, '+-')} arcsec from a {fit.method}")
+    if centre_text(result):
+        head.append(f"lens centre: {centre_text(result)}")
+    return "\n".join(head + [""] + [format_table(result)])
+
+
+def theta_e_text(fit, plus_minus: str = "±") -> str:
+    """The fitted theta_E and its error by the program's one rounding rule ('1.535 ± 0.020')."""
+    return round_measured(fit.theta_e_arcsec, fit.theta_e_err_arcsec).plain(plus_minus)
 
 
 class ResultsPanel(QWidget):
@@ -86,6 +99,12 @@ class ResultsPanel(QWidget):
             grid.addWidget(QLabel(unit), row, 3)
             self.values[key], self.intervals[key], self.names[key] = value, interval, name
         outer.addLayout(grid)
+        self.centre = QLabel()
+        self.centre.setObjectName("results_centre")
+        self.centre.setWordWrap(True)
+        self.centre.setTextInteractionFlags(Qt.TextSelectableByMouse)
+        self.centre.setToolTip(fact("center_source").description)
+        outer.addWidget(self.centre)
         self.notes = QLabel()
         self.notes.setObjectName("results_notes")
         self.notes.setWordWrap(True)
@@ -121,19 +140,22 @@ class ResultsPanel(QWidget):
                 self.values[key].setText("–")
                 self.intervals[key].setText("")
             if fit is not None:
-                self.values["theta_e_arcsec"].setText(format_number(fit.theta_e_arcsec))
-                self.intervals["theta_e_arcsec"].setText(f"± {format_number(fit.theta_e_err_arcsec)}")
+                shown = round_measured(fit.theta_e_arcsec, fit.theta_e_err_arcsec)
+                self.values["theta_e_arcsec"].setText(shown.value_text)
+                self.intervals["theta_e_arcsec"].setText(f"± {shown.error}")
             reason = m.result_problem or m.derived[m.active].fit_problem
             pending = reason is None and fit is not None
             self.status.setText("Working out the masses..." if pending else (reason or "Mark the arc to begin."))
             self.status.setStyleSheet("" if pending else "color: #d9534f;")
             self.notes.setText("")
+            self.centre.setText("")
             self.copy_button.setEnabled(False)
             return
         models = result.get("models") or {}
         for key, _label, _unit in self.rows:
-            self.values[key].setText(format_number(result.get(key, float("nan"))))
-            self.intervals[key].setText(interval_text(result, key))
+            shown = rounded_key(result, key)
+            self.values[key].setText(shown.value_text)
+            self.intervals[key].setText(shown.interval())
             tip = models.get(key, "")
             if key == "theta_e_arcsec" and fit is not None and result.get("theta_e_from") != "lens model":
                 tip = f"{fit.method}; {fit.n_points} marks; pixel scale from the image"
@@ -145,7 +167,9 @@ class ResultsPanel(QWidget):
                             + ("; theta_E from the lens model" if result.get("theta_e_from") == "lens model"
                                else "; theta_E from the circle fit"))
         self.status.setStyleSheet("")
+        where = centre_text(result)
+        self.centre.setText(f"Lens centre: {where}" if where else "")
         from_model = result.get("theta_e_from") == "lens model"
         warns = list(fit.warnings) if fit is not None and not from_model else []  # the circle's caveats
-        self.notes.setText("\n".join("• " + t for t in warns + list(result.get("notes") or [])))
+        self.notes.setText("\n".join("• " + window_note(t) for t in warns + list(result.get("notes") or [])))
         self.copy_button.setEnabled(True)

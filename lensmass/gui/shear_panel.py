@@ -26,7 +26,8 @@ from PySide6.QtWidgets import (QCheckBox, QComboBox, QDialog, QDialogButtonBox, 
                                QGridLayout, QHBoxLayout, QLabel, QLineEdit, QPushButton, QSpinBox,
                                QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget)
 
-from lensmass.core.result_text import format_number
+from lensmass.gui.file_dialogs import start_path, window_of
+from lensmass.core.result_text import format_number, round_measured
 from lensmass.core.errors import LensInputError
 from lensmass.gui.workers import TaskCancelled
 from lensmass.gui.words import window_words
@@ -279,7 +280,7 @@ class ShearPanel(QWidget):
 
     # ------------------------------------------------------------- catalogue
     def choose_catalog(self) -> None:
-        path, _ = QFileDialog.getOpenFileName(self, "Shape catalogue", "",
+        path, _ = QFileDialog.getOpenFileName(self, "Shape catalogue", start_path(*window_of(self)),
                                               "Catalogues (*.fits *.fit *.fits.gz *.csv *.ecsv *.parquet)")
         if path:
             self.open_catalog(path)
@@ -461,9 +462,9 @@ def result_summary(result: dict) -> str:
     i68 = result["intervals68"]
 
     def line(label, key, unit=""):
-        lo, hi = i68.get(key, (None, None))
-        interval = f" [{format_number(lo)}, {format_number(hi)}]" if lo is not None else ""
-        return f"{label}: {format_number(result[key])}{interval} {unit}".rstrip()
+        shown = round_measured(result[key], None, i68.get(key))  # the program's one rounding rule
+        interval = f" {shown.interval()}" if shown.low else ""
+        return f"{label}: {shown.value_text}{interval} {unit}".rstrip()
 
     detected = result.get("detected", True)
 

@@ -25,6 +25,7 @@ from PySide6.QtGui import QBrush, QColor
 from PySide6.QtWidgets import (QComboBox, QFileDialog, QGridLayout, QHBoxLayout, QLabel, QLineEdit, QPushButton,
                                QTreeWidget, QTreeWidgetItem, QVBoxLayout, QWidget)
 
+from lensmass.gui.file_dialogs import start_path, window_of
 from lensmass.core.errors import LensInputError
 from lensmass.io.store import GRADE_SCALE, consensus_of, default_grader, grade_label
 from lensmass.gui.words import window_words
@@ -193,9 +194,10 @@ class TriagePanel(QWidget):
 
     # ---------------------------------------------------------------- queue
     def _open_dialog(self) -> None:
-        path, _ = QFileDialog.getOpenFileName(self, "Open a manifest", "", "Manifests (*.csv *.ecsv)")
+        path, _ = QFileDialog.getOpenFileName(self, "Open a manifest", start_path(*window_of(self)),
+                                              "Manifests (*.csv *.ecsv)")
         if not path:
-            path = QFileDialog.getExistingDirectory(self, "Or a folder of candidate images")
+            path = QFileDialog.getExistingDirectory(self, "Or a folder of candidate images", start_path(*window_of(self)))
         if path:
             self.open_queue(path)
 
@@ -502,7 +504,7 @@ class TriagePanel(QWidget):
         if self.store is None:
             self._say("Open a queue first.")
             return
-        path, _ = QFileDialog.getSaveFileName(self, "Export the consensus", "consensus.ecsv",
+        path, _ = QFileDialog.getSaveFileName(self, "Export the consensus", start_path(*window_of(self), "consensus.ecsv"),
                                               "Tables (*.ecsv *.csv)")
         if path:
             self.export(path)

@@ -9,6 +9,8 @@ from __future__ import annotations
 import math
 from pathlib import Path
 
+import numpy as np
+
 from PySide6.QtCore import Qt
 from PySide6.QtWidgets import (
     QApplication,
@@ -34,15 +36,17 @@ class WindowExportMixin:
         if self.tasks.busy and self._estimating:
             self.tasks.wait(10000)
             QApplication.processEvents()
-        if self.model.result is None:
+        if not any(d.result is not None for d in self.model.derived):  # every system with a result is exported
             self.show_error(self.model.result_problem or "There is no result to export yet: mark the arc and "
                             "enter the redshifts first.")
             return False
         return True
 
     def _ask_save_path(self, title: str, name: str, filters: str) -> str:
-        start = str(Path(self.settings.value("last_folder", str(Path.home()))) / name)
-        path, _ = QFileDialog.getSaveFileName(self, title, start, filters)
+        from lensmass.gui.file_dialogs import remember_folder, start_path
+
+        path, _ = QFileDialog.getSaveFileName(self, title, start_path(self.model, self.settings, name), filters)
+        remember_folder(self.settings, path)
         return path
 
     def export_results_dialog(self) -> None:
@@ -77,41 +81,47 @@ class WindowExportMixin:
             self.export_report(path, background=True)
 
     def export_report(self, path: str, background: bool = False) -> Path | None:
-        """The one-page report of the selected arc system (PDF or PNG).
+        """The report: a page for every arc system with a result and, when one was fitted, the lens
+        model's page (PDF; a PNG gets one file per page).
 
-        With ``background`` the page is rendered off the GUI thread (the menu's way)
-        and None is returned at once; otherwise the path written is returned.
+        With ``background`` the pages are rendered off the GUI thread (the menu's way)
+        and None is returned at once; otherwise the (first) path written is returned.
         """
-        from lensmass.io.report import Overlay, cutout, inputs_from_session, render_report
+        from lensmass.io.report import inputs_from_session
+        from lensmass.io.report_pages import SystemPage, render_report_pages
 
         if not self._check_results_ready():
             return None
         m = self.model
-        fit, result, system = m.fit, m.result, m.active_system
-        centre = m.centre or (fit.center_x, fit.center_y)
-        half = int(max(24, math.ceil(2.2 * max(fit.a_px, fit.b_px))))
-        data = m.image.residual if m.display.layer == "residual" and m.image.residual is not None else m.image.data
-        cut, origin = cutout(data, centre, half)
-        overlay = Overlay(
-            pixel_scale_arcsec=float(m.image.pixel_scale_arcsec), centre_px=m.centre,
-            points_px=list(system.points), images_px=list(system.images),
-            circle_px=(fit.center_x, fit.center_y, fit.a_px) if fit.shape != "ellipse" else None,
-            ellipse_px=(fit.center_x, fit.center_y, fit.a_px, fit.b_px, fit.angle_deg) if fit.shape == "ellipse" else None,
-            origin_px=tuple(float(v) for v in origin), label=f"system {system.name}, {fit.shape} fit")
-        inputs = inputs_from_session(m.to_session(), m.active, fit.theta_e_arcsec, fit.theta_e_err_arcsec,
-                                     Path(m.image.path).name)
+        session = m.to_session()
+        pages, left_out = [], []
+        for i, (system, d) in enumerate(zip(m.systems, m.derived)):
+            if d.result is None or d.fit is None:
+                if system.points or system.images:
+                    reason = d.result_problem or d.fit_problem or "it has no result yet"
+                    left_out.append(f"Arc system {system.name} is not in this report: {reason.rstrip('.')}.")
+                continue
+            cut, overlay = self._report_cutout(d.fit, system)
+            inputs = inputs_from_session(session, i, d.fit.theta_e_arcsec, d.fit.theta_e_err_arcsec,
+                                         Path(m.image.path).name)
+            pages.append(SystemPage(system.name, cut, overlay, inputs, d.result))
+        if left_out and pages:  # said on the first page, so a missing system is never silent
+            first = pages[0]
+            first.result = dict(first.result, notes=left_out + list(first.result.get("notes") or []))
+        lens_model = self._report_lens_model()
         cosmo, definition = m.session.cosmology.resolve(), m.session.halo_definition
         title = f"Lens mass report: {Path(m.image.path).name}"
-        extra = [line for panel in getattr(self, "panels", []) for line in getattr(panel, "report_lines", list)()]
-        if extra:  # e.g. the lens model's parameters and delays, as notes of the page
-            result = dict(result, notes=list(result.get("notes") or []) + extra)
 
         def render(progress=None, should_stop=None):
-            return render_report(path, cut, overlay, inputs, result, title=title,
-                                 subtitle=f"arc system {system.name}", cosmo=cosmo, halo_definition=definition)
+            return render_report_pages(path, pages, lens_model, title=title, cosmo=cosmo,
+                                       halo_definition=definition)
 
         def done(written):
-            self.show_message(f"Report written to {written.name}.")
+            more = f" and {len(written) - 1} more page files" if len(written) > 1 else ""
+            n_pages = len(pages) + (lens_model is not None)
+            self.show_message(f"Report written to {written[0].name}{more} ({n_pages} page"
+                              f"{'s' if n_pages != 1 else ''}: {len(pages)} arc system"
+                              f"{'s' if len(pages) != 1 else ''}{', the lens model' if lens_model else ''}).")
 
         if background:
             self.run_task(render, "Writing the report", done)
@@ -122,7 +132,51 @@ class WindowExportMixin:
             self.show_error(str(exc))
             return None
         done(written)
-        return written
+        return written[0]
+
+    def _report_cutout(self, fit, system=None):
+        """The cutout around a fit (the residual when that is shown) and the marks drawn over it."""
+        from lensmass.io.report import Overlay, cutout
+
+        m = self.model
+        centre = m.centre or (fit.center_x, fit.center_y)
+        half = int(max(24, math.ceil(2.2 * max(fit.a_px, fit.b_px))))
+        data = m.image.residual if m.display.layer == "residual" and m.image.residual is not None else m.image.data
+        cut, origin = cutout(data, centre, half)
+        overlay = Overlay(
+            pixel_scale_arcsec=float(m.image.pixel_scale_arcsec), centre_px=m.centre,
+            points_px=list(system.points) if system is not None else [],
+            images_px=[xy for s in ([system] if system is not None else m.systems) for xy in s.images],
+            circle_px=(fit.center_x, fit.center_y, fit.a_px) if fit.shape != "ellipse" else None,
+            ellipse_px=(fit.center_x, fit.center_y, fit.a_px, fit.b_px, fit.angle_deg) if fit.shape == "ellipse" else None,
+            origin_px=tuple(float(v) for v in origin),
+            label=f"system {system.name}, {fit.shape} fit" if system is not None else "")
+        return cut, overlay
+
+    def _report_lens_model(self):
+        """(result, cutout, overlay) of the lens model the Lens model dock holds, or None."""
+        from lensmass.io.report import Overlay, cutout
+
+        for panel in getattr(self, "panels", []):
+            result = getattr(panel, "model_result", None)
+            if result is None or "lens_model" not in result:
+                continue
+            m = self.model
+            images = [xy for s in m.systems for xy in s.images]
+            points = [xy for s in m.systems for xy in s.points]
+            lm = result["lens_model"]
+            cx, cy = result.get("center_x"), result.get("center_y")
+            if cx is None:
+                cx, cy = np.mean(np.asarray(images + points, float).reshape(-1, 2), axis=0)
+            far = max([np.hypot(x - cx, y - cy) for x, y in images + points] or [10.0])
+            half = int(max(24, math.ceil(1.5 * far)))
+            data = m.image.residual if m.display.layer == "residual" and m.image.residual is not None else m.image.data
+            cut, origin = cutout(data, (float(cx), float(cy)), half)
+            overlay = Overlay(pixel_scale_arcsec=float(m.image.pixel_scale_arcsec), centre_px=m.centre,
+                              points_px=points, images_px=images, origin_px=tuple(float(v) for v in origin),
+                              label=f"{lm['model']}")
+            return result, cut, overlay
+        return None
 
     def copy_results(self) -> str:
         return self.results_panel.copy_text()

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from PySide6.QtWidgets import QFileDialog, QMessageBox
+from PySide6.QtWidgets import QFileDialog
 
 from lensmass.core.errors import LensInputError
 from lensmass.gui.display import COLORMAPS, LIMITS, STRETCHES
@@ -69,8 +69,9 @@ class WindowFilesMixin:
             self.open_path(paths[0])
 
     def open_dialog(self) -> None:
-        start = self.settings.value("last_folder", str(Path.home()))
-        path, _ = QFileDialog.getOpenFileName(self, "Open image or session", start,
+        from lensmass.gui.file_dialogs import start_path
+
+        path, _ = QFileDialog.getOpenFileName(self, "Open image or session", start_path(self.model, self.settings),
                                               IMAGE_FILTER.replace("Images (", "Images and sessions (*.json ", 1))
         if path:
             self.open_path(path)
@@ -88,7 +89,9 @@ class WindowFilesMixin:
         except LensInputError as exc:
             self.show_error(str(exc))
             return False
-        self.settings.setValue("last_folder", str(Path(path).absolute().parent))
+        from lensmass.gui.file_dialogs import remember_folder
+
+        remember_folder(self.settings, path)
         self._add_recent(path)
         return True
 
@@ -208,9 +211,10 @@ class WindowFilesMixin:
     def save_session_as(self) -> bool:
         from lensmass.io.session import SESSION_SUFFIX
 
-        start = self.model.session_path or str(Path(self.settings.value("last_folder", str(Path.home())))
-                                               / (Path(self.model.image.path).stem + SESSION_SUFFIX
-                                                  if self.model.image else "measurement" + SESSION_SUFFIX))
+        from lensmass.gui.file_dialogs import start_path
+
+        start = self.model.session_path or start_path(self.model, self.settings, (
+            Path(self.model.image.path).stem if self.model.image else "measurement") + SESSION_SUFFIX)
         path, _ = QFileDialog.getSaveFileName(self, "Save session", start, SESSION_FILTER)
         return bool(path) and self._save_to(path)
 
@@ -258,7 +262,8 @@ class WindowFilesMixin:
             return None
 
     def offer_recovery(self) -> None:
-        """Offer the newest autosave of a run that did not close cleanly."""
+        """Offer the newest autosave of a run that did not close cleanly (see gui/recovery_prompt)."""
+        from lensmass.gui.recovery_prompt import DISCARD, RESTORE, ask_recovery
         from lensmass.io.session import discard_autosave, list_recoverable
 
         try:
@@ -268,30 +273,27 @@ class WindowFilesMixin:
         if not found or not self.interactive:
             return
         item = found[0]
-        what = item.image_name or "an image"
-        answer = QMessageBox.question(
-            self, "Recover unsaved work?",
-            f"lensmass did not close cleanly while measuring {what} (autosaved "
-            f"{item.saved_at:%Y-%m-%d %H:%M}). Recover that work?",
-            QMessageBox.Yes | QMessageBox.No | QMessageBox.Discard, QMessageBox.Yes)
-        if answer == QMessageBox.Yes:
-            self.recover(item.key)
-        elif answer == QMessageBox.Discard:
+        answer = ask_recovery(self, item)
+        if answer == RESTORE:
+            self.recover(item.key, item.origin)
+        elif answer == DISCARD:
             discard_autosave(item.key)
 
-    def recover(self, key: str) -> bool:
+    def recover(self, key: str, origin: str | None = None) -> bool:
+        """Restore autosave ``key``; ``origin`` (the session file it belongs to) keeps its name and path."""
         from lensmass.io.session import discard_autosave, load_autosave
 
         try:
             session = load_autosave(key)
-            self._apply_session(session, None)
+            self._apply_session(session, origin)
         except LensInputError as exc:
             self.show_error(str(exc))
             return False
         discard_autosave(key)
         self.model.dirty = True
         self._update_title()
-        self.show_message("Recovered the autosaved measurement: save it to keep it.")
+        where = f" of {Path(origin).name}" if origin else ""
+        self.show_message(f"Restored the autosaved work{where}: save it to keep it.")
         return True
 
     # ---------------------------------------------------------------- recent

@@ -78,6 +78,8 @@ class WindowTasksMixin:
             if i >= len(m.derived) or m.derived[i].generation != gen:
                 stale = True
                 continue
+            if result is not None:
+                result = {**result, **m.measurement_keys(i)}  # the fit's error and the lens centre, as 'measure' gives
             m.derived[i].result, m.derived[i].result_problem = result, None if problem is None else window_words(problem)
         if stale:
             self._estimate_wanted = True

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from PySide6.QtWidgets import QListWidgetItem
 
+from lensmass.core.result_text import round_measured
 from lensmass.core.errors import LensInputError
 from lensmass.gui import measuring
 from lensmass.gui.canvas import SYSTEM_COLOURS, FitShape, Mark
@@ -130,7 +131,7 @@ class WindowViewMixin:
             marks += [Mark("image", si, i, x, y, active) for i, (x, y) in enumerate(system.images)]
             fit = m.derived[si].fit if si < len(m.derived) else None
             if fit is not None:
-                label = f"{system.name}: θE = {fit.theta_e_arcsec:.3f}″"
+                label = f"{system.name}: θE = {round_measured(fit.theta_e_arcsec, fit.theta_e_err_arcsec).value_text}″"
                 fits.append(FitShape(fit.center_x, fit.center_y, fit.a_px, fit.b_px, fit.angle_deg, label, si, active))
         if m.centre is not None:
             marks.append(Mark("centre", -1, 0, m.centre[0], m.centre[1], True))
@@ -139,7 +140,8 @@ class WindowViewMixin:
         self.canvas.update()
         fit = m.fit
         if fit is not None:
-            self.fit_label.setText(f"θE = {fit.theta_e_arcsec:.3f} ± {fit.theta_e_err_arcsec:.3f}″\n{fit.method}")
+            shown = round_measured(fit.theta_e_arcsec, fit.theta_e_err_arcsec).plain("±")
+            self.fit_label.setText(f"θE = {shown}″\n{fit.method}")
         else:
             self.fit_label.setText(m.derived[m.active].fit_problem or "")
 

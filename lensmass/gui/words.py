@@ -7,6 +7,7 @@ shows its flag instead (``lensmass.cli.PARAMETER_FLAGS``) and the window the nam
 from __future__ import annotations
 
 from lensmass.core.errors import in_words
+from lensmass.core.result_keys import MODEL_NOTE
 
 #: Python parameter -> how the window's fields call it.
 FIELD_NAMES = {
@@ -56,3 +57,13 @@ def input_words(key: str) -> str:
         return key.replace("_", " ")
     # a label that is a symbol (z_s) says less than the description ("source redshift")
     return fact.description if "_" in fact.label else fact.label
+
+
+#: The model note as the Mass budget panel says it (its models are in the rows' tooltips and the copied text).
+WINDOW_MODEL_NOTE = ("Masses are model-dependent estimates: point at a row to see the model and assumptions "
+                     "behind its number; Copy as text lists them all.")
+
+
+def window_note(note: str) -> str:
+    """A result's note as the window shows it (the model note says where the window lists the models)."""
+    return WINDOW_MODEL_NOTE if note == MODEL_NOTE else window_words(note)

@@ -32,7 +32,7 @@ from lensmass.core.uncertainty import DEFAULT_SAMPLES, DEFAULT_SEED
 
 #: Extra measurement keys kept as columns when a row was measured on an image.
 MEASUREMENT_KEYS = ("theta_e_err_arcsec", "method", "center_x", "center_y", "center_ra", "center_dec",
-                    "ring_score", "n_points")
+                    "center_source", "ring_score", "n_points")
 
 #: Core messages name the estimate's parameters; in a batch they are manifest columns.
 PARAMETER_TO_COLUMN = {"theta_e_err": "column theta_e_err", "theta_e_arcsec": "column theta_e_arcsec",
@@ -128,6 +128,9 @@ def result_record(row, result: dict | None, error: str) -> dict[str, Any]:
             bounds = (result.get(block) or {}).get(key)
             rec[key + suffix] = _num(bounds[i]) if bounds else math.nan
     rec["theta_e_err_arcsec"] = _num(result.get("theta_e_err_arcsec"))
+    for key in ("center_x", "center_y", "center_ra", "center_dec"):  # the lens centre of an image row
+        rec[key] = _num(result.get(key))
+    rec["center_source"] = str(result.get("center_source", "") or "")
     rec["mc_samples"] = int(result.get("mc_samples") or 0)
     rec["mc_rejected"] = int(result.get("mc_rejected") or 0)
     rec["cosmology"] = str(result.get("cosmology", ""))
@@ -137,7 +140,7 @@ def result_record(row, result: dict | None, error: str) -> dict[str, Any]:
     rec["error"] = error
     from lensmass.io.spreadsheet import spreadsheet_safe
 
-    for key in ("id", "cosmology", "source", "method", "notes", "error"):  # RESULTS may be opened in a spreadsheet
+    for key in ("id", "cosmology", "source", "method", "center_source", "notes", "error"):  # RESULTS may be opened in a spreadsheet
         rec[key] = spreadsheet_safe(rec[key])
     return rec
 

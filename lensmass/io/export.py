@@ -24,6 +24,9 @@ from lensmass.core.errors import LensInputError
 from lensmass.core.estimate import DERIVED_KEYS
 from lensmass.core.result_keys import fact
 
+#: Columns of the lens centre, written when a result was measured on an image (NaN RA/Dec without a WCS).
+CENTRE_COLUMNS = ("center_x", "center_y", "center_ra", "center_dec", "center_source")
+
 RESULTS_FORMAT_TAG = "lensmass-results"
 RESULTS_SCHEMA = 1
 
@@ -116,6 +119,13 @@ def results_table(systems: Systems, inputs: Mapping[str, Mapping[str, Any]] | No
         for suffix, (block, index, which) in BOUND_COLUMNS.items():
             values = [_float((r.get(block) or {}).get(key, [np.nan, np.nan])[index]) for _, r in items]
             table[key + suffix] = Column(values, unit=unit, description=f"{meaning}, {which} percentile")
+    if any(r.get("center_x") is not None for _, r in items):  # measured on an image: the lens centre used
+        for key in CENTRE_COLUMNS:
+            f = fact(key)
+            if f.fmt == "text":
+                table[key] = Column([str(r.get(key) or "") for _, r in items], dtype=str, description=f.description)
+            else:
+                table[key] = Column([_float(r.get(key)) for _, r in items], unit=f.unit, description=f.description)
     table["mc_samples"] = Column([int(r.get("mc_samples", 0) or 0) for _, r in items],
                                  description="Monte Carlo draws (0: no uncertainty propagated)")
     table["mc_rejected"] = Column([int(r.get("mc_rejected", 0) or 0) for _, r in items],

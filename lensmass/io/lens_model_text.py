@@ -18,14 +18,26 @@ PARAMETER_ROWS = (
 
 
 def interval_columns(block: dict | None, digits: str = ".4g", width: int = 8) -> str:
-    """``median  lo68 hi68  lo95 hi95`` in fixed-width columns ("-" without a block)."""
+    """``median  lo68 hi68  lo95 hi95`` in fixed-width columns ("-" without a block).
+
+    Written by the program's one rounding rule (:func:`lensmass.core.result_text.round_measured`:
+    two figures of the 68% half-width, the median and every bound to the same decimals); ``digits``
+    is used only for a block without an interval.
+    """
     if not block:
         return "-"
+    from lensmass.core.result_text import round_measured
+
     lo, hi = block["interval68"]
     lo95, hi95 = block["interval95"]
+    r = round_measured(block["median"], None, (lo, hi))
+    if r.decimals is None:
+        cells = [format(v, digits) for v in (block["median"], lo, hi, lo95, hi95)]
+    else:
+        cells = [r.value, r.low, r.high, r.same(lo95), r.same(hi95)]
+    power = "" if r.power is None else f" e{r.power:+03d}"
     w = width
-    return (f"{format(block['median'], digits):>{w}} {format(lo, digits):>{w}} {format(hi, digits):<{w}}"
-            f" {format(lo95, digits):>{w}} {format(hi95, digits)}")
+    return f"{cells[0]:>{w}} {cells[1]:>{w}} {cells[2]:<{w}} {cells[3]:>{w}} {cells[4]}{power}"
 
 
 def image_lines(lm: dict) -> list[str]:

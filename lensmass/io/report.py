@@ -26,7 +26,6 @@ from typing import Any, Mapping, Sequence
 
 import numpy as np
 
-from lensmass.core.errors import LensInputError
 from lensmass.core.result_keys import RESULT_KEYS, fact, keys_in
 from lensmass.io.report_format import _mathtext_safe, format_interval, format_value
 from lensmass.io.report_plots import (
@@ -117,14 +116,32 @@ def _input_rows(inputs: Mapping[str, Any]) -> list[tuple[str, str]]:
 
 
 def _result_rows(result: Mapping[str, Any]) -> list[tuple[str, str, str, str]]:
-    i68 = result.get("intervals68") or {}
+    """(label, value, 68% interval, unit): the program's one rounding rule (as the window and the command line)."""
+    from lensmass.core.result_text import rounded_key
+    from lensmass.io.report_pages import math_rounded
+
+    return [(label, *math_rounded(rounded_key(dict(result), key)), unit)
+            for key, label, unit in result_rows() if key in result]
+
+
+def _centre_rows(result: Mapping[str, Any]) -> list[tuple[str, str]]:
+    """Input rows of the lens centre the result was measured about: sky position and which centre."""
+    from lensmass.core.lens_centre import sky_position_text
+
+    if result.get("center_x") is None:
+        return []
     rows = []
-    for key, label, unit in result_rows():
-        if key not in result:
-            continue
-        value = result[key]
-        lo, hi = (i68.get(key) or [None, None])[:2]
-        rows.append((label, format_value(value), format_interval(lo, hi, value), unit))
+    sky = sky_position_text(result.get("center_ra"), result.get("center_dec"))
+    if sky:
+        degrees, sexagesimal = sky.rsplit(" (", 1)
+        rows.append(("lens centre RA, Dec", sexagesimal.rstrip(")")))
+        rows.append(("", degrees))
+    else:
+        rows.append(("lens centre", f"x {float(result['center_x']):.2f}, y {float(result['center_y']):.2f} px "
+                                    "(no WCS: no sky position)"))
+    if result.get("center_source"):
+        rows.append(("which centre", textwrap.shorten(_mathtext_safe(str(result["center_source"])), 46,
+                                                      placeholder="...")))
     return rows
 
 
@@ -209,7 +226,7 @@ def report_figure(image_cutout: np.ndarray | None, overlay: Overlay, inputs: Map
     _legend_for_marks(fig, overlay, 0.66)
     ax_in = fig.add_axes((0.52, 0.675, 0.42, 0.215))
     _section(ax_in, "inputs")
-    in_rows = _input_rows(inputs)
+    in_rows = _input_rows(inputs) + _centre_rows(result)
     _text_rows(ax_in, in_rows, (0.0, 0.36), top=0.93, step=min(0.075, 0.9 / max(len(in_rows), 1)), size=7.4)
 
     # row 2: results and mass curves
@@ -339,24 +356,13 @@ def render_report(path: str | os.PathLike, image_cutout: np.ndarray | None, over
     >>> out.read_bytes()[:4]
     b'%PDF'
     """
-    from lensmass import __version__
-    from lensmass.io.atomic import atomic_path
+    from lensmass.io.report_pages import report_format_of, write_figures
 
-    target = Path(path).absolute()
-    fmt = target.suffix.lower().lstrip(".")
-    if fmt not in ("png", "pdf"):
-        raise LensInputError(f"Cannot write a report as '{target.suffix or target.name}': name the file .png or .pdf.")
+    report_format_of(path)  # a wrong suffix is refused before any drawing
     fig = report_figure(image_cutout, overlay, inputs, result, title=title, subtitle=subtitle, cosmo=cosmo,
                         halo_definition=halo_definition, curves=curves, histogram=histogram,
                         generated_at=generated_at)
-    meta = {"Title": title, "Creator": f"lensmass {__version__}"} if fmt == "pdf" else {
-        "Title": title, "Software": f"lensmass {__version__}"}
-    try:
-        with atomic_path(target) as tmp:
-            fig.savefig(tmp, format=fmt, dpi=dpi, metadata=meta, facecolor="white")
-    except OSError as exc:
-        raise LensInputError(f"Could not write the report '{target}' ({exc.strerror or exc}): choose another folder.") from None
-    return target
+    return write_figures(path, [fig], title=title, dpi=dpi)[0]
 
 
 def inputs_from_session(session, arc: int | str = 0, theta_e_arcsec: float | None = None,
@@ -375,8 +381,9 @@ def inputs_from_session(session, arc: int | str = 0, theta_e_arcsec: float | Non
     rows["arc system"] = (f"{system.name}: {len(system.points)} points, {system.shape} fit"
                           + (f", {len(system.images)} images" if system.images else ""))
     if theta_e_arcsec is not None:
-        err = f" ± {theta_e_err:.3g}" if theta_e_err else ""
-        rows["theta_E measured"] = f"{theta_e_arcsec:.4g}{err} arcsec"
+        from lensmass.core.result_text import round_measured
+
+        rows["theta_E measured"] = f"{round_measured(theta_e_arcsec, theta_e_err).plain('±')} arcsec"
     rows["z_l"] = f"{s.z_l:g}" + (f" ± {s.z_l_err:g}" if s.z_l_err else "") if s.z_l is not None else "not set"
     if system.z_s is not None:
         rows["z_s"] = f"{system.z_s:g}" + (f" ± {system.z_s_err:g}" if system.z_s_err else "")

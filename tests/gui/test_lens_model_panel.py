@@ -80,32 +80,33 @@ def test_fit_the_demo_double_undo_and_save(make_window, qtbot, tmp_path):
     assert _has_colour(w.canvas.grab().toImage(), CRITICAL_COLOUR)
     # the main Mass budget now uses the model's theta_E and its posterior, and says so; its numbers are the
     # model's own (one code path: lensmass.core.lens_model.masses_from_lens_model)
-    from lensmass.core.result_text import format_number
+    from lensmass.gui.results_panel import rounded_key
 
     wait_idle(qtbot, w, timeout=120000)
     rp = w.results_panel
     qtbot.waitUntil(lambda: "lens model" in rp.status.text(), timeout=60000)
-    assert rp.values["theta_e_arcsec"].text() == format_number(panel.model_result["theta_e_arcsec"])
-    assert rp.values["mass_einstein_msun"].text() == format_number(panel.model_result["mass_einstein_msun"])
+    assert rp.values["theta_e_arcsec"].text() == rounded_key(panel.model_result, "theta_e_arcsec").value_text
+    assert rp.values["mass_einstein_msun"].text() == rounded_key(panel.model_result, "mass_einstein_msun").value_text
     assert "lens model" in rp.notes.text() and "SIE" in rp.values["theta_e_arcsec"].toolTip()
     assert "Fit the lens model for more" not in rp.notes.text()  # the circle fit's caveat no longer applies
-    # the exported report carries the model (its parameters and delays as notes of the page)
-    from lensmass.io import report
+    # the exported report carries the model on a page of its own: its parameters, masses and delays
+    from lensmass.io import report_pages
 
     seen = {}
-    original = report.render_report
+    original = report_pages.lens_model_figure
 
-    def spy(path, *args, **kwargs):
-        seen["notes"] = args[3].get("notes", [])
-        return original(path, *args, **kwargs)
+    def spy(model_result, *args, **kwargs):
+        fig = original(model_result, *args, **kwargs)
+        seen["text"] = " ".join(t.get_text() for ax in fig.axes for t in ax.texts)
+        return fig
 
-    report.render_report = spy
+    report_pages.lens_model_figure = spy
     try:
-        assert w.export_report(str(tmp_path / "page.png")) is not None
+        written = w.export_report(str(tmp_path / "page.png"))
     finally:
-        report.render_report = original
-    assert any("Lens model SIE + external shear" in n for n in seen["notes"])
-    assert any("time delays" in n for n in seen["notes"])
+        report_pages.lens_model_figure = original
+    assert written is not None and (tmp_path / "page-2.png").is_file()  # system A's page, then the model's
+    assert "axis ratio q" in seen["text"] and "delay A2-A1" in seen["text"] and "SIE" in seen["text"]
     # undo removes the model, redo brings it back (one step each)
     qtbot.keyClick(w, Qt.Key_Z, Qt.ControlModifier)
     assert panel.model_result is None

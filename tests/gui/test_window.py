@@ -91,9 +91,13 @@ def test_clicking_the_ring_and_typing_redshifts_gives_theta_e_and_mass(qtbot, ri
     mass = label_float(panel.values["mass_einstein_msun"])
     expected = astropy_einstein_mass_msun(truth["theta_e_arcsec"], truth["z_l"], truth["z_s"])
     assert mass == pytest.approx(expected, rel=0.10)  # M scales as theta^2: twice the theta tolerance
-    # The same mass from our measured theta, to the display's four figures (one formula, two routes).
+    # The same mass from our measured theta, to the last figure the display keeps (one formula, two routes;
+    # the display keeps two figures of the interval's half-width, common practice).
+    text = panel.values["mass_einstein_msun"].text()
+    mantissa, _, power = text.partition("e")
+    last_place = 10.0 ** (int(power or 0) - len(mantissa.partition(".")[2]))
     assert mass == pytest.approx(astropy_einstein_mass_msun(window.model.fit.theta_e_arcsec, truth["z_l"],
-                                                            truth["z_s"]), rel=1e-3)
+                                                            truth["z_s"]), abs=0.5 * last_place * 1.001)
     # The interval is shown and brackets the value.
     interval = panel.intervals["mass_einstein_msun"].text().strip("[]").split(",")
     lo, hi = (float(v) for v in interval)
@@ -351,7 +355,11 @@ def test_export_results_and_report(qtbot, ring_window, tmp_path):
     qtbot.waitUntil(lambda: "Report written" in window.last_message, timeout=30000)
     assert (tmp_path / "report.pdf").read_bytes()[:4] == b"%PDF"
     text = window.copy_results()
-    assert "M(<theta_E)" in text and "models:" in text
+    assert "M(<theta_E)" in text and "which model gives each number:" in text and "'models'" not in text
+    # the exports carry the lens centre and which centre it is
+    assert doc["systems"][0]["result"]["center_source"] == "centre of the circle fitted to the arc points"
+    assert table["center_ra"][0] == pytest.approx(result["center_ra"]) and str(table["center_ra"].unit) == "deg"
+    assert table["center_source"][0] == "centre of the circle fitted to the arc points"
 
 
 def test_screenshot_is_not_blank(qtbot, ring_window, tmp_path):

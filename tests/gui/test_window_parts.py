@@ -277,17 +277,15 @@ def test_the_window_follows_a_dark_colour_scheme(qtbot, monkeypatch):
     assert app.palette().color(app.palette().ColorRole.Window).lightness() > 128
 
 
-def test_after_a_crash_the_next_window_offers_the_autosave(qtbot, make_window, monkeypatch, tmp_path):
+def _crashed_autosave(qtbot, make_window, tmp_path, save_as: str | None = None):
+    """A window that marks the demo ring (saved as a session first when ``save_as``), autosaves, then 'dies'."""
     import json as _json
-
-    from PySide6.QtCore import QSettings
-    from PySide6.QtWidgets import QMessageBox
-
-    from lensmass.gui import mainwindow
 
     path, truth = demo_field("tris_ring_a")
     crashed = make_window()
     crashed.open_path(str(path))
+    if save_as:
+        assert crashed._save_to(str(tmp_path / save_as))
     for x, y in truth["arc_points_xy"][::8]:
         click_image(qtbot, crashed, x, y)
     written = crashed.autosave()
@@ -295,21 +293,78 @@ def test_after_a_crash_the_next_window_offers_the_autosave(qtbot, make_window, m
     data = _json.loads(written.read_text())
     data["autosave"]["pid"] = 2**22 + 4321
     written.write_text(_json.dumps(data))
-    asked = []
+    return crashed, written
 
-    def answer(*args, **kwargs):
-        asked.append(args[2])
-        return QMessageBox.Yes
 
-    monkeypatch.setattr(mainwindow.QMessageBox, "question", staticmethod(answer))
+def _answer_prompt(qtbot, button_text: str, seen: list) -> None:
+    """Click ``button_text`` on the recovery prompt once it is up (a real QMessageBox, shown modally)."""
+    from PySide6.QtCore import QTimer
+    from PySide6.QtWidgets import QApplication, QMessageBox, QPushButton
+
+    def click():
+        box = QApplication.activeModalWidget()
+        if not isinstance(box, QMessageBox):
+            QTimer.singleShot(20, click)
+            return
+        seen.append((box.text(), [b.text() for b in box.findChildren(QPushButton)]))
+        button = next(b for b in box.findChildren(QPushButton) if b.text() == button_text)
+        qtbot.mouseClick(button, Qt.LeftButton)
+
+    QTimer.singleShot(0, click)
+
+
+def _fresh_window(qtbot, tmp_path):
+    from PySide6.QtCore import QSettings
+
+    from lensmass.gui import mainwindow
+
     fresh = mainwindow.MainWindow(QSettings(str(tmp_path / "other.ini"), QSettings.IniFormat), offer_recovery=False,
                                   interactive=True, load_panels=False)
     qtbot.addWidget(fresh)
+    return fresh
+
+
+def _after_crash(qtbot, make_window, tmp_path, answer: str, save_as: str | None = None):
+    """A crashed window's autosave, a fresh window, and its recovery prompt answered with ``answer``."""
+    crashed, written = _crashed_autosave(qtbot, make_window, tmp_path, save_as=save_as)
+    fresh = _fresh_window(qtbot, tmp_path)
+    seen: list = []
+    _answer_prompt(qtbot, answer, seen)
     fresh.offer_recovery()
-    assert asked and "did not close cleanly" in asked[0] and "tris_ring_a" in asked[0]
+    return crashed, written, fresh, seen
+
+
+def test_after_a_crash_the_next_window_offers_the_autosave(qtbot, make_window, tmp_path):
+    crashed, written, fresh, seen = _after_crash(qtbot, make_window, tmp_path, "Restore my work")
+    text, buttons = seen[0]
+    assert sorted(buttons) == ["Decide later", "Discard it", "Restore my work"]
+    assert "did not close cleanly" in text and "tris_ring_a.fits" in text and "autosaved on" in text
     assert np.allclose(fresh.model.active_system.points, crashed.model.active_system.points)
     assert not written.exists()  # recovered, so the autosave is gone
     fresh.model.dirty = crashed.model.dirty = False
+
+
+def test_restored_session_keeps_its_name_and_path(qtbot, make_window, tmp_path):
+    crashed, written, fresh, seen = _after_crash(qtbot, make_window, tmp_path, "Restore my work",
+                                                 save_as="night3.lensmass.json")
+    assert "the session 'night3.lensmass.json'" in seen[0][0]
+    assert fresh.model.session_path == str(tmp_path / "night3.lensmass.json")
+    assert fresh.windowTitle().startswith("night3.lensmass.json *")  # its name, with unsaved changes
+    assert np.allclose(fresh.model.active_system.points, crashed.model.active_system.points)
+    assert fresh.save_session()  # Ctrl+S writes back to the same file, without asking where
+    from lensmass.io.session import load_session
+
+    assert len(load_session(tmp_path / "night3.lensmass.json").arcs[0].points) == len(crashed.model.active_system.points)
+    crashed.model.dirty = False
+
+
+def test_decide_later_keeps_the_autosave_and_discard_deletes_it(qtbot, make_window, tmp_path):
+    crashed, written, fresh, seen = _after_crash(qtbot, make_window, tmp_path, "Decide later")
+    assert written.exists() and fresh.model.image is None  # nothing restored, nothing lost
+    _answer_prompt(qtbot, "Discard it", seen)
+    fresh.offer_recovery()
+    assert len(seen) == 2 and not written.exists()
+    crashed.model.dirty = False
 
 
 def test_a_picture_without_wcs_asks_for_the_pixel_scale_then_measures(qtbot, window, tmp_path):
