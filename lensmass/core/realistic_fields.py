@@ -188,7 +188,6 @@ def make_cutout(seed: int, kind: str | None = None, *, lens: bool | None = None,
     re_pix = float(te_pix * rng.uniform(0.4, 1.2)) if is_lens else float(rng.uniform(3, 14))
     gal_n = float(rng.uniform(2.5, 5.0))
     lens_light = _sersic(xx, yy, 1.0, re_pix, gal_n, lens_q, lens_ang, cx, cy)
-    truth.update(light_r_eff_pix=re_pix, light_sersic_n=gal_n, light_axis_ratio=lens_q, light_angle_deg=lens_ang)
     if kind != "pure noise" and kind != "spiral":
         comps["lens"] = lens_light
     if is_lens:

@@ -176,7 +176,7 @@ def ridge_peak(radii: np.ndarray, values: np.ndarray, r_start: float, width: flo
     """Ridge of a radial profile near ``r_start``: a Gaussian on a straight-line baseline fitted by
     least squares (the baseline absorbs smooth lens-light residuals); the parabola through the
     highest bins when the fit fails."""
-    from scipy.optimize import curve_fit, least_squares
+    from scipy.optimize import curve_fit
 
     win = np.abs(radii - r_start) <= max(2.5, 2.0 * width)
     r, v = radii[win], values[win]
@@ -196,17 +196,10 @@ def ridge_peak(radii: np.ndarray, values: np.ndarray, r_start: float, width: flo
         return np.column_stack([g, a * g * z / sig, a * g * z * z / sig, np.ones_like(x), x - r_start])
 
     s0 = max(0.5, width / 2.355)
-    p0 = np.array([v[k] - np.median(v), r[k], s0, np.median(v), 0.0])
-    lo, hi = np.array([0, r[0], 0.3, -np.inf, -np.inf]), np.array([np.inf, r[-1], 3 * s0 + 1, np.inf, np.inf])
-    # Unbounded Levenberg-Marquardt first (MINPACK, about ten times faster than the bounded fit); its answer
-    # stands when it lies inside the bounds, which are then inactive and both fits share the minimum.
-    with np.errstate(over="ignore", invalid="ignore"):
-        quick = least_squares(lambda q: model(r, *q) - v, p0, jac=lambda q: jacobian(r, *q), method="lm",
-                              max_nfev=400)
-    if quick.success and np.all(np.isfinite(quick.x)) and np.all(quick.x > lo) and np.all(quick.x < hi):
-        return float(quick.x[1])
     try:
-        popt, _ = curve_fit(model, r, v, p0=p0, jac=jacobian, bounds=(lo, hi), maxfev=400)
+        popt, _ = curve_fit(model, r, v, p0=[v[k] - np.median(v), r[k], s0, np.median(v), 0.0], jac=jacobian,
+                            bounds=([0, r[0], 0.3, -np.inf, -np.inf], [np.inf, r[-1], 3 * s0 + 1, np.inf, np.inf]),
+                            maxfev=400)
     except (RuntimeError, ValueError):
         return fallback
     return float(popt[1])

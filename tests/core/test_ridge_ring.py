@@ -186,11 +186,7 @@ def test_demo_group_ring_is_not_the_galaxy_core():
 
     t = _truth("tris_group_c")
     ring = find_ring(load_image(DEMO / "tris_group_c.fits").data)
-    assert ring.found and ring.kind == "ring"
-    # The arcs of extended sources make this ring about 3 seeing FWHM wide (ridge width ~11 px; truth file:
-    # 0.85" Moffat seeing = 3.4 px), as broad as the star-forming rings of ring galaxies, which
-    # CONFIDENT_MAX_WIDTH_PSF (set on generated non-lenses) keeps from being called confident; so is this one.
-    assert ring.ring_width_pix > 2.5 * t["psf"]["fwhm_arcsec"] / t["pixel_scale_arcsec"]
+    assert ring.confident and ring.kind == "ring"
     assert ring.radius_pix * t["pixel_scale_arcsec"] == pytest.approx(t["theta_e_arcsec"], rel=0.02)
 
 
