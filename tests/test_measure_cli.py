@@ -133,7 +133,6 @@ def test_save_residual_keeps_wcs(tmp_path, capsys):
     assert abs(float(np.nanmedian(res.data))) < 0.2  # sky and lens light gone
 
 
-
 def test_lens_centre_is_on_the_sky_and_says_which_centre(tmp_path, capsys):
     # RA/Dec checked against astropy's own WCS transform of the FITS header (a reference library)
     from astropy.io import fits
