@@ -62,3 +62,22 @@ def test_model_table_and_bad_kind(tmp_path, capsys):
     assert main(["model", "--points", str(bad), "--pixel-scale", "0.05", "--zl", "0.3", "--zs", "1.4"]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "kind" in err[0]
+
+
+def test_chi2_is_never_negative_with_arc_points_near_the_critical_curve(tmp_path, capsys):
+    # chi^2 is a quadratic form with a positive-definite weight matrix, so it is >= 0 (common practice).
+    # A double and points on its host's arc marked as one system put points near the critical curve,
+    # where the expanded form sum(b P b) - m.v cancelled to -223 on the demo double.
+    from pathlib import Path
+
+    truth = json.loads((Path(__file__).parent.parent / "demo_fields" / "tris_double_b.truth.json").read_text())
+    rows = [(x, y, "A", "image") for x, y in truth["image_points_xy"]]
+    rows += [(x, y, "A", "arc") for x, y in truth["arc_points_xy"][::4]]
+    p = _points(tmp_path, rows)
+    code = main(["model", "--points", str(p), "--pixel-scale", "0.2", "--zl", "0.31", "--zs", "1.2",
+                 "--samples", "300", "--draws", "1000", "--seed", "1", "--json"])
+    assert code == 0
+    lm = json.loads(capsys.readouterr().out)["lens_model"]
+    assert lm["chi2"] >= 0
+    lo, hi = lm["parameters"]["theta_e_arcsec"]["interval95"]
+    assert lo <= truth["theta_e_arcsec"] <= hi

@@ -209,7 +209,9 @@ class _Posterior:
             det_f = np.maximum(f11 * f22 - f12 * f12, 1e-300)
             mx = (f22 * v1 - f12 * v2) / det_f
             my = (f11 * v2 - f12 * v1) / det_f
-            quad = (p11 * bx * bx + 2 * p12 * bx * by + p22 * by * by).sum(1) - (mx * v1 + my * v2)
+            # the residual form (not sum(b P b) - m.v): no cancellation when an image sits near a critical curve
+            rx, ry = bx - mx[:, None], by - my[:, None]
+            quad = (p11 * rx * rx + 2 * p12 * rx * ry + p22 * ry * ry).sum(1)
             det_a = a11 * a22 - a12 * a12
             chi2 += quad
             weight = ARC_LIKELIHOOD_WEIGHT if arc_index is not None else 1.0
