@@ -98,6 +98,7 @@ class ImageCanvas(QWidget):
         self._panning = False
         self._pan_origin = (0.0, 0.0)
         self._fitted_once = False
+        self.follow_fit = True  # refit on resize until the user zooms or pans (images open fitted)
         self.hint = "Open an image: File > Open, drag a file here, or give it on the command line."
 
     # ---------------------------------------------------------------- image
@@ -170,6 +171,7 @@ class ImageCanvas(QWidget):
         self.zoom = min(self.width() / nx, self.height() / ny) * 0.98
         self._centre_on(nx / 2, ny / 2)
         self._fitted_once = True
+        self.follow_fit = True
         self.update()
         self.view_changed.emit()
 
@@ -185,6 +187,7 @@ class ImageCanvas(QWidget):
         if anchor is None:
             anchor = QPointF(self.width() / 2, self.height() / 2)
         zoom = min(max(zoom, MIN_ZOOM), MAX_ZOOM)
+        self.follow_fit = False
         u = anchor.x() / self.zoom + self._left
         v = anchor.y() / self.zoom + self._top
         self.zoom = zoom
@@ -196,6 +199,7 @@ class ImageCanvas(QWidget):
     def centre_on_image(self, x: float, y: float) -> None:
         u, v = self._display_coords(x, y)
         self._centre_on(u + 0.5, v + 0.5)
+        self.follow_fit = False
         self.update()
         self.view_changed.emit()
 
@@ -234,7 +238,7 @@ class ImageCanvas(QWidget):
         return QSize(760, 620)
 
     def resizeEvent(self, event) -> None:  # noqa: N802
-        if self.has_image and not self._fitted_once:
+        if self.has_image and (self.follow_fit or not self._fitted_once):
             self.fit_to_window()
         super().resizeEvent(event)
 
@@ -417,6 +421,7 @@ class ImageCanvas(QWidget):
             return
         if self._panning or moved > CLICK_SLOP_PX:
             self._panning = True
+            self.follow_fit = False
             self._left = self._pan_origin[0] - (pos.x() - self._press.x()) / self.zoom
             self._top = self._pan_origin[1] - (pos.y() - self._press.y()) / self.zoom
             self.setCursor(Qt.ClosedHandCursor)

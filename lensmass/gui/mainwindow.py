@@ -70,6 +70,8 @@ class MainWindow(WindowBuildMixin, WindowFilesMixin, WindowViewMixin, WindowMark
         self._autosave_key: str | None = None
         self._estimate_wanted = False
         self._estimating = False
+        self._automatic_task = False  # the lens-light fit started on open is running
+        self._queued_task: tuple | None = None
         self._drag_origin: tuple[float, float] | None = None
         self.setWindowTitle("lensmass")
         self.setAcceptDrops(True)

@@ -256,6 +256,12 @@ class WindowBuildMixin:
         self.act_snap = A("Snap onto the arc ridge", lambda: self.snap_box.toggle(), QKeySequence("R"))
         self.act_ring = A("&Find the ring", self.find_ring, QKeySequence("Ctrl+F"))
         self.act_light = A("Fit &lens light", self.fit_lens_light, QKeySequence("Ctrl+L"))
+        from lensmass.gui.light_on_open import SETTING, light_on_open_wanted
+
+        self.act_light_on_open = A("Fit lens light on open", lambda on: self.settings.setValue(SETTING, bool(on)),
+                                   None, "When an image with a bright galaxy at its centre opens, fit its light "
+                                   "in the background and show the residual.", checkable=True)
+        self.act_light_on_open.setChecked(light_on_open_wanted(self.settings))
         self.act_scale = A("Set pixel &scale...", self.set_pixel_scale_dialog, None,
                            "Arcsec per pixel, for pictures without a WCS.")
         self.act_estimate = A("Estimate again", self.request_estimate, QKeySequence("Ctrl+R"))
@@ -284,7 +290,7 @@ class WindowBuildMixin:
         for a in self.act_tools + [self.act_new_system, self.act_snap]:
             m.addAction(a)
         m.addSeparator()
-        for a in (self.act_ring, self.act_light, self.act_estimate, self.act_scale, self.act_cancel):
+        for a in (self.act_ring, self.act_light, self.act_light_on_open, self.act_estimate, self.act_scale, self.act_cancel):
             m.addAction(a)
         v = mb.addMenu("&View")
         for a in (self.act_fit, self.act_actual, self.act_zoom_in, self.act_zoom_out, self.act_cycle_layer,
@@ -323,8 +329,8 @@ class WindowBuildMixin:
         self.add_system_button.clicked.connect(self.add_system)
         self.remove_system_button.clicked.connect(self.remove_system)
         self.shape_box.activated.connect(self._on_shape)
-        self.ring_button.clicked.connect(self.find_ring)
-        self.light_button.clicked.connect(self.fit_lens_light)
+        self.ring_button.clicked.connect(lambda _checked=False: self.find_ring())
+        self.light_button.clicked.connect(lambda _checked=False: self.fit_lens_light())
         self.layer_buttons.idClicked.connect(lambda i: self.set_display(layer=LAYERS[i]))
         self.stretch_box.activated.connect(lambda _i: self.set_display(stretch=self.stretch_box.currentText()))
         self.limits_box.activated.connect(lambda _i: self.set_display(limits=self.limits_box.currentText()))
