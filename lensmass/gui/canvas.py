@@ -68,6 +68,7 @@ class ImageCanvas(QWidget):
     left_image = Signal()
     view_changed = Signal()                 # zoom or pan changed
     click_hint = Signal(str)                # a panel claimed (hint) or released ("") the clicks
+    contrast_dragged = Signal(float, float, bool)  # right-button drag: dx, dy in widget sizes; True at release
 
     def __init__(self, parent: QWidget | None = None):
         super().__init__(parent)
@@ -97,6 +98,7 @@ class ImageCanvas(QWidget):
         self._press_mark: Mark | None = None
         self._panning = False
         self._pan_origin = (0.0, 0.0)
+        self._contrast_press: QPointF | None = None
         self._fitted_once = False
         self.follow_fit = True  # refit on resize until the user zooms or pans (images open fitted)
         self.hint = "Open an image: File > Open, drag a file here, or give it on the command line."
@@ -132,6 +134,10 @@ class ImageCanvas(QWidget):
         """The colours last painted (uint32 0xffRRGGBB), building them if needed."""
         self._visible_tile()
         return self._buffer
+
+    def display_source(self) -> tuple:
+        """(levels in display row order, (lo, hi), colour table) of what is shown, for the loupe."""
+        return self._levels, self._limits, self._table
 
     @property
     def has_image(self) -> bool:
@@ -396,6 +402,8 @@ class ImageCanvas(QWidget):
             mark = self.mark_at(pos)
             if mark is not None:
                 self.mark_delete_requested.emit(mark)
+            else:
+                self._contrast_press = pos  # a right drag on the image sets brightness and contrast
             return
         if event.button() in (Qt.LeftButton, Qt.MiddleButton):
             self._press = pos
@@ -411,6 +419,9 @@ class ImageCanvas(QWidget):
                 self.hovered.emit(x, y)
             else:
                 self.left_image.emit()
+        if self._contrast_press is not None:
+            self._emit_contrast(pos, False)
+            return
         if self._press is None:
             return
         moved = math.hypot(pos.x() - self._press.x(), pos.y() - self._press.y())
@@ -428,7 +439,16 @@ class ImageCanvas(QWidget):
             self.update()
             self.view_changed.emit()
 
+    def _emit_contrast(self, pos: QPointF, done: bool) -> None:
+        p = self._contrast_press
+        self.contrast_dragged.emit((pos.x() - p.x()) / max(self.width(), 1), (pos.y() - p.y()) / max(self.height(), 1),
+                                   done)
+
     def mouseReleaseEvent(self, event) -> None:  # noqa: N802
+        if self._contrast_press is not None and event.button() == Qt.RightButton:
+            self._emit_contrast(event.position(), True)
+            self._contrast_press = None
+            return
         if self._press is None:
             return
         pos = event.position()

@@ -24,6 +24,8 @@ from functools import lru_cache
 
 import numpy as np
 
+from lensmass.core.errors import LensInputError
+
 #: Stretch names shown to the user -> factory of the astropy stretch.
 STRETCHES = ("linear", "square root", "logarithmic", "asinh")
 
@@ -35,6 +37,9 @@ LIMITS = {
     "97%": "central 97% of the pixels",
     "zscale": "IRAF zscale interval (astropy ZScaleInterval)",
 }
+
+#: The limit choice that uses the low and high values the user typed or dragged to.
+MANUAL = "manual"
 
 #: Colour maps: grey and matplotlib's perceptually uniform sequential maps.
 COLORMAPS = ("gray", "viridis", "magma", "inferno", "cividis")
@@ -151,6 +156,53 @@ class DisplayChoice:
     stretch: str = "asinh"
     colormap: str = "gray"
     invert: bool = False
+    manual_limits: tuple[float, float] | None = None  # used when ``limits`` is :data:`MANUAL`
+
+
+def parse_limits(low: str, high: str) -> tuple[float, float]:
+    """Typed low and high display limits as numbers, low below high.
+
+    Examples
+    --------
+    >>> parse_limits("-0.5", "12")
+    (-0.5, 12.0)
+    """
+    values = []
+    for name, text in (("low", low), ("high", high)):
+        try:
+            value = float(str(text).strip().replace(",", "."))
+        except ValueError:
+            raise LensInputError(f"The {name} display limit must be a number, got '{text}'; type a number such "
+                                 "as 0 or 1e3.") from None
+        if not np.isfinite(value):
+            raise LensInputError(f"The {name} display limit must be a finite number, got '{text}'; type a number.")
+        values.append(value)
+    lo, hi = values
+    if not hi > lo:
+        raise LensInputError(f"The low display limit ({lo:g}) must be below the high one ({hi:g}); swap or "
+                             "change them.")
+    return lo, hi
+
+
+def dragged_limits(lo: float, hi: float, dx: float, dy: float) -> tuple[float, float]:
+    """Display limits after a contrast drag of (dx, dy) widget widths and heights.
+
+    Dragging right lowers the middle of the window by ``dx`` window widths (the image brightens),
+    dragging up narrows it by a factor ``exp(3 dy)`` (more contrast), down widens it.
+
+    Examples
+    --------
+    >>> dragged_limits(0.0, 10.0, 0.1, 0.0)
+    (-1.0, 9.0)
+    >>> lo, hi = dragged_limits(0.0, 10.0, 0.0, -0.2)
+    >>> round(hi - lo, 3)
+    5.488
+    """
+    mid, width = 0.5 * (lo + hi), hi - lo
+    mid -= dx * width
+    width *= float(np.exp(3.0 * dy))
+    width = max(width, abs(mid) * 1e-6, 1e-30)
+    return mid - 0.5 * width, mid + 0.5 * width
 
 
 class DisplayPipeline:
@@ -191,6 +243,12 @@ class DisplayPipeline:
             self._limits[key] = image_limits(self._layers[layer], limits)
         return self._limits[key]
 
+    def limits_for(self, choice: DisplayChoice) -> tuple[float, float]:
+        """(lo, hi) of a display choice: the typed ones for :data:`MANUAL`, else :meth:`limits`."""
+        if choice.limits == MANUAL and choice.manual_limits is not None:
+            return float(choice.manual_limits[0]), float(choice.manual_limits[1])
+        return self.limits(choice.layer, choice.limits if choice.limits in LIMITS else "99.5%")
+
     def levels(self, layer: str, limits: str) -> tuple[np.ndarray, tuple[float, float]]:
         """Quantised levels of the whole ``layer`` and the (lo, hi) limits used."""
         lo_hi = self.limits(layer, limits)
@@ -202,7 +260,7 @@ class DisplayPipeline:
         Row 0 is the first stored row, or the last one with ``flip_rows`` (FITS
         images are shown with row 0 at the bottom).
         """
-        levels, _ = self.levels(choice.layer, choice.limits)
+        levels = quantise(self._layers[choice.layer], *self.limits_for(choice))
         if flip_rows:
             levels = levels[::-1]
         return np.take(colour_table(choice.stretch, choice.colormap, bool(choice.invert)), levels)

@@ -72,6 +72,7 @@ class MainWindow(WindowBuildMixin, WindowFilesMixin, WindowViewMixin, WindowMark
         self._estimating = False
         self._automatic_task = False  # the lens-light fit started on open is running
         self._queued_task: tuple | None = None
+        self._contrast_start: tuple[float, float] | None = None  # limits when a right-button drag began
         self._drag_origin: tuple[float, float] | None = None
         self.setWindowTitle("lensmass")
         self.setAcceptDrops(True)

@@ -201,6 +201,7 @@ class WindowFilesMixin:
         self.model.reset()
         self.pipeline.clear()
         self.canvas.clear_image()
+        self.colour_bar.show_scale(None, None, None)
         self._refresh_systems()
         self._update_title()
 
