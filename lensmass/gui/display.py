@@ -13,7 +13,8 @@ change redoes only what it must:
    per screen pixel.
 
 Stretches and intervals are astropy.visualization's (linear, square root,
-logarithmic, asinh; min-max, percentiles, zscale of IRAF as implemented there).
+logarithmic, asinh; min-max, percentiles, zscale of IRAF as implemented there); all but zscale are
+written out here with numpy (tested against astropy) so the window starts without importing it.
 Colour maps are matplotlib's perceptually uniform ones plus gray.
 """
 
@@ -53,17 +54,22 @@ MASKED_RGB = (72, 80, 96)
 _SAMPLE_TARGET = 500_000
 
 
-def _stretch(name: str):
-    from astropy import visualization as vis
+#: The stretches' parameters: astropy.visualization's LogStretch(a=1000) and AsinhStretch(a=0.1).
+LOG_A, ASINH_A = 1000.0, 0.1
 
+
+def _stretch(name: str):
+    """The stretch as a function of x in [0, 1], written out as astropy.visualization defines them
+    (LinearStretch, SqrtStretch, LogStretch, AsinhStretch; tests/gui/test_display_controls.py checks
+    them against astropy): written here so that the window's start does not import astropy.visualization."""
     if name == "linear":
-        return vis.LinearStretch()
+        return lambda x: x
     if name == "square root":
-        return vis.SqrtStretch()
+        return np.sqrt
     if name == "logarithmic":
-        return vis.LogStretch(a=1000)
+        return lambda x: np.log(LOG_A * x + 1.0) / np.log(LOG_A + 1.0)
     if name == "asinh":
-        return vis.AsinhStretch(a=0.1)
+        return lambda x: np.arcsinh(x / ASINH_A) / np.arcsinh(1.0 / ASINH_A)
     raise ValueError(f"Unknown stretch '{name}': use one of {', '.join(STRETCHES)}.")
 
 
@@ -82,17 +88,19 @@ def image_limits(data: np.ndarray, limits: str) -> tuple[float, float]:
     >>> image_limits(np.arange(100.0).reshape(10, 10), "min-max")
     (0.0, 99.0)
     """
-    from astropy import visualization as vis
-
     finite = sample_pixels(data)
     if finite.size == 0:
         return 0.0, 1.0
     if limits == "min-max":
         lo, hi = float(finite.min()), float(finite.max())
     elif limits == "zscale":
-        lo, hi = vis.ZScaleInterval().get_limits(finite)
-    elif limits.endswith("%"):
-        lo, hi = vis.PercentileInterval(float(limits[:-1])).get_limits(finite)
+        from astropy.visualization import ZScaleInterval
+
+        lo, hi = ZScaleInterval().get_limits(finite)
+    elif limits.endswith("%") and limits in LIMITS:
+        # the central p% of the pixels, as astropy.visualization.PercentileInterval (tested against it)
+        tail = (100.0 - float(limits[:-1])) / 2.0
+        lo, hi = np.percentile(finite, [tail, 100.0 - tail])
     else:
         raise ValueError(f"Unknown limits '{limits}': use one of {', '.join(LIMITS)}.")
     lo, hi = float(lo), float(hi)
@@ -128,7 +136,7 @@ def colour_table(stretch: str, colormap: str, invert: bool) -> np.ndarray:
     ('0xff000000', '0xffffffff')
     """
     x = np.linspace(0.0, 1.0, LEVELS)
-    y = np.clip(_stretch(stretch)(x, clip=True), 0.0, 1.0)
+    y = np.clip(_stretch(stretch)(x), 0.0, 1.0)
     if invert:
         y = 1.0 - y
     if colormap == "gray":

@@ -17,6 +17,10 @@ SETTING = "view/light_on_open"
 BRIGHT_SIGMAS = 10.0
 #: Half-width of the central box searched, as a fraction of the image's shorter side.
 CENTRE_FRACTION = 0.15
+#: Larger images are survey frames, not cutouts around a lens: their light is fitted only when asked.
+AUTO_MAX_PIXELS = 2048 * 2048
+#: Milliseconds between looks at the canvas while waiting for its first paint (the fit starts after it).
+_PAINT_POLL_MS = 20
 
 
 def bright_centre(data: np.ndarray, sigmas: float = BRIGHT_SIGMAS) -> bool:
@@ -66,22 +70,39 @@ def light_on_open_wanted(settings) -> bool:
 
 
 def offer_light_fit(window, opened_name: str) -> bool:
-    """After ``window`` opened an image: start the lens-light fit if wanted and the centre is bright.
+    """After ``window`` opened an image: fit the lens light if wanted and the centre is bright.
 
-    Returns True when the fit was started; the status line says so either way.
+    The fit starts once the canvas has painted the image (the image shows first, then the work
+    begins). Returns True when a fit is on its way; the status line says what was done either way.
     """
     image = window.model.image
-    if image is None:
+    if image is None or not light_on_open_wanted(window.settings):
         return False
-    if not light_on_open_wanted(window.settings):
+    ny, nx = image.data.shape
+    if ny * nx > AUTO_MAX_PIXELS:
+        window.show_message(f"Opened {opened_name} ({nx} x {ny} pixels): too large a field to fit a lens galaxy's "
+                            "light on open; crop a cutout around the lens, or use Fit lens light (Ctrl+L).")
         return False
     if not bright_centre(image.data):
         window.show_message(f"Opened {opened_name}; no bright galaxy at the centre, so the image is shown as "
                             "stored (Fit lens light, Ctrl+L, shows a residual).")
         return False
-    started = window.fit_lens_light(then_layer="residual", automatic=True)
-    if started:
+    window.show_message(f"Opened {opened_name}; a bright galaxy sits at the centre: its light will be fitted in "
+                        "the background to show the residual.", 0)
+    _start_after_first_paint(window, image, opened_name, window.canvas.paint_count, tries=int(3000 / _PAINT_POLL_MS))
+    return True
+
+
+def _start_after_first_paint(window, image, opened_name: str, paints: int, tries: int) -> None:
+    from PySide6.QtCore import QTimer
+
+    if window.model.image is not image:
+        return  # another image was opened meanwhile
+    if window.canvas.paint_count == paints and tries > 0 and window.isVisible():
+        QTimer.singleShot(_PAINT_POLL_MS, lambda: _start_after_first_paint(window, image, opened_name, paints,
+                                                                           tries - 1))
+        return
+    if window.fit_lens_light(then_layer="residual", automatic=True):
         window.show_message(f"Opened {opened_name}; a bright galaxy sits at the centre: fitting its light in the "
                             "background to show the residual, where arcs stand out (Esc cancels; Measure > "
                             "'Fit lens light on open' turns this off).", 0)
-    return bool(started)

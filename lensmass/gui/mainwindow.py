@@ -99,7 +99,7 @@ class MainWindow(WindowBuildMixin, WindowFilesMixin, WindowViewMixin, WindowMark
         self._restore_settings()
         if load_panels == "deferred":
             # After the first paint: the window shows the image before the extra panels import.
-            QTimer.singleShot(0, self._load_panels)
+            QTimer.singleShot(0, self._load_panels_after_paint)
         elif load_panels:
             self._load_panels()
         self._refresh_marks()
@@ -107,6 +107,14 @@ class MainWindow(WindowBuildMixin, WindowFilesMixin, WindowViewMixin, WindowMark
         self._update_title()
         if offer_recovery:
             QTimer.singleShot(0, self.offer_recovery)
+
+    def _load_panels_after_paint(self, tries: int = 150) -> None:
+        """Build the extra panels once the canvas has painted the opened image (or at once without one)."""
+        waiting = self.model.image is not None and self.canvas.paint_count == 0
+        if (waiting or not self.isVisible()) and tries > 0:
+            QTimer.singleShot(20, lambda: self._load_panels_after_paint(tries - 1))
+            return
+        self._load_panels()
 
     # =============================================================== messages
     def show_message(self, text: str, timeout_ms: int = 8000) -> None:

@@ -150,3 +150,21 @@ def test_the_loupe_shows_the_pixels_under_the_cursor_enlarged(qtbot, raw_ring):
     assert not loupe.geometry().contains(cursor.toPoint())
     qtbot.keyClick(window.canvas, Qt.Key_G)
     assert not loupe.isVisible()
+
+
+@pytest.mark.parametrize("name, astropy_name, kwargs", [
+    ("linear", "LinearStretch", {}), ("square root", "SqrtStretch", {}),
+    ("logarithmic", "LogStretch", {"a": 1000}), ("asinh", "AsinhStretch", {"a": 0.1})])
+def test_the_stretches_are_astropys(name, astropy_name, kwargs):
+    # written out with numpy for a quick start; astropy.visualization is the reference
+    from astropy import visualization
+
+    from lensmass.gui.display import LEVELS, _stretch, colour_table
+
+    x = np.linspace(0.0, 1.0, 1001)
+    reference = getattr(visualization, astropy_name)(**kwargs)(x.copy(), clip=True)
+    assert np.allclose(_stretch(name)(x), reference, rtol=1e-12, atol=1e-12)
+    grey = (colour_table(name, "gray", False)[:LEVELS] >> 8) & 0xFF
+    xs = np.linspace(0.0, 1.0, LEVELS)
+    ref = np.round(255 * getattr(visualization, astropy_name)(**kwargs)(xs, clip=True))
+    assert np.array_equal(grey, ref.astype(grey.dtype))

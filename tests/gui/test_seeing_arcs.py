@@ -63,9 +63,10 @@ def test_the_fit_lens_light_button_fits_and_shows_the_residual(qtbot, make_windo
 def test_a_bright_centre_gets_its_light_fitted_on_open_and_the_residual_shown(qtbot, window):
     path, _ = demo_field("tris_ring_a")
     assert window.open_path(str(path))
-    # at once: the status line says what is being done and how to turn it off
+    # once the image is painted the fit starts: the status line says what is done and how to turn it off
+    assert "will be fitted" in window.last_message
+    qtbot.waitUntil(lambda: window.tasks.busy, timeout=5000)
     assert "fitting its light" in window.last_message and "turns this off" in window.last_message
-    assert window.tasks.busy
     qtbot.waitUntil(lambda: window.model.display.layer == "residual", timeout=30000)
     assert "showing the residual" in window.last_message
     # the residual shown is image minus the fitted light: the lens is gone, the ring stays
@@ -83,6 +84,7 @@ def test_the_user_can_turn_the_fit_on_open_off_from_the_menu(qtbot, window):
     assert window.settings.value("view/light_on_open") in (False, "false")
     path, _ = demo_field("tris_ring_a")
     assert window.open_path(str(path))
+    qtbot.wait(100)
     assert not window.tasks.busy and window.model.display.layer == "image"
 
 
@@ -93,14 +95,30 @@ def test_a_field_without_a_bright_centre_is_shown_as_stored(qtbot, window, tmp_p
     p = tmp_path / "sky.fits"
     fits.PrimaryHDU(rng.normal(10.0, 1.0, (80, 80)).astype(np.float32)).writeto(p)
     assert window.open_path(str(p))
+    qtbot.wait(100)
     assert not window.tasks.busy and window.model.display.layer == "image"
     assert "no bright galaxy at the centre" in window.last_message
+
+
+def test_a_large_survey_frame_is_not_fitted_on_open(qtbot, window, tmp_path):
+    from astropy.io import fits
+
+    from lensmass.gui.light_on_open import AUTO_MAX_PIXELS
+
+    n = int(AUTO_MAX_PIXELS ** 0.5) + 8
+    yy, xx = np.mgrid[:n, :n]
+    data = (np.random.default_rng(4).normal(0, 1, (n, n)) + 500 * np.exp(-((xx - n / 2) ** 2 + (yy - n / 2) ** 2) / 50))
+    p = tmp_path / "frame.fits"
+    fits.PrimaryHDU(data.astype(np.float32)).writeto(p)
+    assert window.open_path(str(p))
+    qtbot.wait(100)
+    assert not window.tasks.busy and "too large a field" in window.last_message
 
 
 def test_finding_the_ring_while_the_light_is_fitted_waits_instead_of_being_refused(qtbot, window):
     path, _ = demo_field("tris_ring_a")
     assert window.open_path(str(path))
-    assert window.tasks.busy
+    qtbot.waitUntil(lambda: window.tasks.busy, timeout=5000)
     qtbot.mouseClick(window.ring_button, Qt.LeftButton)
     assert "still running" not in window.last_message
     qtbot.waitUntil(lambda: len(window.model.active_system.points) > 0, timeout=60000)
