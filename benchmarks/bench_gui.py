@@ -113,10 +113,6 @@ def big_open(tree: Path, big: Path, demo: Path) -> tuple[float, float, int]:
     return float(wall), float(cpu), int(grown)
 
 
-def report(name: str, seconds: float, target: float) -> None:
-    print(f"{name:<58} {seconds * 1e3:9.1f} ms   target {target * 1e3:7.0f} ms   ratio {seconds / target:5.2f}")
-
-
 def big_fits(path: Path, n: int = 4096) -> None:
     from astropy.io import fits
     from astropy.wcs import WCS
