@@ -87,8 +87,8 @@ def offer_light_fit(window, opened_name: str) -> bool:
         window.show_message(f"Opened {opened_name}; no bright galaxy at the centre, so the image is shown as "
                             "stored (Fit lens light, Ctrl+L, shows a residual).")
         return False
-    window.show_message(f"Opened {opened_name}; a bright galaxy sits at the centre: its light will be fitted in "
-                        "the background to show the residual.", 0)
+    window.show_message(f"Opened {opened_name}: a bright galaxy sits at the centre; its light will be fitted "
+                        "to show the arcs in the residual.", 0)
     _start_after_first_paint(window, image, opened_name, window.canvas.paint_count, tries=int(3000 / _PAINT_POLL_MS))
     return True
 
@@ -103,6 +103,5 @@ def _start_after_first_paint(window, image, opened_name: str, paints: int, tries
                                                                            tries - 1))
         return
     if window.fit_lens_light(then_layer="residual", automatic=True):
-        window.show_message(f"Opened {opened_name}; a bright galaxy sits at the centre: fitting its light in the "
-                            "background to show the residual, where arcs stand out (Esc cancels; Measure > "
-                            "'Fit lens light on open' turns this off).", 0)
+        window.show_message(f"Opened {opened_name}: fitting the central galaxy's light to show the arcs in the "
+                            "residual (Esc cancels; the Measure menu turns this off).", 0)

@@ -66,7 +66,8 @@ def test_a_bright_centre_gets_its_light_fitted_on_open_and_the_residual_shown(qt
     # once the image is painted the fit starts: the status line says what is done and how to turn it off
     assert "will be fitted" in window.last_message
     qtbot.waitUntil(lambda: window.tasks.busy, timeout=5000)
-    assert "fitting its light" in window.last_message and "turns this off" in window.last_message
+    assert "fitting the central galaxy's light" in window.last_message
+    assert "turns this off" in window.last_message
     qtbot.waitUntil(lambda: window.model.display.layer == "residual", timeout=30000)
     assert "showing the residual" in window.last_message
     # the residual shown is image minus the fitted light: the lens is gone, the ring stays
