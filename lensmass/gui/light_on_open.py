@@ -87,6 +87,7 @@ def offer_light_fit(window, opened_name: str) -> bool:
         window.show_message(f"Opened {opened_name}; no bright galaxy at the centre, so the image is shown as "
                             "stored (Fit lens light, Ctrl+L, shows a residual).")
         return False
+    window.light_on_open_pending = image  # the window is not idle yet (see lensmass.gui.app.wait_until_idle)
     window.show_message(f"Opened {opened_name}: a bright galaxy sits at the centre; its light will be fitted "
                         "to show the arcs in the residual.", 0)
     _start_after_first_paint(window, image, opened_name, window.canvas.paint_count, tries=int(3000 / _PAINT_POLL_MS))
@@ -97,11 +98,14 @@ def _start_after_first_paint(window, image, opened_name: str, paints: int, tries
     from PySide6.QtCore import QTimer
 
     if window.model.image is not image:
+        if window.light_on_open_pending is image:
+            window.light_on_open_pending = None
         return  # another image was opened meanwhile
     if window.canvas.paint_count == paints and tries > 0 and window.isVisible():
         QTimer.singleShot(_PAINT_POLL_MS, lambda: _start_after_first_paint(window, image, opened_name, paints,
                                                                            tries - 1))
         return
+    window.light_on_open_pending = None
     if window.fit_lens_light(then_layer="residual", automatic=True):
         window.show_message(f"Opened {opened_name}: fitting the central galaxy's light to show the arcs in the "
                             "residual (Esc cancels; the Measure menu turns this off).", 0)

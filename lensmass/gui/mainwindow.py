@@ -71,6 +71,7 @@ class MainWindow(WindowBuildMixin, WindowFilesMixin, WindowViewMixin, WindowMark
         self._estimate_wanted = False
         self._estimating = False
         self._automatic_task = False  # the lens-light fit started on open is running
+        self.light_on_open_pending = None  # the image whose lens-light fit waits for the first paint
         self._queued_task: tuple | None = None
         self._contrast_start: tuple[float, float] | None = None  # limits when a right-button drag began
         self._drag_origin: tuple[float, float] | None = None

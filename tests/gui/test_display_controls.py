@@ -168,3 +168,19 @@ def test_the_stretches_are_astropys(name, astropy_name, kwargs):
     xs = np.linspace(0.0, 1.0, LEVELS)
     ref = np.round(255 * getattr(visualization, astropy_name)(**kwargs)(xs, clip=True))
     assert np.array_equal(grey, ref.astype(grey.dtype))
+
+
+def test_a_mark_lands_where_the_loupe_cross_hair_is_to_a_fraction_of_a_pixel(qtbot, raw_ring):
+    window, _ = raw_ring
+    qtbot.keyClick(window.canvas, Qt.Key_G)
+    window.act_zoom_in.trigger()
+    window.act_zoom_in.trigger()  # a little closer, as one does to place a mark finely
+    at = window.canvas.image_to_widget(57.3, 50.6).toPoint() + QPoint(1, 2)
+    qtbot.mouseMove(window.canvas, at)
+    qtbot.waitUntil(window.loupe.isVisible, timeout=2000)
+    seen = window.loupe.position
+    qtbot.mouseClick(window.canvas, Qt.LeftButton, pos=at)
+    (x, y), = window.model.active_system.points
+    assert (x, y) == pytest.approx(seen, abs=1e-9)        # the mark is where the cross-hair was
+    assert abs(x - round(x)) > 1e-3 or abs(y - round(y)) > 1e-3  # not snapped to pixel centres
+    assert not window.loupe.grab().isNull()
