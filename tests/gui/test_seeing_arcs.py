@@ -70,6 +70,7 @@ def test_a_bright_centre_gets_its_light_fitted_on_open_and_the_residual_shown(qt
     assert "turns this off" in window.last_message
     qtbot.waitUntil(lambda: window.model.display.layer == "residual", timeout=30000)
     assert "showing the residual" in window.last_message
+    assert not window.model.dirty  # opening and looking is no unsaved work
     # the residual shown is image minus the fitted light: the lens is gone, the ring stays
     img = window.model.image
     ny, nx = img.data.shape
