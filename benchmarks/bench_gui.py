@@ -182,6 +182,7 @@ def main() -> None:
     app = application()
     window = MainWindow(QSettings(str(tmp / "settings.ini"), QSettings.IniFormat), offer_recovery=False,
                         interactive=False, load_panels=False)
+    window.settings.setValue("view/light_on_open", False)  # display timings: no lens-light fit running beside them
     window.resize(1440, 900)
     window.show()
     app.processEvents()
