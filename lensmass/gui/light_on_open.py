@@ -23,13 +23,17 @@ AUTO_MAX_PIXELS = 2048 * 2048
 _PAINT_POLL_MS = 20
 
 
-def bright_centre(data: np.ndarray, sigmas: float = BRIGHT_SIGMAS) -> bool:
+def bright_centre(data: np.ndarray, sigmas: float = BRIGHT_SIGMAS, picture: bool = False) -> bool:
     """True when a source at least ``sigmas`` sky sigmas bright sits near the image centre.
 
     The sky level is the median of the finite pixels and its sigma 1.4826 x the median
     absolute deviation (a robust normal-equivalent width, common practice); the peak is
     the brightest 3 x 3 mean inside a central box of half-width
     ``CENTRE_FRACTION`` x the shorter side (at least 3 pixels).
+
+    ``picture``: an 8-bit stretched picture (PNG, JPEG), whose stretch widens the sky's spread
+    and clips the galaxy: there the peak must stand 3 sigmas above the sky and at least half
+    way from the sky to the brightest pixels (the 99.9th percentile).
 
     Examples
     --------
@@ -60,7 +64,11 @@ def bright_centre(data: np.ndarray, sigmas: float = BRIGHT_SIGMAS) -> bool:
     box = np.where(np.isfinite(box), box, sky)
     # 3 x 3 running mean by summed shifts (no scipy needed for a small box)
     smooth = sum(box[i: box.shape[0] - 2 + i, j: box.shape[1] - 2 + j] for i in range(3) for j in range(3)) / 9.0
-    return bool(smooth.max() - sky > sigmas * sigma)
+    height = float(smooth.max()) - sky
+    if picture:
+        top = float(np.percentile(sample, 99.9))
+        return bool(height > 3.0 * sigma and height > 0.5 * (top - sky))
+    return bool(height > sigmas * sigma)
 
 
 def light_on_open_wanted(settings) -> bool:
@@ -83,7 +91,7 @@ def offer_light_fit(window, opened_name: str) -> bool:
         window.show_message(f"Opened {opened_name} ({nx} x {ny} pixels): too large a field to fit a lens galaxy's "
                             "light on open; crop a cutout around the lens, or use Fit lens light (Ctrl+L).")
         return False
-    if not bright_centre(image.data):
+    if not bright_centre(image.data, picture=getattr(image.loaded, "kind", "fits") != "fits"):
         window.show_message(f"Opened {opened_name}; no bright galaxy at the centre, so the image is shown as "
                             "stored (Fit lens light, Ctrl+L, shows a residual).")
         return False

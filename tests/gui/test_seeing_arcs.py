@@ -126,3 +126,18 @@ def test_finding_the_ring_while_the_light_is_fitted_waits_instead_of_being_refus
     qtbot.waitUntil(lambda: len(window.model.active_system.points) > 0, timeout=60000)
     assert window.model.display.layer == "residual"
     wait_idle(qtbot, window, 30000)
+
+
+def test_a_colour_picture_of_a_lens_gets_its_residual_and_one_of_blank_sky_does_not(qtbot, window, tmp_path):
+    # 8-bit pictures as survey viewers make them (the project's generator): the stretch widens the sky
+    from lensmass.core.realistic_fields import make_cutout
+    from lensmass.io.cutout_files import write_cutout_picture
+
+    lens = write_cutout_picture(tmp_path / "lens.png", make_cutout(3021, "ring+neighbour"))
+    assert window.open_path(str(lens))
+    qtbot.waitUntil(lambda: window.model.display.layer == "residual", timeout=60000)
+    wait_idle(qtbot, window, 60000)
+    blank = write_cutout_picture(tmp_path / "blank.png", make_cutout(6, "pure noise"))
+    assert window.open_path(str(blank))
+    qtbot.wait(100)
+    assert not window.tasks.busy and window.model.display.layer == "image"
