@@ -103,17 +103,23 @@ def offer_light_fit(window, opened_name: str) -> bool:
 
 
 def _start_after_first_paint(window, image, opened_name: str, paints: int, tries: int) -> None:
+    """Start the fit once the window is shown and has painted ``image``; give up if it closes or another opens."""
     from PySide6.QtCore import QTimer
+    from shiboken6 import isValid
 
-    if window.model.image is not image:
-        if window.light_on_open_pending is image:
+    if not isValid(window) or window.model.image is not image:
+        if isValid(window) and window.light_on_open_pending is image:
             window.light_on_open_pending = None
-        return  # another image was opened meanwhile
-    if window.canvas.paint_count == paints and tries > 0 and window.isVisible():
-        QTimer.singleShot(_PAINT_POLL_MS, lambda: _start_after_first_paint(window, image, opened_name, paints,
-                                                                           tries - 1))
+        return  # the window is gone, or another image was opened meanwhile
+    shown = window.isVisible()
+    if tries > 0 and (not shown or window.canvas.paint_count == paints):
+        # tied to the window: a window deleted meanwhile never gets the call
+        QTimer.singleShot(_PAINT_POLL_MS, window, lambda: _start_after_first_paint(window, image, opened_name,
+                                                                                   paints, tries - 1))
         return
     window.light_on_open_pending = None
+    if not shown:
+        return  # closed (or never shown): nobody to show the residual to
     if window.fit_lens_light(then_layer="residual", automatic=True):
         window.show_message(f"Opened {opened_name}: fitting the central galaxy's light to show the arcs in the "
                             "residual (Esc cancels; the Measure menu turns this off).", 0)

@@ -141,3 +141,15 @@ def test_a_colour_picture_of_a_lens_gets_its_residual_and_one_of_blank_sky_does_
     assert window.open_path(str(blank))
     qtbot.wait(100)
     assert not window.tasks.busy and window.model.display.layer == "image"
+
+
+def test_a_window_closed_before_its_first_paint_starts_no_fit(qtbot, window):
+    from lensmass.gui import workers
+
+    path, _ = demo_field("tris_ring_a")
+    window.hide()  # the fit waits for the window to show the image
+    assert window.open_path(str(path))
+    window.model.dirty = False
+    window.close()
+    qtbot.wait(300)
+    assert not window.tasks.busy and not workers._RUNNING
