@@ -83,7 +83,8 @@ def wait_until_idle(window, timeout_s: float = 20.0) -> bool:
     end = time.monotonic() + timeout_s
     while time.monotonic() < end:
         QApplication.processEvents()
-        if not window.tasks.busy and not window._estimate_timer.isActive() and not window._estimate_wanted:
+        if not window.tasks.busy and not window._estimate_timer.isActive() and not window._estimate_wanted \
+                and getattr(window, "light_on_open_pending", None) is None:
             QApplication.processEvents()
             return True
         time.sleep(0.01)

@@ -68,6 +68,7 @@ class ImageCanvas(QWidget):
     left_image = Signal()
     view_changed = Signal()                 # zoom or pan changed
     click_hint = Signal(str)                # a panel claimed (hint) or released ("") the clicks
+    contrast_dragged = Signal(float, float, bool)  # right-button drag: dx, dy in widget sizes; True at release
 
     def __init__(self, parent: QWidget | None = None):
         super().__init__(parent)
@@ -99,7 +100,9 @@ class ImageCanvas(QWidget):
         self._press_mark: Mark | None = None
         self._panning = False
         self._pan_origin = (0.0, 0.0)
+        self._contrast_press: QPointF | None = None
         self._fitted_once = False
+        self.follow_fit = True  # refit on resize until the user zooms or pans (images open fitted)
         self.hint = "Open an image: File > Open, drag a file here, or give it on the command line."
 
     # ---------------------------------------------------------------- image
@@ -133,6 +136,10 @@ class ImageCanvas(QWidget):
         """The colours last painted (uint32 0xffRRGGBB), building them if needed."""
         self._visible_tile()
         return self._buffer
+
+    def display_source(self) -> tuple:
+        """(levels in display row order, (lo, hi), colour table) of what is shown, for the loupe."""
+        return self._levels, self._limits, self._table
 
     @property
     def has_image(self) -> bool:
@@ -172,6 +179,7 @@ class ImageCanvas(QWidget):
         self.zoom = min(self.width() / nx, self.height() / ny) * 0.98
         self._centre_on(nx / 2, ny / 2)
         self._fitted_once = True
+        self.follow_fit = True
         self.update()
         self.view_changed.emit()
 
@@ -187,6 +195,7 @@ class ImageCanvas(QWidget):
         if anchor is None:
             anchor = QPointF(self.width() / 2, self.height() / 2)
         zoom = min(max(zoom, MIN_ZOOM), MAX_ZOOM)
+        self.follow_fit = False
         u = anchor.x() / self.zoom + self._left
         v = anchor.y() / self.zoom + self._top
         self.zoom = zoom
@@ -198,6 +207,7 @@ class ImageCanvas(QWidget):
     def centre_on_image(self, x: float, y: float) -> None:
         u, v = self._display_coords(x, y)
         self._centre_on(u + 0.5, v + 0.5)
+        self.follow_fit = False
         self.update()
         self.view_changed.emit()
 
@@ -236,7 +246,7 @@ class ImageCanvas(QWidget):
         return QSize(760, 620)
 
     def resizeEvent(self, event) -> None:  # noqa: N802
-        if self.has_image and not self._fitted_once:
+        if self.has_image and (self.follow_fit or not self._fitted_once):
             self.fit_to_window()
         super().resizeEvent(event)
 
@@ -331,6 +341,8 @@ class ImageCanvas(QWidget):
             mark = self.mark_at(pos)
             if mark is not None:
                 self.mark_delete_requested.emit(mark)
+            else:
+                self._contrast_press = pos  # a right drag on the image sets brightness and contrast
             return
         if event.button() in (Qt.LeftButton, Qt.MiddleButton):
             self._press = pos
@@ -346,6 +358,9 @@ class ImageCanvas(QWidget):
                 self.hovered.emit(x, y)
             else:
                 self.left_image.emit()
+        if self._contrast_press is not None:
+            self._emit_contrast(pos, False)
+            return
         if self._press is None:
             return
         moved = math.hypot(pos.x() - self._press.x(), pos.y() - self._press.y())
@@ -356,13 +371,23 @@ class ImageCanvas(QWidget):
             return
         if self._panning or moved > CLICK_SLOP_PX:
             self._panning = True
+            self.follow_fit = False
             self._left = self._pan_origin[0] - (pos.x() - self._press.x()) / self.zoom
             self._top = self._pan_origin[1] - (pos.y() - self._press.y()) / self.zoom
             self.setCursor(Qt.ClosedHandCursor)
             self.update()
             self.view_changed.emit()
 
+    def _emit_contrast(self, pos: QPointF, done: bool) -> None:
+        p = self._contrast_press
+        self.contrast_dragged.emit((pos.x() - p.x()) / max(self.width(), 1), (pos.y() - p.y()) / max(self.height(), 1),
+                                   done)
+
     def mouseReleaseEvent(self, event) -> None:  # noqa: N802
+        if self._contrast_press is not None and event.button() == Qt.RightButton:
+            self._emit_contrast(event.position(), True)
+            self._contrast_press = None
+            return
         if self._press is None:
             return
         pos = event.position()

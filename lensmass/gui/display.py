@@ -13,7 +13,8 @@ change redoes only what it must:
    per screen pixel.
 
 Stretches and intervals are astropy.visualization's (linear, square root,
-logarithmic, asinh; min-max, percentiles, zscale of IRAF as implemented there).
+logarithmic, asinh; min-max, percentiles, zscale of IRAF as implemented there); all but zscale are
+written out here with numpy (tested against astropy) so the window starts without importing it.
 Colour maps are matplotlib's perceptually uniform ones plus gray.
 """
 
@@ -23,6 +24,8 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
+
+from lensmass.core.errors import LensInputError
 
 #: Stretch names shown to the user -> factory of the astropy stretch.
 STRETCHES = ("linear", "square root", "logarithmic", "asinh")
@@ -36,6 +39,9 @@ LIMITS = {
     "zscale": "IRAF zscale interval (astropy ZScaleInterval)",
 }
 
+#: The limit choice that uses the low and high values the user typed or dragged to.
+MANUAL = "manual"
+
 #: Colour maps: grey and matplotlib's perceptually uniform sequential maps.
 COLORMAPS = ("gray", "viridis", "magma", "inferno", "cividis")
 
@@ -48,17 +54,22 @@ MASKED_RGB = (72, 80, 96)
 _SAMPLE_TARGET = 500_000
 
 
-def _stretch(name: str):
-    from astropy import visualization as vis
+#: The stretches' parameters: astropy.visualization's LogStretch(a=1000) and AsinhStretch(a=0.1).
+LOG_A, ASINH_A = 1000.0, 0.1
 
+
+def _stretch(name: str):
+    """The stretch as a function of x in [0, 1], written out as astropy.visualization defines them
+    (LinearStretch, SqrtStretch, LogStretch, AsinhStretch; tests/gui/test_display_controls.py checks
+    them against astropy): written here so that the window's start does not import astropy.visualization."""
     if name == "linear":
-        return vis.LinearStretch()
+        return lambda x: x
     if name == "square root":
-        return vis.SqrtStretch()
+        return np.sqrt
     if name == "logarithmic":
-        return vis.LogStretch(a=1000)
+        return lambda x: np.log(LOG_A * x + 1.0) / np.log(LOG_A + 1.0)
     if name == "asinh":
-        return vis.AsinhStretch(a=0.1)
+        return lambda x: np.arcsinh(x / ASINH_A) / np.arcsinh(1.0 / ASINH_A)
     raise ValueError(f"Unknown stretch '{name}': use one of {', '.join(STRETCHES)}.")
 
 
@@ -77,17 +88,19 @@ def image_limits(data: np.ndarray, limits: str) -> tuple[float, float]:
     >>> image_limits(np.arange(100.0).reshape(10, 10), "min-max")
     (0.0, 99.0)
     """
-    from astropy import visualization as vis
-
     finite = sample_pixels(data)
     if finite.size == 0:
         return 0.0, 1.0
     if limits == "min-max":
         lo, hi = float(finite.min()), float(finite.max())
     elif limits == "zscale":
-        lo, hi = vis.ZScaleInterval().get_limits(finite)
-    elif limits.endswith("%"):
-        lo, hi = vis.PercentileInterval(float(limits[:-1])).get_limits(finite)
+        from astropy.visualization import ZScaleInterval
+
+        lo, hi = ZScaleInterval().get_limits(finite)
+    elif limits.endswith("%") and limits in LIMITS:
+        # the central p% of the pixels, as astropy.visualization.PercentileInterval (tested against it)
+        tail = (100.0 - float(limits[:-1])) / 2.0
+        lo, hi = np.percentile(finite, [tail, 100.0 - tail])
     else:
         raise ValueError(f"Unknown limits '{limits}': use one of {', '.join(LIMITS)}.")
     lo, hi = float(lo), float(hi)
@@ -123,7 +136,7 @@ def colour_table(stretch: str, colormap: str, invert: bool) -> np.ndarray:
     ('0xff000000', '0xffffffff')
     """
     x = np.linspace(0.0, 1.0, LEVELS)
-    y = np.clip(_stretch(stretch)(x, clip=True), 0.0, 1.0)
+    y = np.clip(_stretch(stretch)(x), 0.0, 1.0)
     if invert:
         y = 1.0 - y
     if colormap == "gray":
@@ -151,6 +164,53 @@ class DisplayChoice:
     stretch: str = "asinh"
     colormap: str = "gray"
     invert: bool = False
+    manual_limits: tuple[float, float] | None = None  # used when ``limits`` is :data:`MANUAL`
+
+
+def parse_limits(low: str, high: str) -> tuple[float, float]:
+    """Typed low and high display limits as numbers, low below high.
+
+    Examples
+    --------
+    >>> parse_limits("-0.5", "12")
+    (-0.5, 12.0)
+    """
+    values = []
+    for name, text in (("low", low), ("high", high)):
+        try:
+            value = float(str(text).strip().replace(",", "."))
+        except ValueError:
+            raise LensInputError(f"The {name} display limit must be a number, got '{text}'; type a number such "
+                                 "as 0 or 1e3.") from None
+        if not np.isfinite(value):
+            raise LensInputError(f"The {name} display limit must be a finite number, got '{text}'; type a number.")
+        values.append(value)
+    lo, hi = values
+    if not hi > lo:
+        raise LensInputError(f"The low display limit ({lo:g}) must be below the high one ({hi:g}); swap or "
+                             "change them.")
+    return lo, hi
+
+
+def dragged_limits(lo: float, hi: float, dx: float, dy: float) -> tuple[float, float]:
+    """Display limits after a contrast drag of (dx, dy) widget widths and heights.
+
+    Dragging right lowers the middle of the window by ``dx`` window widths (the image brightens),
+    dragging up narrows it by a factor ``exp(3 dy)`` (more contrast), down widens it.
+
+    Examples
+    --------
+    >>> dragged_limits(0.0, 10.0, 0.1, 0.0)
+    (-1.0, 9.0)
+    >>> lo, hi = dragged_limits(0.0, 10.0, 0.0, -0.2)
+    >>> round(hi - lo, 3)
+    5.488
+    """
+    mid, width = 0.5 * (lo + hi), hi - lo
+    mid -= dx * width
+    width *= float(np.exp(3.0 * dy))
+    width = max(width, abs(mid) * 1e-6, 1e-30)
+    return mid - 0.5 * width, mid + 0.5 * width
 
 
 class DisplayPipeline:
@@ -191,6 +251,12 @@ class DisplayPipeline:
             self._limits[key] = image_limits(self._layers[layer], limits)
         return self._limits[key]
 
+    def limits_for(self, choice: DisplayChoice) -> tuple[float, float]:
+        """(lo, hi) of a display choice: the typed ones for :data:`MANUAL`, else :meth:`limits`."""
+        if choice.limits == MANUAL and choice.manual_limits is not None:
+            return float(choice.manual_limits[0]), float(choice.manual_limits[1])
+        return self.limits(choice.layer, choice.limits if choice.limits in LIMITS else "99.5%")
+
     def levels(self, layer: str, limits: str) -> tuple[np.ndarray, tuple[float, float]]:
         """Quantised levels of the whole ``layer`` and the (lo, hi) limits used."""
         lo_hi = self.limits(layer, limits)
@@ -202,7 +268,7 @@ class DisplayPipeline:
         Row 0 is the first stored row, or the last one with ``flip_rows`` (FITS
         images are shown with row 0 at the bottom).
         """
-        levels, _ = self.levels(choice.layer, choice.limits)
+        levels = quantise(self._layers[choice.layer], *self.limits_for(choice))
         if flip_rows:
             levels = levels[::-1]
         return np.take(colour_table(choice.stretch, choice.colormap, bool(choice.invert)), levels)

@@ -17,6 +17,8 @@ SHORTCUTS = [
     ("F / 1", "fit the image to the window / one image pixel per screen pixel"),
     ("+ / -", "zoom in / out (or the mouse wheel, around the cursor)"),
     ("L", "cycle image / lens-light model / residual"),
+    ("G", "loupe: the pixels under the cursor enlarged, with a cross-hair (on/off)"),
+    ("right-button drag", "on the image: sideways for brightness, up and down for contrast"),
     ("Ctrl+Shift+C", "copy the results as text"),
     ("P", "copy the RA, Dec under the cursor (right-click the read-out for degrees or pixels)"),
     ("Ctrl+E / Ctrl+Shift+E", "export the report (PDF/PNG) / the results (JSON/ECSV)"),
@@ -50,7 +52,9 @@ def help_html() -> str:
     return f"""
 <h2>Measuring a lens by hand</h2>
 <ol>
-<li>Open an image (FITS with a WCS, or a picture plus its pixel scale).</li>
+<li>Open an image (FITS with a WCS, or a picture plus its pixel scale). It opens fitted to the window;
+when a bright galaxy sits at its centre, its light is fitted in the background and the residual is
+shown, where the arcs stand out (turn this off in the Measure menu).</li>
 <li>With the <b>arc point</b> tool, click along the arc or ring; drag a mark to move it, right-click
 to delete it. The dashed circle (or ellipse) is the fit, updated as you edit, with theta_E beside it.</li>
 <li>Optionally set the <b>lens centre</b> (the fit then holds it), mark the <b>images</b> of a
@@ -78,7 +82,8 @@ are missing from that model.</li>
 <li><b>Intervals</b>: Monte Carlo over the errors of theta_E, z_l and z_s (fixed seed, reproducible);
 68% intervals are the 16th-84th percentiles of the draws.</li>
 <li><b>Display</b>: astropy.visualization stretches and intervals (zscale as in IRAF); colour maps
-from matplotlib. Display changes never touch the measurement.</li>
+from matplotlib; or <i>manual</i> limits typed beside the colour bar (saved with the session).
+Display changes never touch the measurement.</li>
 </ul>
 <h3>Keys</h3>
 <table cellspacing="4">{rows}</table>

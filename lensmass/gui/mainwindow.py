@@ -70,6 +70,10 @@ class MainWindow(WindowBuildMixin, WindowFilesMixin, WindowViewMixin, WindowMark
         self._autosave_key: str | None = None
         self._estimate_wanted = False
         self._estimating = False
+        self._automatic_task = False  # the lens-light fit started on open is running
+        self.light_on_open_pending = None  # the image whose lens-light fit waits for the first paint
+        self._queued_task: tuple | None = None
+        self._contrast_start: tuple[float, float] | None = None  # limits when a right-button drag began
         self._drag_origin: tuple[float, float] | None = None
         self.setWindowTitle("lensmass")
         self.setAcceptDrops(True)
@@ -96,7 +100,7 @@ class MainWindow(WindowBuildMixin, WindowFilesMixin, WindowViewMixin, WindowMark
         self._restore_settings()
         if load_panels == "deferred":
             # After the first paint: the window shows the image before the extra panels import.
-            QTimer.singleShot(0, self._load_panels)
+            QTimer.singleShot(0, self._load_panels_after_paint)
         elif load_panels:
             self._load_panels()
         self._refresh_marks()
@@ -104,6 +108,14 @@ class MainWindow(WindowBuildMixin, WindowFilesMixin, WindowViewMixin, WindowMark
         self._update_title()
         if offer_recovery:
             QTimer.singleShot(0, self.offer_recovery)
+
+    def _load_panels_after_paint(self, tries: int = 150) -> None:
+        """Build the extra panels once the canvas has painted the opened image (or at once without one)."""
+        waiting = self.model.image is not None and self.canvas.paint_count == 0
+        if (waiting or not self.isVisible()) and tries > 0:
+            QTimer.singleShot(20, lambda: self._load_panels_after_paint(tries - 1))
+            return
+        self._load_panels()
 
     # =============================================================== messages
     def show_message(self, text: str, timeout_ms: int = 8000) -> None:

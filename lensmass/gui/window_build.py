@@ -26,7 +26,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from lensmass.gui.display import COLORMAPS, LIMITS, STRETCHES
+from lensmass.gui.display import COLORMAPS, LIMITS, MANUAL, STRETCHES
 from lensmass.gui.inputs_panel import InputsPanel
 from lensmass.gui.plots_panel import PlotsPanel
 from lensmass.gui.position_readout import PositionReadout
@@ -45,6 +45,10 @@ class WindowBuildMixin:
         lay.setContentsMargins(0, 0, 0, 0)
         lay.setSpacing(0)
         lay.addWidget(self.canvas, 1)
+        from lensmass.gui.colour_bar import ColourBar
+
+        self.colour_bar = ColourBar(self.show_message)
+        lay.addWidget(self.colour_bar)
         strip = QWidget()
         strip.setObjectName("view_strip")
         h = QHBoxLayout(strip)
@@ -63,9 +67,11 @@ class WindowBuildMixin:
         self.layer_buttons.button(0).setChecked(True)
         h.addSpacing(14)
         self.stretch_box = self._combo("stretch", STRETCHES, "How pixel values map to brightness.")
-        self.limits_box = self._combo("limits", tuple(LIMITS), "Which values span black to white.")
+        self.limits_box = self._combo("limits", tuple(LIMITS) + (MANUAL,), "Which values span black to white.")
         for i, key in enumerate(LIMITS):
             self.limits_box.setItemData(i, LIMITS[key], Qt.ToolTipRole)
+        self.limits_box.setItemData(len(LIMITS), "the low and high values typed beside the colour bar, or set by "
+                                    "dragging on the image with the right button", Qt.ToolTipRole)
         self.colormap_box = self._combo("colour map", COLORMAPS, "Perceptually uniform colour maps, or gray.")
         self.invert_box = QCheckBox("invert")
         self.invert_box.setObjectName("invert")
@@ -247,6 +253,12 @@ class WindowBuildMixin:
         self.act_zoom_out.setShortcuts([QKeySequence("-"), QKeySequence.ZoomOut])
         self.act_cycle_layer = A("Cycle image / lens light / residual", self.cycle_layer, QKeySequence("L"))
         self.act_invert = A("Invert", lambda: self.invert_box.toggle(), QKeySequence("V"))
+        from lensmass.gui.magnifier import Loupe
+
+        self.loupe = Loupe(self.canvas)
+        self.act_loupe = A("Loupe (enlarged pixels under the cursor)", self.loupe.set_on, QKeySequence("G"),
+                           "Show the pixels around the cursor enlarged with a cross-hair, to place a mark to a "
+                           "fraction of a pixel (G).", checkable=True)
         self.act_tools = []
         for i, (key, label, hint, tip) in enumerate(TOOLS):
             self.act_tools.append(A(f"Tool: {label.lower()}", lambda i=i: self.tool_buttons.button(i).setChecked(True),
@@ -255,6 +267,12 @@ class WindowBuildMixin:
         self.act_snap = A("Snap onto the arc ridge", lambda: self.snap_box.toggle(), QKeySequence("R"))
         self.act_ring = A("&Find the ring", self.find_ring, QKeySequence("Ctrl+F"))
         self.act_light = A("Fit &lens light", self.fit_lens_light, QKeySequence("Ctrl+L"))
+        from lensmass.gui.light_on_open import SETTING, light_on_open_wanted
+
+        self.act_light_on_open = A("Fit lens light on open", lambda on: self.settings.setValue(SETTING, bool(on)),
+                                   None, "When an image with a bright galaxy at its centre opens, fit its light "
+                                   "in the background and show the residual.", checkable=True)
+        self.act_light_on_open.setChecked(light_on_open_wanted(self.settings))
         self.act_scale = A("Set pixel &scale...", self.set_pixel_scale_dialog, None,
                            "Arcsec per pixel, for pictures without a WCS.")
         self.act_estimate = A("Estimate again", self.request_estimate, QKeySequence("Ctrl+R"))
@@ -284,11 +302,11 @@ class WindowBuildMixin:
         for a in self.act_tools + [self.act_new_system, self.act_snap]:
             m.addAction(a)
         m.addSeparator()
-        for a in (self.act_ring, self.act_light, self.act_estimate, self.act_scale, self.act_cancel):
+        for a in (self.act_ring, self.act_light, self.act_light_on_open, self.act_estimate, self.act_scale, self.act_cancel):
             m.addAction(a)
         v = mb.addMenu("&View")
         for a in (self.act_fit, self.act_actual, self.act_zoom_in, self.act_zoom_out, self.act_cycle_layer,
-                  self.act_invert):
+                  self.act_invert, self.act_loupe):
             v.addAction(a)
         self.readout.add_to_menus(e_edit, v)
         v.addSeparator()
@@ -326,11 +344,13 @@ class WindowBuildMixin:
         self.add_system_button.clicked.connect(self.add_system)
         self.remove_system_button.clicked.connect(self.remove_system)
         self.shape_box.activated.connect(self._on_shape)
-        self.ring_button.clicked.connect(self.find_ring)
-        self.light_button.clicked.connect(self.fit_lens_light)
+        self.ring_button.clicked.connect(lambda _checked=False: self.find_ring())
+        self.light_button.clicked.connect(lambda _checked=False: self.fit_lens_light())
         self.layer_buttons.idClicked.connect(lambda i: self.set_display(layer=LAYERS[i]))
         self.stretch_box.activated.connect(lambda _i: self.set_display(stretch=self.stretch_box.currentText()))
-        self.limits_box.activated.connect(lambda _i: self.set_display(limits=self.limits_box.currentText()))
+        self.limits_box.activated.connect(lambda _i: self.choose_limits(self.limits_box.currentText()))
+        self.colour_bar.limits_typed.connect(self.set_manual_limits)
+        c.contrast_dragged.connect(self._on_contrast_drag)
         self.colormap_box.activated.connect(lambda _i: self.set_display(colormap=self.colormap_box.currentText()))
         self.invert_box.toggled.connect(lambda on: self.set_display(invert=bool(on)))
         self.undo_stack.cleanChanged.connect(self._on_undo_change)

@@ -113,7 +113,11 @@ class WindowFilesMixin:
         self._new_autosave_key()
         self._after_open()
         notes = getattr(loaded, "notes", None)
-        self.show_message(f"Opened {Path(path).name}" + (f" ({notes[0]})" if notes else "."))
+        name = Path(path).name + (f" ({notes[0]})" if notes else "")
+        self.show_message(f"Opened {name}.")
+        from lensmass.gui.light_on_open import offer_light_fit
+
+        offer_light_fit(self, name)  # a bright centre: its light is fitted and the residual shown
 
     def _open_session(self, path: str) -> None:
         from lensmass.io.session import load_session
@@ -200,6 +204,7 @@ class WindowFilesMixin:
         self.model.reset()
         self.pipeline.clear()
         self.canvas.clear_image()
+        self.colour_bar.show_scale(None, None, None)
         self._refresh_systems()
         self._update_title()
 

@@ -10,6 +10,7 @@ import numpy as np
 from PySide6.QtWidgets import QApplication
 
 from lensmass.core.errors import LensInputError
+from lensmass.gui.window_common import LAYERS
 from lensmass.gui.words import window_words
 from lensmass.gui.undo import AddMark, AddSystem, SetCentre
 
@@ -92,16 +93,31 @@ class WindowTasksMixin:
 
     def _after_task(self) -> None:
         self._estimating = False
+        self._automatic_task = False
+        queued, self._queued_task = getattr(self, "_queued_task", None), None
+        if queued is not None:  # asked for while the automatic lens-light fit ran: its turn now
+            self.run_task(*queued)
+            return
         if self._estimate_wanted:
             self._estimate_timer.start()
 
-    def run_task(self, fn, label: str, on_result, on_error=None):
-        """Run ``fn(progress, should_stop)`` in the background (panel API, see panel_registry)."""
+    def run_task(self, fn, label: str, on_result, on_error=None, automatic: bool = False):
+        """Run ``fn(progress, should_stop)`` in the background (panel API, see panel_registry).
+
+        A task asked for while the automatic lens-light fit of an opened image runs waits for it
+        (it is started when that fit ends) instead of being refused; it returns True then.
+        """
         if self.tasks.busy and self._estimating:
             self.tasks.cancel()
             self.tasks.wait(5000)
             QApplication.processEvents()
-        return self.tasks.start(fn, label, on_result, on_error or self.show_error)
+        if self.tasks.busy and getattr(self, "_automatic_task", False) and not automatic:
+            self._queued_task = (fn, label, on_result, on_error)
+            self.show_message(f"{label} starts as soon as the lens light is fitted (a few seconds).")
+            return True
+        thread = self.tasks.start(fn, label, on_result, on_error or self.show_error)
+        self._automatic_task = automatic and thread is not None
+        return thread
 
     # ================================================================ helpers
     def _image_or_hint(self):
@@ -161,10 +177,17 @@ class WindowTasksMixin:
                           f"({confidence}) about the lens centre ({ring.center_x:.1f}, {ring.center_y:.1f}), "
                           f"{ring.center_source}; its points are editable.{hint}")
 
-    def fit_lens_light(self, then_layer: str = "residual") -> None:
+    def fit_lens_light(self, then_layer: str = "residual", automatic: bool = False):
+        """Fit the lens light in the background, then show ``then_layer``; the started task or None.
+
+        ``automatic``: started by the window on open (see :mod:`lensmass.gui.light_on_open`), so a
+        task the user asks for meanwhile waits for it instead of being refused.
+        """
+        if then_layer not in LAYERS:  # a button's clicked(bool) must never land here
+            then_layer = "residual"
         image = self._image_or_hint()
         if image is None:
-            return
+            return None
         data, centre, hand = image.data, self.model.centre, image.hand_mask
 
         def work(progress, should_stop):
@@ -173,13 +196,18 @@ class WindowTasksMixin:
             cx, cy = centre if centre is not None else (None, None)
             return fit_lens_light_masked(data, cx, cy, mask=hand, progress=progress, should_stop=should_stop)
 
-        self.run_task(work, "Fitting the lens light", lambda fit: self._light_fitted(fit, then_layer))
+        def done(fit):
+            if self.model.image is image:  # the same image is still open
+                self._light_fitted(fit, then_layer, automatic)
 
-    def _light_fitted(self, fit, then_layer: str = "residual") -> None:
+        return self.run_task(work, "Fitting the lens light", done, automatic=automatic)
+
+    def _light_fitted(self, fit, then_layer: str = "residual", automatic: bool = False) -> None:
         if self.model.image is None:
             return
         self.model.set_lens_light(fit.model, fit.method)
         self.set_display(layer=then_layer)
         note = f" {fit.notes[0]}" if getattr(fit, "notes", None) else ""
+        how = " (L cycles image / lens light / residual)" if automatic else ""
         self.show_message(f"Lens light: Sersic n = {fit.sersic_n:.2f}, R_eff = {fit.r_eff_pix:.1f} px; "
-                          f"showing the {then_layer}.{note}")
+                          f"showing the {then_layer}{how}.{note}")

@@ -12,7 +12,7 @@ from lensmass.core.result_text import round_measured
 from lensmass.core.errors import LensInputError
 from lensmass.gui import measuring
 from lensmass.gui.canvas import SYSTEM_COLOURS, FitShape, Mark
-from lensmass.gui.display import COLORMAPS, LIMITS, STRETCHES, DisplayChoice, colour_table
+from lensmass.gui.display import COLORMAPS, LIMITS, MANUAL, STRETCHES, DisplayChoice, colour_table
 from lensmass.gui.mark_style import system_icon
 from lensmass.gui.window_common import LAYERS
 
@@ -30,6 +30,47 @@ class WindowViewMixin:
             return
         self.model.set_display(**changes)
 
+    # ------------------------------------------------------- display limits
+    def shown_limits(self) -> tuple[float, float] | None:
+        """The (low, high) display limits of what the canvas shows now (None without an image)."""
+        if self.model.image is None:
+            return None
+        choice = self._display_choice()
+        if not self.pipeline.has_layer(choice.layer):
+            choice = DisplayChoice(**{**choice.__dict__, "layer": "image"})
+        return self.pipeline.limits_for(choice)
+
+    def set_manual_limits(self, lo: float, hi: float) -> None:
+        """Show the image between typed (or dragged) limits; kept in the session."""
+        if self.model.image is None:
+            return
+        self.set_display(limits=MANUAL, manual_limits=(float(lo), float(hi)))
+
+    def choose_limits(self, name: str) -> None:
+        """A choice of the limits list; "manual" starts from the limits shown now."""
+        if name == MANUAL:
+            d = self.model.display
+            if d.manual_limits is None and self.shown_limits() is not None:
+                self.set_manual_limits(*self.shown_limits())
+                self.show_message("Manual limits: type low and high beside the colour bar, or drag on the image "
+                                  "with the right button.")
+                return
+        self.set_display(limits=name)
+
+    def _on_contrast_drag(self, dx: float, dy: float, done: bool) -> None:
+        from lensmass.gui.display import dragged_limits
+
+        if self.model.image is None or (done and dx == 0 and dy == 0 and self._contrast_start is None):
+            return
+        if self._contrast_start is None:
+            self._contrast_start = self.shown_limits()
+        lo, hi = dragged_limits(*self._contrast_start, dx, dy)
+        self.set_manual_limits(lo, hi)
+        if done:
+            self._contrast_start = None
+            self.show_message(f"Display limits {lo:.4g} to {hi:.4g} (manual): pick a preset in the limits list to "
+                              "go back.")
+
     def cycle_layer(self) -> None:
         available = [LAYERS[0]] if self.model.image is None or self.model.image.lens_light is None else list(LAYERS)
         current = self.model.display.layer
@@ -38,9 +79,12 @@ class WindowViewMixin:
 
     def _display_choice(self) -> DisplayChoice:
         d = self.model.display
-        return DisplayChoice(layer=d.layer, limits=d.limits if d.limits in LIMITS else "99.5%",
-                             stretch=d.stretch if d.stretch in STRETCHES else "asinh",
-                             colormap=d.colormap if d.colormap in COLORMAPS else "gray", invert=bool(d.invert))
+        manual = tuple(d.manual_limits) if d.manual_limits is not None and d.manual_limits[1] > d.manual_limits[0] \
+            else None
+        limits = d.limits if d.limits in LIMITS or (d.limits == MANUAL and manual) else "99.5%"
+        return DisplayChoice(layer=d.layer, limits=limits, stretch=d.stretch if d.stretch in STRETCHES else "asinh",
+                             colormap=d.colormap if d.colormap in COLORMAPS else "gray", invert=bool(d.invert),
+                             manual_limits=manual)
 
     def _push_layers(self) -> None:
         img = self.model.image
@@ -56,13 +100,15 @@ class WindowViewMixin:
         img = self.model.image
         if img is None:
             self.canvas.clear_image()
+            self.colour_bar.show_scale(None, None, None)
             return
         choice = self._display_choice()
         if not self.pipeline.has_layer(choice.layer):
             choice = DisplayChoice(**{**choice.__dict__, "layer": "image"})
-        limits = self.pipeline.limits(choice.layer, choice.limits)
+        limits = self.pipeline.limits_for(choice)
         table = colour_table(choice.stretch, choice.colormap, bool(choice.invert))
         self.canvas.set_source(self.pipeline.data(choice.layer), limits, table, img.flip_rows, keep_view)
+        self.colour_bar.show_scale(limits, table, choice)
         self._update_zoom_label()
 
     def _sync_display_widgets(self) -> None:

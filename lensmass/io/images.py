@@ -32,7 +32,6 @@ from typing import Any
 import numpy as np
 from astropy.utils.exceptions import AstropyUserWarning
 
-from lensmass.core.einstein import north_up_matrix
 from lensmass.core.errors import LensInputError
 from lensmass.io.image_views import colour_composite, display_limits, load_colour_composite  # noqa: F401 (moved; old paths)
 
@@ -89,6 +88,8 @@ class LoadedImage:
     #: The picture's (ny, nx, 3) RGB values for colour pictures (PNG/JPEG), else None: the ring
     #: finder uses the colour to tell blue arcs from the red lens light.
     rgb: np.ndarray | None = None
+    #: NaN pixels, when the reader already counted them (else counted by ``load_image``).
+    masked_pixels: int | None = field(default=None, repr=False)
 
     @property
     def shape(self) -> tuple[int, int]:
@@ -233,6 +234,11 @@ def _load_fits(p: Path, hdu, plane) -> LoadedImage:
             warnings.simplefilter("ignore")
             index, chosen = _choose_hdu(p, hdul, hdu)
         header = chosen.header
+        direct = _read_plain_float(p, chosen)
+        if direct is not None:  # the common case: one read into a native float array, no memory map beside it
+            image = _finish_fits(p, direct[0], header, index, None, [])
+            image.masked_pixels = direct[1]
+            return image
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             try:
@@ -258,10 +264,67 @@ def _load_fits(p: Path, hdu, plane) -> LoadedImage:
         data = _to_float_masked(raw, header, chosen)
     finally:
         hdul.close()
+    return _finish_fits(p, data, header, index, plane_used, notes)
+
+
+def _finish_fits(p: Path, data: np.ndarray, header, index: int, plane_used, notes: list[str]) -> LoadedImage:
     problem: list[str] = []
     wcs = _celestial_wcs(header, notes, problem)
     return LoadedImage(data=data, path=str(p), header=header, wcs=wcs, hdu_index=index, plane=plane_used,
                        kind="fits", notes=notes, wcs_problem="; ".join(problem))
+
+
+#: Rows cleaned at a time when turning non-finite pixels into NaN (keeps the temporary masks small).
+_CLEAN_ROWS = 512
+
+
+def _read_plain_float(p: Path, hdu) -> tuple[np.ndarray, int] | None:
+    """A 2-D, unscaled, uncompressed float image read straight into one native-endian array
+    (and its count of NaN pixels), or None.
+
+    The FITS standard stores floats big-endian (IEEE 754) right after the header, at the data
+    location astropy reports (``fileinfo()['datLoc']``); reading them into an array and swapping the
+    bytes in place costs one copy of the image, where a memory map plus a native copy costs two.
+    Anything else (integers, BSCALE/BZERO, tile compression, cubes) returns None for the general path.
+    """
+    from astropy.io import fits
+
+    h = hdu.header
+    if not isinstance(hdu, (fits.PrimaryHDU, fits.ImageHDU)) or isinstance(hdu, fits.CompImageHDU):
+        return None
+    if h.get("NAXIS") != 2 or h.get("BITPIX") not in (-32, -64) or "BLANK" in h:
+        return None
+    if h.get("BSCALE", 1) != 1 or h.get("BZERO", 0) != 0:
+        return None
+    try:
+        nx, ny, offset = int(h["NAXIS1"]), int(h["NAXIS2"]), hdu.fileinfo()["datLoc"]
+    except Exception:
+        return None
+    if nx <= 0 or ny <= 0 or offset is None:
+        return None
+    _check_size(p, ny, nx)
+    data = np.empty((ny, nx), dtype=">f4" if h["BITPIX"] == -32 else ">f8")
+    try:
+        with open(p, "rb") as f:
+            f.seek(int(offset))
+            got = f.readinto(memoryview(data).cast("B"))
+    except OSError as exc:
+        raise _fail_open(p, f"the image data could not be read ({_short(exc)})") from None
+    if got != data.nbytes:
+        raise _fail_open(p, "the image data are truncated or damaged (the file ends before its last pixel); "
+                            "re-download or re-export the file")
+    data = data.byteswap(inplace=True).view(data.dtype.newbyteorder("="))
+    n_bad = 0
+    for start in range(0, ny, _CLEAN_ROWS):
+        block = data[start:start + _CLEAN_ROWS]
+        bad = ~np.isfinite(block)
+        count = int(np.count_nonzero(bad))
+        if count:
+            block[bad] = np.nan
+            n_bad += count
+    if n_bad == data.size:
+        raise LensInputError("Every pixel of the image is blank or NaN: there is nothing to measure; check the file or HDU.")
+    return data, n_bad
 
 
 def _short(exc: Exception) -> str:
@@ -480,9 +543,16 @@ def _load_raster(p: Path) -> LoadedImage:
     return LoadedImage(data=data, path=str(p), kind="raster", notes=notes, rgb=rgb)
 
 
+def _count_nan(data: np.ndarray) -> int:
+    """NaN pixels, counted a block of rows at a time (no image-sized temporary mask)."""
+    if data.ndim != 2:
+        return int(np.count_nonzero(np.isnan(data)))
+    return sum(int(np.count_nonzero(np.isnan(data[i:i + _CLEAN_ROWS]))) for i in range(0, data.shape[0], _CLEAN_ROWS))
+
+
 def _finish(image: LoadedImage, user_scale: float | None, user_err: float) -> None:
     """Fill in pixel scale, its matrix and notes."""
-    n_masked = int(np.isnan(image.data).sum())
+    n_masked = image.masked_pixels if image.masked_pixels is not None else _count_nan(image.data)
     if n_masked:
         image.notes.append(f"{n_masked} pixels are blank or NaN and are masked.")
     if image.wcs is not None:
@@ -517,6 +587,8 @@ def _finish(image: LoadedImage, user_scale: float | None, user_err: float) -> No
         image.pixel_scale_xy_arcsec = (user_scale, user_scale)
         # FITS rows run upwards (row 0 at the bottom); PNG/JPEG/TIFF rows run downwards (row 0 at the top).
         # Either way the picture is taken as north up, east left (common practice for cutouts).
+        from lensmass.core.einstein import north_up_matrix  # imported here: it brings scipy
+
         image.pixel_matrix_arcsec = north_up_matrix(user_scale, rows_run_down=image.kind != "fits")
         image.notes.append(f"Pixel scale {user_scale:g}\"/pixel given by the user (no WCS in the file)"
                            + ("; row 0 is the top of the picture, taken as north up, east left." if image.kind != "fits"

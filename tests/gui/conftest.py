@@ -88,7 +88,8 @@ def wait_for_result(qtbot, window, timeout: int = 20000) -> dict:
 
 def wait_idle(qtbot, window, timeout: int = 20000) -> None:
     qtbot.waitUntil(lambda: not window.tasks.busy and not window._estimate_timer.isActive()
-                    and not window._estimate_wanted, timeout=timeout)
+                    and not window._estimate_wanted and getattr(window, "light_on_open_pending", None) is None,
+                    timeout=timeout)
 
 
 def label_float(label) -> float:
