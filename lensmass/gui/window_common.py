@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from PySide6.QtCore import Qt
-from PySide6.QtWidgets import QScrollArea, QWidget
+from PySide6.QtWidgets import QLayout, QScrollArea, QWidget
 
 from lensmass.io.images import IMAGE_SUFFIXES
 
@@ -23,6 +23,8 @@ TOOLS = (("point", "Arc point", "A", "Click along the arc to add points (A)."),
 def _scrolling(widget: QWidget) -> QScrollArea:
     """``widget`` in a frameless scroll area, so a tall panel never forces the window's size."""
     area = QScrollArea()
+    if widget.layout() is not None:  # rows keep their height and the area scrolls, never squeezed together
+        widget.layout().setSizeConstraint(QLayout.SetMinimumSize)
     area.setWidget(widget)
     area.setWidgetResizable(True)
     area.setFrameShape(QScrollArea.NoFrame)
