@@ -150,7 +150,8 @@ class WindowExportMixin:
             circle_px=(fit.center_x, fit.center_y, fit.a_px) if fit.shape != "ellipse" else None,
             ellipse_px=(fit.center_x, fit.center_y, fit.a_px, fit.b_px, fit.angle_deg) if fit.shape == "ellipse" else None,
             origin_px=tuple(float(v) for v in origin),
-            label=f"system {system.name}, {fit.shape} fit" if system is not None else "")
+            label=f"system {system.name}, {fit.shape} fit" if system is not None else "",
+            system=m.systems.index(system) if system in m.systems else 0)  # its colour, as in the window
         return cut, overlay
 
     def _report_lens_model(self):

@@ -21,7 +21,7 @@ import numpy as np
 from lensmass.core.errors import LensInputError
 from lensmass.core.result_text import Rounded, round_measured
 from lensmass.io.report_format import _mathtext_safe
-from lensmass.io.report_plots import CENTRE_COLOUR, FIT_COLOUR, INK, MUTED, NFW_COLOUR, Overlay, draw_cutout
+from lensmass.io.report_plots import INK, MUTED, NFW_COLOUR, Overlay, draw_cutout
 
 #: Colour of the model's critical curve and predicted images on the lens-model page.
 MODEL_COLOUR = NFW_COLOUR
@@ -115,10 +115,13 @@ def lens_model_figure(model_result: Mapping[str, Any], image_cutout: np.ndarray 
                            edgecolors=MODEL_COLOUR, linewidths=1.1, linestyles=":", zorder=4)
     from matplotlib.lines import Line2D
 
-    fig.legend([Line2D([], [], ls="", marker="s", mfc="none", mec=FIT_COLOUR),
-                Line2D([], [], ls="", marker="o", mfc="none", mec=MODEL_COLOUR),
-                Line2D([], [], color=MODEL_COLOUR, ls=(0, (5, 2))),
-                Line2D([], [], ls="", marker="+", mec=CENTRE_COLOUR, mew=1.4)],
+    from lensmass.io.report_marks import legend_handle
+
+    handles: list[Any] = [legend_handle("image", overlay.system if overlay is not None else 0),  # as the window
+                          Line2D([], [], ls="", marker="o", mfc="none", mec=MODEL_COLOUR),
+                          Line2D([], [], color=MODEL_COLOUR, ls=(0, (5, 2))),
+                          legend_handle("centre")]
+    fig.legend(handles,
                ["marked images", "model images", "critical curve", "lens centre"], loc="center left",
                bbox_to_anchor=(0.055, 0.605), ncol=4, frameon=False, fontsize=6.8, handlelength=1.6,
                labelcolor=MUTED)
