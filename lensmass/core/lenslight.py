@@ -28,6 +28,7 @@ from threadpoolctl import threadpool_limits
 
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
 from lensmass.core.sersic import sersic_b, sersic_intensity_at_re, sersic_surface_brightness
+from lensmass.core.sky_level import robust_sigma
 
 #: The fitted cut-out is binned so that its side has at most this many (binned) pixels.
 MAX_FIT_SIDE = 124
@@ -74,15 +75,6 @@ class LensLightModel:
     method: str = "elliptical Sersic blurred by a fitted Gaussian PSF, robust (soft-L1) least squares"
     ok: bool = True
     notes: list[str] = field(default_factory=list)
-
-
-def robust_sigma(values: np.ndarray) -> float:
-    """1.4826 x median absolute deviation of the finite values (Gaussian-equivalent sigma)."""
-    v = np.asarray(values, float)
-    v = v[np.isfinite(v)]
-    if v.size == 0:
-        return float("nan")
-    return float(1.4826 * np.median(np.abs(v - np.median(v))))
 
 
 def _moments(cut, xx, yy, cx, cy):

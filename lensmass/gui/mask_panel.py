@@ -101,7 +101,7 @@ class MaskPanel(QWidget):
 
         def work(progress, should_stop):
             from lensmass.core.cutout_masks import cutout_masks
-            from lensmass.core.lenslight import robust_sigma
+            from lensmass.core.sky_level import robust_sigma
 
             noise = robust_sigma(data[:: max(1, data.shape[0] // 256), :: max(1, data.shape[1] // 256)])
             return cutout_masks(data, noise if noise > 0 else 1.0, center=centre, extra_mask=None)
