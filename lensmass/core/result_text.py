@@ -120,7 +120,9 @@ def round_measured(value: Any, error: Any = None, interval: Sequence[Any] | None
     ``interval`` ``[low, high]``. It keeps :data:`ERROR_FIGURES` significant figures and the value,
     its error and its interval are written to the same decimal place (never more than
     :data:`MAX_VALUE_FIGURES` significant figures of the value). Without a usable uncertainty the
-    value is written as :func:`format_number` writes it.
+    value is written as :func:`format_number` writes it. Quoting the error to two significant figures
+    and the value to the same decimal is common practice (it is not the Particle Data Group's
+    three-digit rule, which sometimes keeps one figure).
 
     Examples
     --------
