@@ -22,7 +22,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.ndimage import gaussian_filter
+from scipy.ndimage import correlate1d
 from scipy.optimize import least_squares
 from threadpoolctl import threadpool_limits
 
@@ -34,8 +34,16 @@ from lensmass.core.sky_level import robust_sigma
 MAX_FIT_SIDE = 124
 #: Largest automatic fit radius (pixels): the cut-out then stays unbinned, keeping the core sharp.
 MAX_AUTO_FIT_RADIUS_PIX = 80
-#: Half-size (pixels of the fitted grid) of the PSF kernel.
-PSF_HALF = 12
+#: The Gaussian PSF kernel reaches this many sigma (as scipy's ``gaussian_filter`` ``truncate``).
+PSF_TRUNCATE = 3.5
+#: Pixels within this many (fitted-grid) pixels of the model centre are integrated over their area
+#: with CORE_SUBSAMPLE x CORE_SUBSAMPLE points (a Sersic cusp is far from linear across them).
+CORE_RADIUS_PIX = 2.5
+CORE_SUBSAMPLE = 8
+#: The profile at those points is softened, r -> sqrt(r^2 + eps^2), with eps this many sub-point spacings:
+#: a cusp sampled at fixed points jumps whenever the centre passes close to one, and those jumps trapped
+#: the fit in false minima (the demo ring's masked refit stopped at R_e 4.1 px, cost 4x the minimum).
+CORE_SOFTENING = 0.5
 #: Rounds of leaving out positive outliers (arcs), and evaluations per least-squares run.
 CLIP_ROUNDS = 2
 MAX_NFEV = 50
@@ -43,6 +51,13 @@ MAX_NFEV = 50
 #: with finite differences three demo ring tests move by 3%). Known weak spot: a bright galaxy with no
 #: seeing blur (R_e 6 px, peak 1e5 sigma) stops at R_e = 1.9 px with it, as finite differences do not.
 ANALYTIC_JACOBIAN = True
+#: The fitted centre may move this far (pixels) from the starting centre in either coordinate.
+CENTER_RANGE_PIX = 3.0
+#: The fitted position angle may turn this far (degrees) either way from the light's second moments.
+ANGLE_RANGE_DEG = np.inf
+#: Largest PSF sigma (pixels) the fit may take: the issue's range of seeing, 0.1-1.0" FWHM on 0.05-0.26" pixels,
+#: reaches 20 pixels FWHM (sigma 8.5); the bound was 6 pixels, which a 16-pixel seeing then hit.
+PSF_SIGMA_MAX_PIX = 12.0
 #: Range of the Sersic index the fit may take.
 SERSIC_N_BOUNDS = (0.4, 8.0)
 #: Scale (in sigma) where the soft-L1 cost turns from quadratic to linear.
@@ -131,15 +146,17 @@ def fit_lens_light(
 
     Examples
     --------
-    A de Vaucouleurs galaxy (n = 4, R_e = 6 pixels, q = 0.7) at (40.3, 39.6) with noise:
+    A de Vaucouleurs galaxy (n = 4, R_e = 6 pixels, q = 0.7) at (40.3, 39.6), integrated over each pixel
+    (8 x 8 points, as a camera does), with noise:
 
     >>> from lensmass.core.sersic import sersic_surface_brightness
-    >>> yy, xx = np.mgrid[0:81, 0:81].astype(float)
+    >>> s = (np.arange(81 * 8) + 0.5) / 8 - 0.5
+    >>> xx, yy = np.meshgrid(s, s)
     >>> galaxy = sersic_surface_brightness(xx - 40.3, yy - 39.6, total_flux=5000.0, r_eff_arcsec=6.0, n=4.0,
-    ...                                    axis_ratio=0.7, angle_deg=30.0)
-    >>> fit = fit_lens_light(galaxy + np.random.default_rng(2).normal(0, 0.05, xx.shape), 40, 40)
-    >>> fit.ok, round(fit.center_x, 1), round(fit.center_y, 1), round(fit.sersic_n, 1), round(fit.axis_ratio, 2)
-    (True, 40.3, 39.6, 4.0, 0.7)
+    ...                                    axis_ratio=0.7, angle_deg=30.0).reshape(81, 8, 81, 8).mean(axis=(1, 3))
+    >>> fit = fit_lens_light(galaxy + np.random.default_rng(2).normal(0, 0.05, galaxy.shape), 40, 40)
+    >>> fit.ok, round(fit.center_x, 1), round(fit.center_y, 1), round(fit.sersic_n), round(fit.axis_ratio, 2)
+    (True, 40.3, 39.6, 4, 0.7)
     """
     img = np.asarray(image, float) if np.asarray(image).dtype.kind != "f" else np.asarray(image)
     ny, nx = img.shape
@@ -186,14 +203,23 @@ def fit_lens_light(
     cum = np.cumsum(np.clip(vs[order], 0, None))
     re0 = float(np.clip(rr[sel][order][np.searchsorted(cum, 0.5 * cum[-1])], 1.0, rf))
     q0, ang0 = _moments(np.where(inner, np.nan_to_num(binned), 0.0), xx, yy, cx0, cy0)
-    # Parameters: log flux, log R_e, n, q, angle, x0, y0, sky, log PSF sigma (pixels).
-    p0 = np.array([np.log(max(flux0, 1e-9)), np.log(re0), 3.0, q0, ang0, cx0, cy0, 0.0, np.log(1.5)])
+    # Parameters: log flux, log R_e, n, q, angle, x0, y0, sky, log PSF sigma (pixels). The solver works on
+    # the angle and the centre as offsets from their starting values, with the angle bounded: scipy's
+    # step tolerance is relative to the parameter vector's norm, so an absolute centre (x ~ 1000 on a
+    # large image) or a free angle that wanders by thousands of degrees on a round galaxy (where it
+    # hardly matters) stopped the fit after its first steps (a bright unblurred galaxy ended at R_e =
+    # 1.9 instead of 6 pixels).
     n_lo, n_hi = SERSIC_N_BOUNDS
-    lo = np.array([-np.inf, np.log(0.3), n_lo, 0.15, -np.inf, cx0 - 3, cy0 - 3, -np.inf, np.log(0.2)])
-    hi = np.array([np.inf, np.log(3 * rf), n_hi, 1.0, np.inf, cx0 + 3, cy0 + 3, np.inf, np.log(6.0)])
+    start = np.array([0.0, 0.0, 0.0, 0.0, ang0, cx0, cy0, 0.0, 0.0])
+    p0 = np.array([np.log(max(flux0, 1e-9)), np.log(re0), 3.0, q0, 0.0, 0.0, 0.0, 0.0, np.log(1.5)])
+    lo = np.array([-np.inf, np.log(0.3), n_lo, 0.15, -ANGLE_RANGE_DEG, -CENTER_RANGE_PIX, -CENTER_RANGE_PIX, -np.inf,
+                   np.log(0.2)])
+    hi = np.array([np.inf, np.log(3 * rf), n_hi, 1.0, ANGLE_RANGE_DEG, CENTER_RANGE_PIX, CENTER_RANGE_PIX, np.inf,
+                   np.log(PSF_SIGMA_MAX_PIX)])
     p0 = np.clip(p0, lo + 1e-9, hi - 1e-9)
     calls = [0]
     weight = np.ones(vs.size)
+    core = core_pixels((cx0, cy0), xx, yy, f, reach=CENTER_RANGE_PIX)
 
     def residuals(p):
         calls[0] += 1
@@ -201,17 +227,17 @@ def fit_lens_light(
             check_stop(should_stop)
             report(progress, min(0.85, 0.85 * calls[0] / 600))
         with np.errstate(over="ignore", invalid="ignore"):
-            res = (_blurred_sersic_on_grid(p, xx, yy, f)[sel] - vs) / noise_bin
+            res = (_blurred_sersic_on_grid(p + start, xx, yy, f, core)[sel] - vs) / noise_bin
         return np.nan_to_num(weight * res, nan=1e6, posinf=1e6, neginf=-1e6)
 
     def jacobian(p):
         with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-            jac = blurred_sersic_jacobian(p, xx, yy, f)[:, sel].T
+            jac = blurred_sersic_jacobian(p + start, xx, yy, f, core)[:, sel].T
         return np.nan_to_num(jac * (weight / noise_bin)[:, None], nan=0.0, posinf=0.0, neginf=0.0)
 
-    p = p0
     with threadpool_limits(1):  # 9-column products: BLAS threads only contend (up to 10x slower on 2 busy cores)
-        sol, p = _robust_rounds(residuals, jacobian, p, lo, hi, xx, yy, f, sel, vs, noise_bin, weight)
+        sol, p = _robust_rounds(residuals, jacobian, p0, lo, hi, start, core, xx, yy, f, sel, vs, noise_bin, weight)
+    p = p + start
     if sol.status == 0:
         notes.append("The lens-light fit stopped before converging; check the residual image.")
     n_clipped = int((weight == 0).sum())
@@ -229,17 +255,17 @@ def fit_lens_light(
     )
 
 
-def _robust_rounds(residuals, jacobian, p, lo, hi, xx, yy, f, sel, vs, noise_bin, weight):
+def _robust_rounds(residuals, jacobian, p, lo, hi, start, core, xx, yy, f, sel, vs, noise_bin, weight):
     """Soft-L1 least squares, then up to CLIP_ROUNDS refits with bright positive outliers left out
     (pixels more than 3 sigma and 10% above the model: arcs, neighbours); ``weight`` is updated in place."""
     for _ in range(CLIP_ROUNDS + 1):
         sol = least_squares(residuals, p, jac=jacobian if ANALYTIC_JACOBIAN else "2-point", bounds=(lo, hi), loss="soft_l1", f_scale=SOFT_SCALE,
-                            max_nfev=MAX_NFEV, x_scale="jac", ftol=1e-5, xtol=1e-5, tr_solver="lsmr")
+                            max_nfev=MAX_NFEV, x_scale="jac", ftol=1e-5, xtol=None, tr_solver="lsmr")
         p = sol.x
         with np.errstate(over="ignore", invalid="ignore"):
-            m_sel = _blurred_sersic_on_grid(p, xx, yy, f)[sel]
+            m_sel = _blurred_sersic_on_grid(p + start, xx, yy, f, core)[sel]
         above = vs - m_sel
-        new_weight = np.where((above > 3 * noise_bin) & (above > 0.1 * np.abs(m_sel - p[7])), 0.0, 1.0)
+        new_weight = np.where((above > 3 * noise_bin) & (above > 0.1 * np.abs(m_sel - p[7] - start[7])), 0.0, 1.0)
         if np.array_equal(new_weight, weight):
             break
         weight[:] = new_weight
@@ -275,54 +301,116 @@ def blurred_sersic(p, gx: np.ndarray, gy: np.ndarray, step: float = 1.0) -> np.n
     return _blurred_sersic_on_grid(p, xx, yy, step)
 
 
-def _blurred_sersic_on_grid(p, xx: np.ndarray, yy: np.ndarray, step: float) -> np.ndarray:
-    """:func:`blurred_sersic` on a ready-made mesh (the fit evaluates it hundreds of times)."""
-    sb = sersic_surface_brightness(xx, yy, total_flux=np.exp(p[0]), r_eff_arcsec=np.exp(p[1]), n=p[2],
-                                   axis_ratio=p[3], angle_deg=p[4], x0=p[5], y0=p[6])
-    return gaussian_filter(sb, np.exp(p[8]) / step, mode="nearest", truncate=3.5) + p[7]
+def _blurred_sersic_on_grid(p, xx: np.ndarray, yy: np.ndarray, step: float, core=None) -> np.ndarray:
+    """:func:`blurred_sersic` on a ready-made mesh (the fit evaluates it hundreds of times); ``core`` is
+    :func:`core_pixels` fixed for a whole fit (default: around the model's own centre)."""
+    sb = _sersic_pixels(p, xx, yy, step, core)
+    w, _ = _psf_kernel_1d(np.exp(p[8]) / step)
+    return _blur(sb, w) + p[7]
 
 
-def blurred_sersic_jacobian(p, xx: np.ndarray, yy: np.ndarray, step: float) -> np.ndarray:
+def _psf_kernel_1d(sig: float) -> tuple[np.ndarray, np.ndarray]:
+    """The sampled, normalised 1-D Gaussian of ``sig`` pixels (as scipy's ``gaussian_filter`` with
+    ``truncate`` = :data:`PSF_TRUNCATE` builds it) and its exact derivative with respect to ln sig:
+    for w = exp(-x^2 / 2 s^2) / sum, dw/d ln s = w (x^2 - sum(w x^2)) / s^2."""
+    half = int(PSF_TRUNCATE * sig + 0.5)
+    x = np.arange(-half, half + 1, dtype=float)
+    w = np.exp(-0.5 * x * x / (sig * sig))
+    w /= w.sum()
+    return w, w * (x * x - float((w * x * x).sum())) / (sig * sig)
+
+
+def _blur(a: np.ndarray, w: np.ndarray, w_rows: np.ndarray | None = None) -> np.ndarray:
+    """Separable correlation of the last two axes of ``a`` with ``w`` (columns) and ``w_rows`` (rows,
+    default ``w``); edges continue the nearest pixel."""
+    out = correlate1d(a, w, axis=-1, mode="nearest")
+    return correlate1d(out, w if w_rows is None else w_rows, axis=-2, mode="nearest")
+
+
+def core_pixels(center: tuple[float, float], xx: np.ndarray, yy: np.ndarray, step: float, reach: float = 0.0):
+    """Flat indices of the grid pixels within :data:`CORE_RADIUS_PIX` grid pixels (plus ``reach`` image
+    pixels) of ``center``, and the (K, CORE_SUBSAMPLE^2) sub-pixel positions that integrate them over
+    their area. A fit fixes them around its starting centre with ``reach`` = how far the centre may
+    move, so the model stays a smooth function of the centre."""
+    near = np.flatnonzero(np.hypot(xx - center[0], yy - center[1]).ravel() <= CORE_RADIUS_PIX * step + reach)
+    u = ((np.arange(CORE_SUBSAMPLE) + 0.5) / CORE_SUBSAMPLE - 0.5) * step
+    du, dv = np.meshgrid(u, u)
+    return near, xx.ravel()[near][:, None] + du.ravel(), yy.ravel()[near][:, None] + dv.ravel()
+
+
+def _sersic_pixels(p, xx: np.ndarray, yy: np.ndarray, step: float, core=None) -> np.ndarray:
+    """The Sersic profile at the pixel centres, integrated over the pixel area near the centre (a cusp
+    changes by tens of per cent across one pixel there, and images integrate light over pixels)."""
+    kw = dict(total_flux=np.exp(p[0]), r_eff_arcsec=np.exp(p[1]), n=p[2], axis_ratio=p[3], angle_deg=p[4],
+              x0=p[5], y0=p[6])
+    sb = sersic_surface_brightness(xx, yy, **kw)
+    near, sx, sy = core_pixels((p[5], p[6]), xx, yy, step) if core is None else core
+    if near.size:
+        sb.ravel()[near] = _sersic_parts(p, sx, sy, step, CORE_SOFTENING * step / CORE_SUBSAMPLE,
+                                         value_only=True).mean(axis=1)
+    return sb
+
+
+def _sersic_parts(p, xx: np.ndarray, yy: np.ndarray, step: float, eps: float = 0.0,
+                  value_only: bool = False) -> np.ndarray:
+    """Derivatives (7, ...) of the Sersic profile at points (xx, yy) with respect to log flux, log R_e,
+    n, q, angle (degrees), x0, y0 (Graham & Driver 2005, eqs. 1, 4 differentiated by hand); the first is
+    the profile itself, which is all ``value_only`` returns. ``eps`` softens the radius (sqrt(r^2 + eps^2))."""
+    from scipy.special import digamma
+
+    n, q = float(p[2]), float(p[3])
+    re = float(np.exp(p[1]))
+    c, s = np.cos(np.radians(p[4])), np.sin(np.radians(p[4]))
+    dx, dy = xx - p[5], yy - p[6]
+    xp, yp = c * dx + s * dy, c * dy - s * dx
+    r2 = q * xp * xp + yp * yp / q
+    if eps:
+        r2 += eps * eps
+    r = np.sqrt(r2)
+    np.maximum(r, 0.02 * step, out=r)
+    b = float(sersic_b(n))
+    lr = np.log(r / re)
+    u = np.exp(lr / n)
+    sb = sersic_intensity_at_re(np.exp(p[0]), re, n) * np.exp(-b * (u - 1.0))
+    if value_only:
+        return sb
+    h = 1e-4 * max(n, 1.0)
+    db = float(sersic_b(n + h) - sersic_b(n - h)) / (2 * h)
+    d_lnie_dn = -1.0 / n - db + 2.0 * np.log(b) + 2.0 * n * db / b - 2.0 * digamma(2.0 * n)
+    bu_n = (b / n) * u
+    g = sb * bu_n / (r * r)                                # -(d sb / dr) / r
+    out = np.empty((7,) + np.shape(sb))
+    out[0] = sb                                            # d / d log flux
+    out[1] = sb * (bu_n - 2.0)                             # d / d log R_e
+    out[2] = sb * (d_lnie_dn - db * (u - 1.0) + bu_n * lr / n)   # d / d n
+    out[3] = g * (yp * yp / (q * q) - xp * xp) * 0.5      # d / d q
+    out[4] = g * xp * yp * ((1.0 / q - q) * np.pi / 180.0)  # d / d angle (deg)
+    out[5] = g * (q * c * xp - (s / q) * yp)               # d / d x0
+    out[6] = g * (q * s * xp + (c / q) * yp)               # d / d y0
+    return out
+
+
+def blurred_sersic_jacobian(p, xx: np.ndarray, yy: np.ndarray, step: float, core=None) -> np.ndarray:
     """Analytic derivatives (9, ny, nx) of :func:`_blurred_sersic_on_grid` with respect to its parameters
     (log flux, log R_e, n, q, angle in degrees, x0, y0, sky, log PSF sigma).
 
-    The blur is linear, so each derivative of the Sersic profile (Graham & Driver 2005, eqs. 1, 4) is
-    blurred by the same Gaussian; the PSF-width term uses the heat equation of the Gaussian kernel,
-    d(G_s * S)/d ln s = s^2 Laplacian(G_s * S). One model's worth of power laws and exponentials
-    and eight blurs replace the nine model evaluations of a finite-difference Jacobian.
+    The blur is linear, so each derivative of the Sersic profile (Graham & Driver 2005, eqs. 1, 4),
+    integrated over the core pixels as the model is, is blurred by the same Gaussian; the PSF-width
+    term blurs the profile with the exact derivative of the sampled kernel (rows and columns in
+    turn). One model's worth of power laws and exponentials replace the nine model evaluations of a
+    finite-difference Jacobian.
     """
-    from scipy.ndimage import laplace
-    from scipy.special import digamma
-
-    log_f, log_re, n, q, ang = p[0], p[1], p[2], p[3], p[4]
-    re = np.exp(log_re)
-    c, s = np.cos(np.radians(ang)), np.sin(np.radians(ang))
-    dx, dy = xx - p[5], yy - p[6]
-    xp, yp = c * dx + s * dy, -s * dx + c * dy
-    r = np.maximum(np.sqrt(q * xp * xp + yp * yp / q), 0.25 * step)
-    b = float(sersic_b(n))
-    h = 1e-4 * max(n, 1.0)
-    db = float(sersic_b(n + h) - sersic_b(n - h)) / (2 * h)
-    u = (r / re) ** (1.0 / n)
-    ie = sersic_intensity_at_re(np.exp(log_f), re, n)
-    sb = ie * np.exp(-b * (u - 1.0))
-    d_lnie_dn = -1.0 / n - db + 2.0 * np.log(b) + 2.0 * n * db / b - 2.0 * digamma(2.0 * n)
-    d_sb_dr = sb * (-b * u / (n * r))
-    parts = [
-        sb,                                                                       # d / d log flux
-        sb * (-2.0 + b * u / n),                                                  # d / d log R_e
-        sb * (d_lnie_dn - db * (u - 1.0) + b * u * np.log(r / re) / (n * n)),     # d / d n
-        d_sb_dr * (xp * xp - yp * yp / (q * q)) / (2.0 * r),                      # d / d q
-        d_sb_dr * xp * yp * (q - 1.0 / q) / r * (np.pi / 180.0),                  # d / d angle (deg)
-        d_sb_dr * (-q * xp * c + yp * s / q) / r,                                 # d / d x0
-        d_sb_dr * (-q * xp * s - yp * c / q) / r,                                 # d / d y0
-    ]
-    sig = np.exp(p[8]) / step
+    parts = _sersic_parts(p, xx, yy, step)
+    near, sx, sy = core_pixels((p[5], p[6]), xx, yy, step) if core is None else core
+    if near.size:
+        flat = parts.reshape(7, -1)
+        flat[:, near] = _sersic_parts(p, sx, sy, step, CORE_SOFTENING * step / CORE_SUBSAMPLE).mean(axis=2)
+    w, dw = _psf_kernel_1d(np.exp(p[8]) / step)
     out = np.empty((9,) + xx.shape)
-    for k, part in enumerate(parts):
-        out[k] = gaussian_filter(part, sig, mode="nearest", truncate=3.5)
+    cols = correlate1d(parts, w, axis=-1, mode="nearest")
+    out[:7] = correlate1d(cols, w, axis=-2, mode="nearest")
     out[7] = 1.0
-    out[8] = sig * sig * laplace(out[0], mode="nearest")
+    out[8] = correlate1d(cols[0], dw, axis=-2, mode="nearest") + _blur(parts[0], dw, w)
     return out
 
 

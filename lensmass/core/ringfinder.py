@@ -64,6 +64,9 @@ CONFIDENT_SCORE = 12.0
 CONFIDENT_MAX_WIDTH_PSF = 2.6
 #: Largest scatter of the ridge points about the fitted ellipse, in ring widths (spiral arms wander).
 CONFIDENT_MAX_RMS_WIDTH = 0.2
+#: Smallest resolution (FWHM, pixels) the width limit above compares with: an image sampled at the Nyquist rate
+#: (common practice: two pixels a FWHM) shows no feature thinner, whatever the fitted PSF under a pixel says.
+SAMPLING_FWHM_PIX = 2.0
 #: Smallest axis ratio of a confident ring (inclined discs and spiral patterns are flatter).
 CONFIDENT_MIN_AXIS_RATIO = 0.6
 #: Radius error floor of a ring or an arc pair (fraction of the radius), and the systematic error of a
@@ -391,6 +394,7 @@ def _calibrate(out: RingResult) -> RingResult:
     out.radius_err_pix = float(np.hypot(out.radius_err_pix, floor * out.radius_pix))
     light = out.lens_light
     psf = light.psf_fwhm_pix if light is not None and light.ok and np.isfinite(light.psf_fwhm_pix) else float("nan")
+    psf = max(psf, SAMPLING_FWHM_PIX) if np.isfinite(psf) else psf  # a ring is not sampled thinner than the pixels
     thin = not np.isfinite(psf) or out.ring_width_pix <= CONFIDENT_MAX_WIDTH_PSF * psf
     smooth = not np.isfinite(out.fit_rms_pix) or out.fit_rms_pix <= CONFIDENT_MAX_RMS_WIDTH * out.ring_width_pix
     round_enough = not np.isfinite(out.axis_ratio) or out.axis_ratio >= CONFIDENT_MIN_AXIS_RATIO
