@@ -1,7 +1,9 @@
 """Inject-and-recover cutouts that look like survey cutouts, not like our clean demo fields.
 
 Each cutout is drawn from a seed: a lens galaxy (elliptical Sersic light, SIE mass with an
-external shear) and an irregular, clumpy background source ray-traced through it, plus what a
+external shear) and a background source ray-traced through it (half of them an irregular, clumpy
+source of our own, half a real galaxy cut from the Hubble Deep Field image that scikit-image
+ships, see :func:`hubble_stamps`), plus what a
 real cutout holds besides: neighbouring galaxies, stars with Moffat (1969) wings, a lens centre
 a few pixels off the cutout centre; or a non-lens (an elliptical, a spiral, a ring galaxy, a
 galaxy pair, a star beside a galaxy, pure noise). Pixel scales run from 0.05" to 0.26" and the
@@ -18,15 +20,18 @@ References
 ----------
 Kormann, Schneider & Bartelmann (1994), A&A 284, 285 (SIE; critical curve of area pi theta_E^2);
 Moffat (1969), A&A 3, 455 (PSF); Lupton et al. (2004), PASP 116, 133 (asinh stretch of colour
-pictures: common practice for survey cutouts).
+pictures: common practice for survey cutouts); Williams et al. (1996), AJ 112, 1335 (the Hubble Deep
+Field; the picture is a public-domain NASA image, shipped as ``skimage.data.hubble_deep_field``).
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 import numpy as np
+from scipy.ndimage import binary_dilation, gaussian_filter, map_coordinates
 from scipy.signal import fftconvolve
 
 from lensmass.core import raytrace as rt
@@ -38,6 +43,10 @@ NONLENS_KINDS = ("elliptical", "spiral", "ring galaxy", "galaxy pair", "star + g
 COLOUR_LENS = (0.35, 0.7, 1.0)
 COLOUR_ARC = (1.0, 0.8, 0.6)
 COLOUR_DISC = (0.8, 0.85, 0.9)
+#: Source morphologies: our clumpy irregulars and real galaxies from the Hubble Deep Field picture.
+SOURCE_KINDS = ("clumpy", "hubble")
+#: Share of drawn sources that are real Hubble Deep Field galaxies.
+HUBBLE_SOURCE_SHARE = 0.5
 
 
 @dataclass
@@ -95,6 +104,90 @@ def _clumpy_source(rng, bx, by, x0, y0, size):
     return out
 
 
+@dataclass(frozen=True)
+class GalaxyStamp:
+    """A real galaxy cut from a picture: background-subtracted light (other objects zeroed), its
+    flux-weighted centre (``x``, ``y``, stamp pixels) and half-light radius ``r50`` (stamp pixels)."""
+
+    light: np.ndarray
+    x: float
+    y: float
+    r50: float
+
+
+@lru_cache(maxsize=1)
+def hubble_stamps(min_area_pix: int = 150) -> tuple[GalaxyStamp, ...]:
+    """Resolved galaxies of the Hubble Deep Field picture shipped by scikit-image, cut out once a process.
+
+    The picture (``skimage.data.hubble_deep_field``: WFPC2, Williams et al. 1996; a public-domain NASA
+    image, 8-bit colour) is made grey, its sky (median) subtracted and segmented at 3 sky sigma and
+    deblended (photutils ``detect_sources``/``deblend_sources``). Objects of at least ``min_area_pix``
+    pixels that touch neither the picture's edge nor its saturated (255) pixels, stars with their
+    diffraction spikes among those, are kept, each with the other objects' pixels set to zero.
+
+    Examples
+    --------
+    >>> stamps = hubble_stamps()
+    >>> len(stamps) > 50, all(s.r50 > 1 for s in stamps)
+    (True, True)
+    """
+    import warnings
+
+    from astropy.utils.exceptions import AstropyWarning
+    from photutils.segmentation import deblend_sources, detect_sources
+    from skimage.data import hubble_deep_field
+
+    rgb = np.asarray(hubble_deep_field(), float)
+    grey = rgb.mean(axis=2)
+    sky = float(np.median(grey))
+    noise = float(1.4826 * np.median(np.abs(grey - sky)))
+    sm = gaussian_filter(grey - sky, 1.0)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", AstropyWarning)
+        segm = detect_sources(sm, 3 * noise / (2 * np.sqrt(np.pi)), n_pixels=30)
+        segm = deblend_sources(sm, segm, n_pixels=30, contrast=0.01, progress_bar=False)
+    labels = np.asarray(segm.data)
+    saturated = binary_dilation((rgb >= 255).any(axis=2), iterations=3)
+    out = []
+    ny, nx = labels.shape
+    for lab, sl in zip(segm.labels, segm.slices):
+        ys, xs = sl
+        if ys.start == 0 or xs.start == 0 or ys.stop >= ny or xs.stop >= nx:
+            continue
+        sel = labels[sl] == lab
+        if sel.sum() < min_area_pix or saturated[sl][sel].any():
+            continue
+        grow = binary_dilation(np.pad(sel, 3), iterations=2)
+        y0, x0 = ys.start - 3, xs.start - 3
+        cut = (grey - sky)[max(y0, 0):ys.stop + 3, max(x0, 0):xs.stop + 3]
+        if cut.shape != grow.shape:
+            continue
+        light = np.clip(np.where(grow, cut, 0.0), 0.0, None)
+        tot = light.sum()
+        yy, xx = np.mgrid[0:light.shape[0], 0:light.shape[1]]
+        mx, my = float((light * xx).sum() / tot), float((light * yy).sum() / tot)
+        r = np.hypot(xx - mx, yy - my).ravel()
+        order = np.argsort(r)
+        cum = np.cumsum(light.ravel()[order])
+        r50 = float(r[order][np.searchsorted(cum, 0.5 * tot)])
+        out.append(GalaxyStamp((light / tot).astype(np.float32), mx, my, max(r50, 1.0)))
+    return tuple(out)
+
+
+def _hubble_source(rng, bx, by, x0, y0, size):
+    """A real galaxy (:func:`hubble_stamps`, drawn by ``rng``) centred on (x0, y0) in the source plane,
+    turned by a random angle, mirrored half the time, its half-light radius scaled to 0.8-1.4 ``size``."""
+    stamps = hubble_stamps()
+    st = stamps[int(rng.integers(len(stamps)))]
+    ang = rng.uniform(0, 2 * np.pi)
+    flip = -1.0 if rng.uniform() < 0.5 else 1.0
+    k = st.r50 / (size * rng.uniform(0.8, 1.4))  # stamp pixels per source-plane pixel
+    dx, dy = bx - x0, by - y0
+    u = (np.cos(ang) * dx + np.sin(ang) * dy) * k * flip + st.x
+    v = (-np.sin(ang) * dx + np.cos(ang) * dy) * k + st.y
+    return map_coordinates(st.light, [v.ravel(), u.ravel()], order=1, cval=0.0).reshape(bx.shape)
+
+
 def _spiral(xx, yy, x0, y0, re, q, ang, rng):
     """An exponential disc with two logarithmic arms and knots (our own shape, flux about 1)."""
     c, s = np.cos(np.radians(ang)), np.sin(np.radians(ang))
@@ -130,7 +223,7 @@ def colour_picture(cutout: Cutout, *, soft: float | None = None, top: float | No
 
 
 def make_cutout(seed: int, kind: str | None = None, *, lens: bool | None = None, size: int | None = None,
-                theta_e_over_fwhm: tuple[float, float] = (1.5, 6.0)) -> Cutout:
+                theta_e_over_fwhm: tuple[float, float] = (1.5, 6.0), source: str | None = None) -> Cutout:
     """Draw one cutout from ``seed``.
 
     Parameters
@@ -143,6 +236,11 @@ def make_cutout(seed: int, kind: str | None = None, *, lens: bool | None = None,
         Side in pixels; default large enough for the ring and its surroundings (64-128).
     theta_e_over_fwhm : (lo, hi)
         Range of the Einstein radius in units of the seeing FWHM.
+    source : str, optional
+        The lensed source's morphology, one of :data:`SOURCE_KINDS`; default drawn (a real Hubble
+        Deep Field galaxy with probability :data:`HUBBLE_SOURCE_SHARE`). The draw and the real
+        galaxy's pick, angle and size come from their own stream of ``seed``, so the rest of the
+        field is the same for either source.
 
     Examples
     --------
@@ -201,7 +299,17 @@ def make_cutout(seed: int, kind: str | None = None, *, lens: bool | None = None,
         off = te_pix * (rng.uniform(0.25, 0.5) if arcish else rng.uniform(0.0, 0.07))  # rings: source near the axis
         t = rng.uniform(0, 2 * np.pi)
         src_size = float(max(te_pix * rng.uniform(0.06, 0.15), 0.7))
-        comps["arc"] = _clumpy_source(rng, bx, by, cx + off * np.cos(t), cy + off * np.sin(t), src_size)
+        sx0, sy0 = cx + off * np.cos(t), cy + off * np.sin(t)
+        comps["arc"] = _clumpy_source(rng, bx, by, sx0, sy0, src_size)
+        rng_src = np.random.default_rng([seed, 14])
+        real = rng_src.uniform() < HUBBLE_SOURCE_SHARE
+        if source not in (None, *SOURCE_KINDS):
+            raise ValueError(f"source must be one of {SOURCE_KINDS}")
+        if source == "hubble" or (source is None and real):
+            comps["arc"] = _hubble_source(rng_src, bx, by, sx0, sy0, src_size)
+            truth["source"] = "hubble"
+        else:
+            truth["source"] = "clumpy"
         truth.update(radius_pix=te_pix, theta_e_arcsec=te_pix * scale, mass_axis_ratio=q_m, shear=float(g),
                      source_offset_pix=float(off))
     # Everything else in the field.
