@@ -53,6 +53,11 @@ STAR_MAX_ELONGATION = 1.4
 #: An object elongated at least this much, with its major axis within ARC_ANGLE_DEG of the tangent, is an arc.
 ARC_ELONGATION = 1.6
 ARC_ANGLE_DEG = 30.0
+#: A piece of the lens's blend standing this many sigma above its saddle (on the 1-pixel-smoothed image),
+#: not elongated along the tangent, is a neighbour and masked: generated arcs peak at 4-20 sigma a
+#: pixel (less once smoothed), the compact neighbours at 1.3-1.8 theta_E that the finder took for the
+#: ring stood 40-90 sigma up (calibration seeds 500000-500719).
+NEIGHBOUR_CONTRAST_SNR = 25.0
 #: Peak signal-to-noise an object needs to be taken as the lens.
 LENS_MIN_PEAK_SNR = 8.0
 #: A second galaxy this close (relative distance) and this bright makes the centre uncertain.
@@ -76,6 +81,8 @@ class FieldObject:
     angle_deg: float
     kind: str = "galaxy"  # "noise": too faint to matter; "faint": a knot left unmasked
     blue_excess: float = float("nan")
+    #: How far the peak stands above the segment's faintest pixel (its saddle with a blend), in sigma.
+    contrast_snr: float = float("nan")
 
 
 @dataclass
@@ -142,9 +149,11 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
         ang = float(np.degrees(np.arctan2(vec[1, 1], vec[0, 1])))
         iy, ix = np.unravel_index(int(np.argmax(v)), v.shape)
         be = float(np.nanmean(colour[sl][cut])) if colour is not None else float("nan")
+        base = float(vals[cut].min())
         objects.append(FieldObject(int(lab), float(ix + sl[1].start), float(iy + sl[0].start), peak / noise_sigma, tot,
                                    int(cut.sum()), float(np.where(half, vals, 0).sum() / tot),
-                                   float(2 * np.sqrt(half.sum() / np.pi)), elong, ang, blue_excess=be))
+                                   float(2 * np.sqrt(half.sum() / np.pi)), elong, ang, blue_excess=be,
+                                   contrast_snr=(peak - base) / noise_sigma))
     peaks = {o.label: o.peak_snr for o in objects}
     for o in objects:
         if o.peak_snr < MIN_PEAK_SNR:
@@ -176,6 +185,12 @@ def _tangential(o: FieldObject, cx: float, cy: float) -> bool:
     radial = np.degrees(np.arctan2(o.y - cy, o.x - cx))
     diff = abs(((o.angle_deg - radial - 90.0) + 90.0) % 180.0 - 90.0)
     return o.elongation >= ARC_ELONGATION and diff <= ARC_ANGLE_DEG
+
+
+def _bright_compact_neighbour(o: FieldObject, cx: float, cy: float) -> bool:
+    """A piece of the lens's blend that stands :data:`NEIGHBOUR_CONTRAST_SNR` above its saddle and is not
+    drawn out along the tangent: a neighbouring galaxy on the lens's light, not a piece of a ring."""
+    return bool(o.contrast_snr >= NEIGHBOUR_CONTRAST_SNR and not _tangential(o, cx, cy))
 
 
 def choose_lens(objects: list[FieldObject], shape: tuple[int, int], labels: np.ndarray,
@@ -294,7 +309,8 @@ def cutout_masks(image: np.ndarray, noise_sigma: float, *, center: tuple[float, 
         if lens is not None and o.label == lens.label:
             o.kind = "lens"
             continue
-        if o.label in touching and o.peak_snr < lens.peak_snr and o.kind != "star":
+        if (o.label in touching and o.peak_snr < lens.peak_snr and o.kind != "star"
+                and not _bright_compact_neighbour(o, cx, cy)):
             # A piece split off the lens's own blend and fainter than its core: as likely a piece of
             # the ring or an arc as a neighbour, so it is not masked.
             o.kind = "faint" if o.kind in ("star", "galaxy") else o.kind
