@@ -245,12 +245,14 @@ def choose_lens(objects: list[FieldObject], shape: tuple[int, int], labels: np.n
     return lens, how, hint
 
 
-def refine_peak(image: np.ndarray, x: float, y: float, smooth_pix: float = 1.5) -> tuple[float, float]:
-    """Sub-pixel light peak near (x, y): the 5 x 5 centroid of the smoothed image around its local maximum."""
+def refine_peak(image: np.ndarray, x: float, y: float, smooth_pix: float = 1.5,
+                reach_pix: int = 8) -> tuple[float, float]:
+    """Sub-pixel light peak near (x, y): the 5 x 5 centroid of the smoothed image around its maximum
+    within ``reach_pix`` pixels (NaN pixels, e.g. other objects, take the box's median)."""
     img = np.asarray(image, float)
     ny, nx = img.shape
     ix, iy = int(round(x)), int(round(y))
-    x0, x1, y0, y1 = max(0, ix - 8), min(nx, ix + 9), max(0, iy - 8), min(ny, iy + 9)
+    x0, x1, y0, y1 = max(0, ix - reach_pix), min(nx, ix + reach_pix + 1), max(0, iy - reach_pix), min(ny, iy + reach_pix + 1)
     cut = img[y0:y1, x0:x1]
     sm = gaussian_filter(np.where(np.isfinite(cut), cut, np.nanmedian(cut)), smooth_pix)
     jy, jx = np.unravel_index(int(np.argmax(sm)), sm.shape)
@@ -296,7 +298,10 @@ def cutout_masks(image: np.ndarray, noise_sigma: float, *, center: tuple[float, 
     if center is not None:
         cx, cy = float(center[0]), float(center[1])
     elif lens is not None:
-        cx, cy = refine_peak(img, lens.x, lens.y)
+        # Only the lens's own segment counts: a brighter neighbour or star a few pixels away must not
+        # pull the centre (calibration seeds 500000-500719: 3 of 86 hard rings lost their centre so).
+        own = np.where((labels == lens.label) | (labels == 0), img, np.nan)
+        cx, cy = refine_peak(own, lens.x, lens.y, reach_pix=3)
     else:
         cx, cy = (img.shape[1] - 1) / 2, (img.shape[0] - 1) / 2
     lens_blue = lens.blue_excess if lens is not None else float("nan")
