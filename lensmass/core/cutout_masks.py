@@ -58,6 +58,10 @@ ARC_ANGLE_DEG = 30.0
 #: pixel (less once smoothed), the compact neighbours at 1.3-1.8 theta_E that the finder took for the
 #: ring stood 40-90 sigma up (calibration seeds 500000-500719).
 NEIGHBOUR_CONTRAST_SNR = 25.0
+#: ... unless another object lies within this ratio of its distance from the lens centre, this far round
+#: it: the bright knots of a ring (the demo group ring's images stand 40-100 sigma up).
+RING_RADIUS_RATIO = 1.25
+RING_APART_DEG = 60.0
 #: Peak signal-to-noise an object needs to be taken as the lens.
 LENS_MIN_PEAK_SNR = 8.0
 #: A second galaxy this close (relative distance) and this bright makes the centre uncertain.
@@ -81,7 +85,8 @@ class FieldObject:
     angle_deg: float
     kind: str = "galaxy"  # "noise": too faint to matter; "faint": a knot left unmasked
     blue_excess: float = float("nan")
-    #: How far the peak stands above the segment's faintest pixel (its saddle with a blend), in sigma.
+    #: How far the peak stands above its saddle with the blend it was split from (or above the
+    #: segment's faintest pixel), in sigma.
     contrast_snr: float = float("nan")
 
 
@@ -149,7 +154,7 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
         ang = float(np.degrees(np.arctan2(vec[1, 1], vec[0, 1])))
         iy, ix = np.unravel_index(int(np.argmax(v)), v.shape)
         be = float(np.nanmean(colour[sl][cut])) if colour is not None else float("nan")
-        base = float(vals[cut].min())
+        base = _saddle(labels, sm, sl, lab)
         objects.append(FieldObject(int(lab), float(ix + sl[1].start), float(iy + sl[0].start), peak / noise_sigma, tot,
                                    int(cut.sum()), float(np.where(half, vals, 0).sum() / tot),
                                    float(2 * np.sqrt(half.sum() / np.pi)), elong, ang, blue_excess=be,
@@ -167,6 +172,20 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
                     or o.elongation <= STAR_ROUND_ELONGATION):
                 o.kind = "star"
     return labels, objects
+
+
+def _saddle(labels: np.ndarray, sm: np.ndarray, sl: tuple[slice, slice], label: int) -> float:
+    """The light level where segment ``label`` meets another segment (the highest of its pixels next to
+    one: the saddle of a deblended blend), or its faintest pixel when it touches none."""
+    ny, nx = labels.shape
+    y0, y1 = max(0, sl[0].start - 1), min(ny, sl[0].stop + 1)
+    x0, x1 = max(0, sl[1].start - 1), min(nx, sl[1].stop + 1)
+    box = labels[y0:y1, x0:x1]
+    own = box == label
+    others = (box != 0) & ~own
+    edge = own & binary_dilation(others)
+    vals = sm[y0:y1, x0:x1]
+    return float(vals[edge].max()) if edge.any() else float(vals[own].min())
 
 
 def _touching(labels: np.ndarray, label: int) -> set[int]:
@@ -187,10 +206,24 @@ def _tangential(o: FieldObject, cx: float, cy: float) -> bool:
     return o.elongation >= ARC_ELONGATION and diff <= ARC_ANGLE_DEG
 
 
-def _bright_compact_neighbour(o: FieldObject, cx: float, cy: float) -> bool:
-    """A piece of the lens's blend that stands :data:`NEIGHBOUR_CONTRAST_SNR` above its saddle and is not
-    drawn out along the tangent: a neighbouring galaxy on the lens's light, not a piece of a ring."""
-    return bool(o.contrast_snr >= NEIGHBOUR_CONTRAST_SNR and not _tangential(o, cx, cy))
+def _bright_compact_neighbour(o: FieldObject, objects: list[FieldObject], lens: FieldObject, cx: float,
+                              cy: float) -> bool:
+    """A piece of the lens's blend that stands :data:`NEIGHBOUR_CONTRAST_SNR` above its saddle, is not
+    drawn out along the tangent and is alone at its distance from the centre: a neighbouring galaxy on
+    the lens's light. The images of a lensed source come several to a radius (another piece within
+    :data:`RING_RADIUS_RATIO` of its distance, at least :data:`RING_APART_DEG` round the centre), so
+    such pieces are kept as the ring."""
+    if not (o.contrast_snr >= NEIGHBOUR_CONTRAST_SNR and not _tangential(o, cx, cy)):
+        return False
+    r0, a0 = np.hypot(o.x - cx, o.y - cy), np.arctan2(o.y - cy, o.x - cx)
+    for p in objects:
+        if p is o or p is lens or p.peak_snr < MIN_PEAK_SNR or p.kind == "star":
+            continue
+        r1, a1 = np.hypot(p.x - cx, p.y - cy), np.arctan2(p.y - cy, p.x - cx)
+        apart = abs((a1 - a0 + np.pi) % (2 * np.pi) - np.pi)
+        if 1 / RING_RADIUS_RATIO <= r1 / max(r0, 1e-9) <= RING_RADIUS_RATIO and apart >= np.radians(RING_APART_DEG):
+            return False
+    return True
 
 
 def choose_lens(objects: list[FieldObject], shape: tuple[int, int], labels: np.ndarray,
@@ -298,10 +331,10 @@ def cutout_masks(image: np.ndarray, noise_sigma: float, *, center: tuple[float, 
     if center is not None:
         cx, cy = float(center[0]), float(center[1])
     elif lens is not None:
-        # Only the lens's own segment counts: a brighter neighbour or star a few pixels away must not
-        # pull the centre (calibration seeds 500000-500719: 3 of 86 hard rings lost their centre so).
+        # Only the lens's own segment (and the sky) counts: a brighter neighbour or star a few pixels
+        # away must not pull the centre (calibration seeds 500000-500719: 3 of 86 hard rings lost it so).
         own = np.where((labels == lens.label) | (labels == 0), img, np.nan)
-        cx, cy = refine_peak(own, lens.x, lens.y, reach_pix=3)
+        cx, cy = refine_peak(own, lens.x, lens.y)
     else:
         cx, cy = (img.shape[1] - 1) / 2, (img.shape[0] - 1) / 2
     lens_blue = lens.blue_excess if lens is not None else float("nan")
@@ -315,7 +348,7 @@ def cutout_masks(image: np.ndarray, noise_sigma: float, *, center: tuple[float, 
             o.kind = "lens"
             continue
         if (o.label in touching and o.peak_snr < lens.peak_snr and o.kind != "star"
-                and not _bright_compact_neighbour(o, cx, cy)):
+                and not _bright_compact_neighbour(o, objects, lens, cx, cy)):
             # A piece split off the lens's own blend and fainter than its core: as likely a piece of
             # the ring or an arc as a neighbour, so it is not masked.
             o.kind = "faint" if o.kind in ("star", "galaxy") else o.kind
