@@ -1,6 +1,10 @@
 """Inject-and-recover sweep of the ring finder on survey-like cutouts (issue 14), fuller than the test.
 
-Run: python benchmarks/bench_ring_realism.py [N_LENSES] [N_NONLENSES] [FIRST_SEED]
+Run: python benchmarks/bench_ring_realism.py [N_LENSES] [N_NONLENSES] [FIRST_SEED] [COLOUR]
+
+Seeds: the finder's limits and error scale were calibrated on 500000-509999; report on the check range
+600000-600999 (the default: 400 lenses and 600 non-lenses use all of it); 700000-899999 are kept
+unseen for the lead's evaluation. COLOUR=0 skips the 8-bit colour pictures.
 
 Prints, for the r band (as FITS would give it) and for the 8-bit asinh-stretched colour picture,
 the found fraction, the fraction within 5%, bias and scatter of the radius, the 1- and 2-sigma
@@ -40,22 +44,19 @@ def _sweep(cutouts, colour: bool):
     return out
 
 
-def main(n_lenses: int = 120, n_nonlenses: int = 60, first_seed: int = 90000) -> None:
+def main(n_lenses: int = 400, n_nonlenses: int = 600, first_seed: int = 600000, colour_too: int = 1) -> None:
     from lensmass.core.realistic_fields import format_figures, make_sample, recovery_figures
 
     cutouts = make_sample(n_lenses, n_nonlenses, first_seed=first_seed)
-    for colour in (False, True):
+    for colour in (False, True)[: 2 if colour_too else 1]:
         c0, w0 = time.process_time(), time.perf_counter()
         runs = _sweep(cutouts, colour)
         cpu, wall = time.process_time() - c0, time.perf_counter() - w0
-        hard = [(c, r) for c, r in zip(cutouts, runs) if c.truth["kind"] in ("ring+neighbour", "ring+star")
-                and c.truth["radius_pix"] >= 2.5 * c.psf_fwhm_pix]
-        within = np.mean([r.found and abs(r.radius_pix / c.truth["radius_pix"] - 1) <= 0.05 for c, r in hard])
         name = "8-bit colour picture" if colour else "r band (FITS)"
-        print(f"{name}: {format_figures(recovery_figures(cutouts, runs))}; ring with a neighbour or star, "
-              f">= 2.5 FWHM: {within:.0%} of {len(hard)} within 5% (target 80%); "
+        print(f"{name}, seeds {first_seed}-{first_seed + len(cutouts) - 1}: {format_figures(recovery_figures(cutouts, runs))} "
+              f"(targets: ring rate >= 80%, inside 1 sigma 60-76%, inside 2 sigma >= 90%, confident < 2%); "
               f"{cpu / len(cutouts):.2f} s CPU, {wall / len(cutouts):.2f} s wall a cutout")
 
 
 if __name__ == "__main__":
-    main(*(int(a) for a in sys.argv[1:4]))
+    main(*(int(a) for a in sys.argv[1:5]))

@@ -22,9 +22,10 @@ from lensmass.core.realistic_fields import (
 )
 from lensmass.core.ringfinder import find_ring
 
-#: Seeds of the test sample (the calibration was made on seeds 3000-3999; these are unseen).
-FIRST_SEED = 71000
-N_LENSES, N_NONLENSES = 102, 54
+#: Seeds of the test sample: the check range 600000-600999 (the finder's limits were calibrated on
+#: 500000-509999 and never looked at these; 700000-899999 are kept for the lead's evaluation).
+FIRST_SEED = 600000
+N_LENSES, N_NONLENSES = 100, 50
 
 
 class _Failed:
@@ -61,23 +62,19 @@ def test_star_is_masked_and_the_lens_is_the_centre():
 
 
 def test_inject_and_recover_targets(sample_runs, capsys):
-    """>= 100 lenses and >= 50 non-lenses from the generator: the issue's targets."""
+    """>= 100 lenses and >= 50 non-lenses from the generator (half the sources real Hubble Deep Field
+    galaxies): the issue's targets. Single arcs are not held to 5%: an arc lies outside theta_E by the
+    source's offset, and the finder says so (its error is a third of the radius)."""
     cutouts, runs = sample_runs
     fig = recovery_figures(cutouts, runs)
-    # The issue's target: a ring (source near the lens axis) of radius >= 2.5 seeing FWHM, with a
-    # neighbour or a star in the cutout. Single arcs are not held to 5%: an arc lies outside theta_E
-    # by the source's offset, and the finder says so (33% error).
-    hard = [(c, r) for c, r in zip(cutouts, runs) if c.truth["kind"] in ("ring+neighbour", "ring+star")
-            and c.truth["radius_pix"] >= 2.5 * c.psf_fwhm_pix]
-    within = np.mean([r.found and abs(r.radius_pix / c.truth["radius_pix"] - 1) <= 0.05 for c, r in hard])
     with capsys.disabled():
-        print(f"\n[inject-and-recover, FITS-like r band] {format_figures(fig)}; with a neighbour or a star and "
-              f"a ring >= 2.5 FWHM: {within:.0%} of {len(hard)} within 5%")
+        print(f"\n[inject-and-recover, FITS-like r band, seeds {FIRST_SEED}+] {format_figures(fig)}")
     assert fig["n_lenses"] >= 100 and fig["n_nonlenses"] >= 50
+    assert sum(c.truth.get("source") == "hubble" for c in cutouts) >= 30
     assert 0.60 <= fig["cover1"] <= 0.76
     assert fig["cover2"] >= 0.90
     assert fig["false_confident"] < 0.02
-    assert within >= 0.80
+    assert fig["hard_within"] >= 0.80
 
 
 def test_colour_picture_stretch_does_not_move_the_radius():
