@@ -221,22 +221,27 @@ def fit_lens_light(
     weight = np.ones(vs.size)
     core = core_pixels((cx0, cy0), xx, yy, f, reach=CENTER_RANGE_PIX)
 
+    # The model and the Jacobian at the last few parameter vectors are kept: each round of _robust_rounds
+    # evaluates both again where the previous round stopped (the weights change, the model does not).
+    model_sel = _Recent(lambda q: _blurred_sersic_on_grid(q, xx, yy, f, core)[sel])
+    jac_sel = _Recent(lambda q: blurred_sersic_jacobian(q, xx, yy, f, core)[:, sel].T)
+
     def residuals(p):
         calls[0] += 1
         if calls[0] % 20 == 0:
             check_stop(should_stop)
             report(progress, min(0.85, 0.85 * calls[0] / 600))
         with np.errstate(over="ignore", invalid="ignore"):
-            res = (_blurred_sersic_on_grid(p + start, xx, yy, f, core)[sel] - vs) / noise_bin
+            res = (model_sel(p + start) - vs) / noise_bin
         return np.nan_to_num(weight * res, nan=1e6, posinf=1e6, neginf=-1e6)
 
     def jacobian(p):
         with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-            jac = blurred_sersic_jacobian(p + start, xx, yy, f, core)[:, sel].T
+            jac = jac_sel(p + start)
         return np.nan_to_num(jac * (weight / noise_bin)[:, None], nan=0.0, posinf=0.0, neginf=0.0)
 
     with threadpool_limits(1):  # 9-column products: BLAS threads only contend (up to 10x slower on 2 busy cores)
-        sol, p = _robust_rounds(residuals, jacobian, p0, lo, hi, start, core, xx, yy, f, sel, vs, noise_bin, weight)
+        sol, p = _robust_rounds(residuals, jacobian, p0, lo, hi, start, model_sel, vs, noise_bin, weight)
     p = p + start
     if sol.status == 0:
         notes.append("The lens-light fit stopped before converging; check the residual image.")
@@ -255,7 +260,24 @@ def fit_lens_light(
     )
 
 
-def _robust_rounds(residuals, jacobian, p, lo, hi, start, core, xx, yy, f, sel, vs, noise_bin, weight):
+class _Recent:
+    """``fn(q)`` remembered for the last :attr:`KEEP` parameter vectors ``q`` (exact matches only)."""
+
+    KEEP = 4
+
+    def __init__(self, fn):
+        self.fn, self.seen = fn, {}
+
+    def __call__(self, q: np.ndarray) -> np.ndarray:
+        key = q.tobytes()
+        if key not in self.seen:
+            if len(self.seen) >= self.KEEP:
+                del self.seen[next(iter(self.seen))]
+            self.seen[key] = self.fn(q)
+        return self.seen[key]
+
+
+def _robust_rounds(residuals, jacobian, p, lo, hi, start, model_sel, vs, noise_bin, weight):
     """Soft-L1 least squares, then up to CLIP_ROUNDS refits with bright positive outliers left out
     (pixels more than 3 sigma and 10% above the model: arcs, neighbours); ``weight`` is updated in place."""
     for _ in range(CLIP_ROUNDS + 1):
@@ -263,7 +285,7 @@ def _robust_rounds(residuals, jacobian, p, lo, hi, start, core, xx, yy, f, sel, 
                             max_nfev=MAX_NFEV, x_scale="jac", ftol=1e-5, xtol=None, tr_solver="lsmr")
         p = sol.x
         with np.errstate(over="ignore", invalid="ignore"):
-            m_sel = _blurred_sersic_on_grid(p + start, xx, yy, f, core)[sel]
+            m_sel = model_sel(p + start)
         above = vs - m_sel
         new_weight = np.where((above > 3 * noise_bin) & (above > 0.1 * np.abs(m_sel - p[7] - start[7])), 0.0, 1.0)
         if np.array_equal(new_weight, weight):
