@@ -25,7 +25,7 @@ from __future__ import annotations
 import numpy as np
 
 #: asinh strengths ``asinh(top / soft)`` tried: a top value 10 to 330 times the softening.
-STRETCH_STRENGTHS = (3.0, 4.5, 6.5)
+STRETCH_STRENGTHS = (3.0, 4.0, 5.0, 6.5, 8.0)
 #: The lens colour is measured on the pixels inside this many pixels of the centre (at least the 12 brightest).
 CORE_RADIUS_PIX = 2.5
 
@@ -47,7 +47,7 @@ def linearise(rgb: np.ndarray, strength: float) -> np.ndarray:
     >>> x = np.array([[[0.0, 1.0, 30.0]]])                     # flux in units of the softening
     >>> v = np.round(255 * np.arcsinh(x) / np.arcsinh(30.0))   # an asinh picture with top 30
     >>> np.round(linearise(v, np.arcsinh(30.0)), 1)
-    array([[[ 0. ,  1. , 30. ]]])
+    array([[[ 0.,  1., 30.]]])
     """
     v = np.asarray(rgb, float)
     top = 255.0 if np.nanmax(v) > 1.0 else 1.0

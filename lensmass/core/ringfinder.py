@@ -450,9 +450,12 @@ def _finish(out: RingResult, masks, given: bool, colour: bool) -> RingResult:
     if colour:
         out.warnings.append("The picture is 8-bit and stretched: its values are not calibrated flux, so the lens "
                             "light cannot be modelled exactly; the radius error is widened by "
-                            f"{STRETCHED_SYSTEMATIC:.0%} of the radius.")
+                            f"{STRETCHED_SYSTEMATIC:.0%} of the radius, and the ring is not called confident "
+                            "(the seeing, which tells a lensed ring from a ring galaxy's, is not measurable "
+                            "on it): use a FITS band, or mark the arcs, to confirm it.")
         if out.found:
             out.radius_err_pix = float(np.hypot(out.radius_err_pix, STRETCHED_SYSTEMATIC * out.radius_pix))
+        out.confident = False
     return out
 
 
