@@ -10,8 +10,10 @@ Method (our own):
    masked in the lens-light fit and in the search, with any pixels painted by hand. The
    centre is the user's, or the compact non-star light peak nearest the cutout centre; how it
    was chosen is always reported (``center_source``), with a hint when it is uncertain.
-1. Lens light: an elliptical Sersic fit (:mod:`lensmass.core.lenslight`) is subtracted. For an
-   8-bit colour picture the objects bluer than the lens are kept as arcs.
+1. Lens light: an elliptical Sersic fit (:mod:`lensmass.core.lenslight`) is subtracted. An 8-bit
+   colour picture is searched instead on its arc images (:mod:`lensmass.core.colour_separation`:
+   blue minus the lens core's colour times red, the stretch undone for several asinh strengths),
+   where the lens light cancels by its colour, with no model of it.
 2. The residual around the centre is binned in radius (half-pixel bins) and in
    ``n_sectors`` equal sectors of azimuth. Three azimuthal profiles are searched: the mean of
    the sector means, with the larger of the pixel-noise error and the scatter between
