@@ -76,3 +76,25 @@ def test_painting_a_mask_by_hand_reaches_the_ring_finder(qtbot, make_window, sta
     click_image(qtbot, window, 10.0, 12.0)
     ring = _find_ring(qtbot, window)
     assert ring.masks.mask[12, 10]  # the painted pixels were left out of the search
+
+
+def test_window_ring_on_a_colour_png_is_the_command_lines(qtbot, make_window, tmp_path):
+    # A three-band 8-bit asinh-stretched picture (Lupton et al. 2004 stretch: common practice for survey
+    # cutouts) of a generated ring (the project's generator, seed from the colour tuning range).
+    from lensmass.core.einstein import measure_theta_e_auto_ring
+    from lensmass.io.cutout_files import write_cutout_picture
+    from lensmass.io.images import load_image
+
+    cutout = make_cutout(510000, "ring")
+    path = write_cutout_picture(tmp_path / "tris_cutout.png", cutout)
+    window = make_window(load_panels=True)
+    assert window.open_path(str(path))
+    window.canvas.fit_to_window()
+    ring = _find_ring(qtbot, window)
+    cli, cli_ring = measure_theta_e_auto_ring(load_image(path), require_confident=False,
+                                             pixel_scale_arcsec=cutout.pixel_scale_arcsec)
+    assert ring.radius_pix == pytest.approx(cli_ring.radius_pix, abs=1e-9)
+    assert ring.radius_err_pix == pytest.approx(cli_ring.radius_err_pix, abs=1e-9)
+    assert any("told from the lens light by colour" in w for w in ring.warnings)  # the colour route ran
+    assert ring.radius_pix == pytest.approx(cutout.truth["radius_pix"], abs=2 * ring.radius_err_pix)
+    assert not ring.confident  # an 8-bit stretched picture never gives a confident ring
