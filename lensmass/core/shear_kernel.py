@@ -16,6 +16,8 @@ from typing import Any
 
 import numba
 import numpy as np
+from numba import types
+from numba.extending import overload
 
 from lensmass.core.constants import ARCSEC_RAD
 from lensmass.core.shear_geometry import _ARCTAN_SERIES, _TAN_SERIES, SERIES_MAX
@@ -30,7 +32,12 @@ _M32 = np.uint64(0xFFFFFFFF)
 _WEYL = np.uint64(0x9E3779B9)
 _FMIX1 = np.uint64(0x85EBCA6B)
 _FMIX2 = np.uint64(0xC2B2AE35)
-_S13, _S16, _S32 = np.uint64(13), np.uint64(16), np.uint64(32)
+_S8, _S13, _S16, _S24, _S32, _S40, _S48, _S56 = (np.uint64(k) for k in (8, 13, 16, 24, 32, 40, 48, 56))
+_B = np.uint64(0xFF)
+_B32 = np.uint32(0xFF)
+_T8, _T16, _T24 = np.uint32(8), np.uint32(16), np.uint32(24)
+#: Rows per chunk of the element-wise loops (12 float64 buffers of this length stay in the L1/L2 cache).
+CHUNK_ROWS = 1024
 
 
 @numba.njit(**_JIT)
@@ -68,6 +75,11 @@ def _index(theta, lo, hi, log_spaced, scale, n_fine):
         u = math.log(theta * (1.0 / lo)) * scale
     else:
         u = (theta - lo) * scale
+    return _clamp_floor(u, n_fine)
+
+
+@numba.njit(**_JIT)
+def _clamp_floor(u, n_fine):
     k = math.floor(u)
     if k < 0:
         k = 0
@@ -100,123 +112,264 @@ def _add_row(out, c, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a):
     row[17] += a * a * ee
 
 
-@numba.njit(**_JIT)
-def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins, table, first_row, boot_seed,
-                   cells, ann, boot, tally):
-    """Add rows to ``cells`` (n_cells x 18), ``ann`` (n_ann x 18), ``boot`` ((groups x bins) x 3) in place
-    (a row's 18 sums side by side: one or two cache lines).
+def _load(col, start, m, out):
+    """Rows ``start .. start + m`` of a column into the float64 buffer ``out`` (compiled by :func:`_load_impl`)."""
+    raise NotImplementedError
 
-    ``geo`` = (ra0, dec0, tan(Dec0 / 2), sin Dec0, cos Dec0); ``sel`` = (z_l, z_min, beta_one,
-    1/Sigma_cr per unit beta, u0, step, soft, use_boot, n_bins) with ``table`` the D_ls / D_s table; ``bins`` = (lo, hi, log_spaced, scale,
-    n_fine, n_cells); ``ann_bins`` the same for the annulus (n_fine = 0: none); ``tally`` =
-    [non_finite, e_ge_1, w_not_positive, z_not_behind, usable, in_bins, near].
-    """
+
+@overload(_load, jit_options={"error_model": "numpy"})
+def _load_impl(col, start, m, out):
+    """float32 / float64 columns are converted; uint64 / uint32 columns are the bytes of big-endian float64 /
+    float32 values (FITS stores big-endian), swapped here, a chunk at a time, instead of copying the column."""
+    if col.dtype == types.uint64:
+        def swap64(col, start, m, out):
+            u = out.view(np.uint64)
+            for j in range(m):
+                v = col[start + j]
+                u[j] = ((v & _B) << _S56) | (((v >> _S8) & _B) << _S48) | (((v >> _S16) & _B) << _S40) | (
+                    ((v >> _S24) & _B) << _S32) | (((v >> _S32) & _B) << _S24) | (((v >> _S40) & _B) << _S16) | (
+                    ((v >> _S48) & _B) << _S8) | (v >> _S56)
+        return swap64
+    if col.dtype == types.uint32:
+        def swap32(col, start, m, out):
+            tmp = np.empty(m, np.uint32)
+            for j in range(m):
+                v = col[start + j]
+                tmp[j] = ((v & _B32) << _T24) | (((v >> _T8) & _B32) << _T16) | (((v >> _T16) & _B32) << _T8) | (v >> _T24)
+            f = tmp.view(np.float32)
+            for j in range(m):
+                out[j] = f[j]
+        return swap32
+
+    def convert(col, start, m, out):
+        for j in range(m):
+            out[j] = col[start + j]
+    return convert
+
+
+@numba.njit(**_JIT)
+def _series(x, c0, c1, c2, c3, c4, c5):
+    """x (c0 + c1 x^2 + ... + c5 x^10) by Horner's rule, as :func:`_odd_series` (no loop: vectorises)."""
+    x2 = x * x
+    return (((((c5 * x2 + c4) * x2 + c3) * x2 + c2) * x2 + c1) * x2 + c0) * x
+
+
+@numba.njit(**_JIT)
+def _project_row(ra, dec, ra0, dec0, ta, s0, c0):
+    """x, y (arcsec) and theta of one row with the library tan / arctan beyond the series' range."""
+    half = math.pi / 360.0
+    to_arcsec = 1.0 / ARCSEC_RAD
+    t = _tan_s((ra - ra0) * half)
+    tb = _tan_s((dec - dec0) * half)
+    u = (ta + tb) / (1.0 - ta * tb)
+    t2 = t * t
+    ua = u * (t2 + 1.0)
+    one_u2 = 1.0 - u * u
+    p = (1.0 - t2) * one_u2
+    d = ua * s0 + p * (0.5 * c0)
+    if not d > 0:
+        d = np.nan
+    inv = to_arcsec / d
+    x = t * one_u2 * inv
+    y = (ua * c0 - p * (0.5 * s0)) * inv
+    return x, y, _arctan_s(math.sqrt(x * x + y * y) * ARCSEC_RAD) * to_arcsec
+
+
+@numba.njit(**_JIT)
+def _project_chunk(ra, dec, m, geo, xs, ys, ts):
+    """x, y (arcsec) and theta of ``m`` rows by the series alone: a loop without branches or calls, which
+    LLVM turns into SIMD code. Returns True if some row lies beyond the series' range (to be redone)."""
     half = math.pi / 360.0
     to_arcsec = 1.0 / ARCSEC_RAD
     ra0, dec0, ta, s0, c0 = geo[0], geo[1], geo[2], geo[3], geo[4]
-    z_l, z_min, beta_one, inv_k = sel[0], sel[1], sel[2], sel[3]
-    u0, step, soft, n_table = sel[4], sel[5], sel[6], table.size
-    use_boot, n_bins = sel[7] > 0, int(sel[8])
-    n_groups = np.uint64(boot.shape[0] // max(n_bins, 1))
-    lo, hi, log_b, scale, n_fine, n_cells = bins[0], bins[1], bins[2] > 0, bins[3], int(bins[4]), int(bins[5])
-    a_lo, a_hi, a_log, a_scale, n_ann = ann_bins[0], ann_bins[1], ann_bins[2] > 0, ann_bins[3], int(ann_bins[4])
-    seed_mix = np.uint64(boot_seed)
-    for r in range(ra.size):
-        t = _tan_s((ra[r] - ra0) * half)
-        tb = _tan_s((dec[r] - dec0) * half)
+    t0, t1, t2_, t3, t4, t5 = _TAN[0], _TAN[1], _TAN[2], _TAN[3], _TAN[4], _TAN[5]
+    a0, a1, a2, a3, a4, a5 = _ARCTAN[0], _ARCTAN[1], _ARCTAN[2], _ARCTAN[3], _ARCTAN[4], _ARCTAN[5]
+    big = False
+    for j in range(m):
+        ha = (ra[j] - ra0) * half
+        hb = (dec[j] - dec0) * half
+        t = _series(ha, t0, t1, t2_, t3, t4, t5)
+        tb = _series(hb, t0, t1, t2_, t3, t4, t5)
         u = (ta + tb) / (1.0 - ta * tb)
         t2 = t * t
         ua = u * (t2 + 1.0)
         one_u2 = 1.0 - u * u
         p = (1.0 - t2) * one_u2
         d = ua * s0 + p * (0.5 * c0)
-        if not d > 0:
-            d = np.nan
+        d = d if d > 0 else np.nan
         inv = to_arcsec / d
         x = t * one_u2 * inv
         y = (ua * c0 - p * (0.5 * s0)) * inv
-        theta = _arctan_s(math.sqrt(x * x + y * y) * ARCSEC_RAD) * to_arcsec
-        g1 = float(e1[r])
-        g2 = float(e2[r])
-        wr = float(w[r]) if has_w else 1.0
-        zr = float(z[r]) if has_z else 0.0
-        finite = math.isfinite(g1) and math.isfinite(g2) and math.isfinite(wr) and math.isfinite(theta)
-        if has_z:
-            finite = finite and math.isfinite(zr)
-        if not finite:
-            tally[0] += 1
-            continue
-        if g1 * g1 + g2 * g2 >= 1.0:
-            tally[1] += 1
-            continue
-        if not wr > 0:
-            tally[2] += 1
-            continue
-        if has_z and not zr > z_min:
-            tally[3] += 1
-            continue
-        tally[4] += 1
-        fine = _index(theta, lo, hi, log_b, scale, n_fine)
-        a_idx = _index(theta, a_lo, a_hi, a_log, a_scale, n_ann) if n_ann > 0 else -1
-        if fine < 0 and a_idx < 0:
-            continue
-        tally[6] += 1
+        rr = math.sqrt(x * x + y * y) * ARCSEC_RAD
+        ts[j] = _series(rr, a0, a1, a2, a3, a4, a5) * to_arcsec
+        xs[j] = x
+        ys[j] = y
+        big |= (abs(ha) >= SERIES_MAX) | (abs(hb) >= SERIES_MAX) | (rr >= SERIES_MAX)
+    if big:
+        for j in range(m):
+            xs[j], ys[j], ts[j] = _project_row(ra[j], dec[j], ra0, dec0, ta, s0, c0)
+    return big
+
+
+@numba.njit(**_JIT)
+def _rotate_chunk(m, xs, ys, e1, e2, ets, exs):
+    """Tangential and cross ellipticity of ``m`` rows (:func:`lensmass.core.shear_geometry._tangential_cross`)."""
+    for j in range(m):
+        x = xs[j]
+        y = ys[j]
+        g1 = e1[j]
+        g2 = e2[j]
         xx = x * x
         yy = y * y
         inv_r2 = 1.0 / (xx + yy)
         cos2 = (xx - yy) * inv_r2
         sin2 = (x + x) * y * inv_r2
-        e_t = -(g1 * cos2 + g2 * sin2)
-        e_x = g1 * sin2 - g2 * cos2
+        ets[j] = -(g1 * cos2 + g2 * sin2)
+        exs[j] = g1 * sin2 - g2 * cos2
+
+
+@numba.njit(**_JIT)
+def _beta_chunk(m, z, z_l, sel, table, bs):
+    """D_ls / D_s of ``m`` rows from the log-spaced table (:func:`lensmass.core.shear_sources._beta_from_table`)."""
+    u0, step, soft, n_table = sel[4], sel[5], sel[6], table.size
+    for j in range(m):  # the library log: no branches here, so the calls pipeline
+        bs[j] = math.log(max(z[j] - z_l, 0.0) + soft)
+    for j in range(m):
+        tt = (bs[j] - u0) * (1.0 / step)
+        i = int(tt) if tt == tt else 0
+        i = max(0, min(i, n_table - 2))
+        v0 = table[i]
+        beta = v0 + (tt - i) * (table[i + 1] - v0)
+        bs[j] = beta if z[j] > z_l else 0.0
+
+
+@numba.njit(**_JIT)
+def _bin_coordinate(m, ts, bins, us):
+    """u = ln(theta / lo) * scale (log-spaced bins) or (theta - lo) * scale: the sub-bin is floor(u)."""
+    lo, log_spaced, scale = bins[0], bins[2] > 0, bins[3]
+    if log_spaced:
+        inv_lo = 1.0 / lo
+        for j in range(m):
+            us[j] = math.log(ts[j] * inv_lo) * scale
+    else:
+        for j in range(m):
+            us[j] = (ts[j] - lo) * scale
+
+
+@numba.njit(**_JIT)
+def _boot_key(row, seed_mix, n_groups, n_bins, fine):
+    """(bootstrap group, bin) of a row, as :func:`lensmass.core.shear_sums.bootstrap_group`."""
+    h = row & _M32
+    hi32 = row >> _S32
+    if hi32:
+        h = (h + hi32 * _WEYL) & _M32
+    h ^= seed_mix
+    h ^= h >> _S16
+    h = (h * _FMIX1) & _M32
+    h ^= h >> _S13
+    h = (h * _FMIX2) & _M32
+    h ^= h >> _S16
+    group = (h * n_groups) >> _S32
+    return int(group) * n_bins + fine // 8
+
+
+@numba.njit(**_JIT)
+def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins, table, first_row, boot_seed,
+                   cells, ann, boot, tally):
+    """Add rows to ``cells`` (n_cells x 18), ``ann`` (n_ann x 18), ``boot`` ((groups x bins) x 3) in place
+    (a row's 18 sums side by side: one or two cache lines).
+
+    Columns are float32 / float64, or uint64 / uint32 holding big-endian float64 / float32 bytes (see
+    :func:`_load`). ``geo`` = (ra0, dec0, tan(Dec0 / 2), sin Dec0, cos Dec0); ``sel`` = (z_l, z_min,
+    beta_one, 1/Sigma_cr per unit beta, u0, step, soft, use_boot, n_bins) with ``table`` the D_ls / D_s
+    table; ``bins`` = (lo, hi, log_spaced, scale, n_fine, n_cells); ``ann_bins`` the same for the annulus
+    (n_fine = 0: none); ``tally`` = [non_finite, e_ge_1, w_not_positive, z_not_behind, usable, in_bins, near].
+
+    Rows go in chunks of :data:`CHUNK_ROWS`: the element-wise work (loading, projection, rotation, logs)
+    runs over the chunk in loops without branches, then one loop per row selects and adds.
+    """
+    z_l, z_min, beta_one, inv_k = sel[0], sel[1], sel[2], sel[3]
+    use_boot, n_bins = sel[7] > 0, int(sel[8])
+    n_groups = np.uint64(boot.shape[0] // max(n_bins, 1))
+    lo, hi, n_fine = bins[0], bins[1], int(bins[4])
+    a_lo, a_hi, a_log, a_scale, n_ann = ann_bins[0], ann_bins[1], ann_bins[2] > 0, ann_bins[3], int(ann_bins[4])
+    seed_mix = np.uint64(boot_seed)
+    buf = np.empty((12, CHUNK_ROWS))
+    cra, cdec, g1s, g2s, ws, zs, xs, ys, ts, us, ets, exs = (buf[0], buf[1], buf[2], buf[3], buf[4], buf[5],
+                                                             buf[6], buf[7], buf[8], buf[9], buf[10], buf[11])
+    bs = cdec  # D_ls / D_s, once Dec is no longer needed
+    n_bad = n_e = n_w = n_z = n_ok = n_in = n_near = 0
+    for start in range(0, ra.size, CHUNK_ROWS):
+        m = min(CHUNK_ROWS, ra.size - start)
+        _load(ra, start, m, cra)
+        _load(dec, start, m, cdec)
+        _load(e1, start, m, g1s)
+        _load(e2, start, m, g2s)
+        if has_w:
+            _load(w, start, m, ws)
         if has_z:
-            tt = (math.log(max(zr - z_l, 0.0) + soft) - u0) * (1.0 / step)
-            i = int(tt) if tt == tt else 0
-            if i < 0:
-                i = 0
-            if i > n_table - 2:
-                i = n_table - 2
-            v0 = table[i]
-            beta = v0 + (tt - i) * (table[i + 1] - v0)
-            if not zr > z_l:
-                beta = 0.0
-        else:
-            beta = beta_one
-        inv_sc = beta * inv_k
-        st = wr * e_t
-        sx = wr * e_x
-        w2 = wr * wr
-        ee = e_t * e_t + e_x * e_x
-        wb = wr * beta
-        a = wr * inv_sc
-        dd = a * inv_sc
-        dt = a * e_t
-        dx = a * e_x
-        if fine >= 0:
-            tally[5] += 1
-            bq = int(beta * 8.0)
-            if bq > 7:
-                bq = 7
-            _add_row(cells, fine * 8 + bq, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a)
-            if use_boot:
-                row = np.uint64(first_row + r)
-                h = row & _M32
-                hi32 = row >> _S32
-                if hi32:
-                    h = (h + hi32 * _WEYL) & _M32
-                h ^= seed_mix
-                h ^= h >> _S16
-                h = (h * _FMIX1) & _M32
-                h ^= h >> _S13
-                h = (h * _FMIX2) & _M32
-                h ^= h >> _S16
-                group = (h * n_groups) >> _S32
-                key = int(group) * n_bins + fine // 8
-                boot[key, 0] += wr
-                boot[key, 1] += st
-                boot[key, 2] += sx
-        if a_idx >= 0:
-            _add_row(ann, a_idx, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a)
-    return n_cells
+            _load(z, start, m, zs)
+        _project_chunk(cra, cdec, m, geo, xs, ys, ts)
+        _bin_coordinate(m, ts, bins, us)
+        _rotate_chunk(m, xs, ys, g1s, g2s, ets, exs)
+        if has_z:
+            _beta_chunk(m, zs, z_l, sel, table, bs)
+        for j in range(m):
+            theta = ts[j]
+            g1 = g1s[j]
+            g2 = g2s[j]
+            wr = ws[j] if has_w else 1.0
+            zr = zs[j] if has_z else 0.0
+            finite = math.isfinite(g1) and math.isfinite(g2) and math.isfinite(wr) and math.isfinite(theta)
+            if has_z:
+                finite = finite and math.isfinite(zr)
+            if not finite:
+                n_bad += 1
+                continue
+            if g1 * g1 + g2 * g2 >= 1.0:
+                n_e += 1
+                continue
+            if not wr > 0:
+                n_w += 1
+                continue
+            if has_z and not zr > z_min:
+                n_z += 1
+                continue
+            n_ok += 1
+            fine = _clamp_floor(us[j], n_fine) if (theta >= lo and theta < hi) else -1
+            a_idx = _index(theta, a_lo, a_hi, a_log, a_scale, n_ann) if n_ann > 0 else -1
+            if fine < 0 and a_idx < 0:
+                continue
+            n_near += 1
+            e_t = ets[j]
+            e_x = exs[j]
+            beta = bs[j] if has_z else beta_one
+            inv_sc = beta * inv_k
+            st = wr * e_t
+            sx = wr * e_x
+            w2 = wr * wr
+            ee = e_t * e_t + e_x * e_x
+            wb = wr * beta
+            a = wr * inv_sc
+            dd = a * inv_sc
+            dt = a * e_t
+            dx = a * e_x
+            if fine >= 0:
+                n_in += 1
+                bq = int(beta * 8.0)
+                if bq > 7:
+                    bq = 7
+                _add_row(cells, fine * 8 + bq, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a)
+                if use_boot:
+                    key = _boot_key(np.uint64(first_row + start + j), seed_mix, n_groups, n_bins, fine)
+                    boot[key, 0] += wr
+                    boot[key, 1] += st
+                    boot[key, 2] += sx
+            if a_idx >= 0:
+                _add_row(ann, a_idx, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a)
+    for i, v in enumerate((n_bad, n_e, n_w, n_z, n_ok, n_in, n_near)):
+        tally[i] += v
+    return cells.shape[0]
 
 
 class KernelParams:
@@ -272,12 +425,21 @@ def kernel_applies(layout, ctx, z) -> bool:
     return True
 
 
-def _column(values, dtype=None) -> np.ndarray:
-    """A 1-D contiguous native column the kernel takes (float32 stays float32; others to float64)."""
+_SWAPPED: dict[np.dtype, np.dtype] = {np.dtype(">f8"): np.dtype(np.uint64), np.dtype(">f4"): np.dtype(np.uint32)}
+_TAKEN = {np.dtype(t) for t in (np.float64, np.float32, np.int64, np.int32, np.int16, np.int8, np.uint16, np.uint8)}
+
+
+def _column(values) -> np.ndarray:
+    """A 1-D column as the kernel takes it, without a copy where possible: native floats and small ints as
+    they are (strided views of a memory-mapped table too), big-endian floats as unsigned ints of their bytes
+    (swapped in the kernel), anything else converted to float64."""
     arr = np.asarray(values)
-    if dtype is None:
-        dtype = arr.dtype if arr.dtype in (np.dtype(np.float32), np.dtype(np.float64)) else np.float64
-    return np.ascontiguousarray(arr, dtype=dtype)
+    dt = arr.dtype
+    if dt.isnative and dt in _TAKEN:
+        return arr
+    if dt in _SWAPPED:
+        return arr.view(_SWAPPED[dt])
+    return arr.astype(np.float64)
 
 
 def kernel_block_sums(total, layout, ctx, ra, dec, e1, e2, w, z, first_row: int) -> None:
@@ -290,7 +452,7 @@ def kernel_block_sums(total, layout, ctx, ra, dec, e1, e2, w, z, first_row: int)
     boot = total.boot.reshape(-1, 3) if total.boot is not None else np.zeros((1, 3))
     tally = np.zeros(7, np.int64)
     dummy = np.zeros(1, np.float32)
-    rows_to_cells(_column(ra, np.float64), _column(dec, np.float64), _column(e1), _column(e2),
+    rows_to_cells(_column(ra), _column(dec), _column(e1), _column(e2),
                   dummy if w is None else _column(w), dummy if z is None else _column(z), w is not None,
                   z is not None, params.geo, params.sel, params.bins, params.ann if n_ann else np.zeros(6),
                   params.table, int(first_row), params.seed, cells, ann, boot, tally)
