@@ -11,6 +11,7 @@ as ``np.bincount`` adds them. numba (LLVM) compiles the loop on first use and ca
 from __future__ import annotations
 
 import math
+import os
 
 from typing import Any
 
@@ -230,10 +231,15 @@ def _rotate_chunk(m, xs, ys, e1, e2, ets, exs):
 
 @numba.njit(**_JIT)
 def _beta_chunk(m, z, z_l, sel, table, bs):
-    """D_ls / D_s of ``m`` rows from the log-spaced table (:func:`lensmass.core.shear_sources._beta_from_table`)."""
-    u0, step, soft, n_table = sel[4], sel[5], sel[6], table.size
+    """D_ls / D_s of ``m`` rows from the log-spaced table (:func:`lensmass.core.shear_sources._beta_from_table`);
+    True if a redshift lies past the table's end (the block then takes the numpy route)."""
+    u0, step, soft, n_table, z_max = sel[4], sel[5], sel[6], table.size, sel[9]
+    far = False
     for j in range(m):  # the library log: no branches here, so the calls pipeline
         bs[j] = math.log(max(z[j] - z_l, 0.0) + soft)
+        far |= z[j] > z_max
+    if far:
+        return True
     for j in range(m):
         tt = (bs[j] - u0) * (1.0 / step)
         i = int(tt) if tt == tt else 0
@@ -241,6 +247,7 @@ def _beta_chunk(m, z, z_l, sel, table, bs):
         v0 = table[i]
         beta = v0 + (tt - i) * (table[i + 1] - v0)
         bs[j] = beta if z[j] > z_l else 0.0
+    return False
 
 
 @numba.njit(**_JIT)
@@ -283,7 +290,8 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
     :func:`_load`). ``geo`` = (ra0, dec0, tan(Dec0 / 2), sin Dec0, cos Dec0); ``sel`` = (z_l, z_min,
     beta_one, 1/Sigma_cr per unit beta, u0, step, soft, use_boot, n_bins) with ``table`` the D_ls / D_s
     table; ``bins`` = (lo, hi, log_spaced, scale, n_fine, n_cells); ``ann_bins`` the same for the annulus
-    (n_fine = 0: none); ``tally`` = [non_finite, e_ge_1, w_not_positive, z_not_behind, usable, in_bins, near].
+    (n_fine = 0: none); ``tally`` = [non_finite, e_ge_1, w_not_positive, z_not_behind, usable, in_bins, near,
+    beyond] (beyond: a redshift past the D_ls / D_s table's end, ``sel[9]``; the work stops, nothing is valid).
 
     Rows go in chunks of :data:`CHUNK_ROWS`: the element-wise work (loading, projection, rotation, logs)
     runs over the chunk in loops without branches, then one loop per row selects and adds.
@@ -312,8 +320,9 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
         _project_chunk(cra, cdec, m, geo, xs, ys, ts)
         _bin_coordinate(m, ts, bins, us)
         _rotate_chunk(m, xs, ys, g1s, g2s, ets, exs)
-        if has_z:
-            _beta_chunk(m, zs, z_l, sel, table, bs)
+        if has_z and _beta_chunk(m, zs, z_l, sel, table, bs):
+            tally[7] += 1
+            return 0
         for j in range(m):
             theta = ts[j]
             g1 = g1s[j]
@@ -369,7 +378,7 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
                 _add_row(ann, a_idx, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a)
     for i, v in enumerate((n_bad, n_e, n_w, n_z, n_ok, n_in, n_near)):
         tally[i] += v
-    return cells.shape[0]
+    return ra.size
 
 
 class KernelParams:
@@ -403,7 +412,8 @@ class KernelParams:
             beta_one = float(ctx.beta_one)
         self.table = np.ascontiguousarray(values, float)
         self.sel = np.array([layout.z_l, layout.z_l + layout.z_margin, beta_one, ctx.inv_sigma_cr_beta, u0, step,
-                             ss._BETA_SOFT, float(layout.bootstrap), layout.n_bins])
+                             ss._BETA_SOFT, float(layout.bootstrap), layout.n_bins,
+                             ss._BETA_ZMAX if layout.z_s is None else np.inf])
         self.seed = (int(layout.seed) * 0x9E3779B9 + 0x7F4A7C15) & 0xFFFFFFFF  # as shear_sums.bootstrap_group
 
 
@@ -413,8 +423,9 @@ def _params(layout, ctx) -> KernelParams:
     return ctx.kernel
 
 
-def kernel_applies(layout, ctx, z) -> bool:
-    """The kernel covers evenly spaced (log or linear) bins and tabulated D_ls / D_s (z up to the table's end)."""
+def kernel_applies(layout, ctx, z=None) -> bool:
+    """The kernel covers evenly spaced (log or linear) bins and tabulated D_ls / D_s (z up to the table's end;
+    :func:`kernel_block_sums` checks that as it reads the rows, this function only when given ``z``)."""
     params = _params(layout, ctx)
     if params.bins is None or (params.has_annulus and params.ann is None):
         return False
@@ -442,26 +453,78 @@ def _column(values) -> np.ndarray:
     return arr.astype(np.float64)
 
 
-def kernel_block_sums(total, layout, ctx, ra, dec, e1, e2, w, z, first_row: int) -> None:
+#: Rows per part of a block: parts are summed on their own (on :data:`KERNEL_THREADS` threads) and the
+#: parts' sums added in row order, so the numbers depend on this size, never on the number of threads.
+PART_ROWS = 1 << 18
+#: Threads of the compiled kernel (None: the CPUs this process may use). The kernel releases the GIL.
+KERNEL_THREADS: int | None = None
+_POOL: dict[int, Any] = {}
+
+
+def _threads() -> int:
+    if KERNEL_THREADS is not None:
+        return max(1, int(KERNEL_THREADS))
+    try:
+        return len(os.sched_getaffinity(0))
+    except AttributeError:  # not on Linux
+        return os.cpu_count() or 1
+
+
+def _map(fn, items: list) -> list:
+    """``fn`` of each item, on the kernel's thread pool when there are several (results in item order)."""
+    n = min(_threads(), len(items))
+    if n < 2:
+        return [fn(item) for item in items]
+    pool = _POOL.get(n)
+    if pool is None:
+        from concurrent.futures import ThreadPoolExecutor
+
+        pool = _POOL[n] = ThreadPoolExecutor(n, thread_name_prefix="lensmass-sums")
+    return list(pool.map(fn, items))
+
+
+def kernel_block_sums(total, layout, ctx, ra, dec, e1, e2, w, z, first_row: int) -> bool:
     """Add a block of rows to the :class:`lensmass.core.shear_sums.ShearSums` ``total`` (the sums of the
-    numpy route, :func:`lensmass.core.shear_sums._add_piece`)."""
+    numpy route, :func:`lensmass.core.shear_sums._add_piece`). False (and ``total`` untouched) if a
+    redshift lies past the D_ls / D_s table: the caller takes the numpy route for the block."""
     params = _params(layout, ctx)
     n_ann = params.n_ann
-    cells = np.zeros((layout.n_cells, len(KERNEL_KEYS)))
-    ann = np.zeros((max(n_ann, 1), len(KERNEL_KEYS)))
-    boot = total.boot.reshape(-1, 3) if total.boot is not None else np.zeros((1, 3))
-    tally = np.zeros(7, np.int64)
+    n_keys = len(KERNEL_KEYS)
+    cols = [_column(c) for c in (ra, dec, e1, e2)]
     dummy = np.zeros(1, np.float32)
-    rows_to_cells(_column(ra), _column(dec), _column(e1), _column(e2),
-                  dummy if w is None else _column(w), dummy if z is None else _column(z), w is not None,
-                  z is not None, params.geo, params.sel, params.bins, params.ann if n_ann else np.zeros(6),
-                  params.table, int(first_row), params.seed, cells, ann, boot, tally)
+    wc = dummy if w is None else _column(w)
+    zc = dummy if z is None else _column(z)
+    n = int(cols[0].shape[0])
+    boot_shape = total.boot.reshape(-1, 3).shape if total.boot is not None else (1, 3)
+
+    def part(start: int):
+        stop = min(n, start + PART_ROWS)
+        cells, ann = np.zeros((layout.n_cells, n_keys)), np.zeros((max(n_ann, 1), n_keys))
+        boot, tally = np.zeros(boot_shape), np.zeros(8, np.int64)
+        rows_to_cells(*(c[start:stop] for c in cols), wc if w is None else wc[start:stop],
+                      zc if z is None else zc[start:stop], w is not None, z is not None, params.geo, params.sel,
+                      params.bins, params.ann if n_ann else np.zeros(6), params.table, int(first_row) + start,
+                      params.seed, cells, ann, boot, tally)
+        return cells, ann, boot, tally
+
+    parts = _map(part, list(range(0, n, PART_ROWS)))
+    if any(p[3][7] for p in parts):
+        return False
+    cells, ann, boot, tally = parts[0]
+    for p in parts[1:]:
+        cells += p[0]
+        ann += p[1]
+        boot += p[2]
+        tally += p[3]
     for i, key in enumerate(KERNEL_KEYS):
         total.cells[key] += cells[:, i]
         if n_ann and key in total.annulus:
             total.annulus[key] += ann[:, i]
+    if total.boot is not None:
+        total.boot += boot.reshape(total.boot.shape)
     for i, reason in enumerate(("non_finite", "ellipticity_ge_1", "weight_not_positive", "source_not_behind_lens")):
         total.dropped[reason] += int(tally[i])
     total.n_usable += int(tally[4])
     total.n_in_bins += int(tally[5])
     total.n_near += int(tally[6])
+    return True

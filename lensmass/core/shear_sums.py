@@ -236,9 +236,10 @@ _CONTEXTS: dict[tuple, _Context] = {}
 
 
 def _context(layout: SumLayout) -> _Context:
-    """The layout's constants, cached by value (a layout unpickled on a worker finds them too)."""
+    """The layout's constants, cached by value (a layout unpickled on a worker finds them too; every field
+    counts, since the compiled kernel's constants include the redshift margin, bootstrap switch and seed)."""
     key = (layout.center_ra, layout.center_dec, layout.z_l, repr(layout.cosmo), layout.edges_arcsec, layout.z_s,
-           layout.annulus_edges_arcsec)
+           layout.annulus_edges_arcsec, layout.z_margin, layout.bootstrap, layout.seed)  # the kernel's constants use all
     ctx = _CONTEXTS.get(key)
     if ctx is None:
         if len(_CONTEXTS) > 8:
@@ -274,8 +275,8 @@ def catalog_block_sums(layout: SumLayout, ra_deg, dec_deg, e1, e2, weight=None, 
     z_col = z if layout.z_s is None else None
     if USE_KERNEL and n >= KERNEL_MIN_ROWS:
         from lensmass.core import shear_kernel as sk
-        if sk.kernel_applies(layout, ctx, z_col):
-            sk.kernel_block_sums(total, layout, ctx, ra_deg, dec_deg, e1, e2, weight, z_col, first_row)
+        if sk.kernel_applies(layout, ctx) and sk.kernel_block_sums(total, layout, ctx, ra_deg, dec_deg, e1, e2,
+                                                                    weight, z_col, first_row):
             total.n_rows = n
             return total
     for start in range(0, n, BLOCK_ROWS):

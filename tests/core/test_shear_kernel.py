@@ -98,3 +98,50 @@ def test_big_endian_and_strided_columns_give_the_same_sums():
         assert np.array_equal(swapped.cells[key], values), key
     assert np.array_equal(swapped.boot, native.boot)
     assert swapped.dropped == native.dropped and swapped.n_in_bins == native.n_in_bins
+
+
+def test_parts_on_threads_add_up_the_same_whatever_the_number_of_threads(monkeypatch):
+    # a block is cut into parts of PART_ROWS rows (summed on threads, added in row order): the numbers depend
+    # on the part size only, and agree with the numpy route (the reference) to rounding
+    edges = radial_bin_edges(60.0, 3600.0, 10)
+    layout = S.SumLayout(RA0, DEC0, ZL, resolve_cosmology("Planck18"), tuple(edges), bootstrap=True, seed=5)
+    columns = _catalogue(seed=13)
+    monkeypatch.setattr(sk, "PART_ROWS", 1 << 14)
+    runs = []
+    for threads in (1, 2, 3):
+        monkeypatch.setattr(sk, "KERNEL_THREADS", threads)
+        runs.append(S.catalog_block_sums(layout, *columns, first_row=7))
+    for other in runs[1:]:
+        assert all(np.array_equal(other.cells[k], runs[0].cells[k]) for k in runs[0].cells)
+        assert np.array_equal(other.boot, runs[0].boot) and other.dropped == runs[0].dropped
+    kernel, numpy = _both(layout, *columns, first_row=7)
+    for key, values in numpy.cells.items():
+        assert _close(kernel.cells[key], values, values), key
+    assert _close(kernel.boot, numpy.boot, numpy.boot) and kernel.n_in_bins == numpy.n_in_bins
+
+
+def test_a_redshift_past_the_table_sends_the_block_to_the_numpy_route():
+    # the kernel finds it while reading and gives the block back untouched; the numpy route computes D_ls / D_s
+    # of such rows with the core distances
+    edges = radial_bin_edges(60.0, 3600.0, 10)
+    layout = S.SumLayout(RA0, DEC0, ZL, resolve_cosmology("Planck18"), tuple(edges), bootstrap=True, seed=5)
+    ra, dec, e1, e2, w, z = _catalogue(seed=17)
+    z = z.copy()
+    z[-3] = 25.0
+    kernel, numpy = _both(layout, ra, dec, e1, e2, w, z)
+    assert all(np.array_equal(kernel.cells[k], numpy.cells[k]) for k in numpy.cells)
+    assert np.array_equal(kernel.boot, numpy.boot)
+
+
+def test_layouts_differing_only_in_margin_bootstrap_or_seed_do_not_share_constants():
+    # the kernel's constants (redshift margin, bootstrap switch, hash seed) were once cached by the bins and
+    # centre alone, so a second run in the same process reused the first run's margin and seed
+    edges = tuple(radial_bin_edges(60.0, 3600.0, 10))
+    cosmo = resolve_cosmology("Planck18")
+    columns = _catalogue(seed=19)
+    S.catalog_block_sums(S.SumLayout(RA0, DEC0, ZL, cosmo, edges, bootstrap=False, seed=1), *columns)
+    for margin, seed in ((0.1, 2), (0.3, 3)):
+        layout = S.SumLayout(RA0, DEC0, ZL, cosmo, edges, z_margin=margin, bootstrap=True, seed=seed)
+        kernel, numpy = _both(layout, *columns)
+        assert kernel.dropped == numpy.dropped
+        assert np.abs(numpy.boot).sum() > 0 and _close(kernel.boot, numpy.boot, numpy.boot)
