@@ -17,6 +17,8 @@ from pathlib import Path
 
 import numpy as np
 
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))  # this checkout's lensmass, not the installed one
+
 
 def _best_of(fn, repeat=3):
     """Best wall-clock and best CPU time (process_time: robust when others load the machine)."""

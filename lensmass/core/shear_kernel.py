@@ -37,7 +37,7 @@ _S8, _S13, _S16, _S24, _S32, _S40, _S48, _S56 = (np.uint64(k) for k in (8, 13, 1
 _B = np.uint64(0xFF)
 _B32 = np.uint32(0xFF)
 _T8, _T16, _T24 = np.uint32(8), np.uint32(16), np.uint32(24)
-#: Rows per chunk of the element-wise loops (12 float64 buffers of this length stay in the L1/L2 cache).
+#: Rows per chunk of the element-wise loops (14 float64 buffers of this length stay in the L1/L2 cache).
 CHUNK_ROWS = 1024
 
 
@@ -68,19 +68,8 @@ def _arctan_s(x):
 
 
 @numba.njit(**_JIT)
-def _index(theta, lo, hi, log_spaced, scale, n_fine):
-    """The sub-bin of theta (-1 outside [lo, hi)), as :func:`lensmass.core.shear_profile._fine_indexer`."""
-    if not (theta >= lo and theta < hi):
-        return -1
-    if log_spaced:
-        u = math.log(theta * (1.0 / lo)) * scale
-    else:
-        u = (theta - lo) * scale
-    return _clamp_floor(u, n_fine)
-
-
-@numba.njit(**_JIT)
 def _clamp_floor(u, n_fine):
+    """floor(u) clamped to the sub-bins 0 .. n_fine - 1, as :func:`lensmass.core.shear_profile._fine_indexer`."""
     k = math.floor(u)
     if k < 0:
         k = 0
@@ -146,6 +135,43 @@ def _load_impl(col, start, m, out):
         for j in range(m):
             out[j] = col[start + j]
     return convert
+
+
+# log by the method and coefficients of fdlibm's e_log.c (Sun Microsystems 1993; written from memory, checked
+# against the C library's log to 1 ulp in tests/core/test_shear_kernel.py): x = 2^k (1 + f), 1 + f in
+# [sqrt(2)/2, sqrt(2)), s = f / (2 + f), log(1 + f) = f - (f^2/2 - s (f^2/2 + R(s^2))).
+_LN2_HI, _LN2_LO = 6.93147180369123816490e-01, 1.90821492927058770002e-10
+_LG = (6.666666666666735130e-01, 3.999999999940941908e-01, 2.857142874366239149e-01, 2.222219843214978396e-01,
+       1.818357216161805012e-01, 1.531383769920937332e-01, 1.479819860511658591e-01)
+_MANTISSA = np.int64(0x000FFFFFFFFFFFFF)
+_ONE_BITS, _HALF_BITS = np.int64(0x3FF0000000000000), np.int64(0x3FE0000000000000)
+_SQRT2_MANTISSA = np.int64(0x6A09E667F3BCD)
+_TWO52_BITS, _TWO52_BIAS = np.int64(0x4330000000000000), 4503599627370496.0 + 1023.0  # 2^52 + e as a double
+
+
+@numba.njit(**_JIT)
+def log_chunk(m, x, work):
+    """x[:m] = log(x[:m]) in place for positive normal numbers (others give meaningless values, no error);
+    ``work`` a float64 buffer as long. Within 1 ulp of the C library's log, and in loops LLVM vectorises,
+    so about four times faster than calling it per value."""
+    xb = x.view(np.int64)
+    wb = work.view(np.int64)
+    for j in range(m):  # exponent and mantissa from the bits
+        bits = xb[j]
+        frac = bits & _MANTISSA
+        hi = frac > _SQRT2_MANTISSA
+        wb[j] = ((bits >> 52) + hi) | _TWO52_BITS
+        xb[j] = frac | (_HALF_BITS if hi else _ONE_BITS)
+    lg1, lg2, lg3, lg4, lg5, lg6, lg7 = _LG[0], _LG[1], _LG[2], _LG[3], _LG[4], _LG[5], _LG[6]
+    for j in range(m):
+        k = work[j] - _TWO52_BIAS
+        f = x[j] - 1.0
+        s = f / (2.0 + f)
+        z = s * s
+        w = z * z
+        r = z * (lg1 + w * (lg3 + w * (lg5 + w * lg7))) + w * (lg2 + w * (lg4 + w * lg6))
+        hfsq = 0.5 * f * f
+        x[j] = k * _LN2_HI - ((hfsq - (s * (hfsq + r) + k * _LN2_LO)) - f)
 
 
 @numba.njit(**_JIT)
@@ -230,14 +256,15 @@ def _rotate_chunk(m, xs, ys, e1, e2, ets, exs):
 
 
 @numba.njit(**_JIT)
-def _beta_chunk(m, z, z_l, sel, table, bs):
+def _beta_chunk(m, z, z_l, sel, table, bs, work):
     """D_ls / D_s of ``m`` rows from the log-spaced table (:func:`lensmass.core.shear_sources._beta_from_table`);
     True if a redshift lies past the table's end (the block then takes the numpy route)."""
     u0, step, soft, n_table, z_max = sel[4], sel[5], sel[6], table.size, sel[9]
     far = False
-    for j in range(m):  # the library log: no branches here, so the calls pipeline
-        bs[j] = math.log(max(z[j] - z_l, 0.0) + soft)
+    for j in range(m):
+        bs[j] = max(z[j] - z_l, 0.0) + soft
         far |= z[j] > z_max
+    log_chunk(m, bs, work)
     if far:
         return True
     for j in range(m):
@@ -251,13 +278,17 @@ def _beta_chunk(m, z, z_l, sel, table, bs):
 
 
 @numba.njit(**_JIT)
-def _bin_coordinate(m, ts, bins, us):
-    """u = ln(theta / lo) * scale (log-spaced bins) or (theta - lo) * scale: the sub-bin is floor(u)."""
+def _bin_coordinate(m, ts, bins, us, work):
+    """u = ln(theta / lo) * scale (log-spaced bins) or (theta - lo) * scale: the sub-bin is floor(u)
+    (u matters only for theta in [lo, hi))."""
     lo, log_spaced, scale = bins[0], bins[2] > 0, bins[3]
     if log_spaced:
         inv_lo = 1.0 / lo
         for j in range(m):
-            us[j] = math.log(ts[j] * inv_lo) * scale
+            us[j] = ts[j] * inv_lo
+        log_chunk(m, us, work)
+        for j in range(m):
+            us[j] *= scale
     else:
         for j in range(m):
             us[j] = (ts[j] - lo) * scale
@@ -300,11 +331,12 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
     use_boot, n_bins = sel[7] > 0, int(sel[8])
     n_groups = np.uint64(boot.shape[0] // max(n_bins, 1))
     lo, hi, n_fine = bins[0], bins[1], int(bins[4])
-    a_lo, a_hi, a_log, a_scale, n_ann = ann_bins[0], ann_bins[1], ann_bins[2] > 0, ann_bins[3], int(ann_bins[4])
+    a_lo, a_hi, n_ann = ann_bins[0], ann_bins[1], int(ann_bins[4])
     seed_mix = np.uint64(boot_seed)
-    buf = np.empty((12, CHUNK_ROWS))
-    cra, cdec, g1s, g2s, ws, zs, xs, ys, ts, us, ets, exs = (buf[0], buf[1], buf[2], buf[3], buf[4], buf[5],
-                                                             buf[6], buf[7], buf[8], buf[9], buf[10], buf[11])
+    buf = np.empty((14, CHUNK_ROWS))
+    cra, cdec, g1s, g2s, ws, zs, xs, ys, ts, us, ets, exs, work, aus = (buf[0], buf[1], buf[2], buf[3], buf[4],
+                                                                        buf[5], buf[6], buf[7], buf[8], buf[9],
+                                                                        buf[10], buf[11], buf[12], buf[13])
     bs = cdec  # D_ls / D_s, once Dec is no longer needed
     n_bad = n_e = n_w = n_z = n_ok = n_in = n_near = 0
     for start in range(0, ra.size, CHUNK_ROWS):
@@ -318,9 +350,11 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
         if has_z:
             _load(z, start, m, zs)
         _project_chunk(cra, cdec, m, geo, xs, ys, ts)
-        _bin_coordinate(m, ts, bins, us)
+        _bin_coordinate(m, ts, bins, us, work)
+        if n_ann > 0:
+            _bin_coordinate(m, ts, ann_bins, aus, work)
         _rotate_chunk(m, xs, ys, g1s, g2s, ets, exs)
-        if has_z and _beta_chunk(m, zs, z_l, sel, table, bs):
+        if has_z and _beta_chunk(m, zs, z_l, sel, table, bs, work):
             tally[7] += 1
             return 0
         for j in range(m):
@@ -346,7 +380,7 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
                 continue
             n_ok += 1
             fine = _clamp_floor(us[j], n_fine) if (theta >= lo and theta < hi) else -1
-            a_idx = _index(theta, a_lo, a_hi, a_log, a_scale, n_ann) if n_ann > 0 else -1
+            a_idx = _clamp_floor(aus[j], n_ann) if (n_ann > 0 and theta >= a_lo and theta < a_hi) else -1
             if fine < 0 and a_idx < 0:
                 continue
             n_near += 1
