@@ -490,7 +490,8 @@ def _column(values) -> np.ndarray:
 #: Rows per part of a block: parts are summed on their own (on :data:`KERNEL_THREADS` threads) and the
 #: parts' sums added in row order, so the numbers depend on this size, never on the number of threads.
 PART_ROWS = 1 << 18
-#: Threads of the compiled kernel (None: the CPUs this process may use). The kernel releases the GIL.
+#: Threads of the compiled kernel (None: the environment variable ``LENSMASS_THREADS``, else the CPUs this
+#: process may use). The kernel releases the GIL, so the threads run in parallel within one process.
 KERNEL_THREADS: int | None = None
 _POOL: dict[int, Any] = {}
 
@@ -498,6 +499,9 @@ _POOL: dict[int, Any] = {}
 def _threads() -> int:
     if KERNEL_THREADS is not None:
         return max(1, int(KERNEL_THREADS))
+    text = os.environ.get("LENSMASS_THREADS", "").strip()
+    if text.isdigit() and int(text) > 0:
+        return int(text)
     try:
         return len(os.sched_getaffinity(0))
     except AttributeError:  # not on Linux

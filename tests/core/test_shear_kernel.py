@@ -161,3 +161,11 @@ def test_the_kernels_log_is_within_one_ulp_of_the_c_library():
     ulps = np.abs(out - ref) / np.spacing(np.abs(ref) + 1e-300)
     assert ulps.max() <= 1.0
     assert out[-6] == 0.0 and abs(out[-5] - math.log(2.0)) == 0.0
+
+
+def test_thread_count_from_the_environment(monkeypatch):
+    monkeypatch.setattr(sk, "KERNEL_THREADS", None)
+    monkeypatch.setenv("LENSMASS_THREADS", "3")
+    assert sk._threads() == 3
+    monkeypatch.setenv("LENSMASS_THREADS", "many")  # not a count: the CPUs this process may use
+    assert sk._threads() >= 1
