@@ -182,24 +182,27 @@ def _series(x, c0, c1, c2, c3, c4, c5):
 
 
 @numba.njit(**_JIT)
-def _project_row(ra, dec, ra0, dec0, ta, s0, c0):
-    """x, y (arcsec) and theta of one row with the library tan / arctan beyond the series' range."""
-    half = math.pi / 360.0
+def _plane(t, tb, ta, s0, c0):
+    """Tangent-plane x, y (arcsec) from t = tan(dRA / 2), tan(dDec / 2) and the centre's ``geo`` terms, as
+    :func:`lensmass.core.shear_geometry._gnomonic` (NaN behind the plane; no branch, so loops vectorise)."""
     to_arcsec = 1.0 / ARCSEC_RAD
-    t = _tan_s((ra - ra0) * half)
-    tb = _tan_s((dec - dec0) * half)
     u = (ta + tb) / (1.0 - ta * tb)
     t2 = t * t
     ua = u * (t2 + 1.0)
     one_u2 = 1.0 - u * u
     p = (1.0 - t2) * one_u2
     d = ua * s0 + p * (0.5 * c0)
-    if not d > 0:
-        d = np.nan
+    d = d if d > 0 else np.nan
     inv = to_arcsec / d
-    x = t * one_u2 * inv
-    y = (ua * c0 - p * (0.5 * s0)) * inv
-    return x, y, _arctan_s(math.sqrt(x * x + y * y) * ARCSEC_RAD) * to_arcsec
+    return t * one_u2 * inv, (ua * c0 - p * (0.5 * s0)) * inv
+
+
+@numba.njit(**_JIT)
+def _project_row(ra, dec, ra0, dec0, ta, s0, c0):
+    """x, y (arcsec) and theta of one row with the library tan / arctan beyond the series' range."""
+    half = math.pi / 360.0
+    x, y = _plane(_tan_s((ra - ra0) * half), _tan_s((dec - dec0) * half), ta, s0, c0)
+    return x, y, _arctan_s(math.sqrt(x * x + y * y) * ARCSEC_RAD) * (1.0 / ARCSEC_RAD)
 
 
 @numba.njit(**_JIT)
@@ -215,18 +218,7 @@ def _project_chunk(ra, dec, m, geo, xs, ys, ts):
     for j in range(m):
         ha = (ra[j] - ra0) * half
         hb = (dec[j] - dec0) * half
-        t = _series(ha, t0, t1, t2_, t3, t4, t5)
-        tb = _series(hb, t0, t1, t2_, t3, t4, t5)
-        u = (ta + tb) / (1.0 - ta * tb)
-        t2 = t * t
-        ua = u * (t2 + 1.0)
-        one_u2 = 1.0 - u * u
-        p = (1.0 - t2) * one_u2
-        d = ua * s0 + p * (0.5 * c0)
-        d = d if d > 0 else np.nan
-        inv = to_arcsec / d
-        x = t * one_u2 * inv
-        y = (ua * c0 - p * (0.5 * s0)) * inv
+        x, y = _plane(_series(ha, t0, t1, t2_, t3, t4, t5), _series(hb, t0, t1, t2_, t3, t4, t5), ta, s0, c0)
         rr = math.sqrt(x * x + y * y) * ARCSEC_RAD
         ts[j] = _series(rr, a0, a1, a2, a3, a4, a5) * to_arcsec
         xs[j] = x
