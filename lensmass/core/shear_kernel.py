@@ -485,7 +485,7 @@ PART_ROWS = 1 << 18
 #: Threads of the compiled kernel (None: the environment variable ``LENSMASS_THREADS``, else the CPUs this
 #: process may use). The kernel releases the GIL, so the threads run in parallel within one process.
 KERNEL_THREADS: int | None = None
-_POOL: dict[int, Any] = {}
+_POOL: dict[tuple[int, int], Any] = {}
 
 
 def _threads() -> int:
@@ -505,11 +505,12 @@ def _map(fn, items: list) -> list:
     n = min(_threads(), len(items))
     if n < 2:
         return [fn(item) for item in items]
-    pool = _POOL.get(n)
+    key = (os.getpid(), n)  # a forked child has none of its parent's threads: it makes its own pool
+    pool = _POOL.get(key)
     if pool is None:
         from concurrent.futures import ThreadPoolExecutor
 
-        pool = _POOL[n] = ThreadPoolExecutor(n, thread_name_prefix="lensmass-sums")
+        pool = _POOL[key] = ThreadPoolExecutor(n, thread_name_prefix="lensmass-sums")
     return list(pool.map(fn, items))
 
 

@@ -169,3 +169,31 @@ def test_thread_count_from_the_environment(monkeypatch):
     assert sk._threads() == 3
     monkeypatch.setenv("LENSMASS_THREADS", "many")  # not a count: the CPUs this process may use
     assert sk._threads() >= 1
+
+
+def _sums_in_child(queue):
+    sk.KERNEL_THREADS = 2
+    edges = radial_bin_edges(60.0, 3600.0, 10)
+    layout = S.SumLayout(RA0, DEC0, ZL, resolve_cosmology("Planck18"), tuple(edges), seed=5)
+    queue.put(S.catalog_block_sums(layout, *_catalogue(seed=23)).n_in_bins)
+
+
+def test_a_forked_process_sums_on_its_own_threads(monkeypatch):
+    # a process forked after the pool exists (the batch runner forks) must not wait on its parent's threads
+    import multiprocessing
+
+    monkeypatch.setattr(sk, "KERNEL_THREADS", 2)
+    monkeypatch.setattr(sk, "PART_ROWS", 1 << 14)
+    edges = radial_bin_edges(60.0, 3600.0, 10)
+    layout = S.SumLayout(RA0, DEC0, ZL, resolve_cosmology("Planck18"), tuple(edges), seed=5)
+    expected = S.catalog_block_sums(layout, *_catalogue(seed=23)).n_in_bins
+    context = multiprocessing.get_context("fork")
+    queue = context.Queue()
+    child = context.Process(target=_sums_in_child, args=(queue,))
+    child.start()
+    child.join(120)
+    alive = child.is_alive()
+    if alive:
+        child.kill()
+    assert not alive and child.exitcode == 0
+    assert queue.get(timeout=5) == expected
