@@ -1,11 +1,18 @@
 """The per-row work of :mod:`lensmass.core.shear_sums` compiled into one pass (numba), for long blocks.
 
-Each row is projected, selected, rotated, given its D_ls / D_s and binned in a single loop that
-keeps everything in registers, where the numpy route makes about a hundred passes over a piece of
-rows. The formulas, their order and the cell layout are those of the numpy route
+Rows go in chunks of :data:`CHUNK_ROWS`: the element-wise steps (loading and byte-swapping, projection,
+rotation, logs, D_ls / D_s) run as loops without branches or calls over a chunk held in the CPU cache,
+which LLVM turns into SIMD code, then one loop per row selects and adds to the cells; the numpy route
+makes about a hundred passes over a piece of rows instead. A block's parts of :data:`PART_ROWS` rows are
+summed on threads (:data:`KERNEL_THREADS`). The formulas, their order and the cell layout are those of the numpy route
 (:func:`lensmass.core.shear_sums._add_piece`), which stays the reference: the two give the same
 sums to rounding (``tests/core/test_shear_kernel.py``). The sums of a cell are added in row order,
 as ``np.bincount`` adds them. numba (LLVM) compiles the loop on first use and caches it on disk.
+
+Longer than 500 lines because the compiled steps must stay in the file of the compiled kernel that calls
+them: numba's disk cache is invalidated by changes to that file only, not to functions it calls from other
+files (numba documentation, "Notes on Caching", cache limitations), so steps in a second module would
+leave a stale kernel in use after an edit.
 """
 
 from __future__ import annotations
