@@ -88,8 +88,9 @@ def test_big_endian_and_strided_columns_give_the_same_sums():
     edges = radial_bin_edges(60.0, 3600.0, 10)
     layout = S.SumLayout(RA0, DEC0, ZL, resolve_cosmology("Planck18"), tuple(edges), bootstrap=True, seed=3)
     columns = _catalogue(seed=11)
-    table = np.zeros(columns[0].size, dtype=[("ra", ">f8"), ("dec", ">f8"), ("e1", ">f4"), ("e2", ">f4"),
-                                             ("w", ">f4"), ("flag", ">i2"), ("z", ">f4")])
+    table = np.zeros(columns[0].size, dtype=[("tag", "i1"), ("ra", ">f8"), ("dec", ">f8"), ("e1", ">f4"),
+                                             ("e2", ">f4"), ("w", ">f4"), ("flag", ">i2"), ("z", ">f4")])
+    assert not table["ra"].flags.aligned  # FITS packs fields without padding
     for name, values in zip(("ra", "dec", "e1", "e2", "w", "z"), columns):
         table[name] = values
     native = S.catalog_block_sums(layout, *columns, first_row=99)
