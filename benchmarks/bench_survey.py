@@ -98,6 +98,8 @@ def child(mode: str, folder: str, scheduler: str | None, threads: int | None = N
                    delta_sigma=p.delta_sigma_msun_per_mpc2.tolist(), boot=p.g_t_err_boot.tolist(),
                    nfw=r["nfw_m200_msun"])
         if mode == "dask":
+            out["worker_threads"] = sorted(blocks.client.run(
+                lambda: __import__("lensmass.core.shear_kernel", fromlist=["_threads"])._threads()).values())
             out["worker_peak_mb"] = sorted(v / 1024 for v in blocks.client.run(
                 lambda: __import__("resource").getrusage(__import__("resource").RUSAGE_SELF).ru_maxrss).values())
     out.update(wall=time.perf_counter() - w0, cpu=time.process_time() - c0,
@@ -176,7 +178,8 @@ def main(argv=None) -> int:
                 dask = run_child("dask", folder, cluster.scheduler_address)
             rel = max(np.max(np.abs(np.array(dask[k]) / np.array(stream[k]) - 1))
                       for k in ("g_t", "g_t_err", "delta_sigma", "boot"))
-            print(f"Dask LocalCluster, 2 worker processes x 1 thread: wall {dask['wall']:.2f} s (client cpu "
+            print(f"Dask LocalCluster, 2 worker processes x 1 task thread (engine threads per worker "
+                  f"{dask['worker_threads']}): wall {dask['wall']:.2f} s (client cpu "
                   f"{dask['cpu']:.2f} s), worker peak memory {', '.join(f'{m:.0f}' for m in dask['worker_peak_mb'])} MB; "
                   f"largest relative difference from one process {rel:.1e}; NFW M200 {dask['nfw']:.6e} vs "
                   f"{stream['nfw']:.6e}")
