@@ -311,6 +311,37 @@ def _boot_key(row, seed_mix, n_groups, n_bins, fine):
 
 
 @numba.njit(**_JIT)
+def _load_rows(ra, dec, e1, e2, w, z, has_w, has_z, start, m, buf):
+    """Rows ``start .. start + m`` of the six columns (ra, dec, e1, e2, w, z) into rows 0-5 of ``buf``."""
+    _load(ra, start, m, buf[0])
+    _load(dec, start, m, buf[1])
+    _load(e1, start, m, buf[2])
+    _load(e2, start, m, buf[3])
+    if has_w:
+        _load(w, start, m, buf[4])
+    if has_z:
+        _load(z, start, m, buf[5])
+
+
+@numba.njit(**_JIT)
+def _drop_reason(g1, g2, wr, zr, theta, has_z, z_min):
+    """The first reason of :data:`lensmass.core.shear_sources.DROP_REASONS` that drops a row (0-3), or 4: usable
+    (as :func:`lensmass.core.shear_sources.select_sources`, with the position's theta among the finite checks)."""
+    finite = math.isfinite(g1) and math.isfinite(g2) and math.isfinite(wr) and math.isfinite(theta)
+    if has_z:
+        finite = finite and math.isfinite(zr)
+    if not finite:
+        return 0
+    if g1 * g1 + g2 * g2 >= 1.0:
+        return 1
+    if not wr > 0:
+        return 2
+    if has_z and not zr > z_min:
+        return 3
+    return 4
+
+
+@numba.njit(**_JIT)
 def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins, table, first_row, boot_seed,
                    cells, ann, boot, tally):
     """Add rows to ``cells`` (n_cells x 18), ``ann`` (n_ann x 18), ``boot`` ((groups x bins) x 3) in place
@@ -337,17 +368,10 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
                                                                         buf[5], buf[6], buf[7], buf[8], buf[9],
                                                                         buf[10], buf[11], buf[12], buf[13])
     bs = cdec  # D_ls / D_s, once Dec is no longer needed
-    n_bad = n_e = n_w = n_z = n_ok = n_in = n_near = 0
+    counts = np.zeros(7, np.int64)  # as tally[:7]
     for start in range(0, ra.size, CHUNK_ROWS):
         m = min(CHUNK_ROWS, ra.size - start)
-        _load(ra, start, m, cra)
-        _load(dec, start, m, cdec)
-        _load(e1, start, m, g1s)
-        _load(e2, start, m, g2s)
-        if has_w:
-            _load(w, start, m, ws)
-        if has_z:
-            _load(z, start, m, zs)
+        _load_rows(ra, dec, e1, e2, w, z, has_w, has_z, start, m, buf)
         _project_chunk(cra, cdec, m, geo, xs, ys, ts)
         _bin_coordinate(m, ts, bins, us, work)
         if n_ann > 0:
@@ -361,28 +385,15 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
             g1 = g1s[j]
             g2 = g2s[j]
             wr = ws[j] if has_w else 1.0
-            zr = zs[j] if has_z else 0.0
-            finite = math.isfinite(g1) and math.isfinite(g2) and math.isfinite(wr) and math.isfinite(theta)
-            if has_z:
-                finite = finite and math.isfinite(zr)
-            if not finite:
-                n_bad += 1
+            reason = _drop_reason(g1, g2, wr, zs[j] if has_z else 0.0, theta, has_z, z_min)
+            counts[reason] += 1
+            if reason < 4:
                 continue
-            if g1 * g1 + g2 * g2 >= 1.0:
-                n_e += 1
-                continue
-            if not wr > 0:
-                n_w += 1
-                continue
-            if has_z and not zr > z_min:
-                n_z += 1
-                continue
-            n_ok += 1
             fine = _clamp_floor(us[j], n_fine) if (theta >= lo and theta < hi) else -1
             a_idx = _clamp_floor(aus[j], n_ann) if (n_ann > 0 and theta >= a_lo and theta < a_hi) else -1
             if fine < 0 and a_idx < 0:
                 continue
-            n_near += 1
+            counts[6] += 1
             e_t = ets[j]
             e_x = exs[j]
             beta = bs[j] if has_z else beta_one
@@ -397,7 +408,7 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
             dt = a * e_t
             dx = a * e_x
             if fine >= 0:
-                n_in += 1
+                counts[5] += 1
                 bq = int(beta * 8.0)
                 if bq > 7:
                     bq = 7
@@ -409,9 +420,57 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
                     boot[key, 2] += sx
             if a_idx >= 0:
                 _add_row(ann, a_idx, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a)
-    for i, v in enumerate((n_bad, n_e, n_w, n_z, n_ok, n_in, n_near)):
-        tally[i] += v
+    tally[:7] += counts
     return ra.size
+
+
+@numba.njit(**_JIT)
+def rows_farthest(ra, dec, e1, e2, w, z, has_w, has_z, geo, z_min, tally):
+    """The largest theta (arcsec) of the usable rows (-inf if none), selected as in :func:`rows_to_cells`;
+    ``tally`` += [non_finite, e_ge_1, w_not_positive, z_not_behind, usable]."""
+    buf = np.empty((9, CHUNK_ROWS))
+    far = -np.inf
+    counts = np.zeros(5, np.int64)
+    for start in range(0, ra.size, CHUNK_ROWS):
+        m = min(CHUNK_ROWS, ra.size - start)
+        _load_rows(ra, dec, e1, e2, w, z, has_w, has_z, start, m, buf)
+        _project_chunk(buf[0], buf[1], m, geo, buf[6], buf[7], buf[8])
+        for j in range(m):
+            theta = buf[8, j]
+            reason = _drop_reason(buf[2, j], buf[3, j], buf[4, j] if has_w else 1.0, buf[5, j] if has_z else 0.0,
+                                  theta, has_z, z_min)
+            counts[reason] += 1
+            if reason == 4:
+                far = max(far, theta)
+    tally += counts
+    return far
+
+
+def kernel_farthest(ra0: float, dec0: float, z_min: float, ra, dec, e1, e2, w, z) -> tuple[float, np.ndarray]:
+    """(largest theta of the usable rows, tally) of a block, on threads as :func:`kernel_block_sums`."""
+    cols = [_column(c) for c in (ra, dec, e1, e2)]
+    dummy = np.zeros(1, np.float32)
+    wc = dummy if w is None else _column(w)
+    zc = dummy if z is None else _column(z)
+    n = int(cols[0].shape[0])
+    geo = _geo(ra0, dec0)
+
+    def part(start: int):
+        stop = min(n, start + PART_ROWS)
+        tally = np.zeros(5, np.int64)
+        far = rows_farthest(*(c[start:stop] for c in cols), wc if w is None else wc[start:stop],
+                            zc if z is None else zc[start:stop], w is not None, z is not None, geo, float(z_min), tally)
+        return far, tally
+
+    parts = _map(part, list(range(0, n, PART_ROWS)))
+    return max(p[0] for p in parts), sum(p[1] for p in parts)
+
+
+def _geo(ra0: float, dec0: float) -> np.ndarray:
+    """(ra0, dec0, tan(Dec0 / 2), sin Dec0, cos Dec0) of a centre, for the kernels."""
+    half = np.pi / 360.0
+    return np.array([float(ra0), float(dec0), float(np.tan(dec0 * half)), np.sin(np.radians(dec0)),
+                     np.cos(np.radians(dec0))])
 
 
 class KernelParams:
@@ -421,10 +480,7 @@ class KernelParams:
         from lensmass.core import shear_profile as sp, shear_sources as ss
         from lensmass.core.shear_sums import BETA_CELLS, RADIAL_SUBBINS
 
-        half = np.pi / 360.0
-        dec0 = float(layout.center_dec)
-        self.geo = np.array([float(layout.center_ra), dec0, float(np.tan(dec0 * half)),
-                             np.sin(np.radians(dec0)), np.cos(np.radians(dec0))])
+        self.geo = _geo(float(layout.center_ra), float(layout.center_dec))
 
         def bins(e, n_sub, n_cells):
             log_spaced, linear, scale = sp.fine_spacing(e, n_sub)

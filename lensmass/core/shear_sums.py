@@ -172,6 +172,13 @@ def farthest_usable(selection: tuple, block: CatalogBlock) -> Farthest:
     from lensmass.core import shear_geometry as sg, shear_sources as ss
 
     ra0, dec0, z_l, z_s, margin = selection
+    z_col = None if (z_s is not None or block.z is None) else block.z
+    if USE_KERNEL and block.n_rows >= KERNEL_MIN_ROWS:  # the compiled pass, same selection and projection
+        from lensmass.core import shear_kernel as sk
+
+        theta, counts = sk.kernel_farthest(ra0, dec0, z_l + margin, block.ra_deg, block.dec_deg, block.e1, block.e2,
+                                           block.weight, z_col)
+        return Farthest(float(theta), int(counts[4]), {k: int(v) for k, v in zip(ss.DROP_REASONS, counts)})
     far = Farthest(-np.inf, 0, {k: 0 for k in ss.DROP_REASONS})
     for start in range(0, block.n_rows, BLOCK_ROWS):
         sl = slice(start, start + BLOCK_ROWS)

@@ -198,3 +198,21 @@ def test_a_forked_process_sums_on_its_own_threads(monkeypatch):
         child.kill()
     assert not alive and child.exitcode == 0
     assert queue.get(timeout=5) == expected
+
+
+@pytest.mark.parametrize("field_deg, z_s", [(1.0, None), (8.0, None), (1.0, 1.2)])
+def test_farthest_usable_galaxy_by_kernel_equals_the_numpy_route(field_deg, z_s):
+    # the pass that finds the default outer radius: same selection tallies, same largest radius (to rounding:
+    # the kernel takes the series per row, the numpy route per piece)
+    ra, dec, e1, e2, w, z = _catalogue(seed=29, field_deg=field_deg)
+    block = S.CatalogBlock(ra, dec, e1, e2, w, z, 0)
+    selection = (RA0, DEC0, ZL, z_s, 0.1)
+    S.USE_KERNEL = True
+    try:
+        kernel = S.farthest_usable(selection, block)
+        S.USE_KERNEL = False
+        numpy = S.farthest_usable(selection, block)
+    finally:
+        S.USE_KERNEL = True
+    assert kernel.dropped == numpy.dropped and kernel.n_usable == numpy.n_usable
+    assert abs(kernel.theta_max_arcsec / numpy.theta_max_arcsec - 1) < 1e-14
