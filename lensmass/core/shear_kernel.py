@@ -446,11 +446,17 @@ def rows_farthest(ra, dec, e1, e2, w, z, has_w, has_z, geo, z_min, tally):
     return far
 
 
-def kernel_farthest(ra0: float, dec0: float, z_min: float, ra, dec, e1, e2, w, z) -> tuple[float, np.ndarray]:
-    """(largest theta of the usable rows, tally) of a block, on threads as :func:`kernel_block_sums`."""
-    cols = [_column(c) for c in (ra, dec, e1, e2)]
+def kernel_farthest(selection: tuple, block):
+    """:func:`lensmass.core.shear_sums.farthest_usable` of a block by :func:`rows_farthest`, on threads as
+    :func:`kernel_block_sums`; ``selection`` = (ra0, dec0, z_l, z_s, z_margin)."""
+    from lensmass.core.shear_sources import DROP_REASONS
+    from lensmass.core.shear_sums import Farthest
+
+    ra0, dec0, z_l, z_s, margin = selection
+    z = None if (z_s is not None or block.z is None) else block.z
+    cols = [_column(c) for c in (block.ra_deg, block.dec_deg, block.e1, block.e2)]
     dummy = np.zeros(1, np.float32)
-    wc = dummy if w is None else _column(w)
+    wc = dummy if block.weight is None else _column(block.weight)
     zc = dummy if z is None else _column(z)
     n = int(cols[0].shape[0])
     geo = _geo(ra0, dec0)
@@ -458,12 +464,14 @@ def kernel_farthest(ra0: float, dec0: float, z_min: float, ra, dec, e1, e2, w, z
     def part(start: int):
         stop = min(n, start + PART_ROWS)
         tally = np.zeros(5, np.int64)
-        far = rows_farthest(*(c[start:stop] for c in cols), wc if w is None else wc[start:stop],
-                            zc if z is None else zc[start:stop], w is not None, z is not None, geo, float(z_min), tally)
+        far = rows_farthest(*(c[start:stop] for c in cols), wc if block.weight is None else wc[start:stop],
+                            zc if z is None else zc[start:stop], block.weight is not None, z is not None, geo,
+                            float(z_l + margin), tally)
         return far, tally
 
     parts = _map(part, list(range(0, n, PART_ROWS)))
-    return max(p[0] for p in parts), sum(p[1] for p in parts)
+    counts = sum(p[1] for p in parts)
+    return Farthest(float(max(p[0] for p in parts)), int(counts[4]), {k: int(v) for k, v in zip(DROP_REASONS, counts)})
 
 
 def _geo(ra0: float, dec0: float) -> np.ndarray:
@@ -580,7 +588,10 @@ def _map(fn, items: list) -> list:
 def kernel_block_sums(total, layout, ctx, ra, dec, e1, e2, w, z, first_row: int) -> bool:
     """Add a block of rows to the :class:`lensmass.core.shear_sums.ShearSums` ``total`` (the sums of the
     numpy route, :func:`lensmass.core.shear_sums._add_piece`). False (and ``total`` untouched) if a
-    redshift lies past the D_ls / D_s table: the caller takes the numpy route for the block."""
+    redshift lies past the D_ls / D_s table or the bins are not evenly spaced (:func:`kernel_applies`): the
+    caller takes the numpy route for the block."""
+    if not kernel_applies(layout, ctx):
+        return False
     params = _params(layout, ctx)
     n_ann = params.n_ann
     n_keys = len(KERNEL_KEYS)
