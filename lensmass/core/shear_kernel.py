@@ -1,21 +1,31 @@
 """The per-row work of :mod:`lensmass.core.shear_sums` compiled into one pass (numba), for long blocks.
 
-Each row is projected, selected, rotated, given its D_ls / D_s and binned in a single loop that
-keeps everything in registers, where the numpy route makes about a hundred passes over a piece of
-rows. The formulas, their order and the cell layout are those of the numpy route
+Rows go in chunks of :data:`CHUNK_ROWS`: the element-wise steps (loading and byte-swapping, projection,
+rotation, logs, D_ls / D_s) run as loops without branches or calls over a chunk held in the CPU cache,
+which LLVM turns into SIMD code, then one loop per row selects and adds to the cells; the numpy route
+makes about a hundred passes over a piece of rows instead. A block's parts of :data:`PART_ROWS` rows are
+summed on threads (:data:`KERNEL_THREADS`). The formulas, their order and the cell layout are those of the numpy route
 (:func:`lensmass.core.shear_sums._add_piece`), which stays the reference: the two give the same
 sums to rounding (``tests/core/test_shear_kernel.py``). The sums of a cell are added in row order,
 as ``np.bincount`` adds them. numba (LLVM) compiles the loop on first use and caches it on disk.
+
+Longer than 500 lines because the compiled steps must stay in the file of the compiled kernel that calls
+them: numba's disk cache is invalidated by changes to that file only, not to functions it calls from other
+files (numba documentation, "Notes on Caching", cache limitations), so steps in a second module would
+leave a stale kernel in use after an edit.
 """
 
 from __future__ import annotations
 
 import math
+import os
 
 from typing import Any
 
 import numba
 import numpy as np
+from numba import types
+from numba.extending import overload
 
 from lensmass.core.constants import ARCSEC_RAD
 from lensmass.core.shear_geometry import _ARCTAN_SERIES, _TAN_SERIES, SERIES_MAX
@@ -30,7 +40,12 @@ _M32 = np.uint64(0xFFFFFFFF)
 _WEYL = np.uint64(0x9E3779B9)
 _FMIX1 = np.uint64(0x85EBCA6B)
 _FMIX2 = np.uint64(0xC2B2AE35)
-_S13, _S16, _S32 = np.uint64(13), np.uint64(16), np.uint64(32)
+_S8, _S13, _S16, _S24, _S32, _S40, _S48, _S56 = (np.uint64(k) for k in (8, 13, 16, 24, 32, 40, 48, 56))
+_B = np.uint64(0xFF)
+_B32 = np.uint32(0xFF)
+_T8, _T16, _T24 = np.uint32(8), np.uint32(16), np.uint32(24)
+#: Rows per chunk of the element-wise loops (14 float64 buffers of this length stay in the L1/L2 cache).
+CHUNK_ROWS = 1024
 
 
 @numba.njit(**_JIT)
@@ -60,14 +75,8 @@ def _arctan_s(x):
 
 
 @numba.njit(**_JIT)
-def _index(theta, lo, hi, log_spaced, scale, n_fine):
-    """The sub-bin of theta (-1 outside [lo, hi)), as :func:`lensmass.core.shear_profile._fine_indexer`."""
-    if not (theta >= lo and theta < hi):
-        return -1
-    if log_spaced:
-        u = math.log(theta * (1.0 / lo)) * scale
-    else:
-        u = (theta - lo) * scale
+def _clamp_floor(u, n_fine):
+    """floor(u) clamped to the sub-bins 0 .. n_fine - 1, as :func:`lensmass.core.shear_profile._fine_indexer`."""
     k = math.floor(u)
     if k < 0:
         k = 0
@@ -100,123 +109,376 @@ def _add_row(out, c, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a):
     row[17] += a * a * ee
 
 
+def _load(col, start, m, out):
+    """Rows ``start .. start + m`` of a column into the float64 buffer ``out`` (compiled by :func:`_load_impl`)."""
+    raise NotImplementedError
+
+
+@overload(_load, jit_options={"error_model": "numpy"})
+def _load_impl(col, start, m, out):
+    """float32 / float64 columns are converted; uint64 / uint32 columns are the bytes of big-endian float64 /
+    float32 values (FITS stores big-endian), swapped here, a chunk at a time, instead of copying the column."""
+    if col.dtype == types.uint64:
+        def swap64(col, start, m, out):
+            u = out.view(np.uint64)
+            for j in range(m):
+                v = col[start + j]
+                u[j] = ((v & _B) << _S56) | (((v >> _S8) & _B) << _S48) | (((v >> _S16) & _B) << _S40) | (
+                    ((v >> _S24) & _B) << _S32) | (((v >> _S32) & _B) << _S24) | (((v >> _S40) & _B) << _S16) | (
+                    ((v >> _S48) & _B) << _S8) | (v >> _S56)
+        return swap64
+    if col.dtype == types.uint32:
+        def swap32(col, start, m, out):
+            tmp = np.empty(m, np.uint32)
+            for j in range(m):
+                v = col[start + j]
+                tmp[j] = ((v & _B32) << _T24) | (((v >> _T8) & _B32) << _T16) | (((v >> _T16) & _B32) << _T8) | (v >> _T24)
+            f = tmp.view(np.float32)
+            for j in range(m):
+                out[j] = f[j]
+        return swap32
+
+    def convert(col, start, m, out):
+        for j in range(m):
+            out[j] = col[start + j]
+    return convert
+
+
+# log by the method and coefficients of fdlibm's e_log.c (Sun Microsystems 1993; written from memory, checked
+# against the C library's log to 1 ulp in tests/core/test_shear_kernel.py): x = 2^k (1 + f), 1 + f in
+# [sqrt(2)/2, sqrt(2)), s = f / (2 + f), log(1 + f) = f - (f^2/2 - s (f^2/2 + R(s^2))).
+_LN2_HI, _LN2_LO = 6.93147180369123816490e-01, 1.90821492927058770002e-10
+_LG = (6.666666666666735130e-01, 3.999999999940941908e-01, 2.857142874366239149e-01, 2.222219843214978396e-01,
+       1.818357216161805012e-01, 1.531383769920937332e-01, 1.479819860511658591e-01)
+_MANTISSA = np.int64(0x000FFFFFFFFFFFFF)
+_ONE_BITS, _HALF_BITS = np.int64(0x3FF0000000000000), np.int64(0x3FE0000000000000)
+_SQRT2_MANTISSA = np.int64(0x6A09E667F3BCD)
+_TWO52_BITS, _TWO52_BIAS = np.int64(0x4330000000000000), 4503599627370496.0 + 1023.0  # 2^52 + e as a double
+
+
+@numba.njit(**_JIT)
+def log_chunk(m, x, work):
+    """x[:m] = log(x[:m]) in place for positive normal numbers (others give meaningless values, no error);
+    ``work`` a float64 buffer as long. Within 1 ulp of the C library's log, and in loops LLVM vectorises,
+    so about four times faster than calling it per value."""
+    xb = x.view(np.int64)
+    wb = work.view(np.int64)
+    for j in range(m):  # exponent and mantissa from the bits
+        bits = xb[j]
+        frac = bits & _MANTISSA
+        hi = frac > _SQRT2_MANTISSA
+        wb[j] = ((bits >> 52) + hi) | _TWO52_BITS
+        xb[j] = frac | (_HALF_BITS if hi else _ONE_BITS)
+    lg1, lg2, lg3, lg4, lg5, lg6, lg7 = _LG[0], _LG[1], _LG[2], _LG[3], _LG[4], _LG[5], _LG[6]
+    for j in range(m):
+        k = work[j] - _TWO52_BIAS
+        f = x[j] - 1.0
+        s = f / (2.0 + f)
+        z = s * s
+        w = z * z
+        r = z * (lg1 + w * (lg3 + w * (lg5 + w * lg7))) + w * (lg2 + w * (lg4 + w * lg6))
+        hfsq = 0.5 * f * f
+        x[j] = k * _LN2_HI - ((hfsq - (s * (hfsq + r) + k * _LN2_LO)) - f)
+
+
+@numba.njit(**_JIT)
+def _series(x, c0, c1, c2, c3, c4, c5):
+    """x (c0 + c1 x^2 + ... + c5 x^10) by Horner's rule, as :func:`_odd_series` (no loop: vectorises)."""
+    x2 = x * x
+    return (((((c5 * x2 + c4) * x2 + c3) * x2 + c2) * x2 + c1) * x2 + c0) * x
+
+
+@numba.njit(**_JIT)
+def _plane(t, tb, ta, s0, c0):
+    """Tangent-plane x, y (arcsec) from t = tan(dRA / 2), tan(dDec / 2) and the centre's ``geo`` terms, as
+    :func:`lensmass.core.shear_geometry._gnomonic` (NaN behind the plane; no branch, so loops vectorise)."""
+    to_arcsec = 1.0 / ARCSEC_RAD
+    u = (ta + tb) / (1.0 - ta * tb)
+    t2 = t * t
+    ua = u * (t2 + 1.0)
+    one_u2 = 1.0 - u * u
+    p = (1.0 - t2) * one_u2
+    d = ua * s0 + p * (0.5 * c0)
+    d = d if d > 0 else np.nan
+    inv = to_arcsec / d
+    return t * one_u2 * inv, (ua * c0 - p * (0.5 * s0)) * inv
+
+
+@numba.njit(**_JIT)
+def _project_row(ra, dec, ra0, dec0, ta, s0, c0):
+    """x, y (arcsec) and theta of one row with the library tan / arctan beyond the series' range."""
+    half = math.pi / 360.0
+    x, y = _plane(_tan_s((ra - ra0) * half), _tan_s((dec - dec0) * half), ta, s0, c0)
+    return x, y, _arctan_s(math.sqrt(x * x + y * y) * ARCSEC_RAD) * (1.0 / ARCSEC_RAD)
+
+
+@numba.njit(**_JIT)
+def _project_chunk(ra, dec, m, geo, xs, ys, ts):
+    """x, y (arcsec) and theta of ``m`` rows by the series alone: a loop without branches or calls, which
+    LLVM turns into SIMD code. Returns True if some row lies beyond the series' range (to be redone)."""
+    half = math.pi / 360.0
+    to_arcsec = 1.0 / ARCSEC_RAD
+    ra0, dec0, ta, s0, c0 = geo[0], geo[1], geo[2], geo[3], geo[4]
+    t0, t1, t2_, t3, t4, t5 = _TAN[0], _TAN[1], _TAN[2], _TAN[3], _TAN[4], _TAN[5]
+    a0, a1, a2, a3, a4, a5 = _ARCTAN[0], _ARCTAN[1], _ARCTAN[2], _ARCTAN[3], _ARCTAN[4], _ARCTAN[5]
+    big = False
+    for j in range(m):
+        ha = (ra[j] - ra0) * half
+        hb = (dec[j] - dec0) * half
+        x, y = _plane(_series(ha, t0, t1, t2_, t3, t4, t5), _series(hb, t0, t1, t2_, t3, t4, t5), ta, s0, c0)
+        rr = math.sqrt(x * x + y * y) * ARCSEC_RAD
+        ts[j] = _series(rr, a0, a1, a2, a3, a4, a5) * to_arcsec
+        xs[j] = x
+        ys[j] = y
+        big |= (abs(ha) >= SERIES_MAX) | (abs(hb) >= SERIES_MAX) | (rr >= SERIES_MAX)
+    if big:
+        for j in range(m):
+            xs[j], ys[j], ts[j] = _project_row(ra[j], dec[j], ra0, dec0, ta, s0, c0)
+    return big
+
+
+@numba.njit(**_JIT)
+def _rotate_chunk(m, xs, ys, e1, e2, ets, exs):
+    """Tangential and cross ellipticity of ``m`` rows (:func:`lensmass.core.shear_geometry._tangential_cross`)."""
+    for j in range(m):
+        x = xs[j]
+        y = ys[j]
+        g1 = e1[j]
+        g2 = e2[j]
+        xx = x * x
+        yy = y * y
+        inv_r2 = 1.0 / (xx + yy)
+        cos2 = (xx - yy) * inv_r2
+        sin2 = (x + x) * y * inv_r2
+        ets[j] = -(g1 * cos2 + g2 * sin2)
+        exs[j] = g1 * sin2 - g2 * cos2
+
+
+@numba.njit(**_JIT)
+def _beta_chunk(m, z, z_l, sel, table, bs, work):
+    """D_ls / D_s of ``m`` rows from the log-spaced table (:func:`lensmass.core.shear_sources._beta_from_table`);
+    True if a redshift lies past the table's end (the block then takes the numpy route)."""
+    u0, step, soft, n_table, z_max = sel[4], sel[5], sel[6], table.size, sel[9]
+    far = False
+    for j in range(m):
+        bs[j] = max(z[j] - z_l, 0.0) + soft
+        far |= z[j] > z_max
+    log_chunk(m, bs, work)
+    if far:
+        return True
+    for j in range(m):
+        tt = (bs[j] - u0) * (1.0 / step)
+        i = int(tt) if tt == tt else 0
+        i = max(0, min(i, n_table - 2))
+        v0 = table[i]
+        beta = v0 + (tt - i) * (table[i + 1] - v0)
+        bs[j] = beta if z[j] > z_l else 0.0
+    return False
+
+
+@numba.njit(**_JIT)
+def _bin_coordinate(m, ts, bins, us, work):
+    """u = ln(theta / lo) * scale (log-spaced bins) or (theta - lo) * scale: the sub-bin is floor(u)
+    (u matters only for theta in [lo, hi))."""
+    lo, log_spaced, scale = bins[0], bins[2] > 0, bins[3]
+    if log_spaced:
+        inv_lo = 1.0 / lo
+        for j in range(m):
+            us[j] = ts[j] * inv_lo
+        log_chunk(m, us, work)
+        for j in range(m):
+            us[j] *= scale
+    else:
+        for j in range(m):
+            us[j] = (ts[j] - lo) * scale
+
+
+@numba.njit(**_JIT)
+def _boot_key(row, seed_mix, n_groups, n_bins, fine):
+    """(bootstrap group, bin) of a row, as :func:`lensmass.core.shear_sums.bootstrap_group`."""
+    h = row & _M32
+    hi32 = row >> _S32
+    if hi32:
+        h = (h + hi32 * _WEYL) & _M32
+    h ^= seed_mix
+    h ^= h >> _S16
+    h = (h * _FMIX1) & _M32
+    h ^= h >> _S13
+    h = (h * _FMIX2) & _M32
+    h ^= h >> _S16
+    group = (h * n_groups) >> _S32
+    return int(group) * n_bins + fine // 8
+
+
+@numba.njit(**_JIT)
+def _load_rows(ra, dec, e1, e2, w, z, has_w, has_z, start, m, buf):
+    """Rows ``start .. start + m`` of the six columns (ra, dec, e1, e2, w, z) into rows 0-5 of ``buf``."""
+    _load(ra, start, m, buf[0])
+    _load(dec, start, m, buf[1])
+    _load(e1, start, m, buf[2])
+    _load(e2, start, m, buf[3])
+    if has_w:
+        _load(w, start, m, buf[4])
+    if has_z:
+        _load(z, start, m, buf[5])
+
+
+@numba.njit(**_JIT)
+def _drop_reason(g1, g2, wr, zr, theta, has_z, z_min):
+    """The first reason of :data:`lensmass.core.shear_sources.DROP_REASONS` that drops a row (0-3), or 4: usable
+    (as :func:`lensmass.core.shear_sources.select_sources`, with the position's theta among the finite checks)."""
+    finite = math.isfinite(g1) and math.isfinite(g2) and math.isfinite(wr) and math.isfinite(theta)
+    if has_z:
+        finite = finite and math.isfinite(zr)
+    if not finite:
+        return 0
+    if g1 * g1 + g2 * g2 >= 1.0:
+        return 1
+    if not wr > 0:
+        return 2
+    if has_z and not zr > z_min:
+        return 3
+    return 4
+
+
 @numba.njit(**_JIT)
 def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins, table, first_row, boot_seed,
                    cells, ann, boot, tally):
     """Add rows to ``cells`` (n_cells x 18), ``ann`` (n_ann x 18), ``boot`` ((groups x bins) x 3) in place
     (a row's 18 sums side by side: one or two cache lines).
 
-    ``geo`` = (ra0, dec0, tan(Dec0 / 2), sin Dec0, cos Dec0); ``sel`` = (z_l, z_min, beta_one,
-    1/Sigma_cr per unit beta, u0, step, soft, use_boot, n_bins) with ``table`` the D_ls / D_s table; ``bins`` = (lo, hi, log_spaced, scale,
-    n_fine, n_cells); ``ann_bins`` the same for the annulus (n_fine = 0: none); ``tally`` =
-    [non_finite, e_ge_1, w_not_positive, z_not_behind, usable, in_bins, near].
+    Columns are float32 / float64, or uint64 / uint32 holding big-endian float64 / float32 bytes (see
+    :func:`_load`). ``geo`` = (ra0, dec0, tan(Dec0 / 2), sin Dec0, cos Dec0); ``sel`` = (z_l, z_min,
+    beta_one, 1/Sigma_cr per unit beta, u0, step, soft, use_boot, n_bins) with ``table`` the D_ls / D_s
+    table; ``bins`` = (lo, hi, log_spaced, scale, n_fine, n_cells); ``ann_bins`` the same for the annulus
+    (n_fine = 0: none); ``tally`` = [non_finite, e_ge_1, w_not_positive, z_not_behind, usable, in_bins, near,
+    beyond] (beyond: a redshift past the D_ls / D_s table's end, ``sel[9]``; the work stops, nothing is valid).
+
+    Rows go in chunks of :data:`CHUNK_ROWS`: the element-wise work (loading, projection, rotation, logs)
+    runs over the chunk in loops without branches, then one loop per row selects and adds.
     """
-    half = math.pi / 360.0
-    to_arcsec = 1.0 / ARCSEC_RAD
-    ra0, dec0, ta, s0, c0 = geo[0], geo[1], geo[2], geo[3], geo[4]
     z_l, z_min, beta_one, inv_k = sel[0], sel[1], sel[2], sel[3]
-    u0, step, soft, n_table = sel[4], sel[5], sel[6], table.size
     use_boot, n_bins = sel[7] > 0, int(sel[8])
     n_groups = np.uint64(boot.shape[0] // max(n_bins, 1))
-    lo, hi, log_b, scale, n_fine, n_cells = bins[0], bins[1], bins[2] > 0, bins[3], int(bins[4]), int(bins[5])
-    a_lo, a_hi, a_log, a_scale, n_ann = ann_bins[0], ann_bins[1], ann_bins[2] > 0, ann_bins[3], int(ann_bins[4])
+    lo, hi, n_fine = bins[0], bins[1], int(bins[4])
+    a_lo, a_hi, n_ann = ann_bins[0], ann_bins[1], int(ann_bins[4])
     seed_mix = np.uint64(boot_seed)
-    for r in range(ra.size):
-        t = _tan_s((ra[r] - ra0) * half)
-        tb = _tan_s((dec[r] - dec0) * half)
-        u = (ta + tb) / (1.0 - ta * tb)
-        t2 = t * t
-        ua = u * (t2 + 1.0)
-        one_u2 = 1.0 - u * u
-        p = (1.0 - t2) * one_u2
-        d = ua * s0 + p * (0.5 * c0)
-        if not d > 0:
-            d = np.nan
-        inv = to_arcsec / d
-        x = t * one_u2 * inv
-        y = (ua * c0 - p * (0.5 * s0)) * inv
-        theta = _arctan_s(math.sqrt(x * x + y * y) * ARCSEC_RAD) * to_arcsec
-        g1 = float(e1[r])
-        g2 = float(e2[r])
-        wr = float(w[r]) if has_w else 1.0
-        zr = float(z[r]) if has_z else 0.0
-        finite = math.isfinite(g1) and math.isfinite(g2) and math.isfinite(wr) and math.isfinite(theta)
-        if has_z:
-            finite = finite and math.isfinite(zr)
-        if not finite:
-            tally[0] += 1
-            continue
-        if g1 * g1 + g2 * g2 >= 1.0:
-            tally[1] += 1
-            continue
-        if not wr > 0:
-            tally[2] += 1
-            continue
-        if has_z and not zr > z_min:
-            tally[3] += 1
-            continue
-        tally[4] += 1
-        fine = _index(theta, lo, hi, log_b, scale, n_fine)
-        a_idx = _index(theta, a_lo, a_hi, a_log, a_scale, n_ann) if n_ann > 0 else -1
-        if fine < 0 and a_idx < 0:
-            continue
-        tally[6] += 1
-        xx = x * x
-        yy = y * y
-        inv_r2 = 1.0 / (xx + yy)
-        cos2 = (xx - yy) * inv_r2
-        sin2 = (x + x) * y * inv_r2
-        e_t = -(g1 * cos2 + g2 * sin2)
-        e_x = g1 * sin2 - g2 * cos2
-        if has_z:
-            tt = (math.log(max(zr - z_l, 0.0) + soft) - u0) * (1.0 / step)
-            i = int(tt) if tt == tt else 0
-            if i < 0:
-                i = 0
-            if i > n_table - 2:
-                i = n_table - 2
-            v0 = table[i]
-            beta = v0 + (tt - i) * (table[i + 1] - v0)
-            if not zr > z_l:
-                beta = 0.0
-        else:
-            beta = beta_one
-        inv_sc = beta * inv_k
-        st = wr * e_t
-        sx = wr * e_x
-        w2 = wr * wr
-        ee = e_t * e_t + e_x * e_x
-        wb = wr * beta
-        a = wr * inv_sc
-        dd = a * inv_sc
-        dt = a * e_t
-        dx = a * e_x
-        if fine >= 0:
-            tally[5] += 1
-            bq = int(beta * 8.0)
-            if bq > 7:
-                bq = 7
-            _add_row(cells, fine * 8 + bq, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a)
-            if use_boot:
-                row = np.uint64(first_row + r)
-                h = row & _M32
-                hi32 = row >> _S32
-                if hi32:
-                    h = (h + hi32 * _WEYL) & _M32
-                h ^= seed_mix
-                h ^= h >> _S16
-                h = (h * _FMIX1) & _M32
-                h ^= h >> _S13
-                h = (h * _FMIX2) & _M32
-                h ^= h >> _S16
-                group = (h * n_groups) >> _S32
-                key = int(group) * n_bins + fine // 8
-                boot[key, 0] += wr
-                boot[key, 1] += st
-                boot[key, 2] += sx
-        if a_idx >= 0:
-            _add_row(ann, a_idx, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a)
-    return n_cells
+    buf = np.empty((14, CHUNK_ROWS))
+    cra, cdec, g1s, g2s, ws, zs, xs, ys, ts, us, ets, exs, work, aus = (buf[0], buf[1], buf[2], buf[3], buf[4],
+                                                                        buf[5], buf[6], buf[7], buf[8], buf[9],
+                                                                        buf[10], buf[11], buf[12], buf[13])
+    bs = cdec  # D_ls / D_s, once Dec is no longer needed
+    counts = np.zeros(7, np.int64)  # as tally[:7]
+    for start in range(0, ra.size, CHUNK_ROWS):
+        m = min(CHUNK_ROWS, ra.size - start)
+        _load_rows(ra, dec, e1, e2, w, z, has_w, has_z, start, m, buf)
+        _project_chunk(cra, cdec, m, geo, xs, ys, ts)
+        _bin_coordinate(m, ts, bins, us, work)
+        if n_ann > 0:
+            _bin_coordinate(m, ts, ann_bins, aus, work)
+        _rotate_chunk(m, xs, ys, g1s, g2s, ets, exs)
+        if has_z and _beta_chunk(m, zs, z_l, sel, table, bs, work):
+            tally[7] += 1
+            return 0
+        for j in range(m):
+            theta = ts[j]
+            g1 = g1s[j]
+            g2 = g2s[j]
+            wr = ws[j] if has_w else 1.0
+            reason = _drop_reason(g1, g2, wr, zs[j] if has_z else 0.0, theta, has_z, z_min)
+            counts[reason] += 1
+            if reason < 4:
+                continue
+            fine = _clamp_floor(us[j], n_fine) if (theta >= lo and theta < hi) else -1
+            a_idx = _clamp_floor(aus[j], n_ann) if (n_ann > 0 and theta >= a_lo and theta < a_hi) else -1
+            if fine < 0 and a_idx < 0:
+                continue
+            counts[6] += 1
+            e_t = ets[j]
+            e_x = exs[j]
+            beta = bs[j] if has_z else beta_one
+            inv_sc = beta * inv_k
+            st = wr * e_t
+            sx = wr * e_x
+            w2 = wr * wr
+            ee = e_t * e_t + e_x * e_x
+            wb = wr * beta
+            a = wr * inv_sc
+            dd = a * inv_sc
+            dt = a * e_t
+            dx = a * e_x
+            if fine >= 0:
+                counts[5] += 1
+                bq = int(beta * 8.0)
+                if bq > 7:
+                    bq = 7
+                _add_row(cells, fine * 8 + bq, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a)
+                if use_boot:
+                    key = _boot_key(np.uint64(first_row + start + j), seed_mix, n_groups, n_bins, fine)
+                    boot[key, 0] += wr
+                    boot[key, 1] += st
+                    boot[key, 2] += sx
+            if a_idx >= 0:
+                _add_row(ann, a_idx, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a)
+    tally[:7] += counts
+    return ra.size
+
+
+@numba.njit(**_JIT)
+def rows_farthest(ra, dec, e1, e2, w, z, has_w, has_z, geo, z_min, tally):
+    """The largest theta (arcsec) of the usable rows (-inf if none), selected as in :func:`rows_to_cells`;
+    ``tally`` += [non_finite, e_ge_1, w_not_positive, z_not_behind, usable]."""
+    buf = np.empty((9, CHUNK_ROWS))
+    far = -np.inf
+    counts = np.zeros(5, np.int64)
+    for start in range(0, ra.size, CHUNK_ROWS):
+        m = min(CHUNK_ROWS, ra.size - start)
+        _load_rows(ra, dec, e1, e2, w, z, has_w, has_z, start, m, buf)
+        _project_chunk(buf[0], buf[1], m, geo, buf[6], buf[7], buf[8])
+        for j in range(m):
+            theta = buf[8, j]
+            reason = _drop_reason(buf[2, j], buf[3, j], buf[4, j] if has_w else 1.0, buf[5, j] if has_z else 0.0,
+                                  theta, has_z, z_min)
+            counts[reason] += 1
+            if reason == 4:
+                far = max(far, theta)
+    tally += counts
+    return far
+
+
+def kernel_farthest(selection: tuple, block):
+    """:func:`lensmass.core.shear_sums.farthest_usable` of a block by :func:`rows_farthest`, on threads as
+    :func:`kernel_block_sums`; ``selection`` = (ra0, dec0, z_l, z_s, z_margin)."""
+    from lensmass.core.shear_sources import DROP_REASONS
+    from lensmass.core.shear_sums import Farthest
+
+    ra0, dec0, z_l, z_s, margin = selection
+    z = None if (z_s is not None or block.z is None) else block.z
+    cols = [_column(c) for c in (block.ra_deg, block.dec_deg, block.e1, block.e2)]
+    dummy = np.zeros(1, np.float32)
+    wc = dummy if block.weight is None else _column(block.weight)
+    zc = dummy if z is None else _column(z)
+    n = int(cols[0].shape[0])
+    geo = _geo(ra0, dec0)
+
+    def part(start: int):
+        stop = min(n, start + PART_ROWS)
+        tally = np.zeros(5, np.int64)
+        far = rows_farthest(*(c[start:stop] for c in cols), wc if block.weight is None else wc[start:stop],
+                            zc if z is None else zc[start:stop], block.weight is not None, z is not None, geo,
+                            float(z_l + margin), tally)
+        return far, tally
+
+    parts = _map(part, list(range(0, n, PART_ROWS)))
+    counts = sum(p[1] for p in parts)
+    return Farthest(float(max(p[0] for p in parts)), int(counts[4]), {k: int(v) for k, v in zip(DROP_REASONS, counts)})
+
+
+def _geo(ra0: float, dec0: float) -> np.ndarray:
+    """(ra0, dec0, tan(Dec0 / 2), sin Dec0, cos Dec0) of a centre, for the kernels."""
+    half = np.pi / 360.0
+    return np.array([float(ra0), float(dec0), float(np.tan(dec0 * half)), np.sin(np.radians(dec0)),
+                     np.cos(np.radians(dec0))])
 
 
 class KernelParams:
@@ -226,10 +488,7 @@ class KernelParams:
         from lensmass.core import shear_profile as sp, shear_sources as ss
         from lensmass.core.shear_sums import BETA_CELLS, RADIAL_SUBBINS
 
-        half = np.pi / 360.0
-        dec0 = float(layout.center_dec)
-        self.geo = np.array([float(layout.center_ra), dec0, float(np.tan(dec0 * half)),
-                             np.sin(np.radians(dec0)), np.cos(np.radians(dec0))])
+        self.geo = _geo(float(layout.center_ra), float(layout.center_dec))
 
         def bins(e, n_sub, n_cells):
             log_spaced, linear, scale = sp.fine_spacing(e, n_sub)
@@ -250,7 +509,8 @@ class KernelParams:
             beta_one = float(ctx.beta_one)
         self.table = np.ascontiguousarray(values, float)
         self.sel = np.array([layout.z_l, layout.z_l + layout.z_margin, beta_one, ctx.inv_sigma_cr_beta, u0, step,
-                             ss._BETA_SOFT, float(layout.bootstrap), layout.n_bins])
+                             ss._BETA_SOFT, float(layout.bootstrap), layout.n_bins,
+                             ss._BETA_ZMAX if layout.z_s is None else np.inf])
         self.seed = (int(layout.seed) * 0x9E3779B9 + 0x7F4A7C15) & 0xFFFFFFFF  # as shear_sums.bootstrap_group
 
 
@@ -260,8 +520,9 @@ def _params(layout, ctx) -> KernelParams:
     return ctx.kernel
 
 
-def kernel_applies(layout, ctx, z) -> bool:
-    """The kernel covers evenly spaced (log or linear) bins and tabulated D_ls / D_s (z up to the table's end)."""
+def kernel_applies(layout, ctx, z=None) -> bool:
+    """The kernel covers evenly spaced (log or linear) bins and tabulated D_ls / D_s (z up to the table's end;
+    :func:`kernel_block_sums` checks that as it reads the rows, this function only when given ``z``)."""
     params = _params(layout, ctx)
     if params.bins is None or (params.has_annulus and params.ann is None):
         return False
@@ -272,34 +533,103 @@ def kernel_applies(layout, ctx, z) -> bool:
     return True
 
 
-def _column(values, dtype=None) -> np.ndarray:
-    """A 1-D contiguous native column the kernel takes (float32 stays float32; others to float64)."""
+_SWAPPED: dict[np.dtype, np.dtype] = {np.dtype(">f8"): np.dtype(np.uint64), np.dtype(">f4"): np.dtype(np.uint32)}
+_TAKEN = {np.dtype(t) for t in (np.float64, np.float32, np.int64, np.int32, np.int16, np.int8, np.uint16, np.uint8)}
+
+
+def _column(values) -> np.ndarray:
+    """A 1-D column as the kernel takes it, without a copy where possible: native floats and small ints as
+    they are (strided views of a memory-mapped table too), big-endian floats as unsigned ints of their bytes
+    (swapped in the kernel), anything else converted to float64."""
     arr = np.asarray(values)
-    if dtype is None:
-        dtype = arr.dtype if arr.dtype in (np.dtype(np.float32), np.dtype(np.float64)) else np.float64
-    return np.ascontiguousarray(arr, dtype=dtype)
+    dt = arr.dtype
+    if dt.isnative and dt in _TAKEN:
+        return arr
+    if dt in _SWAPPED:
+        return arr.view(_SWAPPED[dt])
+    return arr.astype(np.float64)
 
 
-def kernel_block_sums(total, layout, ctx, ra, dec, e1, e2, w, z, first_row: int) -> None:
+#: Rows per part of a block: parts are summed on their own (on :data:`KERNEL_THREADS` threads) and the
+#: parts' sums added in row order, so the numbers depend on this size, never on the number of threads.
+PART_ROWS = 1 << 18
+#: Threads of the compiled kernel (None: the environment variable ``LENSMASS_THREADS``, else the CPUs this
+#: process may use). The kernel releases the GIL, so the threads run in parallel within one process.
+KERNEL_THREADS: int | None = None
+_POOL: dict[tuple[int, int], Any] = {}
+
+
+def _threads() -> int:
+    if KERNEL_THREADS is not None:
+        return max(1, int(KERNEL_THREADS))
+    text = os.environ.get("LENSMASS_THREADS", "").strip()
+    if text.isdigit() and int(text) > 0:
+        return int(text)
+    try:
+        return len(os.sched_getaffinity(0))
+    except AttributeError:  # not on Linux
+        return os.cpu_count() or 1
+
+
+def _map(fn, items: list) -> list:
+    """``fn`` of each item, on the kernel's thread pool when there are several (results in item order)."""
+    n = min(_threads(), len(items))
+    if n < 2:
+        return [fn(item) for item in items]
+    key = (os.getpid(), n)  # a forked child has none of its parent's threads: it makes its own pool
+    pool = _POOL.get(key)
+    if pool is None:
+        from concurrent.futures import ThreadPoolExecutor
+
+        pool = _POOL[key] = ThreadPoolExecutor(n, thread_name_prefix="lensmass-sums")
+    return list(pool.map(fn, items))
+
+
+def kernel_block_sums(total, layout, ctx, ra, dec, e1, e2, w, z, first_row: int) -> bool:
     """Add a block of rows to the :class:`lensmass.core.shear_sums.ShearSums` ``total`` (the sums of the
-    numpy route, :func:`lensmass.core.shear_sums._add_piece`)."""
+    numpy route, :func:`lensmass.core.shear_sums._add_piece`). False (and ``total`` untouched) if a
+    redshift lies past the D_ls / D_s table or the bins are not evenly spaced (:func:`kernel_applies`): the
+    caller takes the numpy route for the block."""
+    if not kernel_applies(layout, ctx):
+        return False
     params = _params(layout, ctx)
     n_ann = params.n_ann
-    cells = np.zeros((layout.n_cells, len(KERNEL_KEYS)))
-    ann = np.zeros((max(n_ann, 1), len(KERNEL_KEYS)))
-    boot = total.boot.reshape(-1, 3) if total.boot is not None else np.zeros((1, 3))
-    tally = np.zeros(7, np.int64)
+    n_keys = len(KERNEL_KEYS)
+    cols = [_column(c) for c in (ra, dec, e1, e2)]
     dummy = np.zeros(1, np.float32)
-    rows_to_cells(_column(ra, np.float64), _column(dec, np.float64), _column(e1), _column(e2),
-                  dummy if w is None else _column(w), dummy if z is None else _column(z), w is not None,
-                  z is not None, params.geo, params.sel, params.bins, params.ann if n_ann else np.zeros(6),
-                  params.table, int(first_row), params.seed, cells, ann, boot, tally)
+    wc = dummy if w is None else _column(w)
+    zc = dummy if z is None else _column(z)
+    n = int(cols[0].shape[0])
+    boot_shape = total.boot.reshape(-1, 3).shape if total.boot is not None else (1, 3)
+
+    def part(start: int):
+        stop = min(n, start + PART_ROWS)
+        cells, ann = np.zeros((layout.n_cells, n_keys)), np.zeros((max(n_ann, 1), n_keys))
+        boot, tally = np.zeros(boot_shape), np.zeros(8, np.int64)
+        rows_to_cells(*(c[start:stop] for c in cols), wc if w is None else wc[start:stop],
+                      zc if z is None else zc[start:stop], w is not None, z is not None, params.geo, params.sel,
+                      params.bins, params.ann if n_ann else np.zeros(6), params.table, int(first_row) + start,
+                      params.seed, cells, ann, boot, tally)
+        return cells, ann, boot, tally
+
+    parts = _map(part, list(range(0, n, PART_ROWS)))
+    if any(p[3][7] for p in parts):
+        return False
+    cells, ann, boot, tally = parts[0]
+    for p in parts[1:]:
+        cells += p[0]
+        ann += p[1]
+        boot += p[2]
+        tally += p[3]
     for i, key in enumerate(KERNEL_KEYS):
         total.cells[key] += cells[:, i]
         if n_ann and key in total.annulus:
             total.annulus[key] += ann[:, i]
+    if total.boot is not None:
+        total.boot += boot.reshape(total.boot.shape)
     for i, reason in enumerate(("non_finite", "ellipticity_ge_1", "weight_not_positive", "source_not_behind_lens")):
         total.dropped[reason] += int(tally[i])
     total.n_usable += int(tally[4])
     total.n_in_bins += int(tally[5])
     total.n_near += int(tally[6])
+    return True

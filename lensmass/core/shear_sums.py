@@ -171,6 +171,9 @@ def farthest_usable(selection: tuple, block: CatalogBlock) -> Farthest:
     """The farthest usable galaxy of a block from the centre; ``selection`` = (ra0, dec0, z_l, z_s, z_margin)."""
     from lensmass.core import shear_geometry as sg, shear_sources as ss
 
+    if USE_KERNEL and block.n_rows >= KERNEL_MIN_ROWS:  # the compiled pass, same selection and projection
+        from lensmass.core.shear_kernel import kernel_farthest
+        return kernel_farthest(selection, block)
     ra0, dec0, z_l, z_s, margin = selection
     far = Farthest(-np.inf, 0, {k: 0 for k in ss.DROP_REASONS})
     for start in range(0, block.n_rows, BLOCK_ROWS):
@@ -236,9 +239,9 @@ _CONTEXTS: dict[tuple, _Context] = {}
 
 
 def _context(layout: SumLayout) -> _Context:
-    """The layout's constants, cached by value (a layout unpickled on a worker finds them too)."""
+    """The layout's constants, cached by value of every field the kernel uses (found on a worker too)."""
     key = (layout.center_ra, layout.center_dec, layout.z_l, repr(layout.cosmo), layout.edges_arcsec, layout.z_s,
-           layout.annulus_edges_arcsec)
+           layout.annulus_edges_arcsec, layout.z_margin, layout.bootstrap, layout.seed)  # the kernel's constants use all
     ctx = _CONTEXTS.get(key)
     if ctx is None:
         if len(_CONTEXTS) > 8:
@@ -272,17 +275,15 @@ def catalog_block_sums(layout: SumLayout, ra_deg, dec_deg, e1, e2, weight=None, 
     total = empty_sums(layout)
     n = int(np.shape(ra_deg)[0])
     z_col = z if layout.z_s is None else None
-    if USE_KERNEL and n >= KERNEL_MIN_ROWS:
-        from lensmass.core import shear_kernel as sk
-        if sk.kernel_applies(layout, ctx, z_col):
-            sk.kernel_block_sums(total, layout, ctx, ra_deg, dec_deg, e1, e2, weight, z_col, first_row)
-            total.n_rows = n
+    total.n_rows = n
+    if USE_KERNEL and n >= KERNEL_MIN_ROWS:  # the kernel says False where it does not apply
+        from lensmass.core.shear_kernel import kernel_block_sums
+        if kernel_block_sums(total, layout, ctx, ra_deg, dec_deg, e1, e2, weight, z_col, first_row):
             return total
     for start in range(0, n, BLOCK_ROWS):
         sl = slice(start, min(n, start + BLOCK_ROWS))
         _add_piece(total, layout, ctx, ra_deg[sl], dec_deg[sl], e1[sl], e2[sl],
                    None if weight is None else weight[sl], None if z_col is None else z_col[sl], first_row + start)
-    total.n_rows = n
     return total
 
 

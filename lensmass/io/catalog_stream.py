@@ -236,8 +236,8 @@ def _numeric(values, name: str, role: str, path: Path) -> np.ndarray:
             return arr.astype(np.float32)
         raise LensInputError(f"Column '{name}' ({role}) of '{path.name}' is not numeric: map a numeric column "
                              "(`columns`).")
-    if arr.dtype.byteorder == ">":  # FITS stores big-endian; the arithmetic wants native order
-        arr = arr.astype(arr.dtype.newbyteorder("="))
+    if not arr.dtype.isnative and arr.dtype.kind != "f":  # big-endian floats (FITS) stay in place: the engine
+        arr = arr.astype(arr.dtype.newbyteorder("="))    # swaps their bytes as it reads them
     return arr
 
 
