@@ -157,8 +157,8 @@ def fit_stack_nfw(profile: StackProfile, sums: StackSums, layout: StackLayout, *
     """Fit the mean NFW M200 (plus c200 and a central point mass when asked) to the stacked Delta Sigma
     with the jackknife covariance; grid posterior, medians and 68% / 95% intervals of each marginal.
 
-    The likelihood is (1 + chi^2 / (n_p - 1))^(-m/2), chi^2 with the jackknife covariance's inverse,
-    m from :func:`likelihood_power`; the reported chi^2 and p-value use the inverse debiased by the
+    The likelihood is (1 + chi^2 / (N - 1))^(-m/2), chi^2 with the jackknife covariance's inverse, N the
+    effective number of patches (:func:`effective_patches`), m from :func:`likelihood_power`; the reported chi^2 and p-value use the inverse debiased by the
     Hartlap et al. (2007, A&A 464, 399) factor (n_p - n_d - 2) / (n_p - 1). Priors: flat in log M200;
     ``concentration_prior`` (a :class:`lensmass.core.stack_priors.ConcentrationPrior`) frees c200, one
     value for every lens, its log-normal centre the ``concentration`` relation at M200 and the pairs'
