@@ -257,16 +257,19 @@ def analyse_stack(
     notes.append("The stacked mass is the M200 of one NFW halo whose profile matches the sample's mean Delta Sigma; "
                  "with a spread of masses it is not the arithmetic mean of the haloes' masses.")
     notes.append(MODEL_NOTE)
-    best_fit = {"mean_halo_m200_msun": fit.best_m200_msun}
-    medians = {"mean_halo_m200_msun": float(q[2])}
-    i68 = {"mean_halo_m200_msun": [float(q[1]), float(q[3])]}
-    i95 = {"mean_halo_m200_msun": [float(q[0]), float(q[4])]}
+    best_fit: dict[str, float] = {}
+    medians: dict[str, float] = {}
+    i68: dict[str, list[float]] = {}
+    i95: dict[str, list[float]] = {}
+
+    def report(key: str, best: float, quantiles) -> None:
+        best_fit[key], medians[key] = float(best), float(quantiles[2])
+        i68[key] = [float(quantiles[1]), float(quantiles[3])]
+        i95[key] = [float(quantiles[0]), float(quantiles[4])]
+
+    report("mean_halo_m200_msun", fit.best_m200_msun, q)
     if fit.c200_quantiles is not None:
-        qc = fit.c200_quantiles
-        best_fit["mean_halo_c200"] = fit.best_c200
-        medians["mean_halo_c200"] = float(qc[2])
-        i68["mean_halo_c200"] = [float(qc[1]), float(qc[3])]
-        i95["mean_halo_c200"] = [float(qc[0]), float(qc[4])]
+        report("mean_halo_c200", fit.best_c200, fit.c200_quantiles)
         c_text = (f"c200 fitted with M200, one value for the stack ({c_prior.describe(c_label)}; intervals from the "
                   "marginal posterior)")
         c_model = ("posterior median of c200, fitted with M200 (" + c_prior.describe(c_label) + ", the relation "
@@ -277,11 +280,7 @@ def analyse_stack(
         notes.append(f"c200 is not fitted: {c_label} fixes it at each lens redshift (c200 = {c_med:.2f} at the mean "
                      "z_l and median M200); fit it with a prior to marginalise M200 over it.")
     if fit.point_mass_quantiles is not None:
-        qp = fit.point_mass_quantiles
-        best_fit["point_mass_msun"] = fit.best_point_mass_msun
-        medians["point_mass_msun"] = float(qp[2])
-        i68["point_mass_msun"] = [float(qp[1]), float(qp[3])]
-        i95["point_mass_msun"] = [float(qp[0]), float(qp[4])]
+        report("point_mass_msun", fit.best_point_mass_msun, fit.point_mass_quantiles)
         prior_text = (f"log-normal prior, median {prior[0]:.3g} Msun, {prior[1]:g} dex" if prior is not None else
                       f"flat prior on [0, {POINT_MASS_MAX_MSUN:.0e}] Msun")
         point_text = (f"a central point mass M_* / (pi R^2) fitted with M200 ({prior_text}; intervals from the "
