@@ -49,6 +49,7 @@ PARAMETER_FLAGS: dict[str, str] = {
     "gas_mass": "--gas-mass", "gas_mass_err": "--gas-mass-err", "n_patches": "--patches",
     "randoms": "--randoms", "n_randoms": "--random-count", "out": "--out", "store": "--store",
     "point_mass_msun": "--stellar-mass", "point_mass_prior": "--stellar-mass-prior",
+    "concentration_prior": "--concentration-prior", "free_concentration": "--free-concentration",
 }
 
 #: Exit status for bad input (one-line message on stderr).

@@ -98,6 +98,10 @@ def test_stack_on_a_dask_cluster_equals_in_memory(files, capsys):
     (["--stellar-mass", "fit", "--stellar-mass-prior", "3e11"], "--stellar-mass-prior takes MEDIAN,DEX"),
     (["--stellar-mass", "fit", "--stellar-mass-prior", "3e11,-1"], "(--stellar-mass-prior) needs a median > 0"),
     (["--stellar-mass-prior", "3e11,0.2"], "needs the point mass fitted: set it to 'fit'"),
+    (["--concentration-prior", "0.2"], "(--concentration-prior) needs the concentration fitted: set "
+                                       "--free-concentration"),
+    (["--free-concentration", "--concentration-prior", "wide"], "--concentration-prior takes a scatter in dex"),
+    (["--free-concentration", "--concentration-prior", "9,3"], "(--concentration-prior) needs 0.1 <= c_min < c_max"),
 ])
 def test_bad_input_one_line(files, capsys, extra, needle):
     _s, folder, lenses = files
@@ -125,3 +129,17 @@ def test_fitted_stellar_mass_is_printed_with_its_interval(files, capsys):
                  *ARGS, "--stellar-mass", "fit", "--stellar-mass-prior", "3e11,0.3"]) == 0
     line = next(row for row in capsys.readouterr().out.splitlines() if row.startswith("central M_*"))
     assert "[" in line and "Msun" in line  # the 68% interval beside the posterior median
+
+
+def test_free_concentration_is_printed_with_its_interval(files, capsys):
+    _s, folder, lenses = files
+    assert main(["stack", str(folder), "--lenses", str(lenses), "--lens-columns", "z=ZSPEC", "--columns", "z=Z_B",
+                 *ARGS, "--free-concentration", "--concentration-prior", "2,14", "--json"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    lo, hi = out["intervals95"]["mean_halo_c200"]
+    assert 2 <= lo < out["mean_halo_c200"] < hi <= 14 and out["free_concentration"] is True
+    assert "flat prior in c200 on [2, 14]" in out["models"]["mean_halo_m200_msun"]
+    assert main(["stack", str(folder), "--lenses", str(lenses), "--lens-columns", "z=ZSPEC", "--columns", "z=Z_B",
+                 *ARGS, "--free-concentration"]) == 0
+    line = next(row for row in capsys.readouterr().out.splitlines() if row.startswith("mean halo c200"))
+    assert "[" in line  # the 68% interval beside the posterior median

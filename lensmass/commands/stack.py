@@ -22,7 +22,7 @@ STACK_DISPLAY = [
     ("n_sources_used", "sources used", ""),
     ("mean_lens_z", "mean z_l", ""),
     ("mean_halo_m200_msun", "mean halo M200", "Msun"),
-    ("mean_halo_c200", "c200 (relation)", ""),
+    ("mean_halo_c200", "mean halo c200", ""),
     ("point_mass_msun", "central M_*", "Msun"),
     ("stack_chi2", "chi^2", ""),
     ("stack_pvalue", "p-value", ""),
@@ -58,6 +58,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     prof.add_argument("--stellar-mass-prior", default=None, metavar="MEDIAN,DEX",
                       help="with --stellar-mass fit: log-normal prior, median in Msun and width in dex "
                            "(default flat on 0-1e13 Msun)")
+    prof.add_argument("--free-concentration", action="store_true",
+                      help="fit c200 with M200 (one value for the stack) instead of fixing it by the "
+                           "--concentration relation; M200's intervals are marginalised over it")
+    prof.add_argument("--concentration-prior", default=None, metavar="DEX|CMIN,CMAX",
+                      help="with --free-concentration: log-normal scatter in dex about the --concentration relation "
+                           "(default 0.15), or a range of c200 with a flat prior, e.g. 2,14")
     prof.add_argument("--zs-margin", type=float, default=0.1, help="use sources with z_s > z_l + margin (default 0.1)")
     prof.add_argument("--seed", type=int, default=20261201, help="seed of the patches and drawn random points")
     add_scheduler_option(parser)
@@ -82,6 +88,7 @@ def run_stack(args: argparse.Namespace) -> dict:
     elif args.random_count is not None and args.random_count < 0:
         raise LensInputError(f"--random-count must be 0 or more, got {args.random_count}.")
     stellar, prior = stellar_mass_options(args.stellar_mass, args.stellar_mass_prior)
+    c_prior = concentration_prior_option(args.concentration_prior)
     files = CatalogFiles(args.sources, args.columns, need_z=True, flip_e1=args.flip_e1, flip_e2=args.flip_e2)
     blocks, route = files, "streamed in one process"
     if args.scheduler:
@@ -93,6 +100,7 @@ def run_stack(args: argparse.Namespace) -> dict:
         n_randoms=args.random_count, r_min_mpc=args.rmin_mpc, r_max_mpc=args.rmax_mpc, n_bins=args.bins,
         n_patches=args.patches, cosmology=cosmology_from_args(args), concentration=args.concentration,
         halo_definition=args.halo_definition, point_mass_msun=stellar, point_mass_prior=prior,
+        free_concentration=args.free_concentration, concentration_prior=c_prior,
         boost=not args.no_boost,
         z_margin=args.zs_margin, seed=args.seed)
     result["catalogs"] = {"sources": files.path, "source_columns": files.columns, "lenses": str(args.lenses),
@@ -118,6 +126,22 @@ def stellar_mass_options(value: str, prior: str | None) -> tuple[float | str, tu
     except ValueError:
         raise LensInputError(f"--stellar-mass-prior takes MEDIAN,DEX (e.g. 3e11,0.2), got '{prior}'.") from None
     return stellar, (median, dex)
+
+
+def concentration_prior_option(text: str | None) -> float | tuple[float, float] | None:
+    """``--concentration-prior`` (DEX or CMIN,CMAX) as analyse_stack takes it."""
+    if text is None:
+        return None
+    try:
+        parts = [float(p) for p in str(text).split(",")]
+    except ValueError:
+        parts = []
+    if len(parts) == 1:
+        return parts[0]
+    if len(parts) == 2:
+        return parts[0], parts[1]
+    raise LensInputError(f"--concentration-prior takes a scatter in dex (e.g. 0.15) or CMIN,CMAX (e.g. 2,14), "
+                         f"got '{text}'.")
 
 
 def format_profile(result: dict) -> str:
@@ -151,7 +175,8 @@ def write_stack_ecsv(path, result: dict) -> None:
             table[name].unit = "solMass / pc2"
     keep = ("cosmology", "n_lenses", "n_randoms", "n_sources_used", "mean_lens_z", "mean_halo_m200_msun",
             "mean_halo_c200", "intervals68", "intervals95", "point_mass_msun", "stack_chi2", "stack_dof",
-            "stack_pvalue", "n_patches", "covariance_msun2_per_pc4", "notes", "models")
+            "stack_pvalue", "n_patches", "free_concentration", "stack_likelihood_power", "stack_effective_patches",
+            "covariance_msun2_per_pc4", "notes", "models")
     table.meta.update(to_jsonable({k: result[k] for k in keep if k in result}))
     with atomic_path(path) as tmp:
         table.write(tmp, format="ascii.ecsv", overwrite=True)

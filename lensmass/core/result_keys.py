@@ -278,7 +278,13 @@ _FACTS: list[KeyFact] = [
     _f("mean_lens_z", "mean z_l", None, "weighted mean lens redshift", _K),
     _f("mean_halo_m200_msun", "mean halo M200", "solMass",
        "M200 of the NFW halo fitted to the stacked Delta Sigma (posterior median)", _K),
-    _f("mean_halo_c200", "c200 (relation)", None, "concentration of the mean halo from the c(M) relation", _K),
+    _f("mean_halo_c200", "mean halo c200", None, "concentration of the mean halo: fitted with M200 (posterior "
+       "median) when the concentration is free, else from the c(M) relation at the median M200", _K),
+    _f("stack_likelihood_power", "likelihood power", None, "power m of the stacked fit's t-likelihood "
+       "(1 + chi^2/(N_eff - 1))^(-m/2) for a covariance from N_eff effective jackknife patches "
+       "(Percival et al. 2022)", _K),
+    _f("stack_effective_patches", "effective patches", None, "effective number of jackknife patches, "
+       "(sum W)^2 / sum W^2 of the patches' pair weights (Kish 1965), smallest over the bins", _K),
     _f("point_mass_msun", "central M_*", "solMass", "central point mass for the lenses' stars in the fit: given, or fitted with M200 (posterior median)", _K),
     _f("stack_chi2", "chi^2", None, "chi^2 of the stacked NFW fit (Hartlap-debiased inverse covariance)", _K),
     _f("stack_dof", "dof", None, "degrees of freedom of the stacked fit", _K, fmt="count"),

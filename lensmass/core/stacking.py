@@ -19,11 +19,13 @@ physically associated with the lenses (diluting the signal); the estimate is
 The covariance is a delete-one jackknife over sky patches (k-means on the lenses' unit vectors,
 scipy.cluster.vq.kmeans2; every sum is kept per patch): C = (N-1)/N sum_k (DS_k - <DS>)(DS_k - <DS>)^T
 (Efron 1982; common practice). An NFW halo (Wright & Brainerd 2000) with c from a c(M) relation,
-plus an optional central point mass M_* / (pi R^2) for the galaxy's stars, is fitted to the
-stacked profile with that covariance (inverse debiased by the Hartlap et al. 2007, A&A 464, 399,
-factor (N - p - 2)/(N - 1)); the model of each bin averages the halo over the pairs' lens
-redshifts and radii (lens redshift cells) with the pairs' weights, as the data do
-(:mod:`lensmass.core.stack_fit`; the point mass fixed, or fitted with M200 under a prior).
+(c fixed by the relation, or fitted under a prior) plus an optional central point mass M_* / (pi R^2)
+for the galaxy's stars, is fitted to the stacked profile with that covariance (a t-likelihood whose
+power, Percival et al. 2022, MNRAS 510, 3207, accounts for the covariance's noise; the chi^2 uses the
+inverse debiased by the Hartlap et al. 2007, A&A 464, 399, factor (N - p - 2)/(N - 1)); the model of
+each bin averages the halo over the pairs' lens redshifts and radii (lens redshift cells) with the
+pairs' weights, as the data do (:mod:`lensmass.core.stack_fit`; the point mass fixed, or fitted with
+M200 under a prior).
 
 The sums are per (patch, radial bin) and per (lens-redshift cell, bin): they add over blocks of
 sources, so a source catalogue streams or runs on a Dask cluster like the shear profile
@@ -361,9 +363,10 @@ from lensmass.core.stack_fit import (  # noqa: E402
     StackFit,
     check_point_mass_prior,
     fit_stack_nfw,
+    likelihood_power,
     nfw_delta_sigma_model,
     point_mass_log_prior,
 )
 
-__all__ = ["POINT_MASS_MAX_MSUN", "StackFit", "check_point_mass_prior", "fit_stack_nfw", "nfw_delta_sigma_model",
-           "point_mass_log_prior"]
+__all__ = ["POINT_MASS_MAX_MSUN", "StackFit", "check_point_mass_prior", "fit_stack_nfw", "likelihood_power",
+           "nfw_delta_sigma_model", "point_mass_log_prior"]
