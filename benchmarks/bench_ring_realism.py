@@ -73,7 +73,7 @@ def sweep(cutouts, route: str):
             else:
                 pic = picture(c, route)
                 out.append(find_ring(pic.astype(np.float32) @ np.array([0.299, 0.587, 0.114], np.float32),
-                                     colour=pic))
+                                     colour=pic, compressed=route.startswith("JPEG")))
         except LensInputError:
             out.append(Failed())
     return out

@@ -391,7 +391,8 @@ def find_ring_on_image(
         raise LensInputError("The ring finder needs the image pixels; open the image first.")
     cx, cy = (None, None) if center is None else center
     return find_ring(data, cx, cy, residual=residual, max_radius_pix=max_radius_pix, mask=mask,
-                     colour=getattr(image, "rgb", None), progress=progress, should_stop=should_stop)
+                     colour=getattr(image, "rgb", None), compressed=bool(getattr(image, "lossy", False)),
+                     progress=progress, should_stop=should_stop)
 
 
 def measure_theta_e_auto_ring(

@@ -88,6 +88,8 @@ class LoadedImage:
     #: The picture's (ny, nx, 3) RGB values for colour pictures (PNG/JPEG), else None: the ring
     #: finder uses the colour to tell blue arcs from the red lens light.
     rgb: np.ndarray | None = None
+    #: True for pictures stored with lossy compression (JPEG): the ring finder widens its error.
+    lossy: bool = False
     #: NaN pixels, when the reader already counted them (else counted by ``load_image``).
     masked_pixels: int | None = field(default=None, repr=False)
 
@@ -512,8 +514,10 @@ def _load_raster(p: Path) -> LoadedImage:
     from PIL import Image as _pil
 
     rgb = None
+    lossy = False
     try:
         with Image.open(p) as im:
+            lossy = im.format in ("JPEG", "MPO")
             _check_size(p, im.size[1], im.size[0])
             im.load()
             mode = im.mode
@@ -540,7 +544,7 @@ def _load_raster(p: Path) -> LoadedImage:
     notes.append("Pictures (PNG/JPEG/TIFF) carry no sky coordinates; pixel values may be stretched, not linear flux.")
     if rgb is not None and np.ptp(rgb[..., 0] - rgb[..., 2]) == 0:
         rgb = None  # a grey picture saved as RGB carries no colour
-    return LoadedImage(data=data, path=str(p), kind="raster", notes=notes, rgb=rgb)
+    return LoadedImage(data=data, path=str(p), kind="raster", notes=notes, rgb=rgb, lossy=lossy)
 
 
 def _count_nan(data: np.ndarray) -> int:
