@@ -1,8 +1,8 @@
 """The per-row work of :mod:`lensmass.core.shear_sums` compiled into one pass (numba), for long blocks.
 
 Rows go in chunks of :data:`CHUNK_ROWS`: the element-wise steps (loading and byte-swapping, projection,
-rotation, logs, D_ls / D_s) run as loops without branches or calls over a chunk held in the CPU cache,
-which LLVM turns into SIMD code, then one loop per row selects and adds to the cells; the numpy route
+rotation, logs, D_ls / D_s, selection and cells) run as loops without branches or calls over a chunk held in
+the CPU cache, which LLVM turns into SIMD code, then one loop adds the rows in the bins; the numpy route
 makes about a hundred passes over a piece of rows instead. A block's parts of :data:`PART_ROWS` rows are
 summed on threads (:data:`KERNEL_THREADS`). The formulas, their order and the cell layout are those of the numpy route
 (:func:`lensmass.core.shear_sums._add_piece`), which stays the reference: the two give the same
@@ -72,17 +72,6 @@ def _tan_s(x):
 @numba.njit(**_JIT)
 def _arctan_s(x):
     return _odd_series(x, _ARCTAN) if abs(x) < SERIES_MAX else math.atan(x)
-
-
-@numba.njit(**_JIT)
-def _clamp_floor(u, n_fine):
-    """floor(u) clamped to the sub-bins 0 .. n_fine - 1, as :func:`lensmass.core.shear_profile._fine_indexer`."""
-    k = math.floor(u)
-    if k < 0:
-        k = 0
-    if k > n_fine - 1:
-        k = n_fine - 1
-    return int(k)
 
 
 @numba.njit(**_JIT)
@@ -268,8 +257,8 @@ def _beta_chunk(m, z, z_l, sel, table, bs, work):
         return True
     for j in range(m):
         tt = (bs[j] - u0) * (1.0 / step)
-        i = int(tt) if tt == tt else 0
-        i = max(0, min(i, n_table - 2))
+        i = np.int32(tt) if tt == tt else np.int32(0)
+        i = max(np.int32(0), min(i, np.int32(n_table - 2)))
         v0 = table[i]
         beta = v0 + (tt - i) * (table[i + 1] - v0)
         bs[j] = beta if z[j] > z_l else 0.0
@@ -324,21 +313,78 @@ def _load_rows(ra, dec, e1, e2, w, z, has_w, has_z, start, m, buf):
 
 
 @numba.njit(**_JIT)
-def _drop_reason(g1, g2, wr, zr, theta, has_z, z_min):
-    """The first reason of :data:`lensmass.core.shear_sources.DROP_REASONS` that drops a row (0-3), or 4: usable
-    (as :func:`lensmass.core.shear_sources.select_sources`, with the position's theta among the finite checks)."""
-    finite = math.isfinite(g1) and math.isfinite(g2) and math.isfinite(wr) and math.isfinite(theta)
-    if has_z:
-        finite = finite and math.isfinite(zr)
-    if not finite:
-        return 0
-    if g1 * g1 + g2 * g2 >= 1.0:
-        return 1
-    if not wr > 0:
-        return 2
-    if has_z and not zr > z_min:
-        return 3
-    return 4
+def _usable_chunk(m, g1s, g2s, ws, zs, ts, has_w, has_z, z_min, ok, counts):
+    """``ok[j]`` = 1 for the usable rows of ``m``, else 0, and ``counts`` += [non_finite, e_ge_1, w_not_positive,
+    z_not_behind, usable] (each dropped row under the first reason of
+    :data:`lensmass.core.shear_sources.DROP_REASONS` that applies, as
+    :func:`lensmass.core.shear_sources.select_sources` with the position's theta among the finite checks).
+    Without branches: LLVM makes the loop SIMD (x - x == 0 is ``isfinite``)."""
+    c0 = c1 = c2 = c3 = c4 = 0
+    for j in range(m):
+        g1 = g1s[j]
+        g2 = g2s[j]
+        wr = ws[j] if has_w else 1.0
+        zr = zs[j] if has_z else 0.0
+        theta = ts[j]
+        finite = ((g1 - g1) == 0.0) & ((g2 - g2) == 0.0) & ((wr - wr) == 0.0) & ((theta - theta) == 0.0) & (
+            ((zr - zr) == 0.0) | (not has_z))
+        r1 = finite & (g1 * g1 + g2 * g2 >= 1.0)
+        good = finite & (not r1)
+        r2 = good & (not wr > 0)
+        good &= not r2
+        r3 = good & has_z & (not zr > z_min)
+        good &= not r3
+        c0 += not finite
+        c1 += r1
+        c2 += r2
+        c3 += r3
+        c4 += good
+        ok[j] = np.int32(good)
+    counts[0] += c0
+    counts[1] += c1
+    counts[2] += c2
+    counts[3] += c3
+    counts[4] += c4
+
+
+@numba.njit(**_JIT)
+def _select_chunk(m, g1s, g2s, ws, zs, ts, us, aus, bs, has_w, has_z, z_min, beta_one, bins, ann_bins, cell, ann_cell,
+                  picked, counts):
+    """The usable rows of ``m`` (:func:`_usable_chunk`) to cells: ``cell[j]`` = sub-bin x 8 + beta cell (-1: not in
+    the bins or not usable), ``ann_cell[j]`` the annulus bin (-1: none), the rows with either listed in
+    ``picked`` (returns how many); ``counts`` as ``tally[:7]`` of :func:`rows_to_cells`. The sub-bin is floor(u)
+    clamped to the sub-bins, as :func:`lensmass.core.shear_profile._fine_indexer`; the beta cell
+    min(int(8 beta), 7), as :func:`lensmass.core.shear_sums._add_piece`. Float to int32 conversions (AVX2 has no
+    vector instruction to int64) keep these loops SIMD; the packing of ``picked`` runs on its own."""
+    lo, hi, top = bins[0], bins[1], bins[4] - 1.0
+    a_lo, a_hi, a_top = ann_bins[0], ann_bins[1], ann_bins[4] - 1.0
+    _usable_chunk(m, g1s, g2s, ws, zs, ts, has_w, has_z, z_min, ann_cell, counts)  # ann_cell holds ok for now
+    n_in = 0
+    for j in range(m):
+        theta = ts[j]
+        inside = (ann_cell[j] > 0) & (theta >= lo) & (theta < hi)
+        k = min(max(math.floor(us[j]), 0.0), top)
+        b = beta_one
+        if has_z:
+            b = bs[j]
+        q = min(np.int32(b * 8.0), np.int32(7))
+        cell[j] = np.int32(k) * np.int32(8) + q if inside else np.int32(-1)
+        n_in += inside
+    if ann_bins[4] > 0:
+        for j in range(m):
+            theta = ts[j]
+            in_ann = (ann_cell[j] > 0) & (theta >= a_lo) & (theta < a_hi)
+            ka = min(max(math.floor(aus[j]), 0.0), a_top)
+            ann_cell[j] = np.int32(ka) if in_ann else np.int32(-1)
+    else:
+        ann_cell[:m] = -1
+    n = 0
+    for j in range(m):
+        picked[n] = j
+        n += (cell[j] >= 0) | (ann_cell[j] >= 0)
+    counts[5] += n_in
+    counts[6] += n
+    return n
 
 
 @numba.njit(**_JIT)
@@ -354,14 +400,14 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
     (n_fine = 0: none); ``tally`` = [non_finite, e_ge_1, w_not_positive, z_not_behind, usable, in_bins, near,
     beyond] (beyond: a redshift past the D_ls / D_s table's end, ``sel[9]``; the work stops, nothing is valid).
 
-    Rows go in chunks of :data:`CHUNK_ROWS`: the element-wise work (loading, projection, rotation, logs)
-    runs over the chunk in loops without branches, then one loop per row selects and adds.
+    Rows go in chunks of :data:`CHUNK_ROWS`: the element-wise work (loading, projection, rotation, logs,
+    selection and cells) runs over the chunk in loops without branches, then one loop adds the rows listed
+    in the bins, in row order.
     """
     z_l, z_min, beta_one, inv_k = sel[0], sel[1], sel[2], sel[3]
     use_boot, n_bins = sel[7] > 0, int(sel[8])
     n_groups = np.uint64(boot.shape[0] // max(n_bins, 1))
-    lo, hi, n_fine = bins[0], bins[1], int(bins[4])
-    a_lo, a_hi, n_ann = ann_bins[0], ann_bins[1], int(ann_bins[4])
+    n_ann = int(ann_bins[4])
     seed_mix = np.uint64(boot_seed)
     buf = np.empty((14, CHUNK_ROWS))
     cra, cdec, g1s, g2s, ws, zs, xs, ys, ts, us, ets, exs, work, aus = (buf[0], buf[1], buf[2], buf[3], buf[4],
@@ -369,6 +415,8 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
                                                                         buf[10], buf[11], buf[12], buf[13])
     bs = cdec  # D_ls / D_s, once Dec is no longer needed
     counts = np.zeros(7, np.int64)  # as tally[:7]
+    index = np.empty((3, CHUNK_ROWS), np.int32)
+    cell, ann_cell, picked = index[0], index[1], index[2]
     for start in range(0, ra.size, CHUNK_ROWS):
         m = min(CHUNK_ROWS, ra.size - start)
         _load_rows(ra, dec, e1, e2, w, z, has_w, has_z, start, m, buf)
@@ -380,20 +428,12 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
         if has_z and _beta_chunk(m, zs, z_l, sel, table, bs, work):
             tally[7] += 1
             return 0
-        for j in range(m):
+        n_pick = _select_chunk(m, g1s, g2s, ws, zs, ts, us, aus, bs, has_w, has_z, z_min, beta_one, bins, ann_bins,
+                               cell, ann_cell, picked, counts)
+        for i in range(n_pick):
+            j = picked[i]
             theta = ts[j]
-            g1 = g1s[j]
-            g2 = g2s[j]
             wr = ws[j] if has_w else 1.0
-            reason = _drop_reason(g1, g2, wr, zs[j] if has_z else 0.0, theta, has_z, z_min)
-            counts[reason] += 1
-            if reason < 4:
-                continue
-            fine = _clamp_floor(us[j], n_fine) if (theta >= lo and theta < hi) else -1
-            a_idx = _clamp_floor(aus[j], n_ann) if (n_ann > 0 and theta >= a_lo and theta < a_hi) else -1
-            if fine < 0 and a_idx < 0:
-                continue
-            counts[6] += 1
             e_t = ets[j]
             e_x = exs[j]
             beta = bs[j] if has_z else beta_one
@@ -407,17 +447,15 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
             dd = a * inv_sc
             dt = a * e_t
             dx = a * e_x
-            if fine >= 0:
-                counts[5] += 1
-                bq = int(beta * 8.0)
-                if bq > 7:
-                    bq = 7
-                _add_row(cells, fine * 8 + bq, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a)
+            c = cell[j]
+            if c >= 0:
+                _add_row(cells, c, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a)
                 if use_boot:
-                    key = _boot_key(np.uint64(first_row + start + j), seed_mix, n_groups, n_bins, fine)
+                    key = _boot_key(np.uint64(first_row + start + j), seed_mix, n_groups, n_bins, c // 8)
                     boot[key, 0] += wr
                     boot[key, 1] += st
                     boot[key, 2] += sx
+            a_idx = ann_cell[j]
             if a_idx >= 0:
                 _add_row(ann, a_idx, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a)
     tally[:7] += counts
@@ -431,17 +469,16 @@ def rows_farthest(ra, dec, e1, e2, w, z, has_w, has_z, geo, z_min, tally):
     buf = np.empty((9, CHUNK_ROWS))
     far = -np.inf
     counts = np.zeros(5, np.int64)
+    ok = np.empty(CHUNK_ROWS, np.int32)
     for start in range(0, ra.size, CHUNK_ROWS):
         m = min(CHUNK_ROWS, ra.size - start)
         _load_rows(ra, dec, e1, e2, w, z, has_w, has_z, start, m, buf)
         _project_chunk(buf[0], buf[1], m, geo, buf[6], buf[7], buf[8])
+        _usable_chunk(m, buf[2], buf[3], buf[4], buf[5], buf[8], has_w, has_z, z_min, ok, counts)
         for j in range(m):
             theta = buf[8, j]
-            reason = _drop_reason(buf[2, j], buf[3, j], buf[4, j] if has_w else 1.0, buf[5, j] if has_z else 0.0,
-                                  theta, has_z, z_min)
-            counts[reason] += 1
-            if reason == 4:
-                far = max(far, theta)
+            if ok[j] and theta > far:
+                far = theta
     tally += counts
     return far
 
