@@ -115,9 +115,13 @@ def nfw_halo(m_delta_msun, concentration, z, cosmo, definition: str = "200c") ->
     >>> round(float(h.r_delta_mpc), 3)  # doctest: +SKIP
     1.891
     """
+    return _halo_of_density(m_delta_msun, concentration, overdensity_density_msun_per_mpc3(z, cosmo, definition))
+
+
+def _halo_of_density(m_delta_msun, concentration, rho_delta) -> NFWHalo:
+    """:func:`nfw_halo` given the density Delta rho_ref inside the boundary (a fit computes it once)."""
     m = np.asarray(m_delta_msun, float)
     c = np.asarray(concentration, float)
-    rho_delta = overdensity_density_msun_per_mpc3(z, cosmo, definition)
     r_delta = np.cbrt(3 * m / (4 * np.pi * rho_delta))
     rho_s = rho_delta / 3.0 * c**3 / _m_of_c(c)
     return NFWHalo(m, c, r_delta, r_delta / c, rho_s)
@@ -145,25 +149,25 @@ def _f_function(x) -> np.ndarray:
     return out.reshape(x.shape)
 
 
-def _one_minus_f_over_t(x) -> np.ndarray:
-    """(1 - F(x)) / (x^2 - 1), finite through x = 1 (where it is 1/3)."""
+def _one_minus_f_over_t(x, f=None) -> np.ndarray:
+    """(1 - F(x)) / (x^2 - 1), finite through x = 1 (where it is 1/3); ``f``: F(x) if already known."""
     x = np.asarray(x, float)
     t = np.asarray(x * x - 1.0)
     near = np.abs(t) < _SERIES_LIMIT
     with np.errstate(divide="ignore", invalid="ignore"):
-        direct = np.asarray((1.0 - _f_function(x)) / t)
+        direct = np.asarray((1.0 - (_f_function(x) if f is None else f)) / t)
     if np.any(near):  # the series only where it is used (16 powers per element)
         k = np.arange(_SERIES_TERMS)
         direct[near] = np.sum((-t[near][:, None]) ** k / (2 * k + 3), axis=-1)
     return direct
 
 
-def _h_function(x) -> np.ndarray:
-    """ln(x/2) + F(x): the projected mass inside x in units of 4 pi rho_s r_s^3."""
+def _h_function(x, f=None) -> np.ndarray:
+    """ln(x/2) + F(x): the projected mass inside x in units of 4 pi rho_s r_s^3; ``f``: F(x) if already known."""
     x = np.asarray(x, float)
     small = x < 1e-4
     with np.errstate(divide="ignore"):
-        direct = np.log(x / 2.0) + _f_function(x)
+        direct = np.log(x / 2.0) + (_f_function(x) if f is None else f)
     # x -> 0: arccosh(1/x)/sqrt(1 - x^2) = ln(2/x) + (x^2/2)(ln(2/x) - 1/2) + O(x^4 ln x)
     xs = np.where(small, x, 1.0)
     series = 0.5 * xs**2 * (np.log(2.0 / xs) - 0.5)
@@ -180,6 +184,15 @@ def nfw_mean_surface_density_msun_per_mpc2(radius_mpc, halo: NFWHalo) -> np.ndar
     """Mean surface density inside R (Wright & Brainerd 2000, eq. 13)."""
     x = np.asarray(radius_mpc, float) / halo.r_s_mpc
     return 4.0 * halo.rho_s_msun_per_mpc3 * halo.r_s_mpc * _h_function(x) / x**2
+
+
+def _surface_density_and_mean(radius_mpc, halo: NFWHalo) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`nfw_surface_density_msun_per_mpc2` and :func:`nfw_mean_surface_density_msun_per_mpc2` from one
+    evaluation of F (the same numbers; the shear fits evaluate both on every grid point)."""
+    x = np.asarray(radius_mpc, float) / halo.r_s_mpc
+    f = _f_function(x)
+    sigma = 2.0 * halo.rho_s_msun_per_mpc3 * halo.r_s_mpc * _one_minus_f_over_t(x, f)
+    return sigma, 4.0 * halo.rho_s_msun_per_mpc3 * halo.r_s_mpc * _h_function(x, f) / x**2
 
 
 def nfw_mass_2d_msun(radius_mpc, halo: NFWHalo) -> np.ndarray:

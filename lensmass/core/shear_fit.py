@@ -36,13 +36,9 @@ from lensmass.core.concentration import concentration_relation
 from lensmass.core.constants import ARCSEC_RAD
 from lensmass.core.errors import LensInputError
 from lensmass.core.lensing import sigma_crit_msun_per_mpc2
-from lensmass.core.nfw import (
-    nfw_halo,
-    nfw_mean_surface_density_msun_per_mpc2,
-    nfw_surface_density_msun_per_mpc2,
-)
+from lensmass.core.nfw import _halo_of_density, _surface_density_and_mean, overdensity_density_msun_per_mpc3
 from lensmass.core.shear_profile import ModelCells, ShearProfile
-from lensmass.core.sis import sis_convergence, sis_shear, sis_theta_e_arcsec
+from lensmass.core.sis import sis_convergence, sis_theta_e_arcsec
 
 #: Quantiles reported: 95% interval, 68% interval and the median.
 QUANTILES = (0.025, 0.16, 0.5, 0.84, 0.975)
@@ -64,9 +60,17 @@ def expected_ellipticity(g) -> np.ndarray:
 
     <e> = g for |g| <= 1 and 1 / g for |g| > 1 (Seitz & Schneider 1997).
     """
-    g = np.asarray(g, float)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(np.abs(g) <= 1.0, g, 1.0 / g)
+    g = np.array(g, float)
+    _invert_beyond_one(g)
+    return g
+
+
+def _invert_beyond_one(g: np.ndarray) -> None:
+    """g -> 1 / g in place where not |g| <= 1 (NaN stays NaN): :func:`expected_ellipticity` on its own array."""
+    flip = ~(np.abs(g) <= 1.0)
+    if flip.any():
+        with np.errstate(divide="ignore", invalid="ignore"):
+            g[flip] = 1.0 / g[flip]
 
 
 def cell_reduced_shear(gamma_inf, kappa_inf, cells: ModelCells) -> np.ndarray:
@@ -79,30 +83,37 @@ def cell_reduced_shear(gamma_inf, kappa_inf, cells: ModelCells) -> np.ndarray:
     denom = 1.0 - b * kappa_inf
     with np.errstate(divide="ignore", invalid="ignore"):
         g = b * gamma_inf / denom
-        corrected = g + var * gamma_inf * kappa_inf / denom**3
-    return expected_ellipticity(np.where(np.abs(g) < 1.0, corrected, g))
+        out = var * gamma_inf * kappa_inf / denom**3
+        out += g  # the corrected g, kept where |g| < 1
+    strong = ~(np.abs(g) < 1.0)
+    if strong.any():
+        out[strong] = g[strong]
+    _invert_beyond_one(out)
+    return out
 
 
 def sis_model_cells(sigma_v_kms, cells: ModelCells) -> np.ndarray:
     """Expected tangential ellipticity on the cells for SIS dispersions (shape (..., n_cells))."""
     s = np.asarray(sigma_v_kms, float)[..., None]
     theta_e_inf = sis_theta_e_arcsec(s, 1.0, 1.0)  # for D_ls / D_s = 1
-    kappa = sis_convergence(cells.theta_arcsec, theta_e_inf)
-    return cell_reduced_shear(sis_shear(cells.theta_arcsec, theta_e_inf), kappa, cells)
+    kappa = sis_convergence(cells.theta_arcsec, theta_e_inf)  # = sis_shear: gamma = kappa for an SIS
+    return cell_reduced_shear(kappa, kappa, cells)
 
 
 def nfw_model_cells(m_delta_msun, concentration, cells: ModelCells, z_l: float, cosmo, d_l_mpc: float,
-                    definition: str = "200c") -> np.ndarray:
-    """Expected tangential ellipticity on the cells for NFW haloes (shape (..., n_cells))."""
+                    definition: str = "200c", rho_delta: float | None = None) -> np.ndarray:
+    """Expected tangential ellipticity on the cells for NFW haloes (shape (..., n_cells)); ``rho_delta`` the
+    density inside the halo boundary at z_l if already known (as ``nfw_halo`` computes it)."""
     m = np.asarray(m_delta_msun, float)[..., None]
     c = np.asarray(concentration, float)[..., None]
-    halo = nfw_halo(m, c, z_l, cosmo, definition)
+    if rho_delta is None:
+        rho_delta = overdensity_density_msun_per_mpc3(z_l, cosmo, definition)
+    halo = _halo_of_density(m, c, rho_delta)
     radius_mpc = cells.theta_arcsec * ARCSEC_RAD * d_l_mpc
     sigma_cr_inf = sigma_crit_msun_per_mpc2(d_l_mpc, 1.0, 1.0)  # for D_ls / D_s = 1
     # gamma = (mean Sigma(<R) - Sigma(R)) / Sigma_cr and kappa = Sigma(R) / Sigma_cr from one
-    # evaluation of each profile (nfw_shear and nfw_convergence would evaluate Sigma(R) twice)
-    sigma = nfw_surface_density_msun_per_mpc2(radius_mpc, halo)
-    mean = nfw_mean_surface_density_msun_per_mpc2(radius_mpc, halo)
+    # evaluation of F (nfw_shear and nfw_convergence would evaluate Sigma(R) twice)
+    sigma, mean = _surface_density_and_mean(radius_mpc, halo)
     return cell_reduced_shear((mean - sigma) / sigma_cr_inf, sigma / sigma_cr_inf, cells)
 
 
@@ -297,7 +308,6 @@ def fit_nfw(
     (for the chosen ``halo_definition``; the keys keep the 200 name).
     """
     from lensmass.core.cosmology import little_h
-    from lensmass.core.nfw import overdensity_density_msun_per_mpc3
 
     if profile.d_l_mpc is None:
         raise LensInputError("The NFW fit needs the lens distance: build the profile with d_l_mpc.")
@@ -312,7 +322,7 @@ def fit_nfw(
 
     def chi2_mc(log_m, log_c):
         def one(lm, lc):
-            return _chi2(nfw_model_cells(10.0**lm, 10.0**lc, cells, z_l, cosmo, d_l, halo_definition),
+            return _chi2(nfw_model_cells(10.0**lm, 10.0**lc, cells, z_l, cosmo, d_l, halo_definition, rho_delta),
                          profile, use, data, err)
         return _chunked(one, (np.asarray(log_m, float), np.asarray(log_c, float)), cells.weight.size)
 
@@ -338,7 +348,8 @@ def fit_nfw(
         n_par = 2
     quantiles = {"nfw_m200_msun": m_q, "nfw_c200": c_q, "nfw_r200_kpc": r200_kpc(m_q)}
     best = {"nfw_m200_msun": float(m_best), "nfw_c200": float(c_best), "nfw_r200_kpc": float(r200_kpc(m_best))}
-    model_profile = cells.bin_average(nfw_model_cells(m_best, c_best, cells, z_l, cosmo, d_l, halo_definition))
+    model_profile = cells.bin_average(nfw_model_cells(m_best, c_best, cells, z_l, cosmo, d_l, halo_definition,
+                                                      rho_delta))
     return _finish("NFW", best, quantiles, float(np.min(c)), int(use.sum()), n_par, model_profile, grid, at_edge,
                    _chi2_null(profile, use, data, err), {"nfw_m200_msun": m_up, "nfw_r200_kpc": float(r200_kpc(m_up))})
 
