@@ -255,13 +255,19 @@ def _beta_chunk(m, z, z_l, sel, table, bs, work):
     log_chunk(m, bs, work)
     if far:
         return True
-    for j in range(m):
+    idx = work.view(np.int64)
+    for j in range(m):  # the node and the fraction (SIMD), then the table look-ups (not), then the selection (SIMD)
         tt = (bs[j] - u0) * (1.0 / step)
         i = np.int32(tt) if tt == tt else np.int32(0)
         i = max(np.int32(0), min(i, np.int32(n_table - 2)))
+        bs[j] = tt - i
+        idx[j] = i
+    for j in range(m):
+        i = idx[j]
         v0 = table[i]
-        beta = v0 + (tt - i) * (table[i + 1] - v0)
-        bs[j] = beta if z[j] > z_l else 0.0
+        bs[j] = v0 + bs[j] * (table[i + 1] - v0)
+    for j in range(m):
+        bs[j] = bs[j] if z[j] > z_l else 0.0
     return False
 
 
