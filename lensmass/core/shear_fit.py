@@ -106,9 +106,8 @@ def nfw_model_cells(m_delta_msun, concentration, cells: ModelCells, z_l: float, 
     density inside the halo boundary at z_l if already known (as ``nfw_halo`` computes it)."""
     m = np.asarray(m_delta_msun, float)[..., None]
     c = np.asarray(concentration, float)[..., None]
-    if rho_delta is None:
-        rho_delta = overdensity_density_msun_per_mpc3(z_l, cosmo, definition)
-    halo = _halo_of_density(m, c, rho_delta)
+    density = overdensity_density_msun_per_mpc3(z_l, cosmo, definition) if rho_delta is None else rho_delta
+    halo = _halo_of_density(m, c, density)
     radius_mpc = cells.theta_arcsec * ARCSEC_RAD * d_l_mpc
     sigma_cr_inf = sigma_crit_msun_per_mpc2(d_l_mpc, 1.0, 1.0)  # for D_ls / D_s = 1
     # gamma = (mean Sigma(<R) - Sigma(R)) / Sigma_cr and kappa = Sigma(R) / Sigma_cr from one

@@ -10,7 +10,8 @@ engine streams in one process. :class:`CatalogPartition` is one file's share, th
 that :mod:`lensmass.io.distributed` sends to a Dask worker.
 
 Parquet is read with ``pyarrow.parquet.ParquetFile.iter_batches(columns=...)`` (no pandas);
-FITS binary tables through a memory map, a slice of rows at a time; CSV and ECSV files are read
+FITS binary tables through a memory map, a slice of rows at a time (the columns found from the header alone,
+:mod:`lensmass.io.fits_layout`, where they are plain numbers); CSV and ECSV files are read
 whole (they are small by nature). Columns keep their stored types until the engine converts each
 cache-sized piece, so memory is bounded by the block size, not the number of galaxies.
 """
@@ -27,6 +28,7 @@ import numpy as np
 
 from lensmass.core.errors import LensInputError
 from lensmass.io.catalogs import catalog_format, parse_column_map, resolve_columns
+from lensmass.io.fits_layout import FitsTableLayout, fits_table_layout
 
 #: Rows per block read from a file (a block of 6 float64 columns is about 50 MB).
 BLOCK_ROWS = 1 << 20
@@ -43,6 +45,7 @@ class CatalogPartition:
     first_row: int
     columns: tuple[tuple[str, str], ...]  # (role, column name)
     flips: tuple[str, ...] = ()
+    fits_layout: FitsTableLayout | None = None  # where a FITS table's columns lie (read without astropy)
 
 
 def expand_catalog_paths(specs) -> list[Path]:
@@ -81,8 +84,9 @@ def expand_catalog_paths(specs) -> list[Path]:
     return unique
 
 
-def _file_columns_and_rows(path: Path, fmt: str) -> tuple[list[str], int]:
-    """Column names and row count from the file's metadata (the whole file only for CSV/ECSV)."""
+def _file_columns_and_rows(path: Path, fmt: str) -> tuple[list[str], int, FitsTableLayout | None]:
+    """Column names, row count and (FITS) the table's layout from the file's metadata (the whole file only
+    for CSV/ECSV)."""
     try:
         if fmt == "parquet":
             try:
@@ -90,7 +94,7 @@ def _file_columns_and_rows(path: Path, fmt: str) -> tuple[list[str], int]:
             except ImportError:
                 raise LensInputError("Reading Parquet needs pyarrow: pip install pyarrow, or convert to FITS.") from None
             meta = pq.ParquetFile(path)
-            return list(meta.schema_arrow.names), int(meta.metadata.num_rows)
+            return list(meta.schema_arrow.names), int(meta.metadata.num_rows), None
         if fmt == "fits":
             import warnings
 
@@ -98,15 +102,18 @@ def _file_columns_and_rows(path: Path, fmt: str) -> tuple[list[str], int]:
 
             if path.suffix.lower() != ".gz" and path.stat().st_size % 2880:  # FITS files come in 2880-byte records
                 raise ValueError("truncated")
+            layout = fits_table_layout(path)
+            if layout is not None:
+                return list(layout.names), layout.n_rows, layout
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
                 with fits.open(path, memmap=True) as hdul:
                     hdu = _table_hdu(hdul, path)
-                    return list(hdu.columns.names), int(hdu.header["NAXIS2"])
+                    return list(hdu.columns.names), int(hdu.header["NAXIS2"]), None
         from astropy.table import Table
 
         table = Table.read(path, format=fmt)
-        return list(table.colnames), len(table)
+        return list(table.colnames), len(table), None
     except LensInputError:
         raise
     except MemoryError:
@@ -152,7 +159,7 @@ class CatalogFiles:
         parts: list = []
         first = 0
         for path, fmt in zip(self.paths, formats):
-            names, n = _file_columns_and_rows(path, fmt)
+            names, n, layout = _file_columns_and_rows(path, fmt)
             if not parts:
                 self.columns = resolve_columns(names, mapping, need_z=need_z)
             missing = [name for name in self.columns.values() if name not in names]
@@ -160,7 +167,7 @@ class CatalogFiles:
                 raise LensInputError(f"'{path.name}' has no column {', '.join(repr(m) for m in missing)} that the "
                                      f"first file '{self.paths[0].name}' has: all files of a catalogue need the "
                                      "same columns.")
-            parts.append(CatalogPartition(str(path), fmt, n, first, tuple(self.columns.items()), self.flips))
+            parts.append(CatalogPartition(str(path), fmt, n, first, tuple(self.columns.items()), self.flips, layout))
             first += n
         self.partitions = parts
         self.n_rows = first
@@ -214,7 +221,7 @@ def read_partition(part: CatalogPartition, block_rows: int = BLOCK_ROWS) -> Iter
     names = list(dict.fromkeys(roles.values()))
     path = Path(part.path)
     first = part.first_row
-    for arrays in _column_blocks(path, part.fmt, names, block_rows):
+    for arrays in _column_blocks(path, part.fmt, names, block_rows, part.fits_layout):
         data = {role: _numeric(arrays[name], name, role, path) for role, name in roles.items()}
         e1, e2 = data["e1"], data["e2"]
         if "e1" in part.flips:
@@ -241,12 +248,13 @@ def _numeric(values, name: str, role: str, path: Path) -> np.ndarray:
     return arr
 
 
-def _column_blocks(path: Path, fmt: str, names: list[str], block_rows: int) -> Iterator[dict]:
+def _column_blocks(path: Path, fmt: str, names: list[str], block_rows: int,
+                   layout: FitsTableLayout | None = None) -> Iterator[dict]:
     try:
         if fmt == "parquet":
             yield from _parquet_blocks(path, names, block_rows)
         elif fmt == "fits":
-            yield from _fits_blocks(path, names, block_rows)
+            yield from _fits_blocks(path, names, block_rows, layout)
         else:
             from astropy.table import Table
 
@@ -274,7 +282,12 @@ def _parquet_blocks(path: Path, names: list[str], block_rows: int) -> Iterator[d
             yield out
 
 
-def _fits_blocks(path: Path, names: list[str], block_rows: int) -> Iterator[dict]:
+def _fits_blocks(path: Path, names: list[str], block_rows: int, layout: FitsTableLayout | None) -> Iterator[dict]:
+    columns = None if layout is None else layout.columns(path, names)
+    if columns is not None:  # memory-mapped views found from the header alone
+        for start in range(0, layout.n_rows, block_rows):
+            yield {name: col[start:start + block_rows] for name, col in columns.items()}
+        return
     from astropy.io import fits
 
     with fits.open(path, memmap=True) as hdul:
