@@ -106,8 +106,20 @@ def cosmology_label(cosmo) -> str:
     return f"{type(cosmo).__name__}(" + ", ".join(parts) + ")"
 
 
+_KEYS: dict[int, tuple[Any, str]] = {}
+
+
 def _cosmology_key(cosmo) -> str:
-    return repr(cosmo)
+    """``repr(cosmo)``, the key of the per-cosmology caches, remembered per object (astropy cosmologies are
+    immutable, and repr takes about 0.2 ms, several times a run)."""
+    hit = _KEYS.get(id(cosmo))
+    if hit is not None and hit[0] is cosmo:
+        return hit[1]
+    key = repr(cosmo)
+    if len(_KEYS) > 32:
+        _KEYS.clear()
+    _KEYS[id(cosmo)] = (cosmo, key)  # the object is kept, so its id is not reused while the entry lives
+    return key
 
 
 @dataclass(frozen=True)

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from lensmass.core.cosmology import angular_diameter_distances_mpc
+from lensmass.core.cosmology import _cosmology_key, angular_diameter_distances_mpc
 from lensmass.core.lensing import sigma_crit_msun_per_mpc2
 from lensmass.core.shear_geometry import _blockwise
 
@@ -96,7 +96,7 @@ _BETA_TABLES: dict[tuple[str, float], tuple[float, float, np.ndarray]] = {}
 
 def _beta_table(z_l: float, cosmo) -> tuple[float, float, np.ndarray]:
     """D_ls / D_s tabulated uniformly in u = ln(z - z_l + soft): (u0, step, values), cached."""
-    key = (repr(cosmo), float(z_l))
+    key = (_cosmology_key(cosmo), float(z_l))
     table = _BETA_TABLES.get(key)
     if table is None:
         u = np.linspace(np.log(_BETA_SOFT), np.log(_BETA_ZMAX - z_l + _BETA_SOFT), _BETA_GRID_NODES)

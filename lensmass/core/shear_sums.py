@@ -27,6 +27,7 @@ from typing import Any
 
 import numpy as np
 
+from lensmass.core.cosmology import _cosmology_key
 from lensmass.core.lensing import sigma_crit_msun_per_mpc2
 
 #: Sub-bins per radial bin (for the zeta integral and the model cells).
@@ -224,9 +225,8 @@ class _Context:
         self.fine_index = sp._fine_indexer(edges, RADIAL_SUBBINS)
         if layout.annulus_edges_arcsec is not None:
             ann = np.asarray(layout.annulus_edges_arcsec, float)
-            self.ann_lo, self.ann_hi = float(ann[0]), float(ann[-1])
+            self.ann_lo, self.ann_hi, self.n_ann = float(ann[0]), float(ann[-1]), ann.size - 1
             self.ann_index = sp._fine_indexer(ann, 1)
-            self.n_ann = ann.size - 1
         if layout.z_s is None:
             table = ss._beta_table(layout.z_l, layout.cosmo)
             self.beta_of = lambda z: ss._beta_from_table(z, layout.z_l, table, layout.cosmo)
@@ -240,8 +240,8 @@ _CONTEXTS: dict[tuple, _Context] = {}
 
 def _context(layout: SumLayout) -> _Context:
     """The layout's constants, cached by value of every field the kernel uses (found on a worker too)."""
-    key = (layout.center_ra, layout.center_dec, layout.z_l, repr(layout.cosmo), layout.edges_arcsec, layout.z_s,
-           layout.annulus_edges_arcsec, layout.z_margin, layout.bootstrap, layout.seed)  # the kernel's constants use all
+    key = (layout.center_ra, layout.center_dec, layout.z_l, _cosmology_key(layout.cosmo), layout.edges_arcsec,
+           layout.z_s, layout.annulus_edges_arcsec, layout.z_margin, layout.bootstrap, layout.seed)  # all: the kernel
     ctx = _CONTEXTS.get(key)
     if ctx is None:
         if len(_CONTEXTS) > 8:
