@@ -2,7 +2,8 @@
 
 Rows go in chunks of :data:`CHUNK_ROWS`: the element-wise steps (loading and byte-swapping, projection,
 rotation, logs, D_ls / D_s, selection and cells) run as loops without branches or calls over a chunk held in
-the CPU cache, which LLVM turns into SIMD code, then one loop adds the rows in the bins; the numpy route
+the CPU cache, which LLVM turns into SIMD code (the steps after the selection on the rows in the bins only),
+then one loop adds the rows in the bins; the numpy route
 makes about a hundred passes over a piece of rows instead. A block's parts of :data:`PART_ROWS` rows are
 summed on threads (:data:`KERNEL_THREADS`). The formulas, their order and the cell layout are those of the numpy route
 (:func:`lensmass.core.shear_sums._add_piece`), which stays the reference: the two give the same
@@ -245,16 +246,12 @@ def _rotate_chunk(m, xs, ys, e1, e2, ets, exs):
 
 @numba.njit(**_JIT)
 def _beta_chunk(m, z, z_l, sel, table, bs, work):
-    """D_ls / D_s of ``m`` rows from the log-spaced table (:func:`lensmass.core.shear_sources._beta_from_table`);
-    True if a redshift lies past the table's end (the block then takes the numpy route)."""
-    u0, step, soft, n_table, z_max = sel[4], sel[5], sel[6], table.size, sel[9]
-    far = False
+    """D_ls / D_s of ``m`` rows from the log-spaced table (:func:`lensmass.core.shear_sources._beta_from_table`),
+    for redshifts up to the table's end (see :func:`_usable_chunk`)."""
+    u0, step, soft, n_table = sel[4], sel[5], sel[6], table.size
     for j in range(m):
         bs[j] = max(z[j] - z_l, 0.0) + soft
-        far |= z[j] > z_max
     log_chunk(m, bs, work)
-    if far:
-        return True
     idx = work.view(np.int64)
     for j in range(m):  # the node and the fraction (SIMD), then the table look-ups (not), then the selection (SIMD)
         tt = (bs[j] - u0) * (1.0 / step)
@@ -268,7 +265,6 @@ def _beta_chunk(m, z, z_l, sel, table, bs, work):
         bs[j] = v0 + bs[j] * (table[i + 1] - v0)
     for j in range(m):
         bs[j] = bs[j] if z[j] > z_l else 0.0
-    return False
 
 
 @numba.njit(**_JIT)
@@ -319,13 +315,15 @@ def _load_rows(ra, dec, e1, e2, w, z, has_w, has_z, start, m, buf):
 
 
 @numba.njit(**_JIT)
-def _usable_chunk(m, g1s, g2s, ws, zs, ts, has_w, has_z, z_min, ok, counts):
+def _usable_chunk(m, g1s, g2s, ws, zs, ts, has_w, has_z, z_min, z_max, ok, counts):
     """``ok[j]`` = 1 for the usable rows of ``m``, else 0, and ``counts`` += [non_finite, e_ge_1, w_not_positive,
     z_not_behind, usable] (each dropped row under the first reason of
     :data:`lensmass.core.shear_sources.DROP_REASONS` that applies, as
     :func:`lensmass.core.shear_sources.select_sources` with the position's theta among the finite checks).
-    Without branches: LLVM makes the loop SIMD (x - x == 0 is ``isfinite``)."""
+    Returns True if a redshift lies past ``z_max``, the D_ls / D_s table's end (the block then takes the numpy
+    route, which computes those exactly). Without branches: LLVM makes the loop SIMD (x - x == 0 is ``isfinite``)."""
     c0 = c1 = c2 = c3 = c4 = 0
+    far = False
     for j in range(m):
         g1 = g1s[j]
         g2 = g2s[j]
@@ -346,29 +344,44 @@ def _usable_chunk(m, g1s, g2s, ws, zs, ts, has_w, has_z, z_min, ok, counts):
         c3 += r3
         c4 += good
         ok[j] = np.int32(good)
+        far |= zr > z_max
     counts[0] += c0
     counts[1] += c1
     counts[2] += c2
     counts[3] += c3
     counts[4] += c4
+    return far
 
 
 @numba.njit(**_JIT)
-def _select_chunk(m, g1s, g2s, ws, zs, ts, us, aus, bs, has_w, has_z, z_min, beta_one, bins, ann_bins, cell, ann_cell,
-                  picked, counts):
-    """The usable rows of ``m`` (:func:`_usable_chunk`) to cells: ``cell[j]`` = sub-bin x 8 + beta cell (-1: not in
-    the bins or not usable), ``ann_cell[j]`` the annulus bin (-1: none), the rows with either listed in
-    ``picked`` (returns how many); ``counts`` as ``tally[:7]`` of :func:`rows_to_cells`. The sub-bin is floor(u)
-    clamped to the sub-bins, as :func:`lensmass.core.shear_profile._fine_indexer`; the beta cell
+def _near_chunk(m, ts, ok, bins, ann_bins, near, picked):
+    """List in ``picked`` the usable rows (``ok``) of ``m`` inside the bins or the annulus; returns how many.
+    ``near`` is scratch: the test runs as SIMD, the packing (a loop LLVM does not vectorise) apart."""
+    lo, hi, a_lo, a_hi = bins[0], bins[1], ann_bins[0], ann_bins[1]
+    has_ann = ann_bins[4] > 0
+    for j in range(m):
+        theta = ts[j]
+        near[j] = np.int32((ok[j] > 0) & (((theta >= lo) & (theta < hi)) | (has_ann & (theta >= a_lo) & (theta < a_hi))))
+    n = 0
+    for j in range(m):
+        picked[n] = j
+        n += near[j]
+    return n
+
+
+@numba.njit(**_JIT)
+def _cell_chunk(m, ts, us, aus, bs, ok, has_z, beta_one, bins, ann_bins, cell, ann_cell):
+    """Each of ``m`` rows to its cell, ``cell[j]`` = sub-bin x 8 + beta cell (-1: not in the bins or not usable,
+    ``ok``), and annulus bin, ``ann_cell[j]`` (-1: none); returns how many are in the bins. The sub-bin is
+    floor(u) clamped to the sub-bins, as :func:`lensmass.core.shear_profile._fine_indexer`; the beta cell
     min(int(8 beta), 7), as :func:`lensmass.core.shear_sums._add_piece`. Float to int32 conversions (AVX2 has no
-    vector instruction to int64) keep these loops SIMD; the packing of ``picked`` runs on its own."""
+    vector instruction to int64) keep the loops SIMD."""
     lo, hi, top = bins[0], bins[1], bins[4] - 1.0
     a_lo, a_hi, a_top = ann_bins[0], ann_bins[1], ann_bins[4] - 1.0
-    _usable_chunk(m, g1s, g2s, ws, zs, ts, has_w, has_z, z_min, ann_cell, counts)  # ann_cell holds ok for now
     n_in = 0
     for j in range(m):
         theta = ts[j]
-        inside = (ann_cell[j] > 0) & (theta >= lo) & (theta < hi)
+        inside = (ok[j] > 0) & (theta >= lo) & (theta < hi)
         k = min(max(math.floor(us[j]), 0.0), top)
         b = beta_one
         if has_z:
@@ -379,18 +392,24 @@ def _select_chunk(m, g1s, g2s, ws, zs, ts, us, aus, bs, has_w, has_z, z_min, bet
     if ann_bins[4] > 0:
         for j in range(m):
             theta = ts[j]
-            in_ann = (ann_cell[j] > 0) & (theta >= a_lo) & (theta < a_hi)
+            in_ann = (ok[j] > 0) & (theta >= a_lo) & (theta < a_hi)
             ka = min(max(math.floor(aus[j]), 0.0), a_top)
             ann_cell[j] = np.int32(ka) if in_ann else np.int32(-1)
     else:
         ann_cell[:m] = -1
-    n = 0
-    for j in range(m):
-        picked[n] = j
-        n += (cell[j] >= 0) | (ann_cell[j] >= 0)
-    counts[5] += n_in
-    counts[6] += n
-    return n
+    return n_in
+
+
+@numba.njit(**_JIT)
+def _compact(n, picked, buf, rows, ok):
+    """Rows ``picked[:n]`` (increasing) of the buffers ``buf[rows]`` and of ``ok`` moved to their first ``n``
+    places, in place (row picked[i] >= i is read before anything overwrites it)."""
+    for r in rows:
+        col = buf[r]
+        for i in range(n):
+            col[i] = col[picked[i]]
+    for i in range(n):
+        ok[i] = ok[picked[i]]
 
 
 @numba.njit(**_JIT)
@@ -406,9 +425,10 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
     (n_fine = 0: none); ``tally`` = [non_finite, e_ge_1, w_not_positive, z_not_behind, usable, in_bins, near,
     beyond] (beyond: a redshift past the D_ls / D_s table's end, ``sel[9]``; the work stops, nothing is valid).
 
-    Rows go in chunks of :data:`CHUNK_ROWS`: the element-wise work (loading, projection, rotation, logs,
-    selection and cells) runs over the chunk in loops without branches, then one loop adds the rows listed
-    in the bins, in row order.
+    Rows go in chunks of :data:`CHUNK_ROWS`: loading, projection and selection run over the chunk in loops
+    without branches; the rows in the bins (or the annulus) are listed, and moved to the front of the buffers
+    when they are fewer than 3/4 of the chunk; the rest of the element-wise work (rotation, logs, D_ls / D_s,
+    cells) runs on those rows only, and one loop adds them in row order.
     """
     z_l, z_min, beta_one, inv_k = sel[0], sel[1], sel[2], sel[3]
     use_boot, n_bins = sel[7] > 0, int(sel[8])
@@ -421,23 +441,35 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
                                                                         buf[10], buf[11], buf[12], buf[13])
     bs = cdec  # D_ls / D_s, once Dec is no longer needed
     counts = np.zeros(7, np.int64)  # as tally[:7]
-    index = np.empty((3, CHUNK_ROWS), np.int32)
-    cell, ann_cell, picked = index[0], index[1], index[2]
+    index = np.empty((4, CHUNK_ROWS), np.int32)
+    cell, ann_cell, picked, ok = index[0], index[1], index[2], index[3]
+    moved = np.array([2, 3, 4, 5, 6, 7, 8])  # e1, e2, w, z, x, y, theta
     for start in range(0, ra.size, CHUNK_ROWS):
         m = min(CHUNK_ROWS, ra.size - start)
         _load_rows(ra, dec, e1, e2, w, z, has_w, has_z, start, m, buf)
         _project_chunk(cra, cdec, m, geo, xs, ys, ts)
-        _bin_coordinate(m, ts, bins, us, work)
-        if n_ann > 0:
-            _bin_coordinate(m, ts, ann_bins, aus, work)
-        _rotate_chunk(m, xs, ys, g1s, g2s, ets, exs)
-        if has_z and _beta_chunk(m, zs, z_l, sel, table, bs, work):
+        if _usable_chunk(m, g1s, g2s, ws, zs, ts, has_w, has_z, z_min, sel[9], ok, counts):
             tally[7] += 1
             return 0
-        n_pick = _select_chunk(m, g1s, g2s, ws, zs, ts, us, aus, bs, has_w, has_z, z_min, beta_one, bins, ann_bins,
-                               cell, ann_cell, picked, counts)
-        for i in range(n_pick):
-            j = picked[i]
+        n_near = _near_chunk(m, ts, ok, bins, ann_bins, cell, picked)
+        counts[6] += n_near
+        if n_near == 0:
+            continue
+        # the rest of the work only for the rows in the bins or the annulus, moved together when they are few
+        # (the move costs less than the work it saves below about 3/4 of the rows)
+        compact = 4 * n_near < 3 * m
+        if compact:
+            _compact(n_near, picked, buf, moved, ok)
+        rows = n_near if compact else m
+        _bin_coordinate(rows, ts, bins, us, work)
+        if n_ann > 0:
+            _bin_coordinate(rows, ts, ann_bins, aus, work)
+        _rotate_chunk(rows, xs, ys, g1s, g2s, ets, exs)
+        if has_z:
+            _beta_chunk(rows, zs, z_l, sel, table, bs, work)
+        counts[5] += _cell_chunk(rows, ts, us, aus, bs, ok, has_z, beta_one, bins, ann_bins, cell, ann_cell)
+        for i in range(n_near):
+            j = i if compact else picked[i]
             theta = ts[j]
             wr = ws[j] if has_w else 1.0
             e_t = ets[j]
@@ -456,8 +488,8 @@ def rows_to_cells(ra, dec, e1, e2, w, z, has_w, has_z, geo, sel, bins, ann_bins,
             c = cell[j]
             if c >= 0:
                 _add_row(cells, c, wr, theta, st, sx, w2, ee, wb, beta, dd, dt, dx, a)
-                if use_boot:
-                    key = _boot_key(np.uint64(first_row + start + j), seed_mix, n_groups, n_bins, c // 8)
+                if use_boot:  # c // 8 is the sub-bin (beta >= 0)
+                    key = _boot_key(np.uint64(first_row + start + picked[i]), seed_mix, n_groups, n_bins, c // 8)
                     boot[key, 0] += wr
                     boot[key, 1] += st
                     boot[key, 2] += sx
@@ -480,7 +512,7 @@ def rows_farthest(ra, dec, e1, e2, w, z, has_w, has_z, geo, z_min, tally):
         m = min(CHUNK_ROWS, ra.size - start)
         _load_rows(ra, dec, e1, e2, w, z, has_w, has_z, start, m, buf)
         _project_chunk(buf[0], buf[1], m, geo, buf[6], buf[7], buf[8])
-        _usable_chunk(m, buf[2], buf[3], buf[4], buf[5], buf[8], has_w, has_z, z_min, ok, counts)
+        _usable_chunk(m, buf[2], buf[3], buf[4], buf[5], buf[8], has_w, has_z, z_min, np.inf, ok, counts)
         for j in range(m):
             theta = buf[8, j]
             if ok[j] and theta > far:

@@ -49,9 +49,11 @@ def _close(a, b, scale_from):
     return np.max(np.abs(a - b)) <= 1e-12 * np.abs(scale_from).sum() + 1e-300
 
 
-@pytest.mark.parametrize("z_s, annulus, log_bins", [(None, False, True), (1.2, True, True), (None, True, False)])
-def test_kernel_sums_equal_the_numpy_sums(z_s, annulus, log_bins):
-    edges = radial_bin_edges(60.0, 3600.0, 10, log=log_bins)
+@pytest.mark.parametrize("z_s, annulus, log_bins, r_max", [
+    (None, False, True, 3600.0), (1.2, True, True, 3600.0), (None, True, False, 3600.0),
+    (None, True, True, 1500.0), (None, False, False, 900.0)])  # most rows in the bins / few (rows moved first)
+def test_kernel_sums_equal_the_numpy_sums(z_s, annulus, log_bins, r_max):
+    edges = radial_bin_edges(60.0, r_max, 10, log=log_bins)
     ann = tuple(radial_bin_edges(500.0, 3000.0, 16, log=True)) if annulus else None
     layout = S.SumLayout(RA0, DEC0, ZL, resolve_cosmology("Planck18"), tuple(edges), z_s=z_s,
                          annulus_edges_arcsec=ann, bootstrap=True, seed=7)
