@@ -8,8 +8,11 @@ zeta, output) <= 4x the read floor (issue 5) and <= 2x (issue 17); the Kaiser-Sq
 under 1 s. Wall and CPU time are both printed (best and median of interleaved repeats): the engine sums
 parts of a block on threads (lensmass.core.shear_kernel.KERNEL_THREADS, default the CPUs this process may
 use), so on an idle machine wall < CPU, and on a loaded one (check the load average printed) CPU time is
-the steadier figure. ``--threads 1`` gives the one-thread figures.
-Run: /work/venv/bin/python benchmarks/bench_shear.py [N_GALAXIES] [--repeat 7] [--threads N]
+the steadier figure. ``--threads 1`` gives the one-thread figures. The timed runs follow a warm-up run, so
+numba's compilation of the engine is not in them; the first run in a fresh process (imports, the compiled
+engine loaded from numba's disk cache) and with an empty cache (compiling it, once per installation) are
+printed apart.
+Run: /work/venv/bin/python benchmarks/bench_shear.py [N_GALAXIES] [--repeat 7] [--threads N] [--no-first]
 """
 
 from __future__ import annotations
@@ -56,11 +59,34 @@ def _stage_times(path, ra0, dec0, cosmo, repeat):
     return best
 
 
+def _first_runs(path, args: list[str]) -> list[tuple[str, float, float]]:
+    """Wall and CPU seconds of ``lensmass shear`` in a fresh process, with numba's disk cache and with an empty
+    one (NUMBA_CACHE_DIR pointing at a new folder)."""
+    import os
+    import resource
+    import subprocess
+
+    root = str(Path(__file__).resolve().parents[1])
+    code = f"import sys; sys.path.insert(0, {root!r}); from lensmass.cli import main; sys.exit(main({args!r}))"
+    out = []
+    with tempfile.TemporaryDirectory() as cache:
+        for label, env in (("numba's disk cache", {}), ("an empty cache (compiling)", {"NUMBA_CACHE_DIR": cache})):
+            before = resource.getrusage(resource.RUSAGE_CHILDREN)
+            t0 = time.perf_counter()
+            subprocess.run([sys.executable, "-c", code], check=True, stdout=subprocess.DEVNULL,
+                           env={**os.environ, **env})
+            after = resource.getrusage(resource.RUSAGE_CHILDREN)
+            cpu = after.ru_utime + after.ru_stime - before.ru_utime - before.ru_stime
+            out.append((label, time.perf_counter() - t0, cpu))
+    return out
+
+
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("n", nargs="?", type=int, default=2_000_000, help="galaxies (default 2e6)")
     parser.add_argument("--repeat", type=int, default=7)
     parser.add_argument("--threads", type=int, default=None, help="threads of the engine (default: the CPUs)")
+    parser.add_argument("--no-first", action="store_true", help="skip the first runs in fresh processes")
     args = parser.parse_args(argv)
     import os
 
@@ -90,13 +116,15 @@ def main(argv=None) -> int:
             t = Table.read(path)
             return sum(float(np.asarray(t[c]).sum()) for c in t.colnames)
 
+        command = ["shear", str(path), "--zl", "0.35", "--center-sky", f"{ra0},{dec0}", "--rmin", "1", "--rmax", "25",
+                   "--bootstrap", "0", "--json"]
+
         def full_run():
             import contextlib
             import io
 
             with contextlib.redirect_stdout(io.StringIO()):
-                code = cli_main(["shear", str(path), "--zl", "0.35", "--center-sky", f"{ra0},{dec0}",
-                                 "--rmin", "1", "--rmax", "25", "--bootstrap", "0", "--json"])
+                code = cli_main(command)
             assert code == 0
 
         baseline()  # warm file cache and imports
@@ -108,6 +136,7 @@ def main(argv=None) -> int:
             base.append(_best_of(baseline, 1)[:2])
             full.append(_best_of(full_run, 1)[:2])
         stages = _stage_times(path, ra0, dec0, cosmo, args.repeat)
+        first = [] if args.no_first else _first_runs(path, command)
     (w_base, c_base), (w_full, c_full) = np.min(base, axis=0), np.min(full, axis=0)
     (mw_base, mc_base), (mw_full, mc_full) = np.median(base, axis=0), np.median(full, axis=0)
 
@@ -121,6 +150,8 @@ def main(argv=None) -> int:
           f"{mw_full / mw_base:.2f}, cpu {mc_full / mc_base:.2f} (targets <= 4, issue 5; <= 2, issue 17)")
     print("  stages (best CPU ms; in units of the floor's CPU): "
           + ", ".join(f"{name} {t * 1e3:.0f} ({t / c_base:.2f})" for name, t in stages.items()))
+    for label, wall, cpu in first:
+        print(f"  first run in a fresh process (imports included), with {label}: wall {wall:.2f} s, cpu {cpu:.2f} s")
 
     x, y = sim["x_arcsec"], sim["y_arcsec"]
     e1, e2 = sim["e1"], sim["e2"]
