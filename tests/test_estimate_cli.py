@@ -56,3 +56,17 @@ def test_bad_input_is_one_line_without_traceback(args, fragment):
     assert fragment in p.stderr
     assert "Traceback" not in p.stderr
     assert len(p.stderr.strip().splitlines()) == 1
+
+
+def test_help_lists_every_command_and_a_command_builds_only_its_own_parser(capsys):
+    # common practice (argparse): the top-level help and a mistyped command list all subcommands; a known
+    # command parses with only its own subparser built (lensmass.cli.build_parser)
+    from lensmass.cli import SUBCOMMANDS, main
+
+    assert main(["--help"]) == 0
+    out = capsys.readouterr().out
+    assert all(name in out for name in SUBCOMMANDS)
+    assert main(["estimat"]) == 2
+    err = capsys.readouterr().err
+    assert "invalid choice: 'estimat'" in err and all(repr(name) in err for name in SUBCOMMANDS)
+    assert main(["estimate", "--help"]) == 0 and "--theta-e" in capsys.readouterr().out

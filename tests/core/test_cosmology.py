@@ -75,3 +75,16 @@ def test_bad_cosmology_gives_one_sentence(kwargs, fragment):
     spec = kwargs.pop("spec", None)
     with pytest.raises(LensInputError, match=fragment):
         resolve_cosmology(spec, **kwargs)
+
+
+def test_cache_key_is_the_repr_of_each_cosmology_object():
+    # the per-cosmology caches key on repr(cosmo), remembered per object: a new object with other
+    # parameters gets its own key, an equal one the same (astropy cosmologies are immutable)
+    from astropy.cosmology import FlatLambdaCDM
+
+    from lensmass.core.cosmology import _cosmology_key
+
+    a, b, c = FlatLambdaCDM(70, 0.3), FlatLambdaCDM(70, 0.3), FlatLambdaCDM(67, 0.3)
+    assert _cosmology_key(a) == repr(a) == _cosmology_key(b)
+    assert _cosmology_key(c) == repr(c) != _cosmology_key(a)
+    assert _cosmology_key(a) is _cosmology_key(a)  # remembered, not formatted again
