@@ -218,3 +218,21 @@ def test_shear_fit_outside_the_concentration_calibration_is_noted(capsys, small_
                               center_dec=DEC0, n_bootstrap=0)
     assert r["detected"]  # the halo is seen; its mass then rests on an extrapolated c(M)
     assert any("Duffy et al. (2008)" in n and "extrapolated" in n for n in r["notes"])
+
+
+@pytest.mark.parametrize("n_rows", [4000, 150_000])  # the exact-distance route and the tabulated (streamed) one
+def test_sentinel_redshift_is_one_sentence_not_an_internal_error(capsys, tmp_path, n_rows):
+    # Catalogues mark failed photometric redshifts with huge values (1e30 and the like; common practice);
+    # nothing is seen behind the last-scattering surface at z ~ 1100 (common practice), so such rows stop the
+    # run with the fix named instead of D_ls / D_s = -1e24 (an internal error before).
+    rng = np.random.default_rng(5)
+    z = rng.uniform(0.6, 1.5, n_rows)
+    z[[10, 20, 30]] = 1e30
+    path = tmp_path / "sentinel.fits"
+    Table({"RA": RA0 + rng.uniform(-0.1, 0.1, n_rows), "DEC": DEC0 + rng.uniform(-0.1, 0.1, n_rows),
+           "E1": rng.normal(0, 0.2, n_rows), "E2": rng.normal(0, 0.2, n_rows), "ZP": z}).write(path)
+    code, out, err = _run(capsys, path, "--zl", ZL, "--center-sky", f"{RA0},{DEC0}",
+                          "--columns", "ra=RA,dec=DEC,e1=E1,e2=E2,z=ZP", "--json")
+    assert code == 2 and out == ""
+    assert "behind the cosmic microwave background" in err and "set them to NaN" in err
+    assert "internal error" not in err and "Traceback" not in err

@@ -75,6 +75,7 @@ def lensing_efficiency(z_l: float, z_s, cosmo) -> tuple[np.ndarray, np.ndarray, 
     z_s = np.asarray(z_s, float)
     d_l = lens_distance_mpc(z_l, cosmo)
     if z_s.size <= _BETA_GRID_NODES:
+        _check_source_redshifts(z_s)
         _, d_s, d_ls = angular_diameter_distances_mpc(z_l, z_s, cosmo)
         with np.errstate(divide="ignore", invalid="ignore"):
             beta = np.where(z_s > z_l, d_ls / d_s, 0.0)
@@ -86,6 +87,23 @@ def lensing_efficiency(z_l: float, z_s, cosmo) -> tuple[np.ndarray, np.ndarray, 
             return (sigma_crit_msun_per_mpc2(d_l, 1.0, b),)  # D_s / D_ls = 1 / beta
 
     return beta, _blockwise(sigma_cr_of, beta)[0], d_l
+
+
+#: No source lies behind the last-scattering surface (z ~ 1100; common practice): a larger redshift is a
+#: missing-value marker (1e30 and the like), and the distances there are meaningless.
+Z_SOURCE_CEILING = 1100.0
+
+
+def _check_source_redshifts(z: np.ndarray) -> None:
+    """Stop with one sentence when a source redshift lies behind the last-scattering surface."""
+    from lensmass.core.errors import LensInputError
+
+    bad = z > Z_SOURCE_CEILING
+    if np.any(bad):
+        raise LensInputError(f"Source redshifts in the catalogue's redshift column lie above {Z_SOURCE_CEILING:g}, "
+                             "behind the cosmic microwave background (the largest is "
+                             f"{float(np.max(z[bad])):.3g}): they look like missing-value markers; set them to NaN "
+                             "(such rows are dropped and counted as non-finite) or remove those rows.")
 
 
 _BETA_GRID_NODES = 100_000
@@ -127,6 +145,7 @@ def _beta_from_table(z: np.ndarray, z_l: float, table, cosmo) -> np.ndarray:
     beta[~(z > z_l)] = 0.0
     far = z > _BETA_ZMAX
     if np.any(far):
+        _check_source_redshifts(z[far])
         _, d_s, d_ls = angular_diameter_distances_mpc(z_l, z[far], cosmo)
         beta[far] = d_ls / d_s
     return beta
