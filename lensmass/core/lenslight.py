@@ -27,7 +27,7 @@ from scipy.optimize import least_squares
 from threadpoolctl import threadpool_limits
 
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
-from lensmass.core.sersic import sersic_b, sersic_intensity_at_re, sersic_surface_brightness
+from lensmass.core.sersic import sersic_b, sersic_intensity_at_re
 from lensmass.core.sky_level import robust_sigma
 
 #: The fitted cut-out is binned so that its side has at most this many (binned) pixels.
@@ -65,6 +65,8 @@ ANGLE_RANGE_DEG = np.inf
 #: Largest PSF sigma (pixels) the fit may take: the issue's range of seeing, 0.1-1.0" FWHM on 0.05-0.26" pixels,
 #: reaches 20 pixels FWHM (sigma 8.5); the bound was 6 pixels, which a 16-pixel seeing then hit.
 PSF_SIGMA_MAX_PIX = 12.0
+#: Smallest PSF sigma (pixels) the fit may take.
+PSF_SIGMA_MIN_PIX = 0.2
 #: Range of the Sersic index the fit may take.
 SERSIC_N_BOUNDS = (0.4, 8.0)
 #: Scale (in sigma) where the soft-L1 cost turns from quadratic to linear.
@@ -119,6 +121,7 @@ def fit_lens_light(
     *,
     fit_radius_pix: float | None = None,
     mask: np.ndarray | None = None,
+    initial: LensLightModel | None = None,
     progress: ProgressCallback = None,
     should_stop: StopCallback = None,
 ) -> LensLightModel:
@@ -135,6 +138,8 @@ def fit_lens_light(
         to the noise (between 8 and MAX_AUTO_FIT_RADIUS_PIX pixels).
     mask : bool array, optional
         True for pixels to leave out (e.g. marked arcs or neighbours).
+    initial : LensLightModel, optional
+        An earlier fit of the same galaxy to start from (default: a start from the light's moments).
     progress, should_stop : callables, optional
         Progress fraction 0..1 and cancellation (raises ``OperationCancelled``).
 
@@ -220,9 +225,14 @@ def fit_lens_light(
     start = np.array([0.0, 0.0, 0.0, 0.0, ang0, cx0, cy0, 0.0, 0.0])
     p0 = np.array([np.log(max(flux0, 1e-9)), np.log(re0), 3.0, q0, 0.0, 0.0, 0.0, 0.0, np.log(1.5)])
     lo = np.array([-np.inf, np.log(0.3), n_lo, 0.15, -ANGLE_RANGE_DEG, -CENTER_RANGE_PIX, -CENTER_RANGE_PIX, -np.inf,
-                   np.log(0.2)])
+                   np.log(PSF_SIGMA_MIN_PIX)])
     hi = np.array([np.inf, np.log(3 * rf), n_hi, 1.0, ANGLE_RANGE_DEG, CENTER_RANGE_PIX, CENTER_RANGE_PIX, np.inf,
                    np.log(PSF_SIGMA_MAX_PIX)])
+    if initial is not None and initial.ok:  # an earlier fit's answer (the ring finder's refit with the ring masked)
+        start[4] = initial.angle_deg
+        p0 = np.array([np.log(initial.total_flux), np.log(initial.r_eff_pix), initial.sersic_n, initial.axis_ratio, 0.0,
+                       initial.center_x - cx0, initial.center_y - cy0, initial.sky,
+                       np.log(initial.psf_fwhm_pix / (2 * np.sqrt(2 * np.log(2))))])
     p0 = np.clip(p0, lo + 1e-9, hi - 1e-9)
     calls = [0]
     weight = np.ones(vs.size)

@@ -511,7 +511,8 @@ def _finish(out: RingResult, masks, given: bool, colour: bool, compressed: bool 
 
 
 def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop) -> RingResult:
-    """Fit and subtract the lens light, search; refit with the ring masked and search again."""
+    """Fit and subtract the lens light, search; refit with the ring masked (starting from the first fit's
+    answer) and search again."""
     light = fit_lens_light(img, cx, cy, progress=lambda f: report(progress, 0.3 * f), should_stop=should_stop)
     if light.ok:
         cx, cy = light.center_x, light.center_y
@@ -526,7 +527,7 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop) 
     lo_r = first.radius_pix * np.sqrt(q_ring) - half
     hi_r = first.radius_pix / np.sqrt(q_ring) + half
     mask = _annulus_mask(img.shape, first.center_x, first.center_y, lo_r, hi_r)
-    light2 = fit_lens_light(img, cx, cy, mask=mask, fit_radius_pix=light.fit_radius_pix,
+    light2 = fit_lens_light(img, cx, cy, mask=mask, fit_radius_pix=light.fit_radius_pix, initial=light,
                             progress=lambda f: report(progress, 0.45 + 0.3 * f), should_stop=should_stop)
     if not light2.ok:
         report(progress, 1.0)
