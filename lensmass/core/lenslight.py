@@ -20,6 +20,7 @@ Triggs et al. (2000) / scipy ``least_squares`` documentation (robust soft-L1 los
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from scipy.ndimage import correlate1d
@@ -281,14 +282,13 @@ def fit_lens_light(
 
 
 class _Recent:
-    """``fn(q)`` remembered for the last :attr:`KEEP` parameter vectors ``q`` (exact matches only)."""
+    """``fn(q)`` remembered for the last ``keep`` parameter vectors ``q`` (exact matches only)."""
 
-    KEEP = 4
+    def __init__(self, fn, keep: int = 4):
+        self.fn, self.keep = fn, keep
+        self.seen: dict[bytes, Any] = {}
 
-    def __init__(self, fn, keep: int = KEEP):
-        self.fn, self.seen, self.keep = fn, {}, keep
-
-    def __call__(self, q: np.ndarray) -> np.ndarray:
+    def __call__(self, q: np.ndarray) -> Any:
         key = q.tobytes()
         if key not in self.seen:
             if len(self.seen) >= self.keep:
