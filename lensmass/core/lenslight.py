@@ -52,6 +52,8 @@ MAX_NFEV = 50
 FTOL = 1e-5
 #: A step stops at this fraction of the way to a bound it would cross.
 BOUND_STEP = 0.995
+#: A parameter this close to a bound (relative) is on it.
+BOUND_TOL = 1e-8
 #: Starting Levenberg-Marquardt damping (relative to the scaled diagonal of J^T W J): smaller first steps
 #: jumped across a galaxy's angle and stuck at q = 1.
 INITIAL_DAMPING = 0.1
@@ -379,7 +381,9 @@ def _soft_l1_levenberg_marquardt(fun, jac, x0, lo, hi, state: _LMState) -> _LMSo
         hess, grad = jmat.T @ jw, jw.T @ f
         diag = np.diag(hess)
         state.scale = np.maximum(diag, state.scale) if state.scale is not None else np.maximum(diag, 1e-12 * diag.max())
-        free = ~(((x <= lo) & (grad > 0)) | ((x >= hi) & (grad < 0)))
+        at_lo = np.isfinite(lo) & (x - lo <= BOUND_TOL * np.maximum(1.0, np.abs(lo)))
+        at_hi = np.isfinite(hi) & (hi - x <= BOUND_TOL * np.maximum(1.0, np.abs(hi)))
+        free = ~((at_lo & (grad > 0)) | (at_hi & (grad < 0)))
         h_free = hess[np.ix_(free, free)]
         if njev > 1 and _newton_decrement(h_free, grad[free], state.scale[free]) < FTOL * cost:
             status = 2
