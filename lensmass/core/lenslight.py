@@ -256,12 +256,12 @@ def fit_lens_light(
             report(progress, min(0.85, 0.85 * calls[0] / 600))
         with np.errstate(over="ignore", invalid="ignore"):
             res = (model_sel(p + start) - vs) / noise_bin
-        return np.nan_to_num(weight * res, nan=1e6, posinf=1e6, neginf=-1e6)
+        return _finite(weight * res, 1e6)
 
     def jacobian(p):
         with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
             jac = jac_sel(p + start)
-        return np.nan_to_num(jac * (weight / noise_bin)[:, None], nan=0.0, posinf=0.0, neginf=0.0)
+        return _finite(jac * (weight / noise_bin)[:, None], 0.0)
 
     with threadpool_limits(1):  # 9-column products: BLAS threads only contend (up to 10x slower on 2 busy cores)
         sol, p = _robust_rounds(residuals, jacobian, p0, lo, hi, start, model_sel, vs, noise_bin, weight)
@@ -281,6 +281,11 @@ def fit_lens_light(
         axis_ratio=float(p[3]), angle_deg=float(p[4] % 180.0), sky=float(p[7]), noise_sigma=noise,
         fit_radius_pix=rf, psf_fwhm_pix=float(2 * np.sqrt(2 * np.log(2)) * np.exp(p[8])), ok=True, notes=notes,
     )
+
+
+def _finite(a: np.ndarray, fill: float) -> np.ndarray:
+    """``a`` with NaN and infinities replaced by +-``fill`` (the check alone when all are finite, the usual case)."""
+    return a if np.isfinite(a).all() else np.nan_to_num(a, nan=fill, posinf=fill, neginf=-fill)
 
 
 class _Recent:
