@@ -23,40 +23,28 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from scipy.ndimage import correlate1d
 from scipy.optimize import least_squares
 from threadpoolctl import threadpool_limits
 
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
+from lensmass.core.robust_lm import FTOL, INITIAL_DAMPING, LMState, soft_l1_levenberg_marquardt
 from lensmass.core.sersic import sersic_b, sersic_intensity_at_re
+from lensmass.core.sersic_pixels import (
+    blurred_sersic,
+    blurred_sersic_jacobian,
+    blurred_sersic_on_grid,
+    core_pixels,
+    grid_and_core_terms,
+)
 from lensmass.core.sky_level import robust_sigma
 
 #: The fitted cut-out is binned so that its side has at most this many (binned) pixels.
 MAX_FIT_SIDE = 124
 #: Largest automatic fit radius (pixels): the cut-out then stays unbinned, keeping the core sharp.
 MAX_AUTO_FIT_RADIUS_PIX = 80
-#: The Gaussian PSF kernel reaches this many sigma (as scipy's ``gaussian_filter`` ``truncate``).
-PSF_TRUNCATE = 3.5
-#: Pixels within this many (fitted-grid) pixels of the model centre are integrated over their area
-#: with CORE_SUBSAMPLE x CORE_SUBSAMPLE points (a Sersic cusp is far from linear across them).
-CORE_RADIUS_PIX = 2.5
-CORE_SUBSAMPLE = 8
-#: The profile at those points is softened, r -> sqrt(r^2 + eps^2), with eps this many sub-point spacings:
-#: a cusp sampled at fixed points jumps whenever the centre passes close to one, and those jumps trapped
-#: the fit in false minima (the demo ring's masked refit stopped at R_e 4.1 px, cost 4x the minimum).
-CORE_SOFTENING = 0.5
 #: Rounds of leaving out positive outliers (arcs), and evaluations per least-squares run.
 CLIP_ROUNDS = 2
 MAX_NFEV = 50
-#: The fit has converged when a step lowers the cost by less than this fraction of it.
-FTOL = 1e-5
-#: A step stops at this fraction of the way to a bound it would cross.
-BOUND_STEP = 0.995
-#: A parameter this close to a bound (relative) is on it.
-BOUND_TOL = 1e-8
-#: Starting Levenberg-Marquardt damping (relative to the scaled diagonal of J^T W J): smaller first steps
-#: jumped across a galaxy's angle and stuck at q = 1.
-INITIAL_DAMPING = 0.1
 #: Use :func:`blurred_sersic_jacobian` in the fit (the ring finder's errors were calibrated with it;
 #: with finite differences three demo ring tests move by 3%). Known weak spot: a bright galaxy with no
 #: seeing blur (R_e 6 px, peak 1e5 sigma) stops at R_e = 1.9 px with it, as finite differences do not.
@@ -245,8 +233,8 @@ def fit_lens_light(
     # evaluates both again where the previous round stopped (the weights change, the model does not).
     # The profile's powers and exponentials at the last parameter vectors serve the Jacobian at the same
     # point (the solver asks for the Jacobian only where it has just evaluated the model).
-    terms_at = _Recent(lambda q: _grid_and_core_terms(q, xx, yy, f, core), keep=2)
-    model_sel = _Recent(lambda q: _blurred_sersic_on_grid(q, xx, yy, f, core, terms_at(q))[sel])
+    terms_at = _Recent(lambda q: grid_and_core_terms(q, xx, yy, f, core), keep=2)
+    model_sel = _Recent(lambda q: blurred_sersic_on_grid(q, xx, yy, f, core, terms_at(q))[sel])
     jac_sel = _Recent(lambda q: blurred_sersic_jacobian(q, xx, yy, f, core, terms_at(q))[:, sel].T)
 
     def residuals(p):
@@ -307,11 +295,12 @@ class _Recent:
 def _robust_rounds(residuals, jacobian, p, lo, hi, start, model_sel, vs, noise_bin, weight):
     """Soft-L1 least squares, then up to CLIP_ROUNDS refits with bright positive outliers left out
     (pixels more than 3 sigma and 10% above the model: arcs, neighbours); ``weight`` is updated in place.
-    Each refit starts from the previous one's answer, damping and scales (:class:`_LMState`)."""
-    state = _LMState(INITIAL_DAMPING)
+    Each refit starts from the previous one's answer, damping and scales (:class:`LMState`)."""
+    state = LMState(INITIAL_DAMPING)
     for _ in range(CLIP_ROUNDS + 1):
         if ANALYTIC_JACOBIAN:
-            sol = _soft_l1_levenberg_marquardt(residuals, jacobian, p, lo, hi, state)
+            sol = soft_l1_levenberg_marquardt(residuals, jacobian, p, lo, hi, state, f_scale=SOFT_SCALE,
+                                              max_nfev=MAX_NFEV)
         else:
             sol = least_squares(residuals, p, jac="2-point", bounds=(lo, hi), loss="soft_l1", f_scale=SOFT_SCALE,
                                 max_nfev=MAX_NFEV, x_scale="jac", ftol=FTOL, xtol=None, tr_solver="lsmr")
@@ -324,105 +313,6 @@ def _robust_rounds(residuals, jacobian, p, lo, hi, start, model_sel, vs, noise_b
             break
         weight[:] = new_weight
     return sol, p
-
-
-@dataclass
-class _LMState:
-    """Damping and parameter scales carried from one clipping round to the next."""
-
-    damping: float
-    scale: np.ndarray | None = None
-
-
-@dataclass
-class _LMSolution:
-    """What :func:`_soft_l1_levenberg_marquardt` found; ``status`` as scipy's ``least_squares``: 0 = the
-    evaluation limit was reached, 2 = the cost converged (``FTOL``), 3 = no step lowered the cost."""
-
-    x: np.ndarray
-    cost: float
-    status: int
-    nfev: int
-    njev: int
-
-
-def _soft_l1_cost(f: np.ndarray) -> float:
-    """scipy's soft-L1 cost, 0.5 sum rho(f^2) with rho(z) = 2 C^2 (sqrt(1 + z / C^2) - 1), C = SOFT_SCALE."""
-    c2 = SOFT_SCALE * SOFT_SCALE
-    return float(c2 * np.sum(np.sqrt(1.0 + f * f / c2) - 1.0))
-
-
-def _newton_decrement(hess: np.ndarray, grad: np.ndarray, scale: np.ndarray) -> float:
-    """How much the undamped (Gauss-Newton) step would lower the cost, 0.5 g^T H^-1 g: the fit has
-    converged when even that is a negligible fraction of the cost."""
-    try:
-        return float(0.5 * grad @ np.linalg.solve(hess + 1e-12 * np.diag(scale), grad))
-    except np.linalg.LinAlgError:
-        return np.inf
-
-
-def _soft_l1_levenberg_marquardt(fun, jac, x0, lo, hi, state: _LMState) -> _LMSolution:
-    """Minimise the soft-L1 cost of ``fun`` within the bounds [lo, hi] (the cost scipy ``least_squares``
-    with ``loss="soft_l1"`` minimises).
-
-    Levenberg-Marquardt (Levenberg 1944; Marquardt 1963) on iteratively reweighted least squares: the
-    soft-L1 loss weighs each residual by rho'(f^2) = 1 / sqrt(1 + f^2 / C^2) (Holland & Welsch 1977),
-    the damping is scaled by the running maximum of the diagonal of J^T W J (More 1978, as scipy's
-    ``x_scale="jac"``) and updated by the gain ratio (Nielsen 1999). Bounds: a step stops
-    :data:`BOUND_STEP` of the way to a bound it would cross, and a parameter on its bound whose gradient
-    points out of the box is held there. Converged (status 2) when even the undamped step would lower the
-    cost by less than :data:`FTOL` of it. The fit has 9 parameters and a few thousand residuals; scipy's
-    trust-region solver spent as much CPU time on its own bookkeeping (LSMR, reflective bounds, loss
-    rescaling) as on the model and Jacobian (0.3 s of the finder's 0.9 s on the 2048^2 benchmark).
-    """
-    c2 = SOFT_SCALE * SOFT_SCALE
-    x = np.clip(np.asarray(x0, float), lo, hi)
-    f = fun(x)
-    cost, nfev, njev, status = _soft_l1_cost(f), 1, 0, 0
-    damping, nu = state.damping, 2.0
-    while nfev < MAX_NFEV:
-        jmat = jac(x)
-        njev += 1
-        jw = jmat * (1.0 / np.sqrt(1.0 + f * f / c2))[:, None]
-        hess, grad = jmat.T @ jw, jw.T @ f
-        diag = np.diag(hess)
-        state.scale = np.maximum(diag, state.scale) if state.scale is not None else np.maximum(diag, 1e-12 * diag.max())
-        at_lo = np.isfinite(lo) & (x - lo <= BOUND_TOL * np.maximum(1.0, np.abs(lo)))
-        at_hi = np.isfinite(hi) & (hi - x <= BOUND_TOL * np.maximum(1.0, np.abs(hi)))
-        free = ~((at_lo & (grad > 0)) | (at_hi & (grad < 0)))
-        h_free = hess[np.ix_(free, free)]
-        if njev > 1 and _newton_decrement(h_free, grad[free], state.scale[free]) < FTOL * cost:
-            status = 2
-            break
-        gain = 0.0
-        while nfev < MAX_NFEV and damping < 1e10:
-            step = np.zeros_like(x)
-            try:
-                step[free] = -np.linalg.solve(h_free + damping * np.diag(state.scale[free]), grad[free])
-            except np.linalg.LinAlgError:
-                damping, nu = damping * nu, nu * 2.0
-                continue
-            # A step that would cross a bound stops short of it (0.995 of the way, as scipy's trust-region
-            # solver does): on a bound such as q = 1 the angle has no hold and the fit stuck there.
-            step = np.clip(step, BOUND_STEP * (lo - x), BOUND_STEP * (hi - x))
-            x_new = x + step
-            predicted = -(grad @ step + 0.5 * step @ hess @ step)
-            f_new = fun(x_new)
-            nfev += 1
-            cost_new = _soft_l1_cost(f_new)
-            if cost_new < cost:
-                gain = cost - cost_new
-                ratio = gain / predicted if predicted > 0 else 1.0
-                x, f, cost = x_new, f_new, cost_new
-                damping *= max(1.0 / 3.0, 1.0 - (2.0 * ratio - 1.0) ** 3)
-                nu = 2.0
-                break
-            damping, nu = damping * nu, nu * 2.0
-        if gain == 0.0:
-            status = 3 if damping >= 1e10 else 0
-            break
-    state.damping = max(damping, 1e-6)
-    return _LMSolution(x, cost, status, nfev, njev)
 
 
 def _auto_fit_radius(img, cx, cy, noise) -> float:
@@ -442,184 +332,6 @@ def _auto_fit_radius(img, cx, cy, noise) -> float:
     below = np.flatnonzero(prof[2:] < 1.0 * noise)
     edge = int(below[0]) + 2 if below.size else rmax
     return float(np.clip(2.0 * edge, 8, MAX_AUTO_FIT_RADIUS_PIX))
-
-
-def blurred_sersic(p, gx: np.ndarray, gy: np.ndarray, step: float = 1.0) -> np.ndarray:
-    """Sersic (parameters ``p``, pixels) blurred by a Gaussian PSF, on the grid gx (columns) x gy (rows).
-
-    The Gaussian is separable, so the blur is fast (scipy ``gaussian_filter``); a free
-    two-component PSF was tried and absorbed part of the rings into the lens model.
-    """
-    xx, yy = np.meshgrid(gx, gy)
-    return _blurred_sersic_on_grid(p, xx, yy, step)
-
-
-def _blurred_sersic_on_grid(p, xx: np.ndarray, yy: np.ndarray, step: float, core=None, terms=None) -> np.ndarray:
-    """:func:`blurred_sersic` on a ready-made mesh (the fit evaluates it hundreds of times); ``core`` is
-    :func:`core_pixels` fixed for a whole fit (default: around the model's own centre); ``terms`` are
-    :func:`_profile_terms` at ``p`` already computed (on the grid and the core points)."""
-    sb = _sersic_pixels(p, xx, yy, step, core, terms)
-    w, _ = _psf_kernel_1d(np.exp(p[8]) / step)
-    return _blur(sb, w) + p[7]
-
-
-def _psf_kernel_1d(sig: float) -> tuple[np.ndarray, np.ndarray]:
-    """The sampled, normalised 1-D Gaussian of ``sig`` pixels (as scipy's ``gaussian_filter`` with
-    ``truncate`` = :data:`PSF_TRUNCATE` builds it) and its exact derivative with respect to ln sig:
-    for w = exp(-x^2 / 2 s^2) / sum, dw/d ln s = w (x^2 - sum(w x^2)) / s^2."""
-    half = int(PSF_TRUNCATE * sig + 0.5)
-    x = np.arange(-half, half + 1, dtype=float)
-    w = np.exp(-0.5 * x * x / (sig * sig))
-    w /= w.sum()
-    return w, w * (x * x - float((w * x * x).sum())) / (sig * sig)
-
-
-def _blur(a: np.ndarray, w: np.ndarray, w_rows: np.ndarray | None = None) -> np.ndarray:
-    """Separable correlation of the last two axes of ``a`` with ``w`` (columns) and ``w_rows`` (rows,
-    default ``w``); edges continue the nearest pixel."""
-    out = correlate1d(a, w, axis=-1, mode="nearest")
-    return correlate1d(out, w if w_rows is None else w_rows, axis=-2, mode="nearest")
-
-
-def core_pixels(center: tuple[float, float], xx: np.ndarray, yy: np.ndarray, step: float, reach: float = 0.0):
-    """Flat indices of the grid pixels within :data:`CORE_RADIUS_PIX` grid pixels (plus ``reach`` image
-    pixels) of ``center``, and the (K, CORE_SUBSAMPLE^2) sub-pixel positions that integrate them over
-    their area. A fit fixes them around its starting centre with ``reach`` = how far the centre may
-    move, so the model stays a smooth function of the centre."""
-    near = np.flatnonzero(np.hypot(xx - center[0], yy - center[1]).ravel() <= CORE_RADIUS_PIX * step + reach)
-    u = ((np.arange(CORE_SUBSAMPLE) + 0.5) / CORE_SUBSAMPLE - 0.5) * step
-    du, dv = np.meshgrid(u, u)
-    return near, xx.ravel()[near][:, None] + du.ravel(), yy.ravel()[near][:, None] + dv.ravel()
-
-
-def _core_softening(step: float) -> float:
-    return CORE_SOFTENING * step / CORE_SUBSAMPLE
-
-
-def _grid_and_core_terms(p, xx: np.ndarray, yy: np.ndarray, step: float, core=None):
-    """:func:`_profile_terms` at the grid's pixel centres and at the core's sub-pixel points."""
-    near, sx, sy = core_pixels((p[5], p[6]), xx, yy, step) if core is None else core
-    return _profile_terms(p, xx, yy, step), _profile_terms(p, sx, sy, step, _core_softening(step))
-
-
-def _sersic_pixels(p, xx: np.ndarray, yy: np.ndarray, step: float, core=None, terms=None) -> np.ndarray:
-    """The Sersic profile at the pixel centres, integrated over the pixel area near the centre (a cusp
-    changes by tens of per cent across one pixel there, and images integrate light over pixels)."""
-    core = core_pixels((p[5], p[6]), xx, yy, step) if core is None else core
-    grid_t, core_t = _grid_and_core_terms(p, xx, yy, step, core) if terms is None else terms
-    sb = grid_t.sb.copy()
-    if core[0].size:
-        sb.ravel()[core[0]] = core_t.sb.mean(axis=1)
-    return sb
-
-
-@dataclass
-class _Terms:
-    """The powers and exponentials of the Sersic profile at a set of points, shared by the model and
-    its derivatives: rotated offsets ``xp``, ``yp``, squared elliptical radius ``r2``, ln(r / R_e)
-    ``lr``, (r / R_e)^(1/n) ``u`` and the profile ``sb``."""
-
-    xp: np.ndarray
-    yp: np.ndarray
-    r2: np.ndarray
-    lr: np.ndarray
-    u: np.ndarray
-    sb: np.ndarray
-
-
-def _profile_terms(p, xx: np.ndarray, yy: np.ndarray, step: float, eps: float = 0.0) -> _Terms:
-    """The elliptical Sersic profile (Graham & Driver 2005, eqs. 1, 4) at points (xx, yy), with its
-    intermediate terms; ``eps`` softens the radius (sqrt(r^2 + eps^2)); radii under 0.02 ``step`` are
-    raised to it (the cusp's centre)."""
-    n, q = float(p[2]), float(p[3])
-    c, s = np.cos(np.radians(p[4])), np.sin(np.radians(p[4]))
-    dx, dy = xx - p[5], yy - p[6]
-    xp, yp = c * dx + s * dy, c * dy - s * dx
-    r2 = q * xp * xp
-    r2 += yp * yp / q
-    if eps:
-        r2 += eps * eps
-    np.maximum(r2, (0.02 * step) ** 2, out=r2)
-    lr = np.log(r2)
-    lr *= 0.5
-    lr -= p[1]
-    u = np.exp(lr / n)
-    b = float(sersic_b(n))
-    sb = np.exp(-b * (u - 1.0))
-    sb *= sersic_intensity_at_re(np.exp(p[0]), float(np.exp(p[1])), n)
-    return _Terms(xp, yp, r2, lr, u, sb)
-
-
-def _sersic_parts(p, xx: np.ndarray, yy: np.ndarray, step: float, eps: float = 0.0,
-                  value_only: bool = False, terms: _Terms | None = None) -> np.ndarray:
-    """Derivatives (7, ...) of the Sersic profile at points (xx, yy) with respect to log flux, log R_e,
-    n, q, angle (degrees), x0, y0 (Graham & Driver 2005, eqs. 1, 4 differentiated by hand); the first is
-    the profile itself, which is all ``value_only`` returns. ``eps`` softens the radius (sqrt(r^2 + eps^2));
-    ``terms``: :func:`_profile_terms` at these points, when already computed."""
-    from scipy.special import digamma
-
-    t = _profile_terms(p, xx, yy, step, eps) if terms is None else terms
-    if value_only:
-        return t.sb
-    n, q = float(p[2]), float(p[3])
-    c, s = np.cos(np.radians(p[4])), np.sin(np.radians(p[4]))
-    b = float(sersic_b(n))
-    h = 1e-4 * max(n, 1.0)
-    db = float(sersic_b(n + h) - sersic_b(n - h)) / (2 * h)
-    d_lnie_dn = -1.0 / n - db + 2.0 * np.log(b) + 2.0 * n * db / b - 2.0 * digamma(2.0 * n)
-    sb, u, xp, yp = t.sb, t.u, t.xp, t.yp
-    bu_n = (b / n) * u
-    g = sb * bu_n
-    g /= t.r2                                              # -(d sb / dr) / r
-    out = np.empty((7,) + np.shape(sb))
-    out[0] = sb                                            # d / d log flux
-    np.multiply(sb, bu_n - 2.0, out=out[1])                # d / d log R_e
-    tmp = bu_n * t.lr
-    tmp *= 1.0 / n
-    tmp -= db * (u - 1.0)
-    tmp += d_lnie_dn
-    np.multiply(sb, tmp, out=out[2])                       # d / d n
-    np.multiply(xp, xp, out=tmp)
-    tmp -= yp * yp / (q * q)
-    tmp *= -0.5
-    np.multiply(g, tmp, out=out[3])                        # d / d q
-    np.multiply(xp, yp, out=tmp)
-    tmp *= (1.0 / q - q) * np.pi / 180.0
-    np.multiply(g, tmp, out=out[4])                        # d / d angle (deg)
-    np.multiply(xp, q * c, out=tmp)
-    tmp -= (s / q) * yp
-    np.multiply(g, tmp, out=out[5])                        # d / d x0
-    np.multiply(xp, q * s, out=tmp)
-    tmp += (c / q) * yp
-    np.multiply(g, tmp, out=out[6])                        # d / d y0
-    return out
-
-
-def blurred_sersic_jacobian(p, xx: np.ndarray, yy: np.ndarray, step: float, core=None, terms=None) -> np.ndarray:
-    """Analytic derivatives (9, ny, nx) of :func:`_blurred_sersic_on_grid` with respect to its parameters
-    (log flux, log R_e, n, q, angle in degrees, x0, y0, sky, log PSF sigma).
-
-    The blur is linear, so each derivative of the Sersic profile (Graham & Driver 2005, eqs. 1, 4),
-    integrated over the core pixels as the model is, is blurred by the same Gaussian; the PSF-width
-    term blurs the profile with the exact derivative of the sampled kernel (rows and columns in
-    turn). One model's worth of power laws and exponentials replace the nine model evaluations of a
-    finite-difference Jacobian; the fit passes the model's own ``terms`` (:func:`_profile_terms`),
-    so none are computed again.
-    """
-    core = core_pixels((p[5], p[6]), xx, yy, step) if core is None else core
-    grid_t, core_t = _grid_and_core_terms(p, xx, yy, step, core) if terms is None else terms
-    parts = _sersic_parts(p, xx, yy, step, terms=grid_t)
-    near = core[0]
-    if near.size:
-        flat = parts.reshape(7, -1)
-        flat[:, near] = _sersic_parts(p, core[1], core[2], step, _core_softening(step), terms=core_t).mean(axis=2)
-    w, dw = _psf_kernel_1d(np.exp(p[8]) / step)
-    out = np.empty((9,) + xx.shape)
-    cols = correlate1d(parts, w, axis=-1, mode="nearest")
-    correlate1d(cols, w, axis=-2, mode="nearest", output=out[:7])
-    out[7] = 1.0
-    out[8] = correlate1d(cols[0], dw, axis=-2, mode="nearest") + _blur(parts[0], dw, w)
-    return out
 
 
 def _evaluate_model(shape, p, noise) -> np.ndarray:
