@@ -45,9 +45,8 @@ MAX_AUTO_FIT_RADIUS_PIX = 80
 #: Rounds of leaving out positive outliers (arcs), and evaluations per least-squares run.
 CLIP_ROUNDS = 2
 MAX_NFEV = 50
-#: Use :func:`blurred_sersic_jacobian` in the fit (the ring finder's errors were calibrated with it;
-#: with finite differences three demo ring tests move by 3%). Known weak spot: a bright galaxy with no
-#: seeing blur (R_e 6 px, peak 1e5 sigma) stops at R_e = 1.9 px with it, as finite differences do not.
+#: Use :func:`blurred_sersic_jacobian` and the Levenberg-Marquardt loop of :mod:`lensmass.core.robust_lm`
+#: in the fit; False: scipy ``least_squares`` with finite differences (slower; kept to compare).
 ANALYTIC_JACOBIAN = True
 #: The fitted centre may move this far (pixels) from the starting centre in either coordinate.
 CENTER_RANGE_PIX = 3.0
