@@ -327,8 +327,13 @@ def find_ring(
         raise LensInputError("The ring finder needs a 2-D image of at least 8 x 8 pixels.")
     report(progress, 0.0)
     given = center_x is not None and center_y is not None
-    cx, cy = (float(center_x), float(center_y)) if given else find_center(img)
     ny, nx = img.shape
+    if given:
+        cx, cy = float(center_x), float(center_y)
+    elif auto_mask:  # the masks choose the lens (the compact non-star peak nearest the centre): no light-peak search
+        cx, cy = (nx - 1) / 2, (ny - 1) / 2
+    else:
+        cx, cy = find_center(img)
     if not (0 <= cx < nx and 0 <= cy < ny):
         raise LensInputError(f"The lens centre ({cx:.1f}, {cy:.1f}) is outside the {nx} x {ny} image; "
                              "give a centre inside it.")
