@@ -9,6 +9,15 @@ full-image bincount azimuthal profile timed interleaved with it, their ratio, th
 target, and the share of the CPU time spent in the lens-light fits. This machine is shared: judge by
 CPU time, and compare a change with its parent by alternating runs (DEVELOPERS.md).
 --profile prints the 20 functions with the most time of their own (cProfile).
+
+Measured (2026-12-03, 2 shared cores, load average 1.5-2.4, alternating runs with main, best of 5):
+this branch 0.45-0.49 s CPU (wall the same; medians 0.47-0.51 s), lens-light fits 0.28-0.30 s (~60%);
+main 0.90-1.03 s CPU (fits 0.64-0.75 s, 71%); baseline one full-image bincount 0.062-0.079 s CPU, so
+the finder costs 6.2-7.5 bincounts (main 12.4-14.7); target 0.5 s: x0.90-0.99 (thin margin on a busy machine).
+What changed: the lens-light fit's solver (a Levenberg-Marquardt loop on the soft-L1 cost instead of
+scipy's trust-region solver, whose bookkeeping cost as much as the model), the Jacobian reusing the
+model's powers and exponentials, the refit with the ring masked starting from the first fit, ridge
+fits by MINPACK first, and no light-peak search when the masks choose the lens.
 """
 
 from __future__ import annotations

@@ -20,36 +20,33 @@ Triggs et al. (2000) / scipy ``least_squares`` documentation (robust soft-L1 los
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
-from scipy.ndimage import correlate1d
 from scipy.optimize import least_squares
 from threadpoolctl import threadpool_limits
 
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
-from lensmass.core.sersic import sersic_b, sersic_intensity_at_re, sersic_surface_brightness
+from lensmass.core.robust_lm import FTOL, INITIAL_DAMPING, LMState, soft_l1_levenberg_marquardt
+from lensmass.core.sersic import sersic_b, sersic_intensity_at_re
+from lensmass.core.sersic_pixels import (
+    blurred_sersic,
+    blurred_sersic_jacobian,
+    blurred_sersic_on_grid,
+    core_pixels,
+    grid_and_core_terms,
+)
 from lensmass.core.sky_level import robust_sigma
 
 #: The fitted cut-out is binned so that its side has at most this many (binned) pixels.
 MAX_FIT_SIDE = 124
 #: Largest automatic fit radius (pixels): the cut-out then stays unbinned, keeping the core sharp.
 MAX_AUTO_FIT_RADIUS_PIX = 80
-#: The Gaussian PSF kernel reaches this many sigma (as scipy's ``gaussian_filter`` ``truncate``).
-PSF_TRUNCATE = 3.5
-#: Pixels within this many (fitted-grid) pixels of the model centre are integrated over their area
-#: with CORE_SUBSAMPLE x CORE_SUBSAMPLE points (a Sersic cusp is far from linear across them).
-CORE_RADIUS_PIX = 2.5
-CORE_SUBSAMPLE = 8
-#: The profile at those points is softened, r -> sqrt(r^2 + eps^2), with eps this many sub-point spacings:
-#: a cusp sampled at fixed points jumps whenever the centre passes close to one, and those jumps trapped
-#: the fit in false minima (the demo ring's masked refit stopped at R_e 4.1 px, cost 4x the minimum).
-CORE_SOFTENING = 0.5
 #: Rounds of leaving out positive outliers (arcs), and evaluations per least-squares run.
 CLIP_ROUNDS = 2
 MAX_NFEV = 50
-#: Use :func:`blurred_sersic_jacobian` in the fit (the ring finder's errors were calibrated with it;
-#: with finite differences three demo ring tests move by 3%). Known weak spot: a bright galaxy with no
-#: seeing blur (R_e 6 px, peak 1e5 sigma) stops at R_e = 1.9 px with it, as finite differences do not.
+#: Use :func:`blurred_sersic_jacobian` and the Levenberg-Marquardt loop of :mod:`lensmass.core.robust_lm`
+#: in the fit; False: scipy ``least_squares`` with finite differences (slower; kept to compare).
 ANALYTIC_JACOBIAN = True
 #: The fitted centre may move this far (pixels) from the starting centre in either coordinate.
 CENTER_RANGE_PIX = 3.0
@@ -58,6 +55,8 @@ ANGLE_RANGE_DEG = np.inf
 #: Largest PSF sigma (pixels) the fit may take: the issue's range of seeing, 0.1-1.0" FWHM on 0.05-0.26" pixels,
 #: reaches 20 pixels FWHM (sigma 8.5); the bound was 6 pixels, which a 16-pixel seeing then hit.
 PSF_SIGMA_MAX_PIX = 12.0
+#: Smallest PSF sigma (pixels) the fit may take.
+PSF_SIGMA_MIN_PIX = 0.2
 #: Range of the Sersic index the fit may take.
 SERSIC_N_BOUNDS = (0.4, 8.0)
 #: Scale (in sigma) where the soft-L1 cost turns from quadratic to linear.
@@ -112,6 +111,7 @@ def fit_lens_light(
     *,
     fit_radius_pix: float | None = None,
     mask: np.ndarray | None = None,
+    initial: LensLightModel | None = None,
     progress: ProgressCallback = None,
     should_stop: StopCallback = None,
 ) -> LensLightModel:
@@ -128,6 +128,8 @@ def fit_lens_light(
         to the noise (between 8 and MAX_AUTO_FIT_RADIUS_PIX pixels).
     mask : bool array, optional
         True for pixels to leave out (e.g. marked arcs or neighbours).
+    initial : LensLightModel, optional
+        An earlier fit of the same galaxy to start from (default: a start from the light's moments).
     progress, should_stop : callables, optional
         Progress fraction 0..1 and cancellation (raises ``OperationCancelled``).
 
@@ -213,9 +215,14 @@ def fit_lens_light(
     start = np.array([0.0, 0.0, 0.0, 0.0, ang0, cx0, cy0, 0.0, 0.0])
     p0 = np.array([np.log(max(flux0, 1e-9)), np.log(re0), 3.0, q0, 0.0, 0.0, 0.0, 0.0, np.log(1.5)])
     lo = np.array([-np.inf, np.log(0.3), n_lo, 0.15, -ANGLE_RANGE_DEG, -CENTER_RANGE_PIX, -CENTER_RANGE_PIX, -np.inf,
-                   np.log(0.2)])
+                   np.log(PSF_SIGMA_MIN_PIX)])
     hi = np.array([np.inf, np.log(3 * rf), n_hi, 1.0, ANGLE_RANGE_DEG, CENTER_RANGE_PIX, CENTER_RANGE_PIX, np.inf,
                    np.log(PSF_SIGMA_MAX_PIX)])
+    if initial is not None and initial.ok:  # an earlier fit's answer (the ring finder's refit with the ring masked)
+        start[4] = initial.angle_deg
+        p0 = np.array([np.log(initial.total_flux), np.log(initial.r_eff_pix), initial.sersic_n, initial.axis_ratio, 0.0,
+                       initial.center_x - cx0, initial.center_y - cy0, initial.sky,
+                       np.log(initial.psf_fwhm_pix / (2 * np.sqrt(2 * np.log(2))))])
     p0 = np.clip(p0, lo + 1e-9, hi - 1e-9)
     calls = [0]
     weight = np.ones(vs.size)
@@ -223,8 +230,11 @@ def fit_lens_light(
 
     # The model and the Jacobian at the last few parameter vectors are kept: each round of _robust_rounds
     # evaluates both again where the previous round stopped (the weights change, the model does not).
-    model_sel = _Recent(lambda q: _blurred_sersic_on_grid(q, xx, yy, f, core)[sel])
-    jac_sel = _Recent(lambda q: blurred_sersic_jacobian(q, xx, yy, f, core)[:, sel].T)
+    # The profile's powers and exponentials at the last parameter vectors serve the Jacobian at the same
+    # point (the solver asks for the Jacobian only where it has just evaluated the model).
+    terms_at = _Recent(lambda q: grid_and_core_terms(q, xx, yy, f, core), keep=2)
+    model_sel = _Recent(lambda q: blurred_sersic_on_grid(q, xx, yy, f, core, terms_at(q))[sel])
+    jac_sel = _Recent(lambda q: blurred_sersic_jacobian(q, xx, yy, f, core, terms_at(q))[:, sel].T)
 
     def residuals(p):
         calls[0] += 1
@@ -233,12 +243,12 @@ def fit_lens_light(
             report(progress, min(0.85, 0.85 * calls[0] / 600))
         with np.errstate(over="ignore", invalid="ignore"):
             res = (model_sel(p + start) - vs) / noise_bin
-        return np.nan_to_num(weight * res, nan=1e6, posinf=1e6, neginf=-1e6)
+        return _finite(weight * res, 1e6)
 
     def jacobian(p):
         with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
             jac = jac_sel(p + start)
-        return np.nan_to_num(jac * (weight / noise_bin)[:, None], nan=0.0, posinf=0.0, neginf=0.0)
+        return _finite(jac * (weight / noise_bin)[:, None], 0.0)
 
     with threadpool_limits(1):  # 9-column products: BLAS threads only contend (up to 10x slower on 2 busy cores)
         sol, p = _robust_rounds(residuals, jacobian, p0, lo, hi, start, model_sel, vs, noise_bin, weight)
@@ -260,18 +270,22 @@ def fit_lens_light(
     )
 
 
+def _finite(a: np.ndarray, fill: float) -> np.ndarray:
+    """``a`` with NaN and infinities replaced by +-``fill`` (the check alone when all are finite, the usual case)."""
+    return a if np.isfinite(a).all() else np.nan_to_num(a, nan=fill, posinf=fill, neginf=-fill)
+
+
 class _Recent:
-    """``fn(q)`` remembered for the last :attr:`KEEP` parameter vectors ``q`` (exact matches only)."""
+    """``fn(q)`` remembered for the last ``keep`` parameter vectors ``q`` (exact matches only)."""
 
-    KEEP = 4
+    def __init__(self, fn, keep: int = 4):
+        self.fn, self.keep = fn, keep
+        self.seen: dict[bytes, Any] = {}
 
-    def __init__(self, fn):
-        self.fn, self.seen = fn, {}
-
-    def __call__(self, q: np.ndarray) -> np.ndarray:
+    def __call__(self, q: np.ndarray) -> Any:
         key = q.tobytes()
         if key not in self.seen:
-            if len(self.seen) >= self.KEEP:
+            if len(self.seen) >= self.keep:
                 del self.seen[next(iter(self.seen))]
             self.seen[key] = self.fn(q)
         return self.seen[key]
@@ -279,10 +293,16 @@ class _Recent:
 
 def _robust_rounds(residuals, jacobian, p, lo, hi, start, model_sel, vs, noise_bin, weight):
     """Soft-L1 least squares, then up to CLIP_ROUNDS refits with bright positive outliers left out
-    (pixels more than 3 sigma and 10% above the model: arcs, neighbours); ``weight`` is updated in place."""
+    (pixels more than 3 sigma and 10% above the model: arcs, neighbours); ``weight`` is updated in place.
+    Each refit starts from the previous one's answer, damping and scales (:class:`LMState`)."""
+    state = LMState(INITIAL_DAMPING)
     for _ in range(CLIP_ROUNDS + 1):
-        sol = least_squares(residuals, p, jac=jacobian if ANALYTIC_JACOBIAN else "2-point", bounds=(lo, hi), loss="soft_l1", f_scale=SOFT_SCALE,
-                            max_nfev=MAX_NFEV, x_scale="jac", ftol=1e-5, xtol=None, tr_solver="lsmr")
+        if ANALYTIC_JACOBIAN:
+            sol = soft_l1_levenberg_marquardt(residuals, jacobian, p, lo, hi, state, f_scale=SOFT_SCALE,
+                                              max_nfev=MAX_NFEV)
+        else:
+            sol = least_squares(residuals, p, jac="2-point", bounds=(lo, hi), loss="soft_l1", f_scale=SOFT_SCALE,
+                                max_nfev=MAX_NFEV, x_scale="jac", ftol=FTOL, xtol=None, tr_solver="lsmr")
         p = sol.x
         with np.errstate(over="ignore", invalid="ignore"):
             m_sel = model_sel(p + start)
@@ -311,129 +331,6 @@ def _auto_fit_radius(img, cx, cy, noise) -> float:
     below = np.flatnonzero(prof[2:] < 1.0 * noise)
     edge = int(below[0]) + 2 if below.size else rmax
     return float(np.clip(2.0 * edge, 8, MAX_AUTO_FIT_RADIUS_PIX))
-
-
-def blurred_sersic(p, gx: np.ndarray, gy: np.ndarray, step: float = 1.0) -> np.ndarray:
-    """Sersic (parameters ``p``, pixels) blurred by a Gaussian PSF, on the grid gx (columns) x gy (rows).
-
-    The Gaussian is separable, so the blur is fast (scipy ``gaussian_filter``); a free
-    two-component PSF was tried and absorbed part of the rings into the lens model.
-    """
-    xx, yy = np.meshgrid(gx, gy)
-    return _blurred_sersic_on_grid(p, xx, yy, step)
-
-
-def _blurred_sersic_on_grid(p, xx: np.ndarray, yy: np.ndarray, step: float, core=None) -> np.ndarray:
-    """:func:`blurred_sersic` on a ready-made mesh (the fit evaluates it hundreds of times); ``core`` is
-    :func:`core_pixels` fixed for a whole fit (default: around the model's own centre)."""
-    sb = _sersic_pixels(p, xx, yy, step, core)
-    w, _ = _psf_kernel_1d(np.exp(p[8]) / step)
-    return _blur(sb, w) + p[7]
-
-
-def _psf_kernel_1d(sig: float) -> tuple[np.ndarray, np.ndarray]:
-    """The sampled, normalised 1-D Gaussian of ``sig`` pixels (as scipy's ``gaussian_filter`` with
-    ``truncate`` = :data:`PSF_TRUNCATE` builds it) and its exact derivative with respect to ln sig:
-    for w = exp(-x^2 / 2 s^2) / sum, dw/d ln s = w (x^2 - sum(w x^2)) / s^2."""
-    half = int(PSF_TRUNCATE * sig + 0.5)
-    x = np.arange(-half, half + 1, dtype=float)
-    w = np.exp(-0.5 * x * x / (sig * sig))
-    w /= w.sum()
-    return w, w * (x * x - float((w * x * x).sum())) / (sig * sig)
-
-
-def _blur(a: np.ndarray, w: np.ndarray, w_rows: np.ndarray | None = None) -> np.ndarray:
-    """Separable correlation of the last two axes of ``a`` with ``w`` (columns) and ``w_rows`` (rows,
-    default ``w``); edges continue the nearest pixel."""
-    out = correlate1d(a, w, axis=-1, mode="nearest")
-    return correlate1d(out, w if w_rows is None else w_rows, axis=-2, mode="nearest")
-
-
-def core_pixels(center: tuple[float, float], xx: np.ndarray, yy: np.ndarray, step: float, reach: float = 0.0):
-    """Flat indices of the grid pixels within :data:`CORE_RADIUS_PIX` grid pixels (plus ``reach`` image
-    pixels) of ``center``, and the (K, CORE_SUBSAMPLE^2) sub-pixel positions that integrate them over
-    their area. A fit fixes them around its starting centre with ``reach`` = how far the centre may
-    move, so the model stays a smooth function of the centre."""
-    near = np.flatnonzero(np.hypot(xx - center[0], yy - center[1]).ravel() <= CORE_RADIUS_PIX * step + reach)
-    u = ((np.arange(CORE_SUBSAMPLE) + 0.5) / CORE_SUBSAMPLE - 0.5) * step
-    du, dv = np.meshgrid(u, u)
-    return near, xx.ravel()[near][:, None] + du.ravel(), yy.ravel()[near][:, None] + dv.ravel()
-
-
-def _sersic_pixels(p, xx: np.ndarray, yy: np.ndarray, step: float, core=None) -> np.ndarray:
-    """The Sersic profile at the pixel centres, integrated over the pixel area near the centre (a cusp
-    changes by tens of per cent across one pixel there, and images integrate light over pixels)."""
-    kw = dict(total_flux=np.exp(p[0]), r_eff_arcsec=np.exp(p[1]), n=p[2], axis_ratio=p[3], angle_deg=p[4],
-              x0=p[5], y0=p[6])
-    sb = sersic_surface_brightness(xx, yy, **kw)
-    near, sx, sy = core_pixels((p[5], p[6]), xx, yy, step) if core is None else core
-    if near.size:
-        sb.ravel()[near] = _sersic_parts(p, sx, sy, step, CORE_SOFTENING * step / CORE_SUBSAMPLE,
-                                         value_only=True).mean(axis=1)
-    return sb
-
-
-def _sersic_parts(p, xx: np.ndarray, yy: np.ndarray, step: float, eps: float = 0.0,
-                  value_only: bool = False) -> np.ndarray:
-    """Derivatives (7, ...) of the Sersic profile at points (xx, yy) with respect to log flux, log R_e,
-    n, q, angle (degrees), x0, y0 (Graham & Driver 2005, eqs. 1, 4 differentiated by hand); the first is
-    the profile itself, which is all ``value_only`` returns. ``eps`` softens the radius (sqrt(r^2 + eps^2))."""
-    from scipy.special import digamma
-
-    n, q = float(p[2]), float(p[3])
-    re = float(np.exp(p[1]))
-    c, s = np.cos(np.radians(p[4])), np.sin(np.radians(p[4]))
-    dx, dy = xx - p[5], yy - p[6]
-    xp, yp = c * dx + s * dy, c * dy - s * dx
-    r2 = q * xp * xp + yp * yp / q
-    if eps:
-        r2 += eps * eps
-    r = np.sqrt(r2)
-    np.maximum(r, 0.02 * step, out=r)
-    b = float(sersic_b(n))
-    lr = np.log(r / re)
-    u = np.exp(lr / n)
-    sb = sersic_intensity_at_re(np.exp(p[0]), re, n) * np.exp(-b * (u - 1.0))
-    if value_only:
-        return sb
-    h = 1e-4 * max(n, 1.0)
-    db = float(sersic_b(n + h) - sersic_b(n - h)) / (2 * h)
-    d_lnie_dn = -1.0 / n - db + 2.0 * np.log(b) + 2.0 * n * db / b - 2.0 * digamma(2.0 * n)
-    bu_n = (b / n) * u
-    g = sb * bu_n / (r * r)                                # -(d sb / dr) / r
-    out = np.empty((7,) + np.shape(sb))
-    out[0] = sb                                            # d / d log flux
-    out[1] = sb * (bu_n - 2.0)                             # d / d log R_e
-    out[2] = sb * (d_lnie_dn - db * (u - 1.0) + bu_n * lr / n)   # d / d n
-    out[3] = g * (yp * yp / (q * q) - xp * xp) * 0.5      # d / d q
-    out[4] = g * xp * yp * ((1.0 / q - q) * np.pi / 180.0)  # d / d angle (deg)
-    out[5] = g * (q * c * xp - (s / q) * yp)               # d / d x0
-    out[6] = g * (q * s * xp + (c / q) * yp)               # d / d y0
-    return out
-
-
-def blurred_sersic_jacobian(p, xx: np.ndarray, yy: np.ndarray, step: float, core=None) -> np.ndarray:
-    """Analytic derivatives (9, ny, nx) of :func:`_blurred_sersic_on_grid` with respect to its parameters
-    (log flux, log R_e, n, q, angle in degrees, x0, y0, sky, log PSF sigma).
-
-    The blur is linear, so each derivative of the Sersic profile (Graham & Driver 2005, eqs. 1, 4),
-    integrated over the core pixels as the model is, is blurred by the same Gaussian; the PSF-width
-    term blurs the profile with the exact derivative of the sampled kernel (rows and columns in
-    turn). One model's worth of power laws and exponentials replace the nine model evaluations of a
-    finite-difference Jacobian.
-    """
-    parts = _sersic_parts(p, xx, yy, step)
-    near, sx, sy = core_pixels((p[5], p[6]), xx, yy, step) if core is None else core
-    if near.size:
-        flat = parts.reshape(7, -1)
-        flat[:, near] = _sersic_parts(p, sx, sy, step, CORE_SOFTENING * step / CORE_SUBSAMPLE).mean(axis=2)
-    w, dw = _psf_kernel_1d(np.exp(p[8]) / step)
-    out = np.empty((9,) + xx.shape)
-    cols = correlate1d(parts, w, axis=-1, mode="nearest")
-    out[:7] = correlate1d(cols, w, axis=-2, mode="nearest")
-    out[7] = 1.0
-    out[8] = correlate1d(cols[0], dw, axis=-2, mode="nearest") + _blur(parts[0], dw, w)
-    return out
 
 
 def _evaluate_model(shape, p, noise) -> np.ndarray:

@@ -198,8 +198,10 @@ def find_center(image: np.ndarray, *, search_fraction: float = 0.25, smooth_pix:
     pad = int(3 * smooth_pix) + 3
     ex0, ey0 = max(0, x0 - pad), max(0, y0 - pad)
     cut = np.asarray(img[ey0:min(ny, y1 + pad), ex0:min(nx, x1 + pad)], float)
-    fill = np.nanmedian(cut)
-    sm = gaussian_filter(np.where(np.isfinite(cut), cut, fill), smooth_pix)
+    finite = np.isfinite(cut)
+    if not finite.all():  # masked pixels take the median (a median of 10^6 pixels is half this function's time)
+        cut = np.where(finite, cut, np.nanmedian(cut))
+    sm = gaussian_filter(cut, smooth_pix)
     inner = sm[y0 - ey0:y1 - ey0, x0 - ex0:x1 - ex0]
     iy, ix = np.unravel_index(int(np.argmax(inner)), inner.shape)
     py, px = iy + y0 - ey0, ix + x0 - ex0
@@ -325,8 +327,13 @@ def find_ring(
         raise LensInputError("The ring finder needs a 2-D image of at least 8 x 8 pixels.")
     report(progress, 0.0)
     given = center_x is not None and center_y is not None
-    cx, cy = (float(center_x), float(center_y)) if given else find_center(img)
     ny, nx = img.shape
+    if given:
+        cx, cy = float(center_x), float(center_y)
+    elif auto_mask:  # the masks choose the lens (the compact non-star peak nearest the centre): no light-peak search
+        cx, cy = (nx - 1) / 2, (ny - 1) / 2
+    else:
+        cx, cy = find_center(img)
     if not (0 <= cx < nx and 0 <= cy < ny):
         raise LensInputError(f"The lens centre ({cx:.1f}, {cy:.1f}) is outside the {nx} x {ny} image; "
                              "give a centre inside it.")
@@ -509,7 +516,8 @@ def _finish(out: RingResult, masks, given: bool, colour: bool, compressed: bool 
 
 
 def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop) -> RingResult:
-    """Fit and subtract the lens light, search; refit with the ring masked and search again."""
+    """Fit and subtract the lens light, search; refit with the ring masked (starting from the first fit's
+    answer) and search again."""
     light = fit_lens_light(img, cx, cy, progress=lambda f: report(progress, 0.3 * f), should_stop=should_stop)
     if light.ok:
         cx, cy = light.center_x, light.center_y
@@ -524,7 +532,7 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop) 
     lo_r = first.radius_pix * np.sqrt(q_ring) - half
     hi_r = first.radius_pix / np.sqrt(q_ring) + half
     mask = _annulus_mask(img.shape, first.center_x, first.center_y, lo_r, hi_r)
-    light2 = fit_lens_light(img, cx, cy, mask=mask, fit_radius_pix=light.fit_radius_pix,
+    light2 = fit_lens_light(img, cx, cy, mask=mask, fit_radius_pix=light.fit_radius_pix, initial=light,
                             progress=lambda f: report(progress, 0.45 + 0.3 * f), should_stop=should_stop)
     if not light2.ok:
         report(progress, 1.0)

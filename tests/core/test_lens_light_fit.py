@@ -14,17 +14,14 @@ astropy's ``Moffat2D.fwhm``).
 import numpy as np
 import pytest
 from astropy.modeling.models import Moffat2D, Sersic2D
+from scipy.optimize import least_squares
 from scipy.optimize._numdiff import approx_derivative
 from scipy.signal import fftconvolve
 
-from lensmass.core.lenslight import (
-    _blurred_sersic_on_grid,
-    _sersic_pixels,
-    blurred_sersic_jacobian,
-    core_pixels,
-    fit_lens_light,
-)
+from lensmass.core.lenslight import MAX_NFEV, SOFT_SCALE, fit_lens_light
+from lensmass.core.robust_lm import FTOL, INITIAL_DAMPING, LMState, soft_l1_levenberg_marquardt
 from lensmass.core.sersic import sersic_intensity_at_re
+from lensmass.core.sersic_pixels import _sersic_pixels, blurred_sersic_jacobian, blurred_sersic_on_grid, core_pixels
 
 
 def _integrated(model, size, ov=8):
@@ -129,7 +126,40 @@ def test_blurred_sersic_jacobian_matches_scipy_finite_differences(psf_sigma_pix)
     p = np.array([np.log(5000), np.log(6), 3.2, 0.7, 25.0, 30.3, 29.6, 0.5, np.log(psf_sigma_pix)])
     core = core_pixels((30.0, 30.0), xx, yy, 1.0, reach=3.0)
     jac = blurred_sersic_jacobian(p, xx, yy, 1.0, core)
-    ref = approx_derivative(lambda q: _blurred_sersic_on_grid(q, xx, yy, 1.0, core).ravel(), p, method="3-point")
+    ref = approx_derivative(lambda q: blurred_sersic_on_grid(q, xx, yy, 1.0, core).ravel(), p, method="3-point")
     ref = ref.T.reshape(9, 60, 60)
     for k in range(9):
         assert np.max(np.abs(jac[k] - ref[k])) <= 1e-5 * np.max(np.abs(ref[k]))
+
+
+@pytest.mark.parametrize("sigma_hi", [np.inf, 1.5])
+def test_solver_matches_scipy_least_squares_soft_l1(sigma_hi):
+    # Reference: scipy.optimize.least_squares (trf, loss="soft_l1", same f_scale and bounds, tight tolerances)
+    # on a Gaussian on a sloping baseline with positive outliers (arcs on a galaxy, in one dimension); with
+    # sigma_hi = 1.5 the minimum lies on a bound (the true width is 2). With the fit's tolerance (FTOL) the cost is
+    # the minimum's to 10 FTOL; with a tight one, the same minimum: parameters to 1e-5, cost to 1e-9.
+    rng = np.random.default_rng(11)
+    x = np.linspace(-10.0, 10.0, 400)
+    y = 50.0 * np.exp(-0.5 * ((x - 0.7) / 2.0) ** 2) + 3.0 + 0.2 * x + rng.normal(0.0, 1.0, x.size)
+    y[rng.choice(x.size, 30, replace=False)] += rng.uniform(5.0, 40.0, 30)
+
+    def fun(p):
+        return p[0] * np.exp(-0.5 * ((x - p[1]) / p[2]) ** 2) + p[3] + p[4] * x - y
+
+    def jac(p):
+        g = np.exp(-0.5 * ((x - p[1]) / p[2]) ** 2)
+        z = (x - p[1]) / p[2]
+        return np.column_stack([g, p[0] * g * z / p[2], p[0] * g * z * z / p[2], np.ones_like(x), x])
+
+    lo = np.array([0.0, -5.0, 0.3, -np.inf, -np.inf])
+    hi = np.array([np.inf, 5.0, sigma_hi, np.inf, np.inf])
+    start = np.array([30.0, -1.0, 1.0, 0.0, 0.0])
+    ref = least_squares(fun, start, jac=jac, bounds=(lo, hi), loss="soft_l1", f_scale=SOFT_SCALE, x_scale="jac",
+                        ftol=1e-12, xtol=1e-12, gtol=1e-12, max_nfev=1000)
+    ours = soft_l1_levenberg_marquardt(fun, jac, start, lo, hi, LMState(INITIAL_DAMPING), f_scale=SOFT_SCALE,
+                                       max_nfev=MAX_NFEV)
+    assert ours.status == 2 and ours.cost == pytest.approx(ref.cost, rel=10 * FTOL)
+    ours = soft_l1_levenberg_marquardt(fun, jac, start, lo, hi, LMState(INITIAL_DAMPING), f_scale=SOFT_SCALE,
+                                       max_nfev=1000, ftol=1e-14)
+    np.testing.assert_allclose(ours.x, ref.x, rtol=1e-5, atol=1e-5)
+    assert ours.cost == pytest.approx(ref.cost, rel=1e-9)
