@@ -1,27 +1,20 @@
 """Where the columns of a FITS binary table lie in the file, so that blocks of rows are read as memory-mapped
 views without astropy building its column objects for every read (about 3 ms a file, more with many columns).
 
-The layout follows the FITS Standard 4.0 (section 7.3, binary table extension): the table's data start right
-after its header; each row is NAXIS1 bytes, the fields in TFORM order, each ``r`` elements of the type's
-width (bits ``X`` take ``ceil(r / 8)`` bytes; ``P`` / ``Q`` descriptors 8 / 16 bytes); values are
-big-endian. Headers are parsed by astropy (``Header.fromfile``); only the arithmetic of the offsets is here.
-A table this module does not read plainly (compressed file, ASCII table, random groups, a needed column
-scaled by TSCALn / TZEROn, of several elements, or not numeric) gets no layout, and astropy reads it.
+astropy finds the layout once (``fits.open`` with its header parsing, the table's record dtype
+``BinTableHDU.columns.dtype`` with each field's byte offset, and ``HDUList.fileinfo`` for where the data
+start); the blocks are then plain numpy views of the memory-mapped bytes (big-endian, as FITS stores them).
+A table that is not read plainly (compressed file, ASCII table, a compressed image, a needed column scaled
+by TSCALn / TZEROn, of several elements, logical or not numeric) gets no layout, and astropy reads it.
 """
 
 from __future__ import annotations
 
-import re
 import warnings
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
-
-_WIDTH = {"L": 1, "B": 1, "I": 2, "J": 4, "K": 8, "A": 1, "E": 4, "D": 8, "C": 8, "M": 16, "P": 8, "Q": 16}
-_PLAIN = {"B": "u1", "I": ">i2", "J": ">i4", "K": ">i8", "E": ">f4", "D": ">f8"}
-_TFORM = re.compile(r"\s*(\d*)([LXBIJKAEDCMPQ])")
-_BLOCK = 2880
 
 
 @dataclass(frozen=True)
@@ -55,50 +48,32 @@ def fits_table_layout(path: Path) -> FitsTableLayout | None:
     if path.suffix.lower() == ".gz":
         return None
     try:
-        from astropy.io.fits import Header
+        from astropy.io import fits
 
-        with warnings.catch_warnings(), open(path, "rb") as f:
+        with warnings.catch_warnings(), fits.open(path, memmap=True, lazy_load_hdus=True) as hdul:
             warnings.simplefilter("ignore")
-            while True:
-                header = Header.fromfile(f)
-                start = f.tell()
-                if header.get("XTENSION") == "BINTABLE":
-                    return _layout(header, start, path.stat().st_size)
-                if header.get("XTENSION") not in (None, "IMAGE") or header.get("GROUPS"):
+            for index, hdu in enumerate(hdul):
+                if type(hdu) is fits.BinTableHDU:
+                    return _layout(hdu, int(hdul.fileinfo(index)["datLoc"]), path.stat().st_size)
+                if not isinstance(hdu, (fits.PrimaryHDU, fits.ImageHDU)) or isinstance(hdu, fits.GroupsHDU):
                     return None
-                f.seek(start + _padded(_data_bytes(header)))
     except Exception:  # EOF, a damaged header: astropy reads the file and says what is wrong
         return None
+    return None
 
 
-def _data_bytes(header) -> int:
-    """Bytes of an HDU's data: |BITPIX| / 8 x GCOUNT x (PCOUNT + NAXIS1 x ... x NAXISn) (FITS 4.0, eq. 2)."""
-    naxis = int(header.get("NAXIS", 0))
-    if naxis == 0:
-        return 0
-    n = int(np.prod([int(header[f"NAXIS{k}"]) for k in range(1, naxis + 1)]))
-    return abs(int(header["BITPIX"])) // 8 * int(header.get("GCOUNT", 1)) * (int(header.get("PCOUNT", 0)) + n)
-
-
-def _padded(n: int) -> int:
-    return -(-n // _BLOCK) * _BLOCK
-
-
-def _layout(header, data_offset: int, file_bytes: int) -> FitsTableLayout | None:
-    names, plain, offset = [], [], 0
-    for k in range(1, int(header["TFIELDS"]) + 1):
-        match = _TFORM.match(str(header.get(f"TFORM{k}", "")))
-        name = header.get(f"TTYPE{k}")
-        if match is None or not isinstance(name, str) or not name:
-            return None
-        repeat = int(match.group(1) or 1)
-        code = match.group(2)
-        scaled = f"TSCAL{k}" in header or f"TZERO{k}" in header
-        if code in _PLAIN and repeat == 1 and not scaled:
-            plain.append((name, offset, _PLAIN[code]))
-        names.append(name)
-        offset += -(-repeat // 8) if code == "X" else repeat * _WIDTH[code]
-    n_rows = int(header["NAXIS2"])
-    if offset != int(header["NAXIS1"]) or len(set(names)) != len(names) or data_offset + offset * n_rows > file_bytes:
+def _layout(hdu, data_offset: int, file_bytes: int) -> FitsTableLayout | None:
+    """Plain columns: one unscaled number (astropy's raw field dtype is numeric, not logical). astropy gives
+    the fields' offsets and types in native byte order; the file's bytes are big-endian (FITS 4.0, 7.3.3)."""
+    record = hdu.columns.dtype
+    plain = []
+    for col in hdu.columns:
+        dtype, offset = record.fields[col.name][:2]
+        if (dtype.kind in "uif" and dtype.shape == () and col.format.format != "L"
+                and col.bscale in (None, 1) and col.bzero in (None, 0)):
+            plain.append((col.name, int(offset), dtype.newbyteorder(">").str))  # FITS stores big-endian
+    n_rows, row_bytes = int(hdu.header["NAXIS2"]), int(hdu.header["NAXIS1"])
+    names = tuple(hdu.columns.names)
+    if record.itemsize != row_bytes or len(set(names)) != len(names) or data_offset + row_bytes * n_rows > file_bytes:
         return None  # astropy says what is wrong (a truncated file, ...)
-    return FitsTableLayout(data_offset, offset, n_rows, tuple(names), tuple(plain))
+    return FitsTableLayout(data_offset, row_bytes, n_rows, names, tuple(plain))
