@@ -76,3 +76,33 @@ def bright_centre(data: np.ndarray, sigmas: float = BRIGHT_SIGMAS, picture: bool
         top = float(np.percentile(sample, 99.9))
         return bool(height > 3.0 * sigma and height > 0.5 * (top - sky))
     return bool(height > sigmas * sigma)
+
+
+#: The rim used for :func:`border_sky`: this fraction of the shorter side (at least 3 pixels).
+BORDER_FRACTION = 0.06
+
+
+def border_sky(data: np.ndarray) -> tuple[float, float]:
+    """Sky level and pixel noise at the image's border: the 3-sigma-clipped median and standard
+    deviation (astropy ``sigma_clipped_stats``; clipping drops stars and galaxies that cross the rim)
+    of a rim :data:`BORDER_FRACTION` of the shorter side wide. NaN, NaN when the rim has no finite pixels.
+
+    Examples
+    --------
+    >>> rng = np.random.default_rng(2)
+    >>> img = 500.0 + rng.normal(0.0, 3.0, (80, 80))      # a sky left in the image, noise 3
+    >>> img[30:50, 30:50] += 100.0                          # a galaxy, well inside the rim
+    >>> sky, sigma = border_sky(img)
+    >>> round(sky), round(sigma)
+    (500, 3)
+    """
+    from astropy.stats import sigma_clipped_stats
+
+    data = np.asarray(data, float)
+    w = max(3, int(BORDER_FRACTION * min(data.shape)))
+    rim = np.concatenate([data[:w].ravel(), data[-w:].ravel(), data[w:-w, :w].ravel(), data[w:-w, -w:].ravel()])
+    rim = rim[np.isfinite(rim)]
+    if rim.size < 20:
+        return float("nan"), float("nan")
+    _, median, std = sigma_clipped_stats(rim, sigma=3.0, maxiters=10)
+    return float(median), float(std)
