@@ -56,6 +56,7 @@ from lensmass.core.errors import LensInputError
 from lensmass.core.lenslight import SERSIC_N_BOUNDS, LensLightModel, fit_lens_light, robust_sigma
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
 from lensmass.core.ridge import ridge_peak
+from lensmass.core.sky_level import remove_sky_pedestal
 
 #: Significance (sigma) of the azimuthal ring peak needed for a confident ring. This and the three
 #: shape limits below were set on 60 generated non-lenses (spirals, ring galaxies, pairs, star +
@@ -344,9 +345,9 @@ def find_ring(
                              "give a centre inside it.")
     check_stop(should_stop)
     warnings: list[str] = []
-    pedestal_note = ""
+    pedestal, pedestal_note = 0.0, ""
     if residual is None:
-        img, pedestal_note = _remove_pedestal(img)
+        img, pedestal, pedestal_note = remove_sky_pedestal(img, PEDESTAL_SIGMAS)
     masks = None
     if auto_mask or mask is not None or colour is not None:
         reach = float(max_radius_pix) if max_radius_pix is not None else DEFAULT_MAX_RADIUS_PIX
@@ -372,21 +373,11 @@ def find_ring(
         out = _flag_unresolved(_two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop))
     if pedestal_note:
         out.warnings.insert(0, pedestal_note)
+        if out.lens_light is not None:  # the light model describes the image as given: its sky included
+            out.lens_light.model = out.lens_light.model + pedestal
+            out.lens_light.sky += pedestal
     return _finish(out, masks, given, colour is not None, compressed)
 
-
-def _remove_pedestal(img: np.ndarray) -> tuple[np.ndarray, str]:
-    """Subtract a sky level left in the image (measured on its border, :func:`border_sky`) when it stands
-    more than :data:`PEDESTAL_SIGMAS` noise sigmas from zero; the segmentation and the ring search assume
-    a sky-subtracted cutout."""
-    from lensmass.core.sky_level import border_sky
-
-    sky, sigma = border_sky(img)
-    if not (np.isfinite(sky) and sigma > 0 and abs(sky) > PEDESTAL_SIGMAS * sigma):
-        return img, ""
-    note = (f"A sky level of {sky:.4g} ({sky / sigma:.0f} noise sigma) measured on the cutout's border was "
-            "subtracted first.")
-    return np.asarray(img, float) - sky, note
 
 
 def _masks(img, cx, cy, given, rmax, mask, colour, auto_mask):

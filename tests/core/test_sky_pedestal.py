@@ -37,3 +37,15 @@ def test_ring_found_the_same_under_a_sky_level_and_other_units(seed):
         assert out.found and abs(out.radius_pix / truth - 1) < 0.05
         assert abs(out.radius_pix - clean.radius_pix) < np.hypot(out.radius_err_pix, clean.radius_err_pix)
         assert any("sky level" in w for w in out.warnings)
+
+
+def test_lens_light_model_describes_the_image_as_given():
+    # residual = image - model (lenslight.LensLightModel's definition) must hold for the image the user gave.
+    c = make_cutout(600414, "ring+star")
+    noise = border_sky(c.image)[1]
+    img = c.image + 400.0 * noise
+    light = find_ring(img).lens_light
+    assert light is not None
+    ok = np.isfinite(light.residual)
+    np.testing.assert_allclose(light.residual[ok], (img - light.model)[ok], atol=1e-6 * 400.0 * noise)
+    assert light.sky == pytest.approx(400.0 * noise, rel=0.01)
