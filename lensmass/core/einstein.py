@@ -392,6 +392,7 @@ def find_ring_on_image(
     cx, cy = (None, None) if center is None else center
     return find_ring(data, cx, cy, residual=residual, max_radius_pix=max_radius_pix, mask=mask,
                      colour=getattr(image, "rgb", None), compressed=bool(getattr(image, "lossy", False)),
+                     stretched=bool(getattr(image, "eight_bit", False)),
                      progress=progress, should_stop=should_stop)
 
 

@@ -90,6 +90,8 @@ class LoadedImage:
     rgb: np.ndarray | None = None
     #: True for pictures stored with lossy compression (JPEG): the ring finder widens its error.
     lossy: bool = False
+    #: True for 8-bit pictures (PNG/JPEG/TIFF): values through a display stretch, not flux.
+    eight_bit: bool = False
     #: NaN pixels, when the reader already counted them (else counted by ``load_image``).
     masked_pixels: int | None = field(default=None, repr=False)
 
@@ -514,13 +516,14 @@ def _load_raster(p: Path) -> LoadedImage:
     from PIL import Image as _pil
 
     rgb = None
-    lossy = False
+    lossy = eight_bit = False
     try:
         with Image.open(p) as im:
             lossy = im.format in ("JPEG", "MPO")
             _check_size(p, im.size[1], im.size[0])
             im.load()
             mode = im.mode
+            eight_bit = mode in ("1", "L", "P", "RGB", "RGBA", "LA", "CMYK", "YCbCr")
             if mode in ("RGB", "RGBA", "P", "LA", "CMYK", "YCbCr"):
                 rgb = np.asarray(im.convert("RGB"), dtype=np.float32)
                 # ITU-R BT.601 luma weights (common practice for a grey version of a picture).
@@ -544,7 +547,8 @@ def _load_raster(p: Path) -> LoadedImage:
     notes.append("Pictures (PNG/JPEG/TIFF) carry no sky coordinates; pixel values may be stretched, not linear flux.")
     if rgb is not None and np.ptp(rgb[..., 0] - rgb[..., 2]) == 0:
         rgb = None  # a grey picture saved as RGB carries no colour
-    return LoadedImage(data=data, path=str(p), kind="raster", notes=notes, rgb=rgb, lossy=lossy)
+    return LoadedImage(data=data, path=str(p), kind="raster", notes=notes, rgb=rgb, lossy=lossy,
+                       eight_bit=eight_bit)
 
 
 def _count_nan(data: np.ndarray) -> int:
