@@ -209,8 +209,9 @@ def ridge_peak(radii: np.ndarray, values: np.ndarray, r_start: float, width: flo
     # MINPACK's lmder through scipy's leastsq: the call least_squares(method="lm") makes (same tolerances,
     # evaluation limit and scaling), without its wrappers, which cost as much as the fit (45 fits a 2048^2 field).
     try:
-        x_lm, _, _, _, info = leastsq(fun, p0, Dfun=jac, full_output=True, ftol=1e-8, xtol=1e-8, gtol=1e-8,
-                                      maxfev=400)
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):  # leastsq's covariance (unused)
+            x_lm, _, _, _, info = leastsq(fun, p0, Dfun=jac, full_output=True, ftol=1e-8, xtol=1e-8, gtol=1e-8,
+                                          maxfev=400)
         if info in (1, 2, 3, 4) and np.all(x_lm >= lo) and np.all(x_lm <= hi):
             return float(x_lm[1])
         sol = least_squares(fun, p0, jac=jac, method="trf", bounds=(lo, hi), max_nfev=400)
