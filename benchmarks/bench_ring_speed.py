@@ -6,23 +6,30 @@ The field: an SIE ring (theta_E 1.4", 0.2" pixels) behind an n = 4 lens galaxy, 
 beside the ring and a Moffat star 4" from the lens (the finder masks both). Printed: the finder's best
 wall time and the CPU time of that call (time.process_time, all threads), the baseline of one
 full-image bincount azimuthal profile timed interleaved with it, their ratio, the ratio to the 0.5 s
-target, and the share of the CPU time spent in the lens-light fits. This machine is shared: judge by
+target, the share of the CPU time spent in the lens-light fits, and the machine's load average. This machine is shared: judge by
 CPU time, and compare a change with its parent by alternating runs (DEVELOPERS.md).
 --profile prints the 20 functions with the most time of their own (cProfile).
 
-Measured (2026-12-03, 2 shared cores, load average 1.5-2.4, alternating runs with main, best of 5):
-this branch 0.45-0.49 s CPU (wall the same; medians 0.47-0.51 s), lens-light fits 0.28-0.30 s (~60%);
-main 0.90-1.03 s CPU (fits 0.64-0.75 s, 71%); baseline one full-image bincount 0.062-0.079 s CPU, so
-the finder costs 6.2-7.5 bincounts (main 12.4-14.7); target 0.5 s: x0.90-0.99 (thin margin on a busy machine).
-What changed: the lens-light fit's solver (a Levenberg-Marquardt loop on the soft-L1 cost instead of
-scipy's trust-region solver, whose bookkeeping cost as much as the model), the Jacobian reusing the
-model's powers and exponentials, the refit with the ring masked starting from the first fit, ridge
-fits by MINPACK first, and no light-peak search when the masks choose the lens.
+Measured 2026-12-03 (h14h), 2 cores shared with three engineers' sweeps (load average 7.0-7.7: CPU times
+run ~1.5x a quiet machine's), three runs alternating with main (4969966, which added the border-sky step),
+best of 5 (median): this branch 0.427-0.503 s CPU (0.452-0.510), wall 0.86-1.01 s; main 0.652-0.741 s
+(0.693-0.804), wall 1.31-1.49 s; lens-light fits 0.25-0.31 s (main 0.35-0.40); baseline one full-image
+bincount 0.069-0.073 s CPU, so the finder costs 6.2-7.1 bincounts (main 9.5-10.4): x0.62-0.68 of main.
+Target 0.5 s: x0.85-1.01 at that load; the lead's quiet runs of main before the border-sky step gave 0.437 s
+best, so a quiet machine should give about 0.30-0.35 s (not measured: the machine was never quiet).
+What changed (h14h): the lens-light model and Jacobian in float32 on offsets from the starting centre (the
+sky in float64; the axis ratio free to pass 1, and the solver's bound tolerance 1e-6, so a float32 cost
+still converges), the blurred profile reused as the Jacobian's flux column, b_n cached per n; ridge fits
+through scipy leastsq (same MINPACK call as least_squares 'lm', without its wrappers); the ellipse fit's
+analytic Jacobian; the border-sky statistics on a sub-sample of ~1e5 rim pixels (0.16 -> 0.02 s).
+Earlier (h14f): 0.45-0.49 s against 0.90-1.03 s at load 1.5-2.4 (the Levenberg-Marquardt solver, the
+Jacobian reusing the model's powers, the refit starting from the first fit, MINPACK ridge fits first).
 """
 
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 import time
 from pathlib import Path
@@ -95,7 +102,7 @@ def main(repeat: int = 5, profile: bool = False) -> None:
           f"x{c / TARGET_S:.2f} by CPU); lens-light fits {f:.3f} s CPU ({f / c:.0%}); baseline one full-image "
           f"bincount profile {wb:.3f} s wall, {cb:.3f} s CPU (finder x{c / cb:.1f} by CPU); radius "
           f"{r.radius_pix * 0.2:.3f} +- {r.radius_err_pix * 0.2:.3f}\" (truth 1.4\"), {n_masked} object(s) masked; "
-          f"median of {repeat}: {np.median([x[1] for x in runs]):.3f} s CPU")
+          f"median of {repeat}: {np.median([x[1] for x in runs]):.3f} s CPU; load average {os.getloadavg()[0]:.1f}")
     if profile:
         import cProfile
         import pstats

@@ -57,6 +57,8 @@ ANGLE_RANGE_DEG = np.inf
 PSF_SIGMA_MAX_PIX = 12.0
 #: Smallest PSF sigma (pixels) the fit may take.
 PSF_SIGMA_MIN_PIX = 0.2
+#: Smallest axis ratio the fit may take.
+Q_MIN = 0.15
 #: Range of the Sersic index the fit may take.
 SERSIC_N_BOUNDS = (0.4, 8.0)
 #: Scale (in sigma) where the soft-L1 cost turns from quadratic to linear.
@@ -214,9 +216,13 @@ def fit_lens_light(
     n_lo, n_hi = SERSIC_N_BOUNDS
     start = np.array([0.0, 0.0, 0.0, 0.0, ang0, cx0, cy0, 0.0, 0.0])
     p0 = np.array([np.log(max(flux0, 1e-9)), np.log(re0), 3.0, q0, 0.0, 0.0, 0.0, 0.0, np.log(1.5)])
-    lo = np.array([-np.inf, np.log(0.3), n_lo, 0.15, -ANGLE_RANGE_DEG, -CENTER_RANGE_PIX, -CENTER_RANGE_PIX, -np.inf,
+    lo = np.array([-np.inf, np.log(0.3), n_lo, Q_MIN, -ANGLE_RANGE_DEG, -CENTER_RANGE_PIX, -CENTER_RANGE_PIX, -np.inf,
                    np.log(PSF_SIGMA_MIN_PIX)])
-    hi = np.array([np.inf, np.log(3 * rf), n_hi, 1.0, ANGLE_RANGE_DEG, CENTER_RANGE_PIX, CENTER_RANGE_PIX, np.inf,
+    # The axis ratio may pass 1 (q > 1 is the galaxy 1/q elongated across the angle; turned back at the end).
+    # Bounded at 1, a fit that reached q = 1 could leave it only by turning the angle, which has no hold
+    # there: cost changes of 1e-8 of the cost did it, or nothing (panel seed 71026 stayed at q = 1 with a
+    # float32 model, cost 1232 against 1034 at q = 0.88).
+    hi = np.array([np.inf, np.log(3 * rf), n_hi, 1.0 / Q_MIN, ANGLE_RANGE_DEG, CENTER_RANGE_PIX, CENTER_RANGE_PIX, np.inf,
                    np.log(PSF_SIGMA_MAX_PIX)])
     if initial is not None and initial.ok:  # an earlier fit's answer (the ring finder's refit with the ring masked)
         start[4] = initial.angle_deg
@@ -226,15 +232,24 @@ def fit_lens_light(
     p0 = np.clip(p0, lo + 1e-9, hi - 1e-9)
     calls = [0]
     weight = np.ones(vs.size)
-    core = core_pixels((cx0, cy0), xx, yy, f, reach=CENTER_RANGE_PIX)
+    # The model is computed on float32 offsets from the starting centre (the solver's centre parameters
+    # are offsets too): exp and log run at twice the float64 speed, and float32's 1e-7 of the model lies
+    # far below any pixel's noise. Absolute coordinates (~1000 on a large image) would keep only 6e-5
+    # pixel in float32, too coarse for the cusp.
+    dxx, dyy = (xx - cx0).astype(np.float32), (yy - cy0).astype(np.float32)
+    core = core_pixels((0.0, 0.0), dxx, dyy, f, reach=CENTER_RANGE_PIX)
+    at_sel = np.flatnonzero(sel)
+    rel = start.copy()
+    rel[5:7] = 0.0
 
     # The model and the Jacobian at the last few parameter vectors are kept: each round of _robust_rounds
     # evaluates both again where the previous round stopped (the weights change, the model does not).
-    # The profile's powers and exponentials at the last parameter vectors serve the Jacobian at the same
-    # point (the solver asks for the Jacobian only where it has just evaluated the model).
-    terms_at = _Recent(lambda q: grid_and_core_terms(q, xx, yy, f, core), keep=2)
-    model_sel = _Recent(lambda q: blurred_sersic_on_grid(q, xx, yy, f, core, terms_at(q))[sel])
-    jac_sel = _Recent(lambda q: blurred_sersic_jacobian(q, xx, yy, f, core, terms_at(q))[:, sel].T)
+    # The profile's powers and exponentials and the blurred profile at the last parameter vectors serve
+    # the Jacobian at the same point (the solver asks for the Jacobian only where it has just evaluated
+    # the model).
+    terms_at = _Recent(lambda q: grid_and_core_terms(q, dxx, dyy, f, core), keep=2)
+    model_sel = _Recent(lambda q: blurred_sersic_on_grid(q, dxx, dyy, f, core, terms_at(q)).ravel()[at_sel])
+    jac_sel = _Recent(lambda q: blurred_sersic_jacobian(q, dxx, dyy, f, core, terms_at(q)).reshape(9, -1)[:, at_sel].T)
 
     def residuals(p):
         calls[0] += 1
@@ -242,17 +257,19 @@ def fit_lens_light(
             check_stop(should_stop)
             report(progress, min(0.85, 0.85 * calls[0] / 600))
         with np.errstate(over="ignore", invalid="ignore"):
-            res = (model_sel(p + start) - vs) / noise_bin
+            res = (model_sel(p + rel) - vs) / noise_bin
         return _finite(weight * res, 1e6)
 
     def jacobian(p):
         with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-            jac = jac_sel(p + start)
+            jac = jac_sel(p + rel)
         return _finite(jac * (weight / noise_bin)[:, None], 0.0)
 
     with threadpool_limits(1):  # 9-column products: BLAS threads only contend (up to 10x slower on 2 busy cores)
-        sol, p = _robust_rounds(residuals, jacobian, p0, lo, hi, start, model_sel, vs, noise_bin, weight)
+        sol, p = _robust_rounds(residuals, jacobian, p0, lo, hi, rel, model_sel, vs, noise_bin, weight)
     p = p + start
+    if p[3] > 1.0:  # the same galaxy with its axes swapped
+        p[3], p[4] = 1.0 / p[3], p[4] + 90.0
     if sol.status == 0:
         notes.append("The lens-light fit stopped before converging; check the residual image.")
     n_clipped = int((weight == 0).sum())

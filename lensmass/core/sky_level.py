@@ -80,6 +80,10 @@ def bright_centre(data: np.ndarray, sigmas: float = BRIGHT_SIGMAS, picture: bool
 
 #: The rim used for :func:`border_sky`: this fraction of the shorter side (at least 3 pixels).
 BORDER_FRACTION = 0.06
+#: At most about this many rim pixels (a regular sub-sample) enter the clipped statistics: they fix the sky to
+#: 0.4% of the noise (the median's standard error, 1.25 sigma / sqrt(n)), and the whole rim of a 2048 x 2048
+#: image (940 000 pixels) cost 0.1 s, a fifth of the ring finder's time there.
+RIM_SAMPLE = 100_000
 
 
 def border_sky(data: np.ndarray) -> tuple[float, float]:
@@ -98,10 +102,11 @@ def border_sky(data: np.ndarray) -> tuple[float, float]:
     """
     from astropy.stats import sigma_clipped_stats
 
-    data = np.asarray(data, float)
+    data = np.asarray(data)
     w = max(3, int(BORDER_FRACTION * min(data.shape)))
     rim = np.concatenate([data[:w].ravel(), data[-w:].ravel(), data[w:-w, :w].ravel(), data[w:-w, -w:].ravel()])
-    rim = rim[np.isfinite(rim)]
+    rim = np.asarray(rim, float)
+    rim = rim[np.isfinite(rim)][:: max(1, rim.size // RIM_SAMPLE)]
     if rim.size < 20:
         return float("nan"), float("nan")
     _, median, std = sigma_clipped_stats(rim, sigma=3.0, maxiters=10)

@@ -64,6 +64,21 @@ def test_bright_galaxy_far_from_the_origin():
     assert m.sersic_n == pytest.approx(4.0, abs=0.2)
 
 
+def test_start_across_the_major_axis_passes_through_round():
+    # Started round-ish (q = 0.95) with the major axis 90 deg from the truth (astropy Sersic2D, q = 0.6 at
+    # 30 deg), the fit turns the galaxy through q = 1 (it passes q = 1.66 on the way), where the angle has no
+    # hold: it ends at the truth, reported as q <= 1 and the angle in [0, 180).
+    x0, y0 = 47.3, 48.6
+    img = _astropy_galaxy(x0, y0, n=2.0, q=0.6, theta_rad=np.radians(30.0), peak_sigma=500.0)
+    first = fit_lens_light(img, x0, y0)
+    first.axis_ratio, first.angle_deg = 0.95, 120.0
+    m = fit_lens_light(img, x0, y0, initial=first)
+    assert m.axis_ratio == pytest.approx(0.6, abs=0.02)
+    assert 0.0 <= m.angle_deg < 180.0
+    assert (m.angle_deg - 30.0 + 90) % 180 - 90 == pytest.approx(0.0, abs=2.0)
+    assert m.r_eff_pix == pytest.approx(6.0, rel=0.05)
+
+
 def test_exponential_disc_with_gaussian_seeing():
     # A blurred n = 1 disc (Gaussian PSF of 2 px sigma by scipy.ndimage.gaussian_filter): the fitted
     # PSF FWHM is 2.355 sigma (Gaussian FWHM, common practice).
