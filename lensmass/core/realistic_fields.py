@@ -233,7 +233,8 @@ def colour_picture(cutout: Cutout, *, soft: float | None = None, top: float | No
       percentile of the i band) maps to 255.
     - ``"lupton"`` / ``"lupton-mild"``: astropy's ``make_lupton_rgb`` (Lupton et al. 2004): the
       asinh of the mean intensity applied as one factor to all bands, saturated pixels scaled to
-      keep their colour. ``"lupton"`` has Q = 8 and a softening of ``soft`` noise sigma (default 2);
+      keep their colour. ``"lupton"`` has Q = 8 and ``stretch`` = 4 ``soft`` noise sigma (default 2:
+      linear up to one sigma, the top at 1490 sigma);
       ``"lupton-mild"`` has Q = 3 and its top at the 99.8th percentile of the intensity.
     - ``"sqrt"`` / ``"linear"``: each band's square root (or the band itself) from 0 to its
       :data:`CLIP_PERCENTILE` percentile, clipped.
@@ -254,7 +255,7 @@ def colour_picture(cutout: Cutout, *, soft: float | None = None, top: float | No
         from astropy.visualization import make_lupton_rgb
 
         if stretch == "lupton":
-            q, width = 8.0, soft
+            q, width = 8.0, 4.0 * soft  # linear up to width / Q = soft / 2 noise sigma
         else:
             q = 3.0
             top = float(np.percentile((g + r + i) / 3, 99.8)) if top is None else float(top)
