@@ -164,3 +164,53 @@ def choose_strength(rgb: np.ndarray, center_x: float, center_y: float, within_pi
         if np.isfinite(k):
             costs[j] = float(np.median(np.abs(blue[near] - predicted_blue(red[near], k, a))))
     return float(strengths[int(np.argmin(costs))]), costs
+
+
+def noise_normalised(image: np.ndarray, center_x: float, center_y: float, bin_pix: float = 1.0,
+                     lag: int = 1) -> np.ndarray:
+    """An image divided by its own noise at each distance from the centre: a signal-to-noise map.
+
+    A stretched picture's gain (picture levels per unit flux) falls where the lens is bright: a
+    colour-keeping stretch divides every band by the same growing factor, a per-band stretch
+    compresses each band. The noise is scaled exactly as the signal is, so the ratio is free of the
+    stretch (for noise that is uniform in flux, as sky-limited images have). The noise at each
+    distance is 1.4826 x the median absolute difference of a pixel from the mean of its four
+    neighbours ``lag`` pixels away (over 1.118, the rms of that difference for white noise; a lag of
+    2 reads through the smoothing of lossy compression), in rings of ``bin_pix``,
+    smoothed over three rings; an arc wider than a pixel or two adds little to it.
+
+    Examples
+    --------
+    White noise whose amplitude grows tenfold towards the centre comes out uniform:
+
+    >>> yy, xx = np.mgrid[0:81, 0:81]
+    >>> r = np.hypot(xx - 40, yy - 40)
+    >>> noisy = np.random.default_rng(4).normal(0, 1, r.shape) * (1 + 9 * np.exp(-r / 20))
+    >>> snr = noise_normalised(noisy, 40, 40)
+    >>> [bool(abs(np.std(snr[m]) - 1) < 0.15) for m in (r < 10, r > 30)]
+    [True, True]
+    """
+    img = np.asarray(image, float)
+    d = int(lag)
+    pad = np.pad(img, d, constant_values=np.nan)
+    ny, nx = img.shape
+    with np.errstate(invalid="ignore"):
+        diff = img - 0.25 * (pad[:ny, d:d + nx] + pad[2 * d:, d:d + nx] + pad[d:d + ny, :nx] + pad[d:d + ny, 2 * d:])
+    yy, xx = np.mgrid[0:ny, 0:nx]
+    ring = (np.hypot(xx - center_x, yy - center_y) / bin_pix).astype(int)
+    ok = np.isfinite(diff)
+    n_rings = int(ring.max()) + 1
+    sigma = np.full(n_rings, np.nan)
+    order = np.argsort(ring[ok], kind="stable")
+    rs, ds = ring[ok][order], np.abs(diff[ok][order])
+    starts = np.searchsorted(rs, np.arange(n_rings + 1))
+    for k in range(n_rings):
+        if starts[k + 1] - starts[k] >= 8:
+            sigma[k] = 1.4826 * np.median(ds[starts[k]:starts[k + 1]]) / np.sqrt(1.25)
+    good = np.isfinite(sigma) & (sigma > 0)
+    if not good.any():
+        return img / (np.nanstd(img) or 1.0)
+    sigma = np.interp(np.arange(n_rings), np.flatnonzero(good), sigma[good])
+    sigma = np.convolve(np.pad(sigma, 1, mode="edge"), np.ones(3) / 3, mode="valid")
+    sigma = np.maximum(sigma, 0.05 * np.median(sigma[good]))
+    return img / sigma[ring]
