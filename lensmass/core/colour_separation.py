@@ -1,31 +1,33 @@
 """Arcs told from lens light by colour, on 8-bit stretched colour pictures (PNG/JPEG cutouts).
 
-A survey viewer's picture is each band passed through a monotone stretch, most often an
-asinh (Lupton et al. 2004, PASP 116, 133: common practice for colour cutouts), rounded to
-8 bits and clipped at 255. Such a picture carries no calibrated flux, but a per-pixel monotone
-stretch keeps each band's brightness order and, once undone, the ratios between bands. Lens
-light (an early-type galaxy) has one colour everywhere, so in linear flux the blue band is a
-fixed multiple of the red band on the lens; a lensed source (usually bluer) is not. The
-"arc image" ``blue - k * red`` (``k`` the lens's blue/red ratio) then holds the arcs and
-almost none of the lens, with no model of the lens light at all.
+A survey viewer's picture is each band passed through a monotone stretch (an asinh of each band, the
+colour-keeping asinh of the total intensity of Lupton et al. 2004, PASP 116, 133, a square root or a
+linear ramp clipped at a percentile: common practice), rounded to 8 bits and clipped at 255. Such a
+picture carries no calibrated flux, but a per-pixel monotone stretch puts the pixels of a lens of one
+colour (an early-type galaxy) on ONE monotone curve in the picture's (red, blue) plane: a straight
+line for the colour-keeping, square-root and linear stretches, a curve bending towards slope 1 for a
+per-band asinh. A lensed source (usually bluer) lies above it.
 
-How to undo the stretch is not written in the picture: the asinh strength
-``a = asinh(top / soft)`` (how far the brightest value lies in the logarithmic part of the
-stretch) could not be recovered from the lens alone (its core sits in the logarithmic part,
-where only ``log(k) / a`` is measured). So the arc image is made for a few strengths across
-the range survey pictures use (:data:`STRETCH_STRENGTHS`), the ring is measured on each, and
-the spread of those radii is part of the stated error: the display stretch cannot move the
-radius without the error saying so.
+The route here: the lens's own pixels inside the ring choose the curve among asinh strengths from
+nearly linear to strong (:func:`choose_strength`, the lens colour from its core); the "arc image"
+``blue - k * red`` in the flux that strength implies (``k`` the lens core's blue/red ratio) holds the
+arcs and almost none of the lens, with no model of the lens light; divided by its own noise at each
+radius (:func:`noise_normalised`) it becomes a signal-to-noise map that the stretch's falling gain
+towards the bright lens no longer bends. The radius moves a little between neighbouring strengths:
+that spread is part of the stated error, so the display stretch cannot move the radius without the
+error saying so.
 
-Everything here is our own method; pure numpy.
+A fit of the locus itself (medians of blue in bins of red, made monotone) was tried first and
+dropped: at the red values of a ring the ring's own pixels outnumber the lens's, so the measured
+curve follows the ring (tuning seeds 530000-530023, 10% of hard rings within 5%).
+
+Everything here is our own method; numpy and scipy.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-#: asinh strengths ``asinh(top / soft)`` tried: a top value 10 to 330 times the softening.
-STRETCH_STRENGTHS = (3.0, 4.0, 5.0, 6.5, 8.0)
 #: The lens colour is measured on the pixels inside this many pixels of the centre (at least the 12 brightest).
 CORE_RADIUS_PIX = 2.5
 

@@ -12,7 +12,8 @@ Method (our own):
    was chosen is always reported (``center_source``), with a hint when it is uncertain.
 1. Lens light: an elliptical Sersic fit (:mod:`lensmass.core.lenslight`) is subtracted. An 8-bit
    colour picture is searched instead on its arc images (:mod:`lensmass.core.colour_separation`:
-   blue minus the lens core's colour times red, the stretch undone for several asinh strengths),
+   blue minus the lens core's colour times red, the stretch read from the lens's own pixels, in units
+   of its own noise at each radius),
    where the lens light cancels by its colour, with no model of it.
 2. The residual around the centre is binned in radius (half-pixel bins) and in
    ``n_sectors`` equal sectors of azimuth. Three azimuthal profiles are searched: the mean of
@@ -122,10 +123,9 @@ MIN_PROMINENCE_SIGMA = 3.0
 STRETCHED_SYSTEMATIC = 0.06
 #: Systematic fractional radius error when the ring is seen on the arc image of only one asinh strength.
 STRETCH_SINGLE_SYSTEMATIC = 0.05
-#: Which colour route :func:`_colour_search` takes ("chosen", or "asinh" for five assumed asinh strengths).
-_COLOUR_ROUTE = "chosen"
-_NOISE_NORMALISED = True
-_JPEG_LAG = 2
+#: The noise of a lossy-compressed picture's arc image is read from differences this many pixels apart
+#: (JPEG's quantisation drops the pixel-scale noise, so neighbouring pixels understate it).
+LOSSY_NOISE_LAG_PIX = 2
 #: asinh strength at which a colour picture is linearised for its masks and lens centre (:func:`colour_mask_image`).
 COLOUR_MASK_STRENGTH = 5.0
 #: Radius (pixels) of the lens core whose pixels choose the picture's stretch before a ring is seen.
@@ -468,16 +468,13 @@ def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_sto
     from lensmass.core.colour_separation import (LOCUS_STRENGTHS, arc_image, choose_strength, noise_normalised,
                                                   saturated)
 
-    if _COLOUR_ROUTE == "asinh":
-        return _asinh_colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_stop)
     masked = binary_dilation(~np.isfinite(img) | saturated(rgb), iterations=COLOUR_MASK_GROW_PIX)
     runs: dict[float, RingResult] = {}
 
     def search(strength):
         if strength not in runs:
             arcs = arc_image(rgb, cx, cy, strength, mask=masked)
-            if _NOISE_NORMALISED:
-                arcs = noise_normalised(arcs, cx, cy, lag=_JPEG_LAG if compressed else 1)
+            arcs = noise_normalised(arcs, cx, cy, lag=LOSSY_NOISE_LAG_PIX if compressed else 1)
             # Stars and neighbours as the arc image shows them (a blue neighbour stays in it).
             arcs[_masks(arcs, cx, cy, True, rmax, None, None, True).mask] = np.nan
             runs[strength] = _search(arcs, cx, cy, rmin, rmax, n_sectors, None, [], None, should_stop)
@@ -506,38 +503,6 @@ def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_sto
     best.warnings.append(f"Arcs told from the lens light by colour (bluer than the lens core), with the picture's "
                          f"stretch read from the lens's own pixels (asinh strength {strength:g}; the radius moves "
                          f"by {spread:.2f} pixels between the neighbouring strengths, which is in the error).")
-    report(progress, 1.0)
-    return best
-
-
-def _asinh_colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_stop) -> RingResult:
-    """The ring on the arc images of a colour picture (:mod:`lensmass.core.colour_separation`), one for each
-    asinh strength tried; the radius of the middle strength (or the most significant), the spread of
-    the agreeing radii added to its error. No arcs bluer than the lens: the grey picture's search."""
-    from lensmass.core.colour_separation import STRETCH_STRENGTHS, arc_image
-
-    from scipy.ndimage import binary_dilation
-
-    from lensmass.core.colour_separation import saturated
-
-    masked = binary_dilation(~np.isfinite(img) | saturated(rgb), iterations=COLOUR_MASK_GROW_PIX)
-    tries = []
-    for i, strength in enumerate(STRETCH_STRENGTHS):
-        arcs = arc_image(rgb, cx, cy, strength, mask=masked)
-        # Stars and neighbours as the arc image shows them (a blue neighbour stays in it).
-        arcs[_masks(arcs, cx, cy, True, rmax, None, None, True).mask] = np.nan
-        tries.append(_search(arcs, cx, cy, rmin, rmax, n_sectors, None, [], None, should_stop))
-        report(progress, (i + 1) / (len(STRETCH_STRENGTHS) + 1))
-    middle = tries[len(tries) // 2]
-    best = middle if middle.found else max(tries, key=lambda t: t.score if t.found else -np.inf)
-    if not best.found:
-        return _flag_unresolved(_two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop))
-    radii = [t.radius_pix for t in tries if t.found and abs(t.radius_pix - best.radius_pix) <= 0.2 * best.radius_pix]
-    spread = 0.5 * (max(radii) - min(radii)) if len(radii) > 1 else STRETCH_SINGLE_SYSTEMATIC * best.radius_pix
-    best.radius_err_pix = float(np.hypot(best.radius_err_pix, spread))
-    best.warnings.append(f"Arcs told from the lens light by colour (bluer than the lens core) on the picture's "
-                         f"bands with the stretch undone for {len(tries)} asinh strengths; {len(radii)} agreed, "
-                         f"their spread ({spread:.2f} pixels) is in the error.")
     report(progress, 1.0)
     return best
 
