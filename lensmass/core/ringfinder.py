@@ -469,16 +469,20 @@ def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_sto
                                                   saturated)
 
     masked = binary_dilation(~np.isfinite(img) | saturated(rgb), iterations=COLOUR_MASK_GROW_PIX)
-    runs: dict[float, RingResult] = {}
+    runs: dict[tuple[float, int], RingResult] = {}
+    objects: list[np.ndarray] = []
 
-    def search(strength):
-        if strength not in runs:
+    def search(strength, sectors=n_sectors):
+        if (strength, sectors) not in runs:
             arcs = arc_image(rgb, cx, cy, strength, mask=masked)
             arcs = noise_normalised(arcs, cx, cy, lag=LOSSY_NOISE_LAG_PIX if compressed else 1)
-            # Stars and neighbours as the arc image shows them (a blue neighbour stays in it).
-            arcs[_masks(arcs, cx, cy, True, rmax, None, None, True).mask] = np.nan
-            runs[strength] = _search(arcs, cx, cy, rmin, rmax, n_sectors, None, [], None, should_stop)
-        return runs[strength]
+            # Stars and neighbours as the first arc image shows them (a blue neighbour stays in it); the
+            # other strengths reuse that mask (segmenting each costs as much as its ring search).
+            if not objects:
+                objects.append(_masks(arcs, cx, cy, True, rmax, None, None, True).mask)
+            arcs[objects[0]] = np.nan
+            runs[strength, sectors] = _search(arcs, cx, cy, rmin, rmax, sectors, None, [], None, should_stop)
+        return runs[strength, sectors]
 
     def chosen(within):
         a, _ = choose_strength(rgb, cx, cy, within, usable=~masked)
@@ -494,8 +498,8 @@ def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_sto
         return _flag_unresolved(_two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop))
     j = LOCUS_STRENGTHS.index(strength)
     radii = [best.radius_pix]
-    for other in LOCUS_STRENGTHS[max(0, j - 1): j + 2]:
-        t = search(other)
+    for other in (*LOCUS_STRENGTHS[max(0, j - 1): j], *LOCUS_STRENGTHS[j + 1: j + 2]):
+        t = search(other, max(8, n_sectors // 2))  # half the sectors: the neighbours only measure the spread
         if t.found and abs(t.radius_pix - best.radius_pix) <= 0.2 * best.radius_pix:
             radii.append(t.radius_pix)
     spread = 0.5 * (max(radii) - min(radii)) if len(radii) > 1 else STRETCH_SINGLE_SYSTEMATIC * best.radius_pix
