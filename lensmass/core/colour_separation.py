@@ -169,7 +169,7 @@ def choose_strength(rgb: np.ndarray, center_x: float, center_y: float, within_pi
 
 
 def noise_normalised(image: np.ndarray, center_x: float, center_y: float, bin_pix: float = 1.0,
-                     lag: int = 1) -> np.ndarray:
+                     lag: int = 1, floor: float = 0.05) -> np.ndarray:
     """An image divided by its own noise at each distance from the centre: a signal-to-noise map.
 
     A stretched picture's gain (picture levels per unit flux) falls where the lens is bright: a
@@ -179,7 +179,8 @@ def noise_normalised(image: np.ndarray, center_x: float, center_y: float, bin_pi
     distance is 1.4826 x the median absolute difference of a pixel from the mean of its four
     neighbours ``lag`` pixels away (over 1.118, the rms of that difference for white noise; a lag of
     2 reads through the smoothing of lossy compression), in rings of ``bin_pix``,
-    smoothed over three rings; an arc wider than a pixel or two adds little to it.
+    smoothed over three rings, and at least ``floor`` times its median over the rings; an arc wider
+    than a pixel or two adds little to it.
 
     Examples
     --------
@@ -214,5 +215,5 @@ def noise_normalised(image: np.ndarray, center_x: float, center_y: float, bin_pi
         return img / (np.nanstd(img) or 1.0)
     sigma = np.interp(np.arange(n_rings), np.flatnonzero(good), sigma[good])
     sigma = np.convolve(np.pad(sigma, 1, mode="edge"), np.ones(3) / 3, mode="valid")
-    sigma = np.maximum(sigma, 0.05 * np.median(sigma[good]))
+    sigma = np.maximum(sigma, floor * np.median(sigma[good]))
     return img / sigma[ring]
