@@ -143,10 +143,10 @@ STRENGTH_SPREAD_SHARE = 1.0
 COLOUR_MASK_GROW_PIX = 4
 #: Factor on the radius error of a colour picture stored with lossy compression (JPEG: blocks, and colour
 #: kept at half resolution, which smears thin blue arcs; a tail of wrong radii that no additive term
-#: covers). Tuning seeds 530100-530189 (90 lenses, with the 7% above): truth inside 1/2 sigma JPEG q75
-#: (Lupton) 69%/87% at 1.6, 72%/90% at 1.8; JPEG q90 (per-band asinh) 81%/99% at 1.6, 91%/99% at 1.8 (too
-#: wide: one factor cannot serve every quality; 1.8 keeps the worse covered).
-LOSSY_ERROR_SCALE = 1.8
+#: covers). Tuning seeds 530100-530189 (90 lenses of every kind, with the 7% above and the noise floor
+#: below): truth inside 1/2 sigma JPEG q75 (Lupton) 69%/90% at 1.4, 85%/95% at 1.8; JPEG q90 (per-band
+#: asinh) 78%/95% at 1.4 (one factor serves both qualities only roughly).
+LOSSY_ERROR_SCALE = 1.4
 #: Share of half the radius difference of an arc pair kept as a systematic error (ellipticity, shear).
 PAIR_SYSTEMATIC = 0.3
 #: A sky level on the cutout's border beyond this many noise sigmas is subtracted before the search (an
