@@ -25,6 +25,19 @@ colour pictures' rates as high as the FITS's of the same fields.
 Seeds: the colour route was tuned on 510000-519999 and checked on 610000-610999; 700000-899999 are
 kept for the final evaluation.
 
+Colour route reading the stretch from the lens's pixels (h14g, 2026-12-03; CPU shared by ~9 processes, so
+figures, not times). Hard rings only (HARD=1), check seeds 630000-630149, 150 each, within 5% with the 95%
+Clopper-Pearson interval, and truth inside 1/2 sigma: per-band asinh softening 2: 83% (124/150, 76-88%),
+97%/100%; Lupton Q 8: 79% (119/150, 72-86%), 90%/99%; clipped linear: 88% (132/150, 82-93%), 96%/97%;
+JPEG q75 Lupton: 49% (74/150, 41-57%), 87%/98%. (The PNG runs were made before the arc-image mask was reused
+across strengths and the neighbouring strengths searched on half the sectors; the JPEG run after.) On hard
+rings the errors are wide, since the 7% stretch term is set on every kind of lens: tuning seeds
+530100-530189 (90 lenses of every kind) give per-band asinh 40% within 5%, inside 1/2 sigma 71%/94%, Lupton 36%,
+62%/90%, sqrt 40%, 70%/91%, JPEG q90 asinh 17%, 78%/95%, JPEG q75 Lupton 28%, 69%/90% (FITS of such samples:
+~44% within 5%). Before (the five assumed asinh strengths), tuning seeds 530000-530023 (24 hard rings): per-band
+asinh 75%, Lupton 50%, sqrt 62%, linear 58%, Lupton Q 3 58%; after: 92%, 83%, 92%, 75%, 71%.
+CPU a cutout, alternating on 8 hard rings: FITS 0.25 s, the colour route 0.43-0.62 s median (2.7-3.6x by mean).
+
 Measured on the colour branch alone (h14e, before the lens-light fit and neighbour masks above were merged;
 CPU-bound machine shared by 7, figures not times): rings within 5% / truth inside 1 and 2 sigma
 - tuning seeds 510300-510479 (120 lenses, 60 non-lenses): FITS 77% / 67% / 96% (confident non-lenses 6.7%);

@@ -323,8 +323,9 @@ def find_ring(
         The RGB picture the image came from (8-bit stretched survey cutouts): arcs are told
         from lens light by being bluer, and the errors are widened for the stretch.
     compressed : bool
-        The colour picture was stored with lossy compression (JPEG): the error is scaled by
-        :data:`LOSSY_ERROR_SCALE`.
+        The colour picture was stored with lossy compression (JPEG): its arc image's noise is read
+        through the compression's smoothing (:data:`LOSSY_NOISE_LAG_PIX`, :data:`LOSSY_NOISE_FLOOR`)
+        and the error is scaled by :data:`LOSSY_ERROR_SCALE`.
     progress, should_stop : callables, optional
         Progress fraction 0..1 and cancellation (raises ``OperationCancelled``).
 
