@@ -36,6 +36,8 @@ rings the errors are wide, since the 7% stretch term is set on every kind of len
 62%/90%, sqrt 40%, 70%/91%, JPEG q90 asinh 17%, 78%/95%, JPEG q75 Lupton 28%, 69%/90% (FITS of such samples:
 ~44% within 5%). Before (the five assumed asinh strengths), tuning seeds 530000-530023 (24 hard rings): per-band
 asinh 75%, Lupton 50%, sqrt 62%, linear 58%, Lupton Q 3 58%; after: 92%, 83%, 92%, 75%, 71%.
+Non-lenses (seeds 631000-631035, 36): any ring on FITS 16, per-band asinh PNG 16, Lupton Q 8 PNG 25 (more
+than FITS: an open item); confident 0 on each.
 CPU a cutout, alternating on 8 hard rings: FITS 0.25 s, the colour route 0.43-0.62 s median (2.7-3.6x by mean).
 
 Measured on the colour branch alone (h14e, before the lens-light fit and neighbour masks above were merged;
