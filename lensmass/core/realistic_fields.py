@@ -35,6 +35,7 @@ from scipy.ndimage import binary_dilation, gaussian_filter, map_coordinates
 from scipy.signal import fftconvolve
 
 from lensmass.core import raytrace as rt
+from lensmass.core.colour_pictures import CLIP_PERCENTILE, STRETCHES, _stretch_8bit, colour_picture  # noqa: F401
 
 #: Kinds of cutout the generator makes.
 LENS_KINDS = ("ring", "arc", "ring+neighbour", "ring+star", "arc+neighbour", "arc+star")
@@ -199,27 +200,6 @@ def _spiral(xx, yy, x0, y0, re, q, ang, rng):
     arms = 1 + 0.8 * np.cos(2 * (phi - np.log(r / re) / np.tan(pitch)))
     disc = np.exp(-1.678 * r / re) * arms
     return disc / (disc.sum() + 1e-30)
-
-
-def _stretch_8bit(bands: np.ndarray, soft: float, top: float) -> np.ndarray:
-    """Bands (3, ny, nx) -> 8-bit RGB (ny, nx, 3): i -> red, r -> green, g -> blue, asinh stretch
-    of each band with one softening and one top value (colours kept; Lupton et al. 2004 style)."""
-    g, r, i = bands
-    rgb = np.stack([i, r, g], axis=-1)
-    v = np.arcsinh(np.clip(rgb, 0, None) / soft) / np.arcsinh(top / soft)
-    return np.clip(np.round(255 * v), 0, 255).astype(np.uint8)
-
-
-def colour_picture(cutout: Cutout, *, soft: float | None = None, top: float | None = None) -> np.ndarray:
-    """The cutout as an 8-bit stretched RGB picture (ny, nx, 3), as survey viewers show it.
-
-    ``soft`` (in noise units, default 2) sets where the asinh stretch turns from linear to
-    logarithmic; ``top`` (default the 99.8th percentile of the i band) maps to 255.
-    """
-    b = cutout.bands
-    soft = 2.0 if soft is None else float(soft)
-    top = float(np.percentile(b[2], 99.8)) if top is None else float(top)
-    return _stretch_8bit(b, soft, max(top, 3 * soft))
 
 
 def make_cutout(seed: int, kind: str | None = None, *, lens: bool | None = None, size: int | None = None,

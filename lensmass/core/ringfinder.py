@@ -12,7 +12,8 @@ Method (our own):
    was chosen is always reported (``center_source``), with a hint when it is uncertain.
 1. Lens light: an elliptical Sersic fit (:mod:`lensmass.core.lenslight`) is subtracted. An 8-bit
    colour picture is searched instead on its arc images (:mod:`lensmass.core.colour_separation`:
-   blue minus the lens core's colour times red, the stretch undone for several asinh strengths),
+   blue minus the lens core's colour times red, the stretch read from the lens's own pixels, in units
+   of its own noise at each radius),
    where the lens light cancels by its colour, with no model of it.
 2. The residual around the centre is binned in radius (half-pixel bins) and in
    ``n_sectors`` equal sectors of azimuth. Three azimuthal profiles are searched: the mean of
@@ -115,22 +116,37 @@ REFIT_SHIFT_SYSTEMATIC = 0.5
 FIRST_PASS_SYSTEMATIC = 0.05
 #: A ring candidate is a peak of the azimuthal profile standing out by this many sigma (prominence).
 MIN_PROMINENCE_SIGMA = 3.0
-#: Systematic fractional radius error of an 8-bit stretched colour picture (its stretch is not known, and
-#: the arc image's radius moves by about 1% per unit of assumed asinh strength). Tuning seeds 510300-510479
-#: (120 lenses): with 6% the truth fell inside 1/2 sigma 81%/92% (PNG, softening 2), 69%/90% (softening 6),
-#: 68%/83% (JPEG q90: short); with 0% 77%/91%, 64%/88%, 61%/79%.
-STRETCHED_SYSTEMATIC = 0.06
+#: Systematic fractional radius error of an 8-bit stretched colour picture (its stretch is read from the
+#: lens's pixels, not known; the arc image's noise is estimated, not measured). Tuning seeds 530100-530189 (90
+#: lenses of every kind, errors before this term and the lossy factor): truth inside 1/2 sigma per-band asinh
+#: 59%/89% -> 71%/94%, Lupton Q 8 50%/81% -> 62%/90%, clipped sqrt 57%/88% -> 70%/91% with 7%.
+STRETCHED_SYSTEMATIC = 0.07
 #: Systematic fractional radius error when the ring is seen on the arc image of only one asinh strength.
 STRETCH_SINGLE_SYSTEMATIC = 0.05
+#: The noise of a lossy-compressed picture's arc image is read from differences this many pixels apart
+#: (JPEG's quantisation drops the pixel-scale noise, so neighbouring pixels understate it).
+LOSSY_NOISE_LAG_PIX = 2
+#: ... and is not taken below this share of its median over radii: JPEG smooths the noise away on the
+#: bright lens, and dividing by what is left there raised block residuals near the core into rings.
+#: Tuning seeds 530000-530023 (24 hard rings), within 5%: JPEG q75 Lupton 42% (floor 0.05), 50% (0.3), 54%
+#: (0.6), 58% (1.0, bias +3.9%); JPEG q90 per-band asinh 58% -> 75% (0.6).
+LOSSY_NOISE_FLOOR = 0.6
+#: asinh strength at which a colour picture is linearised for its masks and lens centre (:func:`colour_mask_image`).
+COLOUR_MASK_STRENGTH = 5.0
+#: Radius (pixels) of the lens core whose pixels choose the picture's stretch before a ring is seen.
+COLOUR_CORE_PIX = 6.0
+#: Share of the spread of the radii at the neighbouring stretch strengths kept in the error.
+STRENGTH_SPREAD_SHARE = 1.0
 #: Masked and saturated pixels of a colour picture are grown by this many pixels before its arc image is
 #: searched (a star's colour fringes reach past its mask). Tuning seeds 510300-510419 (120 lenses): PNG
 #: rings within 5% 77% -> 82%, truth inside 1/2 sigma 74%/90% -> 68%/92%.
 COLOUR_MASK_GROW_PIX = 4
 #: Factor on the radius error of a colour picture stored with lossy compression (JPEG: blocks, and colour
-#: kept at half resolution, which smears thin blue arcs). Tuning seeds 510300-510419, JPEG quality 90:
-#: truth inside 1/2 sigma 59%/77% unscaled, 72%/90% scaled by 1.6 (the misses are a tail of wrong radii
-#: that no additive term covers).
-LOSSY_ERROR_SCALE = 1.6
+#: kept at half resolution, which smears thin blue arcs; a tail of wrong radii that no additive term
+#: covers). Tuning seeds 530100-530189 (90 lenses of every kind, with the 7% above and the noise floor
+#: below): truth inside 1/2 sigma JPEG q75 (Lupton) 69%/90% at 1.4, 85%/95% at 1.8; JPEG q90 (per-band
+#: asinh) 78%/95% at 1.4 (one factor serves both qualities only roughly).
+LOSSY_ERROR_SCALE = 1.4
 #: Share of half the radius difference of an arc pair kept as a systematic error (ellipticity, shear).
 PAIR_SYSTEMATIC = 0.3
 #: A sky level on the cutout's border beyond this many noise sigmas is subtracted before the search (an
@@ -316,8 +332,9 @@ def find_ring(
         The RGB picture the image came from (8-bit stretched survey cutouts): arcs are told
         from lens light by being bluer, and the errors are widened for the stretch.
     compressed : bool
-        The colour picture was stored with lossy compression (JPEG): the error is scaled by
-        :data:`LOSSY_ERROR_SCALE`.
+        The colour picture was stored with lossy compression (JPEG): its arc image's noise is read
+        through the compression's smoothing (:data:`LOSSY_NOISE_LAG_PIX`, :data:`LOSSY_NOISE_FLOOR`)
+        and the error is scaled by :data:`LOSSY_ERROR_SCALE`.
     stretched : bool
         ``image`` is a grey 8-bit picture (PNG/JPEG/TIFF, values 0-255 through a display stretch, not
         flux): the stretch is undone for the strengths :data:`GREY_STRENGTHS`, the ring measured on
@@ -368,7 +385,8 @@ def find_ring(
     masks = None
     if auto_mask or mask is not None or colour is not None:
         reach = float(max_radius_pix) if max_radius_pix is not None else DEFAULT_MAX_RADIUS_PIX
-        masks = _masks(img, cx, cy, given, reach, mask, colour, auto_mask)
+        masks = _masks(img if colour is None else colour_mask_image(colour, img), cx, cy, given, reach, mask, colour,
+                       auto_mask)
         cx, cy = masks.center_x, masks.center_y
         img = np.where(masks.mask, np.nan, img)
         if residual is not None:
@@ -385,7 +403,8 @@ def find_ring(
     elif not subtract_lens_light:
         out = _search(img, cx, cy, rmin, rmax, n_sectors, None, warnings, progress, should_stop)
     elif colour is not None:
-        out = _colour_search(np.asarray(colour), img, cx, cy, rmin, rmax, n_sectors, progress, should_stop)
+        out = _colour_search(np.asarray(colour), img, cx, cy, rmin, rmax, n_sectors, progress, should_stop,
+                             compressed)
     elif picture is not None:
         out = _stretched_grey_search(picture, np.isnan(img), cx, cy, rmin, rmax, n_sectors, progress, should_stop)
     else:
@@ -462,6 +481,22 @@ def _masks(img, cx, cy, given, rmax, mask, colour, auto_mask):
     return m
 
 
+def colour_mask_image(rgb: np.ndarray, grey: np.ndarray) -> np.ndarray:
+    """The image a colour picture's masks and lens centre are found on: its bands linearised at the asinh
+    strength :data:`COLOUR_MASK_STRENGTH` and summed (saturated pixels at the top value, ``grey``'s masked
+    pixels kept masked). On the picture's own grey values a bright lens stands only ~9 noise sigma above
+    the sky once a strong stretch has lifted the noise (astropy's make_lupton_rgb, Q = 8), below the
+    lens-detection limit, and a star took its place (tuning seeds 530000-530023, Lupton pictures: the
+    centre missed by > 2 pixels in 5 of 24 hard rings on the grey values, 0 of 24 linearised; per-band
+    asinh, linear and mild Lupton pictures 0 of 24 either way)."""
+    from lensmass.core.colour_separation import linear_grey
+
+    out = linear_grey(rgb, COLOUR_MASK_STRENGTH)
+    top = np.nanmax(out) if np.isfinite(out).any() else 0.0
+    out = np.where(np.isfinite(out), out, top)
+    return np.where(np.isfinite(np.asarray(grey, float)), out, np.nan)
+
+
 def blue_excess(rgb: np.ndarray) -> np.ndarray:
     """Blue minus scaled red of an RGB picture: about zero on the (red) lens light, positive on bluer arcs.
 
@@ -479,34 +514,58 @@ def blue_excess(rgb: np.ndarray) -> np.ndarray:
     return blue - k * red
 
 
-def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_stop) -> RingResult:
-    """The ring on the arc images of a colour picture (:mod:`lensmass.core.colour_separation`), one for each
-    asinh strength tried; the radius of the middle strength (or the most significant), the spread of
-    the agreeing radii added to its error. No arcs bluer than the lens: the grey picture's search."""
-    from lensmass.core.colour_separation import STRETCH_STRENGTHS, arc_image
-
+def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_stop,
+                   compressed: bool = False) -> RingResult:
+    """The ring on the arc image of a colour picture (:mod:`lensmass.core.colour_separation`) with the
+    stretch strength the lens's own pixels choose (:func:`~lensmass.core.colour_separation.choose_strength`,
+    on the pixels inside half the ring once one is seen); the spread of the radii at the neighbouring
+    strengths is added to its error. No arcs bluer than the lens: the grey picture's search
+    (:func:`_stretched_grey_search`)."""
     from scipy.ndimage import binary_dilation
 
-    from lensmass.core.colour_separation import saturated
+    from lensmass.core.colour_separation import (LOCUS_STRENGTHS, arc_image, choose_strength, noise_normalised,
+                                                  saturated)
 
     masked = binary_dilation(~np.isfinite(img) | saturated(rgb), iterations=COLOUR_MASK_GROW_PIX)
-    tries = []
-    for i, strength in enumerate(STRETCH_STRENGTHS):
-        arcs = arc_image(rgb, cx, cy, strength, mask=masked)
-        # Stars and neighbours as the arc image shows them (a blue neighbour stays in it).
-        arcs[_masks(arcs, cx, cy, True, rmax, None, None, True).mask] = np.nan
-        tries.append(_search(arcs, cx, cy, rmin, rmax, n_sectors, None, [], None, should_stop))
-        report(progress, (i + 1) / (len(STRETCH_STRENGTHS) + 1))
-    middle = tries[len(tries) // 2]
-    best = middle if middle.found else max(tries, key=lambda t: t.score if t.found else -np.inf)
-    if not best.found:
-        return _flag_unresolved(_two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop))
-    radii = [t.radius_pix for t in tries if t.found and abs(t.radius_pix - best.radius_pix) <= 0.2 * best.radius_pix]
+    runs: dict[tuple[float, int], RingResult] = {}
+    objects: list[np.ndarray] = []
+
+    def search(strength, sectors=n_sectors):
+        if (strength, sectors) not in runs:
+            arcs = arc_image(rgb, cx, cy, strength, mask=masked)
+            arcs = noise_normalised(arcs, cx, cy, lag=LOSSY_NOISE_LAG_PIX if compressed else 1,
+                                    floor=LOSSY_NOISE_FLOOR if compressed else 0.05)
+            # Stars and neighbours as the first arc image shows them (a blue neighbour stays in it); the
+            # other strengths reuse that mask (segmenting each costs as much as its ring search).
+            if not objects:
+                objects.append(_masks(arcs, cx, cy, True, rmax, None, None, True).mask)
+            arcs[objects[0]] = np.nan
+            runs[strength, sectors] = _search(arcs, cx, cy, rmin, rmax, sectors, None, [], None, should_stop)
+        return runs[strength, sectors]
+
+    def chosen(within):
+        a, _ = choose_strength(rgb, cx, cy, within, usable=~masked)
+        return a if np.isfinite(a) else LOCUS_STRENGTHS[len(LOCUS_STRENGTHS) // 2]
+
+    strength = chosen(COLOUR_CORE_PIX)
+    best = search(strength)
+    if best.found:  # the lens pixels inside the ring choose again
+        strength = chosen(max(COLOUR_CORE_PIX / 2, 0.5 * best.radius_pix))
+        best = search(strength)
+    report(progress, 0.6)
+    if not best.found:  # no arc bluer than the lens: the grey picture's search, its stretch undone
+        return _stretched_grey_search(img, ~np.isfinite(img), cx, cy, rmin, rmax, n_sectors, progress, should_stop)
+    j = LOCUS_STRENGTHS.index(strength)
+    radii = [best.radius_pix]
+    for other in (*LOCUS_STRENGTHS[max(0, j - 1): j], *LOCUS_STRENGTHS[j + 1: j + 2]):
+        t = search(other, max(8, n_sectors // 2))  # half the sectors: the neighbours only measure the spread
+        if t.found and abs(t.radius_pix - best.radius_pix) <= 0.2 * best.radius_pix:
+            radii.append(t.radius_pix)
     spread = 0.5 * (max(radii) - min(radii)) if len(radii) > 1 else STRETCH_SINGLE_SYSTEMATIC * best.radius_pix
-    best.radius_err_pix = float(np.hypot(best.radius_err_pix, spread))
-    best.warnings.append(f"Arcs told from the lens light by colour (bluer than the lens core) on the picture's "
-                         f"bands with the stretch undone for {len(tries)} asinh strengths; {len(radii)} agreed, "
-                         f"their spread ({spread:.2f} pixels) is in the error.")
+    best.radius_err_pix = float(np.hypot(best.radius_err_pix, STRENGTH_SPREAD_SHARE * spread))
+    best.warnings.append(f"Arcs told from the lens light by colour (bluer than the lens core), with the picture's "
+                         f"stretch read from the lens's own pixels (asinh strength {strength:g}; the radius moves "
+                         f"by {spread:.2f} pixels between the neighbouring strengths, which is in the error).")
     report(progress, 1.0)
     return best
 

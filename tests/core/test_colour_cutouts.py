@@ -12,7 +12,7 @@ import io
 import numpy as np
 import pytest
 
-from lensmass.core.colour_separation import arc_image, linearise
+from lensmass.core.colour_separation import arc_image, choose_strength, linearise, noise_normalised
 from lensmass.core.realistic_fields import colour_picture, make_cutout
 from lensmass.core.ringfinder import LOSSY_ERROR_SCALE, find_ring
 
@@ -90,12 +90,13 @@ def test_colour_pictures_find_rings_as_fits_does(rings, capsys):
                      f"{np.mean(pulls[route] <= 1):.0%} / {np.mean(pulls[route] <= 2):.0%}")
     with capsys.disabled():
         print("\n[colour pictures, unseen seeds] " + "; ".join(lines))
-    # The issue's target is the FITS rate. On these 12 rings the finder with the lens-light fit, the neighbour
-    # masks and the faster solver finds 11 within 5% on the r band, 8 on the PNG, 8 on the JPEG (first run):
-    # the colour pictures stay short of the FITS rate (an open item), so this guards the pictures' own counts
-    # against losing more, and the 2-sigma coverage.
+    # The issue's target is the FITS rate. On these 12 rings (every ring, 1.5-6 FWHM) the finder finds 11 within 5%
+    # on the r band; the colour route that reads the stretch from the lens's pixels finds 6 on the PNG and 3 on
+    # the JPEG q90 (first run; the route it replaced: 8 and 8, but it assumed our own per-band asinh and found
+    # 29-50% of hard rings on Lupton pictures): the pictures stay short of the FITS rate (an open item), so this
+    # guards the pictures' own counts against losing more, and the 2-sigma coverage.
     assert within["FITS"] >= 10
-    assert within["PNG"] >= 7 and within["JPEG"] >= 7
+    assert within["PNG"] >= 5 and within["JPEG"] >= 2
     for route in ("PNG", "JPEG"):
         assert np.mean(pulls[route] <= 2) >= 0.85
 
@@ -116,7 +117,88 @@ def test_jpeg_files_are_read_as_lossy_and_their_error_scaled(tmp_path):
     r_png, r_jpg = find_ring_on_image(png), find_ring_on_image(jpg)
     assert any("lossy compression" in w for w in r_jpg.warnings)
     assert not any("lossy compression" in w for w in r_png.warnings)
-    plain = find_ring(jpg.data, colour=jpg.rgb)
+    plain = find_ring(jpg.data, colour=jpg.rgb, compressed=True)
     assert r_jpg.found and plain.found
-    assert r_jpg.radius_pix == plain.radius_pix
-    assert np.isclose(r_jpg.radius_err_pix, LOSSY_ERROR_SCALE * plain.radius_err_pix, rtol=1e-12)
+    assert r_jpg.radius_pix == plain.radius_pix and r_jpg.radius_err_pix == plain.radius_err_pix
+    assert any(f"scaled by {LOSSY_ERROR_SCALE}" in w for w in r_jpg.warnings)
+
+
+def test_lupton_pictures_keep_colours_and_per_band_asinh_does_not():
+    # Reference: astropy's make_lupton_rgb docstring (Lupton et al. 2004): one factor f(I)/I on all bands,
+    # so a one-colour object keeps one band ratio at every brightness; a per-band asinh bends it to 1.
+    c = make_cutout(630000, "elliptical")
+    t = c.truth
+    yy, xx = np.mgrid[0:c.image.shape[0], 0:c.image.shape[1]]
+    r = np.hypot(xx - t["center_x"], yy - t["center_y"])
+    ratios = {}
+    for stretch in ("lupton", "asinh"):
+        pic = colour_picture(c, stretch=stretch).astype(float)
+        ok = (pic[..., 0] < 255) & (r < 20)
+        bright, faint = ok & (pic[..., 0] >= 180), ok & (pic[..., 0] >= 90) & (pic[..., 0] < 140)
+        ratios[stretch] = [np.median(pic[m, 2] / pic[m, 0]) for m in (bright, faint)]
+    assert abs(ratios["lupton"][0] / ratios["lupton"][1] - 1) < 0.1
+    assert ratios["asinh"][0] / ratios["asinh"][1] > 1.15
+
+
+def test_the_lens_pixels_choose_a_straight_locus_for_colour_keeping_stretches():
+    # Lupton (astropy make_lupton_rgb) and a clipped linear stretch put a one-colour lens on a straight line
+    # (strength near 0); a per-band asinh of strength asinh(top / soft) (numpy) on a curve (strength >= 2).
+    chosen = {}
+    for stretch in ("lupton", "linear", "asinh"):
+        picks = []
+        for seed in range(630010, 630016):
+            c = make_cutout(seed, "ring", theta_e_over_fwhm=(2.5, 6.0))
+            pic = colour_picture(c, stretch=stretch)
+            picks.append(choose_strength(pic, c.truth["center_x"], c.truth["center_y"], 0.5 * c.truth["radius_pix"])[0])
+        chosen[stretch] = np.array(picks)
+    assert np.mean(chosen["lupton"] <= 1.0) >= 5 / 6 and np.mean(chosen["linear"] <= 1.0) >= 5 / 6
+    assert np.mean(chosen["asinh"] >= 2.0) >= 4 / 6
+
+
+def test_noise_normalised_map_has_unit_noise_whatever_the_gain():
+    # Reference: numpy's normal generator (unit variance), scaled by a radial gain as a stretch scales it.
+    yy, xx = np.mgrid[0:101, 0:101]
+    r = np.hypot(xx - 50, yy - 50)
+    gain = 1 / (1 + 0.2 * r)
+    snr = noise_normalised(np.random.default_rng(630020).normal(0, 1, r.shape) * gain, 50, 50)
+    for lo, hi in ((4, 12), (20, 30), (40, 48)):
+        assert abs(np.std(snr[(r >= lo) & (r < hi)]) - 1) < 0.1
+
+
+def _jpeg_q(pic, quality):
+    from PIL import Image
+
+    buf = io.BytesIO()
+    Image.fromarray(pic, "RGB").save(buf, format="JPEG", quality=quality, subsampling=2)  # Pillow, 4:2:0
+    return np.asarray(Image.open(io.BytesIO(buf.getvalue())).convert("RGB"))
+
+
+@pytest.fixture(scope="module")
+def hard_rings():
+    # The issue's hard case (a ring >= 2.5 seeing FWHM with a neighbour or a star), check seeds.
+    return [make_cutout(630100 + i, ("ring+neighbour", "ring+star")[i % 2], theta_e_over_fwhm=(2.5, 6.0))
+            for i in range(N_RINGS)]
+
+
+@pytest.mark.parametrize("stretch, quality, at_least", [
+    # First run: 9, 8, 9 and 2 of 12 (JPEG q75 is the open item); guards one below.
+    ("lupton", None, 8), ("lupton-mild", None, 7), ("sqrt", None, 8), ("asinh", 75, 1)])
+def test_hard_rings_on_other_stretches(hard_rings, stretch, quality, at_least, capsys):
+    """Pictures made by stretches other than our per-band asinh (astropy's make_lupton_rgb with Q 8 and
+    Q 3, a clipped square root, Pillow's JPEG q75): hard rings within 5%, the 2-sigma coverage."""
+    ok, pulls = 0, []
+    for c in hard_rings:
+        pic = colour_picture(c, stretch=stretch)
+        if quality:
+            pic = _jpeg_q(pic, quality)
+        r = _colour_ring(pic, compressed=bool(quality))
+        assert not r.confident
+        truth = c.truth["radius_pix"]
+        ok += bool(r.found and abs(r.radius_pix / truth - 1) <= 0.05)
+        if r.found:
+            pulls.append(abs(r.radius_pix - truth) / r.radius_err_pix)
+    with capsys.disabled():
+        print(f"\n[{stretch}{f', JPEG q{quality}' if quality else ''}, check seeds] hard rings {ok}/{len(hard_rings)} "
+              f"within 5%, inside 1/2 sigma {np.mean(np.array(pulls) <= 1):.0%} / {np.mean(np.array(pulls) <= 2):.0%}")
+    assert ok >= at_least
+    assert np.mean(np.array(pulls) <= 2) >= 0.8
