@@ -48,6 +48,9 @@ STAR_HALFMAX_FRACTION = 0.33
 STAR_BLEND_PEAK_RATIO = 3.0
 #: A PSF-like object this round is a star even where it touches other segments.
 STAR_ROUND_ELONGATION = 1.2
+#: An object with this many pixels at the image's highest value is saturated (common practice: a detector's
+#: full well or the file's top code clips a bright star flat; a bleed trail runs from it along the columns).
+SATURATED_MIN_PIXELS = 5
 #: Largest elongation (a/b) of a star.
 STAR_MAX_ELONGATION = 1.4
 #: An object elongated at least this much, with its major axis within ARC_ANGLE_DEG of the tangent, is an arc.
@@ -88,13 +91,16 @@ class FieldObject:
     #: How far the peak stands above its saddle with the blend it was split from (or above the
     #: segment's faintest pixel), in sigma.
     contrast_snr: float = float("nan")
+    #: Its brightest pixels sit flat at the image's highest value (a saturated star; a bleed trail).
+    saturated: bool = False
 
 
 @dataclass
 class CutoutMasks:
     """``mask`` is True for pixels to leave out (not lens, not arc); ``segments`` the label image
     (0 = sky); ``objects`` every segmented object; ``center_x``/``center_y`` the lens centre used,
-    ``center_source`` how it was chosen and ``center_hint`` a sentence when it is uncertain."""
+    ``center_source`` how it was chosen and ``center_hint`` a sentence when it is uncertain; ``sky`` the
+    sky plane the finder subtracts (0.0 when the cutout's sky was already subtracted)."""
 
     mask: np.ndarray
     segments: np.ndarray
@@ -104,15 +110,155 @@ class CutoutMasks:
     center_source: str
     center_hint: str = ""
     notes: list[str] = field(default_factory=list)
+    #: The sky plane taken out before segmenting (an image, or 0.0: none; :func:`lensmass.core.sky_level.sky_plane`).
+    sky: np.ndarray | float = 0.0
+    #: Noise of large-area means over its white-noise value (:func:`lensmass.core.sky_level.noise_correlation`).
+    noise_correlation: float = 1.0
 
     @property
     def n_masked(self) -> int:
         return sum(o.kind in ("star", "galaxy") for o in self.objects)
 
 
+def saturated_pixels(image: np.ndarray) -> np.ndarray:
+    """True where a pixel holds the image's highest finite value and at least :data:`SATURATED_MIN_PIXELS`
+    do (a clipped, saturated star and its bleed trail); all False otherwise.
+
+    Examples
+    --------
+    >>> img = np.random.default_rng(0).normal(size=(30, 30))
+    >>> img[10:13, 5:8] = 900.0
+    >>> int(saturated_pixels(img).sum()), int(saturated_pixels(np.arange(16.0).reshape(4, 4)).sum())
+    (9, 0)
+    """
+    img = np.asarray(image, float)
+    finite = np.isfinite(img)
+    if not finite.any():
+        return np.zeros(img.shape, bool)
+    top = float(np.max(img[finite]))
+    flat = img == top
+    return flat if int(flat.sum()) >= SATURATED_MIN_PIXELS else np.zeros(img.shape, bool)
+
+
+#: A pixel standing this many noise sigmas above its surroundings, with its second-faintest edge neighbour below
+#: :data:`SHARP_NEIGHBOUR_FRACTION` of its height, is sharper than any sampled PSF: a cosmic ray or a hot pixel.
+SHARP_MIN_SNR = 6.0
+#: A sampled PSF (FWHM >= 1.8 pixels) puts about 40% of its peak in each edge neighbour of the peak pixel
+#: (a Gaussian of that FWHM: exp(-1 / (2 * 0.76^2)) = 0.42; common practice: stars are never sharper); an
+#: off-centre star of 1.8 px FWHM sampled at pixel centres has its second-faintest edge neighbour at ~0.2
+#: (tests/core/test_stress_fields.py), so the limit sits below that.
+SHARP_NEIGHBOUR_FRACTION = 0.15
+
+
+def sharp_pixels(image: np.ndarray, noise_sigma: float) -> np.ndarray:
+    """Cosmic rays and hot pixels: pixels sharper than the PSF, grown by two pixels (a short track with them).
+
+    A pixel is sharp when it is the brightest of its 3 x 3 box, stands :data:`SHARP_MIN_SNR` noise sigmas
+    above the median of the 5 x 5 box
+    around it and above its second-faintest edge neighbour, and that neighbour rises less than
+    :data:`SHARP_NEIGHBOUR_FRACTION` of its height (a track of a few pixels is still sharp across), and it
+    stands higher than the light around it (a noise peak on a bright galaxy's core is not taken). In the
+    spirit of the Laplacian edge test of van Dokkum (2001), PASP 113, 1420, with our own thresholds;
+    ``image`` has its sky subtracted.
+
+    Examples
+    --------
+    >>> rng = np.random.default_rng(0)
+    >>> yy, xx = np.mgrid[0:40, 0:40]
+    >>> img = 50 * np.exp(-((xx - 20) ** 2 + (yy - 20) ** 2) / (2 * 0.9 ** 2)) + rng.normal(0, 1, xx.shape)
+    >>> img[8, 5:8] += 80.0
+    >>> m = sharp_pixels(img, 1.0)
+    >>> bool(m[8, 6]), bool(m[20, 20])
+    (True, False)
+    """
+    from scipy.ndimage import maximum_filter
+
+    img = np.asarray(image, float)
+    finite = np.isfinite(img)
+    filled = np.where(finite, img, 0.0)
+    p = np.pad(filled, 1, mode="edge")
+    edges = np.sort(np.stack([p[:-2, 1:-1], p[2:, 1:-1], p[1:-1, :-2], p[1:-1, 2:]]), axis=0)
+    drop = filled - edges[1]  # above the second-faintest edge neighbour (a track's pixel has two bright ones)
+    cand = finite & (drop > SHARP_MIN_SNR * noise_sigma)
+    cand &= filled >= maximum_filter(filled, size=3, mode="nearest")
+    sharp = np.zeros(img.shape, bool)
+    ys, xs = np.nonzero(cand)
+    if ys.size:  # the 5 x 5 median only where it matters (a median filter of the whole image is slow)
+        win = np.lib.stride_tricks.sliding_window_view(np.pad(filled, 2, mode="edge"), (5, 5))[ys, xs]
+        bg = np.median(win.reshape(ys.size, 25), axis=1)
+        v = filled[ys, xs]
+        height = v - bg
+        ok = ((height > SHARP_MIN_SNR * noise_sigma) & (drop[ys, xs] > (1 - SHARP_NEIGHBOUR_FRACTION) * height)
+              & (height > bg))  # not a noise peak on a bright core
+        sharp[ys[ok], xs[ok]] = True
+    return binary_dilation(sharp, iterations=2) if sharp.any() else sharp
+
+
+@dataclass
+class CleanCutout:
+    """A cutout made ready for segmenting (:func:`prepare_cutout`): ``image`` with blank lines set to NaN and
+    the sky plane ``sky`` (an image, or 0.0) subtracted; ``mask`` the blank lines, cosmic rays and hot pixels
+    (and the caller's mask); ``saturated`` the clipped pixels; ``notes`` what was done, in sentences."""
+
+    image: np.ndarray
+    mask: np.ndarray
+    saturated: np.ndarray
+    sky: np.ndarray | float
+    notes: list[str] = field(default_factory=list)
+
+
+def prepare_cutout(image: np.ndarray, mask: np.ndarray | None = None,
+                   grid: tuple[tuple[int, int], int, int] | None = None) -> CleanCutout:
+    """Blank rows and columns (:func:`lensmass.core.sky_level.blank_lines`), saturated pixels (found first,
+    while a clipped star's top is still flat), the sky plane (:func:`lensmass.core.sky_level.sky_plane`;
+    ``grid`` as there, so the plane fitted on a box can be taken from the whole image) and cosmic rays
+    (:func:`sharp_pixels`). The ring finder and the window's masks both start here.
+
+    Examples
+    --------
+    >>> rng = np.random.default_rng(5)
+    >>> img = 400.0 + rng.normal(0, 1, (60, 60))
+    >>> img[:, :6] = 0.0
+    >>> img[30, 30] += 300.0
+    >>> c = prepare_cutout(img)
+    >>> bool(c.mask[10, 2]), bool(c.mask[30, 30]), round(float(np.nanmedian(c.image)))
+    (True, True, 0)
+    """
+    from lensmass.core.sky_level import blank_lines, robust_sigma, sky_plane
+
+    img = np.asarray(image, float)
+    ny, nx = img.shape
+    notes = []
+    saturated = saturated_pixels(img)
+    out_mask = np.zeros(img.shape, bool) if mask is None else np.asarray(mask, bool).copy()
+    blank = blank_lines(img)
+    if blank.any():
+        img = np.where(blank, np.nan, img)
+        out_mask |= blank
+        notes.append(f"{int(blank.sum())} pixels in rows or columns of one value (a blank border, a dead column) "
+                     "are masked.")
+    sky = sky_plane(img)
+    if not np.isscalar(sky):
+        notes.append("A sky level or gradient left in the cutout (a plane fitted to its edge pixels) was subtracted "
+                     "before the search.")
+        img = img - sky
+        if grid is not None:
+            sky = sky_plane(image if not blank.any() else np.where(blank, np.nan, image), grid=grid)
+    noise = robust_sigma(img[:: max(1, ny // 128), :: max(1, nx // 128)])
+    if np.isfinite(noise) and noise > 0:
+        hits = sharp_pixels(img, noise)
+        if hits.any():
+            out_mask |= hits
+            notes.append("Cosmic rays or hot pixels (sharper than any star) are masked.")
+    return CleanCutout(img, out_mask, saturated, sky, notes)
+
+
 def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray | None = None,
-                    smooth_pix: float = 1.0) -> tuple[np.ndarray, list[FieldObject]]:
+                    smooth_pix: float = 1.0, saturated: np.ndarray | None = None) -> tuple[np.ndarray, list[FieldObject]]:
     """Segment and deblend ``image`` (photutils); return the label image and the objects.
+
+    ``saturated`` (bool, same shape; default :func:`saturated_pixels` of ``image``) marks clipped pixels:
+    an object holding :data:`SATURATED_MIN_PIXELS` of them is a star.
 
     ``colour`` (optional, same shape) is a blue-excess image: positive where bluer than the
     lens; each object's mean of it is kept as ``blue_excess``.
@@ -121,6 +267,8 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
 
     img = np.asarray(image, float)
     finite = np.isfinite(img)
+    if not finite.any():
+        return np.zeros(img.shape, np.int32), []
     sm = gaussian_filter(np.where(finite, img, 0.0), smooth_pix)
     with warnings.catch_warnings():  # "no sources found" is an answer here (a blank cutout), not a warning
         warnings.simplefilter("ignore", AstropyWarning)
@@ -128,9 +276,17 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
                               n_pixels=MIN_PIXELS, mask=~finite)
         if segm is None:
             return np.zeros(img.shape, np.int32), []
+        if saturated is None:
+            saturated = saturated_pixels(img)
         try:
             segm = deblend_sources(sm, segm, n_pixels=MIN_PIXELS, n_levels=32, contrast=DEBLEND_CONTRAST,
                                    progress_bar=False)
+            # A saturated star outshines a galaxy beside it by far more than the contrast above: its blend is
+            # split again at a contrast a hundred times finer, so the lens is not lost in the star's wings.
+            sat_labels = [int(v) for v in np.unique(np.asarray(segm.data)[saturated]) if v]
+            if sat_labels:
+                segm = deblend_sources(sm, segm, n_pixels=MIN_PIXELS, labels=sat_labels, n_levels=32,
+                                       contrast=DEBLEND_CONTRAST / 100, progress_bar=False)
         except (ValueError, TypeError):  # nothing to deblend
             pass
     labels = np.asarray(segm.data, np.int32)
@@ -155,14 +311,17 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
         iy, ix = np.unravel_index(int(np.argmax(v)), v.shape)
         be = float(np.nanmean(colour[sl][cut])) if colour is not None else float("nan")
         base = _saddle(labels, sm, sl, lab)
+        flat_top = int(np.count_nonzero(saturated[sl][cut])) >= SATURATED_MIN_PIXELS
         objects.append(FieldObject(int(lab), float(ix + sl[1].start), float(iy + sl[0].start), peak / noise_sigma, tot,
                                    int(cut.sum()), float(np.where(half, vals, 0).sum() / tot),
                                    float(2 * np.sqrt(half.sum() / np.pi)), elong, ang, blue_excess=be,
-                                   contrast_snr=(peak - base) / noise_sigma))
+                                   contrast_snr=(peak - base) / noise_sigma, saturated=flat_top))
     peaks = {o.label: o.peak_snr for o in objects}
     for o in objects:
         if o.peak_snr < MIN_PEAK_SNR:
             o.kind = "noise"
+        elif o.saturated:  # a flat top at the image's highest value: a saturated star, its bleed trail with it
+            o.kind = "star"
         elif o.halfmax_fraction >= STAR_HALFMAX_FRACTION and o.elongation <= STAR_MAX_ELONGATION and o.peak_snr >= 5:
             # PSF-like, and not merely the compact core of a blend it was cut from (a galaxy's core
             # deblended from its ring holds much of its segment's light inside its half maximum too).
@@ -299,7 +458,8 @@ def refine_peak(image: np.ndarray, x: float, y: float, smooth_pix: float = 1.5,
 
 
 def cutout_masks(image: np.ndarray, noise_sigma: float, *, center: tuple[float, float] | None = None,
-                 colour: np.ndarray | None = None, extra_mask: np.ndarray | None = None) -> CutoutMasks:
+                 colour: np.ndarray | None = None, extra_mask: np.ndarray | None = None,
+                 saturated: np.ndarray | None = None) -> CutoutMasks:
     """Segment the cutout, find the lens, and mask everything that is neither lens nor arc.
 
     Parameters
@@ -314,6 +474,8 @@ def cutout_masks(image: np.ndarray, noise_sigma: float, *, center: tuple[float, 
         Blue-excess image (positive = bluer than the lens): objects bluer than the lens are kept as arcs.
     extra_mask : bool array, optional
         Pixels the user masked by hand (added to the mask).
+    saturated : bool array, optional
+        Clipped pixels (default :func:`saturated_pixels` of ``image``): their objects are masked as stars.
 
     Examples
     --------
@@ -326,7 +488,7 @@ def cutout_masks(image: np.ndarray, noise_sigma: float, *, center: tuple[float, 
     img = np.asarray(image, float)
     if img.ndim != 2:
         raise LensInputError("Masks need a 2-D image.")
-    labels, objects = segment_objects(img, noise_sigma, colour=colour)
+    labels, objects = segment_objects(img, noise_sigma, colour=colour, saturated=saturated)
     lens, how, hint = choose_lens(objects, img.shape, labels, center)
     if center is not None:
         cx, cy = float(center[0]), float(center[1])
