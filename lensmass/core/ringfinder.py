@@ -426,7 +426,8 @@ def _check_pixels(img: np.ndarray) -> None:
 def _masks(img, cx, cy, given, rmax, mask, colour, auto_mask, *, sky_fit=False):
     """Automatic masks (stars, neighbours) and the lens centre, in a box around the centre; with ``sky_fit``,
     blank rows and columns masked and any sky left in the image subtracted first (``CutoutMasks.sky``)."""
-    from lensmass.core.cutout_masks import CutoutMasks, cutout_masks, prepare_cutout
+    from lensmass.core.cutout_cleaning import prepare_cutout
+    from lensmass.core.cutout_masks import CutoutMasks, cutout_masks
     from lensmass.core.sky_level import noise_correlation
 
     ny, nx = img.shape

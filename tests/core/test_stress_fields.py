@@ -137,7 +137,7 @@ def test_cosmic_rays_are_masked_and_stars_are_not():
     # Moffat2D, the sharpest our generators draw) and a bright galaxy core are not.
     from scipy.ndimage import gaussian_filter
 
-    from lensmass.core.cutout_masks import sharp_pixels
+    from lensmass.core.cutout_cleaning import sharp_pixels
 
     rng = np.random.default_rng(550304)
     yy, xx = np.mgrid[0:80, 0:80]
