@@ -137,6 +137,9 @@ PLANE_LEVEL_SIGMAS = 2.0
 GRADIENT_SIGMAS = 1.0
 #: Width of the frame of edge pixels the sky plane is fitted to, as a fraction of the shorter side.
 FRAME_FRACTION = 0.12
+#: At most about this many frame pixels are clipped and fitted (astropy's sigma_clip takes ~70 ms on the
+#: 90 000 frame pixels of a 649 x 649 search box, ~12 ms on this many).
+MAX_FRAME_PIXELS = 12000
 
 
 def blank_lines(data: np.ndarray) -> np.ndarray:
@@ -206,7 +209,9 @@ def sky_plane(data: np.ndarray, noise_sigma: float | None = None,
     if frame.sum() < 30:
         return 0.0
     yy, xx = np.nonzero(frame)
-    v = a[frame]
+    step = max(1, yy.size // MAX_FRAME_PIXELS)  # a regular subsample of a large frame is enough (and quick)
+    yy, xx = yy[::step], xx[::step]
+    v = a[yy, xx]
     keep = ~np.ma.getmaskarray(sigma_clip(v, sigma_lower=4.0, sigma_upper=2.5, maxiters=5, cenfunc="median",
                                           stdfunc="mad_std"))
     if keep.sum() < 30:
