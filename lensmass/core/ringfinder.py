@@ -422,12 +422,13 @@ def _check_pixels(img: np.ndarray) -> None:
     """One sentence, not a ring, for an image with nothing to measure: no finite pixel, or all of one value."""
     finite = np.isfinite(img)
     if not finite.any():
-        raise LensInputError("The image holds no usable pixel (all blank, NaN or infinite): there is nothing to "
-                             "measure; check the file or the image extension.")
+        raise LensInputError("The ring finder has nothing to measure: the image holds no usable pixel (all blank, NaN "
+                             "or infinite); check the file or the image extension.")
     vals = img[finite]
     if float(np.max(vals)) == float(np.min(vals)):
-        raise LensInputError(f"Every usable pixel of the image has the same value ({float(vals[0]):g}): it shows no sky "
-                             "noise and no galaxy; check the file or the image extension.")
+        raise LensInputError(f"The ring finder has nothing to measure: every usable pixel of the image has the same "
+                             f"value ({float(vals[0]):g}), with no sky noise and no galaxy; check the file or the image "
+                             "extension.")
 
 
 def _masks(img, cx, cy, given, rmax, mask, colour, auto_mask, *, sky_fit=False):
