@@ -28,6 +28,7 @@ import numpy as np
 from astropy.utils.exceptions import AstropyWarning
 from scipy.ndimage import binary_dilation, gaussian_filter
 
+from lensmass.core.cutout_cleaning import SATURATED_MIN_PIXELS, saturated_pixels
 from lensmass.core.errors import LensInputError
 
 #: Segmentation threshold in units of the pixel noise (on the lightly smoothed image).
@@ -88,13 +89,16 @@ class FieldObject:
     #: How far the peak stands above its saddle with the blend it was split from (or above the
     #: segment's faintest pixel), in sigma.
     contrast_snr: float = float("nan")
+    #: Its brightest pixels sit flat at the image's highest value (a saturated star; a bleed trail).
+    saturated: bool = False
 
 
 @dataclass
 class CutoutMasks:
     """``mask`` is True for pixels to leave out (not lens, not arc); ``segments`` the label image
     (0 = sky); ``objects`` every segmented object; ``center_x``/``center_y`` the lens centre used,
-    ``center_source`` how it was chosen and ``center_hint`` a sentence when it is uncertain."""
+    ``center_source`` how it was chosen and ``center_hint`` a sentence when it is uncertain; ``sky`` the
+    sky plane the finder subtracts (0.0 when the cutout's sky was already subtracted)."""
 
     mask: np.ndarray
     segments: np.ndarray
@@ -104,6 +108,10 @@ class CutoutMasks:
     center_source: str
     center_hint: str = ""
     notes: list[str] = field(default_factory=list)
+    #: The sky plane taken out before segmenting (an image, or 0.0: none; :func:`lensmass.core.sky_level.sky_plane`).
+    sky: np.ndarray | float = 0.0
+    #: Noise of large-area means over its white-noise value (:func:`lensmass.core.sky_level.noise_correlation`).
+    noise_correlation: float = 1.0
 
     @property
     def n_masked(self) -> int:
@@ -111,8 +119,11 @@ class CutoutMasks:
 
 
 def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray | None = None,
-                    smooth_pix: float = 1.0) -> tuple[np.ndarray, list[FieldObject]]:
+                    smooth_pix: float = 1.0, saturated: np.ndarray | None = None) -> tuple[np.ndarray, list[FieldObject]]:
     """Segment and deblend ``image`` (photutils); return the label image and the objects.
+
+    ``saturated`` (bool, same shape; default :func:`saturated_pixels` of ``image``) marks clipped pixels:
+    an object holding :data:`~lensmass.core.cutout_cleaning.SATURATED_MIN_PIXELS` of them is a star.
 
     ``colour`` (optional, same shape) is a blue-excess image: positive where bluer than the
     lens; each object's mean of it is kept as ``blue_excess``.
@@ -121,6 +132,8 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
 
     img = np.asarray(image, float)
     finite = np.isfinite(img)
+    if not finite.any():
+        return np.zeros(img.shape, np.int32), []
     sm = gaussian_filter(np.where(finite, img, 0.0), smooth_pix)
     with warnings.catch_warnings():  # "no sources found" is an answer here (a blank cutout), not a warning
         warnings.simplefilter("ignore", AstropyWarning)
@@ -128,9 +141,17 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
                               n_pixels=MIN_PIXELS, mask=~finite)
         if segm is None:
             return np.zeros(img.shape, np.int32), []
+        if saturated is None:
+            saturated = saturated_pixels(img)
         try:
             segm = deblend_sources(sm, segm, n_pixels=MIN_PIXELS, n_levels=32, contrast=DEBLEND_CONTRAST,
                                    progress_bar=False)
+            # A saturated star outshines a galaxy beside it by far more than the contrast above: its blend is
+            # split again at a contrast a hundred times finer, so the lens is not lost in the star's wings.
+            sat_labels = [int(v) for v in np.unique(np.asarray(segm.data)[saturated]) if v]
+            if sat_labels:
+                segm = deblend_sources(sm, segm, n_pixels=MIN_PIXELS, labels=sat_labels, n_levels=32,
+                                       contrast=DEBLEND_CONTRAST / 100, progress_bar=False)
         except (ValueError, TypeError):  # nothing to deblend
             pass
     labels = np.asarray(segm.data, np.int32)
@@ -155,14 +176,17 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
         iy, ix = np.unravel_index(int(np.argmax(v)), v.shape)
         be = float(np.nanmean(colour[sl][cut])) if colour is not None else float("nan")
         base = _saddle(labels, sm, sl, lab)
+        flat_top = int(np.count_nonzero(saturated[sl][cut])) >= SATURATED_MIN_PIXELS
         objects.append(FieldObject(int(lab), float(ix + sl[1].start), float(iy + sl[0].start), peak / noise_sigma, tot,
                                    int(cut.sum()), float(np.where(half, vals, 0).sum() / tot),
                                    float(2 * np.sqrt(half.sum() / np.pi)), elong, ang, blue_excess=be,
-                                   contrast_snr=(peak - base) / noise_sigma))
+                                   contrast_snr=(peak - base) / noise_sigma, saturated=flat_top))
     peaks = {o.label: o.peak_snr for o in objects}
     for o in objects:
         if o.peak_snr < MIN_PEAK_SNR:
             o.kind = "noise"
+        elif o.saturated:  # a flat top at the image's highest value: a saturated star, its bleed trail with it
+            o.kind = "star"
         elif o.halfmax_fraction >= STAR_HALFMAX_FRACTION and o.elongation <= STAR_MAX_ELONGATION and o.peak_snr >= 5:
             # PSF-like, and not merely the compact core of a blend it was cut from (a galaxy's core
             # deblended from its ring holds much of its segment's light inside its half maximum too).
@@ -299,7 +323,8 @@ def refine_peak(image: np.ndarray, x: float, y: float, smooth_pix: float = 1.5,
 
 
 def cutout_masks(image: np.ndarray, noise_sigma: float, *, center: tuple[float, float] | None = None,
-                 colour: np.ndarray | None = None, extra_mask: np.ndarray | None = None) -> CutoutMasks:
+                 colour: np.ndarray | None = None, extra_mask: np.ndarray | None = None,
+                 saturated: np.ndarray | None = None) -> CutoutMasks:
     """Segment the cutout, find the lens, and mask everything that is neither lens nor arc.
 
     Parameters
@@ -314,6 +339,8 @@ def cutout_masks(image: np.ndarray, noise_sigma: float, *, center: tuple[float, 
         Blue-excess image (positive = bluer than the lens): objects bluer than the lens are kept as arcs.
     extra_mask : bool array, optional
         Pixels the user masked by hand (added to the mask).
+    saturated : bool array, optional
+        Clipped pixels (default :func:`saturated_pixels` of ``image``): their objects are masked as stars.
 
     Examples
     --------
@@ -326,7 +353,7 @@ def cutout_masks(image: np.ndarray, noise_sigma: float, *, center: tuple[float, 
     img = np.asarray(image, float)
     if img.ndim != 2:
         raise LensInputError("Masks need a 2-D image.")
-    labels, objects = segment_objects(img, noise_sigma, colour=colour)
+    labels, objects = segment_objects(img, noise_sigma, colour=colour, saturated=saturated)
     lens, how, hint = choose_lens(objects, img.shape, labels, center)
     if center is not None:
         cx, cy = float(center[0]), float(center[1])

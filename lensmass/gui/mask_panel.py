@@ -98,15 +98,12 @@ class MaskPanel(QWidget):
             self.window.show_message("Open an image first (File > Open).")
             return
         data, centre = image.data, self.model.centre
+        picture = getattr(image, "rgb", None) is not None or bool(getattr(image, "eight_bit", False))
 
         def work(progress, should_stop):
-            from lensmass.core.cutout_masks import cutout_masks
-            from lensmass.core.ringfinder import PEDESTAL_SIGMAS
-            from lensmass.core.sky_level import remove_sky_pedestal, robust_sigma
+            from lensmass.core.ringfinder import field_masks
 
-            sky_free = remove_sky_pedestal(data, PEDESTAL_SIGMAS)[0]  # as the ring finder sees the cutout
-            noise = robust_sigma(data[:: max(1, data.shape[0] // 256), :: max(1, data.shape[1] // 256)])
-            return cutout_masks(sky_free, noise if noise > 0 else 1.0, center=centre, extra_mask=None)
+            return field_masks(data, centre, picture=picture)  # as the ring finder sees the cutout
 
         self.window.run_task(work, "Finding stars and neighbours", self._masks_found)
 
