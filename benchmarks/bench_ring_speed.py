@@ -22,6 +22,10 @@ sky in float64; the axis ratio free to pass 1, and the solver's bound tolerance 
 still converges), the blurred profile reused as the Jacobian's flux column, b_n cached per n; ridge fits
 through scipy leastsq (same MINPACK call as least_squares 'lm', without its wrappers); the ellipse fit's
 analytic Jacobian; the border-sky statistics on a sub-sample of ~1e5 rim pixels (0.16 -> 0.02 s).
+Lead, merged tree (h14h with h14g's colour route and h14i's clean-up and sky plane, ~25 ms more; the empty-image
+check on a sub-grid), quiet machine (load 0.4-0.6), three runs: best 0.423-0.496 s CPU (wall the same), median
+0.458-0.496 s; bincount 0.072-0.073 s, finder 5.9-6.8 bincounts; lens-light fits 0.23-0.27 s (53-55%). Under the
+0.5 s target on a quiet machine, but not by the 30% margin aimed for (about 0.5 s under moderate load).
 Earlier (h14f): 0.45-0.49 s against 0.90-1.03 s at load 1.5-2.4 (the Levenberg-Marquardt solver, the
 Jacobian reusing the model's powers, the refit starting from the first fit, MINPACK ridge fits first).
 """
