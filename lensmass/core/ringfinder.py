@@ -464,10 +464,12 @@ def _stretched_grey_search(picture, masked, cx, cy, rmin, rmax, n_sectors, progr
 
 
 def field_masks(image: np.ndarray, center: tuple[float, float] | None = None, *, picture: bool = False,
-                max_radius_pix: float | None = None):
+                max_radius_pix: float | None = None, colour: np.ndarray | None = None):
     """The masks and lens centre exactly as :func:`find_ring` makes them before its search (the window shows
-    these): a sky level left on the border subtracted, then, unless the image is an 8-bit ``picture``, blank
-    lines, a sky plane, cosmic rays and saturated stars, then segmentation (:func:`lensmass.core.cutout_masks.cutout_masks`).
+    these): a grey 8-bit ``picture``'s stretch undone (as ``find_ring(stretched=True)``), a sky level left on
+    the border subtracted, then, unless the image is an 8-bit ``picture``, blank lines, a sky plane, cosmic
+    rays and saturated stars, then segmentation (:func:`lensmass.core.cutout_masks.cutout_masks`) of the image,
+    or of a ``colour`` picture's linearised bands (:func:`colour_mask_image`).
 
     Examples
     --------
@@ -479,12 +481,15 @@ def field_masks(image: np.ndarray, center: tuple[float, float] | None = None, *,
     """
     img = np.asarray(image, float)
     _check_pixels(img)
+    if picture and colour is None:
+        img = _undo_grey_stretch(img, GREY_STRENGTHS[len(GREY_STRENGTHS) // 2])
     img = remove_sky_pedestal(img, PEDESTAL_SIGMAS)[0]
     ny, nx = img.shape
     given = center is not None
     cx, cy = (float(center[0]), float(center[1])) if center is not None else ((nx - 1) / 2, (ny - 1) / 2)
     reach = float(max_radius_pix) if max_radius_pix is not None else DEFAULT_MAX_RADIUS_PIX
-    return _masks(img, cx, cy, given, reach, None, None, True, sky_fit=not picture)
+    box = img if colour is None else colour_mask_image(np.asarray(colour), img)
+    return _masks(box, cx, cy, given, reach, None, colour, True, sky_fit=not picture and colour is None)
 
 
 def _check_pixels(img: np.ndarray) -> None:

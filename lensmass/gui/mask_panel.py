@@ -98,12 +98,13 @@ class MaskPanel(QWidget):
             self.window.show_message("Open an image first (File > Open).")
             return
         data, centre = image.data, self.model.centre
-        picture = getattr(image, "rgb", None) is not None or bool(getattr(image, "eight_bit", False))
+        rgb = getattr(image, "rgb", None)
+        picture = rgb is not None or bool(getattr(image, "eight_bit", False))
 
         def work(progress, should_stop):
             from lensmass.core.ringfinder import field_masks
 
-            return field_masks(data, centre, picture=picture)  # as the ring finder sees the cutout
+            return field_masks(data, centre, picture=picture, colour=rgb)  # as the ring finder sees the cutout
 
         self.window.run_task(work, "Finding stars and neighbours", self._masks_found)
 

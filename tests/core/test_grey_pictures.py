@@ -56,3 +56,18 @@ def test_grey_png_is_read_as_eight_bit_and_measured_as_a_picture(tmp_path):
     img = load_image(tmp_path / "grey.png")
     assert img.eight_bit and img.rgb is None
     assert find_ring_on_image(img).radius_pix == find_ring(img.data, stretched=True).radius_pix
+
+
+def test_window_masks_are_the_finders_on_pictures():
+    # One code path (issue 14): the window's mask panel calls field_masks, which must give the masks the
+    # finder used, for a grey picture and a colour one (colour_picture: per-band asinh, Lupton et al. 2004).
+    from lensmass.core.realistic_fields import colour_picture
+    from lensmass.core.ringfinder import field_masks
+
+    c = make_cutout(SEEDS[1], "ring+star")
+    grey = _asinh8(c)
+    assert np.array_equal(field_masks(grey, picture=True).mask, find_ring(grey, stretched=True).masks.mask)
+    rgb = colour_picture(c)
+    lum = rgb.astype(np.float32) @ np.array([0.299, 0.587, 0.114], np.float32)
+    assert np.array_equal(field_masks(lum, picture=True, colour=rgb).mask,
+                          find_ring(lum, colour=rgb, stretched=True).masks.mask)
