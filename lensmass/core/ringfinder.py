@@ -432,6 +432,17 @@ def find_ring(
     return _finish(out, masks, given, colour is not None or picture is not None, compressed)
 
 
+def _stretch_spread(best: RingResult, others: list[RingResult]) -> tuple[float, int]:
+    """How far the radius moves with the assumed stretch: half the range of ``best``'s radius and the
+    ``others`` found within 20% of it, or :data:`STRETCH_SINGLE_SYSTEMATIC` of the radius when none agrees;
+    and how many radii agreed (``best``'s included)."""
+    radii = [best.radius_pix] + [t.radius_pix for t in others
+                                 if t.found and abs(t.radius_pix - best.radius_pix) <= 0.2 * best.radius_pix]
+    if len(radii) == 1:
+        return STRETCH_SINGLE_SYSTEMATIC * best.radius_pix, 1
+    return 0.5 * (max(radii) - min(radii)), len(radii)
+
+
 def _undo_grey_stretch(picture: np.ndarray, strength: float) -> np.ndarray:
     """A grey 8-bit picture back to (relative) flux, taking its stretch as an asinh of ``strength``."""
     from lensmass.core.colour_separation import linearise
@@ -453,12 +464,11 @@ def _stretched_grey_search(picture, masked, cx, cy, rmin, rmax, n_sectors, progr
     best = middle if middle.found else max(tries, key=lambda t: t.score if t.found else -np.inf)
     if not best.found:
         return best
-    radii = [t.radius_pix for t in tries if t.found and abs(t.radius_pix - best.radius_pix) <= 0.2 * best.radius_pix]
-    spread = 0.5 * (max(radii) - min(radii)) if len(radii) > 1 else STRETCH_SINGLE_SYSTEMATIC * best.radius_pix
+    spread, n_agreed = _stretch_spread(best, [t for t in tries if t is not best])
     best.radius_err_pix = float(np.hypot(best.radius_err_pix, spread))
     best.warnings.append(f"A grey 8-bit picture: its display stretch was undone as an asinh of strength "
                          f"{', '.join(f'{s:g}' for s in GREY_STRENGTHS)} (a linear or square-root stretch is "
-                         f"closer to these than to none); {len(radii)} agreed, their spread ({spread:.2f} pixels) "
+                         f"closer to these than to none); {n_agreed} agreed, their spread ({spread:.2f} pixels) "
                          "is in the error.")
     return best
 
@@ -632,12 +642,10 @@ def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_sto
     if not best.found:  # no arc bluer than the lens: the grey picture's search, its stretch undone
         return _stretched_grey_search(img, ~np.isfinite(img), cx, cy, rmin, rmax, n_sectors, progress, should_stop)
     j = LOCUS_STRENGTHS.index(strength)
-    radii = [best.radius_pix]
-    for other in (*LOCUS_STRENGTHS[max(0, j - 1): j], *LOCUS_STRENGTHS[j + 1: j + 2]):
-        t = search(other, max(8, n_sectors // 2))  # half the sectors: the neighbours only measure the spread
-        if t.found and abs(t.radius_pix - best.radius_pix) <= 0.2 * best.radius_pix:
-            radii.append(t.radius_pix)
-    spread = 0.5 * (max(radii) - min(radii)) if len(radii) > 1 else STRETCH_SINGLE_SYSTEMATIC * best.radius_pix
+    # half the sectors: the neighbouring strengths only measure the spread
+    neighbours = [search(other, max(8, n_sectors // 2))
+                  for other in (*LOCUS_STRENGTHS[max(0, j - 1): j], *LOCUS_STRENGTHS[j + 1: j + 2])]
+    spread, _ = _stretch_spread(best, neighbours)
     best.radius_err_pix = float(np.hypot(best.radius_err_pix, STRENGTH_SPREAD_SHARE * spread))
     best.warnings.append(f"Arcs told from the lens light by colour (bluer than the lens core), with the picture's "
                          f"stretch read from the lens's own pixels (asinh strength {strength:g}; the radius moves "
