@@ -112,9 +112,11 @@ def save_residual(path: str, result: dict) -> None:
     if ring is not None and ring.residual is not None:
         residual = ring.residual
     else:
+        from lensmass.core.einstein import picture_options
         from lensmass.core.lenslight import fit_lens_light_masked
 
-        residual = fit_lens_light_masked(image.data, result["center_x"], result["center_y"]).residual
+        residual = fit_lens_light_masked(image.data, result["center_x"], result["center_y"],
+                                         **picture_options(image)).residual
     write_image_fits(path, residual, image.header, history="lens light subtracted by lensmass (Sersic model)")
     result.setdefault("notes", []).append(f"Lens-subtracted image written to {path}.")
 

@@ -239,7 +239,7 @@ def measure_theta_e_from_points(
             # where its ridge shows, it is not moved by the lens model's misfit.
             from lensmass.core.lenslight import fit_lens_light_masked
 
-            light = fit_lens_light_masked(data, rc[0], rc[1])
+            light = fit_lens_light_masked(data, rc[0], rc[1], **picture_options(image))
             if light.ok:
                 again = [refine_to_ridge(light.residual, a, b, rc[0], rc[1]) if not m.ok else m
                          for a, b, m in zip(px, py, moved)]
@@ -391,9 +391,23 @@ def find_ring_on_image(
         raise LensInputError("The ring finder needs the image pixels; open the image first.")
     cx, cy = (None, None) if center is None else center
     return find_ring(data, cx, cy, residual=residual, max_radius_pix=max_radius_pix, mask=mask,
-                     colour=getattr(image, "rgb", None), compressed=bool(getattr(image, "lossy", False)),
-                     stretched=bool(getattr(image, "eight_bit", False)),
-                     progress=progress, should_stop=should_stop)
+                     progress=progress, should_stop=should_stop, **picture_options(image))
+
+
+def picture_options(image) -> dict:
+    """What the ring finder and the lens-light fit need to know about a loaded image that is an 8-bit
+    picture: its RGB bands (``colour``), lossy compression (``compressed``) and a grey stretch
+    (``stretched``); all off for FITS data or a bare array. One source for the window's finder, its
+    lens-light fit, its masks and the command line.
+
+    Examples
+    --------
+    >>> picture_options(np.zeros((4, 4)))
+    {'colour': None, 'compressed': False, 'stretched': False}
+    """
+    colour = getattr(image, "rgb", None)
+    return {"colour": colour, "compressed": bool(getattr(image, "lossy", False)),
+            "stretched": colour is None and bool(getattr(image, "eight_bit", False))}
 
 
 def measure_theta_e_auto_ring(

@@ -378,6 +378,9 @@ def fit_lens_light_masked(
     center_y: float | None = None,
     *,
     mask: np.ndarray | None = None,
+    colour: np.ndarray | None = None,
+    compressed: bool = False,
+    stretched: bool = False,
     progress: ProgressCallback = None,
     should_stop: StopCallback = None,
 ) -> LensLightModel:
@@ -387,13 +390,21 @@ def fit_lens_light_masked(
     ``--save-residual``) and the ring finder share. A Sersic fit over an Einstein ring takes
     part of the ring into the galaxy (on our demo ring the index ran to its bound, n = 8, and
     R_e fell to a third), so this runs :func:`lensmass.core.ringfinder.find_ring` (automatic
-    masks plus ``mask``, pixels painted by hand) and returns its lens-light model: refitted
-    with the ring masked when a ring was found. The residual is NaN on masked pixels.
+    masks plus ``mask``, pixels painted by hand; ``colour``, ``compressed`` and ``stretched`` describe
+    an 8-bit picture as there) and returns its lens-light model: refitted with the ring masked when a
+    ring was found. An 8-bit picture's light is fitted with its stretch undone and shown in picture
+    values (:func:`lensmass.core.picture_light.picture_lens_light`). The residual is NaN on masked pixels.
     """
     from lensmass.core.ringfinder import find_ring
 
-    ring = find_ring(image, center_x, center_y, mask=mask, progress=progress, should_stop=should_stop)
-    light = ring.lens_light
+    ring = find_ring(image, center_x, center_y, mask=mask, colour=colour, compressed=compressed, stretched=stretched,
+                     progress=progress, should_stop=should_stop)
+    if colour is not None or stretched:
+        from lensmass.core.picture_light import picture_lens_light
+
+        light = picture_lens_light(image, ring, should_stop=should_stop)
+    else:
+        light = ring.lens_light
     if light is None:
         cx, cy = ring.center_x, ring.center_y
         light = fit_lens_light(np.where(ring.masks.mask, np.nan, image) if ring.masks is not None else image,

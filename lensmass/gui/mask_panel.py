@@ -98,8 +98,8 @@ class MaskPanel(QWidget):
             self.window.show_message("Open an image first (File > Open).")
             return
         data, centre = image.data, self.model.centre
-        rgb = getattr(image, "rgb", None)
-        picture = rgb is not None or bool(getattr(image, "eight_bit", False))
+        rgb = getattr(image.loaded, "rgb", None)  # the loaded file's picture (the window's state has none)
+        picture = rgb is not None or bool(getattr(image.loaded, "eight_bit", False))
 
         def work(progress, should_stop):
             from lensmass.core.ringfinder import field_masks

@@ -72,7 +72,8 @@ def lens_subtracted(image: ImageState, centre: tuple[float, float]) -> np.ndarra
     key = (round(float(centre[0]), 2), round(float(centre[1]), 2))
     cached = getattr(image, "_snap_residual", None)
     if cached is None or cached[0] != key:
-        light = _core("lenslight", "Snapping onto the arc ridge").fit_lens_light_masked(image.data, *centre)
+        options = _core("einstein", "Snapping onto the arc ridge").picture_options(image.loaded)
+        light = _core("lenslight", "Snapping onto the arc ridge").fit_lens_light_masked(image.data, *centre, **options)
         image._snap_residual = (key, light.residual if light.ok else image.data)
     return image._snap_residual[1]
 

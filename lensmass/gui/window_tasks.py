@@ -188,13 +188,15 @@ class WindowTasksMixin:
         image = self._image_or_hint()
         if image is None:
             return None
-        data, centre, hand = image.data, self.model.centre, image.hand_mask
+        loaded, centre, hand = image.loaded, self.model.centre, image.hand_mask
 
         def work(progress, should_stop):
+            from lensmass.core.einstein import picture_options
             from lensmass.core.lenslight import fit_lens_light_masked
 
             cx, cy = centre if centre is not None else (None, None)
-            return fit_lens_light_masked(data, cx, cy, mask=hand, progress=progress, should_stop=should_stop)
+            return fit_lens_light_masked(loaded.data, cx, cy, mask=hand, progress=progress, should_stop=should_stop,
+                                         **picture_options(loaded))
 
         def done(fit):
             if self.model.image is image:  # the same image is still open
