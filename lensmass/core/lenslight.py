@@ -402,7 +402,7 @@ def fit_lens_light_masked(
     if colour is not None or stretched:
         from lensmass.core.picture_light import picture_lens_light
 
-        light = picture_lens_light(image, ring, should_stop=should_stop)
+        light: LensLightModel | None = picture_lens_light(image, ring, should_stop=should_stop)
     else:
         light = ring.lens_light
     if light is None:
@@ -411,5 +411,6 @@ def fit_lens_light_masked(
                                cx, cy, should_stop=should_stop)
     extra = [w for w in ring.warnings if w.startswith(("Masked", "Two galaxies", "The lens was", "No galaxy",
                                                        "The only"))]
-    light.notes = extra + [n for n in light.notes if n not in extra]
+    first = [n for n in light.notes if n.startswith("An 8-bit picture")]  # the assumption behind every number
+    light.notes = first + extra + [n for n in light.notes if n not in extra and n not in first]
     return light

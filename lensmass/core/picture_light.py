@@ -96,14 +96,14 @@ def picture_lens_light(picture: np.ndarray, ring, *, should_stop: StopCallback =
                                should_stop=should_stop)
         if not light.ok:
             continue
-        model = restretch(light.model + pedestal, strength, top)
+        model = np.minimum(restretch(light.model + pedestal, strength, top), top)  # the picture clips at its top
         used = inside & ~hidden & np.isfinite(values)
         cost = float(np.mean(np.abs(values[used] - model[used]))) if used.any() else np.inf
         if cost < best_cost:
             light.model = model
             best, best_cost, best_strength = light, cost, strength
     if best is None:  # no galaxy light at any strength: the last (failed) fit, in picture values
-        light.model = restretch(light.model + pedestal, strength, top)
+        light.model = np.minimum(restretch(light.model + pedestal, strength, top), top)
         best = light
     best.residual = np.where(hidden, np.nan, values - best.model)
     if clipped.any():

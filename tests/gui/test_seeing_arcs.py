@@ -136,6 +136,8 @@ def test_a_colour_picture_of_a_lens_gets_its_residual_and_one_of_blank_sky_does_
     lens = write_cutout_picture(tmp_path / "lens.png", make_cutout(3021, "ring+neighbour"))
     assert window.open_path(str(lens))
     qtbot.waitUntil(lambda: window.model.display.layer == "residual", timeout=60000)
+    # the picture's stretch was undone for the fit, and the status line says so (the assumption behind it)
+    assert "8-bit picture" in window.last_message and "stretch was undone" in window.last_message
     wait_idle(qtbot, window, 60000)
     blank = write_cutout_picture(tmp_path / "blank.png", make_cutout(6, "pure noise"))
     assert window.open_path(str(blank))
