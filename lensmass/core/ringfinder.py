@@ -53,6 +53,8 @@ from scipy.ndimage import gaussian_filter
 from scipy.signal import find_peaks
 
 from lensmass.core.arcfit import fit_circle, fit_ellipse
+from lensmass.core.elliptical_annuli import (elliptical_radius, mass_alignment_weight, radius_along, ring_shape,
+                                             sie_ring_factor)
 from lensmass.core.errors import LensInputError
 from lensmass.core.lenslight import SERSIC_N_BOUNDS, LensLightModel, fit_lens_light, robust_sigma
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
@@ -177,6 +179,18 @@ GREY_STRENGTHS = (3.5, 4.5, 5.5)
 MAX_CANDIDATES = 5
 #: Second pass: the ring is masked out to this many ring widths (FWHM) either side of its ridge.
 MASK_HALF_WIDTHS = 1.5
+#: Elliptical pass (:func:`_elliptical_pass`): the best shape's profile peak must be this many times more
+#: prominent than the circle's, ...
+ELLIPSE_GAIN = 1.15
+#: ... its elliptical radii are searched between these fractions of the circular candidate's radius, ...
+ELLIPSE_RHO_SPAN = (0.5, 1.8)
+#: ... and its radius may differ from the circular one by at most this fraction.
+ELLIPSE_MAX_MOVE = 0.35
+#: Smallest circular radius (pixels) for which a shape is sought (a smaller ring has too few pixels across).
+ELLIPSE_MIN_RADIUS_PIX = 4.0
+#: Share of the full SIE ring correction (sqrt(a b) -> theta_E, up to 5% at ring axis ratio 0.75) kept as its error:
+#: whether the elongation is the mass's or a shear's is judged from the light's direction only.
+SIE_FACTOR_ERROR_SHARE = 0.5
 
 
 @dataclass
@@ -256,33 +270,41 @@ def find_center(image: np.ndarray, *, search_fraction: float = 0.25, smooth_pix:
 
 @dataclass
 class _SectorGrid:
-    """Which (sector, radius-bin) cell each pixel of the search box falls in, for one centre."""
+    """Which (sector, radius-bin) cell each pixel of the search box falls in, for one centre. The radius is
+    the elliptical radius of :mod:`lensmass.core.elliptical_annuli` for ``axis_ratio`` < 1 (sectors stay
+    sectors of the ordinary polar angle)."""
 
     box: tuple[slice, slice]
     inside: np.ndarray
     cell: np.ndarray
     radii: np.ndarray
     n_sectors: int
+    axis_ratio: float = 1.0
+    angle_rad: float = 0.0
 
     @property
     def n_cells(self) -> int:
         return self.n_sectors * self.radii.size
 
 
-def _sector_grid(shape, cx, cy, rmin, rmax, n_sectors) -> _SectorGrid:
+def _sector_grid(shape, cx, cy, rmin, rmax, n_sectors, axis_ratio: float = 1.0, angle_rad: float = 0.0) -> _SectorGrid:
     ny, nx = shape
-    x0, x1 = max(0, int(cx - rmax) - 1), min(nx, int(cx + rmax) + 2)
-    y0, y1 = max(0, int(cy - rmax) - 1), min(ny, int(cy + rmax) + 2)
+    reach = rmax / np.sqrt(axis_ratio)
+    x0, x1 = max(0, int(cx - reach) - 1), min(nx, int(cx + reach) + 2)
+    y0, y1 = max(0, int(cy - reach) - 1), min(ny, int(cy + reach) + 2)
     dy = (np.arange(y0, y1) - cy)[:, None]
     dx = (np.arange(x0, x1) - cx)[None, :]
-    r = np.sqrt(dx * dx + dy * dy)
+    if axis_ratio < 1.0:
+        r = elliptical_radius(dx, dy, axis_ratio, angle_rad)
+    else:
+        r = np.sqrt(dx * dx + dy * dy)
     inside = (r >= rmin) & (r < rmax)
     phi = np.arctan2(np.broadcast_to(dy, r.shape)[inside], np.broadcast_to(dx, r.shape)[inside])
     nb = int(np.ceil((rmax - rmin) / BIN_PIX))
     rb = ((r[inside] - rmin) / BIN_PIX).astype(np.int64)
     sb = ((phi + np.pi) / (2 * np.pi) * n_sectors).astype(np.int64) % n_sectors
     radii = rmin + (np.arange(nb) + 0.5) * BIN_PIX
-    return _SectorGrid((slice(y0, y1), slice(x0, x1)), inside, sb * nb + rb, radii, n_sectors)
+    return _SectorGrid((slice(y0, y1), slice(x0, x1)), inside, sb * nb + rb, radii, n_sectors, axis_ratio, angle_rad)
 
 
 def _sector_profiles(image, grid: _SectorGrid, offset: float = 0.0):
@@ -822,8 +844,10 @@ def _annulus_mask(shape, cx, cy, r_in, r_out) -> np.ndarray:
     return mask
 
 
-def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, should_stop) -> RingResult:
-    """Profile analysis of a (lens-subtracted) image around (cx, cy)."""
+def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, should_stop, shape=None) -> RingResult:
+    """Profile analysis of a (lens-subtracted) image around (cx, cy): in circular annuli, then (for a ring
+    candidate that is sharper so) in elliptical ones (:func:`_elliptical_pass`); ``shape`` = (axis ratio, angle
+    in radians) searches elliptical annuli of that shape only, with ``rmin``, ``rmax`` elliptical radii."""
     ny, nx = res.shape
     report(progress, 0.0)
     check_stop(should_stop)
@@ -836,7 +860,7 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     if not np.isfinite(sigma) or sigma <= 0:
         sigma = float(np.nanstd(box)) or 1.0
 
-    grid = _sector_grid(res.shape, cx, cy, rmin, rmax, n_sectors)
+    grid = _sector_grid(res.shape, cx, cy, rmin, rmax, n_sectors, *(shape or (1.0, 0.0)))
     sums, counts, radii = _sector_profiles(res, grid)
     report(progress, 0.5)
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -926,10 +950,46 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
         k = int(candidates_arr[i])
         p, ps = (top, top_s) if k in from_top else (prof, prof_s)
         tried.append(_measure_candidate(k, float(scores_ok[i]), res, cx, cy, n_sectors, light, list(warnings), sigma,
-                                        sums, counts, smean, radii, p, ps, err))
+                                        sums, counts, smean, radii, p, ps, err, shape))
     report(progress, 1.0)
-    best = max(tried, key=lambda r: (r.found, r.found and r.confident, min(r.score, 30.0) * r.coverage))
-    return _pair_of_arcs(best, tried) if best.found and best.kind == "arcs" else best
+    best = max(tried, key=_strength)
+    best = _pair_of_arcs(best, tried) if best.found and best.kind == "arcs" else best
+    if shape is None and best.found:
+        best = _elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop)
+    return best
+
+
+def _strength(r: RingResult) -> tuple:
+    """How candidates are ranked: found, then confident, then significance (capped) times coverage."""
+    return (r.found, r.found and r.confident, min(r.score, 30.0) * r.coverage)
+
+
+def _elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop) -> RingResult:
+    """Search again in elliptical annuli of the shape that makes ``best`` sharpest
+    (:func:`lensmass.core.elliptical_annuli.ring_shape`), between :data:`ELLIPSE_RHO_SPAN` times its radius.
+    The elliptical answer replaces the circular one only when its profile peak is :data:`ELLIPSE_GAIN` times
+    more prominent and the candidate it measures ranks higher (:func:`_strength`) within
+    :data:`ELLIPSE_MAX_MOVE` of the circular radius; it is confident only if the circular answer was."""
+    if best.radius_pix < ELLIPSE_MIN_RADIUS_PIX:
+        return best
+    shape = ring_shape(res, cx, cy, best.radius_pix, best.noise_sigma)
+    if shape.axis_ratio >= 1.0 or shape.score < ELLIPSE_GAIN * shape.circular_score:
+        return best
+    lo = max(rmin, ELLIPSE_RHO_SPAN[0] * best.radius_pix)
+    hi = min(rmax, ELLIPSE_RHO_SPAN[1] * best.radius_pix)
+    if hi <= lo + 8 * BIN_PIX:
+        return best
+    ell = _search(res, cx, cy, lo, hi, n_sectors, light, list(warnings), None, should_stop,
+                  shape=(shape.axis_ratio, shape.angle_rad))
+    if (not ell.found or abs(ell.radius_pix / best.radius_pix - 1) > ELLIPSE_MAX_MOVE
+            or _strength(ell)[2] <= _strength(best)[2]):
+        return best
+    ell.confident = bool(ell.confident and best.confident)
+    ell.warnings.append(f"The ring is elongated: it was measured in elliptical annuli of axis ratio "
+                        f"{shape.axis_ratio:.2f} (major axis at {np.degrees(shape.angle_rad):.0f} degrees from +x), "
+                        f"which made it {shape.score / max(shape.circular_score, 1e-9):.1f} times sharper than circles; "
+                        "the radius is sqrt(a b) of that ellipse (the SIE's intermediate-axis theta_E).")
+    return ell
 
 
 def _mean_direction(r: RingResult) -> tuple[float, float]:
@@ -988,9 +1048,23 @@ def _top_sectors_profile(smean, counts, good, sigma, n_sectors):
     return prof, err
 
 
+def _sie_ring_correction(radius, radius_err, axis_ratio, angle_deg, light) -> tuple[float, float]:
+    """sqrt(a b) of an elongated ring -> theta_E (:func:`lensmass.core.elliptical_annuli.sie_ring_factor`), in
+    the share that the lens light's direction gives the mass (:func:`~lensmass.core.elliptical_annuli.
+    mass_alignment_weight`); :data:`SIE_FACTOR_ERROR_SHARE` of the full correction is added to the error."""
+    full = sie_ring_factor(min(axis_ratio, 1.0)) - 1.0
+    if full <= 0:
+        return radius, radius_err
+    ok = light is not None and light.ok
+    w = mass_alignment_weight(angle_deg, light.angle_deg if ok else float("nan"), light.axis_ratio if ok else 1.0)
+    factor = 1.0 + w * full
+    return float(radius * factor), float(np.hypot(radius_err * factor, SIE_FACTOR_ERROR_SHARE * full * radius))
+
+
 def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma, sums, counts, smean, radii, prof,
-                       prof_s, err) -> RingResult:
-    """Width, ridge points, coverage and the ellipse fit of the ring candidate at profile index ``k``."""
+                       prof_s, err, shape=None) -> RingResult:
+    """Width, ridge points, coverage and the ellipse fit of the ring candidate at profile index ``k``
+    (``radii`` are elliptical radii of ``shape`` = (axis ratio, angle in radians) when it is given)."""
     # Ring width from the half-maximum of the smoothed profile around the peak.
     half = 0.5 * prof_s[k]
     lo_i, hi_i = k, k
@@ -1013,12 +1087,16 @@ def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma,
     wi = np.flatnonzero(window)
     px: Any = []
     py: Any = []
+    rhos = []
     for s in np.flatnonzero(detected):
         sp = np.where(counts[s, wi] > 0, smean[s, wi], np.nan) * np.sqrt(radii[wi])
         if np.isfinite(sp).sum() < 5:
             continue
         rr = ridge_peak(radii[wi], sp, r0, width)
         ang = -np.pi + (s + 0.5) * 2 * np.pi / n_sectors
+        rhos.append(rr)
+        if shape is not None:
+            rr = float(radius_along(ang, rr, *shape))
         px.append(cx + rr * np.cos(ang))
         py.append(cy + rr * np.sin(ang))
     px, py = np.array(px), np.array(py)
@@ -1029,8 +1107,13 @@ def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma,
             ef = fit_ellipse(px, py, center=(cx, cy), point_err=BIN_PIX / np.sqrt(12))
             if 0.4 <= ef.axis_ratio <= 1.0 and abs(ef.theta_e - r0) < 0.25 * r0:
                 radius, radius_err, q, angle, rms = ef.theta_e, ef.theta_e_err, ef.axis_ratio, ef.angle_deg, ef.rms
+                radius, radius_err = _sie_ring_correction(radius, radius_err, q, angle, light)
         except LensInputError:
             pass
+    if not np.isfinite(q) and shape is not None and len(px) >= 2:
+        # Too few points for an ellipse of their own: the median elliptical radius of the ridge in the searched shape.
+        radius, q, angle = float(np.median(rhos)), float(shape[0]), float(np.degrees(shape[1]))
+        radius_err = float(max(width / 2.355, 1.2533 * np.std(rhos)) / np.sqrt(len(rhos)))
     if not np.isfinite(q) and len(px) >= 2:
         cf = fit_circle(px, py, center=(cx, cy), point_err=BIN_PIX / np.sqrt(12))
         radius, radius_err, rms = cf.radius, cf.radius_err, cf.rms
