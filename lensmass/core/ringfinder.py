@@ -188,8 +188,13 @@ ELLIPSE_RHO_SPAN = (0.5, 1.8)
 ELLIPSE_MAX_MOVE = 0.35
 #: Smallest circular radius (pixels) for which a shape is sought (a smaller ring has too few pixels across).
 ELLIPSE_MIN_RADIUS_PIX = 4.0
-#: Share of the full SIE ring correction (sqrt(a b) -> theta_E, up to 5% at ring axis ratio 0.75) kept as its error:
-#: whether the elongation is the mass's or a shear's is judged from the light's direction only.
+#: A candidate seen in this share of the directions is measured in circles only: its ridge points already follow
+#: the ring all round, and the ellipse fitted to them gives its shape (the elliptical pass is for partial rings).
+ELLIPSE_MAX_COVERAGE = 0.9
+#: Candidates measured in the elliptical pass (it searches a narrow range of radii around one ring).
+ELLIPSE_CANDIDATES = 2
+#: Share of an elongated ring's SIE shortfall (sqrt(a b) below theta_E, up to 5% at ring axis ratio 0.75) added to
+#: its radius error (:func:`_sie_ring_correction`).
 SIE_FACTOR_ERROR_SHARE = 0.5
 
 
@@ -758,11 +763,21 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop) 
     light = fit_lens_light(img, cx, cy, progress=lambda f: report(progress, 0.3 * f), should_stop=should_stop)
     if light.ok:
         cx, cy = light.center_x, light.center_y
-    first = _search(light.residual, cx, cy, rmin, rmax, n_sectors, light, list(light.notes), None, should_stop)
+    # The first pass only places the mask of the refit (an ellipse fitted to its ridge points): its elliptical
+    # pass is run only if its answer is the one returned.
+    first = _search(light.residual, cx, cy, rmin, rmax, n_sectors, light, list(light.notes), None, should_stop,
+                    elliptical=False)
+
+    def first_answer() -> RingResult:
+        report(progress, 1.0)
+        if not first.found:
+            return first
+        return _elliptical_pass(first, light.residual, first.center_x, first.center_y, rmin, rmax, n_sectors, light,
+                                list(light.notes), should_stop)
+
     report(progress, 0.45)
     if not first.found or not light.ok:
-        report(progress, 1.0)
-        return first
+        return first_answer()
     # Second pass: the ring's own light biases the lens-light fit, so refit with the ring masked.
     half = max(1.0, MASK_HALF_WIDTHS * first.ring_width_pix)
     q_ring = min(1.0, first.axis_ratio) if np.isfinite(first.axis_ratio) else 1.0
@@ -772,26 +787,28 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop) 
     light2 = fit_lens_light(img, cx, cy, mask=mask, fit_radius_pix=light.fit_radius_pix, initial=light,
                             progress=lambda f: report(progress, 0.45 + 0.3 * f), should_stop=should_stop)
     if not light2.ok:
-        report(progress, 1.0)
-        return first
+        return first_answer()
     second = _search(light2.residual, light2.center_x, light2.center_y, rmin, rmax, n_sectors, light2,
                      list(light2.notes) + ["Lens light refitted with the ring masked."],
-                     lambda f: report(progress, 0.75 + 0.25 * f), should_stop)
+                     lambda f: report(progress, 0.75 + 0.25 * f), should_stop, elliptical=False)
     # The refit only de-biases the lens light under the ring; with a broad ring masked it can lose
     # its hold on the galaxy and leave a core residual that outshines the ring. A second answer that
     # is no ring, or a ring elsewhere, is not trusted over the first.
     if not second.found or abs(second.radius_pix - first.radius_pix) > max(2.0, first.ring_width_pix):
         moved = f"put the peak at {second.radius_pix:.2f} pixels" if second.found else "found no ring"
+        first = first_answer()
         first.radius_err_pix = float(np.hypot(first.radius_err_pix, FIRST_PASS_SYSTEMATIC * first.radius_pix))
         first.warnings.append(f"Refitting the lens light with the ring masked {moved}; the first fit's ring at "
                               f"{first.radius_pix:.2f} pixels is kept, with a {FIRST_PASS_SYSTEMATIC:.0%} systematic "
                               "error (check the residual image).")
         report(progress, 1.0)
         return first
-    # How far the refit moved the ring measures the lens-light model's pull on it: part of that
-    # pull may remain, so a share of the move is added to the radius error.
-    second.radius_err_pix = float(np.hypot(second.radius_err_pix,
-                                           REFIT_SHIFT_SYSTEMATIC * (second.radius_pix - first.radius_pix)))
+    # How far the refit moved the ring (both measured in circles) measures the lens-light model's pull on it:
+    # part of that pull may remain, so a share of the move is added to the radius error.
+    shift = second.radius_pix - first.radius_pix
+    second = _elliptical_pass(second, light2.residual, second.center_x, second.center_y, rmin, rmax, n_sectors, light2,
+                              list(light2.notes) + ["Lens light refitted with the ring masked."], should_stop)
+    second.radius_err_pix = float(np.hypot(second.radius_err_pix, REFIT_SHIFT_SYSTEMATIC * shift))
     return second
 
 
@@ -844,10 +861,12 @@ def _annulus_mask(shape, cx, cy, r_in, r_out) -> np.ndarray:
     return mask
 
 
-def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, should_stop, shape=None) -> RingResult:
+def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, should_stop, shape=None,
+            elliptical=True) -> RingResult:
     """Profile analysis of a (lens-subtracted) image around (cx, cy): in circular annuli, then (for a ring
     candidate that is sharper so) in elliptical ones (:func:`_elliptical_pass`); ``shape`` = (axis ratio, angle
-    in radians) searches elliptical annuli of that shape only, with ``rmin``, ``rmax`` elliptical radii."""
+    in radians) searches elliptical annuli of that shape only, with ``rmin``, ``rmax`` elliptical radii;
+    ``elliptical=False`` skips the elliptical pass."""
     ny, nx = res.shape
     report(progress, 0.0)
     check_stop(should_stop)
@@ -944,7 +963,7 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     # Several candidates are measured, not only the strongest peak (a star's or a neighbour's
     # residual can outshine the ring in the azimuthal profile); the kept one is the candidate
     # seen in the most directions, among those found, weighted by its significance.
-    order = np.argsort(-scores_ok)[:MAX_CANDIDATES]
+    order = np.argsort(-scores_ok)[:MAX_CANDIDATES if shape is None else ELLIPSE_CANDIDATES]
     tried = []
     for i in order:
         k = int(candidates_arr[i])
@@ -954,7 +973,7 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     report(progress, 1.0)
     best = max(tried, key=_strength)
     best = _pair_of_arcs(best, tried) if best.found and best.kind == "arcs" else best
-    if shape is None and best.found:
+    if shape is None and elliptical and best.found:
         best = _elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop)
     return best
 
@@ -970,7 +989,7 @@ def _elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, 
     The elliptical answer replaces the circular one only when its profile peak is :data:`ELLIPSE_GAIN` times
     more prominent and the candidate it measures ranks higher (:func:`_strength`) within
     :data:`ELLIPSE_MAX_MOVE` of the circular radius; it is confident only if the circular answer was."""
-    if best.radius_pix < ELLIPSE_MIN_RADIUS_PIX:
+    if best.radius_pix < ELLIPSE_MIN_RADIUS_PIX or best.coverage >= ELLIPSE_MAX_COVERAGE:
         return best
     shape = ring_shape(res, cx, cy, best.radius_pix, best.noise_sigma)
     if shape.axis_ratio >= 1.0 or shape.score < ELLIPSE_GAIN * shape.circular_score:
@@ -1049,16 +1068,19 @@ def _top_sectors_profile(smean, counts, good, sigma, n_sectors):
 
 
 def _sie_ring_correction(radius, radius_err, axis_ratio, angle_deg, light) -> tuple[float, float]:
-    """sqrt(a b) of an elongated ring -> theta_E (:func:`lensmass.core.elliptical_annuli.sie_ring_factor`), in
-    the share that the lens light's direction gives the mass (:func:`~lensmass.core.elliptical_annuli.
-    mass_alignment_weight`); :data:`SIE_FACTOR_ERROR_SHARE` of the full correction is added to the error."""
+    """The error an elongated ring's radius carries for its shape: sqrt(a b) of the ridge of an SIE's ring falls
+    short of theta_E by :func:`lensmass.core.elliptical_annuli.sie_ring_factor` (up to 5% at ring axis ratio 0.75),
+    while a shear's ring is about 1% long; which one elongated it is judged only from the light's direction
+    (:func:`~lensmass.core.elliptical_annuli.mass_alignment_weight`), so the radius is left as measured and
+    :data:`SIE_FACTOR_ERROR_SHARE` of that shortfall, in the share the light gives the mass, joins the error.
+    (Applying the factor to the radius was tried: stress lenses 570000-570209, plain rings within 5% 63% -> 47%;
+    measured ring axis ratios run low with noise and seeing.)"""
     full = sie_ring_factor(min(axis_ratio, 1.0)) - 1.0
     if full <= 0:
         return radius, radius_err
     ok = light is not None and light.ok
     w = mass_alignment_weight(angle_deg, light.angle_deg if ok else float("nan"), light.axis_ratio if ok else 1.0)
-    factor = 1.0 + w * full
-    return float(radius * factor), float(np.hypot(radius_err * factor, SIE_FACTOR_ERROR_SHARE * full * radius))
+    return float(radius), float(np.hypot(radius_err, SIE_FACTOR_ERROR_SHARE * w * full * radius))
 
 
 def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma, sums, counts, smean, radii, prof,
