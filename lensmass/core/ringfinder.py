@@ -27,8 +27,11 @@ Method (our own):
    Up to :data:`MAX_CANDIDATES` are measured (not only the strongest: a star's or a
    neighbour's residual can outshine the ring); the one seen in the most directions, weighted
    by its significance, is kept. Two arcs on opposite sides at different radii give theta_E as
-   their mean radius. The lens light is refitted with the ring masked and the search repeated
-   (the second answer replaces the first only when it finds the ring at the same radius).
+   their mean radius; a lone arc on one side gives its radius over :data:`LONE_ARC_FACTOR`. The lens
+   light is refitted with the ring masked and the search repeated (the second answer replaces the
+   first only when it finds the ring at the same radius). A partial ring is then searched again in
+   elliptical annuli of the shape that makes it sharpest (:mod:`lensmass.core.elliptical_annuli`,
+   radius sqrt(q x'^2 + y'^2 / q), the SIE's intermediate-axis theta_E), kept when it ranks higher.
 4. In each sector where the ring is detected (3 sigma), the ridge radius is measured on the
    profile weighted by sqrt(r) (undoing the inward shift of a blurred ring, see
    :mod:`lensmass.core.ridge`); those ridge points (``points_x``/``points_y``, usable by a

@@ -81,3 +81,18 @@ def test_sie_ridge_table_from_the_sie_potential():
     phi = np.linspace(0, 2 * np.pi, 721)[:-1]
     f = sie.potential(sie.SIEShear(1.0, 0.4, 0.0), np.cos(phi), np.sin(phi))
     assert abs(1 / np.sqrt(np.mean(f ** 2)) - np.interp(0.4, np.linspace(0.3, 1.0, 15), sorted(factors, reverse=True))) < 2e-3
+
+
+def test_lone_arc_gives_theta_e_inside_its_radius():
+    # An isothermal sphere's bright image lies at theta_E + beta (common practice; sie.py with q = 1): a source at
+    # beta = 0.3 theta_E gives an arc at 1.3 theta_E. The counter-image (0.7 theta_E) is masked, as a bright lens
+    # galaxy's light hides it. The finder reports theta_E = the arc radius / 1.25, truth inside 2 stated sigma.
+    theta_e = 16.0
+    img = _sie_ring(theta_e, 1.0, 0.0, seed=11, source=(0.3 * theta_e, 0.0), size_pix=1.2)
+    yy, xx = np.mgrid[0:SIZE, 0:SIZE]
+    hidden = np.hypot(xx - CENTRE, yy - CENTRE) < 0.9 * theta_e
+    out = find_ring(img, CENTRE, CENTRE, subtract_lens_light=False, auto_mask=False, mask=hidden)
+    assert out.found and out.kind == "arcs" and not out.paired
+    assert any("lone arc" in w for w in out.warnings)
+    assert abs(out.radius_pix - theta_e) < abs(1.3 * theta_e - theta_e)
+    assert abs(out.radius_pix - theta_e) <= 2 * out.radius_err_pix
