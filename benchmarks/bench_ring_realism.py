@@ -15,6 +15,13 @@ Measured 2026-12-03 on the finder with h14c's lens-light fit (r band, seeds 6000
 4 of 600 = 0.67% (95% interval 0.18-1.70%); 0.36 s CPU a cutout. Calibration seeds 500000-500719:
 86.0% of 86, 66.7%/95.1%, 2 of 360 confident.
 
+Shape-following FITS route (h14j, 2026-12-03: elliptical annuli for partial rings, lone arcs at their radius /
+1.25; loaded machine, CPU from concurrent runs), check seeds 670000-670699 (300 lenses, 400 non-lenses), COLOUR=0,
+main (42e5332) -> h14j: within 5% 47% -> 52%, bias +1.9% -> +1.5%, scatter 6.2% -> 5.0%, truth inside 1/2 sigma
+68%/96% -> 76%/91%, hard rings within 5% 90% -> 91% of 82, confident non-lenses 2.2% -> 2.2% (same 9 of 400), 0.17
+-> 0.19 s CPU a cutout. Panel 71000-71155 (benchmarks/ring_panel.py): within 5% 45 -> 60 of 102, inside 1/2 sigma
+75.5%/94.7% -> 79.8%/92.6%, hard rings 21/23 both, confident non-lenses 0/54 both.
+
 Prints, for the same fields as the r band (as FITS would give it) and as 8-bit asinh-stretched
 colour pictures (PNG: softening 2 and 6 noise sigma; JPEG quality 90: softening 2), the found
 fraction, the fraction within 5%, bias and scatter of the radius, the 1- and 2-sigma coverage of
