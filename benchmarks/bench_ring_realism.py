@@ -15,6 +15,14 @@ Measured 2026-12-03 on the finder with h14c's lens-light fit (r band, seeds 6000
 4 of 600 = 0.67% (95% interval 0.18-1.70%); 0.36 s CPU a cutout. Calibration seeds 500000-500719:
 86.0% of 86, 66.7%/95.1%, 2 of 360 confident.
 
+Confident rule against disc rings (h14k, 2026-12-03: the ring's own centre, its alignment with the light,
+correlated noise, the thick-ring waiver only across the light; lensmass.core.ringfinder), r band (FITS), check
+seeds 675000-675699 (300 lenses, 400 non-lenses) and 676000-676299 (300 non-lenses): found 93%, within 5% 43%,
+inside 1/2 sigma 63% / 92%, hard rings within 5% 87% of 75 (unchanged by the rule); confident non-lenses 2 of 700
+(0.29%, 95% 0.03-1.03%; both spirals, ring round and across the light; the former rule gave the same 2, reconstructed
+from the same run), confident lens rings 83 -> 81 of 300. Tuning seeds 580000-580699: confident non-lenses 2 -> 0 of 400
+(a ring galaxy and a spiral flattened along the light), confident lens rings 73 kept of 74.
+
 Prints, for the same fields as the r band (as FITS would give it) and as 8-bit asinh-stretched
 colour pictures (PNG: softening 2 and 6 noise sigma; JPEG quality 90: softening 2), the found
 fraction, the fraction within 5%, bias and scatter of the radius, the 1- and 2-sigma coverage of
