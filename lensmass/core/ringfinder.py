@@ -118,7 +118,10 @@ CONFIDENT_COVERAGE = 0.3
 #: eq. 29; common practice); a star-forming ring is often off the galaxy's centre. Tuning seeds (both
 #: generators, 580000-580699 and 580000-580709): free-centre offsets of the 94 confident lens rings 0.00-0.11
 #: (95% 0.09), of the star-forming rings, ring galaxies and spirals that reached the significance a median of
-#: 0.12 (stress fields) and 0.04 (ours).
+#: 0.12 (stress fields) and 0.04 (ours). Check seeds, this limit with :data:`DISC_ALIGN_DEG`, the thick-ring waiver's
+#: shape and :data:`CORRELATED_NOISE_FACTOR` together: stress fields 650000-650509 and 675000-675509, confident
+#: non-lenses 11 -> 3 of 600 (0.5%, 95% 0.1-1.5%), confident lens rings 29 -> 25 of 420; ours 675000-676299 2 -> 2
+#: of 700 (0.29%), confident lens rings 83 -> 81 of 300 (benchmarks/bench_ring_stress.py, bench_ring_realism.py).
 CONFIDENT_MAX_OFFSET = 0.12
 #: A ring elongated along the galaxy's light (major axes within this angle, both axis ratios below
 #: :data:`DISC_AXIS_RATIO`) looks like a ring in an inclined disc, and is never confident: a circular ring in a
