@@ -22,6 +22,14 @@ main (42e5332) -> h14j: within 5% 47% -> 52%, bias +1.9% -> +1.5%, scatter 6.2% 
 -> 0.19 s CPU a cutout. Panel 71000-71155 (benchmarks/ring_panel.py): within 5% 45 -> 60 of 102, inside 1/2 sigma
 75.5%/94.7% -> 79.8%/92.6%, hard rings 21/23 both, confident non-lenses 0/54 both.
 
+Confident rule against disc rings (h14k, 2026-12-03: the ring's own centre, its alignment with the light,
+correlated noise, the thick-ring waiver only across the light; lensmass.core.ringfinder), r band (FITS), check
+seeds 675000-675699 (300 lenses, 400 non-lenses) and 676000-676299 (300 non-lenses): found 93%, within 5% 43%,
+inside 1/2 sigma 63% / 92%, hard rings within 5% 87% of 75 (unchanged by the rule); confident non-lenses 2 of 700
+(0.29%, 95% 0.03-1.03%; both spirals, ring round and across the light; the former rule gave the same 2, reconstructed
+from the same run), confident lens rings 83 -> 81 of 300. Tuning seeds 580000-580699: confident non-lenses 2 -> 0 of 400
+(a ring galaxy and a spiral flattened along the light), confident lens rings 73 kept of 74.
+
 Prints, for the same fields as the r band (as FITS would give it) and as 8-bit asinh-stretched
 colour pictures (PNG: softening 2 and 6 noise sigma; JPEG quality 90: softening 2), the found
 fraction, the fraction within 5%, bias and scatter of the radius, the 1- and 2-sigma coverage of

@@ -27,6 +27,19 @@ found 74% -> 90%, within 5% 23% -> 34%, bias +4.2% -> +0.8%, scatter 51% -> 17%,
 31% / 73% -> 54% / 81%, rings within 5% 27% -> 47% of 30, hard rings 13% -> 40% of 15, confident
 non-lenses 0 -> 0 of 50. On the tuning fields an unsubtracted gradient alone had sent 5 of 20 lenses
 to "no ring", and a saturated star with its bleed trail was taken for a 7000-sigma arc.
+
+Confident rule against star-forming rings (h14k, 2026-12-03; load 10-19, CPU 0.35 s a cutout not comparable).
+New: the ring's own centre within 12% of its radius of the lens centre, not flattened along the light's major
+axis, never confident on correlated noise, and the 150-sigma thick-ring waiver only for a ring lying across the
+light (lensmass.core.ringfinder constants; tuned on 580000-581299 of both generators). Radii and errors move
+only by the solver's rounding (robust_lm's hypot; panel 71000-71155: 6 of 156 answers moved, its figures the same). Check seeds 675000-675509 (210 lenses, 300 non-lenses): confident non-lenses
+6 (2.0%, reconstructed from the same run with the former rule) -> 1 (0.3%, 95% 0.0-1.8%), confident lens rings
+20 -> 17; found 84%, within 5% 34%, inside 1/2 sigma 53% / 87%, hard rings within 5% 53% of 47. Seeds
+650000-650509 (the figures above): confident non-lenses 5 -> 2 (0.7%, 95% 0.1-2.4%), confident lens rings
+9 -> 8, other figures unchanged. Both check sets together: 3 of 600 non-lenses (0.5%, 95% 0.1-1.5%), all
+star-forming rings: thin, centred and round, at 93-145 sigma on white noise (one band cannot tell them from
+lensed rings; their colour would). Stress tuning seeds 581000-581299, star-forming rings only (the new rule
+applied to that run's recorded measurements): 28 confident (9.3%) -> 9 (3.0%).
 """
 
 from __future__ import annotations
