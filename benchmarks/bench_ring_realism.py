@@ -70,7 +70,22 @@ ROUTES: dict[str, dict] = {
     "JPEG q90, per-band asinh": {"stretch": "asinh", "jpeg": 90},
     "JPEG q75, Lupton Q 8": {"stretch": "lupton", "jpeg": 75},
     "JPEG q75, sqrt clipped": {"stretch": "sqrt", "jpeg": 75},
+    "PNG grey, r band asinh, softening 2": {"grey": "asinh"},
+    "PNG grey, r band sqrt clipped": {"grey": "sqrt"},
+    "JPEG q85 grey, r band asinh": {"grey": "asinh", "jpeg": 85},
 }
+
+
+def grey_picture(cutout, stretch: str) -> np.ndarray:
+    """The r band as a grey 8-bit picture: an asinh of softening 2 noise sigma up to its 99.8th percentile,
+    or a square root clipped at its 99.5th (common practice for survey and image-viewer cutouts)."""
+    r = np.clip(np.asarray(cutout.bands[1], float), 0, None)
+    if stretch == "asinh":
+        top = max(float(np.percentile(r, 99.8)), 6.0)
+        v = np.arcsinh(r / 2.0) / np.arcsinh(top / 2.0)
+    else:
+        v = np.sqrt(r / max(float(np.percentile(r, 99.5)), 1e-12))
+    return np.clip(np.round(255 * v), 0, 255).astype(np.uint8)
 
 
 def picture(cutout, route: str) -> np.ndarray:
@@ -81,11 +96,13 @@ def picture(cutout, route: str) -> np.ndarray:
 
     spec = dict(ROUTES[route])
     quality = spec.pop("jpeg", None)
-    pic = colour_picture(cutout, **spec)
+    grey = spec.pop("grey", None)
+    pic = grey_picture(cutout, grey) if grey else colour_picture(cutout, **spec)
     if quality:
         buf = io.BytesIO()
-        Image.fromarray(pic, "RGB").save(buf, format="JPEG", quality=quality, subsampling=2)  # 2 = 4:2:0
-        pic = np.asarray(Image.open(io.BytesIO(buf.getvalue())).convert("RGB"))
+        mode = "L" if grey else "RGB"
+        Image.fromarray(pic, mode).save(buf, format="JPEG", quality=quality, subsampling=2)  # 2 = 4:2:0
+        pic = np.asarray(Image.open(io.BytesIO(buf.getvalue())).convert(mode))
     return pic
 
 
@@ -106,6 +123,9 @@ def sweep(cutouts, route: str):
                 out.append(find_ring(c.image))
             else:
                 pic = picture(c, route)
+                if pic.ndim == 2:
+                    out.append(find_ring(pic.astype(np.float32), stretched=True))
+                    continue
                 out.append(find_ring(pic.astype(np.float32) @ np.array([0.299, 0.587, 0.114], np.float32),
                                      colour=pic, compressed="jpeg" in ROUTES[route]))
         except LensInputError:
