@@ -123,11 +123,12 @@ def sweep(cutouts, route: str):
                 out.append(find_ring(c.image))
             else:
                 pic = picture(c, route)
+                quality = ROUTES[route].get("jpeg") or False  # as load_image reads it from the file's tables
                 if pic.ndim == 2:
-                    out.append(find_ring(pic.astype(np.float32), stretched=True))
+                    out.append(find_ring(pic.astype(np.float32), stretched=True, compressed=quality))
                     continue
                 out.append(find_ring(pic.astype(np.float32) @ np.array([0.299, 0.587, 0.114], np.float32),
-                                     colour=pic, compressed="jpeg" in ROUTES[route]))
+                                     colour=pic, compressed=quality))
         except LensInputError:
             out.append(Failed())
     return out

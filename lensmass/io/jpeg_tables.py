@@ -66,6 +66,6 @@ def quality_from_tables(tables: dict[int, list[int]] | None) -> float | None:
     qualities = np.arange(1, 101)
     cost = np.zeros(qualities.size)
     for i, t in enumerate(found[:2]):
-        ref = np.array([ijg_table(bases[i], q) for q in qualities], float)
+        ref = np.array([ijg_table(bases[i], int(q)) for q in qualities], dtype=np.float64)
         cost += weights[i] * np.abs(np.log(ref) - np.log(t)).sum(axis=1)
     return float(qualities[int(np.argmin(cost))])

@@ -14,7 +14,7 @@ import pytest
 
 from lensmass.core.colour_separation import arc_image, choose_strength, linearise, noise_normalised
 from lensmass.core.realistic_fields import colour_picture, make_cutout
-from lensmass.core.ringfinder import LOSSY_ERROR_SCALE, find_ring
+from lensmass.core.ringfinder import find_ring, lossy_error_scale
 
 #: Unseen seeds (see the module docstring): the first rings of make_sample's cycle from here.
 FIRST_SEED = 610000
@@ -79,7 +79,7 @@ def test_colour_pictures_find_rings_as_fits_does(rings, capsys):
                 r = find_ring(c.image)
             else:
                 pic = colour_picture(c)
-                r = (_colour_ring(_jpeg(pic), compressed=True) if route == "JPEG" else _colour_ring(pic))
+                r = (_colour_ring(_jpeg(pic), compressed=90) if route == "JPEG" else _colour_ring(pic))
                 assert not r.confident and any("not calibrated flux" in w for w in r.warnings)
             truth = c.truth["radius_pix"]
             ok += bool(r.found and abs(r.radius_pix / truth - 1) <= 0.05)
@@ -117,10 +117,12 @@ def test_jpeg_files_are_read_as_lossy_and_their_error_scaled(tmp_path):
     r_png, r_jpg = find_ring_on_image(png), find_ring_on_image(jpg)
     assert any("lossy compression" in w for w in r_jpg.warnings)
     assert not any("lossy compression" in w for w in r_png.warnings)
-    plain = find_ring(jpg.data, colour=jpg.rgb, compressed=True)
+    assert jpg.jpeg_quality == 90  # read from the file's quantisation tables (ITU-T T.81 Annex K, IJG scaling)
+    plain = find_ring(jpg.data, colour=jpg.rgb, compressed=jpg.jpeg_quality)
     assert r_jpg.found and plain.found
     assert r_jpg.radius_pix == plain.radius_pix and r_jpg.radius_err_pix == plain.radius_err_pix
-    assert any(f"scaled by {LOSSY_ERROR_SCALE}" in w for w in r_jpg.warnings)
+    assert any("quality 90), which blurs" in w and f"scaled by {lossy_error_scale(90):.2f}" in w
+               for w in r_jpg.warnings)
 
 
 def test_lupton_pictures_keep_colours_and_per_band_asinh_does_not():
@@ -191,7 +193,7 @@ def test_hard_rings_on_other_stretches(hard_rings, stretch, quality, at_least, c
         pic = colour_picture(c, stretch=stretch)
         if quality:
             pic = _jpeg_q(pic, quality)
-        r = _colour_ring(pic, compressed=bool(quality))
+        r = _colour_ring(pic, compressed=quality or False)
         assert not r.confident
         truth = c.truth["radius_pix"]
         ok += bool(r.found and abs(r.radius_pix / truth - 1) <= 0.05)
