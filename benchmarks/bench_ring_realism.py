@@ -73,6 +73,7 @@ ROUTES: dict[str, dict] = {
     "PNG grey, r band asinh, softening 2": {"grey": "asinh"},
     "PNG grey, r band sqrt clipped": {"grey": "sqrt"},
     "JPEG q85 grey, r band asinh": {"grey": "asinh", "jpeg": 85},
+    "JPEG q95, per-band asinh": {"stretch": "asinh", "jpeg": 95},
 }
 
 

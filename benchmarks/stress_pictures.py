@@ -18,9 +18,10 @@ evaluator's pictures differ in all of these, so this maker draws them widely:
 
 Truth: ``radius_pix`` is the SIE's theta_E (intermediate-axis normalisation), as in stress_fields.
 
-Run: python benchmarks/stress_pictures.py N_LENSES FIRST_SEED [HARD] [ENCODING]
+Run: python benchmarks/stress_pictures.py N_LENSES FIRST_SEED [HARD] [ENCODING] [TABLE]
 (HARD=1: hard rings only, ring+neighbour and ring+star with theta_E >= 2.5 FWHM; ENCODING png, jpeg or
-any). Seeds: h14l tuned on 590000-599999 and checks on 680000-684999; 700000-899999 are never used here.
+any; TABLE: a file to which one JSON line a field is appended). Seeds: h14l tuned on 590000-599999 and
+checks on 680000-684999; 700000-899999 are never used here.
 """
 
 from __future__ import annotations
@@ -241,7 +242,7 @@ def make_pictures(n: int, first_seed: int, hard: bool = False, encoding: str = "
         yield f
 
 
-def main(n: int = 60, first_seed: int = 680000, hard: int = 0, encoding: str = "any") -> None:
+def main(n: int = 60, first_seed: int = 680000, hard: int = 0, encoding: str = "any", table: str = "") -> None:
     from lensmass.core.einstein import find_ring_on_image
     from lensmass.core.errors import LensInputError
     from lensmass.io.images import load_image
@@ -254,6 +255,13 @@ def main(n: int = 60, first_seed: int = 680000, hard: int = 0, encoding: str = "
             rows.append((f, out.found, out.radius_pix, out.radius_err_pix))
         except LensInputError:
             rows.append((f, False, np.nan, np.nan))
+        if table:  # one line a field, for looking into the failures
+            import json
+
+            with open(table, "a") as fh:
+                fh.write(json.dumps({"seed": f.truth["seed"], "kind": f.truth["kind"], "recipe": f.recipe,
+                                     "truth": f.truth["radius_pix"], "psf": f.psf_fwhm_pix, "found": bool(rows[-1][1]),
+                                     "radius": float(rows[-1][2]), "err": float(rows[-1][3])}) + "\n")
     cpu = (time.process_time() - c0) / max(n, 1)
     report(rows, f"seeds {first_seed}-{first_seed + n - 1}{' hard rings' if hard else ''}, {encoding}", cpu)
 
@@ -284,4 +292,4 @@ def report(rows, label: str, cpu: float) -> None:
 
 if __name__ == "__main__":
     a = sys.argv[1:]
-    main(*(int(x) for x in a[:3]), *a[3:4])
+    main(*(int(x) for x in a[:3]), *a[3:5])

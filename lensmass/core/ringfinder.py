@@ -139,7 +139,8 @@ STRETCHED_SYSTEMATIC = 0.03
 #: A ring found inside this share of the lens's half-maximum diameter (on the linearised picture, as the masks
 #: measure it) is the stretched core's residual, not a ring. Tuning seeds 590000-590099/595000-595099, 145 found
 #: lenses on six picture routes: radius / lens half-maximum diameter below 0.65 in 5, all 54-77% too small; from
-#: 0.69 up 12% too small or better. Such a candidate is not reported as a ring.
+#: 0.69 up 12% too small or better. The search on a picture starts outside this radius, and a ring fitted inside it
+#: is not reported.
 PICTURE_CORE_RATIO = 0.65
 #: Systematic fractional radius error when the ring is seen on the arc image of only one asinh strength.
 STRETCH_SINGLE_SYSTEMATIC = 0.05
@@ -427,6 +428,8 @@ def find_ring(
     if rmax <= rmin + 4 * BIN_PIX:
         raise LensInputError("The lens centre is too close to the image edge to search for a ring; "
                              "give a centre farther from the edge or a larger search radius (`max_radius_pix`).")
+    if (colour is not None or picture is not None) and residual is None and subtract_lens_light:
+        rmin = _outside_picture_core(masks, cx, cy, rmin, rmax)
     if residual is not None:
         out = _search(np.asarray(residual), cx, cy, rmin, rmax, n_sectors, None, warnings, progress, should_stop)
     elif not subtract_lens_light:
@@ -791,18 +794,34 @@ def _finish(out: RingResult, masks, given: bool, colour: bool, quality: float | 
     return out
 
 
+def _lens_halfmax_pix(masks, cx: float, cy: float) -> float:
+    """The half-maximum diameter of the lens nearest (cx, cy) as the masks measured it (NaN when none)."""
+    lenses = [o for o in getattr(masks, "objects", None) or [] if o.kind == "lens" and np.isfinite(o.halfmax_diameter_pix)]
+    if not lenses:
+        return float("nan")
+    return float(min(lenses, key=lambda o: np.hypot(o.x - cx, o.y - cy)).halfmax_diameter_pix)
+
+
+def _outside_picture_core(masks, cx: float, cy: float, rmin: float, rmax: float) -> float:
+    """The smallest radius searched on a stretched picture: outside :data:`PICTURE_CORE_RATIO` of the lens's
+    half-maximum diameter (where the undone stretch leaves the core's residual, which outshone the ring), while
+    leaving room for a search."""
+    core = PICTURE_CORE_RATIO * _lens_halfmax_pix(masks, cx, cy)
+    if not np.isfinite(core) or core <= rmin or core >= rmax - 8 * BIN_PIX:
+        return rmin
+    return float(core)
+
+
 def _refuse_core_residual(out: RingResult, masks) -> None:
     """On a stretched picture, a ring inside :data:`PICTURE_CORE_RATIO` of the lens's half-maximum diameter is the
-    residual of its core (the stretch undone only roughly), not a ring: report none, saying why."""
-    lenses = [o for o in getattr(masks, "objects", []) if o.kind == "lens" and np.isfinite(o.halfmax_diameter_pix)]
-    if not out.found or not lenses:
-        return
-    lens = min(lenses, key=lambda o: np.hypot(o.x - out.center_x, o.y - out.center_y))
-    if out.radius_pix >= PICTURE_CORE_RATIO * lens.halfmax_diameter_pix:
+    residual of its core (the stretch undone only roughly), not a ring: report none, saying why. (The search
+    starts outside that radius, :func:`_outside_picture_core`; an ellipse fitted to its ridge can still end inside.)"""
+    halfmax = _lens_halfmax_pix(masks, out.center_x, out.center_y)
+    if not out.found or not np.isfinite(halfmax) or out.radius_pix >= PICTURE_CORE_RATIO * halfmax:
         return
     out.warnings.append(f"The only ring candidate ({out.radius_pix:.1f} pixels) lies inside the lens core's half-maximum "
-                        f"width ({lens.halfmax_diameter_pix:.1f} pixels): on a stretched picture that is the residual of "
-                        "the core, not a ring.")
+                        f"width ({halfmax:.1f} pixels): on a stretched picture that is the residual of the core, not a "
+                        "ring.")
     out.found, out.kind = False, "none"
     out.message = ("No ring outside the lens core on this stretched picture: mark the arcs by hand, or measure a FITS "
                    "band.")
