@@ -31,6 +31,7 @@ import sys
 import tempfile
 import time
 from dataclasses import dataclass, field
+from functools import partial
 
 import numpy as np
 from astropy.convolution import convolve_fft
@@ -55,6 +56,11 @@ class StressPicture:
     path: str = ""
 
 
+def _blur_binned(fine: np.ndarray, kernel: np.ndarray) -> np.ndarray:
+    """A fine-grid image through the PSF (astropy convolve_fft), binned to pixels."""
+    return _bin(convolve_fft(fine, kernel, boundary="fill", normalize_kernel=False, allow_huge=True))
+
+
 def _colour(rng, lo: float, hi: float) -> np.ndarray:
     """(g, r, i) flux ratios with g/i drawn from lo to hi (log-uniform), r between them."""
     gi = float(np.exp(rng.uniform(np.log(lo), np.log(hi))))
@@ -73,12 +79,11 @@ def make_field(seed: int, kind: str, hard: bool = False) -> StressPicture:
         if lo < hi:
             break
     te = float(fwhm_pix * rng.uniform(lo, hi))
+    # The side: room for the ring and its surroundings, and for a star 3-4.5" away (stress_fields' sizes).
     size = int(np.clip(2 * np.ceil(2.7 * te) + 10, 64, 160))
-    if kind == "ring+star":
-        size = int(min(max(size, 2 * np.ceil(4.0 / scale) + 10), 200))
+    size = int(min(max(size, 2 * np.ceil(4.0 / scale) + 10), 200)) if kind == "ring+star" else size
     k = OVERSAMPLE
-    s = (np.arange(size * k) + 0.5) / k - 0.5
-    xx, yy = np.meshgrid(s, s)
+    xx, yy = np.meshgrid(*2 * [(np.arange(size * k) + 0.5) / k - 0.5])  # the fine grid, in pixels
     c0 = (size - 1) / 2
     cx, cy = c0 + rng.uniform(-3, 3), c0 + rng.uniform(-3, 3)
     recipe = [f"psf {psf_kind}"]
@@ -130,13 +135,8 @@ def make_field(seed: int, kind: str, hard: bool = False) -> StressPicture:
         stars.append((cx + d * np.cos(t), cy + d * np.sin(t), rng.uniform(0.3, 6.0), _colour(rng, 0.3, 3.0)))
         recipe.append("star")
     # Blur each component once (one PSF; g a little broader by a Gaussian on top), bin, scale to noise units.
-    kern = _psf(rng, psf_kind, fwhm_pix * k)
-
-    def blur(a):
-        return _bin(convolve_fft(a, kern, boundary="fill", normalize_kernel=False, allow_huge=True))
-
-    lens_img = blur(lens)
-    lens_peak = rng.uniform(30, 400)
+    blur = partial(_blur_binned, kernel=_psf(rng, psf_kind, fwhm_pix * k))
+    lens_img, lens_peak = blur(lens), rng.uniform(30, 400)
     norm = lens_peak / max(lens_img.max(), 1e-30)
     bands = lens_img[None] * lens_colour[:, None, None] * norm
     for img, col in comps:
