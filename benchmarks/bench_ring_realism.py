@@ -25,6 +25,18 @@ colour pictures' rates as high as the FITS's of the same fields.
 Seeds: the colour route was tuned on 510000-519999 and checked on 610000-610999; 700000-899999 are
 kept for the final evaluation.
 
+Picture errors from what the picture tells, JPEG quality read from the file, the search outside the lens core
+and each band's sky taken out (h14l, 2026-12-03; machine load 13-20, so figures, not times). Check seeds, hard
+rings only (HARD=1, 680000-680099, 100 a route), within 5% / truth inside 1/2 sigma, before (0ef16bd: quality,
+3% stretch term, disagreeing stretches) -> after (sky levels, search outside the core):
+JPEG q75 Lupton 55% 81/98 -> 67% 83/98; PNG Lupton Q 8 75% 83/98 -> 85% 88/98; JPEG q90 per-band asinh 55% 75/93
+-> @Q90@; PNG per-band asinh 82% 90/99 -> @A@; grey square-root PNG (after) 74% 91/98; grey asinh PNG @GA@.
+Mixed samples (681000-681089, 90 lenses of every kind): JPEG q75 Lupton within 5% 32%, hard rings 58% of 26,
+bias +6.1%, inside 1/2 sigma 80/92; PNG Lupton @ML@; grey square-root @MS@. Hard rings stay covered more widely
+than nominal at 1 sigma (83-91%): their errors already hold the 2% ring floor and the stretch spread.
+Pictures unlike ours (benchmarks/stress_pictures.py, seeds 680500-680531, same fields): before the sky levels,
+within 5% 9%, bias +55%, inside 1/2 sigma 27%/73%; after 9%, +16%, 62%/92% (the r band as FITS: 47%, 62%/83%).
+
 Colour route reading the stretch from the lens's pixels (h14g, 2026-12-03; CPU shared by ~9 processes, so
 figures, not times). Hard rings only (HARD=1), check seeds 630000-630149, 150 each, within 5% with the 95%
 Clopper-Pearson interval, and truth inside 1/2 sigma: per-band asinh softening 2: 83% (124/150, 76-88%),
