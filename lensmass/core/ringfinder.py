@@ -134,13 +134,16 @@ MIN_PROMINENCE_SIGMA = 3.0
 #: JPEG factor, wrong core candidates (:data:`PICTURE_CORE_RATIO`) left out: truth inside 1/2 sigma with 0% / 2% / 3%:
 #: per-band asinh hard 79/100, 93/100, 93/100, mixed 68/86, 68/91, 73/91; Lupton Q 8 hard 83/97, 86/97, 90/97,
 #: mixed 52/81, 62/86, 62/90; grey asinh hard 79/97, 83/97, 90/97, mixed 58/79, 58/89, 58/89. Hard rings stay
-#: over-covered at any value: their errors already hold the 2% ring floor and the stretch spread.
+#: over-covered at any value: their errors already hold the 2% ring floor and the stretch spread. Check seeds
+#: (with the search outside the core and the sky levels): hard rings 680000-680099 inside 1/2 sigma JPEG q75 Lupton
+#: 83/98, PNG Lupton 88/98, grey square root 91/98; mixed 681000-681089 JPEG q75 Lupton 80/92.
 STRETCHED_SYSTEMATIC = 0.03
 #: A ring found inside this share of the lens's half-maximum diameter (on the linearised picture, as the masks
 #: measure it) is the stretched core's residual, not a ring. Tuning seeds 590000-590099/595000-595099, 145 found
 #: lenses on six picture routes: radius / lens half-maximum diameter below 0.65 in 5, all 54-77% too small; from
 #: 0.69 up 12% too small or better. The search on a picture starts outside this radius, and a ring fitted inside it
-#: is not reported.
+#: is not reported. Check seeds 680000-680099 (100 hard rings), within 5%: grey square-root PNG 74% (stop 24: 53-67%);
+#: with the sky levels (colour_separation.sky_levels) too, JPEG q75 Lupton 55% -> 67%, PNG Lupton 75% -> 85%.
 PICTURE_CORE_RATIO = 0.65
 #: Systematic fractional radius error when the ring is seen on the arc image of only one asinh strength.
 STRETCH_SINGLE_SYSTEMATIC = 0.05
