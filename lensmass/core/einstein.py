@@ -396,8 +396,8 @@ def find_ring_on_image(
 
 def picture_options(image) -> dict:
     """What the ring finder and the lens-light fit need to know about a loaded image that is an 8-bit
-    picture: its RGB bands (``colour``), lossy compression (``compressed``: the JPEG quality, or True) and a grey stretch
-    (``stretched``); all off for FITS data or a bare array. One source for the window's finder, its
+    picture: its RGB bands (``colour``), lossy compression (``compressed``: the JPEG quality, or True) and a
+    grey stretch (``stretched``); all off for FITS data or a bare array. One source for the window's finder, its
     lens-light fit, its masks and the command line.
 
     Examples
