@@ -72,6 +72,38 @@ def lens_colour(linear: np.ndarray, center_x: float, center_y: float, usable: np
     return float(np.median(blue[near] / red[near]))
 
 
+#: Share of the picture's side, from each edge, whose pixels give each band's sky level (at least 3 pixels).
+SKY_FRAME_SHARE = 0.08
+
+
+def sky_levels(linear: np.ndarray, usable: np.ndarray | None = None) -> np.ndarray:
+    """Each linearised band's sky: the median of its usable pixels in a frame along the picture's edges.
+
+    A display interval whose lower end lies below the sky (astropy's PercentileInterval, ZScaleInterval: common
+    practice) lifts the sky of each band by its own amount; left in, those levels enter the lens colour and
+    the arc image, and the lens's faint wings, where the sky's colour gives way to the lens's, read as a
+    blue ring.
+
+    Examples
+    --------
+    >>> lin = np.zeros((40, 40, 3)) + np.array([0.0, 1.0, 3.0])
+    >>> lin[15:25, 15:25] += 50.0                     # a source in the middle is not sky
+    >>> sky_levels(lin).tolist()
+    [0.0, 1.0, 3.0]
+    """
+    lin = np.asarray(linear, float)
+    ny, nx = lin.shape[:2]
+    w = max(3, int(SKY_FRAME_SHARE * min(ny, nx)))
+    frame = np.zeros((ny, nx), bool)
+    frame[:w], frame[-w:], frame[:, :w], frame[:, -w:] = True, True, True, True
+    ok = frame & np.isfinite(lin).all(axis=-1)
+    if usable is not None:
+        ok &= np.asarray(usable, bool)
+    if ok.sum() < 16:
+        return np.zeros(lin.shape[-1])
+    return np.median(lin[ok], axis=0)
+
+
 def arc_image(rgb: np.ndarray, center_x: float, center_y: float, strength: float,
               mask: np.ndarray | None = None) -> np.ndarray:
     """Blue minus the lens colour times red, in linear flux (units of the softening); NaN where the
@@ -95,6 +127,7 @@ def arc_image(rgb: np.ndarray, center_x: float, center_y: float, strength: float
     if mask is not None:
         usable &= ~np.asarray(mask, bool)
     lin = linearise(rgb, strength)
+    lin = lin - sky_levels(lin, usable)
     k = lens_colour(lin, center_x, center_y, usable)
     if not np.isfinite(k):
         k = 1.0

@@ -396,8 +396,8 @@ def find_ring_on_image(
 
 def picture_options(image) -> dict:
     """What the ring finder and the lens-light fit need to know about a loaded image that is an 8-bit
-    picture: its RGB bands (``colour``), lossy compression (``compressed``) and a grey stretch
-    (``stretched``); all off for FITS data or a bare array. One source for the window's finder, its
+    picture: its RGB bands (``colour``), lossy compression (``compressed``: the JPEG quality, or True) and a
+    grey stretch (``stretched``); all off for FITS data or a bare array. One source for the window's finder, its
     lens-light fit, its masks and the command line.
 
     Examples
@@ -406,7 +406,9 @@ def picture_options(image) -> dict:
     {'colour': None, 'compressed': False, 'stretched': False}
     """
     colour = getattr(image, "rgb", None)
-    return {"colour": colour, "compressed": bool(getattr(image, "lossy", False)),
+    # A JPEG's quality (read from its quantisation tables) sets how far the finder widens its error.
+    lossy = getattr(image, "jpeg_quality", None) or bool(getattr(image, "lossy", False))
+    return {"colour": colour, "compressed": lossy,
             "stretched": colour is None and bool(getattr(image, "eight_bit", False))}
 
 

@@ -163,13 +163,28 @@ REFIT_SHIFT_SYSTEMATIC = 0.5
 FIRST_PASS_SYSTEMATIC = 0.05
 #: A ring candidate is a peak of the azimuthal profile standing out by this many sigma (prominence).
 MIN_PROMINENCE_SIGMA = 3.0
-#: Systematic fractional radius error of an 8-bit stretched colour picture (its stretch is read from the
-#: lens's pixels, not known; the arc image's noise is estimated, not measured). Tuning seeds 530100-530189 (90
-#: lenses of every kind, errors before this term and the lossy factor): truth inside 1/2 sigma per-band asinh
-#: 59%/89% -> 71%/94%, Lupton Q 8 50%/81% -> 62%/90%, clipped sqrt 57%/88% -> 70%/91% with 7%.
-STRETCHED_SYSTEMATIC = 0.07
+#: Systematic fractional radius error of an 8-bit stretched picture, on top of what the picture itself tells (the
+#: spread over assumed stretches and any ring another stretch sees, :func:`_widen_for_stretch`). It was 7% for every
+#: lens, which covered hard rings too widely (truth inside 1 sigma 86-97%) and the tails of mixed samples not at all.
+#: Tuning seeds 590000-590099 (hard rings) and 595000-595099 (every lens kind), errors without this term and the
+#: JPEG factor, wrong core candidates (:data:`PICTURE_CORE_RATIO`) left out: truth inside 1/2 sigma with 0% / 2% / 3%:
+#: per-band asinh hard 79/100, 93/100, 93/100, mixed 68/86, 68/91, 73/91; Lupton Q 8 hard 83/97, 86/97, 90/97,
+#: mixed 52/81, 62/86, 62/90; grey asinh hard 79/97, 83/97, 90/97, mixed 58/79, 58/89, 58/89. Hard rings stay
+#: over-covered at any value: their errors already hold the 2% ring floor and the stretch spread. Check seeds
+#: (with the search outside the core and the sky levels): hard rings 680000-680099 inside 1/2 sigma JPEG q75 Lupton
+#: 83/98, PNG Lupton 88/98, grey square root 91/98; mixed 681000-681089 JPEG q75 Lupton 80/92.
+STRETCHED_SYSTEMATIC = 0.03
+#: A ring found inside this share of the lens's half-maximum diameter (on the linearised picture, as the masks
+#: measure it) is the stretched core's residual, not a ring. Tuning seeds 590000-590099/595000-595099, 145 found
+#: lenses on six picture routes: radius / lens half-maximum diameter below 0.65 in 5, all 54-77% too small; from
+#: 0.69 up 12% too small or better. The search on a picture starts outside this radius, and a ring fitted inside it
+#: is not reported. Check seeds 680000-680099 (100 hard rings), within 5%: grey square-root PNG 74% (stop 24: 53-67%);
+#: with the sky levels (colour_separation.sky_levels) too, JPEG q75 Lupton 55% -> 67%, PNG Lupton 75% -> 85%.
+PICTURE_CORE_RATIO = 0.65
 #: Systematic fractional radius error when the ring is seen on the arc image of only one asinh strength.
 STRETCH_SINGLE_SYSTEMATIC = 0.05
+#: Share of the distance to a ring another assumed stretch sees (beyond 20% of the radius) kept in the error.
+STRETCH_DISAGREE_SHARE = 1.0
 #: The noise of a lossy-compressed picture's arc image is read from differences this many pixels apart
 #: (JPEG's quantisation drops the pixel-scale noise, so neighbouring pixels understate it).
 LOSSY_NOISE_LAG_PIX = 2
@@ -188,12 +203,16 @@ STRENGTH_SPREAD_SHARE = 1.0
 #: searched (a star's colour fringes reach past its mask). Tuning seeds 510300-510419 (120 lenses): PNG
 #: rings within 5% 77% -> 82%, truth inside 1/2 sigma 74%/90% -> 68%/92%.
 COLOUR_MASK_GROW_PIX = 4
-#: Factor on the radius error of a colour picture stored with lossy compression (JPEG: blocks, and colour
-#: kept at half resolution, which smears thin blue arcs; a tail of wrong radii that no additive term
-#: covers). Tuning seeds 530100-530189 (90 lenses of every kind, with the 7% above and the noise floor
-#: below): truth inside 1/2 sigma JPEG q75 (Lupton) 69%/90% at 1.4, 85%/95% at 1.8; JPEG q90 (per-band
-#: asinh) 78%/95% at 1.4 (one factor serves both qualities only roughly).
-LOSSY_ERROR_SCALE = 1.4
+#: Factor on the radius error of a picture stored with lossy compression at JPEG quality 75 (blocks, and
+#: colour kept at half resolution, which smears thin blue arcs: a tail of wrong radii that no additive term
+#: covers); :func:`lossy_error_scale` takes it to 1 at quality 100 (1.12 at 90). Tuning seeds 590000-590099 and
+#: 595000-595099 with the 3% above: truth inside 1/2 sigma JPEG q75 Lupton hard rings 71/93 at 1, 79/96 at 1.3,
+#: 82/96 at 1.5; mixed 50/77, 59/95, 59/100; JPEG q90 per-band asinh (1, 1.15): hard 82/100, 89/100, mixed 55/77,
+#: 55/91. Before the quality was read, one factor of 1.4 for every JPEG (tuning seeds 530100-530189: q75 69%/90%,
+#: q90 78%/95%).
+LOSSY_ERROR_SCALE = 1.3
+#: The JPEG quality taken when a picture is known to be lossy but its quality is not (a common survey setting).
+LOSSY_ASSUMED_QUALITY = 75.0
 #: Share of half the radius difference of an arc pair kept as a systematic error (ellipticity, shear).
 PAIR_SYSTEMATIC = 0.3
 #: A sky level on the cutout's border beyond this many noise sigmas is subtracted before the search (an
@@ -384,7 +403,7 @@ def find_ring(
     mask: np.ndarray | None = None,
     auto_mask: bool = True,
     colour: np.ndarray | None = None,
-    compressed: bool = False,
+    compressed: bool | float = False,
     stretched: bool = False,
     progress: ProgressCallback = None,
     should_stop: StopCallback = None,
@@ -414,10 +433,12 @@ def find_ring(
     colour : array (ny, nx, 3), optional
         The RGB picture the image came from (8-bit stretched survey cutouts): arcs are told
         from lens light by being bluer, and the errors are widened for the stretch.
-    compressed : bool
-        The colour picture was stored with lossy compression (JPEG): its arc image's noise is read
-        through the compression's smoothing (:data:`LOSSY_NOISE_LAG_PIX`, :data:`LOSSY_NOISE_FLOOR`)
-        and the error is scaled by :data:`LOSSY_ERROR_SCALE`.
+    compressed : bool or float
+        The picture was stored with lossy compression (JPEG): its quality 1-100 (as
+        :attr:`lensmass.io.images.LoadedImage.jpeg_quality` reads it from the file), or True when unknown
+        (taken as :data:`LOSSY_ASSUMED_QUALITY`). A colour picture's arc image has its noise read through
+        the compression's smoothing (:data:`LOSSY_NOISE_LAG_PIX`, :data:`LOSSY_NOISE_FLOOR`), and the error
+        is scaled by :func:`lossy_error_scale` of the quality.
     stretched : bool
         ``image`` is a grey 8-bit picture (PNG/JPEG/TIFF, values 0-255 through a display stretch, not
         flux): the stretch is undone for the strengths :data:`GREY_STRENGTHS`, the ring measured on
@@ -482,6 +503,8 @@ def find_ring(
     if rmax <= rmin + 4 * BIN_PIX:
         raise LensInputError("The lens centre is too close to the image edge to search for a ring; "
                              "give a centre farther from the edge or a larger search radius (`max_radius_pix`).")
+    if (colour is not None or picture is not None) and residual is None and subtract_lens_light:
+        rmin = _outside_picture_core(masks, cx, cy, rmin, rmax)
     if residual is not None:
         out = _search(np.asarray(residual), cx, cy, rmin, rmax, n_sectors, None, warnings, progress, should_stop,
                       elliptical=True)
@@ -489,7 +512,7 @@ def find_ring(
         out = _search(img, cx, cy, rmin, rmax, n_sectors, None, warnings, progress, should_stop, elliptical=True)
     elif colour is not None:
         out = _colour_search(np.asarray(colour), img, cx, cy, rmin, rmax, n_sectors, progress, should_stop,
-                             compressed)
+                             _jpeg_quality(compressed))
     elif picture is not None:
         out = _stretched_grey_search(picture, np.isnan(img), cx, cy, rmin, rmax, n_sectors, progress, should_stop)
     else:
@@ -502,18 +525,61 @@ def find_ring(
         if out.lens_light is not None:  # the light model describes the image as given: its sky included
             out.lens_light.model = out.lens_light.model + pedestal
             out.lens_light.sky += pedestal
-    return _finish(out, masks, given, colour is not None or picture is not None, compressed)
+    return _finish(out, masks, given, colour is not None or picture is not None, _jpeg_quality(compressed))
 
 
-def _stretch_spread(best: RingResult, others: list[RingResult]) -> tuple[float, int]:
+def _jpeg_quality(compressed: bool | float | None) -> float | None:
+    """``find_ring``'s ``compressed`` as a JPEG quality: None for a lossless picture, the quality given, or
+    :data:`LOSSY_ASSUMED_QUALITY` when only "lossy" is known."""
+    if compressed is None or compressed is False:
+        return None
+    if compressed is True:
+        return LOSSY_ASSUMED_QUALITY
+    q = float(compressed)
+    if not np.isfinite(q) or q <= 0:
+        return None if q == 0 else LOSSY_ASSUMED_QUALITY
+    return float(min(q, 100.0))
+
+
+def lossy_error_scale(quality: float | None) -> float:
+    """The factor on a JPEG picture's radius error at ``quality`` (1-100; None: a lossless picture, 1):
+    :data:`LOSSY_ERROR_SCALE` at quality 75, linear in the coarseness ``100 - quality``, 1 at 100.
+
+    Examples
+    --------
+    >>> lossy_error_scale(None), lossy_error_scale(100), lossy_error_scale(75) == LOSSY_ERROR_SCALE
+    (1.0, 1.0, True)
+    """
+    if quality is None:
+        return 1.0
+    return float(1.0 + (LOSSY_ERROR_SCALE - 1.0) * (100.0 - float(np.clip(quality, 1, 100))) / 25.0)
+
+
+def _stretch_spread(best: RingResult, others: list[RingResult]) -> tuple[float, int, float]:
     """How far the radius moves with the assumed stretch: half the range of ``best``'s radius and the
     ``others`` found within 20% of it, or :data:`STRETCH_SINGLE_SYSTEMATIC` of the radius when none agrees;
-    and how many radii agreed (``best``'s included)."""
+    how many radii agreed (``best``'s included); and how far the farthest disagreeing radius lies (0 when
+    none disagrees: another stretch seeing another ring is a sign that either may be a wrong candidate)."""
     radii = [best.radius_pix] + [t.radius_pix for t in others
                                  if t.found and abs(t.radius_pix - best.radius_pix) <= 0.2 * best.radius_pix]
+    apart = [abs(t.radius_pix - best.radius_pix) for t in others
+             if t.found and abs(t.radius_pix - best.radius_pix) > 0.2 * best.radius_pix]
+    disagree = float(max(apart)) if apart else 0.0
     if len(radii) == 1:
-        return STRETCH_SINGLE_SYSTEMATIC * best.radius_pix, 1
-    return 0.5 * (max(radii) - min(radii)), len(radii)
+        return STRETCH_SINGLE_SYSTEMATIC * best.radius_pix, 1, disagree
+    return 0.5 * (max(radii) - min(radii)), len(radii), disagree
+
+
+def _widen_for_stretch(best: RingResult, others: list[RingResult], share: float = 1.0) -> tuple[float, int, float]:
+    """Add the stretch's spread (times ``share``) and :data:`STRETCH_DISAGREE_SHARE` of any disagreeing radius to
+    ``best``'s error (:func:`_stretch_spread`, whose three numbers it returns), with a sentence for the latter."""
+    spread, n_agreed, disagree = _stretch_spread(best, others)
+    best.radius_err_pix = float(np.hypot(best.radius_err_pix, share * spread))
+    if disagree > 0:
+        best.radius_err_pix = float(np.hypot(best.radius_err_pix, STRETCH_DISAGREE_SHARE * disagree))
+        best.warnings.append(f"Another assumed stretch gives a ring {disagree:.1f} pixels away: either may be a wrong "
+                             f"candidate, so {STRETCH_DISAGREE_SHARE:.0%} of that distance is in the error.")
+    return spread, n_agreed, disagree
 
 
 def _undo_grey_stretch(picture: np.ndarray, strength: float) -> np.ndarray:
@@ -538,8 +604,7 @@ def _stretched_grey_search(picture, masked, cx, cy, rmin, rmax, n_sectors, progr
     best = middle if middle.found else max(tries, key=lambda t: t.score if t.found else -np.inf)
     if not best.found:
         return best
-    spread, n_agreed = _stretch_spread(best, [t for t in tries if t is not best])
-    best.radius_err_pix = float(np.hypot(best.radius_err_pix, spread))
+    spread, n_agreed, _ = _widen_for_stretch(best, [t for t in tries if t is not best])
     best.warnings.append(f"A grey 8-bit picture: its display stretch was undone as an asinh of strength "
                          f"{', '.join(f'{s:g}' for s in GREY_STRENGTHS)} (a linear or square-root stretch is "
                          f"closer to these than to none); {n_agreed} agreed, their spread ({spread:.2f} pixels) "
@@ -675,7 +740,7 @@ def blue_excess(rgb: np.ndarray) -> np.ndarray:
 
 
 def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_stop,
-                   compressed: bool = False) -> RingResult:
+                   quality: float | None = None) -> RingResult:
     """The ring on the arc image of a colour picture (:mod:`lensmass.core.colour_separation`) with the
     stretch strength the lens's own pixels choose (:func:`~lensmass.core.colour_separation.choose_strength`,
     on the pixels inside half the ring once one is seen); the spread of the radii at the neighbouring
@@ -693,8 +758,9 @@ def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_sto
     def search(strength, sectors=n_sectors):
         if (strength, sectors) not in runs:
             arcs = arc_image(rgb, cx, cy, strength, mask=masked)
-            arcs = noise_normalised(arcs, cx, cy, lag=LOSSY_NOISE_LAG_PIX if compressed else 1,
-                                    floor=LOSSY_NOISE_FLOOR if compressed else 0.05)
+            lossy = quality is not None
+            arcs = noise_normalised(arcs, cx, cy, lag=LOSSY_NOISE_LAG_PIX if lossy else 1,
+                                    floor=LOSSY_NOISE_FLOOR if lossy else 0.05)
             # Stars and neighbours as the first arc image shows them (a blue neighbour stays in it); the
             # other strengths reuse that mask (segmenting each costs as much as its ring search).
             if not objects:
@@ -719,8 +785,7 @@ def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_sto
     # half the sectors: the neighbouring strengths only measure the spread
     neighbours = [search(other, max(8, n_sectors // 2))
                   for other in (*LOCUS_STRENGTHS[max(0, j - 1): j], *LOCUS_STRENGTHS[j + 1: j + 2])]
-    spread, _ = _stretch_spread(best, neighbours)
-    best.radius_err_pix = float(np.hypot(best.radius_err_pix, STRENGTH_SPREAD_SHARE * spread))
+    spread, _, _ = _widen_for_stretch(best, neighbours, STRENGTH_SPREAD_SHARE)
     best.warnings.append(f"Arcs told from the lens light by colour (bluer than the lens core), with the picture's "
                          f"stretch read from the lens's own pixels (asinh strength {strength:g}; the radius moves "
                          f"by {spread:.2f} pixels between the neighbouring strengths, which is in the error).")
@@ -814,7 +879,7 @@ def _angle_to_light(out: RingResult) -> float:
     return float(abs((out.angle_deg - light.angle_deg + 90.0) % 180.0 - 90.0))
 
 
-def _finish(out: RingResult, masks, given: bool, colour: bool, compressed: bool = False) -> RingResult:
+def _finish(out: RingResult, masks, given: bool, colour: bool, quality: float | None = None) -> RingResult:
     """Report the centre and the masks; calibrate the error; widen it for an 8-bit stretched picture
     (and scale it for a lossy-compressed one)."""
     out.masks = masks
@@ -833,15 +898,50 @@ def _finish(out: RingResult, masks, given: bool, colour: bool, compressed: bool 
                             f"{STRETCHED_SYSTEMATIC:.0%} of the radius, and the ring is not called confident "
                             "(the seeing, which tells a lensed ring from a ring galaxy's, is not measurable "
                             "on it): use a FITS band, or mark the arcs, to confirm it.")
+        _refuse_core_residual(out, masks)
         if out.found:
             out.radius_err_pix = float(np.hypot(out.radius_err_pix, STRETCHED_SYSTEMATIC * out.radius_pix))
         out.confident = False
-        if compressed and out.found:
-            out.radius_err_pix *= LOSSY_ERROR_SCALE
-            out.warnings.append(f"The picture was stored with lossy compression (JPEG), which blurs the colours of "
-                                f"thin arcs: the radius error is scaled by {LOSSY_ERROR_SCALE}; a PNG or FITS "
-                                "cutout of the same field measures better.")
+        if quality is not None and out.found:
+            scale = lossy_error_scale(quality)
+            out.radius_err_pix *= scale
+            out.warnings.append(f"The picture was stored with lossy compression (JPEG, quality {quality:.0f}), which "
+                                f"blurs the colours of thin arcs: the radius error is scaled by {scale:.2f}; a PNG or "
+                                "FITS cutout of the same field measures better.")
     return out
+
+
+def _lens_halfmax_pix(masks, cx: float, cy: float) -> float:
+    """The half-maximum diameter of the lens nearest (cx, cy) as the masks measured it (NaN when none)."""
+    lenses = [o for o in getattr(masks, "objects", None) or [] if o.kind == "lens" and np.isfinite(o.halfmax_diameter_pix)]
+    if not lenses:
+        return float("nan")
+    return float(min(lenses, key=lambda o: np.hypot(o.x - cx, o.y - cy)).halfmax_diameter_pix)
+
+
+def _outside_picture_core(masks, cx: float, cy: float, rmin: float, rmax: float) -> float:
+    """The smallest radius searched on a stretched picture: outside :data:`PICTURE_CORE_RATIO` of the lens's
+    half-maximum diameter (where the undone stretch leaves the core's residual, which outshone the ring), while
+    leaving room for a search."""
+    core = PICTURE_CORE_RATIO * _lens_halfmax_pix(masks, cx, cy)
+    if not np.isfinite(core) or core <= rmin or core >= rmax - 8 * BIN_PIX:
+        return rmin
+    return float(core)
+
+
+def _refuse_core_residual(out: RingResult, masks) -> None:
+    """On a stretched picture, a ring inside :data:`PICTURE_CORE_RATIO` of the lens's half-maximum diameter is the
+    residual of its core (the stretch undone only roughly), not a ring: report none, saying why. (The search
+    starts outside that radius, :func:`_outside_picture_core`; an ellipse fitted to its ridge can still end inside.)"""
+    halfmax = _lens_halfmax_pix(masks, out.center_x, out.center_y)
+    if not out.found or not np.isfinite(halfmax) or out.radius_pix >= PICTURE_CORE_RATIO * halfmax:
+        return
+    out.warnings.append(f"The only ring candidate ({out.radius_pix:.1f} pixels) lies inside the lens core's half-maximum "
+                        f"width ({halfmax:.1f} pixels): on a stretched picture that is the residual of the core, not a "
+                        "ring.")
+    out.found, out.kind = False, "none"
+    out.message = ("No ring outside the lens core on this stretched picture: mark the arcs by hand, or measure a FITS "
+                   "band.")
 
 
 def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, follow_shape=True) -> RingResult:

@@ -90,6 +90,9 @@ class LoadedImage:
     rgb: np.ndarray | None = None
     #: True for pictures stored with lossy compression (JPEG): the ring finder widens its error.
     lossy: bool = False
+    #: A JPEG's quality (1-100) read from its quantisation tables (:mod:`lensmass.io.jpeg_tables`), else None:
+    #: the ring finder's noise floor and error follow it.
+    jpeg_quality: float | None = None
     #: True for 8-bit pictures (PNG/JPEG/TIFF): values through a display stretch, not flux.
     eight_bit: bool = False
     #: NaN pixels, when the reader already counted them (else counted by ``load_image``).
@@ -517,9 +520,12 @@ def _load_raster(p: Path) -> LoadedImage:
 
     rgb = None
     lossy = eight_bit = False
+    quality = None
     try:
         with Image.open(p) as im:
             lossy = im.format in ("JPEG", "MPO")
+            if lossy:
+                quality = _jpeg_quality_note(im, notes)
             _check_size(p, im.size[1], im.size[0])
             im.load()
             mode = im.mode
@@ -548,7 +554,26 @@ def _load_raster(p: Path) -> LoadedImage:
     if rgb is not None and np.ptp(rgb[..., 0] - rgb[..., 2]) == 0:
         rgb = None  # a grey picture saved as RGB carries no colour
     return LoadedImage(data=data, path=str(p), kind="raster", notes=notes, rgb=rgb, lossy=lossy,
-                       eight_bit=eight_bit)
+                       eight_bit=eight_bit, jpeg_quality=quality)
+
+
+def _jpeg_quality_note(im, notes: list[str]) -> float | None:
+    """The JPEG's quality from its quantisation tables (None when it has none), with a note saying so and
+    whether its colour was stored at half resolution (Pillow's ``get_sampling``: 2 = 4:2:0)."""
+    from PIL import JpegImagePlugin
+
+    from lensmass.io.jpeg_tables import quality_from_tables
+
+    quality = quality_from_tables(getattr(im, "quantization", None))
+    if quality is None:
+        return None
+    try:
+        halved = JpegImagePlugin.get_sampling(im) in (1, 2)
+    except Exception:  # a JPEG Pillow reads but whose sampling it cannot tell
+        halved = False
+    notes.append(f"JPEG of quality about {quality:.0f} (read from its quantisation tables)"
+                 + (", colour stored at half resolution." if halved and im.mode != "L" else "."))
+    return quality
 
 
 def _count_nan(data: np.ndarray) -> int:
