@@ -40,6 +40,14 @@ only by the solver's rounding (robust_lm's hypot; panel 71000-71155: 6 of 156 an
 star-forming rings: thin, centred and round, at 93-145 sigma on white noise (one band cannot tell them from
 lensed rings; their colour would). Stress tuning seeds 581000-581299, star-forming rings only (the new rule
 applied to that run's recorded measurements): 28 confident (9.3%) -> 9 (3.0%).
+
+Shape-following FITS route (h14j, 2026-12-03; elliptical annuli for partial rings, lone arcs at their radius / 1.25;
+loaded machine), check seeds 670000-670509, main (42e5332) -> h14j: within 5% 35% -> 37%, bias -0.2% -> -0.1%,
+scatter 11.0% -> 9.9%, inside 1/2 sigma 59%/86% -> 60%/84%, rings within 5% 51% -> 54% of 90, hard rings 55% -> 56%
+of 55, confident non-lenses 6 -> 6 of 300 (the same star-forming rings); by feature, mass q < 0.6 17% -> 25%
+within 5%; by kind, inside 1/2 sigma: two arcs 22%/67% -> 44%/67%, one arc 29%/71% -> 24%/57% (21 found; the
+misses at 2 sigma are features inside theta_E or far outside it, as on the tuning seeds), fold 75%/96% -> 71%/93%,
+quad 68%/89% -> 68%/93%. Tuning seeds 570000-570209 (lenses): rings within 5% 48% -> 51% (elliptical pass alone).
 """
 
 from __future__ import annotations

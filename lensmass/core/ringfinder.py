@@ -1175,17 +1175,39 @@ def _follow_shape(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, sho
     hard rings within 5%, under the 8 it asks.)"""
     if not best.found:
         return best
-    return _lone_arc(_elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop))
+    return _lone_arc(_elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop), n_sectors)
 
 
-def _lone_arc(best: RingResult) -> RingResult:
+def _unmasked_share(best: RingResult, n_sectors: int) -> float:
+    """Share of the ``n_sectors`` directions in which at least half the pixels within 2 pixels of the candidate's
+    radius are unmasked (a ring cut by a star's mask is no lone arc)."""
+    res, r0 = best.residual, best.radius_pix
+    if res is None:
+        return 1.0
+    ny, nx = res.shape
+    cx, cy = best.center_x, best.center_y
+    x0, x1 = max(0, int(cx - r0 - 3)), min(nx, int(cx + r0 + 4))
+    y0, y1 = max(0, int(cy - r0 - 3)), min(ny, int(cy + r0 + 4))
+    yy, xx = np.mgrid[y0:y1, x0:x1]
+    near = np.abs(np.hypot(xx - cx, yy - cy) - r0) <= 2.0
+    sector = ((np.arctan2(yy - cy, xx - cx)[near] + np.pi) / (2 * np.pi) * n_sectors).astype(int) % n_sectors
+    finite = np.isfinite(res[y0:y1, x0:x1][near])
+    total = np.bincount(sector, minlength=n_sectors)
+    good = np.bincount(sector, finite.astype(float), minlength=n_sectors)
+    return float(np.mean((total > 0) & (good >= 0.5 * np.maximum(total, 1))))
+
+
+def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
     """A lone arc on one side of the lens (seen in under :data:`RING_COVERAGE` of the directions, no counter-arc,
-    its ridge points' mean direction at least :data:`LONE_ARC_DIRECTEDNESS` long) lies outside theta_E by the
+    its ridge points' mean direction at least :data:`LONE_ARC_DIRECTEDNESS` long, and not seen in
+    :data:`RING_COVERAGE` of the unmasked directions, as a ring cut by a mask is) lies outside theta_E by the
     source's offset: for an isothermal sphere the bright image is at theta_E + beta (common practice), so theta_E
     is taken as the arc's radius over :data:`LONE_ARC_FACTOR`, with the single-arc error of :func:`_calibrate`."""
     if not best.found or best.paired or best.coverage >= RING_COVERAGE or best.points_x.size < 2:
         return best
     if _mean_direction(best)[1] < LONE_ARC_DIRECTEDNESS:
+        return best
+    if best.coverage >= RING_COVERAGE * _unmasked_share(best, n_sectors):  # a ring seen wherever it is not masked
         return best
     arc = best.radius_pix
     best.radius_pix = float(arc / LONE_ARC_FACTOR)
