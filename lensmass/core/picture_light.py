@@ -69,7 +69,7 @@ def picture_lens_light(picture: np.ndarray, ring, *, should_stop: StopCallback =
     The colour of a picture does not tell its intensity stretch (a colour-keeping stretch keeps the band
     ratios linear while the intensity goes through an asinh), so the fit's own quality chooses.
     """
-    from lensmass.core.ringfinder import MASK_HALF_WIDTHS, PEDESTAL_SIGMAS, _annulus_mask
+    from lensmass.core.ringfinder import PEDESTAL_SIGMAS, ring_pixels
     from lensmass.core.sky_level import remove_sky_pedestal
 
     values = np.asarray(picture, float)
@@ -77,14 +77,9 @@ def picture_lens_light(picture: np.ndarray, ring, *, should_stop: StopCallback =
     hidden = ring.masks.mask if ring.masks is not None else ~np.isfinite(values)
     clipped = values >= top * (1 - 0.5 / 255)  # at the picture's top value: the stretch clipped the flux there
     hidden = hidden | clipped
-    ring_pixels = np.zeros(values.shape, bool)
-    if ring.found:
-        # at most RING_HALF_SHARE of the radius: a picture's arc image can make the ring look as wide as
-        # its radius (tuning seed 531260, Lupton: a mask 12 pixels either side of 13 left no galaxy to fit)
-        half = min(max(1.0, MASK_HALF_WIDTHS * ring.ring_width_pix), RING_HALF_SHARE * ring.radius_pix)
-        q = min(1.0, ring.axis_ratio) if np.isfinite(ring.axis_ratio) else 1.0
-        ring_pixels = _annulus_mask(values.shape, ring.center_x, ring.center_y,
-                                    ring.radius_pix * np.sqrt(q) - half, ring.radius_pix / np.sqrt(q) + half)
+    # at most RING_HALF_SHARE of the radius either side: a picture's arc image can make the ring look as wide
+    # as its radius (tuning seed 531260, Lupton: a mask 12 pixels either side of 13 left no galaxy to fit)
+    on_ring = ring_pixels(values.shape, ring, RING_HALF_SHARE) if ring.found else np.zeros(values.shape, bool)
     yy, xx = np.ogrid[0:values.shape[0], 0:values.shape[1]]
     reach = CORE_SHARE * ring.radius_pix if ring.found else CORE_PIX
     r2 = (xx - ring.center_x) ** 2 + (yy - ring.center_y) ** 2
@@ -92,7 +87,7 @@ def picture_lens_light(picture: np.ndarray, ring, *, should_stop: StopCallback =
     best, best_cost, best_strength = None, np.inf, PICTURE_STRENGTHS[0]
     for strength in PICTURE_STRENGTHS:
         flux, pedestal, _ = remove_sky_pedestal(_undo(values, strength, top), PEDESTAL_SIGMAS)
-        light = fit_lens_light(np.where(hidden, np.nan, flux), ring.center_x, ring.center_y, mask=ring_pixels,
+        light = fit_lens_light(np.where(hidden, np.nan, flux), ring.center_x, ring.center_y, mask=on_ring,
                                should_stop=should_stop)
         if not light.ok:
             continue

@@ -968,11 +968,7 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
     if not first.found or not light.ok:
         return first_answer()
     # Second pass: the ring's own light biases the lens-light fit, so refit with the ring masked.
-    half = max(1.0, MASK_HALF_WIDTHS * first.ring_width_pix)
-    q_ring = min(1.0, first.axis_ratio) if np.isfinite(first.axis_ratio) else 1.0
-    lo_r = first.radius_pix * np.sqrt(q_ring) - half
-    hi_r = first.radius_pix / np.sqrt(q_ring) + half
-    mask = _annulus_mask(img.shape, first.center_x, first.center_y, lo_r, hi_r)
+    mask = ring_pixels(img.shape, first)
     light2 = fit_lens_light(img, cx, cy, mask=mask, fit_radius_pix=light.fit_radius_pix, initial=light,
                             progress=lambda f: report(progress, 0.45 + 0.3 * f), should_stop=should_stop)
     if not light2.ok:
@@ -1036,6 +1032,18 @@ def _smooth_profile(profile: np.ndarray) -> np.ndarray:
     padded with their own values (zero padding would dent the first bin and fake a peak beside it)."""
     padded = np.pad(np.nan_to_num(profile), 1, mode="edge")
     return np.convolve(padded, [0.25, 0.5, 0.25], mode="valid")
+
+
+def ring_pixels(shape: tuple[int, int], ring: RingResult, max_half_share: float | None = None) -> np.ndarray:
+    """The pixels of a found ring, left out when the lens light is refitted: the annulus from its radius
+    times sqrt(q) to its radius over sqrt(q) (its axis ratio), widened by :data:`MASK_HALF_WIDTHS` of its
+    width either side (at least a pixel; at most ``max_half_share`` of the radius when given)."""
+    half = max(1.0, MASK_HALF_WIDTHS * ring.ring_width_pix)
+    if max_half_share is not None:
+        half = min(half, max_half_share * ring.radius_pix)
+    q = min(1.0, ring.axis_ratio) if np.isfinite(ring.axis_ratio) else 1.0
+    return _annulus_mask(shape, ring.center_x, ring.center_y, ring.radius_pix * np.sqrt(q) - half,
+                         ring.radius_pix / np.sqrt(q) + half)
 
 
 def _annulus_mask(shape, cx, cy, r_in, r_out) -> np.ndarray:
