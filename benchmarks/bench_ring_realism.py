@@ -23,7 +23,7 @@ main (42e5332) -> h14j: within 5% 47% -> 52%, bias +1.9% -> +1.5%, scatter 6.2% 
 75.5%/94.7% -> 79.8%/92.6%, hard rings 21/23 both, confident non-lenses 0/54 both.
 
 Confident rule against disc rings (h14k, 2026-12-03: the ring's own centre, its alignment with the light,
-correlated noise, the thick-ring waiver only across the light; lensmass.core.ringfinder), r band (FITS), check
+correlated noise, the thick-ring waiver only across the light; lensmass.core.ring_confidence), r band (FITS), check
 seeds 675000-675699 (300 lenses, 400 non-lenses) and 676000-676299 (300 non-lenses): found 93%, within 5% 43%,
 inside 1/2 sigma 63% / 92%, hard rings within 5% 87% of 75 (unchanged by the rule); confident non-lenses 2 of 700
 (0.29%, 95% 0.03-1.03%; both spirals, ring round and across the light; the former rule gave the same 2, reconstructed

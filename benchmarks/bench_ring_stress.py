@@ -31,7 +31,7 @@ to "no ring", and a saturated star with its bleed trail was taken for a 7000-sig
 Confident rule against star-forming rings (h14k, 2026-12-03; load 10-19, CPU 0.35 s a cutout not comparable).
 New: the ring's own centre within 12% of its radius of the lens centre, not flattened along the light's major
 axis, never confident on correlated noise, and the 150-sigma thick-ring waiver only for a ring lying across the
-light (lensmass.core.ringfinder constants; tuned on 580000-581299 of both generators). Radii and errors move
+light (lensmass.core.ring_confidence constants; tuned on 580000-581299 of both generators). Radii and errors move
 only by the solver's rounding (robust_lm's hypot; panel 71000-71155: 6 of 156 answers moved, its figures the same). Check seeds 675000-675509 (210 lenses, 300 non-lenses): confident non-lenses
 6 (2.0%, reconstructed from the same run with the former rule) -> 1 (0.3%, 95% 0.0-1.8%), confident lens rings
 20 -> 17; found 84%, within 5% 34%, inside 1/2 sigma 53% / 87%, hard rings within 5% 53% of 47. Seeds

@@ -8,8 +8,8 @@ Run: python benchmarks/calibrate_ring_floors.py record OUT.json [N_LENSES] [FIRS
 seeds FIRST_SEED..., and keeps for each found lens the radius, the error before the calibrated floor
 (``radius_internal_err_pix``), whether it is a single arc, and the truth. ``sweep`` prints the truth
 inside 1 and 2 stated sigma for each generator and the pooled sample for a grid of the two floors
-(:data:`lensmass.core.ringfinder.RING_FLOOR`, :data:`~lensmass.core.ringfinder.SINGLE_ARC_SYSTEMATIC`),
-as lensmass.core.ringfinder._calibrate adds them (in quadrature, times the radius). Tuning seeds
+(:data:`lensmass.core.ring_confidence.RING_FLOOR`, :data:`~lensmass.core.ring_confidence.SINGLE_ARC_SYSTEMATIC`),
+as lensmass.core.ring_confidence._calibrate adds them (in quadrature, times the radius). Tuning seeds
 550000-559999; 700000-899999 never.
 
 Measured 2026-12-03, seeds 552000-552299 (150 lenses each; 138 and 127 found): floors 0.02 / 0.28 (the

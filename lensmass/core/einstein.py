@@ -381,7 +381,7 @@ def find_ring_on_image(
 ):
     """The ring finder on a loaded image: its pixels, its RGB picture (if any), the centre and the
     hand-painted mask. The window and the command line both call this, so they see the same ring
-    with the same error (:class:`lensmass.core.ringfinder.RingResult`)."""
+    with the same error (:class:`lensmass.core.ring_result.RingResult`)."""
     from lensmass.core.ringfinder import find_ring
 
     data = getattr(image, "data", None) if image is not None else None
@@ -491,7 +491,7 @@ def measure_auto_ring(
     """Ring finder -> theta_E -> :func:`~lensmass.core.estimate.estimate` result plus measurement keys.
 
     Raises :class:`LensInputError` when no ring is found (or only a weak one while
-    ``require_confident``). The :class:`~lensmass.core.ringfinder.RingResult` is kept
+    ``require_confident``). The :class:`~lensmass.core.ring_result.RingResult` is kept
     under the private key ``"_ring"`` (residual image, ridge points, profile) for plots;
     private keys are dropped from JSON.
 

@@ -69,7 +69,8 @@ def picture_lens_light(picture: np.ndarray, ring, *, should_stop: StopCallback =
     The colour of a picture does not tell its intensity stretch (a colour-keeping stretch keeps the band
     ratios linear while the intensity goes through an asinh), so the fit's own quality chooses.
     """
-    from lensmass.core.ringfinder import PEDESTAL_SIGMAS, ring_pixels
+    from lensmass.core.ring_pictures import PEDESTAL_SIGMAS
+    from lensmass.core.ring_sectors import ring_pixels
     from lensmass.core.sky_level import remove_sky_pedestal
 
     values = np.asarray(picture, float)

@@ -28,7 +28,7 @@ def _sqrt8(c):
     return np.clip(np.round(255 * np.sqrt(np.clip(r, 0, None) / np.percentile(r, 99.5))), 0, 255)
 
 
-# sqrt: before the search started outside the lens core (ringfinder PICTURE_CORE_RATIO), 4 of the 12 were the core's
+# sqrt: before the search started outside the lens core (ring_pictures PICTURE_CORE_RATIO), 4 of the 12 were the core's
 # residual at 3.8-5.2 pixels (truth 11-23); now 11 found, 7 within 5% (run 2026-12-03).
 @pytest.mark.parametrize("stretch, least", [(_asinh8, (10, 8, 10)), (_sqrt8, (10, 6, 9))], ids=["asinh", "sqrt"])
 def test_grey_pictures_found_within_their_errors_and_never_confident(stretch, least):
@@ -82,7 +82,7 @@ def test_a_ring_inside_the_lens_core_on_a_picture_is_not_reported():
     # half-maximum diameter was the stretched core's residual, 54-77% smaller than theta_E (ringfinder
     # PICTURE_CORE_RATIO); the rule is checked here on a hand-made result, both sides of the limit.
     from lensmass.core.cutout_masks import FieldObject
-    from lensmass.core.ringfinder import PICTURE_CORE_RATIO, _refuse_core_residual
+    from lensmass.core.ring_pictures import PICTURE_CORE_RATIO, _refuse_core_residual
 
     class Masks:
         objects = [FieldObject(1, 40.0, 40.0, 200.0, 1e4, 300, 0.1, 10.0, 1.1, 0.0, kind="lens")]
@@ -101,7 +101,7 @@ def test_a_ring_inside_the_lens_core_on_a_picture_is_not_reported():
 def test_another_stretchs_ring_widens_the_error():
     # The radius seen at another assumed stretch (beyond 20% of the chosen one) is a sign of a wrong candidate:
     # its distance goes into the error in quadrature (tuning seeds 590000-590099: such cases were up to 70% off).
-    from lensmass.core.ringfinder import STRETCH_DISAGREE_SHARE, _widen_for_stretch
+    from lensmass.core.ring_pictures import STRETCH_DISAGREE_SHARE, _widen_for_stretch
 
     c = make_cutout(SEEDS[0], "ring")
     best = find_ring(_asinh8(c), stretched=True)

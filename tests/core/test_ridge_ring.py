@@ -68,7 +68,7 @@ def test_ring_finder_recovers_injected_ring(scale, src_mag, seed):
     sim, c = _field(scale=scale, src_mag=src_mag, seed=seed)
     ring = find_ring(sim.image)
     # Confident only when the ring is thin for the seeing (calibrated against generated ring galaxies,
-    # lensmass.core.ringfinder._calibrate): at 0.12" pixels this source's ring is 2.9 seeing widths wide.
+    # lensmass.core.ring_confidence._calibrate): at 0.12" pixels this source's ring is 2.9 seeing widths wide.
     assert ring.kind == "ring" and (ring.confident or scale < 0.2)
     theta, err = theta_e_from_pixels(ring.radius_pix, ring.radius_err_pix, scale)
     assert theta == pytest.approx(1.4, rel=0.02)
@@ -224,7 +224,7 @@ def test_profile_smoothing_makes_no_peak_at_the_inner_edge():
     # smoothing (edge padding; zero padding dents the first bin and fakes a peak beside it).
     from scipy.signal import find_peaks
 
-    from lensmass.core.ringfinder import _smooth_profile
+    from lensmass.core.ring_sectors import _smooth_profile
 
     r = np.arange(3.25, 40, 0.5)
     assert find_peaks(_smooth_profile(30 * np.exp(-r / 4.0)))[0].size == 0

@@ -1,0 +1,289 @@
+"""The ring finder on 8-bit pictures: JPEG error scale, the grey picture's stretch undone, the colour
+picture's arc image (:mod:`lensmass.core.colour_separation`), the lens core a picture's search stays outside,
+and the picture constants. The searches themselves are passed in by :mod:`lensmass.core.ringfinder`."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import Any
+
+import numpy as np
+
+from lensmass.core.progress import report
+from lensmass.core.ring_confidence import _flag_unresolved
+from lensmass.core.ring_result import RingResult
+from lensmass.core.ring_sectors import BIN_PIX
+from lensmass.core.sky_level import remove_sky_pedestal
+
+#: Systematic fractional radius error of an 8-bit stretched picture, on top of what the picture itself tells (the
+#: spread over assumed stretches and any ring another stretch sees, :func:`_widen_for_stretch`). It was 7% for every
+#: lens, which covered hard rings too widely (truth inside 1 sigma 86-97%) and the tails of mixed samples not at all.
+#: Tuning seeds 590000-590099 (hard rings) and 595000-595099 (every lens kind), errors without this term and the
+#: JPEG factor, wrong core candidates (:data:`PICTURE_CORE_RATIO`) left out: truth inside 1/2 sigma with 0% / 2% / 3%:
+#: per-band asinh hard 79/100, 93/100, 93/100, mixed 68/86, 68/91, 73/91; Lupton Q 8 hard 83/97, 86/97, 90/97,
+#: mixed 52/81, 62/86, 62/90; grey asinh hard 79/97, 83/97, 90/97, mixed 58/79, 58/89, 58/89. Hard rings stay
+#: over-covered at any value: their errors already hold the 2% ring floor and the stretch spread. Check seeds
+#: (with the search outside the core and the sky levels): hard rings 680000-680099 inside 1/2 sigma JPEG q75 Lupton
+#: 83/98, PNG Lupton 88/98, grey square root 91/98; mixed 681000-681089 JPEG q75 Lupton 80/92.
+STRETCHED_SYSTEMATIC = 0.03
+#: A ring found inside this share of the lens's half-maximum diameter (on the linearised picture, as the masks
+#: measure it) is the stretched core's residual, not a ring. Tuning seeds 590000-590099/595000-595099, 145 found
+#: lenses on six picture routes: radius / lens half-maximum diameter below 0.65 in 5, all 54-77% too small; from
+#: 0.69 up 12% too small or better. The search on a picture starts outside this radius, and a ring fitted inside it
+#: is not reported. Check seeds 680000-680099 (100 hard rings), within 5%: grey square-root PNG 74% (stop 24: 53-67%);
+#: with the sky levels (colour_separation.sky_levels) too, JPEG q75 Lupton 55% -> 67%, PNG Lupton 75% -> 85%.
+PICTURE_CORE_RATIO = 0.65
+#: Systematic fractional radius error when the ring is seen on the arc image of only one asinh strength.
+STRETCH_SINGLE_SYSTEMATIC = 0.05
+#: Share of the distance to a ring another assumed stretch sees (beyond 20% of the radius) kept in the error.
+STRETCH_DISAGREE_SHARE = 1.0
+#: The noise of a lossy-compressed picture's arc image is read from differences this many pixels apart
+#: (JPEG's quantisation drops the pixel-scale noise, so neighbouring pixels understate it).
+LOSSY_NOISE_LAG_PIX = 2
+#: ... and is not taken below this share of its median over radii: JPEG smooths the noise away on the
+#: bright lens, and dividing by what is left there raised block residuals near the core into rings.
+#: Tuning seeds 530000-530023 (24 hard rings), within 5%: JPEG q75 Lupton 42% (floor 0.05), 50% (0.3), 54%
+#: (0.6), 58% (1.0, bias +3.9%); JPEG q90 per-band asinh 58% -> 75% (0.6).
+LOSSY_NOISE_FLOOR = 0.6
+#: asinh strength at which a colour picture is linearised for its masks and lens centre (:func:`colour_mask_image`).
+COLOUR_MASK_STRENGTH = 5.0
+#: Radius (pixels) of the lens core whose pixels choose the picture's stretch before a ring is seen.
+COLOUR_CORE_PIX = 6.0
+#: Share of the spread of the radii at the neighbouring stretch strengths kept in the error.
+STRENGTH_SPREAD_SHARE = 1.0
+#: Masked and saturated pixels of a colour picture are grown by this many pixels before its arc image is
+#: searched (a star's colour fringes reach past its mask). Tuning seeds 510300-510419 (120 lenses): PNG
+#: rings within 5% 77% -> 82%, truth inside 1/2 sigma 74%/90% -> 68%/92%.
+COLOUR_MASK_GROW_PIX = 4
+#: Factor on the radius error of a picture stored with lossy compression at JPEG quality 75 (blocks, and
+#: colour kept at half resolution, which smears thin blue arcs: a tail of wrong radii that no additive term
+#: covers); :func:`lossy_error_scale` takes it to 1 at quality 100 (1.12 at 90). Tuning seeds 590000-590099 and
+#: 595000-595099 with the 3% above: truth inside 1/2 sigma JPEG q75 Lupton hard rings 71/93 at 1, 79/96 at 1.3,
+#: 82/96 at 1.5; mixed 50/77, 59/95, 59/100; JPEG q90 per-band asinh (1, 1.15): hard 82/100, 89/100, mixed 55/77,
+#: 55/91. Before the quality was read, one factor of 1.4 for every JPEG (tuning seeds 530100-530189: q75 69%/90%,
+#: q90 78%/95%).
+LOSSY_ERROR_SCALE = 1.3
+#: The JPEG quality taken when a picture is known to be lossy but its quality is not (a common survey setting).
+LOSSY_ASSUMED_QUALITY = 75.0
+#: A sky level on the cutout's border beyond this many noise sigmas is subtracted before the search (an
+#: unsubtracted sky of 50 sigma sent a ring found at 20.9 px to an arc at 35 px; up to 3 sigma left the
+#: answers unchanged; sky-subtracted cutouts of realistic_fields seeds 560000-560399 read at most 1.7 sigma
+#: on the border: the lens's own wings).
+PEDESTAL_SIGMAS = 3.0
+#: asinh strengths ``asinh(top / soft)`` taken to undo a grey 8-bit picture's stretch. Tuning seeds 561000-561059
+#: (60 lenses; hard rings within 5%, of 16): an asinh picture (softening 2) read as flux 25%, undone with
+#: strength 2: 31%, 3: 81%, 4.5: 88%, 6: 81%; a square-root picture 31%, 44%, 81%, 88%, 69%. With these three
+#: (the middle one's radius, their spread in the error), seeds 562000-562249 and 563000-563099: asinh pictures
+#: hard rings 68% of 34 and 78% of 27, truth inside 1/2 sigma 72%/91% and 72%/88%; square-root pictures 53% of
+#: 34 and 67% of 27, 53%/70% and 45%/60% (a tail of wrong candidates no error term covers); read as flux
+#: (before): asinh 10% of 20, 25%/68%. Never confident.
+GREY_STRENGTHS = (3.5, 4.5, 5.5)
+
+
+def _jpeg_quality(compressed: bool | float | None) -> float | None:
+    """``find_ring``'s ``compressed`` as a JPEG quality: None for a lossless picture, the quality given, or
+    :data:`LOSSY_ASSUMED_QUALITY` when only "lossy" is known."""
+    if compressed is None or compressed is False:
+        return None
+    if compressed is True:
+        return LOSSY_ASSUMED_QUALITY
+    q = float(compressed)
+    if not np.isfinite(q) or q <= 0:
+        return None if q == 0 else LOSSY_ASSUMED_QUALITY
+    return float(min(q, 100.0))
+
+
+def lossy_error_scale(quality: float | None) -> float:
+    """The factor on a JPEG picture's radius error at ``quality`` (1-100; None: a lossless picture, 1):
+    :data:`LOSSY_ERROR_SCALE` at quality 75, linear in the coarseness ``100 - quality``, 1 at 100.
+
+    Examples
+    --------
+    >>> lossy_error_scale(None), lossy_error_scale(100), lossy_error_scale(75) == LOSSY_ERROR_SCALE
+    (1.0, 1.0, True)
+    """
+    if quality is None:
+        return 1.0
+    return float(1.0 + (LOSSY_ERROR_SCALE - 1.0) * (100.0 - float(np.clip(quality, 1, 100))) / 25.0)
+
+
+def _stretch_spread(best: RingResult, others: list[RingResult]) -> tuple[float, int, float]:
+    """How far the radius moves with the assumed stretch: half the range of ``best``'s radius and the
+    ``others`` found within 20% of it, or :data:`STRETCH_SINGLE_SYSTEMATIC` of the radius when none agrees;
+    how many radii agreed (``best``'s included); and how far the farthest disagreeing radius lies (0 when
+    none disagrees: another stretch seeing another ring is a sign that either may be a wrong candidate)."""
+    radii = [best.radius_pix] + [t.radius_pix for t in others
+                                 if t.found and abs(t.radius_pix - best.radius_pix) <= 0.2 * best.radius_pix]
+    apart = [abs(t.radius_pix - best.radius_pix) for t in others
+             if t.found and abs(t.radius_pix - best.radius_pix) > 0.2 * best.radius_pix]
+    disagree = float(max(apart)) if apart else 0.0
+    if len(radii) == 1:
+        return STRETCH_SINGLE_SYSTEMATIC * best.radius_pix, 1, disagree
+    return 0.5 * (max(radii) - min(radii)), len(radii), disagree
+
+
+def _widen_for_stretch(best: RingResult, others: list[RingResult], share: float = 1.0) -> tuple[float, int, float]:
+    """Add the stretch's spread (times ``share``) and :data:`STRETCH_DISAGREE_SHARE` of any disagreeing radius to
+    ``best``'s error (:func:`_stretch_spread`, whose three numbers it returns), with a sentence for the latter."""
+    spread, n_agreed, disagree = _stretch_spread(best, others)
+    best.radius_err_pix = float(np.hypot(best.radius_err_pix, share * spread))
+    if disagree > 0:
+        best.radius_err_pix = float(np.hypot(best.radius_err_pix, STRETCH_DISAGREE_SHARE * disagree))
+        best.warnings.append(f"Another assumed stretch gives a ring {disagree:.1f} pixels away: either may be a wrong "
+                             f"candidate, so {STRETCH_DISAGREE_SHARE:.0%} of that distance is in the error.")
+    return spread, n_agreed, disagree
+
+
+def _undo_grey_stretch(picture: np.ndarray, strength: float) -> np.ndarray:
+    """A grey 8-bit picture back to (relative) flux, taking its stretch as an asinh of ``strength``."""
+    from lensmass.core.colour_separation import linearise
+
+    return linearise(picture[..., None], strength)[..., 0]
+
+
+def _stretched_grey_search(picture, masked, cx, cy, rmin, rmax, n_sectors, progress, should_stop, *,
+                           two_pass_search: Callable[..., RingResult]) -> RingResult:
+    """The lens-subtracted search on a grey 8-bit picture with its stretch undone for each of
+    :data:`GREY_STRENGTHS`: the middle strength's ring (or the most significant), the spread of the
+    agreeing radii added to its error (as the colour route does). ``two_pass_search`` is the finder's
+    :func:`lensmass.core.ringfinder._two_pass_search` (passed in: it calls this)."""
+    tries = []
+    for i, strength in enumerate(GREY_STRENGTHS):
+        lin = remove_sky_pedestal(_undo_grey_stretch(picture, strength), PEDESTAL_SIGMAS)[0]
+        lin = np.where(masked, np.nan, lin)
+        tries.append(_flag_unresolved(two_pass_search(lin, cx, cy, rmin, rmax, n_sectors, None, should_stop,
+                                                      follow_shape=False)))
+        report(progress, (i + 1) / len(GREY_STRENGTHS))
+    middle = tries[len(tries) // 2]
+    best = middle if middle.found else max(tries, key=lambda t: t.score if t.found else -np.inf)
+    if not best.found:
+        return best
+    spread, n_agreed, _ = _widen_for_stretch(best, [t for t in tries if t is not best])
+    best.warnings.append(f"A grey 8-bit picture: its display stretch was undone as an asinh of strength "
+                         f"{', '.join(f'{s:g}' for s in GREY_STRENGTHS)} (a linear or square-root stretch is "
+                         f"closer to these than to none); {n_agreed} agreed, their spread ({spread:.2f} pixels) "
+                         "is in the error.")
+    return best
+
+
+def colour_mask_image(rgb: np.ndarray, grey: np.ndarray) -> np.ndarray:
+    """The image a colour picture's masks and lens centre are found on: its bands linearised at the asinh
+    strength :data:`COLOUR_MASK_STRENGTH` and summed (saturated pixels at the top value, ``grey``'s masked
+    pixels kept masked). On the picture's own grey values a bright lens stands only ~9 noise sigma above
+    the sky once a strong stretch has lifted the noise (astropy's make_lupton_rgb, Q = 8), below the
+    lens-detection limit, and a star took its place (tuning seeds 530000-530023, Lupton pictures: the
+    centre missed by > 2 pixels in 5 of 24 hard rings on the grey values, 0 of 24 linearised; per-band
+    asinh, linear and mild Lupton pictures 0 of 24 either way)."""
+    from lensmass.core.colour_separation import linear_grey
+
+    out = linear_grey(rgb, COLOUR_MASK_STRENGTH)
+    top = np.nanmax(out) if np.isfinite(out).any() else 0.0
+    out = np.where(np.isfinite(out), out, top)
+    return np.where(np.isfinite(np.asarray(grey, float)), out, np.nan)
+
+
+def blue_excess(rgb: np.ndarray) -> np.ndarray:
+    """Blue minus scaled red of an RGB picture: about zero on the (red) lens light, positive on bluer arcs.
+
+    The scale is the median blue/red ratio of the picture's brightest 2% of pixels (the lens core);
+    a stretched picture is not linear, so the lens light cancels only roughly, but the sign of the
+    colour, which is all that is used, survives any monotonic stretch.
+    """
+    rgb = np.asarray(rgb, float)
+    red, blue = rgb[..., 0], rgb[..., 2]
+    top = red >= np.nanpercentile(red, 98)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        k = float(np.nanmedian(blue[top] / red[top]))
+    if not np.isfinite(k):
+        k = 1.0
+    return blue - k * red
+
+
+def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_stop,
+                   quality: float | None = None, *, ring_search: Callable[..., RingResult],
+                   two_pass_search: Callable[..., RingResult], masks_of: Callable[..., Any]) -> RingResult:
+    """The ring on the arc image of a colour picture (:mod:`lensmass.core.colour_separation`) with the
+    stretch strength the lens's own pixels choose (:func:`~lensmass.core.colour_separation.choose_strength`,
+    on the pixels inside half the ring once one is seen); the spread of the radii at the neighbouring
+    strengths is added to its error. No arcs bluer than the lens: the grey picture's search
+    (:func:`_stretched_grey_search`). ``ring_search``, ``two_pass_search`` and ``masks_of`` are the finder's
+    :func:`lensmass.core.ringfinder._search`, ``_two_pass_search`` and ``_masks`` (passed in: they call this)."""
+    from scipy.ndimage import binary_dilation
+
+    from lensmass.core.colour_separation import (LOCUS_STRENGTHS, arc_image, choose_strength, noise_normalised,
+                                                  saturated)
+
+    masked = binary_dilation(~np.isfinite(img) | saturated(rgb), iterations=COLOUR_MASK_GROW_PIX)
+    runs: dict[tuple[float, int], RingResult] = {}
+    objects: list[np.ndarray] = []
+
+    def search(strength, sectors=n_sectors):
+        if (strength, sectors) not in runs:
+            arcs = arc_image(rgb, cx, cy, strength, mask=masked)
+            lossy = quality is not None
+            arcs = noise_normalised(arcs, cx, cy, lag=LOSSY_NOISE_LAG_PIX if lossy else 1,
+                                    floor=LOSSY_NOISE_FLOOR if lossy else 0.05)
+            # Stars and neighbours as the first arc image shows them (a blue neighbour stays in it); the
+            # other strengths reuse that mask (segmenting each costs as much as its ring search).
+            if not objects:
+                objects.append(masks_of(arcs, cx, cy, True, rmax, None, None, True).mask)
+            arcs[objects[0]] = np.nan
+            runs[strength, sectors] = ring_search(arcs, cx, cy, rmin, rmax, sectors, None, [], None, should_stop)
+        return runs[strength, sectors]
+
+    def chosen(within):
+        a, _ = choose_strength(rgb, cx, cy, within, usable=~masked)
+        return a if np.isfinite(a) else LOCUS_STRENGTHS[len(LOCUS_STRENGTHS) // 2]
+
+    strength = chosen(COLOUR_CORE_PIX)
+    best = search(strength)
+    if best.found:  # the lens pixels inside the ring choose again
+        strength = chosen(max(COLOUR_CORE_PIX / 2, 0.5 * best.radius_pix))
+        best = search(strength)
+    report(progress, 0.6)
+    if not best.found:  # no arc bluer than the lens: the grey picture's search, its stretch undone
+        return _stretched_grey_search(img, ~np.isfinite(img), cx, cy, rmin, rmax, n_sectors, progress, should_stop,
+                                      two_pass_search=two_pass_search)
+    j = LOCUS_STRENGTHS.index(strength)
+    # half the sectors: the neighbouring strengths only measure the spread
+    neighbours = [search(other, max(8, n_sectors // 2))
+                  for other in (*LOCUS_STRENGTHS[max(0, j - 1): j], *LOCUS_STRENGTHS[j + 1: j + 2])]
+    spread, _, _ = _widen_for_stretch(best, neighbours, STRENGTH_SPREAD_SHARE)
+    best.warnings.append(f"Arcs told from the lens light by colour (bluer than the lens core), with the picture's "
+                         f"stretch read from the lens's own pixels (asinh strength {strength:g}; the radius moves "
+                         f"by {spread:.2f} pixels between the neighbouring strengths, which is in the error).")
+    report(progress, 1.0)
+    return best
+
+
+def _lens_halfmax_pix(masks, cx: float, cy: float) -> float:
+    """The half-maximum diameter of the lens nearest (cx, cy) as the masks measured it (NaN when none)."""
+    lenses = [o for o in getattr(masks, "objects", None) or [] if o.kind == "lens" and np.isfinite(o.halfmax_diameter_pix)]
+    if not lenses:
+        return float("nan")
+    return float(min(lenses, key=lambda o: np.hypot(o.x - cx, o.y - cy)).halfmax_diameter_pix)
+
+
+def _outside_picture_core(masks, cx: float, cy: float, rmin: float, rmax: float) -> float:
+    """The smallest radius searched on a stretched picture: outside :data:`PICTURE_CORE_RATIO` of the lens's
+    half-maximum diameter (where the undone stretch leaves the core's residual, which outshone the ring), while
+    leaving room for a search."""
+    core = PICTURE_CORE_RATIO * _lens_halfmax_pix(masks, cx, cy)
+    if not np.isfinite(core) or core <= rmin or core >= rmax - 8 * BIN_PIX:
+        return rmin
+    return float(core)
+
+
+def _refuse_core_residual(out: RingResult, masks) -> None:
+    """On a stretched picture, a ring inside :data:`PICTURE_CORE_RATIO` of the lens's half-maximum diameter is the
+    residual of its core (the stretch undone only roughly), not a ring: report none, saying why. (The search
+    starts outside that radius, :func:`_outside_picture_core`; an ellipse fitted to its ridge can still end inside.)"""
+    halfmax = _lens_halfmax_pix(masks, out.center_x, out.center_y)
+    if not out.found or not np.isfinite(halfmax) or out.radius_pix >= PICTURE_CORE_RATIO * halfmax:
+        return
+    out.warnings.append(f"The only ring candidate ({out.radius_pix:.1f} pixels) lies inside the lens core's half-maximum "
+                        f"width ({halfmax:.1f} pixels): on a stretched picture that is the residual of the core, not a "
+                        "ring.")
+    out.found, out.kind = False, "none"
+    out.message = ("No ring outside the lens core on this stretched picture: mark the arcs by hand, or measure a FITS "
+                   "band.")

@@ -1,0 +1,50 @@
+"""The ring finder's answer (:class:`RingResult`), on its own so every ring module can use it."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from lensmass.core.lenslight import LensLightModel
+
+
+@dataclass
+class RingResult:
+    """What the ring finder saw.
+
+    ``radius_pix`` / ``radius_err_pix``: ring radius (sqrt(a b) of the ellipse through the
+    ridge points, or the circle radius) and its 1-sigma error, in pixels. ``kind`` is
+    "ring", "arcs" or "none". ``points_x``/``points_y`` are the per-sector ridge points.
+    ``residual`` is the lens-subtracted image the finder searched.
+    """
+
+    found: bool
+    confident: bool
+    kind: str
+    radius_pix: float
+    radius_err_pix: float
+    score: float
+    coverage: float
+    center_x: float
+    center_y: float
+    axis_ratio: float
+    angle_deg: float
+    fit_rms_pix: float
+    points_x: np.ndarray
+    points_y: np.ndarray
+    profile_radius_pix: np.ndarray
+    profile: np.ndarray
+    profile_err: np.ndarray
+    noise_sigma: float
+    residual: np.ndarray | None
+    lens_light: LensLightModel | None
+    message: str = ""
+    warnings: list[str] = field(default_factory=list)
+    ring_width_pix: float = float("nan")
+    center_source: str = "the light peak near the image centre"
+    center_hint: str = ""
+    masks: Any = None
+    paired: bool = False
+    radius_internal_err_pix: float = float("nan")
