@@ -4,7 +4,9 @@ Method (our own, on photutils segmentation and deblending):
 
 1. The image, smoothed by a Gaussian of about one pixel, is segmented at
    :data:`THRESHOLD_SIGMA` times the pixel noise (photutils ``detect_sources``) and blended
-   objects are split at their saddles (photutils ``deblend_sources``).
+   objects are split at their saddles (photutils ``deblend_sources``). When one segment spreads over
+   :data:`GIANT_SEGMENT_SHARE` of the cutout (a bright star's wings or a sky left over join everything), the
+   threshold is taken above a local background (photutils ``Background2D``) instead.
 2. Each object is described by its peak signal-to-noise, the flux fraction inside its own
    half-maximum contour, and the elongation and orientation of its second moments.
    A star is PSF-like: a round object whose half-maximum contour holds a large share of its
@@ -31,6 +33,8 @@ from scipy.ndimage import binary_dilation, gaussian_filter
 from lensmass.core.cutout_cleaning import SATURATED_MIN_PIXELS, saturated_pixels
 from lensmass.core.errors import LensInputError
 
+#: A segment holding more than this share of the cutout's pixels is a pedestal joining objects (see segment_objects).
+GIANT_SEGMENT_SHARE = 0.2
 #: Segmentation threshold in units of the pixel noise (on the lightly smoothed image).
 THRESHOLD_SIGMA = 3.0
 #: Objects whose peak is below this many sigma are noise or faint arcs: never masked.
@@ -137,10 +141,16 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
     sm = gaussian_filter(np.where(finite, img, 0.0), smooth_pix)
     with warnings.catch_warnings():  # "no sources found" is an answer here (a blank cutout), not a warning
         warnings.simplefilter("ignore", AstropyWarning)
-        segm = detect_sources(sm, THRESHOLD_SIGMA * noise_sigma / (2 * np.sqrt(np.pi) * smooth_pix),
-                              n_pixels=MIN_PIXELS, mask=~finite)
+        threshold = THRESHOLD_SIGMA * noise_sigma / (2 * np.sqrt(np.pi) * smooth_pix)
+        segm = detect_sources(sm, threshold, n_pixels=MIN_PIXELS, mask=~finite)
         if segm is None:
             return np.zeros(img.shape, np.int32), []
+        if np.max(segm.areas) > GIANT_SEGMENT_SHARE * np.count_nonzero(finite):
+            # One segment spreading over much of the cutout: a pedestal (a bright star's wings, a sky left
+            # over) joins the lens to its neighbours. Segment again above the local background instead.
+            local = _local_background(sm, finite)
+            if local is not None:
+                segm = detect_sources(sm - local, threshold, n_pixels=MIN_PIXELS, mask=~finite) or segm
         if saturated is None:
             saturated = saturated_pixels(img)
         try:
@@ -196,6 +206,20 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
                     or o.elongation <= STAR_ROUND_ELONGATION):
                 o.kind = "star"
     return labels, objects
+
+
+def _local_background(sm: np.ndarray, finite: np.ndarray) -> np.ndarray | None:
+    """The smooth background of ``sm`` on boxes of an eighth of the cutout (photutils Background2D: sigma-clipped
+    medians, median-filtered over 3 x 3 boxes; common practice of source extraction), or None when it cannot be had."""
+    from photutils.background import Background2D
+
+    box = max(8, min(sm.shape) // 8)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", AstropyWarning)
+            return np.asarray(Background2D(sm, box, filter_size=3, mask=~finite).background, float)
+    except ValueError:  # too few unmasked pixels in the boxes
+        return None
 
 
 def _saddle(labels: np.ndarray, sm: np.ndarray, sl: tuple[slice, slice], label: int) -> float:
