@@ -4,9 +4,9 @@ Method (our own, on photutils segmentation and deblending):
 
 1. The image, smoothed by a Gaussian of about one pixel, is segmented at
    :data:`THRESHOLD_SIGMA` times the pixel noise (photutils ``detect_sources``) and blended
-   objects are split at their saddles (photutils ``deblend_sources``). When one segment spreads over
-   :data:`GIANT_SEGMENT_SHARE` of the cutout (a bright star's wings or a sky left over join everything), the
-   threshold is taken above a local background (photutils ``Background2D``) instead.
+   objects are split at their saddles (photutils ``deblend_sources``). When the object over the cutout
+   centre peaks far from it (a bright star's wings or a sky left over joined the lens to a brighter
+   neighbour), the cutout is segmented again above its local background (photutils ``Background2D``).
 2. Each object is described by its peak signal-to-noise, the flux fraction inside its own
    half-maximum contour, and the elongation and orientation of its second moments.
    A star is PSF-like: a round object whose half-maximum contour holds a large share of its
@@ -33,8 +33,6 @@ from scipy.ndimage import binary_dilation, gaussian_filter
 from lensmass.core.cutout_cleaning import SATURATED_MIN_PIXELS, saturated_pixels
 from lensmass.core.errors import LensInputError
 
-#: A segment holding more than this share of the cutout's pixels is a pedestal joining objects (see segment_objects).
-GIANT_SEGMENT_SHARE = 0.2
 #: Segmentation threshold in units of the pixel noise (on the lightly smoothed image).
 THRESHOLD_SIGMA = 3.0
 #: Objects whose peak is below this many sigma are noise or faint arcs: never masked.
@@ -123,8 +121,12 @@ class CutoutMasks:
 
 
 def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray | None = None,
-                    smooth_pix: float = 1.0, saturated: np.ndarray | None = None) -> tuple[np.ndarray, list[FieldObject]]:
+                    smooth_pix: float = 1.0, saturated: np.ndarray | None = None,
+                    local_background: bool = False) -> tuple[np.ndarray, list[FieldObject]]:
     """Segment and deblend ``image`` (photutils); return the label image and the objects.
+
+    ``local_background``: detect above the image's smooth local background (:func:`_local_background`)
+    rather than above zero.
 
     ``saturated`` (bool, same shape; default :func:`saturated_pixels` of ``image``) marks clipped pixels:
     an object holding :data:`~lensmass.core.cutout_cleaning.SATURATED_MIN_PIXELS` of them is a star.
@@ -145,9 +147,7 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
         segm = detect_sources(sm, threshold, n_pixels=MIN_PIXELS, mask=~finite)
         if segm is None:
             return np.zeros(img.shape, np.int32), []
-        if np.max(segm.areas) > GIANT_SEGMENT_SHARE * np.count_nonzero(finite):
-            # One segment spreading over much of the cutout: a pedestal (a bright star's wings, a sky left
-            # over) joins the lens to its neighbours. Segment again above the local background instead.
+        if local_background:
             local = _local_background(sm, finite)
             if local is not None:
                 segm = detect_sources(sm - local, threshold, n_pixels=MIN_PIXELS, mask=~finite) or segm
@@ -222,6 +222,20 @@ def _local_background(sm: np.ndarray, finite: np.ndarray) -> np.ndarray | None:
         return None
 
 
+def _lens_reach(shape: tuple[int, int]) -> float:
+    """How far from the cutout centre (pixels) the lens is looked for first."""
+    return max(6.0, 0.15 * min(shape))
+
+
+def _centre_swallowed(lens: FieldObject, labels: np.ndarray) -> bool:
+    """The lens object covers the cutout centre but peaks farther from it than a lens may lie."""
+    ny, nx = labels.shape
+    c0x, c0y = (nx - 1) / 2, (ny - 1) / 2
+    near = _lens_reach(labels.shape)
+    return (int(labels[int(round(c0y)), int(round(c0x))]) == lens.label
+            and bool(np.hypot(lens.x - c0x, lens.y - c0y) > near))
+
+
 def _saddle(labels: np.ndarray, sm: np.ndarray, sl: tuple[slice, slice], label: int) -> float:
     """The light level where segment ``label`` meets another segment (the highest of its pixels next to
     one: the saddle of a deblended blend), or its faintest pixel when it touches none."""
@@ -285,7 +299,7 @@ def choose_lens(objects: list[FieldObject], shape: tuple[int, int], labels: np.n
         lens = next((o for o in objects if o.label == lab), None)
         return lens, "given", ""
     c0x, c0y = (nx - 1) / 2, (ny - 1) / 2
-    near = max(6.0, 0.15 * min(nx, ny))
+    near = _lens_reach(shape)
     bright = [o for o in objects if o.peak_snr >= LENS_MIN_PEAK_SNR]
     cands = [o for o in bright if o.kind != "star" and np.hypot(o.x - c0x, o.y - c0y) <= near]
     if not cands:
@@ -379,6 +393,14 @@ def cutout_masks(image: np.ndarray, noise_sigma: float, *, center: tuple[float, 
         raise LensInputError("Masks need a 2-D image.")
     labels, objects = segment_objects(img, noise_sigma, colour=colour, saturated=saturated)
     lens, how, hint = choose_lens(objects, img.shape, labels, center)
+    if center is None and lens is not None and _centre_swallowed(lens, labels):
+        # The segment over the cutout centre peaks far from it: a pedestal (a bright star's wings, a sky left
+        # over) joined the lens to a brighter neighbour. Segment again above the local background.
+        labels2, objects2 = segment_objects(img, noise_sigma, colour=colour, saturated=saturated,
+                                            local_background=True)
+        lens2, how2, hint2 = choose_lens(objects2, img.shape, labels2, center)
+        if lens2 is not None and not _centre_swallowed(lens2, labels2):
+            labels, objects, lens, how, hint = labels2, objects2, lens2, how2, hint2
     if center is not None:
         cx, cy = float(center[0]), float(center[1])
     elif lens is not None:
