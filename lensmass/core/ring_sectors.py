@@ -69,6 +69,18 @@ def _sector_profiles(image, grid: _SectorGrid, offset: float = 0.0):
     return sums.reshape(shape), counts.reshape(shape), grid.radii
 
 
+def unmasked_sector_share(image: np.ndarray, cx: float, cy: float, radius_pix: float, n_sectors: int,
+                          half_width_pix: float = 2.0) -> float:
+    """Share of the ``n_sectors`` directions in which at least half the pixels within ``half_width_pix`` of
+    ``radius_pix`` from (``cx``, ``cy``) are unmasked (finite), binned by :func:`_sector_grid`."""
+    grid = _sector_grid(image.shape, cx, cy, max(radius_pix - half_width_pix, 0.0), radius_pix + half_width_pix,
+                        n_sectors)
+    _, good, _ = _sector_profiles(image, grid)
+    total = np.bincount(grid.cell, minlength=grid.n_cells).reshape(good.shape).sum(1)
+    good = good.sum(1)
+    return float(np.mean((total > 0) & (good >= 0.5 * np.maximum(total, 1))))
+
+
 def _smooth_profile(profile: np.ndarray) -> np.ndarray:
     """The profile smoothed over about one PSF width (3 bins) for the peak search; the ends are
     padded with their own values (zero padding would dent the first bin and fake a peak beside it)."""

@@ -11,7 +11,7 @@ import numpy as np
 from lensmass.core.elliptical_annuli import mass_alignment_weight, ring_shape, sie_ring_factor
 from lensmass.core.ring_confidence import RING_COVERAGE
 from lensmass.core.ring_result import RingResult
-from lensmass.core.ring_sectors import BIN_PIX
+from lensmass.core.ring_sectors import BIN_PIX, unmasked_sector_share
 
 #: Share of half the radius difference of an arc pair kept as a systematic error (ellipticity, shear).
 PAIR_SYSTEMATIC = 0.3
@@ -60,21 +60,11 @@ def _follow_shape(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, sho
 
 def _unmasked_share(best: RingResult, n_sectors: int) -> float:
     """Share of the ``n_sectors`` directions in which at least half the pixels within 2 pixels of the candidate's
-    radius are unmasked (a ring cut by a star's mask is no lone arc)."""
-    res, r0 = best.residual, best.radius_pix
-    if res is None:
+    radius are unmasked (a ring cut by a star's mask is no lone arc):
+    :func:`lensmass.core.ring_sectors.unmasked_sector_share` on the residual it was found in."""
+    if best.residual is None:
         return 1.0
-    ny, nx = res.shape
-    cx, cy = best.center_x, best.center_y
-    x0, x1 = max(0, int(cx - r0 - 3)), min(nx, int(cx + r0 + 4))
-    y0, y1 = max(0, int(cy - r0 - 3)), min(ny, int(cy + r0 + 4))
-    yy, xx = np.mgrid[y0:y1, x0:x1]
-    near = np.abs(np.hypot(xx - cx, yy - cy) - r0) <= 2.0
-    sector = ((np.arctan2(yy - cy, xx - cx)[near] + np.pi) / (2 * np.pi) * n_sectors).astype(int) % n_sectors
-    finite = np.isfinite(res[y0:y1, x0:x1][near])
-    total = np.bincount(sector, minlength=n_sectors)
-    good = np.bincount(sector, finite.astype(float), minlength=n_sectors)
-    return float(np.mean((total > 0) & (good >= 0.5 * np.maximum(total, 1))))
+    return unmasked_sector_share(best.residual, best.center_x, best.center_y, best.radius_pix, n_sectors)
 
 
 def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
@@ -90,6 +80,7 @@ def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
     if best.coverage >= RING_COVERAGE * _unmasked_share(best, n_sectors):  # a ring seen wherever it is not masked
         return best
     arc = best.radius_pix
+    best.lone_arc_radius_pix = float(arc)
     best.radius_pix = float(arc / LONE_ARC_FACTOR)
     best.radius_err_pix = float(best.radius_err_pix / LONE_ARC_FACTOR)
     best.warnings.append(f"A lone arc at {arc:.2f} pixels on one side of the lens: an arc lies outside the Einstein "
