@@ -31,35 +31,52 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 
-def record(out: str, n_lenses: int = 150, first_seed: int = 552000) -> None:
-    from stress_fields import LENS_KINDS, make_stress_field
+def record(out: str, n_lenses: int = 150, first_seed: int = 552000, n_nonlenses: int = 0,
+           gens: str = "ours,stress") -> None:
+    """Run the finder on ``n_lenses`` lenses (and ``n_nonlenses`` non-lenses) of each generator named in ``gens``
+    and keep, for every field, what the calibrations need (found lenses as before, plus the lone-arc radius, the
+    ring width and fitted seeing, confident, and the non-lenses)."""
+    from stress_fields import LENS_KINDS, NONLENS_KINDS, make_stress_field
 
     from lensmass.core.errors import LensInputError
     from lensmass.core.realistic_fields import LENS_KINDS as OUR_KINDS
+    from lensmass.core.realistic_fields import NONLENS_KINDS as OUR_NON
     from lensmass.core.realistic_fields import make_cutout
     from lensmass.core.ringfinder import find_ring
 
     rows = []
-    for gen in ("ours", "stress"):
-        for i in range(n_lenses):
-            seed = first_seed + i + (0 if gen == "ours" else n_lenses)
+    for gen in gens.split(","):
+        lens_kinds, non_kinds = (OUR_KINDS, OUR_NON) if gen == "ours" else (LENS_KINDS, NONLENS_KINDS)
+        n_all = n_lenses + n_nonlenses
+        for i in range(n_all):
+            seed = first_seed + i + (0 if gen == "ours" else n_all)
+            is_lens = i < n_lenses
+            kind = lens_kinds[i % len(lens_kinds)] if is_lens else non_kinds[(i - n_lenses) % len(non_kinds)]
             if gen == "ours":
-                c = make_cutout(seed, OUR_KINDS[i % len(OUR_KINDS)])
-                img, truth, kind = c.image, c.truth["radius_pix"], c.truth["kind"]
+                c = make_cutout(seed, kind)
+                img, truth, fwhm = c.image, c.truth["radius_pix"], c.truth.get("psf_fwhm_pix", float("nan"))
             else:
-                f = make_stress_field(seed, LENS_KINDS[i % len(LENS_KINDS)])
-                img, truth, kind = f.image, f.truth["radius_pix"], f.truth["kind"]
+                f = make_stress_field(seed, kind)
+                img, truth, fwhm = f.image, f.truth["radius_pix"], f.psf_fwhm_pix
             try:
                 r = find_ring(img)
             except LensInputError:
                 continue
             if not r.found:
                 continue
-            rows.append(dict(gen=gen, seed=seed, kind=kind, truth=float(truth), radius=float(r.radius_pix),
-                             err=float(r.radius_err_pix), internal=float(r.radius_internal_err_pix),
-                             single=bool(r.coverage < 0.6 and not r.paired)))
+            light = r.lens_light
+            psf = float(light.psf_fwhm_pix) if light is not None and light.ok else float("nan")
+            rows.append(dict(gen=gen, seed=seed, kind=kind, is_lens=is_lens, truth=float(truth),
+                             radius=float(r.radius_pix), err=float(r.radius_err_pix),
+                             internal=float(r.radius_internal_err_pix), single=bool(r.coverage < 0.6 and not r.paired),
+                             coverage=float(r.coverage), paired=bool(r.paired), confident=bool(r.confident),
+                             lone_arc=float(r.lone_arc_radius_pix), width=float(r.ring_width_pix), psf_fit=psf,
+                             psf_true=float(fwhm), score=float(r.score), kind_found=r.kind,
+                             unresolved=any("barely resolved" in w for w in r.warnings)))
+            if len(rows) % 25 == 0:
+                Path(out).write_text(json.dumps(rows))
     Path(out).write_text(json.dumps(rows))
-    print(f"{len(rows)} found lenses written")
+    print(f"{len(rows)} found fields written")
 
 
 def coverage(rows, ring_floor: float, arc_floor: float) -> tuple[float, float]:
@@ -86,6 +103,6 @@ def sweep(path: str) -> None:
 
 if __name__ == "__main__":
     if sys.argv[1] == "record":
-        record(sys.argv[2], *(int(v) for v in sys.argv[3:5]))
+        record(sys.argv[2], *(int(v) for v in sys.argv[3:6]), *sys.argv[6:7])
     else:
         sweep(sys.argv[2])

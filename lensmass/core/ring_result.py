@@ -48,3 +48,5 @@ class RingResult:
     masks: Any = None
     paired: bool = False
     radius_internal_err_pix: float = float("nan")
+    #: A lone arc's own radius (its profile peak, pixels) before the lone-arc rule turned it into theta_E; NaN else.
+    lone_arc_radius_pix: float = float("nan")
