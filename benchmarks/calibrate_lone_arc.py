@@ -3,14 +3,24 @@
     python benchmarks/calibrate_lone_arc.py --calibrate 3000:3700 --save a.npy   # quantiles of ln(theta_E / r_arc)
     python benchmarks/calibrate_lone_arc.py --calibrate 3700:4400 --merge a.npy   # (the table: both halves)
     python benchmarks/calibrate_lone_arc.py --check 5000:5200       # coverage of the stated range on other seeds
+    python benchmarks/calibrate_lone_arc.py --finder-table REC.json ...  # the finder's "ridge" table
+    python benchmarks/calibrate_lone_arc.py --finder-check REC.json ...  # the finder's lone arcs inside 1/2 sigma
+
+(REC.json: ``benchmarks/calibrate_ring_floors.py record`` runs of the finder on both field makers.)
 
 A lone arc lies outside the critical curve by the unknown offset of its source (or straddles it), so its
 distance from the lens centre bounds theta_E without measuring it. The range the fit states is r_arc times
 the spread of theta_E / r_arc over inject-and-recover trials (tests/core/lens_injection.arc_case: SIE + shear
 lenses, axis ratio 0.5-0.9, shear up to 0.1, clumpy sources, 1-pixel clicks, the longest arc marked), r_arc
 the median distance of the marked points from the lens-light centre. ``--calibrate`` prints the empirical
-quantiles to paste into lensmass.core.lens_model.LONE_ARC_LOG_RATIO_QUANTILES; ``--check`` runs the full fit
-(its summary's 68% and 95% ranges) on seeds the calibration never saw.
+quantiles to paste into lensmass.core.lone_arc.LONE_ARC_LOG_RATIO_QUANTILES["points"]; ``--check`` runs the full
+fit (its summary's 68% and 95% ranges) on seeds the calibration never saw.
+
+The ring finder measures a lone arc differently (the radius of its azimuthal-profile peak, on arcs it found without
+a counter-image), so the same rule has a second table, ``"ridge"``: ``--finder-table`` pools ln(theta_E / r_arc)
+of the lone arcs in finder records (``lone_arc`` = the arc's own radius) and prints its quantiles;
+``--finder-check`` prints, per field maker, the truth inside the finder's stated 1 and 2 sigma on records made
+with that table (other seeds).
 """
 
 from __future__ import annotations
@@ -26,7 +36,8 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 logging.disable(logging.WARNING)
 
-from lensmass.core.lens_model import LONE_ARC_PROBABILITIES, fit_lens_model_arcsec  # noqa: E402
+from lensmass.core.lens_model import fit_lens_model_arcsec  # noqa: E402
+from lensmass.core.lone_arc import LONE_ARC_PROBABILITIES  # noqa: E402
 from tests.core.lens_injection import PIXEL_ARCSEC, arc_case  # noqa: E402
 
 
@@ -73,13 +84,46 @@ def check(seeds: range) -> None:
                   f"({in95 / n:.3f})", flush=True)
 
 
+def _lone_rows(paths: list[str]) -> list[dict]:
+    import json
+
+    rows = [r for p in paths for r in json.loads(Path(p).read_text())]
+    return [r for r in rows if r.get("is_lens", True) and np.isfinite(r.get("lone_arc", float("nan")))]
+
+
+def finder_table(paths: list[str]) -> None:
+    rows = _lone_rows(paths)
+    for gen in sorted({r["gen"] for r in rows}):
+        lg = np.array([np.log(r["truth"] / r["lone_arc"]) for r in rows if r["gen"] == gen])
+        print(f"{gen}: {lg.size} lone arcs, ln(theta_E / r_arc) median {np.median(lg):+.3f}, 16-84% "
+              f"{np.quantile(lg, 0.16):+.3f} to {np.quantile(lg, 0.84):+.3f}")
+    logs = np.array([np.log(r["truth"] / r["lone_arc"]) for r in rows])
+    q = np.quantile(logs, LONE_ARC_PROBABILITIES)
+    print(f"pooled {logs.size} lone arcs; quantiles at", list(LONE_ARC_PROBABILITIES))
+    print("  (" + ", ".join(f"{v:+.4f}" for v in q) + ")")
+
+
+def finder_check(paths: list[str]) -> None:
+    rows = _lone_rows(paths)
+    for gen in sorted({r["gen"] for r in rows}):
+        pull = np.array([abs(r["radius"] - r["truth"]) / r["err"] for r in rows if r["gen"] == gen])
+        print(f"{gen}: {pull.size} lone arcs found by the finder, truth inside 1/2 sigma {np.mean(pull <= 1):.0%} / "
+              f"{np.mean(pull <= 2):.0%}")
+
+
 def main() -> None:
     parser = argparse.ArgumentParser()
     parser.add_argument("--calibrate", help="seed range a:b")
     parser.add_argument("--check", help="seed range a:b")
     parser.add_argument("--save", help="keep the calibration's ln ratios in this .npy file (to split a run)")
     parser.add_argument("--merge", nargs="*", help=".npy files of earlier parts to pool with this one")
+    parser.add_argument("--finder-table", nargs="*", help="finder record files: the 'ridge' table")
+    parser.add_argument("--finder-check", nargs="*", help="finder record files: coverage of its lone arcs")
     args = parser.parse_args()
+    if args.finder_table:
+        finder_table(args.finder_table)
+    if args.finder_check:
+        finder_check(args.finder_check)
     if args.calibrate or args.merge:
         calibrate(_seeds(args.calibrate) if args.calibrate else range(0), args.save, args.merge)
     if args.check:

@@ -32,10 +32,11 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 
 def record(out: str, n_lenses: int = 150, first_seed: int = 552000, n_nonlenses: int = 0,
-           gens: str = "ours,stress") -> None:
+           gens: str = "ours,stress", only_kinds: str = "") -> None:
     """Run the finder on ``n_lenses`` lenses (and ``n_nonlenses`` non-lenses) of each generator named in ``gens``
     and keep, for every field, what the calibrations need (found lenses as before, plus the lone-arc radius, the
-    ring width and fitted seeing, confident, and the non-lenses)."""
+    ring width and fitted seeing, confident, and the non-lenses). ``only_kinds`` ("|"-separated) restricts the
+    lenses to those kinds (e.g. "one arc|arc" for the lone-arc table)."""
     from stress_fields import LENS_KINDS, NONLENS_KINDS, make_stress_field
 
     from lensmass.core.errors import LensInputError
@@ -47,6 +48,8 @@ def record(out: str, n_lenses: int = 150, first_seed: int = 552000, n_nonlenses:
     rows = []
     for gen in gens.split(","):
         lens_kinds, non_kinds = (OUR_KINDS, OUR_NON) if gen == "ours" else (LENS_KINDS, NONLENS_KINDS)
+        if only_kinds:
+            lens_kinds = tuple(k for k in lens_kinds if k in only_kinds.split("|"))
         n_all = n_lenses + n_nonlenses
         for i in range(n_all):
             seed = first_seed + i + (0 if gen == "ours" else n_all)
@@ -103,6 +106,6 @@ def sweep(path: str) -> None:
 
 if __name__ == "__main__":
     if sys.argv[1] == "record":
-        record(sys.argv[2], *(int(v) for v in sys.argv[3:6]), *sys.argv[6:7])
+        record(sys.argv[2], *(int(v) for v in sys.argv[3:6]), *sys.argv[6:8])
     else:
         sweep(sys.argv[2])

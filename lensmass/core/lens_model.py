@@ -30,6 +30,7 @@ from lensmass.core.lens_model_fit import (
     MarkedSystems,
     sample_lens_model,
 )
+from lensmass.core.lone_arc import lone_arc_ratio_quantiles, lone_arc_theta_e_draws
 from lensmass.core.progress import ProgressCallback, StopCallback
 from lensmass.core.sie import (
     THETA_E_CONVENTION,
@@ -44,18 +45,8 @@ DEFAULT_POINT_ERR_PIX = 0.5
 MODEL_NAME = "SIE + external shear"
 #: Posterior draws carried through to images, magnifications and delays.
 PREDICTION_DRAWS = 200
-#: A lone arc (no counter-image) does not measure theta_E: ln(theta_E / r_arc), r_arc the median distance of its
-#: points from the lens centre, is spread over a range set by the unknown source offset and the lens shape. Its
-#: distribution is tabulated (quantiles at LONE_ARC_PROBABILITIES) from 1400 inject-and-recover lone arcs made
-#: with the ray tracer (seeds 3000-4399 of tests/core/lens_injection.arc_case: SIE + shear, axis ratio 0.5-0.9,
-#: shear up to 0.1, clumpy sources, 1-pixel clicks, the longest arc marked; mean +0.019, sd 0.127, flatter than
-#: a Gaussian: its 68% range is wider and its 95% range narrower than the Gaussian of that sd would give, which is
-#: why a Gaussian covered 57.5% at 68%). benchmarks/calibrate_lone_arc.py re-derives it and checks the coverage
-#: on other seeds.
-LONE_ARC_LOG_RATIO_QUANTILES = (-0.3032, -0.2383, -0.2014, -0.1842, -0.1506, -0.1148, -0.0758, +0.0117, +0.1140,
-                                +0.1619, +0.1951, +0.2308, +0.2660, +0.2967, +0.4428)
-#: Probabilities of those quantiles (0 and 1: the extremes seen).
-LONE_ARC_PROBABILITIES = (0.0, 0.01, 0.025, 0.05, 0.1, 0.16, 0.25, 0.5, 0.75, 0.84, 0.9, 0.95, 0.975, 0.99, 1.0)
+#: A lone arc (no counter-image) bounds theta_E without measuring it: the one rule of
+#: :mod:`lensmass.core.lone_arc` (its ``"points"`` table, the median distance of marked points) gives the range.
 
 
 def _circular_summary(values_deg: np.ndarray, period: float = 180.0) -> dict[str, Any]:
@@ -107,23 +98,6 @@ def _lone_arc(system: np.ndarray, kind: np.ndarray, x: np.ndarray, y: np.ndarray
     ang = np.sort(np.mod(np.arctan2(y - cy, x - cx), 2 * np.pi))
     gaps = np.diff(np.concatenate([ang, [ang[0] + 2 * np.pi]]))
     return bool(gaps.max() > np.pi)  # a gap of more than 180 deg: everything lies on one side
-
-
-def lone_arc_theta_e_draws(x, y, center_x: float, center_y: float, n: int = 4000, seed: int = 1) -> np.ndarray:
-    """Draws of theta_E (arcsec) for an arc marked without its counter-image: r_arc, the median distance of the
-    points (arcsec) from the lens centre, times exp of the tabulated spread LONE_ARC_LOG_RATIO_QUANTILES
-    (inverse-CDF sampling). A range, not a measurement: the source's offset behind the lens is unknown.
-
-    Examples
-    --------
-    >>> d = lone_arc_theta_e_draws([1.0, 0.9, 1.1, 0.95, 1.05], [0.1, 0.4, -0.3, 0.25, -0.15], 0.0, 0.0)
-    >>> lo, hi = np.percentile(d, [2.5, 97.5])
-    >>> bool(0.7 < lo < 1.0 < hi < 1.5)
-    True
-    """
-    r_arc = float(np.median(np.hypot(np.asarray(x, float) - center_x, np.asarray(y, float) - center_y)))
-    u = np.random.default_rng(seed).uniform(0, 1, int(n))
-    return r_arc * np.exp(np.interp(u, LONE_ARC_PROBABILITIES, LONE_ARC_LOG_RATIO_QUANTILES))
 
 
 def _match(obs_x, obs_y, pred_x, pred_y):
@@ -308,7 +282,7 @@ def summarize_fit(fit: LensModelFit, n_constraints: int, lone_arc: bool) -> dict
         cx_, cy_ = (priors.center[:2] if priors.center is not None else (float(best.x0), float(best.y0)))
         r_arc = float(np.median(np.hypot(data.x - cx_, data.y - cy_)))
         te = lone_arc_theta_e_draws(data.x, data.y, cx_, cy_, te.size)
-        lo_f, hi_f = np.exp(np.interp([0.025, 0.975], LONE_ARC_PROBABILITIES, LONE_ARC_LOG_RATIO_QUANTILES))
+        lo_f, hi_f = lone_arc_ratio_quantiles([0.025, 0.975], "points")
         params["theta_e_arcsec"] = summarize(te)
         params["mean_kappa_radius_arcsec"] = summarize(mean_convergence_radius(te, lens.q))
         te_s = params["theta_e_arcsec"]

@@ -17,6 +17,13 @@ from lensmass.core.ring_result import RingResult
 CONFIDENT_SCORE = 12.0
 #: Largest ridge width (FWHM of the ring profile) of a confident ring, in seeing FWHM (fitted PSF).
 CONFIDENT_MAX_WIDTH_PSF = 2.6
+#: Smallest ridge width (FWHM of the ring profile) of a confident ring, in fitted seeing FWHM: nothing on the sky is
+#: seen thinner than the seeing (common practice), so a ring measured well below it means the fitted seeing is
+#: wrong or the feature is no ring (noise, a residual), and it is not called confident. Tuning seeds (both field
+#: makers, benchmarks/calibrate_ring_floors.py record, 630000-630419 and 632000-632499): the confident lens rings'
+#: ridge width over the fitted seeing FWHM runs 0.92-2.6 (83 rings; 0.92-1.04 for the five thinnest); a spiral of
+#: ours kept a confident ring at 0.52 (stop 25's check seeds).
+CONFIDENT_MIN_WIDTH_PSF = 0.75
 #: Largest scatter of the ridge points about the fitted ellipse, in ring widths (spiral arms wander).
 CONFIDENT_MAX_RMS_WIDTH = 0.2
 #: Smallest resolution (FWHM, pixels) the width limit above compares with: an image sampled at the Nyquist rate
@@ -114,12 +121,16 @@ def _calibrate(out: RingResult) -> RingResult:
         out.confident = False
         return out
     single_arc = out.coverage < RING_COVERAGE and not out.paired
-    floor = SINGLE_ARC_SYSTEMATIC if single_arc else RING_FLOOR
+    lone = bool(np.isfinite(out.lone_arc_radius_pix))  # its error is the lone-arc rule's (lensmass.core.lone_arc)
+    floor = 0.0 if lone else (SINGLE_ARC_SYSTEMATIC if single_arc else RING_FLOOR)
     out.radius_err_pix = float(np.hypot(out.radius_err_pix, floor * out.radius_pix))
     light = out.lens_light
     psf = light.psf_fwhm_pix if light is not None and light.ok and np.isfinite(light.psf_fwhm_pix) else float("nan")
     psf = max(psf, SAMPLING_FWHM_PIX) if np.isfinite(psf) else psf  # a ring is not sampled thinner than the pixels
     thin = not np.isfinite(psf) or out.ring_width_pix <= CONFIDENT_MAX_WIDTH_PSF * psf
+    seeing = light.psf_fwhm_pix if light is not None and light.ok else float("nan")
+    too_thin = bool(np.isfinite(seeing) and np.isfinite(out.ring_width_pix)
+                    and out.ring_width_pix < CONFIDENT_MIN_WIDTH_PSF * seeing)
     smooth = not np.isfinite(out.fit_rms_pix) or out.fit_rms_pix <= CONFIDENT_MAX_RMS_WIDTH * out.ring_width_pix
     round_enough = not np.isfinite(out.axis_ratio) or out.axis_ratio >= CONFIDENT_MIN_AXIS_RATIO
     blur = psf if np.isfinite(psf) else 0.0
@@ -140,7 +151,12 @@ def _calibrate(out: RingResult) -> RingResult:
                   and slender and not correlated)
     centred = _ring_centred(out) if shaped else True
     disc_like = shaped and apart <= DISC_ALIGN_DEG
-    out.confident = shaped and centred and not disc_like
+    out.confident = shaped and centred and not disc_like and not too_thin
+    if shaped and too_thin:
+        out.warnings.append(f"The ring's width ({out.ring_width_pix:.1f} pixels) is {out.ring_width_pix / seeing:.2f} "
+                            f"of the fitted seeing FWHM ({seeing:.1f} pixels), and nothing on the sky looks thinner "
+                            "than the seeing: either the seeing fit is wrong or this is no ring, so it is not "
+                            "called confident.")
     if not centred:
         out.warnings.append(f"The ring's own centre lies more than {CONFIDENT_MAX_OFFSET:.0%} of its radius from the "
                             "lens centre, as a star-forming ring's often does and a lensed ring's does not: not "
@@ -148,7 +164,7 @@ def _calibrate(out: RingResult) -> RingResult:
     if disc_like:
         out.warnings.append("The ring is flattened along the galaxy's own major axis, as a ring in an inclined disc "
                             "is (a lensed ring around an elliptical lens is elongated across it): not confident.")
-    if single_arc:
+    if single_arc and not lone:
         out.warnings.append(f"A single arc: it lies outside the Einstein radius by the source's offset from the lens "
                             f"axis, so its radius bounds theta_E only to about {SINGLE_ARC_SYSTEMATIC:.0%}; fit a lens "
                             "model to the arc points (and any counter-image) for a better value.")

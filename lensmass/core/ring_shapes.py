@@ -9,6 +9,7 @@ from collections.abc import Callable
 import numpy as np
 
 from lensmass.core.elliptical_annuli import mass_alignment_weight, ring_shape, sie_ring_factor
+from lensmass.core.lone_arc import lone_arc_theta_e
 from lensmass.core.ring_confidence import RING_COVERAGE
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_sectors import BIN_PIX, unmasked_sector_share
@@ -34,12 +35,6 @@ ELLIPSE_CANDIDATES = 2
 #: directions and unpaired: mean direction 0.85-1 -> radius / theta_E median 1.58 (stress) and 1.38 (ours), 0.7-0.85
 #: -> 0.99 and 1.25, under 0.5 (quads, folds, rings cut by a mask) 1.06-1.23 and 1.01-1.02.
 LONE_ARC_DIRECTEDNESS = 0.7
-#: theta_E of a lone arc = its radius over this (an isothermal sphere's bright image lies at theta_E + beta). Same
-#: tuning seeds, lone arcs (23 stress, 37 ours), truth inside 1/2 sigma with the single-arc error of _calibrate
-#: (SINGLE_ARC_SYSTEMATIC 0.28): factor 1 (before) stress 22%/74%, ours 68%/100%; 1.25: 57%/74%, 86%/95%; 1.4:
-#: 61%/74%, 89%/89%. The stress misses at 2 sigma are wrong features (radius / theta_E 0.45-0.68 and 2.5-3.7), ours
-#: the counter-image inside theta_E (0.71-0.83).
-LONE_ARC_FACTOR = 1.25
 #: Share of an elongated ring's SIE shortfall (sqrt(a b) below theta_E, up to 5% at ring axis ratio 0.75) added to
 #: its radius error (:func:`_sie_ring_correction`).
 SIE_FACTOR_ERROR_SHARE = 0.5
@@ -68,11 +63,12 @@ def _unmasked_share(best: RingResult, n_sectors: int) -> float:
 
 
 def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
-    """A lone arc on one side of the lens (seen in under :data:`~lensmass.core.ring_confidence.RING_COVERAGE` of the directions, no counter-arc,
-    its ridge points' mean direction at least :data:`LONE_ARC_DIRECTEDNESS` long, and not seen in
-    :data:`~lensmass.core.ring_confidence.RING_COVERAGE` of the unmasked directions, as a ring cut by a mask is) lies outside theta_E by the
-    source's offset: for an isothermal sphere the bright image is at theta_E + beta (common practice), so theta_E
-    is taken as the arc's radius over :data:`LONE_ARC_FACTOR`, with the single-arc error of :func:`~lensmass.core.ring_confidence._calibrate`."""
+    """A lone arc on one side of the lens (seen in under :data:`~lensmass.core.ring_confidence.RING_COVERAGE` of
+    the directions, no counter-arc, its ridge points' mean direction at least :data:`LONE_ARC_DIRECTEDNESS` long,
+    and not seen in :data:`~lensmass.core.ring_confidence.RING_COVERAGE` of the unmasked directions, as a ring cut
+    by a mask is) lies outside theta_E by its source's offset: theta_E and its error come from the project's one
+    lone-arc rule (:func:`lensmass.core.lone_arc.lone_arc_theta_e`, its ``"ridge"`` table for the profile-peak
+    radius the finder measures); :func:`~lensmass.core.ring_confidence._calibrate` adds no floor to it."""
     if not best.found or best.paired or best.coverage >= RING_COVERAGE or best.points_x.size < 2:
         return best
     if _mean_direction(best)[1] < LONE_ARC_DIRECTEDNESS:
@@ -80,14 +76,16 @@ def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
     if best.coverage >= RING_COVERAGE * _unmasked_share(best, n_sectors):  # a ring seen wherever it is not masked
         return best
     arc = best.radius_pix
+    theta_e, spread = lone_arc_theta_e(arc, "ridge")
     best.lone_arc_radius_pix = float(arc)
-    best.radius_pix = float(arc / LONE_ARC_FACTOR)
-    best.radius_err_pix = float(best.radius_err_pix / LONE_ARC_FACTOR)
+    best.radius_pix = theta_e
+    best.radius_err_pix = float(np.hypot(best.radius_err_pix * theta_e / arc, spread))
     best.warnings.append(f"A lone arc at {arc:.2f} pixels on one side of the lens: an arc lies outside the Einstein "
-                         f"radius by its source's offset, so theta_E is taken as its radius / {LONE_ARC_FACTOR:g} "
-                         f"({best.radius_pix:.2f} pixels), with a wide error.")
-    best.message = (f"A lone arc at {arc:.2f} pixels: theta_E about {best.radius_pix:.2f} pixels (the arc's radius / "
-                    f"{LONE_ARC_FACTOR:g}; {best.score:.1f} sigma, {best.coverage:.0%} of directions).")
+                         f"radius by its source's offset, which one arc does not measure, so theta_E is "
+                         f"{theta_e / arc:.2f} times its radius ({theta_e:.2f} +- {spread:.2f} pixels: the spread "
+                         "of theta_E / radius over calibrated lone arcs); mark a counter-image to measure it.")
+    best.message = (f"A lone arc at {arc:.2f} pixels: theta_E about {theta_e:.2f} +- {spread:.2f} pixels "
+                    f"({best.score:.1f} sigma, {best.coverage:.0%} of directions).")
     return best
 
 

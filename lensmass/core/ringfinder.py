@@ -31,7 +31,7 @@ Method (our own):
    Up to :data:`MAX_CANDIDATES` are measured (not only the strongest: a star's or a
    neighbour's residual can outshine the ring); the one seen in the most directions, weighted
    by its significance, is kept. Two arcs on opposite sides at different radii give theta_E as
-   their mean radius; a lone arc on one side gives its radius over :data:`~lensmass.core.ring_shapes.LONE_ARC_FACTOR`. The lens
+   their mean radius; a lone arc on one side gives theta_E by the one lone-arc rule (:mod:`lensmass.core.lone_arc`). The lens
    light is refitted with the ring masked and the search repeated (the second answer replaces the
    first only when it finds the ring at the same radius). A partial ring is then searched again in
    elliptical annuli of the shape that makes it sharpest (:mod:`lensmass.core.elliptical_annuli`,
@@ -66,6 +66,7 @@ from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, r
 from lensmass.core.ridge import ridge_peak
 from lensmass.core.ring_confidence import (ACROSS_MIN_DEG, CONFIDENT_COVERAGE, CONFIDENT_MAX_OFFSET,
                                            CONFIDENT_MAX_RMS_WIDTH, CONFIDENT_MAX_THICKNESS, CONFIDENT_MAX_WIDTH_PSF,
+                                           CONFIDENT_MIN_WIDTH_PSF,
                                            CONFIDENT_MIN_AXIS_RATIO, CONFIDENT_SCORE, CONFIDENT_THICK_SCORE,
                                            CORRELATED_NOISE_FACTOR, DISC_ALIGN_DEG, DISC_AXIS_RATIO, RING_COVERAGE,
                                            RING_FLOOR, SAMPLING_FWHM_PIX, SINGLE_ARC_SYSTEMATIC,
@@ -82,18 +83,19 @@ from lensmass.core.ring_sectors import (BIN_PIX, MASK_HALF_WIDTHS, _sector_grid,
                                         _top_sectors_profile, ring_pixels)
 from lensmass.core.ring_shapes import (ELLIPSE_CANDIDATES, ELLIPSE_GAIN, ELLIPSE_MAX_COVERAGE, ELLIPSE_MAX_MOVE,
                                        ELLIPSE_MIN_RADIUS_PIX, ELLIPSE_RHO_SPAN, LONE_ARC_DIRECTEDNESS,
-                                       LONE_ARC_FACTOR, PAIR_SYSTEMATIC, SIE_FACTOR_ERROR_SHARE, _follow_shape,
+                                       PAIR_SYSTEMATIC, SIE_FACTOR_ERROR_SHARE, _follow_shape,
                                        _pair_of_arcs, _sie_ring_correction, _strength)
 from lensmass.core.sky_level import remove_sky_pedestal
 
 __all__ = [  # the names this module has always offered (most now live in the ring_* modules)
     "ACROSS_MIN_DEG", "BIN_PIX", "COLOUR_CORE_PIX", "COLOUR_MASK_GROW_PIX", "COLOUR_MASK_STRENGTH",
     "CONFIDENT_COVERAGE", "CONFIDENT_MAX_OFFSET", "CONFIDENT_MAX_RMS_WIDTH", "CONFIDENT_MAX_THICKNESS",
-    "CONFIDENT_MAX_WIDTH_PSF", "CONFIDENT_MIN_AXIS_RATIO", "CONFIDENT_SCORE", "CONFIDENT_THICK_SCORE",
+    "CONFIDENT_MAX_WIDTH_PSF", "CONFIDENT_MIN_WIDTH_PSF", "CONFIDENT_MIN_AXIS_RATIO", "CONFIDENT_SCORE",
+    "CONFIDENT_THICK_SCORE",
     "CORRELATED_NOISE_FACTOR", "DEFAULT_MAX_RADIUS_PIX", "DEFAULT_MIN_RADIUS_PIX", "DISC_ALIGN_DEG", "DISC_AXIS_RATIO",
     "ELLIPSE_CANDIDATES", "ELLIPSE_GAIN", "ELLIPSE_MAX_COVERAGE", "ELLIPSE_MAX_MOVE", "ELLIPSE_MIN_RADIUS_PIX",
     "ELLIPSE_RHO_SPAN", "FIRST_PASS_SYSTEMATIC", "GREY_STRENGTHS", "LENS_MODEL_SYSTEMATIC", "LONE_ARC_DIRECTEDNESS",
-    "LONE_ARC_FACTOR", "LOSSY_ASSUMED_QUALITY", "LOSSY_ERROR_SCALE", "LOSSY_NOISE_FLOOR", "LOSSY_NOISE_LAG_PIX",
+    "LOSSY_ASSUMED_QUALITY", "LOSSY_ERROR_SCALE", "LOSSY_NOISE_FLOOR", "LOSSY_NOISE_LAG_PIX",
     "MASK_HALF_WIDTHS", "MAX_CANDIDATES", "MIN_COVERAGE", "MIN_PROMINENCE_SIGMA", "PAIR_SYSTEMATIC", "PEDESTAL_SIGMAS",
     "PICTURE_CORE_RATIO", "REFIT_SHIFT_SYSTEMATIC", "RING_COVERAGE", "RING_FLOOR", "RingResult", "SAMPLING_FWHM_PIX",
     "SIE_FACTOR_ERROR_SHARE", "SINGLE_ARC_SYSTEMATIC", "STRENGTH_SPREAD_SHARE", "STRETCHED_SYSTEMATIC",

@@ -86,7 +86,7 @@ def test_sie_ridge_table_from_the_sie_potential():
 def test_lone_arc_gives_theta_e_inside_its_radius():
     # An isothermal sphere's bright image lies at theta_E + beta (common practice; sie.py with q = 1): a source at
     # beta = 0.3 theta_E gives an arc at 1.3 theta_E. The counter-image (0.7 theta_E) is masked, as a bright lens
-    # galaxy's light hides it. The finder reports theta_E = the arc radius / 1.25, truth inside 2 stated sigma.
+    # galaxy's light hides it. The finder reports theta_E by the one lone-arc rule (lensmass.core.lone_arc), truth inside 2 stated sigma.
     theta_e = 16.0
     img = _sie_ring(theta_e, 1.0, 0.0, seed=11, source=(0.3 * theta_e, 0.0), size_pix=1.2)
     yy, xx = np.mgrid[0:SIZE, 0:SIZE]

@@ -1,0 +1,100 @@
+"""One rule for the Einstein radius of a lone arc (an arc seen without its counter-image), used by the lens-model
+fit of marked points and by the ring finder.
+
+A lone arc lies outside the critical curve by the unknown offset of its source (for an isothermal sphere the bright
+image is at theta_E + beta: common practice), so its radius r_arc bounds theta_E without measuring it. The rule
+gives theta_E as r_arc times the spread of theta_E / r_arc seen in inject-and-recover trials, tabulated as
+quantiles of ln(theta_E / r_arc) at :data:`LONE_ARC_PROBABILITIES`. What r_arc is depends on who measures it, so
+there is one table for each measure (:data:`LONE_ARC_LOG_RATIO_QUANTILES`):
+
+- ``"points"``: the median distance of points marked along the arc from the lens centre (the lens-model fit);
+- ``"ridge"``: the radius of the arc's azimuthal-profile peak as the ring finder measures it, for the arcs the
+  finder itself calls lone (one-sided, unpaired; its counter-image not found), whose sources lie further from the
+  axis than those of marked arcs with a counter-image hidden.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+#: Probabilities of the tabulated quantiles (0 and 1: the extremes seen).
+LONE_ARC_PROBABILITIES = (0.0, 0.01, 0.025, 0.05, 0.1, 0.16, 0.25, 0.5, 0.75, 0.84, 0.9, 0.95, 0.975, 0.99, 1.0)
+
+#: Quantiles of ln(theta_E / r_arc) for each measure of r_arc.
+#:
+#: ``"points"``: 1400 inject-and-recover lone arcs made with the ray tracer (seeds 3000-4399 of
+#: tests/core/lens_injection.arc_case: SIE + shear, axis ratio 0.5-0.9, shear up to 0.1, clumpy sources, 1-pixel
+#: clicks, the longest arc marked; mean +0.019, sd 0.127, flatter than a Gaussian: its 68% range is wider and its 95%
+#: range narrower than the Gaussian of that sd would give, which is why a Gaussian covered 57.5% at 68%).
+#: ``benchmarks/calibrate_lone_arc.py --calibrate`` re-derives it, ``--check`` checks its coverage on other seeds.
+#:
+#: ``"ridge"``: see :data:`RIDGE_CALIBRATION` (``benchmarks/calibrate_lone_arc.py --finder``).
+LONE_ARC_LOG_RATIO_QUANTILES: dict[str, tuple[float, ...]] = {
+    "points": (-0.3032, -0.2383, -0.2014, -0.1842, -0.1506, -0.1148, -0.0758, +0.0117, +0.1140, +0.1619, +0.1951,
+               +0.2308, +0.2660, +0.2967, +0.4428),
+    "ridge": (-1.3832, -1.1558, -0.9698, -0.7325, -0.5966, -0.5110, -0.4170, -0.2945, -0.1657, +0.2338, +0.3126,
+              +0.4056, +0.5917, +0.8218, +1.1601),
+}
+#: Where the ``"ridge"`` table comes from: the ring finder (lensmass.core.ringfinder.find_ring) on lenses of both
+#: field makers, tuning seeds 630000-630299 (the project's generator, lone arcs among its arc kinds) and
+#: 632000-632349 and 634000-634119 (benchmarks/stress_fields.py, all lens kinds and one-arc lenses); the 119 arcs it
+#: called lone (77 and 42), their profile-peak radius r_arc against the true theta_E: ln(theta_E / r_arc) median
+#: -0.265 (ours) and -0.457 (stress), 16-84% -0.38 to +0.21 and -0.61 to +0.24. The wide spread is the sources'
+#: unknown offsets, plus features the finder took for an arc that were not one (a counter-image inside theta_E,
+#: a neighbour's residual). Made by ``benchmarks/calibrate_lone_arc.py --finder-table``.
+RIDGE_CALIBRATION = "find_ring on 119 lone arcs of both field makers, tuning seeds 630000-634119"
+MEASURES = tuple(LONE_ARC_LOG_RATIO_QUANTILES)
+
+
+def _table(measure: str) -> np.ndarray:
+    if measure not in LONE_ARC_LOG_RATIO_QUANTILES:
+        raise ValueError(f"measure must be one of {MEASURES}, got {measure!r}")
+    return np.asarray(LONE_ARC_LOG_RATIO_QUANTILES[measure], float)
+
+
+def lone_arc_ratio_quantiles(probabilities, measure: str = "points") -> np.ndarray:
+    """theta_E / r_arc at the given probabilities (interpolated in the table of ``measure``).
+
+    Examples
+    --------
+    >>> lo, mid, hi = lone_arc_ratio_quantiles([0.025, 0.5, 0.975])
+    >>> bool(0.8 < lo < mid < hi < 1.35)
+    True
+    """
+    return np.exp(np.interp(probabilities, LONE_ARC_PROBABILITIES, _table(measure)))
+
+
+def lone_arc_theta_e(r_arc: float, measure: str = "ridge") -> tuple[float, float]:
+    """theta_E of a lone arc of radius ``r_arc`` (any unit) and its 1-sigma error, from the table of ``measure``:
+    the median of theta_E / r_arc times r_arc, and half the central 68% range of the ratio times r_arc.
+
+    Examples
+    --------
+    >>> te, err = lone_arc_theta_e(1.0, "points")
+    >>> bool(abs(te - 1.012) < 0.002 and 0.1 < err < 0.2)
+    True
+    """
+    lo, mid, hi = lone_arc_ratio_quantiles([0.16, 0.5, 0.84], measure)
+    return float(r_arc * mid), float(r_arc * 0.5 * (hi - lo))
+
+
+def lone_arc_theta_e_draws(x, y, center_x: float, center_y: float, n: int = 4000, seed: int = 1,
+                           measure: str = "points") -> np.ndarray:
+    """Draws of theta_E (arcsec) for an arc marked without its counter-image: r_arc, the median distance of the
+    points (arcsec) from the lens centre, times exp of the tabulated spread of ``measure``
+    (inverse-CDF sampling). A range, not a measurement: the source's offset behind the lens is unknown.
+
+    Examples
+    --------
+    >>> d = lone_arc_theta_e_draws([1.0, 0.9, 1.1, 0.95, 1.05], [0.1, 0.4, -0.3, 0.25, -0.15], 0.0, 0.0)
+    >>> lo, hi = np.percentile(d, [2.5, 97.5])
+    >>> bool(0.7 < lo < 1.0 < hi < 1.5)
+    True
+    """
+    r_arc = float(np.median(np.hypot(np.asarray(x, float) - center_x, np.asarray(y, float) - center_y)))
+    u = np.random.default_rng(seed).uniform(0, 1, int(n))
+    return r_arc * lone_arc_ratio_quantiles(u, measure)
+
+
+__all__ = ["LONE_ARC_LOG_RATIO_QUANTILES", "LONE_ARC_PROBABILITIES", "MEASURES", "lone_arc_ratio_quantiles",
+           "lone_arc_theta_e", "lone_arc_theta_e_draws"]
