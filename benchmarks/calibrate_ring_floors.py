@@ -75,7 +75,8 @@ def record(out: str, n_lenses: int = 150, first_seed: int = 552000, n_nonlenses:
                              coverage=float(r.coverage), paired=bool(r.paired), confident=bool(r.confident),
                              lone_arc=float(r.lone_arc_radius_pix), width=float(r.ring_width_pix), psf_fit=psf,
                              psf_true=float(fwhm), score=float(r.score), kind_found=r.kind,
-                             unresolved=any("barely resolved" in w for w in r.warnings)))
+                             unresolved=any("barely resolved" in w for w in r.warnings),
+                             too_thin=any("thinner than the seeing" in w for w in r.warnings)))
             if len(rows) % 25 == 0:
                 Path(out).write_text(json.dumps(rows))
     Path(out).write_text(json.dumps(rows))

@@ -56,7 +56,7 @@ CONFIDENT_THICK_SCORE = 150.0
 #: 0.45: ours 89% / 99%, stress 70% / 88%), since the stress misses are wrong candidates 20%+ off, not
 #: errors a floor can widen; kept.
 RING_FLOOR = 0.02
-SINGLE_ARC_SYSTEMATIC = 0.28
+SINGLE_ARC_SYSTEMATIC = 0.33
 #: Noise this correlated (:func:`lensmass.core.sky_level.noise_correlation`; white noise gives 1.0-1.1, noise
 #: smoothed by a 2-3 pixel kernel as resampling does 2-3) has the ring's significance divided by it, and the
 #: ring is never confident: the shape limits above were set on white noise, and on a resampled image they do
