@@ -21,6 +21,14 @@ a counter-image), so the same rule has a second table, ``"ridge"``: ``--finder-t
 of the lone arcs in finder records (``lone_arc`` = the arc's own radius) and prints its quantiles;
 ``--finder-check`` prints, per field maker, the truth inside the finder's stated 1 and 2 sigma on records made
 with that table (other seeds).
+
+Measured 2026-12-03 (h14o), the "ridge" table: the finder on tuning seeds 630000-630419 (ours: 300 lenses, 120
+non-lenses), 632000-632349 and 634000-634119 (stress fields: all lens kinds, then one-arc lenses): 119 lone arcs
+(77 ours, 42 stress) -> ln(theta_E / r_arc) median -0.265 (ours) and -0.457 (stress), pooled median -0.295 (ratio
+0.745), pooled 16-84% ratio 0.60-1.26, so theta_E = 0.745 r_arc +- 0.33 r_arc. In-sample, truth inside 1/2 sigma:
+ours 77%/83% (radius / 1.25 with 28%, before) -> 77%/95%; stress 64%/87% -> 73%/91%. Check seeds (the finder with
+this table; ``calibrate_ring_floors.py record``): ours 694000-694249, 44 lone arcs: 84%/89% -> 86%/91%, arcs within
+5% 22-29% -> 30-38% by arc kind; stress 696000-696289: see the closing figures in the report of h14o.
 """
 
 from __future__ import annotations
