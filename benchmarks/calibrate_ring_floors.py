@@ -94,7 +94,10 @@ def record(out: str, n_lenses: int = 150, first_seed: int = 552000, n_nonlenses:
 def coverage(rows, ring_floor: float, arc_floor: float) -> tuple[float, float]:
     pulls = []
     for r in rows:
-        floor = arc_floor if r["single"] else ring_floor
+        if not r.get("is_lens", True):
+            continue
+        lone = np.isfinite(r.get("lone_arc", float("nan")))  # the lone-arc rule's error, no floor
+        floor = 0.0 if lone else (arc_floor if r["single"] else ring_floor)
         err = float(np.hypot(r["internal"], floor * r["radius"]))
         pulls.append(abs(r["radius"] - r["truth"]) / err)
     p = np.array(pulls)
