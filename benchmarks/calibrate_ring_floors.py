@@ -106,6 +106,7 @@ def coverage(rows, ring_floor: float, arc_floor: float) -> tuple[float, float]:
 
 def sweep(path: str) -> None:
     rows = json.loads(Path(path).read_text())
+    rows = [r for r in rows if r.get("is_lens", True)]
     gens = {g: [r for r in rows if r["gen"] == g] for g in ("ours", "stress")}
     print(f"{len(gens['ours'])} found lenses of our generator, {len(gens['stress'])} of the stress generator")
     for ring_floor in (0.02, 0.025, 0.03, 0.035, 0.04):
