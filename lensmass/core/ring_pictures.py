@@ -54,8 +54,9 @@ COLOUR_MASK_STRENGTH = 5.0
 COLOUR_CORE_PIX = 6.0
 #: Share of the spread of the radii at the neighbouring stretch strengths kept in the error.
 STRENGTH_SPREAD_SHARE = 1.0
-#: Masked and saturated pixels of a colour picture are grown by this many pixels before its arc image is
-#: searched (a star's colour fringes reach past its mask). Tuning seeds 510300-510419 (120 lenses): PNG
+#: Masked pixels and clipped regions of a colour picture (:func:`~lensmass.core.colour_separation.saturated_regions`;
+#: lone clipped pixels are left out singly) are grown by this many pixels before its arc image is searched (a star's
+#: colour fringes reach past its mask). Tuning seeds 510300-510419 (120 lenses): PNG
 #: rings within 5% 77% -> 82%, truth inside 1/2 sigma 74%/90% -> 68%/92%.
 COLOUR_MASK_GROW_PIX = 4
 #: Factor on the radius error of a picture stored with lossy compression at JPEG quality 75 (blocks, and
