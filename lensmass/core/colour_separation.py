@@ -202,14 +202,9 @@ def choose_strength(rgb: np.ndarray, center_x: float, center_y: float, within_pi
         ok &= np.asarray(usable, bool)
     red, blue = v[..., 0], v[..., 2]
     yy, xx = np.ogrid[0:red.shape[0], 0:red.shape[1]]
-    r2 = (xx - center_x) ** 2 + (yy - center_y) ** 2
+    near = ok & ((xx - center_x) ** 2 + (yy - center_y) ** 2 <= float(within_pix) ** 2)
     sky = float(np.median(red[ok])) if ok.any() else 0.0
-    lit = ok & (red > sky)
-    # at least the 30 lit pixels nearest the centre: a clipped core leaves none inside a few pixels
-    reach = float(within_pix) ** 2
-    if lit.sum() >= 30:
-        reach = max(reach, float(np.partition(np.broadcast_to(r2, red.shape)[lit], 29)[29]))
-    near = lit & (r2 <= reach)
+    near &= red > sky
     costs = np.full(len(strengths), np.inf)
     if near.sum() < 8:
         return float("nan"), costs
