@@ -32,31 +32,11 @@ import numpy as np
 CORE_RADIUS_PIX = 2.5
 
 
-def saturated(rgb: np.ndarray, tolerance: float = 0.0) -> np.ndarray:
-    """True where any band of the picture is at its top value, or within ``tolerance`` of it in 8-bit counts
-    (clipped: no colour there; a JPEG's blocks scatter a clipped core a few counts below the top)."""
+def saturated(rgb: np.ndarray) -> np.ndarray:
+    """True where any band of the picture is at its top value (clipped: no colour there)."""
     rgb = np.asarray(rgb)
     top = 255.0 if rgb.dtype == np.uint8 or np.nanmax(rgb) > 1.0 else 1.0
-    return np.asarray((rgb >= top * (1.0 - float(tolerance) / 255.0)).any(axis=-1))
-
-
-def saturated_regions(rgb: np.ndarray, tolerance: float = 0.0) -> np.ndarray:
-    """Clipped pixels that belong to a clipped region (at least 5 of the 3 x 3 pixels around them clipped): a
-    saturated star or lens core, which a mask may grow. A colour-keeping stretch of faint noise (Lupton et al.
-    2004 with a softening below the noise: astropy's make_lupton_rgb, common practice) clips scattered single
-    pixels too (a band's noise divided by a mean intensity near zero): 4-11% of the sky of stress_pictures
-    tuning seeds 620000 and 620007, which the mask's growth spread over 54-85% of the picture.
-
-    Examples
-    --------
-    >>> rgb = np.zeros((20, 20, 3)); rgb[2, 3, 0] = rgb[9, 14, 2] = 255; rgb[10:14, 4:8] = 255
-    >>> int(saturated(rgb).sum()), int(saturated_regions(rgb).sum())
-    (18, 12)
-    """
-    from scipy.ndimage import uniform_filter
-
-    clipped = saturated(rgb, tolerance)
-    return np.asarray(clipped & (uniform_filter(clipped.astype(float), 3, mode="constant") * 9 >= 4.5))
+    return np.asarray((rgb >= top).any(axis=-1))
 
 
 def linearise(rgb: np.ndarray, strength: float) -> np.ndarray:

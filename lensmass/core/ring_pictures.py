@@ -45,18 +45,14 @@ LOSSY_NOISE_LAG_PIX = 2
 #: Tuning seeds 530000-530023 (24 hard rings), within 5%: JPEG q75 Lupton 42% (floor 0.05), 50% (0.3), 54%
 #: (0.6), 58% (1.0, bias +3.9%); JPEG q90 per-band asinh 58% -> 75% (0.6).
 LOSSY_NOISE_FLOOR = 0.6
-#: A colour picture's pixels within this many 8-bit counts of the top are taken as a clipped core when its lens
-#: centre is found (:func:`colour_mask_image`; a JPEG scatters a clipped core a few counts below 255).
-CLIPPED_TOLERANCE = 6.0
 #: asinh strength at which a colour picture is linearised for its masks and lens centre (:func:`colour_mask_image`).
 COLOUR_MASK_STRENGTH = 5.0
 #: Radius (pixels) of the lens core whose pixels choose the picture's stretch before a ring is seen.
 COLOUR_CORE_PIX = 6.0
 #: Share of the spread of the radii at the neighbouring stretch strengths kept in the error.
 STRENGTH_SPREAD_SHARE = 1.0
-#: Masked pixels and clipped regions of a colour picture (:func:`~lensmass.core.colour_separation.saturated_regions`;
-#: lone clipped pixels are left out singly) are grown by this many pixels before its arc image is searched (a star's
-#: colour fringes reach past its mask). Tuning seeds 510300-510419 (120 lenses): PNG
+#: Masked and saturated pixels of a colour picture are grown by this many pixels before its arc image is
+#: searched (a star's colour fringes reach past its mask). Tuning seeds 510300-510419 (120 lenses): PNG
 #: rings within 5% 77% -> 82%, truth inside 1/2 sigma 74%/90% -> 68%/92%.
 COLOUR_MASK_GROW_PIX = 4
 #: Factor on the radius error of a picture stored with lossy compression at JPEG quality 75 (blocks, and
@@ -178,23 +174,10 @@ def colour_mask_image(rgb: np.ndarray, grey: np.ndarray) -> np.ndarray:
     lens-detection limit, and a star took its place (tuning seeds 530000-530023, Lupton pictures: the
     centre missed by > 2 pixels in 5 of 24 hard rings on the grey values, 0 of 24 linearised; per-band
     asinh, linear and mild Lupton pictures 0 of 24 either way)."""
-    from scipy.ndimage import distance_transform_edt, median_filter
-
-    from lensmass.core.colour_separation import linear_grey, saturated_regions
+    from lensmass.core.colour_separation import linear_grey
 
     out = linear_grey(rgb, COLOUR_MASK_STRENGTH)
     top = np.nanmax(out) if np.isfinite(out).any() else 0.0
-    # A lone clipped pixel (noise through a colour-keeping stretch, colour_separation.saturated_regions) becomes
-    # the median of its neighbours. A clipped region (a saturated core, JPEG's scatter of a few counts below the top
-    # included) rises from the top value towards its innermost pixel: on a flat plateau the light peak was its
-    # first pixel, the lens centre 3-8 pixels off in hard rings of stress_pictures tuning seeds 620009, 620036, 620057.
-    clipped = saturated_regions(rgb, CLIPPED_TOLERANCE)
-    lone = ~np.isfinite(out) & ~clipped
-    if lone.any():
-        out[lone] = median_filter(np.where(np.isfinite(out), out, top), 3)[lone]
-    if clipped.any():
-        depth = distance_transform_edt(clipped)
-        out[clipped] = top * (1.0 + depth[clipped] / (1.0 + depth.max()))
     out = np.where(np.isfinite(out), out, top)
     return np.where(np.isfinite(np.asarray(grey, float)), out, np.nan)
 
@@ -218,8 +201,7 @@ def blue_excess(rgb: np.ndarray) -> np.ndarray:
 
 def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_stop,
                    quality: float | None = None, *, ring_search: Callable[..., RingResult],
-                   two_pass_search: Callable[..., RingResult], masks_of: Callable[..., Any],
-                   core_rmin: float | None = None) -> RingResult:
+                   two_pass_search: Callable[..., RingResult], masks_of: Callable[..., Any]) -> RingResult:
     """The ring on the arc image of a colour picture (:mod:`lensmass.core.colour_separation`) with the
     stretch strength the lens's own pixels choose (:func:`~lensmass.core.colour_separation.choose_strength`,
     on the pixels inside half the ring once one is seen); the spread of the radii at the neighbouring
@@ -229,9 +211,9 @@ def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_sto
     from scipy.ndimage import binary_dilation
 
     from lensmass.core.colour_separation import (LOCUS_STRENGTHS, arc_image, choose_strength, noise_normalised,
-                                                  saturated, saturated_regions)
+                                                  saturated)
 
-    masked = binary_dilation(~np.isfinite(img) | saturated_regions(rgb), iterations=COLOUR_MASK_GROW_PIX) | saturated(rgb)
+    masked = binary_dilation(~np.isfinite(img) | saturated(rgb), iterations=COLOUR_MASK_GROW_PIX)
     runs: dict[tuple[float, int], RingResult] = {}
     objects: list[np.ndarray] = []
 
@@ -260,8 +242,7 @@ def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_sto
         best = search(strength)
     report(progress, 0.6)
     if not best.found:  # no arc bluer than the lens: the grey picture's search, its stretch undone
-        floor = rmin if core_rmin is None else max(rmin, core_rmin)  # the lens-subtracted search stays outside the core
-        return _stretched_grey_search(img, ~np.isfinite(img), cx, cy, floor, rmax, n_sectors, progress, should_stop,
+        return _stretched_grey_search(img, ~np.isfinite(img), cx, cy, rmin, rmax, n_sectors, progress, should_stop,
                                       two_pass_search=two_pass_search)
     j = LOCUS_STRENGTHS.index(strength)
     # half the sectors: the neighbouring strengths only measure the spread

@@ -268,10 +268,8 @@ def find_ring(
     if rmax <= rmin + 4 * BIN_PIX:
         raise LensInputError("The lens centre is too close to the image edge to search for a ring; "
                              "give a centre farther from the edge or a larger search radius (`max_radius_pix`).")
-    core_rmin = rmin
     if (colour is not None or picture is not None) and residual is None and subtract_lens_light:
-        core_rmin = _outside_picture_core(masks, cx, cy, rmin, rmax)
-        rmin = rmin if colour is not None else core_rmin  # a colour arc image holds no lens core to stay outside
+        rmin = _outside_picture_core(masks, cx, cy, rmin, rmax)
     if residual is not None:
         out = _search(np.asarray(residual), cx, cy, rmin, rmax, n_sectors, None, warnings, progress, should_stop,
                       elliptical=True)
@@ -280,7 +278,7 @@ def find_ring(
     elif colour is not None:
         out = _colour_search(np.asarray(colour), img, cx, cy, rmin, rmax, n_sectors, progress, should_stop,
                              _jpeg_quality(compressed), ring_search=_search, two_pass_search=_two_pass_search,
-                             masks_of=_masks, core_rmin=core_rmin)
+                             masks_of=_masks)
     elif picture is not None:
         out = _stretched_grey_search(picture, np.isnan(img), cx, cy, rmin, rmax, n_sectors, progress, should_stop,
                                      two_pass_search=_two_pass_search)
@@ -410,8 +408,7 @@ def _finish(out: RingResult, masks, given: bool, colour: bool, quality: float | 
                             f"{STRETCHED_SYSTEMATIC:.0%} of the radius, and the ring is not called confident "
                             "(the seeing, which tells a lensed ring from a ring galaxy's, is not measurable "
                             "on it): use a FITS band, or mark the arcs, to confirm it.")
-        if out.lens_light is not None:  # a lens-subtracted picture (the grey route); a colour arc image has no core
-            _refuse_core_residual(out, masks)
+        _refuse_core_residual(out, masks)
         if out.found:
             out.radius_err_pix = float(np.hypot(out.radius_err_pix, STRETCHED_SYSTEMATIC * out.radius_pix))
         out.confident = False
