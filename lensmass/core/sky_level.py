@@ -86,11 +86,10 @@ BORDER_FRACTION = 0.06
 RIM_SAMPLE = 100_000
 
 
-def border_sky(data: np.ndarray, usable: np.ndarray | None = None) -> tuple[float, float]:
+def border_sky(data: np.ndarray) -> tuple[float, float]:
     """Sky level and pixel noise at the image's border: the 3-sigma-clipped median and standard
     deviation (astropy ``sigma_clipped_stats``; clipping drops stars and galaxies that cross the rim)
-    of a rim :data:`BORDER_FRACTION` of the shorter side wide, of its ``usable`` pixels (default: the finite
-    ones). NaN, NaN when the rim has too few.
+    of a rim :data:`BORDER_FRACTION` of the shorter side wide. NaN, NaN when the rim has no finite pixels.
 
     Examples
     --------
@@ -104,8 +103,6 @@ def border_sky(data: np.ndarray, usable: np.ndarray | None = None) -> tuple[floa
     from astropy.stats import sigma_clipped_stats
 
     data = np.asarray(data)
-    if usable is not None:
-        data = np.where(usable, data, np.nan)
     w = max(3, int(BORDER_FRACTION * min(data.shape)))
     rim = np.concatenate([data[:w].ravel(), data[-w:].ravel(), data[w:-w, :w].ravel(), data[w:-w, -w:].ravel()])
     rim = np.asarray(rim, float)
