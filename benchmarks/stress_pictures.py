@@ -18,6 +18,18 @@ evaluator's pictures differ in all of these, so this maker draws them widely:
 
 Truth: ``radius_pix`` is the SIE's theta_E (intermediate-axis normalisation), as in stress_fields.
 
+Measured 2026-12-03 (h14n; machine load 11-22, so no times). Main 9b7c84e, tuning seeds 620000-620069 (70 of every
+kind): within 5% 16%, bias +18%, truth inside 1/2 sigma 62%/85%, hard rings 28% of 18 (PNG 67% of 6, JPEG 8% of 12);
+hard rings only 621000-621035: 25% of 36 (PNG 44%, JPEG 6%, make_lupton_rgb 21%, LogStretch 11%, red arcs 11%).
+Causes seen in per-case traces: make_lupton_rgb with a softening below the noise clips scattered sky pixels, which
+the colour route's mask growth spread over 54-85% of the picture; a clipped lens core is a plateau whose first pixel
+became the lens centre (3-8 px off); the lens's half-maximum diameter on the linearised Lupton picture reads 26-42 px
+against 11-15 px in the bands, which moves the search floor past small rings; the colour arc image of a bulge+disc
+lens with a bluer disc holds ring-like wings. Fixes for the first three (branch h14n c5078b5, backed out) gained on
+our own generator's pictures but lost here: check seeds 690000-690046 (47 lenses) within 5% 21% -> 13%, bias +5% ->
++14%, hard rings 1 -> 0 of 11. Running the luminance route beside the colour route and keeping the more significant
+ring found red arcs (621018, 621026) but lost blue ones (621015, 621019, 621023): not kept.
+
 Run: python benchmarks/stress_pictures.py N_LENSES FIRST_SEED [HARD] [ENCODING] [TABLE]
 (HARD=1: hard rings only, ring+neighbour and ring+star with theta_E >= 2.5 FWHM; ENCODING png, jpeg or
 any; TABLE: a file to which one JSON line a field is appended). Seeds: h14l tuned on 590000-599999 and
