@@ -35,7 +35,9 @@ float64 rows, robust_sigma's medians in place, b_n solved once per Sersic index.
 alternating: main 0.661-0.663 s CPU (wall 2.7-3.8 s), h14p 0.736-0.800 (wall 2.1-2.4 s), bincount 0.088-0.092 s
 (x7.2-8.9): at this load one run per side says nothing. The fits alone (the bench's two calls replayed, 6
 alternating runs of 5): best 0.31-0.42 s against 0.35-0.48. Answers: panel 71000-71155 figures identical, 8 of
-156 radii changed beyond 1e-9 relative, none at the third decimal. The 0.5 s target with a margin (x4 bincounts)
+156 radii changed beyond 1e-9 relative, none at the third decimal; bench_ring_realism.py FITS 640000-640299 (200
+lenses, 100 non-lenses) and bench_ring_stress.py 641000-641089 (60 + 30): every figure identical, 0.24 -> 0.23 and
+0.41 -> 0.39 s CPU a cutout (main and h14p run side by side). The 0.5 s target with a margin (x4 bincounts)
 is NOT reached: the fits are still ~52% of the time; each of ~90 Jacobians blurs six 105 x 105 derivative images
 (scipy correlate1d, ~1.2 ms), and banded-matrix BLAS products for that blur (tried: 2.4x faster alone) gave no
 gain inside the fit; fewer evaluations (a 2 x 2-binned first pass) would change the answers and was not tried.
