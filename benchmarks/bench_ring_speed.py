@@ -41,6 +41,10 @@ lenses, 100 non-lenses) and bench_ring_stress.py 641000-641089 (60 + 30): every 
 is NOT reached: the fits are still ~52% of the time; each of ~90 Jacobians blurs six 105 x 105 derivative images
 (scipy correlate1d, ~1.2 ms), and banded-matrix BLAS products for that blur (tried: 2.4x faster alone) gave no
 gain inside the fit; fewer evaluations (a 2 x 2-binned first pass) would change the answers and was not tried.
+Where the fits' time goes on this field: 120 model and 90 Jacobian evaluations in all; the first fit (ring not yet
+masked) takes 80 and 58 of them, its third clipping round stopping at the 50-evaluation limit unconverged with
+n and the PSF width on their lower bounds (0.4; 0.2 px): ~0.1 s CPU for a fit that only places the refit's ring
+mask; the refit (started from it) converges in 40.
 Earlier (h14f): 0.45-0.49 s against 0.90-1.03 s at load 1.5-2.4 (the Levenberg-Marquardt solver, the
 Jacobian reusing the model's powers, the refit starting from the first fit, MINPACK ridge fits first).
 """
