@@ -26,6 +26,25 @@ Lead, merged tree (h14h with h14g's colour route and h14i's clean-up and sky pla
 check on a sub-grid), quiet machine (load 0.4-0.6), three runs: best 0.423-0.496 s CPU (wall the same), median
 0.458-0.496 s; bincount 0.072-0.073 s, finder 5.9-6.8 bincounts; lens-light fits 0.23-0.27 s (53-55%). Under the
 0.5 s target on a quiet machine, but not by the 30% margin aimed for (about 0.5 s under moderate load).
+h14p (2026-12-03, exact speed-ups only; the machine shared by five engineers' sweeps, load average 12-19, so
+every figure is 1.3-1.6x a quiet machine's): the lens-light solver's sqrt(1 + z^2) by np.sqrt instead of np.hypot
+(a quarter of the CPU time on 6250 residuals), the Jacobian selected with np.take and weighted along contiguous
+float64 rows, robust_sigma's medians in place, b_n solved once per Sersic index. Two persistent worker processes
+(main 9b7c84e and h14p) timed alternately on this field, 20 and 16 calls each: best 0.602 -> 0.557 s CPU and 0.719
+-> 0.624, median 0.715 -> 0.700 and 0.868 -> 0.845 (5-13% less at best, 2-3% at the median); this script's own runs
+alternating: main 0.661-0.663 s CPU (wall 2.7-3.8 s), h14p 0.736-0.800 (wall 2.1-2.4 s), bincount 0.088-0.092 s
+(x7.2-8.9): at this load one run per side says nothing. The fits alone (the bench's two calls replayed, 6
+alternating runs of 5): best 0.31-0.42 s against 0.35-0.48. Answers: panel 71000-71155 figures identical, 8 of
+156 radii changed beyond 1e-9 relative, none at the third decimal; bench_ring_realism.py FITS 640000-640299 (200
+lenses, 100 non-lenses) and bench_ring_stress.py 641000-641089 (60 + 30): every figure identical, 0.24 -> 0.23 and
+0.41 -> 0.39 s CPU a cutout (main and h14p run side by side). The 0.5 s target with a margin (x4 bincounts)
+is NOT reached: the fits are still ~52% of the time; each of ~90 Jacobians blurs six 105 x 105 derivative images
+(scipy correlate1d, ~1.2 ms), and banded-matrix BLAS products for that blur (tried: 2.4x faster alone) gave no
+gain inside the fit; fewer evaluations (a 2 x 2-binned first pass) would change the answers and was not tried.
+Where the fits' time goes on this field: 120 model and 90 Jacobian evaluations in all; the first fit (ring not yet
+masked) takes 80 and 58 of them, its third clipping round stopping at the 50-evaluation limit unconverged with
+n and the PSF width on their lower bounds (0.4; 0.2 px): ~0.1 s CPU for a fit that only places the refit's ring
+mask; the refit (started from it) converges in 40.
 Earlier (h14f): 0.45-0.49 s against 0.90-1.03 s at load 1.5-2.4 (the Levenberg-Marquardt solver, the
 Jacobian reusing the model's powers, the refit starting from the first fit, MINPACK ridge fits first).
 """

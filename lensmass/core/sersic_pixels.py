@@ -16,7 +16,7 @@ from functools import lru_cache
 import numpy as np
 from scipy.ndimage import correlate1d
 
-from lensmass.core.sersic import sersic_b, sersic_intensity_at_re
+from lensmass.core.sersic import _intensity_at_re, sersic_b
 
 #: The Gaussian PSF kernel reaches this many sigma (as scipy's ``gaussian_filter`` ``truncate``).
 PSF_TRUNCATE = 3.5
@@ -150,7 +150,7 @@ def _b_and_derivatives(n: float) -> tuple[float, float, float, float]:
     h = 1e-4 * max(n, 1.0)
     db = float(sersic_b(n + h) - sersic_b(n - h)) / (2 * h)
     d_lnie_dn = -1.0 / n - db + 2.0 * np.log(b) + 2.0 * n * db / b - 2.0 * digamma(2.0 * n)
-    return b, db, float(d_lnie_dn), float(np.log(sersic_intensity_at_re(1.0, 1.0, n)))
+    return b, db, float(d_lnie_dn), float(np.log(_intensity_at_re(1.0, 1.0, n, b)))  # b_n once, not again
 
 
 def _profile_terms(p, xx: np.ndarray, yy: np.ndarray, step: float, eps: float = 0.0) -> _Terms:
