@@ -47,7 +47,7 @@ def _descendants(pid: int) -> set[int]:
 
 def _start(tmp_path):
     manifest = tmp_path / "m.csv"
-    rows = ["id,image,z_l,z_s"] + [f"R{i:02d},{RING},0.3,1.2" for i in range(48)]
+    rows = ["id,image,z_l,z_s"] + [f"R{i:02d},{RING},0.3,1.2" for i in range(480)]  # far more rows than finish in the seconds before the signal
     manifest.write_text("\n".join(rows) + "\n")
     out = tmp_path / "r.ecsv"
     proc = subprocess.Popen([sys.executable, "-m", "lensmass.cli", "batch", str(manifest), "--out", str(out),
