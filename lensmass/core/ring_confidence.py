@@ -131,10 +131,9 @@ def _calibrate(out: RingResult) -> RingResult:
     floor = 0.0 if lone else (SINGLE_ARC_SYSTEMATIC if single_arc else RING_FLOOR)
     out.radius_err_pix = float(np.hypot(out.radius_err_pix, floor * out.radius_pix))
     light = out.lens_light
-    psf = light.psf_fwhm_pix if light is not None and light.ok and np.isfinite(light.psf_fwhm_pix) else float("nan")
-    psf = max(psf, SAMPLING_FWHM_PIX) if np.isfinite(psf) else psf  # a ring is not sampled thinner than the pixels
+    seeing = float(light.psf_fwhm_pix) if light is not None and light.ok else float("nan")
+    psf = max(seeing, SAMPLING_FWHM_PIX) if np.isfinite(seeing) else seeing  # no ring is sampled thinner than pixels
     thin = not np.isfinite(psf) or out.ring_width_pix <= CONFIDENT_MAX_WIDTH_PSF * psf
-    seeing = light.psf_fwhm_pix if light is not None and light.ok else float("nan")
     too_thin = bool(np.isfinite(seeing) and np.isfinite(out.ring_width_pix)
                     and out.ring_width_pix < CONFIDENT_MIN_WIDTH_PSF * seeing)
     smooth = not np.isfinite(out.fit_rms_pix) or out.fit_rms_pix <= CONFIDENT_MAX_RMS_WIDTH * out.ring_width_pix
