@@ -65,6 +65,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 from stress_fields import make_stress_sample, write_fits  # noqa: E402
 
+from lensmass.core.ring_interval import interval_bounds, truth_inside  # noqa: E402
+
 
 class Failed:
     found = confident = False
@@ -108,7 +110,8 @@ def figures(fields, runs) -> str:
     non = [(f, r) for f, r in zip(fields, runs) if not f.truth["is_lens"]]
     found = [(f, r) for f, r in lens if r.found]
     frac = np.array([r.radius_pix / f.truth["radius_pix"] - 1 for f, r in found])
-    pull = np.array([(r.radius_pix - f.truth["radius_pix"]) / r.radius_err_pix for f, r in found])
+    in1 = np.array([truth_inside(r, f.truth["radius_pix"], 1) for f, r in found], bool)
+    in2 = np.array([truth_inside(r, f.truth["radius_pix"], 2) for f, r in found], bool)
     hard_ok = [bool(r.found and abs(r.radius_pix / f.truth["radius_pix"] - 1) <= 0.05) for f, r in lens if hard(f)]
     rings = [bool(r.found and abs(r.radius_pix / f.truth["radius_pix"] - 1) <= 0.05) for f, r in lens
              if f.truth["kind"].startswith("ring")]
@@ -118,7 +121,7 @@ def figures(fields, runs) -> str:
     scatter = float(1.4826 * np.median(np.abs(frac - bias))) if frac.size else float("nan")
     return (f"{len(lens)} lenses: found {len(found) / max(len(lens), 1):.0%}, within 5% "
             f"{np.sum(np.abs(frac) <= 0.05) / max(len(lens), 1):.0%}, bias {bias:+.1%}, scatter {scatter:.1%}, "
-            f"inside 1/2 sigma {np.mean(np.abs(pull) <= 1):.0%} / {np.mean(np.abs(pull) <= 2):.0%}; rings within 5% "
+            f"inside 1/2 sigma {np.mean(in1):.0%} / {np.mean(in2):.0%}; rings within 5% "
             f"{np.mean(rings) if rings else float('nan'):.0%} of {len(rings)}; hard rings within 5% "
             f"{np.mean(hard_ok) if hard_ok else float('nan'):.0%} of {len(hard_ok)}; {len(non)} non-lenses: confident "
             f"{n_conf} ({n_conf / max(len(non), 1):.1%}, 95% {lo:.1%}-{hi:.1%}), any ring "
@@ -133,10 +136,11 @@ def by_kind(fields, runs) -> list[str]:
     for kind, fr in rows.items():
         if fr[0][0].truth["is_lens"]:
             ok = [r.found and abs(r.radius_pix / f.truth["radius_pix"] - 1) <= 0.05 for f, r in fr]
-            pulls = [abs(r.radius_pix - f.truth["radius_pix"]) / r.radius_err_pix for f, r in fr if r.found]
+            in1 = [truth_inside(r, f.truth["radius_pix"], 1) for f, r in fr if r.found]
+            in2 = [truth_inside(r, f.truth["radius_pix"], 2) for f, r in fr if r.found]
             out.append(f"  {kind:18s} {len(fr):4d}: found {np.mean([r.found for _, r in fr]):4.0%}, within 5% "
-                       f"{np.mean(ok):4.0%}, inside 1/2 sigma {np.mean(np.array(pulls) <= 1) if pulls else np.nan:4.0%}"
-                       f" / {np.mean(np.array(pulls) <= 2) if pulls else np.nan:4.0%}")
+                       f"{np.mean(ok):4.0%}, inside 1/2 sigma {np.mean(in1) if in1 else np.nan:4.0%}"
+                       f" / {np.mean(in2) if in2 else np.nan:4.0%}")
         else:
             out.append(f"  {kind:18s} {len(fr):4d}: confident {sum(r.found and r.confident for _, r in fr)}, any ring "
                        f"{np.mean([r.found for _, r in fr]):4.0%}")
@@ -156,7 +160,7 @@ def by_feature(fields, runs) -> list[str]:
     for key in sorted(set(lens) | set(non)):
         fl, fn = lens.get(key, []), non.get(key, [])
         w = np.mean([r.found and abs(r.radius_pix / f.truth["radius_pix"] - 1) <= 0.05 for f, r in fl]) if fl else np.nan
-        c2 = [abs(r.radius_pix - f.truth["radius_pix"]) <= 2 * r.radius_err_pix for f, r in fl if r.found]
+        c2 = [truth_inside(r, f.truth["radius_pix"], 2) for f, r in fl if r.found]
         out.append(f"  {key:22s} {len(fl):6d} {np.mean([r.found for _, r in fl]) if fl else np.nan:6.0%} {w:10.0%} "
                    f"{np.mean(c2) if c2 else np.nan:15.0%} | {len(fn):10d} {sum(r.found and r.confident for _, r in fn):10d}")
     return out
@@ -182,7 +186,8 @@ def main(n_lenses: int = 210, n_nonlenses: int = 300, first_seed: int = 650000, 
                 not t["is_lens"] and r.found and r.confident)
             if bad:
                 print(f"  seed {t['seed']} {t['kind']}: truth {t['radius_pix']:.2f} fwhm {f.psf_fwhm_pix:.1f}; "
-                      f"found {r.found} r {r.radius_pix:.2f} +- {r.radius_err_pix:.2f} conf {r.confident}; "
+                      f"found {r.found} r {r.radius_pix:.2f} +- {r.radius_err_pix:.2f} "
+                      f"[{', '.join(f'{b:.2f}' for b in interval_bounds(r))}] conf {r.confident}; "
                       f"{','.join(f.features)}; {getattr(r, 'message', '')[:110]}")
 
 

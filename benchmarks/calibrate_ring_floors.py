@@ -51,6 +51,7 @@ def record(out: str, n_lenses: int = 150, first_seed: int = 552000, n_nonlenses:
     from lensmass.core.realistic_fields import LENS_KINDS as OUR_KINDS
     from lensmass.core.realistic_fields import NONLENS_KINDS as OUR_NON
     from lensmass.core.realistic_fields import make_cutout
+    from lensmass.core.ring_shapes import _mean_direction
     from lensmass.core.ringfinder import find_ring
 
     rows = []
@@ -84,7 +85,17 @@ def record(out: str, n_lenses: int = 150, first_seed: int = 552000, n_nonlenses:
                              lone_arc=float(r.lone_arc_radius_pix), width=float(r.ring_width_pix), psf_fit=psf,
                              psf_true=float(fwhm), score=float(r.score), kind_found=r.kind,
                              unresolved=any("barely resolved" in w for w in r.warnings),
-                             too_thin=any("thinner than the seeing" in w for w in r.warnings)))
+                             too_thin=any("thinner than the seeing" in w for w in r.warnings),
+                             axis_ratio=float(r.axis_ratio), fit_rms=float(r.fit_rms_pix), n_points=int(r.points_x.size),
+                             direction=float(_mean_direction(r)[1]) if r.points_x.size else float("nan"),
+                             light_q=float(light.axis_ratio) if light is not None and light.ok else float("nan"),
+                             light_n=float(light.sersic_n) if light is not None and light.ok else float("nan"),
+                             first_kept=any("first fit's ring" in w for w in r.warnings),
+                             elongated=any("elongated: it was measured" in w for w in r.warnings),
+                             lo1=float(getattr(r, "radius_lo_pix", float("nan"))),
+                             hi1=float(getattr(r, "radius_hi_pix", float("nan"))),
+                             lo2=float(getattr(r, "radius_lo2_pix", float("nan"))),
+                             hi2=float(getattr(r, "radius_hi2_pix", float("nan")))))
             if len(rows) % 25 == 0:
                 Path(out).write_text(json.dumps(rows))
     Path(out).write_text(json.dumps(rows))

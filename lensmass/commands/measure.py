@@ -129,6 +129,12 @@ def print_measurement(result: dict, as_json: bool, extra_rows=()) -> None:
         from lensmass.core.lens_centre import centre_text
 
         print(f"lens centre: {centre_text(result)}")
+        if result.get("theta_e_low1_arcsec") is not None:
+            from lensmass.core.einstein import BOUND_KEYS
+            from lensmass.core.ring_interval import interval_text
+
+            print("theta_E from the ring finder: "
+                  + interval_text(result["theta_e_arcsec"], [result[k] for k in BOUND_KEYS], "arcsec", 3))
     print_result(result, as_json, extra_rows=list(MEASURE_ROWS) + list(extra_rows))
 
 

@@ -36,6 +36,7 @@ from scipy.signal import fftconvolve
 
 from lensmass.core import raytrace as rt
 from lensmass.core.colour_pictures import CLIP_PERCENTILE, STRETCHES, _stretch_8bit, colour_picture  # noqa: F401
+from lensmass.core.ring_interval import truth_inside
 
 #: Kinds of cutout the generator makes.
 LENS_KINDS = ("ring", "arc", "ring+neighbour", "ring+star", "arc+neighbour", "arc+star")
@@ -434,7 +435,8 @@ def recovery_figures(cutouts, results, *, within: float = 0.05) -> dict:
     ``radius_err_pix``), one per cutout. Returns counts and rates: ``found`` (fraction of lenses
     found), ``within`` (fraction of lenses found within ``within`` of the truth), ``bias`` and
     ``scatter`` (median and 1.4826 MAD of the fractional radius error of found lenses), ``cover1`` /
-    ``cover2`` (fraction of found lenses whose truth is inside 1 / 2 stated sigma),
+    ``cover2`` (fraction of found lenses whose truth is inside the stated 1 / 2 sigma interval,
+    :func:`lensmass.core.ring_interval.truth_inside`: asymmetric where the finder states it so),
     ``false_confident`` (fraction of non-lenses given a confident ring) with its 95% Clopper-Pearson
     interval ``false_confident_interval``, and ``hard_within`` (fraction of the :func:`is_hard_ring`
     lenses found within ``within``; ``n_hard`` of them).
@@ -443,7 +445,8 @@ def recovery_figures(cutouts, results, *, within: float = 0.05) -> dict:
     non = [(c, r) for c, r in zip(cutouts, results) if not c.truth["is_lens"]]
     found = [(c, r) for c, r in lens if r.found]
     frac = np.array([r.radius_pix / c.truth["radius_pix"] - 1 for c, r in found])
-    pull = np.array([(r.radius_pix - c.truth["radius_pix"]) / r.radius_err_pix for c, r in found])
+    in1 = np.array([truth_inside(r, c.truth["radius_pix"], 1) for c, r in found], bool)
+    in2 = np.array([truth_inside(r, c.truth["radius_pix"], 2) for c, r in found], bool)
     hard = [bool(r.found and abs(r.radius_pix / c.truth["radius_pix"] - 1) <= within) for c, r in lens
             if is_hard_ring(c)]
     n_conf = int(sum(bool(r.confident and r.found) for _, r in non))
@@ -454,8 +457,8 @@ def recovery_figures(cutouts, results, *, within: float = 0.05) -> dict:
         "within": float(np.sum(np.abs(frac) <= within)) / n_l,
         "bias": float(np.median(frac)) if frac.size else float("nan"),
         "scatter": float(1.4826 * np.median(np.abs(frac - np.median(frac)))) if frac.size else float("nan"),
-        "cover1": float(np.mean(np.abs(pull) <= 1)) if pull.size else float("nan"),
-        "cover2": float(np.mean(np.abs(pull) <= 2)) if pull.size else float("nan"),
+        "cover1": float(np.mean(in1)) if in1.size else float("nan"),
+        "cover2": float(np.mean(in2)) if in2.size else float("nan"),
         "false_confident": n_conf / len(non) if non else float("nan"),
         "false_confident_interval": binomial_interval(n_conf, len(non)) if non else (float("nan"), float("nan")),
         "false_found": float(np.mean([r.found for _, r in non])) if non else float("nan"),

@@ -153,8 +153,17 @@ _FACTS: list[KeyFact] = [
     _f("nfw_r200_kpc", "NFW r200", "kpc", "NFW halo boundary radius", _E, table=True,
        rich="NFW r<sub>200</sub>", math=r"NFW $r_{200}$"),
     # ---------------------------------------------------------------- measurement on the image
-    _f("theta_e_err_arcsec", "theta_E err", "arcsec", "1-sigma error of the fitted Einstein radius", _M,
+    _f("theta_e_err_arcsec", "theta_E err", "arcsec", "1-sigma error of the fitted Einstein radius (the ring "
+       "finder's: half its 1-sigma interval, which may be asymmetric)", _M,
        table=True, rich="σ(θ<sub>E</sub>)", math=r"$\sigma(\theta_E)$"),
+    _f("theta_e_low1_arcsec", "theta_E -1 sigma", "arcsec", "ring finder: lower bound of theta_E's 1-sigma interval "
+       "(15.87%; asymmetric for a lone arc)", _M, table=True, rich="θ<sub>E</sub> −1σ", math=r"$\theta_E\,-1\sigma$"),
+    _f("theta_e_high1_arcsec", "theta_E +1 sigma", "arcsec", "ring finder: upper bound of theta_E's 1-sigma interval "
+       "(84.13%)", _M, table=True, rich="θ<sub>E</sub> +1σ", math=r"$\theta_E\,+1\sigma$"),
+    _f("theta_e_low2_arcsec", "theta_E -2 sigma", "arcsec", "ring finder: lower bound of theta_E's 2-sigma interval "
+       "(2.275%)", _M, table=True, rich="θ<sub>E</sub> −2σ", math=r"$\theta_E\,-2\sigma$"),
+    _f("theta_e_high2_arcsec", "theta_E +2 sigma", "arcsec", "ring finder: upper bound of theta_E's 2-sigma interval "
+       "(97.725%)", _M, table=True, rich="θ<sub>E</sub> +2σ", math=r"$\theta_E\,+2\sigma$"),
     _f("fit_rms_arcsec", "fit rms", "arcsec", "rms distance of the marked points from the fitted curve", _M,
        table=True),
     _f("ring_score", "ring score", None, "ring finder's detection strength in noise sigma", _M, table=True,

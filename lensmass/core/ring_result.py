@@ -15,7 +15,9 @@ class RingResult:
     """What the ring finder saw.
 
     ``radius_pix`` / ``radius_err_pix``: ring radius (sqrt(a b) of the ellipse through the
-    ridge points, or the circle radius) and its 1-sigma error, in pixels. ``kind`` is
+    ridge points, or the circle radius) and its 1-sigma error, in pixels: half the width of the 1-sigma interval
+    ``radius_lo_pix``-``radius_hi_pix`` (2 sigma: ``radius_lo2_pix``-``radius_hi2_pix``), which is asymmetric where
+    the calibrated error is (a lone arc: :mod:`lensmass.core.ring_interval`); count coverage with the bounds. ``kind`` is
     "ring", "arcs" or "none". ``points_x``/``points_y`` are the per-sector ridge points.
     ``residual`` is the lens-subtracted image the finder searched.
     """
@@ -50,3 +52,13 @@ class RingResult:
     radius_internal_err_pix: float = float("nan")
     #: A lone arc's own radius (its profile peak, pixels) before the lone-arc rule turned it into theta_E; NaN else.
     lone_arc_radius_pix: float = float("nan")
+    #: Bounds of the stated 1-sigma (15.87-84.13%) and 2-sigma (2.275-97.725%) intervals of the radius, pixels
+    #: (:func:`lensmass.core.ring_interval.state_interval`); NaN when nothing was found.
+    radius_lo_pix: float = float("nan")
+    radius_hi_pix: float = float("nan")
+    radius_lo2_pix: float = float("nan")
+    radius_hi2_pix: float = float("nan")
+    #: An asymmetric error's -2, -1, +1, +2 sigma offsets from the radius (pixels) and the error it came with
+    #: (:func:`lensmass.core.ring_interval.hold_shape`); None for a symmetric error.
+    interval_shape_pix: tuple[float, float, float, float] | None = None
+    interval_base_err_pix: float = float("nan")

@@ -9,8 +9,9 @@ from collections.abc import Callable
 import numpy as np
 
 from lensmass.core.elliptical_annuli import mass_alignment_weight, ring_shape, sie_ring_factor
-from lensmass.core.lone_arc import lone_arc_theta_e
+from lensmass.core.lone_arc import lone_arc_ratio_quantiles, lone_arc_theta_e
 from lensmass.core.ring_confidence import RING_COVERAGE
+from lensmass.core.ring_interval import SIGMA_PROBABILITIES, hold_shape, interval_text
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_sectors import BIN_PIX, unmasked_sector_share
 
@@ -77,15 +78,21 @@ def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
         return best
     arc = best.radius_pix
     theta_e, spread = lone_arc_theta_e(arc, "ridge")
+    measured = best.radius_err_pix * theta_e / arc
     best.lone_arc_radius_pix = float(arc)
     best.radius_pix = theta_e
-    best.radius_err_pix = float(np.hypot(best.radius_err_pix * theta_e / arc, spread))
+    best.radius_err_pix = float(np.hypot(measured, spread))
+    # The spread is skewed (theta_E / r_arc 0.60-1.26 for 1 sigma about 0.745): the interval keeps its shape.
+    q = arc * lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, "ridge")
+    hold_shape(best, [theta_e + np.sign(b - theta_e) * np.hypot(b - theta_e, k * measured)
+                      for b, k in zip(q, (2, 1, 1, 2))])
+    shown = interval_text(theta_e, q, "pixels")
     best.warnings.append(f"A lone arc at {arc:.2f} pixels on one side of the lens: an arc lies outside the Einstein "
                          f"radius by its source's offset, which one arc does not measure, so theta_E is "
-                         f"{theta_e / arc:.2f} times its radius ({theta_e:.2f} +- {spread:.2f} pixels: the spread "
-                         "of theta_E / radius over calibrated lone arcs); mark a counter-image to measure it.")
-    best.message = (f"A lone arc at {arc:.2f} pixels: theta_E about {theta_e:.2f} +- {spread:.2f} pixels "
-                    f"({best.score:.1f} sigma, {best.coverage:.0%} of directions).")
+                         f"{theta_e / arc:.2f} times its radius, {shown}: the spread of theta_E / radius over "
+                         "calibrated lone arcs, wider above than below; mark a counter-image to measure it.")
+    best.message = (f"A lone arc at {arc:.2f} pixels: theta_E about {shown} ({best.score:.1f} sigma, "
+                    f"{best.coverage:.0%} of directions).")
     return best
 
 

@@ -78,6 +78,7 @@ from lensmass.core.ring_pictures import (COLOUR_CORE_PIX, COLOUR_MASK_GROW_PIX, 
                                          STRETCH_SINGLE_SYSTEMATIC, _colour_search, _jpeg_quality,
                                          _outside_picture_core, _refuse_core_residual, _stretched_grey_search,
                                          _undo_grey_stretch, blue_excess, colour_mask_image, lossy_error_scale)
+from lensmass.core.ring_interval import state_interval
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_sectors import (BIN_PIX, MASK_HALF_WIDTHS, _sector_grid, _sector_profiles, _smooth_profile,
                                         _top_sectors_profile, ring_pixels)
@@ -420,6 +421,7 @@ def _finish(out: RingResult, masks, given: bool, colour: bool, quality: float | 
             out.warnings.append(f"The picture was stored with lossy compression (JPEG, quality {quality:.0f}), which "
                                 f"blurs the colours of thin arcs: the radius error is scaled by {scale:.2f}; a PNG or "
                                 "FITS cutout of the same field measures better.")
+    state_interval(out)
     return out
 
 

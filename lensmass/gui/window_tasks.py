@@ -173,7 +173,10 @@ class WindowTasksMixin:
         about_ring = next((w for key in ("barely resolved", "single arc", "Two arcs", "Refitting")
                            for w in ring.warnings if key in w), "")
         hint = f" {about_ring}{hint}" if about_ring else hint
-        self.show_message(f"{ring.kind.capitalize()} found at {ring.radius_pix:.2f} +- {ring.radius_err_pix:.2f} px "
+        from lensmass.core.ring_interval import interval_bounds, interval_text
+
+        at = interval_text(ring.radius_pix, interval_bounds(ring), "px")
+        self.show_message(f"{ring.kind.capitalize()} found at {at} "
                           f"({confidence}) about the lens centre ({ring.center_x:.1f}, {ring.center_y:.1f}), "
                           f"{ring.center_source}; its points are editable.{hint}")
 
