@@ -1,7 +1,7 @@
 """Calibrate the ring finder's radius-error floors on both generators together (issue 14).
 
 Run: python benchmarks/calibrate_ring_floors.py record OUT.json [N_LENSES] [FIRST_SEED] [N_NONLENSES] [GENS] [KINDS]
-     python benchmarks/calibrate_ring_floors.py sweep OUT.json
+     python benchmarks/calibrate_ring_floors.py sweep OUT.json [MORE.json ...]
 
 ``record`` runs lensmass.core.ringfinder.find_ring on N_LENSES lenses of the project's generator
 (lensmass.core.realistic_fields) and N_LENSES of the stress generator (benchmarks/stress_fields.py),
@@ -102,34 +102,51 @@ def record(out: str, n_lenses: int = 150, first_seed: int = 552000, n_nonlenses:
     print(f"{len(rows)} found fields written")
 
 
-def coverage(rows, ring_floor: float, arc_floor: float) -> tuple[float, float]:
-    pulls = []
+def coverage(rows, ring_floor: float, arc_floor: float, scatter_share: float = 0.0,
+             thick_share: float = 0.0) -> tuple[float, float]:
+    """Truth inside 1 / 2 sigma of the recorded lenses with these constants, as
+    lensmass.core.ring_confidence._calibrate adds them (floors times the radius; for rings and arc pairs the terms
+    of :func:`lensmass.core.ring_confidence.seen_error`); lone arcs by the lone-arc rule's interval."""
+    from lensmass.core.lone_arc import lone_arc_ratio_quantiles
+    from lensmass.core.ring_confidence import SAMPLING_FWHM_PIX, seen_error
+    from lensmass.core.ring_interval import SIGMA_PROBABILITIES
+
+    in1, in2 = [], []
     for r in rows:
         if not r.get("is_lens", True):
             continue
-        lone = np.isfinite(r.get("lone_arc", float("nan")))  # the lone-arc rule's error, no floor
-        floor = 0.0 if lone else (arc_floor if r["single"] else ring_floor)
-        err = float(np.hypot(r["internal"], floor * r["radius"]))
-        pulls.append(abs(r["radius"] - r["truth"]) / err)
-    p = np.array(pulls)
-    return float(np.mean(p <= 1)), float(np.mean(p <= 2))
+        if np.isfinite(r.get("lone_arc", float("nan"))):  # the lone-arc rule's interval, no floor
+            lo2, lo1, hi1, hi2 = r["lone_arc"] * lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, "ridge")
+        else:
+            err = float(np.hypot(r["internal"], (arc_floor if r["single"] else ring_floor) * r["radius"]))
+            if not r["single"] and "fit_rms" in r:
+                psf = max(r["psf_fit"], SAMPLING_FWHM_PIX) if np.isfinite(r["psf_fit"]) else float("nan")
+                err = float(np.hypot(err, seen_error(r["fit_rms"], r["width"], psf, scatter_share=scatter_share,
+                                                     thick_share=thick_share)))
+            lo2, lo1, hi1, hi2 = (r["radius"] + k * err for k in (-2, -1, 1, 2))
+        in1.append(lo1 <= r["truth"] <= hi1)
+        in2.append(lo2 <= r["truth"] <= hi2)
+    return float(np.mean(in1)), float(np.mean(in2))
 
 
-def sweep(path: str) -> None:
-    rows = json.loads(Path(path).read_text())
+def sweep(paths: list[str]) -> None:
+    rows = [r for p in paths for r in json.loads(Path(p).read_text())]
     rows = [r for r in rows if r.get("is_lens", True)]
     gens = {g: [r for r in rows if r["gen"] == g] for g in ("ours", "stress")}
     print(f"{len(gens['ours'])} found lenses of our generator, {len(gens['stress'])} of the stress generator")
-    for ring_floor in (0.02, 0.025, 0.03, 0.035, 0.04):
-        for arc_floor in (0.28, 0.35, 0.45):
-            cells = [coverage(gens[g], ring_floor, arc_floor) for g in ("ours", "stress")] + [
-                coverage(rows, ring_floor, arc_floor)]
-            print(f"ring floor {ring_floor:.3f}, single arc {arc_floor:.2f}: "
-                  + "; ".join(f"{name} {a:.0%}/{b:.0%}" for name, (a, b) in zip(("ours", "stress", "pooled"), cells)))
+    rings = {g: [r for r in v if not r["single"]] for g, v in gens.items()}
+    for ring_floor in (0.0, 0.01, 0.02):
+        for scatter in (0.0, 0.3, 0.5, 0.7):
+            for thick in (0.0, 0.1, 0.2):
+                cells = [coverage(rings[g], ring_floor, 0.33, scatter, thick) for g in ("ours", "stress")]
+                cells += [coverage(gens[g], ring_floor, 0.33, scatter, thick) for g in ("ours", "stress")]
+                print(f"ring floor {ring_floor:.2f}, scatter {scatter:.1f}, thickness {thick:.1f}: rings and pairs "
+                      + "; ".join(f"{n} {a:.0%}/{b:.0%}" for n, (a, b) in zip(("ours", "stress", "all ours",
+                                                                                "all stress"), cells)))
 
 
 if __name__ == "__main__":
     if sys.argv[1] == "record":
         record(sys.argv[2], *(int(v) for v in sys.argv[3:6]), *sys.argv[6:8])
     else:
-        sweep(sys.argv[2])
+        sweep(sys.argv[2:])

@@ -98,3 +98,32 @@ def test_window_ring_on_a_colour_png_is_the_command_lines(qtbot, make_window, tm
     assert any("told from the lens light by colour" in w for w in ring.warnings)  # the colour route ran
     assert ring.radius_pix == pytest.approx(cutout.truth["radius_pix"], abs=2 * ring.radius_err_pix)
     assert not ring.confident  # an 8-bit stretched picture never gives a confident ring
+
+
+def test_window_and_command_line_state_a_lone_arcs_asymmetric_interval(qtbot, make_window, tmp_path, capsys):
+    # a lone arc of the project's generator (seed 520007, a tuning seed of the interval): its interval is the
+    # calibrated lone-arc spread, wider above than below; the window's message and the command line's line are
+    # written by one function (lensmass.core.ring_interval.interval_text) from the same bounds
+    from lensmass.core.einstein import BOUND_KEYS
+    from lensmass.core.ring_interval import interval_bounds, interval_text
+
+    path = write_cutout_fits(tmp_path / "tris_arc.fits", make_cutout(520007, "arc"))
+    window = make_window(load_panels=True)
+    assert window.open_path(str(path))
+    ring = _find_ring(qtbot, window)
+    assert np.isfinite(ring.lone_arc_radius_pix)
+    lo2, lo1, hi1, hi2 = interval_bounds(ring)
+    assert hi1 - ring.radius_pix > 1.5 * (ring.radius_pix - lo1)
+    assert interval_text(ring.radius_pix, (lo2, lo1, hi1, hi2), "px") in window.statusBar().currentMessage()
+    from lensmass.cli import main
+    from lensmass.core.einstein import measure_theta_e_auto_ring
+    from lensmass.io.images import load_image
+
+    m, _ = measure_theta_e_auto_ring(load_image(path), require_confident=False)
+    assert main(["measure", str(path), "--auto-ring", "--accept-weak", "--zl", "0.4", "--zs", "1.5"]) == 0
+    shown = capsys.readouterr().out
+    assert "theta_E from the ring finder: " + interval_text(m.theta_e_arcsec, m.theta_e_bounds_arcsec, "arcsec", 3) \
+        in shown
+    assert m.asymmetric and m.theta_e_bounds_arcsec[2] - m.theta_e_arcsec > 1.5 * (m.theta_e_arcsec
+                                                                                   - m.theta_e_bounds_arcsec[1])
+    assert set(BOUND_KEYS) <= set(m.keys())
