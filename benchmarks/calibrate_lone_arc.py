@@ -117,9 +117,15 @@ def finder_table(paths: list[str]) -> None:
 def finder_check(paths: list[str]) -> None:
     rows = _lone_rows(paths)
     for gen in sorted({r["gen"] for r in rows}):
-        pull = np.array([abs(r["radius"] - r["truth"]) / r["err"] for r in rows if r["gen"] == gen])
-        print(f"{gen}: {pull.size} lone arcs found by the finder, truth inside 1/2 sigma {np.mean(pull <= 1):.0%} / "
-              f"{np.mean(pull <= 2):.0%}")
+        sel = [r for r in rows if r["gen"] == gen]
+        pull = np.array([abs(r["radius"] - r["truth"]) / r["err"] for r in sel])
+        print(f"{gen}: {pull.size} lone arcs found by the finder, truth inside radius -+ 1/2 sigma "
+              f"{np.mean(pull <= 1):.0%} / {np.mean(pull <= 2):.0%}", end="")
+        if all(np.isfinite(r.get("lo1", np.nan)) for r in sel):  # records with the stated (asymmetric) interval
+            in1 = np.mean([r["lo1"] <= r["truth"] <= r["hi1"] for r in sel])
+            in2 = np.mean([r["lo2"] <= r["truth"] <= r["hi2"] for r in sel])
+            print(f"; inside the stated interval {in1:.0%} / {in2:.0%}", end="")
+        print()
 
 
 def main() -> None:

@@ -135,7 +135,7 @@ def sweep(paths: list[str]) -> None:
     gens = {g: [r for r in rows if r["gen"] == g] for g in ("ours", "stress")}
     print(f"{len(gens['ours'])} found lenses of our generator, {len(gens['stress'])} of the stress generator")
     rings = {g: [r for r in v if not r["single"]] for g, v in gens.items()}
-    for ring_floor in (0.0, 0.01, 0.02):
+    for ring_floor in (0.0, 0.005, 0.01, 0.02):
         for scatter in (0.0, 0.3, 0.5, 0.7):
             for thick in (0.0, 0.1, 0.2):
                 cells = [coverage(rings[g], ring_floor, 0.33, scatter, thick) for g in ("ours", "stress")]
