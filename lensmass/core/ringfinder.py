@@ -41,8 +41,10 @@ Method (our own):
    :mod:`lensmass.core.ridge`); those ridge points (``points_x``/``points_y``, usable by a
    lens-model fit) are fitted by an ellipse about the centre (theta_E = sqrt(a b)), or a circle.
 5. Errors: the fit's standard error with the systematic terms of the refit and of a ring
-   barely resolved from the galaxy, then the calibrated floors of :func:`~lensmass.core.ring_confidence._calibrate` (rings,
-   single arcs) and, for 8-bit stretched pictures, :data:`~lensmass.core.ring_pictures.STRETCHED_SYSTEMATIC`.
+   barely resolved from the galaxy, then the calibrated floors and terms of what the finder sees of
+   :func:`~lensmass.core.ring_confidence._calibrate` (rings, single arcs) and, for 8-bit stretched pictures,
+   :data:`~lensmass.core.ring_pictures.STRETCHED_SYSTEMATIC`. The answer states a 1- and a 2-sigma interval
+   (``radius_lo_pix`` ... ``radius_hi2_pix``, :mod:`lensmass.core.ring_interval`), asymmetric for a lone arc.
 
 ``score`` is the significance of the ring peak in sigma; ``coverage`` the fraction of
 sectors where it is detected. ``confident`` is calibrated on generated non-lenses: see
