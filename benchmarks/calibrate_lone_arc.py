@@ -32,6 +32,13 @@ this table; ``calibrate_ring_floors.py record``): ours 694000-694249, 44 lone ar
 ("Before" is the same run's lone arcs with radius / 1.25 and 28% recomputed; all found lenses, with the single-arc
 error 0.28 -> 0.33: ours 79%/93% -> 82%/94%, stress 56%/79% -> 60%/82%; stress one arc 20%/70% both, two arcs
 38%/46% -> 46%/62%: their misses are wrong features, not errors a rule can widen.)
+
+h14v (2026-12-03): the finder states the "ridge" table's skew instead of +- 0.33 r_arc: its 1- and 2-sigma bounds are
+r_arc times the table's quantiles at the normal 15.87/84.13% and 2.275/97.725% (lensmass.core.ring_interval;
+``--finder-check`` counts them when the records hold ``lo1``...``hi2``). Lone arcs the finder found on tuning seeds
+520000-521319 (calibrate_ring_floors.py records), truth inside 1/2 sigma, symmetric -> interval: ours (71) 79%/93%
+-> 77%/100%, stress (14) 43%/71% -> 43%/86%; check seeds 600000-600149 (ours, 30 lone arcs): 83%/93% with the
+interval. The "points" table and the lens-model fit are unchanged (``--check`` not rerun).
 """
 
 from __future__ import annotations
