@@ -1,5 +1,8 @@
 """From marks on an image (or the ring finder) to theta_E +- error in arcsec, then to masses.
 
+Longer than 500 lines because it is the one path from marks or the ring finder to theta_E, its error and the
+finder's interval that the window, the command line and the batch runner share.
+
 The window, the command line and the batch runner all call
 :func:`measure_from_points` or :func:`measure_auto_ring`; both return every key of
 :func:`lensmass.core.estimate.estimate` plus
@@ -34,7 +37,7 @@ from lensmass.core.arcfit import _algebraic_circle, arc_span_deg, fit_circle, fi
 from lensmass.core.errors import LensInputError
 from lensmass.core.progress import ProgressCallback, StopCallback
 from lensmass.core.ridge import refine_to_ridge
-from lensmass.core.ring_interval import interval_bounds
+from lensmass.core.ring_interval import ASYMMETRIC_NOTE, BOUND_KEYS, bounds_from_pixels, draw_options, interval_bounds
 
 #: Default 1-sigma uncertainty of a marked position, in pixels (a click is good to about half a pixel).
 DEFAULT_POINT_ERR_PIX = 0.5
@@ -75,10 +78,8 @@ class ThetaEMeasurement:
     notes: list[str] = field(default_factory=list)
     center_source: str = ""
     """Which centre it is, in words (see :mod:`lensmass.core.lens_centre`)."""
-    theta_e_bounds_arcsec: tuple[float, float, float, float] | None = None
-    """The ring finder's -2, -1, +1, +2 sigma bounds of theta_E (arcsec; :mod:`lensmass.core.ring_interval`)."""
-    asymmetric: bool = False
-    """Whether those bounds are asymmetric (a lone arc): the masses' Monte Carlo then draws theta_E from them."""
+    theta_e_bounds_arcsec: tuple[float, float, float, float] | None = None  # the finder's -2..+2 sigma bounds
+    asymmetric: bool = False  # those bounds are asymmetric (a lone arc: lensmass.core.ring_interval)
 
     def keys(self) -> dict[str, Any]:
         """The measurement keys merged into the estimate result."""
@@ -100,30 +101,6 @@ class ThetaEMeasurement:
             "points_xy": self.points_xy,
             **({} if self.theta_e_bounds_arcsec is None else dict(zip(BOUND_KEYS, self.theta_e_bounds_arcsec))),
         }
-
-
-#: Result keys of the ring finder's interval bounds (-2, -1, +1, +2 sigma), in the registry's words.
-BOUND_KEYS = ("theta_e_low2_arcsec", "theta_e_low1_arcsec", "theta_e_high1_arcsec", "theta_e_high2_arcsec")
-
-
-def bounds_from_pixels(radius_pix: float, bounds_pix, pixel_scale_arcsec: float,
-                       pixel_scale_err_arcsec: float = 0.0) -> tuple[float, float, float, float]:
-    """The finder's -2, -1, +1, +2 sigma bounds (pixels) in arcsec, the pixel-scale error joined to each side in
-    quadrature (1 or 2 times it), as :func:`theta_e_from_pixels` joins it to the error.
-
-    Examples
-    --------
-    >>> [round(v, 3) for v in bounds_from_pixels(10.0, (6.0, 8.0, 13.0, 16.0), 0.1)]
-    [0.6, 0.8, 1.3, 1.6]
-    """
-    s = float(pixel_scale_arcsec)
-    theta = float(radius_pix) * s
-    scale_term = theta * float(pixel_scale_err_arcsec) / s
-    out = []
-    for b, k in zip(bounds_pix, (2, 1, 1, 2)):
-        d = (float(b) - float(radius_pix)) * s
-        out.append(theta + float(np.sign(d)) * float(np.hypot(d, k * scale_term)))
-    return out[0], out[1], out[2], out[3]
 
 
 def theta_e_from_pixels(radius_pix: float, radius_err_pix: float, pixel_scale_arcsec: float,
@@ -348,21 +325,14 @@ def _run_estimate(m: ThetaEMeasurement, z_l, z_s, estimate_options, estimate_fn)
 
         if z_l is None:
             raise LensInputError("No lens redshift: give the lens redshift (`z_l`).")
-        options = dict(estimate_options or {})
-        if m.asymmetric and m.theta_e_bounds_arcsec is not None and options.get("theta_e_draws") is None:
-            from lensmass.core.ring_interval import interval_draws
-
-            options["theta_e_draws"] = interval_draws(m.theta_e_arcsec, m.theta_e_bounds_arcsec,
-                                                      n=int(options.get("samples", 10000)))
+        options = draw_options(estimate_options, m.theta_e_arcsec, m.theta_e_bounds_arcsec, m.asymmetric)
         result = estimate(m.theta_e_arcsec, z_l, z_s, theta_e_err=m.theta_e_err_arcsec, **options)
     result = dict(result)
     result.update(m.keys())
     result["notes"] = list(m.notes) + list(result.get("notes", []))
     models = dict(result.get("models", {}))
-    models["theta_e_arcsec"] = f"measured on the image: {m.method}; error = fit + pixel-scale error in quadrature"
-    if m.asymmetric:
-        models["theta_e_arcsec"] += ("; its interval is asymmetric (the calibrated spread of theta_E over a lone "
-                                     "arc's radius), and the masses' Monte Carlo draws theta_E from it")
+    models["theta_e_arcsec"] = (f"measured on the image: {m.method}; error = fit + pixel-scale error in quadrature"
+                                + (ASYMMETRIC_NOTE if m.asymmetric else ""))
     result["models"] = models
     return result
 
@@ -490,7 +460,6 @@ def measure_theta_e_auto_ring(
         hint = f" {ring.center_hint}" if ring.center_hint else ""
         raise LensInputError(f"{ring.message}{hint} Mark points on the arcs instead (`points`).")
     theta, err = theta_e_from_pixels(ring.radius_pix, ring.radius_err_pix, scale, scale_err)
-    bounds = bounds_from_pixels(ring.radius_pix, interval_bounds(ring), scale, scale_err)
     ra, dec = _sky(to_sky, ring.center_x, ring.center_y)
     notes = notes + [f"Lens centre ({ring.center_x:.2f}, {ring.center_y:.2f}) pixels: {ring.center_source}."]
     notes += list(ring.warnings)
@@ -508,7 +477,8 @@ def measure_theta_e_auto_ring(
                           float(ring.axis_ratio) if np.isfinite(ring.axis_ratio) else None, pa,
                           [[float(a), float(b)] for a, b in zip(ring.points_x, ring.points_y)], notes,
                           "given by the user" if ring.center_source == "given"
-                          else f"ring finder's centre: {ring.center_source}", bounds,
+                          else f"ring finder's centre: {ring.center_source}",
+                          bounds_from_pixels(ring.radius_pix, interval_bounds(ring), scale, scale_err),
                           getattr(ring, "interval_shape_pix", None) is not None)
     return m, ring
 

@@ -62,6 +62,30 @@ def state_interval(out) -> None:
     out.radius_lo2_pix, out.radius_hi2_pix = max(r + d_lo2, 0.0), r + d_hi2
 
 
+#: Result keys of the ring finder's interval bounds (-2, -1, +1, +2 sigma), in the registry's words.
+BOUND_KEYS = ("theta_e_low2_arcsec", "theta_e_low1_arcsec", "theta_e_high1_arcsec", "theta_e_high2_arcsec")
+
+
+def bounds_from_pixels(radius_pix: float, bounds_pix, pixel_scale_arcsec: float,
+                       pixel_scale_err_arcsec: float = 0.0) -> tuple[float, float, float, float]:
+    """The finder's -2, -1, +1, +2 sigma bounds (pixels) in arcsec, the pixel-scale error joined to each side in
+    quadrature (1 or 2 times it), as :func:`theta_e_from_pixels` joins it to the error.
+
+    Examples
+    --------
+    >>> [round(v, 3) for v in bounds_from_pixels(10.0, (6.0, 8.0, 13.0, 16.0), 0.1)]
+    [0.6, 0.8, 1.3, 1.6]
+    """
+    s = float(pixel_scale_arcsec)
+    theta = float(radius_pix) * s
+    scale_term = theta * float(pixel_scale_err_arcsec) / s
+    out = []
+    for b, k in zip(bounds_pix, (2, 1, 1, 2)):
+        d = (float(b) - float(radius_pix)) * s
+        out.append(theta + float(np.sign(d)) * float(np.hypot(d, k * scale_term)))
+    return out[0], out[1], out[2], out[3]
+
+
 def interval_bounds(out) -> tuple[float, float, float, float]:
     """(-2, -1, +1, +2 sigma) bounds of a finder's answer; a result without stated bounds (an older one, or any
     object with ``radius_pix`` and ``radius_err_pix``) gives radius -+ 1 and 2 errors.
@@ -119,6 +143,28 @@ def interval_draws(center: float, bounds: Sequence[float], n: int = 10000, seed:
     return np.maximum(out, floor)
 
 
+#: What the model of theta_E says when its interval is asymmetric (:func:`draw_options`).
+ASYMMETRIC_NOTE = ("; its interval is asymmetric (the calibrated spread of theta_E over a lone arc's radius), and "
+                   "the masses' Monte Carlo draws theta_E from it")
+
+
+def draw_options(options: dict | None, theta: float, bounds, asymmetric: bool) -> dict:
+    """Options for :func:`lensmass.core.estimate.estimate`: with an asymmetric interval (and no draws given),
+    ``theta_e_draws`` from it (:func:`interval_draws`, as many as the Monte Carlo's ``samples``).
+
+    Examples
+    --------
+    >>> sorted(draw_options({"samples": 500}, 1.0, (0.5, 0.8, 1.3, 1.8), True))
+    ['samples', 'theta_e_draws']
+    >>> draw_options(None, 1.0, (0.8, 0.9, 1.1, 1.2), False)
+    {}
+    """
+    out = dict(options or {})
+    if asymmetric and bounds is not None and out.get("theta_e_draws") is None:
+        out["theta_e_draws"] = interval_draws(theta, bounds, n=int(out.get("samples", 10000)))
+    return out
+
+
 def interval_text(center: float, bounds: Sequence[float], unit: str, decimals: int = 2) -> str:
     """The interval in words, as the window and the command line show the finder's answer.
 
@@ -133,5 +179,5 @@ def interval_text(center: float, bounds: Sequence[float], unit: str, decimals: i
             f"2 sigma {f.format(lo2)}-{f.format(hi2)} {unit})")
 
 
-__all__ = ["SIGMA_PROBABILITIES", "SIGMA_SCORES", "hold_shape", "interval_bounds", "interval_draws", "interval_text",
+__all__ = ["ASYMMETRIC_NOTE", "BOUND_KEYS", "SIGMA_PROBABILITIES", "SIGMA_SCORES", "bounds_from_pixels", "draw_options", "hold_shape", "interval_bounds", "interval_draws", "interval_text",
            "state_interval", "truth_inside"]
