@@ -13,6 +13,7 @@ from lensmass.core.progress import report
 from lensmass.core.ring_confidence import _flag_unresolved
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_sectors import BIN_PIX
+from lensmass.core.ring_shapes import _lone_arc
 from lensmass.core.sky_level import remove_sky_pedestal
 
 #: Systematic fractional radius error of an 8-bit stretched picture, on top of what the picture itself tells (the
@@ -174,7 +175,7 @@ def _stretched_grey_search(picture, masked, cx, cy, rmin, rmax, n_sectors, progr
                          f"{', '.join(f'{s:g}' for s in GREY_STRENGTHS)} (a linear or square-root stretch is "
                          f"closer to these than to none); {n_agreed} agreed, their spread ({spread:.2f} pixels) "
                          "is in the error.")
-    return best
+    return _lone_arc(best, n_sectors)
 
 
 def colour_masks(rgb: np.ndarray, grey: np.ndarray, masks_of: Callable[..., Any], *args, **kwargs):
@@ -239,7 +240,8 @@ def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_sto
     """The ring on the arc image of a colour picture (:mod:`lensmass.core.colour_separation`) with the
     stretch strength the lens's own pixels choose (:func:`~lensmass.core.colour_separation.choose_strength`,
     on the pixels inside half the ring once one is seen); the spread of the radii at the neighbouring
-    strengths is added to its error. No arcs bluer than the lens: the grey picture's search
+    strengths is added to its error; a lone arc's radius is scaled to theta_E by the one lone-arc rule
+    (:func:`lensmass.core.ring_shapes._lone_arc`, as on FITS). No arcs bluer than the lens: the grey picture's search
     (:func:`_stretched_grey_search`). ``ring_search``, ``two_pass_search`` and ``masks_of`` are the finder's
     :func:`lensmass.core.ringfinder._search`, ``_two_pass_search`` and ``_masks`` (passed in: they call this)."""
     from scipy.ndimage import binary_dilation
@@ -287,7 +289,7 @@ def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_sto
                          f"stretch read from the lens's own pixels (asinh strength {strength:g}; the radius moves "
                          f"by {spread:.2f} pixels between the neighbouring strengths, which is in the error).")
     report(progress, 1.0)
-    return best
+    return _lone_arc(best, n_sectors)
 
 
 def _lens_halfmax_pix(masks, cx: float, cy: float) -> float:
@@ -339,8 +341,9 @@ def _refuse_core_residual(out: RingResult, masks, rgb: np.ndarray | None = None)
     only roughly), not a ring: report none, saying why. (The search starts outside that radius,
     :func:`_outside_picture_core`; an ellipse fitted to its ridge can still end inside.)"""
     halfmax = _lens_halfmax_pix(masks, out.center_x, out.center_y)
-    if not out.found or not np.isfinite(halfmax) or out.radius_pix >= _picture_core_pix(masks, out.center_x,
-                                                                                         out.center_y, 0.0, rgb):
+    seen = out.lone_arc_radius_pix if np.isfinite(out.lone_arc_radius_pix) else out.radius_pix  # the arc's own radius
+    if not out.found or not np.isfinite(halfmax) or seen >= _picture_core_pix(masks, out.center_x, out.center_y, 0.0,
+                                                                              rgb):
         return
     out.warnings.append(f"The only ring candidate ({out.radius_pix:.1f} pixels) lies inside the lens core's half-maximum "
                         f"width ({halfmax:.1f} pixels): on a stretched picture that is the residual of the core, not a "
