@@ -47,6 +47,12 @@ colour pictures' rates as high as the FITS's of the same fields.
 Seeds: the colour route was tuned on 510000-519999 and checked on 610000-610999; 700000-899999 are
 kept for the final evaluation.
 
+Pictures that keep colour where they clip (h14u, 2026-12-03, load 9-14): hard rings (HARD=1) 561000-561039, 40 a
+route, within 5% / truth inside 1/2 sigma, main fe00206 -> h14u: PNG Lupton Q 8 68% 74/100 -> 80% 78/92; PNG Lupton
+Q 3 72% 79/92 -> 78% 79/97; JPEG q75 Lupton Q 8 65% 95/100 -> 60% 90/100 (PNG Lupton Q 8 stretch 2 sigma, main
+only: 32% 69/93). test_colour_cutouts' 12 hard rings: Lupton 9 -> 11, Lupton Q 3 7 -> 11, square root 8 -> 8
+(identical answers), JPEG q75 asinh 4 -> 6.
+
 Picture errors from what the picture tells, JPEG quality read from the file, the search outside the lens core
 and each band's sky taken out (h14l, 2026-12-03; machine load 13-20, so figures, not times). Check seeds, hard
 rings only (HARD=1, 680000-680099, 100 a route), within 5% / truth inside 1/2 sigma, before (0ef16bd: quality,

@@ -13,6 +13,7 @@ from lensmass.core.progress import report
 from lensmass.core.ring_confidence import _flag_unresolved
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_sectors import BIN_PIX
+from lensmass.core.ring_shapes import _lone_arc
 from lensmass.core.sky_level import remove_sky_pedestal
 
 #: Systematic fractional radius error of an 8-bit stretched picture, on top of what the picture itself tells (the
@@ -33,6 +34,9 @@ STRETCHED_SYSTEMATIC = 0.03
 #: is not reported. Check seeds 680000-680099 (100 hard rings), within 5%: grey square-root PNG 74% (stop 24: 53-67%);
 #: with the sky levels (colour_separation.sky_levels) too, JPEG q75 Lupton 55% -> 67%, PNG Lupton 75% -> 85%.
 PICTURE_CORE_RATIO = 0.65
+#: Share of the radius of a clipped lens core whose colour the picture kept below which a ring is taken as the core's
+#: residual (:func:`_picture_core_pix`): the arc image there is a colour ratio in which the lens cancels.
+KEPT_CORE_SHARE = 0.5
 #: Systematic fractional radius error when the ring is seen on the arc image of only one asinh strength.
 STRETCH_SINGLE_SYSTEMATIC = 0.05
 #: Share of the distance to a ring another assumed stretch sees (beyond 20% of the radius) kept in the error.
@@ -47,6 +51,14 @@ LOSSY_NOISE_LAG_PIX = 2
 LOSSY_NOISE_FLOOR = 0.6
 #: asinh strength at which a colour picture is linearised for its masks and lens centre (:func:`colour_mask_image`).
 COLOUR_MASK_STRENGTH = 5.0
+#: ... and the strengths tried in turn when no lens stands out at the first (make_lupton_rgb is an asinh of the
+#: intensity of strength 10 asinh(Q / 10) in astropy 6-8 (its AsinhMapping), 7.3 at Q = 8 and 10 at Q = 12: at 5 a
+#: strongly stretched sky's noise buried the clipped lens core, stress_pictures tuning seeds 555000, 555011, 555036).
+COLOUR_MASK_STRENGTHS = (COLOUR_MASK_STRENGTH, 9.0)
+#: Share of the top value by which a clipped plateau of :func:`colour_mask_image` rises per pixel inward.
+PLATEAU_RISE = 0.02
+#: ... a plateau being a connected clipped region of at least this many pixels.
+PLATEAU_MIN_PIX = 9
 #: Radius (pixels) of the lens core whose pixels choose the picture's stretch before a ring is seen.
 COLOUR_CORE_PIX = 6.0
 #: Share of the spread of the radii at the neighbouring stretch strengths kept in the error.
@@ -163,22 +175,55 @@ def _stretched_grey_search(picture, masked, cx, cy, rmin, rmax, n_sectors, progr
                          f"{', '.join(f'{s:g}' for s in GREY_STRENGTHS)} (a linear or square-root stretch is "
                          f"closer to these than to none); {n_agreed} agreed, their spread ({spread:.2f} pixels) "
                          "is in the error.")
-    return best
+    return _lone_arc(best, n_sectors)
 
 
-def colour_mask_image(rgb: np.ndarray, grey: np.ndarray) -> np.ndarray:
+def colour_masks(rgb: np.ndarray, grey: np.ndarray, masks_of: Callable[..., Any], *args, **kwargs):
+    """The masks and lens centre of a colour picture: ``masks_of`` (the finder's
+    :func:`lensmass.core.ringfinder._masks`, passed in: it calls this) on :func:`colour_mask_image` at each of
+    :data:`COLOUR_MASK_STRENGTHS` in turn until a lens is found (the first strength's masks if none is)."""
+    first = None
+    for strength in COLOUR_MASK_STRENGTHS:
+        masks = masks_of(colour_mask_image(rgb, grey, strength), *args, **kwargs)
+        if any(o.kind == "lens" for o in getattr(masks, "objects", None) or []):
+            return masks
+        first = first or masks
+    return first
+
+
+def colour_mask_image(rgb: np.ndarray, grey: np.ndarray, strength: float = COLOUR_MASK_STRENGTH) -> np.ndarray:
     """The image a colour picture's masks and lens centre are found on: its bands linearised at the asinh
     strength :data:`COLOUR_MASK_STRENGTH` and summed (saturated pixels at the top value, ``grey``'s masked
     pixels kept masked). On the picture's own grey values a bright lens stands only ~9 noise sigma above
     the sky once a strong stretch has lifted the noise (astropy's make_lupton_rgb, Q = 8), below the
     lens-detection limit, and a star took its place (tuning seeds 530000-530023, Lupton pictures: the
     centre missed by > 2 pixels in 5 of 24 hard rings on the grey values, 0 of 24 linearised; per-band
-    asinh, linear and mild Lupton pictures 0 of 24 either way)."""
-    from lensmass.core.colour_separation import linear_grey
+    asinh, linear and mild Lupton pictures 0 of 24 either way).
 
-    out = linear_grey(rgb, COLOUR_MASK_STRENGTH)
+    On a picture that keeps colour where it clips (:func:`~lensmass.core.colour_separation.colour_lost`: astropy's
+    make_lupton_rgb with a small softening clips the sky's noise peaks and a wide lens core), scattered clipped
+    pixels take their nearest unclipped neighbour's value and a clipped plateau rises by :data:`PLATEAU_RISE` of
+    the top value a pixel inward, so that the lens peaks at the plateau's middle (stress_pictures tuning seeds
+    555011 and 555036: no lens found, then the centre within 1 pixel). Other pictures keep their clipped pixels
+    at the top value (with the rise, test_colour_cutouts' square-root hard rings moved by up to 1.7 pixels)."""
+    from scipy.ndimage import distance_transform_edt, label
+
+    from lensmass.core.colour_separation import colour_lost, linear_grey, saturated
+
+    out = linear_grey(rgb, strength)
     top = np.nanmax(out) if np.isfinite(out).any() else 0.0
-    out = np.where(np.isfinite(out), out, top)
+    clipped = ~np.isfinite(out)
+    if np.array_equal(colour_lost(rgb), saturated(rgb)):  # colour lost wherever clipped: as before
+        out = np.where(clipped, top, out)
+        return np.where(np.isfinite(np.asarray(grey, float)), out, np.nan)
+    labels, n = label(clipped)
+    plateau = clipped & (np.bincount(labels.ravel(), minlength=n + 1) >= PLATEAU_MIN_PIX)[labels]
+    # scattered clipped pixels (a strong stretch clips the sky's noise peaks) take the nearest unclipped pixel's value
+    # (scipy's Euclidean distance transform); a clipped core rises gently to its middle, so its peak is its centre
+    if (clipped & ~plateau).any():
+        iy, ix = distance_transform_edt(clipped, return_distances=False, return_indices=True)
+        out = np.where(clipped & ~plateau, out[iy, ix], out)
+    out = np.where(plateau, top * (1 + PLATEAU_RISE * distance_transform_edt(plateau)), out)
     return np.where(np.isfinite(np.asarray(grey, float)), out, np.nan)
 
 
@@ -205,15 +250,16 @@ def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_sto
     """The ring on the arc image of a colour picture (:mod:`lensmass.core.colour_separation`) with the
     stretch strength the lens's own pixels choose (:func:`~lensmass.core.colour_separation.choose_strength`,
     on the pixels inside half the ring once one is seen); the spread of the radii at the neighbouring
-    strengths is added to its error. No arcs bluer than the lens: the grey picture's search
+    strengths is added to its error; a lone arc's radius is scaled to theta_E by the one lone-arc rule
+    (:func:`lensmass.core.ring_shapes._lone_arc`, as on FITS). No arcs bluer than the lens: the grey picture's search
     (:func:`_stretched_grey_search`). ``ring_search``, ``two_pass_search`` and ``masks_of`` are the finder's
     :func:`lensmass.core.ringfinder._search`, ``_two_pass_search`` and ``_masks`` (passed in: they call this)."""
     from scipy.ndimage import binary_dilation
 
-    from lensmass.core.colour_separation import (LOCUS_STRENGTHS, arc_image, choose_strength, noise_normalised,
-                                                  saturated)
+    from lensmass.core.colour_separation import (LOCUS_STRENGTHS, arc_image, choose_strength, colour_lost,
+                                                  noise_normalised)
 
-    masked = binary_dilation(~np.isfinite(img) | saturated(rgb), iterations=COLOUR_MASK_GROW_PIX)
+    masked = binary_dilation(~np.isfinite(img) | colour_lost(rgb), iterations=COLOUR_MASK_GROW_PIX)
     runs: dict[tuple[float, int], RingResult] = {}
     objects: list[np.ndarray] = []
 
@@ -253,7 +299,7 @@ def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_sto
                          f"stretch read from the lens's own pixels (asinh strength {strength:g}; the radius moves "
                          f"by {spread:.2f} pixels between the neighbouring strengths, which is in the error).")
     report(progress, 1.0)
-    return best
+    return _lone_arc(best, n_sectors)
 
 
 def _lens_halfmax_pix(masks, cx: float, cy: float) -> float:
@@ -264,22 +310,50 @@ def _lens_halfmax_pix(masks, cx: float, cy: float) -> float:
     return float(min(lenses, key=lambda o: np.hypot(o.x - cx, o.y - cy)).halfmax_diameter_pix)
 
 
-def _outside_picture_core(masks, cx: float, cy: float, rmin: float, rmax: float) -> float:
-    """The smallest radius searched on a stretched picture: outside :data:`PICTURE_CORE_RATIO` of the lens's
-    half-maximum diameter (where the undone stretch leaves the core's residual, which outshone the ring), while
-    leaving room for a search."""
+def _kept_core_radius(rgb: np.ndarray | None, cx: float, cy: float) -> float:
+    """The radius (of a disc of its area) of the clipped lens core whose colour the picture kept
+    (:func:`~lensmass.core.colour_separation.colour_lost`), reaching within 2 pixels of (cx, cy); 0 when none."""
+    if rgb is None:
+        return 0.0
+    from scipy.ndimage import binary_closing, label
+
+    from lensmass.core.colour_separation import colour_lost, saturated
+
+    kept = binary_closing(saturated(rgb) & ~colour_lost(rgb))  # closed over JPEG's holes just below the top
+    labels, _ = label(kept)
+    y0, x0 = max(0, int(round(cy)) - 2), max(0, int(round(cx)) - 2)
+    near = labels[y0:int(round(cy)) + 3, x0:int(round(cx)) + 3]
+    if not near.any():
+        return 0.0
+    return float(np.sqrt(np.count_nonzero(labels == np.bincount(near[near > 0]).argmax()) / np.pi))
+
+
+def _picture_core_pix(masks, cx: float, cy: float, rmin: float, rgb: np.ndarray | None = None) -> float:
+    """The radius inside which a stretched picture's ring is the core's residual: :data:`PICTURE_CORE_RATIO` of the
+    lens's half-maximum diameter, but no more than :data:`KEPT_CORE_SHARE` of a clipped core whose colour the
+    picture kept (:func:`_kept_core_radius`: there the arc image is a colour ratio, and the lens cancels in it)."""
     core = PICTURE_CORE_RATIO * _lens_halfmax_pix(masks, cx, cy)
+    kept = _kept_core_radius(rgb, cx, cy)
+    return float(min(core, max(rmin, KEPT_CORE_SHARE * kept))) if kept > 0 else core
+
+
+def _outside_picture_core(masks, cx: float, cy: float, rmin: float, rmax: float, rgb: np.ndarray | None = None) -> float:
+    """The smallest radius searched on a stretched picture: outside :func:`_picture_core_pix` (where the undone
+    stretch leaves the core's residual, which outshone the ring), while leaving room for a search."""
+    core = _picture_core_pix(masks, cx, cy, rmin, rgb)
     if not np.isfinite(core) or core <= rmin or core >= rmax - 8 * BIN_PIX:
         return rmin
     return float(core)
 
 
-def _refuse_core_residual(out: RingResult, masks) -> None:
-    """On a stretched picture, a ring inside :data:`PICTURE_CORE_RATIO` of the lens's half-maximum diameter is the
-    residual of its core (the stretch undone only roughly), not a ring: report none, saying why. (The search
-    starts outside that radius, :func:`_outside_picture_core`; an ellipse fitted to its ridge can still end inside.)"""
+def _refuse_core_residual(out: RingResult, masks, rgb: np.ndarray | None = None) -> None:
+    """On a stretched picture, a ring inside :func:`_picture_core_pix` is the residual of its core (the stretch undone
+    only roughly), not a ring: report none, saying why. (The search starts outside that radius,
+    :func:`_outside_picture_core`; an ellipse fitted to its ridge can still end inside.)"""
     halfmax = _lens_halfmax_pix(masks, out.center_x, out.center_y)
-    if not out.found or not np.isfinite(halfmax) or out.radius_pix >= PICTURE_CORE_RATIO * halfmax:
+    seen = out.lone_arc_radius_pix if np.isfinite(out.lone_arc_radius_pix) else out.radius_pix  # the arc's own radius
+    if not out.found or not np.isfinite(halfmax) or seen >= _picture_core_pix(masks, out.center_x, out.center_y, 0.0,
+                                                                              rgb):
         return
     out.warnings.append(f"The only ring candidate ({out.radius_pix:.1f} pixels) lies inside the lens core's half-maximum "
                         f"width ({halfmax:.1f} pixels): on a stretched picture that is the residual of the core, not a "

@@ -79,7 +79,8 @@ from lensmass.core.ring_pictures import (COLOUR_CORE_PIX, COLOUR_MASK_GROW_PIX, 
                                          STRENGTH_SPREAD_SHARE, STRETCHED_SYSTEMATIC, STRETCH_DISAGREE_SHARE,
                                          STRETCH_SINGLE_SYSTEMATIC, _colour_search, _jpeg_quality,
                                          _outside_picture_core, _refuse_core_residual, _stretched_grey_search,
-                                         _undo_grey_stretch, blue_excess, colour_mask_image, lossy_error_scale)
+                                         _undo_grey_stretch, blue_excess, colour_mask_image, colour_masks,
+                                         lossy_error_scale)
 from lensmass.core.ring_interval import state_interval
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_sectors import (BIN_PIX, MASK_HALF_WIDTHS, _sector_grid, _sector_profiles, _smooth_profile,
@@ -260,8 +261,10 @@ def find_ring(
     masks = None
     if auto_mask or mask is not None or colour is not None:
         reach = float(max_radius_pix) if max_radius_pix is not None else DEFAULT_MAX_RADIUS_PIX
-        masks = _masks(img if colour is None else colour_mask_image(colour, img), cx, cy, given, reach, mask, colour,
-                       auto_mask, sky_fit=colour is None and picture is None)
+        if colour is None:
+            masks = _masks(img, cx, cy, given, reach, mask, colour, auto_mask, sky_fit=picture is None)
+        else:
+            masks = colour_masks(colour, img, _masks, cx, cy, given, reach, mask, colour, auto_mask)
         cx, cy = masks.center_x, masks.center_y
         img = np.where(masks.mask, np.nan, img - masks.sky)
         if residual is not None:
@@ -274,7 +277,7 @@ def find_ring(
         raise LensInputError("The lens centre is too close to the image edge to search for a ring; "
                              "give a centre farther from the edge or a larger search radius (`max_radius_pix`).")
     if (colour is not None or picture is not None) and residual is None and subtract_lens_light:
-        rmin = _outside_picture_core(masks, cx, cy, rmin, rmax)
+        rmin = _outside_picture_core(masks, cx, cy, rmin, rmax, None if colour is None else np.asarray(colour))
     if residual is not None:
         out = _search(np.asarray(residual), cx, cy, rmin, rmax, n_sectors, None, warnings, progress, should_stop,
                       elliptical=True)
@@ -297,7 +300,8 @@ def find_ring(
         if out.lens_light is not None:  # the light model describes the image as given: its sky included
             out.lens_light.model = out.lens_light.model + pedestal
             out.lens_light.sky += pedestal
-    return _finish(out, masks, given, colour is not None or picture is not None, _jpeg_quality(compressed))
+    return _finish(out, masks, given, colour is not None or picture is not None, _jpeg_quality(compressed),
+                   None if colour is None else np.asarray(colour))
 
 
 def field_masks(image: np.ndarray, center: tuple[float, float] | None = None, *, picture: bool = False,
@@ -325,8 +329,9 @@ def field_masks(image: np.ndarray, center: tuple[float, float] | None = None, *,
     given = center is not None
     cx, cy = (float(center[0]), float(center[1])) if center is not None else ((nx - 1) / 2, (ny - 1) / 2)
     reach = float(max_radius_pix) if max_radius_pix is not None else DEFAULT_MAX_RADIUS_PIX
-    box = img if colour is None else colour_mask_image(np.asarray(colour), img)
-    return _masks(box, cx, cy, given, reach, None, colour, True, sky_fit=not picture and colour is None)
+    if colour is not None:
+        return colour_masks(np.asarray(colour), img, _masks, cx, cy, given, reach, None, colour, True)
+    return _masks(img, cx, cy, given, reach, None, colour, True, sky_fit=not picture)
 
 
 def _check_pixels(img: np.ndarray) -> None:
@@ -394,7 +399,8 @@ def _masks(img, cx, cy, given, rmax, mask, colour, auto_mask, *, sky_fit=False):
     return m
 
 
-def _finish(out: RingResult, masks, given: bool, colour: bool, quality: float | None = None) -> RingResult:
+def _finish(out: RingResult, masks, given: bool, colour: bool, quality: float | None = None,
+            rgb: np.ndarray | None = None) -> RingResult:
     """Report the centre and the masks; calibrate the error; widen it for an 8-bit stretched picture
     (and scale it for a lossy-compressed one)."""
     out.masks = masks
@@ -413,7 +419,7 @@ def _finish(out: RingResult, masks, given: bool, colour: bool, quality: float | 
                             f"{STRETCHED_SYSTEMATIC:.0%} of the radius, and the ring is not called confident "
                             "(the seeing, which tells a lensed ring from a ring galaxy's, is not measurable "
                             "on it): use a FITS band, or mark the arcs, to confirm it.")
-        _refuse_core_residual(out, masks)
+        _refuse_core_residual(out, masks, rgb)
         if out.found:
             out.radius_err_pix = float(np.hypot(out.radius_err_pix, STRETCHED_SYSTEMATIC * out.radius_pix))
         out.confident = False

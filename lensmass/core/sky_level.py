@@ -89,10 +89,12 @@ BORDER_FRACTION = 0.06
 RIM_SAMPLE = 100_000
 
 
-def border_sky(data: np.ndarray) -> tuple[float, float]:
+def border_sky(data: np.ndarray, usable: np.ndarray | None = None,
+               share: float = BORDER_FRACTION) -> tuple[float, float]:
     """Sky level and pixel noise at the image's border: the 3-sigma-clipped median and standard
     deviation (astropy ``sigma_clipped_stats``; clipping drops stars and galaxies that cross the rim)
-    of a rim :data:`BORDER_FRACTION` of the shorter side wide. NaN, NaN when the rim has no finite pixels.
+    of a rim ``share`` (default :data:`BORDER_FRACTION`) of the shorter side wide, of its ``usable`` pixels
+    (default all finite ones). NaN, NaN when the rim has under 20 such pixels.
 
     Examples
     --------
@@ -106,7 +108,9 @@ def border_sky(data: np.ndarray) -> tuple[float, float]:
     from astropy.stats import sigma_clipped_stats
 
     data = np.asarray(data)
-    w = max(3, int(BORDER_FRACTION * min(data.shape)))
+    if usable is not None:
+        data = np.where(usable, data, np.nan)
+    w = max(3, int(share * min(data.shape)))
     rim = np.concatenate([data[:w].ravel(), data[-w:].ravel(), data[w:-w, :w].ravel(), data[w:-w, -w:].ravel()])
     rim = np.asarray(rim, float)
     rim = rim[np.isfinite(rim)][:: max(1, rim.size // RIM_SAMPLE)]
