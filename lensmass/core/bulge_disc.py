@@ -1,17 +1,15 @@
-"""A bulge and a disc: a second Sersic component for lens light that one Sersic cannot follow.
+"""Two Sersic components for lens light that one Sersic cannot follow: a bulge and a disc, or a PSF's halo.
 
-A single elliptical Sersic fitted to a bulge (n ~ 4) inside a disc (n ~ 1) of another shape follows the
-disc and leaves the bulge as a centrally concentrated residual (the fitted seeing shrinks to make the
-core sharper); that residual then outshines a real ring further out. When the single fit's residual
-inside the lens's core is structured (its mean squared significance there, against the noise and 1% of
-the model, exceeds :data:`MISFIT_CHI2`), or when its seeing shrank to the bound of the fit
-(:data:`PSF_AT_BOUND`), two elliptical Sersic components with a shared centre, sky and Gaussian PSF are
-fitted jointly (a bulge, index in :data:`BULGE_N_BOUNDS`, and a disc, index in :data:`DISC_N_BOUNDS`,
-each with its own size, axis ratio and angle), and kept only when the disc comes out larger and less
-concentrated than the bulge, and the Bayesian information criterion
-prefers them by :data:`BIC_MARGIN` (Schwarz 1978; a difference above 10 is "very strong" evidence, Kass &
-Raftery 1995, common practice). A sum of two centred, radially falling profiles falls radially too, so
-the pair cannot make a ring; bright pixels above it (arcs) are left out as in the single fit.
+A single elliptical Sersic blurred by a Gaussian fitted to a bulge (n ~ 4) inside a disc (n ~ 1) of another
+shape, or to a galaxy seen through a PSF with a halo (a diffraction-limited core with scattered-light wings),
+leaves a smooth leftover a few seeing widths across: inside an Einstein ring it merges with the ring and pulls
+its peak inward. Two elliptical Sersic components with a shared centre, sky and Gaussian PSF are fitted jointly
+(indices in :data:`BULGE_N_BOUNDS` and :data:`DISC_N_BOUNDS`, each with its own size, axis ratio and angle) and
+kept only when the Bayesian information criterion prefers them by :data:`BIC_MARGIN` (Schwarz 1978; a difference
+above 10 is "very strong" evidence, Kass & Raftery 1995, common practice). A sum of two centred, radially
+falling profiles falls radially too, so the pair cannot make a ring; bright pixels above it (arcs) are left out
+as in the single fit. The ring finder calls it only for a ring measured wider than a few seeing widths
+(:data:`lensmass.core.ringfinder.MISFIT_WIDTH_PSF`), with the ring masked.
 
 References
 ----------
@@ -36,17 +34,7 @@ from lensmass.core.sersic import sersic_b
 from lensmass.core.sersic_pixels import (blurred_sersic_jacobian, blurred_sersic_on_grid, core_pixels,
                                         grid_and_core_terms)
 
-#: The single fit's residual is "structured" when its mean squared significance inside
-#: :data:`INNER_REACH` half-light radii exceeds this (white noise gives 1).
-MISFIT_CHI2 = 2.0
-#: The share of the model that counts as noise in that test (the ring finder's floor on the lens-light model,
-#: :data:`lensmass.core.ringfinder.LENS_MODEL_SYSTEMATIC`): a bright galaxy's small misfit is no second component.
-MODEL_ACCURACY = 0.01
-#: The inner region of that test, in the single fit's half-light radii (at least 3 pixels).
-INNER_REACH = 0.5
-#: A single fit whose seeing came within this factor of its lower bound is misfit whatever its residual.
-PSF_AT_BOUND = 1.1
-#: Index ranges of the two components (a bulge is concentrated, a disc near exponential).
+#: Index ranges of the two components (a bulge is concentrated; a disc near exponential, a PSF halo near Gaussian).
 BULGE_N_BOUNDS = (1.5, 8.0)
 DISC_N_BOUNDS = (0.5, 2.0)
 #: The two components are kept when their BIC is lower than the single Sersic's by at least this much.
@@ -201,15 +189,15 @@ def _two_component_model(shape, p, light: LensLightModel, halves, gain: float) -
                       "n": float(q[2]), "axis_ratio": float(ratio), "angle_deg": float(angle % 180.0)})
     model = _evaluate_model(shape, b, light.noise_sigma) + _evaluate_model(shape, d, light.noise_sigma)
     main = max(comps, key=lambda c: c["flux"])
-    note = (f"Lens light: a bulge (n {comps[0]['n']:.1f}, R_e {comps[0]['r_eff_pix']:.1f} px) and a disc "
-            f"(n {comps[1]['n']:.1f}, R_e {comps[1]['r_eff_pix']:.1f} px) fit better than one Sersic profile "
-            f"(BIC lower by {gain:.0f}).")
+    note = (f"Lens light: two Sersic components (n {comps[0]['n']:.1f}, R_e {comps[0]['r_eff_pix']:.1f} px; "
+            f"n {comps[1]['n']:.1f}, R_e {comps[1]['r_eff_pix']:.1f} px: a bulge and a disc, or the halo of the PSF) "
+            f"fit better than one Sersic profile (BIC lower by {gain:.0f}).")
     cx, cy = float(p[5]), float(p[6])
     return LensLightModel(
         model=model, residual=light.residual + light.model - model, center_x=cx, center_y=cy,
         total_flux=sum(c["flux"] for c in comps), r_eff_pix=_half_light_radius(comps), sersic_n=main["n"],
         axis_ratio=main["axis_ratio"], angle_deg=main["angle_deg"], sky=float(p[7]), noise_sigma=light.noise_sigma,
         fit_radius_pix=light.fit_radius_pix, psf_fwhm_pix=float(2.3548 * np.exp(p[8])),
-        method="bulge + disc: two elliptical Sersic components with a shared centre, blurred by a fitted Gaussian "
+        method="two elliptical Sersic components (bulge + disc) with a shared centre, blurred by a fitted Gaussian "
                "PSF, robust (soft-L1) least squares, chosen over one Sersic by the BIC",
         ok=True, notes=[n for n in light.notes if "lens-light fit" not in n] + [note], components=comps)
