@@ -56,6 +56,7 @@ class StressField:
     noise_sigma: float  # per-pixel sky noise, image units
     truth: dict = field(default_factory=dict)
     features: list[str] = field(default_factory=list)
+    lens_light: np.ndarray | None = None  # the lens galaxy's own light (bulge, disc), blurred, noise-free, image units
 
 
 def _sersic(xx, yy, re, n, q, ang_rad, x0, y0):
@@ -362,7 +363,8 @@ def make_stress_field(seed: int, kind: str | None = None) -> StressField:
     if abs(np.log10(unit)) > 2:
         feats.append("units 1e%+d" % int(np.round(np.log10(unit))))
     truth["sky_noise_units"] = float(sky)
-    return StressField((img * unit).astype(np.float32), scale, fwhm_pix, unit, truth, feats)
+    return StressField((img * unit).astype(np.float32), scale, fwhm_pix, unit, truth, feats,
+                       (lens_img * norm * unit).astype(np.float32))
 
 
 def make_stress_sample(n_lenses: int, n_nonlenses: int, first_seed: int) -> list[StressField]:

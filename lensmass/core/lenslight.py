@@ -91,6 +91,8 @@ class LensLightModel:
     method: str = "elliptical Sersic blurred by a fitted Gaussian PSF, robust (soft-L1) least squares"
     ok: bool = True
     notes: list[str] = field(default_factory=list)
+    #: The components of a bulge + disc model (:mod:`lensmass.core.bulge_disc`), empty for one Sersic.
+    components: list[dict] = field(default_factory=list)
 
 
 def _moments(cut, xx, yy, cx, cy):
@@ -174,21 +176,7 @@ def fit_lens_light(
         fit_radius_pix = _auto_fit_radius(img, cx0, cy0, noise)
     rf = float(fit_radius_pix)
     notes: list[str] = []
-    x0, x1 = max(0, int(cx0 - rf)), min(nx, int(cx0 + rf) + 2)
-    y0, y1 = max(0, int(cy0 - rf)), min(ny, int(cy0 + rf) + 2)
-    f = max(1, int(np.ceil(max(x1 - x0, y1 - y0) / MAX_FIT_SIDE)))
-    x1, y1 = x0 + (x1 - x0) // f * f, y0 + (y1 - y0) // f * f
-    cut = np.asarray(img[y0:y1, x0:x1], float)
-    ok = np.isfinite(cut)
-    if mask is not None:
-        ok &= ~np.asarray(mask, bool)[y0:y1, x0:x1]
-    sums = np.where(ok, cut, 0.0).reshape((y1 - y0) // f, f, (x1 - x0) // f, f).sum(axis=(1, 3))
-    cnt = ok.reshape((y1 - y0) // f, f, (x1 - x0) // f, f).sum(axis=(1, 3))
-    with np.errstate(invalid="ignore", divide="ignore"):
-        binned = sums / cnt
-    gx = x0 + (np.arange(binned.shape[1]) + 0.5) * f - 0.5
-    gy = y0 + (np.arange(binned.shape[0]) + 0.5) * f - 0.5
-    xx, yy = np.meshgrid(gx, gy)
+    binned, cnt, xx, yy, f = _fit_grid(img, cx0, cy0, rf, mask)
     rr = np.hypot(xx - cx0, yy - cy0)
     sel = (cnt > 0) & (rr <= rf) & (rr >= 1.0)
     vs = binned[sel]
@@ -288,6 +276,29 @@ def fit_lens_light(
         axis_ratio=float(p[3]), angle_deg=float(p[4] % 180.0), sky=float(p[7]), noise_sigma=noise,
         fit_radius_pix=rf, psf_fwhm_pix=float(2 * np.sqrt(2 * np.log(2)) * np.exp(p[8])), ok=True, notes=notes,
     )
+
+
+def _fit_grid(img: np.ndarray, cx0: float, cy0: float, rf: float, mask: np.ndarray | None):
+    """The fitted box around (cx0, cy0) of half-side ``rf``, binned f x f so its side stays within
+    :data:`MAX_FIT_SIDE`: binned means (NaN where no pixel is usable), pixel counts, the bins' centres
+    (image pixels) and f."""
+    ny, nx = img.shape
+    x0, x1 = max(0, int(cx0 - rf)), min(nx, int(cx0 + rf) + 2)
+    y0, y1 = max(0, int(cy0 - rf)), min(ny, int(cy0 + rf) + 2)
+    f = max(1, int(np.ceil(max(x1 - x0, y1 - y0) / MAX_FIT_SIDE)))
+    x1, y1 = x0 + (x1 - x0) // f * f, y0 + (y1 - y0) // f * f
+    cut = np.asarray(img[y0:y1, x0:x1], float)
+    ok = np.isfinite(cut)
+    if mask is not None:
+        ok &= ~np.asarray(mask, bool)[y0:y1, x0:x1]
+    sums = np.where(ok, cut, 0.0).reshape((y1 - y0) // f, f, (x1 - x0) // f, f).sum(axis=(1, 3))
+    cnt = ok.reshape((y1 - y0) // f, f, (x1 - x0) // f, f).sum(axis=(1, 3))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        binned = sums / cnt
+    gx = x0 + (np.arange(binned.shape[1]) + 0.5) * f - 0.5
+    gy = y0 + (np.arange(binned.shape[0]) + 0.5) * f - 0.5
+    xx, yy = np.meshgrid(gx, gy)
+    return binned, cnt, xx, yy, f
 
 
 def _finite(a: np.ndarray, fill: float) -> np.ndarray:
