@@ -494,7 +494,7 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
     # How far the refit moved the ring (both measured in circles) measures the lens-light model's pull on it:
     # part of that pull may remain, so a share of the move is added to the radius error.
     shift = second.radius_pix - first.radius_pix
-    second, light2 = _second_component(img, second, light2, mask, rmin, rmax, n_sectors, should_stop)
+    second, light2 = _second_component(img, second, light2, rmin, rmax, n_sectors, should_stop)
     if follow_shape:
         second = _follow_shape(second, light2.residual, second.center_x, second.center_y, rmin, rmax, n_sectors,
                                light2, list(light2.notes) + ["Lens light refitted with the ring masked."], should_stop,
@@ -503,7 +503,7 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
     return second
 
 
-def _second_component(img, ring, light, mask, rmin, rmax, n_sectors, should_stop):
+def _second_component(img, ring, light, rmin, rmax, n_sectors, should_stop):
     """``ring`` and ``light``, or, for a ring wider than :data:`MISFIT_WIDTH_PSF` seeing widths (one Sersic's misfit,
     a disc's or a PSF halo's leftover light, merged with the ring) where two Sersic components fit the light better
     with the ring masked (:func:`~lensmass.core.bulge_disc.bulge_and_disc`), the search on their residual."""
