@@ -71,7 +71,7 @@ def bulge_and_disc(image: np.ndarray, light: LensLightModel, *, mask: np.ndarray
     >>> len(two.components), round(two.psf_fwhm_pix, 1)
     (2, 3.0)
     """
-    if not light.ok:
+    if not (light.ok and light.total_flux > 0 and light.r_eff_pix > 0):  # nothing to split (a fit with no flux)
         return light
     img = np.asarray(image, float) if np.asarray(image).dtype.kind != "f" else np.asarray(image)
     cx0, cy0, rf, noise = light.center_x, light.center_y, light.fit_radius_pix, light.noise_sigma
