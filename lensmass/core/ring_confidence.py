@@ -217,8 +217,8 @@ def seen_error(fit_rms_pix: float, ring_width_pix: float, psf_fwhm_pix: float, *
 
     Examples
     --------
-    >>> round(seen_error(0.4, 10.0, 3.0), 3)  # hypot(0.5 * 0.4, 0.1 * 8)
-    0.825
+    >>> round(seen_error(0.4, 10.0, 3.0), 3)  # hypot(0.3 * 0.4, 0.1 * 8)
+    0.809
     """
     scatter = float(fit_rms_pix) if np.isfinite(fit_rms_pix) else 0.0
     width = float(ring_width_pix) if np.isfinite(ring_width_pix) else 0.0
