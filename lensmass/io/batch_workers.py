@@ -89,7 +89,10 @@ def run_parallel(todo, settings, workers, saver, progress) -> None:
     stop = context.RawValue("b", 0)
     with ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_init_worker,
                              initargs=(settings, stop, os.getpid())) as pool:
-        pending = {pool.submit(_run_chunk, c) for c in chunks}
+        # Blocks are handed out as workers free up (at most two per worker in flight), so when the run stops
+        # early only those few are queued: a full queue of blocks kept the parent waiting on its feeder.
+        queue = iter(chunks)
+        pending = {pool.submit(_run_chunk, c) for _, c in zip(range(2 * workers), queue)}
         try:
             while pending:
                 done, pending = wait(pending, return_when=FIRST_COMPLETED)
@@ -103,8 +106,10 @@ def run_parallel(todo, settings, workers, saver, progress) -> None:
                         ) from None
                     saver.add(recs)
                     progress(len(recs))
+                pending |= {pool.submit(_run_chunk, c) for _, c in zip(range(len(done)), queue)}
         except BaseException:
             for fut in pending:
                 fut.cancel()
             stop.value = 1
+            pool.shutdown(wait=False, cancel_futures=True)
             raise
