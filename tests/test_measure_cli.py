@@ -76,6 +76,25 @@ def test_measure_auto_ring(capsys):
     assert "ring finder" in r["method"]
 
 
+def test_auto_ring_masses_draw_theta_e_from_a_lone_arcs_interval(tmp_path, capsys):
+    # A lone arc of the project's generator (seed 520007, a tuning seed of the lone-arc interval): the finder
+    # states an asymmetric interval, and the masses' Monte Carlo must draw theta_E from it, as its `models`
+    # says (lensmass.core.ring_interval.interval_draws: the draws' 16th and 84th percentiles are the stated
+    # 1-sigma bounds). The command line's own estimate once drew a Gaussian of half the width instead.
+    from lensmass.core.realistic_fields import make_cutout
+    from lensmass.io.cutout_files import write_cutout_fits
+
+    path = write_cutout_fits(tmp_path / "tris_arc.fits", make_cutout(520007, "arc"))
+    code, out, _ = _run(capsys, "measure", str(path), "--auto-ring", "--accept-weak", "--zl", "0.4", "--zs", "1.5",
+                        "--json")
+    assert code == 0
+    d = json.loads(out)
+    lo1, hi1 = d["theta_e_low1_arcsec"], d["theta_e_high1_arcsec"]
+    assert hi1 - d["theta_e_arcsec"] > 1.5 * (d["theta_e_arcsec"] - lo1)  # asymmetric: wider above
+    assert d["intervals68"]["theta_e_arcsec"] == pytest.approx([lo1, hi1], rel=0.03)
+    assert "draws theta_E from it" in d["models"]["theta_e_arcsec"]
+
+
 def test_unreadable_file_missing_scale_and_too_few_points(tmp_path, capsys):
     bad = tmp_path / "broken.fits"
     bad.write_text("not a fits file at all\n" * 50)

@@ -85,8 +85,8 @@ def measure_from_args(args: argparse.Namespace) -> dict:
             raise LensInputError(f"The lens centre ({center[0]:.1f}, {center[1]:.1f}) is outside the {nx} x {ny} image; "
                                  "check --center (0-based column,row) or --center-sky.")
 
-    def run_estimate(theta, err):
-        return estimate_from_args(args, theta, err)
+    def run_estimate(theta, err, draws=None):  # draws: a lone arc's asymmetric interval (core.ring_interval)
+        return estimate_from_args(args, theta, err, theta_e_draws=draws)
 
     if args.auto_ring:
         max_r = None if args.max_radius is None else args.max_radius / image.pixel_scale_arcsec

@@ -318,8 +318,9 @@ def measure_theta_e_from_points(
 
 
 def _run_estimate(m: ThetaEMeasurement, z_l, z_s, estimate_options, estimate_fn) -> dict[str, Any]:
-    if estimate_fn is not None:
-        result = estimate_fn(m.theta_e_arcsec, m.theta_e_err_arcsec)
+    if estimate_fn is not None:  # the caller's estimate, with the same theta_E draws when the interval is asymmetric
+        draws = draw_options(None, m.theta_e_arcsec, m.theta_e_bounds_arcsec, m.asymmetric).get("theta_e_draws")
+        result = estimate_fn(m.theta_e_arcsec, m.theta_e_err_arcsec, draws)
     else:
         from lensmass.core.estimate import estimate
 
@@ -327,9 +328,15 @@ def _run_estimate(m: ThetaEMeasurement, z_l, z_s, estimate_options, estimate_fn)
             raise LensInputError("No lens redshift: give the lens redshift (`z_l`).")
         options = draw_options(estimate_options, m.theta_e_arcsec, m.theta_e_bounds_arcsec, m.asymmetric)
         result = estimate(m.theta_e_arcsec, z_l, z_s, theta_e_err=m.theta_e_err_arcsec, **options)
+    return with_measurement(result, m)
+
+
+def with_measurement(result: dict[str, Any], m: ThetaEMeasurement) -> dict[str, Any]:
+    """An estimate's result with the measurement's keys, notes and the words of where theta_E came from: the
+    one ending of every measured estimate (command line, batch runner, window)."""
     result = dict(result)
     result.update(m.keys())
-    result["notes"] = list(m.notes) + list(result.get("notes", []))
+    result["notes"] = list(m.notes) + [n for n in result.get("notes", []) if n not in m.notes]
     models = dict(result.get("models", {}))
     models["theta_e_arcsec"] = (f"measured on the image: {m.method}; error = fit + pixel-scale error in quadrature"
                                 + (ASYMMETRIC_NOTE if m.asymmetric else ""))
@@ -353,13 +360,15 @@ def measure_from_points(
     z_l: float | None = None,
     z_s: float | None = None,
     estimate_options: dict | None = None,
-    estimate_fn: Callable[[float, float], dict] | None = None,
+    estimate_fn: Callable[[float, float, np.ndarray | None], dict] | None = None,
 ) -> dict[str, Any]:
     """Marked points to a full :func:`~lensmass.core.estimate.estimate` result plus measurement keys.
 
     ``estimate_options`` go to ``estimate`` (cosmology, concentration, halo_definition,
     z_l_err, z_s_err, z_s_range, z_s_distribution, samples, seed); or pass
-    ``estimate_fn(theta_e, theta_e_err) -> dict`` to run the estimate your own way.
+    ``estimate_fn(theta_e, theta_e_err, theta_e_draws) -> dict`` to run the estimate your own way
+    (``theta_e_draws`` is None, or draws of theta_E to use instead of the Gaussian error when the
+    measurement's interval is asymmetric).
     Other parameters: see :func:`measure_theta_e_from_points`.
 
     Examples
@@ -442,7 +451,7 @@ def measure_theta_e_auto_ring(
     """
     if image is None:
         raise LensInputError("The ring finder needs an image: give the image file (or mark points instead).")
-    _, scale, scale_err, to_sky, data, notes = _geometry(image, pixel_scale_arcsec, pixel_scale_err_arcsec, None)
+    data = _geometry(image, pixel_scale_arcsec, pixel_scale_err_arcsec, None)[4]  # a missing pixel scale first
     if data is None:
         raise LensInputError("The ring finder needs the image pixels; open the image first.")
     cx, cy = (None, None) if center is None else center
@@ -459,6 +468,16 @@ def measure_theta_e_auto_ring(
     if not ring.found or (require_confident and not ring.confident):
         hint = f" {ring.center_hint}" if ring.center_hint else ""
         raise LensInputError(f"{ring.message}{hint} Mark points on the arcs instead (`points`).")
+    return measurement_of_ring(ring, image, pixel_scale_arcsec=pixel_scale_arcsec,
+                               pixel_scale_err_arcsec=pixel_scale_err_arcsec), ring
+
+
+def measurement_of_ring(ring, image, *, pixel_scale_arcsec: float | None = None,
+                        pixel_scale_err_arcsec: float | None = None) -> ThetaEMeasurement:
+    """A found ring (:class:`~lensmass.core.ring_result.RingResult`) as theta_E on the sky: its radius, error and
+    interval in arcsec, the centre used, the method in words. The window and :func:`measure_theta_e_auto_ring`
+    both turn the finder's answer into numbers here."""
+    _, scale, scale_err, to_sky, _, notes = _geometry(image, pixel_scale_arcsec, pixel_scale_err_arcsec, None)
     theta, err = theta_e_from_pixels(ring.radius_pix, ring.radius_err_pix, scale, scale_err)
     ra, dec = _sky(to_sky, ring.center_x, ring.center_y)
     notes = notes + [f"Lens centre ({ring.center_x:.2f}, {ring.center_y:.2f}) pixels: {ring.center_source}."]
@@ -472,15 +491,14 @@ def measure_theta_e_auto_ring(
     if np.isfinite(ring.angle_deg):
         pa = float(ring.angle_deg)
         notes.append("fit_position_angle_deg from the ring finder is measured in pixel axes (from +x towards +y).")
-    m = ThetaEMeasurement(theta, err, ring.center_x, ring.center_y, ra, dec, method, ring.fit_rms_pix * scale,
-                          int(ring.points_x.size), scale, ring.score, ring.confident,
-                          float(ring.axis_ratio) if np.isfinite(ring.axis_ratio) else None, pa,
-                          [[float(a), float(b)] for a, b in zip(ring.points_x, ring.points_y)], notes,
-                          "given by the user" if ring.center_source == "given"
-                          else f"ring finder's centre: {ring.center_source}",
-                          bounds_from_pixels(ring.radius_pix, interval_bounds(ring), scale, scale_err),
-                          getattr(ring, "interval_shape_pix", None) is not None)
-    return m, ring
+    return ThetaEMeasurement(theta, err, ring.center_x, ring.center_y, ra, dec, method, ring.fit_rms_pix * scale,
+                             int(ring.points_x.size), scale, ring.score, ring.confident,
+                             float(ring.axis_ratio) if np.isfinite(ring.axis_ratio) else None, pa,
+                             [[float(a), float(b)] for a, b in zip(ring.points_x, ring.points_y)], notes,
+                             "given by the user" if ring.center_source == "given"
+                             else f"ring finder's centre: {ring.center_source}",
+                             bounds_from_pixels(ring.radius_pix, interval_bounds(ring), scale, scale_err),
+                             getattr(ring, "interval_shape_pix", None) is not None)
 
 
 def measure_auto_ring(
@@ -494,7 +512,7 @@ def measure_auto_ring(
     z_l: float | None = None,
     z_s: float | None = None,
     estimate_options: dict | None = None,
-    estimate_fn: Callable[[float, float], dict] | None = None,
+    estimate_fn: Callable[[float, float, np.ndarray | None], dict] | None = None,
     mask: np.ndarray | None = None,
     progress: ProgressCallback = None,
     should_stop: StopCallback = None,
