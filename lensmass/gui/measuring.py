@@ -63,6 +63,21 @@ def measure_system(system, centre: tuple[float, float] | None, image: ImageState
                      tuple(n for n in m.notes if not n.startswith("No pixel-scale uncertainty")))
 
 
+def with_ring_answer(fit: SystemFit, measurement) -> SystemFit:
+    """The system's fit with theta_E, its error, interval and method taken from the ring finder's
+    measurement (:meth:`lensmass.gui.model.WindowModel.ring_measurement_for`); the drawn shape, the fit through
+    the marks, is scaled to that theta_E. A lone arc's theta_E lies inside the arc (a circle through it would
+    overstate theta_E), so its circle is drawn inside the arc."""
+    from dataclasses import replace
+
+    if measurement is None:
+        return fit
+    scale = float(measurement.theta_e_arcsec) / fit.theta_e_arcsec if fit.theta_e_arcsec > 0 else 1.0
+    return replace(fit, a_px=fit.a_px * scale, b_px=fit.b_px * scale, theta_e_arcsec=float(measurement.theta_e_arcsec),
+                   theta_e_err_arcsec=float(measurement.theta_e_err_arcsec), method=measurement.method, warnings=(),
+                   bounds_arcsec=measurement.theta_e_bounds_arcsec)
+
+
 def lens_subtracted(image: ImageState, centre: tuple[float, float]) -> np.ndarray:
     """The image with the lens light subtracted, for snapping: the fitted lens light if the user
     fitted it, else the command line's masked fit (:func:`lensmass.core.lenslight.fit_lens_light_masked`)
@@ -105,9 +120,12 @@ def masses_for_request(theta: float, theta_err: float, kwargs: dict) -> dict:
     model = kwargs.pop("lens_model_result", None)
     system = kwargs.pop("lens_model_system", None)
     note = kwargs.pop("lens_model_note", None)
+    found = kwargs.pop("ring_measurement", None)
     if model is not None:
         return _core("lens_model", "The lens model").masses_from_lens_model(model, system=system, **kwargs)
     result = _core("estimate", "Estimating masses").estimate(theta, theta_e_err=theta_err, **kwargs)
+    if found is not None:  # the ring finder's answer: the command line's keys, notes and words
+        result = _core("einstein", "Measuring theta_E").with_measurement(result, found)
     if note:
         result["notes"] = [note] + list(result.get("notes") or [])
     return result

@@ -94,12 +94,15 @@ class SystemFit:
     n_points: int
     method: str
     warnings: tuple[str, ...] = ()
+    #: -2, -1, +1, +2 sigma bounds of theta_E (arcsec) when theta_E is the ring finder's answer, else None
+    bounds_arcsec: tuple[float, float, float, float] | None = None
 
     def to_json(self) -> dict:
         return {"shape": self.shape, "center_x": self.center_x, "center_y": self.center_y, "a_px": self.a_px,
                 "b_px": self.b_px, "angle_deg": self.angle_deg, "theta_e_arcsec": self.theta_e_arcsec,
                 "theta_e_err_arcsec": self.theta_e_err_arcsec, "n_points": self.n_points, "method": self.method,
-                "warnings": list(self.warnings)}
+                "warnings": list(self.warnings),
+                **({} if self.bounds_arcsec is None else {"bounds_arcsec": list(self.bounds_arcsec)})}
 
 
 @dataclass
@@ -437,6 +440,9 @@ class WindowModel:
         fit = self.derived[system].fit
         if fit is None or self.image is None:
             return {}
+        found = self.ring_measurement_for(system)
+        if found is not None:  # the command line's keys of the same answer
+            return found.keys()
         held = self.session.centre
         source = (CENTRE_HOW_WORDS.get(held.how, CENTRE_HOW_WORDS["hand"]) if held is not None
                   else FITTED_CENTRE_WORDS.get(fit.shape, FITTED_CENTRE_WORDS["circle"]))
@@ -478,7 +484,44 @@ class WindowModel:
         if self.lens_model is not None:
             kwargs["lens_model_note"] = ("A lens model was fitted to other marks than these: theta_E here is the "
                                          "circle fit again; refit the lens model (Lens model dock) to use it.")
+        found = self.ring_measurement_for(index)
+        if found is not None:  # the ring finder's answer, as measure --auto-ring uses it
+            from lensmass.core.ring_interval import draw_options
+
+            kwargs = draw_options(kwargs, found.theta_e_arcsec, found.theta_e_bounds_arcsec, found.asymmetric)
+            kwargs["ring_measurement"] = found
+            return found.theta_e_arcsec, found.theta_e_err_arcsec, kwargs
         return d.fit.theta_e_arcsec, d.fit.theta_e_err_arcsec, kwargs
+
+    def set_ring_answer(self, system: int, measurement) -> None:
+        """Keep the ring finder's answer (a :class:`lensmass.core.einstein.ThetaEMeasurement`) for the marks it
+        put on ``system``: theta_E, its interval and method stand for that system while those marks are unchanged
+        (:meth:`ring_measurement_for`); saved with the session."""
+        from dataclasses import asdict
+
+        def plain(v):  # JSON values for the session file (numpy scalars to Python ones)
+            return [plain(x) for x in v] if isinstance(v, (list, tuple)) else v.item() if isinstance(v, np.generic) else v
+
+        marks = [list(map(float, p)) for p in self.session.arcs[system].points]
+        self.session.ring = {"system": self.session.arcs[system].name, "points": marks,
+                             "measurement": {k: plain(v) for k, v in asdict(measurement).items()}}
+
+    def ring_measurement_for(self, index: int):
+        """The ring finder's measurement if system ``index`` holds exactly the marks the finder put there, else None."""
+        ring = self.session.ring
+        if not ring or index >= len(self.session.arcs) or self.image is None:
+            return None
+        arc = self.session.arcs[index]
+        found = ring.get("points") or []
+        if (arc.name != ring.get("system") or arc.images or len(arc.points) != len(found) or not found
+                or not np.allclose(np.asarray(arc.points, float), np.asarray(found, float), atol=1e-6)):
+            return None
+        from lensmass.core.einstein import ThetaEMeasurement
+
+        values = dict(ring["measurement"])
+        if values.get("theta_e_bounds_arcsec") is not None:
+            values["theta_e_bounds_arcsec"] = tuple(values["theta_e_bounds_arcsec"])
+        return ThetaEMeasurement(**values)
 
     def lens_model_for(self, index: int) -> dict | None:
         """The lens model if it was fitted to exactly the current marks and includes system ``index``, else None."""

@@ -46,6 +46,10 @@ def result_text(model: WindowModel) -> str:
     if result.get("theta_e_from") == "lens model":
         shown = round_measured(result["theta_e_arcsec"], result["theta_e_err_arcsec"]).plain("+-")
         head.append(f"theta_E = {shown} arcsec from the lens model")
+    elif fit is not None and fit.bounds_arcsec is not None:
+        from lensmass.core.ring_interval import interval_text
+
+        head.append(f"theta_E = {interval_text(fit.theta_e_arcsec, fit.bounds_arcsec, 'arcsec', 3)} from the {fit.method}")
     elif fit is not None:
         head.append(f"theta_E = {theta_e_text(fit, '+-')} arcsec from a {fit.method}")
     if centre_text(result):
@@ -159,12 +163,15 @@ class ResultsPanel(QWidget):
             tip = models.get(key, "")
             if key == "theta_e_arcsec" and fit is not None and result.get("theta_e_from") != "lens model":
                 tip = f"{fit.method}; {fit.n_points} marks; pixel scale from the image"
+                if fit.bounds_arcsec is not None:
+                    tip = models.get(key, fit.method)
             self.names[key].setToolTip(tip)
             self.values[key].setToolTip(tip)
         n = result.get("mc_samples")
         self.status.setText(f"System {m.active_system.name}: {result.get('cosmology', '')}"
                             + (f", {n} Monte Carlo draws" if n else ", no uncertainties given")
                             + ("; theta_E from the lens model" if result.get("theta_e_from") == "lens model"
+                               else "; theta_E from the ring finder" if fit is not None and fit.bounds_arcsec is not None
                                else "; theta_E from the circle fit"))
         self.status.setStyleSheet("")
         where = centre_text(result)

@@ -64,7 +64,8 @@ class WindowExportMixin:
         inputs = {}
         for i, (s, d) in enumerate(zip(self.model.systems, self.model.derived)):
             if d.result is not None and d.fit is not None:
-                inputs[s.name] = {**inputs_from_session(session, i, d.fit.theta_e_arcsec, d.fit.theta_e_err_arcsec),
+                inputs[s.name] = {**inputs_from_session(session, i, d.fit.theta_e_arcsec, d.fit.theta_e_err_arcsec,
+                                                        theta_e_bounds=d.fit.bounds_arcsec),
                                   "theta_E fit": d.fit.method}
         try:
             written = write_results(path, self._named_results(), inputs)
@@ -103,7 +104,7 @@ class WindowExportMixin:
                 continue
             cut, overlay = self._report_cutout(d.fit, system)
             inputs = inputs_from_session(session, i, d.fit.theta_e_arcsec, d.fit.theta_e_err_arcsec,
-                                         Path(m.image.path).name)
+                                         Path(m.image.path).name, theta_e_bounds=d.fit.bounds_arcsec)
             pages.append(SystemPage(system.name, cut, overlay, inputs, d.result))
         if left_out and pages:  # said on the first page, so a missing system is never silent
             first = pages[0]

@@ -168,6 +168,14 @@ class WindowTasksMixin:
         for x, y in zip(xs, ys):
             self.undo_stack.push(AddMark(m, "point", m.active, (float(x), float(y))))
         self.undo_stack.endMacro()
+        from lensmass.core.einstein import measurement_of_ring
+
+        try:  # theta_E of these marks is the finder's answer, as on the command line, until they are edited
+            m.set_ring_answer(m.active, measurement_of_ring(ring, m.image.loaded))
+            self._refit_all()
+            self.request_estimate()
+        except LensInputError:  # no pixel scale yet: the marks are measured as marks
+            pass
         confidence = "confident" if ring.confident else "not confident: check the marks"
         hint = f" {ring.center_hint}" if getattr(ring, "center_hint", "") else ""
         about_ring = next((w for key in ("barely resolved", "single arc", "Two arcs", "Refitting")

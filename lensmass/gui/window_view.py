@@ -157,7 +157,8 @@ class WindowViewMixin:
             fit, problem = None, None
             if m.image is not None:
                 try:
-                    fit = measuring.measure_system(system, m.centre, m.image)
+                    fit = measuring.with_ring_answer(measuring.measure_system(system, m.centre, m.image),
+                                                     m.ring_measurement_for(i))
                 except LensInputError as exc:
                     problem = str(exc)
             else:
@@ -185,7 +186,11 @@ class WindowViewMixin:
         self.canvas.system_names = {i: s.name for i, s in enumerate(m.systems)}
         self.canvas.update()
         fit = m.fit
-        if fit is not None:
+        if fit is not None and fit.bounds_arcsec is not None:  # the ring finder's interval, as it states it
+            from lensmass.core.ring_interval import interval_text
+
+            self.fit_label.setText(f"θE = {interval_text(fit.theta_e_arcsec, fit.bounds_arcsec, 'arcsec')}\n{fit.method}")
+        elif fit is not None:
             shown = round_measured(fit.theta_e_arcsec, fit.theta_e_err_arcsec).plain("±")
             self.fit_label.setText(f"θE = {shown}″\n{fit.method}")
         else:

@@ -366,8 +366,10 @@ def render_report(path: str | os.PathLike, image_cutout: np.ndarray | None, over
 
 
 def inputs_from_session(session, arc: int | str = 0, theta_e_arcsec: float | None = None,
-                        theta_e_err: float | None = None, image_name: str | None = None) -> dict[str, str]:
-    """The 'inputs' block of the report for a :class:`lensmass.io.session.Session`."""
+                        theta_e_err: float | None = None, image_name: str | None = None,
+                        theta_e_bounds=None) -> dict[str, str]:
+    """The 'inputs' block of the report for a :class:`lensmass.io.session.Session`; ``theta_e_bounds`` (-2, -1, +1,
+    +2 sigma, arcsec): the ring finder's interval, written as the window and the command line write it."""
     s = session
     system = s.arc(arc)
     rows: dict[str, str] = {}
@@ -380,7 +382,11 @@ def inputs_from_session(session, arc: int | str = 0, theta_e_arcsec: float | Non
         rows["lens centre"] = f"({s.centre.x:.1f}, {s.centre.y:.1f}) px, {'by hand' if s.centre.how == 'hand' else 'found'}"
     rows["arc system"] = (f"{system.name}: {len(system.points)} points, {system.shape} fit"
                           + (f", {len(system.images)} images" if system.images else ""))
-    if theta_e_arcsec is not None:
+    if theta_e_arcsec is not None and theta_e_bounds is not None:  # the finder's interval, in two rows that fit
+        lo2, lo1, hi1, hi2 = theta_e_bounds
+        rows["theta_E measured"] = f"{theta_e_arcsec:.3f} arcsec, 1 sigma {lo1:.3f}-{hi1:.3f}"
+        rows["theta_E 2 sigma"] = f"{lo2:.3f}-{hi2:.3f} arcsec (ring finder)"
+    elif theta_e_arcsec is not None:
         from lensmass.core.result_text import round_measured
 
         rows["theta_E measured"] = f"{round_measured(theta_e_arcsec, theta_e_err).plain('±')} arcsec"

@@ -127,3 +127,45 @@ def test_window_and_command_line_state_a_lone_arcs_asymmetric_interval(qtbot, ma
     assert m.asymmetric and m.theta_e_bounds_arcsec[2] - m.theta_e_arcsec > 1.5 * (m.theta_e_arcsec
                                                                                    - m.theta_e_bounds_arcsec[1])
     assert set(BOUND_KEYS) <= set(m.keys())
+
+
+def test_numbers_of_a_found_lone_arc_are_the_command_lines_until_its_marks_change(qtbot, make_window, tmp_path,
+                                                                                    capsys):
+    # The same lone arc (seed 520007): the Numbers panel must show the finder's theta_E and interval, not a circle
+    # through the arc's ridge (which lies outside the critical curve: a circle through a lone arc overstates
+    # theta_E, Narayan & Bartelmann 1996, common practice), and its masses must be the command line's: theta_E
+    # drawn from the same asymmetric interval, with the same words of where it came from. A mark the user adds
+    # makes the marks their own: the circle fit again.
+    import json
+
+    from lensmass.cli import main
+    from tests.gui.conftest import type_into, wait_for_result
+
+    path = write_cutout_fits(tmp_path / "tris_arc.fits", make_cutout(520007, "arc"))
+    assert main(["measure", str(path), "--auto-ring", "--accept-weak", "--zl", "0.4", "--zs", "1.5", "--json"]) == 0
+    cli = json.loads(capsys.readouterr().out)
+    window = make_window(load_panels=True)
+    assert window.open_path(str(path))
+    window.canvas.fit_to_window()
+    type_into(qtbot, window, "z_l", "0.4")
+    type_into(qtbot, window, "z_s", "1.5")
+    ring = _find_ring(qtbot, window)
+    result = wait_for_result(qtbot, window, 60000)
+    panel = window.results_panel
+    assert "theta_E from the ring finder" in panel.status.text()
+    assert result["theta_e_arcsec"] == pytest.approx(cli["theta_e_arcsec"], rel=1e-9)
+    assert result["models"]["theta_e_arcsec"] == cli["models"]["theta_e_arcsec"]
+    assert result["intervals68"]["theta_e_arcsec"] == pytest.approx(cli["intervals68"]["theta_e_arcsec"], rel=0.03)
+    assert result["theta_e_high1_arcsec"] == pytest.approx(cli["theta_e_high1_arcsec"], rel=1e-9)
+    shown = float(panel.values["theta_e_arcsec"].text())
+    assert shown == pytest.approx(cli["theta_e_arcsec"], abs=0.06)
+    fit = window.model.fit
+    assert fit.a_px * cli["pixel_scale_arcsec"] == pytest.approx(cli["theta_e_arcsec"])  # the circle drawn at theta_E
+    marks = np.asarray(window.model.active_system.points, float)
+    arc_radius = np.median(np.hypot(marks[:, 0] - fit.center_x, marks[:, 1] - fit.center_y))
+    assert arc_radius * cli["pixel_scale_arcsec"] > 1.15 * cli["theta_e_arcsec"]  # a circle through them: too large
+    x, y = ring.points_x[0], ring.points_y[0]
+    click_image(qtbot, window, float(x) + 0.7, float(y) + 0.7)  # one more mark of the user's own
+    wait_idle(qtbot, window, 60000)
+    assert "theta_E from the circle fit" in panel.status.text()
+    assert window.model.result["theta_e_arcsec"] == pytest.approx(window.model.fit.theta_e_arcsec)

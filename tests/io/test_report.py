@@ -185,3 +185,14 @@ def test_overlay_marks_sit_in_full_image_pixels():
     length_px = np.ptp(bar.get_xdata())
     label = [t.get_text() for t in ax.texts if t.get_text().endswith('"')][0]
     assert length_px * 0.1 == pytest.approx(float(label[:-1]))
+
+
+def test_a_ring_finders_interval_is_written_whole(scene):
+    # The ring finder states theta_E with a 1- and 2-sigma interval (asymmetric for a lone arc,
+    # lensmass.core.ring_interval); the report's inputs give both bounds, not a symmetric error.
+    *_, _inputs, _result = scene
+    session = Session(z_l=0.38, arcs=[ArcSystem("A", z_s=1.4, points=[(1.0, 2.0), (3.0, 4.0), (5.0, 1.0)])])
+    rows = inputs_from_session(session, 0, 1.787, 0.8, theta_e_bounds=(0.883, 1.435, 3.036, 4.487))
+    assert rows["theta_E measured"] == "1.787 arcsec, 1 sigma 1.435-3.036"
+    assert rows["theta_E 2 sigma"] == "0.883-4.487 arcsec (ring finder)"
+    assert "±" in inputs_from_session(session, 0, 1.787, 0.05)["theta_E measured"]
