@@ -169,3 +169,28 @@ def test_numbers_of_a_found_lone_arc_are_the_command_lines_until_its_marks_chang
     wait_idle(qtbot, window, 60000)
     assert "theta_E from the circle fit" in panel.status.text()
     assert window.model.result["theta_e_arcsec"] == pytest.approx(window.model.fit.theta_e_arcsec)
+
+
+def test_a_found_rings_answer_is_saved_with_the_session(tmp_path):
+    # The finder's measurement travels with the session file (Session.ring) and applies again on reopening while
+    # the marks are the finder's; plain JSON (RFC 8259) after numpy scalars are made Python ones.
+    from types import SimpleNamespace
+
+    from lensmass.core.einstein import ThetaEMeasurement
+    from lensmass.gui.model import WindowModel
+    from lensmass.io.session import load_session, save_session
+
+    model = WindowModel()
+    model.session.arcs[0].points = [(10.0, 12.0), (14.0, 9.5), (18.0, 12.0)]
+    found = ThetaEMeasurement(1.2, 0.1, 14.0, 14.0, None, None, "automatic ring finder (arcs)", 0.05, 3, 0.2,
+                              np.float64(9.5), np.bool_(False), None, None, [[10.0, 12.0]], ["a note"], "found",
+                              (0.8, 1.0, 1.6, 2.0), True)
+    model.set_ring_answer(0, found)
+    path = save_session(tmp_path / "s.json", model.to_session())
+    again = WindowModel()
+    again.load_session(load_session(path))
+    again.image = SimpleNamespace()  # ring_measurement_for needs an open image
+    back = again.ring_measurement_for(0)
+    assert back == ThetaEMeasurement(**{**vars(found), "ring_score": 9.5, "ring_confident": False})
+    again.session.arcs[0].points[1] = (14.0, 9.0)  # a moved mark: the user's marks now
+    assert again.ring_measurement_for(0) is None
