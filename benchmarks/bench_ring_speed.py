@@ -45,6 +45,14 @@ Where the fits' time goes on this field: 120 model and 90 Jacobian evaluations i
 masked) takes 80 and 58 of them, its third clipping round stopping at the 50-evaluation limit unconverged with
 n and the PSF width on their lower bounds (0.4; 0.2 px): ~0.1 s CPU for a fit that only places the refit's ring
 mask; the refit (started from it) converges in 40.
+h14y (2026-12-03, a newer machine: one bincount 0.038 s CPU where it had been 0.072): main 0.236-0.243 s CPU best
+(x6.0-6.3 bincounts; the 0.72-0.90 s of the stop before was that machine's load, nothing had grown); time: lens-light
+fits 50% (Jacobians 20%), ring searches 21%, masks (photutils segmentation) 16%, shape pass 7%, sky 3%. Merged: the
+exact changes (one cached threadpoolctl controller, border_sky cutting the rim first, b_n's derivative): 0.219/0.232
+-> 0.207/0.221 s CPU best, x5.6-5.7 bincounts, radius identical. The target is met (x0.4-0.5 of 0.5 s). Not merged:
+the first fit stopped at ftol 1e-4 (0.18 s, x4.6-4.7) moved fragile later choices both ways and lost 4 of 72 hard
+stress rings on check seeds 598000-598399; the first fit's n = 0.4-0.5 is the best single Sersic of galaxy plus ring,
+not a bad start (started at n = 3 or 4 it reaches 0.41 in one step).
 Earlier (h14f): 0.45-0.49 s against 0.90-1.03 s at load 1.5-2.4 (the Levenberg-Marquardt solver, the
 Jacobian reusing the model's powers, the refit starting from the first fit, MINPACK ridge fits first).
 """
