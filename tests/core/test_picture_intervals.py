@@ -9,7 +9,6 @@ truth must lie inside its stated 2-sigma interval (lensmass.core.ring_interval.t
 from __future__ import annotations
 
 import numpy as np
-import pytest
 
 from lensmass.core.ring_interval import truth_inside
 from lensmass.core.ringfinder import find_ring
