@@ -95,3 +95,23 @@ def test_ring_as_red_as_the_lens_carries_the_missing_colour_in_its_error(tmp_pat
     assert any("No arc bluer than the lens" in w for w in out.warnings)
     assert out.radius_err_pix >= GREY_FALLBACK_SYSTEMATIC * out.radius_pix
     assert truth_inside(out, RADIUS, 2)
+
+
+def test_picture_clipped_about_the_sky_reports_no_ring(tmp_path):
+    """astropy's ZScaleInterval (the IRAF zscale algorithm: a display range a few noise sigma about the sky) clips the
+    lens, the ring and the neighbour in every band: the colours that tell arcs from lens light are lost, and the finder
+    says so instead of answering (:data:`~lensmass.core.ring_pictures.COLOUR_LOST_MAX_SHARE`)."""
+    from astropy.visualization import AsinhStretch, ZScaleInterval, make_rgb
+    from PIL import Image
+
+    from lensmass.core.einstein import picture_options
+    from lensmass.core.ring_pictures import COLOUR_LOST_MAX_SHARE, colour_lost_share
+
+    g, r, i = _bands(582003)
+    path = str(tmp_path / "zscale.png")
+    Image.fromarray(make_rgb(i, r, g, interval=ZScaleInterval(), stretch=AsinhStretch(0.1)), "RGB").save(path)
+    image = load_image(path)
+    c = (SIZE - 1) / 2
+    assert colour_lost_share(image.rgb, c, c, 0.5 * c) > COLOUR_LOST_MAX_SHARE
+    out = find_ring(image.data, **picture_options(image))
+    assert not out.found and "gentler stretch" in out.message
