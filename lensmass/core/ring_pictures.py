@@ -348,13 +348,14 @@ def _refuse_colour_lost(out: RingResult, rgb: np.ndarray, cx: float, cy: float, 
     """No ring reported on a colour picture that lost the colour of more than :data:`COLOUR_LOST_MAX_SHARE` of its
     pixels within half the search radius (``rmax``) to clipping, saying why."""
     share = colour_lost_share(rgb, cx, cy, 0.5 * rmax)
-    if out.found and share > COLOUR_LOST_MAX_SHARE:
-        out.warnings.append(f"The picture's display stretch clipped {share:.0%} of the pixels around the lens in one band "
-                            f"or more (a candidate at {out.radius_pix:.1f} pixels was seen): the colours that tell arcs "
-                            "from the lens light are lost there.")
-        out.found, out.kind = False, "none"
-        out.message = ("No ring measured: this picture's stretch clips the lens surroundings in its bands (a display "
-                       "range close to the sky); open a FITS band, or a picture with a gentler stretch.")
+    if share <= COLOUR_LOST_MAX_SHARE:
+        return out
+    seen = f" (a candidate at {out.radius_pix:.1f} pixels was seen)" if out.found else ""
+    out.warnings.append(f"The picture's display stretch clipped {share:.0%} of the pixels around the lens in one band or "
+                        f"more{seen}: the colours that tell arcs from the lens light are lost there.")
+    out.found, out.kind = False, "none"
+    out.message = ("No ring measured: this picture's stretch clips the lens surroundings in its bands (a display range "
+                   "close to the sky); open a FITS band, or a picture with a gentler stretch.")
     return out
 
 
