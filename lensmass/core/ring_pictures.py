@@ -66,9 +66,9 @@ COLOUR_CORE_PIX = 6.0
 #: 580000-580209 (every kind) and 581000-581089 (hard rings), the colour route's rings off by more than 15% had a
 #: median spread of 3.9% of the radius, those within 15% 1.0%. Tuning seeds, all 233 found (colour route and grey
 #: fallback, :data:`GREY_FALLBACK_SYSTEMATIC` 0.2), truth inside 1/2 sigma and median stated relative error: share 1
-#: 67%/88% 26%, 1.5 69%/89% 27%, 2.2 70%/91% 29%, 3 70%/92% 30% (offline, from the recorded error parts). 2.2 gave 89% inside 2 sigma on the check seeds
-#: 585000-585209/586000-586089 (226 found), so the tuning target was raised to 92% (room for the sample's noise) and
-#: 3 chosen on the tuning seeds.
+#: 67%/88% 26%, 1.5 69%/89% 27%, 2.2 70%/91% 29%, 3 70%/92% 30% (offline, from the recorded error parts). 2.2 gave
+#: 89% inside 2 sigma on the check seeds 585000-585209/586000-586089 (226 found), so the tuning target was raised to
+#: 92% (room for the sample's noise) and 3 chosen on the tuning seeds; check seeds with 3: 68%/91%.
 STRENGTH_SPREAD_SHARE = 3.0
 #: Systematic fractional radius error of a colour picture's ring measured on its grey values because its arc image
 #: showed no arc bluer than the lens (:func:`_colour_search`'s fallback): the colour that tells arcs from the lens
