@@ -482,8 +482,9 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
             return first
         if not follow_shape:
             return first
-        return _follow_shape(first, light.residual, first.center_x, first.center_y, rmin, rmax, n_sectors, light,
-                             list(light.notes), should_stop, ring_search=_search)
+        ring, fit = _second_component(img, first, light, rmin, rmax, n_sectors, should_stop) if light.ok else (first, light)
+        return _follow_shape(ring, fit.residual, ring.center_x, ring.center_y, rmin, rmax, n_sectors, fit,
+                             list(fit.notes), should_stop, ring_search=_search)
 
     report(progress, 0.45)
     if not first.found or not light.ok:
