@@ -34,8 +34,8 @@ Method (our own):
    their mean radius; a lone arc on one side gives theta_E by the one lone-arc rule (:mod:`lensmass.core.lone_arc`). The lens
    light is refitted with the ring masked and the search repeated (the second answer replaces the
    first when it finds the ring at the same radius; on the FITS route, for a ring, only within 2% of it, a larger
-   move being the refit's misfit merged with the ring, unless the first fit spread over the ring). A partial ring is then searched again in
-   elliptical annuli of the shape that makes it sharpest (:mod:`lensmass.core.elliptical_annuli`,
+   move being the refit's misfit merged with the ring, unless the first fit spread over the ring). A partial ring
+   is then searched again in elliptical annuli of the shape that makes it sharpest (:mod:`lensmass.core.elliptical_annuli`,
    radius sqrt(q x'^2 + y'^2 / q), the SIE's intermediate-axis theta_E), kept when it ranks higher.
 4. In each sector where the ring is detected (3 sigma), the ridge radius is measured on the
    profile weighted by sqrt(r) (undoing the inward shift of a blurred ring, see
@@ -143,12 +143,12 @@ MISFIT_MASK_SHARE = 0.2
 MISFIT_MIN_MOVE = 0.05
 #: The refit (ring masked) replaces a ring only when it moves it by at most this share of its radius; a larger
 #: move is its misfit (:func:`_two_pass_search`), and the FITS route keeps the first fit's ring, the move added to
-#: its error. Hard rings (a neighbour or a star, theta_E >= 2.5 FWHM), tuning seeds 570000-570169 (h14w), within
-#: 5% with the refit's ring / this rule (any first answer): stress fields 64 / 76 of 129, our generator 84 / 85 of
-#: 100 (confident lens rings 55 / 57; always the first fit's ring: 78 and 84, but 51 confident, its seeing taken
-#: from the refit). For rings only (the first answer seen in RING_COVERAGE of the directions), stress tuning seeds
-#: 571000-571209 (210 lenses of every kind), refit's answer / any first answer / rings only: within 5% 43% / 42% /
-#: 45%, scatter 8.1% / 8.0% / 7.0%, rings 61% / 60% / 66% of 90 (hard 570000-570169: 64 / 78 / 71 of 129).
+#: its error (h14w). Tuning seeds: hard rings (a neighbour or a star, theta_E >= 2.5 FWHM) 570000-570169, within
+#: 5% with the refit's ring / the first fit's for any first answer / for rings only: stress fields 64 / 76 / 71 of
+#: 129, our generator 84 / 85 / - of 100; stress 571000-571209 (210 lenses of every kind): 43% / 42% / 45%, scatter
+#: 8.1% / 8.0% / 7.0%, rings 61% / 60% / 66% of 90. Check seeds, main -> rings only: stress 575000-575509 all lenses
+#: 40% -> 40% (any first answer: 37%, quads and folds lost), hard rings 57% -> 57% of 51; stress hard rings
+#: 578000-578169 53% -> 53% of 129 (any first answer 57%); ours 576000-576399 54% -> 56%, 577000-577149 hard 85% -> 86%.
 REFIT_MAX_MOVE = 0.02
 #: A first lens-light fit with a Sersic index below this, flatter than an exponential disc (lens galaxies are n ~ 2-8,
 #: discs n ~ 1: common practice), has spread its flat top over the ring, and the ring-masked refit's ring is taken
@@ -516,8 +516,8 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
     # How far the refit moved the ring (both measured in circles) measures the lens-light model's pull on it:
     # part of that pull may remain, so a share of the move is added to the radius error.
     shift = second.radius_pix - first.radius_pix
-    moved = abs(shift) > REFIT_MAX_MOVE * first.radius_pix
-    if follow_shape and first.kind == "ring" and moved and not _spread_over_ring(light, first.radius_pix):
+    refit_moved = abs(shift) > REFIT_MAX_MOVE * first.radius_pix
+    if follow_shape and first.kind == "ring" and refit_moved and not _spread_over_ring(light, first.radius_pix):
         # The refit moved the ring: with the ring masked, one Sersic is free to drop light under it that it cannot
         # follow (a disc's, a PSF halo's), which merges with the ring all round and pulls it inward and wider; the
         # robust (soft-L1) first fit gives the ring's pixels little weight. Unless that fit spread over the ring, the
@@ -527,6 +527,9 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
         ring = _follow_shape(ring, fit.residual, ring.center_x, ring.center_y, rmin, rmax, n_sectors, fit,
                              list(fit.notes), should_stop, ring_search=_search)
         ring.radius_err_pix = float(np.hypot(ring.radius_err_pix, REFIT_SHIFT_SYSTEMATIC * shift))
+        ring.warnings.append(f"Refitting the lens light with the ring masked moved the ring by {shift:+.2f} pixels, "
+                             "as a galaxy's light the model cannot follow, left under the ring, does; the first fit's "
+                             f"ring is kept, with {REFIT_SHIFT_SYSTEMATIC:.0%} of that move in its error.")
         return ring
     second, light2 = _second_component(img, second, light2, rmin, rmax, n_sectors, should_stop)
     if follow_shape:
