@@ -52,7 +52,10 @@ def _start(tmp_path):
     out = tmp_path / "r.ecsv"
     proc = subprocess.Popen([sys.executable, "-m", "lensmass.cli", "batch", str(manifest), "--out", str(out),
                              "--workers", "2", "--samples", "300", "--no-progress"], cwd=REPO,
-                            stderr=subprocess.PIPE, text=True, start_new_session=True)
+                            stderr=subprocess.PIPE, text=True, start_new_session=True,
+                            # as a terminal starts it: Ctrl-C not ignored even when the tests run under nohup
+                            # (a background job inherits SIGINT ignored, and Python then installs no handler)
+                            preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL))
     deadline = time.monotonic() + 60
     workers: set[int] = set()
     while time.monotonic() < deadline and len(workers) < 2:

@@ -68,6 +68,8 @@ def _start_after_first_paint(window, image, opened_name: str, paints: int, tries
     window.light_on_open_pending = None
     if not shown:
         return  # closed (or never shown): nobody to show the residual to
+    if image.lens_light is not None or window.tasks.busy:
+        return  # the user's own work came first (the ring finder fits the lens light too): never overwrite it
     if window.fit_lens_light(then_layer="residual", automatic=True):
         window.show_message(f"Opened {opened_name}: fitting the central galaxy's light to show the arcs in the "
                             "residual (Esc cancels; the Measure menu turns this off).", 0)

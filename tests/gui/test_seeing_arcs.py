@@ -155,3 +155,22 @@ def test_a_window_closed_before_its_first_paint_starts_no_fit(qtbot, window):
     window.close()
     qtbot.wait(300)
     assert not window.tasks.busy and not workers._RUNNING
+
+
+def test_the_automatic_fit_never_overwrites_a_ring_found_first(qtbot, make_window):
+    # On a slow machine the user can click "Find the ring" before the window's first paint starts the automatic
+    # lens-light fit; the finder fits the light itself, so the late automatic fit must not run, switch the view and
+    # replace the finder's message.
+    from lensmass.gui.light_on_open import _start_after_first_paint
+
+    window = make_window()
+    window.settings.setValue("view/light_on_open", False)  # the late start is made by hand below
+    path, _ = demo_field("tris_ring_a")
+    assert window.open_path(str(path))
+    qtbot.mouseClick(window.ring_button, Qt.LeftButton)
+    wait_idle(qtbot, window, 60000)
+    said, layer = window.statusBar().currentMessage(), window.model.display.layer
+    assert "found at" in said and window.model.image.lens_light is not None
+    _start_after_first_paint(window, window.model.image, path.name, paints=-1, tries=0)  # the late automatic start
+    assert not window.tasks.busy
+    assert window.statusBar().currentMessage() == said and window.model.display.layer == layer
