@@ -166,9 +166,17 @@ def _method_text(result: Mapping[str, Any]) -> str:
     mc = result.get("mc_samples")
     unc = (f"Uncertainties: {mc} Monte Carlo draws of the inputs (seed {result.get('mc_seed')}); intervals are "
            "the 16th-84th percentiles (68%)." if mc else "No input uncertainty was given, so no interval is quoted.")
+    if str(result.get("method", "")).startswith("automatic ring finder"):
+        how = ("The Einstein radius is the automatic ring finder's: the radius of the circle (or the equal-area radius "
+               "of the ellipse) through the ring's ridge in the lens-subtracted image, or for a lone arc its radius "
+               "scaled by the calibrated spread of theta_E over lone arcs (an asymmetric interval). ")
+    elif result.get("theta_e_from") == "lens model":
+        how = "The Einstein radius is the lens model's, fitted to the marked images and arcs. "
+    else:
+        how = ("The Einstein radius is the radius of the circle (or the equal-area radius of the ellipse) fitted to "
+               "the marked arc points about the lens centre. ")
     return (
-        "The Einstein radius is the radius of the circle (or the equal-area radius of the ellipse) fitted to the "
-        "marked arc points about the lens centre. Angular-diameter distances follow Hogg (1999) in the stated "
+        how + "Angular-diameter distances follow Hogg (1999) in the stated "
         "cosmology. The critical density is c^2 D_s / (4 pi G D_l D_ls) and the mass inside the Einstein radius, "
         "pi Sigma_cr R_E^2, holds for any axisymmetric lens. The SIS dispersion solves "
         "theta_E = 4 pi (sigma/c)^2 D_ls / D_s; the NFW halo is the one whose mean convergence inside theta_E is "

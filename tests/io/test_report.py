@@ -196,3 +196,14 @@ def test_a_ring_finders_interval_is_written_whole(scene):
     assert rows["theta_E measured"] == "1.787 arcsec, 1 sigma 1.435-3.036"
     assert rows["theta_E 2 sigma"] == "0.883-4.487 arcsec (ring finder)"
     assert "±" in inputs_from_session(session, 0, 1.787, 0.05)["theta_E measured"]
+
+
+def test_the_method_paragraph_says_where_theta_e_came_from(scene):
+    # The report's method paragraph must match how theta_E was measured: the marks' circle fit, or the ring finder
+    # (the same words as its `method`, lensmass.core.einstein.measurement_of_ring).
+    from lensmass.io.report import _method_text
+
+    *_, result = scene
+    assert "fitted to the marked arc points" in _method_text(result)
+    found = _method_text({**result, "method": "automatic ring finder (arcs; circle through the ridge)"})
+    assert "automatic ring finder's" in found and "marked arc points" not in found
