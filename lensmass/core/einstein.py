@@ -482,7 +482,7 @@ def measurement_of_ring(ring, image, *, pixel_scale_arcsec: float | None = None,
     ra, dec = _sky(to_sky, ring.center_x, ring.center_y)
     notes = notes + [f"Lens centre ({ring.center_x:.2f}, {ring.center_y:.2f}) pixels: {ring.center_source}."]
     notes += list(ring.warnings)
-    if not ring.confident:
+    if not ring.confident and not np.isfinite(ring.lone_arc_radius_pix):  # a lone arc's warning says it all
         notes.append(ring.message)
     shape = "ellipse through the ridge, theta_E = sqrt(a b)" if ring.axis_ratio < 1.0 else "circle through the ridge"
     method = f"automatic ring finder ({ring.kind}; {shape}; lens light: "

@@ -26,7 +26,7 @@ from typing import Any, Mapping, Sequence
 
 import numpy as np
 
-from lensmass.core.result_keys import RESULT_KEYS, fact, keys_in
+from lensmass.core.result_keys import MODEL_NOTE, RESULT_KEYS, fact, keys_in
 from lensmass.io.report_format import _mathtext_safe, format_interval, format_value
 from lensmass.io.report_plots import (
     CENTRE_COLOUR,
@@ -255,10 +255,10 @@ def report_figure(image_cutout: np.ndarray | None, overlay: Overlay, inputs: Map
     fig.add_artist(_rule_at(fig, 0.06, 0.46, 0.36))
     ax_h = fig.add_axes((0.06, 0.265, 0.40, 0.075))
     draw_sample_histogram(ax_h, histogram)
-    ax_notes = fig.add_axes((0.52, 0.235, 0.42, 0.125))
+    ax_notes = fig.add_axes((0.52, 0.222, 0.42, 0.138))
     _section(ax_notes, "notes")
-    _wrapped(ax_notes, [f"- {_mathtext_safe(n)}" for n in result.get("notes") or []], top=0.92, size=6.6,
-             hang="  ")
+    _fitting_notes(ax_notes, [f"- {_mathtext_safe(n)}" for n in result.get("notes") or []
+                              if n != MODEL_NOTE])  # the page's last line says it
 
     # row 4: models, method, references
     ax_mod = fig.add_axes((0.06, 0.03, 0.88, 0.18))
@@ -333,16 +333,31 @@ def _wrapped(ax, paragraphs: Sequence[str], *, top: float, size: float, hang: st
 
 
 def _fitting_paragraphs(ax, blocks: Sequence[tuple[Sequence[str], str, str]],
-                        sizes=(6.8, 6.5, 6.2, 5.9, 5.6, 5.3)) -> None:
-    """Write blocks of (paragraphs, hanging indent, colour), shrinking the font until all fit in ``ax``."""
+                        sizes=(6.8, 6.5, 6.2, 5.9, 5.6, 5.3), *, top: float = 0.93, gap: float = 0.006) -> bool:
+    """Write blocks of (paragraphs, hanging indent, colour), shrinking the font until all fit in ``ax``;
+    False if they overflow it even at the smallest size (they are then left written at that size)."""
     keep = len(ax.texts)
     for size in sizes:
         for t in list(ax.texts)[keep:]:
             t.remove()
-        y = 0.93
+        y = top
         for paragraphs, hang, colour in blocks:
-            y = _wrapped(ax, paragraphs, top=y, size=size, hang=hang, colour=colour, gap=0.006) - 0.025
+            y = _wrapped(ax, paragraphs, top=y, size=size, hang=hang, colour=colour, gap=gap) - 0.025
         if y >= -0.02:
+            return True
+    return False
+
+
+def _fitting_notes(ax, notes: Sequence[str]) -> None:
+    """The notes in their box: a smaller font first, then the last notes left out with a line saying how many
+    (a lone arc's notes are long; they once ran over the next section's rule). All notes stay in the result."""
+    keep = len(ax.texts)
+    for shown in range(len(notes), 0, -1):
+        for t in list(ax.texts)[keep:]:
+            t.remove()
+        tail = [] if shown == len(notes) else [f"... and {len(notes) - shown} more in the saved result's notes."]
+        if _fitting_paragraphs(ax, [(list(notes[:shown]) + tail, "  ", INK)], (6.6, 6.3, 6.0, 5.7, 5.4), top=0.92,
+                               gap=0.02):
             return
 
 

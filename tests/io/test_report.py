@@ -207,3 +207,20 @@ def test_the_method_paragraph_says_where_theta_e_came_from(scene):
     assert "fitted to the marked arc points" in _method_text(result)
     found = _method_text({**result, "method": "automatic ring finder (arcs; circle through the ridge)"})
     assert "automatic ring finder's" in found and "marked arc points" not in found
+
+
+def test_long_notes_stay_in_their_box(scene):
+    # A lone arc's notes are long (lensmass.core.ring_shapes): they once ran over the next section's rule. The
+    # notes must end inside their box, and notes left out for room are counted on the page (all stay in the result).
+    cut, overlay, inputs, result = scene
+    long_notes = [f"Note {i}: " + "a sentence that explains a caveat of this measurement at some length " * 3
+                  for i in range(9)]
+    fig = report_figure(cut, overlay, inputs, {**result, "notes": long_notes})
+    renderer = fig.canvas.get_renderer()
+    box = next(ax for ax in fig.axes if any(t.get_text() == "NOTES" for t in ax.texts))
+    bottom = box.get_window_extent(renderer).y0
+    written = [t for t in box.texts if t.get_text() != "NOTES"]
+    assert all(t.get_window_extent(renderer).y0 >= bottom - 3 for t in written)  # within 3 px of the box
+    text = " ".join(t.get_text() for t in written).replace("\n", " ")
+    shown = sum(f"Note {i}:" in text for i in range(9))
+    assert 0 < shown < 9 and f"and {9 - shown} more in the saved result's notes" in text
