@@ -225,8 +225,11 @@ def draw_sample_histogram(ax, hist, *, unit: str = r"M$_\odot$", label: str = r"
     power = "" if exp is None else f"$10^{{{exp}}}$ "
     ax.set_xlabel(f"{label} [{power}{unit}]" if unit or power else label)
     _style_axes(ax, look=look)
-    ax.text(0.99, 0.95, f"{hist.n_finite} draws\nline: median\nshaded: 68%", fontsize=6.3 * look.text_scale,
-            color=look.muted, ha="right", va="top", transform=ax.transAxes)
+    ax.get_xlim()  # settles the autoscaled limits, so the median's place on the axes is known
+    right = ax.transAxes.inverted().transform(ax.transData.transform((hist.median / scale, 0.0)))[0] > 0.5
+    ax.text(0.01 if right else 0.99, 0.95, f"{hist.n_finite} draws\nline: median\nshaded: 68%",  # beside the bars
+            fontsize=6.3 * look.text_scale, color=look.muted, ha="left" if right else "right", va="top",
+            transform=ax.transAxes)
 
 
 # ------------------------------------------------------------------ page

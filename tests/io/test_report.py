@@ -224,3 +224,23 @@ def test_long_notes_stay_in_their_box(scene):
     text = " ".join(t.get_text() for t in written).replace("\n", " ")
     shown = sum(f"Note {i}:" in text for i in range(9))
     assert 0 < shown < 9 and f"and {9 - shown} more in the saved result's notes" in text
+
+
+@pytest.mark.parametrize("median", [1e8, 3e13])
+def test_histogram_legend_sits_beside_the_bars(median):
+    # The legend of the Monte Carlo histogram ("N draws, line: median, shaded: 68%") once covered the bars when
+    # the draws lay on the right of the axes: it now goes to the side away from the median.
+    from matplotlib.figure import Figure
+
+    from lensmass.core.mass_profiles import SampleHistogram
+    from lensmass.io.report_plots import draw_sample_histogram
+
+    edges = np.geomspace(1e6, 1e14, 41)
+    counts = np.exp(-0.5 * ((np.log10(edges[:-1]) - np.log10(median)) / 0.3) ** 2)
+    hist = SampleHistogram("mass_einstein_msun", counts, edges, True, median, (0.7 * median, 1.4 * median),
+                           (0.5 * median, 2 * median), 1000)
+    ax = Figure().add_subplot()
+    draw_sample_histogram(ax, hist)
+    legend = next(t for t in ax.texts if "draws" in t.get_text())
+    median_at = ax.transAxes.inverted().transform(ax.transData.transform((median, 0.0)))[0]
+    assert (legend.get_position()[0] < 0.5) == (median_at > 0.5)
