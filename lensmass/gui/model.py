@@ -493,16 +493,16 @@ class WindowModel:
             return found.theta_e_arcsec, found.theta_e_err_arcsec, kwargs
         return d.fit.theta_e_arcsec, d.fit.theta_e_err_arcsec, kwargs
 
-    def set_ring_answer(self, system: int, measurement) -> None:
+    def set_ring_answer(self, system: int, measurement, points=None) -> None:
         """Keep the ring finder's answer (a :class:`lensmass.core.einstein.ThetaEMeasurement`) for the marks it
-        put on ``system``: theta_E, its interval and method stand for that system while those marks are unchanged
-        (:meth:`ring_measurement_for`); saved with the session."""
+        put on ``system`` (``points``, default the system's marks now): theta_E, its interval and method stand for
+        that system while it holds exactly those marks (:meth:`ring_measurement_for`); saved with the session."""
         from dataclasses import asdict
 
         def plain(v):  # JSON values for the session file (numpy scalars to Python ones)
             return [plain(x) for x in v] if isinstance(v, (list, tuple)) else v.item() if isinstance(v, np.generic) else v
 
-        marks = [list(map(float, p)) for p in self.session.arcs[system].points]
+        marks = [list(map(float, p)) for p in (self.session.arcs[system].points if points is None else points)]
         self.session.ring = {"system": self.session.arcs[system].name, "points": marks,
                              "measurement": {k: plain(v) for k, v in asdict(measurement).items()}}
 

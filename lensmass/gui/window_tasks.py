@@ -157,25 +157,25 @@ class WindowTasksMixin:
         if xs.size > 32:
             keep = np.linspace(0, xs.size - 1, 32).round().astype(int)
             xs, ys = xs[keep], ys[keep]
+        from lensmass.core.einstein import measurement_of_ring
+
+        try:  # theta_E of these marks is the finder's answer, as on the command line, until they are edited
+            found = measurement_of_ring(ring, m.image.loaded)
+        except LensInputError:  # no pixel scale yet: the marks are measured as marks
+            found = None
         self.undo_stack.beginMacro("ring finder result")
         if m.centre is None:
             self.undo_stack.push(SetCentre(m, (ring.center_x, ring.center_y), "found"))
         if m.active_system.points or m.active_system.images:
             self.undo_stack.push(AddSystem(m))
+        if found is not None:  # kept before the marks land: the last mark's refit measures them as the finder's
+            m.set_ring_answer(m.active, found, points=list(zip(xs.tolist(), ys.tolist())))
         if ring.lens_light is not None and m.image is not None and m.image.lens_light is None:
             m.set_lens_light(ring.lens_light.model, ring.lens_light.method)
             self._sync_display_widgets()
         for x, y in zip(xs, ys):
             self.undo_stack.push(AddMark(m, "point", m.active, (float(x), float(y))))
         self.undo_stack.endMacro()
-        from lensmass.core.einstein import measurement_of_ring
-
-        try:  # theta_E of these marks is the finder's answer, as on the command line, until they are edited
-            m.set_ring_answer(m.active, measurement_of_ring(ring, m.image.loaded))
-            self._refit_all()
-            self.request_estimate()
-        except LensInputError:  # no pixel scale yet: the marks are measured as marks
-            pass
         confidence = "confident" if ring.confident else "not confident: check the marks"
         hint = f" {ring.center_hint}" if getattr(ring, "center_hint", "") else ""
         about_ring = next((w for key in ("barely resolved", "single arc", "Two arcs", "Refitting")
