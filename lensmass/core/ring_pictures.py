@@ -453,8 +453,9 @@ def _picture_core_pix(masks, cx: float, cy: float, rmin: float, rgb: np.ndarray 
     On a colour picture the half-maximum is also measured at the strongest assumed stretch
     (:func:`_strong_stretch_halfmax`) and the smaller taken: the display stretch is not known, a stronger one than the
     masks assume (a LogStretch, an asinh of a high strength) widens the undone core, and a floor set there passed over
-    rings inside it (stress_pictures tuning seeds 630000-630139/631000-631069: the floor above 0.9 of the true radius
-    on 21 per-band PercentileInterval pictures, 10 of 20 LogStretch)."""
+    rings inside it. Stress_pictures, pictures not clipped about the sky (ZScaleInterval's are refused), floor above 0.9
+    of the true radius: tuning seeds 630000-630139/631000-631069 22 of 210 (9 LogStretch, 5 make_lupton_rgb) -> 8;
+    check seeds 635000-635139/636000-636069 10 -> 2."""
     halfmax = _lens_halfmax_pix(masks, cx, cy)
     strong = _strong_stretch_halfmax(rgb, cx, cy)
     if np.isfinite(strong) and np.isfinite(halfmax):
