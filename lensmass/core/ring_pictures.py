@@ -90,9 +90,10 @@ COLOUR_LOST_MAX_SHARE = 0.08
 #: A lens whose disc is bluer than its bulge leaves a broad, centred excess in blue minus the core's colour times red
 #: (the bulge's shape negative, the disc's positive) which, divided by a noise that falls outward with the stretch's
 #: gain, became a hump read as a ring; a ring or arc is a ridge about a seeing wide and stays. Stress_pictures tuning
-#: seeds 630000-630139 (every kind) and 631000-631069 (hard rings), 210 pictures, within 5% / hard rings within 5% /
-#: bias / inside 1/2 sigma / median stated error: none 45 / 22% / +5.0% / 74%/92% / 26%; 0.6: 48 / 26% / +2.2% /
-#: 75%/92% / 32%; 1.0: 50 / 26% / +1.4% / 78%/92% / 31% (colour route off by >15% with a bulge+disc lens 36 -> 24).
+#: seeds 630000-630139 (every kind) and 631000-631069 (hard rings), 210 pictures, with the floor of
+#: :func:`_picture_core_pix` as now; within 5% / hard rings within 5% / bias / inside 1/2 sigma / median stated
+#: error: none 45 / 22% / +5.0% / 74%/92% / 26%; 0.6: 48 / 26% / +2.2% / 75%/92% / 32%; 1.0: 50 / 26% / +1.4% /
+#: 78%/92% / 31% (colour route off by >15% with a bulge+disc lens 36 -> 24). Check seeds in benchmarks/stress_pictures.
 SMOOTH_PART_SHARE = 1.0
 #: Masked and saturated pixels of a colour picture are grown by this many pixels before its arc image is
 #: searched (a star's colour fringes reach past its mask). Tuning seeds 510300-510419 (120 lenses): PNG
