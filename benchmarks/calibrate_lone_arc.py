@@ -121,6 +121,23 @@ def finder_table(paths: list[str]) -> None:
     print("  (" + ", ".join(f"{v:+.4f}" for v in q) + ")")
 
 
+def unpaired_table(paths: list[str]) -> None:
+    """The finder's ``"unpaired"`` table: ln(theta_E / radius) of the single arcs it did not call lone (no counter-arc,
+    ridge points spread to other sides; records' ``single`` with no ``lone_arc``), per field maker and pooled."""
+    import json
+
+    rows = [r for p in paths for r in json.loads(Path(p).read_text())
+            if r.get("is_lens", True) and r.get("single") and not np.isfinite(r.get("lone_arc", float("nan")))]
+    for gen in sorted({r["gen"] for r in rows}):
+        lg = np.array([np.log(r["truth"] / r["radius"]) for r in rows if r["gen"] == gen])
+        print(f"{gen}: {lg.size} unpaired arcs, ln(theta_E / radius) median {np.median(lg):+.3f}, 16-84% "
+              f"{np.quantile(lg, 0.16):+.3f} to {np.quantile(lg, 0.84):+.3f}")
+    logs = np.array([np.log(r["truth"] / r["radius"]) for r in rows])
+    q = np.quantile(logs, LONE_ARC_PROBABILITIES)
+    print(f"pooled {logs.size} unpaired arcs; quantiles at", list(LONE_ARC_PROBABILITIES))
+    print("  (" + ", ".join(f"{v:+.4f}" for v in q) + ")")
+
+
 def finder_check(paths: list[str]) -> None:
     rows = _lone_rows(paths)
     for gen in sorted({r["gen"] for r in rows}):
@@ -143,11 +160,14 @@ def main() -> None:
     parser.add_argument("--merge", nargs="*", help=".npy files of earlier parts to pool with this one")
     parser.add_argument("--finder-table", nargs="*", help="finder record files: the 'ridge' table")
     parser.add_argument("--finder-check", nargs="*", help="finder record files: coverage of its lone arcs")
+    parser.add_argument("--unpaired-table", nargs="*", help="finder record files: the 'unpaired' table")
     args = parser.parse_args()
     if args.finder_table:
         finder_table(args.finder_table)
     if args.finder_check:
         finder_check(args.finder_check)
+    if args.unpaired_table:
+        unpaired_table(args.unpaired_table)
     if args.calibrate or args.merge:
         calibrate(_seeds(args.calibrate) if args.calibrate else range(0), args.save, args.merge)
     if args.check:

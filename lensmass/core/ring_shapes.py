@@ -50,8 +50,8 @@ def _follow_shape(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, sho
     (:func:`lensmass.core.ringfinder._search`, passed in: it calls this)."""
     if not best.found:
         return best
-    return _lone_arc(_elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop,
-                                     ring_search=ring_search), n_sectors)
+    return _unpaired_arc(_lone_arc(_elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings,
+                                                    should_stop, ring_search=ring_search), n_sectors))
 
 
 def _unmasked_share(best: RingResult, n_sectors: int) -> float:
@@ -93,6 +93,28 @@ def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
                          "calibrated lone arcs, wider above than below; mark a counter-image to measure it.")
     best.message = (f"A lone arc at {arc:.2f} pixels: theta_E about {shown} ({best.score:.1f} sigma, "
                     f"{best.coverage:.0%} of directions).")
+    return best
+
+
+def _unpaired_arc(best: RingResult) -> RingResult:
+    """An arc seen on one side without a counter-arc that :func:`_lone_arc` does not take (its ridge points spread
+    to other sides): part of a ring whose other parts are faint (theta_E at its radius), or a lone arc outside
+    theta_E by its source's offset (for an isothermal sphere the bright image lies at theta_E + beta: common
+    practice), which one arc does not tell apart. Its radius is kept (the ring part's answer) and the interval takes
+    the calibrated spread of theta_E / radius over both (:func:`lensmass.core.lone_arc.lone_arc_ratio_quantiles`,
+    the ``"unpaired"`` table): wide below the radius, narrow above it."""
+    if (not best.found or best.paired or best.coverage >= RING_COVERAGE or np.isfinite(best.lone_arc_radius_pix)
+            or best.interval_shape_pix is not None):
+        return best
+    arc = best.radius_pix
+    measured = best.radius_err_pix
+    q = arc * lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, "unpaired")
+    best.radius_err_pix = float(np.hypot(measured, 0.5 * (q[2] - q[1])))
+    hold_shape(best, [arc + np.sign(b - arc) * np.hypot(b - arc, k * measured) for b, k in zip(q, (2, 1, 1, 2))])
+    best.warnings.append(f"An arc at {arc:.2f} pixels with no counter-arc found: it may be part of a ring (theta_E at "
+                         f"its radius) or a lone arc outside the Einstein radius by its source's offset, so theta_E "
+                         f"is stated as {interval_text(arc, q, 'pixels')}, the spread of theta_E / radius over "
+                         "calibrated unpaired arcs, wider below than above; mark a counter-image to measure it.")
     return best
 
 

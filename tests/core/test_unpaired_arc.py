@@ -1,0 +1,59 @@
+"""Single arcs the finder cannot pair: the stated interval must hold theta_E although one arc does not say whether it is
+part of a ring (theta_E at its radius) or a lone arc outside theta_E (lensmass.core.ring_shapes._unpaired_arc).
+
+The field is made with general-purpose library models: an astropy.modeling Sersic2D lens galaxy (n = 4) and an
+astropy Gaussian2D source behind a singular isothermal sphere, mapped through the lens equation
+beta = theta - theta_E theta / |theta| with surface brightness conserved (Narayan & Bartelmann 1996, eq. 29; common
+practice), blurred by an astropy Gaussian2DKernel PSF, with white noise. A source at beta = 0.5 theta_E gives the
+bright arc at theta_E + beta = 1.5 theta_E and a fainter counter-image at theta_E - beta (common practice), so the
+truth is two thirds of the arc's radius: outside the +- 25% a ring-like single arc used to state (main 4f45eac: the
+truth inside 1 sigma for 5 of these 12 fields).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from astropy.convolution import Gaussian2DKernel, convolve_fft
+from astropy.modeling.models import Gaussian2D, Sersic2D
+
+from lensmass.core.ring_interval import interval_bounds, truth_inside
+from lensmass.core.ringfinder import find_ring
+
+
+def _sis_arc(seed: int, beta_frac: float = 0.5, source_frac: float = 0.25) -> tuple[np.ndarray, float]:
+    rng = np.random.default_rng(seed)
+    n = 121
+    yy, xx = np.mgrid[0:n, 0:n].astype(float)
+    c = 60.0 + rng.uniform(-0.5, 0.5, 2)
+    fwhm = rng.uniform(2.5, 3.5)
+    theta_e = fwhm * rng.uniform(4.0, 5.5)
+    lens = 300 * Sersic2D(amplitude=1.0, r_eff=0.6 * theta_e, n=4, x_0=c[0], y_0=c[1], ellip=0.2,
+                          theta=rng.uniform(0, np.pi))(xx, yy)
+    dx, dy = xx - c[0], yy - c[1]
+    r = np.hypot(dx, dy) + 1e-9
+    bx, by = dx - theta_e * dx / r, dy - theta_e * dy / r  # the SIS lens equation
+    t = rng.uniform(0, 2 * np.pi)
+    b, s = beta_frac * theta_e, source_frac * theta_e
+    source = Gaussian2D(amplitude=20.0, x_mean=b * np.cos(t), y_mean=b * np.sin(t), x_stddev=s, y_stddev=s)(bx, by)
+    sky = convolve_fft(lens + source, Gaussian2DKernel(fwhm / (2 * np.sqrt(2 * np.log(2)))), boundary="fill")
+    return sky + rng.normal(0.0, 1.0, sky.shape), theta_e
+
+
+SEEDS = range(1, 13)
+
+
+def test_single_arcs_of_an_isothermal_sphere_inside_the_stated_interval():
+    runs = [(find_ring(img), te) for img, te in (_sis_arc(s) for s in SEEDS)]
+    assert all(out.found for out, _ in runs)
+    unpaired = [(out, te) for out, te in runs
+                if out.kind == "arcs" and not out.paired and not np.isfinite(out.lone_arc_radius_pix)]
+    assert len(unpaired) >= 4, [(o.kind, round(o.coverage, 2)) for o, _ in runs]
+    for out, te in unpaired:
+        lo2, lo1, hi1, hi2 = interval_bounds(out)
+        assert truth_inside(out, te, 1), (te, interval_bounds(out))
+        # theta_E lies at or inside a tangential arc's radius: the interval reaches further below it than above
+        assert out.radius_pix - lo1 > hi1 - out.radius_pix
+        assert not out.confident
+    inside1 = sum(truth_inside(out, te, 1) for out, te in runs)
+    inside2 = sum(truth_inside(out, te, 2) for out, te in runs)
+    assert inside1 >= 8 and inside2 >= 9, (inside1, inside2)  # main: 5 and 9 of 12
