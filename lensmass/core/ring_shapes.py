@@ -1,5 +1,5 @@
 """The ring finder following the ring's shape: elliptical annuli for a partial ring, a lone arc's radius
-scaled to theta_E, arc pairs, the SIE correction of an elongated ring, and their tuned constants. The search
+scaled to theta_E, an unpaired arc's calibrated interval, arc pairs, the SIE correction of an elongated ring, and their tuned constants. The search
 itself is passed in by :mod:`lensmass.core.ringfinder`."""
 
 from __future__ import annotations
@@ -44,7 +44,8 @@ SIE_FACTOR_ERROR_SHARE = 0.5
 def _follow_shape(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop, *,
                   ring_search: Callable[..., RingResult]) -> RingResult:
     """The FITS route's answer for the ring's shape: a partial ring re-measured in elliptical annuli
-    (:func:`_elliptical_pass`), a lone arc's radius scaled to theta_E (:func:`_lone_arc`). (The picture routes keep
+    (:func:`_elliptical_pass`), a lone arc's radius scaled to theta_E (:func:`_lone_arc`), another single arc's
+    interval (:func:`_unpaired_arc`). (The picture routes keep
     their calibrated circular answers: with it, tests/core/test_colour_cutouts.py's square-root pictures had 7 of 12
     hard rings within 5%, under the 8 it asks.) ``ring_search`` is the finder's search
     (:func:`lensmass.core.ringfinder._search`, passed in: it calls this)."""
