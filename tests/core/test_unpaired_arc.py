@@ -57,3 +57,28 @@ def test_single_arcs_of_an_isothermal_sphere_inside_the_stated_interval():
     inside1 = sum(truth_inside(out, te, 1) for out, te in runs)
     inside2 = sum(truth_inside(out, te, 2) for out, te in runs)
     assert inside1 >= 8 and inside2 >= 9, (inside1, inside2)  # main: 5 and 9 of 12
+
+
+def test_an_unpaired_arc_keeps_its_radius_and_states_the_tables_spread_with_no_floor_on_top():
+    # the rule itself on a found single arc (40% of the directions, no counter-arc): the radius stays (a ring part's
+    # answer), the bounds are the radius times the "unpaired" table's quantiles at the normal 1- and 2-sigma
+    # probabilities (common practice: 2.275, 15.87, 84.13, 97.725%), and ring_confidence adds no single-arc floor
+    from types import SimpleNamespace
+
+    from lensmass.core.lone_arc import lone_arc_ratio_quantiles
+    from lensmass.core.ring_confidence import _calibrate
+    from lensmass.core.ring_interval import SIGMA_PROBABILITIES, state_interval
+    from lensmass.core.ring_result import RingResult
+    from lensmass.core.ring_shapes import _unpaired_arc
+
+    t = np.linspace(-1.2, 1.2, 10)
+    light = SimpleNamespace(ok=True, psf_fwhm_pix=3.0, axis_ratio=1.0, angle_deg=0.0, sersic_n=4.0)
+    arc = RingResult(True, False, "arcs", 20.0, 0.05, 12.0, 0.4, 50.0, 50.0, 1.0, float("nan"), 0.1,
+                     50 + 20 * np.cos(t), 50 + 20 * np.sin(t), np.empty(0), np.empty(0), np.empty(0), 1.0, None,
+                     light, ring_width_pix=3.5)
+    out = _calibrate(_unpaired_arc(arc))
+    state_interval(out)
+    assert out.radius_pix == 20.0 and not out.confident
+    expected = 20.0 * lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, "unpaired")
+    np.testing.assert_allclose(interval_bounds(out), expected, atol=0.11)  # the 0.05-pixel fit error joined in
+    assert out.radius_lo_pix < 0.7 * 20.0 and 1.0 * 20.0 < out.radius_hi_pix < 1.1 * 20.0
