@@ -8,6 +8,7 @@ from collections.abc import Callable
 
 import numpy as np
 
+from lensmass.core.counter_image import find_counter_image
 from lensmass.core.elliptical_annuli import mass_alignment_weight, ring_shape, sie_ring_factor
 from lensmass.core.lone_arc import lone_arc_ratio_quantiles, lone_arc_theta_e
 from lensmass.core.ring_confidence import RING_COVERAGE
@@ -77,6 +78,8 @@ def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
         return best
     if best.coverage >= RING_COVERAGE * _unmasked_share(best, n_sectors):  # a ring seen wherever it is not masked
         return best
+    if _counter_pair(best):
+        return best
     arc = best.radius_pix
     theta_e, spread = lone_arc_theta_e(arc, "ridge")
     measured = best.radius_err_pix * theta_e / arc
@@ -95,6 +98,32 @@ def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
     best.message = (f"A lone arc at {arc:.2f} pixels: theta_E about {shown} ({best.score:.1f} sigma, "
                     f"{best.coverage:.0%} of directions).")
     return best
+
+
+def _counter_pair(best: RingResult) -> bool:
+    """Pair a one-sided arc with its counter-image found on the far side of the lens
+    (:func:`lensmass.core.counter_image.find_counter_image`): theta_E is their mean radius (exact for an isothermal
+    sphere, theta_E + beta and theta_E - beta; common practice), with :data:`PAIR_SYSTEMATIC` of half their difference
+    in the error, as :func:`_pair_of_arcs` states it. Returns whether it paired."""
+    if best.residual is None:
+        return False
+    light = best.lens_light
+    fwhm = float(light.psf_fwhm_pix) if light is not None and light.ok else float(best.ring_width_pix)
+    arc = best.radius_pix
+    inner = find_counter_image(best.residual, best.center_x, best.center_y, arc, _mean_direction(best)[0],
+                               best.noise_sigma, fwhm)
+    if not np.isfinite(inner):
+        return False
+    best.radius_pix = float(0.5 * (arc + inner))
+    best.radius_err_pix = float(np.hypot(best.radius_err_pix, PAIR_SYSTEMATIC * 0.5 * (arc - inner)))
+    best.paired = True
+    best.confident = False  # one arc and a faint feature inside it: never a confident ring
+    best.axis_ratio, best.angle_deg = float("nan"), float("nan")
+    best.message = (f"An arc at {arc:.2f} pixels and its counter-image at {inner:.2f} pixels on the far side of the "
+                    f"lens: theta_E = their mean, {best.radius_pix:.2f} +- {best.radius_err_pix:.2f} pixels.")
+    best.warnings.append("An arc and a fainter counter-image inside it on the far side of the lens: the Einstein radius "
+                         "is their mean radius (exact for an isothermal sphere); a lens-model fit of the two is better.")
+    return True
 
 
 def _unpaired_arc(best: RingResult) -> RingResult:
