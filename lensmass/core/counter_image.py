@@ -41,7 +41,7 @@ def find_counter_image(residual: np.ndarray, cx: float, cy: float, arc_radius_pi
     lo, hi = max(COUNTER_MIN_FWHM * fwhm, 2.0), COUNTER_MAX_SHARE * float(arc_radius_pix)
     if hi <= lo + fwhm or not np.isfinite(noise_sigma) or noise_sigma <= 0:
         return float("nan")
-    r0 = int(np.ceil(hi)) + 2
+    r0 = int(np.ceil(float(arc_radius_pix) + fwhm)) + 2  # the arc too: its light is compared below
     ny, nx = residual.shape
     y0, y1 = max(0, int(cy) - r0), min(ny, int(cy) + r0 + 1)
     x0, x1 = max(0, int(cx) - r0), min(nx, int(cx) + r0 + 1)
@@ -77,7 +77,23 @@ def find_counter_image(residual: np.ndarray, cx: float, cy: float, arc_radius_pi
     k = int(np.argmax(snr))
     if not np.isfinite(snr[k]) or snr[k] < COUNTER_MIN_SNR:
         return float("nan")
-    return float(edges[k + 1])  # the middle of the two bins summed
+    inner = float(edges[k + 1])  # the middle of the two bins summed
+    # The counter-image is the fainter one (|mu-| < mu+ for an isothermal sphere; common practice): its light in the
+    # far wedge within a FWHM of its radius, less the sides', must be below the arc's in its own wedge.
+    sides = np.isfinite(cut) & (np.abs(off - np.pi / 2) <= half)
+    arc = np.isfinite(cut) & (off <= half)
+    if _excess(cut, rr, far, sides, inner, fwhm) >= _excess(cut, rr, arc, sides, float(arc_radius_pix), fwhm):
+        return float("nan")
+    return inner
+
+
+def _excess(cut, rr, wedge, side, radius, fwhm) -> float:
+    """Light in ``wedge`` within one ``fwhm`` of ``radius`` above the mean of ``side`` at those radii."""
+    ring = np.abs(rr - radius) <= fwhm
+    w, s = wedge & ring, side & ring
+    if not w.any() or not s.any():
+        return float("nan")
+    return float(np.sum(cut[w]) - w.sum() * np.mean(cut[s]))
 
 
 __all__ = ["COUNTER_MAX_SHARE", "COUNTER_MIN_FWHM", "COUNTER_MIN_SNR", "WEDGE_HALF_DEG", "find_counter_image"]
