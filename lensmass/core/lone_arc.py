@@ -38,17 +38,20 @@ LONE_ARC_LOG_RATIO_QUANTILES: dict[str, tuple[float, ...]] = {
                +0.2308, +0.2660, +0.2967, +0.4428),
     "unpaired": (-1.0262, -0.8873, -0.7433, -0.5499, -0.4607, -0.4048, -0.2943, -0.0633, +0.0341, +0.0722, +0.2057,
                  +0.3330, +0.6760, +1.1132, +1.6548),
-    "ridge": (-1.3832, -1.1558, -0.9698, -0.7325, -0.5966, -0.5110, -0.4170, -0.2945, -0.1657, +0.2338, +0.3126,
-              +0.4056, +0.5917, +0.8218, +1.1601),
+    "ridge": (-1.4829, -1.1109, -1.0601, -0.9777, -0.5970, -0.5202, -0.3999, -0.3102, +0.2698, +0.3851, +0.4855,
+              +0.7726, +0.8468, +0.8810, +1.0487),
 }
 #: Where the ``"ridge"`` table comes from: the ring finder (lensmass.core.ringfinder.find_ring) on lenses of both
-#: field makers, tuning seeds 630000-630299 (the project's generator, lone arcs among its arc kinds) and
-#: 632000-632349 and 634000-634119 (benchmarks/stress_fields.py, all lens kinds and one-arc lenses); the 119 arcs it
-#: called lone (77 and 42), their profile-peak radius r_arc against the true theta_E: ln(theta_E / r_arc) median
-#: -0.265 (ours) and -0.457 (stress), 16-84% -0.38 to +0.21 and -0.61 to +0.24. The wide spread is the sources'
-#: unknown offsets, plus features the finder took for an arc that were not one (a counter-image inside theta_E,
-#: a neighbour's residual). Made by ``benchmarks/calibrate_lone_arc.py --finder-table``.
-RIDGE_CALIBRATION = "find_ring on 119 lone arcs of both field makers, tuning seeds 630000-634119"
+#: field makers, all lens kinds in equal shares (``benchmarks/calibrate_ring_floors.py record``, 315 lenses of each
+#: maker, tuning seeds 620700-621329 and 623400-624029); the 130 arcs it called lone (74 ours, 56 stress), their
+#: profile-peak radius r_arc against the true theta_E: ln(theta_E / r_arc) median -0.298 (ours) and -0.320 (stress),
+#: 16-84% -0.39 to +0.30 and -0.60 to +0.48; pooled theta_E / r_arc median 0.733, 1 sigma 0.59-1.47. Remade (h15b)
+#: once arcs with a counter-image found on the far side are paired instead (ring_shapes._counter_pair): the lone arcs
+#: left have sources further out or are features that are no arc (a counter-image inside theta_E, a neighbour's
+#: residual), hence the wide upper side. The former table (h14o, 119 lone arcs, seeds 630000-634119, median 0.745,
+#: 1 sigma 0.60-1.26) covered these 56%/88% (tuning) and 39%/95% (check seeds 627000-627629) inside 1/2 sigma; this one
+#: 68%/94% and 59%/98%. Made by ``benchmarks/calibrate_lone_arc.py --finder-table``.
+RIDGE_CALIBRATION = "find_ring on 130 lone arcs of both field makers, tuning seeds 620700-624029"
 #: Where the ``"unpaired"`` table comes from (h15b): the ring finder on 630 lenses of each field maker, all lens kinds
 #: in equal shares (``benchmarks/calibrate_ring_floors.py record``, tuning seeds 620700-621329 and 623400-624029);
 #: the 291 single arcs it did not call lone or paired (99 ours, 192 stress), ln(theta_E / radius) pooled: median

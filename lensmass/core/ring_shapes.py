@@ -86,7 +86,7 @@ def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
     best.lone_arc_radius_pix = float(arc)
     best.radius_pix = theta_e
     best.radius_err_pix = float(np.hypot(measured, spread))
-    # The spread is skewed (theta_E / r_arc 0.60-1.26 for 1 sigma about 0.745): the interval keeps its shape.
+    # The spread is skewed (theta_E / r_arc 0.59-1.47 for 1 sigma about 0.733): the interval keeps its shape.
     q = arc * lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, "ridge")
     hold_shape(best, [theta_e + np.sign(b - theta_e) * np.hypot(b - theta_e, k * measured)
                       for b, k in zip(q, (2, 1, 1, 2))])
