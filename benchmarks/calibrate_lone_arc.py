@@ -5,6 +5,7 @@
     python benchmarks/calibrate_lone_arc.py --check 5000:5200       # coverage of the stated range on other seeds
     python benchmarks/calibrate_lone_arc.py --finder-table REC.json ...  # the finder's "ridge" table
     python benchmarks/calibrate_lone_arc.py --finder-check REC.json ...  # the finder's lone arcs inside 1/2 sigma
+    python benchmarks/calibrate_lone_arc.py --unpaired-table REC.json ...  # the finder's "unpaired" table
 
 (REC.json: ``benchmarks/calibrate_ring_floors.py record`` runs of the finder on both field makers.)
 
@@ -39,6 +40,20 @@ r_arc times the table's quantiles at the normal 15.87/84.13% and 2.275/97.725% (
 520000-521319 (calibrate_ring_floors.py records), truth inside 1/2 sigma, symmetric -> interval: ours (71) 79%/93%
 -> 77%/100%, stress (14) 43%/71% -> 43%/86%; check seeds 600000-600149 (ours, 30 lone arcs): 83%/93% with the
 interval. The "points" table and the lens-model fit are unchanged (``--check`` not rerun).
+
+h15b (2026-12-04): the finder's other single arcs (no counter-arc, ridge points on other sides too, so not lone) keep
+their radius and state the "unpaired" table's spread (``--unpaired-table``; lensmass.core.ring_shapes._unpaired_arc)
+instead of +- 25%. Table: tuning seeds 620700-621329 and 623400-624029 (``calibrate_ring_floors.py record`` 315
+lenses of each maker, all lens kinds), 291 unpaired arcs: theta_E / radius 0.67-1.07 (1 sigma). Check seeds
+627000-627629 (same record, main -> h15b), the unpaired arcs inside 1/2 sigma: ours (46) 76%/100% -> 83%/100%, stress
+(78) 69%/91% -> 68%/92%; stress by kind: one arc 14%/86% -> 24%/86%, two arcs 52%/88% -> 48%/91%, fold 79%/95% ->
+72%/95%, quad 85%/92% -> 82%/92%. Radii are unchanged.
+Then one-sided arcs whose counter-image is found on the far side (lensmass.core.counter_image) are paired (theta_E =
+mean radius), and the "ridge" table was remade (``--finder-table``) on the lone arcs left, records of seeds
+620700-621329 and 623400-624029 (130 lone arcs): median 0.733, 1 sigma 0.59-1.47 (was 0.745, 0.60-1.26). Check seeds
+627000-627629, main -> h15b (same record): all found lenses within 5% ours 179 -> 191 of 288, stress 127 -> 131 of
+269; inside 1/2 sigma ours 74%/93% -> 76%/93%, stress 68%/91% -> 70%/91%; lone arcs ours 87%/100% -> 77%/100%,
+stress 34%/93% -> 50%/100%; stress one arc 14%/86% -> 38%/83%, two arcs 52%/88% -> 55%/91%.
 """
 
 from __future__ import annotations
@@ -109,16 +124,30 @@ def _lone_rows(paths: list[str]) -> list[dict]:
     return [r for r in rows if r.get("is_lens", True) and np.isfinite(r.get("lone_arc", float("nan")))]
 
 
-def finder_table(paths: list[str]) -> None:
-    rows = _lone_rows(paths)
+def _print_table(rows: list[dict], key: str, what: str, r_name: str) -> None:
+    """ln(theta_E / row[key]) per field maker (median, 16-84%) and pooled quantiles at LONE_ARC_PROBABILITIES."""
     for gen in sorted({r["gen"] for r in rows}):
-        lg = np.array([np.log(r["truth"] / r["lone_arc"]) for r in rows if r["gen"] == gen])
-        print(f"{gen}: {lg.size} lone arcs, ln(theta_E / r_arc) median {np.median(lg):+.3f}, 16-84% "
+        lg = np.array([np.log(r["truth"] / r[key]) for r in rows if r["gen"] == gen])
+        print(f"{gen}: {lg.size} {what}, ln(theta_E / {r_name}) median {np.median(lg):+.3f}, 16-84% "
               f"{np.quantile(lg, 0.16):+.3f} to {np.quantile(lg, 0.84):+.3f}")
-    logs = np.array([np.log(r["truth"] / r["lone_arc"]) for r in rows])
+    logs = np.array([np.log(r["truth"] / r[key]) for r in rows])
     q = np.quantile(logs, LONE_ARC_PROBABILITIES)
-    print(f"pooled {logs.size} lone arcs; quantiles at", list(LONE_ARC_PROBABILITIES))
+    print(f"pooled {logs.size} {what}; quantiles at", list(LONE_ARC_PROBABILITIES))
     print("  (" + ", ".join(f"{v:+.4f}" for v in q) + ")")
+
+
+def finder_table(paths: list[str]) -> None:
+    _print_table(_lone_rows(paths), "lone_arc", "lone arcs", "r_arc")
+
+
+def unpaired_table(paths: list[str]) -> None:
+    """The finder's ``"unpaired"`` table: ln(theta_E / radius) of the single arcs it did not call lone (no counter-arc,
+    ridge points spread to other sides; records' ``single`` with no ``lone_arc``), per field maker and pooled."""
+    import json
+
+    rows = [r for p in paths for r in json.loads(Path(p).read_text())
+            if r.get("is_lens", True) and r.get("single") and not np.isfinite(r.get("lone_arc", float("nan")))]
+    _print_table(rows, "radius", "unpaired arcs", "radius")
 
 
 def finder_check(paths: list[str]) -> None:
@@ -143,11 +172,14 @@ def main() -> None:
     parser.add_argument("--merge", nargs="*", help=".npy files of earlier parts to pool with this one")
     parser.add_argument("--finder-table", nargs="*", help="finder record files: the 'ridge' table")
     parser.add_argument("--finder-check", nargs="*", help="finder record files: coverage of its lone arcs")
+    parser.add_argument("--unpaired-table", nargs="*", help="finder record files: the 'unpaired' table")
     args = parser.parse_args()
     if args.finder_table:
         finder_table(args.finder_table)
     if args.finder_check:
         finder_check(args.finder_check)
+    if args.unpaired_table:
+        unpaired_table(args.unpaired_table)
     if args.calibrate or args.merge:
         calibrate(_seeds(args.calibrate) if args.calibrate else range(0), args.save, args.merge)
     if args.check:

@@ -10,7 +10,11 @@ there is one table for each measure (:data:`LONE_ARC_LOG_RATIO_QUANTILES`):
 - ``"points"``: the median distance of points marked along the arc from the lens centre (the lens-model fit);
 - ``"ridge"``: the radius of the arc's azimuthal-profile peak as the ring finder measures it, for the arcs the
   finder itself calls lone (one-sided, unpaired; its counter-image not found), whose sources lie further from the
-  axis than those of marked arcs with a counter-image hidden.
+  axis than those of marked arcs with a counter-image hidden;
+- ``"unpaired"``: the same radius for the finder's other single arcs (no counter-arc, but ridge points on other
+  sides too), which are as often parts of rings, quads and folds (theta_E at the radius) as lone arcs outside it;
+  the finder keeps their radius and states this table's spread around it
+  (:func:`lensmass.core.ring_shapes._unpaired_arc`).
 """
 
 from __future__ import annotations
@@ -32,17 +36,30 @@ LONE_ARC_PROBABILITIES = (0.0, 0.01, 0.025, 0.05, 0.1, 0.16, 0.25, 0.5, 0.75, 0.
 LONE_ARC_LOG_RATIO_QUANTILES: dict[str, tuple[float, ...]] = {
     "points": (-0.3032, -0.2383, -0.2014, -0.1842, -0.1506, -0.1148, -0.0758, +0.0117, +0.1140, +0.1619, +0.1951,
                +0.2308, +0.2660, +0.2967, +0.4428),
-    "ridge": (-1.3832, -1.1558, -0.9698, -0.7325, -0.5966, -0.5110, -0.4170, -0.2945, -0.1657, +0.2338, +0.3126,
-              +0.4056, +0.5917, +0.8218, +1.1601),
+    "unpaired": (-1.0262, -0.8873, -0.7433, -0.5499, -0.4607, -0.4048, -0.2943, -0.0633, +0.0341, +0.0722, +0.2057,
+                 +0.3330, +0.6760, +1.1132, +1.6548),
+    "ridge": (-1.4829, -1.1109, -1.0601, -0.9777, -0.5970, -0.5202, -0.3999, -0.3102, +0.2698, +0.3851, +0.4855,
+              +0.7726, +0.8468, +0.8810, +1.0487),
 }
 #: Where the ``"ridge"`` table comes from: the ring finder (lensmass.core.ringfinder.find_ring) on lenses of both
-#: field makers, tuning seeds 630000-630299 (the project's generator, lone arcs among its arc kinds) and
-#: 632000-632349 and 634000-634119 (benchmarks/stress_fields.py, all lens kinds and one-arc lenses); the 119 arcs it
-#: called lone (77 and 42), their profile-peak radius r_arc against the true theta_E: ln(theta_E / r_arc) median
-#: -0.265 (ours) and -0.457 (stress), 16-84% -0.38 to +0.21 and -0.61 to +0.24. The wide spread is the sources'
-#: unknown offsets, plus features the finder took for an arc that were not one (a counter-image inside theta_E,
-#: a neighbour's residual). Made by ``benchmarks/calibrate_lone_arc.py --finder-table``.
-RIDGE_CALIBRATION = "find_ring on 119 lone arcs of both field makers, tuning seeds 630000-634119"
+#: field makers, all lens kinds in equal shares (``benchmarks/calibrate_ring_floors.py record``, 315 lenses of each
+#: maker, tuning seeds 620700-621329 and 623400-624029); the 130 arcs it called lone (74 ours, 56 stress), their
+#: profile-peak radius r_arc against the true theta_E: ln(theta_E / r_arc) median -0.298 (ours) and -0.320 (stress),
+#: 16-84% -0.39 to +0.30 and -0.60 to +0.48; pooled theta_E / r_arc median 0.733, 1 sigma 0.59-1.47. Remade (h15b)
+#: once arcs with a counter-image found on the far side are paired instead (ring_shapes._counter_pair): the lone arcs
+#: left have sources further out or are features that are no arc (a counter-image inside theta_E, a neighbour's
+#: residual), hence the wide upper side. The former table (h14o, 119 lone arcs, seeds 630000-634119, median 0.745,
+#: 1 sigma 0.60-1.26) covered these 56%/88% (tuning) and 39%/95% (check seeds 627000-627629) inside 1/2 sigma; this one
+#: 68%/94% and 59%/98%. Made by ``benchmarks/calibrate_lone_arc.py --finder-table``.
+RIDGE_CALIBRATION = "find_ring on 130 lone arcs of both field makers, tuning seeds 620700-624029"
+#: Where the ``"unpaired"`` table comes from (h15b): the ring finder on 630 lenses of each field maker, all lens kinds
+#: in equal shares (``benchmarks/calibrate_ring_floors.py record``, tuning seeds 620700-621329 and 623400-624029);
+#: the 291 single arcs it did not call lone or paired (99 ours, 192 stress), ln(theta_E / radius) pooled: median
+#: -0.063, 16-84% -0.405 to +0.072 (theta_E / radius 0.67-1.07), per maker 0.68-1.06 (ours) and 0.66-1.09 (stress):
+#: one arcs (stress: 0.45-0.75 of the radius) and ring parts (0.95-1.05) alike, which nothing tried told apart
+#: (the arc's azimuthal extent, its length over its width, the light on the far side, the ridge points' mean
+#: direction). Made by ``benchmarks/calibrate_lone_arc.py --unpaired-table``. Upper tail: features inside theta_E.
+UNPAIRED_CALIBRATION = "find_ring on 291 unpaired single arcs of both field makers, tuning seeds 620700-624029"
 MEASURES = tuple(LONE_ARC_LOG_RATIO_QUANTILES)
 
 
@@ -96,5 +113,5 @@ def lone_arc_theta_e_draws(x, y, center_x: float, center_y: float, n: int = 4000
     return r_arc * lone_arc_ratio_quantiles(u, measure)
 
 
-__all__ = ["LONE_ARC_LOG_RATIO_QUANTILES", "LONE_ARC_PROBABILITIES", "MEASURES", "lone_arc_ratio_quantiles",
-           "lone_arc_theta_e", "lone_arc_theta_e_draws"]
+__all__ = ["LONE_ARC_LOG_RATIO_QUANTILES", "LONE_ARC_PROBABILITIES", "MEASURES", "UNPAIRED_CALIBRATION",
+           "lone_arc_ratio_quantiles", "lone_arc_theta_e", "lone_arc_theta_e_draws"]

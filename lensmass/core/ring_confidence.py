@@ -154,7 +154,8 @@ def _calibrate(out: RingResult) -> RingResult:
         return out
     single_arc = out.coverage < RING_COVERAGE and not out.paired
     lone = bool(np.isfinite(out.lone_arc_radius_pix))  # its error is the lone-arc rule's (lensmass.core.lone_arc)
-    floor = 0.0 if lone else (SINGLE_ARC_SYSTEMATIC if single_arc else RING_FLOOR)
+    held = out.interval_shape_pix is not None  # an unpaired arc's calibrated interval (ring_shapes._unpaired_arc)
+    floor = 0.0 if (lone or held) else (SINGLE_ARC_SYSTEMATIC if single_arc else RING_FLOOR)
     light = out.lens_light
     seeing = float(light.psf_fwhm_pix) if light is not None and light.ok else float("nan")
     psf = max(seeing, SAMPLING_FWHM_PIX) if np.isfinite(seeing) else seeing  # no ring is sampled thinner than pixels

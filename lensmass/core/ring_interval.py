@@ -1,11 +1,13 @@
 """The ring finder's stated interval: 1- and 2-sigma bounds of theta_E, asymmetric where its calibrated error is.
 
 A lone arc's theta_E comes from the calibrated spread of theta_E / r_arc (:mod:`lensmass.core.lone_arc`), which is
-skewed (the "ridge" table: median 0.745, 16-84% 0.60-1.26), so a symmetric +- sigma would be too wide below and too
-narrow above. The finder keeps that shape (:func:`hold_shape`) and states, at the end, bounds at the probabilities
-of a normal distribution's 1 and 2 sigma (:data:`SIGMA_PROBABILITIES`, common practice: 15.87/84.13% and
-2.275/97.725%), with every symmetric error term added later (seeing, stretch, refit) joined to each side in
-quadrature (:func:`state_interval`). ``radius_err_pix`` stays one number: half the 1-sigma interval's width.
+skewed (the "ridge" table: median 0.733, 16-84% 0.59-1.47), and an unpaired single arc keeps its radius with that
+module's "unpaired" spread around it (0.67-1.07 of it for 1 sigma: :func:`lensmass.core.ring_shapes._unpaired_arc`),
+so a symmetric +- sigma would be too wide on one side and too narrow on the other. The finder keeps that shape
+(:func:`hold_shape`) and states, at the end, bounds at the probabilities of a normal distribution's 1 and 2 sigma
+(:data:`SIGMA_PROBABILITIES`, common practice: 15.87/84.13% and 2.275/97.725%), with every symmetric error term
+added later (seeing, stretch, refit) joined to each side in quadrature (:func:`state_interval`). ``radius_err_pix``
+stays one number: half the 1-sigma interval's width.
 """
 
 from __future__ import annotations
@@ -144,7 +146,8 @@ def interval_draws(center: float, bounds: Sequence[float], n: int = 10000, seed:
 
 
 #: What the model of theta_E says when its interval is asymmetric (:func:`draw_options`).
-ASYMMETRIC_NOTE = ("; its interval is asymmetric (the calibrated spread of theta_E over a lone arc's radius), and "
+ASYMMETRIC_NOTE = ("; its interval is asymmetric (the calibrated spread of theta_E over a lone or unpaired arc's "
+                   "radius), and "
                    "the masses' Monte Carlo draws theta_E from it")
 
 

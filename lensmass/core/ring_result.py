@@ -17,7 +17,7 @@ class RingResult:
     ``radius_pix`` / ``radius_err_pix``: ring radius (sqrt(a b) of the ellipse through the
     ridge points, or the circle radius) and its 1-sigma error, in pixels: half the width of the 1-sigma interval
     ``radius_lo_pix``-``radius_hi_pix`` (2 sigma: ``radius_lo2_pix``-``radius_hi2_pix``), which is asymmetric where
-    the calibrated error is (a lone arc: :mod:`lensmass.core.ring_interval`); count coverage with the bounds. ``kind`` is
+    the calibrated error is (a lone or unpaired arc: :mod:`lensmass.core.ring_interval`); count coverage with the bounds. ``kind`` is
     "ring", "arcs" or "none". ``points_x``/``points_y`` are the per-sector ridge points.
     ``residual`` is the lens-subtracted image the finder searched.
     """

@@ -1,5 +1,5 @@
 """The ring finder following the ring's shape: elliptical annuli for a partial ring, a lone arc's radius
-scaled to theta_E, arc pairs, the SIE correction of an elongated ring, and their tuned constants. The search
+scaled to theta_E, an unpaired arc's calibrated interval, arc pairs, the SIE correction of an elongated ring, and their tuned constants. The search
 itself is passed in by :mod:`lensmass.core.ringfinder`."""
 
 from __future__ import annotations
@@ -8,6 +8,7 @@ from collections.abc import Callable
 
 import numpy as np
 
+from lensmass.core.counter_image import find_counter_image
 from lensmass.core.elliptical_annuli import mass_alignment_weight, ring_shape, sie_ring_factor
 from lensmass.core.lone_arc import lone_arc_ratio_quantiles, lone_arc_theta_e
 from lensmass.core.ring_confidence import RING_COVERAGE
@@ -44,14 +45,15 @@ SIE_FACTOR_ERROR_SHARE = 0.5
 def _follow_shape(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop, *,
                   ring_search: Callable[..., RingResult]) -> RingResult:
     """The FITS route's answer for the ring's shape: a partial ring re-measured in elliptical annuli
-    (:func:`_elliptical_pass`), a lone arc's radius scaled to theta_E (:func:`_lone_arc`). (The picture routes keep
+    (:func:`_elliptical_pass`), a lone arc's radius scaled to theta_E (:func:`_lone_arc`), another single arc's
+    interval (:func:`_unpaired_arc`). (The picture routes keep
     their calibrated circular answers: with it, tests/core/test_colour_cutouts.py's square-root pictures had 7 of 12
     hard rings within 5%, under the 8 it asks.) ``ring_search`` is the finder's search
     (:func:`lensmass.core.ringfinder._search`, passed in: it calls this)."""
     if not best.found:
         return best
-    return _lone_arc(_elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop,
-                                     ring_search=ring_search), n_sectors)
+    return _unpaired_arc(_lone_arc(_elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings,
+                                                    should_stop, ring_search=ring_search), n_sectors))
 
 
 def _unmasked_share(best: RingResult, n_sectors: int) -> float:
@@ -76,13 +78,15 @@ def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
         return best
     if best.coverage >= RING_COVERAGE * _unmasked_share(best, n_sectors):  # a ring seen wherever it is not masked
         return best
+    if _counter_pair(best):
+        return best
     arc = best.radius_pix
     theta_e, spread = lone_arc_theta_e(arc, "ridge")
     measured = best.radius_err_pix * theta_e / arc
     best.lone_arc_radius_pix = float(arc)
     best.radius_pix = theta_e
     best.radius_err_pix = float(np.hypot(measured, spread))
-    # The spread is skewed (theta_E / r_arc 0.60-1.26 for 1 sigma about 0.745): the interval keeps its shape.
+    # The spread is skewed (theta_E / r_arc 0.59-1.47 for 1 sigma about 0.733): the interval keeps its shape.
     q = arc * lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, "ridge")
     hold_shape(best, [theta_e + np.sign(b - theta_e) * np.hypot(b - theta_e, k * measured)
                       for b, k in zip(q, (2, 1, 1, 2))])
@@ -93,6 +97,54 @@ def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
                          "calibrated lone arcs, wider above than below; mark a counter-image to measure it.")
     best.message = (f"A lone arc at {arc:.2f} pixels: theta_E about {shown} ({best.score:.1f} sigma, "
                     f"{best.coverage:.0%} of directions).")
+    return best
+
+
+def _counter_pair(best: RingResult) -> bool:
+    """Pair a one-sided arc with its counter-image found on the far side of the lens
+    (:func:`lensmass.core.counter_image.find_counter_image`): theta_E is their mean radius (exact for an isothermal
+    sphere, theta_E + beta and theta_E - beta; common practice), with :data:`PAIR_SYSTEMATIC` of half their difference
+    in the error, as :func:`_pair_of_arcs` states it. Returns whether it paired."""
+    if best.residual is None:
+        return False
+    light = best.lens_light
+    fwhm = float(light.psf_fwhm_pix) if light is not None and light.ok else float(best.ring_width_pix)
+    arc = best.radius_pix
+    inner = find_counter_image(best.residual, best.center_x, best.center_y, arc, _mean_direction(best)[0],
+                               best.noise_sigma, fwhm)
+    if not np.isfinite(inner):
+        return False
+    best.radius_pix = float(0.5 * (arc + inner))
+    best.radius_err_pix = float(np.hypot(best.radius_err_pix, PAIR_SYSTEMATIC * 0.5 * (arc - inner)))
+    best.paired = True
+    best.confident = False  # one arc and a faint feature inside it: never a confident ring
+    best.axis_ratio, best.angle_deg = float("nan"), float("nan")
+    best.message = (f"An arc at {arc:.2f} pixels and its counter-image at {inner:.2f} pixels on the far side of the "
+                    f"lens: theta_E = their mean, {best.radius_pix:.2f} +- {best.radius_err_pix:.2f} pixels.")
+    best.warnings.append("An arc and a fainter counter-image inside it on the far side of the lens: the Einstein radius "
+                         "is their mean radius (exact for an isothermal sphere); a lens-model fit of the two is better.")
+    return True
+
+
+def _unpaired_arc(best: RingResult) -> RingResult:
+    """An arc seen on one side without a counter-arc that :func:`_lone_arc` does not take (its ridge points spread
+    to other sides): part of a ring whose other parts are faint (theta_E at its radius), or a lone arc outside
+    theta_E by its source's offset (for an isothermal sphere the bright image lies at theta_E + beta: common
+    practice), which one arc does not tell apart. Its radius is kept (the ring part's answer) and the interval takes
+    the calibrated spread of theta_E / radius over both (:func:`lensmass.core.lone_arc.lone_arc_ratio_quantiles`,
+    the ``"unpaired"`` table): wide below the radius, narrow above it."""
+    if (not best.found or best.paired or best.coverage >= RING_COVERAGE or np.isfinite(best.lone_arc_radius_pix)
+            or best.interval_shape_pix is not None):
+        return best
+    arc = best.radius_pix
+    measured = best.radius_err_pix
+    q = arc * lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, "unpaired")
+    best.radius_err_pix = float(np.hypot(measured, 0.5 * (q[2] - q[1])))
+    hold_shape(best, [arc + np.sign(b - arc) * np.hypot(b - arc, k * measured) for b, k in zip(q, (2, 1, 1, 2))])
+    best.warnings.append(f"An arc at {arc:.2f} pixels with no counter-arc found: it may be part of a ring (theta_E at "
+                         f"its radius) or a lone arc outside the Einstein radius by its source's offset, so theta_E "
+                         f"is stated as {interval_text(arc, q, 'pixels')}, the spread of theta_E / radius over "
+                         "calibrated unpaired arcs, wider below than above; mark a counter-image to measure it.")
     return best
 
 

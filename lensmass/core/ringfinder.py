@@ -45,7 +45,7 @@ Method (our own):
    barely resolved from the galaxy, then the calibrated floors and terms of what the finder sees of
    :func:`~lensmass.core.ring_confidence._calibrate` (rings, single arcs) and, for 8-bit stretched pictures,
    :data:`~lensmass.core.ring_pictures.STRETCHED_SYSTEMATIC`. The answer states a 1- and a 2-sigma interval
-   (``radius_lo_pix`` ... ``radius_hi2_pix``, :mod:`lensmass.core.ring_interval`), asymmetric for a lone arc.
+   (``radius_lo_pix`` ... ``radius_hi2_pix``, :mod:`lensmass.core.ring_interval`), asymmetric for a lone or unpaired arc.
 
 ``score`` is the significance of the ring peak in sigma; ``coverage`` the fraction of
 sectors where it is detected. ``confident`` is calibrated on generated non-lenses: see

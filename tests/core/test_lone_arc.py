@@ -21,7 +21,7 @@ from tests.core.test_elliptical_rings import CENTRE, SIZE, _sie_ring
 def test_the_lens_model_and_the_finder_share_one_rule():
     # one function, two tables (what each caller measures); the lens model's is the 1400-arc table it always had
     assert lens_model.lone_arc_theta_e_draws is lone_arc.lone_arc_theta_e_draws
-    assert set(lone_arc.MEASURES) == {"points", "ridge"}
+    assert set(lone_arc.MEASURES) == {"points", "ridge", "unpaired"}
     te, err = lone_arc.lone_arc_theta_e(1.0, "points")
     assert abs(te - np.exp(0.0117)) < 1e-9  # the table's median, ln ratio +0.0117
     img = _sie_ring(16.0, 1.0, 0.0, seed=11, source=(0.3 * 16.0, 0.0), size_pix=1.2)

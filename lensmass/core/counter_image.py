@@ -1,0 +1,99 @@
+"""The counter-image of a single arc: a search of the lens-subtracted image on the far side of the lens.
+
+For an isothermal sphere a source at beta behind the lens has its bright image at theta_E + beta and its
+counter-image at theta_E - beta on the opposite side (common practice; Narayan & Bartelmann 1996, eq. 29), so the two
+radii give theta_E = (r_arc + r_counter) / 2 however far the source is from the axis. The ring finder's profile search
+often misses the counter-image, which is fainter and lies inside the arc, on the lens light's residual. Here the
+residual is averaged in a wedge opposite the arc and, at the same radii, in the two wedges at right angles to it
+(their mean removes what is round: the lens light's leftover), and a peak standing :data:`COUNTER_MIN_SNR` above
+that is the counter-image.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+#: Half opening of the wedges, degrees.
+WEDGE_HALF_DEG = 30.0
+#: Significance of the wedge-minus-sides peak (its mean over one seeing FWHM of radius) to count as a counter-image.
+COUNTER_MIN_SNR = 5.0
+#: The counter-image is searched from this many seeing FWHM from the centre (the lens core's residual inside) ...
+COUNTER_MIN_FWHM = 1.0
+#: ... to this share of the arc's radius (theta_E - beta < theta_E < theta_E + beta).
+COUNTER_MAX_SHARE = 0.9
+
+
+def find_counter_image(residual: np.ndarray, cx: float, cy: float, arc_radius_pix: float, arc_angle_rad: float,
+                       noise_sigma: float, fwhm_pix: float) -> float:
+    """Radius (pixels) of the counter-image of an arc at ``arc_radius_pix`` in direction ``arc_angle_rad`` (from +x,
+    radians) about (``cx``, ``cy``) in the lens-subtracted ``residual`` (NaN = masked), or NaN when none stands out.
+
+    Examples
+    --------
+    >>> yy, xx = np.mgrid[0:81, 0:81]
+    >>> img = 10 * np.exp(-0.5 * (np.hypot(xx - 64, yy - 40) / 2) ** 2)   # the arc, 24 pixels to the right
+    >>> img = img + 4 * np.exp(-0.5 * (np.hypot(xx - 30, yy - 40) / 2) ** 2)  # a counter-image 10 pixels left
+    >>> img = img + np.random.default_rng(1).normal(0, 0.3, img.shape)
+    >>> round(find_counter_image(img, 40.0, 40.0, 24.0, 0.0, 0.3, 4.0))
+    10
+    """
+    fwhm = max(float(fwhm_pix), 1.0) if np.isfinite(fwhm_pix) else 2.0
+    lo, hi = max(COUNTER_MIN_FWHM * fwhm, 2.0), COUNTER_MAX_SHARE * float(arc_radius_pix)
+    if hi <= lo + fwhm or not np.isfinite(noise_sigma) or noise_sigma <= 0:
+        return float("nan")
+    r0 = int(np.ceil(float(arc_radius_pix) + fwhm)) + 2  # the arc too: its light is compared below
+    ny, nx = residual.shape
+    y0, y1 = max(0, int(cy) - r0), min(ny, int(cy) + r0 + 1)
+    x0, x1 = max(0, int(cx) - r0), min(nx, int(cx) + r0 + 1)
+    cut = residual[y0:y1, x0:x1]
+    yy, xx = np.mgrid[y0:y1, x0:x1]
+    rr = np.hypot(xx - cx, yy - cy)
+    off = np.abs((np.arctan2(yy - cy, xx - cx) - arc_angle_rad + np.pi) % (2 * np.pi) - np.pi)  # 0 at the arc
+    half = np.radians(WEDGE_HALF_DEG)
+    ok = np.isfinite(cut) & (rr >= lo) & (rr <= hi)
+    far = ok & (off >= np.pi - half)
+    side = ok & (np.abs(off - np.pi / 2) <= half)
+    edges = np.arange(lo, hi + fwhm, fwhm / 2)
+    idx = np.digitize(rr, edges) - 1
+    n_bins = len(edges) - 1
+    if n_bins < 2:
+        return float("nan")
+
+    def profile(sel):
+        k = idx[sel]
+        good = (k >= 0) & (k < n_bins)
+        s = np.bincount(k[good], weights=cut[sel][good], minlength=n_bins)
+        n = np.bincount(k[good], minlength=n_bins)
+        return s, n
+
+    fs, fn = profile(far)
+    ss, sn = profile(side)
+    # Sums over one FWHM of radius (two half-FWHM bins): the counter-image's light, not one bin's noise.
+    fs, fn, ss, sn = (a[:-1] + a[1:] for a in (fs, fn, ss, sn))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        diff = fs / fn - ss / sn
+        err = noise_sigma * np.sqrt(1.0 / fn + 1.0 / sn)
+        snr = np.where((fn >= 3) & (sn >= 3), diff / err, -np.inf)
+    k = int(np.argmax(snr))
+    if not np.isfinite(snr[k]) or snr[k] < COUNTER_MIN_SNR:
+        return float("nan")
+    inner = float(edges[k + 1])  # the middle of the two bins summed
+    # The counter-image is the fainter one (|mu-| < mu+ for an isothermal sphere; common practice): its light in the
+    # far wedge within a FWHM of its radius, less the sides', must be below the arc's in its own wedge.
+    sides = np.isfinite(cut) & (np.abs(off - np.pi / 2) <= half)
+    arc = np.isfinite(cut) & (off <= half)
+    if _excess(cut, rr, far, sides, inner, fwhm) >= _excess(cut, rr, arc, sides, float(arc_radius_pix), fwhm):
+        return float("nan")
+    return inner
+
+
+def _excess(cut, rr, wedge, side, radius, fwhm) -> float:
+    """Light in ``wedge`` within one ``fwhm`` of ``radius`` above the mean of ``side`` at those radii."""
+    ring = np.abs(rr - radius) <= fwhm
+    w, s = wedge & ring, side & ring
+    if not w.any() or not s.any():
+        return float("nan")
+    return float(np.sum(cut[w]) - w.sum() * np.mean(cut[s]))
+
+
+__all__ = ["COUNTER_MAX_SHARE", "COUNTER_MIN_FWHM", "COUNTER_MIN_SNR", "WEDGE_HALF_DEG", "find_counter_image"]
