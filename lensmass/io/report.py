@@ -168,8 +168,10 @@ def _method_text(result: Mapping[str, Any]) -> str:
            "the 16th-84th percentiles (68%)." if mc else "No input uncertainty was given, so no interval is quoted.")
     if str(result.get("method", "")).startswith("automatic ring finder"):
         how = ("The Einstein radius is the automatic ring finder's: the radius of the circle (or the equal-area radius "
-               "of the ellipse) through the ring's ridge in the lens-subtracted image, or for a lone arc its radius "
-               "scaled by the calibrated spread of theta_E over lone arcs (an asymmetric interval). ")
+               "of the ellipse) through the ring's ridge in the lens-subtracted image; for arcs on opposite sides of "
+               "the lens, or an arc and its fainter counter-image, the mean of their radii; for a single arc, its "
+               "radius with the calibrated spread of theta_E over single arcs, or for a lone arc its radius scaled "
+               "by the calibrated spread over lone arcs (asymmetric intervals; the notes say which rule applied). ")
     elif result.get("theta_e_from") == "lens model":
         how = "The Einstein radius is the lens model's, fitted to the marked images and arcs. "
     else:
