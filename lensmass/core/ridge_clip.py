@@ -15,6 +15,8 @@ Chosen on hard stress rings (benchmarks/stress_fields.py) with the true lens lig
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 from astropy.stats import mad_std
 
@@ -49,7 +51,10 @@ def radial_offsets(fit: EllipseFit, x, y) -> np.ndarray:
 def clipped_ellipse_fit(x, y, *, center: tuple[float, float], point_err: float | None = None) -> EllipseFit:
     """:func:`lensmass.core.arcfit.fit_ellipse` of the points about ``center``, refitted (up to :data:`ROUNDS`
     times) without the points more than max(:data:`CLIP_SIGMA` mad_std, :data:`CLIP_FLOOR_PIX`) off the ellipse
-    along their direction, while at least :data:`MIN_KEPT` remain.
+    along their direction, while at least :data:`MIN_KEPT` remain. Its ``theta_e_err`` and ``rms`` are never below
+    the plain fit's: the finder's error terms and confidence (:mod:`lensmass.core.ring_confidence`) were calibrated
+    on the scatter of all the points (with the clipped fit's own, our generator's seeds 600000-600149 had 88%
+    inside 2 sigma against 91%).
 
     Examples
     --------
@@ -61,7 +66,7 @@ def clipped_ellipse_fit(x, y, *, center: tuple[float, float], point_err: float |
     (10.0, True)
     """
     x, y = np.asarray(x, float), np.asarray(y, float)
-    fit = fit_ellipse(x, y, center=center, point_err=point_err)
+    fit = plain = fit_ellipse(x, y, center=center, point_err=point_err)
     for _ in range(ROUNDS):
         off = radial_offsets(fit, x, y)
         keep = np.abs(off) <= max(CLIP_SIGMA * float(mad_std(off)), CLIP_FLOOR_PIX)
@@ -69,4 +74,6 @@ def clipped_ellipse_fit(x, y, *, center: tuple[float, float], point_err: float |
             break
         x, y = x[keep], y[keep]
         fit = fit_ellipse(x, y, center=center, point_err=point_err)
-    return fit
+    # Stray points say the ridge is uncertain: the error and the scatter (which the finder's calibrated error terms
+    # and its confidence read, lensmass.core.ring_confidence) stay at least the plain fit's.
+    return replace(fit, theta_e_err=max(fit.theta_e_err, plain.theta_e_err), rms=max(fit.rms, plain.rms))

@@ -36,6 +36,7 @@ def test_stray_points_are_left_out(q):
     clipped = clipped_ellipse_fit(x, y, center=(50.0, 40.0))
     assert plain.theta_e > 12.25
     assert abs(clipped.theta_e - 12.0) < 0.15
+    assert clipped.theta_e_err >= plain.theta_e_err and clipped.rms >= plain.rms  # the strays still count in the error
     assert x.size - 4 <= clipped.n_points <= x.size - 2  # the two strays out, at most two noisy points with them
 
 
