@@ -61,13 +61,14 @@ import numpy as np
 from scipy.ndimage import gaussian_filter
 from scipy.signal import find_peaks
 
-from lensmass.core.arcfit import fit_circle, fit_ellipse
+from lensmass.core.arcfit import fit_circle
 from lensmass.core.bulge_disc import bulge_and_disc
 from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
 from lensmass.core.lenslight import fit_lens_light, robust_sigma
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
 from lensmass.core.ridge import ridge_peak
+from lensmass.core.ridge_clip import clipped_ellipse_fit
 from lensmass.core.ring_confidence import (ACROSS_MIN_DEG, CONFIDENT_COVERAGE, CONFIDENT_MAX_OFFSET,
                                            CONFIDENT_MAX_RMS_WIDTH, CONFIDENT_MAX_THICKNESS, CONFIDENT_MAX_WIDTH_PSF,
                                            CONFIDENT_MIN_WIDTH_PSF,
@@ -724,7 +725,7 @@ def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma,
     radius, radius_err, q, angle, rms = r0, width / 2.355 / np.sqrt(max(len(px), 1)), float("nan"), float("nan"), float("nan")
     if len(px) >= 6 and coverage >= 0.5:
         try:
-            ef = fit_ellipse(px, py, center=(cx, cy), point_err=BIN_PIX / np.sqrt(12))
+            ef = clipped_ellipse_fit(px, py, center=(cx, cy), point_err=BIN_PIX / np.sqrt(12))
             if 0.4 <= ef.axis_ratio <= 1.0 and abs(ef.theta_e - r0) < 0.25 * r0:
                 radius, radius_err, q, angle, rms = ef.theta_e, ef.theta_e_err, ef.axis_ratio, ef.angle_deg, ef.rms
                 radius, radius_err = _sie_ring_correction(radius, radius_err, q, angle, light)
