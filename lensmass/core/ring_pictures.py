@@ -407,43 +407,46 @@ def _kept_core_radius(rgb: np.ndarray | None, cx: float, cy: float) -> float:
     (:func:`~lensmass.core.colour_separation.colour_lost`), reaching within 2 pixels of (cx, cy); 0 when none."""
     if rgb is None:
         return 0.0
-    from scipy.ndimage import binary_closing, label
+    from scipy.ndimage import binary_closing
 
     from lensmass.core.colour_separation import colour_lost, saturated
 
     kept = binary_closing(saturated(rgb) & ~colour_lost(rgb))  # closed over JPEG's holes just below the top
-    labels, _ = label(kept)
+    return float(np.sqrt(_piece_at(kept, cx, cy) / np.pi))
+
+
+def _piece_at(selected: np.ndarray, cx: float, cy: float) -> int:
+    """Pixels in the connected piece of ``selected`` (scipy.ndimage ``label``) that most covers the 5 x 5 pixels
+    about (cx, cy); 0 when none reaches there."""
+    from scipy.ndimage import label
+
+    labels, _ = label(selected)
     y0, x0 = max(0, int(round(cy)) - 2), max(0, int(round(cx)) - 2)
     near = labels[y0:int(round(cy)) + 3, x0:int(round(cx)) + 3]
     if not near.any():
-        return 0.0
-    return float(np.sqrt(np.count_nonzero(labels == np.bincount(near[near > 0]).argmax()) / np.pi))
+        return 0
+    return int(np.count_nonzero(labels == np.bincount(near[near > 0]).argmax()))
 
 
 def _strong_stretch_halfmax(rgb: np.ndarray | None, cx: float, cy: float) -> float:
     """The half-maximum diameter (of a disc of its area) of the lens at (cx, cy) on a colour picture linearised at the
-    strongest of :data:`COLOUR_MASK_STRENGTHS` (:func:`colour_mask_image`, the sky the median of a frame
-    :data:`~lensmass.core.colour_separation.SKY_FRAME_SHARE` wide): the narrowest core any plausible display stretch
+    strongest of :data:`COLOUR_MASK_STRENGTHS` (:func:`colour_mask_image`, the sky the sigma-clipped median of a
+    frame :data:`~lensmass.core.colour_separation.SKY_FRAME_SHARE` wide, :func:`lensmass.core.sky_level.border_sky`): the narrowest core any plausible display stretch
     gives. NaN without a picture or a lens peak."""
     if rgb is None:
         return float("nan")
-    from scipy.ndimage import label
-
     from lensmass.core.colour_separation import SKY_FRAME_SHARE
+    from lensmass.core.sky_level import border_sky
 
     img = colour_mask_image(rgb, np.zeros(rgb.shape[:2]), max(COLOUR_MASK_STRENGTHS))
     ny, nx = img.shape
-    b = max(3, int(SKY_FRAME_SHARE * min(nx, ny)))
-    frame = np.concatenate([img[:b].ravel(), img[-b:].ravel(), img[:, :b].ravel(), img[:, -b:].ravel()])
-    img = img - (np.nanmedian(frame) if np.isfinite(frame).any() else 0.0)
+    sky = border_sky(img, share=SKY_FRAME_SHARE)[0]
+    img = img - (sky if np.isfinite(sky) else 0.0)
     y0, x0 = int(np.clip(round(cy), 2, ny - 3)), int(np.clip(round(cx), 2, nx - 3))
     near = img[y0 - 2:y0 + 3, x0 - 2:x0 + 3]
     if not np.isfinite(near).any() or np.nanmax(near) <= 0:
         return float("nan")
-    labels, _ = label(np.nan_to_num(img, nan=-np.inf) >= 0.5 * np.nanmax(near))
-    counts = np.bincount(labels[y0 - 2:y0 + 3, x0 - 2:x0 + 3].ravel(), minlength=2)
-    counts[0] = 0
-    return float(2 * np.sqrt(np.count_nonzero(labels == counts.argmax()) / np.pi))
+    return float(2 * np.sqrt(_piece_at(np.nan_to_num(img, nan=-np.inf) >= 0.5 * np.nanmax(near), x0, y0) / np.pi))
 
 
 def _picture_core_pix(masks, cx: float, cy: float, rmin: float, rgb: np.ndarray | None = None) -> float:
