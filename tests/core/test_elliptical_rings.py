@@ -61,6 +61,10 @@ def test_elongated_sie_ring_radius_within_5_percent(q, angle, theta_e):
     out = find_ring(img, CENTRE, CENTRE, subtract_lens_light=False, auto_mask=False)
     assert out.found and out.kind == "ring"
     assert abs(out.radius_pix / theta_e - 1) < 0.05, (out.radius_pix, theta_e)
+    # The finder measures the ridge (its sqrt(a b), short of theta_E: KSB 1994's intermediate-axis normalisation) and
+    # carries the shortfall in its error (ring_shapes._sie_ring_correction): theta_E inside the stated 1 sigma.
+    assert abs(out.radius_pix / theta_e - expected.theta_e) < 0.015, (out.radius_pix / theta_e, expected.theta_e)
+    assert out.radius_lo_pix <= theta_e <= out.radius_hi_pix
 
 
 def test_round_ring_is_measured_in_circles():
