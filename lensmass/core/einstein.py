@@ -37,7 +37,8 @@ from lensmass.core.arcfit import _algebraic_circle, arc_span_deg, fit_circle, fi
 from lensmass.core.errors import LensInputError
 from lensmass.core.progress import ProgressCallback, StopCallback
 from lensmass.core.ridge import refine_to_ridge
-from lensmass.core.ring_interval import ASYMMETRIC_NOTE, BOUND_KEYS, bounds_from_pixels, draw_options, interval_bounds
+from lensmass.core.ring_interval import (ASYMMETRIC_NOTE, BOUND_KEYS, TAIL_NOTE, bounds_from_pixels, draw_options,
+                                          interval_bounds, is_normal)
 
 #: Default 1-sigma uncertainty of a marked position, in pixels (a click is good to about half a pixel).
 DEFAULT_POINT_ERR_PIX = 0.5
@@ -80,6 +81,7 @@ class ThetaEMeasurement:
     """Which centre it is, in words (see :mod:`lensmass.core.lens_centre`)."""
     theta_e_bounds_arcsec: tuple[float, float, float, float] | None = None  # the finder's -2..+2 sigma bounds
     asymmetric: bool = False  # those bounds are asymmetric (a lone arc: lensmass.core.ring_interval)
+    tailed: bool = False  # their 2-sigma sides carry a tail term (an 8-bit picture's: lensmass.core.ring_interval)
 
     def keys(self) -> dict[str, Any]:
         """The measurement keys merged into the estimate result."""
@@ -339,7 +341,7 @@ def with_measurement(result: dict[str, Any], m: ThetaEMeasurement) -> dict[str, 
     result["notes"] = list(m.notes) + [n for n in result.get("notes", []) if n not in m.notes]
     models = dict(result.get("models", {}))
     models["theta_e_arcsec"] = (f"measured on the image: {m.method}; error = fit + pixel-scale error in quadrature"
-                                + (ASYMMETRIC_NOTE if m.asymmetric else ""))
+                                + (TAIL_NOTE if m.tailed else ASYMMETRIC_NOTE if m.asymmetric else ""))
     result["models"] = models
     return result
 
@@ -498,7 +500,7 @@ def measurement_of_ring(ring, image, *, pixel_scale_arcsec: float | None = None,
                              "given by the user" if ring.center_source == "given"
                              else f"ring finder's centre: {ring.center_source}",
                              bounds_from_pixels(ring.radius_pix, interval_bounds(ring), scale, scale_err),
-                             getattr(ring, "interval_shape_pix", None) is not None)
+                             not is_normal(ring), float(getattr(ring, "interval_tail_pix", 0.0) or 0.0) > 0)
 
 
 def measure_auto_ring(

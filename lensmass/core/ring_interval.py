@@ -38,7 +38,8 @@ def state_interval(out) -> None:
 
     Without a held shape they are radius -+ 1 and 2 ``radius_err_pix``. With one (:func:`hold_shape`), each side
     is the shape's offset and the error added since (sqrt(err^2 - base^2), times 1 or 2) in quadrature, and
-    ``radius_err_pix`` becomes half the 1-sigma width. Bounds never go below zero.
+    ``radius_err_pix`` becomes half the 1-sigma width. A tail term (``interval_tail_pix``) is joined in quadrature to
+    the 2-sigma sides only. Bounds never go below zero.
 
     Examples
     --------
@@ -47,6 +48,10 @@ def state_interval(out) -> None:
     >>> state_interval(r)
     >>> r.radius_lo_pix, r.radius_hi_pix, r.radius_lo2_pix, r.radius_hi2_pix
     (9.0, 11.0, 8.0, 12.0)
+    >>> r.interval_tail_pix = 1.5
+    >>> state_interval(r)
+    >>> r.radius_lo_pix, r.radius_hi_pix, r.radius_lo2_pix, r.radius_hi2_pix
+    (9.0, 11.0, 7.5, 12.5)
     """
     r, err = float(out.radius_pix), float(out.radius_err_pix)
     shape = getattr(out, "interval_shape_pix", None)
@@ -60,6 +65,9 @@ def state_interval(out) -> None:
         d_lo2, d_lo1 = -math.hypot(shape[0], 2 * extra), -math.hypot(shape[1], extra)
         d_hi1, d_hi2 = math.hypot(shape[2], extra), math.hypot(shape[3], 2 * extra)
         out.radius_err_pix = 0.5 * (d_hi1 - d_lo1)
+    tail = float(getattr(out, "interval_tail_pix", 0.0) or 0.0)
+    if tail > 0:  # a heavier tail than a normal error's: the 2-sigma sides only
+        d_lo2, d_hi2 = -math.hypot(d_lo2, tail), math.hypot(d_hi2, tail)
     out.radius_lo_pix, out.radius_hi_pix = max(r + d_lo1, 0.0), r + d_hi1
     out.radius_lo2_pix, out.radius_hi2_pix = max(r + d_lo2, 0.0), r + d_hi2
 
@@ -149,6 +157,22 @@ def interval_draws(center: float, bounds: Sequence[float], n: int = 10000, seed:
 ASYMMETRIC_NOTE = ("; its interval is asymmetric (the calibrated spread of theta_E over a lone or unpaired arc's "
                    "radius), and "
                    "the masses' Monte Carlo draws theta_E from it")
+#: ... and when its 2-sigma sides carry a tail term (``interval_tail_pix``, an 8-bit picture's).
+TAIL_NOTE = ("; its 2-sigma interval carries a tail term (an 8-bit stretched picture carries no calibrated flux, and a "
+             "wrong candidate lies farther off than a normal error reaches), and the masses' Monte Carlo draws theta_E "
+             "from it")
+
+
+def is_normal(out) -> bool:
+    """Whether a finder's stated interval is a normal one (radius -+ 1 and 2 errors): no held shape, no tail term.
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace
+    >>> is_normal(SimpleNamespace(interval_shape_pix=None, interval_tail_pix=0.0))
+    True
+    """
+    return getattr(out, "interval_shape_pix", None) is None and not float(getattr(out, "interval_tail_pix", 0.0) or 0.0) > 0
 
 
 def draw_options(options: dict | None, theta: float, bounds, asymmetric: bool) -> dict:
@@ -182,5 +206,6 @@ def interval_text(center: float, bounds: Sequence[float], unit: str, decimals: i
             f"2 sigma {f.format(lo2)}-{f.format(hi2)} {unit})")
 
 
-__all__ = ["ASYMMETRIC_NOTE", "BOUND_KEYS", "SIGMA_PROBABILITIES", "SIGMA_SCORES", "bounds_from_pixels", "draw_options", "hold_shape", "interval_bounds", "interval_draws", "interval_text",
+__all__ = ["ASYMMETRIC_NOTE", "BOUND_KEYS", "SIGMA_PROBABILITIES", "SIGMA_SCORES", "TAIL_NOTE", "bounds_from_pixels",
+           "draw_options", "hold_shape", "interval_bounds", "interval_draws", "interval_text", "is_normal",
            "state_interval", "truth_inside"]

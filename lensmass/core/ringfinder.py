@@ -80,7 +80,7 @@ from lensmass.core.ring_pictures import (COLOUR_CORE_PIX, COLOUR_MASK_GROW_PIX, 
                                          LOSSY_ASSUMED_QUALITY, LOSSY_ERROR_SCALE, LOSSY_NOISE_FLOOR,
                                          LOSSY_NOISE_LAG_PIX, PEDESTAL_SIGMAS, PICTURE_CORE_RATIO,
                                          STRENGTH_SPREAD_SHARE, STRETCHED_SYSTEMATIC, STRETCH_DISAGREE_SHARE,
-                                         STRETCH_SINGLE_SYSTEMATIC, _colour_search, _jpeg_quality,
+                                         STRETCH_SINGLE_SYSTEMATIC, _colour_search, _jpeg_quality, add_picture_tail,
                                          _outside_picture_core, _refuse_core_residual, _stretched_grey_search,
                                          _undo_grey_stretch, blue_excess, colour_mask_image, colour_masks,
                                          lossy_error_scale)
@@ -462,6 +462,7 @@ def _finish(out: RingResult, masks, given: bool, colour: bool, quality: float | 
             out.warnings.append(f"The picture was stored with lossy compression (JPEG, quality {quality:.0f}), which "
                                 f"blurs the colours of thin arcs: the radius error is scaled by {scale:.2f}; a PNG or "
                                 "FITS cutout of the same field measures better.")
+        add_picture_tail(out)
     state_interval(out)
     return out
 

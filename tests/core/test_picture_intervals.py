@@ -115,3 +115,39 @@ def test_picture_clipped_about_the_sky_reports_no_ring(tmp_path):
     assert colour_lost_share(image.rgb, c, c, 0.5 * c) > COLOUR_LOST_MAX_SHARE
     out = find_ring(image.data, **picture_options(image))
     assert not out.found and "gentler stretch" in out.message
+
+
+def test_picture_interval_has_a_two_sigma_tail_and_the_masses_draw_from_it(tmp_path):
+    """An 8-bit picture's stated 2-sigma interval carries the tail term
+    (:data:`~lensmass.core.ring_pictures.PICTURE_TAIL_SHARE` of the radius, joined in quadrature to its 2-sigma sides
+    only: a stretched picture's wrong candidates lie farther off than a normal error reaches), its 1 sigma does not;
+    the masses' Monte Carlo then draws theta_E from that interval, each bound at its normal probability
+    (scipy.stats.norm, the reference library). The same ring as flux (no picture) keeps a normal interval."""
+    from scipy import stats
+
+    from lensmass.core.einstein import measurement_of_ring, picture_options
+    from lensmass.core.ring_interval import interval_bounds, interval_draws
+    from lensmass.core.ring_pictures import PICTURE_TAIL_SHARE
+
+    bands = _bands(582000)
+    image = load_image(_jpeg_q75(bands, "make_lupton_rgb", tmp_path), pixel_scale_arcsec=0.2)
+    out = find_ring(image.data, **picture_options(image))
+    assert out.found and out.interval_shape_pix is None  # a ring seen all round: a symmetric error
+    lo2, lo1, hi1, hi2 = interval_bounds(out)
+    r = out.radius_pix
+    assert np.isclose(hi1 - r, r - lo1) and np.isclose(hi1 - r, out.radius_err_pix)  # 1 sigma: no tail
+    tail = PICTURE_TAIL_SHARE * r
+    assert np.isclose(hi2 - r, np.hypot(2 * out.radius_err_pix, tail))
+    assert np.isclose(r - lo2, min(np.hypot(2 * out.radius_err_pix, tail), r))
+    assert hi2 - r > 2 * (hi1 - r) + 0.01 * r  # wider than a normal error's 2 sigma (old main: exactly twice)
+    assert any("tail term" in w for w in out.warnings)
+    m = measurement_of_ring(out, image)
+    assert m.asymmetric and m.tailed
+    d = interval_draws(m.theta_e_arcsec, m.theta_e_bounds_arcsec, n=200000, seed=5)
+    b = np.array(m.theta_e_bounds_arcsec)
+    probs = stats.norm.cdf([-2.0, -1.0, 1.0, 2.0])
+    assert np.allclose(np.percentile(d, 100 * probs), b, atol=0.01 * m.theta_e_arcsec)
+    flux = find_ring(bands[2] + bands[1], auto_mask=True)  # the i + r bands as flux: a FITS-like image
+    if flux.found and flux.interval_shape_pix is None:
+        assert flux.interval_tail_pix == 0.0
+        assert np.isclose(flux.radius_hi2_pix - flux.radius_pix, 2 * flux.radius_err_pix)
