@@ -11,7 +11,7 @@ import numpy as np
 from lensmass.core.counter_image import find_counter_image
 from lensmass.core.elliptical_annuli import mass_alignment_weight, ring_shape, sie_ring_factor
 from lensmass.core.lone_arc import lone_arc_ratio_quantiles, lone_arc_theta_e
-from lensmass.core.ring_confidence import RING_COVERAGE
+from lensmass.core.ring_confidence import CONFIDENT_SCORE, RING_COVERAGE
 from lensmass.core.ring_interval import SIGMA_PROBABILITIES, hold_shape, interval_text
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_sectors import BIN_PIX, unmasked_sector_share
@@ -149,8 +149,12 @@ def _unpaired_arc(best: RingResult) -> RingResult:
 
 
 def _strength(r: RingResult) -> tuple:
-    """How candidates are ranked: found, then confident, then significance (capped) times coverage."""
-    return (r.found, r.found and r.confident, min(r.score, 30.0) * r.coverage)
+    """How candidates are ranked: found, then confident, then significance times coverage, the significance capped
+    at :data:`~lensmass.core.ring_confidence.CONFIDENT_SCORE`: beyond the level at which a feature is surely real,
+    more sigma says how bright it is, not that it is the ring (a neighbour's or a star's leftover light, bright in
+    a few directions, outshines a faint ring); an Einstein ring's light lies at one radius in many directions, so
+    among surely real candidates the one seen in more directions ranks higher."""
+    return (r.found, r.found and r.confident, min(r.score, CONFIDENT_SCORE) * r.coverage)
 
 
 def _elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop, *,
