@@ -552,9 +552,7 @@ def _spread_over_ring(light, radius_pix: float) -> bool:
 def _second_component(img, ring, light, rmin, rmax, n_sectors, should_stop):
     """``ring`` and ``light``, or, for a ring wider than :data:`MISFIT_WIDTH_PSF` seeing widths (one Sersic's misfit,
     a disc's or a PSF halo's leftover light, merged with the ring) where two Sersic components fit the light better
-    with the ring masked (:func:`~lensmass.core.bulge_disc.bulge_and_disc`), the search on their residual when it
-    moves the ring out (:data:`MISFIT_MIN_MOVE`) and still sees it in as many directions (up to
-    :data:`~lensmass.core.ring_confidence.RING_COVERAGE`)."""
+    with the ring masked (:func:`~lensmass.core.bulge_disc.bulge_and_disc`), the search on their residual."""
     if not ring.ring_width_pix >= MISFIT_WIDTH_PSF * light.psf_fwhm_pix:
         return ring, light
     mask = ring_pixels(img.shape, ring, max_half_share=MISFIT_MASK_SHARE)
@@ -565,11 +563,7 @@ def _second_component(img, ring, light, rmin, rmax, n_sectors, should_stop):
                     list(two.notes) + ["Lens light refitted with the ring masked."], None, should_stop,
                     elliptical=False)
     moved_out = (1 + MISFIT_MIN_MOVE) * ring.radius_pix <= again.radius_pix <= ring.radius_pix + ring.ring_width_pix
-    # The second component takes away light merged with the ring, not the ring's own: the ring it leaves is seen in as
-    # many directions (up to RING_COVERAGE), or it is another feature (stress tuning seed 670010: a ring seen in 79%
-    # of the directions went to a neighbour's leftover 33% farther out, seen in 33%).
-    kept_directions = again.coverage >= min(ring.coverage, RING_COVERAGE)
-    return (again, two) if again.found and moved_out and kept_directions else (ring, light)
+    return (again, two) if again.found and moved_out else (ring, light)
 
 
 def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, should_stop, shape=None,
