@@ -92,7 +92,7 @@ from lensmass.core.ring_sectors import (BIN_PIX, MASK_HALF_WIDTHS, _sector_grid,
 from lensmass.core.ring_shapes import (ELLIPSE_CANDIDATES, ELLIPSE_GAIN, ELLIPSE_MAX_COVERAGE, ELLIPSE_MAX_MOVE,
                                        ELLIPSE_MIN_RADIUS_PIX, ELLIPSE_RHO_SPAN, LONE_ARC_DIRECTEDNESS,
                                        PAIR_SYSTEMATIC, SIE_FACTOR_ERROR_SHARE, _follow_shape,
-                                       _pair_of_arcs, _sie_ring_correction, _strength)
+                                       _choose, _pair_of_arcs, _sie_ring_correction)
 from lensmass.core.sky_level import remove_sky_pedestal
 
 __all__ = [  # the names this module has always offered (most now live in the ring_* modules)
@@ -689,7 +689,7 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
         tried.append(_measure_candidate(k, float(scores_ok[i]), res, cx, cy, n_sectors, light, list(warnings), sigma,
                                         sums, counts, smean, radii, p, ps, err, shape))
     report(progress, 1.0)
-    best = max(tried, key=_strength)
+    best = _choose(tried)
     best = _pair_of_arcs(best, tried) if best.found and best.kind == "arcs" else best
     if shape is None and elliptical:
         best = _follow_shape(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop, ring_search=_search)
