@@ -77,6 +77,21 @@ trigger's own losses 550022, 550051, 550064, each moved outward wrongly, remain)
 hard rings 93% -> 93% of 30, inside 1/2 sigma 75%/90% both, confident non-lenses 0 -> 0; panel 71000-71155 (556c555):
 3 answers changed, inside 1/2 sigma 77.7%/93.6% -> 78.7%/94.7%, other figures the same; bench_ring_speed's field does
 not reach the trigger (same radius; CPU best 0.95/0.86 s main, 0.95/0.97 s branch, alternating at load 13).
+
+Choosing the ring among the candidates (h16a, 2026-12-04; load 2-3). Diagnosis on 200 hard rings of tuning seeds
+670000-670352 (main 7cbf062, 125 within 5%): of 75 misses, 30 had no candidate within 5% and a localised feature
+(seen in < 30% of the directions or one-sided) chosen, 16 the ring measured 6-40% off, 7 the right candidate ranked
+lower, 18 the right first-pass answer moved by the refit, the two-component fit or the elliptical pass, 4 no ring.
+A bright localised leftover lifts the mean profile over a broad range and swallows a faint ring's peak: the median
+profile's peaks are now candidates too; features rank by significance capped at the confident level (CONFIDENT_SCORE,
+not 30) times coverage, being confident no longer ranking first; measurements of one feature (radii within 2 bins)
+by the former product. Main -> h16a: hard rings 670000-670352 125 -> 127 of 200 (first pass 126 -> 131), 676000-676359
+(check) 121 -> 120; stress 672000-672509 (tuning) within 5% 40% -> 40%, hard rings 60% -> 63% of 57, rings 54% -> 57%,
+scatter 9.1% -> 8.5%, inside 1/2 sigma 73%/90% -> 74%/91%, confident non-lenses 3 -> 3 of 300; 675000-675509 (check)
+within 5% 41% -> 42%, hard rings 59% -> 61% of 54, rings 54% -> 56%, scatter 7.6% -> 7.0%, inside 1/2 sigma
+65%/88% -> 66%/88%, confident 1 -> 1 of 300. Our generator (bench_ring_realism.py, FITS) 673000/677000 (150 lenses +
+100 non-lenses): within 5% 57%/53% -> 57%/54%, inside 1/2 sigma 74%/92%, 75%/94% unchanged, confident 0 -> 0; hard
+rings 674000/678000 (120 each) 88%/88% both. Within the noise of these samples except the tuning hard rings.
 """
 
 from __future__ import annotations

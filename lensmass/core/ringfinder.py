@@ -29,8 +29,9 @@ Method (our own):
 3. Candidates are the peaks of those profiles that stand out from their surroundings by 3
    sigma (prominence; a galaxy core's residual falling steadily outwards is not a ring).
    Up to :data:`MAX_CANDIDATES` are measured (not only the strongest: a star's or a
-   neighbour's residual can outshine the ring); the one seen in the most directions, weighted
-   by its significance, is kept. Two arcs on opposite sides at different radii give theta_E as
+   neighbour's residual can outshine the ring, and the median profile's peaks are candidates
+   too, as it does not see such a residual); the one seen in the most directions, weighted
+   by its significance up to the confident level, is kept (:func:`~lensmass.core.ring_shapes._strength`). Two arcs on opposite sides at different radii give theta_E as
    their mean radius; a lone arc on one side gives theta_E by the one lone-arc rule (:mod:`lensmass.core.lone_arc`). The lens
    light is refitted with the ring masked and the search repeated (the second answer replaces the
    first when it finds the ring at the same radius; on the FITS route, for a ring, only within 2% of it, a larger
@@ -91,7 +92,7 @@ from lensmass.core.ring_sectors import (BIN_PIX, MASK_HALF_WIDTHS, _sector_grid,
 from lensmass.core.ring_shapes import (ELLIPSE_CANDIDATES, ELLIPSE_GAIN, ELLIPSE_MAX_COVERAGE, ELLIPSE_MAX_MOVE,
                                        ELLIPSE_MIN_RADIUS_PIX, ELLIPSE_RHO_SPAN, LONE_ARC_DIRECTEDNESS,
                                        PAIR_SYSTEMATIC, SIE_FACTOR_ERROR_SHARE, _follow_shape,
-                                       _pair_of_arcs, _sie_ring_correction, _strength)
+                                       _choose, _pair_of_arcs, _sie_ring_correction)
 from lensmass.core.sky_level import remove_sky_pedestal
 
 __all__ = [  # the names this module has always offered (most now live in the ring_* modules)
@@ -654,6 +655,19 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
             candidates.append(int(k))
             scores.append(float(pr))
             from_top.add(int(k))
+    # Rings: a bright localised residual (a neighbour's leftover, a star's wing) lifts the mean profile over a
+    # broad range of radii and can swallow a faint ring's peak; the median of the sector means does not see it,
+    # so its peaks are candidates too, scored by their significance there.
+    mpeaks, mprops = find_peaks(med_s, prominence=0.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mprom = np.where(np.isfinite(med_err[mpeaks]), mprops["prominences"] / med_err[mpeaks], 0.0)
+    from_med = set()
+    for k, pr in zip(mpeaks, mprom):
+        if pr < MIN_PROMINENCE_SIGMA or any(abs(c - k) <= 2 for c in candidates):
+            continue
+        candidates.append(int(k))
+        scores.append(float(max(snr_med[k], pr)))
+        from_med.add(int(k))
     candidates_arr = np.array(candidates, int)
     score_arr = np.array(scores, float)
     scores_ok = np.where(np.isfinite(score_arr), np.maximum(score_arr, 0.0), 0.0)
@@ -672,11 +686,11 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     tried = []
     for i in order:
         k = int(candidates_arr[i])
-        p, ps = (top, top_s) if k in from_top else (prof, prof_s)
+        p, ps = (top, top_s) if k in from_top else ((med, med_s) if k in from_med else (prof, prof_s))
         tried.append(_measure_candidate(k, float(scores_ok[i]), res, cx, cy, n_sectors, light, list(warnings), sigma,
                                         sums, counts, smean, radii, p, ps, err, shape))
     report(progress, 1.0)
-    best = max(tried, key=_strength)
+    best = _choose(tried)
     best = _pair_of_arcs(best, tried) if best.found and best.kind == "arcs" else best
     if shape is None and elliptical:
         best = _follow_shape(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop, ring_search=_search)
