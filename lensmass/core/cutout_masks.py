@@ -13,7 +13,9 @@ Method (our own, on photutils segmentation and deblending):
    light (a Gaussian PSF holds 50%, a Moffat PSF of index 2.5-4.5 holds 34-42%; a blurred
    de Vaucouleurs galaxy much less; common practice: stars are the most concentrated objects).
 3. The lens is the non-star object of good signal nearest the cutout centre (or the one at the
-   user's centre); the hint says when another galaxy is about as close and as bright.
+   user's centre); the hint says when another galaxy is about as close and as bright. When none lies
+   near the centre, the segment over the centre is placed at its own light peak there (a lens on a
+   brighter companion's wing, too faint a share of the blend to be deblended).
 4. Everything that is neither the lens nor an arc is masked, grown by about its own
    half-maximum size: stars, neighbours, field galaxies. An arc is an object elongated
    tangentially about the lens centre (major axis within :data:`ARC_ANGLE_DEG` of the
@@ -227,6 +229,12 @@ def _lens_reach(shape: tuple[int, int]) -> float:
     return max(6.0, 0.15 * min(shape))
 
 
+def _far_from_centre(o: FieldObject, shape: tuple[int, int]) -> bool:
+    """``o`` peaks farther from the cutout centre than a lens is looked for first (:func:`_lens_reach`)."""
+    ny, nx = shape
+    return bool(np.hypot(o.x - (nx - 1) / 2, o.y - (ny - 1) / 2) > _lens_reach(shape))
+
+
 def _centre_swallowed(lens: FieldObject, labels: np.ndarray) -> bool:
     """The lens object covers the cutout centre but peaks farther from it than a lens may lie."""
     ny, nx = labels.shape
@@ -286,6 +294,34 @@ def _bright_compact_neighbour(o: FieldObject, objects: list[FieldObject], lens: 
         if 1 / RING_RADIUS_RATIO <= r1 / max(r0, 1e-9) <= RING_RADIUS_RATIO and apart >= np.radians(RING_APART_DEG):
             return False
     return True
+
+
+def _seat_on_central_peak(image: np.ndarray, objects: list[FieldObject], labels: np.ndarray, noise_sigma: float,
+                          smooth_pix: float = 1.0) -> FieldObject | None:
+    """The segment over the cutout centre, moved to its own light peak near the centre when its brightest pixel lies
+    farther than :func:`_lens_reach` (a lens blended with a brighter companion, star or hot pixel that deblending did
+    not split off keeps that object's peak as its position); None when it has no local maximum of
+    :data:`LENS_MIN_PEAK_SNR` within reach. A galaxy's light peaks at its centre (common practice: cutouts are
+    centred on the lens), so a peak of the segment near the cutout centre is the lens's own."""
+    from scipy.ndimage import maximum_filter
+
+    ny, nx = labels.shape
+    c0x, c0y = (nx - 1) / 2, (ny - 1) / 2
+    lab = int(labels[int(round(c0y)), int(round(c0x))])
+    obj = next((o for o in objects if o.label == lab), None) if lab else None
+    if obj is None or not _far_from_centre(obj, labels.shape):
+        return None
+    near = _lens_reach(labels.shape)
+    finite = np.isfinite(image)
+    sm = gaussian_filter(np.where(finite, image, 0.0), smooth_pix)
+    yy, xx = np.mgrid[0:ny, 0:nx]
+    inside = (labels == lab) & (np.hypot(xx - c0x, yy - c0y) <= near - 1)
+    peaks = inside & (sm == maximum_filter(sm, size=3)) & (sm >= LENS_MIN_PEAK_SNR * noise_sigma)
+    if not peaks.any():
+        return None
+    iy, ix = np.unravel_index(int(np.argmax(np.where(peaks, sm, -np.inf))), sm.shape)
+    obj.x, obj.y, obj.peak_snr = float(ix), float(iy), float(sm[iy, ix] / noise_sigma)
+    return obj
 
 
 def choose_lens(objects: list[FieldObject], shape: tuple[int, int], labels: np.ndarray,
@@ -401,13 +437,20 @@ def cutout_masks(image: np.ndarray, noise_sigma: float, *, center: tuple[float, 
         lens2, how2, hint2 = choose_lens(objects2, img.shape, labels2, center)
         if lens2 is not None and not _centre_swallowed(lens2, labels2):
             labels, objects, lens, how, hint = labels2, objects2, lens2, how2, hint2
+    seated = None
+    if center is None and (lens is None or _far_from_centre(lens, labels.shape)):
+        # Still no lens near the centre: the segment over it keeps a far, brighter peak as its position.
+        seated = _seat_on_central_peak(img, objects, labels, noise_sigma)
+        if seated is not None:
+            lens, how, hint = choose_lens(objects, img.shape, labels, center)
     if center is not None:
         cx, cy = float(center[0]), float(center[1])
     elif lens is not None:
         # Only the lens's own segment (and the sky) counts: a brighter neighbour or star a few pixels
         # away must not pull the centre (calibration seeds 500000-500719: 3 of 86 hard rings lost it so).
         own = np.where((labels == lens.label) | (labels == 0), img, np.nan)
-        cx, cy = refine_peak(own, lens.x, lens.y)
+        # A lens seated on its central peak is refined there, not drawn back to its segment's far brightest pixel.
+        cx, cy = refine_peak(own, lens.x, lens.y, reach_pix=2 if lens is seated else 8)
     else:
         cx, cy = (img.shape[1] - 1) / 2, (img.shape[0] - 1) / 2
     lens_blue = lens.blue_excess if lens is not None else float("nan")

@@ -102,3 +102,21 @@ def test_colour_picture_stretch_does_not_move_the_radius():
     assert any("not calibrated flux" in w for w in a.warnings)
     for r in answers:
         assert abs(r.radius_pix - c.truth["radius_pix"]) <= 2 * r.radius_err_pix
+
+
+@pytest.mark.parametrize("offset_pix", [22, 28, 34])
+def test_lens_on_a_bright_companions_wing_keeps_its_own_centre(offset_pix):
+    # Reference: astropy's Sersic2D (Sersic 1963 profile). A faint compact lens (n = 1, r_eff = 3) sits at the cutout
+    # centre on the wing of a companion five times brighter and 120 times the flux (n = 1, r_eff = 15): deblending
+    # cannot split off a component under 5% of its blend's flux, so the one segment over the centre peaks on the
+    # companion. The lens centre is the segment's own light peak near the cutout centre (within 1 pixel of the
+    # model's x_0, y_0), not the companion's.
+    from astropy.modeling.models import Sersic2D
+
+    n = 96
+    c = (n - 1) / 2
+    yy, xx = np.mgrid[0:n, 0:n]
+    lens = Sersic2D(amplitude=1.0, r_eff=3.0, n=1.0, x_0=c, y_0=c)(xx, yy)
+    companion = Sersic2D(amplitude=5.0, r_eff=15.0, n=1.0, x_0=c + offset_pix, y_0=c + 4)(xx, yy)
+    m = cutout_masks(lens + companion + np.random.default_rng(3).normal(0, 0.05, (n, n)), 0.05)
+    assert np.hypot(m.center_x - c, m.center_y - c) < 1.0
