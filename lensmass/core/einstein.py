@@ -37,8 +37,8 @@ from lensmass.core.arcfit import _algebraic_circle, arc_span_deg, fit_circle, fi
 from lensmass.core.errors import LensInputError
 from lensmass.core.progress import ProgressCallback, StopCallback
 from lensmass.core.ridge import refine_to_ridge
-from lensmass.core.ring_interval import (ASYMMETRIC_NOTE, BOUND_KEYS, TAIL_NOTE, bounds_from_pixels, draw_options,
-                                          interval_bounds, is_normal)
+from lensmass.core.ring_interval import (ASYMMETRIC_NOTE, BOUND_KEYS, bounds_from_pixels, draw_options,
+                                          interval_bounds, interval_note, is_normal)
 
 #: Default 1-sigma uncertainty of a marked position, in pixels (a click is good to about half a pixel).
 DEFAULT_POINT_ERR_PIX = 0.5
@@ -80,8 +80,8 @@ class ThetaEMeasurement:
     center_source: str = ""
     """Which centre it is, in words (see :mod:`lensmass.core.lens_centre`)."""
     theta_e_bounds_arcsec: tuple[float, float, float, float] | None = None  # the finder's -2..+2 sigma bounds
-    asymmetric: bool = False  # those bounds are asymmetric (a lone arc: lensmass.core.ring_interval)
-    tailed: bool = False  # their 2-sigma sides carry a tail term (an 8-bit picture's: lensmass.core.ring_interval)
+    asymmetric: bool = False  # those bounds are not radius -+ 1, 2 errors: the masses' Monte Carlo draws from them
+    interval_note: str = ""  # what the model words say of them (lensmass.core.ring_interval.interval_note)
 
     def keys(self) -> dict[str, Any]:
         """The measurement keys merged into the estimate result."""
@@ -341,7 +341,7 @@ def with_measurement(result: dict[str, Any], m: ThetaEMeasurement) -> dict[str, 
     result["notes"] = list(m.notes) + [n for n in result.get("notes", []) if n not in m.notes]
     models = dict(result.get("models", {}))
     models["theta_e_arcsec"] = (f"measured on the image: {m.method}; error = fit + pixel-scale error in quadrature"
-                                + (TAIL_NOTE if m.tailed else ASYMMETRIC_NOTE if m.asymmetric else ""))
+                                + (m.interval_note or (ASYMMETRIC_NOTE if m.asymmetric else "")))
     result["models"] = models
     return result
 
@@ -481,6 +481,7 @@ def measurement_of_ring(ring, image, *, pixel_scale_arcsec: float | None = None,
     both turn the finder's answer into numbers here."""
     _, scale, scale_err, to_sky, _, notes = _geometry(image, pixel_scale_arcsec, pixel_scale_err_arcsec, None)
     theta, err = theta_e_from_pixels(ring.radius_pix, ring.radius_err_pix, scale, scale_err)
+    tail = float(getattr(ring, "interval_tail_pix", 0.0) or 0.0)
     ra, dec = _sky(to_sky, ring.center_x, ring.center_y)
     notes = notes + [f"Lens centre ({ring.center_x:.2f}, {ring.center_y:.2f}) pixels: {ring.center_source}."]
     notes += list(ring.warnings)
@@ -500,7 +501,8 @@ def measurement_of_ring(ring, image, *, pixel_scale_arcsec: float | None = None,
                              "given by the user" if ring.center_source == "given"
                              else f"ring finder's centre: {ring.center_source}",
                              bounds_from_pixels(ring.radius_pix, interval_bounds(ring), scale, scale_err),
-                             not is_normal(ring), float(getattr(ring, "interval_tail_pix", 0.0) or 0.0) > 0)
+                             not is_normal(ring), interval_note(getattr(ring, "interval_shape_pix", None) is not None,
+                                                               tail / ring.radius_pix if tail > 0 else 0.0))
 
 
 def measure_auto_ring(

@@ -85,7 +85,7 @@ from lensmass.core.ring_pictures import (COLOUR_CORE_PIX, COLOUR_MASK_GROW_PIX, 
                                          _outside_picture_core, _refuse_core_residual, _stretched_grey_search,
                                          _undo_grey_stretch, blue_excess, colour_mask_image, colour_masks,
                                          lossy_error_scale)
-from lensmass.core.ring_interval import state_interval
+from lensmass.core.ring_interval import RING_TAIL_SHARE, state_interval
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_sectors import (BIN_PIX, MASK_HALF_WIDTHS, _sector_grid, _sector_profiles, _smooth_profile,
                                         _top_sectors_profile, ring_pixels)
@@ -464,6 +464,8 @@ def _finish(out: RingResult, masks, given: bool, colour: bool, quality: float | 
                                 f"blurs the colours of thin arcs: the radius error is scaled by {scale:.2f}; a PNG or "
                                 "FITS cutout of the same field measures better.")
         add_picture_tail(out)
+    elif out.found and np.isfinite(out.radius_pix):
+        out.interval_tail_pix = float(RING_TAIL_SHARE * out.radius_pix)
     state_interval(out)
     return out
 

@@ -171,8 +171,9 @@ def _method_text(result: Mapping[str, Any]) -> str:
                "of the ellipse) through the ring's ridge in the lens-subtracted image; for arcs on opposite sides of "
                "the lens, or an arc and its fainter counter-image, the mean of their radii; for a single arc, its "
                "radius with the calibrated spread of theta_E over single arcs, or for a lone arc its radius scaled "
-               "by the calibrated spread over lone arcs (asymmetric intervals); on an 8-bit picture the 2-sigma "
-               "interval also carries a tail term for wrong candidates (the notes say which rule applied). ")
+               "by the calibrated spread over lone arcs (asymmetric intervals); the 2-sigma interval also "
+               "carries a tail term for a ring's light lying off theta_E and for wrong features, larger on an 8-bit "
+               "picture (the notes say which rule applied). ")
     elif result.get("theta_e_from") == "lens model":
         how = "The Einstein radius is the lens model's, fitted to the marked images and arcs. "
     else:

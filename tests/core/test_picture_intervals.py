@@ -122,11 +122,11 @@ def test_picture_interval_has_a_two_sigma_tail_and_the_masses_draw_from_it(tmp_p
     (:data:`~lensmass.core.ring_pictures.PICTURE_TAIL_SHARE` of the radius, joined in quadrature to its 2-sigma sides
     only: a stretched picture's wrong candidates lie farther off than a normal error reaches), its 1 sigma does not;
     the masses' Monte Carlo then draws theta_E from that interval, each bound at its normal probability
-    (scipy.stats.norm, the reference library). The same ring as flux (no picture) keeps a normal interval."""
+    (scipy.stats.norm, the reference library). The same ring as flux (no picture) keeps a normal 1 sigma and the FITS route's smaller tail."""
     from scipy import stats
 
     from lensmass.core.einstein import measurement_of_ring, picture_options
-    from lensmass.core.ring_interval import interval_bounds, interval_draws
+    from lensmass.core.ring_interval import RING_TAIL_SHARE, interval_bounds, interval_draws
     from lensmass.core.ring_pictures import PICTURE_TAIL_SHARE
 
     bands = _bands(582000)
@@ -142,12 +142,14 @@ def test_picture_interval_has_a_two_sigma_tail_and_the_masses_draw_from_it(tmp_p
     assert hi2 - r > 2 * (hi1 - r) + 0.01 * r  # wider than a normal error's 2 sigma (old main: exactly twice)
     assert any("tail term" in w for w in out.warnings)
     m = measurement_of_ring(out, image)
-    assert m.asymmetric and m.tailed
+    assert m.asymmetric and f"{PICTURE_TAIL_SHARE:.0%} of theta_E" in m.interval_note
     d = interval_draws(m.theta_e_arcsec, m.theta_e_bounds_arcsec, n=200000, seed=5)
     b = np.array(m.theta_e_bounds_arcsec)
     probs = stats.norm.cdf([-2.0, -1.0, 1.0, 2.0])
     assert np.allclose(np.percentile(d, 100 * probs), b, atol=0.01 * m.theta_e_arcsec)
     flux = find_ring(bands[2] + bands[1], auto_mask=True)  # the i + r bands as flux: a FITS-like image
-    if flux.found and flux.interval_shape_pix is None:
-        assert flux.interval_tail_pix == 0.0
-        assert np.isclose(flux.radius_hi2_pix - flux.radius_pix, 2 * flux.radius_err_pix)
+    if flux.found and flux.interval_shape_pix is None:  # the FITS route's smaller tail (RING_TAIL_SHARE)
+        assert np.isclose(flux.interval_tail_pix, RING_TAIL_SHARE * flux.radius_pix)
+        assert np.isclose(flux.radius_hi2_pix - flux.radius_pix, np.hypot(2 * flux.radius_err_pix,
+                                                                         flux.interval_tail_pix))
+        assert np.isclose(flux.radius_hi_pix - flux.radius_pix, flux.radius_err_pix)
