@@ -34,6 +34,7 @@ from scipy.ndimage import binary_dilation, gaussian_filter
 
 from lensmass.core.cutout_cleaning import SATURATED_MIN_PIXELS, saturated_pixels
 from lensmass.core.errors import LensInputError
+from lensmass.core.peak_finding import local_peaks
 
 #: Segmentation threshold in units of the pixel noise (on the lightly smoothed image).
 THRESHOLD_SIGMA = 3.0
@@ -303,8 +304,6 @@ def _seat_on_central_peak(image: np.ndarray, objects: list[FieldObject], labels:
     not split off keeps that object's peak as its position); None when it has no local maximum of
     :data:`LENS_MIN_PEAK_SNR` within reach. A galaxy's light peaks at its centre (common practice: cutouts are
     centred on the lens), so a peak of the segment near the cutout centre is the lens's own."""
-    from scipy.ndimage import maximum_filter
-
     ny, nx = labels.shape
     c0x, c0y = (nx - 1) / 2, (ny - 1) / 2
     lab = int(labels[int(round(c0y)), int(round(c0x))])
@@ -312,15 +311,13 @@ def _seat_on_central_peak(image: np.ndarray, objects: list[FieldObject], labels:
     if obj is None or not _far_from_centre(obj, labels.shape):
         return None
     near = _lens_reach(labels.shape)
-    finite = np.isfinite(image)
-    sm = gaussian_filter(np.where(finite, image, 0.0), smooth_pix)
+    sm = gaussian_filter(np.where(np.isfinite(image), image, 0.0), smooth_pix)
     yy, xx = np.mgrid[0:ny, 0:nx]
     inside = (labels == lab) & (np.hypot(xx - c0x, yy - c0y) <= near - 1)
-    peaks = inside & (sm == maximum_filter(sm, size=3)) & (sm >= LENS_MIN_PEAK_SNR * noise_sigma)
-    if not peaks.any():
+    peak = local_peaks(sm, threshold=LENS_MIN_PEAK_SNR * noise_sigma, radius_pix=1, max_peaks=1, valid=inside)
+    if not len(peak):
         return None
-    iy, ix = np.unravel_index(int(np.argmax(np.where(peaks, sm, -np.inf))), sm.shape)
-    obj.x, obj.y, obj.peak_snr = float(ix), float(iy), float(sm[iy, ix] / noise_sigma)
+    obj.x, obj.y, obj.peak_snr = float(peak[0, 0]), float(peak[0, 1]), float(peak[0, 2] / noise_sigma)
     return obj
 
 

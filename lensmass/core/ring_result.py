@@ -63,5 +63,6 @@ class RingResult:
     interval_shape_pix: tuple[float, float, float, float] | None = None
     interval_base_err_pix: float = float("nan")
     #: A tail term joined in quadrature to the 2-sigma sides only (pixels; 0: none): far misses a normal error does not
-    #: reach (an 8-bit picture's wrong candidates, :func:`lensmass.core.ring_pictures.add_picture_tail`).
+    #: reach (:data:`lensmass.core.ring_interval.RING_TAIL_SHARE` of the radius on a FITS image; an 8-bit picture's
+    #: larger one, :func:`lensmass.core.ring_pictures.add_picture_tail`).
     interval_tail_pix: float = 0.0

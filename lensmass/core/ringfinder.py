@@ -569,6 +569,15 @@ def _second_component(img, ring, light, rmin, rmax, n_sectors, should_stop):
     return (again, two) if again.found and moved_out else (ring, light)
 
 
+def _prominent_peaks(profile: np.ndarray, err: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The peaks of a smoothed profile (scipy.signal.find_peaks) and their prominence in units of the profile's
+    error there (0 where the error is not finite)."""
+    peaks, props = find_peaks(profile, prominence=0.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        prominence = np.where(np.isfinite(err[peaks]), props["prominences"] / err[peaks], 0.0)
+    return peaks, prominence
+
+
 def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, should_stop, shape=None,
             elliptical=False) -> RingResult:
     """Profile analysis of a (lens-subtracted) image around (cx, cy): in circular annuli, then (for a ring
@@ -628,10 +637,7 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     # steadily outwards and is no ring however significant it is. The ring is the candidate where
     # the mean profile is most significant (robust to one bright sector); its score is the better
     # of the two significances there.
-    peaks, props = find_peaks(prof_s, prominence=0.0)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        prominence = props["prominences"] / err[peaks]
-    prominence = np.where(np.isfinite(prominence), prominence, 0.0)
+    peaks, prominence = _prominent_peaks(prof_s, err)
     keep = prominence >= MIN_PROMINENCE_SIGMA
     candidates = list(peaks[keep])
     scores = [max(snr[k], snr_med[k]) for k in peaks[keep]]
@@ -644,10 +650,7 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     if light is not None and light.ok:
         top_err = np.hypot(top_err, LENS_MODEL_SYSTEMATIC * np.abs(model_prof))
     top_err = np.where(enough, top_err, np.inf)
-    tpeaks, tprops = find_peaks(top_s, prominence=0.0)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        tprom = np.where(np.isfinite(top_err[tpeaks]), tprops["prominences"] / top_err[tpeaks], 0.0)
-    for k, pr in zip(tpeaks, tprom):
+    for k, pr in zip(*_prominent_peaks(top_s, top_err)):
         if pr < MIN_PROMINENCE_SIGMA:
             continue
         near = [i for i, c in enumerate(candidates) if abs(c - k) <= 2]
@@ -660,11 +663,8 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     # Rings: a bright localised residual (a neighbour's leftover, a star's wing) lifts the mean profile over a
     # broad range of radii and can swallow a faint ring's peak; the median of the sector means does not see it,
     # so its peaks are candidates too, scored by their significance there.
-    mpeaks, mprops = find_peaks(med_s, prominence=0.0)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        mprom = np.where(np.isfinite(med_err[mpeaks]), mprops["prominences"] / med_err[mpeaks], 0.0)
     from_med = set()
-    for k, pr in zip(mpeaks, mprom):
+    for k, pr in zip(*_prominent_peaks(med_s, med_err)):
         if pr < MIN_PROMINENCE_SIGMA or any(abs(c - k) <= 2 for c in candidates):
             continue
         candidates.append(int(k))
