@@ -24,6 +24,7 @@ import numpy as np
 from astropy.stats import mad_std
 
 from lensmass.core.arcfit import EllipseFit, fit_ellipse
+from lensmass.core.errors import LensInputError
 
 #: Points farther from the fitted ellipse than this many robust standard deviations are left out.
 CLIP_SIGMA = 3.0
@@ -51,13 +52,15 @@ def radial_offsets(fit: EllipseFit, x, y) -> np.ndarray:
     return np.hypot(dx, dy) - a * b / np.hypot(b * np.cos(d), a * np.sin(d))
 
 
-def clipped_ellipse_fit(x, y, *, center: tuple[float, float], point_err: float | None = None) -> EllipseFit:
+def clipped_ellipse_fit(x, y, *, center: tuple[float, float], point_err: float | None = None,
+                        scatter_points: tuple[np.ndarray, np.ndarray] | None = None) -> EllipseFit:
     """:func:`lensmass.core.arcfit.fit_ellipse` of the points about ``center``, refitted (up to :data:`ROUNDS`
     times) without the points more than max(:data:`CLIP_SIGMA` mad_std, :data:`CLIP_FLOOR_PIX`) off the ellipse
     along their direction, while at least :data:`MIN_KEPT` remain. Its ``theta_e_err`` and ``rms`` are never below
     the plain fit's: the finder's error terms and confidence (:mod:`lensmass.core.ring_confidence`) were calibrated
     on the scatter of all the points (with the clipped fit's own, our generator's seeds 600000-600149 had 88%
-    inside 2 sigma against 91%).
+    inside 2 sigma against 91%). ``scatter_points`` (x, y), when given, are the points whose plain fit sets that
+    floor instead (the ring finder's ridge before it left other objects' peaks out, :func:`lensmass.core.ringfinder._ring_ridge`).
 
     Examples
     --------
@@ -70,6 +73,11 @@ def clipped_ellipse_fit(x, y, *, center: tuple[float, float], point_err: float |
     """
     x, y = np.asarray(x, float), np.asarray(y, float)
     fit = plain = fit_ellipse(x, y, center=center, point_err=point_err)
+    if scatter_points is not None and len(scatter_points[0]) >= MIN_KEPT:
+        try:
+            plain = fit_ellipse(*scatter_points, center=center, point_err=point_err)
+        except LensInputError:
+            pass
     for _ in range(ROUNDS):
         off = radial_offsets(fit, x, y)
         keep = np.abs(off) <= max(CLIP_SIGMA * float(mad_std(off)), CLIP_FLOOR_PIX)

@@ -40,8 +40,10 @@ Method (our own):
    radius sqrt(q x'^2 + y'^2 / q), the SIE's intermediate-axis theta_E), kept when it ranks higher.
 4. In each sector where the ring is detected (3 sigma), the ridge radius is measured on the
    profile weighted by sqrt(r) (undoing the inward shift of a blurred ring, see
-   :mod:`lensmass.core.ridge`); those ridge points (``points_x``/``points_y``, usable by a
-   lens-model fit) are fitted by an ellipse about the centre (theta_E = sqrt(a b)), or a circle.
+   :mod:`lensmass.core.ridge`), for a ring only inside its half-maximum band (a brighter peak farther out in
+   that sector, another object's leftover light, is no ridge point: :func:`_ring_ridge`); those ridge points
+   (``points_x``/``points_y``, usable by a lens-model fit) are fitted by an ellipse about the centre
+   (theta_E = sqrt(a b)), or a circle.
 5. Errors: the fit's standard error with the systematic terms of the refit and of a ring
    barely resolved from the galaxy, then the calibrated floors and terms of what the finder sees of
    :func:`~lensmass.core.ring_confidence._calibrate` (rings, single arcs) and, for 8-bit stretched pictures,
@@ -699,6 +701,24 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     return best
 
 
+def _ring_ridge(radii: np.ndarray, profile: np.ndarray, r0: float, width: float) -> tuple[float, float]:
+    """One sector's ridge radius on the ring at ``r0`` (FWHM ``width`` in the azimuthal mean), and the ridge of
+    its whole (sqrt(r)-weighted) profile. The first is the second when that lies in the ring's half-maximum band
+    (r0 -+ width / 2), else the ridge of the profile cut to that band (one bin of slack each side) when it lies
+    inside the band, else NaN. The azimuthal mean's half-maximum band holds the ring in every direction (an
+    elongated ring's radii widen it); a brighter peak outside it in one sector is another object's light (a
+    neighbour's or a star's leftover at 1.2-1.9 theta_E), which the wider window takes for the ridge."""
+    whole = ridge_peak(radii, profile, r0, width)
+    band = 0.5 * width
+    if abs(whole - r0) <= band:
+        return whole, whole
+    near = np.abs(radii - r0) <= band + BIN_PIX
+    if np.isfinite(profile[near]).sum() < 5:
+        return float("nan"), whole
+    rr = ridge_peak(radii[near], profile[near], r0, width)
+    return (rr if abs(rr - r0) < band else float("nan")), whole
+
+
 def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma, sums, counts, smean, radii, prof,
                        prof_s, err, shape=None) -> RingResult:
     """Width, ridge points, coverage and the ellipse fit of the ring candidate at profile index ``k``
@@ -726,23 +746,35 @@ def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma,
     px: Any = []
     py: Any = []
     rhos = []
+    # A ring (seen in RING_COVERAGE of the directions) lies at one radius all round: its ridge is sought in its
+    # half-maximum band; arcs and images lie at radii that differ by more than their profile's width.
+    ring_like = coverage >= RING_COVERAGE
+    whole_x: Any = []  # every sector's ridge of its whole window: their scatter stays in the error
+    whole_y: Any = []
     for s in np.flatnonzero(detected):
         sp = np.where(counts[s, wi] > 0, smean[s, wi], np.nan) * np.sqrt(radii[wi])
         if np.isfinite(sp).sum() < 5:
             continue
-        rr = ridge_peak(radii[wi], sp, r0, width)
+        rr, whole = _ring_ridge(radii[wi], sp, r0, width) if ring_like else (ridge_peak(radii[wi], sp, r0, width),) * 2
         ang = -np.pi + (s + 0.5) * 2 * np.pi / n_sectors
+        whole = float(radius_along(ang, whole, *shape)) if shape is not None else whole
+        whole_x.append(cx + whole * np.cos(ang))
+        whole_y.append(cy + whole * np.sin(ang))
+        if not np.isfinite(rr):
+            continue
         rhos.append(rr)
         if shape is not None:
             rr = float(radius_along(ang, rr, *shape))
         px.append(cx + rr * np.cos(ang))
         py.append(cy + rr * np.sin(ang))
-    px, py = np.array(px), np.array(py)
+    px, py, whole_x, whole_y = np.array(px), np.array(py), np.array(whole_x), np.array(whole_y)
 
     radius, radius_err, q, angle, rms = r0, width / 2.355 / np.sqrt(max(len(px), 1)), float("nan"), float("nan"), float("nan")
     if len(px) >= 6 and coverage >= 0.5:
         try:
-            ef = clipped_ellipse_fit(px, py, center=(cx, cy), point_err=BIN_PIX / np.sqrt(12))
+            ef = clipped_ellipse_fit(px, py, center=(cx, cy), point_err=BIN_PIX / np.sqrt(12),
+                                     scatter_points=(whole_x, whole_y) if len(whole_x) > len(px) or not np.array_equal(
+                                         whole_x, px) else None)
             if 0.4 <= ef.axis_ratio <= 1.0 and abs(ef.theta_e - r0) < 0.25 * r0:
                 radius, radius_err, q, angle, rms = ef.theta_e, ef.theta_e_err, ef.axis_ratio, ef.angle_deg, ef.rms
                 radius, radius_err = _sie_ring_correction(radius, radius_err, q, angle, light)
