@@ -14,9 +14,10 @@ import numpy as np
 
 from lensmass.core.ringfinder import find_ring
 
+from tests.core.test_picture_floor import ARC_GRI, LENS_GRI  # a red lens, a bluer source (g, r, i flux ratios)
+
 SIZE, RADIUS, AXIS_RATIO = 100, 16.0, 0.6
-LENS_GRI = (0.35, 0.7, 1.0)  # a red early-type lens (g, r, i flux ratios; common practice)
-ARC_GRI = (1.0, 0.85, 0.7)  # a star-forming source, bluer than the lens
+CENTRE = (SIZE - 1) / 2 + 0.3
 
 
 def _picture(seed: int, theta: float) -> np.ndarray:
@@ -24,13 +25,12 @@ def _picture(seed: int, theta: float) -> np.ndarray:
     from astropy.modeling.models import Ellipse2D, Sersic2D
     from astropy.visualization import make_lupton_rgb
 
-    c = (SIZE - 1) / 2 + 0.3
-    grid = dict(x_range=(0, SIZE), y_range=(0, SIZE), mode="oversample", factor=5)
-    lens = discretize_model(Sersic2D(amplitude=1.0, r_eff=6.0, n=4.0, x_0=c, y_0=c, ellip=1 - AXIS_RATIO, theta=theta),
-                            **grid)
+    c, on_grid = CENTRE, {"x_range": (0, SIZE), "y_range": (0, SIZE), "mode": "oversample", "factor": 5}
+    shape = Sersic2D(amplitude=1.0, r_eff=6.0, n=4.0, x_0=c, y_0=c, ellip=1 - AXIS_RATIO, theta=theta)
+    lens = discretize_model(shape, **on_grid)
     a, b = RADIUS / np.sqrt(AXIS_RATIO), RADIUS * np.sqrt(AXIS_RATIO)  # sqrt(a b) = RADIUS
-    annulus = (discretize_model(Ellipse2D(1.0, c, c, a + 1.0, b + 1.0, theta), **grid)
-               - discretize_model(Ellipse2D(1.0, c, c, a - 1.0, b - 1.0, theta), **grid))
+    annulus = (discretize_model(Ellipse2D(1.0, c, c, a + 1.0, b + 1.0, theta), **on_grid)
+               - discretize_model(Ellipse2D(1.0, c, c, a - 1.0, b - 1.0, theta), **on_grid))
     yy, xx = np.mgrid[0:SIZE, 0:SIZE]
     ring = annulus * np.cos(np.arctan2(yy - c, xx - c) - theta) ** 2
     kernel = Gaussian2DKernel(3.0 / 2.3548)
