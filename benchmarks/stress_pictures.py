@@ -108,6 +108,21 @@ found: 73.0%/93.4% -> 69.7%/94.7%; 693000-693139 (111 found): 71%/95%. Check see
 pictures (bench_ring_realism routes 1, 3, 6, 9, 10; 50 lenses each) check seeds 697000: 83.7%/98.0% -> 82.5%/98.4%.
 Hard rings within 5% by class (tuning, 109 hard rings not ZScaleInterval): space PSF 12% of 43 (others 45%),
 bulge+disc lens 24% of 66 (others 44%), make_lupton_rgb 27% of 51, red arcs 18% of 22: not addressed here.
+
+Hard misses by cause and the elliptical pass (h17c, 2026-12-04; load 3-4). Probe of find_ring_on_image on the
+benchmark's pictures (/work/notes/s31/h17c/probe.py, probe2.py), hard rings tuning seeds 670000-670119, main 15c2233:
+within 5% 34 of 120; 17 ZScaleInterval (refused); of the other 103, 34 within 5%, misses: centre off > 2 px 16 (13
+make_lupton_rgb with a clipped core kept in colour; the true centre given fixed 2 of 9), colour route off 5-15% 15,
+> 15% too large 10, too small 6, grey fallback 13 (6 red arcs), search floor above 0.9 of the radius 6 (5 of them
+make_rgb per-band LogStretch/AsinhStretch over a PercentileInterval with a space PSF: the clipped core's half-maximum
+19-28 px against rings of 9 px), not found 2. The FITS route on the same fields (r band): 73% within 5% against 31%
+(first 71 seeds; by PSF, picture / FITS: space 38/86%, Gaussian 30/60%, Moffat 23/68%). The colour route now runs the
+elliptical pass as FITS does: hard rings tuning 34 -> 36 of 120, check 675000-675119 39 -> 41 (inside 1/2 sigma
+83%/96% both); every kind tuning 672000-672139 33 -> 33 of 140, check 677000-677139 30 -> 31 (72%/93% both). Tried
+and not kept: the smooth part measured without pixels 3 sigma above it (hard rings tuning 34 -> 39, 43 with the
+elliptical pass, but every kind 33 -> 32 and inside 1 sigma 71% -> 62%: a bluer disc's annular excess stood above 3
+sigma and came back as a ring); every strength tried before the grey fallback (grey answers 26 -> 9 of 120, but
+within 5% 36 -> 33 hard, 33 -> 32 every kind, inside 1 sigma 79% -> 76%, 71% -> 68%).
 """
 
 from __future__ import annotations

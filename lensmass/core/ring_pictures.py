@@ -13,7 +13,7 @@ from lensmass.core.progress import report
 from lensmass.core.ring_confidence import _flag_unresolved
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_sectors import BIN_PIX
-from lensmass.core.ring_shapes import _lone_arc
+from lensmass.core.ring_shapes import _elliptical_pass, _lone_arc
 from lensmass.core.sky_level import remove_sky_pedestal
 
 #: Systematic fractional radius error of an 8-bit stretched picture, on top of what the picture itself tells (the
@@ -303,11 +303,12 @@ def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_sto
                    two_pass_search: Callable[..., RingResult], masks_of: Callable[..., Any]) -> RingResult:
     """The ring on the arc image of a colour picture (:mod:`lensmass.core.colour_separation`) with the
     stretch strength the lens's own pixels choose (:func:`~lensmass.core.colour_separation.choose_strength`,
-    on the pixels inside half the ring once one is seen); the spread of the radii at the neighbouring
-    strengths is added to its error; a lone arc's radius is scaled to theta_E by the one lone-arc rule
-    (:func:`lensmass.core.ring_shapes._lone_arc`, as on FITS). No arcs bluer than the lens: the grey picture's search
-    (:func:`_stretched_grey_search`). ``ring_search``, ``two_pass_search`` and ``masks_of`` are the finder's
-    :func:`lensmass.core.ringfinder._search`, ``_two_pass_search`` and ``_masks`` (passed in: they call this)."""
+    on the pixels inside half the ring once one is seen); a partial ring is measured again in elliptical annuli
+    (:func:`lensmass.core.ring_shapes._elliptical_pass`, as on FITS: an elongated lens's ring is an ellipse, Kormann,
+    Schneider & Bartelmann 1994); the neighbouring strengths' spread (in circles) is in its error; a lone arc's radius
+    is scaled to theta_E by the one lone-arc rule (:func:`lensmass.core.ring_shapes._lone_arc`, as on FITS). No arcs
+    bluer than the lens: the grey search (:func:`_stretched_grey_search`). ``ring_search``, ``two_pass_search``,
+    ``masks_of``: :func:`lensmass.core.ringfinder._search`, ``_two_pass_search``, ``_masks`` (they call this)."""
     from scipy.ndimage import binary_dilation
 
     from lensmass.core.colour_separation import (LOCUS_STRENGTHS, arc_image, choose_strength, colour_lost,
@@ -348,6 +349,8 @@ def _colour_search(rgb, img, cx, cy, rmin, rmax, n_sectors, progress, should_sto
         grey = _stretched_grey_search(img, ~np.isfinite(img), cx, cy, rmin, rmax, n_sectors, progress, should_stop,
                                       two_pass_search=two_pass_search)
         return _refuse_colour_lost(_without_colour(grey), rgb, cx, cy, rmax)
+    best = _elliptical_pass(best, best.residual, cx, cy, rmin, rmax, n_sectors, None, list(best.warnings), should_stop,
+                            ring_search=ring_search)
     j = LOCUS_STRENGTHS.index(strength)
     # half the sectors: the neighbouring strengths only measure the spread
     neighbours = [search(other, max(8, n_sectors // 2))

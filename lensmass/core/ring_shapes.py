@@ -49,9 +49,10 @@ def _follow_shape(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, sho
                   ring_search: Callable[..., RingResult]) -> RingResult:
     """The FITS route's answer for the ring's shape: a partial ring re-measured in elliptical annuli
     (:func:`_elliptical_pass`), a lone arc's radius scaled to theta_E (:func:`_lone_arc`), another single arc's
-    interval (:func:`_unpaired_arc`). (The picture routes keep
-    their calibrated circular answers: with it, tests/core/test_colour_cutouts.py's square-root pictures had 7 of 12
-    hard rings within 5%, under the 8 it asks.) ``ring_search`` is the finder's search
+    interval (:func:`_unpaired_arc`). (The grey picture route keeps its calibrated circular answers: with it,
+    tests/core/test_colour_cutouts.py's square-root pictures had 7 of 12 hard rings within 5%, under the 8 it asks; the
+    colour route runs the elliptical pass and the lone-arc rule itself, :func:`lensmass.core.ring_pictures._colour_search`.)
+    ``ring_search`` is the finder's search
     (:func:`lensmass.core.ringfinder._search`, passed in: it calls this)."""
     if not best.found:
         return best
