@@ -240,7 +240,10 @@ def _across_light_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings
     2006 ApJ 649 599, from memory; common practice to take the light's direction as the prior). In circles such a ring
     falls apart into pieces at 0.85-1.15 theta_E that the refinement of :func:`_elliptical_pass` cannot leave. Radii
     from :data:`ELLIPSE_RHO_SPAN`'s lower share of the circular one outwards are searched (not down into a lens-light
-    misfit's core residual, which elliptical annuli can show as a ring all round). The shapes' answers are chosen among as the circular candidates are (:func:`_choose`); the chosen one replaces ``best``
+    misfit's core residual, which elliptical annuli can show as a ring all round); an answer farther out than
+    :data:`ELLIPSE_MAX_MOVE` beyond the circular radius is another feature (the ring's inner pieces lie at 0.87-0.92 of
+    its radius; our generator's seed 603128: a neighbour's leftover at 1.7 theta_E), while one far inside is kept (a
+    circular answer far out is often a neighbour's leftover light). The shapes' answers are chosen among as the circular candidates are (:func:`_choose`); the chosen one replaces ``best``
     when it ranks at least as high (:func:`_strength`) and measures the ring :data:`ACROSS_LIGHT_GAIN` times better
     (:func:`_feature_strength`); it is confident only if ``best`` was."""
     if light is None or not light.ok or not light.axis_ratio < ROUND_LIGHT or best.coverage >= ELLIPSE_MAX_COVERAGE:
@@ -255,6 +258,8 @@ def _across_light_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings
         return best
     ell = _choose(found)
     if _strength(ell)[-1] < _strength(best)[-1] or _feature_strength(ell) <= ACROSS_LIGHT_GAIN * _feature_strength(best):
+        return best
+    if ell.radius_pix > (1 + ELLIPSE_MAX_MOVE) * best.radius_pix:  # another feature farther out, not this ring
         return best
     ring_q = shapes[tried.index(ell)][0]
     ell.confident = bool(ell.confident and best.confident)
