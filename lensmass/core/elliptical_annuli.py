@@ -184,7 +184,7 @@ def sie_ring_axis_ratio(mass_axis_ratio: float) -> float:
     Examples
     --------
     >>> round(sie_ring_axis_ratio(1.0), 3), round(sie_ring_axis_ratio(0.4), 3)
-    (1.0, 0.753)
+    (1.0, 0.752)
     """
     return float(np.interp(mass_axis_ratio, np.linspace(0.3, 1.0, len(SIE_RIDGE_AXIS_RATIOS)), SIE_RIDGE_AXIS_RATIOS))
 
