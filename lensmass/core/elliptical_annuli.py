@@ -176,6 +176,19 @@ def sie_ridge_table() -> tuple[np.ndarray, np.ndarray]:
     return np.asarray(ratios)[order], np.asarray(factors)[order]
 
 
+def sie_ring_axis_ratio(mass_axis_ratio: float) -> float:
+    """Axis ratio of the ring of a compact source near the axis of an SIE of mass axis ratio ``mass_axis_ratio``
+    (0.3-1): the ridge r = F(phi) tabulated by :data:`SIE_RIDGE_AXIS_RATIOS` (:func:`sie_ridge_table`), elongated
+    across the mass (Kormann, Schneider & Bartelmann 1994).
+
+    Examples
+    --------
+    >>> round(sie_ring_axis_ratio(1.0), 3), round(sie_ring_axis_ratio(0.4), 3)
+    (1.0, 0.752)
+    """
+    return float(np.interp(mass_axis_ratio, np.linspace(0.3, 1.0, len(SIE_RIDGE_AXIS_RATIOS)), SIE_RIDGE_AXIS_RATIOS))
+
+
 def sie_ring_factor(ring_axis_ratio: float) -> float:
     """theta_E / sqrt(a b) for the ring of a compact source near the axis of an SIE, given the ring's axis ratio.
 

@@ -9,7 +9,8 @@ from collections.abc import Callable
 import numpy as np
 
 from lensmass.core.counter_image import find_counter_image
-from lensmass.core.elliptical_annuli import mass_alignment_weight, ring_shape, sie_ring_factor
+from lensmass.core.elliptical_annuli import (ROUND_LIGHT, mass_alignment_weight, ring_shape, sie_ring_axis_ratio,
+                                             sie_ring_factor)
 from lensmass.core.lone_arc import lone_arc_ratio_quantiles, lone_arc_theta_e
 from lensmass.core.ring_confidence import CONFIDENT_SCORE, RING_COVERAGE
 from lensmass.core.ring_interval import SIGMA_PROBABILITIES, hold_shape, interval_text
@@ -40,6 +41,13 @@ SAME_FEATURE_SCORE_CAP = 30.0
 #: directions and unpaired: mean direction 0.85-1 -> radius / theta_E median 1.58 (stress) and 1.38 (ours), 0.7-0.85
 #: -> 0.99 and 1.25, under 0.5 (quads, folds, rings cut by a mask) 1.06-1.23 and 1.01-1.02.
 LONE_ARC_DIRECTEDNESS = 0.7
+#: Mass axis ratios whose SIE rings are searched across the lens light's major axis (:func:`_across_light_pass`):
+#: the elongated lenses (q < 0.6) the circular search sees in pieces; their rings' axis ratios are
+#: :func:`~lensmass.core.elliptical_annuli.sie_ring_axis_ratio` of these (0.85 and 0.75).
+ACROSS_LIGHT_MASS_AXIS_RATIOS = (0.6, 0.4)
+#: ... whose answer replaces the circular one when it ranks at least as high (:func:`_strength`) and its significance
+#: times coverage (:func:`_feature_strength`) is this many times the circular answer's.
+ACROSS_LIGHT_GAIN = 1.1
 #: Share of an elongated ring's SIE shortfall (sqrt(a b) below theta_E, up to 5% at ring axis ratio 0.75) added to
 #: its radius error (:func:`_sie_ring_correction`).
 SIE_FACTOR_ERROR_SHARE = 0.5
@@ -56,8 +64,11 @@ def _follow_shape(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, sho
     (:func:`lensmass.core.ringfinder._search`, passed in: it calls this)."""
     if not best.found:
         return best
-    return _unpaired_arc(_lone_arc(_elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings,
-                                                    should_stop, ring_search=ring_search), n_sectors))
+    shaped = _elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop,
+                              ring_search=ring_search)
+    shaped = _across_light_pass(shaped, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop,
+                                ring_search=ring_search)
+    return _unpaired_arc(_lone_arc(shaped, n_sectors))
 
 
 def _unmasked_share(best: RingResult, n_sectors: int) -> float:
@@ -218,6 +229,44 @@ def _elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, 
                         f"{shape.axis_ratio:.2f} (major axis at {np.degrees(shape.angle_rad):.0f} degrees from +x), "
                         f"which made it {shape.score / max(shape.circular_score, 1e-9):.1f} times sharper than circles; "
                         "the radius is sqrt(a b) of that ellipse (the SIE's intermediate-axis theta_E).")
+    return ell
+
+
+def _across_light_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop, *,
+                       ring_search: Callable[..., RingResult]) -> RingResult:
+    """Search the whole radius range again in elliptical annuli of an elongated SIE's ring, its major axis across the
+    lens light's: an SIE's ring of a source near its axis lies on r = F(phi), elongated across the mass (axis ratio
+    :func:`~lensmass.core.elliptical_annuli.sie_ring_axis_ratio`, 0.75 for a mass of axis ratio 0.4; Kormann,
+    Schneider & Bartelmann 1994), and the mass's major axis follows the light's within 10-20 degrees (Koopmans et al.
+    2006 ApJ 649 599, from memory; common practice to take the light's direction as the prior). In circles such a ring
+    falls apart into pieces at 0.85-1.15 theta_E that the refinement of :func:`_elliptical_pass` cannot leave. Radii
+    from :data:`ELLIPSE_RHO_SPAN`'s lower share of the circular one outwards are searched (not down into a lens-light
+    misfit's core residual, which elliptical annuli can show as a ring all round); an answer farther out than
+    :data:`ELLIPSE_MAX_MOVE` beyond the circular radius is another feature (the ring's inner pieces lie at 0.87-0.92 of
+    its radius; our generator's seed 603128: a neighbour's leftover at 1.7 theta_E), while one far inside is kept (a
+    circular answer far out is often a neighbour's leftover light). The shapes' answers are chosen among as the circular candidates are (:func:`_choose`); the chosen one replaces ``best``
+    when it ranks at least as high (:func:`_strength`) and measures the ring :data:`ACROSS_LIGHT_GAIN` times better
+    (:func:`_feature_strength`); it is confident only if ``best`` was."""
+    if light is None or not light.ok or not light.axis_ratio < ROUND_LIGHT or best.coverage >= ELLIPSE_MAX_COVERAGE:
+        return best
+    angle = np.radians(light.angle_deg + 90.0)
+    shapes = [(sie_ring_axis_ratio(mass_q), angle) for mass_q in ACROSS_LIGHT_MASS_AXIS_RATIOS]
+    lo = max(rmin, ELLIPSE_RHO_SPAN[0] * best.radius_pix)  # not down into the lens light's core residual
+    tried = [ring_search(res, cx, cy, lo, rmax, n_sectors, light, list(warnings), None, should_stop, shape=shape)
+             for shape in shapes]
+    found = [t for t in tried if t.found]
+    if not found:
+        return best
+    ell = _choose(found)
+    if _strength(ell)[-1] < _strength(best)[-1] or _feature_strength(ell) <= ACROSS_LIGHT_GAIN * _feature_strength(best):
+        return best
+    if ell.radius_pix > (1 + ELLIPSE_MAX_MOVE) * best.radius_pix:  # another feature farther out, not this ring
+        return best
+    ring_q = shapes[tried.index(ell)][0]
+    ell.confident = bool(ell.confident and best.confident)
+    ell.warnings.append(f"The ring was measured in elliptical annuli of axis ratio {ring_q:.2f} across the lens light's "
+                        "major axis (an elongated SIE's ring), where it stands out better than in circles; the radius "
+                        "is sqrt(a b), the SIE's intermediate-axis theta_E.")
     return ell
 
 

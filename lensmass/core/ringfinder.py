@@ -37,7 +37,9 @@ Method (our own):
    first when it finds the ring at the same radius; on the FITS route, for a ring, only within 2% of it, a larger
    move being the refit's misfit merged with the ring, unless the first fit spread over the ring). A partial ring
    is then searched again in elliptical annuli of the shape that makes it sharpest (:mod:`lensmass.core.elliptical_annuli`,
-   radius sqrt(q x'^2 + y'^2 / q), the SIE's intermediate-axis theta_E), kept when it ranks higher.
+   radius sqrt(q x'^2 + y'^2 / q), the SIE's intermediate-axis theta_E), kept when it ranks higher, and
+   from half its radius outwards in the ring shapes of elongated SIEs across the light's major axis
+   (:func:`~lensmass.core.ring_shapes._across_light_pass`), which collect a ring the circles see in pieces.
 4. In each sector where the ring is detected (3 sigma), the ridge radius is measured on the
    profile weighted by sqrt(r) (undoing the inward shift of a blurred ring, see
    :mod:`lensmass.core.ridge`), for a ring only inside its half-maximum band (a brighter peak farther out in
