@@ -34,6 +34,8 @@ CLIP_FLOOR_PIX = 0.5
 MIN_KEPT = 6
 #: Clip-and-refit rounds.
 ROUNDS = 2
+#: A plain fit whose error exceeds this share of the kept radius is degenerate, not a measure of the scatter.
+DEGENERATE_ERR_SHARE = 1.0
 
 
 def radial_offsets(fit: EllipseFit, x, y) -> np.ndarray:
@@ -73,9 +75,11 @@ def clipped_ellipse_fit(x, y, *, center: tuple[float, float], point_err: float |
     """
     x, y = np.asarray(x, float), np.asarray(y, float)
     fit = plain = fit_ellipse(x, y, center=center, point_err=point_err)
+    plain_points = (x, y)
     if scatter_points is not None and len(scatter_points[0]) >= MIN_KEPT:
         try:
             plain = fit_ellipse(*scatter_points, center=center, point_err=point_err)
+            plain_points = (np.asarray(scatter_points[0], float), np.asarray(scatter_points[1], float))
         except LensInputError:
             pass
     for _ in range(ROUNDS):
@@ -87,4 +91,16 @@ def clipped_ellipse_fit(x, y, *, center: tuple[float, float], point_err: float |
         fit = fit_ellipse(x, y, center=center, point_err=point_err)
     # Stray points say the ridge is uncertain: the error and the scatter (which the finder's calibrated error terms
     # and its confidence read, lensmass.core.ring_confidence) stay at least the plain fit's.
-    return replace(fit, theta_e_err=max(fit.theta_e_err, plain.theta_e_err), rms=max(fit.rms, plain.rms))
+    floor_err, floor_rms = _floor(plain, fit, *plain_points)
+    return replace(fit, theta_e_err=max(fit.theta_e_err, floor_err), rms=max(fit.rms, floor_rms))
+
+
+def _floor(plain: EllipseFit, fit: EllipseFit, x, y) -> tuple[float, float]:
+    """The plain fit's error and rms, or, when that fit is degenerate (a few stray points in adjacent directions
+    can draw a held-centre ellipse through 6-8 points out to an axis ratio of hundreds, its error 10^4-10^6 times
+    the radius), the standard error and rms of the points' radial offsets from the kept ellipse."""
+    if np.isfinite(plain.theta_e_err) and plain.theta_e_err <= DEGENERATE_ERR_SHARE * fit.theta_e:
+        return plain.theta_e_err, plain.rms
+    off = radial_offsets(fit, x, y)
+    rms = float(np.sqrt(np.mean(off**2)))
+    return rms / np.sqrt(max(off.size - 3, 1)), max(rms, fit.rms)

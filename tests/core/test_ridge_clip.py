@@ -56,3 +56,19 @@ def test_never_below_the_fewest_points():
     r = np.array([10.0, 10.0, 16.0, 10.0, 10.0, 16.0, 10.0])
     x, y = r * np.cos(t), r * np.sin(t)
     assert clipped_ellipse_fit(x, y, center=(0.0, 0.0)).n_points == 7
+
+
+def test_a_degenerate_plain_fit_does_not_set_the_error():
+    # Six ridge points on a circle of radius 10; the whole-window ridge had two adjacent sectors at 1.8 R. Through
+    # those six points a held-centre ellipse degenerates (axis ratio ~0.003, error ~10^5 times the radius). The error
+    # floor then comes from the points' radial offsets about the kept circle: the standard error of a mean of 6
+    # offsets with 3 fitted parameters (statistics, common practice), not from that fit.
+    t = np.linspace(0, 2 * np.pi, 7)[:-1]
+    x, y = 10 * np.cos(t), 10 * np.sin(t)
+    r = np.array([18.0, 18.0, 10.0, 10.0, 10.0, 10.0])
+    wx, wy = r * np.cos(t), r * np.sin(t)
+    assert fit_ellipse(wx, wy, center=(0.0, 0.0), point_err=0.15).theta_e_err > 1e3
+    fit = clipped_ellipse_fit(x, y, center=(0.0, 0.0), point_err=0.15, scatter_points=(wx, wy))
+    assert fit.theta_e == pytest.approx(10.0, rel=1e-6)
+    off = np.array([8.0, 8.0, 0, 0, 0, 0])
+    assert fit.theta_e_err == pytest.approx(np.sqrt(np.mean(off**2)) / np.sqrt(3), rel=1e-6)
