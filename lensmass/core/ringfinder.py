@@ -573,11 +573,11 @@ def _second_component(img, ring, light, rmin, rmax, n_sectors, should_stop):
 
 def _prominent_peaks(profile: np.ndarray, err: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """The peaks of a smoothed profile (scipy.signal.find_peaks) and their prominence in units of the profile's
-    error there (0 where the error is not finite)."""
+    error there (0 where that ratio is not finite: an error that is infinite, NaN or zero carries no evidence)."""
     peaks, props = find_peaks(profile, prominence=0.0)
     with np.errstate(invalid="ignore", divide="ignore"):
-        prominence = np.where(np.isfinite(err[peaks]), props["prominences"] / err[peaks], 0.0)
-    return peaks, prominence
+        prominence = props["prominences"] / err[peaks]
+    return peaks, np.where(np.isfinite(prominence), prominence, 0.0)
 
 
 def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, should_stop, shape=None,
