@@ -121,6 +121,15 @@ class did not gain on the check seeds; q 0.6-0.8 50 -> 53 of 81, q >= 0.8 48 -> 
 both; confident non-lenses 602500-602799 1 -> 1 of 300 (601000-601299, an earlier variant: 6 -> 6). Our generator (FITS, 603000-603249)
 within 5% 55% -> 54%, hard rings 78% -> 78% of 37, inside 1/2 sigma 77%/97% both, confident 1.0% both; hard rings
 603250-603399 90% -> 91% of 150. bench_ring_speed.py 0.254 -> 0.335 s CPU (best of 5, alternating, load 3).
+First harmonic of the ridge (h18a, 2026-12-04; load 3-7): a source off the lens axis adds beta cos(phi - phi_beta)
+to the ring's radius, taken off the ridge points when an F-test asks for it (p < 0.001;
+lensmass.core.ring_harmonics). b32 -> h18a: stress 612000-612449 (tuning) within 5% 46% -> 48%, scatter 6.7% ->
+6.0%, inside 1/2 sigma 64%/91% -> 67%/91%, folds 37% -> 51% of 43, hard rings 78% -> 77% of 69, confident 2 -> 2;
+613000-613449 (check) within 5% 47% -> 48%, scatter 7.1% -> 6.8%, inside 1/2 sigma 66%/91% -> 68%/91%, folds 44% ->
+56%, hard rings 71% -> 69% of 72, confident 2 -> 1; hard rings only 612000-612999 154 -> 158 of 231, 613000-613999
+141 -> 142 of 209 (mass q < 0.6: 37 -> 37 of 73, 33 -> 33 of 62: the elongated lenses' misses are mostly
+four-image fields measured as arcs, not the ridge fit). Our generator 614000/614250: within 5% 55%/51% ->
+56%/51%, hard rings 84%/90% -> 84%/87% of 38/30, inside 1 sigma 70%/83% -> 70%/84%, confident 2/1 -> 2/1 of 100.
 """
 
 from __future__ import annotations

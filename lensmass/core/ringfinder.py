@@ -45,7 +45,9 @@ Method (our own):
    :mod:`lensmass.core.ridge`), for a ring only inside its half-maximum band (a brighter peak farther out in
    that sector, another object's leftover light, is no ridge point: :func:`_ring_ridge`); those ridge points
    (``points_x``/``points_y``, usable by a lens-model fit) are fitted by an ellipse about the centre
-   (theta_E = sqrt(a b)), or a circle.
+   (theta_E = sqrt(a b)), or a circle; a first harmonic of their radius (a source off the lens axis,
+   r = theta_E + beta cos(phi - phi_beta)) is taken off them first when an F-test asks for it
+   (:mod:`lensmass.core.ring_harmonics`).
 5. Errors: the fit's standard error with the systematic terms of the refit and of a ring
    barely resolved from the galaxy, then the calibrated floors and terms of what the finder sees of
    :func:`~lensmass.core.ring_confidence._calibrate` (rings, single arcs) and, for 8-bit stretched pictures,
@@ -74,6 +76,7 @@ from lensmass.core.lenslight import fit_lens_light, robust_sigma
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
 from lensmass.core.ridge import ridge_peak
 from lensmass.core.ridge_clip import clipped_ellipse_fit
+from lensmass.core.ring_harmonics import offset_source_term, remove_offset_source
 from lensmass.core.ring_confidence import (ACROSS_MIN_DEG, CONFIDENT_COVERAGE, CONFIDENT_MAX_OFFSET,
                                            CONFIDENT_MAX_RMS_WIDTH, CONFIDENT_MAX_THICKNESS, CONFIDENT_MAX_WIDTH_PSF,
                                            CONFIDENT_MIN_WIDTH_PSF,
@@ -772,16 +775,26 @@ def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma,
     px, py, whole_x, whole_y = np.array(px), np.array(py), np.array(whole_x), np.array(whole_y)
 
     radius, radius_err, q, angle, rms = r0, width / 2.355 / np.sqrt(max(len(px), 1)), float("nan"), float("nan"), float("nan")
+    offset = None
     if len(px) >= 6 and coverage >= 0.5:
+        # A source off the lens axis adds a first harmonic to the ring's radius, which the ellipse about the centre
+        # cannot follow: taken off the points when the ridge asks for it (lensmass.core.ring_harmonics); the plain
+        # fit of the points as measured stays the floor of the error and the scatter.
+        offset = offset_source_term(px, py, (cx, cy))
+        fx, fy = (px, py) if offset is None else remove_offset_source(px, py, (cx, cy), offset)
+        moved = offset is not None or len(whole_x) > len(px) or not np.array_equal(whole_x, px)
         try:
-            ef = clipped_ellipse_fit(px, py, center=(cx, cy), point_err=BIN_PIX / np.sqrt(12),
-                                     scatter_points=(whole_x, whole_y) if len(whole_x) > len(px) or not np.array_equal(
-                                         whole_x, px) else None)
+            ef = clipped_ellipse_fit(fx, fy, center=(cx, cy), point_err=BIN_PIX / np.sqrt(12),
+                                     scatter_points=(whole_x, whole_y) if moved else None)
             if 0.4 <= ef.axis_ratio <= 1.0 and abs(ef.theta_e - r0) < 0.25 * r0:
                 radius, radius_err, q, angle, rms = ef.theta_e, ef.theta_e_err, ef.axis_ratio, ef.angle_deg, ef.rms
+                if offset is not None:
+                    radius_err = max(radius_err, offset.constant_err)
                 radius, radius_err = _sie_ring_correction(radius, radius_err, q, angle, light)
+            else:
+                offset = None
         except LensInputError:
-            pass
+            offset = None
     if not np.isfinite(q) and shape is not None and len(px) >= 2:
         # Too few points for an ellipse of their own: the median elliptical radius of the ridge in the searched shape.
         radius, q, angle = float(np.median(rhos)), float(shape[0]), float(np.degrees(shape[1]))
@@ -805,6 +818,11 @@ def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma,
     else:
         msg = (f"A weak {kind} candidate at {radius:.2f} pixels ({score:.1f} sigma, {coverage:.0%} of directions): "
                "check it by eye before trusting it.")
+    if found and offset is not None:
+        warnings.append(f"The ring's radius about the lens centre varies as theta_E + beta cos(phi - phi_beta), a source "
+                        f"{offset.amplitude:.2f} pixels off the lens axis towards {np.degrees(offset.angle_rad):.0f} "
+                        "degrees from +x: theta_E is the ring fitted with that first harmonic (an offset source) taken "
+                        "off its ridge.")
     return RingResult(found, confident, kind, float(radius), float(radius_err), score, coverage, cx, cy, float(q),
                       float(angle), float(rms), px, py, radii, prof, err, sigma, res, light, msg, warnings,
                       float(width))
