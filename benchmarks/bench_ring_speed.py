@@ -56,6 +56,8 @@ not a bad start (started at n = 3 or 4 it reaches 0.41 in one step).
 Stop 32 (2026-12-04, load 1.4-2.0): main 0a1c7e3 0.265-0.279 s CPU best (median 0.298-0.315), main with the ridge
 band, the picture route's elliptical pass and the across-light pass (cd14661) 0.340-0.349 s (median 0.355), two runs
 each, alternating; bincount 0.035-0.040 s CPU; the across-light pass is most of the 0.07 s added; x0.7 of the target.
+With the offset-source harmonic too (ff96fca, load 2.7): 0.235-0.242 s CPU best, wall 0.36 s; lens-light fits 0.10 s;
+this field's ridge now takes the harmonic and a shorter path through the later passes.
 Earlier (h14f): 0.45-0.49 s against 0.90-1.03 s at load 1.5-2.4 (the Levenberg-Marquardt solver, the
 Jacobian reusing the model's powers, the refit starting from the first fit, MINPACK ridge fits first).
 """
