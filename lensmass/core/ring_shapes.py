@@ -210,8 +210,8 @@ def _elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, 
     an SIE ring's light lies on r = F(phi), whose axis ratio is 0.70 for a mass of axis ratio 0.3 and rounder for
     rounder masses (:func:`~lensmass.core.elliptical_annuli.sie_ring_axis_ratio`). A more elongated ellipse made
     sharpest is one through a partial ring's arcs on its minor axis and another object's leftover light on its major
-    axis; its sqrt(a b) put the ring 7-30% too far out (stress tuning seeds 615392, 615721, 615763; h18b's 616246,
-    616750; tests/core/test_ellipse_shape_bound.py).
+    axis; its sqrt(a b) put the ring 7-30% too far out (stress tuning seeds 615392, 615721, 615763; 616134, 616750,
+    616953; tests/core/test_ellipse_shape_bound.py).
     The elliptical answer replaces the circular one only when its profile peak is :data:`ELLIPSE_GAIN` times
     more prominent and the candidate it measures ranks higher (:func:`_feature_strength` for the same feature,
     :func:`_strength` for another) within
