@@ -103,8 +103,10 @@ def _peak_prominence(rho, vals, lo, hi, sigma) -> tuple[float, float]:
     return float(prom[i]), float(lo + (peaks[i] + 0.5) * SHAPE_BIN_PIX)
 
 
-def ring_shape(residual: np.ndarray, cx: float, cy: float, radius_pix: float, sigma: float) -> RingShape:
-    """The axis ratio and angle whose elliptical annuli make the ring near ``radius_pix`` sharpest.
+def ring_shape(residual: np.ndarray, cx: float, cy: float, radius_pix: float, sigma: float, *,
+               min_axis_ratio: float = 0.0) -> RingShape:
+    """The axis ratio and angle whose elliptical annuli make the ring near ``radius_pix`` sharpest, among axis
+    ratios of at least ``min_axis_ratio``.
 
     ``residual`` is the lens-subtracted image (NaN = masked), ``sigma`` its pixel noise. Elliptical radii
     :data:`RHO_RANGE` times ``radius_pix`` are searched for each trial shape (the circle, the
@@ -137,7 +139,7 @@ def ring_shape(residual: np.ndarray, cx: float, cy: float, radius_pix: float, si
         dx, dy, vals = dx[::step], dy[::step], vals[::step]  # every shape is scored on the same sub-sample
     circ, circ_r = _peak_prominence(np.hypot(dx, dy), vals, lo, hi, sigma)
     best = (circ, 1.0, 0.0, circ_r)
-    for q in TRIAL_AXIS_RATIOS:
+    for q in [t for t in TRIAL_AXIS_RATIOS if t >= min_axis_ratio]:
         for a in np.arange(TRIAL_ANGLES) * np.pi / TRIAL_ANGLES:
             s, rr = _peak_prominence(elliptical_radius(dx, dy, q, a), vals, lo, hi, sigma)
             if s > best[0]:
@@ -147,7 +149,7 @@ def ring_shape(residual: np.ndarray, cx: float, cy: float, radius_pix: float, si
         da = 0.5 * np.pi / TRIAL_ANGLES
         for q in (q0 - 0.07, q0, q0 + 0.07):
             for a in (a0 - da, a0, a0 + da):
-                if not 0.3 <= q < 1.0 or (q == q0 and a == a0):
+                if not max(0.3, min_axis_ratio) <= q < 1.0 or (q == q0 and a == a0):
                     continue
                 s, rr = _peak_prominence(elliptical_radius(dx, dy, q, a), vals, lo, hi, sigma)
                 if s > best[0]:

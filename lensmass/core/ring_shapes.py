@@ -9,8 +9,8 @@ from collections.abc import Callable
 import numpy as np
 
 from lensmass.core.counter_image import find_counter_image
-from lensmass.core.elliptical_annuli import (ROUND_LIGHT, mass_alignment_weight, ring_shape, sie_ring_axis_ratio,
-                                             sie_ring_factor)
+from lensmass.core.elliptical_annuli import (ROUND_LIGHT, SIE_RIDGE_AXIS_RATIOS, mass_alignment_weight, ring_shape,
+                                             sie_ring_axis_ratio, sie_ring_factor)
 from lensmass.core.lone_arc import lone_arc_ratio_quantiles, lone_arc_theta_e
 from lensmass.core.ring_confidence import CONFIDENT_SCORE, RING_COVERAGE
 from lensmass.core.ring_interval import SIGMA_PROBABILITIES, hold_shape, interval_text
@@ -22,6 +22,10 @@ PAIR_SYSTEMATIC = 0.3
 #: Elliptical pass (:func:`_elliptical_pass`): the best shape's profile peak must be this many times more
 #: prominent than the circle's, ...
 ELLIPSE_GAIN = 1.15
+#: ... its shape is sought among axis ratios of at least this, the ring of the most elongated SIE tabulated (mass
+#: axis ratio 0.3; Kormann, Schneider & Bartelmann 1994): no lens makes its ring more elongated (see
+#: :func:`_elliptical_pass`), ...
+ELLIPSE_MIN_AXIS_RATIO = min(SIE_RIDGE_AXIS_RATIOS)
 #: ... its elliptical radii are searched between these fractions of the circular candidate's radius, ...
 ELLIPSE_RHO_SPAN = (0.5, 1.8)
 #: ... and its radius may differ from the circular one by at most this fraction.
@@ -202,13 +206,19 @@ def _elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, 
                      ring_search: Callable[..., RingResult]) -> RingResult:
     """Search again in elliptical annuli of the shape that makes ``best`` sharpest
     (:func:`lensmass.core.elliptical_annuli.ring_shape`), between :data:`ELLIPSE_RHO_SPAN` times its radius.
+    The shape is sought among the shapes a lens gives its ring, axis ratios of at least :data:`ELLIPSE_MIN_AXIS_RATIO`:
+    an SIE ring's light lies on r = F(phi), whose axis ratio is 0.70 for a mass of axis ratio 0.3 and rounder for
+    rounder masses (:func:`~lensmass.core.elliptical_annuli.sie_ring_axis_ratio`). A more elongated ellipse made
+    sharpest is one through a partial ring's arcs on its minor axis and another object's leftover light on its major
+    axis; its sqrt(a b) put the ring 7-30% too far out (stress tuning seeds 615392, 615721, 615763; 616134, 616750,
+    616953; tests/core/test_ellipse_shape_bound.py).
     The elliptical answer replaces the circular one only when its profile peak is :data:`ELLIPSE_GAIN` times
     more prominent and the candidate it measures ranks higher (:func:`_feature_strength` for the same feature,
     :func:`_strength` for another) within
     :data:`ELLIPSE_MAX_MOVE` of the circular radius; it is confident only if the circular answer was."""
     if best.radius_pix < ELLIPSE_MIN_RADIUS_PIX or best.coverage >= ELLIPSE_MAX_COVERAGE:
         return best
-    shape = ring_shape(res, cx, cy, best.radius_pix, best.noise_sigma)
+    shape = ring_shape(res, cx, cy, best.radius_pix, best.noise_sigma, min_axis_ratio=ELLIPSE_MIN_AXIS_RATIO)
     if shape.axis_ratio >= 1.0 or shape.score < ELLIPSE_GAIN * shape.circular_score:
         return best
     lo = max(rmin, ELLIPSE_RHO_SPAN[0] * best.radius_pix)
