@@ -24,7 +24,10 @@ import numpy as np
 from scipy.signal import find_peaks
 
 #: Axis ratios tried (the SIE critical curve has the mass's axis ratio; SIE mass axis ratios of lenses are
-#: mostly 0.4-1, common practice, e.g. Koopmans et al. 2006 ApJ 649 599 on SLACS lenses, from memory).
+#: mostly 0.4-1, common practice, e.g. Koopmans et al. 2006 ApJ 649 599 on SLACS lenses, from memory). The ring
+#: finder's elliptical pass tries only those of at least its ``min_axis_ratio``
+#: (:data:`lensmass.core.ring_shapes.ELLIPSE_MIN_AXIS_RATIO`, 0.70): a ring's light lies on its ridge r = F(phi),
+#: rounder than the critical curve (:data:`SIE_RIDGE_AXIS_RATIOS`), so 0.55 and 0.4 serve direct callers only.
 TRIAL_AXIS_RATIOS = (0.85, 0.7, 0.55, 0.4)
 #: Number of major-axis angles tried over 180 degrees on the coarse grid (then one finer step around the best).
 TRIAL_ANGLES = 12
