@@ -321,7 +321,8 @@ def _core_tangential(o: FieldObject, cx: float, cy: float) -> bool:
 
 def _bright_compact_neighbour(o: FieldObject, objects: list[FieldObject], lens: FieldObject, cx: float,
                               cy: float) -> bool:
-    """A piece of the lens's blend that stands :data:`NEIGHBOUR_CONTRAST_SNR` above its saddle, is not
+    """A piece of the lens's blend that stands :data:`NEIGHBOUR_CONTRAST_SNR` above its saddle (or, round as a
+    galaxy and with its own light not drawn out along the tangent, :data:`ROUND_NEIGHBOUR_CONTRAST_SNR`), is not
     drawn out along the tangent and is alone at its distance from the centre: a neighbouring galaxy on
     the lens's light. The images of a lensed source come several to a radius (another piece within
     :data:`RING_RADIUS_RATIO` of its distance, at least :data:`RING_APART_DEG` round the centre), so
