@@ -20,7 +20,9 @@ Method (our own, on photutils segmentation and deblending):
    half-maximum size: stars, neighbours, field galaxies. An arc is an object elongated
    tangentially about the lens centre (major axis within :data:`ARC_ANGLE_DEG` of the
    tangent, elongation at least :data:`ARC_ELONGATION`); in a colour image also any object
-   bluer than the lens.
+   bluer than the lens. A piece deblended from the lens's own blend is masked only when it stands out
+   as a neighbour: far above its saddle, or round and not drawn out along the tangent, and alone at
+   its distance from the centre (:func:`_bright_compact_neighbour`).
 """
 
 from __future__ import annotations
