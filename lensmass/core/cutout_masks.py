@@ -69,7 +69,10 @@ NEIGHBOUR_CONTRAST_SNR = 25.0
 #: ... or a round piece (elongation at most this, :data:`STAR_MAX_ELONGATION`: no arc drawn out along the ring)
 #: standing at least :data:`ROUND_NEIGHBOUR_CONTRAST_SNR` above its saddle: a compact neighbour sitting on the lens's
 #: and the ring's light stands only 5-20 sigma above the saddle, and unmasked its leftover light was taken for arcs
-#: at 1.2-2 theta_E (h20c, stress tuning seeds 630000-631049: 9 of 38 hard-ring misses of masses q >= 0.6).
+#: at 1.2-2 theta_E (h20c, stress tuning seeds 630000-631049, ring kinds: 5 of the 38 hard-ring misses of masses
+#: q >= 0.6 had such a piece unmasked, 3 more a neighbour never split from the lens). Paired with main, hard rings
+#: within 5%: tuning 630000-631049 182 -> 186 of 257 (+4 -0), check 634200-634899 112 -> 115 of 171 (+3 -0); our
+#: generator (lensmass.core.realistic_fields) hard rings 634000-634399 +3 -0 of 400; no confident non-lens changed.
 ROUND_NEIGHBOUR_ELONGATION = 1.4
 ROUND_NEIGHBOUR_CONTRAST_SNR = 5.0
 #: ... unless its own light (above the saddle) is drawn out along the tangent at all (elongation at least this,
