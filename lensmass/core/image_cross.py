@@ -23,18 +23,23 @@ from scipy.ndimage import gaussian_filter, maximum_filter
 from lensmass.core.elliptical_annuli import mass_alignment_weight, sie_ring_factor
 from lensmass.core.lenslight import robust_sigma
 
-#: Smallest significance of an image (peak of the residual smoothed by the seeing, in units of that map's noise).
-MIN_IMAGE_SIGMA = 5.0
-#: Brightest peaks among which the four images are sought.
-MAX_PEAKS = 8
+#: Smallest significance of an image (peak of the residual smoothed by the seeing, in units of that map's noise); the
+#: four images of a cross stand at least :data:`MIN_CROSS_SIGMA` in quadrature (four of 5 sigma), three (one pair and
+#: one image of the other, its partner lost in the lens light) that times sqrt(3/4): the inner pair of an elongated
+#: lens sits on the lens light's major axis, where the fit's misfit dims it.
+FAINTEST_IMAGE_SIGMA = 3.0
+MIN_CROSS_SIGMA = 10.0
+#: Brightest peaks among which the images are sought.
+MAX_PEAKS = 10
 #: Angles between neighbouring images of the cross, degrees (90 for a source on the axis).
 GAP_RANGE_DEG = (45.0, 135.0)
 #: An image and its opposite are this close to 180 degrees apart.
 OPPOSITE_TOLERANCE_DEG = 40.0
 #: The inner pair's mean radius is at least this share of the outer pair's: the ridge of the most elongated SIE
-#: tabulated (mass axis ratio 0.3) has axis ratio 0.70 (:data:`~lensmass.core.elliptical_annuli.SIE_RIDGE_AXIS_RATIOS`);
-#: a shear of 0.15 lowers it to about 0.65 (common practice: (1 - gamma) / (1 + gamma) for an SIS).
-MIN_PAIR_RATIO = 0.6
+#: tabulated (mass axis ratio 0.3) has axis ratio 0.70 (:data:`~lensmass.core.elliptical_annuli.SIE_RIDGE_AXIS_RATIOS`),
+#: and a shear of 0.15 along it multiplies that by (1 - gamma) / (1 + gamma) = 0.74 (an SIS with shear images a
+#: source on the axis at theta_E / (1 -+ gamma): common practice), 0.52 in all.
+MIN_PAIR_RATIO = 0.5
 #: Within a pair, the nearer image's radius is at least this share of the farther one's (a source near the axis).
 MIN_WITHIN_PAIR_RATIO = 0.75
 #: Share of the SIE factor's shortfall kept in the error (as the ring finder does for elongated rings).
@@ -79,7 +84,7 @@ def image_peaks(residual: np.ndarray, cx: float, cy: float, r_lo: float, r_hi: f
     if not np.isfinite(noise) or noise <= 0:
         return np.array([]), np.array([]), np.array([])
     size = max(3, int(round(fwhm_pix)) | 1)
-    peak = ring & (sm == maximum_filter(np.where(good, sm, -np.inf), size=size)) & (sm >= MIN_IMAGE_SIGMA * noise)
+    peak = ring & (sm == maximum_filter(np.where(good, sm, -np.inf), size=size)) & (sm >= FAINTEST_IMAGE_SIGMA * noise)
     iy, ix = np.nonzero(peak)
     s = sm[iy, ix] / noise
     order = np.argsort(-s)[:MAX_PEAKS]
@@ -108,6 +113,24 @@ def _cross_of(ang: np.ndarray, rad: np.ndarray) -> tuple[float, float, int] | No
     return float(inner), float(outer), int(order[0] if m0 >= m1 else order[1])
 
 
+def _three_of_cross(ang: np.ndarray, rad: np.ndarray) -> tuple[float, float, int] | None:
+    """For three images, as :func:`_cross_of` for four: an opposite pair and one image
+    :data:`GAP_RANGE_DEG` from both (the other pair's partner unseen), that image's radius standing for its pair's."""
+    for i, j, k in ((0, 1, 2), (0, 2, 1), (1, 2, 0)):
+        apart = np.degrees(abs((ang[j] - ang[i] + np.pi) % (2 * np.pi) - np.pi))
+        if abs(apart - 180.0) > OPPOSITE_TOLERANCE_DEG or min(rad[i], rad[j]) < MIN_WITHIN_PAIR_RATIO * max(rad[i], rad[j]):
+            continue
+        gaps = [np.degrees(abs((ang[k] - ang[m] + np.pi) % (2 * np.pi) - np.pi)) for m in (i, j)]
+        if min(gaps) < GAP_RANGE_DEG[0] or max(gaps) > GAP_RANGE_DEG[1]:
+            continue
+        pair, single = 0.5 * (rad[i] + rad[j]), float(rad[k])
+        inner, outer = min(pair, single), max(pair, single)
+        if inner < MIN_PAIR_RATIO * outer:
+            continue
+        return float(inner), float(outer), int(k if single >= pair else i)
+    return None
+
+
 def find_image_cross(residual: np.ndarray, cx: float, cy: float, r_lo: float, r_hi: float, fwhm_pix: float,
                      light_angle_deg: float = float("nan"), light_axis_ratio: float = 1.0) -> ImageCross | None:
     """The four compact images forming a cross around (cx, cy) between radii ``r_lo`` and ``r_hi`` (the one whose
@@ -130,15 +153,25 @@ def find_image_cross(residual: np.ndarray, cx: float, cy: float, r_lo: float, r_
     if not (np.isfinite(fwhm_pix) and fwhm_pix > 0 and r_hi > r_lo):
         return None
     px, py, sig = image_peaks(residual, cx, cy, r_lo, r_hi, fwhm_pix)
-    if px.size < 4:
+    if px.size < 3:
         return None
     ang, rad = np.arctan2(py - cy, px - cx), np.hypot(px - cx, py - cy)
     best, best_key = None, -np.inf
     for idx in combinations(range(px.size), 4):
         k = np.array(idx)
+        if np.sqrt(np.sum(sig[k] ** 2)) < MIN_CROSS_SIGMA:
+            continue
         got = _cross_of(ang[k], rad[k])
         if got is not None and sig[k].min() > best_key:
             best, best_key = (k, got), float(sig[k].min())
+    if best is None:  # three images: one pair and one of the other, as significant per image as four
+        for idx in combinations(range(px.size), 3):
+            k = np.array(idx)
+            if np.sqrt(np.sum(sig[k] ** 2)) < MIN_CROSS_SIGMA * np.sqrt(0.75):
+                continue
+            got = _three_of_cross(ang[k], rad[k])
+            if got is not None and sig[k].min() > best_key:
+                best, best_key = (k, got), float(sig[k].min())
     if best is None:
         return None
     k, (inner, outer, i_out) = best
@@ -147,8 +180,11 @@ def find_image_cross(residual: np.ndarray, cx: float, cy: float, r_lo: float, r_
     w = mass_alignment_weight(outer_deg, light_angle_deg, light_axis_ratio)
     root = float(np.sqrt(inner * outer))
     theta = root * (1.0 + w * full)
-    r = rad[k][np.argsort(ang[k])]
-    within = 0.5 * max(abs(r[0] - r[2]), abs(r[1] - r[3]))
+    if k.size == 4:
+        r = rad[k][np.argsort(ang[k])]
+        within = 0.5 * max(abs(r[0] - r[2]), abs(r[1] - r[3]))
+    else:  # the unseen partner may lie anywhere the source's offset puts it: the pair's spread, at least the seen one's
+        within = 0.5 * (outer - inner)
     position = fwhm_pix / 2.355 / float(np.sqrt(np.sum(sig[k] ** 2)))
     err = float(np.sqrt(position ** 2 + (SIE_FACTOR_ERROR_SHARE * full * root) ** 2 + (PAIR_SYSTEMATIC * within) ** 2))
     return ImageCross(px[k], py[k], rad[k], ang[k], sig[k], inner, outer, outer_deg, theta, err)
