@@ -100,10 +100,9 @@ def _image_cross(best: RingResult, res, rmin: float, light) -> RingResult:
     best.points_x, best.points_y = cross.x, cross.y
     best.kind, best.paired, best.confident = "arcs", True, False
     best.axis_ratio, best.angle_deg = float(cross.inner_pix / cross.outer_pix), float(cross.outer_angle_deg % 180.0)
-    seen = "Four images" if cross.x.size == 4 else "Three images (one pair and one of the other)"
-    best.message = (f"{seen} in a cross around the lens, pairs at {cross.inner_pix:.2f} and {cross.outer_pix:.2f} "
+    best.message = (f"Four images in a cross around the lens, pairs at {cross.inner_pix:.2f} and {cross.outer_pix:.2f} "
                     f"pixels: theta_E = {cross.theta_e_pix:.2f} +- {cross.theta_e_err_pix:.2f} pixels.")
-    best.warnings.append(f"{seen} compact images in a cross around the lens (a compact source near the axis of an "
+    best.warnings.append("Four compact images in a cross around the lens (a compact source near the axis of an "
                          "elongated lens): theta_E is the geometric mean of the two pairs' radii, scaled for an SIE "
                          "(Kormann, Schneider & Bartelmann 1994) as far as the light's direction says the mass "
                          "elongated it; a lens-model fit of the four positions is better.")
