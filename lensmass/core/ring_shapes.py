@@ -84,7 +84,8 @@ def _follow_shape(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, sho
 def _image_cross(best: RingResult, res, rmin: float, light) -> RingResult:
     """Four compact images in a cross around the lens (:func:`lensmass.core.image_cross.find_image_cross`, between
     :data:`CROSS_RADIUS_SPAN` times the answer's radius) replace an answer that is no ring (seen in under
-    :data:`~lensmass.core.ring_confidence.RING_COVERAGE` of the directions) or a ring outside the images' radii: the
+    :data:`~lensmass.core.ring_confidence.RING_COVERAGE` of the directions) or a ring outside the images' radii by more
+    than half its width (tests/core/test_false_rings.py's thin ring's own peaks at 15 pixels met it at 15.0x): the
     circles see a cross's outer pair, or one pair and another object's light, as arcs at one radius. The answer is a
     pair of image pairs, never confident."""
     if not best.found or light is None or not light.ok or not np.isfinite(best.radius_pix):
@@ -94,8 +95,9 @@ def _image_cross(best: RingResult, res, rmin: float, light) -> RingResult:
                              light.psf_fwhm_pix, light.angle_deg, light.axis_ratio)
     if cross is None:
         return best
-    if best.coverage >= RING_COVERAGE and cross.radius.min() <= best.radius_pix <= cross.radius.max():
-        return best
+    half = 0.5 * best.ring_width_pix if np.isfinite(best.ring_width_pix) else 0.0
+    if best.coverage >= RING_COVERAGE and cross.radius.min() - half <= best.radius_pix <= cross.radius.max() + half:
+        return best  # a ring through the images (a ring's own brightness peaks pass as a cross too)
     best.radius_pix, best.radius_err_pix = cross.theta_e_pix, cross.theta_e_err_pix
     best.points_x, best.points_y = cross.x, cross.y
     best.kind, best.paired, best.confident = "arcs", True, False
