@@ -37,6 +37,7 @@ from scipy.ndimage import binary_dilation, gaussian_filter
 from lensmass.core.cutout_cleaning import SATURATED_MIN_PIXELS, saturated_pixels
 from lensmass.core.errors import LensInputError
 from lensmass.core.peak_finding import local_peaks
+from lensmass.core.segment_geometry import moment_shape, saddle_level, touching_labels
 
 #: Segmentation threshold in units of the pixel noise (on the lightly smoothed image).
 THRESHOLD_SIGMA = 3.0
@@ -199,15 +200,11 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
         peak = float(v.max())
         half = cut & (vals >= 0.5 * peak)
         yy, xx = np.mgrid[sl[0], sl[1]]
-        w = np.clip(v, 0, None)
-        mx, my = float((w * xx).sum() / tot), float((w * yy).sum() / tot)
-        dx, dy = xx - mx, yy - my
-        cxx, cyy, cxy = (w * dx * dx).sum() / tot, (w * dy * dy).sum() / tot, (w * dx * dy).sum() / tot
-        elong, ang = _shape(cxx, cyy, cxy)
+        elong, ang = moment_shape(v, xx, yy)
         iy, ix = np.unravel_index(int(np.argmax(v)), v.shape)
         be = float(np.nanmean(colour[sl][cut])) if colour is not None else float("nan")
-        base = _saddle(labels, sm, sl, lab)
-        core_elong, core_ang = _core_shape(np.where(cut, vals - base, 0.0), xx, yy)
+        base = saddle_level(labels, sm, sl, lab)
+        core_elong, core_ang = moment_shape(np.where(cut, vals - base, 0.0), xx, yy)
         flat_top = int(np.count_nonzero(saturated[sl][cut])) >= SATURATED_MIN_PIXELS
         objects.append(FieldObject(int(lab), float(ix + sl[1].start), float(iy + sl[0].start), peak / noise_sigma, tot,
                                    int(cut.sum()), float(np.where(half, vals, 0).sum() / tot),
@@ -224,28 +221,11 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
             # PSF-like, and not merely the compact core of a blend it was cut from (a galaxy's core
             # deblended from its ring holds much of its segment's light inside its half maximum too).
             # A very round one is a star even in a blend (a ring's clumps are drawn out along it).
-            rivals = [peaks.get(lab, 0.0) for lab in _touching(labels, o.label)]
+            rivals = [peaks.get(lab, 0.0) for lab in touching_labels(labels, o.label)]
             if (not rivals or o.peak_snr >= STAR_BLEND_PEAK_RATIO * max(rivals)
                     or o.elongation <= STAR_ROUND_ELONGATION):
                 o.kind = "star"
     return labels, objects
-
-
-def _shape(cxx: float, cyy: float, cxy: float) -> tuple[float, float]:
-    """Elongation (major over minor axis) and major-axis angle (degrees from +x) of second moments."""
-    ev, vec = np.linalg.eigh(np.array([[cxx, cxy], [cxy, cyy]]))
-    return float(np.sqrt(max(ev[1], 1e-9) / max(ev[0], 1e-9))), float(np.degrees(np.arctan2(vec[1, 1], vec[0, 1])))
-
-
-def _core_shape(above: np.ndarray, xx: np.ndarray, yy: np.ndarray) -> tuple[float, float]:
-    """:func:`_shape` of the light ``above`` a level (negative values count as none); NaN when there is none."""
-    w = np.clip(above, 0, None)
-    tot = float(w.sum())
-    if tot <= 0:
-        return float("nan"), float("nan")
-    mx, my = float((w * xx).sum() / tot), float((w * yy).sum() / tot)
-    dx, dy = xx - mx, yy - my
-    return _shape((w * dx * dx).sum() / tot, (w * dy * dy).sum() / tot, (w * dx * dy).sum() / tot)
 
 
 def _local_background(sm: np.ndarray, finite: np.ndarray) -> np.ndarray | None:
@@ -280,32 +260,6 @@ def _centre_swallowed(lens: FieldObject, labels: np.ndarray) -> bool:
     near = _lens_reach(labels.shape)
     return (int(labels[int(round(c0y)), int(round(c0x))]) == lens.label
             and bool(np.hypot(lens.x - c0x, lens.y - c0y) > near))
-
-
-def _saddle(labels: np.ndarray, sm: np.ndarray, sl: tuple[slice, slice], label: int) -> float:
-    """The light level where segment ``label`` meets another segment (the highest of its pixels next to
-    one: the saddle of a deblended blend), or its faintest pixel when it touches none."""
-    ny, nx = labels.shape
-    y0, y1 = max(0, sl[0].start - 1), min(ny, sl[0].stop + 1)
-    x0, x1 = max(0, sl[1].start - 1), min(nx, sl[1].stop + 1)
-    box = labels[y0:y1, x0:x1]
-    own = box == label
-    others = (box != 0) & ~own
-    edge = own & binary_dilation(others)
-    vals = sm[y0:y1, x0:x1]
-    return float(vals[edge].max()) if edge.any() else float(vals[own].min())
-
-
-def _touching(labels: np.ndarray, label: int) -> set[int]:
-    """Labels of the segments within 2 pixels of segment ``label``."""
-    ys, xs = np.nonzero(labels == label)
-    if ys.size == 0:
-        return set()
-    y0, y1 = max(0, ys.min() - 3), min(labels.shape[0], ys.max() + 4)
-    x0, x1 = max(0, xs.min() - 3), min(labels.shape[1], xs.max() + 4)
-    box = labels[y0:y1, x0:x1]
-    around = binary_dilation(box == label, iterations=2)
-    return set(np.unique(box[around]).tolist()) - {0, label}
 
 
 def _tangential(o: FieldObject, cx: float, cy: float) -> bool:
@@ -403,7 +357,7 @@ def choose_lens(objects: list[FieldObject], shape: tuple[int, int], labels: np.n
     for o in bright:
         d = np.hypot(o.x - c0x, o.y - c0y)
         if (o.kind == "star" and d < 0.5 * dist[order[0]] and d <= near
-                and lens.label in _touching(labels, o.label)):
+                and lens.label in touching_labels(labels, o.label)):
             lens, dist, order, cands = o, np.array([d]), np.array([0]), [o]
             return lens, "the compact light peak nearest the cutout centre (the core of the lens's blend)", ""
     how = "the compact light peak nearest the cutout centre that is not a star"

@@ -11,7 +11,8 @@ import pytest
 from astropy.convolution import Gaussian2DKernel, convolve_fft
 from astropy.modeling.models import Ring2D, Sersic2D
 
-from lensmass.core.cutout_masks import _touching, cutout_masks
+from lensmass.core.cutout_masks import cutout_masks
+from lensmass.core.segment_geometry import touching_labels
 
 N, C, THETA_E, NOISE = 81, 40.0, 12.0, 1.0
 
@@ -60,7 +61,7 @@ def test_tangential_arc_on_the_lens_light_is_kept():
         m = cutout_masks(img, NOISE)
         lens = next(o for o in m.objects if o.kind == "lens")
         arc = next(o for o in m.objects if np.hypot(o.x - at[0], o.y - at[1]) < 3)
-        if arc.label in _touching(m.segments, lens.label):
+        if arc.label in touching_labels(m.segments, lens.label):
             touching += 1
             assert arc.kind in ("arc", "faint")
     assert touching
