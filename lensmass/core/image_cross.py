@@ -126,8 +126,9 @@ def find_image_cross(residual: np.ndarray, cx: float, cy: float, r_lo: float, r_
 
     Examples
     --------
-    Four Gaussian images at 9.0 and 11.0 pixels on the axes (an SIS with shear 0.1 puts them at theta_E / (1 -+ 0.1):
-    theta_E = 9.9 = sqrt(9 x 11) (Narayan & Bartelmann 1996); a round light gives the SIE factor half weight):
+    Four Gaussian images at 9.0 and 11.0 pixels on the axes (an SIS with shear 0.1 puts them at theta_E / (1 -+ 0.1),
+    theta_E = 9.9, the radii's harmonic mean: common practice; their geometric mean, 9.95, is 0.5% above it); a round
+    light gives the SIE factor half weight:
 
     >>> yy, xx = np.mgrid[0:64, 0:64]
     >>> spots = [(32 + 11, 32), (32 - 11, 32), (32, 32 + 9), (32, 32 - 9)]
