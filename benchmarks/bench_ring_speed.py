@@ -58,6 +58,9 @@ band, the picture route's elliptical pass and the across-light pass (cd14661) 0.
 each, alternating; bincount 0.035-0.040 s CPU; the across-light pass is most of the 0.07 s added; x0.7 of the target.
 With the offset-source harmonic too (ff96fca, load 2.7): 0.235-0.242 s CPU best, wall 0.36 s; lens-light fits 0.10 s;
 this field's ridge now takes the harmonic and a shorter path through the later passes.
+Stop 33 (2026-12-04, a new machine, load 0.7-0.8), one run each: main before this stop (1c7c47a) 0.352 s CPU best
+(median 0.389), main with the round-neighbour mask and the cross search (b809fce) 0.369 s (median 0.375); bincount
+0.050-0.054 s, finder x7.0 of it on both: no change from the merges; this machine is slower than stop 32's.
 Earlier (h14f): 0.45-0.49 s against 0.90-1.03 s at load 1.5-2.4 (the Levenberg-Marquardt solver, the
 Jacobian reusing the model's powers, the refit starting from the first fit, MINPACK ridge fits first).
 """
