@@ -1,6 +1,6 @@
 """Four images of a compact source near the axis of an elongated SIE (an Einstein cross): theta_E within 5%.
 
-The images are placed by solving the lens equation with the SIE deflection written out here from its published form
+The images are placed by solving the lens equation with the SIE deflection written out here, from memory, in its published form
 (Kormann, Schneider & Bartelmann 1994; Keeton 2001, arXiv:astro-ph/0102341, eq. for q < 1), not the project's; the
 lens light is astropy's Sersic2D blurred by astropy's Gaussian2DKernel, the images astropy Gaussian2D. Before
 lensmass.core.image_cross the circles measured such crosses as arcs at their outer pair's radius (stress tuning seeds
