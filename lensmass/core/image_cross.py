@@ -18,10 +18,11 @@ from dataclasses import dataclass
 from itertools import combinations
 
 import numpy as np
-from scipy.ndimage import gaussian_filter, maximum_filter
+from scipy.ndimage import gaussian_filter
 
 from lensmass.core.elliptical_annuli import mass_alignment_weight, sie_ring_factor
 from lensmass.core.lenslight import robust_sigma
+from lensmass.core.peak_finding import local_peaks
 
 #: Smallest significance of an image (peak of the residual smoothed by the seeing, in units of that map's noise); the
 #: four images of a cross stand at least :data:`MIN_CROSS_SIGMA` in quadrature (four of 5 sigma): the inner pair of an
@@ -72,8 +73,9 @@ class ImageCross:
 
 def image_peaks(residual: np.ndarray, cx: float, cy: float, r_lo: float, r_hi: float, fwhm_pix: float):
     """Compact peaks of the lens-subtracted ``residual`` (NaN = masked) smoothed by a Gaussian of the seeing, between
-    radii ``r_lo`` and ``r_hi`` of (cx, cy): x, y and significance (units of the smoothed map's robust noise in that
-    annulus), brightest first."""
+    radii ``r_lo`` and ``r_hi`` of (cx, cy): sub-pixel x, y (:func:`lensmass.core.peak_finding.local_peaks`, the
+    project's one peak finder) and significance (units of the smoothed map's robust noise in that annulus), brightest
+    first."""
     ny, nx = residual.shape
     pad = int(r_hi + 3 * fwhm_pix) + 2
     x0, x1, y0, y1 = max(0, int(cx) - pad), min(nx, int(cx) + pad + 1), max(0, int(cy) - pad), min(ny, int(cy) + pad + 1)
@@ -88,12 +90,9 @@ def image_peaks(residual: np.ndarray, cx: float, cy: float, r_lo: float, r_hi: f
     noise = robust_sigma(sm[ring])
     if not np.isfinite(noise) or noise <= 0:
         return np.array([]), np.array([]), np.array([])
-    size = max(3, int(round(fwhm_pix)) | 1)
-    peak = ring & (sm == maximum_filter(np.where(good, sm, -np.inf), size=size)) & (sm >= FAINTEST_IMAGE_SIGMA * noise)
-    iy, ix = np.nonzero(peak)
-    s = sm[iy, ix] / noise
-    order = np.argsort(-s)[:MAX_PEAKS]
-    return (ix[order] + x0).astype(float), (iy[order] + y0).astype(float), s[order]
+    peaks = local_peaks(np.where(good, sm, np.nan), threshold=FAINTEST_IMAGE_SIGMA * noise,
+                        radius_pix=max(1, int(round(fwhm_pix)) // 2), max_peaks=MAX_PEAKS, valid=ring)
+    return peaks[:, 0] + x0, peaks[:, 1] + y0, peaks[:, 2] / noise
 
 
 def _cross_of(ang: np.ndarray, rad: np.ndarray) -> tuple[float, float, int] | None:
