@@ -61,6 +61,16 @@ RIDGE_CALIBRATION = "find_ring on 130 lone arcs of both field makers, tuning see
 #: direction). Made by ``benchmarks/calibrate_lone_arc.py --unpaired-table``. Upper tail: features inside theta_E.
 UNPAIRED_CALIBRATION = "find_ring on 291 unpaired single arcs of both field makers, tuning seeds 620700-624029"
 MEASURES = tuple(LONE_ARC_LOG_RATIO_QUANTILES)
+#: The ``"unpaired"`` interval's 1-sigma lower side reaches down to at least this share of the radius
+#: (:func:`unpaired_sigma_ratios`). The table pools ring parts (theta_E at the radius) with lone arcs outside theta_E,
+#: whose ratio an isothermal lens puts between 1/2 and 1 (the bright image at theta_E + beta, beta < theta_E for a
+#: multiply imaged source: common practice); its 15.87% quantile (0.67) lay above most lone arcs of one field maker
+#: (stress fields: unpaired one-arc lenses' median 0.66). This value is the 15.87% quantile of ln(theta_E / radius)
+#: over the unpaired answers on arc lenses alone, each field maker weighted alike, never below the isothermal 1/2
+#: (``benchmarks/calibrate_arc_intervals.py floor`` on ``benchmarks/record_arc_intervals.py`` records, h21c, tuning
+#: seeds 645000-645489 and 646000-646139: 78 unpaired arcs, 56 stress and 22 ours, 0.577).
+UNPAIRED_1SIGMA_LOW_RATIO = 0.58
+UNPAIRED_FLOOR_CALIBRATION = "h21c: 15.87% quantile of unpaired arc-lens answers, seeds 645000-645489, 646000-646139"
 
 
 def _table(measure: str) -> np.ndarray:
@@ -79,6 +89,25 @@ def lone_arc_ratio_quantiles(probabilities, measure: str = "points") -> np.ndarr
     True
     """
     return np.exp(np.interp(probabilities, LONE_ARC_PROBABILITIES, _table(measure)))
+
+
+def unpaired_sigma_ratios() -> np.ndarray:
+    """theta_E / radius of an unpaired arc at the -2, -1, +1, +2 sigma probabilities
+    (:data:`lensmass.core.ring_interval.SIGMA_PROBABILITIES`): the ``"unpaired"`` table's quantiles, the 1-sigma lower
+    side no higher than :data:`UNPAIRED_1SIGMA_LOW_RATIO` and the 2-sigma one no higher than the 1-sigma one.
+
+    Examples
+    --------
+    >>> lo2, lo1, hi1, hi2 = unpaired_sigma_ratios()
+    >>> bool(lo2 <= lo1 <= 0.58 < 1.0 < hi1 < hi2)
+    True
+    """
+    from lensmass.core.ring_interval import SIGMA_PROBABILITIES
+
+    q = lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, "unpaired")
+    q[1] = min(q[1], UNPAIRED_1SIGMA_LOW_RATIO)
+    q[0] = min(q[0], q[1])
+    return q
 
 
 def lone_arc_theta_e(r_arc: float, measure: str = "ridge") -> tuple[float, float]:
@@ -113,5 +142,6 @@ def lone_arc_theta_e_draws(x, y, center_x: float, center_y: float, n: int = 4000
     return r_arc * lone_arc_ratio_quantiles(u, measure)
 
 
-__all__ = ["LONE_ARC_LOG_RATIO_QUANTILES", "LONE_ARC_PROBABILITIES", "MEASURES", "UNPAIRED_CALIBRATION",
-           "lone_arc_ratio_quantiles", "lone_arc_theta_e", "lone_arc_theta_e_draws"]
+__all__ = ["LONE_ARC_LOG_RATIO_QUANTILES", "LONE_ARC_PROBABILITIES", "MEASURES", "UNPAIRED_1SIGMA_LOW_RATIO",
+           "UNPAIRED_CALIBRATION", "UNPAIRED_FLOOR_CALIBRATION", "lone_arc_ratio_quantiles", "lone_arc_theta_e",
+           "lone_arc_theta_e_draws", "unpaired_sigma_ratios"]

@@ -12,7 +12,7 @@ from lensmass.core.counter_image import find_counter_image
 from lensmass.core.elliptical_annuli import (ROUND_LIGHT, SIE_RIDGE_AXIS_RATIOS, mass_alignment_weight, ring_shape,
                                              sie_ring_axis_ratio, sie_ring_factor)
 from lensmass.core.image_cross import find_image_cross
-from lensmass.core.lone_arc import lone_arc_ratio_quantiles, lone_arc_theta_e
+from lensmass.core.lone_arc import lone_arc_ratio_quantiles, lone_arc_theta_e, unpaired_sigma_ratios
 from lensmass.core.ring_confidence import CONFIDENT_SCORE, RING_COVERAGE
 from lensmass.core.ring_interval import SIGMA_PROBABILITIES, hold_shape, interval_text
 from lensmass.core.ring_result import RingResult
@@ -189,13 +189,16 @@ def _unpaired_arc(best: RingResult) -> RingResult:
     theta_E by its source's offset (for an isothermal sphere the bright image lies at theta_E + beta: common
     practice), which one arc does not tell apart. Its radius is kept (the ring part's answer) and the interval takes
     the calibrated spread of theta_E / radius over both (:func:`lensmass.core.lone_arc.lone_arc_ratio_quantiles`,
-    the ``"unpaired"`` table): wide below the radius, narrow above it."""
+    the ``"unpaired"`` table, its 1-sigma lower side reaching at least
+    :data:`~lensmass.core.lone_arc.UNPAIRED_1SIGMA_LOW_RATIO` of the radius,
+    :func:`~lensmass.core.lone_arc.unpaired_sigma_ratios`):
+    wide below the radius, narrow above it."""
     if (not best.found or best.paired or best.coverage >= RING_COVERAGE or np.isfinite(best.lone_arc_radius_pix)
             or best.interval_shape_pix is not None):
         return best
     arc = best.radius_pix
     measured = best.radius_err_pix
-    q = arc * lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, "unpaired")
+    q = arc * unpaired_sigma_ratios()
     best.radius_err_pix = float(np.hypot(measured, 0.5 * (q[2] - q[1])))
     hold_shape(best, [arc + np.sign(b - arc) * np.hypot(b - arc, k * measured) for b, k in zip(q, (2, 1, 1, 2))])
     best.warnings.append(f"An arc at {arc:.2f} pixels with no counter-arc found: it may be part of a ring (theta_E at "

@@ -63,10 +63,11 @@ def test_single_arcs_of_an_isothermal_sphere_inside_the_stated_interval():
 def test_an_unpaired_arc_keeps_its_radius_and_states_the_tables_spread_with_no_floor_on_top():
     # the rule itself on a found single arc (40% of the directions, no counter-arc): the radius stays (a ring part's
     # answer), the bounds are the radius times the "unpaired" table's quantiles at the normal 1- and 2-sigma
-    # probabilities (common practice: 2.275, 15.87, 84.13, 97.725%), and ring_confidence adds no single-arc floor
+    # probabilities (common practice: 2.275, 15.87, 84.13, 97.725%), its 1-sigma lower side no higher than the
+    # floor of lone_arc.UNPAIRED_1SIGMA_LOW_RATIO, and ring_confidence adds no single-arc floor
     from types import SimpleNamespace
 
-    from lensmass.core.lone_arc import lone_arc_ratio_quantiles
+    from lensmass.core.lone_arc import UNPAIRED_1SIGMA_LOW_RATIO, lone_arc_ratio_quantiles, unpaired_sigma_ratios
     from lensmass.core.ring_confidence import _calibrate
     from lensmass.core.ring_interval import SIGMA_PROBABILITIES, state_interval
     from lensmass.core.ring_result import RingResult
@@ -80,7 +81,10 @@ def test_an_unpaired_arc_keeps_its_radius_and_states_the_tables_spread_with_no_f
     out = _calibrate(_unpaired_arc(arc))
     state_interval(out)
     assert out.radius_pix == 20.0 and not out.confident
-    expected = 20.0 * lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, "unpaired")
+    expected = 20.0 * unpaired_sigma_ratios()
+    table = lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, "unpaired")
+    np.testing.assert_allclose(expected[2:], 20.0 * table[2:])  # the upper side is the table's
+    assert expected[1] == 20.0 * min(table[1], UNPAIRED_1SIGMA_LOW_RATIO)  # the lower reaches the floor
     np.testing.assert_allclose(interval_bounds(out), expected, atol=0.11)  # the 0.05-pixel fit error joined in
     assert out.radius_lo_pix < 0.7 * 20.0 and 1.0 * 20.0 < out.radius_hi_pix < 1.1 * 20.0
 
@@ -99,3 +103,16 @@ def test_a_compact_arc_and_its_counter_image_give_theta_e_as_their_mean_radius()
     assert len(paired) >= 10
     assert all(truth_inside(out, te, 2) and not out.confident for out, te in paired)
     assert any("counter-image" in w for w in paired[0][0].warnings)
+
+
+def test_an_unpaired_arc_far_outside_theta_e_is_covered_inside_one_sigma():
+    # sources at beta = 0.7 theta_E: the bright arc at theta_E + beta = 1.7 theta_E (common practice, isothermal
+    # sphere), so theta_E is 0.59 of its radius, below the "unpaired" table's 15.87% quantile (0.67) but above the
+    # isothermal bound 1/2 a lone arc can reach; those the finder cannot pair must still hold the truth inside 1 sigma
+    # (lensmass.core.lone_arc.UNPAIRED_1SIGMA_LOW_RATIO; main da46144: 2 of these 4 inside 1 sigma)
+    runs = [(find_ring(img), te) for img, te in (_sis_arc(s, 0.7) for s in SEEDS)]
+    unpaired = [(out, te) for out, te in runs
+                if out.kind == "arcs" and not out.paired and not np.isfinite(out.lone_arc_radius_pix)]
+    assert len(unpaired) >= 3, [(o.kind, o.paired) for o, _ in runs]
+    assert all(truth_inside(out, te, 1) for out, te in unpaired), [(round(te, 2), interval_bounds(out)) for out, te in unpaired]
+    assert all(out.radius_pix > 1.4 * te for out, te in unpaired)  # the radius itself is the arc's, unchanged
