@@ -48,7 +48,7 @@ def features(r) -> dict:
                 width=float(r.ring_width_pix), confident=bool(r.confident), kind_found=str(r.kind),
                 r_eff=float(light.r_eff_pix) if ok else float("nan"), light_q=float(light.axis_ratio) if ok else float("nan"),
                 psf_fit=float(light.psf_fwhm_pix) if ok else float("nan"), internal=float(r.radius_internal_err_pix),
-                n_points=int(r.points_x.size), axis_ratio=float(r.axis_ratio))
+                n_points=int(r.points_x.size), axis_ratio=float(r.axis_ratio), fit_rms=float(r.fit_rms_pix))
 
 
 def run_stress(first: int, n: int, out: str, kinds: tuple[str, ...] = ("two arcs", "one arc")) -> None:

@@ -352,9 +352,11 @@ def main(n: int = 60, first_seed: int = 680000, hard: int = 0, encoding: str = "
     rows = []
     c0 = time.process_time()
     for f in make_pictures(n, first_seed, bool(hard), encoding):
+        message, lone = "", False
         try:
             out = find_ring_on_image(load_image(f.path, pixel_scale_arcsec=f.truth["pixel_scale_arcsec"]))
             rows.append((f, out.found, out.radius_pix, out.radius_err_pix, interval_bounds(out)))
+            message, lone = str(out.message), bool(np.isfinite(out.lone_arc_radius_pix))
         except LensInputError:
             rows.append((f, False, np.nan, np.nan, (np.nan,) * 4))
         if table:  # one line a field, for looking into the failures
@@ -364,7 +366,8 @@ def main(n: int = 60, first_seed: int = 680000, hard: int = 0, encoding: str = "
                 fh.write(json.dumps({"seed": f.truth["seed"], "kind": f.truth["kind"], "recipe": f.recipe,
                                      "truth": f.truth["radius_pix"], "psf": f.psf_fwhm_pix, "found": bool(rows[-1][1]),
                                      "radius": float(rows[-1][2]), "err": float(rows[-1][3]),
-                                     "bounds": [float(b) for b in rows[-1][4]]}) + "\n")
+                                     "bounds": [float(b) for b in rows[-1][4]], "message": message[:200],
+                                     "lone": lone}) + "\n")
     cpu = (time.process_time() - c0) / max(n, 1)
     report(rows, f"seeds {first_seed}-{first_seed + n - 1}{' hard rings' if hard else ''}, {encoding}", cpu)
 

@@ -160,7 +160,7 @@ def _calibrate(out: RingResult) -> RingResult:
     seeing = float(light.psf_fwhm_pix) if light is not None and light.ok else float("nan")
     psf = max(seeing, SAMPLING_FWHM_PIX) if np.isfinite(seeing) else seeing  # no ring is sampled thinner than pixels
     out.radius_err_pix = float(np.hypot(out.radius_err_pix, floor * out.radius_pix))
-    if not (lone or single_arc):
+    if not (lone or single_arc or out.error_from_images):  # an image cross's ridge terms are another candidate's
         out.radius_err_pix = float(np.hypot(out.radius_err_pix, _seen_terms(out, psf)))
     thin = not np.isfinite(psf) or out.ring_width_pix <= CONFIDENT_MAX_WIDTH_PSF * psf
     too_thin = bool(np.isfinite(seeing) and np.isfinite(out.ring_width_pix)

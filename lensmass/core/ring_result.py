@@ -66,3 +66,7 @@ class RingResult:
     #: reach (:data:`lensmass.core.ring_interval.RING_TAIL_SHARE` of the radius on a FITS image; an 8-bit picture's
     #: larger one, :func:`lensmass.core.ring_pictures.add_picture_tail`).
     interval_tail_pix: float = 0.0
+    #: The error was set from the positions of compact images (an image cross: ring_shapes._image_cross); the ridge
+    #: scatter and width :func:`lensmass.core.ring_confidence._calibrate` reads belong to the candidate it replaced,
+    #: so their terms are not added to it.
+    error_from_images: bool = False

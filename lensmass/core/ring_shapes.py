@@ -103,6 +103,7 @@ def _image_cross(best: RingResult, res, rmin: float, light) -> RingResult:
     best.radius_pix, best.radius_err_pix = cross.theta_e_pix, cross.theta_e_err_pix
     best.points_x, best.points_y = cross.x, cross.y
     best.kind, best.paired, best.confident = "arcs", True, False
+    best.error_from_images = True  # the replaced candidate's ridge scatter and width say nothing of the cross
     best.axis_ratio, best.angle_deg = float(cross.inner_pix / cross.outer_pix), float(cross.outer_angle_deg % 180.0)
     best.message = (f"Four images in a cross around the lens, pairs at {cross.inner_pix:.2f} and {cross.outer_pix:.2f} "
                     f"pixels: theta_E = {cross.theta_e_pix:.2f} +- {cross.theta_e_err_pix:.2f} pixels.")

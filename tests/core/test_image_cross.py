@@ -85,3 +85,34 @@ def test_cross_finder_takes_the_pairs():
 def test_no_cross_in_noise():
     img = np.random.default_rng(5).normal(0, 1, (96, 96))
     assert find_image_cross(img, 47.5, 47.5, 5.0, 25.0, 3.0) is None
+
+
+def test_a_cross_answer_states_its_own_error_not_the_replaced_candidates_ridge_terms():
+    # The circles' candidate (here a thick one: 12-pixel ridge, 4 seeing widths) is replaced by the cross of the SIE
+    # images (Kormann, Schneider & Bartelmann 1994, solved above); the stated error is the cross's own (positions, SIE
+    # factor, pair systematic) with the ring floor, not that candidate's thickness term (main da46144 added it:
+    # 0.1 x sqrt(12^2 - 6^2) = 1.04 pixels, 7% of theta_E, where the cross's own is about 2%).
+    from types import SimpleNamespace
+
+    from lensmass.core.ring_confidence import RING_FLOOR, _calibrate
+    from lensmass.core.ring_result import RingResult
+    from lensmass.core.ring_shapes import _image_cross
+
+    img, _ = _cross_field(4)
+    n = img.shape[0]
+    c0 = (n - 1) / 2
+    yy, xx = np.mgrid[0:n, 0:n]
+    light_img = convolve_fft(Sersic2D(amplitude=60.0, r_eff=8.0, n=4.0, x_0=c0, y_0=c0, ellip=0.4,
+                                      theta=np.radians(30.0))(xx, yy), Gaussian2DKernel(3.0 / 2.355), boundary="fill")
+    light = SimpleNamespace(ok=True, psf_fwhm_pix=3.0, angle_deg=30.0, axis_ratio=0.6, sersic_n=4.0)
+    t = np.linspace(-0.6, 0.6, 6)
+    thick = RingResult(True, False, "arcs", 16.0, 0.3, 12.0, 0.4, c0, c0, float("nan"), float("nan"), 0.5,
+                       c0 + 16 * np.cos(t), c0 + 16 * np.sin(t), np.empty(0), np.empty(0), np.empty(0), 1.0, None,
+                       light, ring_width_pix=12.0)
+    out = _image_cross(thick, img - light_img, 4.0, light)
+    assert out.message.startswith("Four images")
+    own = out.radius_err_pix
+    out = _calibrate(out)
+    assert abs(out.radius_pix / 14.0 - 1) < 0.05
+    assert out.radius_err_pix == pytest.approx(np.hypot(own, RING_FLOOR * out.radius_pix))
+    assert abs(out.radius_pix - 14.0) <= 2 * out.radius_err_pix
