@@ -183,8 +183,7 @@ def prepare_cutout(image: np.ndarray, mask: np.ndarray | None = None,
         notes.append(f"{int(blank.sum())} pixels in rows or columns of one value (a blank border, a dead column) "
                      "are masked.")
     hot = hot_lines(img) & ~blank
-    if hot.any():
-        img = np.where(hot, np.nan, img)
+    if hot.any():  # masked, not blanked: a NaN line through the lens would cut its segment in two
         out_mask |= hot
         notes.append(f"{int(hot.sum())} pixels in rows or columns raised along their length (a hot or bad column) "
                      "are masked.")
