@@ -99,8 +99,13 @@ def sharp_pixels(image: np.ndarray, noise_sigma: float) -> np.ndarray:
 #: both its neighbours in the same row (column) in at least this share of its finite pixels, where noise gives
 #: about a third (three exchangeable values) and a galaxy's ridge only where the galaxy stands above the noise, ...
 HOT_LINE_SHARE = 0.9
-#: ... on at least this many finite pixels.
+#: ... on at least this many finite pixels, ...
 HOT_LINE_MIN_PIXELS = 24
+#: ... raised by about the same amount along its length: the lower quartile of its excess over its neighbours' mean
+#: is at least this share of the upper quartile. A hot column adds a constant (with noise of sigma, a line raised
+#: enough to pass the share test keeps this ratio near 0.5 or above); the centre line of a noiseless round galaxy
+#: (a simulation) beats its neighbours everywhere too, by an excess that falls steeply away from the galaxy.
+HOT_LINE_EVENNESS = 0.25
 
 
 def hot_lines(image: np.ndarray) -> np.ndarray:
@@ -133,7 +138,12 @@ def hot_lines(image: np.ndarray) -> np.ndarray:
             above = (mid > left) & (mid > right)
         n = (np.isfinite(mid) & np.isfinite(left) & np.isfinite(right)).sum(axis=0)
         hot = (n >= HOT_LINE_MIN_PIXELS) & (above.sum(axis=0) >= HOT_LINE_SHARE * np.maximum(n, 1))
-        idx = np.flatnonzero(hot) + 1
+        idx = np.flatnonzero(hot)
+        if idx.size:
+            excess = mid[:, idx] - 0.5 * (left[:, idx] + right[:, idx])
+            low, high = np.nanpercentile(excess, [25, 75], axis=0)
+            idx = idx[low >= HOT_LINE_EVENNESS * high]
+        idx = idx + 1
         if axis == 0:
             out[:, idx] = True
         else:

@@ -53,3 +53,14 @@ def test_hot_lines_leave_galaxies_and_noise_alone():
     img[30, :] += 5.0  # a row raised by 5 noise sigma
     m = hot_lines(img)
     assert m[30].all() and m.sum() == SIZE
+
+
+def test_a_noiseless_round_galaxy_has_no_hot_line():
+    """A noiseless simulation (astropy ``Sersic2D`` centred on a pixel, plus a ``Ring2D``): its centre column and row
+    beat their neighbours everywhere, but by an excess that falls away from the galaxy, so nothing is masked."""
+    yy, xx = np.mgrid[0:101, 0:101].astype(float)
+    img = Sersic2D(amplitude=10.0, r_eff=8.0, n=4.0, x_0=50, y_0=50)(xx, yy)
+    img += Ring2D(amplitude=1.0, x_0=50, y_0=50, r_in=15.0, width=2.0)(xx, yy)
+    assert not hot_lines(img).any()
+    img[:, 20] += 0.5  # a hot column in the same noiseless image is still found
+    assert hot_lines(img)[:, 20].all() and hot_lines(img).sum() == img.shape[0]
