@@ -68,14 +68,18 @@ def test_finder_measures_a_cross_within_five_percent(seed):
     assert not found.confident
 
 
-def test_cross_finder_takes_the_pairs():
-    img, pos = _cross_field(4)
-    n = img.shape[0]
+def _lens_light(n: int) -> np.ndarray:
+    """The cross field's lens light alone (astropy Sersic2D blurred by a Gaussian2DKernel of 3-pixel FWHM)."""
     c0 = (n - 1) / 2
     yy, xx = np.mgrid[0:n, 0:n]
-    light = convolve_fft(Sersic2D(amplitude=60.0, r_eff=8.0, n=4.0, x_0=c0, y_0=c0, ellip=0.4,
-                                  theta=np.radians(30.0))(xx, yy), Gaussian2DKernel(3.0 / 2.355), boundary="fill")
-    cross = find_image_cross(img - light, c0, c0, 5.0, 25.0, 3.0, 30.0, 0.6)
+    return convolve_fft(Sersic2D(amplitude=60.0, r_eff=8.0, n=4.0, x_0=c0, y_0=c0, ellip=0.4,
+                                 theta=np.radians(30.0))(xx, yy), Gaussian2DKernel(3.0 / 2.355), boundary="fill")
+
+
+def test_cross_finder_takes_the_pairs():
+    img, pos = _cross_field(4)
+    c0 = (img.shape[0] - 1) / 2
+    cross = find_image_cross(img - _lens_light(img.shape[0]), c0, c0, 5.0, 25.0, 3.0, 30.0, 0.6)
     assert cross is not None
     r = np.sort(np.hypot(pos[:, 0], pos[:, 1]))
     assert abs(cross.inner_pix - 0.5 * (r[0] + r[1])) < 0.7 and abs(cross.outer_pix - 0.5 * (r[2] + r[3])) < 0.7
@@ -99,11 +103,8 @@ def test_a_cross_answer_states_its_own_error_not_the_replaced_candidates_ridge_t
     from lensmass.core.ring_shapes import _image_cross
 
     img, _ = _cross_field(4)
-    n = img.shape[0]
-    c0 = (n - 1) / 2
-    yy, xx = np.mgrid[0:n, 0:n]
-    light_img = convolve_fft(Sersic2D(amplitude=60.0, r_eff=8.0, n=4.0, x_0=c0, y_0=c0, ellip=0.4,
-                                      theta=np.radians(30.0))(xx, yy), Gaussian2DKernel(3.0 / 2.355), boundary="fill")
+    c0 = (img.shape[0] - 1) / 2
+    light_img = _lens_light(img.shape[0])
     light = SimpleNamespace(ok=True, psf_fwhm_pix=3.0, angle_deg=30.0, axis_ratio=0.6, sersic_n=4.0)
     t = np.linspace(-0.6, 0.6, 6)
     thick = RingResult(True, False, "arcs", 16.0, 0.3, 12.0, 0.4, c0, c0, float("nan"), float("nan"), 0.5,
