@@ -558,6 +558,8 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
 
 #: Rounds of refitting the lens with the companion subtracted and the companion on the lens's residual.
 COMPANION_ROUNDS = 1
+#: Largest azimuthal-mean residual at the companion's distance, as a share of that on the ring found past it.
+COMPANION_RING_SHARE = 0.5
 
 
 def _companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop):
@@ -588,10 +590,15 @@ def _companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop):
             "was fitted as a second Sersic and subtracted.")
     again = _search(refit.residual, refit.center_x, refit.center_y, rmin, rmax, n_sectors, refit,
                     list(refit.notes) + [note], None, should_stop, elliptical=False)
-    inside = comp.distance_pix + refit.psf_fwhm_pix <= again.radius_pix
+    if not again.found:
+        return img, light, first
+    # Kept only when the ring found moved out past the companion (the first search took the companion's light) and
+    # the companion's distance carries little ring light once it is subtracted (a knot of the ring does).
+    past = max(comp.distance_pix, first.radius_pix if first.found else 0.0) + refit.psf_fwhm_pix <= again.radius_pix
+    at_comp, at_ring = np.interp([comp.distance_pix, again.radius_pix], again.profile_radius_pix, again.profile)
     from lensmass.core import companion_light as _cl  # DEBUG
-    _cl.TRACE.append(dict(first=first.radius_pix if first.found else None, again=again.radius_pix if again.found else None, w=again.ring_width_pix))
-    if not (again.found and inside):
+    _cl.TRACE.append(dict(first=first.radius_pix if first.found else None, again=again.radius_pix if again.found else None, w=again.ring_width_pix, pd=float(np.interp(comp.distance_pix, again.profile_radius_pix, again.profile)) if again.found else None, pr=float(np.interp(again.radius_pix, again.profile_radius_pix, again.profile)) if again.found else None, pe=float(np.interp(again.radius_pix, again.profile_radius_pix, again.profile_err)) if again.found else None, c1=first.coverage, c2=again.coverage, s1=first.score, s2=again.score, conf2=again.confident, k2=again.kind))
+    if not (past and at_comp < COMPANION_RING_SHARE * at_ring):
         return img, light, first
     refit.notes.append(note)
     return less, refit, again
