@@ -44,7 +44,6 @@ WINDOW_OF_DISTANCE = 0.35
 SOFT_SCALE = 3.0
 #: Free parameters of the companion (flux, R_e, n, q, angle, x, y).
 N_PARAMS = 7
-TRACE: list = []  # DEBUG
 
 
 @dataclass
@@ -86,15 +85,15 @@ def fit_companion(residual: np.ndarray, cx: float, cy: float, psf_fwhm_pix: floa
     if at is None:
         peaks = _candidates(res, cx, cy, psf_fwhm_pix, noise_sigma, fit_radius_pix)
         if len(peaks) == 0:
-            TRACE.append("no peak")
             return None
-        x0, y0, v0 = peaks[0]
+        x0, y0 = peaks[0][0], peaks[0][1]
     else:
-        (x0, y0), v0 = at, 0.0
+        x0, y0 = at
     dist = float(np.hypot(x0 - cx, y0 - cy))
     half = int(np.ceil(max(0.5 * dist, 2 * psf_fwhm_pix)))
     ny, nx = res.shape
-    xa, xb, ya, yb = max(0, int(x0) - half), min(nx, int(x0) + half + 2), max(0, int(y0) - half), min(ny, int(y0) + half + 2)
+    xa, xb = max(0, int(x0) - half), min(nx, int(x0) + half + 2)
+    ya, yb = max(0, int(y0) - half), min(ny, int(y0) + half + 2)
     win = res[ya:yb, xa:xb]
     wy, wx = np.mgrid[ya:yb, xa:xb]
     ok = np.isfinite(win) & (np.hypot(wx - x0, wy - y0) <= max(WINDOW_FWHM * psf_fwhm_pix, WINDOW_OF_DISTANCE * dist, 3.0))
@@ -130,11 +129,11 @@ def fit_companion(residual: np.ndarray, cx: float, cy: float, psf_fwhm_pix: floa
     radial_deg = np.degrees(np.arctan2(y - cy, x - cx))
     off_radial = abs((ang - radial_deg + 90.0) % 180.0 - 90.0)  # 0: major axis radial, 90: tangential
     tangential = axis < MIN_TANGENTIAL_Q and off_radial > 45.0
-    TRACE.append(dict(x=x, y=y, dist=dist, re=re, q=axis, off=off_radial, bic=bic_gain, n=q[2], snr=v0))
     if bic_gain < MIN_BIC_GAIN or (judge and (re > MAX_RE_OF_DISTANCE * dist or tangential)):
         return None
     reach = int(np.ceil(4 * re + 2 * psf_fwhm_pix))  # the model, not only the fitted window, is subtracted
-    xa, xb, ya, yb = max(0, int(x) - reach), min(nx, int(x) + reach + 2), max(0, int(y) - reach), min(ny, int(y) + reach + 2)
+    xa, xb = max(0, int(x) - reach), min(nx, int(x) + reach + 2)
+    ya, yb = max(0, int(y) - reach), min(ny, int(y) + reach + 2)
     gx, gy = np.arange(xa, xb, dtype=float), np.arange(ya, yb, dtype=float)
     full = np.zeros(res.shape, np.float32)
     full[ya:yb, xa:xb] = model(q)

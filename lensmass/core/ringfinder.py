@@ -565,8 +565,10 @@ COMPANION_RING_SHARE = 0.5
 def _companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop):
     """``img``, ``light`` and ``first``, or, when a companion galaxy overlaps the lens
     (:func:`~lensmass.core.companion_light.fit_companion`), the image less the companion's model, the lens light
-    refitted on it and the search of its residual; the companion is kept only when that search finds the ring
-    outside it (a compact blob on the ring may be a knot of the ring)."""
+    refitted on it and the search of its residual. The companion is kept only when that search's ring lies a
+    seeing FWHM past both the companion and the first answer, and the azimuthal-mean residual at the companion's
+    distance is under :data:`COMPANION_RING_SHARE` of that on the ring (a compact blob on the ring may be a knot of
+    it, and a piece of an arc leaves the rest of the arc at its distance)."""
     comp = fit_companion(light.residual, light.center_x, light.center_y, light.psf_fwhm_pix, light.noise_sigma,
                          light.fit_radius_pix, judge=False)
     refit = light
@@ -596,8 +598,6 @@ def _companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop):
     # the companion's distance carries little ring light once it is subtracted (a knot of the ring does).
     past = max(comp.distance_pix, first.radius_pix if first.found else 0.0) + refit.psf_fwhm_pix <= again.radius_pix
     at_comp, at_ring = np.interp([comp.distance_pix, again.radius_pix], again.profile_radius_pix, again.profile)
-    from lensmass.core import companion_light as _cl  # DEBUG
-    _cl.TRACE.append(dict(first=first.radius_pix if first.found else None, again=again.radius_pix if again.found else None, w=again.ring_width_pix, pd=float(np.interp(comp.distance_pix, again.profile_radius_pix, again.profile)) if again.found else None, pr=float(np.interp(again.radius_pix, again.profile_radius_pix, again.profile)) if again.found else None, pe=float(np.interp(again.radius_pix, again.profile_radius_pix, again.profile_err)) if again.found else None, c1=first.coverage, c2=again.coverage, s1=first.score, s2=again.score, conf2=again.confident, k2=again.kind))
     if not (past and at_comp < COMPANION_RING_SHARE * at_ring):
         return img, light, first
     refit.notes.append(note)

@@ -30,12 +30,12 @@ def _image(extra, seed: int) -> np.ndarray:
 
 
 def _companion(angle: float, dist: float = 0.6 * THETA_E) -> Sersic2D:
-    return Sersic2D(amplitude=6.0, r_eff=1.5, n=4.0, x_0=CX + dist * np.cos(angle), y_0=CY + dist * np.sin(angle),
+    return Sersic2D(amplitude=3.0, r_eff=2.5, n=4.0, x_0=CX + dist * np.cos(angle), y_0=CY + dist * np.sin(angle),
                     ellip=0.1, theta=0.0)
 
 
 def _ring() -> Ring2D:
-    return Ring2D(amplitude=0.6, x_0=CX, y_0=CY, r_in=THETA_E - 0.75, width=1.5)
+    return Ring2D(amplitude=0.15, x_0=CX, y_0=CY, r_in=THETA_E - 0.75, width=1.5)
 
 
 @pytest.mark.parametrize("seed, angle", [(641001, 0.3), (641002, 2.2), (641003, 4.4)])
@@ -50,19 +50,18 @@ def test_companion_found_where_it_is(seed, angle):
 
 
 @pytest.mark.parametrize("seed, angle", [(641011, 0.3), (641012, 2.2)])
-def test_tangential_arc_is_no_companion(seed, angle):
-    """A bright arc (a Gaussian 3 times longer along the tangent than across) is left to the ring search."""
+def test_arc_is_not_taken_for_a_companion(seed, angle):
+    """A lone bright arc (a Gaussian 5 times longer along the tangent than across, at theta_E) is not subtracted as
+    a companion: its light continues along its radius. (Where a lone arc is read is another matter, not tested here.)"""
     arc = Gaussian2D(amplitude=1.0, x_mean=CX + THETA_E * np.cos(angle), y_mean=CY + THETA_E * np.sin(angle),
-                     x_stddev=1.2, y_stddev=3.6, theta=angle)  # y_stddev along the tangent after the turn by angle
-    img = _image(arc, seed)
-    light = fit_lens_light(img, 40, 40)
-    assert fit_companion(light.residual, light.center_x, light.center_y, light.psf_fwhm_pix, light.noise_sigma,
-                         light.fit_radius_pix) is None
+                     x_stddev=1.2, y_stddev=6.0, theta=angle)  # y_stddev along the tangent after the turn by angle
+    found = find_ring(_image(arc, seed), auto_mask=False)
+    assert not any("companion" in n for n in found.lens_light.notes + found.warnings)
 
 
 @pytest.mark.parametrize("seed, angle", [(641021, 0.3), (641022, 2.2), (641023, 4.4)])
 def test_ring_found_past_the_companion(seed, angle):
     """With a companion at 0.6 theta_E, the ring (astropy's Ring2D, radius 16 pixels) is found within 5%, not at
-    the companion's distance."""
+    the companion's distance (the finder before the companion fit answered 5.9-6.7 pixels on these seeds)."""
     found = find_ring(_image(_companion(angle) + _ring(), seed), auto_mask=False)
     assert found.found and abs(found.radius_pix / THETA_E - 1) < 0.05, (found.radius_pix, found.warnings)
