@@ -61,16 +61,22 @@ class Companion:
 
 def _candidates(residual: np.ndarray, cx: float, cy: float, fwhm: float, noise: float, fit_radius: float
                 ) -> np.ndarray:
-    """Peaks (x, y, value) of the PSF-smoothed residual above :data:`MIN_SNR`, off the centre."""
+    """Peaks (x, y, value) of the PSF-smoothed residual above :data:`MIN_SNR`, off the centre (searched in a box
+    around the lens only: a large cutout is not smoothed whole)."""
     s = fwhm / 2.3548
-    smooth = gaussian_filter(np.nan_to_num(residual), s)
-    smooth_noise = noise / (2 * np.sqrt(np.pi) * s)  # white noise smoothed by a unit-area Gaussian of sigma s
+    reach = int(np.ceil(MAX_DISTANCE_OF_FIT * fit_radius + 4 * s)) + 1
     ny, nx = residual.shape
-    yy, xx = np.mgrid[0:ny, 0:nx]
+    xa, xb = max(0, int(cx) - reach), min(nx, int(cx) + reach + 2)
+    ya, yb = max(0, int(cy) - reach), min(ny, int(cy) + reach + 2)
+    box = residual[ya:yb, xa:xb]
+    smooth = gaussian_filter(np.nan_to_num(box), s)
+    smooth_noise = noise / (2 * np.sqrt(np.pi) * s)  # white noise smoothed by a unit-area Gaussian of sigma s
+    yy, xx = np.mgrid[ya:yb, xa:xb]
     d = np.hypot(xx - cx, yy - cy)
-    valid = (d >= MIN_DISTANCE_FWHM * fwhm) & (d <= MAX_DISTANCE_OF_FIT * fit_radius) & np.isfinite(residual)
-    return local_peaks(smooth, threshold=MIN_SNR * smooth_noise, radius_pix=max(1, int(fwhm)), max_peaks=1,
-                       valid=valid)
+    valid = (d >= MIN_DISTANCE_FWHM * fwhm) & (d <= MAX_DISTANCE_OF_FIT * fit_radius) & np.isfinite(box)
+    peaks = local_peaks(smooth, threshold=MIN_SNR * smooth_noise, radius_pix=max(1, int(fwhm)), max_peaks=1,
+                        valid=valid)
+    return peaks + np.array([xa, ya, 0.0]) if len(peaks) else peaks
 
 
 def fit_companion(residual: np.ndarray, cx: float, cy: float, psf_fwhm_pix: float, noise_sigma: float,
@@ -79,7 +85,7 @@ def fit_companion(residual: np.ndarray, cx: float, cy: float, psf_fwhm_pix: floa
     """The companion galaxy in a lens-light ``residual`` (NaN = masked), or None when no blob passes the tests
     of the module docstring (only the BIC's when ``judge`` is False). ``cx, cy`` is the lens centre; the PSF is the
     lens fit's Gaussian; ``at`` starts the fit at a known position instead of the residual's brightest blob."""
-    res = np.asarray(residual, float)
+    res = np.asarray(residual)
     if not (np.isfinite(psf_fwhm_pix) and noise_sigma > 0):
         return None
     if at is None:
@@ -94,7 +100,7 @@ def fit_companion(residual: np.ndarray, cx: float, cy: float, psf_fwhm_pix: floa
     ny, nx = res.shape
     xa, xb = max(0, int(x0) - half), min(nx, int(x0) + half + 2)
     ya, yb = max(0, int(y0) - half), min(ny, int(y0) + half + 2)
-    win = res[ya:yb, xa:xb]
+    win = np.asarray(res[ya:yb, xa:xb], float)
     wy, wx = np.mgrid[ya:yb, xa:xb]
     ok = np.isfinite(win) & (np.hypot(wx - x0, wy - y0) <= max(WINDOW_FWHM * psf_fwhm_pix, WINDOW_OF_DISTANCE * dist, 3.0))
     if ok.sum() < 4 * N_PARAMS:
