@@ -42,6 +42,8 @@ WINDOW_FWHM = 2.0
 WINDOW_OF_DISTANCE = 0.35
 #: Scale (noise sigma) where the soft-L1 loss turns linear: the ring's light in the window pulls the fit little.
 SOFT_SCALE = 3.0
+#: Pixels within this many PSF FWHM of a blob are left out of the ring light at its distance.
+BLOB_EXCLUDE_FWHM = 1.5
 #: Free parameters of the companion (flux, R_e, n, q, angle, x, y).
 N_PARAMS = 7
 
@@ -144,3 +146,35 @@ def fit_companion(residual: np.ndarray, cx: float, cy: float, psf_fwhm_pix: floa
     full = np.zeros(res.shape, np.float32)
     full[ya:yb, xa:xb] = model(q)
     return Companion(full, x, y, re, axis, dist, float(bic_gain))
+
+
+def companion_candidate(residual: np.ndarray, cx: float, cy: float, psf_fwhm_pix: float, noise_sigma: float,
+                        fit_radius_pix: float) -> tuple[float, float] | None:
+    """The position of the residual's brightest compact blob off the centre (see :func:`_candidates`), or None."""
+    if not (np.isfinite(psf_fwhm_pix) and noise_sigma > 0):
+        return None
+    peaks = _candidates(np.asarray(residual), cx, cy, psf_fwhm_pix, noise_sigma, fit_radius_pix)
+    return (float(peaks[0][0]), float(peaks[0][1])) if len(peaks) else None
+
+
+def ring_light_at_blob(residual: np.ndarray, at: tuple[float, float], cx: float, cy: float, psf_fwhm_pix: float,
+                       reach_pix: float) -> tuple[float, float]:
+    """The azimuthal-mean ``residual`` at the blob's distance, the pixels within :data:`BLOB_EXCLUDE_FWHM` FWHM of
+    the blob left out, and its largest value from one FWHM past it out to ``reach_pix`` (means over the unmasked
+    pixels of 1-pixel annuli, smoothed over a FWHM): a knot of a ring or a piece of an arc leaves ring light at its
+    own distance, a companion inside the ring does not. Computed in a box around the lens only."""
+    ny, nx = residual.shape
+    r_out = int(np.ceil(reach_pix)) + 1
+    xa, xb = max(0, int(cx) - r_out), min(nx, int(cx) + r_out + 2)
+    ya, yb = max(0, int(cy) - r_out), min(ny, int(cy) + r_out + 2)
+    box = np.asarray(residual[ya:yb, xa:xb], float)
+    yy, xx = np.mgrid[ya:yb, xa:xb]
+    k = np.rint(np.hypot(xx - cx, yy - cy)).astype(int)
+    use = np.isfinite(box) & (k <= r_out) & (np.hypot(xx - at[0], yy - at[1]) > BLOB_EXCLUDE_FWHM * psf_fwhm_pix)
+    sums = np.bincount(k[use], weights=box[use], minlength=r_out + 1)
+    counts = np.bincount(k[use], minlength=r_out + 1).astype(float)
+    s = psf_fwhm_pix / 2.3548
+    prof = gaussian_filter(sums, s, mode="nearest") / np.maximum(gaussian_filter(counts, s, mode="nearest"), 1e-9)
+    dist = float(np.hypot(at[0] - cx, at[1] - cy))
+    outer = prof[int(np.ceil(dist + psf_fwhm_pix)):]
+    return float(np.interp(dist, np.arange(prof.size), prof)), float(outer.max()) if outer.size else -np.inf

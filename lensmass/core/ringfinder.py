@@ -70,7 +70,7 @@ from scipy.signal import find_peaks
 
 from lensmass.core.arcfit import fit_circle
 from lensmass.core.bulge_disc import bulge_and_disc
-from lensmass.core.companion_light import fit_companion
+from lensmass.core.companion_light import companion_candidate, fit_companion, ring_light_at_blob
 from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
 from lensmass.core.lenslight import fit_lens_light, robust_sigma
@@ -569,8 +569,16 @@ def _companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop):
     seeing FWHM past both the companion and the first answer, and the azimuthal-mean residual at the companion's
     distance is under :data:`COMPANION_RING_SHARE` of that on the ring (a compact blob on the ring may be a knot of
     it, and a piece of an arc leaves the rest of the arc at its distance)."""
+    blob = companion_candidate(light.residual, light.center_x, light.center_y, light.psf_fwhm_pix,
+                               light.noise_sigma, light.fit_radius_pix)
+    if blob is None:
+        return img, light, first
+    at_blob, beyond = ring_light_at_blob(light.residual, blob, light.center_x, light.center_y, light.psf_fwhm_pix,
+                                         min(rmax, light.fit_radius_pix))
+    if not at_blob < COMPANION_RING_SHARE * beyond:  # before the costly fits: a knot of the ring is left alone
+        return img, light, first
     comp = fit_companion(light.residual, light.center_x, light.center_y, light.psf_fwhm_pix, light.noise_sigma,
-                         light.fit_radius_pix, judge=False)
+                         light.fit_radius_pix, at=blob, judge=False)
     refit = light
     for _ in range(COMPANION_ROUNDS):  # the lens and the companion fitted together, by alternation
         if comp is None:
