@@ -43,7 +43,7 @@ WINDOW_OF_DISTANCE = 0.35
 #: Scale (noise sigma) where the soft-L1 loss turns linear: the ring's light in the window pulls the fit little.
 SOFT_SCALE = 3.0
 #: Pixels within this many PSF FWHM of a blob are left out of the ring light at its distance.
-BLOB_EXCLUDE_FWHM = 1.5
+BLOB_EXCLUDE_FWHM = 2.5
 #: Free parameters of the companion (flux, R_e, n, q, angle, x, y).
 N_PARAMS = 7
 
