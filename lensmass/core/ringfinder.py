@@ -70,6 +70,7 @@ from scipy.signal import find_peaks
 
 from lensmass.core.arcfit import fit_circle
 from lensmass.core.bulge_disc import bulge_and_disc
+from lensmass.core.companion_light import companion_candidate, fit_companion, ring_light_at_blob
 from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
 from lensmass.core.lenslight import fit_lens_light, robust_sigma
@@ -490,6 +491,9 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
     # run only on the answer returned.
     first = _search(light.residual, cx, cy, rmin, rmax, n_sectors, light, list(light.notes), None, should_stop,
                     elliptical=False)
+    if light.ok and follow_shape:
+        img, light, first = _companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop)
+        cx, cy = light.center_x, light.center_y
 
     def first_answer() -> RingResult:
         report(progress, 1.0)
@@ -550,6 +554,62 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
                                ring_search=_search)
     second.radius_err_pix = float(np.hypot(second.radius_err_pix, REFIT_SHIFT_SYSTEMATIC * shift))
     return second
+
+
+#: Rounds of refitting the lens with the companion subtracted and the companion on the lens's residual.
+COMPANION_ROUNDS = 1
+#: Largest azimuthal-mean residual at the companion's distance, as a share of that on the ring found past it.
+COMPANION_RING_SHARE = 0.5
+
+
+def _companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop):
+    """``img``, ``light`` and ``first``, or, when a companion galaxy overlaps the lens
+    (:func:`~lensmass.core.companion_light.fit_companion`), the image less the companion's model, the lens light
+    refitted on it and the search of its residual. The companion is kept only when that search's ring lies a
+    seeing FWHM past both the companion and the first answer, and the azimuthal-mean residual at the companion's
+    distance is under :data:`COMPANION_RING_SHARE` of that on the ring (a compact blob on the ring may be a knot of
+    it, and a piece of an arc leaves the rest of the arc at its distance)."""
+    blob = companion_candidate(light.residual, light.center_x, light.center_y, light.psf_fwhm_pix,
+                               light.noise_sigma, light.fit_radius_pix)
+    if blob is None:
+        return img, light, first
+    at_blob, beyond = ring_light_at_blob(light.residual, blob, light.center_x, light.center_y, light.psf_fwhm_pix,
+                                         min(rmax, light.fit_radius_pix))
+    if not at_blob < COMPANION_RING_SHARE * beyond:  # before the costly fits: a knot of the ring is left alone
+        return img, light, first
+    comp = fit_companion(light.residual, light.center_x, light.center_y, light.psf_fwhm_pix, light.noise_sigma,
+                         light.fit_radius_pix, at=blob, judge=False)
+    refit = light
+    for _ in range(COMPANION_ROUNDS):  # the lens and the companion fitted together, by alternation
+        if comp is None:
+            return img, light, first
+        refit = fit_lens_light(img - comp.model, light.center_x, light.center_y, fit_radius_pix=light.fit_radius_pix,
+                               initial=refit, should_stop=should_stop)
+        if not refit.ok:
+            return img, light, first
+        comp = fit_companion(img - refit.model, refit.center_x, refit.center_y, refit.psf_fwhm_pix,
+                             refit.noise_sigma, refit.fit_radius_pix, at=(comp.x, comp.y))
+    if comp is None:
+        return img, light, first
+    less = img - comp.model
+    refit = fit_lens_light(less, light.center_x, light.center_y, fit_radius_pix=light.fit_radius_pix, initial=refit,
+                           should_stop=should_stop)
+    if not refit.ok:
+        return img, light, first
+    note = (f"A companion galaxy overlapping the lens (at {comp.x:.1f}, {comp.y:.1f}; R_e {comp.r_eff_pix:.1f} pixels) "
+            "was fitted as a second Sersic and subtracted.")
+    again = _search(refit.residual, refit.center_x, refit.center_y, rmin, rmax, n_sectors, refit,
+                    list(refit.notes) + [note], None, should_stop, elliptical=False)
+    if not again.found:
+        return img, light, first
+    # Kept only when the ring found moved out past the companion (the first search took the companion's light) and
+    # the companion's distance carries little ring light once it is subtracted (a knot of the ring does).
+    past = max(comp.distance_pix, first.radius_pix if first.found else 0.0) + refit.psf_fwhm_pix <= again.radius_pix
+    at_comp, at_ring = np.interp([comp.distance_pix, again.radius_pix], again.profile_radius_pix, again.profile)
+    if not (past and at_comp < COMPANION_RING_SHARE * at_ring):
+        return img, light, first
+    refit.notes.append(note)
+    return less, refit, again
 
 
 def _spread_over_ring(light, radius_pix: float) -> bool:
