@@ -61,6 +61,9 @@ this field's ridge now takes the harmonic and a shorter path through the later p
 Stop 33 (2026-12-04, a new machine, load 0.7-0.8), one run each: main before this stop (1c7c47a) 0.352 s CPU best
 (median 0.389), main with the round-neighbour mask and the cross search (b809fce) 0.369 s (median 0.375); bincount
 0.050-0.054 s, finder x7.0 of it on both: no change from the merges; this machine is slower than stop 32's.
+Stop 34 (2026-12-04, load 1.4-1.7, a CI run beside), two runs each, alternating: main before this stop (da46144)
+0.332 / 0.396 s CPU best (median 0.343 / 0.421), main with hot lines, the arc intervals and the companion pass
+(8680d80) 0.351 / 0.396 s (median 0.354 / 0.396); bincount 0.050-0.068 s: no change beyond the machine's noise.
 Earlier (h14f): 0.45-0.49 s against 0.90-1.03 s at load 1.5-2.4 (the Levenberg-Marquardt solver, the
 Jacobian reusing the model's powers, the refit starting from the first fit, MINPACK ridge fits first).
 """
