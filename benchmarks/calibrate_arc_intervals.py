@@ -12,8 +12,8 @@ ring parts (theta_E at the radius, inside its upper side) with these arcs; the f
 
 Measured 2026-12-04 (h21c, main da46144). Tuning records, seeds 645000-645489 (stress arcs, 140 lenses), 645000-645089
 (ours arcs, 90), 646000-646139 (stress ring kinds, quads, folds, 100), 646000-646044 (ours rings, 45): 78 unpaired
-arc-lens answers (56 stress, 22 ours), 15.87% quantile 0.577 -> 0.58 (was the table's 0.67). Coverage: see
-/work/notes/s34/h21c/report.md.
+arc-lens answers (56 stress, 22 ours), 15.87% quantile 0.577 -> 0.58 (was the table's 0.67). Coverage: the
+``check`` command on the same records.
 """
 
 from __future__ import annotations
@@ -27,9 +27,11 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
+from lensmass.core.ring_interval import SIGMA_PROBABILITIES  # noqa: E402
+
 ARC_KINDS = ("one arc", "two arcs", "arc", "arc+neighbour", "arc+star")
-#: Probability of the floor: a normal 1-sigma lower side (common practice).
-FLOOR_PROBABILITY = 0.15866
+#: Probability of the floor: the 1-sigma lower side the finder states (a normal's 15.87%, common practice).
+FLOOR_PROBABILITY = float(SIGMA_PROBABILITIES[1])
 
 
 def _rows(paths: list[str]) -> list[dict]:

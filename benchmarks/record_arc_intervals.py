@@ -31,14 +31,14 @@ def features(r) -> dict:
     from lensmass.core.ring_interval import interval_bounds
     from lensmass.core.ring_shapes import _mean_direction
 
-    light = r.lens_light
-    ok = light is not None and light.ok
     if not r.found:
         return dict(found=False)
+    light = r.lens_light
+    ok = light is not None and light.ok
     lone = bool(np.isfinite(r.lone_arc_radius_pix))
     msg = str(r.message)
     route = ("lone" if lone else "unpaired" if r.interval_shape_pix is not None
-             else "cross" if msg.startswith("Four images") else "counter" if "counter-image" in msg
+             else "cross" if r.error_from_images else "counter" if "counter-image" in msg
              else "pair" if msg.startswith("Arcs on opposite") else "paired" if r.paired
              else "ring" if r.coverage >= RING_COVERAGE else "single")
     return dict(found=True, route=route, radius=float(r.radius_pix), err=float(r.radius_err_pix),
@@ -52,25 +52,16 @@ def features(r) -> dict:
 
 
 def run_stress(first: int, n: int, out: str, kinds: tuple[str, ...] = ("two arcs", "one arc")) -> None:
-    from stress_fields import LENS_KINDS, make_stress_field, write_fits
-
-    from lensmass.core.einstein import find_ring_on_image
-    from lensmass.core.errors import LensInputError
-    from lensmass.io.images import load_image
+    from bench_ring_stress import run_fits  # the same FITS round trip as the stress bench (int16 for a third, rotated)
+    from stress_fields import LENS_KINDS, make_stress_field
 
     arc_idx = [LENS_KINDS.index(k) for k in kinds]
     jobs = [(first + i, LENS_KINDS[i % 7]) for i in range(7 * n) if i % 7 in arc_idx][:n]
     with open(out, "w") as fh, tempfile.TemporaryDirectory() as tmp:
         for seed, kind in jobs:
             f = make_stress_field(seed, kind)
-            rng = np.random.default_rng([f.truth["seed"], 99])
-            path = Path(tmp) / "f.fits"
-            write_fits(f, path, int16=bool(rng.uniform() < 1 / 3), rotate_deg=float(rng.uniform(0, 360)))
             rec = dict(gen="stress", seed=seed, kind=kind, truth=float(f.truth["radius_pix"]), fwhm=float(f.psf_fwhm_pix))
-            try:
-                rec.update(features(find_ring_on_image(load_image(path))))
-            except LensInputError:
-                rec.update(found=False)
+            rec.update(features(run_fits([f], Path(tmp))[0]))
             fh.write(json.dumps(rec) + "\n")
             fh.flush()
 
