@@ -3,13 +3,13 @@
 Each cutout is drawn from a seed: a lens galaxy (elliptical Sersic light, SIE mass with an
 external shear) and a background source ray-traced through it (half of them an irregular, clumpy
 source of our own, half a real galaxy cut from the Hubble Deep Field image that scikit-image
-ships, see :func:`hubble_stamps`), plus what a
-real cutout holds besides: neighbouring galaxies, stars with Moffat (1969) wings, a lens centre
-a few pixels off the cutout centre; or a non-lens (an elliptical, a spiral, a ring galaxy, a
-galaxy pair, a star beside a galaxy, pure noise). Pixel scales run from 0.05" to 0.26" and the
-seeing FWHM from 0.1" to 1.0" (never below 1.8 pixels: survey images are sampled). Three bands
-(g, r, i) are rendered with our own colours (lens light red, arcs blue), and an 8-bit stretched
-RGB picture can be made from them, as survey viewers show cutouts.
+ships, see :func:`hubble_stamps`), plus what a real cutout holds besides: neighbouring galaxies,
+now and then a companion galaxy overlapping the lens's light, stars with Moffat (1969) wings, a
+lens centre a few pixels off the cutout centre; or a non-lens (an elliptical, a spiral, a ring
+galaxy, a galaxy pair, a star beside a galaxy, pure noise). Pixel scales run from 0.05" to 0.26"
+and the seeing FWHM from 0.1" to 1.0" (never below 1.8 pixels: survey images are sampled). Three
+bands (g, r, i) are rendered with our own colours (lens light red, arcs blue), and an 8-bit
+stretched RGB picture can be made from them, as survey viewers show cutouts.
 
 Everything is in units of the pixel noise (sky-limited, sigma = 1 per pixel in every band), so
 the brightness draws say directly how visible a feature is. The truth (``radius_pix``, centre,
@@ -45,6 +45,8 @@ NONLENS_KINDS = ("elliptical", "spiral", "ring galaxy", "galaxy pair", "star + g
 COLOUR_LENS = (0.35, 0.7, 1.0)
 COLOUR_ARC = (1.0, 0.8, 0.6)
 COLOUR_DISC = (0.8, 0.85, 0.9)
+#: Share of lenses and of ellipticals with a companion galaxy overlapping their light (inside a lens's ring).
+COMPANION_SHARE = 0.15
 #: Source morphologies: our clumpy irregulars and real galaxies from the Hubble Deep Field picture.
 SOURCE_KINDS = ("clumpy", "hubble")
 #: Share of drawn sources that are real Hubble Deep Field galaxies.
@@ -204,7 +206,8 @@ def _spiral(xx, yy, x0, y0, re, q, ang, rng):
 
 
 def make_cutout(seed: int, kind: str | None = None, *, lens: bool | None = None, size: int | None = None,
-                theta_e_over_fwhm: tuple[float, float] = (1.5, 6.0), source: str | None = None) -> Cutout:
+                theta_e_over_fwhm: tuple[float, float] = (1.5, 6.0), source: str | None = None,
+                companion: bool | None = None) -> Cutout:
     """Draw one cutout from ``seed``.
 
     Parameters
@@ -223,6 +226,10 @@ def make_cutout(seed: int, kind: str | None = None, *, lens: bool | None = None,
         Deep Field galaxy with probability :data:`HUBBLE_SOURCE_SHARE`). The draw and the real
         galaxy's pick, angle and size come from their own stream of ``seed``, so the rest of the
         field is the same for either source.
+    companion : bool, optional
+        Put a companion galaxy on the lens's light (lenses and ellipticals only); default drawn, with
+        probability :data:`COMPANION_SHARE`, from its own stream of ``seed`` (the rest of the field is the
+        same either way).
 
     Examples
     --------
@@ -350,6 +357,8 @@ def make_cutout(seed: int, kind: str | None = None, *, lens: bool | None = None,
             add_other(img * rng.uniform(0.05, 0.4), _random_colour(rng))
             truth["extras"].append(("field galaxy", float(px_), float(py_)))
 
+    _add_overlapping_companion(seed, kind, is_lens, te_pix, re_pix, cx, cy, xx, yy, add_other, truth, companion)
+
     # Brightness (in units of the pixel noise after the PSF): lens peak 30-400, arcs 4-20 per pixel.
     kern = _moffat_kernel(fwhm_pix, beta)
     lens_peak = rng.uniform(30, 400)
@@ -378,6 +387,28 @@ def make_cutout(seed: int, kind: str | None = None, *, lens: bool | None = None,
         truth["extras"].append(("star", float(sx), float(sy)))
     bands += rng.normal(0.0, 1.0, bands.shape)
     return Cutout(bands[1].astype(np.float32), bands.astype(np.float32), scale, fwhm, truth)
+
+
+def _add_overlapping_companion(seed, kind, is_lens, te_pix, re_pix, cx, cy, xx, yy, add_other, truth,
+                               wanted: bool | None) -> None:
+    """For :data:`COMPANION_SHARE` of the lenses and of the ellipticals, a small red galaxy of the lens's group
+    sitting on the lens's light, inside the ring (0.35-0.9 theta_E; an elliptical's at 0.5-2.5 R_e), 3-25% of the
+    lens's flux (``wanted`` forces it on or off). Drawn from its own stream of ``seed``, so every other part of
+    the field is as without it."""
+    if kind not in ("ring", "arc", "ring+neighbour", "ring+star", "arc+neighbour", "arc+star", "elliptical"):
+        return
+    rng = np.random.default_rng([seed, 21])
+    drawn = bool(rng.uniform() < COMPANION_SHARE)
+    if not (drawn if wanted is None else wanted):
+        return
+    d = te_pix * rng.uniform(0.35, 0.9) if is_lens else re_pix * rng.uniform(0.5, 2.5)
+    t = rng.uniform(0, 2 * np.pi)
+    x0, y0 = cx + d * np.cos(t), cy + d * np.sin(t)
+    size = max((te_pix if is_lens else re_pix) * rng.uniform(0.1, 0.35), 0.8)
+    img = _sersic(xx, yy, rng.uniform(0.03, 0.25), size, rng.uniform(1.0, 4.0), rng.uniform(0.6, 1.0),
+                  rng.uniform(0, 180), x0, y0)
+    add_other(img, COLOUR_LENS)
+    truth["extras"].append(("companion", float(x0), float(y0)))
 
 
 def _random_colour(rng) -> tuple[float, float, float]:
