@@ -8,6 +8,7 @@ is the Sersic profile's own x_0, y_0.
 import io
 
 import numpy as np
+import pytest
 from astropy.modeling.models import Sersic2D
 from astropy.visualization import make_lupton_rgb
 from PIL import Image
@@ -46,3 +47,21 @@ def test_scattered_clipped_pixels_make_no_plateau():
     clipped = np.zeros((50, 50), bool)
     clipped[3:50:7, 4:50:6] = True
     assert not clipped_plateaus(clipped, near_top(np.where(clipped[..., None], 255, 30).astype(np.uint8))).any()
+
+
+def test_ring_at_a_jpeg_clipped_core_edge_is_widened():
+    # A ring reported at the edge of the clipped Sersic core of a JPEG make_lupton_rgb picture gets 30% of its radius
+    # in its error; one well outside it keeps its error (the core's radius from the same picture).
+    from types import SimpleNamespace
+
+    from lensmass.core.clipped_plateau import CORE_EDGE_SYSTEMATIC, lossy_core_radius, widen_near_lossy_core
+
+    rgb, x0, y0 = _jpeg_lupton(2, 80)
+    core = lossy_core_radius(rgb, x0, y0)
+    assert core > 5  # the clipped core (some 350 pixels with its JPEG holes) is found whole
+    near = SimpleNamespace(found=True, radius_pix=core, radius_err_pix=0.5, center_x=x0, center_y=y0, warnings=[])
+    far = SimpleNamespace(found=True, radius_pix=3 * core, radius_err_pix=0.5, center_x=x0, center_y=y0, warnings=[])
+    widen_near_lossy_core(near, rgb)
+    widen_near_lossy_core(far, rgb)
+    assert near.radius_err_pix == pytest.approx(np.hypot(0.5, CORE_EDGE_SYSTEMATIC * core)) and near.warnings
+    assert far.radius_err_pix == 0.5 and not far.warnings
