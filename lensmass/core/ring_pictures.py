@@ -57,8 +57,6 @@ COLOUR_MASK_STRENGTH = 5.0
 COLOUR_MASK_STRENGTHS = (COLOUR_MASK_STRENGTH, 9.0)
 #: Share of the top value by which a clipped plateau of :func:`colour_mask_image` rises per pixel inward.
 PLATEAU_RISE = 0.02
-#: ... a plateau being a connected clipped region of at least this many pixels.
-PLATEAU_MIN_PIX = 9
 #: Radius (pixels) of the lens core whose pixels choose the picture's stretch before a ring is seen.
 COLOUR_CORE_PIX = 6.0
 #: Share of the spread of the radii at the neighbouring stretch strengths kept in the error. A radius that moves with
@@ -260,8 +258,9 @@ def colour_mask_image(rgb: np.ndarray, grey: np.ndarray, strength: float = COLOU
     the top value a pixel inward, so that the lens peaks at the plateau's middle (stress_pictures tuning seeds
     555011 and 555036: no lens found, then the centre within 1 pixel). Other pictures keep their clipped pixels
     at the top value (with the rise, test_colour_cutouts' square-root hard rings moved by up to 1.7 pixels)."""
-    from scipy.ndimage import distance_transform_edt, label
+    from scipy.ndimage import distance_transform_edt
 
+    from lensmass.core.clipped_plateau import clipped_plateaus, near_top
     from lensmass.core.colour_separation import colour_lost, linear_grey, saturated
 
     out = linear_grey(rgb, strength)
@@ -270,8 +269,7 @@ def colour_mask_image(rgb: np.ndarray, grey: np.ndarray, strength: float = COLOU
     if np.array_equal(colour_lost(rgb), saturated(rgb)):  # colour lost wherever clipped: as before
         out = np.where(clipped, top, out)
         return np.where(np.isfinite(np.asarray(grey, float)), out, np.nan)
-    labels, n = label(clipped)
-    plateau = clipped & (np.bincount(labels.ravel(), minlength=n + 1) >= PLATEAU_MIN_PIX)[labels]
+    plateau = clipped_plateaus(clipped, near_top(rgb))  # JPEG's holes closed (lensmass.core.clipped_plateau)
     # scattered clipped pixels (a strong stretch clips the sky's noise peaks) take the nearest unclipped pixel's value
     # (scipy's Euclidean distance transform); a clipped core rises gently to its middle, so its peak is its centre
     if (clipped & ~plateau).any():

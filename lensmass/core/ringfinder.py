@@ -93,6 +93,7 @@ from lensmass.core.ring_pictures import (COLOUR_CORE_PIX, COLOUR_MASK_GROW_PIX, 
                                          _outside_picture_core, _refuse_core_residual, _stretched_grey_search,
                                          _undo_grey_stretch, blue_excess, colour_mask_image, colour_masks,
                                          lossy_error_scale)
+from lensmass.core.clipped_plateau import widen_near_lossy_core
 from lensmass.core.ring_interval import RING_TAIL_SHARE, state_interval
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_sectors import (BIN_PIX, MASK_HALF_WIDTHS, _sector_grid, _sector_profiles, _smooth_profile,
@@ -329,6 +330,8 @@ def find_ring(
         out = _colour_search(np.asarray(colour), img, cx, cy, rmin, rmax, n_sectors, progress, should_stop,
                              _jpeg_quality(compressed), ring_search=_search, two_pass_search=_two_pass_search,
                              masks_of=_masks)
+        if _jpeg_quality(compressed) is not None:  # a ring at a clipped core's JPEG-fringed edge (clipped_plateau)
+            widen_near_lossy_core(out, np.asarray(colour))
     elif picture is not None:
         out = _stretched_grey_search(picture, np.isnan(img), cx, cy, rmin, rmax, n_sectors, progress, should_stop,
                                      two_pass_search=_two_pass_search)
