@@ -5,11 +5,15 @@ An isothermal lens has the potential psi = r F(phi); a source at the optical axi
 ridge elongated across the mass (Kormann, Schneider & Bartelmann 1994, A&A 284 285). A compact source near the axis
 of an SIE gives four images close to the ends of that ridge's axes: an inner pair along the mass's major axis and an
 outer pair across it, at radii whose ratio is the ridge's axis ratio (0.75 for a mass axis ratio 0.4). The ridge's
-sqrt(a b) falls short of theta_E by :func:`~lensmass.core.elliptical_annuli.sie_ring_factor`; an external shear
-elongates a ring too with sqrt(a b) about theta_E (see there), so the factor is applied in the share
+sqrt(a b) falls short of theta_E by :func:`~lensmass.core.elliptical_annuli.sie_ring_factor`, applied in the share
 :func:`~lensmass.core.elliptical_annuli.mass_alignment_weight` gives the mass (inner pair along the light's major
-axis), and half of it joins the error. Within a pair the images lie at theta_E -+ the source offset for an isothermal
-sphere (common practice), so each pair's mean radius is taken.
+axis): the SIE end. An external shear elongates the cross too: an SIS with shear gamma images a source on the axis at
+theta_E / (1 -+ gamma), so theta_E is the pairs' harmonic mean (:func:`shear_limit_theta_e`): the shear end, below the
+SIE end. Four images of a source near the axis do not tell the mass's ellipticity from the shear (both add the same
+quadrupole to the potential to lowest order: common practice; the project's SIE + shear fitter,
+:mod:`lensmass.core.lens_model_fit`, returns either end when given the other's prior), so theta_E is the middle of the
+two ends and half their span joins the error. Within a pair the images lie at theta_E -+ the source offset for an
+isothermal sphere (common practice), so each pair's mean radius is taken.
 """
 
 from __future__ import annotations
@@ -48,7 +52,8 @@ OPPOSITE_TOLERANCE_DEG = 40.0
 MIN_PAIR_RATIO = 0.5
 #: Within a pair, the nearer image's radius is at least this share of the farther one's (a source near the axis).
 MIN_WITHIN_PAIR_RATIO = 0.75
-#: Share of the SIE factor's shortfall kept in the error (as the ring finder does for elongated rings).
+#: Share of the SIE factor's shortfall kept in the error at least (as the ring finder does for elongated rings), when
+#: half the span between the SIE and shear ends is smaller.
 SIE_FACTOR_ERROR_SHARE = 0.5
 #: Share of half the radius difference within each pair kept as a systematic error (ellipticity, shear).
 PAIR_SYSTEMATIC = 0.3
@@ -95,6 +100,18 @@ def image_peaks(residual: np.ndarray, cx: float, cy: float, r_lo: float, r_hi: f
     return peaks[:, 0] + x0, peaks[:, 1] + y0, peaks[:, 2] / noise
 
 
+def shear_limit_theta_e(inner_pix: float, outer_pix: float) -> float:
+    """theta_E of a cross elongated by an external shear alone: an SIS with shear gamma images a source on the axis
+    at theta_E / (1 - gamma) and theta_E / (1 + gamma) (the lens equation beta = theta - alpha(theta), SIS deflection
+    theta_E along the radius plus the shear's gamma theta; Narayan & Bartelmann 1996, eq. for the SIS; from memory),
+    so theta_E is the harmonic mean of the pairs' radii.
+
+    >>> round(shear_limit_theta_e(10.0 / 1.1, 10.0 / 0.9), 6)
+    10.0
+    """
+    return float(2.0 * inner_pix * outer_pix / (inner_pix + outer_pix))
+
+
 def _cross_of(ang: np.ndarray, rad: np.ndarray) -> tuple[float, float, int] | None:
     """For four images (angles, radii), the pairs' mean radii (inner, outer) and the index of an outer image when they
     form a cross (neighbours :data:`GAP_RANGE_DEG` apart, opposite images near 180 degrees apart, radii within
@@ -120,8 +137,9 @@ def _cross_of(ang: np.ndarray, rad: np.ndarray) -> tuple[float, float, int] | No
 def find_image_cross(residual: np.ndarray, cx: float, cy: float, r_lo: float, r_hi: float, fwhm_pix: float,
                      light_angle_deg: float = float("nan"), light_axis_ratio: float = 1.0) -> ImageCross | None:
     """The four compact images forming a cross around (cx, cy) between radii ``r_lo`` and ``r_hi`` (the one whose
-    faintest image is brightest), with theta_E = sqrt(inner x outer) times the SIE factor of their ratio in the share
-    the light's direction gives the mass (see the module), or None.
+    faintest image is brightest), with theta_E the middle of the SIE end (sqrt(inner x outer) times the SIE factor of
+    their ratio in the share the light's direction gives the mass) and the shear end (:func:`shear_limit_theta_e`),
+    half their span in the error (see the module), or None.
 
     Examples
     --------
@@ -158,9 +176,11 @@ def find_image_cross(residual: np.ndarray, cx: float, cy: float, r_lo: float, r_
     full = sie_ring_factor(inner / outer) - 1.0
     w = mass_alignment_weight(outer_deg, light_angle_deg, light_axis_ratio)
     root = float(np.sqrt(inner * outer))
-    theta = root * (1.0 + w * full)
+    sie_end, shear_end = root * (1.0 + w * full), shear_limit_theta_e(inner, outer)
+    theta = 0.5 * (sie_end + shear_end)
+    split = max(0.5 * abs(sie_end - shear_end), SIE_FACTOR_ERROR_SHARE * full * root)
     r = rad[k][np.argsort(ang[k])]
     within = 0.5 * max(abs(r[0] - r[2]), abs(r[1] - r[3]))
     position = fwhm_pix / 2.355 / float(np.sqrt(np.sum(sig[k] ** 2)))
-    err = float(np.sqrt(position ** 2 + (SIE_FACTOR_ERROR_SHARE * full * root) ** 2 + (PAIR_SYSTEMATIC * within) ** 2))
+    err = float(np.sqrt(position ** 2 + split ** 2 + (PAIR_SYSTEMATIC * within) ** 2))
     return ImageCross(px[k], py[k], rad[k], ang[k], sig[k], inner, outer, outer_deg, theta, err)

@@ -108,9 +108,12 @@ def _image_cross(best: RingResult, res, rmin: float, light) -> RingResult:
     best.message = (f"Four images in a cross around the lens, pairs at {cross.inner_pix:.2f} and {cross.outer_pix:.2f} "
                     f"pixels: theta_E = {cross.theta_e_pix:.2f} +- {cross.theta_e_err_pix:.2f} pixels.")
     best.warnings.append("Four compact images in a cross around the lens (a compact source near the axis of an "
-                         "elongated lens): theta_E is the geometric mean of the two pairs' radii, scaled for an SIE "
-                         "(Kormann, Schneider & Bartelmann 1994) as far as the light's direction says the mass "
-                         "elongated it; a lens-model fit of the four positions is better.")
+                         "elongated lens or of a lens in an external shear): theta_E is the middle between an SIE's "
+                         "value (Kormann, Schneider & Bartelmann 1994: the geometric mean of the two pairs' radii, "
+                         "scaled as far as the light's direction says the mass elongated it) and an isothermal sphere "
+                         "with external shear's (the pairs' harmonic mean), half their difference in the error: four "
+                         "images do not tell the mass's elongation from the shear's. A lens-model fit of the four "
+                         "positions with a stated shear prior narrows it.")
     return best
 
 
