@@ -568,14 +568,18 @@ def _companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop):
     refitted on it and the search of its residual. The companion is kept only when that search's ring lies a
     seeing FWHM past both the companion and the first answer, and the azimuthal-mean residual at the companion's
     distance is under :data:`COMPANION_RING_SHARE` of that on the ring (a compact blob on the ring may be a knot of
-    it, and a piece of an arc leaves the rest of the arc at its distance)."""
+    it, and a piece of an arc leaves the rest of the arc at its distance). The same fit is tried for a blob the first
+    search took for arcs (:func:`_answer_at_blob`: a neighbour's light left in the lens's segment, outside the ring),
+    kept when the ring then found lies a FWHM inside the blob and those arcs, seen in more directions, under the same
+    light share (h22a, stress tuning seeds 655197 and 655351: arcs at 1.66 and 1.64 theta_E, the neighbour's)."""
     blob = companion_candidate(light.residual, light.center_x, light.center_y, light.psf_fwhm_pix,
                                light.noise_sigma, light.fit_radius_pix)
     if blob is None:
         return img, light, first
     at_blob, beyond = ring_light_at_blob(light.residual, blob, light.center_x, light.center_y, light.psf_fwhm_pix,
                                          min(rmax, light.fit_radius_pix))
-    if not at_blob < COMPANION_RING_SHARE * beyond:  # before the costly fits: a knot of the ring is left alone
+    blob_taken = _answer_at_blob(first, blob, light)
+    if not (at_blob < COMPANION_RING_SHARE * beyond or blob_taken):  # before the costly fits: a ring's knot is left
         return img, light, first
     comp = fit_companion(light.residual, light.center_x, light.center_y, light.psf_fwhm_pix, light.noise_sigma,
                          light.fit_radius_pix, at=blob, judge=False)
@@ -605,11 +609,29 @@ def _companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop):
     # Kept only when the ring found moved out past the companion (the first search took the companion's light) and
     # the companion's distance carries little ring light once it is subtracted (a knot of the ring does).
     past = max(comp.distance_pix, first.radius_pix if first.found else 0.0) + refit.psf_fwhm_pix <= again.radius_pix
+    # Or the first search took the blob itself for arcs (a neighbour's own light left in the lens's segment, outside
+    # the ring): the ring found a FWHM inside both the blob and those arcs, in more directions, is the lens's. (Inside
+    # the blob only, h22a's stress tuning seed 655212 lost its ring at 1.02 theta_E: the blob was its own knot.)
+    inside = (blob_taken and again.radius_pix + refit.psf_fwhm_pix <= min(comp.distance_pix, first.radius_pix)
+              and again.coverage > first.coverage)
     at_comp, at_ring = np.interp([comp.distance_pix, again.radius_pix], again.profile_radius_pix, again.profile)
-    if not (past and at_comp < COMPANION_RING_SHARE * at_ring):
+    if not ((past or inside) and at_comp < COMPANION_RING_SHARE * at_ring):
         return img, light, first
+    if not past:
+        outside = (f"A galaxy just outside the ring (at {comp.x:.1f}, {comp.y:.1f}; R_e {comp.r_eff_pix:.1f} pixels), "
+                   "its light left in the lens's and first taken for arcs, was fitted as a Sersic and subtracted.")
+        again.warnings = [outside if w == note else w for w in again.warnings]
+        note = outside
     refit.notes.append(note)
     return less, refit, again
+
+
+def _answer_at_blob(first: RingResult, blob: tuple[float, float], light) -> bool:
+    """The first search's answer is arcs (seen in under RING_COVERAGE of the directions) at the residual blob's
+    distance from the lens, within a seeing FWHM: it took the blob's light for a lensed image."""
+    dist = float(np.hypot(blob[0] - light.center_x, blob[1] - light.center_y))
+    return bool(first.found and first.coverage < RING_COVERAGE
+                and abs(first.radius_pix - dist) <= light.psf_fwhm_pix)
 
 
 def _spread_over_ring(light, radius_pix: float) -> bool:
