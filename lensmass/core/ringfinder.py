@@ -560,6 +560,8 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
 COMPANION_ROUNDS = 1
 #: Largest azimuthal-mean residual at the companion's distance, as a share of that on the ring found past it.
 COMPANION_RING_SHARE = 0.5
+#: Smallest radius, in seeing FWHM, of a ring found inside a blob the first search took for arcs.
+INSIDE_MIN_FWHM = 2.0
 
 
 def _companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop):
@@ -570,8 +572,9 @@ def _companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop):
     distance is under :data:`COMPANION_RING_SHARE` of that on the ring (a compact blob on the ring may be a knot of
     it, and a piece of an arc leaves the rest of the arc at its distance). The same fit is tried for a blob the first
     search took for arcs (:func:`_answer_at_blob`: a neighbour's light left in the lens's segment, outside the ring),
-    kept when the ring then found lies a FWHM inside the blob and those arcs, seen in more directions, under the same
-    light share (h22a, stress tuning seeds 655197 and 655351: arcs at 1.66 and 1.64 theta_E, the neighbour's)."""
+    kept when the ring then found lies a FWHM inside the blob and those arcs, :data:`INSIDE_MIN_FWHM` FWHM out or
+    more, seen in more directions, under the same light share (h22a, stress tuning seeds 655197 and 655351: arcs
+    at 1.66 and 1.64 theta_E, the neighbour's)."""
     blob = companion_candidate(light.residual, light.center_x, light.center_y, light.psf_fwhm_pix,
                                light.noise_sigma, light.fit_radius_pix)
     if blob is None:
@@ -612,8 +615,10 @@ def _companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop):
     # Or the first search took the blob itself for arcs (a neighbour's own light left in the lens's segment, outside
     # the ring): the ring found a FWHM inside both the blob and those arcs, in more directions, is the lens's. (Inside
     # the blob only, h22a's stress tuning seed 655212 lost its ring at 1.02 theta_E: the blob was its own knot.)
+    # That ring must lie INSIDE_MIN_FWHM seeing widths out: nearer, the lens's own residual replaces a real arc
+    # taken away as a blob (h22a, check seed 657005, two arcs: 1.74 -> 0.46 theta_E through a ring at 1.2 FWHM).
     inside = (blob_taken and again.radius_pix + refit.psf_fwhm_pix <= min(comp.distance_pix, first.radius_pix)
-              and again.coverage > first.coverage)
+              and again.coverage > first.coverage and again.radius_pix >= INSIDE_MIN_FWHM * refit.psf_fwhm_pix)
     at_comp, at_ring = np.interp([comp.distance_pix, again.radius_pix], again.profile_radius_pix, again.profile)
     if not ((past or inside) and at_comp < COMPANION_RING_SHARE * at_ring):
         return img, light, first
