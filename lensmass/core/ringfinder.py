@@ -581,8 +581,9 @@ def _companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop):
         return img, light, first
     at_blob, beyond = ring_light_at_blob(light.residual, blob, light.center_x, light.center_y, light.psf_fwhm_pix,
                                          min(rmax, light.fit_radius_pix))
+    overlapping = at_blob < COMPANION_RING_SHARE * beyond  # before the costly fits: a knot of the ring is left alone
     blob_taken = _answer_at_blob(first, blob, light)
-    if not (at_blob < COMPANION_RING_SHARE * beyond or blob_taken):  # before the costly fits: a ring's knot is left
+    if not (overlapping or blob_taken):
         return img, light, first
     comp = fit_companion(light.residual, light.center_x, light.center_y, light.psf_fwhm_pix, light.noise_sigma,
                          light.fit_radius_pix, at=blob, judge=False)
@@ -611,7 +612,8 @@ def _companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop):
         return img, light, first
     # Kept only when the ring found moved out past the companion (the first search took the companion's light) and
     # the companion's distance carries little ring light once it is subtracted (a knot of the ring does).
-    past = max(comp.distance_pix, first.radius_pix if first.found else 0.0) + refit.psf_fwhm_pix <= again.radius_pix
+    past = overlapping and (max(comp.distance_pix, first.radius_pix if first.found else 0.0) + refit.psf_fwhm_pix
+                            <= again.radius_pix)
     # Or the first search took the blob itself for arcs (a neighbour's own light left in the lens's segment, outside
     # the ring): the ring found a FWHM inside both the blob and those arcs, in more directions, is the lens's. (Inside
     # the blob only, h22a's stress tuning seed 655212 lost its ring at 1.02 theta_E: the blob was its own knot.)
