@@ -573,8 +573,9 @@ def _companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop):
     it, and a piece of an arc leaves the rest of the arc at its distance). The same fit is tried for a blob the first
     search took for arcs (:func:`_answer_at_blob`: a neighbour's light left in the lens's segment, outside the ring),
     kept when the ring then found lies a FWHM inside the blob and those arcs, :data:`INSIDE_MIN_FWHM` FWHM out or
-    more, seen in more directions, under the same light share (h22a, stress tuning seeds 655197 and 655351: arcs
-    at 1.66 and 1.64 theta_E, the neighbour's)."""
+    more, seen in more directions, under the same light share, and not its counter-image (:func:`_counter_image_of`)
+    (h22a, stress tuning seeds 655247 and 655386: arcs at 1.67 and 1.82 theta_E, a star's wing and a neighbour's,
+    now rings at 0.97 and 1.04)."""
     blob = companion_candidate(light.residual, light.center_x, light.center_y, light.psf_fwhm_pix,
                                light.noise_sigma, light.fit_radius_pix)
     if blob is None:
@@ -644,8 +645,8 @@ def _answer_at_blob(first: RingResult, blob: tuple[float, float], light) -> bool
 
 def _counter_image_of(inner: RingResult, x: float, y: float) -> bool:
     """``inner`` is one compact image (seen in under CONFIDENT_COVERAGE of the directions; the test's faint ring,
-    partly seen, is in 58%) whose ridge points lie, on the mean, on the
-    far side of the lens from (x, y): the counter-image of a lensed image there (a source off the axis gives an
+    partly seen, is in 58%) whose ridge points lie, on the mean, on the far side of the lens from (x, y): the
+    counter-image of a lensed image there (a source off the axis gives an
     outer image and an inner one across the lens, common practice), so the blob at (x, y) was an arc, not a galaxy.
     (h22a, our generator's arcs with a counter-image, sample 656000: 0.97 and 1.05 theta_E read as 0.46 and 0.37.)"""
     if inner.coverage >= CONFIDENT_COVERAGE or not len(inner.points_x):  # one compact image, not a partial ring
