@@ -36,8 +36,9 @@ def near_top(rgb: np.ndarray, levels: float = NEAR_TOP_LEVELS) -> np.ndarray:
     >>> near_top(np.array([[[250, 10, 0], [200, 238, 100]]], np.uint8)).tolist()
     [[True, False]]
     """
-    v = np.asarray(rgb, float)
-    top = 255.0 if v.dtype == np.uint8 or np.nanmax(v) > 1.0 else 1.0
+    raw = np.asarray(rgb)
+    top = 255.0 if raw.dtype == np.uint8 or np.nanmax(raw) > 1.0 else 1.0
+    v = raw.astype(float)
     return np.asarray(v.max(axis=-1) >= top * (1.0 - float(levels) / 255.0))
 
 
