@@ -64,6 +64,8 @@ Stop 33 (2026-12-04, a new machine, load 0.7-0.8), one run each: main before thi
 Stop 34 (2026-12-04, load 1.4-1.7, a CI run beside), two runs each, alternating: main before this stop (da46144)
 0.332 / 0.396 s CPU best (median 0.343 / 0.421), main with hot lines, the arc intervals and the companion pass
 (8680d80) 0.351 / 0.396 s (median 0.354 / 0.396); bincount 0.050-0.068 s: no change beyond the machine's noise.
+Stop 35 (2026-12-04, load 0.3, one run): main with the neighbour-as-arcs fit, the cross's shear end and the JPEG
+plateau (f480495) 0.352 s CPU best (median 0.367); bincount 0.056 s, finder x6.2 of it: as before.
 Earlier (h14f): 0.45-0.49 s against 0.90-1.03 s at load 1.5-2.4 (the Levenberg-Marquardt solver, the
 Jacobian reusing the model's powers, the refit starting from the first fit, MINPACK ridge fits first).
 """
