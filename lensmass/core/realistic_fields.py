@@ -395,7 +395,7 @@ def _add_overlapping_companion(seed, kind, is_lens, te_pix, re_pix, cx, cy, xx, 
     sitting on the lens's light, inside the ring (0.35-0.9 theta_E; an elliptical's at 0.5-2.5 R_e), 3-25% of the
     lens's flux (``wanted`` forces it on or off). Drawn from its own stream of ``seed``, so every other part of
     the field is as without it."""
-    if kind not in ("ring", "arc", "ring+neighbour", "ring+star", "arc+neighbour", "arc+star", "elliptical"):
+    if kind not in (*LENS_KINDS, "elliptical"):
         return
     rng = np.random.default_rng([seed, 21])
     drawn = bool(rng.uniform() < COMPANION_SHARE)
