@@ -69,7 +69,7 @@ def companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop, ring_s
     note = (f"A companion galaxy overlapping the lens (at {comp.x:.1f}, {comp.y:.1f}; R_e {comp.r_eff_pix:.1f} pixels) "
             "was fitted as a second Sersic and subtracted.")
     again = ring_search(refit.residual, refit.center_x, refit.center_y, rmin, rmax, n_sectors, refit,
-                    list(refit.notes) + [note], None, should_stop, elliptical=False)
+                        list(refit.notes) + [note], None, should_stop, elliptical=False)
     if not again.found:
         return img, light, first
     # Kept only when the ring found moved out past the companion (the first search took the companion's light) and

@@ -70,6 +70,7 @@ from scipy.signal import find_peaks
 
 from lensmass.core.arcfit import fit_circle
 from lensmass.core.bulge_disc import bulge_and_disc
+from lensmass.core.clipped_plateau import widen_near_lossy_core
 from lensmass.core.companion_pass import companion_pass
 from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
@@ -93,7 +94,6 @@ from lensmass.core.ring_pictures import (COLOUR_CORE_PIX, COLOUR_MASK_GROW_PIX, 
                                          _outside_picture_core, _refuse_core_residual, _stretched_grey_search,
                                          _undo_grey_stretch, blue_excess, colour_mask_image, colour_masks,
                                          lossy_error_scale)
-from lensmass.core.clipped_plateau import widen_near_lossy_core
 from lensmass.core.ring_interval import RING_TAIL_SHARE, state_interval
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_sectors import (BIN_PIX, MASK_HALF_WIDTHS, _sector_grid, _sector_profiles, _smooth_profile,
