@@ -88,22 +88,6 @@ RIDGE_SCATTER_SHARE = 0.3
 #: uncertain by a share of that width. Tuning (as above, rings and pairs, floor 0.01, with :data:`RIDGE_SCATTER_SHARE`):
 #: 0 / 0.1 give ours 73% / 74% and stress 62% / 67% inside 1 sigma.
 THICK_RING_SHARE = 0.1
-#: A ring's shares of those two terms are this fraction of a pair's when it is seen all round (in at least
-#: :data:`ALL_ROUND_COVERAGE` of the directions, not an arc pair): its ridge points come from all round the lens, so a
-#: side pulled by a residual or a neighbour's wing moves the mean radius by less of the scatter than it moves two
-#: arcs' or a partial ring's (a single arc seen in 62% of the directions keeps the full shares:
-#: tests/core/test_unpaired_arc.py). h23d, the finder's ring answers re-stated from their recorded terms
-#: (/work/notes/s36/h23d/model.py), truth inside 1 / 2 sigma, main -> this factor: stress tuning seeds 695000-695419
-#: (196 rings) 76.5% / 90.8% -> 67.9% / 90.8%, ring kinds 696000-696699 (202) 80.2% / 94.1% -> 72.8% / 93.1%; our
-#: generator 699000-699299 (130) 70.8% / 96.9% -> 62.3% / 96.2%. The 2-sigma side is held by the tail term
-#: (ring_interval.RING_TAIL_SHARE). Factor 0.6: 69.9%, 75.2%, 63.1% inside 1 sigma. A ring flatter than
-#: :data:`ROUND_RING_AXIS_RATIO` keeps the full shares too: an SIE's ridge falls short of theta_E by up to 5% (Kormann,
-#: Schneider & Bartelmann 1994; ring_shapes._sie_ring_correction carries only part of it) and its ridge is no ellipse
-#: (tests/core/test_elliptical_rings.py's SIE ring of mass axis ratio 0.4, ridge 0.75, fell out of 1 sigma without this);
-#: tuning seeds with both gates: 695000 67.9%, 696000 73.8%, ours 699000 62.3% inside 1 sigma.
-RING_SEEN_FACTOR = 0.5
-ALL_ROUND_COVERAGE = 0.75
-ROUND_RING_AXIS_RATIO = 0.8
 #: Noise this correlated (:func:`lensmass.core.sky_level.noise_correlation`; white noise gives 1.0-1.1, noise
 #: smoothed by a 2-3 pixel kernel as resampling does 2-3) has the ring's significance divided by it, and the
 #: ring is never confident: the shape limits above were set on white noise, and on a resampled image they do
@@ -223,13 +207,8 @@ def _calibrate(out: RingResult) -> RingResult:
 
 def _seen_terms(out: RingResult, psf: float) -> float:
     """The error terms of a ring or an arc pair that depend on what the finder sees (pixels, in quadrature):
-    :func:`seen_error` of its ridge scatter, ridge width and the seeing ``psf``, a ring's at
-    :data:`RING_SEEN_FACTOR` of a pair's shares for a round ring seen all round (:data:`ALL_ROUND_COVERAGE`,
-    :data:`ROUND_RING_AXIS_RATIO`)."""
-    round_ring = not np.isfinite(out.axis_ratio) or out.axis_ratio >= ROUND_RING_AXIS_RATIO
-    f = RING_SEEN_FACTOR if not out.paired and out.coverage >= ALL_ROUND_COVERAGE and round_ring else 1.0
-    return seen_error(out.fit_rms_pix, out.ring_width_pix, psf, scatter_share=f * RIDGE_SCATTER_SHARE,
-                      thick_share=f * THICK_RING_SHARE)
+    :func:`seen_error` of its ridge scatter, ridge width and the seeing ``psf``."""
+    return seen_error(out.fit_rms_pix, out.ring_width_pix, psf)
 
 
 def seen_error(fit_rms_pix: float, ring_width_pix: float, psf_fwhm_pix: float, *,
