@@ -77,7 +77,10 @@ UNPAIRED_FLOOR_CALIBRATION = "h21c: 15.87% quantile of unpaired arc-lens answers
 #: practice; Narayan & Bartelmann 1996, eq. 29 and the SIS magnification), so the counter-image is lost (a tenth of
 #: the arc's brightness or less) when b > 0.82, where theta_E / r_arc = 1 / (1 + b) lies between 1/2 and 0.55: the arcs
 #: seen alone crowd just above 1/2, under the table's 15.87% quantile (0.594). h23d, stress tuning seeds
-#: 695000-695419: 7 of the 16 lone answers outside 1 sigma had theta_E / r_arc 0.52-0.58.
+#: 695000-695419: 7 of the 16 lone answers outside 1 sigma had theta_E / r_arc 0.52-0.58. Lone answers inside 1 sigma,
+#: table -> this bound: stress tuning 695000-695419 + 696000-696699 52.8% -> 75.0% (36), check 697000-697419 +
+#: 698000-698699 60.6% -> 78.8% (33); our generator 699000-699299 and 699400-699699 unchanged (76.5%, 85.3% of 34);
+#: 2 sigma unchanged (/work/notes/s36/h23d/report.md).
 LONE_1SIGMA_LOW_RATIO = 0.5
 
 
