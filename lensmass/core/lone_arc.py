@@ -71,6 +71,17 @@ MEASURES = tuple(LONE_ARC_LOG_RATIO_QUANTILES)
 #: seeds 645000-645489 and 646000-646139: 78 unpaired arcs, 56 stress and 22 ours, 0.577).
 UNPAIRED_1SIGMA_LOW_RATIO = 0.58
 UNPAIRED_FLOOR_CALIBRATION = "h21c: 15.87% quantile of unpaired arc-lens answers, seeds 645000-645489, 646000-646139"
+#: The ``"ridge"`` interval's 1-sigma lower side reaches down to at least this share of the arc's radius
+#: (:func:`lone_sigma_ratios`): the isothermal bound. For an isothermal sphere the bright image lies at theta_E + beta
+#: and the counter-image at theta_E - beta, |mu-| / mu+ = (1 - b) / (1 + b) for b = beta / theta_E < 1 (common
+#: practice; Narayan & Bartelmann 1996, eq. 29 and the SIS magnification), so the counter-image is lost (a tenth of
+#: the arc's brightness or less) when b > 0.82, where theta_E / r_arc = 1 / (1 + b) lies between 1/2 and 0.55: the arcs
+#: seen alone crowd just above 1/2, under the table's 15.87% quantile (0.594). h23d, stress tuning seeds
+#: 695000-695419: 7 of the 16 lone answers outside 1 sigma had theta_E / r_arc 0.52-0.58. Lone answers inside 1 sigma,
+#: table -> this bound: stress tuning 695000-695419 + 696000-696699 52.8% -> 75.0% (36), check 697000-697419 +
+#: 698000-698699 60.6% -> 78.8% (33); our generator 699000-699299 and 699400-699699 unchanged (76.5%, 85.3% of 34);
+#: 2 sigma unchanged (/work/notes/s36/h23d/report.md).
+LONE_1SIGMA_LOW_RATIO = 0.5
 
 
 def _table(measure: str) -> np.ndarray:
@@ -110,6 +121,25 @@ def unpaired_sigma_ratios() -> np.ndarray:
     return q
 
 
+def lone_sigma_ratios() -> np.ndarray:
+    """theta_E / r_arc of a lone arc at the -2, -1, +1, +2 sigma probabilities
+    (:data:`lensmass.core.ring_interval.SIGMA_PROBABILITIES`): the ``"ridge"`` table's quantiles, the 1-sigma lower
+    side no higher than the isothermal bound :data:`LONE_1SIGMA_LOW_RATIO` and the 2-sigma one no higher than it.
+
+    Examples
+    --------
+    >>> lo2, lo1, hi1, hi2 = lone_sigma_ratios()
+    >>> bool(lo2 <= lo1 == 0.5 < 1.0 < hi1 < hi2)
+    True
+    """
+    from lensmass.core.ring_interval import SIGMA_PROBABILITIES
+
+    q = lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, "ridge")
+    q[1] = min(q[1], LONE_1SIGMA_LOW_RATIO)
+    q[0] = min(q[0], q[1])
+    return q
+
+
 def lone_arc_theta_e(r_arc: float, measure: str = "ridge") -> tuple[float, float]:
     """theta_E of a lone arc of radius ``r_arc`` (any unit) and its 1-sigma error, from the table of ``measure``:
     the median of theta_E / r_arc times r_arc, and half the central 68% range of the ratio times r_arc.
@@ -142,6 +172,7 @@ def lone_arc_theta_e_draws(x, y, center_x: float, center_y: float, n: int = 4000
     return r_arc * lone_arc_ratio_quantiles(u, measure)
 
 
-__all__ = ["LONE_ARC_LOG_RATIO_QUANTILES", "LONE_ARC_PROBABILITIES", "MEASURES", "UNPAIRED_1SIGMA_LOW_RATIO",
+__all__ = ["LONE_1SIGMA_LOW_RATIO", "LONE_ARC_LOG_RATIO_QUANTILES", "LONE_ARC_PROBABILITIES", "MEASURES",
+           "UNPAIRED_1SIGMA_LOW_RATIO",
            "UNPAIRED_CALIBRATION", "UNPAIRED_FLOOR_CALIBRATION", "lone_arc_ratio_quantiles", "lone_arc_theta_e",
-           "lone_arc_theta_e_draws", "unpaired_sigma_ratios"]
+           "lone_arc_theta_e_draws", "lone_sigma_ratios", "unpaired_sigma_ratios"]

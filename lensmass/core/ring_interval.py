@@ -1,7 +1,8 @@
 """The ring finder's stated interval: 1- and 2-sigma bounds of theta_E, asymmetric where its calibrated error is.
 
 A lone arc's theta_E comes from the calibrated spread of theta_E / r_arc (:mod:`lensmass.core.lone_arc`), which is
-skewed (the "ridge" table: median 0.733, 16-84% 0.59-1.47), and an unpaired single arc keeps its radius with that
+skewed (the "ridge" table: median 0.733, 16-84% 0.59-1.47, the 1-sigma lower side taken down to the isothermal
+bound 0.5: :func:`lensmass.core.lone_arc.lone_sigma_ratios`), and an unpaired single arc keeps its radius with that
 module's "unpaired" spread around it (0.58-1.07 of it for 1 sigma, the table's lower side floored: :func:`lensmass.core.ring_shapes._unpaired_arc`),
 so a symmetric +- sigma would be too wide on one side and too narrow on the other. The finder keeps that shape
 (:func:`hold_shape`) and states, at the end, bounds at the probabilities of a normal distribution's 1 and 2 sigma

@@ -12,9 +12,9 @@ from lensmass.core.counter_image import find_counter_image
 from lensmass.core.elliptical_annuli import (ROUND_LIGHT, SIE_RIDGE_AXIS_RATIOS, mass_alignment_weight, ring_shape,
                                              sie_ring_axis_ratio, sie_ring_factor)
 from lensmass.core.image_cross import find_image_cross
-from lensmass.core.lone_arc import lone_arc_ratio_quantiles, lone_arc_theta_e, unpaired_sigma_ratios
+from lensmass.core.lone_arc import lone_arc_theta_e, lone_sigma_ratios, unpaired_sigma_ratios
 from lensmass.core.ring_confidence import CONFIDENT_SCORE, RING_COVERAGE
-from lensmass.core.ring_interval import SIGMA_PROBABILITIES, hold_shape, interval_text
+from lensmass.core.ring_interval import hold_shape, interval_text
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_sectors import BIN_PIX, unmasked_sector_share
 
@@ -147,8 +147,9 @@ def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
     best.lone_arc_radius_pix = float(arc)
     best.radius_pix = theta_e
     best.radius_err_pix = float(np.hypot(measured, spread))
-    # The spread is skewed (theta_E / r_arc 0.59-1.47 for 1 sigma about 0.733): the interval keeps its shape.
-    q = arc * lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, "ridge")
+    # The spread is skewed (theta_E / r_arc 0.5-1.47 for 1 sigma about 0.733, its lower side at the isothermal
+    # bound: lone_arc.LONE_1SIGMA_LOW_RATIO): the interval keeps its shape.
+    q = arc * lone_sigma_ratios()
     hold_shape(best, [theta_e + np.sign(b - theta_e) * np.hypot(b - theta_e, k * measured)
                       for b, k in zip(q, (2, 1, 1, 2))])
     shown = interval_text(theta_e, q, "pixels")
