@@ -11,7 +11,7 @@ Coverage (``--coverage N``, default 100 seeded realisations of two NFW halos):
   * the budget's NFW lens mass in 250 kpc around each measured peak against the true halos' mass
     in the same aperture.
 
-Run: /work/venv/bin/python benchmarks/bench_cluster.py [--speed-only | --coverage-only] [--coverage N]
+Run: python benchmarks/bench_cluster.py [--speed-only | --coverage-only] [--coverage N]
 """
 
 from __future__ import annotations

@@ -6,7 +6,7 @@ meets the target):
 
 1. window up and showing a demo field, from the command: ``lensmass gui FILE`` launched in a fresh
    Python process until the canvas has painted the image -- target 1.5 s (idle machine);
-   with ``--baseline DIR`` the same for another checkout (e.g. /work/main), runs interleaved (A/B);
+   with ``--baseline DIR`` the same for another checkout (e.g. a clone of main), runs interleaved (A/B);
 2. first paint of an 8192 x 8192 float32 FITS in a fresh window process (read, limits, levels,
    colours, paint) -- target 0.5 s; the process's peak memory growth over that open, as a multiple of
    the image's float32 bytes -- target 2x;
@@ -14,7 +14,7 @@ meets the target):
 4. a stretch or colour-map change on that image (colour table + look-up + paint) -- target 0.1 s;
 5. adding a point to a 12-point arc and refitting, overlay repainted -- target 0.03 s.
 
-Runs offscreen. Run: python benchmarks/bench_gui.py [--baseline /work/main] [--skip-8192]
+Runs offscreen. Run: python benchmarks/bench_gui.py [--baseline DIR] [--skip-8192]
 """
 
 from __future__ import annotations

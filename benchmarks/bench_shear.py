@@ -12,7 +12,7 @@ the steadier figure. ``--threads 1`` gives the one-thread figures. The timed run
 numba's compilation of the engine is not in them; the first run in a fresh process (imports, the compiled
 engine loaded from numba's disk cache) and with an empty cache (compiling it, once per installation) are
 printed apart.
-Run: /work/venv/bin/python benchmarks/bench_shear.py [N_GALAXIES] [--repeat 7] [--threads N] [--no-first]
+Run: python benchmarks/bench_shear.py [N_GALAXIES] [--repeat 7] [--threads N] [--no-first]
 """
 
 from __future__ import annotations

@@ -16,7 +16,7 @@
   --speed        10^4 lenses (+ randoms) over 10^7 sources streamed from a partitioned Parquet
                  folder in /tmp: time (wall and CPU), pairs per second, peak memory.
 CPU time is printed beside wall time (the machine is shared).
-Run: /work/venv/bin/python benchmarks/bench_stack.py --coverage 100 --seeds 520000
+Run: python benchmarks/bench_stack.py --coverage 100 --seeds 520000
 """
 
 from __future__ import annotations

@@ -14,7 +14,7 @@ process; so CPU time can exceed wall time. The target is rows per second of the 
 figure (the rows per second one core would give if the work were serial) is printed beside it, and
 ``--threads 1`` runs the engine on one thread. Check the load average printed: other work on the
 machine lengthens wall time, not CPU time.
-Run: /work/venv/bin/python benchmarks/bench_survey.py [N_ROWS] [--files 50] [--no-dask] [--repeat 3]
+Run: python benchmarks/bench_survey.py [N_ROWS] [--files 50] [--no-dask] [--repeat 3]
 """
 
 from __future__ import annotations

@@ -76,7 +76,7 @@ wrong: make_rgb per-band stretches, whose clipped core widens the half-maximum);
 clipped core whose colour was lost (as KEPT_CORE_SHARE caps it for a kept one) gave, tuning, found 71% -> 76%,
 within 5% 68 -> 70 of 300, but on the check seeds 54 -> 52 (off by >15%: 102 -> 110): not kept.
 
-Search floor and bluer discs (h15c, 2026-12-04; load 2-3). Per-picture probe (/work/notes/s29/h15c/probe.py, the same
+Search floor and bluer discs (h15c, 2026-12-04; load 2-3). Per-picture probe (a per-picture probe script, the same
 pictures), tuning seeds 630000-630139 (every kind) + 631000-631069 (hard rings), 210 pictures, main 4f45eac: found 76%,
 within 5% 43 (20%), hard rings 20% of 102, bias +5.4%, inside 1/2 sigma 68%/91%. Misses by cause: ZScaleInterval
 (refused) 34, colour route off by >15% with a bulge+disc lens 31 (too large 19), colour route off 5-15% 24, grey
@@ -110,7 +110,7 @@ Hard rings within 5% by class (tuning, 109 hard rings not ZScaleInterval): space
 bulge+disc lens 24% of 66 (others 44%), make_lupton_rgb 27% of 51, red arcs 18% of 22: not addressed here.
 
 Hard misses by cause and the elliptical pass (h17c, 2026-12-04; load 3-4). Probe of find_ring_on_image on the
-benchmark's pictures (/work/notes/s31/h17c/probe.py, probe2.py), hard rings tuning seeds 670000-670119, main 15c2233:
+benchmark's pictures (probe scripts outside the repository), hard rings tuning seeds 670000-670119, main 15c2233:
 within 5% 34 of 120; 17 ZScaleInterval (refused); of the other 103, 34 within 5%, misses: centre off > 2 px 16 (13
 make_lupton_rgb with a clipped core kept in colour; the true centre given fixed 2 of 9), colour route off 5-15% 15,
 > 15% too large 10, too small 6, grey fallback 13 (6 red arcs), search floor above 0.9 of the radius 6 (5 of them

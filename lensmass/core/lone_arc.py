@@ -80,7 +80,7 @@ UNPAIRED_FLOOR_CALIBRATION = "h21c: 15.87% quantile of unpaired arc-lens answers
 #: 695000-695419: 7 of the 16 lone answers outside 1 sigma had theta_E / r_arc 0.52-0.58. Lone answers inside 1 sigma,
 #: table -> this bound: stress tuning 695000-695419 + 696000-696699 52.8% -> 75.0% (36), check 697000-697419 +
 #: 698000-698699 60.6% -> 78.8% (33); our generator 699000-699299 and 699400-699699 unchanged (76.5%, 85.3% of 34);
-#: 2 sigma unchanged (/work/notes/s36/h23d/report.md).
+#: 2 sigma unchanged.
 LONE_1SIGMA_LOW_RATIO = 0.5
 
 

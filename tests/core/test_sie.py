@@ -192,7 +192,7 @@ def test_images_are_stationary_points_of_the_fermat_potential():
 
 def test_sis_time_delay_closed_form():
     # Delta t_AB = (1 + z_l) / (2c) (D_l D_s / D_ls) (theta_A^2 - theta_B^2) (Narayan & Bartelmann 1996; in
-    # /work/shared/REFERENCES.md), distances from astropy directly
+    # the project's shared REFERENCES.md), distances from astropy directly
     cosmo = FlatLambdaCDM(H0=70, Om0=0.3)
     z_l, z_s, theta_e, beta = 0.5, 2.0, 1.2, 0.3
     lens = SIEShear(theta_e)
@@ -211,7 +211,7 @@ def test_sis_time_delay_closed_form():
 
 def test_sis_delay_interval_carries_the_redshift_errors():
     # The SIS closed form Delta t_AB = (1 + z_l)/(2c) (D_l D_s / D_ls)(theta_A^2 - theta_B^2) (Narayan & Bartelmann
-    # 1996; /work/shared/REFERENCES.md) evaluated by astropy on independently drawn Gaussian redshifts gives the
+    # 1996; the project's shared REFERENCES.md) evaluated by astropy on independently drawn Gaussian redshifts gives the
     # interval the delay must have when only the redshifts are uncertain.
     from lensmass.core.time_delay import delay_draws_days
 
