@@ -72,7 +72,7 @@ from lensmass.core.arcfit import fit_circle
 from lensmass.core.bulge_disc import bulge_and_disc
 from lensmass.core.clipped_plateau import widen_near_lossy_core
 from lensmass.core.companion_pass import companion_pass
-from lensmass.core.core_residual import core_replaces_ring, in_core, ring_replaces_core
+from lensmass.core.core_residual import core_replaces_ring, ring_replaces_core
 from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
 from lensmass.core.lenslight import fit_lens_light, robust_sigma
@@ -523,11 +523,10 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
                      lambda f: report(progress, 0.75 + 0.25 * f), should_stop, elliptical=False)
     # The refit only de-biases the lens light under the ring; with a broad ring masked it can lose
     # its hold on the galaxy and leave a core residual that outshines the ring. A second answer that
-    # is no ring, or a ring elsewhere, is not trusted over the first.
+    # is no ring, a ring elsewhere, or one in the lens core where the first was resolved from it
+    # (core_residual), is not trusted over the first.
     if (not second.found or abs(second.radius_pix - first.radius_pix) > max(2.0, first.ring_width_pix)
             or core_replaces_ring(first, second, light.psf_fwhm_pix)):
-        if second.found and abs(second.radius_pix - first.radius_pix) <= max(2.0, first.ring_width_pix):
-            _tmp_log(f"core_replaces_ring first {first.radius_pix:.2f} second {second.radius_pix:.2f}")
         moved = f"put the peak at {second.radius_pix:.2f} pixels" if second.found else "found no ring"
         first = first_answer()
         first.radius_err_pix = float(np.hypot(first.radius_err_pix, FIRST_PASS_SYSTEMATIC * first.radius_pix))
@@ -573,13 +572,12 @@ def _spread_over_ring(light, radius_pix: float) -> bool:
 def _second_component(img, ring, light, rmin, rmax, n_sectors, should_stop):
     """``ring`` and ``light``, or, for a ring wider than :data:`MISFIT_WIDTH_PSF` seeing widths (one Sersic's misfit,
     a disc's or a PSF halo's leftover light, merged with the ring) where two Sersic components fit the light better
-    with the ring masked (:func:`~lensmass.core.bulge_disc.bulge_and_disc`), the search on their residual."""
-    core = in_core(ring.radius_pix, light.psf_fwhm_pix)
-    if not (ring.ring_width_pix >= MISFIT_WIDTH_PSF * light.psf_fwhm_pix or core):
+    with the ring masked (:func:`~lensmass.core.bulge_disc.bulge_and_disc`), the search on their residual: when it
+    lies farther out by :data:`MISFIT_MIN_MOVE` of the radius up to the ring's width, or, for a ``ring`` in the lens
+    core, when it is a resolved ring (:func:`~lensmass.core.core_residual.ring_replaces_core`)."""
+    if not ring.ring_width_pix >= MISFIT_WIDTH_PSF * light.psf_fwhm_pix:
         return ring, light
-    # An answer in the lens core (core_residual) may be one Sersic's misfit of a bulge+disc lens: the two components
-    # are fitted without a mask there (a mask would hide the core they must follow).
-    mask = None if core else ring_pixels(img.shape, ring, max_half_share=MISFIT_MASK_SHARE)
+    mask = ring_pixels(img.shape, ring, max_half_share=MISFIT_MASK_SHARE)
     two = bulge_and_disc(img, light, mask=mask, should_stop=should_stop)
     if two is light:
         return ring, light
@@ -588,17 +586,7 @@ def _second_component(img, ring, light, rmin, rmax, n_sectors, should_stop):
                     elliptical=False)
     moved_out = (1 + MISFIT_MIN_MOVE) * ring.radius_pix <= again.radius_pix <= ring.radius_pix + ring.ring_width_pix
     took = again.found and (moved_out or ring_replaces_core(ring, again, two.psf_fwhm_pix))
-    rrc = again.found and not moved_out and ring_replaces_core(ring, again, two.psf_fwhm_pix)
-    _tmp_log(f"second_component core={core} took={took} rrc={rrc} from {ring.radius_pix:.2f} to {again.radius_pix:.2f}"
-             if core or rrc else "")
     return (again, two) if took else (ring, light)
-
-
-def _tmp_log(text):  # TEMPORARY h23b diagnosis
-    import os
-    if text and os.environ.get("H23B_LOG"):
-        with open(os.environ["H23B_LOG"], "a") as fh:
-            fh.write(text + "\n")
 
 
 def _prominent_peaks(profile: np.ndarray, err: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
