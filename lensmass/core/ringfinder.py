@@ -72,6 +72,7 @@ from lensmass.core.arcfit import fit_circle
 from lensmass.core.bulge_disc import bulge_and_disc
 from lensmass.core.clipped_plateau import widen_near_lossy_core
 from lensmass.core.companion_pass import companion_pass
+from lensmass.core.core_residual import core_replaces_ring, ring_replaces_core
 from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
 from lensmass.core.lenslight import fit_lens_light, robust_sigma
@@ -522,8 +523,10 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
                      lambda f: report(progress, 0.75 + 0.25 * f), should_stop, elliptical=False)
     # The refit only de-biases the lens light under the ring; with a broad ring masked it can lose
     # its hold on the galaxy and leave a core residual that outshines the ring. A second answer that
-    # is no ring, or a ring elsewhere, is not trusted over the first.
-    if not second.found or abs(second.radius_pix - first.radius_pix) > max(2.0, first.ring_width_pix):
+    # is no ring, a ring elsewhere, or one in the lens core where the first was resolved from it
+    # (core_residual), is not trusted over the first.
+    if (not second.found or abs(second.radius_pix - first.radius_pix) > max(2.0, first.ring_width_pix)
+            or core_replaces_ring(first, second, light.psf_fwhm_pix)):
         moved = f"put the peak at {second.radius_pix:.2f} pixels" if second.found else "found no ring"
         first = first_answer()
         first.radius_err_pix = float(np.hypot(first.radius_err_pix, FIRST_PASS_SYSTEMATIC * first.radius_pix))
@@ -569,7 +572,9 @@ def _spread_over_ring(light, radius_pix: float) -> bool:
 def _second_component(img, ring, light, rmin, rmax, n_sectors, should_stop):
     """``ring`` and ``light``, or, for a ring wider than :data:`MISFIT_WIDTH_PSF` seeing widths (one Sersic's misfit,
     a disc's or a PSF halo's leftover light, merged with the ring) where two Sersic components fit the light better
-    with the ring masked (:func:`~lensmass.core.bulge_disc.bulge_and_disc`), the search on their residual."""
+    with the ring masked (:func:`~lensmass.core.bulge_disc.bulge_and_disc`), the search on their residual: when it
+    lies farther out by :data:`MISFIT_MIN_MOVE` of the radius up to the ring's width, or, for a ``ring`` in the lens
+    core, when it is a resolved ring (:func:`~lensmass.core.core_residual.ring_replaces_core`)."""
     if not ring.ring_width_pix >= MISFIT_WIDTH_PSF * light.psf_fwhm_pix:
         return ring, light
     mask = ring_pixels(img.shape, ring, max_half_share=MISFIT_MASK_SHARE)
@@ -580,7 +585,8 @@ def _second_component(img, ring, light, rmin, rmax, n_sectors, should_stop):
                     list(two.notes) + ["Lens light refitted with the ring masked."], None, should_stop,
                     elliptical=False)
     moved_out = (1 + MISFIT_MIN_MOVE) * ring.radius_pix <= again.radius_pix <= ring.radius_pix + ring.ring_width_pix
-    return (again, two) if again.found and moved_out else (ring, light)
+    took = again.found and (moved_out or ring_replaces_core(ring, again, two.psf_fwhm_pix))
+    return (again, two) if took else (ring, light)
 
 
 def _prominent_peaks(profile: np.ndarray, err: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
