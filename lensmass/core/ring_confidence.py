@@ -8,7 +8,7 @@ import numpy as np
 from lensmass.core.arcfit import fit_circle
 from lensmass.core.errors import LensInputError
 from lensmass.core.lenslight import SERSIC_N_BOUNDS
-from lensmass.core.ring_result import RingResult
+from lensmass.core.ring_result import RingResult, answer_noun
 
 #: Significance (sigma) of the azimuthal ring peak needed for a confident ring. This and the three
 #: shape limits below were set on 60 generated non-lenses (spirals, ring galaxies, pairs, star +
@@ -278,6 +278,6 @@ def _flag_unresolved(result: RingResult) -> RingResult:
         f"The ring is barely resolved from the lens galaxy ({why}): the lens-light model has taken part of "
         f"the ring, so the radius carries an extra {UNRESOLVED_SYSTEMATIC:.0%} systematic error and is likely "
         "too large; mark the arcs by hand to check it.")
-    result.message = (f"A {result.kind} at {result.radius_pix:.2f} +- {result.radius_err_pix:.2f} pixels, barely "
+    result.message = (f"{answer_noun(result.kind)} at {result.radius_pix:.2f} +- {result.radius_err_pix:.2f} pixels, barely "
                       "resolved from the lens galaxy: check it by eye before trusting it.")
     return result

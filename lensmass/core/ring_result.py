@@ -70,3 +70,12 @@ class RingResult:
     #: scatter and width :func:`lensmass.core.ring_confidence._calibrate` reads belong to the candidate it replaced,
     #: so their terms are not added to it.
     error_from_images: bool = False
+
+
+def answer_noun(kind: str) -> str:
+    """The answer's kind as a message opens with it: "A ring", "Arcs".
+
+    >>> answer_noun("ring"), answer_noun("arcs")
+    ('A ring', 'Arcs')
+    """
+    return "Arcs" if kind == "arcs" else f"A {kind}"

@@ -96,7 +96,7 @@ from lensmass.core.ring_pictures import (COLOUR_CORE_PIX, COLOUR_MASK_GROW_PIX, 
                                          _undo_grey_stretch, blue_excess, colour_mask_image, colour_masks,
                                          lossy_error_scale)
 from lensmass.core.ring_interval import RING_TAIL_SHARE, state_interval
-from lensmass.core.ring_result import RingResult
+from lensmass.core.ring_result import RingResult, answer_noun
 from lensmass.core.ring_sectors import (BIN_PIX, MASK_HALF_WIDTHS, _sector_grid, _sector_profiles, _smooth_profile,
                                         _top_sectors_profile, ring_pixels)
 from lensmass.core.ring_shapes import (ELLIPSE_CANDIDATES, ELLIPSE_GAIN, ELLIPSE_MAX_COVERAGE, ELLIPSE_MAX_MOVE,
@@ -827,7 +827,7 @@ def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma,
         msg = (f"No convincing ring: the best candidate at {r0:.1f} pixels is {score:.1f} sigma and seen in "
                f"{coverage:.0%} of directions.")
     elif confident:
-        msg = f"A {kind} at {radius:.2f} +- {radius_err:.2f} pixels ({score:.0f} sigma, seen in {coverage:.0%} of directions)."
+        msg = f"{answer_noun(kind)} at {radius:.2f} +- {radius_err:.2f} pixels ({score:.0f} sigma, seen in {coverage:.0%} of directions)."
     else:
         msg = (f"A weak {kind} candidate at {radius:.2f} pixels ({score:.1f} sigma, {coverage:.0%} of directions): "
                "check it by eye before trusting it.")
