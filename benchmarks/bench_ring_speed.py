@@ -66,6 +66,8 @@ Stop 34 (2026-12-04, load 1.4-1.7, a CI run beside), two runs each, alternating:
 (8680d80) 0.351 / 0.396 s (median 0.354 / 0.396); bincount 0.050-0.068 s: no change beyond the machine's noise.
 Stop 35 (2026-12-04, load 0.3, one run): main with the neighbour-as-arcs fit, the cross's shear end and the JPEG
 plateau (f480495) 0.352 s CPU best (median 0.367); bincount 0.056 s, finder x6.2 of it: as before.
+Stop 36 (2026-12-05, load 1.1, a CI run beside, one run): main with the core rule and the lone arc's isothermal bound
+(c45da72) 0.313 s CPU best (median 0.327); lens-light fits 0.129 s (41%); bincount 0.048 s, finder x6.5 of it: as before.
 Earlier (h14f): 0.45-0.49 s against 0.90-1.03 s at load 1.5-2.4 (the Levenberg-Marquardt solver, the
 Jacobian reusing the model's powers, the refit starting from the first fit, MINPACK ridge fits first).
 """
