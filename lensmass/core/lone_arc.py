@@ -21,6 +21,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from lensmass.core.ring_interval import SIGMA_PROBABILITIES
+
 #: Probabilities of the tabulated quantiles (0 and 1: the extremes seen).
 LONE_ARC_PROBABILITIES = (0.0, 0.01, 0.025, 0.05, 0.1, 0.16, 0.25, 0.5, 0.75, 0.84, 0.9, 0.95, 0.975, 0.99, 1.0)
 
@@ -102,6 +104,15 @@ def lone_arc_ratio_quantiles(probabilities, measure: str = "points") -> np.ndarr
     return np.exp(np.interp(probabilities, LONE_ARC_PROBABILITIES, _table(measure)))
 
 
+def _sigma_ratios(measure: str, low_1sigma: float) -> np.ndarray:
+    """The ``measure`` table's ratios at the -2, -1, +1, +2 sigma probabilities, the 1-sigma lower side no higher
+    than ``low_1sigma`` and the 2-sigma one no higher than the 1-sigma one."""
+    q = lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, measure)
+    q[1] = min(q[1], low_1sigma)
+    q[0] = min(q[0], q[1])
+    return q
+
+
 def unpaired_sigma_ratios() -> np.ndarray:
     """theta_E / radius of an unpaired arc at the -2, -1, +1, +2 sigma probabilities
     (:data:`lensmass.core.ring_interval.SIGMA_PROBABILITIES`): the ``"unpaired"`` table's quantiles, the 1-sigma lower
@@ -113,12 +124,7 @@ def unpaired_sigma_ratios() -> np.ndarray:
     >>> bool(lo2 <= lo1 <= 0.58 < 1.0 < hi1 < hi2)
     True
     """
-    from lensmass.core.ring_interval import SIGMA_PROBABILITIES
-
-    q = lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, "unpaired")
-    q[1] = min(q[1], UNPAIRED_1SIGMA_LOW_RATIO)
-    q[0] = min(q[0], q[1])
-    return q
+    return _sigma_ratios("unpaired", UNPAIRED_1SIGMA_LOW_RATIO)
 
 
 def lone_sigma_ratios() -> np.ndarray:
@@ -132,12 +138,7 @@ def lone_sigma_ratios() -> np.ndarray:
     >>> bool(lo2 <= lo1 == 0.5 < 1.0 < hi1 < hi2)
     True
     """
-    from lensmass.core.ring_interval import SIGMA_PROBABILITIES
-
-    q = lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, "ridge")
-    q[1] = min(q[1], LONE_1SIGMA_LOW_RATIO)
-    q[0] = min(q[0], q[1])
-    return q
+    return _sigma_ratios("ridge", LONE_1SIGMA_LOW_RATIO)
 
 
 def lone_arc_theta_e(r_arc: float, measure: str = "ridge") -> tuple[float, float]:
