@@ -111,8 +111,9 @@ def _image_cross(best: RingResult, res, rmin: float, light) -> RingResult:
                          "elongated lens or of a lens in an external shear): theta_E is the middle between an SIE's "
                          "value (Kormann, Schneider & Bartelmann 1994: the geometric mean of the two pairs' radii, "
                          "scaled as far as the light's direction says the mass elongated it) and an isothermal sphere "
-                         "with external shear's (the pairs' harmonic mean), half their difference in the error: four "
-                         "images do not tell the mass's elongation from the shear's. A lens-model fit of the four "
+                         "with external shear's (the pairs' harmonic mean), with theta_E anywhere between them (half "
+                         "their difference / sqrt(3) in the error): four images do not tell the mass's elongation "
+                         "from the shear's. A lens-model fit of the four "
                          "positions with a stated shear prior narrows it.")
     return best
 
