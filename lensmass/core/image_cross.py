@@ -146,7 +146,8 @@ def find_image_cross(residual: np.ndarray, cx: float, cy: float, r_lo: float, r_
     """The four compact images forming a cross around (cx, cy) between radii ``r_lo`` and ``r_hi`` (the one whose
     faintest image is brightest), with theta_E the middle of the SIE end (sqrt(inner x outer) times the SIE factor of
     their ratio in the share the light's direction gives the mass) and the shear end (:func:`shear_limit_theta_e`),
-    half their span / sqrt(3) in the error (:data:`END_SPAN_SD_SHARE`; see the module), or None.
+    the larger of half their span and the SIE floor, / sqrt(3), in the error (:data:`END_SPAN_SD_SHARE`; see the
+    module), or None.
 
     Examples
     --------
