@@ -68,7 +68,7 @@ import numpy as np
 from scipy.ndimage import gaussian_filter
 from scipy.signal import find_peaks
 
-from lensmass.core.arc_directions import arcs_constrain_ellipse
+from lensmass.core.arc_directions import ARC_ELLIPSE_MIN_AXIS_RATIO, arcs_constrain_ellipse
 from lensmass.core.arcfit import fit_circle
 from lensmass.core.bulge_disc import bulge_and_disc
 from lensmass.core.clipped_plateau import widen_near_lossy_core
@@ -802,7 +802,8 @@ def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma,
         try:
             ef = clipped_ellipse_fit(fx, fy, center=(cx, cy), point_err=BIN_PIX / np.sqrt(12),
                                      scatter_points=(whole_x, whole_y) if moved else None)
-            if 0.4 <= ef.axis_ratio <= 1.0 and abs(ef.theta_e - r0) < 0.25 * r0:
+            min_q = 0.4 if coverage >= 0.5 else ARC_ELLIPSE_MIN_AXIS_RATIO
+            if min_q <= ef.axis_ratio <= 1.0 and abs(ef.theta_e - r0) < 0.25 * r0:
                 radius, radius_err, q, angle, rms = ef.theta_e, ef.theta_e_err, ef.axis_ratio, ef.angle_deg, ef.rms
                 if offset is not None:
                     radius_err = max(radius_err, offset.constant_err)
