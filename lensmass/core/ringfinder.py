@@ -45,7 +45,8 @@ Method (our own):
    :mod:`lensmass.core.ridge`), for a ring only inside its half-maximum band (a brighter peak farther out in
    that sector, another object's leftover light, is no ridge point: :func:`_ring_ridge`); those ridge points
    (``points_x``/``points_y``, usable by a lens-model fit) are fitted by an ellipse about the centre
-   (theta_E = sqrt(a b)), or a circle; a first harmonic of their radius (a source off the lens axis,
+   (theta_E = sqrt(a b)), or a circle (arcs seen in under half the directions only when their directions do not pose an
+   ellipse, or pose one flatter than a lens makes: :mod:`lensmass.core.arc_directions`); a first harmonic of their radius (a source off the lens axis,
    r = theta_E + beta cos(phi - phi_beta)) is taken off them first when an F-test asks for it
    (:mod:`lensmass.core.ring_harmonics`).
 5. Errors: the fit's standard error with the systematic terms of the refit and of a ring
