@@ -45,7 +45,8 @@ Method (our own):
    :mod:`lensmass.core.ridge`), for a ring only inside its half-maximum band (a brighter peak farther out in
    that sector, another object's leftover light, is no ridge point: :func:`_ring_ridge`); those ridge points
    (``points_x``/``points_y``, usable by a lens-model fit) are fitted by an ellipse about the centre
-   (theta_E = sqrt(a b)), or a circle; a first harmonic of their radius (a source off the lens axis,
+   (theta_E = sqrt(a b)), or a circle (arcs seen in under half the directions only when their directions do not pose an
+   ellipse, or pose one flatter than a lens makes: :mod:`lensmass.core.arc_directions`); a first harmonic of their radius (a source off the lens axis,
    r = theta_E + beta cos(phi - phi_beta)) is taken off them first when an F-test asks for it
    (:mod:`lensmass.core.ring_harmonics`).
 5. Errors: the fit's standard error with the systematic terms of the refit and of a ring
@@ -68,6 +69,7 @@ import numpy as np
 from scipy.ndimage import gaussian_filter
 from scipy.signal import find_peaks
 
+from lensmass.core.arc_directions import ARC_ELLIPSE_MIN_AXIS_RATIO, arcs_constrain_ellipse
 from lensmass.core.arcfit import fit_circle
 from lensmass.core.bulge_disc import bulge_and_disc
 from lensmass.core.clipped_plateau import widen_near_lossy_core
@@ -789,21 +791,27 @@ def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma,
 
     radius, radius_err, q, angle, rms = r0, width / 2.355 / np.sqrt(max(len(px), 1)), float("nan"), float("nan"), float("nan")
     offset = None
-    if len(px) >= 6 and coverage >= 0.5:
+    # Arcs seen in under half the directions are fitted by an ellipse too when their doubled directions spread
+    # (lensmass.core.arc_directions): a circle through arcs on an elongated ring's minor or major axis is 5-15% off.
+    if len(px) >= 6 and (coverage >= 0.5 or arcs_constrain_ellipse(px, py, (cx, cy))):
         # A source off the lens axis adds a first harmonic to the ring's radius, which the ellipse about the centre
         # cannot follow: taken off the points when the ridge asks for it (lensmass.core.ring_harmonics); the plain
         # fit of the points as measured stays the floor of the error and the scatter.
-        offset = offset_source_term(px, py, (cx, cy))
+        offset = offset_source_term(px, py, (cx, cy)) if coverage >= 0.5 else None
         fx, fy = (px, py) if offset is None else remove_offset_source(px, py, (cx, cy), offset)
         moved = offset is not None or len(whole_x) > len(px) or not np.array_equal(whole_x, px)
         try:
             ef = clipped_ellipse_fit(fx, fy, center=(cx, cy), point_err=BIN_PIX / np.sqrt(12),
                                      scatter_points=(whole_x, whole_y) if moved else None)
-            if 0.4 <= ef.axis_ratio <= 1.0 and abs(ef.theta_e - r0) < 0.25 * r0:
+            min_q = 0.4 if coverage >= 0.5 else ARC_ELLIPSE_MIN_AXIS_RATIO
+            if min_q <= ef.axis_ratio <= 1.0 and abs(ef.theta_e - r0) < 0.25 * r0:
                 radius, radius_err, q, angle, rms = ef.theta_e, ef.theta_e_err, ef.axis_ratio, ef.angle_deg, ef.rms
                 if offset is not None:
                     radius_err = max(radius_err, offset.constant_err)
                 radius, radius_err = _sie_ring_correction(radius, radius_err, q, angle, light)
+                if coverage < 0.5:
+                    warnings.append(f"Arcs cover only {coverage:.0%} of the azimuth: the ellipse through them assumes "
+                                    "the lens centre is at the light centre.")
             else:
                 offset = None
         except LensInputError:
