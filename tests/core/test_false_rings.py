@@ -52,10 +52,12 @@ def test_star_forming_rings_are_not_confident(seed):
 def test_disc_rings_of_our_generator_are_not_confident(seed, kind):
     # Our generator: a ring galaxy and a spiral whose rings lie along the galaxy's own major axis (as an
     # inclined disc's ring does), formerly confident; the finder says why it is not (the spiral's arm, measured on
-    # the first lens-light fit's residual since h14w, is a single arc, never confident).
+    # the first lens-light fit's residual since h14w, is a single arc, never confident; since arcs under half the
+    # directions may take an ellipse, h24d, the spiral's is a weak candidate, which its message says).
     r = find_ring(make_cutout(seed, kind).image)
     assert r.found and not r.confident
-    assert any("flattened along the galaxy's own major axis" in w or w.startswith("A single arc") for w in r.warnings)
+    assert (any("flattened along the galaxy's own major axis" in w or w.startswith("A single arc") for w in r.warnings)
+            or r.message.startswith("A weak"))
 
 
 def test_off_centre_ring_is_not_confident():
