@@ -8,6 +8,7 @@ from collections.abc import Callable
 
 import numpy as np
 
+from lensmass.core.arc_directions import LONE_ARC_DIRECTEDNESS, mean_direction
 from lensmass.core.counter_image import find_counter_image
 from lensmass.core.elliptical_annuli import (ROUND_LIGHT, SIE_RIDGE_AXIS_RATIOS, mass_alignment_weight, ring_shape,
                                              sie_ring_axis_ratio, sie_ring_factor)
@@ -41,11 +42,6 @@ ELLIPSE_CANDIDATES = 2
 #: Among candidates measuring one feature, significance counts up to this many sigma (:func:`_choose`; the finder's
 #: cap for all candidates before h16a).
 SAME_FEATURE_SCORE_CAP = 30.0
-#: A lone arc's ridge points have a mean direction (unit vectors) at least this long (0 = all round, 1 = one
-#: direction). Tuning seeds 570000-570209 (stress fields) and 570000-570149 (ours), arcs seen in under 60% of the
-#: directions and unpaired: mean direction 0.85-1 -> radius / theta_E median 1.58 (stress) and 1.38 (ours), 0.7-0.85
-#: -> 0.99 and 1.25, under 0.5 (quads, folds, rings cut by a mask) 1.06-1.23 and 1.01-1.02.
-LONE_ARC_DIRECTEDNESS = 0.7
 #: Mass axis ratios whose SIE rings are searched across the lens light's major axis (:func:`_across_light_pass`):
 #: the elongated lenses (q < 0.6) the circular search sees in pieces; their rings' axis ratios are
 #: :func:`~lensmass.core.elliptical_annuli.sie_ring_axis_ratio` of these (0.85 and 0.75).
@@ -329,9 +325,7 @@ def _across_light_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings
 
 def _mean_direction(r: RingResult) -> tuple[float, float]:
     """Unit-vector mean of the directions of a candidate's ridge points, and its length (0..1)."""
-    ang = np.arctan2(r.points_y - r.center_y, r.points_x - r.center_x)
-    c, s = float(np.mean(np.cos(ang))), float(np.mean(np.sin(ang)))
-    return float(np.arctan2(s, c)), float(np.hypot(c, s))
+    return mean_direction(r.points_x, r.points_y, (r.center_x, r.center_y))
 
 
 def _pair_of_arcs(best: RingResult, tried: list[RingResult]) -> RingResult:
