@@ -49,8 +49,10 @@ def mean_direction(x, y, center: tuple[float, float], fold: int = 1) -> tuple[fl
     phi = fold * np.arctan2(np.asarray(y, float) - center[1], np.asarray(x, float) - center[0])
     if phi.size == 0:
         return float("nan"), float("nan")
-    stats = directional_stats(np.column_stack([np.cos(phi), np.sin(phi)]))
-    return float(np.arctan2(stats.mean_direction[1], stats.mean_direction[0])) / fold, float(stats.mean_resultant_length)
+    with np.errstate(invalid="ignore"):  # directions balanced all round: no mean direction (taken as 0, arctan2(0, 0))
+        stats = directional_stats(np.column_stack([np.cos(phi), np.sin(phi)]))
+    angle = float(np.arctan2(stats.mean_direction[1], stats.mean_direction[0]))
+    return (angle if np.isfinite(angle) else 0.0) / fold, float(stats.mean_resultant_length)
 
 
 def doubled_direction_spread(x, y, center: tuple[float, float]) -> float:
