@@ -23,6 +23,8 @@ COMPANION_ROUNDS = 1
 COMPANION_RING_SHARE = 0.5
 #: Smallest radius, in seeing FWHM, of a ring found inside a blob the first search took for arcs.
 INSIDE_MIN_FWHM = 2.0
+#: Smallest share of the directions in which that ring must be seen when the first answer was arcs away from the blob.
+INSIDE_RING_COVERAGE = 0.5
 
 
 def companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop, ring_search: Callable[..., RingResult]):
@@ -81,7 +83,10 @@ def companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop, ring_s
     # the blob only, h22a's stress tuning seed 655212 lost its ring at 1.02 theta_E: the blob was its own knot.)
     # That ring must lie INSIDE_MIN_FWHM seeing widths out: nearer, the lens's own residual replaces a real arc
     # taken away as a blob (h22a, check seed 657005, two arcs: 1.74 -> 0.46 theta_E through a ring at 1.2 FWHM).
-    inside = (blob_taken and again.radius_pix + refit.psf_fwhm_pix <= min(comp.distance_pix, first.radius_pix)
+    # A blob overlapping the lens's light whose wing lifted arcs elsewhere (h25a): the ring found once it is
+    # subtracted must then be seen in INSIDE_RING_COVERAGE of the directions or more.
+    arcs_first = first.found and first.coverage < RING_COVERAGE and again.coverage >= INSIDE_RING_COVERAGE
+    inside = ((blob_taken or arcs_first) and again.radius_pix + refit.psf_fwhm_pix <= min(comp.distance_pix, first.radius_pix)
               and again.coverage > first.coverage and again.radius_pix >= INSIDE_MIN_FWHM * refit.psf_fwhm_pix
               and not _counter_image_of(again, comp.x, comp.y))
     at_comp, at_ring = np.interp([comp.distance_pix, again.radius_pix], again.profile_radius_pix, again.profile)
