@@ -38,9 +38,9 @@ def companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop, ring_s
     kept when the ring then found lies a FWHM inside the blob and those arcs, :data:`INSIDE_MIN_FWHM` FWHM out or
     more, seen in more directions, under the same light share, and not its counter-image (:func:`_counter_image_of`)
     (h22a, stress tuning seeds 655247 and 655386: arcs at 1.67 and 1.82 theta_E, a star's wing and a neighbour's,
-    now rings at 0.97 and 1.04). Arcs that lay away from the blob (its wing's inner side, a FWHM or more nearer the
-    lens than its fitted centre) give way the same way to a ring seen in :data:`INSIDE_RING_COVERAGE` of the
-    directions or more (h25a, stress tuning seeds 835386 and 835441: 1.32 and 1.25 theta_E, now 1.03 and 1.00)."""
+    now rings at 0.97 and 1.04). Arcs at another distance than the blob (on the tuning seeds, its wing's inner side,
+    1-2 FWHM nearer the lens than its fitted centre) give way the same way to a ring seen in
+    :data:`INSIDE_RING_COVERAGE` of the directions or more (h25a, stress tuning seeds 835386 and 835441: 1.32 and 1.25 theta_E, now 1.03 and 1.00)."""
     blob = companion_candidate(light.residual, light.center_x, light.center_y, light.psf_fwhm_pix,
                                light.noise_sigma, light.fit_radius_pix)
     if blob is None:
