@@ -23,6 +23,8 @@ COMPANION_ROUNDS = 1
 COMPANION_RING_SHARE = 0.5
 #: Smallest radius, in seeing FWHM, of a ring found inside a blob the first search took for arcs.
 INSIDE_MIN_FWHM = 2.0
+#: Smallest share of the directions in which that ring must be seen when the first answer was arcs away from the blob.
+INSIDE_RING_COVERAGE = 0.5
 
 
 def companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop, ring_search: Callable[..., RingResult]):
@@ -36,7 +38,9 @@ def companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop, ring_s
     kept when the ring then found lies a FWHM inside the blob and those arcs, :data:`INSIDE_MIN_FWHM` FWHM out or
     more, seen in more directions, under the same light share, and not its counter-image (:func:`_counter_image_of`)
     (h22a, stress tuning seeds 655247 and 655386: arcs at 1.67 and 1.82 theta_E, a star's wing and a neighbour's,
-    now rings at 0.97 and 1.04)."""
+    now rings at 0.97 and 1.04). Arcs at another distance than the blob (on the tuning seeds, its wing's inner side,
+    1-2 FWHM nearer the lens than its fitted centre) give way the same way to a ring seen in
+    :data:`INSIDE_RING_COVERAGE` of the directions or more (h25a, stress tuning seeds 835386 and 835441: 1.32 and 1.25 theta_E, now 1.03 and 1.00)."""
     blob = companion_candidate(light.residual, light.center_x, light.center_y, light.psf_fwhm_pix,
                                light.noise_sigma, light.fit_radius_pix)
     if blob is None:
@@ -81,7 +85,10 @@ def companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop, ring_s
     # the blob only, h22a's stress tuning seed 655212 lost its ring at 1.02 theta_E: the blob was its own knot.)
     # That ring must lie INSIDE_MIN_FWHM seeing widths out: nearer, the lens's own residual replaces a real arc
     # taken away as a blob (h22a, check seed 657005, two arcs: 1.74 -> 0.46 theta_E through a ring at 1.2 FWHM).
-    inside = (blob_taken and again.radius_pix + refit.psf_fwhm_pix <= min(comp.distance_pix, first.radius_pix)
+    # A blob overlapping the lens's light whose wing lifted arcs elsewhere (h25a): the ring found once it is
+    # subtracted must then be seen in INSIDE_RING_COVERAGE of the directions or more.
+    arcs_first = first.found and first.coverage < RING_COVERAGE and again.coverage >= INSIDE_RING_COVERAGE
+    inside = ((blob_taken or arcs_first) and again.radius_pix + refit.psf_fwhm_pix <= min(comp.distance_pix, first.radius_pix)
               and again.coverage > first.coverage and again.radius_pix >= INSIDE_MIN_FWHM * refit.psf_fwhm_pix
               and not _counter_image_of(again, comp.x, comp.y))
     at_comp, at_ring = np.interp([comp.distance_pix, again.radius_pix], again.profile_radius_pix, again.profile)
