@@ -78,6 +78,7 @@ from lensmass.core.core_residual import core_replaces_ring, ring_replaces_core
 from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
 from lensmass.core.lenslight import fit_lens_light, robust_sigma
+from lensmass.core.peak_extent import peak_basin
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
 from lensmass.core.ridge import ridge_peak
 from lensmass.core.ridge_clip import clipped_ellipse_fit
@@ -752,6 +753,14 @@ def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma,
         hi_i += 1
     width = max(1.5, (hi_i - lo_i + 1) * BIN_PIX)
     r0 = ridge_peak(radii, prof * np.sqrt(radii), float(radii[k]), width)
+    lo_b, hi_b = peak_basin(prof_s, k)
+    if not radii[lo_b] <= r0 <= radii[hi_b]:
+        # The ridge left its peak for a brighter one beside it (an unmasked star's residual): sought in the peak's
+        # own basin (lensmass.core.peak_extent).
+        lo_i, hi_i = max(lo_i, lo_b), min(hi_i, hi_b)
+        width = max(1.5, (hi_i - lo_i + 1) * BIN_PIX)
+        basin = (np.arange(radii.size) >= lo_b) & (np.arange(radii.size) <= hi_b)
+        r0 = ridge_peak(radii, np.where(basin, prof * np.sqrt(radii), np.nan), float(radii[k]), width)
 
     # Per-sector detection and ridge points.
     band = np.abs(radii - r0) <= max(1.0, 0.5 * width)
