@@ -717,11 +717,12 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
         if _leaves_basin(k, radii, p, ps):
             # Its ridge left its own peak for a brighter one beside it (an unmasked star's residual): the candidate
             # is measured again inside its peak's basin and goes to the usual choice beside the first measurement
-            # only when it is a ring seen all round (lensmass.core.peak_extent). Arcs measured on a basin cut at a
-            # neighbour's rising wing are not (tests/core/test_neighbour_outside_ring.py, seed 655903).
+            # when it is a ring seen all round, or when the first found nothing (lensmass.core.peak_extent). Arcs
+            # measured on a basin cut at a neighbour's rising wing do not replace arcs found at the neighbour
+            # (tests/core/test_neighbour_outside_ring.py, seed 655903: weak arcs instead of the ring).
             basin = _measure_candidate(k, float(scores_ok[i]), res, cx, cy, n_sectors, light, list(warnings), sigma,
                                        sums, counts, smean, radii, p, ps, err, shape, in_basin=True)
-            if basin.found and basin.kind == "ring":
+            if basin.found and (basin.kind == "ring" or not tried[-1].found):
                 tried.append(basin)
     report(progress, 1.0)
     best = _choose(tried)
