@@ -78,6 +78,7 @@ from lensmass.core.core_residual import core_replaces_ring, ring_replaces_core
 from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
 from lensmass.core.lenslight import fit_lens_light, robust_sigma
+from lensmass.core.peak_extent import peak_basin
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
 from lensmass.core.ridge import ridge_peak
 from lensmass.core.ridge_clip import clipped_ellipse_fit
@@ -713,6 +714,16 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
         p, ps = (top, top_s) if k in from_top else ((med, med_s) if k in from_med else (prof, prof_s))
         tried.append(_measure_candidate(k, float(scores_ok[i]), res, cx, cy, n_sectors, light, list(warnings), sigma,
                                         sums, counts, smean, radii, p, ps, err, shape))
+        if _leaves_basin(k, radii, p, ps):
+            # Its ridge left its own peak for a brighter one beside it (an unmasked star's residual): the candidate
+            # is measured again inside its peak's basin and goes to the usual choice beside the first measurement
+            # when it is a ring seen all round, or when the first found nothing (lensmass.core.peak_extent). Arcs
+            # measured on a basin cut at a neighbour's rising wing do not replace arcs found at the neighbour
+            # (tests/core/test_neighbour_outside_ring.py, seed 655903: weak arcs instead of the ring).
+            basin = _measure_candidate(k, float(scores_ok[i]), res, cx, cy, n_sectors, light, list(warnings), sigma,
+                                       sums, counts, smean, radii, p, ps, err, shape, in_basin=True)
+            if basin.found and (basin.kind == "ring" or not tried[-1].found):
+                tried.append(basin)
     report(progress, 1.0)
     best = _choose(tried)
     best = _pair_of_arcs(best, tried) if best.found and best.kind == "arcs" else best
@@ -739,11 +750,11 @@ def _ring_ridge(radii: np.ndarray, profile: np.ndarray, r0: float, width: float)
     return (rr if abs(rr - r0) < band else float("nan")), whole
 
 
-def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma, sums, counts, smean, radii, prof,
-                       prof_s, err, shape=None) -> RingResult:
-    """Width, ridge points, coverage and the ellipse fit of the ring candidate at profile index ``k``
-    (``radii`` are elliptical radii of ``shape`` = (axis ratio, angle in radians) when it is given)."""
-    # Ring width from the half-maximum of the smoothed profile around the peak.
+def _peak_ridge(k: int, radii: np.ndarray, prof: np.ndarray, prof_s: np.ndarray,
+                in_basin: bool = False) -> tuple[float, float, bool]:
+    """Ridge radius and width (half-maximum of the smoothed profile) of the profile peak ``k``, and whether the ridge
+    left the peak's basin (:func:`lensmass.core.peak_extent.peak_basin`); with ``in_basin`` a ridge that left it is
+    sought again inside the basin."""
     half = 0.5 * prof_s[k]
     lo_i, hi_i = k, k
     while lo_i > 0 and prof_s[lo_i - 1] > half:
@@ -752,6 +763,27 @@ def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma,
         hi_i += 1
     width = max(1.5, (hi_i - lo_i + 1) * BIN_PIX)
     r0 = ridge_peak(radii, prof * np.sqrt(radii), float(radii[k]), width)
+    lo_b, hi_b = peak_basin(prof_s, k)
+    left = not radii[lo_b] <= r0 <= radii[hi_b]
+    if left and in_basin:
+        lo_i, hi_i = max(lo_i, lo_b), min(hi_i, hi_b)
+        width = max(1.5, (hi_i - lo_i + 1) * BIN_PIX)
+        basin = (np.arange(radii.size) >= lo_b) & (np.arange(radii.size) <= hi_b)
+        r0 = ridge_peak(radii, np.where(basin, prof * np.sqrt(radii), np.nan), float(radii[k]), width)
+    return float(r0), float(width), left
+
+
+def _leaves_basin(k: int, radii: np.ndarray, prof: np.ndarray, prof_s: np.ndarray) -> bool:
+    """Whether the ridge of profile peak ``k`` lands outside its peak's basin (on a brighter peak beside it)."""
+    return _peak_ridge(k, radii, prof, prof_s)[2]
+
+
+def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma, sums, counts, smean, radii, prof,
+                       prof_s, err, shape=None, in_basin=False) -> RingResult:
+    """Width, ridge points, coverage and the ellipse fit of the ring candidate at profile index ``k``
+    (``radii`` are elliptical radii of ``shape`` = (axis ratio, angle in radians) when it is given); with
+    ``in_basin`` its ridge is kept inside its own peak's basin."""
+    r0, width, _ = _peak_ridge(k, radii, prof, prof_s, in_basin)
 
     # Per-sector detection and ridge points.
     band = np.abs(radii - r0) <= max(1.0, 0.5 * width)
