@@ -7,8 +7,9 @@ widths past the ring. The ridge of a candidate is fitted in a window of twice it
 (:func:`lensmass.core.ridge.ridge_peak`), which reaches that peak: the ring's candidate was measured at the star's
 radius, in a few per cent of the directions, and the ring seen all round in the residual was answered "no convincing
 ring" (h25c, stress tuning seeds 843002 and 843581: stars at 1.6-1.7 theta_E). When the ridge leaves its peak's basin
-(bounded at the lowest point between the peak and the nearer side of a brighter one, the base of a peak as
-:func:`scipy.signal.peak_prominences` defines it), the candidate is measured again inside the basin, and that measurement
+(bounded at the lowest point between the peak and the nearer side of a brighter one, as the bases of
+:func:`scipy.signal.peak_prominences` are, but at the profile's end where no bin is brighter, where scipy takes the
+lowest bin), the candidate is measured again inside the basin, and that measurement
 joins the candidates beside the first one when it is a ring or the first found nothing
 (:func:`lensmass.core.ringfinder._search`; arcs on a basin cut at a neighbour's rising wing replaced the ring in
 tests/core/test_neighbour_outside_ring.py, h25f). A ridge that stays in its basin is left as it was.
