@@ -80,6 +80,7 @@ from lensmass.core.errors import LensInputError
 from lensmass.core.lenslight import fit_lens_light, robust_sigma
 from lensmass.core.peak_extent import peak_basin
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
+from lensmass.core.refit_hold import arcs_hold_refit
 from lensmass.core.ridge import ridge_peak
 from lensmass.core.ridge_clip import clipped_ellipse_fit
 from lensmass.core.ring_harmonics import offset_source_term, remove_offset_source
@@ -542,19 +543,20 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
     # part of that pull may remain, so a share of the move is added to the radius error.
     shift = second.radius_pix - first.radius_pix
     refit_moved = abs(shift) > REFIT_MAX_MOVE * first.radius_pix
-    if follow_shape and first.kind == "ring" and refit_moved and not _spread_over_ring(light, first.radius_pix):
+    if (follow_shape and refit_moved and not _spread_over_ring(light, first.radius_pix)
+            and (first.kind == "ring" or arcs_hold_refit(first))):
         # The refit moved the ring: with the ring masked, one Sersic is free to drop light under it that it cannot
         # follow (a disc's, a PSF halo's), which merges with the ring all round and pulls it inward and wider; the
         # robust (soft-L1) first fit gives the ring's pixels little weight. Unless that fit spread over the ring, the
-        # FITS route keeps its ring, the refit's move as its systematic error (REFIT_MAX_MOVE). Arcs and images
-        # (seen in under RING_COVERAGE of the directions) keep the refit's answer.
+        # FITS route keeps its ring (or arcs all but a ring), the refit's move as its systematic error. Arcs and images
+        # seen in under NEAR_RING_COVERAGE of the directions keep the refit's answer (lensmass.core.refit_hold).
         ring, fit = _second_component(img, first, light, rmin, rmax, n_sectors, should_stop)
         ring = _follow_shape(ring, fit.residual, ring.center_x, ring.center_y, rmin, rmax, n_sectors, fit,
                              list(fit.notes), should_stop, ring_search=_search)
         ring.radius_err_pix = float(np.hypot(ring.radius_err_pix, REFIT_SHIFT_SYSTEMATIC * shift))
         ring.warnings.append(f"Refitting the lens light with the ring masked moved the ring by {shift:+.2f} pixels, "
                              "as a galaxy's light the model cannot follow, left under the ring, does; the first fit's "
-                             f"ring is kept, with {REFIT_SHIFT_SYSTEMATIC:.0%} of that move in its error.")
+                             f"{first.kind} is kept, with {REFIT_SHIFT_SYSTEMATIC:.0%} of that move in its error.")
         return ring
     second, light2 = _second_component(img, second, light2, rmin, rmax, n_sectors, should_stop)
     if follow_shape:
