@@ -73,7 +73,7 @@ def test_partial_arcs_inside_a_png_clipped_core_are_refused():
     # core's residual; a ring seen all round there, and the same arcs at 2 core radii, are kept.
     from types import SimpleNamespace
 
-    from lensmass.core.clipped_plateau import CORE_EDGE_RATIO, lossy_core_radius, refuse_partial_in_lossless_core
+    from lensmass.core.clipped_plateau import LOSSLESS_CORE_RATIO, lossy_core_radius, refuse_partial_in_lossless_core
 
     rng = np.random.default_rng(2)
     yy, xx = np.mgrid[0:96, 0:96].astype(float)
@@ -93,7 +93,7 @@ def test_partial_arcs_inside_a_png_clipped_core_are_refused():
         return SimpleNamespace(found=True, kind="arcs", radius_pix=radius, radius_err_pix=0.5, coverage=coverage,
                                center_x=47.0, center_y=48.0, warnings=[], message="")
 
-    inside, whole, outside = answer(0.9 * core, 0.3), answer(0.9 * core, 0.8), answer(2 * CORE_EDGE_RATIO * core, 0.3)
+    inside, whole, outside = answer(0.9 * core, 0.3), answer(0.9 * core, 0.8), answer(2 * LOSSLESS_CORE_RATIO * core, 0.3)
     for out in (inside, whole, outside):
         refuse_partial_in_lossless_core(out, rgb)
     assert not inside.found and "clipped core" in inside.warnings[0] and inside.message
