@@ -72,7 +72,7 @@ from scipy.signal import find_peaks
 from lensmass.core.arc_directions import ARC_ELLIPSE_MIN_AXIS_RATIO, arcs_constrain_ellipse
 from lensmass.core.arcfit import fit_circle
 from lensmass.core.bulge_disc import bulge_and_disc
-from lensmass.core.clipped_plateau import widen_near_lossy_core
+from lensmass.core.clipped_plateau import refuse_partial_in_lossless_core, widen_near_lossy_core
 from lensmass.core.companion_pass import companion_pass
 from lensmass.core.core_residual import core_replaces_ring, ring_replaces_core
 from lensmass.core.elliptical_annuli import radius_along
@@ -337,6 +337,8 @@ def find_ring(
                              masks_of=_masks)
         if _jpeg_quality(compressed) is not None:  # a ring at a clipped core's JPEG-fringed edge (clipped_plateau)
             widen_near_lossy_core(out, np.asarray(colour))
+        else:  # arcs at a lossless picture's clipped core edge (clipped_plateau)
+            refuse_partial_in_lossless_core(out, np.asarray(colour))
     elif picture is not None:
         out = _stretched_grey_search(picture, np.isnan(img), cx, cy, rmin, rmax, n_sectors, progress, should_stop,
                                      two_pass_search=_two_pass_search)

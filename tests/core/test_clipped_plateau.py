@@ -65,3 +65,36 @@ def test_ring_at_a_jpeg_clipped_core_edge_is_widened():
     widen_near_lossy_core(far, rgb)
     assert near.radius_err_pix == pytest.approx(np.hypot(0.5, CORE_EDGE_SYSTEMATIC * core)) and near.warnings
     assert far.radius_err_pix == 0.5 and not far.warnings
+
+
+def test_partial_arcs_inside_a_png_clipped_core_are_refused():
+    # The PNG twin (h26d): the same clipped Sersic core written losslessly by Pillow's PNG encoder (make_lupton_rgb
+    # keeps the core's colour where it clips). Arcs seen in 30% of the directions at 0.9 core radii are refused as the
+    # core's residual; a ring seen all round there, and the same arcs at 2 core radii, are kept.
+    from types import SimpleNamespace
+
+    from lensmass.core.clipped_plateau import LOSSLESS_CORE_RATIO, lossy_core_radius, refuse_partial_in_lossless_core
+
+    rng = np.random.default_rng(2)
+    yy, xx = np.mgrid[0:96, 0:96].astype(float)
+    lens = Sersic2D(amplitude=1.0, r_eff=6.0, n=4.0, x_0=47.0, y_0=48.0, ellip=0.1, theta=0.4)(xx, yy)
+    lens = 200000.0 * lens / lens.max()  # a core of some 125 pixels clipped, colour kept
+    g, r, i = (c * lens + rng.normal(0, 1, lens.shape) for c in (0.4, 0.7, 1.0))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        pic = make_lupton_rgb(i, r, g, minimum=0, stretch=5, Q=8)
+    buf = io.BytesIO()
+    Image.fromarray(pic).save(buf, format="PNG")
+    rgb = np.asarray(Image.open(io.BytesIO(buf.getvalue())).convert("RGB"), np.float32)
+    assert np.array_equal(rgb, pic)  # lossless
+    core = lossy_core_radius(rgb, 47.0, 48.0)
+    assert core > 5
+
+    def answer(radius, coverage):
+        return SimpleNamespace(found=True, kind="arcs", radius_pix=radius, radius_err_pix=0.5, coverage=coverage,
+                               center_x=47.0, center_y=48.0, warnings=[], message="")
+
+    inside, whole, outside = answer(0.9 * core, 0.3), answer(0.9 * core, 0.8), answer(2 * LOSSLESS_CORE_RATIO * core, 0.3)
+    for out in (inside, whole, outside):
+        refuse_partial_in_lossless_core(out, rgb)
+    assert not inside.found and "clipped core" in inside.warnings[0] and inside.message
+    assert whole.found and not whole.warnings and outside.found and not outside.warnings
