@@ -150,9 +150,8 @@ def refuse_partial_in_lossless_core(out, rgb: np.ndarray) -> None:
     core = lossy_core_radius(rgb, out.center_x, out.center_y)
     if core <= 0 or out.radius_pix > LOSSLESS_CORE_RATIO * core:
         return
-    out.warnings.append(f"The arcs at {out.radius_pix:.1f} pixels, seen in {out.coverage:.0%} of the directions, lie "
-                        f"inside the lens's clipped core ({core:.1f} pixels), where pieces of the core's "
-                        "residual look like arcs: not taken as a ring.")
-    out.found, out.kind = False, "none"
-    out.message = ("No ring outside the lens's clipped core on this picture: mark the arcs by hand, or measure a FITS "
-                   "band or a picture with a softer stretch.")
+    out.refuse(f"The arcs at {out.radius_pix:.1f} pixels, seen in {out.coverage:.0%} of the directions, lie inside "
+               f"the lens's clipped core ({core:.1f} pixels), where pieces of the core's residual look like arcs: not "
+               "taken as a ring.",
+               "No ring outside the lens's clipped core on this picture: mark the arcs by hand, or measure a FITS band "
+               "or a picture with a softer stretch.")

@@ -398,11 +398,10 @@ def _refuse_colour_lost(out: RingResult, rgb: np.ndarray, cx: float, cy: float, 
     if share <= COLOUR_LOST_MAX_SHARE:
         return out
     seen = f" (a candidate at {out.radius_pix:.1f} pixels was seen)" if out.found else ""
-    out.warnings.append(f"The picture's display stretch clipped {share:.0%} of the pixels around the lens in one band or "
-                        f"more{seen}: the colours that tell arcs from the lens light are lost there.")
-    out.found, out.kind = False, "none"
-    out.message = ("No ring measured: this picture's stretch clips the lens surroundings in its bands (a display range "
-                   "close to the sky); open a FITS band, or a picture with a gentler stretch.")
+    out.refuse(f"The picture's display stretch clipped {share:.0%} of the pixels around the lens in one band or "
+               f"more{seen}: the colours that tell arcs from the lens light are lost there.",
+               "No ring measured: this picture's stretch clips the lens surroundings in its bands (a display range "
+               "close to the sky); open a FITS band, or a picture with a gentler stretch.")
     return out
 
 
@@ -510,9 +509,7 @@ def _refuse_core_residual(out: RingResult, masks, rgb: np.ndarray | None = None)
     if not out.found or not np.isfinite(halfmax) or seen >= _picture_core_pix(masks, out.center_x, out.center_y, 0.0,
                                                                               rgb):
         return
-    out.warnings.append(f"The only ring candidate ({out.radius_pix:.1f} pixels) lies inside the lens core's half-maximum "
-                        f"width ({halfmax:.1f} pixels): on a stretched picture that is the residual of the core, not a "
-                        "ring.")
-    out.found, out.kind = False, "none"
-    out.message = ("No ring outside the lens core on this stretched picture: mark the arcs by hand, or measure a FITS "
-                   "band.")
+    out.refuse(f"The only ring candidate ({out.radius_pix:.1f} pixels) lies inside the lens core's half-maximum "
+               f"width ({halfmax:.1f} pixels): on a stretched picture that is the residual of the core, not a ring.",
+               "No ring outside the lens core on this stretched picture: mark the arcs by hand, or measure a FITS "
+               "band.")

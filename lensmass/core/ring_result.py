@@ -71,6 +71,13 @@ class RingResult:
     #: so their terms are not added to it.
     error_from_images: bool = False
 
+    def refuse(self, why: str, message: str) -> None:
+        """Report no ring: ``why`` (what was seen and why it is not a ring) joins the warnings, ``message`` (the
+        fix) replaces the answer's message."""
+        self.warnings.append(why)
+        self.found, self.confident, self.kind = False, False, "none"
+        self.message = message
+
 
 def answer_noun(kind: str) -> str:
     """The answer's kind as a message opens with it: "A ring", "Arcs".

@@ -15,6 +15,7 @@ from PIL import Image
 
 from lensmass.core.clipped_plateau import clipped_plateaus, near_top
 from lensmass.core.ringfinder import field_masks
+from lensmass.core.ring_result import RingResult
 
 
 def _jpeg_lupton(seed: int, quality: int) -> tuple[np.ndarray, float, float]:
@@ -71,8 +72,6 @@ def test_partial_arcs_inside_a_png_clipped_core_are_refused():
     # The PNG twin (h26d): the same clipped Sersic core written losslessly by Pillow's PNG encoder (make_lupton_rgb
     # keeps the core's colour where it clips). Arcs seen in 30% of the directions at 0.9 core radii are refused as the
     # core's residual; a ring seen all round there, and the same arcs at 2 core radii, are kept.
-    from types import SimpleNamespace
-
     from lensmass.core.clipped_plateau import LOSSLESS_CORE_RATIO, lossy_core_radius, refuse_partial_in_lossless_core
 
     rng = np.random.default_rng(2)
@@ -90,11 +89,13 @@ def test_partial_arcs_inside_a_png_clipped_core_are_refused():
     assert core > 5
 
     def answer(radius, coverage):
-        return SimpleNamespace(found=True, kind="arcs", radius_pix=radius, radius_err_pix=0.5, coverage=coverage,
-                               center_x=47.0, center_y=48.0, warnings=[], message="")
+        empty = np.array([])
+        return RingResult(True, True, "arcs", radius, 0.5, 5.0, coverage, 47.0, 48.0, 1.0, 0.0, 0.1, empty, empty,
+                          empty, empty, empty, 1.0, None, None)
 
     inside, whole, outside = answer(0.9 * core, 0.3), answer(0.9 * core, 0.8), answer(2 * LOSSLESS_CORE_RATIO * core, 0.3)
     for out in (inside, whole, outside):
         refuse_partial_in_lossless_core(out, rgb)
-    assert not inside.found and "clipped core" in inside.warnings[0] and inside.message
+    assert not inside.found and not inside.confident and "clipped core" in inside.warnings[0]
+    assert inside.message.startswith("No ring")
     assert whole.found and not whole.warnings and outside.found and not outside.warnings
