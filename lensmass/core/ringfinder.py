@@ -72,6 +72,7 @@ from scipy.signal import find_peaks
 from lensmass.core.arc_directions import ARC_ELLIPSE_MIN_AXIS_RATIO, arcs_constrain_ellipse
 from lensmass.core.arcfit import fit_circle
 from lensmass.core.bulge_disc import bulge_and_disc
+from lensmass.core.misfit_gate import leftover_inside_ring
 from lensmass.core.clipped_plateau import widen_near_lossy_core
 from lensmass.core.companion_pass import companion_pass
 from lensmass.core.core_residual import core_replaces_ring, ring_replaces_core
@@ -574,11 +575,14 @@ def _spread_over_ring(light, radius_pix: float) -> bool:
 
 def _second_component(img, ring, light, rmin, rmax, n_sectors, should_stop):
     """``ring`` and ``light``, or, for a ring wider than :data:`MISFIT_WIDTH_PSF` seeing widths (one Sersic's misfit,
-    a disc's or a PSF halo's leftover light, merged with the ring) where two Sersic components fit the light better
-    with the ring masked (:func:`~lensmass.core.bulge_disc.bulge_and_disc`), the search on their residual: when it
+    a disc's or a PSF halo's leftover light, merged with the ring) or a narrower one whose one-Sersic residual
+    shows such light inside it (:func:`~lensmass.core.misfit_gate.leftover_inside_ring`, h26b), where two Sersic
+    components fit the light better with the ring masked (:func:`~lensmass.core.bulge_disc.bulge_and_disc`), the search on their residual: when it
     lies farther out by :data:`MISFIT_MIN_MOVE` of the radius up to the ring's width, or, for a ``ring`` in the lens
     core, when it is a resolved ring (:func:`~lensmass.core.core_residual.ring_replaces_core`)."""
-    if not ring.ring_width_pix >= MISFIT_WIDTH_PSF * light.psf_fwhm_pix:
+    if not (ring.ring_width_pix >= MISFIT_WIDTH_PSF * light.psf_fwhm_pix
+            or leftover_inside_ring(light.residual, ring.center_x, ring.center_y, ring.radius_pix,
+                                    ring.ring_width_pix, light.psf_fwhm_pix, light.noise_sigma)):
         return ring, light
     mask = ring_pixels(img.shape, ring, max_half_share=MISFIT_MASK_SHARE)
     two = bulge_and_disc(img, light, mask=mask, should_stop=should_stop)
