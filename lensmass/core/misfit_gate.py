@@ -28,9 +28,13 @@ def leftover_inside_ring(residual: np.ndarray, center_x: float, center_y: float,
     ``width_pix`` centred on (``center_x``, ``center_y``): the inner flank (``r - w`` to ``r - w/2``) above the
     outer one (``r + w/2`` to ``r + w``), or the interior (from ``max(FWHM, 0.3 r)``, ``s = max(2, 0.25 r)``
     pixels wide) above the band just inside the flank (``r - w/2 - s`` to ``r - w/2``) where the two do not overlap;
-    by :data:`LEFTOVER_SIGMA` standard errors and :data:`LEFTOVER_PEAK_SHARE` of the ring's mean (``r +- w/4``)."""
+    by :data:`LEFTOVER_SIGMA` standard errors and :data:`LEFTOVER_PEAK_SHARE` of the ring's mean (``r +- w/4``).
+    False for a ring whose inner flank (``r - w``) comes within a seeing FWHM of the centre, where the flanks read
+    the blurred core's misfit rather than a disc's."""
     r, w = float(radius_pix), max(float(width_pix), 1.0)
     if not (np.isfinite(r) and r > 0 and np.isfinite(noise_sigma) and noise_sigma > 0):
+        return False
+    if r - w < psf_fwhm_pix:  # the inner flank within a seeing width of the centre reads the core's misfit
         return False
     sums, counts = _radial_sums(np.asarray(residual), center_x, center_y, int(r + 2 * w + 3))
 
