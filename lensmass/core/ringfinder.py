@@ -72,7 +72,6 @@ from scipy.signal import find_peaks
 from lensmass.core.arc_directions import ARC_ELLIPSE_MIN_AXIS_RATIO, arcs_constrain_ellipse
 from lensmass.core.arcfit import fit_circle
 from lensmass.core.bulge_disc import bulge_and_disc
-from lensmass.core.misfit_gate import leftover_inside_ring
 from lensmass.core.clipped_plateau import widen_near_lossy_core
 from lensmass.core.companion_pass import companion_pass
 from lensmass.core.core_residual import core_replaces_ring, ring_replaces_core
@@ -146,8 +145,12 @@ MAX_CANDIDATES = 5
 #: the ring found on the ring-masked refit is wider than this many fitted seeing widths (FWHM): one Sersic's misfit
 #: (a disc's or a PSF halo's leftover light) inside the ring merges with it and pulls its peak inward. Lensed rings
 #: of the panel (benchmarks/ring_panel.py) are 0.9-2.7 seeing widths wide; stress rings measured 10-35% small,
-#: 3-6 (benchmarks/stress_fields.py tuning seeds 540000-540149).
-MISFIT_WIDTH_PSF = 3.0
+#: 3-6 (benchmarks/stress_fields.py tuning seeds 540000-540149). It was 3.0; h26b: offering every ring the fit
+#: (0.0, h25b) gained hard stress rings but the fit costs ~0.12 s CPU a call (0.11 s a stress cutout on average);
+#: at 2.0 it runs on about a third of the narrower rings and kept the gains of every-ring on tuning seeds
+#: 859000-859919 (436 ring-kind fields, paired with 3.0: within 5% +4 -0, hard rings +3 -0; every-ring +7 -4 and
+#: +4 -1), 0.03 s CPU a stress cutout more, the speed benchmark's field unchanged (its ring 1.1 seeing widths wide).
+MISFIT_WIDTH_PSF = 2.0
 #: The ring mask of that fit reaches at most this share of the ring's radius either side (the ring-masked refit's
 #: mask, as wide as the merged ring, hid the light the second component has to follow).
 MISFIT_MASK_SHARE = 0.2
@@ -575,14 +578,11 @@ def _spread_over_ring(light, radius_pix: float) -> bool:
 
 def _second_component(img, ring, light, rmin, rmax, n_sectors, should_stop):
     """``ring`` and ``light``, or, for a ring wider than :data:`MISFIT_WIDTH_PSF` seeing widths (one Sersic's misfit,
-    a disc's or a PSF halo's leftover light, merged with the ring) or a narrower one whose one-Sersic residual
-    shows such light inside it (:func:`~lensmass.core.misfit_gate.leftover_inside_ring`, h26b), where two Sersic
-    components fit the light better with the ring masked (:func:`~lensmass.core.bulge_disc.bulge_and_disc`), the search on their residual: when it
+    a disc's or a PSF halo's leftover light, merged with the ring) where two Sersic components fit the light better
+    with the ring masked (:func:`~lensmass.core.bulge_disc.bulge_and_disc`), the search on their residual: when it
     lies farther out by :data:`MISFIT_MIN_MOVE` of the radius up to the ring's width, or, for a ``ring`` in the lens
     core, when it is a resolved ring (:func:`~lensmass.core.core_residual.ring_replaces_core`)."""
-    if not (ring.ring_width_pix >= MISFIT_WIDTH_PSF * light.psf_fwhm_pix
-            or leftover_inside_ring(light.residual, ring.center_x, ring.center_y, ring.radius_pix,
-                                    ring.ring_width_pix, light.psf_fwhm_pix, light.noise_sigma)):
+    if not ring.ring_width_pix >= MISFIT_WIDTH_PSF * light.psf_fwhm_pix:
         return ring, light
     mask = ring_pixels(img.shape, ring, max_half_share=MISFIT_MASK_SHARE)
     two = bulge_and_disc(img, light, mask=mask, should_stop=should_stop)
