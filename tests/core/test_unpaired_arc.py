@@ -48,7 +48,9 @@ def test_single_arcs_of_an_isothermal_sphere_inside_the_stated_interval():
     assert all(out.found for out, _ in runs)
     unpaired = [(out, te) for out, te in runs
                 if out.kind == "arcs" and not out.paired and not np.isfinite(out.lone_arc_radius_pix)]
-    assert len(unpaired) >= 4, [(o.kind, round(o.coverage, 2)) for o, _ in runs]
+    # main e3dab55: 5 unpaired arcs and 4 rings at 1.13-1.67 theta_E; with rings 2-3 seeing widths wide given the
+    # bulge+disc refit (h26b) 5 more are paired with their counter-arc (0.99-1.04 theta_E), 3 arcs stay unpaired
+    assert len(unpaired) >= 3, [(o.kind, round(o.coverage, 2)) for o, _ in runs]
     for out, te in unpaired:
         lo2, lo1, hi1, hi2 = interval_bounds(out)
         assert truth_inside(out, te, 1), (te, interval_bounds(out))
@@ -113,6 +115,9 @@ def test_an_unpaired_arc_far_outside_theta_e_is_covered_inside_one_sigma():
     runs = [(find_ring(img), te) for img, te in (_sis_arc(s, 0.7) for s in SEEDS)]
     unpaired = [(out, te) for out, te in runs
                 if out.kind == "arcs" and not out.paired and not np.isfinite(out.lone_arc_radius_pix)]
-    assert len(unpaired) >= 3, [(o.kind, o.paired) for o, _ in runs]
+    # main e3dab55 left 4 of 12 unpaired (1.52-1.70 theta_E); since h26b's refit of rings 2-3 seeing widths wide 3 of
+    # them are paired with their counter-image (1.06-1.11 theta_E), one stays; every answer holds the truth in 2 sigma
+    assert len(unpaired) >= 1, [(o.kind, o.paired) for o, _ in runs]
+    assert all(truth_inside(out, te, 2) for out, te in runs)
     assert all(truth_inside(out, te, 1) for out, te in unpaired), [(round(te, 2), interval_bounds(out)) for out, te in unpaired]
     assert all(out.radius_pix > 1.4 * te for out, te in unpaired)  # the radius itself is the arc's, unchanged
