@@ -561,10 +561,10 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
         ring = _follow_shape(ring, fit.residual, ring.center_x, ring.center_y, rmin, rmax, n_sectors, fit,
                              list(fit.notes), should_stop, ring_search=_search)
         ring.radius_err_pix = float(np.hypot(ring.radius_err_pix, REFIT_SHIFT_SYSTEMATIC * shift))
-        kept = "ring is" if first.kind == "ring" else "arcs are"
-        ring.warnings.append(f"Refitting the lens light with the ring masked moved the ring by {shift:+.2f} pixels, "
-                             "as a galaxy's light the model cannot follow, left under the ring, does; the first fit's "
-                             f"{kept} kept, with {REFIT_SHIFT_SYSTEMATIC:.0%} of that move in its error.")
+        what, it, kept = ("ring", "it", "ring is") if first.kind == "ring" else ("arcs", "them", "arcs are")
+        ring.warnings.append(f"Refitting the lens light with the {what} masked moved the {what} by {shift:+.2f} "
+                             f"pixels, as a galaxy's light the model cannot follow, left under {it}, does; the first "
+                             f"fit's {kept} kept, with {REFIT_SHIFT_SYSTEMATIC:.0%} of that move in its error.")
         return ring
     second, light2 = _second_component(img, second, light2, rmin, rmax, n_sectors, should_stop)
     if follow_shape:

@@ -46,4 +46,4 @@ def test_arcs_kept_when_the_refit_moves_them(seed):
     found = find_ring(_field(seed), auto_mask=False)
     assert found.found and abs(found.radius_pix / THETA_E - 1) < 0.05, found.message
     assert found.coverage >= NEAR_RING_COVERAGE, found.message
-    assert any("moved the ring" in w for w in found.warnings), found.warnings
+    assert any("moved the arcs" in w and "arcs are kept" in w for w in found.warnings), found.warnings
