@@ -14,7 +14,12 @@ Everything here is our own method; scipy.ndimage.
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
+
+if TYPE_CHECKING:
+    from lensmass.core.ring_result import RingResult
 
 #: Levels below the top value (of 255) within which a pixel counts towards a plateau: JPEG brought clipped cores back at
 #: 240-255 (stress_pictures tuning seeds 670002, 670046: make_lupton_rgb cores, JPEG q92 and q72).
@@ -113,7 +118,7 @@ def lossy_core_radius(rgb: np.ndarray, cx: float, cy: float) -> float:
     return float(np.sqrt(np.count_nonzero(labels == piece) / np.pi)) if piece else 0.0
 
 
-def widen_near_lossy_core(out, rgb: np.ndarray) -> None:
+def widen_near_lossy_core(out: RingResult, rgb: np.ndarray) -> None:
     """Add :data:`CORE_EDGE_SYSTEMATIC` of the radius to the error of a ring found on a JPEG colour picture within
     :data:`CORE_EDGE_RATIO` times its clipped lens core's radius (:func:`lossy_core_radius`), saying why."""
     if not out.found or not np.isfinite(out.radius_pix):
@@ -140,7 +145,7 @@ LOSSLESS_CORE_MIN_COVERAGE = 0.5
 LOSSLESS_CORE_RATIO = 1.0
 
 
-def refuse_partial_in_lossless_core(out, rgb: np.ndarray) -> None:
+def refuse_partial_in_lossless_core(out: RingResult, rgb: np.ndarray) -> None:
     """Report no ring when a lossless colour picture's answer lies within :data:`LOSSLESS_CORE_RATIO` times its clipped
     lens core's radius (:func:`lossy_core_radius`) and its arcs cover fewer than
     :data:`LOSSLESS_CORE_MIN_COVERAGE` of the directions: pieces of the core's residual at its clipped edge, saying

@@ -2,7 +2,7 @@
 
 ringfinder.MISFIT_WIDTH_PSF went from 3.0 to 2.0 seeing widths: one Sersic fitted to a bulge inside a disc of
 another shape leaves the disc's light inside the ring, which pulls it inward. The scene is built from astropy
-models only: a Sersic2D bulge (n = 4, Kormendy 1977) and exponential disc (n = 1, Freeman 1970), a Ring2D 7 px wide
+models only: a Sersic2D bulge (n = 4, de Vaucouleurs 1948) and exponential disc (n = 1, Freeman 1970), a Ring2D 7 px wide
 at theta_E 16 px, pixel-integrated (discretize_model) and blurred by a Gaussian2DKernel of FWHM 3 px; the ring is
 measured about 2.1 seeing widths wide, so the 3.0 gate withheld the fit.
 """
