@@ -722,16 +722,18 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     for i in order:
         k = int(candidates_arr[i])
         p, ps = (top, top_s) if k in from_top else ((med, med_s) if k in from_med else (prof, prof_s))
-        tried.append(_measure_candidate(k, float(scores_ok[i]), res, cx, cy, n_sectors, light, list(warnings), sigma,
-                                        sums, counts, smean, radii, p, ps, err, shape))
-        if _leaves_basin(k, radii, p, ps):
+        r0, width, left = _peak_ridge(k, radii, p, ps)
+        tried.append(_measure_candidate(float(scores_ok[i]), res, cx, cy, n_sectors, light, list(warnings), sigma,
+                                        sums, counts, smean, radii, p, (r0, width), err, shape))
+        if left:
             # Its ridge left its own peak for a brighter one beside it (an unmasked star's residual): the candidate
             # is measured again inside its peak's basin and goes to the usual choice beside the first measurement
             # when it is a ring seen all round, or when the first found nothing (lensmass.core.peak_extent). Arcs
             # measured on a basin cut at a neighbour's rising wing do not replace arcs found at the neighbour
             # (tests/core/test_neighbour_outside_ring.py, seed 655903: weak arcs instead of the ring).
-            basin = _measure_candidate(k, float(scores_ok[i]), res, cx, cy, n_sectors, light, list(warnings), sigma,
-                                       sums, counts, smean, radii, p, ps, err, shape, in_basin=True)
+            r0, width, _ = _peak_ridge(k, radii, p, ps, in_basin=True)
+            basin = _measure_candidate(float(scores_ok[i]), res, cx, cy, n_sectors, light, list(warnings), sigma,
+                                       sums, counts, smean, radii, p, (r0, width), err, shape)
             if basin.found and (basin.kind == "ring" or not tried[-1].found):
                 tried.append(basin)
     report(progress, 1.0)
@@ -783,17 +785,12 @@ def _peak_ridge(k: int, radii: np.ndarray, prof: np.ndarray, prof_s: np.ndarray,
     return float(r0), float(width), left
 
 
-def _leaves_basin(k: int, radii: np.ndarray, prof: np.ndarray, prof_s: np.ndarray) -> bool:
-    """Whether the ridge of profile peak ``k`` lands outside its peak's basin (on a brighter peak beside it)."""
-    return _peak_ridge(k, radii, prof, prof_s)[2]
-
-
-def _measure_candidate(k, score, res, cx, cy, n_sectors, light, warnings, sigma, sums, counts, smean, radii, prof,
-                       prof_s, err, shape=None, in_basin=False) -> RingResult:
-    """Width, ridge points, coverage and the ellipse fit of the ring candidate at profile index ``k``
-    (``radii`` are elliptical radii of ``shape`` = (axis ratio, angle in radians) when it is given); with
-    ``in_basin`` its ridge is kept inside its own peak's basin."""
-    r0, width, _ = _peak_ridge(k, radii, prof, prof_s, in_basin)
+def _measure_candidate(score, res, cx, cy, n_sectors, light, warnings, sigma, sums, counts, smean, radii, prof, ridge,
+                       err, shape=None) -> RingResult:
+    """Width, ridge points, coverage and the ellipse fit of the ring candidate whose profile peak has its ridge and
+    width at ``ridge`` = (radius, width) (:func:`_peak_ridge`; ``radii`` are elliptical radii of ``shape`` = (axis
+    ratio, angle in radians) when it is given)."""
+    r0, width = ridge
 
     # Per-sector detection and ridge points.
     band = np.abs(radii - r0) <= max(1.0, 0.5 * width)
