@@ -1,0 +1,42 @@
+"""A ring candidate too faint to report, looked at again with the lens light refitted around it.
+
+The lens-light model is fitted to every pixel, the ring's included: a faint ring's light is partly taken into the
+galaxy's model (its Sersic grows wider or flatter) and what is left of the ring in the residual falls under the
+finder's significance threshold. The first pass only refits the lens light with the ring masked when it found a
+ring; a candidate that stayed below the threshold is given the same refit here, and is reported only when the
+refit's search finds it at the same radius, by the usual thresholds (no threshold is lowered).
+"""
+from __future__ import annotations
+
+from typing import Callable
+
+import numpy as np
+
+from lensmass.core.lenslight import fit_lens_light
+from lensmass.core.ring_result import RingResult
+from lensmass.core.ring_sectors import ring_pixels
+
+#: The refit's ring must lie within this many of the candidate's widths (at least two pixels) of the candidate's
+#: radius: a ring elsewhere is the refit's own leftover, not the candidate made visible.
+SAME_RADIUS_WIDTHS = 1.0
+
+
+def refit_under_candidate(img: np.ndarray, first: RingResult, light, rmin: float, rmax: float, n_sectors: int,
+                          should_stop, search: Callable[..., RingResult]):
+    """(ring, light fit) from the lens light refitted with the unfound candidate ``first``'s annulus masked, or None
+    when ``first`` holds no measured candidate, the refit fails, or its search does not find a ring at the
+    candidate's radius (``search`` is the finder's profile search, :func:`lensmass.core.ringfinder._search`)."""
+    if first.found or not light.ok or not (np.isfinite(first.radius_pix) and np.isfinite(first.ring_width_pix)):
+        return None
+    if first.radius_pix <= 0 or first.ring_width_pix <= 0:
+        return None
+    mask = ring_pixels(img.shape, first)
+    light2 = fit_lens_light(img, light.center_x, light.center_y, mask=mask, fit_radius_pix=light.fit_radius_pix,
+                            initial=light, should_stop=should_stop)
+    if not light2.ok:
+        return None
+    second = search(light2.residual, light2.center_x, light2.center_y, rmin, rmax, n_sectors, light2,
+                    list(light2.notes) + ["Lens light refitted with the faint ring candidate masked."], None,
+                    should_stop, elliptical=False)
+    near = abs(second.radius_pix - first.radius_pix) <= max(2.0, SAME_RADIUS_WIDTHS * first.ring_width_pix)
+    return (second, light2) if second.found and near else None
