@@ -4,7 +4,8 @@ The lens-light model is fitted to every pixel, the ring's included: a faint ring
 galaxy's model (its Sersic grows wider or flatter) and what is left of the ring in the residual falls under the
 finder's significance threshold. The first pass only refits the lens light with the ring masked when it found a
 ring; a candidate that stayed below the threshold is given the same refit here, and is reported only when the
-refit's search finds it at the same radius, by the usual thresholds (no threshold is lowered).
+refit's search finds it at the same radius, by the usual thresholds (no threshold is lowered), and then never as a
+confident ring (the first fit did not see it).
 """
 from __future__ import annotations
 
@@ -13,7 +14,7 @@ from typing import Callable
 import numpy as np
 
 from lensmass.core.lenslight import fit_lens_light
-from lensmass.core.ring_result import RingResult
+from lensmass.core.ring_result import RingResult, answer_noun
 from lensmass.core.ring_sectors import ring_pixels
 
 #: The refit's ring must lie within this many of the candidate's widths (at least two pixels) of the candidate's
@@ -40,3 +41,18 @@ def refit_under_candidate(img: np.ndarray, first: RingResult, light, rmin: float
                     should_stop, elliptical=False)
     near = abs(second.radius_pix - first.radius_pix) <= max(2.0, SAME_RADIUS_WIDTHS * first.ring_width_pix)
     return (second, light2) if second.found and near else None
+
+
+def mark_refitted(ring: RingResult) -> RingResult:
+    """``ring``, found only after the refit (:func:`refit_under_candidate`), as a weak candidate with a warning that
+    says so: never confident."""
+    if not ring.found:
+        return ring
+    ring.confident = False
+    ring.message = (f"A weak {ring.kind} candidate at {ring.radius_pix:.2f} pixels ({ring.score:.1f} sigma, "
+                    f"{ring.coverage:.0%} of directions), seen only after refitting the lens light with it masked: "
+                    "check it by eye before trusting it.")
+    ring.warnings.append(f"{answer_noun(ring.kind)} below the significance threshold on the first lens-light fit: with "
+                         "the candidate masked, the refitted lens light left it above (a faint ring's light goes into "
+                         "a fit made through it).")
+    return ring

@@ -77,7 +77,7 @@ from lensmass.core.companion_pass import companion_pass
 from lensmass.core.core_residual import core_replaces_ring, ring_replaces_core
 from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
-from lensmass.core.faint_refit import refit_under_candidate
+from lensmass.core.faint_refit import mark_refitted, refit_under_candidate
 from lensmass.core.lenslight import fit_lens_light, robust_sigma
 from lensmass.core.peak_extent import peak_basin
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
@@ -528,8 +528,8 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
         if rescued is not None:
             ring, fit = rescued
             report(progress, 1.0)
-            return _follow_shape(ring, fit.residual, ring.center_x, ring.center_y, rmin, rmax, n_sectors, fit,
-                                 list(fit.notes), should_stop, ring_search=_search)
+            return mark_refitted(_follow_shape(ring, fit.residual, ring.center_x, ring.center_y, rmin, rmax, n_sectors,
+                                               fit, list(fit.notes), should_stop, ring_search=_search))
     if not first.found or not light.ok:
         return first_answer()
     # Second pass: the ring's own light biases the lens-light fit, so refit with the ring masked.
