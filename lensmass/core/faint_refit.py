@@ -14,9 +14,13 @@ from typing import Callable
 import numpy as np
 
 from lensmass.core.lenslight import fit_lens_light
+from lensmass.core.ring_confidence import RING_COVERAGE
 from lensmass.core.ring_result import RingResult, answer_noun
 from lensmass.core.ring_sectors import ring_pixels
 
+#: Only a ring seen all round (RING_COVERAGE of the directions) is given back: a fit made through the middle of a ring
+#: takes in light that is symmetric about the lens, whereas arcs on one side pull it little (and a non-lens's
+#: refitted residual gave arcs and a counter-image, stress tuning seed 893043).
 #: The refit's ring must lie within this many of the candidate's widths (at least two pixels) of the candidate's
 #: radius: a ring elsewhere is the refit's own leftover, not the candidate made visible.
 SAME_RADIUS_WIDTHS = 1.0
@@ -26,7 +30,7 @@ def refit_under_candidate(img: np.ndarray, first: RingResult, light, rmin: float
                           should_stop, search: Callable[..., RingResult]):
     """(ring, light fit) from the lens light refitted with the unfound candidate ``first``'s annulus masked, or None
     when ``first`` holds no measured candidate, the refit fails, or its search does not find a ring at the
-    candidate's radius (``search`` is the finder's profile search, :func:`lensmass.core.ringfinder._search`)."""
+    candidate's radius seen all round (``search`` is the finder's profile search, :func:`lensmass.core.ringfinder._search`)."""
     if first.found or not light.ok or not (np.isfinite(first.radius_pix) and np.isfinite(first.ring_width_pix)):
         return None
     if first.radius_pix <= 0 or first.ring_width_pix <= 0:
@@ -40,7 +44,8 @@ def refit_under_candidate(img: np.ndarray, first: RingResult, light, rmin: float
                     list(light2.notes) + ["Lens light refitted with the faint ring candidate masked."], None,
                     should_stop, elliptical=False)
     near = abs(second.radius_pix - first.radius_pix) <= max(2.0, SAME_RADIUS_WIDTHS * first.ring_width_pix)
-    return (second, light2) if second.found and near else None
+    all_round = second.kind == "ring" and second.coverage >= RING_COVERAGE
+    return (second, light2) if second.found and near and all_round else None
 
 
 def mark_refitted(ring: RingResult) -> RingResult:
