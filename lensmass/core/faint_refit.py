@@ -13,14 +13,16 @@ from typing import Callable
 
 import numpy as np
 
-from lensmass.core.lenslight import fit_lens_light
+from lensmass.core.lenslight import LensLightModel, fit_lens_light
+from lensmass.core.progress import StopCallback
 from lensmass.core.ring_confidence import RING_COVERAGE
 from lensmass.core.ring_result import RingResult, answer_noun
 from lensmass.core.ring_sectors import ring_pixels
 
-#: Only a ring seen all round (RING_COVERAGE of the directions) is given back: a fit made through the middle of a ring
-#: takes in light that is symmetric about the lens, whereas arcs on one side pull it little (and a non-lens's
-#: refitted residual gave arcs and a counter-image, stress tuning seed 893043).
+# Only a ring seen all round (RING_COVERAGE of the directions) is given back: a fit made through the middle of a ring
+# takes in light that is symmetric about the lens, whereas arcs on one side pull it little (and a non-lens's
+# refitted residual gave arcs and a counter-image, stress tuning seed 893043).
+
 #: The refit's ring must lie within this many of the candidate's widths (at least two pixels) of the candidate's
 #: radius: a ring elsewhere is the refit's own leftover, not the candidate made visible.
 SAME_RADIUS_WIDTHS = 1.0
@@ -30,8 +32,9 @@ SAME_RADIUS_WIDTHS = 1.0
 REFIT_CANDIDATE_SYSTEMATIC = 0.05
 
 
-def refit_under_candidate(img: np.ndarray, first: RingResult, light, rmin: float, rmax: float, n_sectors: int,
-                          should_stop, search: Callable[..., RingResult]):
+def refit_under_candidate(img: np.ndarray, first: RingResult, light: LensLightModel, rmin: float, rmax: float,
+                          n_sectors: int, should_stop: StopCallback,
+                          search: Callable[..., RingResult]) -> tuple[RingResult, LensLightModel] | None:
     """(ring, light fit) from the lens light refitted with the unfound candidate ``first``'s annulus masked, or None
     when ``first`` holds no measured candidate, the refit fails, or its search does not find a ring at the
     candidate's radius seen all round (``search`` is the finder's profile search, :func:`lensmass.core.ringfinder._search`)."""
