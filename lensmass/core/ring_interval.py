@@ -18,6 +18,8 @@ from collections.abc import Sequence
 
 import numpy as np
 
+from lensmass.core.interval_scale import interval_scale
+
 #: Normal scores of the stated bounds: -2, -1, +1, +2 sigma.
 SIGMA_SCORES = (-2.0, -1.0, 1.0, 2.0)
 #: Their probabilities under a normal distribution (common practice: 0.02275, 0.15866, 0.84134, 0.97725).
@@ -34,13 +36,16 @@ def hold_shape(out, bounds_pix: Sequence[float]) -> None:
     out.interval_base_err_pix = float(out.radius_err_pix)
 
 
-def state_interval(out) -> None:
+def state_interval(out, picture: bool = False) -> None:
     """Set ``radius_lo_pix``/``radius_hi_pix`` (1 sigma) and ``radius_lo2_pix``/``radius_hi2_pix`` (2 sigma).
 
     Without a held shape they are radius -+ 1 and 2 ``radius_err_pix``. With one (:func:`hold_shape`), each side
     is the shape's offset and the error added since (sqrt(err^2 - base^2), times 1 or 2) in quadrature, and
     ``radius_err_pix`` becomes half the 1-sigma width. A tail term (``interval_tail_pix``) is joined in quadrature to
-    the 2-sigma sides only. Bounds never go below zero.
+    the 2-sigma sides only. Last, the answer type's coverage calibration (:mod:`lensmass.core.interval_scale`;
+    ``picture``: an 8-bit picture's answer) sets each 1-sigma side to hypot(f r, k1 d1) and each 2-sigma side to
+    hypot(2 f r, k2 d2), never narrower than the 1-sigma side; the terms are kept in ``interval_scale`` and the bounds
+    before it in ``interval_unscaled_pix``. Bounds never go below zero.
 
     Examples
     --------
@@ -65,10 +70,15 @@ def state_interval(out) -> None:
         extra = math.sqrt(max(err ** 2 - float(out.interval_base_err_pix) ** 2, 0.0))
         d_lo2, d_lo1 = -math.hypot(shape[0], 2 * extra), -math.hypot(shape[1], extra)
         d_hi1, d_hi2 = math.hypot(shape[2], extra), math.hypot(shape[3], 2 * extra)
-        out.radius_err_pix = 0.5 * (d_hi1 - d_lo1)
     tail = float(getattr(out, "interval_tail_pix", 0.0) or 0.0)
     if tail > 0:  # a heavier tail than a normal error's: the 2-sigma sides only
         d_lo2, d_hi2 = -math.hypot(d_lo2, tail), math.hypot(d_hi2, tail)
+    out.interval_unscaled_pix = (r + d_lo2, r + d_lo1, r + d_hi1, r + d_hi2)
+    f, k1, k2 = interval_scale(out, picture)
+    out.interval_scale = (f, k1, k2)
+    d_lo1, d_hi1 = -math.hypot(f * r, k1 * d_lo1), math.hypot(f * r, k1 * d_hi1)
+    d_lo2, d_hi2 = min(-math.hypot(2 * f * r, k2 * d_lo2), d_lo1), max(math.hypot(2 * f * r, k2 * d_hi2), d_hi1)
+    out.radius_err_pix = 0.5 * (d_hi1 - d_lo1)
     out.radius_lo_pix, out.radius_hi_pix = max(r + d_lo1, 0.0), r + d_hi1
     out.radius_lo2_pix, out.radius_hi2_pix = max(r + d_lo2, 0.0), r + d_hi2
 

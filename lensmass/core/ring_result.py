@@ -66,6 +66,10 @@ class RingResult:
     #: reach (:data:`lensmass.core.ring_interval.RING_TAIL_SHARE` of the radius on a FITS image; an 8-bit picture's
     #: larger one, :func:`lensmass.core.ring_pictures.add_picture_tail`).
     interval_tail_pix: float = 0.0
+    #: The coverage calibration of the stated interval: (floor share, 1-sigma factor, 2-sigma factor) of its answer
+    #: type (:mod:`lensmass.core.interval_scale`; (0, 1, 1): none), and the -2, -1, +1, +2 sigma bounds before it.
+    interval_scale: tuple[float, float, float] = (0.0, 1.0, 1.0)
+    interval_unscaled_pix: tuple[float, float, float, float] | None = None
     #: The error was set from the positions of compact images (an image cross: ring_shapes._image_cross); the ridge
     #: scatter and width :func:`lensmass.core.ring_confidence._calibrate` reads belong to the candidate it replaced,
     #: so their terms are not added to it.

@@ -490,7 +490,7 @@ def _finish(out: RingResult, masks, given: bool, colour: bool, quality: float | 
         add_picture_tail(out)
     elif out.found and np.isfinite(out.radius_pix):
         out.interval_tail_pix = float(RING_TAIL_SHARE * out.radius_pix)
-    state_interval(out)
+    state_interval(out, picture=colour)
     return out
 
 

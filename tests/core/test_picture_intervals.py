@@ -150,6 +150,10 @@ def test_picture_interval_has_a_two_sigma_tail_and_the_masses_draw_from_it(tmp_p
     flux = find_ring(bands[2] + bands[1], auto_mask=True)  # the i + r bands as flux: a FITS-like image
     if flux.found and flux.interval_shape_pix is None:  # the FITS route's smaller tail (RING_TAIL_SHARE)
         assert np.isclose(flux.interval_tail_pix, RING_TAIL_SHARE * flux.radius_pix)
-        assert np.isclose(flux.radius_hi2_pix - flux.radius_pix, np.hypot(2 * flux.radius_err_pix,
-                                                                         flux.interval_tail_pix))
-        assert np.isclose(flux.radius_hi_pix - flux.radius_pix, flux.radius_err_pix)
+        # before the answer type's coverage calibration (lensmass.core.interval_scale): 2 sigma = hypot(2 err, tail)
+        _, _, u_hi1, u_hi2 = (v - flux.radius_pix for v in flux.interval_unscaled_pix)
+        assert np.isclose(u_hi2, np.hypot(2 * u_hi1, flux.interval_tail_pix))
+        f, k1, k2 = flux.interval_scale  # then each side: hypot(f r, k1 d1) and hypot(2 f r, k2 d2)
+        hi1_f = np.hypot(f * flux.radius_pix, k1 * u_hi1)
+        assert np.isclose(flux.radius_hi_pix - flux.radius_pix, hi1_f) and np.isclose(hi1_f, flux.radius_err_pix)
+        assert np.isclose(flux.radius_hi2_pix - flux.radius_pix, max(np.hypot(2 * f * flux.radius_pix, k2 * u_hi2), hi1_f))

@@ -14,6 +14,7 @@ from scipy import stats
 
 from lensmass.core import ring_interval as ri
 from lensmass.core.einstein import BOUND_KEYS, measure_auto_ring
+from lensmass.core.interval_scale import interval_scale
 from lensmass.core.lone_arc import lone_arc_ratio_quantiles
 from lensmass.core.ringfinder import find_ring
 from tests.core.test_elliptical_rings import CENTRE, SIZE, _sie_ring
@@ -39,7 +40,8 @@ def test_symmetric_error_gives_plus_minus_sigma_and_draws_follow_the_bounds():
     assert np.allclose(np.percentile(d, 100 * np.array(ri.SIGMA_PROBABILITIES)), b, atol=0.08)
 
 
-def test_later_symmetric_terms_join_each_side_in_quadrature():
+def test_later_symmetric_terms_join_each_side_in_quadrature(monkeypatch):
+    monkeypatch.setattr("lensmass.core.interval_scale.INTERVAL_SCALE", {})  # the joining alone, no coverage calibration
     r = SimpleNamespace(found=True, radius_pix=10.0, radius_err_pix=2.0, interval_shape_pix=None)
     ri.hold_shape(r, (5.0, 8.0, 13.0, 18.0))
     r.radius_err_pix = float(np.hypot(2.0, 0.8))  # a term of 0.8 added after (e.g. a refit's shift)
@@ -63,7 +65,8 @@ def test_lone_arc_interval_is_asymmetric_and_covers_ray_traced_arcs():
     # 12 ray-traced SIE lone arcs (seeds of this test only): the interval is the "ridge" table's quantiles at the
     # normal probabilities, wider above than below, and holds the truth in 2 sigma for all but one (1 sigma: the
     # table is calibrated on the finder's own lone arcs with wrong features among them, so on these clean arcs
-    # it covers more than 68%; at least 60% is asked).
+    # it covers more than 68%; at least 60% is asked). The quantiles are scaled by the lone-arc type's coverage
+    # calibration (lensmass.core.interval_scale).
     rng = np.random.default_rng(52417)
     in1 = in2 = n = 0
     for k in range(12):
@@ -75,6 +78,9 @@ def test_lone_arc_interval_is_asymmetric_and_covers_ray_traced_arcs():
         n += 1
         lo2, lo1, hi1, hi2 = ri.interval_bounds(out)
         q = out.lone_arc_radius_pix * lone_arc_ratio_quantiles(ri.SIGMA_PROBABILITIES, "ridge")
+        f, k1, k2 = interval_scale(out)  # the lone-arc type's coverage calibration (lensmass.core.interval_scale)
+        q = out.radius_pix + np.sign(q - out.radius_pix) * np.hypot(np.array([2, 1, 1, 2]) * f * out.radius_pix,
+                                                                    np.array([k2, k1, k1, k2]) * (q - out.radius_pix))
         assert lo2 <= q[0] + 1e-9 and lo1 <= q[1] + 1e-9 and hi1 >= q[2] - 1e-9 and hi2 >= q[3] - 1e-9
         assert hi1 - out.radius_pix > 1.5 * (out.radius_pix - lo1)  # skewed: far more room above
         in1 += ri.truth_inside(out, te, 1)
