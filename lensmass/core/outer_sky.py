@@ -5,9 +5,9 @@ its fit radius only, where the sky trades against the profile's wings (a steeper
 higher sky fits as well), and its model is an extrapolation beyond. A sky a fraction of a noise sigma off lifts (or
 sinks) the whole residual beyond the fit radius: a plateau tens of pixels wide on which a noise bump reads as a ring
 of many sigma seen in every direction. Beyond the fit radius the sky is measured directly, as the median of the
-residual there (a ring or arcs are a minority of those pixels; common practice for a local sky), and taken off,
-from nothing at the fit radius to all of it :data:`RAMP_SHARE` of the fit radius (at least :data:`RAMP_MIN_PIX`)
-farther out.
+residual there (the median of the search's sector means: a ring or arcs are a minority of them; common practice
+for a local sky), and taken off the profiles, from nothing at the fit radius to all of it :data:`RAMP_SHARE` of the
+fit radius (at least :data:`RAMP_MIN_PIX`) farther out.
 """
 from __future__ import annotations
 
@@ -23,30 +23,31 @@ MIN_PIXELS = 500
 MIN_SIGNIFICANCE = 3.0
 
 
-def relevel_outer_sky(residual: np.ndarray, cx: float, cy: float, fit_radius_pix: float, noise_sigma: float,
-                      correlation: float = 1.0) -> np.ndarray:
-    """``residual`` with the median level of its pixels beyond the fit radius plus the ramp taken off outside the
-    fit radius (ramped in linearly), when that level is significant; else ``residual`` itself.
+def outer_sky_offset(sums: np.ndarray, counts: np.ndarray, radii: np.ndarray, fit_radius_pix: float,
+                     noise_sigma: float) -> np.ndarray | None:
+    """The sky beyond the fit, read from the sector profiles of the search (``sums`` and ``counts`` of pixels per
+    sector and radius bin): the median of the sector means beyond the fit radius plus the ramp, ramped in from the fit
+    radius, as an offset per radius bin to take off each pixel; None when the level is not significant or there are
+    too few pixels (no pixel is touched, so a large image costs nothing more).
 
     Examples
     --------
-    >>> yy, xx = np.mgrid[0:121, 0:121]
-    >>> r = np.hypot(xx - 60, yy - 60)
-    >>> res = np.random.default_rng(1).normal(0, 1, r.shape) + 0.5 * (r > 30)   # a sky 0.5 sigma off beyond 30 px
-    >>> out = relevel_outer_sky(res, 60, 60, 30.0, 1.0)
-    >>> abs(float(np.median(out[r > 40]))) < 0.05, bool(np.array_equal(out[r < 30], res[r < 30]))
-    (True, True)
+    >>> radii = np.arange(0.25, 80, 0.5)
+    >>> counts = np.tile(np.maximum(np.round(2 * np.pi * radii * 0.5 / 24), 1), (24, 1))
+    >>> sums = 0.5 * (radii > 30) * counts                          # a sky 0.5 sigma off beyond 30 px, no noise
+    >>> off = outer_sky_offset(sums, counts, radii, 30.0, 1.0)
+    >>> float(off[radii > 40].min()), float(off[radii < 30].max())
+    (0.5, 0.0)
     """
     rf = float(fit_radius_pix)
     if not (np.isfinite(rf) and rf > 0 and np.isfinite(noise_sigma) and noise_sigma > 0):
-        return residual
+        return None
     ramp = max(RAMP_MIN_PIX, RAMP_SHARE * rf)
-    yy, xx = np.indices(residual.shape)
-    r = np.hypot(xx - cx, yy - cy)
-    outer = residual[(r > rf + ramp) & np.isfinite(residual)]
-    if outer.size < MIN_PIXELS:
-        return residual
-    level = float(np.median(outer))
-    if abs(level) < MIN_SIGNIFICANCE * 1.2533 * noise_sigma * max(correlation, 1.0) / np.sqrt(outer.size):
-        return residual
-    return residual - level * np.clip((r - rf) / ramp, 0.0, 1.0)
+    beyond = (radii > rf + ramp)[None, :] & (counts > 0)
+    n = float(counts[beyond].sum())
+    if n < MIN_PIXELS:
+        return None
+    level = float(np.median(sums[beyond] / counts[beyond]))
+    if abs(level) < MIN_SIGNIFICANCE * 1.2533 * noise_sigma / np.sqrt(n):
+        return None
+    return level * np.clip((radii - rf) / ramp, 0.0, 1.0)

@@ -78,7 +78,7 @@ from lensmass.core.core_residual import core_replaces_ring, ring_replaces_core
 from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
 from lensmass.core.lenslight import fit_lens_light, robust_sigma
-from lensmass.core.outer_sky import relevel_outer_sky
+from lensmass.core.outer_sky import outer_sky_offset
 from lensmass.core.peak_extent import peak_basin
 from lensmass.core.profile_plateau import plateau_score
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
@@ -630,16 +630,14 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     sigma = robust_sigma(box[::step, ::step])
     if not np.isfinite(sigma) or sigma <= 0:
         sigma = float(np.nanstd(box)) or 1.0
+    grid = _sector_grid(res.shape, cx, cy, rmin, rmax, n_sectors, *(shape or (1.0, 0.0)))
+    sums, counts, radii = _sector_profiles(res, grid)
     if light is not None and light.ok:
         # The sky beyond the lens-light fit, measured there, is taken off (lensmass.core.outer_sky): a sky the fit
         # left a fraction of a sigma off is a plateau on which a noise bump far out reads as a ring.
-        levelled = relevel_outer_sky(box, cx - x0, cy - y0, light.fit_radius_pix, sigma)
-        if levelled is not box:
-            res = res.copy()
-            res[y0:y1, x0:x1] = levelled
-
-    grid = _sector_grid(res.shape, cx, cy, rmin, rmax, n_sectors, *(shape or (1.0, 0.0)))
-    sums, counts, radii = _sector_profiles(res, grid)
+        offset = outer_sky_offset(sums, counts, radii, light.fit_radius_pix, sigma)
+        if offset is not None:
+            sums = sums - offset[None, :] * counts
     report(progress, 0.5)
     with np.errstate(invalid="ignore", divide="ignore"):
         smean = sums / counts

@@ -10,7 +10,7 @@ import pytest
 from astropy.modeling.models import Ring2D, Sersic2D
 from scipy.ndimage import gaussian_filter
 
-from lensmass.core.outer_sky import relevel_outer_sky
+from lensmass.core.outer_sky import outer_sky_offset
 from lensmass.core.profile_plateau import plateau_score
 from lensmass.core.ringfinder import find_ring
 
@@ -33,14 +33,15 @@ def test_ring_not_outbid_by_sky_plateau(seed):
 
 
 def test_outer_sky_level_taken_off_beyond_fit():
-    # A sky 0.5 sigma off beyond 30 pixels (white noise, numpy): the median there returns to zero, the inside is kept.
-    yy, xx = np.mgrid[0:121, 0:121]
-    r = np.hypot(xx - 60, yy - 60)
-    res = np.random.default_rng(1).normal(0, 1, r.shape) + 0.5 * (r > 30)
-    out = relevel_outer_sky(res, 60, 60, 30.0, 1.0)
-    assert abs(np.median(out[r > 40])) < 0.05
-    assert np.array_equal(out[r < 30], res[r < 30])
-    assert relevel_outer_sky(np.random.default_rng(2).normal(0, 1, r.shape), 60, 60, 30.0, 1.0) is not None
+    # Sector profiles of white noise (numpy) with a sky 0.5 sigma off beyond 30 pixels: the offset taken off is that
+    # level beyond the ramp and nothing inside the fit radius; on noise alone nothing is taken off.
+    rng = np.random.default_rng(1)
+    radii = np.arange(0.25, 90, 0.5)
+    counts = np.tile(np.maximum(np.round(2 * np.pi * radii * 0.5 / 24), 1), (24, 1))
+    noise = rng.normal(size=counts.shape) * np.sqrt(counts)  # sums of unit-sigma pixels
+    off = outer_sky_offset(noise + 0.5 * (radii > 30) * counts, counts, radii, 30.0, 1.0)
+    assert off is not None and abs(off[radii > 40].mean() - 0.5) < 0.05 and off[radii < 30].max() == 0.0
+    assert outer_sky_offset(noise, counts, radii, 30.0, 1.0) is None
 
 
 def test_plateau_scored_by_height_above_outer_base():
