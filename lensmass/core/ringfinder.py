@@ -79,7 +79,9 @@ from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
 from lensmass.core.faint_refit import mark_refitted, refit_under_candidate
 from lensmass.core.lenslight import fit_lens_light, robust_sigma
+from lensmass.core.outer_sky import outer_sky_offset
 from lensmass.core.peak_extent import peak_basin
+from lensmass.core.profile_plateau import plateau_score
 from lensmass.core.progress import ProgressCallback, StopCallback, check_stop, report
 from lensmass.core.refit_hold import arcs_hold_refit
 from lensmass.core.ridge import ridge_peak
@@ -637,9 +639,14 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
     sigma = robust_sigma(box[::step, ::step])
     if not np.isfinite(sigma) or sigma <= 0:
         sigma = float(np.nanstd(box)) or 1.0
-
     grid = _sector_grid(res.shape, cx, cy, rmin, rmax, n_sectors, *(shape or (1.0, 0.0)))
     sums, counts, radii = _sector_profiles(res, grid)
+    if light is not None and light.ok:
+        # The sky beyond the lens-light fit, measured there, is taken off (lensmass.core.outer_sky): a sky the fit
+        # left a fraction of a sigma off is a plateau on which a noise bump far out reads as a ring.
+        offset = outer_sky_offset(sums, counts, radii, light.fit_radius_pix, sigma)
+        if offset is not None:
+            sums = sums - offset[None, :] * counts
     report(progress, 0.5)
     with np.errstate(invalid="ignore", divide="ignore"):
         smean = sums / counts
@@ -732,7 +739,9 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
         k = int(candidates_arr[i])
         p, ps = (top, top_s) if k in from_top else ((med, med_s) if k in from_med else (prof, prof_s))
         r0, width, left = _peak_ridge(k, radii, p, ps)
-        tried.append(_measure_candidate(float(scores_ok[i]), res, cx, cy, n_sectors, light, list(warnings), sigma,
+        # A peak on a plateau is scored by its height above it (lensmass.core.profile_plateau).
+        score = plateau_score(float(scores_ok[i]), ps, top_err if k in from_top else (med_err if k in from_med else err), k)
+        tried.append(_measure_candidate(score, res, cx, cy, n_sectors, light, list(warnings), sigma,
                                         sums, counts, smean, radii, p, (r0, width), err, shape))
         if left:
             # Its ridge left its own peak for a brighter one beside it (an unmasked star's residual): the candidate
@@ -741,7 +750,7 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
             # measured on a basin cut at a neighbour's rising wing do not replace arcs found at the neighbour
             # (tests/core/test_neighbour_outside_ring.py, seed 655903: weak arcs instead of the ring).
             r0, width, _ = _peak_ridge(k, radii, p, ps, in_basin=True)
-            basin = _measure_candidate(float(scores_ok[i]), res, cx, cy, n_sectors, light, list(warnings), sigma,
+            basin = _measure_candidate(score, res, cx, cy, n_sectors, light, list(warnings), sigma,
                                        sums, counts, smean, radii, p, (r0, width), err, shape)
             if basin.found and (basin.kind == "ring" or not tried[-1].found):
                 tried.append(basin)
