@@ -137,8 +137,13 @@ def test_picture_interval_has_a_two_sigma_tail_and_the_masses_draw_from_it(tmp_p
     r = out.radius_pix
     assert np.isclose(hi1 - r, r - lo1) and np.isclose(hi1 - r, out.radius_err_pix)  # 1 sigma: no tail
     tail = PICTURE_TAIL_SHARE * r
-    assert np.isclose(hi2 - r, np.hypot(2 * out.radius_err_pix, tail))
-    assert np.isclose(r - lo2, min(np.hypot(2 * out.radius_err_pix, tail), r))
+    # the 2 sigma sides: hypot(2 err, tail) on the error before the pictures' coverage calibration of the 1-sigma
+    # side (lensmass.core.interval_scale: k1 on the 1-sigma sides, the 2-sigma sides as they were)
+    _, _, u_hi1, _ = (v - r for v in out.interval_unscaled_pix)
+    f, k1, k2 = out.interval_scale
+    assert f == 0 and k2 == 1 and np.isclose(hi1 - r, k1 * u_hi1)
+    assert np.isclose(hi2 - r, np.hypot(2 * u_hi1, tail))
+    assert np.isclose(r - lo2, min(np.hypot(2 * u_hi1, tail), r))
     assert hi2 - r > 2 * (hi1 - r) + 0.01 * r  # wider than a normal error's 2 sigma (old main: exactly twice)
     assert any("tail term" in w for w in out.warnings)
     m = measurement_of_ring(out, image)
