@@ -19,7 +19,9 @@ RAMP_SHARE = 0.25
 RAMP_MIN_PIX = 5.0
 #: Fewest finite pixels beyond the ramp for a sky level.
 MIN_PIXELS = 500
-#: A level below this many of its errors (noise sigma times the correlation factor over sqrt(pixels)) is left alone.
+#: A level below this many of its errors is left alone (the error of a median of n values: sqrt(pi / 2) = 1.2533
+#: times the noise sigma over sqrt(n), common practice; correlated noise makes it larger, so a level near the
+#: threshold may be taken off where it is not significant: a shift of a fraction of that error beyond the fit).
 MIN_SIGNIFICANCE = 3.0
 
 

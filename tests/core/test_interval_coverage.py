@@ -64,3 +64,20 @@ def test_every_calibrated_type_is_an_answer_type_and_narrows_no_two_sigma_below_
     assert set(INTERVAL_SCALE) <= set(ANSWER_TYPES)
     for f, k1, k2 in INTERVAL_SCALE.values():
         assert f >= 0 and k1 > 0 and k2 > 0
+
+
+def test_a_pictures_lone_arc_keeps_its_arc_interval():
+    """A picture's lone or unpaired arc keeps the arc interval held at the isothermal bound theta_E >= r_arc / 2
+    (common practice: the singular isothermal sphere's images lie within 2 theta_E), not the pictures' 1-sigma
+    factor; other picture answers take it."""
+    from types import SimpleNamespace
+
+    from lensmass.core.interval_scale import answer_type
+
+    ring = SimpleNamespace(kind="ring", coverage=0.9, paired=False, error_from_images=False,
+                           lone_arc_radius_pix=float("nan"), interval_shape_pix=None)
+    lone = SimpleNamespace(**{**vars(ring), "kind": "arcs", "coverage": 0.2, "lone_arc_radius_pix": 12.0})
+    unpaired = SimpleNamespace(**{**vars(ring), "kind": "arcs", "coverage": 0.3, "interval_shape_pix": (1, 1, 1, 1)})
+    assert answer_type(ring, picture=True) == "picture" and answer_type(ring) == "full ring"
+    assert answer_type(lone, picture=True) == "lone arc" == answer_type(lone)
+    assert answer_type(unpaired, picture=True) == "unpaired arc" == answer_type(unpaired)
