@@ -8,6 +8,7 @@ import numpy as np
 from lensmass.core.arcfit import fit_circle
 from lensmass.core.errors import LensInputError
 from lensmass.core.lenslight import SERSIC_N_BOUNDS
+from lensmass.core.ring_message import STATED, quote
 from lensmass.core.ring_result import RingResult, answer_noun
 
 #: Significance (sigma) of the azimuthal ring peak needed for a confident ring. This and the three
@@ -198,9 +199,10 @@ def _calibrate(out: RingResult) -> RingResult:
     if disc_like:
         out.warnings.append("The ring is flattened along the galaxy's own major axis, as a ring in an inclined disc "
                             "is (a lensed ring around an elliptical lens is elongated across it): not confident.")
-    if single_arc and not lone:
+    if single_arc and not lone:  # an unpaired arc's interval is its calibrated spread, stated in its own warning
+        bound = "within the calibrated interval stated for it" if held else f"to about {SINGLE_ARC_SYSTEMATIC:.0%}"
         out.warnings.append(f"A single arc: it lies outside the Einstein radius by the source's offset from the lens "
-                            f"axis, so its radius bounds theta_E only to about {SINGLE_ARC_SYSTEMATIC:.0%}; fit a lens "
+                            f"axis, so its radius bounds theta_E only {bound}; fit a lens "
                             "model to the arc points (and any counter-image) for a better value.")
     return out
 
@@ -278,6 +280,6 @@ def _flag_unresolved(result: RingResult) -> RingResult:
         f"The ring is barely resolved from the lens galaxy ({why}): the lens-light model has taken part of "
         f"the ring, so the radius carries an extra {UNRESOLVED_SYSTEMATIC:.0%} systematic error and is likely "
         "too large; mark the arcs by hand to check it.")
-    result.message = (f"{answer_noun(result.kind)} at {result.radius_pix:.2f} +- {result.radius_err_pix:.2f} pixels, barely "
-                      "resolved from the lens galaxy: check it by eye before trusting it.")
+    result.message = quote(result, f"{answer_noun(result.kind)} at {STATED} pixels, barely resolved from the lens "
+                                   "galaxy: check it by eye before trusting it.")
     return result

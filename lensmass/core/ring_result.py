@@ -74,6 +74,9 @@ class RingResult:
     #: scatter and width :func:`lensmass.core.ring_confidence._calibrate` reads belong to the candidate it replaced,
     #: so their terms are not added to it.
     error_from_images: bool = False
+    #: The texts of the message and warnings that quote the answer's radius or interval, each with its template
+    #: (:mod:`lensmass.core.ring_message`: filled again from the answer once its interval is stated).
+    quoted_texts: dict[str, str] = field(default_factory=dict)
 
     def refuse(self, why: str, message: str) -> None:
         """Report no ring: ``why`` (what was seen and why it is not a ring) joins the warnings, ``message`` (the

@@ -15,7 +15,8 @@ from lensmass.core.elliptical_annuli import (ROUND_LIGHT, SIE_RIDGE_AXIS_RATIOS,
 from lensmass.core.image_cross import find_image_cross
 from lensmass.core.lone_arc import lone_arc_theta_e, lone_sigma_ratios, unpaired_sigma_ratios
 from lensmass.core.ring_confidence import CONFIDENT_SCORE, RING_COVERAGE
-from lensmass.core.ring_interval import hold_shape, interval_text
+from lensmass.core.ring_interval import hold_shape
+from lensmass.core.ring_message import STATED, STATED_BOUNDS, quote
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_sectors import BIN_PIX, unmasked_sector_share
 
@@ -101,8 +102,8 @@ def _image_cross(best: RingResult, res, rmin: float, light) -> RingResult:
     best.kind, best.paired, best.confident = "arcs", True, False
     best.error_from_images = True  # the replaced candidate's ridge scatter and width say nothing of the cross
     best.axis_ratio, best.angle_deg = float(cross.inner_pix / cross.outer_pix), float(cross.outer_angle_deg % 180.0)
-    best.message = (f"Four images in a cross around the lens, pairs at {cross.inner_pix:.2f} and {cross.outer_pix:.2f} "
-                    f"pixels: theta_E = {cross.theta_e_pix:.2f} +- {cross.theta_e_err_pix:.2f} pixels.")
+    best.message = quote(best, f"Four images in a cross around the lens, pairs at {cross.inner_pix:.2f} and "
+                               f"{cross.outer_pix:.2f} pixels: theta_E = {STATED} pixels.")
     best.warnings.append("Four compact images in a cross around the lens (a compact source near the axis of an "
                          "elongated lens or of a lens in an external shear): theta_E is the middle between an SIE's "
                          "value (Kormann, Schneider & Bartelmann 1994: the geometric mean of the two pairs' radii, "
@@ -149,13 +150,13 @@ def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
     q = arc * lone_sigma_ratios()
     hold_shape(best, [theta_e + np.sign(b - theta_e) * np.hypot(b - theta_e, k * measured)
                       for b, k in zip(q, (2, 1, 1, 2))])
-    shown = interval_text(theta_e, q, "pixels")
-    best.warnings.append(f"A lone arc at {arc:.2f} pixels on one side of the lens: an arc lies outside the Einstein "
-                         f"radius by its source's offset, which one arc does not measure, so theta_E is "
-                         f"{theta_e / arc:.2f} times its radius, {shown}: the spread of theta_E / radius over "
-                         "calibrated lone arcs, wider above than below; mark a counter-image to measure it.")
-    best.message = (f"A lone arc at {arc:.2f} pixels: theta_E about {shown} ({best.score:.1f} sigma, "
-                    f"{best.coverage:.0%} of directions).")
+    best.warnings.append(quote(best, f"A lone arc at {arc:.2f} pixels on one side of the lens: an arc lies outside "
+                                     f"the Einstein radius by its source's offset, which one arc does not measure, so "
+                                     f"theta_E is {theta_e / arc:.2f} times its radius, {STATED_BOUNDS}: the spread "
+                                     "of theta_E / radius over calibrated lone arcs with the arc's measured error, "
+                                     "wider above than below; mark a counter-image to measure it."))
+    best.message = quote(best, f"A lone arc at {arc:.2f} pixels: theta_E about {STATED_BOUNDS} ({best.score:.1f} "
+                               f"sigma, {best.coverage:.0%} of directions).")
     return best
 
 
@@ -178,8 +179,8 @@ def _counter_pair(best: RingResult) -> bool:
     best.paired = True
     best.confident = False  # one arc and a faint feature inside it: never a confident ring
     best.axis_ratio, best.angle_deg = float("nan"), float("nan")
-    best.message = (f"An arc at {arc:.2f} pixels and its counter-image at {inner:.2f} pixels on the far side of the "
-                    f"lens: theta_E = their mean, {best.radius_pix:.2f} +- {best.radius_err_pix:.2f} pixels.")
+    best.message = quote(best, f"An arc at {arc:.2f} pixels and its counter-image at {inner:.2f} pixels on the far "
+                               f"side of the lens: theta_E = their mean, {STATED} pixels.")
     best.warnings.append("An arc and a fainter counter-image inside it on the far side of the lens: the Einstein radius "
                          "is their mean radius (exact for an isothermal sphere); a lens-model fit of the two is better.")
     return True
@@ -203,10 +204,11 @@ def _unpaired_arc(best: RingResult) -> RingResult:
     q = arc * unpaired_sigma_ratios()
     best.radius_err_pix = float(np.hypot(measured, 0.5 * (q[2] - q[1])))
     hold_shape(best, [arc + np.sign(b - arc) * np.hypot(b - arc, k * measured) for b, k in zip(q, (2, 1, 1, 2))])
-    best.warnings.append(f"An arc at {arc:.2f} pixels with no counter-arc found: it may be part of a ring (theta_E at "
-                         f"its radius) or a lone arc outside the Einstein radius by its source's offset, so theta_E "
-                         f"is stated as {interval_text(arc, q, 'pixels')}, the spread of theta_E / radius over "
-                         "calibrated unpaired arcs, wider below than above; mark a counter-image to measure it.")
+    best.warnings.append(quote(best, f"An arc at {arc:.2f} pixels with no counter-arc found: it may be part of a ring "
+                                     "(theta_E at its radius) or a lone arc outside the Einstein radius by its "
+                                     f"source's offset, so theta_E is stated as {STATED_BOUNDS}, the spread of "
+                                     "theta_E / radius over calibrated unpaired arcs with the arc's measured error, "
+                                     "wider below than above; mark a counter-image to measure it."))
     return best
 
 
@@ -355,8 +357,8 @@ def _pair_of_arcs(best: RingResult, tried: list[RingResult]) -> RingResult:
         best.axis_ratio, best.angle_deg = float("nan"), float("nan")
         best.kind = "arcs"
         best.paired = True
-        best.message = (f"Arcs on opposite sides of the lens at {r1:.2f} and {r2:.2f} pixels: theta_E = their mean, "
-                        f"{radius:.2f} +- {err:.2f} pixels.")
+        best.message = quote(best, f"Arcs on opposite sides of the lens at {r1:.2f} and {r2:.2f} pixels: theta_E = "
+                                   f"their mean, {STATED} pixels.")
         best.warnings.append("Two arcs on opposite sides of the lens at different radii: the Einstein radius is their "
                              "mean radius (exact for an isothermal sphere); a lens-model fit of the arc points is better.")
         return best

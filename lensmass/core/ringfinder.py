@@ -103,6 +103,7 @@ from lensmass.core.ring_pictures import (COLOUR_CORE_PIX, COLOUR_MASK_GROW_PIX, 
                                          _undo_grey_stretch, blue_excess, colour_mask_image, colour_masks,
                                          lossy_error_scale)
 from lensmass.core.ring_interval import RING_TAIL_SHARE, state_interval
+from lensmass.core.ring_message import RADIUS, STATED, quote, restate
 from lensmass.core.ring_result import RingResult, answer_noun
 from lensmass.core.ring_sectors import (BIN_PIX, MASK_HALF_WIDTHS, _sector_grid, _sector_profiles, _smooth_profile,
                                         _top_sectors_profile, ring_pixels)
@@ -493,6 +494,7 @@ def _finish(out: RingResult, masks, given: bool, colour: bool, quality: float | 
     elif out.found and np.isfinite(out.radius_pix):
         out.interval_tail_pix = float(RING_TAIL_SHARE * out.radius_pix)
     state_interval(out, picture=colour)
+    restate(out)  # the message and warnings quote the stated interval
     return out
 
 
@@ -892,15 +894,16 @@ def _measure_candidate(score, res, cx, cy, n_sectors, light, warnings, sigma, su
         msg = (f"No convincing ring: the best candidate at {r0:.1f} pixels is {score:.1f} sigma and seen in "
                f"{coverage:.0%} of directions.")
     elif confident:
-        msg = f"{answer_noun(kind)} at {radius:.2f} +- {radius_err:.2f} pixels ({score:.0f} sigma, seen in {coverage:.0%} of directions)."
+        msg = f"{answer_noun(kind)} at {STATED} pixels ({score:.0f} sigma, seen in {coverage:.0%} of directions)."
     else:
-        msg = (f"A weak {kind} candidate at {radius:.2f} pixels ({score:.1f} sigma, {coverage:.0%} of directions): "
+        msg = (f"A weak {kind} candidate at {RADIUS} pixels ({score:.1f} sigma, {coverage:.0%} of directions): "
                "check it by eye before trusting it.")
     if found and offset is not None:
         warnings.append(f"The ring's radius about the lens centre varies as theta_E + beta cos(phi - phi_beta), a source "
                         f"{offset.amplitude:.2f} pixels off the lens axis towards {np.degrees(offset.angle_rad):.0f} "
                         "degrees from +x: theta_E is the ring fitted with that first harmonic (an offset source) taken "
                         "off its ridge.")
-    return RingResult(found, confident, kind, float(radius), float(radius_err), score, coverage, cx, cy, float(q),
-                      float(angle), float(rms), px, py, radii, prof, err, sigma, res, light, msg, warnings,
-                      float(width))
+    out = RingResult(found, confident, kind, float(radius), float(radius_err), score, coverage, cx, cy, float(q),
+                     float(angle), float(rms), px, py, radii, prof, err, sigma, res, light, "", warnings, float(width))
+    out.message = quote(out, msg)  # filled again once the interval is stated (_finish)
+    return out
