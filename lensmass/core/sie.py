@@ -208,10 +208,13 @@ def mean_convergence_radius(theta_e, q):
     f over the circle, f = sqrt(q) / sqrt(q^2 cos^2 + sin^2); that integral is 4 sqrt(q) K(1 - q^2)
     (K the complete elliptic integral of the first kind, scipy ``ellipk`` with parameter m), so
     R = theta_E (2 / pi) sqrt(q) K(1 - q^2); R = theta_E for q = 1. The external shear adds no mean
-    convergence. Equal to theta_E within 1.3% for q >= 0.5.
+    convergence. Short of theta_E by 0.8% at q = 0.7, 2.9% at 0.5 and 5.0% at 0.4; it is also the arithmetic mean
+    radius of the ridge of the ring of a source on the axis (tests/core/test_ring_mean_radius.py).
 
     Examples
     --------
+    >>> round(float(mean_convergence_radius(1.0, 0.5)), 4)
+    0.9708
     >>> float(mean_convergence_radius(1.0, 1.0))
     1.0
     """
