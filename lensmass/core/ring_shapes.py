@@ -283,7 +283,8 @@ def _elliptical_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, 
     ell.warnings.append(f"The ring is elongated: it was measured in elliptical annuli of axis ratio "
                         f"{shape.axis_ratio:.2f} (major axis at {np.degrees(shape.angle_rad):.0f} degrees from +x), "
                         f"which made it {shape.score / max(shape.circular_score, 1e-9):.1f} times sharper than circles; "
-                        "the radius is sqrt(a b) of that ellipse (the SIE's intermediate-axis theta_E).")
+                        "the radius is sqrt(a b) of that ellipse, close to the circular Einstein radius (an SIE's "
+                        "intermediate-axis theta_E is up to 5% larger for a mass of axis ratio 0.4).")
     return ell
 
 
@@ -321,7 +322,8 @@ def _across_light_pass(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings
     ell.confident = bool(ell.confident and best.confident)
     ell.warnings.append(f"The ring was measured in elliptical annuli of axis ratio {ring_q:.2f} across the lens light's "
                         "major axis (an elongated SIE's ring), where it stands out better than in circles; the radius "
-                        "is sqrt(a b), the SIE's intermediate-axis theta_E.")
+                        "is sqrt(a b), close to the circular Einstein radius (an SIE's intermediate-axis theta_E is up to "
+                        "5% larger for a mass of axis ratio 0.4).")
     return ell
 
 
