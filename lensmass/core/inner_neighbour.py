@@ -52,6 +52,8 @@ MAX_TANGENTIAL_STRETCH = 1.4
 MAX_RE_FWHM = 1.5
 #: ... or this share of its distance from the lens.
 MAX_RE_OF_DISTANCE = 0.3
+#: How the note of a subtracted neighbour begins (carried over to later lens-light fits by :func:`subtraction_notes`).
+NOTE_START = "A neighbour galaxy joined to the lens's light"
 #: Largest azimuthal-mean residual at the blob's distance (the blob left out), as a share of the ring's peak.
 MAX_RING_SHARE = 0.5
 
@@ -103,7 +105,7 @@ def subtract_inner_neighbour(img, light, first: RingResult, rmin: float, rmax: f
                                should_stop=should_stop)
         if not refit.ok:
             return img, light, first
-        note = (f"A neighbour galaxy joined to the lens's light (at {comp.x:.1f}, {comp.y:.1f}; R_e "
+        note = (f"{NOTE_START} (at {comp.x:.1f}, {comp.y:.1f}; R_e "
                 f"{comp.r_eff_pix:.1f} pixels) was fitted as a Sersic and subtracted.")
         refit.notes.append(note)
         again = ring_search(refit.residual, refit.center_x, refit.center_y, rmin, rmax, n_sectors, refit,
@@ -112,6 +114,11 @@ def subtract_inner_neighbour(img, light, first: RingResult, rmin: float, rmax: f
             return img, light, first
         return less, refit, again
     return img, light, first
+
+
+def subtraction_notes(light) -> list[str]:
+    """The notes of ``light`` saying a neighbour was subtracted (a refit of the lens light starts its own notes)."""
+    return [n for n in light.notes if n.startswith(NOTE_START)]
 
 
 def tangential_stretch(residual: np.ndarray, x0: float, y0: float, cx: float, cy: float, fwhm: float) -> float:
