@@ -21,7 +21,8 @@ criterion prefers it strongly). A blob is taken for a galaxy, not a piece of the
 The first such blob's model is subtracted, the lens light refitted on what is left (as
 :mod:`lensmass.core.companion_pass` does for a neighbour the first search took for arcs) and the ring searched on the
 new residual; that search is kept when its ring lies a seeing FWHM inside the blob (a neighbour outside the ring
-pulled it outward; a ring found beyond the blob is another object's light, not the lens's ring).
+pulled it outward; a ring found beyond the blob is another object's light, not the lens's ring) and is seen in as
+many directions as the first answer or more (a knot of an elongated ring, seen round, takes ring light with it).
 """
 
 from __future__ import annotations
@@ -110,7 +111,8 @@ def subtract_inner_neighbour(img, light, first: RingResult, rmin: float, rmax: f
         refit.notes.append(note)
         again = ring_search(refit.residual, refit.center_x, refit.center_y, rmin, rmax, n_sectors, refit,
                             list(refit.notes), None, should_stop, elliptical=False)
-        if not (again.found and again.radius_pix + refit.psf_fwhm_pix <= comp.distance_pix):
+        if not (again.found and again.radius_pix + refit.psf_fwhm_pix <= comp.distance_pix
+                and again.coverage >= first.coverage):
             return img, light, first
         return less, refit, again
     return img, light, first
