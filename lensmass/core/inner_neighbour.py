@@ -22,7 +22,9 @@ The first such blob's model is subtracted, the lens light refitted on what is le
 :mod:`lensmass.core.companion_pass` does for a neighbour the first search took for arcs) and the ring searched on the
 new residual; that search is kept when its ring lies a seeing FWHM inside the blob (a neighbour outside the ring
 pulled it outward; a ring found beyond the blob is another object's light, not the lens's ring) and is seen in as
-many directions as the first answer or more (a knot of an elongated ring, seen round, takes ring light with it).
+many directions as the first answer or more (a knot of an elongated ring, seen round, takes ring light with it),
+and in :data:`~lensmass.core.ring_confidence.CONFIDENT_COVERAGE` of them at least (more than one compact image: a
+lone arc, compact and round enough, is itself such a blob, and what is left once it is taken away is not the ring).
 """
 
 from __future__ import annotations
@@ -35,6 +37,7 @@ from scipy.ndimage import gaussian_filter
 from lensmass.core.companion_light import fit_companion, ring_light_at_blob
 from lensmass.core.lenslight import fit_lens_light
 from lensmass.core.peak_finding import local_peaks
+from lensmass.core.ring_confidence import CONFIDENT_COVERAGE
 from lensmass.core.ring_result import RingResult
 
 #: A blob is a candidate when its PSF-smoothed residual peak is this many noise sigma.
@@ -112,7 +115,7 @@ def subtract_inner_neighbour(img, light, first: RingResult, rmin: float, rmax: f
         again = ring_search(refit.residual, refit.center_x, refit.center_y, rmin, rmax, n_sectors, refit,
                             list(refit.notes), None, should_stop, elliptical=False)
         if not (again.found and again.radius_pix + refit.psf_fwhm_pix <= comp.distance_pix
-                and again.coverage >= first.coverage):
+                and again.coverage >= max(first.coverage, CONFIDENT_COVERAGE)):
             return img, light, first
         return less, refit, again
     return img, light, first
