@@ -77,6 +77,7 @@ from lensmass.core.companion_pass import companion_pass
 from lensmass.core.core_residual import core_replaces_ring, ring_replaces_core
 from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
+from lensmass.core.inner_neighbour import subtract_inner_neighbour, subtraction_notes
 from lensmass.core.faint_refit import mark_refitted, refit_under_candidate
 from lensmass.core.lenslight import fit_lens_light, robust_sigma
 from lensmass.core.outer_sky import outer_sky_offset
@@ -512,7 +513,11 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
     first = _search(light.residual, cx, cy, rmin, rmax, n_sectors, light, list(light.notes), None, should_stop,
                     elliptical=False)
     if light.ok and follow_shape:
+        img0 = img
         img, light, first = companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop, _search)
+        if img is img0:  # no companion subtracted: a neighbour joined to the lens's light (inner_neighbour)
+            img, light, first = subtract_inner_neighbour(img, light, first, rmin, rmax, n_sectors, should_stop,
+                                                         _search)
         cx, cy = light.center_x, light.center_y
 
     def first_answer() -> RingResult:
@@ -542,6 +547,7 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
                             progress=lambda f: report(progress, 0.45 + 0.3 * f), should_stop=should_stop)
     if not light2.ok:
         return first_answer()
+    light2.notes.extend(subtraction_notes(light))  # the image searched is still the one with the neighbour subtracted
     second = _search(light2.residual, light2.center_x, light2.center_y, rmin, rmax, n_sectors, light2,
                      list(light2.notes) + ["Lens light refitted with the ring masked."],
                      lambda f: report(progress, 0.75 + 0.25 * f), should_stop, elliptical=False)
