@@ -10,41 +10,17 @@ lensmass.core.interval_scale (full and partial rings, image crosses) 35 of 47 (7
 answers; the radii are the same).
 """
 
-import importlib.util
-import sys
-from pathlib import Path
-
-import numpy as np
 from scipy.stats import norm
 
-from lensmass.core.einstein import find_ring_on_image
-from lensmass.core.errors import LensInputError
 from lensmass.core.interval_scale import ANSWER_TYPES, INTERVAL_SCALE
 from lensmass.core.ring_interval import truth_inside
-from lensmass.io.images import load_image
-
-ROOT = Path(__file__).resolve().parents[2]
-_spec = importlib.util.spec_from_file_location("stress_fields", ROOT / "benchmarks" / "stress_fields.py")
-stress = importlib.util.module_from_spec(_spec)
-sys.modules.setdefault("stress_fields", stress)
-_spec.loader.exec_module(stress)
+from tests.core.stress_route import found_answers
 
 FIRST, BASE, N = 879294, 879000, 56
 
 
 def _answers(tmp_path):
-    for seed in range(FIRST, FIRST + N):
-        f = stress.make_stress_field(seed, stress.LENS_KINDS[(seed - BASE) % 7])
-        rng = np.random.default_rng([f.truth["seed"], 99])
-        path = tmp_path / "f.fits"
-        int16 = bool(rng.uniform() < 1 / 3)
-        stress.write_fits(f, path, int16=int16, rotate_deg=float(rng.uniform(0, 360)))
-        try:
-            out = find_ring_on_image(load_image(path))
-        except LensInputError:
-            continue
-        if out.found:
-            yield out, float(f.truth["radius_pix"])
+    return found_answers(tmp_path, FIRST, N, BASE)
 
 
 def test_one_sigma_is_not_too_wide_and_two_sigma_holds(tmp_path):

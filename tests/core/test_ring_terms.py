@@ -13,17 +13,12 @@ generator (lensmass.core.realistic_fields), seeds 926144-926227, main 19 of 34 (
 
 from __future__ import annotations
 
-import importlib.util
 import math
-import sys
-from pathlib import Path
 from types import SimpleNamespace
 
 import numpy as np
 from scipy.stats import norm
 
-from lensmass.core.einstein import find_ring_on_image
-from lensmass.core.errors import LensInputError
 from lensmass.core.interval_scale import INTERVAL_SCALE, answer_type
 from lensmass.core.lone_arc import UNPAIRED_2SIGMA_LOW_RATIO
 from lensmass.core.realistic_fields import LENS_KINDS, make_cutout
@@ -32,13 +27,7 @@ from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_terms import (MEASURED_ERROR_SHARE, PARTIAL_RING_TAIL_SHARE, RING_ERROR_FLOOR,
                                       RING_SCATTER_SHARE, ring_error)
 from lensmass.core.ringfinder import find_ring
-from lensmass.io.images import load_image
-
-ROOT = Path(__file__).resolve().parents[2]
-_spec = importlib.util.spec_from_file_location("stress_fields", ROOT / "benchmarks" / "stress_fields.py")
-stress = importlib.util.module_from_spec(_spec)
-sys.modules.setdefault("stress_fields", stress)
-_spec.loader.exec_module(stress)
+from tests.core.stress_route import found_answers
 
 P1 = norm.cdf(1) - norm.cdf(-1)  # 0.6827 (scipy.stats.norm)
 P2 = norm.cdf(2) - norm.cdf(-2)  # 0.9545
@@ -49,18 +38,7 @@ def _is_ring(out) -> bool:
 
 
 def _stress_rings(tmp_path):
-    for seed in range(924000, 924070):
-        f = stress.make_stress_field(seed, stress.LENS_KINDS[(seed - 924000) % 7])
-        rng = np.random.default_rng([f.truth["seed"], 99])
-        path = tmp_path / "f.fits"
-        int16 = bool(rng.uniform() < 1 / 3)
-        stress.write_fits(f, path, int16=int16, rotate_deg=float(rng.uniform(0, 360)))
-        try:
-            out = find_ring_on_image(load_image(path))
-        except LensInputError:
-            continue
-        if out.found and _is_ring(out):
-            yield out, float(f.truth["radius_pix"])
+    return ((out, truth) for out, truth in found_answers(tmp_path, 924000, 70, 924000) if _is_ring(out))
 
 
 def _our_rings():

@@ -94,3 +94,17 @@ def wait_idle(qtbot, window, timeout: int = 20000) -> None:
 
 def label_float(label) -> float:
     return float(label.text().replace(",", ""))
+
+
+def click_find_ring(qtbot, window, timeout: int = 120000):
+    """Click the ring finder's button as a user would and return the answer the window received."""
+    from PySide6.QtCore import Qt
+
+    answers = []
+    original = window._ring_found
+    window._ring_found = lambda ring: (answers.append(ring), original(ring))
+    qtbot.mouseClick(window.ring_button, Qt.LeftButton)
+    qtbot.waitUntil(lambda: bool(answers), timeout=timeout)
+    wait_idle(qtbot, window, timeout)
+    window._ring_found = original
+    return answers[0]

@@ -9,7 +9,7 @@ import pytest
 
 from lensmass.core.realistic_fields import make_cutout
 from lensmass.io.cutout_files import write_cutout_fits
-from tests.gui.conftest import click_image, wait_idle
+from tests.gui.conftest import click_find_ring, click_image, wait_idle
 
 
 @pytest.fixture
@@ -21,14 +21,7 @@ def star_field(tmp_path):
 
 
 def _find_ring(qtbot, window):
-    answers = []
-    original = window._ring_found
-    window._ring_found = lambda ring: (answers.append(ring), original(ring))
-    qtbot.mouseClick(window.ring_button, Qt.LeftButton)
-    qtbot.waitUntil(lambda: bool(answers), timeout=120000)
-    wait_idle(qtbot, window, 120000)
-    window._ring_found = original
-    return answers[0]
+    return click_find_ring(qtbot, window)
 
 
 def test_window_ring_is_the_command_lines_after_fit_lens_light(qtbot, make_window, star_field):

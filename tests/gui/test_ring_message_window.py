@@ -11,13 +11,12 @@ from __future__ import annotations
 import re
 
 from astropy.io import fits
-from PySide6.QtCore import Qt
 
 from lensmass.core.einstein import find_ring_on_image
 from lensmass.core.ring_interval import interval_bounds, interval_text
 from lensmass.io.images import load_image
 from tests.core.test_ring_message import PRINTED, assert_quotes_stated_interval, ring_field
-from tests.gui.conftest import wait_idle
+from tests.gui.conftest import click_find_ring
 
 
 def test_the_windows_ring_answer_is_the_apis_stated_interval(qtbot, make_window, tmp_path):
@@ -29,15 +28,8 @@ def test_the_windows_ring_answer_is_the_apis_stated_interval(qtbot, make_window,
 
     window = make_window(load_panels=True)
     assert window.open_path(str(path))
-    answers = []
-    original = window._ring_found
-    window._ring_found = lambda ring: (answers.append(ring), original(ring))
-    qtbot.mouseClick(window.ring_button, Qt.LeftButton)
-    qtbot.waitUntil(lambda: bool(answers), timeout=120000)
-    wait_idle(qtbot, window, 120000)
-    window._ring_found = original
+    ring = click_find_ring(qtbot, window)
     shown = window.statusBar().currentMessage()
-    ring = answers[0]
     assert ring.message == api.message and interval_bounds(ring) == interval_bounds(api)
     assert interval_text(api.radius_pix, interval_bounds(api), "px") in shown, shown
     m = re.search(r"found at (\d+\.\d\d) px \(1 sigma (\d+\.\d\d)-(\d+\.\d\d)", shown)
