@@ -79,6 +79,7 @@ from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
 from lensmass.core.inner_neighbour import subtract_inner_neighbour, subtraction_notes
 from lensmass.core.faint_refit import mark_refitted, refit_under_candidate
+from lensmass.core.inward_ridge import left_for_core
 from lensmass.core.lenslight import fit_lens_light, robust_sigma
 from lensmass.core.outer_sky import outer_sky_offset
 from lensmass.core.peak_extent import peak_basin
@@ -763,7 +764,10 @@ def _search(res, cx, cy, rmin, rmax, n_sectors, light, warnings, progress, shoul
             r0, width, _ = _peak_ridge(k, radii, p, ps, in_basin=True)
             basin = _measure_candidate(score, res, cx, cy, n_sectors, light, list(warnings), sigma,
                                        sums, counts, smean, radii, p, (r0, width), err, shape)
-            if basin.found and (basin.kind == "ring" or not tried[-1].found):
+            if left_for_core(tried[-1], basin):
+                # Its ridge ran down to the lens core's residual: the basin's ring replaces it (inward_ridge).
+                tried[-1] = basin
+            elif basin.found and (basin.kind == "ring" or not tried[-1].found):
                 tried.append(basin)
     report(progress, 1.0)
     best = _choose(tried)
