@@ -73,15 +73,6 @@ MEASURES = tuple(LONE_ARC_LOG_RATIO_QUANTILES)
 #: seeds 645000-645489 and 646000-646139: 78 unpaired arcs, 56 stress and 22 ours, 0.577).
 UNPAIRED_1SIGMA_LOW_RATIO = 0.58
 UNPAIRED_FLOOR_CALIBRATION = "h21c: 15.87% quantile of unpaired arc-lens answers, seeds 645000-645489, 646000-646139"
-#: The ``"unpaired"`` interval's 2-sigma lower side reaches down to at least this share of the radius
-#: (:func:`unpaired_sigma_ratios`). An arc seen without a counter-image may come from a source outside the caustic,
-#: imaged once: for an isothermal sphere its one image lies at theta_E + beta with beta > theta_E, beyond 2 theta_E
-#: (common practice), so theta_E / radius has no isothermal lower bound there. This value is the 2.275% quantile of
-#: theta_E / radius over the unpaired answers on arc lenses, each field maker weighted alike (as
-#: :data:`UNPAIRED_1SIGMA_LOW_RATIO`; benchmarks/calibrate_arc_intervals.py's weighting), h28d tuning seeds
-#: 924000-924293 (stress, 67 answers, its own 2.275% quantile 0.36) and 926000-926239 (ours, 26, 0.56): 0.39; the
-#: table's own 2-sigma side was 0.45, under which 6 of 94 unpaired stress answers fell (3 with this one).
-UNPAIRED_2SIGMA_LOW_RATIO = 0.39
 #: The ``"ridge"`` interval's 1-sigma lower side reaches down to at least this share of the arc's radius
 #: (:func:`lone_sigma_ratios`): the isothermal bound. For an isothermal sphere the bright image lies at theta_E + beta
 #: and the counter-image at theta_E - beta, |mu-| / mu+ = (1 - b) / (1 + b) for b = beta / theta_E < 1 (common
@@ -113,28 +104,27 @@ def lone_arc_ratio_quantiles(probabilities, measure: str = "points") -> np.ndarr
     return np.exp(np.interp(probabilities, LONE_ARC_PROBABILITIES, _table(measure)))
 
 
-def _sigma_ratios(measure: str, low_1sigma: float, low_2sigma: float = 1.0) -> np.ndarray:
+def _sigma_ratios(measure: str, low_1sigma: float) -> np.ndarray:
     """The ``measure`` table's ratios at the -2, -1, +1, +2 sigma probabilities, the 1-sigma lower side no higher
-    than ``low_1sigma`` and the 2-sigma one no higher than the 1-sigma one nor ``low_2sigma``."""
+    than ``low_1sigma`` and the 2-sigma one no higher than the 1-sigma one."""
     q = lone_arc_ratio_quantiles(SIGMA_PROBABILITIES, measure)
     q[1] = min(q[1], low_1sigma)
-    q[0] = min(q[0], q[1], low_2sigma)
+    q[0] = min(q[0], q[1])
     return q
 
 
 def unpaired_sigma_ratios() -> np.ndarray:
     """theta_E / radius of an unpaired arc at the -2, -1, +1, +2 sigma probabilities
     (:data:`lensmass.core.ring_interval.SIGMA_PROBABILITIES`): the ``"unpaired"`` table's quantiles, the 1-sigma lower
-    side no higher than :data:`UNPAIRED_1SIGMA_LOW_RATIO` and the 2-sigma one no higher than the 1-sigma one nor
-    :data:`UNPAIRED_2SIGMA_LOW_RATIO`.
+    side no higher than :data:`UNPAIRED_1SIGMA_LOW_RATIO` and the 2-sigma one no higher than the 1-sigma one.
 
     Examples
     --------
     >>> lo2, lo1, hi1, hi2 = unpaired_sigma_ratios()
-    >>> bool(lo2 <= 0.39 < lo1 <= 0.58 < 1.0 < hi1 < hi2)
+    >>> bool(lo2 <= lo1 <= 0.58 < 1.0 < hi1 < hi2)
     True
     """
-    return _sigma_ratios("unpaired", UNPAIRED_1SIGMA_LOW_RATIO, UNPAIRED_2SIGMA_LOW_RATIO)
+    return _sigma_ratios("unpaired", UNPAIRED_1SIGMA_LOW_RATIO)
 
 
 def lone_sigma_ratios() -> np.ndarray:
@@ -184,6 +174,6 @@ def lone_arc_theta_e_draws(x, y, center_x: float, center_y: float, n: int = 4000
 
 
 __all__ = ["LONE_1SIGMA_LOW_RATIO", "LONE_ARC_LOG_RATIO_QUANTILES", "LONE_ARC_PROBABILITIES", "MEASURES",
-           "UNPAIRED_1SIGMA_LOW_RATIO", "UNPAIRED_2SIGMA_LOW_RATIO",
+           "UNPAIRED_1SIGMA_LOW_RATIO",
            "UNPAIRED_CALIBRATION", "UNPAIRED_FLOOR_CALIBRATION", "lone_arc_ratio_quantiles", "lone_arc_theta_e",
            "lone_arc_theta_e_draws", "lone_sigma_ratios", "unpaired_sigma_ratios"]

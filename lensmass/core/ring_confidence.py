@@ -7,11 +7,9 @@ import numpy as np
 
 from lensmass.core.arcfit import fit_circle
 from lensmass.core.errors import LensInputError
-from lensmass.core.interval_scale import answer_type
 from lensmass.core.lenslight import SERSIC_N_BOUNDS
 from lensmass.core.ring_message import STATED, quote
 from lensmass.core.ring_result import RingResult, answer_noun
-from lensmass.core.ring_terms import ring_error
 
 #: Significance (sigma) of the azimuthal ring peak needed for a confident ring. This and the three
 #: shape limits below were set on 60 generated non-lenses (spirals, ring galaxies, pairs, star +
@@ -136,14 +134,11 @@ UNRESOLVED_PSF_RATIO = 0.9
 UNRESOLVED_SYSTEMATIC = 0.08
 
 
-def _calibrate(out: RingResult, picture: bool = False) -> RingResult:
+def _calibrate(out: RingResult) -> RingResult:
     """The calibrated radius error and the calibrated "confident" (inject-and-recover, see the constants).
 
-    A ring (seen in at least :data:`RING_COVERAGE` of the directions, no pair) on a FITS image takes the error of
-    :func:`lensmass.core.ring_terms.ring_error` (a floor, a share of the error measured so far, a share of the ridge's
-    scatter). A pair of arcs on opposite sides, and a ring on an 8-bit ``picture`` (whose coverage calibration,
-    :mod:`lensmass.core.interval_scale`, was set on these terms), get a floor of :data:`RING_FLOOR` of the radius and
-    the terms of what the finder sees
+    A ring (seen in at least :data:`RING_COVERAGE` of the directions) or a pair of arcs on opposite
+    sides gets a floor of :data:`RING_FLOOR` of the radius and the terms of what the finder sees
     (:func:`_seen_terms`: the ridge's scatter, a thickness beyond twice the seeing); a single arc lies outside theta_E by
     the source's offset from the lens axis, which nothing in one arc measures, so it carries
     :data:`SINGLE_ARC_SYSTEMATIC` of its radius and is never confident. A confident ring is
@@ -165,12 +160,9 @@ def _calibrate(out: RingResult, picture: bool = False) -> RingResult:
     light = out.lens_light
     seeing = float(light.psf_fwhm_pix) if light is not None and light.ok else float("nan")
     psf = max(seeing, SAMPLING_FWHM_PIX) if np.isfinite(seeing) else seeing  # no ring is sampled thinner than pixels
-    if not picture and answer_type(out) in ("full ring", "partial ring"):
-        out.radius_err_pix = ring_error(out.radius_pix, out.radius_err_pix, out.fit_rms_pix)
-    else:
-        out.radius_err_pix = float(np.hypot(out.radius_err_pix, floor * out.radius_pix))
-        if not (lone or single_arc or out.error_from_images):  # an image cross's ridge terms are another candidate's
-            out.radius_err_pix = float(np.hypot(out.radius_err_pix, _seen_terms(out, psf)))
+    out.radius_err_pix = float(np.hypot(out.radius_err_pix, floor * out.radius_pix))
+    if not (lone or single_arc or out.error_from_images):  # an image cross's ridge terms are another candidate's
+        out.radius_err_pix = float(np.hypot(out.radius_err_pix, _seen_terms(out, psf)))
     thin = not np.isfinite(psf) or out.ring_width_pix <= CONFIDENT_MAX_WIDTH_PSF * psf
     too_thin = bool(np.isfinite(seeing) and np.isfinite(out.ring_width_pix)
                     and out.ring_width_pix < CONFIDENT_MIN_WIDTH_PSF * seeing)

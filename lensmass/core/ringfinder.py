@@ -104,10 +104,8 @@ from lensmass.core.ring_pictures import (COLOUR_CORE_PIX, COLOUR_MASK_GROW_PIX, 
                                          _outside_picture_core, _refuse_core_residual, _stretched_grey_search,
                                          _undo_grey_stretch, blue_excess, colour_mask_image, colour_masks,
                                          lossy_error_scale)
-from lensmass.core.interval_scale import answer_type
 from lensmass.core.ring_interval import RING_TAIL_SHARE, state_interval
 from lensmass.core.ring_message import RADIUS, STATED, quote, restate
-from lensmass.core.ring_terms import ring_tail_share
 from lensmass.core.ring_result import RingResult, answer_noun
 from lensmass.core.ring_sectors import (BIN_PIX, MASK_HALF_WIDTHS, _sector_grid, _sector_profiles, _smooth_profile,
                                         _top_sectors_profile, ring_pixels)
@@ -469,7 +467,7 @@ def _finish(out: RingResult, masks, given: bool, colour: bool, quality: float | 
     """Report the centre and the masks; calibrate the error; widen it for an 8-bit stretched picture
     (and scale it for a lossy-compressed one)."""
     out.masks = masks
-    out = _calibrate(out, picture=colour)
+    out = _calibrate(out)
     if masks is not None:
         out.center_source = masks.center_source
         out.center_hint = masks.center_hint
@@ -496,8 +494,7 @@ def _finish(out: RingResult, masks, given: bool, colour: bool, quality: float | 
                                 "FITS cutout of the same field measures better.")
         add_picture_tail(out)
     elif out.found and np.isfinite(out.radius_pix):
-        share = ring_tail_share(out.coverage, RING_TAIL_SHARE) if answer_type(out) == "partial ring" else RING_TAIL_SHARE
-        out.interval_tail_pix = float(share * out.radius_pix)
+        out.interval_tail_pix = float(RING_TAIL_SHARE * out.radius_pix)
     state_interval(out, picture=colour)
     restate(out)  # the message and warnings quote the stated interval
     return out
