@@ -38,7 +38,7 @@ import numpy as np
 from scipy.ndimage import gaussian_filter
 
 from lensmass.core.companion_light import fit_companion, ring_light_at_blob
-from lensmass.core.lenslight import fit_lens_light
+from lensmass.core.lenslight import PSF_SIGMA_MIN_PIX, fit_lens_light
 from lensmass.core.peak_finding import local_peaks
 from lensmass.core.ring_confidence import CONFIDENT_COVERAGE
 from lensmass.core.ring_result import RingResult
@@ -61,6 +61,10 @@ MAX_RE_FWHM = 1.5
 MAX_RE_OF_DISTANCE = 0.3
 #: How the note of a subtracted neighbour begins (carried over to later lens-light fits by :func:`subtraction_notes`).
 NOTE_START = "A neighbour galaxy joined to the lens's light"
+#: The lens-light fit's PSF FWHM at its lower bound (pixels): the seeing was not measured, and a lensed arc's own
+#: compact image passed the blob tests in its place (tests/core/test_ring_interval.py's lone arc, subtracted as a
+#: "neighbour" at 1.3 theta_E until this guard).
+PSF_FWHM_FLOOR_PIX = 1.01 * 2 * np.sqrt(2 * np.log(2)) * PSF_SIGMA_MIN_PIX
 #: Largest azimuthal-mean residual at the blob's distance (the blob left out), as a share of the ring's peak.
 MAX_RING_SHARE = 0.5
 
@@ -90,6 +94,8 @@ def subtract_inner_neighbour(img, light, first: RingResult, rmin: float, rmax: f
     """``img``, ``light`` and ``first``, or, when a round compact blob outside the first answer's ring passes the
     module's tests, the image less its Sersic model, the lens light refitted on it and the search of its residual."""
     if not (first.found and light.ok and np.isfinite(light.psf_fwhm_pix) and light.noise_sigma > 0):
+        return img, light, first
+    if light.psf_fwhm_pix <= PSF_FWHM_FLOOR_PIX:  # no measured seeing: "compact" and "round" mean nothing
         return img, light, first
     fwhm, cx, cy = light.psf_fwhm_pix, light.center_x, light.center_y
     r_min = max(MIN_DISTANCE_FWHM * fwhm, MIN_DISTANCE_OF_RING * first.radius_pix)
