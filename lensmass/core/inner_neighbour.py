@@ -59,6 +59,8 @@ MAX_TANGENTIAL_STRETCH = 1.4
 MAX_RE_FWHM = 1.5
 #: ... or this share of its distance from the lens.
 MAX_RE_OF_DISTANCE = 0.3
+#: How the companion pass's notes of a subtracted galaxy end ("... was fitted as a (second) Sersic and subtracted.").
+SUBTRACTED_END = "Sersic and subtracted."
 #: How the note of a subtracted neighbour begins (carried over to later lens-light fits by :func:`subtraction_notes`).
 NOTE_START = "A neighbour galaxy joined to the lens's light"
 #: The lens-light fit's PSF FWHM at its lower bound (pixels): the seeing was not measured, and a lensed arc's own
@@ -131,8 +133,10 @@ def subtract_inner_neighbour(img, light, first: RingResult, rmin: float, rmax: f
 
 
 def subtraction_notes(light) -> list[str]:
-    """The notes of ``light`` saying a neighbour was subtracted (a refit of the lens light starts its own notes)."""
-    return [n for n in light.notes if n.startswith(NOTE_START)]
+    """The notes of ``light`` saying a neighbour was subtracted, by this module or by
+    :mod:`lensmass.core.companion_pass` (a refit of the lens light starts its own notes; the answer must still name
+    every model taken off the image it searched)."""
+    return [n for n in light.notes if n.startswith(NOTE_START) or n.endswith(SUBTRACTED_END)]
 
 
 def tangential_stretch(residual: np.ndarray, x0: float, y0: float, cx: float, cy: float, fwhm: float) -> float:
