@@ -107,7 +107,7 @@ def companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop, ring_s
         where = f"A galaxy just outside the ring (at {comp.x:.1f}, {comp.y:.1f}; R_e {comp.r_eff_pix:.1f} pixels), "
         outside = where + ("whose light had moved the first search's answer outward or hidden the ring, was fitted as "
                            "a Sersic and subtracted." if pulled else
-                           "was fitted as a Sersic and subtracted before the ring was measured." if held else
+                           "whose light the later fits could take for the ring's, was fitted as a Sersic and subtracted." if held else
                            "its light left in the lens's and first taken for arcs, was fitted as a Sersic and subtracted.")
         again.warnings = [outside if w == note else w for w in again.warnings]
         note = outside
