@@ -3,15 +3,15 @@
 The half-maximum flux fraction (:data:`lensmass.core.cutout_masks.STAR_HALFMAX_FRACTION`) tells stars under a
 Gaussian or Moffat PSF from galaxies, but a space-like PSF (an Airy core with a faint broad halo and diffraction
 spikes) puts much of a star's light far outside its core: such stars hold only 27-33% inside their half maximum
-(stress tuning seeds 962000-962059, ring+star: 14 stars under the space-like PSF, 8 of them taken for galaxies).
+(stress tuning seeds 962000-962059, ring+star: 14 stars under the space-like PSF, 12 of them taken for galaxies).
 What still marks them is the core: a point source's light falls from half maximum to a few percent of its peak
 within about one more FWHM (an Airy core reaches its first dark ring at 1.2 FWHM; common practice), while a
 barely resolved galaxy of the same half-maximum share keeps 15-25% of its peak there.
 
 :func:`wing_ratio` is the median light 1.6-2.4 half-maximum radii from the peak over the peak: a scale taken
 from the source's own half-maximum size, so the test follows whatever PSF the image has. Measured on the
-1-pixel-smoothed stress cutouts: stars 0.05-0.13 (space-like PSF 0.08-0.10), the round neighbour galaxies of
-half-maximum share 0.23-0.36 measured 0.13-0.23 (ring+neighbour seeds 962300-962349).
+1-pixel-smoothed stress cutouts (962000-962059): stars mostly 0.04-0.12 (space-like PSF 0.06-0.09), while the
+round neighbour galaxies of half-maximum share 0.25-0.33 measured 0.14 and 0.17 (ring+neighbour seeds 962300-962349).
 """
 
 from __future__ import annotations
