@@ -37,6 +37,7 @@ from scipy.ndimage import binary_dilation, gaussian_filter
 from lensmass.core.cutout_cleaning import SATURATED_MIN_PIXELS, saturated_pixels
 from lensmass.core.errors import LensInputError
 from lensmass.core.peak_finding import local_peaks
+from lensmass.core.point_sources import steep_as_point_source
 from lensmass.core.segment_geometry import moment_shape, saddle_level, touching_labels
 
 #: Segmentation threshold in units of the pixel noise (on the lightly smoothed image).
@@ -225,6 +226,10 @@ def segment_objects(image: np.ndarray, noise_sigma: float, *, colour: np.ndarray
             if (not rivals or o.peak_snr >= STAR_BLEND_PEAK_RATIO * max(rivals)
                     or o.elongation <= STAR_ROUND_ELONGATION):
                 o.kind = "star"
+        elif (o.elongation <= STAR_ROUND_ELONGATION and o.peak_snr >= MASK_MIN_PEAK_SNR and _far_from_centre(o, img.shape)
+              and steep_as_point_source(sm, o.x, o.y, o.halfmax_diameter_pix, o.peak_snr * noise_sigma,
+                                        o.halfmax_fraction)):
+            o.kind = "star"  # a round source as steep as a point source under a halo PSF (lensmass.core.point_sources)
     return labels, objects
 
 
