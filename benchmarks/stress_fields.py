@@ -57,6 +57,9 @@ class StressField:
     truth: dict = field(default_factory=dict)
     features: list[str] = field(default_factory=list)
     lens_light: np.ndarray | None = None  # the lens galaxy's own light (bulge, disc), blurred, noise-free, image units
+    #: The other lights put in, blurred, noise-free, image units, for oracles (the image minus one of them is the field
+    #: without it, up to the noise it added): "neighbour", "companion" (None when absent), "star", "arc" (zeros).
+    parts: dict = field(default_factory=dict)
 
 
 def _sersic(xx, yy, re, n, q, ang_rad, x0, y0):
@@ -157,6 +160,8 @@ def make_stress_field(seed: int, kind: str | None = None) -> StressField:
                              "pixel_scale_arcsec": scale, "extras": []}
     # Light in units of the sky noise after the PSF (peaks set below).
     lens_fine = np.zeros_like(xx)
+    nb_fine = np.zeros_like(xx)
+    comp_fine = np.zeros_like(xx)
     other_fine = np.zeros_like(xx)
     ang = rng.uniform(0, np.pi)
     q_l = rng.uniform(0.5, 1.0)
@@ -200,7 +205,8 @@ def make_stress_field(seed: int, kind: str | None = None) -> StressField:
         t = rng.uniform(0, 2 * np.pi)
         nb = _sersic(xx, yy, rng.uniform(0.7, 2.5), rng.uniform(1, 4), rng.uniform(0.5, 1), rng.uniform(0, np.pi),
                      cx + d * np.cos(t), cy + d * np.sin(t))
-        other_fine += rng.uniform(0.1, 0.6) * nb / nb.max()
+        nb_fine = rng.uniform(0.1, 0.6) * nb / nb.max()
+        other_fine += nb_fine
         feats.append("neighbour")
         truth["extras"].append("neighbour")
     if is_lens and rng.uniform() < 0.12:  # a companion overlapping the lens
@@ -208,7 +214,8 @@ def make_stress_field(seed: int, kind: str | None = None) -> StressField:
         t = rng.uniform(0, 2 * np.pi)
         comp = _sersic(xx, yy, re_b * rng.uniform(0.3, 0.7), 4.0, rng.uniform(0.6, 1), 0.0, cx + d * np.cos(t),
                        cy + d * np.sin(t))
-        other_fine += rng.uniform(0.1, 0.4) * comp / comp.max()
+        comp_fine = rng.uniform(0.1, 0.4) * comp / comp.max()
+        other_fine += comp_fine
         feats.append("companion")
     stars = []
     if kind in ("ring+star", "elliptical+star") or rng.uniform() < 0.1:
@@ -276,14 +283,18 @@ def make_stress_field(seed: int, kind: str | None = None) -> StressField:
     lens_peak = rng.uniform(30, 400)
     norm = lens_peak / max(lens_img.max(), 1e-30)
     img = (lens_img + blur(other_fine)) * norm
+    star_img = np.zeros_like(img)
     if stars:
         pts = sum(a * _point(xx, yy, sx, sy) for sx, sy, a in stars)
         one = blur(_point(xx, yy, c0, c0)).max()
-        img = img + blur(pts) * lens_peak / max(one, 1e-30)  # star peak = amp x lens peak
+        star_img = blur(pts) * lens_peak / max(one, 1e-30)
+        img = img + star_img  # star peak = amp x lens peak
+    arc_img = np.zeros_like(img)
     if is_lens:
         arc = blur(arc_fine)
         arc_peak = rng.uniform(4.0, 20.0)
-        img = img + arc * arc_peak / max(arc.max(), 1e-30)
+        arc_img = arc * arc_peak / max(arc.max(), 1e-30)
+        img = img + arc_img
         truth["arc_peak_snr"] = float(arc_peak)
     # Noise and sky.
     ny = nx = size
@@ -363,8 +374,11 @@ def make_stress_field(seed: int, kind: str | None = None) -> StressField:
     if abs(np.log10(unit)) > 2:
         feats.append("units 1e%+d" % int(np.round(np.log10(unit))))
     truth["sky_noise_units"] = float(sky)
+    parts = {"neighbour": (blur(nb_fine) * norm * unit).astype(np.float32) if nb_fine.any() else None,
+             "companion": (blur(comp_fine) * norm * unit).astype(np.float32) if comp_fine.any() else None,
+             "star": (star_img * unit).astype(np.float32), "arc": (arc_img * unit).astype(np.float32)}
     return StressField((img * unit).astype(np.float32), scale, fwhm_pix, unit, truth, feats,
-                       (lens_img * norm * unit).astype(np.float32))
+                       (lens_img * norm * unit).astype(np.float32), parts)
 
 
 def make_stress_sample(n_lenses: int, n_nonlenses: int, first_seed: int) -> list[StressField]:
