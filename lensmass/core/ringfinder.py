@@ -77,8 +77,8 @@ from lensmass.core.companion_pass import companion_pass
 from lensmass.core.core_residual import core_replaces_ring, ring_replaces_core
 from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
-from lensmass.core.inner_neighbour import subtract_inner_neighbour, subtraction_notes
 from lensmass.core.faint_refit import mark_refitted, refit_under_candidate
+from lensmass.core.inner_neighbour import subtract_inner_neighbour, subtraction_notes
 from lensmass.core.inward_ridge import left_for_core
 from lensmass.core.lenslight import fit_lens_light, robust_sigma
 from lensmass.core.outer_sky import outer_sky_offset
