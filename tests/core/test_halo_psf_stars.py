@@ -1,7 +1,7 @@
 """Stars under a PSF with a halo (an Airy core, a faint broad Gaussian halo) are masked as stars (issue 14).
 
 Under a space-like PSF a star holds only about 30% of its light inside its half maximum, below the 33% that marks
-stars under Gaussian and Moffat PSFs, and was taken for a galaxy (stress tuning seeds 962000-962059: 8 of 14 such
+stars under Gaussian and Moffat PSFs, and was taken for a galaxy (stress tuning seeds 962000-962059: 12 of 14 such
 stars). The PSF-scaled test (:mod:`lensmass.core.point_sources`) looks at how fast the light falls past the half
 maximum. Fields: astropy.modeling AiryDisk2D (its radius is the first zero, 1.2197 / 1.0290 times the FWHM:
 common practice for a circular aperture) plus a Gaussian2D halo of 2% of the peak, 2.5 FWHM wide (our own choice,
