@@ -13,6 +13,7 @@ from typing import Callable
 import numpy as np
 
 from lensmass.core.companion_light import companion_candidate, fit_companion, ring_light_at_blob
+from lensmass.core.inner_neighbour import SUBTRACTED_END
 from lensmass.core.lenslight import fit_lens_light
 from lensmass.core.ring_confidence import CONFIDENT_COVERAGE, RING_COVERAGE
 from lensmass.core.ring_result import RingResult
@@ -78,7 +79,7 @@ def companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop, ring_s
     if not refit.ok:
         return img, light, first
     note = (f"A companion galaxy overlapping the lens (at {comp.x:.1f}, {comp.y:.1f}; R_e {comp.r_eff_pix:.1f} pixels) "
-            "was fitted as a second Sersic and subtracted.")
+            f"was fitted as a second {SUBTRACTED_END}")
     again = ring_search(refit.residual, refit.center_x, refit.center_y, rmin, rmax, n_sectors, refit,
                         list(refit.notes) + [note], None, should_stop, elliptical=False)
     if not again.found:
@@ -106,8 +107,8 @@ def companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop, ring_s
     if pulled or not past:
         where = f"A galaxy just outside the ring (at {comp.x:.1f}, {comp.y:.1f}; R_e {comp.r_eff_pix:.1f} pixels), "
         outside = where + ("whose light had moved the first search's answer outward or hidden the ring, was fitted as "
-                           "a Sersic and subtracted." if pulled else
-                           "its light left in the lens's and first taken for arcs, was fitted as a Sersic and subtracted.")
+                           f"a {SUBTRACTED_END}" if pulled else
+                           f"its light left in the lens's and first taken for arcs, was fitted as a {SUBTRACTED_END}")
         again.warnings = [outside if w == note else w for w in again.warnings]
         note = outside
     refit.notes.append(note)

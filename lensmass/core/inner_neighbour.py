@@ -59,7 +59,8 @@ MAX_TANGENTIAL_STRETCH = 1.4
 MAX_RE_FWHM = 1.5
 #: ... or this share of its distance from the lens.
 MAX_RE_OF_DISTANCE = 0.3
-#: How the companion pass's notes of a subtracted galaxy end ("... was fitted as a (second) Sersic and subtracted.").
+#: How every note of a subtracted galaxy ends, this module's and :mod:`lensmass.core.companion_pass`'s ("... was
+#: fitted as a (second) Sersic and subtracted."): :func:`subtraction_notes` finds them by it.
 SUBTRACTED_END = "Sersic and subtracted."
 #: How the note of a subtracted neighbour begins (carried over to later lens-light fits by :func:`subtraction_notes`).
 NOTE_START = "A neighbour galaxy joined to the lens's light"
@@ -121,7 +122,7 @@ def subtract_inner_neighbour(img, light, first: RingResult, rmin: float, rmax: f
         if not refit.ok:
             return img, light, first
         note = (f"{NOTE_START} (at {comp.x:.1f}, {comp.y:.1f}; R_e "
-                f"{comp.r_eff_pix:.1f} pixels) was fitted as a Sersic and subtracted.")
+                f"{comp.r_eff_pix:.1f} pixels) was fitted as a {SUBTRACTED_END}")
         refit.notes.append(note)
         again = ring_search(refit.residual, refit.center_x, refit.center_y, rmin, rmax, n_sectors, refit,
                             list(refit.notes), None, should_stop, elliptical=False)
