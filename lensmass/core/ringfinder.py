@@ -555,7 +555,8 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
     # The refit only de-biases the lens light under the ring; with a broad ring masked it can lose
     # its hold on the galaxy and leave a core residual that outshines the ring. A second answer that
     # is no ring, a ring elsewhere, or one in the lens core where the first was resolved from it
-    # (core_residual), is not trusted over the first.
+    # (core_residual), is not trusted over the first. Where the fitted seeing is off (at its lower bound on a space PSF),
+    # the answers' own half-maximum bands tell the core from a resolved ring (core_residual.refit_answer_kept).
     by_core = refit_answer_kept(first, second, rmin)
     if by_core is False or (by_core is None and (
             not second.found or abs(second.radius_pix - first.radius_pix) > max(2.0, first.ring_width_pix)
