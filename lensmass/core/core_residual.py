@@ -6,6 +6,10 @@ the lens-light model's mismatch (a bulge+disc lens fitted with one Sersic, a PSF
 every direction. Such an answer does not replace a resolved ring another pass found (:func:`core_replaces_ring`),
 and a resolved ring a better lens-light model reveals replaces it (:func:`ring_replaces_core`). That the light of
 a galaxy's core is smeared over about a seeing FWHM is common practice (the PSF's width sets what is resolved).
+The fitted FWHM can be far off (at its lower bound on a space PSF, or spread over the ring): an answer whose own
+half-maximum band reaches inside the search's inner radius (:func:`unresolved_inward`) is not resolved from the
+centre whatever the fit says, and a refit's answer so placed does not replace a first answer that is resolved, nor
+stops a refit's resolved ring from replacing a first answer so placed (:func:`refit_answer_kept`).
 """
 
 from __future__ import annotations
@@ -29,6 +33,41 @@ def in_core(radius_pix: float, psf_fwhm_pix: float) -> bool:
 def resolved(radius_pix: float, psf_fwhm_pix: float) -> bool:
     """``radius_pix`` is at least :data:`RESOLVED_FWHM` seeing FWHM ``psf_fwhm_pix`` (False when unknown)."""
     return bool(psf_fwhm_pix > 0 and radius_pix >= RESOLVED_FWHM * psf_fwhm_pix)
+
+
+def unresolved_inward(answer: RingResult, rmin_pix: float) -> bool:
+    """``answer``'s peak is not separated from the lens centre: its half-maximum band (radius -+ half its width in
+    the azimuthal profile) starts inside ``rmin_pix``, the search's inner radius, so the profile there is above half
+    the peak (a galaxy core's mismatch falling outwards, not a ring standing free of it).
+
+    Examples
+    --------
+    A residual peaking at 3.6 pixels, 9 pixels wide, against a ring at 24 pixels, 6 wide (any object with the
+    answer's attributes will do):
+
+    >>> from types import SimpleNamespace
+    >>> core = SimpleNamespace(found=True, radius_pix=3.6, ring_width_pix=9.0)
+    >>> ring = SimpleNamespace(found=True, radius_pix=24.0, ring_width_pix=6.0)
+    >>> unresolved_inward(core, 3.0), unresolved_inward(ring, 3.0)
+    (True, False)
+    """
+    return bool(answer.found and answer.radius_pix - 0.5 * answer.ring_width_pix < rmin_pix)
+
+
+def refit_answer_kept(first: RingResult, second: RingResult, rmin_pix: float) -> bool | None:
+    """Whether the refit's answer ``second`` replaces the first pass's ``first`` by where they lie against the lens
+    centre (:func:`unresolved_inward`): False when ``second`` is not resolved from the centre and ``first`` is, True
+    when ``first`` is not and ``second`` is a resolved ring (:data:`~lensmass.core.ring_confidence.RING_COVERAGE` of
+    the directions) farther out, None (the usual rules decide) otherwise."""
+    if not (first.found and second.found):
+        return None
+    first_core, second_core = unresolved_inward(first, rmin_pix), unresolved_inward(second, rmin_pix)
+    if second_core and not first_core:
+        return False
+    if (first_core and not second_core and second.radius_pix > first.radius_pix
+            and second.coverage >= RING_COVERAGE):
+        return True
+    return None
 
 
 def core_replaces_ring(first: RingResult, second: RingResult, psf_fwhm_pix: float) -> bool:

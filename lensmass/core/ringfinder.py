@@ -74,7 +74,7 @@ from lensmass.core.arcfit import fit_circle
 from lensmass.core.bulge_disc import bulge_and_disc
 from lensmass.core.clipped_plateau import refuse_partial_in_lossless_core, widen_near_lossy_core
 from lensmass.core.companion_pass import companion_pass
-from lensmass.core.core_residual import core_replaces_ring, ring_replaces_core
+from lensmass.core.core_residual import core_replaces_ring, refit_answer_kept, ring_replaces_core
 from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
 from lensmass.core.faint_refit import mark_refitted, refit_under_candidate
@@ -555,9 +555,12 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
     # The refit only de-biases the lens light under the ring; with a broad ring masked it can lose
     # its hold on the galaxy and leave a core residual that outshines the ring. A second answer that
     # is no ring, a ring elsewhere, or one in the lens core where the first was resolved from it
-    # (core_residual), is not trusted over the first.
-    if (not second.found or abs(second.radius_pix - first.radius_pix) > max(2.0, first.ring_width_pix)
-            or core_replaces_ring(first, second, light.psf_fwhm_pix)):
+    # (core_residual), is not trusted over the first. Where the fitted seeing is off (at its lower bound on a space PSF),
+    # the answers' own half-maximum bands tell the core from a resolved ring (core_residual.refit_answer_kept).
+    by_core = refit_answer_kept(first, second, rmin)
+    if by_core is False or (by_core is None and (
+            not second.found or abs(second.radius_pix - first.radius_pix) > max(2.0, first.ring_width_pix)
+            or core_replaces_ring(first, second, light.psf_fwhm_pix))):
         moved = f"put the peak at {second.radius_pix:.2f} pixels" if second.found else "found no ring"
         first = first_answer()
         first.radius_err_pix = float(np.hypot(first.radius_err_pix, FIRST_PASS_SYSTEMATIC * first.radius_pix))
