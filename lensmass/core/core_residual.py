@@ -56,13 +56,14 @@ def unresolved_inward(answer: RingResult, rmin_pix: float) -> bool:
 
 def refit_answer_kept(first: RingResult, second: RingResult, rmin_pix: float) -> bool | None:
     """Whether the refit's answer ``second`` replaces the first pass's ``first`` by where they lie against the lens
-    centre (:func:`unresolved_inward`): False when ``second`` is not resolved from the centre and ``first`` is, True
+    centre (:func:`unresolved_inward`): False when ``second`` lies inside ``first`` and is not resolved from the
+    centre while ``first`` is (a core residual moves the answer inwards; a broad band farther out is the ring's), True
     when ``first`` is not and ``second`` is a resolved ring (:data:`~lensmass.core.ring_confidence.RING_COVERAGE` of
     the directions) farther out, None (the usual rules decide) otherwise."""
     if not (first.found and second.found):
         return None
     first_core, second_core = unresolved_inward(first, rmin_pix), unresolved_inward(second, rmin_pix)
-    if second_core and not first_core:
+    if second_core and not first_core and second.radius_pix < first.radius_pix:
         return False
     if (first_core and not second_core and second.radius_pix > first.radius_pix
             and second.coverage >= RING_COVERAGE):

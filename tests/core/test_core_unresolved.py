@@ -54,6 +54,9 @@ def test_core_mismatch_is_unresolved_and_rings_are_not():
 def test_refit_answer_at_the_core_does_not_replace_a_resolved_one():
     """Seed 1005105's pattern: first arcs at 10.1 pixels (8.5 wide), the refit's ring at 4.55 (4 wide): kept first."""
     assert refit_answer_kept(_answer(10.1, 8.5, 0.33), _answer(4.55, 4.0, 1.0), DEFAULT_MIN_RADIUS_PIX) is False
+    # A broad band farther out than the first answer is a small ring's, not a core residual moving the answer in:
+    # the usual rules decide (first weak arcs at 5.68 pixels, 2 wide; the refit's at 5.94, 6 wide).
+    assert refit_answer_kept(_answer(5.68, 2.0, 0.42), _answer(5.94, 6.0, 0.58), DEFAULT_MIN_RADIUS_PIX) is None
 
 
 def test_resolved_refit_ring_replaces_a_core_answer():
