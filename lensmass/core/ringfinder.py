@@ -74,7 +74,7 @@ from lensmass.core.arcfit import fit_circle
 from lensmass.core.bulge_disc import bulge_and_disc
 from lensmass.core.clipped_plateau import refuse_partial_in_lossless_core, widen_near_lossy_core
 from lensmass.core.companion_pass import companion_pass
-from lensmass.core.core_residual import core_replaces_ring, refit_answer_kept, ring_replaces_core
+from lensmass.core.core_residual import core_replaces_ring, flag_core_answer, refit_answer_kept, ring_replaces_core
 from lensmass.core.elliptical_annuli import radius_along
 from lensmass.core.errors import LensInputError
 from lensmass.core.faint_refit import mark_refitted, refit_under_candidate
@@ -354,7 +354,8 @@ def find_ring(
         out = _stretched_grey_search(picture, np.isnan(img), cx, cy, rmin, rmax, n_sectors, progress, should_stop,
                                      two_pass_search=_two_pass_search)
     else:
-        out = _flag_unresolved(_two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop))
+        out = flag_core_answer(_flag_unresolved(_two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress,
+                                                                 should_stop)), rmin)
     plane = masks.sky if masks is not None and not np.isscalar(masks.sky) else None
     if out.lens_light is not None and plane is not None and np.shape(out.lens_light.model) == plane.shape:
         out.lens_light.model = out.lens_light.model + plane  # the sky plane, as the pedestal below

@@ -15,7 +15,7 @@ from astropy.convolution import Gaussian2DKernel, convolve_fft
 from astropy.modeling.models import Gaussian2D, Ring2D
 from astropy.stats import gaussian_fwhm_to_sigma
 
-from lensmass.core.core_residual import refit_answer_kept, unresolved_inward
+from lensmass.core.core_residual import flag_core_answer, refit_answer_kept, unresolved_inward
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ringfinder import DEFAULT_MIN_RADIUS_PIX, find_ring
 
@@ -65,3 +65,16 @@ def test_resolved_refit_ring_replaces_a_core_answer():
     assert refit_answer_kept(_answer(5.24, 4.5, 0.42), _answer(10.5, 6.5, 0.83), DEFAULT_MIN_RADIUS_PIX) is True
     assert refit_answer_kept(_answer(5.24, 4.5, 0.42), _answer(10.5, 6.5, 0.4), DEFAULT_MIN_RADIUS_PIX) is None
     assert refit_answer_kept(_answer(12.0, 5.0), _answer(12.2, 5.0), DEFAULT_MIN_RADIUS_PIX) is None
+
+
+def test_core_answer_is_flagged_and_a_resolved_ring_is_not():
+    """The final answer at the core (seed 1005105's 4.55-pixel 'ring', 4 wide) is not confident and its message asks
+    for a check by eye; a resolved ring's answer (12 pixels, 5 wide) is left as it was."""
+    core, ring = _answer(4.55, 4.0, 1.0), _answer(12.0, 5.0, 1.0)
+    core.confident = ring.confident = True
+    core.message = ring.message = "A ring at 4.55 +- 0.30 pixels."
+    flag_core_answer(core, DEFAULT_MIN_RADIUS_PIX)
+    flag_core_answer(ring, DEFAULT_MIN_RADIUS_PIX)
+    assert not core.confident and "not separated from the lens centre" in core.message
+    assert "check it by eye" in core.message and core.radius_pix == 4.55
+    assert ring.confident and ring.message == "A ring at 4.55 +- 0.30 pixels." and not ring.warnings
