@@ -87,7 +87,7 @@ def flag_core_answer(result: RingResult, rmin_pix: float) -> RingResult:
     result.warnings.append(
         f"The answer's azimuthal profile stays above half its peak down to the search's inner radius "
         f"({rmin_pix:.1f} pixels): it is not separated from the lens centre and may be the lens-light model's residual "
-        "at the core rather than a ring; mark the arcs by hand, or give the lens centre or a larger inner radius.")
+        "at the core rather than a ring; mark the arcs by hand, or give the lens centre.")
     result.message = (f"{result.message} It is not separated from the lens centre (it may be the lens light's "
                       "residual): check it by eye before trusting it.")
     return result
