@@ -9,7 +9,8 @@ a galaxy's core is smeared over about a seeing FWHM is common practice (the PSF'
 The fitted FWHM can be far off (at its lower bound on a space PSF, or spread over the ring): an answer whose own
 half-maximum band reaches inside the search's inner radius (:func:`unresolved_inward`) is not resolved from the
 centre whatever the fit says, and a refit's answer so placed does not replace a first answer that is resolved, nor
-stops a refit's resolved ring from replacing a first answer so placed (:func:`refit_answer_kept`).
+stops a refit's resolved ring from replacing a first answer so placed (:func:`refit_answer_kept`); a final answer
+so placed is not confident and its message says so (:func:`flag_core_answer`).
 """
 
 from __future__ import annotations
@@ -37,10 +38,11 @@ def resolved(radius_pix: float, psf_fwhm_pix: float) -> bool:
     return bool(psf_fwhm_pix > 0 and radius_pix >= RESOLVED_FWHM * psf_fwhm_pix)
 
 
-def unresolved_inward(answer: RingResult, rmin_pix: float) -> bool:
+def unresolved_inward(answer: RingResult, rmin_pix: float, peak_pix: float | None = None) -> bool:
     """``answer``'s peak is not separated from the lens centre: its half-maximum band (radius -+ half its width in
     the azimuthal profile) starts inside ``rmin_pix``, the search's inner radius, so the profile there is above half
-    the peak (a galaxy core's mismatch falling outwards, not a ring standing free of it).
+    the peak (a galaxy core's mismatch falling outwards, not a ring standing free of it). ``peak_pix``: the peak's
+    radius when it is not the answer's (a lone arc's, whose answer is theta_E scaled from it).
 
     Examples
     --------
@@ -53,7 +55,8 @@ def unresolved_inward(answer: RingResult, rmin_pix: float) -> bool:
     >>> unresolved_inward(core, 3.0), unresolved_inward(ring, 3.0)
     (True, False)
     """
-    return bool(answer.found and answer.radius_pix - 0.5 * answer.ring_width_pix < rmin_pix)
+    peak = answer.radius_pix if peak_pix is None else peak_pix
+    return bool(answer.found and peak - 0.5 * answer.ring_width_pix < rmin_pix)
 
 
 def refit_answer_kept(first: RingResult, second: RingResult, rmin_pix: float) -> bool | None:
@@ -80,8 +83,8 @@ def flag_core_answer(result: RingResult, rmin_pix: float) -> RingResult:
     (Stress tuning seeds 1011000-1011599: the flag fell on 12 of 359 lens answers, all of them 0.14-0.79 of theta_E,
     and on 11 of 150 non-lens answers, none of them confident, six stated as rings with no warning; on no answer within
     5% of theta_E.)"""
-    peak = result.lone_arc_radius_pix if np.isfinite(result.lone_arc_radius_pix) else result.radius_pix
-    if not (result.found and peak - 0.5 * result.ring_width_pix < rmin_pix) or "check it by eye" in result.message:
+    lone = result.lone_arc_radius_pix if np.isfinite(result.lone_arc_radius_pix) else None
+    if not unresolved_inward(result, rmin_pix, lone) or "check it by eye" in result.message:
         return result
     result.confident = False
     result.warnings.append(
