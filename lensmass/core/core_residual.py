@@ -18,6 +18,7 @@ from __future__ import annotations
 import numpy as np
 
 from lensmass.core.ring_confidence import CONFIDENT_SCORE, RING_COVERAGE
+from lensmass.core.ring_message import CHECK_BY_EYE
 from lensmass.core.ring_result import RingResult
 
 #: An answer closer to the lens centre than this many fitted seeing FWHM lies in the lens core (h23b, stress tuning
@@ -84,7 +85,7 @@ def flag_core_answer(result: RingResult, rmin_pix: float) -> RingResult:
     and on 11 of 150 non-lens answers, none of them confident, six stated as rings with no warning; on no answer within
     5% of theta_E.)"""
     lone = result.lone_arc_radius_pix if np.isfinite(result.lone_arc_radius_pix) else None
-    if not unresolved_inward(result, rmin_pix, lone) or "check it by eye" in result.message:
+    if not unresolved_inward(result, rmin_pix, lone) or CHECK_BY_EYE in result.message:
         return result
     result.confident = False
     result.warnings.append(
@@ -92,7 +93,7 @@ def flag_core_answer(result: RingResult, rmin_pix: float) -> RingResult:
         f"({rmin_pix:.1f} pixels): it is not separated from the lens centre and may be the lens-light model's residual "
         "at the core rather than a ring; mark the arcs by hand, or give the lens centre.")
     result.message = (f"{result.message} It is not separated from the lens centre (it may be the lens light's "
-                      "residual): check it by eye before trusting it.")
+                      f"residual): {CHECK_BY_EYE}")
     return result
 
 

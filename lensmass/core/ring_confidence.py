@@ -8,7 +8,7 @@ import numpy as np
 from lensmass.core.arcfit import fit_circle
 from lensmass.core.errors import LensInputError
 from lensmass.core.lenslight import SERSIC_N_BOUNDS
-from lensmass.core.ring_message import STATED, quote
+from lensmass.core.ring_message import CHECK_BY_EYE, STATED, quote
 from lensmass.core.ring_result import RingResult, answer_noun
 
 #: Significance (sigma) of the azimuthal ring peak needed for a confident ring. This and the three
@@ -281,5 +281,5 @@ def _flag_unresolved(result: RingResult) -> RingResult:
         f"the ring, so the radius carries an extra {UNRESOLVED_SYSTEMATIC:.0%} systematic error and is likely "
         "too large; mark the arcs by hand to check it.")
     result.message = quote(result, f"{answer_noun(result.kind)} at {STATED} pixels, barely resolved from the lens "
-                                   "galaxy: check it by eye before trusting it.")
+                                   f"galaxy: {CHECK_BY_EYE}")
     return result

@@ -20,6 +20,9 @@ STATED = "{radius +- 1 sigma}"
 #: The radius with its stated 1- and 2-sigma bounds in pixels
 #: (:func:`lensmass.core.ring_interval.interval_text`: "9.03 pixels (1 sigma 6.20-13.30, 2 sigma 4.50-17.80 pixels)").
 STATED_BOUNDS = "{radius, 1 and 2 sigma bounds}"
+#: How every message of an answer to be checked by eye ends (weak, barely resolved, refit-only and core answers):
+#: :func:`lensmass.core.core_residual.flag_core_answer` finds such messages by it.
+CHECK_BY_EYE = "check it by eye before trusting it."
 
 
 def stated_text(out) -> str:
