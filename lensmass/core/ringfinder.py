@@ -574,7 +574,8 @@ def _two_pass_search(img, cx, cy, rmin, rmax, n_sectors, progress, should_stop, 
     # part of that pull may remain, so a share of the move is added to the radius error.
     shift = second.radius_pix - first.radius_pix
     refit_moved = abs(shift) > REFIT_MAX_MOVE * first.radius_pix
-    if (follow_shape and refit_moved and not _spread_over_ring(light, first.radius_pix)
+    # A first answer not separated from the centre that the refit's resolved ring replaces (by_core True) is not kept.
+    if (follow_shape and refit_moved and by_core is not True and not _spread_over_ring(light, first.radius_pix)
             and (first.kind == "ring" or arcs_hold_refit(first))):
         # The refit moved the ring: with the ring masked, one Sersic is free to drop light under it that it cannot
         # follow (a disc's, a PSF halo's), which merges with the ring all round and pulls it inward and wider; the
