@@ -13,6 +13,7 @@ from typing import Callable
 import numpy as np
 
 from lensmass.core.companion_light import companion_candidate, fit_companion, ring_light_at_blob
+from lensmass.core.core_residual import unresolved_inward
 from lensmass.core.inner_neighbour import SUBTRACTED_END
 from lensmass.core.lenslight import fit_lens_light
 from lensmass.core.ring_confidence import CONFIDENT_COVERAGE, RING_COVERAGE
@@ -99,7 +100,7 @@ def companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop, ring_s
     inside = not near and ((blob_taken or arcs_first) and again.radius_pix + refit.psf_fwhm_pix <= min(comp.distance_pix, first.radius_pix)
               and again.coverage > first.coverage and again.radius_pix >= INSIDE_MIN_FWHM * refit.psf_fwhm_pix
               and not _counter_image_of(again, comp.x, comp.y))
-    pulled = (not (past or inside) and _pulled_out(first, again, comp, refit.psf_fwhm_pix)
+    pulled = (not (past or inside) and _pulled_out(first, again, comp, refit.psf_fwhm_pix, rmin)
               and not (near and again.coverage < INSIDE_RING_COVERAGE))
     at_comp, at_ring = np.interp([comp.distance_pix, again.radius_pix], again.profile_radius_pix, again.profile)
     if not ((past or inside or pulled) and at_comp < COMPANION_RING_SHARE * at_ring):
@@ -115,15 +116,18 @@ def companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop, ring_s
     return less, refit, again
 
 
-def _pulled_out(first: RingResult, again: RingResult, comp, fwhm: float) -> bool:
+def _pulled_out(first: RingResult, again: RingResult, comp, fwhm: float, rmin: float) -> bool:
     """The ring found with the companion subtracted lies a seeing FWHM inside the companion, INSIDE_MIN_FWHM FWHM
-    out or more, and INWARD_MIN_FWHM or more inside the first answer (or the first search found none), and is not
-    the counter-image of a lensed image at the companion (:func:`_counter_image_of`): the companion's wing lifted the
+    out or more, and INWARD_MIN_FWHM or more inside the first answer (or the first search found none, or only the lens
+    core's residual: an answer whose band reaches inside the search's inner radius ``rmin``,
+    :func:`~lensmass.core.core_residual.unresolved_inward`; h32b, stress tuning seed 1016553: 0.18 -> 1.01 theta_E),
+    and is not the counter-image of a lensed image at the companion (:func:`_counter_image_of`): the companion's wing lifted the
     first search's profile on its side, pulling its peak outward (or hid the ring under a wing taken for the lens's
     light). (h28a, stress tuning seeds 903000-903699, ring kinds: 11 answers changed, 6 brought within 5% (903288:
     2.04 -> 1.04 theta_E, 903603: 1.64 -> 1.02), none lost; the ring found need not be seen in more directions than
     the first answer: in 2 of the 6 it was seen in fewer, in 1 in as many.)"""
-    inward = not first.found or first.radius_pix - again.radius_pix >= INWARD_MIN_FWHM * fwhm
+    inward = (not first.found or unresolved_inward(first, rmin)
+              or first.radius_pix - again.radius_pix >= INWARD_MIN_FWHM * fwhm)
     return bool(inward and again.radius_pix + fwhm <= comp.distance_pix and again.radius_pix >= INSIDE_MIN_FWHM * fwhm
                 and not _counter_image_of(again, comp.x, comp.y))
 
