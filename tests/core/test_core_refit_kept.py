@@ -6,7 +6,9 @@ The pass is run on scripted answers (the lens-light fits and the searches replac
 (h31a's stress tuning seed 1005043, arcs at 5.24 pixels against a true ring at 10.31; its refit's ring at 10.50 in
 83% of the directions), and the refit's ring at 10.5 pixels in 90% of the directions. No astropy-model field was found
 that takes this path: the scripted pass checks the rule itself; core_residual.unresolved_inward's own test
-(test_core_unresolved) checks the band rule on astropy Gaussian2D and Ring2D fields.
+(test_core_unresolved) checks the band rule on astropy Gaussian2D and Ring2D fields. Likewise the companion pass's
+ring found once a neighbour is subtracted is not stopped by a first answer that is only the core's residual
+(lensmass.core.companion_pass._pulled_out, h32b's stress tuning seed 1016553).
 """
 
 from __future__ import annotations
@@ -62,3 +64,18 @@ def test_resolved_first_ring_is_still_kept(scripted):
     out = rf._two_pass_search(np.zeros(SHAPE), 40.0, 40.0, rf.DEFAULT_MIN_RADIUS_PIX, 38.0, 24, None, None)
     assert out.radius_pix == 12.0
     assert any("ring is kept" in w for w in out.warnings)
+
+
+def test_companion_pass_ring_replaces_a_first_answer_at_the_core():
+    """Stress tuning seed 1016553's pattern (a bulge+disc lens, fitted PSF 3.4 px): the first search's arcs at 3.77
+    pixels, 7 wide (the core's residual), and, once the neighbour at 30 pixels is subtracted, a ring at 20.15 pixels in
+    62% of the directions. The ring lies outward of the first answer, which no longer stops it (before: False)."""
+    from types import SimpleNamespace
+
+    from lensmass.core.companion_pass import _pulled_out
+
+    neighbour = SimpleNamespace(distance_pix=30.0, x=70.0, y=40.0)
+    core, ring = _answer(3.77, 7.0, 0.58, "arcs"), _answer(20.15, 7.5, 0.62)
+    assert _pulled_out(core, ring, neighbour, 3.4, rf.DEFAULT_MIN_RADIUS_PIX)
+    # A first answer resolved from the centre (arcs at 12 pixels, 4 wide) still stops a ring found outward of it.
+    assert not _pulled_out(_answer(12.0, 4.0, 0.4, "arcs"), ring, neighbour, 3.4, rf.DEFAULT_MIN_RADIUS_PIX)
