@@ -28,6 +28,10 @@ LONE_ARC_DIRECTEDNESS = 0.7
 #: and two-arc lenses) reached it, 2 of the 66 within 15% of theta_E (ring parts, folds, quads).
 LONE_ARC_LIGHT_CONCENTRATION = 0.75
 LONE_ARC_LIGHT_MIN_SNR = 1.0
+#: ... as long as the ridge points still lean to one side this much: a ring seen in part all round (its ridge's
+#: directions balanced, 0.22 for tests/core/test_companion_near.py's faint ring in half the directions) whose light
+#: one bright leftover dominates (a neighbour's) is no lone arc. (Tuning seeds above: the lone arcs' 0.33-0.65.)
+LONE_ARC_LIGHT_MIN_DIRECTEDNESS = 0.3
 #: Largest mean resultant length of the doubled directions for which arcs are fitted by an ellipse: one arc of
 #: 45 degrees (sin(pi/4) / (pi/4) = 0.90) is the shortest so fitted. (Stress tuning seeds 827000-828719: of 87 arcs
 #: answers with 6 or more ridge points under half the directions, none was above 0.9.)

@@ -8,8 +8,8 @@ from collections.abc import Callable
 
 import numpy as np
 
-from lensmass.core.arc_directions import (LONE_ARC_DIRECTEDNESS, LONE_ARC_LIGHT_CONCENTRATION, LONE_ARC_LIGHT_MIN_SNR,
-                                          mean_direction)
+from lensmass.core.arc_directions import (LONE_ARC_DIRECTEDNESS, LONE_ARC_LIGHT_CONCENTRATION,
+                                          LONE_ARC_LIGHT_MIN_DIRECTEDNESS, LONE_ARC_LIGHT_MIN_SNR, mean_direction)
 from lensmass.core.counter_image import find_counter_image
 from lensmass.core.elliptical_annuli import (ROUND_LIGHT, SIE_RIDGE_AXIS_RATIOS, mass_alignment_weight, ring_shape,
                                              sie_ring_axis_ratio, sie_ring_factor)
@@ -128,7 +128,8 @@ def _unmasked_share(best: RingResult, n_sectors: int) -> float:
 def _lone_arc(best: RingResult, n_sectors: int, by_light: bool = False) -> RingResult:
     """A lone arc on one side of the lens (seen in under :data:`~lensmass.core.ring_confidence.RING_COVERAGE` of
     the directions, no counter-arc, its ridge points' mean direction at least :data:`LONE_ARC_DIRECTEDNESS` long
-    or, with ``by_light`` (the FITS route), the light at its radius at least
+    or, with ``by_light`` (the FITS route), at least
+    :data:`~lensmass.core.arc_directions.LONE_ARC_LIGHT_MIN_DIRECTEDNESS` long with the light at its radius at least
     :data:`~lensmass.core.arc_directions.LONE_ARC_LIGHT_CONCENTRATION` on one side (:func:`_arc_light`), and not
     seen in :data:`~lensmass.core.ring_confidence.RING_COVERAGE` of the unmasked directions, as a ring cut
     by a mask is) lies outside theta_E by its source's offset: theta_E and its error come from the project's one
@@ -137,8 +138,11 @@ def _lone_arc(best: RingResult, n_sectors: int, by_light: bool = False) -> RingR
     if not best.found or best.paired or best.coverage >= RING_COVERAGE or best.points_x.size < 2:
         return best
     direction = None
-    if _mean_direction(best)[1] < LONE_ARC_DIRECTEDNESS:
-        angle, length = _arc_light(best, n_sectors) if by_light else (float("nan"), float("nan"))
+    leaning = _mean_direction(best)[1]
+    if leaning < LONE_ARC_DIRECTEDNESS:
+        if not by_light or leaning < LONE_ARC_LIGHT_MIN_DIRECTEDNESS:  # a ring seen in part all round
+            return best
+        angle, length = _arc_light(best, n_sectors)
         if not length >= LONE_ARC_LIGHT_CONCENTRATION:
             return best
         direction = angle  # the ridge points' mean direction is the noise's too: the light's is the arc's
