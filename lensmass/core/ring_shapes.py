@@ -202,13 +202,16 @@ def _counter_pair(best: RingResult, direction: float | None = None) -> bool:
         return False
     best.radius_pix = float(0.5 * (arc + inner))
     best.radius_err_pix = float(np.hypot(best.radius_err_pix, PAIR_SYSTEMATIC * 0.5 * (arc - inner)))
+    best.pair_arc_radius_pix = float(arc)
     best.paired = True
     best.confident = False  # one arc and a faint feature inside it: never a confident ring
     best.axis_ratio, best.angle_deg = float("nan"), float("nan")
     best.message = quote(best, f"An arc at {arc:.2f} pixels and its counter-image at {inner:.2f} pixels on the far "
                                f"side of the lens: theta_E = their mean, {STATED} pixels.")
     best.warnings.append("An arc and a fainter counter-image inside it on the far side of the lens: the Einstein radius "
-                         "is their mean radius (exact for an isothermal sphere); a lens-model fit of the two is better.")
+                         "is their mean radius (exact for an isothermal sphere); a lens-model fit of the two is better. "
+                         "If the faint feature is not the arc's counter-image, the arc alone puts theta_E between half "
+                         "its radius and its radius, so the interval reaches down to about half the arc's radius.")
     return True
 
 

@@ -88,3 +88,18 @@ def test_a_faint_peak_far_out_on_the_far_side_is_no_counter_image():
     near = Gaussian2D(2.0, 40.0 - 0.3 * 24, 40.0, 1.7, 1.7)(xx, yy)
     assert np.isnan(find_counter_image(arc + far + noise, 40.0, 40.0, 24.0, 0.0, 0.3, 4.0))
     assert abs(find_counter_image(arc + near + noise, 40.0, 40.0, 24.0, 0.0, 0.3, 4.0) - 7.2) <= 2.0
+
+
+def test_an_arc_and_counter_image_pair_states_the_lone_arcs_lower_side():
+    # theta_E is the pair's mean radius if the faint feature is the counter-image (isothermal sphere: common
+    # practice); if it is other light, the arc alone puts theta_E between half its radius and its radius, so the
+    # stated lower sides reach ring_interval.COUNTER_PAIR_LOW_SHARES of the arc's radius; the upper sides stay
+    from lensmass.core.ring_interval import COUNTER_PAIR_LOW_SHARES, interval_bounds, is_normal
+
+    empty = np.empty(0)
+    pair = RingResult(True, False, "arcs", 14.0, 1.0, 9.0, 0.2, 0.0, 0.0, float("nan"), float("nan"), 0.3, empty, empty,
+                      empty, empty, empty, 1.0, None, None, paired=True, pair_arc_radius_pix=20.0)
+    state_interval(pair)
+    lo2, lo1, hi1, hi2 = interval_bounds(pair)
+    assert lo1 == COUNTER_PAIR_LOW_SHARES[1] * 20.0 == 10.0 and lo2 == COUNTER_PAIR_LOW_SHARES[0] * 20.0
+    assert (hi1, hi2) == (15.0, 16.0) and not is_normal(pair)
