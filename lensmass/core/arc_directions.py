@@ -20,6 +20,18 @@ from scipy.stats import directional_stats
 #: directions and unpaired: mean direction 0.85-1 -> radius / theta_E median 1.58 (stress) and 1.38 (ours), 0.7-0.85
 #: -> 0.99 and 1.25, under 0.5 (quads, folds, rings cut by a mask) 1.06-1.23 and 1.01-1.02.
 LONE_ARC_DIRECTEDNESS = 0.7
+#: ... or the light at the arc's radius is this concentrated on one side (the mean resultant length of its
+#: directions, :func:`lensmass.core.ring_sectors.light_direction`; 0.75 is light spread evenly over an arc of about
+#: 145 degrees), counted in the sectors where it stands :data:`LONE_ARC_LIGHT_MIN_SNR` times their noise: the ridge
+#: points of a faint lone arc include the noise's in other directions, its light does not. h32c, stress tuning seeds
+#: 1019000-1019419, main e7517a3's 113 unpaired single arcs: 12 of the 22 at 1.4 theta_E or more (lone arcs of one-arc
+#: and two-arc lenses) reached it, 2 of the 66 within 15% of theta_E (ring parts, folds, quads).
+LONE_ARC_LIGHT_CONCENTRATION = 0.75
+LONE_ARC_LIGHT_MIN_SNR = 1.0
+#: ... as long as the ridge points still lean to one side this much: a ring seen in part all round (its ridge's
+#: directions balanced, 0.22 for tests/core/test_companion_near.py's faint ring in half the directions) whose light
+#: one bright leftover dominates (a neighbour's) is no lone arc. (Tuning seeds above: the lone arcs' 0.33-0.65.)
+LONE_ARC_LIGHT_MIN_DIRECTEDNESS = 0.3
 #: Largest mean resultant length of the doubled directions for which arcs are fitted by an ellipse: one arc of
 #: 45 degrees (sin(pi/4) / (pi/4) = 0.90) is the shortest so fitted. (Stress tuning seeds 827000-828719: of 87 arcs
 #: answers with 6 or more ridge points under half the directions, none was above 0.9.)

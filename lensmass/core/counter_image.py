@@ -19,8 +19,13 @@ WEDGE_HALF_DEG = 30.0
 COUNTER_MIN_SNR = 5.0
 #: The counter-image is searched from this many seeing FWHM from the centre (the lens core's residual inside) ...
 COUNTER_MIN_FWHM = 1.0
-#: ... to this share of the arc's radius (theta_E - beta < theta_E < theta_E + beta).
-COUNTER_MAX_SHARE = 0.9
+#: ... to this share of the arc's radius. For an isothermal sphere the counter-image lies at (1 - b) / (1 + b) of the
+#: arc's radius (b = beta / theta_E) and is as much fainter and shorter (|mu-| / mu+ = (1 - b) / (1 + b): common
+#: practice): one farther out than 0.6 of it (b < 0.25, the arc stretched over five times) is a counter-arc nearly as
+#: bright, which the profile search pairs itself (ring_shapes._pair_of_arcs); a faint peak there is other light. (0.9
+#: before h32c: stress tuning seeds 1019000-1019419, the four pairs made with a counter-image at 0.65-0.86 of the arc's
+#: radius put theta_E at 1.26-2.37 of the truth, outside their 2-sigma intervals.)
+COUNTER_MAX_SHARE = 0.6
 
 
 def find_counter_image(residual: np.ndarray, cx: float, cy: float, arc_radius_pix: float, arc_angle_rad: float,

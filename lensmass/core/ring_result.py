@@ -52,6 +52,9 @@ class RingResult:
     radius_internal_err_pix: float = float("nan")
     #: A lone arc's own radius (its profile peak, pixels) before the lone-arc rule turned it into theta_E; NaN else.
     lone_arc_radius_pix: float = float("nan")
+    #: An arc paired with a counter-image found on the far side (ring_shapes._counter_pair): the arc's own radius
+    #: (pixels), to which the stated interval's lower side reaches (ring_interval.COUNTER_PAIR_LOW_SHARES); NaN else.
+    pair_arc_radius_pix: float = float("nan")
     #: Bounds of the stated 1-sigma (15.87-84.13%) and 2-sigma (2.275-97.725%) intervals of the radius, pixels
     #: (:func:`lensmass.core.ring_interval.state_interval`); NaN when nothing was found.
     radius_lo_pix: float = float("nan")

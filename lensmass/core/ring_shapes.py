@@ -8,7 +8,8 @@ from collections.abc import Callable
 
 import numpy as np
 
-from lensmass.core.arc_directions import LONE_ARC_DIRECTEDNESS, mean_direction
+from lensmass.core.arc_directions import (LONE_ARC_DIRECTEDNESS, LONE_ARC_LIGHT_CONCENTRATION,
+                                          LONE_ARC_LIGHT_MIN_DIRECTEDNESS, LONE_ARC_LIGHT_MIN_SNR, mean_direction)
 from lensmass.core.counter_image import find_counter_image
 from lensmass.core.elliptical_annuli import (ROUND_LIGHT, SIE_RIDGE_AXIS_RATIOS, mass_alignment_weight, ring_shape,
                                              sie_ring_axis_ratio, sie_ring_factor)
@@ -16,9 +17,9 @@ from lensmass.core.image_cross import find_image_cross
 from lensmass.core.lone_arc import lone_arc_theta_e, lone_sigma_ratios, unpaired_sigma_ratios
 from lensmass.core.ring_confidence import CONFIDENT_SCORE, RING_COVERAGE
 from lensmass.core.ring_interval import hold_shape
-from lensmass.core.ring_message import STATED, STATED_BOUNDS, quote
+from lensmass.core.ring_message import CHECK_BY_EYE, RADIUS, STATED, STATED_BOUNDS, quote
 from lensmass.core.ring_result import RingResult
-from lensmass.core.ring_sectors import BIN_PIX, unmasked_sector_share
+from lensmass.core.ring_sectors import BIN_PIX, light_direction, unmasked_sector_share
 
 #: Share of half the radius difference of an arc pair kept as a systematic error (ellipticity, shear).
 PAIR_SYSTEMATIC = 0.3
@@ -75,7 +76,7 @@ def _follow_shape(best, res, cx, cy, rmin, rmax, n_sectors, light, warnings, sho
                               ring_search=ring_search)
     shaped = _across_light_pass(shaped, res, cx, cy, rmin, rmax, n_sectors, light, warnings, should_stop,
                                 ring_search=ring_search)
-    return _unpaired_arc(_lone_arc(_image_cross(shaped, res, rmin, light), n_sectors))
+    return _unpaired_arc(_lone_arc(_image_cross(shaped, res, rmin, light), n_sectors, by_light=True))
 
 
 def _image_cross(best: RingResult, res, rmin: float, light) -> RingResult:
@@ -124,20 +125,30 @@ def _unmasked_share(best: RingResult, n_sectors: int) -> float:
     return unmasked_sector_share(best.residual, best.center_x, best.center_y, best.radius_pix, n_sectors)
 
 
-def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
+def _lone_arc(best: RingResult, n_sectors: int, by_light: bool = False) -> RingResult:
     """A lone arc on one side of the lens (seen in under :data:`~lensmass.core.ring_confidence.RING_COVERAGE` of
-    the directions, no counter-arc, its ridge points' mean direction at least :data:`LONE_ARC_DIRECTEDNESS` long,
-    and not seen in :data:`~lensmass.core.ring_confidence.RING_COVERAGE` of the unmasked directions, as a ring cut
+    the directions, no counter-arc, its ridge points' mean direction at least :data:`LONE_ARC_DIRECTEDNESS` long
+    or, with ``by_light`` (the FITS route), at least
+    :data:`~lensmass.core.arc_directions.LONE_ARC_LIGHT_MIN_DIRECTEDNESS` long with the light at its radius at least
+    :data:`~lensmass.core.arc_directions.LONE_ARC_LIGHT_CONCENTRATION` on one side (:func:`_arc_light`), and not
+    seen in :data:`~lensmass.core.ring_confidence.RING_COVERAGE` of the unmasked directions, as a ring cut
     by a mask is) lies outside theta_E by its source's offset: theta_E and its error come from the project's one
     lone-arc rule (:func:`lensmass.core.lone_arc.lone_arc_theta_e`, its ``"ridge"`` table for the profile-peak
     radius the finder measures); :func:`~lensmass.core.ring_confidence._calibrate` adds no floor to it."""
     if not best.found or best.paired or best.coverage >= RING_COVERAGE or best.points_x.size < 2:
         return best
-    if _mean_direction(best)[1] < LONE_ARC_DIRECTEDNESS:
-        return best
+    direction = None
+    leaning = _mean_direction(best)[1]
+    if leaning < LONE_ARC_DIRECTEDNESS:
+        if not by_light or leaning < LONE_ARC_LIGHT_MIN_DIRECTEDNESS:  # a ring seen in part all round
+            return best
+        angle, length = _arc_light(best, n_sectors)
+        if not length >= LONE_ARC_LIGHT_CONCENTRATION:
+            return best
+        direction = angle  # the ridge points' mean direction is the noise's too: the light's is the arc's
     if best.coverage >= RING_COVERAGE * _unmasked_share(best, n_sectors):  # a ring seen wherever it is not masked
         return best
-    if _counter_pair(best):
+    if _counter_pair(best, direction):
         return best
     arc = best.radius_pix
     theta_e, spread = lone_arc_theta_e(arc, "ridge")
@@ -160,29 +171,47 @@ def _lone_arc(best: RingResult, n_sectors: int) -> RingResult:
     return best
 
 
-def _counter_pair(best: RingResult) -> bool:
+def _arc_light(best: RingResult, n_sectors: int) -> tuple[float, float]:
+    """Mean direction of the light at a candidate's radius in its residual and how concentrated it is
+    (:func:`lensmass.core.ring_sectors.light_direction`, within half the candidate's width, at least half the
+    seeing FWHM and a pixel, of its radius, in the sectors where it stands
+    :data:`~lensmass.core.arc_directions.LONE_ARC_LIGHT_MIN_SNR` times their noise); (NaN, NaN) without a residual."""
+    if best.residual is None or not np.isfinite(best.radius_pix):
+        return float("nan"), float("nan")
+    light = best.lens_light
+    fwhm = float(light.psf_fwhm_pix) if light is not None and light.ok else 0.0
+    half = max(0.5 * float(best.ring_width_pix) if np.isfinite(best.ring_width_pix) else 0.0, 0.5 * fwhm, 1.0)
+    return light_direction(best.residual, best.center_x, best.center_y, best.radius_pix, half, n_sectors,
+                           best.noise_sigma if np.isfinite(best.noise_sigma) else 0.0, LONE_ARC_LIGHT_MIN_SNR)
+
+
+def _counter_pair(best: RingResult, direction: float | None = None) -> bool:
     """Pair a one-sided arc with its counter-image found on the far side of the lens
     (:func:`lensmass.core.counter_image.find_counter_image`): theta_E is their mean radius (exact for an isothermal
     sphere, theta_E + beta and theta_E - beta; common practice), with :data:`PAIR_SYSTEMATIC` of half their difference
-    in the error, as :func:`_pair_of_arcs` states it. Returns whether it paired."""
+    in the error, as :func:`_pair_of_arcs` states it; ``direction`` (radians from +x), the arc's when its ridge
+    points' mean direction is not. Returns whether it paired."""
     if best.residual is None:
         return False
     light = best.lens_light
     fwhm = float(light.psf_fwhm_pix) if light is not None and light.ok else float(best.ring_width_pix)
     arc = best.radius_pix
-    inner = find_counter_image(best.residual, best.center_x, best.center_y, arc, _mean_direction(best)[0],
-                               best.noise_sigma, fwhm)
+    toward = _mean_direction(best)[0] if direction is None else direction
+    inner = find_counter_image(best.residual, best.center_x, best.center_y, arc, toward, best.noise_sigma, fwhm)
     if not np.isfinite(inner):
         return False
     best.radius_pix = float(0.5 * (arc + inner))
     best.radius_err_pix = float(np.hypot(best.radius_err_pix, PAIR_SYSTEMATIC * 0.5 * (arc - inner)))
+    best.pair_arc_radius_pix = float(arc)
     best.paired = True
     best.confident = False  # one arc and a faint feature inside it: never a confident ring
     best.axis_ratio, best.angle_deg = float("nan"), float("nan")
     best.message = quote(best, f"An arc at {arc:.2f} pixels and its counter-image at {inner:.2f} pixels on the far "
                                f"side of the lens: theta_E = their mean, {STATED} pixels.")
     best.warnings.append("An arc and a fainter counter-image inside it on the far side of the lens: the Einstein radius "
-                         "is their mean radius (exact for an isothermal sphere); a lens-model fit of the two is better.")
+                         "is their mean radius (exact for an isothermal sphere); a lens-model fit of the two is better. "
+                         "If the faint feature is not the arc's counter-image, the arc alone puts theta_E between half "
+                         "its radius and its radius, so the interval reaches down to about half the arc's radius.")
     return True
 
 
@@ -195,7 +224,8 @@ def _unpaired_arc(best: RingResult) -> RingResult:
     the ``"unpaired"`` table, its 1-sigma lower side reaching at least
     :data:`~lensmass.core.lone_arc.UNPAIRED_1SIGMA_LOW_RATIO` of the radius,
     :func:`~lensmass.core.lone_arc.unpaired_sigma_ratios`):
-    wide below the radius, narrow above it."""
+    wide below the radius, narrow above it. The message states that interval and why (the arc's radius alone read
+    as theta_E, as a weak candidate's message gave it, was 1.5-1.9 times it for lone arcs)."""
     if (not best.found or best.paired or best.coverage >= RING_COVERAGE or np.isfinite(best.lone_arc_radius_pix)
             or best.interval_shape_pix is not None):
         return best
@@ -209,6 +239,11 @@ def _unpaired_arc(best: RingResult) -> RingResult:
                                      f"source's offset, so theta_E is stated as {STATED_BOUNDS}, the spread of "
                                      "theta_E / radius over calibrated unpaired arcs with the arc's measured error, "
                                      "wider below than above; mark a counter-image to measure it."))
+    # as the search's message began and ended (single arcs are made unconfident later; core_residual reads the end)
+    lead, end = ("Arcs", ".") if best.confident else ("A weak arcs candidate", f"; {CHECK_BY_EYE}")
+    best.message = quote(best, f"{lead} at {RADIUS} pixels ({best.score:.1f} sigma, {best.coverage:.0%} of directions) "
+                               f"with no counter-arc: theta_E {STATED_BOUNDS}, at the arc's radius if it is part of a "
+                               f"ring, down to about half of it if it is a lone arc outside theta_E{end}")
     return best
 
 

@@ -72,17 +72,19 @@ def test_a_rings_message_quotes_its_stated_interval():
 
 
 def test_single_arcs_messages_and_warnings_quote_their_stated_intervals():
-    # seeds of tests/core/test_unpaired_arc.py's fields: (2, 0.8) a lone arc, (2, 0.5) an unpaired arc with an
-    # asymmetric interval, (1, 0.5) an arc paired with its counter-image
+    # seeds of tests/core/test_unpaired_arc.py's fields: (2, 0.8) a lone arc, (9, 0.5) an unpaired arc with an
+    # asymmetric interval (since h32c (2, 0.5) is paired with its counter-image), (1, 0.5) an arc paired with its
+    # counter-image
     lone = find_ring(_sis_arc(2, 0.8, 0.2)[0])
     assert np.isfinite(lone.lone_arc_radius_pix), lone.message
     assert_quotes_stated_bounds(lone, lone.message)
     assert_quotes_stated_bounds(lone, next(w for w in lone.warnings if w.startswith("A lone arc")))
 
-    unpaired = find_ring(_sis_arc(2, 0.5)[0])
+    unpaired = find_ring(_sis_arc(9, 0.5)[0])
     assert unpaired.interval_shape_pix is not None and not np.isfinite(unpaired.lone_arc_radius_pix)
-    assert_quotes_stated_interval(unpaired, unpaired.message)
-    assert "/-" in unpaired.message  # asymmetric: wider below than above
+    assert_quotes_stated_bounds(unpaired, unpaired.message)  # its message states the interval and why (h32c)
+    assert "down to about half" in unpaired.message
+    assert unpaired.radius_pix - unpaired.radius_lo_pix > unpaired.radius_hi_pix - unpaired.radius_pix  # wider below
     assert_quotes_stated_bounds(unpaired, next(w for w in unpaired.warnings if "no counter-arc" in w))
 
     paired = find_ring(_sis_arc(1, 0.5)[0])
