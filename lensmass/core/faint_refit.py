@@ -16,7 +16,7 @@ import numpy as np
 from lensmass.core.lenslight import LensLightModel, fit_lens_light
 from lensmass.core.progress import StopCallback
 from lensmass.core.ring_confidence import RING_COVERAGE
-from lensmass.core.ring_message import CHECK_BY_EYE, RADIUS, quote
+from lensmass.core.ring_message import CHECK_BY_EYE, quote, weak_opening
 from lensmass.core.ring_result import RingResult, answer_noun
 from lensmass.core.ring_sectors import ring_pixels
 
@@ -63,9 +63,8 @@ def mark_refitted(ring: RingResult) -> RingResult:
         return ring
     ring.confident = False
     ring.radius_err_pix = float(np.hypot(ring.radius_err_pix, REFIT_CANDIDATE_SYSTEMATIC * ring.radius_pix))
-    ring.message = quote(ring, f"A weak {ring.kind} candidate at {RADIUS} pixels ({ring.score:.1f} sigma, "
-                               f"{ring.coverage:.0%} of directions), seen only after refitting the lens light with it "
-                               f"masked: {CHECK_BY_EYE}")
+    ring.message = quote(ring, f"{weak_opening(ring.kind, ring.score, ring.coverage)}, seen only after refitting the "
+                               f"lens light with it masked: {CHECK_BY_EYE}")
     ring.warnings.append(f"{answer_noun(ring.kind)} below the significance threshold on the first lens-light fit: with "
                          "the candidate masked, the refitted lens light left it above (a faint ring's light goes into "
                          "a fit made through it).")

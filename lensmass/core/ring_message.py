@@ -25,6 +25,16 @@ STATED_BOUNDS = "{radius, 1 and 2 sigma bounds}"
 CHECK_BY_EYE = "check it by eye before trusting it."
 
 
+def weak_opening(kind: str, score: float, coverage: float) -> str:
+    """How a weak candidate's message opens (a template: the radius slot is filled by :func:`quote`), as the search,
+    the refit-only pass and the unpaired-arc statement write it.
+
+    >>> weak_opening("arcs", 7.04, 0.46)
+    'A weak arcs candidate at {radius} pixels (7.0 sigma, 46% of directions)'
+    """
+    return f"A weak {kind} candidate at {RADIUS} pixels ({score:.1f} sigma, {coverage:.0%} of directions)"
+
+
 def stated_text(out) -> str:
     """The radius and its 1-sigma interval from the answer's bounds (:func:`interval_bounds`: the stated ones, or
     radius -+ error before they are stated), two decimals.

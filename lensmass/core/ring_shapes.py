@@ -17,7 +17,7 @@ from lensmass.core.image_cross import find_image_cross
 from lensmass.core.lone_arc import lone_arc_theta_e, lone_sigma_ratios, unpaired_sigma_ratios
 from lensmass.core.ring_confidence import CONFIDENT_SCORE, RING_COVERAGE
 from lensmass.core.ring_interval import hold_shape
-from lensmass.core.ring_message import CHECK_BY_EYE, RADIUS, STATED, STATED_BOUNDS, quote
+from lensmass.core.ring_message import CHECK_BY_EYE, RADIUS, STATED, STATED_BOUNDS, quote, weak_opening
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_sectors import BIN_PIX, light_direction, unmasked_sector_share
 
@@ -240,10 +240,11 @@ def _unpaired_arc(best: RingResult) -> RingResult:
                                      "theta_E / radius over calibrated unpaired arcs with the arc's measured error, "
                                      "wider below than above; mark a counter-image to measure it."))
     # as the search's message began and ended (single arcs are made unconfident later; core_residual reads the end)
-    lead, end = ("Arcs", ".") if best.confident else ("A weak arcs candidate", f"; {CHECK_BY_EYE}")
-    best.message = quote(best, f"{lead} at {RADIUS} pixels ({best.score:.1f} sigma, {best.coverage:.0%} of directions) "
-                               f"with no counter-arc: theta_E {STATED_BOUNDS}, at the arc's radius if it is part of a "
-                               f"ring, down to about half of it if it is a lone arc outside theta_E{end}")
+    opening, end = weak_opening(best.kind, best.score, best.coverage), f"; {CHECK_BY_EYE}"
+    if best.confident:
+        opening, end = f"Arcs at {RADIUS} pixels ({best.score:.1f} sigma, {best.coverage:.0%} of directions)", "."
+    best.message = quote(best, f"{opening} with no counter-arc: theta_E {STATED_BOUNDS}, at the arc's radius if it is "
+                               f"part of a ring, down to about half of it if it is a lone arc outside theta_E{end}")
     return best
 
 

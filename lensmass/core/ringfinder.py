@@ -105,7 +105,7 @@ from lensmass.core.ring_pictures import (COLOUR_CORE_PIX, COLOUR_MASK_GROW_PIX, 
                                          _undo_grey_stretch, blue_excess, colour_mask_image, colour_masks,
                                          lossy_error_scale)
 from lensmass.core.ring_interval import RING_TAIL_SHARE, state_interval
-from lensmass.core.ring_message import CHECK_BY_EYE, RADIUS, STATED, quote, restate
+from lensmass.core.ring_message import CHECK_BY_EYE, STATED, quote, restate, weak_opening
 from lensmass.core.ring_result import RingResult, answer_noun
 from lensmass.core.ring_sectors import (BIN_PIX, MASK_HALF_WIDTHS, _sector_grid, _sector_profiles, _smooth_profile,
                                         _top_sectors_profile, ring_pixels)
@@ -911,8 +911,7 @@ def _measure_candidate(score, res, cx, cy, n_sectors, light, warnings, sigma, su
     elif confident:
         msg = f"{answer_noun(kind)} at {STATED} pixels ({score:.0f} sigma, seen in {coverage:.0%} of directions)."
     else:
-        msg = (f"A weak {kind} candidate at {RADIUS} pixels ({score:.1f} sigma, {coverage:.0%} of directions): "
-               f"{CHECK_BY_EYE}")
+        msg = f"{weak_opening(kind, score, coverage)}: {CHECK_BY_EYE}"
     if found and offset is not None:
         warnings.append(f"The ring's radius about the lens centre varies as theta_E + beta cos(phi - phi_beta), a source "
                         f"{offset.amplitude:.2f} pixels off the lens axis towards {np.degrees(offset.angle_rad):.0f} "
