@@ -502,7 +502,8 @@ def measurement_of_ring(ring, image, *, pixel_scale_arcsec: float | None = None,
                              else f"ring finder's centre: {ring.center_source}",
                              bounds_from_pixels(ring.radius_pix, interval_bounds(ring), scale, scale_err),
                              not is_normal(ring), interval_note(getattr(ring, "interval_shape_pix", None) is not None,
-                                                               tail / ring.radius_pix if tail > 0 else 0.0))
+                                                               tail / ring.radius_pix if tail > 0 else 0.0,
+                                                               pair=bool(np.isfinite(ring.pair_arc_radius_pix))))
 
 
 def measure_auto_ring(

@@ -183,6 +183,10 @@ def interval_draws(center: float, bounds: Sequence[float], n: int = 10000, seed:
 ASYMMETRIC_NOTE = ("; its interval is asymmetric (the calibrated spread of theta_E over a lone or unpaired arc's "
                    "radius), and "
                    "the masses' Monte Carlo draws theta_E from it")
+#: ... for an arc-and-counter-image pair, whose lower sides reach :data:`COUNTER_PAIR_LOW_SHARES` of the arc's radius.
+PAIR_NOTE = ("; its interval reaches down to about half the arc's radius (if the faint feature inside is not the arc's "
+             "counter-image, the arc alone puts theta_E between half its radius and its radius: isothermal sphere), "
+             "and the masses' Monte Carlo draws theta_E from it")
 #: ... and when its 2-sigma sides carry a tail term (``interval_tail_pix``: :data:`RING_TAIL_SHARE` of the radius on a
 #: FITS image, :data:`lensmass.core.ring_pictures.PICTURE_TAIL_SHARE` on an 8-bit picture).
 TAIL_NOTE = ("; its 2-sigma interval carries a tail term of {share:.0%} of theta_E (a ring's light can lie a few per cent "
@@ -199,9 +203,10 @@ TAIL_NOTE = ("; its 2-sigma interval carries a tail term of {share:.0%} of theta
 RING_TAIL_SHARE = 0.05
 
 
-def interval_note(held_shape: bool, tail_share: float) -> str:
+def interval_note(held_shape: bool, tail_share: float, pair: bool = False) -> str:
     """What the model of theta_E says about its interval: :data:`ASYMMETRIC_NOTE` for a held shape (a lone or
-    unpaired arc), :data:`TAIL_NOTE` for a tail term of ``tail_share`` of theta_E.
+    unpaired arc), :data:`PAIR_NOTE` for an arc-and-counter-image ``pair``, :data:`TAIL_NOTE` for a tail term of
+    ``tail_share`` of theta_E.
 
     Examples
     --------
@@ -209,8 +214,10 @@ def interval_note(held_shape: bool, tail_share: float) -> str:
     ''
     >>> "5% of theta_E" in interval_note(True, 0.05)
     True
+    >>> "half the arc's radius" in interval_note(False, 0.0, pair=True)
+    True
     """
-    out = ASYMMETRIC_NOTE if held_shape else ""
+    out = ASYMMETRIC_NOTE if held_shape else (PAIR_NOTE if pair else "")
     if tail_share > 0:
         out += TAIL_NOTE.format(share=tail_share)
     return out
@@ -262,6 +269,6 @@ def interval_text(center: float, bounds: Sequence[float], unit: str, decimals: i
             f"2 sigma {f.format(lo2)}-{f.format(hi2)} {unit})")
 
 
-__all__ = ["ASYMMETRIC_NOTE", "BOUND_KEYS", "COUNTER_PAIR_LOW_SHARES", "SIGMA_PROBABILITIES", "SIGMA_SCORES", "RING_TAIL_SHARE", "TAIL_NOTE", "bounds_from_pixels",
+__all__ = ["ASYMMETRIC_NOTE", "BOUND_KEYS", "COUNTER_PAIR_LOW_SHARES", "PAIR_NOTE", "SIGMA_PROBABILITIES", "SIGMA_SCORES", "RING_TAIL_SHARE", "TAIL_NOTE", "bounds_from_pixels",
            "draw_options", "hold_shape", "interval_bounds", "interval_draws", "interval_note", "interval_text", "is_normal",
            "state_interval", "truth_inside"]

@@ -26,3 +26,16 @@ def test_a_lone_arc_is_stated_once_and_a_weak_ring_keeps_its_message():
     weak = measurement_of_ring(_ring(message="A weak ring candidate at 9.00 pixels (2.1 sigma).", warnings=[]),
                                image, pixel_scale_arcsec=0.2)
     assert any("A weak ring candidate" in n for n in weak.notes)
+
+
+def test_a_counter_image_pairs_interval_says_why_it_reaches_down():
+    # an arc at 20 px paired with a counter-image (theta_E their mean, 14 px: isothermal sphere, common practice): its
+    # stated interval reaches down to half the arc's radius (ring_interval.COUNTER_PAIR_LOW_SHARES), and the model's
+    # words say that reason, not a lone or unpaired arc's calibrated spread (h32c's pair had the latter's words)
+    from lensmass.core.ring_interval import ASYMMETRIC_NOTE, PAIR_NOTE, state_interval
+
+    pair = _ring(radius_pix=14.0, paired=True, pair_arc_radius_pix=20.0, warnings=[])
+    state_interval(pair)
+    m = measurement_of_ring(pair, np.zeros((60, 60)), pixel_scale_arcsec=0.2)
+    assert m.asymmetric and m.interval_note.startswith(PAIR_NOTE) and ASYMMETRIC_NOTE not in m.interval_note
+    assert abs(m.keys()["theta_e_low1_arcsec"] - 0.5 * 20.0 * 0.2) < 1e-9  # half the arc's 20 px, at 0.2"/px
