@@ -38,7 +38,7 @@ from lensmass.core.errors import LensInputError
 from lensmass.core.progress import ProgressCallback, StopCallback
 from lensmass.core.ridge import refine_to_ridge
 from lensmass.core.ring_interval import (ASYMMETRIC_NOTE, BOUND_KEYS, bounds_from_pixels, draw_options,
-                                          interval_bounds, interval_note, is_normal)
+                                          interval_bounds, interval_note, is_counter_pair, is_normal)
 
 #: Default 1-sigma uncertainty of a marked position, in pixels (a click is good to about half a pixel).
 DEFAULT_POINT_ERR_PIX = 0.5
@@ -503,7 +503,7 @@ def measurement_of_ring(ring, image, *, pixel_scale_arcsec: float | None = None,
                              bounds_from_pixels(ring.radius_pix, interval_bounds(ring), scale, scale_err),
                              not is_normal(ring), interval_note(getattr(ring, "interval_shape_pix", None) is not None,
                                                                tail / ring.radius_pix if tail > 0 else 0.0,
-                                                               pair=bool(np.isfinite(ring.pair_arc_radius_pix))))
+                                                               pair=is_counter_pair(ring)))
 
 
 def measure_auto_ring(

@@ -89,8 +89,8 @@ def state_interval(out, picture: bool = False) -> None:
     out.interval_scale = (f, k1, k2)
     d_lo1, d_hi1 = -math.hypot(f * r, k1 * d_lo1), math.hypot(f * r, k1 * d_hi1)
     d_lo2, d_hi2 = min(-math.hypot(2 * f * r, k2 * d_lo2), d_lo1), max(math.hypot(2 * f * r, k2 * d_hi2), d_hi1)
-    arc = float(getattr(out, "pair_arc_radius_pix", float("nan")))
-    if math.isfinite(arc):  # a counter-image pair: its lower side reaches the lone arc's reading
+    if is_counter_pair(out):  # its lower side reaches the lone arc's reading
+        arc = float(out.pair_arc_radius_pix)
         d_lo1 = min(d_lo1, COUNTER_PAIR_LOW_SHARES[1] * arc - r)
         d_lo2 = min(d_lo2, COUNTER_PAIR_LOW_SHARES[0] * arc - r, d_lo1)
     out.radius_err_pix = 0.5 * (d_hi1 - d_lo1)
@@ -223,6 +223,17 @@ def interval_note(held_shape: bool, tail_share: float, pair: bool = False) -> st
     return out
 
 
+def is_counter_pair(out) -> bool:
+    """Whether an answer is an arc paired with a counter-image (``pair_arc_radius_pix`` holds the arc's own radius),
+    whose stated interval reaches down to :data:`COUNTER_PAIR_LOW_SHARES` of it.
+
+    >>> from types import SimpleNamespace
+    >>> is_counter_pair(SimpleNamespace(pair_arc_radius_pix=20.0)), is_counter_pair(SimpleNamespace())
+    (True, False)
+    """
+    return math.isfinite(float(getattr(out, "pair_arc_radius_pix", float("nan"))))
+
+
 def is_normal(out) -> bool:
     """Whether a finder's stated interval is a normal one (radius -+ 1 and 2 errors): no held shape, no tail term, no
     counter-image pair (:data:`COUNTER_PAIR_LOW_SHARES`).
@@ -233,7 +244,7 @@ def is_normal(out) -> bool:
     >>> is_normal(SimpleNamespace(interval_shape_pix=None, interval_tail_pix=0.0))
     True
     """
-    if math.isfinite(float(getattr(out, "pair_arc_radius_pix", float("nan")))):
+    if is_counter_pair(out):
         return False  # a counter-image pair's lower side reaches half the arc's radius (COUNTER_PAIR_LOW_SHARES)
     return getattr(out, "interval_shape_pix", None) is None and not float(getattr(out, "interval_tail_pix", 0.0) or 0.0) > 0
 
@@ -270,5 +281,5 @@ def interval_text(center: float, bounds: Sequence[float], unit: str, decimals: i
 
 
 __all__ = ["ASYMMETRIC_NOTE", "BOUND_KEYS", "COUNTER_PAIR_LOW_SHARES", "PAIR_NOTE", "SIGMA_PROBABILITIES", "SIGMA_SCORES", "RING_TAIL_SHARE", "TAIL_NOTE", "bounds_from_pixels",
-           "draw_options", "hold_shape", "interval_bounds", "interval_draws", "interval_note", "interval_text", "is_normal",
+           "draw_options", "hold_shape", "interval_bounds", "interval_draws", "interval_note", "interval_text", "is_counter_pair", "is_normal",
            "state_interval", "truth_inside"]
