@@ -23,6 +23,9 @@ STATED_BOUNDS = "{radius, 1 and 2 sigma bounds}"
 #: How every message of an answer to be checked by eye ends (weak, barely resolved, refit-only and core answers):
 #: :func:`lensmass.core.core_residual.flag_core_answer` finds such messages by it.
 CHECK_BY_EYE = "check it by eye before trusting it."
+#: The sentence :func:`close_unconfident` ends a found but unconfident answer's message with when it does not yet ask
+#: for a check by eye (an answer stated as found before the calibrated "confident" turned it down).
+NOT_CONFIDENT = f"It is not called confident: {CHECK_BY_EYE}"
 
 
 def weak_opening(kind: str, score: float, coverage: float) -> str:
@@ -88,3 +91,22 @@ def restate(out) -> None:
     out.message = again(out.message)
     out.warnings = [again(w) for w in out.warnings]
     out.quoted_texts = {fill(out, t): t for t in kept.values()}
+
+
+def close_unconfident(out) -> None:
+    """End the message of a found answer that is not confident with :data:`NOT_CONFIDENT`, unless it already asks for a
+    check by eye. The search states an answer before its confidence is final
+    (:func:`lensmass.core.ring_confidence._calibrate`, the 8-bit picture rule): without this a ring turned down there,
+    or a single arc (never confident), read as a confident statement.
+
+    >>> from types import SimpleNamespace
+    >>> out = SimpleNamespace(found=True, confident=False, message="A ring at 15.00 +- 0.50 pixels (21 sigma).")
+    >>> close_unconfident(out)
+    >>> out.message
+    'A ring at 15.00 +- 0.50 pixels (21 sigma). It is not called confident: check it by eye before trusting it.'
+    >>> close_unconfident(out)  # said once
+    >>> out.message.count(CHECK_BY_EYE)
+    1
+    """
+    if out.found and not out.confident and out.message and CHECK_BY_EYE not in out.message:
+        out.message = f"{out.message} {NOT_CONFIDENT}"

@@ -239,7 +239,8 @@ def _unpaired_arc(best: RingResult) -> RingResult:
                                      f"source's offset, so theta_E is stated as {STATED_BOUNDS}, the spread of "
                                      "theta_E / radius over calibrated unpaired arcs with the arc's measured error, "
                                      "wider below than above; mark a counter-image to measure it."))
-    # as the search's message began and ended (single arcs are made unconfident later; core_residual reads the end)
+    # as the search's message began and ended (single arcs are made unconfident later, and ring_message.
+    # close_unconfident then ends a confident-sounding message with a check by eye; core_residual reads the end)
     opening, end = weak_opening(best.kind, best.score, best.coverage), f"; {CHECK_BY_EYE}"
     if best.confident:
         opening, end = f"Arcs at {RADIUS} pixels ({best.score:.1f} sigma, {best.coverage:.0%} of directions)", "."

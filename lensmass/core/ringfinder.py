@@ -105,7 +105,7 @@ from lensmass.core.ring_pictures import (COLOUR_CORE_PIX, COLOUR_MASK_GROW_PIX, 
                                          _undo_grey_stretch, blue_excess, colour_mask_image, colour_masks,
                                          lossy_error_scale)
 from lensmass.core.ring_interval import RING_TAIL_SHARE, state_interval
-from lensmass.core.ring_message import CHECK_BY_EYE, STATED, quote, restate, weak_opening
+from lensmass.core.ring_message import CHECK_BY_EYE, STATED, close_unconfident, quote, restate, weak_opening
 from lensmass.core.ring_result import RingResult, answer_noun
 from lensmass.core.ring_sectors import (BIN_PIX, MASK_HALF_WIDTHS, _sector_grid, _sector_profiles, _smooth_profile,
                                         _top_sectors_profile, ring_pixels)
@@ -498,6 +498,7 @@ def _finish(out: RingResult, masks, given: bool, colour: bool, quality: float | 
         out.interval_tail_pix = float(RING_TAIL_SHARE * out.radius_pix)
     state_interval(out, picture=colour)
     restate(out)  # the message and warnings quote the stated interval
+    close_unconfident(out)  # its confidence is final now
     return out
 
 
