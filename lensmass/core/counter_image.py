@@ -6,7 +6,8 @@ radii give theta_E = (r_arc + r_counter) / 2 however far the source is from the 
 often misses the counter-image, which is fainter and lies inside the arc, on the lens light's residual. Here the
 residual is averaged in a wedge opposite the arc and, at the same radii, in the two wedges at right angles to it
 (their mean removes what is round: the lens light's leftover), and a peak standing :data:`COUNTER_MIN_SNR` above
-that is the counter-image.
+that is the counter-image. Beyond 0.6 of the arc's radius (to 0.9) a peak is taken only when the main search found
+none and its light matches the isothermal flux ratio's band (:data:`COUNTER_FAR_SHARE`).
 """
 
 from __future__ import annotations
@@ -32,7 +33,11 @@ COUNTER_MAX_SHARE = 0.6
 #: over the arc's is at least :data:`COUNTER_FLUX_BAND_LOW` of the isothermal ratio r_in / r_arc: a counter-image there
 #: is nearly as bright as the arc, a peak far fainter is other light (h32d: stress tuning seeds 1022000-1022399, the
 #: peaks at 0.65-0.80 of the arc's radius whose pair was right measured 0.47-0.52 of the ratio, the wrong ones 0.07-0.36;
-#: inside 0.6 the ratio did not separate right from wrong pairs, 0.22-0.89 against 0.10-1.33).
+#: inside 0.6 the ratio did not separate right from wrong pairs, 0.22-0.89 against 0.10-1.33). Rarely reached: h33b,
+#: paired with main: folds/quads/arcs 1030000-1030799, 1031100-1031499 (1200) and non-lenses 1030800-1031099, 5 far
+#: peaks, none taken (wrong ones 0.08-0.09 of the ratio, near-right folds 0.34-0.35); check 1033000-1033569 (all kinds,
+#: 150 non-lenses) and arcs 1033600-1033999, 2 taken of 970: a fold 0.80 -> 0.97 theta_E (0.64 of the ratio) and a
+#: two-arc field whose arc lies at 3.0 theta_E, 2.20 -> 2.84 (0.48): within 5% +1 -0, no non-lens paired.
 COUNTER_FAR_SHARE = 0.9
 #: The wedge sums measure about half the isothermal ratio on right pairs (the counter-image's light spreads beyond
 #: one FWHM of its radius); see :data:`COUNTER_FAR_SHARE`.
