@@ -34,8 +34,9 @@ COUNTER_MAX_SHARE = 0.6
 #: is nearly as bright as the arc, a peak far fainter is other light (h32d: stress tuning seeds 1022000-1022399, the
 #: peaks at 0.65-0.80 of the arc's radius whose pair was right measured 0.47-0.52 of the ratio, the wrong ones 0.07-0.36;
 #: inside 0.6 the ratio did not separate right from wrong pairs, 0.22-0.89 against 0.10-1.33). Rarely reached: h33b,
-#: paired with main: folds/quads/arcs 1030000-1030799, 1031100-1031499 (1200) and non-lenses 1030800-1031099, 5 far
-#: peaks, none taken (wrong ones 0.08-0.09 of the ratio, near-right folds 0.34-0.35); check 1033000-1033569 (all kinds,
+#: paired with main: folds/quads/arcs 1030000-1030799, 1031100-1031899 (1600) and non-lenses 1030800-1031099, 9 far
+#: peaks, 1 taken (a fold 0.80 -> 0.91 theta_E, 0.91 of the ratio); refused: wrong ones 0.08-0.20 of the ratio, folds
+#: whose pair would be 0.86-0.97 theta_E 0.33-0.38 (h32d's wrong one 0.36); check 1033000-1033569 (all kinds,
 #: 150 non-lenses) and arcs 1033600-1033999, 2 taken of 970: a fold 0.80 -> 0.97 theta_E (0.64 of the ratio) and a
 #: two-arc field whose arc lies at 3.0 theta_E, 2.20 -> 2.84 (0.48): within 5% +1 -0, no non-lens paired.
 COUNTER_FAR_SHARE = 0.9
