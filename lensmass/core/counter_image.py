@@ -6,7 +6,8 @@ radii give theta_E = (r_arc + r_counter) / 2 however far the source is from the 
 often misses the counter-image, which is fainter and lies inside the arc, on the lens light's residual. Here the
 residual is averaged in a wedge opposite the arc and, at the same radii, in the two wedges at right angles to it
 (their mean removes what is round: the lens light's leftover), and a peak standing :data:`COUNTER_MIN_SNR` above
-that is the counter-image.
+that is the counter-image. Beyond 0.6 of the arc's radius (to 0.9) a peak is taken only when the main search found
+none and its light matches the isothermal flux ratio's band (:data:`COUNTER_FAR_SHARE`).
 """
 
 from __future__ import annotations
@@ -28,10 +29,29 @@ COUNTER_MIN_FWHM = 1.0
 COUNTER_MAX_SHARE = 0.6
 
 
+#: Beyond :data:`COUNTER_MAX_SHARE`, up to this share of the arc's radius, a peak is the counter-image only when its light
+#: over the arc's is at least :data:`COUNTER_FLUX_BAND_LOW` of the isothermal ratio r_in / r_arc: a counter-image there
+#: is nearly as bright as the arc, a peak far fainter is other light (h32d: stress tuning seeds 1022000-1022399, the
+#: peaks at 0.65-0.80 of the arc's radius whose pair was right measured 0.47-0.52 of the ratio, the wrong ones 0.07-0.36;
+#: inside 0.6 the ratio did not separate right from wrong pairs, 0.22-0.89 against 0.10-1.33). Rarely reached: h33b,
+#: paired with main: folds/quads/arcs 1030000-1030799, 1031100-1031899 (1600) and non-lenses 1030800-1031099, 9 far
+#: peaks, 1 taken (a fold 0.80 -> 0.91 theta_E, 0.91 of the ratio); refused: wrong ones 0.08-0.20 of the ratio, folds
+#: whose pair would be 0.86-0.97 theta_E 0.33-0.38 (h32d's wrong one 0.36); check 1033000-1033569 (all kinds,
+#: 150 non-lenses) and arcs 1033600-1033999, 2 taken of 970: a fold 0.80 -> 0.97 theta_E (0.64 of the ratio) and a
+#: two-arc field whose arc lies at 3.0 theta_E, 2.20 -> 2.84 (0.48): within 5% +1 -0, no non-lens paired.
+COUNTER_FAR_SHARE = 0.9
+#: The wedge sums measure about half the isothermal ratio on right pairs (the counter-image's light spreads beyond
+#: one FWHM of its radius); see :data:`COUNTER_FAR_SHARE`.
+COUNTER_FLUX_BAND_LOW = 0.4
+
+
 def find_counter_image(residual: np.ndarray, cx: float, cy: float, arc_radius_pix: float, arc_angle_rad: float,
                        noise_sigma: float, fwhm_pix: float) -> float:
     """Radius (pixels) of the counter-image of an arc at ``arc_radius_pix`` in direction ``arc_angle_rad`` (from +x,
     radians) about (``cx``, ``cy``) in the lens-subtracted ``residual`` (NaN = masked), or NaN when none stands out.
+
+    It is sought inside :data:`COUNTER_MAX_SHARE` of the arc's radius, then, if none is there, out to
+    :data:`COUNTER_FAR_SHARE` of it where its light must match the isothermal flux ratio's band.
 
     Examples
     --------
@@ -43,10 +63,26 @@ def find_counter_image(residual: np.ndarray, cx: float, cy: float, arc_radius_pi
     10
     """
     fwhm = max(float(fwhm_pix), 1.0) if np.isfinite(fwhm_pix) else 2.0
-    lo, hi = max(COUNTER_MIN_FWHM * fwhm, 2.0), COUNTER_MAX_SHARE * float(arc_radius_pix)
-    if hi <= lo + fwhm or not np.isfinite(noise_sigma) or noise_sigma <= 0:
+    if not np.isfinite(noise_sigma) or noise_sigma <= 0:
         return float("nan")
-    r0 = int(np.ceil(float(arc_radius_pix) + fwhm)) + 2  # the arc too: its light is compared below
+    arc = float(arc_radius_pix)
+    lo = max(COUNTER_MIN_FWHM * fwhm, 2.0)
+    inner, ratio = _peak(residual, cx, cy, arc, arc_angle_rad, noise_sigma, fwhm, lo, COUNTER_MAX_SHARE * arc)
+    if np.isfinite(inner):
+        return inner
+    inner, ratio = _peak(residual, cx, cy, arc, arc_angle_rad, noise_sigma, fwhm, max(lo, COUNTER_MAX_SHARE * arc),
+                         COUNTER_FAR_SHARE * arc)
+    if np.isfinite(inner) and ratio >= COUNTER_FLUX_BAND_LOW * inner / arc:
+        return inner
+    return float("nan")
+
+
+def _peak(residual, cx, cy, arc_radius, arc_angle_rad, noise_sigma, fwhm, lo, hi) -> tuple[float, float]:
+    """The far wedge's most significant peak between radii ``lo`` and ``hi`` and its light over the arc's, or NaNs."""
+    none = (float("nan"), float("nan"))
+    if hi <= lo + fwhm:
+        return none
+    r0 = int(np.ceil(arc_radius + fwhm)) + 2  # the arc too: its light is compared below
     ny, nx = residual.shape
     y0, y1 = max(0, int(cy) - r0), min(ny, int(cy) + r0 + 1)
     x0, x1 = max(0, int(cx) - r0), min(nx, int(cx) + r0 + 1)
@@ -62,7 +98,7 @@ def find_counter_image(residual: np.ndarray, cx: float, cy: float, arc_radius_pi
     idx = np.digitize(rr, edges) - 1
     n_bins = len(edges) - 1
     if n_bins < 2:
-        return float("nan")
+        return none
 
     def profile(sel):
         k = idx[sel]
@@ -81,15 +117,19 @@ def find_counter_image(residual: np.ndarray, cx: float, cy: float, arc_radius_pi
         snr = np.where((fn >= 3) & (sn >= 3), diff / err, -np.inf)
     k = int(np.argmax(snr))
     if not np.isfinite(snr[k]) or snr[k] < COUNTER_MIN_SNR:
-        return float("nan")
+        return none
     inner = float(edges[k + 1])  # the middle of the two bins summed
     # The counter-image is the fainter one (|mu-| < mu+ for an isothermal sphere; common practice): its light in the
     # far wedge within a FWHM of its radius, less the sides', must be below the arc's in its own wedge.
     sides = np.isfinite(cut) & (np.abs(off - np.pi / 2) <= half)
     arc = np.isfinite(cut) & (off <= half)
-    if _excess(cut, rr, far, sides, inner, fwhm) >= _excess(cut, rr, arc, sides, float(arc_radius_pix), fwhm):
-        return float("nan")
-    return inner
+    arc_light = _excess(cut, rr, arc, sides, arc_radius, fwhm)
+    if _excess(cut, rr, far, sides, inner, fwhm) >= arc_light:
+        return none
+    if not arc_light > 0:
+        return inner, float("nan")
+    # its light over the arc's, the far wedge not cut at the searched radii
+    return inner, _excess(cut, rr, np.isfinite(cut) & (off >= np.pi - half), sides, inner, fwhm) / arc_light
 
 
 def _excess(cut, rr, wedge, side, radius, fwhm) -> float:
@@ -101,4 +141,4 @@ def _excess(cut, rr, wedge, side, radius, fwhm) -> float:
     return float(np.sum(cut[w]) - w.sum() * np.mean(cut[s]))
 
 
-__all__ = ["COUNTER_MAX_SHARE", "COUNTER_MIN_FWHM", "COUNTER_MIN_SNR", "WEDGE_HALF_DEG", "find_counter_image"]
+__all__ = ["COUNTER_FAR_SHARE", "COUNTER_FLUX_BAND_LOW", "COUNTER_MAX_SHARE", "COUNTER_MIN_FWHM", "COUNTER_MIN_SNR", "WEDGE_HALF_DEG", "find_counter_image"]
