@@ -29,6 +29,10 @@ INSIDE_MIN_FWHM = 2.0
 INSIDE_RING_COVERAGE = 0.5
 #: Smallest inward move, in seeing FWHM, from the first answer of a ring found a FWHM inside the companion.
 INWARD_MIN_FWHM = 0.5
+#: Least distance, in seeing FWHM, past the companion of the ring found once it is subtracted, when the first search took
+#: the companion's blob for arcs (h33c, stress tuning seeds 1035151 and 1035200: arcs at 0.92 and 0.85 theta_E on the
+#: blob, rings at 1.00 found 1.0 FWHM past it but under a FWHM past those arcs).
+TAKEN_PAST_FWHM = 0.75
 #: Largest distance, in seeing FWHM, of a blob outside the first answer that is fitted as a neighbour pulling it out.
 NEAR_OUTSIDE_FWHM = 3.0
 
@@ -89,6 +93,10 @@ def companion_pass(img, light, first, rmin, rmax, n_sectors, should_stop, ring_s
     # the companion's distance carries little ring light once it is subtracted (a knot of the ring does).
     past = overlapping and (max(comp.distance_pix, first.radius_pix if first.found else 0.0) + refit.psf_fwhm_pix
                             <= again.radius_pix)
+    # When those first arcs were the blob itself, their radius mixes the blob's and the ring's: the ring need only lie
+    # outward of them and TAKEN_PAST_FWHM seeing widths past the companion (h33c).
+    past = past or (overlapping and blob_taken and again.radius_pix > first.radius_pix
+                    and comp.distance_pix + TAKEN_PAST_FWHM * refit.psf_fwhm_pix <= again.radius_pix)
     # Or the first search took the blob itself for arcs (a neighbour's own light left in the lens's segment, outside
     # the ring): the ring found a FWHM inside both the blob and those arcs, in more directions, is the lens's. (Inside
     # the blob only, h22a's stress tuning seed 655212 lost its ring at 1.02 theta_E: the blob was its own knot.)
