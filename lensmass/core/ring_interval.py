@@ -183,9 +183,12 @@ def interval_draws(center: float, bounds: Sequence[float], n: int = 10000, seed:
 ASYMMETRIC_NOTE = ("; its interval is asymmetric (the calibrated spread of theta_E over a lone or unpaired arc's "
                    "radius), and "
                    "the masses' Monte Carlo draws theta_E from it")
+#: Why a counter-image pair's interval reaches down (:data:`COUNTER_PAIR_LOW_SHARES`), in the words the pair's note and
+#: its warning (:func:`lensmass.core.ring_shapes._counter_pair`) both use.
+PAIR_REASON = ("if the faint feature inside is not the arc's counter-image, the arc alone puts theta_E between half its "
+               "radius and its radius")
 #: ... for an arc-and-counter-image pair, whose lower sides reach :data:`COUNTER_PAIR_LOW_SHARES` of the arc's radius.
-PAIR_NOTE = ("; its interval reaches down to about half the arc's radius (if the faint feature inside is not the arc's "
-             "counter-image, the arc alone puts theta_E between half its radius and its radius: isothermal sphere), "
+PAIR_NOTE = (f"; its interval reaches down to about half the arc's radius ({PAIR_REASON}: isothermal sphere), "
              "and the masses' Monte Carlo draws theta_E from it")
 #: ... and when its 2-sigma sides carry a tail term (``interval_tail_pix``: :data:`RING_TAIL_SHARE` of the radius on a
 #: FITS image, :data:`lensmass.core.ring_pictures.PICTURE_TAIL_SHARE` on an 8-bit picture).
@@ -280,6 +283,6 @@ def interval_text(center: float, bounds: Sequence[float], unit: str, decimals: i
             f"2 sigma {f.format(lo2)}-{f.format(hi2)} {unit})")
 
 
-__all__ = ["ASYMMETRIC_NOTE", "BOUND_KEYS", "COUNTER_PAIR_LOW_SHARES", "PAIR_NOTE", "SIGMA_PROBABILITIES", "SIGMA_SCORES", "RING_TAIL_SHARE", "TAIL_NOTE", "bounds_from_pixels",
+__all__ = ["ASYMMETRIC_NOTE", "BOUND_KEYS", "COUNTER_PAIR_LOW_SHARES", "PAIR_NOTE", "PAIR_REASON", "SIGMA_PROBABILITIES", "SIGMA_SCORES", "RING_TAIL_SHARE", "TAIL_NOTE", "bounds_from_pixels",
            "draw_options", "hold_shape", "interval_bounds", "interval_draws", "interval_note", "interval_text", "is_counter_pair", "is_normal",
            "state_interval", "truth_inside"]

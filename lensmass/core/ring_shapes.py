@@ -16,7 +16,7 @@ from lensmass.core.elliptical_annuli import (ROUND_LIGHT, SIE_RIDGE_AXIS_RATIOS,
 from lensmass.core.image_cross import find_image_cross
 from lensmass.core.lone_arc import lone_arc_theta_e, lone_sigma_ratios, unpaired_sigma_ratios
 from lensmass.core.ring_confidence import CONFIDENT_SCORE, RING_COVERAGE
-from lensmass.core.ring_interval import hold_shape
+from lensmass.core.ring_interval import PAIR_REASON, hold_shape
 from lensmass.core.ring_message import CHECK_BY_EYE, RADIUS, STATED, STATED_BOUNDS, quote, weak_opening
 from lensmass.core.ring_result import RingResult
 from lensmass.core.ring_sectors import BIN_PIX, light_direction, unmasked_sector_share
@@ -210,8 +210,8 @@ def _counter_pair(best: RingResult, direction: float | None = None) -> bool:
                                f"side of the lens: theta_E = their mean, {STATED} pixels.")
     best.warnings.append("An arc and a fainter counter-image inside it on the far side of the lens: the Einstein radius "
                          "is their mean radius (exact for an isothermal sphere); a lens-model fit of the two is better. "
-                         "If the faint feature is not the arc's counter-image, the arc alone puts theta_E between half "
-                         "its radius and its radius, so the interval reaches down to about half the arc's radius.")
+                         f"{PAIR_REASON[0].upper()}{PAIR_REASON[1:]}, so the interval reaches down to about half the "
+                         "arc's radius.")
     return True
 
 
